@@ -1,0 +1,5 @@
+import sys
+
+from masterqc.cli import main
+
+sys.exit(main())

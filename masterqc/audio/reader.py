@@ -1,0 +1,193 @@
+"""Streaming audio reader on python-soundfile.
+
+:func:`open_stream` opens a master and returns an :class:`AudioStream` whose
+:meth:`AudioStream.blocks` yields float64 arrays of shape (frames, channels) in
+file order.  Memory stays flat: only one block is held at a time.
+
+Integer PCM is scaled by libsndfile to [-1, 1) exactly (code / 2**(bits-1)), so
+the integer code of every sample can be recovered by multiplication; float
+files pass through unscaled, so values above full scale and non-finite values
+are seen as they are.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+
+import numpy as np
+import soundfile as sf
+
+from masterqc.audio import layout as _layout
+from masterqc.audio.container import ContainerInfo, walk
+from masterqc.errors import AudioReadError
+
+#: libsndfile major format -> masterqc container name
+CONTAINERS = {
+    "WAV": "wav", "WAVEX": "wav", "RF64": "rf64", "W64": "w64",
+    "AIFF": "aiff", "FLAC": "flac", "CAF": "caf",
+}
+#: libsndfile subtype -> (masterqc encoding name, bit depth, is_float)
+ENCODINGS = {
+    "PCM_S8": ("pcm_8", 8, False), "PCM_U8": ("pcm_8", 8, False),
+    "PCM_16": ("pcm_16", 16, False), "PCM_24": ("pcm_24", 24, False),
+    "PCM_32": ("pcm_32", 32, False), "FLOAT": ("float_32", 32, True),
+    "DOUBLE": ("float_64", 64, True),
+}
+
+DEFAULT_BLOCK_FRAMES = 65536
+
+
+@dataclass(frozen=True)
+class StreamInfo:
+    """Facts about an opened stream that every analyzer is built from.
+
+    ``channel_layout`` holds one label per channel; ``layout_source`` says where it
+    came from: "channel_mask" (WAVE_FORMAT_EXTENSIBLE), "conventional" (the usual
+    order for the channel count), "override" (given by the user or the spec) or
+    "unknown" (labels ``ch1..chN``, every channel weighted 1.0).
+    ``channel_weights`` are the BS.1770 weights G for each channel.
+    """
+
+    path: str
+    container: str
+    encoding: str
+    sample_rate_hz: int
+    bit_depth: int
+    is_float: bool
+    channels: int
+    frames: int
+    channel_layout: tuple
+    layout_source: str
+    channel_weights: tuple
+    channel_mask: int | None = None
+
+    @property
+    def duration_s(self) -> float:
+        return self.frames / self.sample_rate_hz
+
+    def format_dict(self) -> dict:
+        """The ``format`` object of the result contract."""
+        return {
+            "container": self.container,
+            "encoding": self.encoding,
+            "sample_rate_hz": self.sample_rate_hz,
+            "bit_depth": self.bit_depth,
+            "channels": self.channels,
+            "channel_layout": list(self.channel_layout),
+            "channel_layout_source": self.layout_source,
+            "channel_weights": list(self.channel_weights),
+            "channel_mask": self.channel_mask,
+            "frames": self.frames,
+            "duration_s": self.duration_s,
+        }
+
+
+def _resolve_layout(channels: int, mask: int | None, override) -> tuple[list[str], str]:
+    if override:
+        labels = list(override)
+        if len(labels) != channels:
+            raise ValueError(f"channel layout {','.join(labels)} names {len(labels)} channels, "
+                             f"the file has {channels}")
+        return labels, "override"
+    if mask:
+        labels = _layout.labels_from_mask(mask, channels)
+        if labels is not None:
+            return labels, "channel_mask"
+    if channels in _layout.CONVENTIONAL:
+        return list(_layout.CONVENTIONAL[channels]), "conventional"
+    return _layout.unknown_labels(channels), "unknown"
+
+
+class AudioStream:
+    """An opened master: ``info`` (:class:`StreamInfo`), ``container`` (:class:`ContainerInfo`), ``blocks()``."""
+
+    def __init__(self, path, channel_layout=None):
+        self.path = os.fspath(path)
+        if not os.path.exists(self.path):
+            raise AudioReadError(self.path, "no such file")
+        if os.path.isdir(self.path):
+            raise AudioReadError(self.path, "is a directory, not an audio file")
+        try:
+            self._sf = sf.SoundFile(self.path)
+        except sf.LibsndfileError as exc:
+            raise AudioReadError(self.path, f"not a readable audio file ({_clean(exc)})") from None
+        except (RuntimeError, TypeError, ValueError) as exc:
+            raise AudioReadError(self.path, f"not a readable audio file ({exc})") from None
+        try:
+            self.container: ContainerInfo = walk(self.path)
+            container = CONTAINERS.get(self._sf.format)
+            enc = ENCODINGS.get(self._sf.subtype)
+            if container is None:
+                raise AudioReadError(self.path, f"unsupported container {self._sf.format_info}")
+            if enc is None:
+                raise AudioReadError(self.path, f"unsupported encoding {self._sf.subtype_info} "
+                                     "(masterqc reads PCM 8/16/24/32 and float 32/64)")
+            if self._sf.frames <= 0:
+                raise AudioReadError(self.path, "holds no audio frames")
+            if self._sf.channels <= 0:
+                raise AudioReadError(self.path, "declares no channels")
+            if container == "aiff" and self.container.kind == "aifc":
+                container = "aifc"
+            try:
+                labels, source = _resolve_layout(self._sf.channels, self.container.channel_mask, channel_layout)
+            except ValueError as exc:
+                raise AudioReadError(self.path, str(exc)) from None
+            self.info = StreamInfo(
+                path=self.path, container=container, encoding=enc[0],
+                sample_rate_hz=int(self._sf.samplerate), bit_depth=enc[1], is_float=enc[2],
+                channels=int(self._sf.channels), frames=int(self._sf.frames),
+                channel_layout=tuple(labels), layout_source=source,
+                channel_weights=tuple(_layout.bs1770_weight(x) for x in labels),
+                channel_mask=self.container.channel_mask,
+            )
+        except Exception:
+            self._sf.close()
+            raise
+
+    def blocks(self, block_frames: int = DEFAULT_BLOCK_FRAMES):
+        """Yield float64 blocks of shape (n, channels), n <= block_frames, in file order.
+
+        Raises :class:`AudioReadError` naming the frame position when decoding fails.
+        """
+        if block_frames < 1:
+            raise ValueError("block_frames must be >= 1")
+        self._sf.seek(0)
+        done = 0
+        while True:
+            try:
+                block = self._sf.read(block_frames, dtype="float64", always_2d=True)
+            except sf.LibsndfileError as exc:
+                raise AudioReadError(self.path, f"decoding failed after frame {done} ({_clean(exc)})") from None
+            if block.shape[0] == 0:
+                break
+            done += block.shape[0]
+            yield block
+            if block.shape[0] < block_frames:
+                break
+
+    def close(self):
+        self._sf.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+
+
+def _clean(exc) -> str:
+    text = str(exc)
+    if "Error opening" in text and ":" in text:
+        text = text.split(":", 1)[-1]
+    return text.strip().rstrip(".")
+
+
+def open_stream(path, channel_layout=None) -> AudioStream:
+    """Open ``path`` for streaming; ``channel_layout`` optionally overrides the labels.
+
+    Raises :class:`masterqc.errors.AudioReadError` with the file and the cause on
+    a missing file, a non-audio file, a truncated header, zero frames or an
+    unsupported encoding.
+    """
+    return AudioStream(path, channel_layout=channel_layout)

@@ -1,0 +1,28 @@
+"""Options of a measurement run.
+
+Defaults are what ``masterqc measure`` uses without a spec; ``masterqc check``
+derives them from the delivery spec (the spec module owns that mapping).
+Each analyzer reads only the fields it needs.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass(frozen=True)
+class MeasureOptions:
+    #: frames per block read from the file (results never depend on it)
+    block_frames: int = 65536
+    #: override of the channel labels, e.g. ("L", "R", "C", "LFE", "Ls", "Rs")
+    channel_layout: tuple | None = None
+    #: true-peak oversampling factor: 4, 8 or 16 (ITU-R BS.1770-5 Annex 2 asks for at least 4x at 48 kHz)
+    true_peak_oversample: int = 4
+    #: ceiling against which the times of true-peak overs are reported
+    true_peak_ceiling_dbtp: float = -1.0
+    #: target rates whose conversion safety is assessed (issue: sampling integrity)
+    conversion_targets_hz: tuple = ()
+    #: lower edge of the ultrasonic band
+    ultrasonic_from_hz: float = 20000.0
+    #: free-form options for analyzers, keyed by analyzer name
+    extra: dict = field(default_factory=dict)

@@ -1,0 +1,1 @@
+"""Rendering: text tables, HTML and PDF reports from result objects (never re-measuring)."""

@@ -1,0 +1,46 @@
+"""Plain-text rendering of a result for the terminal."""
+
+from __future__ import annotations
+
+
+def _fmt(value, unit="", digits=1):
+    if value is None:
+        return "n/a"
+    if isinstance(value, float):
+        return f"{value:.{digits}f}{(' ' + unit) if unit else ''}"
+    return f"{value}{(' ' + unit) if unit else ''}"
+
+
+# (key, label, unit, digits) shown by ``masterqc measure`` in this order when present
+TABLE_ROWS = [
+    ("integrated_lufs", "Integrated loudness", "LUFS", 1),
+    ("loudness_range_lu", "Loudness range", "LU", 1),
+    ("max_momentary_lufs", "Max momentary loudness", "LUFS", 1),
+    ("max_short_term_lufs", "Max short-term loudness", "LUFS", 1),
+    ("true_peak_dbtp", "True peak", "dBTP", 1),
+    ("sample_peak_dbfs", "Sample peak", "dBFS", 1),
+]
+
+
+def measurement_table(result: dict) -> str:
+    """A readable table of the format and the main measurements."""
+    fmt = result["format"]
+    m = result["measurements"]
+    lines = [
+        f"File          {result['file']['path']}",
+        f"Format        {fmt['container']} {fmt['encoding']}, {fmt['sample_rate_hz']} Hz, "
+        f"{fmt['channels']} ch ({' '.join(fmt['channel_layout'])}"
+        f"{', layout unknown: weights 1.0' if fmt.get('channel_layout_source') == 'unknown' else ''})",
+        f"Duration      {fmt['duration_s']:.3f} s ({fmt['frames']} frames)",
+        "",
+    ]
+    width = max(len(label) for _k, label, _u, _d in TABLE_ROWS)
+    for key, label, unit, digits in TABLE_ROWS:
+        if key in m:
+            lines.append(f"{label:<{width}}  {_fmt(m[key], unit, digits)}")
+    per = m.get("true_peak_dbtp_per_channel")
+    if per:
+        labels = fmt["channel_layout"]
+        lines.append(f"{'True peak per channel':<{width}}  " +
+                     ", ".join(f"{lab} {_fmt(v, '', 1)}" for lab, v in zip(labels, per)) + " dBTP")
+    return "\n".join(lines) + "\n"

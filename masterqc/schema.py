@@ -1,0 +1,76 @@
+"""JSON Schemas of the result object, generated from the code.
+
+The ``measurements`` properties come from every analyzer's
+``measurement_schema``; the spec part of a check result (``spec``, ``findings``,
+``verdict``) is described here once.  :func:`spec_schema` lives in
+:mod:`masterqc.spec`.
+"""
+
+from __future__ import annotations
+
+from masterqc.measure.registry import analyzer_classes
+
+STATUS = ["pass", "warn", "fail", "skipped", "error"]
+VERDICT = ["pass", "warn", "fail", "error"]
+
+FINDING_SCHEMA = {
+    "type": "object",
+    "required": ["check", "status", "message"],
+    "properties": {
+        "check": {"type": "string"},
+        "status": {"enum": STATUS},
+        "severity": {"enum": ["fail", "warn"]},
+        "measured": {},
+        "limit": {"type": ["string", "null"]},
+        "miss": {"type": ["number", "null"]},
+        "unit": {"type": ["string", "null"]},
+        "message": {"type": "string"},
+        "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"},
+                                                "minItems": 2, "maxItems": 2}},
+    },
+}
+
+
+def measurement_properties() -> dict:
+    props = {}
+    for cls in analyzer_classes():
+        props.update(cls.measurement_schema)
+    return props
+
+
+def result_schema() -> dict:
+    """JSON Schema (draft 2020-12) of ``masterqc measure --json`` and of a check result."""
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "title": "masterqc result",
+        "type": "object",
+        "required": ["tool", "file", "format", "metadata", "measurements"],
+        "properties": {
+            "tool": {"type": "object", "required": ["name", "version"],
+                     "properties": {"name": {"const": "masterqc"}, "version": {"type": "string"}}},
+            "file": {"type": "object", "required": ["path", "size_bytes", "sha256"],
+                     "properties": {"path": {"type": "string"}, "size_bytes": {"type": "integer"},
+                                    "sha256": {"type": "string", "pattern": "^[0-9a-f]{64}$"}}},
+            "format": {"type": "object",
+                       "required": ["container", "encoding", "sample_rate_hz", "bit_depth", "channels",
+                                    "channel_layout", "frames", "duration_s"],
+                       "properties": {
+                           "container": {"type": "string"}, "encoding": {"type": "string"},
+                           "sample_rate_hz": {"type": "integer"}, "bit_depth": {"type": "integer"},
+                           "channels": {"type": "integer", "minimum": 1},
+                           "channel_layout": {"type": "array", "items": {"type": "string"}},
+                           "channel_layout_source": {"enum": ["channel_mask", "conventional", "override", "unknown"]},
+                           "frames": {"type": "integer", "minimum": 1},
+                           "duration_s": {"type": "number"}}},
+            "metadata": {"type": "object"},
+            "measurements": {"type": "object", "properties": measurement_properties(),
+                             "required": sorted(measurement_properties())},
+            "series": {"type": "object"},
+            "settings": {"type": "object"},
+            "spec": {"type": "object", "required": ["name", "path", "sha256"],
+                     "properties": {"name": {"type": "string"}, "path": {"type": "string"},
+                                    "sha256": {"type": "string"}}},
+            "findings": {"type": "array", "items": FINDING_SCHEMA},
+            "verdict": {"enum": VERDICT},
+        },
+    }

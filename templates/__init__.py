@@ -1,0 +1,1 @@
+"""Jinja2 templates and CSS for masterqc's reports (shipped as package data)."""
