@@ -1,0 +1,11 @@
+"""Shared fixtures.  Signals are synthesised in the tests; nothing is downloaded."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+
+@pytest.fixture
+def rng():
+    return np.random.default_rng(20261201)
