@@ -24,5 +24,17 @@ class MeasureOptions:
     conversion_targets_hz: tuple = ()
     #: lower edge of the ultrasonic band
     ultrasonic_from_hz: float = 20000.0
+    #: clipping: a run is at least this many consecutive samples at full scale (common practice, no source)
+    clip_min_run_samples: int = 3
+    #: clipping: how far below full scale (dB, >= 0) a sample still counts as clipped
+    clip_threshold_db: float = 0.0
+    #: head/tail near-silence: a frame is silent when every channel's |sample| is at or below this level
+    silence_threshold_dbfs: float = -60.0
+    #: dropouts: shortest mid-file run of digital silence or of a frozen sample value reported
+    dropout_min_s: float = 0.005
+    #: channel relations: the share of time below this phase correlation is reported
+    phase_correlation_threshold: float = 0.0
+    #: channel relations: a pair whose whole-file correlation is at or below this reads as inverted polarity
+    inverted_polarity_correlation: float = -0.5
     #: free-form options for analyzers, keyed by analyzer name
     extra: dict = field(default_factory=dict)
