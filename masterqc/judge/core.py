@@ -1,0 +1,240 @@
+"""Findings and the comparison rule every section judge uses.
+
+A :class:`Finding` is one judged requirement: check id, status
+(``pass | warn | fail | skipped | error``), the measured value as shown, the
+limit as text, the miss, the unit, a message and, where it applies, the time
+ranges (seconds) where the problem lies.
+
+The precision rule (both promises hold by construction)
+--------------------------------------------------------
+A value is judged at the precision it is shown with.  The *judging decimals*
+of a requirement are the unit's display decimals (:func:`masterqc.spec.types.unit_decimals`:
+0.1 for dB, LU and LUFS) or more, when a limit or margin in the spec is written
+with more decimals (a ceiling of -0.95 dBTP is judged at 0.01 dB).
+
+1. The measured value is rounded once to the judging decimals
+   (:func:`quantize`).  A value exactly half-way between two shown values is
+   rounded *towards the nearer limit it could miss* (up for a ceiling, down
+   for a floor), so a tie never falls on the passing side.
+2. That rounded value is compared with the limit, and it is the value shown
+   (``measured``; the unrounded value is kept in ``measured_raw``).
+
+So a value shown as -1.0 dBTP never fails a -1.0 dBTP ceiling (-0.96 is shown
+as -1.0 and passes), and a value that fails is always shown beyond the limit
+(-0.94 is shown as -0.9, misses by 0.1 dB): what is printed and what is
+judged are the same number.  The miss is the distance from the shown value to
+the limit, so a failure never shows a miss of 0.0.
+
+Writing a section judge
+-----------------------
+A module ``masterqc/judge/<section>.py`` defines
+``judge(section, result) -> list[Finding]`` (``section`` is the validated
+section model, ``result`` the measure result dict) and is registered with one
+line in :data:`masterqc.judge.JUDGES`.  For each requirement it calls
+:func:`check_limits` (numeric requirements of :mod:`masterqc.spec.types`) or
+:func:`check_allowed` (allowed-values lists); a measured ``None`` gives
+``skipped`` with the reason.  Judges are pure: no I/O, no printing.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from decimal import ROUND_HALF_DOWN, ROUND_HALF_UP, Decimal
+from typing import Any
+
+from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
+
+STATUSES = ("pass", "warn", "fail", "skipped", "error")
+MAX_DECIMALS = 6
+
+
+@dataclass
+class Finding:
+    """One judged requirement (see the module docstring for the fields' rules)."""
+
+    check: str
+    status: str
+    message: str
+    measured: Any = None
+    limit: str | None = None
+    miss: float | None = None
+    unit: str | None = None
+    severity: str | None = None
+    where_s: list = field(default_factory=list)
+    measured_raw: Any = None
+
+    def __post_init__(self):
+        if self.status not in STATUSES:
+            raise ValueError(f"unknown finding status {self.status!r}")
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready dict (the ``findings`` items of the result contract)."""
+        return {"check": self.check, "status": self.status, "severity": self.severity,
+                "measured": self.measured, "measured_raw": self.measured_raw,
+                "limit": self.limit, "miss": self.miss, "unit": self.unit,
+                "message": self.message,
+                "where_s": [[float(a), float(b)] for a, b in self.where_s]}
+
+
+def verdict(findings) -> str:
+    """``error`` if any finding is an error, else ``fail``, else ``warn``, else ``pass``.
+
+    ``skipped`` findings do not change the verdict.
+    """
+    statuses = {f.status if isinstance(f, Finding) else f["status"] for f in findings}
+    for v in ("error", "fail", "warn"):
+        if v in statuses:
+            return v
+    return "pass"
+
+
+# ---------------------------------------------------------------- precision
+
+def _dec(x: float) -> Decimal:
+    return Decimal(repr(float(x)))
+
+
+def decimals_of(x: float | None) -> int:
+    """Decimal places a number is written with (``-0.95`` -> 2, ``-1.0`` -> 1, ``48000.0`` -> 1)."""
+    if x is None:
+        return 0
+    exp = _dec(x).normalize().as_tuple().exponent
+    return min(MAX_DECIMALS, max(0, -int(exp)))
+
+
+def quantize(value: float, decimals: int, ties: str = "up") -> float:
+    """``value`` rounded to ``decimals`` places, from its shortest decimal spelling.
+
+    ``ties="up"`` sends an exact half-way value towards +infinity, ``"down"``
+    towards -infinity (``quantize(-0.95, 1, "up") == -0.9``,
+    ``quantize(-0.95, 1, "down") == -1.0``).
+    """
+    d = _dec(value)
+    step = Decimal(1).scaleb(-decimals)
+    if ties == "up":
+        mode = ROUND_HALF_UP if d >= 0 else ROUND_HALF_DOWN
+    elif ties == "down":
+        mode = ROUND_HALF_DOWN if d >= 0 else ROUND_HALF_UP
+    else:
+        raise ValueError(f"ties must be 'up' or 'down', not {ties!r}")
+    return float(d.quantize(step, rounding=mode))
+
+
+def fmt(value: float | None, decimals: int) -> str:
+    """Fixed-point text of an already rounded value (``-0.0`` shown as ``0.0``)."""
+    if value is None:
+        return "n/a"
+    text = f"{value:.{decimals}f}"
+    if text.startswith("-") and float(text) == 0.0:
+        text = text[1:]
+    return text
+
+
+def judging_decimals(req: Requirement) -> int:
+    """Decimals a requirement is judged at: the unit's, or more if the spec writes more."""
+    lo, hi = req.limits()
+    extra = [decimals_of(x) for x in (lo, hi, req.warn_margin) if x is not None]
+    t = getattr(req, f"target_{req.unit}", None)
+    if t is not None:
+        extra.append(decimals_of(t))
+    return max([unit_decimals(req.unit)] + extra)
+
+
+def limit_text(req: Requirement, decimals: int | None = None) -> str:
+    """The limit as people read it: ``"<= -1.0 dBTP"``, ``"-23.0 LUFS +- 1.0 LU"``, ``"10.000 .. 60.000 s"``."""
+    dec = judging_decimals(req) if decimals is None else decimals
+    u = unit_label(req.unit)
+    sp = " " if u else ""
+    t = getattr(req, f"target_{req.unit}", None)
+    if t is not None:
+        tol = getattr(req, f"tolerance_{difference_unit(req.unit)}")
+        du = unit_label(difference_unit(req.unit))
+        return f"{fmt(t, dec)}{sp}{u} \u00b1 {fmt(tol, dec)}{' ' if du else ''}{du}"
+    lo, hi = req.limits()
+    if lo is not None and hi is not None:
+        return f"{fmt(lo, dec)} .. {fmt(hi, dec)}{sp}{u}"
+    if hi is not None:
+        return f"<= {fmt(hi, dec)}{sp}{u}"
+    return f">= {fmt(lo, dec)}{sp}{u}"
+
+
+# ---------------------------------------------------------------- checks
+
+def skipped(check: str, message: str, limit: str | None = None, unit: str | None = None,
+            severity: str | None = None) -> Finding:
+    """A requirement that could not be judged (the message says why)."""
+    return Finding(check=check, status="skipped", message=message, limit=limit, unit=unit, severity=severity)
+
+
+def error(check: str, message: str) -> Finding:
+    """A requirement whose judgement failed for a reason outside the master's content."""
+    return Finding(check=check, status="error", message=message)
+
+
+def check_limits(check: str, what: str, value: float | None, req: Requirement, *,
+                 where_s=None, missing_reason: str | None = None) -> Finding:
+    """Judge ``value`` (in ``req.unit``) against a ceiling, floor, bounds or target requirement.
+
+    ``what`` names the quantity for the message ("true peak"); ``where_s`` lists
+    ``[start_s, end_s]`` ranges attached when the status is warn or fail.
+    A ``value`` of None gives ``skipped`` with ``missing_reason``.
+    """
+    dec = judging_decimals(req)
+    limit = limit_text(req, dec)
+    u = unit_label(req.unit)
+    du = unit_label(difference_unit(req.unit))
+    sp, dsp = (" " if u else ""), (" " if du else "")
+    if value is None:
+        reason = missing_reason or "the measurement does not exist for this file"
+        return skipped(check, f"{what}: not judged, {reason}", limit=limit, unit=u, severity=req.severity)
+    lo, hi = req.limits()
+    # ties go towards the limit the value is nearer to (the one it could miss)
+    if hi is not None and (lo is None or value >= (lo + hi) / 2.0):
+        ties = "up"
+    else:
+        ties = "down"
+    shown = quantize(value, dec, ties)
+    s = _dec(shown)
+    base = dict(check=check, measured=shown, measured_raw=float(value), limit=limit, unit=u,
+                severity=req.severity)
+    missed_status = "fail" if req.severity == "fail" else "warn"
+    note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
+    where = [list(w) for w in (where_s or [])]
+    if hi is not None and s > _dec(hi):
+        miss = float(s - _dec(hi))
+        return Finding(status=missed_status, miss=miss, where_s=where,
+                       message=f"{what} {fmt(shown, dec)}{sp}{u} is above the limit {fmt(hi, dec)}{sp}{u} "
+                               f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
+    if lo is not None and s < _dec(lo):
+        miss = float(_dec(lo) - s)
+        return Finding(status=missed_status, miss=miss, where_s=where,
+                       message=f"{what} {fmt(shown, dec)}{sp}{u} is below the limit {fmt(lo, dec)}{sp}{u} "
+                               f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
+    m = req.warn_margin
+    if m is not None and m > 0:
+        dm = _dec(m)
+        if hi is not None and s > _dec(hi) - dm:
+            return Finding(status="warn", miss=None, where_s=where,
+                           message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
+                                   f"of the limit {fmt(hi, dec)}{sp}{u}", **base)
+        if lo is not None and s < _dec(lo) + dm:
+            return Finding(status="warn", miss=None, where_s=where,
+                           message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
+                                   f"of the limit {fmt(lo, dec)}{sp}{u}", **base)
+    return Finding(status="pass", miss=None, message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
+
+
+def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
+                  missing_reason: str | None = None) -> Finding:
+    """Judge whether ``value`` is one of ``req.allowed``; ``show`` formats values for the message."""
+    limit = "one of " + ", ".join(show(v) for v in req.allowed)
+    if value is None:
+        return skipped(check, f"{what}: not judged, {missing_reason or 'the value is unknown for this file'}",
+                       limit=limit, severity=req.severity)
+    base = dict(check=check, measured=value, measured_raw=value, limit=limit, severity=req.severity)
+    if req.accepts(value):
+        return Finding(status="pass", message=f"{what} {show(value)} is allowed", **base)
+    status = "fail" if req.severity == "fail" else "warn"
+    note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
+    return Finding(status=status, message=f"{what} {show(value)} is not allowed (allowed: "
+                                          f"{', '.join(show(v) for v in req.allowed)}){note}", **base)

@@ -1,0 +1,33 @@
+"""Judge of the ``loudness:`` section against the loudness measurements."""
+
+from __future__ import annotations
+
+from masterqc.judge.core import Finding, check_limits
+
+_SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
+
+#: spec key -> (check id, what, measurement key, why a None can happen)
+_CHECKS = [
+    ("integrated", "loudness.integrated", "integrated loudness", "integrated_lufs", _SILENT),
+    ("range", "loudness.range", "loudness range", "loudness_range_lu",
+     "too little gated short-term loudness to compute a range (programme shorter than 3 s or silent)"),
+    ("max_momentary", "loudness.max_momentary", "maximum momentary loudness", "max_momentary_lufs",
+     "the programme is shorter than one 400 ms block or silent"),
+    ("max_short_term", "loudness.max_short_term", "maximum short-term loudness", "max_short_term_lufs",
+     "the programme is shorter than one 3 s window or silent"),
+]
+
+
+def judge(section, result: dict) -> list[Finding]:
+    m = result.get("measurements") or {}
+    out = []
+    for key, check, what, mkey, why in _CHECKS:
+        req = getattr(section, key)
+        if req is None:
+            continue
+        if mkey not in m:
+            out.append(check_limits(check, what, None, req,
+                                    missing_reason=f"the measurement {mkey} is missing from the result"))
+            continue
+        out.append(check_limits(check, what, m[mkey], req, missing_reason=why))
+    return out
