@@ -36,5 +36,7 @@ class MeasureOptions:
     phase_correlation_threshold: float = 0.0
     #: channel relations: a pair whose whole-file correlation is at or below this reads as inverted polarity
     inverted_polarity_correlation: float = -0.5
+    #: true-peak interpolation filter: "kaiser" (masterqc's own) or "annex2" (BS.1770-5 example, 4x)
+    true_peak_filter: str = "kaiser"
     #: free-form options for analyzers, keyed by analyzer name
     extra: dict = field(default_factory=dict)

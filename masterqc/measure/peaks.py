@@ -1,0 +1,197 @@
+"""Sample peak and true peak (ITU-R BS.1770-5, Annex 2).
+
+:class:`SamplePeakAnalyzer` reports the largest ``|x|`` per channel in dBFS.
+:class:`TruePeakAnalyzer` reports the true peak per channel in dBTP from the
+polyphase interpolator of :mod:`masterqc.measure.oversample`, the worst-case
+under-read of the factor used, the time ranges where the true peak exceeds
+``MeasureOptions.true_peak_ceiling_dbtp`` and a display envelope.
+
+A level that cannot exist (the peak of an all-zero channel, -inf dB) is None.
+The reported true peak of a channel is never below its sample peak: the
+interpolator's phase 0 is the sample itself, and the maximum with the sample
+peak is taken in float64 in any case.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from masterqc.measure.base import (INTEGER, NUMBER, NUMBER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST,
+                                   TIME_RANGES, Analyzer, AnalyzerResult)
+from masterqc.measure.oversample import (TruePeakMeter, choose_factor, filter_properties, get_filter,
+                                         worst_underread_db)
+
+#: display envelopes hold at most this many buckets
+ENVELOPE_BUCKETS = 2000
+#: over-ceiling frames closer than this are merged into one time range
+OVER_MERGE_GAP_S = 0.010
+#: at most this many over-ceiling ranges are listed (all are counted)
+OVER_RANGES_MAX = 100
+
+
+def linear_to_db(value: float):
+    """``20*log10(value)``; None for 0 (or below), since -inf cannot exist in JSON."""
+    value = float(value)
+    if not value > 0.0 or not math.isfinite(value):
+        return None
+    return 20.0 * math.log10(value)
+
+
+def bucket_frames_for(frames: int, buckets: int = ENVELOPE_BUCKETS) -> int:
+    """Frames per envelope bucket so that a file of ``frames`` needs at most ``buckets``."""
+    return max(1, -(-int(frames) // buckets))
+
+
+class SamplePeakAnalyzer(Analyzer):
+    """Largest absolute sample value per channel."""
+
+    name = "sample_peak"
+    measurement_schema = {
+        "sample_peak_dbfs": NUMBER_OR_NULL,
+        "sample_peak_dbfs_per_channel": NUMBER_OR_NULL_LIST,
+        "sample_peak_linear_per_channel": NUMBER_LIST,
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.peak = np.zeros(info.channels)
+
+    def process(self, block) -> None:
+        np.maximum(self.peak, np.abs(block).max(axis=0), out=self.peak)
+
+    def finish(self) -> AnalyzerResult:
+        per = [linear_to_db(v) for v in self.peak]
+        return AnalyzerResult(measurements={
+            "sample_peak_dbfs": linear_to_db(self.peak.max()),
+            "sample_peak_dbfs_per_channel": per,
+            "sample_peak_linear_per_channel": [float(v) for v in self.peak],
+        })
+
+
+class TruePeakAnalyzer(Analyzer):
+    """True peak per channel (dBTP), overs against the ceiling, display envelope.
+
+    Options used: ``true_peak_oversample`` (requested factor; the factor used is
+    never below BS.1770-5 Annex 2's minimum for the rate: 4x up to 48 kHz, 2x up
+    to 96 kHz, 1x above), ``true_peak_ceiling_dbtp`` and ``true_peak_filter``
+    ("kaiser", default, or "annex2" for the standard's example filter, 4x).
+    """
+
+    name = "true_peak"
+    measurement_schema = {
+        "true_peak_dbtp": NUMBER_OR_NULL,
+        "true_peak_dbtp_per_channel": NUMBER_OR_NULL_LIST,
+        "true_peak_linear_per_channel": NUMBER_LIST,
+        "true_peak_oversample_factor": INTEGER,
+        "true_peak_underread_max_db": NUMBER,
+        "true_peak_ceiling_dbtp": NUMBER,
+        "true_peak_over_count": INTEGER,
+        "true_peak_over_range_count": INTEGER,
+        "true_peak_over_ranges_s": TIME_RANGES,
+    }
+    series_schema = {
+        "true_peak_envelope_dbtp": NUMBER_OR_NULL_LIST,
+        "true_peak_envelope_time_s": NUMBER_LIST,
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.rate = float(info.sample_rate_hz)
+        self.factor = choose_factor(self.rate, getattr(options, "true_peak_oversample", 4))
+        self.design = getattr(options, "true_peak_filter", "kaiser")
+        if self.design == "annex2" and self.factor != 4:
+            self.design = "kaiser"
+        self.ceiling_dbtp = float(options.true_peak_ceiling_dbtp)
+        self.ceiling_linear = 10.0 ** (self.ceiling_dbtp / 20.0)
+        self.bucket_frames = bucket_frames_for(max(info.frames, 1))
+        self.envelope = np.zeros(-(-max(info.frames, 1) // self.bucket_frames))
+        self.over_count = 0
+        self.ranges: list[list[int]] = []     # [first_frame, last_frame] of closed ranges (capped)
+        self.range_count = 0                  # all closed ranges
+        self.open_range: list[int] | None = None
+        self.merge_gap = max(1, int(round(OVER_MERGE_GAP_S * self.rate)))
+        self.meter = TruePeakMeter(self.rate, info.channels, self.factor, self.design,
+                                   on_frames=self._frames)
+
+    # -- per-frame bookkeeping -------------------------------------------------
+    def _frames(self, start: int, frame_peak, sample_abs) -> None:
+        fp = sample_abs if frame_peak is None else frame_peak
+        m = fp.shape[0]
+        bf = self.bucket_frames
+        last = self.envelope.shape[0] - 1
+        b0, b1 = start // bf, (start + m - 1) // bf
+        if b0 > last:
+            b0 = b1 = last
+            cuts = np.array([0])
+        else:
+            b1 = min(b1, last)
+            cuts = np.maximum(np.arange(b0, b1 + 1) * bf - start, 0)
+        vals = np.maximum.reduceat(fp, cuts)
+        np.maximum(self.envelope[b0:b1 + 1], vals, out=self.envelope[b0:b1 + 1])
+        over = np.flatnonzero(fp > self.ceiling_linear)
+        if over.size:
+            self._add_overs(over + start)
+
+    def _add_overs(self, idx: np.ndarray) -> None:
+        self.over_count += int(idx.size)
+        breaks = np.flatnonzero(np.diff(idx) > self.merge_gap)
+        starts = np.concatenate([[idx[0]], idx[breaks + 1]])
+        ends = np.concatenate([idx[breaks], [idx[-1]]])
+        for s, e in zip(starts.tolist(), ends.tolist()):
+            if self.open_range is not None and s - self.open_range[1] <= self.merge_gap:
+                self.open_range[1] = e
+                continue
+            self._close_range()
+            self.open_range = [s, e]
+
+    def _close_range(self) -> None:
+        if self.open_range is None:
+            return
+        self.range_count += 1
+        if len(self.ranges) < OVER_RANGES_MAX:
+            self.ranges.append(self.open_range)
+        self.open_range = None
+
+    # -- analyzer interface ----------------------------------------------------
+    def process(self, block) -> None:
+        self.meter.process(block)
+
+    def finish(self) -> AnalyzerResult:
+        self.meter.flush()
+        self._close_range()
+        peak = self.meter.peak_linear
+        rate = self.rate
+        flt = get_filter(self.factor, self.design)
+        underread = worst_underread_db(self.factor, self.design)
+        times = (np.arange(self.envelope.shape[0]) * self.bucket_frames) / rate
+        measurements = {
+            "true_peak_dbtp": linear_to_db(peak.max()) if peak.size else None,
+            "true_peak_dbtp_per_channel": [linear_to_db(v) for v in peak],
+            "true_peak_linear_per_channel": [float(v) for v in peak],
+            "true_peak_oversample_factor": int(self.factor),
+            "true_peak_underread_max_db": round(underread, 4),
+            "true_peak_ceiling_dbtp": self.ceiling_dbtp,
+            "true_peak_over_count": int(self.over_count),
+            "true_peak_over_range_count": int(self.range_count),
+            "true_peak_over_ranges_s": [[s / rate, (e + 1) / rate] for s, e in self.ranges],
+        }
+        series = {
+            "true_peak_envelope_dbtp": [linear_to_db(v) for v in self.envelope],
+            "true_peak_envelope_time_s": times.tolist(),
+        }
+        props = filter_properties(flt)
+        settings = dict(flt.settings())
+        settings.update({
+            "oversampled_rate_hz": rate * self.factor,
+            "underread_band": "sines up to 0.45*fs, worst sub-sample position",
+            "passband_ripple_db_to_0_375fs": round(props["passband_ripple_db_to_0_375fs"], 4),
+            "gain_db_at_0_45fs": round(props["gain_db_at_0_45fs"], 4),
+            "over_merge_gap_s": OVER_MERGE_GAP_S,
+            "over_ranges_listed_max": OVER_RANGES_MAX,
+            "envelope_bucket_s": self.bucket_frames / rate,
+            "outside_file": "signal taken as zero before the first and after the last sample; "
+                            "only instants inside the file are evaluated",
+        })
+        return AnalyzerResult(measurements=measurements, series=series, settings=settings)
