@@ -366,8 +366,10 @@ class LoudnessMeter:
         if not self._all_active:
             x = x[:, self._active]
         if self._sos is not None:
-            x, self._zi = sosfilt(self._sos, x, axis=0, zi=self._zi)
-        x = x * x
+            x, self._zi = sosfilt(self._sos, x, axis=0, zi=self._zi)   # a fresh array
+        else:
+            x = x.copy()
+        np.square(x, out=x)   # in place: a new temporary per block costs as much as the filter
         p = x @ self._w if x.shape[1] > 1 else x[:, 0] * self._w[0]
         self.process_power(p)
 
