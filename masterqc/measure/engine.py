@@ -15,6 +15,7 @@ import time
 import numpy as np
 
 from masterqc import __version__
+from masterqc.audio.container import timecode_metadata
 from masterqc.audio.reader import open_stream
 from masterqc.errors import AudioReadError
 from masterqc.jsonutil import jsonable
@@ -90,6 +91,7 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     metadata["container_kind"] = container.kind
     metadata["chunks"] = container.chunks
     metadata["problems"] = container.problems
+    metadata.update(timecode_metadata(container, fmt["sample_rate_hz"], options.timecode_fps))
     result = {
         "tool": {"name": "masterqc", "version": __version__},
         "file": facts,

@@ -38,5 +38,7 @@ class MeasureOptions:
     inverted_polarity_correlation: float = -0.5
     #: true-peak interpolation filter: "kaiser" (masterqc's own) or "annex2" (BS.1770-5 example, 4x)
     true_peak_filter: str = "kaiser"
+    #: timecode rate of the start timecode and of located findings: "23.976", "24", "25", "29.97df", "29.97ndf", "30"
+    timecode_fps: str = "25"
     #: free-form options for analyzers, keyed by analyzer name
     extra: dict = field(default_factory=dict)
