@@ -6,8 +6,155 @@ report, batch); this module only wires arguments to them.
 
 from __future__ import annotations
 
+import json
+import sys
+
 
 def add_parsers(sub) -> None:
     """Add the sub-parsers of check, spec, report, demo and runs."""
-    # (filled in by the spec/check, report and batch work)
-    return None
+    _add_check(sub)
+    _add_spec(sub)
+    _add_demo(sub)
+
+
+# ---------------------------------------------------------------- check
+
+def _add_check(sub) -> None:
+    from masterqc.pipeline import ALL_FORMATS, DEFAULT_FORMATS
+    c = sub.add_parser("check", help="check masters against a delivery spec and write a result per file")
+    c.add_argument("paths", nargs="+", metavar="PATH", help="master files, checked in the order given")
+    c.add_argument("--spec", required=True, help="delivery spec (YAML)")
+    c.add_argument("--out", default=".", help="folder for the results (default: the current folder)")
+    c.add_argument("--format", dest="formats", default=None,
+                   help=f"comma-separated outputs from {','.join(ALL_FORMATS)} "
+                        f"(default: {','.join(DEFAULT_FORMATS)}; json only while reports cannot be rendered)")
+    c.add_argument("--layout", help="channel labels overriding the files', e.g. L,R,C,LFE,Ls,Rs")
+    c.add_argument("--quiet", action="store_true", help="no progress display and no per-file lines")
+    c.set_defaults(func=cmd_check)
+
+
+def cmd_check(args) -> int:
+    from masterqc.cli import EXIT_FAIL, EXIT_PASS, EXIT_UNREADABLE
+    from masterqc.errors import UsageError
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.pipeline import check_file, default_formats, parse_formats, reports_available, unique_stems
+    from masterqc.progress import Progress
+    from masterqc.spec.loader import load_spec
+
+    if args.formats is None:
+        formats = default_formats()
+        if "html" not in formats:
+            sys.stderr.write(f"masterqc: note: HTML/PDF reports unavailable ({reports_available()}); writing JSON only\n")
+    else:
+        try:
+            formats = parse_formats(args.formats)
+        except ValueError as exc:
+            raise UsageError(f"--format: {exc}") from None
+        if any(f in ("html", "pdf") for f in formats):
+            why = reports_available()
+            if why is not None:
+                raise UsageError(f"--format {args.formats}: HTML/PDF reports cannot be rendered here ({why}); "
+                                 "use --format json")
+    loaded = load_spec(args.spec)  # SpecError -> exit 2 (before any file is touched)
+    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
+    base = MeasureOptions(channel_layout=layout)
+    verdicts = []
+    for path, stem in zip(args.paths, unique_stems(args.paths)):
+        progress = Progress(f"checking {path}", enabled=False if args.quiet else None)
+        try:
+            result = check_file(path, loaded, args.out, formats, stem=stem, base_options=base,
+                                progress=progress.update)
+        finally:
+            progress.close()
+        verdicts.append(result["verdict"])
+        if not args.quiet:
+            sys.stdout.write(_summary_line(path, result, args.out) + "\n")
+            sys.stdout.flush()
+    if "error" in verdicts:
+        return EXIT_UNREADABLE
+    if "fail" in verdicts:
+        return EXIT_FAIL
+    return EXIT_PASS
+
+
+def _summary_line(path, result: dict, out_dir: str) -> str:
+    import os
+    counts = {}
+    for f in result["findings"]:
+        counts[f["status"]] = counts.get(f["status"], 0) + 1
+    parts = [f"{n} {s}" for s, n in counts.items() if s != "pass"]
+    detail = f" ({', '.join(parts)})" if parts else ""
+    outs = ", ".join(os.path.join(out_dir, v) for v in result.get("outputs", {}).values())
+    line = f"{result['verdict'].upper():5s} {path}{detail}"
+    if result["verdict"] in ("fail", "error"):
+        first = next(f for f in result["findings"] if f["status"] in ("fail", "error"))
+        line += f": {first['message']}"
+    return line + (f" -> {outs}" if outs else "")
+
+
+# ---------------------------------------------------------------- spec
+
+def _add_spec(sub) -> None:
+    s = sub.add_parser("spec", help="validate delivery specs or print the spec format's JSON Schema")
+    ssub = s.add_subparsers(dest="spec_command", metavar="SPEC_COMMAND", parser_class=sub._parser_class)
+    ssub.required = True
+    v = ssub.add_parser("validate", help="validate spec files (with their extends: bases)")
+    v.add_argument("specs", nargs="+", metavar="SPEC")
+    v.add_argument("--print", dest="print_resolved", action="store_true",
+                   help="print each spec as resolved (bases merged, defaults filled) in JSON")
+    v.set_defaults(func=cmd_spec_validate)
+    sc = ssub.add_parser("schema", help="print the JSON Schema of the delivery-spec format")
+    sc.set_defaults(func=cmd_spec_schema)
+
+
+def cmd_spec_validate(args) -> int:
+    from masterqc.errors import SpecError
+    from masterqc.spec.loader import load_spec
+
+    problems = []
+    for path in args.specs:
+        try:
+            loaded = load_spec(path)
+        except SpecError as exc:
+            problems.extend(exc.problems)
+            continue
+        n = _count_requirements(loaded.spec)
+        bases = f", extends {', '.join(f['path'] for f in loaded.files[1:])}" if len(loaded.files) > 1 else ""
+        sys.stdout.write(f"ok  {path}: {loaded.name!r}, {n} requirement{'s' if n != 1 else ''}{bases}\n")
+        if args.print_resolved:
+            json.dump(loaded.spec.model_dump(mode="json", exclude_none=True), sys.stdout, indent=2)
+            sys.stdout.write("\n")
+    if problems:
+        raise SpecError(problems)
+    return 0
+
+
+def _count_requirements(spec) -> int:
+    from masterqc.spec.types import Allowed, Requirement
+    n = 0
+    for name in type(spec).model_fields:
+        section = getattr(spec, name)
+        if hasattr(section, "model_fields"):
+            n += sum(isinstance(getattr(section, k), (Allowed, Requirement)) for k in type(section).model_fields)
+    return n
+
+
+def cmd_spec_schema(args) -> int:
+    from masterqc.spec import spec_schema
+    json.dump(spec_schema(), sys.stdout, indent=2)
+    sys.stdout.write("\n")
+    return 0
+
+
+# ---------------------------------------------------------------- demo
+
+def _add_demo(sub) -> None:
+    d = sub.add_parser("demo", help="make invented example masters, check them against the demo specs")
+    d.add_argument("--out", default="demo-output", help="folder for the masters and reports (default: demo-output)")
+    d.add_argument("--format", dest="formats", default=None, help="comma-separated outputs (default as for check)")
+    d.set_defaults(func=cmd_demo)
+
+
+def cmd_demo(args) -> int:
+    from masterqc.demo import run_demo
+    return run_demo(args.out, args.formats)

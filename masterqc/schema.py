@@ -19,8 +19,11 @@ FINDING_SCHEMA = {
     "properties": {
         "check": {"type": "string"},
         "status": {"enum": STATUS},
-        "severity": {"enum": ["fail", "warn"]},
+        "severity": {"enum": ["fail", "warn", None]},
         "measured": {},
+        "measured_raw": {},
+        "measured_text": {"type": ["string", "null"]},
+        "decimals": {"type": ["integer", "null"]},
         "limit": {"type": ["string", "null"]},
         "miss": {"type": ["number", "null"]},
         "unit": {"type": ["string", "null"]},
@@ -28,6 +31,18 @@ FINDING_SCHEMA = {
         "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"},
                                                 "minItems": 2, "maxItems": 2}},
     },
+}
+
+
+_NUM = {"type": ["number", "null"]}
+_TEXT = {"type": ["string", "null"]}
+#: normalisation headroom figures (masterqc.judge.normalisation.headroom)
+NORMALISATION_SCHEMA = {
+    "type": "object",
+    "required": ["target_lufs", "ceiling_dbtp", "gain_db", "true_peak_after_gain_dbtp", "limiting_needed_db"],
+    "properties": {"target_lufs": _NUM, "target_source": _TEXT, "ceiling_dbtp": _NUM, "ceiling_source": _TEXT,
+                   "gain_db": _NUM, "true_peak_after_gain_dbtp": _NUM,
+                   "limiting_needed_db": {"type": ["number", "null"], "minimum": 0}, "note": _TEXT},
 }
 
 
@@ -44,11 +59,17 @@ def result_schema() -> dict:
         "$schema": "https://json-schema.org/draft/2020-12/schema",
         "title": "masterqc result",
         "type": "object",
-        "required": ["tool", "file", "format", "metadata", "measurements"],
+        "required": ["tool", "file"],
+        # a check result for a file that could not be read (verdict "error") carries only
+        # tool, file (path, and size/sha256 when readable), spec, findings and verdict
+        "if": {"required": ["verdict"], "properties": {"verdict": {"const": "error"}}},
+        "then": {"required": ["spec", "findings", "verdict"]},
+        "else": {"required": ["format", "metadata", "measurements"],
+                 "properties": {"file": {"required": ["path", "size_bytes", "sha256"]}}},
         "properties": {
             "tool": {"type": "object", "required": ["name", "version"],
                      "properties": {"name": {"const": "masterqc"}, "version": {"type": "string"}}},
-            "file": {"type": "object", "required": ["path", "size_bytes", "sha256"],
+            "file": {"type": "object", "required": ["path"],
                      "properties": {"path": {"type": "string"}, "size_bytes": {"type": "integer"},
                                     "sha256": {"type": "string", "pattern": "^[0-9a-f]{64}$"}}},
             "format": {"type": "object",
@@ -69,7 +90,12 @@ def result_schema() -> dict:
             "settings": {"type": "object"},
             "spec": {"type": "object", "required": ["name", "path", "sha256"],
                      "properties": {"name": {"type": "string"}, "path": {"type": "string"},
-                                    "sha256": {"type": "string"}}},
+                                    "sha256": {"type": "string"},
+                                    "files": {"type": "array", "items": {
+                                        "type": "object", "required": ["path", "sha256"],
+                                        "properties": {"path": {"type": "string"},
+                                                       "sha256": {"type": "string"}}}}}},
+            "normalisation": NORMALISATION_SCHEMA,
             "findings": {"type": "array", "items": FINDING_SCHEMA},
             "verdict": {"enum": VERDICT},
         },

@@ -62,6 +62,10 @@ class Finding:
     severity: str | None = None
     where_s: list = field(default_factory=list)
     measured_raw: Any = None
+    #: decimals the value was judged and is shown at (None for non-numeric checks)
+    decimals: int | None = None
+    #: the measured value exactly as judged, with its unit ("-0.9 dBTP"); show this text
+    measured_text: str | None = None
 
     def __post_init__(self):
         if self.status not in STATUSES:
@@ -71,6 +75,7 @@ class Finding:
         """Plain JSON-ready dict (the ``findings`` items of the result contract)."""
         return {"check": self.check, "status": self.status, "severity": self.severity,
                 "measured": self.measured, "measured_raw": self.measured_raw,
+                "measured_text": self.measured_text, "decimals": self.decimals,
                 "limit": self.limit, "miss": self.miss, "unit": self.unit,
                 "message": self.message,
                 "where_s": [[float(a), float(b)] for a, b in self.where_s]}
@@ -196,7 +201,7 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     shown = quantize(value, dec, ties)
     s = _dec(shown)
     base = dict(check=check, measured=shown, measured_raw=float(value), limit=limit, unit=u,
-                severity=req.severity)
+                severity=req.severity, decimals=dec, measured_text=f"{fmt(shown, dec)}{sp}{u}")
     missed_status = "fail" if req.severity == "fail" else "warn"
     note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
     where = [list(w) for w in (where_s or [])]
@@ -231,7 +236,8 @@ def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
     if value is None:
         return skipped(check, f"{what}: not judged, {missing_reason or 'the value is unknown for this file'}",
                        limit=limit, severity=req.severity)
-    base = dict(check=check, measured=value, measured_raw=value, limit=limit, severity=req.severity)
+    base = dict(check=check, measured=value, measured_raw=value, limit=limit, severity=req.severity,
+                measured_text=show(value))
     if req.accepts(value):
         return Finding(status="pass", message=f"{what} {show(value)} is allowed", **base)
     status = "fail" if req.severity == "fail" else "warn"

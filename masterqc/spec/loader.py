@@ -1,0 +1,425 @@
+"""Loading a delivery spec: safe YAML with positions, ``extends:`` and errors people can act on.
+
+YAML is read with PyYAML's safe loader (no object construction, no tags
+beyond the plain scalars).  While the node tree is turned into plain values,
+the line and column of every key and value are kept, so each validation
+problem names the file, the key path, the line and the column.
+
+``extends:`` names one base spec (or a list, applied in order), relative to
+the file that says it.  The file's own keys override the base's: mappings
+merge key by key, lists and scalars are replaced, and a key set to ``null``
+removes the base's requirement.  A cycle is refused.
+
+Every problem found is raised together as one :class:`masterqc.errors.SpecError`.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import os
+import types
+import typing
+from dataclasses import dataclass, field
+
+import yaml
+from pydantic import BaseModel, ValidationError
+
+from masterqc.errors import SpecError
+from masterqc.spec.model import SPEC_VERSIONS, build_spec, spec_model
+
+# ------------------------------------------------------------------ results
+
+
+@dataclass
+class LoadedSpec:
+    """A validated spec and where it came from."""
+
+    spec: object  #: the validated ``Spec`` model
+    path: str  #: the file named by the user
+    sha256: str  #: SHA-256 of that file's bytes
+    files: list = field(default_factory=list)  #: every file read, ``{"path", "sha256"}``, the named file first
+
+    @property
+    def name(self) -> str:
+        return self.spec.name
+
+    def info(self) -> dict:
+        """The ``spec`` object of a check result."""
+        return {"name": self.spec.name, "path": self.path, "sha256": self.sha256,
+                "files": [dict(f) for f in self.files]}
+
+
+# ------------------------------------------------------------------ YAML with positions
+
+
+class _Positions:
+    """Line/column (1-based) of keys and values, by key path tuple, with the file they are in."""
+
+    def __init__(self):
+        self.key: dict[tuple, tuple] = {}
+        self.value: dict[tuple, tuple] = {}
+
+    def update(self, other: "_Positions"):
+        self.key.update(other.key)
+        self.value.update(other.value)
+
+    def drop(self, path: tuple):
+        n = len(path)
+        for d in (self.key, self.value):
+            for k in [k for k in d if k[:n] == path]:
+                del d[k]
+
+    def find(self, path: tuple, prefer_key: bool = False):
+        """``(file, line, column)`` of ``path`` or of its nearest ancestor."""
+        p = tuple(path)
+        while True:
+            first, second = (self.key, self.value) if prefer_key else (self.value, self.key)
+            if p in first:
+                return first[p]
+            if p in second:
+                return second[p]
+            if not p:
+                return None
+            p = p[:-1]
+
+
+def _mark(file: str, node) -> tuple:
+    return (file, node.start_mark.line + 1, node.start_mark.column + 1)
+
+
+def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: list, depth: int = 0):
+    if depth > 64:
+        problems.append((file, _dotted(path), node.start_mark.line + 1, node.start_mark.column + 1,
+                         "nesting is too deep (more than 64 levels)"))
+        return None
+    pos.value[path] = _mark(file, node)
+    if isinstance(node, yaml.MappingNode):
+        loader.flatten_mapping(node)  # YAML merge keys (<<)
+        out = {}
+        for knode, vnode in node.value:
+            if not isinstance(knode, yaml.ScalarNode):
+                problems.append((file, _dotted(path), knode.start_mark.line + 1, knode.start_mark.column + 1,
+                                 "a key must be a plain word, not a list or mapping"))
+                continue
+            key = loader.construct_object(knode)
+            if not isinstance(key, str):
+                key = str(key) if key is not None else "null"
+            if key in out:
+                problems.append((file, _dotted(path + (key,)), knode.start_mark.line + 1,
+                                 knode.start_mark.column + 1, f"key {key!r} is given twice"))
+                continue
+            pos.key[path + (key,)] = _mark(file, knode)
+            out[key] = _to_plain(loader, vnode, path + (key,), pos, file, problems, depth + 1)
+        return out
+    if isinstance(node, yaml.SequenceNode):
+        return [_to_plain(loader, v, path + (i,), pos, file, problems, depth + 1) for i, v in enumerate(node.value)]
+    return loader.construct_object(node)
+
+
+def parse_yaml(text: str, file: str):
+    """``(data, positions, problems)`` of one YAML document (safe loading only)."""
+    problems: list = []
+    pos = _Positions()
+    loader = yaml.SafeLoader(text)
+    try:
+        try:
+            node = loader.get_single_node()
+        except yaml.MarkedYAMLError as exc:
+            mark = exc.problem_mark or exc.context_mark
+            line, col = (mark.line + 1, mark.column + 1) if mark else (None, None)
+            msg = " ".join(x for x in (exc.context, exc.problem) if x)
+            problems.append((file, "", line, col, f"not valid YAML: {msg}"))
+            return None, pos, problems
+        except yaml.YAMLError as exc:
+            problems.append((file, "", None, None, f"not valid YAML: {exc}"))
+            return None, pos, problems
+        if node is None:
+            problems.append((file, "", 1, 1, "the spec file is empty"))
+            return None, pos, problems
+        try:
+            data = _to_plain(loader, node, (), pos, file, problems)
+        except yaml.MarkedYAMLError as exc:
+            mark = exc.problem_mark or exc.context_mark
+            problems.append((file, "", mark.line + 1 if mark else None, mark.column + 1 if mark else None,
+                             f"not valid YAML: {exc.problem}"))
+            return None, pos, problems
+    finally:
+        loader.dispose()
+    if not isinstance(data, dict):
+        kind = "a list" if isinstance(data, list) else f"the value {data!r}"
+        problems.append((file, "", pos.value[()][1], pos.value[()][2],
+                         f"a spec must be a mapping of keys (spec_version, name, sections), not {kind}"))
+        return None, pos, problems
+    return data, pos, problems
+
+
+# ------------------------------------------------------------------ extends
+
+
+def _read(path: str) -> tuple[str, bytes]:
+    try:
+        with open(path, "rb") as f:
+            raw = f.read()
+    except OSError as exc:
+        raise SpecError([(path, "", None, None, f"cannot read the spec file ({exc.strerror or exc})")]) from None
+    try:
+        return raw.decode("utf-8-sig"), raw
+    except UnicodeDecodeError as exc:
+        raise SpecError([(path, "", None, None,
+                          f"the spec file is not UTF-8 text (byte offset {exc.start})")]) from None
+
+
+def _merge(base: dict, over: dict, bpos: _Positions, opos: _Positions, path: tuple = ()) -> dict:
+    out = dict(base)
+    for k, v in over.items():
+        p = path + (k,)
+        if v is None and k in out:
+            del out[k]
+            bpos.drop(p)
+        elif isinstance(v, dict) and isinstance(out.get(k), dict):
+            out[k] = _merge(out[k], v, bpos, opos, p)
+        else:
+            bpos.drop(p)
+            out[k] = v
+    return out
+
+
+def _load_tree(path: str, stack: tuple, files: list, ext_pos=None):
+    """Read ``path`` and its bases; return (merged data, positions, problems)."""
+    real = os.path.realpath(path)
+    if real in stack:
+        chain = " -> ".join(os.path.basename(p) for p in stack + (real,))
+        file, line, col = ext_pos if ext_pos else (path, None, None)
+        raise SpecError([(file, "extends", line, col, f"extends makes a cycle: {chain}")])
+    text, raw = _read(path)
+    files.append({"path": os.fspath(path), "sha256": hashlib.sha256(raw).hexdigest()})
+    data, pos, problems = parse_yaml(text, os.fspath(path))
+    if data is None:
+        return None, pos, problems
+    version = data.get("spec_version")
+    if "spec_version" in data and version not in SPEC_VERSIONS:
+        f, line, col = pos.value[("spec_version",)]
+        problems.append((f, "spec_version", line, col,
+                         f"spec_version {version!r} is not one this masterqc reads "
+                         f"(supported: {', '.join(map(str, SPEC_VERSIONS))})"))
+        return None, pos, problems
+    ext = data.get("extends")
+    if ext is None:
+        return data, pos, problems
+    if isinstance(ext, str):
+        bases = [(ext, ("extends",))]
+    elif isinstance(ext, list) and all(isinstance(x, str) for x in ext):
+        bases = [(x, ("extends", i)) for i, x in enumerate(ext)]
+    else:
+        f, line, col = pos.value[("extends",)]
+        problems.append((f, "extends", line, col, "extends must be a file name or a list of file names"))
+        return None, pos, problems
+    merged: dict = {}
+    mpos = _Positions()
+    here = os.path.dirname(os.path.abspath(path))
+    for rel, p in bases:
+        where = pos.value[p]
+        bpath = rel if os.path.isabs(rel) else os.path.join(here, rel)
+        if not os.path.isfile(bpath):
+            problems.append((where[0], _dotted(p), where[1], where[2],
+                             f"base spec {rel!r} not found (looked for {bpath})"))
+            continue
+        bdata, bpos, bprob = _load_tree(bpath, stack + (real,), files, where)
+        problems.extend(bprob)
+        if bdata is None:
+            continue
+        bdata.pop("extends", None)
+        bpos.drop(("extends",))
+        merged = _merge(merged, bdata, mpos, bpos)
+        mpos.update(bpos)
+    merged = _merge(merged, data, mpos, pos)
+    mpos.update(pos)
+    # keys set to null in this file to remove a base requirement leave no trace
+    return merged, mpos, problems
+
+
+# ------------------------------------------------------------------ pydantic errors -> problems
+
+
+def _dotted(path) -> str:
+    out = ""
+    for p in path:
+        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
+    return out
+
+
+def _candidates(ann) -> list:
+    """Model classes or list item types an annotation can hold."""
+    origin = typing.get_origin(ann)
+    if origin in (typing.Union, types.UnionType):
+        out = []
+        for a in typing.get_args(ann):
+            out += _candidates(a)
+        return out
+    if origin in (list, tuple):
+        return [("list", a) for a in typing.get_args(ann)]
+    return [ann]
+
+
+def _model_at(path: tuple):
+    """The model class holding the keys at ``path`` (None if not a mapping of a model)."""
+    current = [spec_model()]
+    for p in path:
+        nxt = []
+        for c in current:
+            if isinstance(p, int):
+                if isinstance(c, tuple) and c[0] == "list":
+                    nxt += _candidates(c[1])
+            elif isinstance(c, type) and issubclass(c, BaseModel) and p in c.model_fields:
+                nxt += _candidates(c.model_fields[p].annotation)
+        current = nxt
+    for c in current:
+        if isinstance(c, type) and issubclass(c, BaseModel):
+            return c
+    return None
+
+
+def _stem(key: str) -> str:
+    return key.rsplit("_", 1)[0] if "_" in key else key
+
+
+def _suggest(key: str, valid: list[str]) -> str:
+    if not valid:
+        return ""
+    same_stem = [v for v in valid if _stem(v) == _stem(key) and "_" in key and "_" in v]
+    if same_stem:
+        v = same_stem[0]
+        return f"; wrong unit? here it is written {v!r}"
+    close = difflib.get_close_matches(key, valid, n=1, cutoff=0.5)
+    if close:
+        return f"; did you mean {close[0]!r}?"
+    return f"; valid keys here: {', '.join(sorted(valid))}"
+
+
+def _walk(data, loc) -> tuple[tuple, bool]:
+    """The part of a pydantic ``loc`` that indexes into ``data`` (dropping union tags)."""
+    path, cur = [], data
+    for i, p in enumerate(loc):
+        if isinstance(cur, dict) and isinstance(p, str) and p in cur:
+            path.append(p)
+            cur = cur[p]
+        elif isinstance(cur, list) and isinstance(p, int) and 0 <= p < len(cur):
+            path.append(p)
+            cur = cur[p]
+        elif i == len(loc) - 1 and isinstance(p, str) and isinstance(cur, dict):
+            path.append(p)  # a missing or unknown key at the end
+            return tuple(path), True
+    return tuple(path), False
+
+
+def _describe(value) -> str:
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return f"{str(value).lower()} (a yes/no value)"
+    if isinstance(value, str):
+        return f"the text {value!r}"
+    if isinstance(value, (int, float)):
+        return f"the number {value!r}"
+    if isinstance(value, list):
+        return "a list"
+    if isinstance(value, dict):
+        return "a mapping"
+    return repr(value)
+
+
+def _message(err: dict, path: tuple, data) -> str:
+    t = err["type"]
+    inp = err.get("input")
+    key = path[-1] if path else ""
+    if t == "extra_forbidden":
+        model = _model_at(path[:-1])
+        valid = list(model.model_fields) if model else []
+        return f"unknown key {key!r}{_suggest(str(key), valid)}"
+    if t == "missing":
+        return f"missing required key {key!r}"
+    if t in ("float_type", "float_parsing", "int_type", "int_parsing", "int_from_float"):
+        want = "a whole number" if t.startswith("int") else "a number"
+        msg = f"expected {want}, got {_describe(inp)}"
+        if isinstance(inp, str) and any(c.isalpha() for c in inp):
+            msg += "; write the number alone, the unit is in the key name"
+        elif isinstance(inp, str):
+            msg += "; remove the quotes"
+        return msg
+    if t == "list_type":
+        return f"expected a list (e.g. [a, b]), got {_describe(inp)}"
+    if t in ("model_type", "model_attributes_type", "dict_type"):
+        return f"expected a mapping of keys, got {_describe(inp)}"
+    if t == "string_type":
+        return f"expected text, got {_describe(inp)}"
+    if t == "bool_type":
+        return f"expected true or false, got {_describe(inp)}"
+    if t == "literal_error":
+        return f"{_describe(inp)} is not allowed here; expected {err.get('ctx', {}).get('expected', '')}"
+    if t == "value_error":
+        msg = err["msg"]
+        return msg[len("Value error, "):] if msg.startswith("Value error, ") else msg
+    if t in ("greater_than_equal", "greater_than", "less_than_equal", "less_than"):
+        return f"{_describe(inp)} is out of range: {err['msg'].replace('Input should be', 'must be')}"
+    if t == "too_short":
+        return "the list must not be empty"
+    return err["msg"]
+
+
+def problems_from_validation(exc: ValidationError, data: dict, pos: _Positions, default_file: str) -> list:
+    """Turn a pydantic error into ``(file, key_path, line, column, message)`` problems."""
+    out, seen = [], set()
+    errors = exc.errors(include_url=False)
+    # a union of a model and null reports the model's errors; drop pure union-tag noise
+    for err in errors:
+        path, at_key = _walk(data, err["loc"])
+        msg = _message(err, path, data)
+        where = pos.find(path, prefer_key=(err["type"] in ("extra_forbidden",)))
+        if err["type"] == "missing":
+            where = pos.find(path[:-1], prefer_key=True)
+        file, line, col = where if where else (default_file, None, None)
+        item = (file, _dotted(path), line, col, msg)
+        if (item[1], msg) in seen:
+            continue
+        seen.add((item[1], msg))
+        out.append(item)
+    out.sort(key=lambda p: (p[0], p[2] if p[2] is not None else 0, p[3] or 0))
+    return out
+
+
+# ------------------------------------------------------------------ entry points
+
+
+def load_spec(path) -> LoadedSpec:
+    """Read, merge and validate the spec at ``path``.
+
+    Raises :class:`masterqc.errors.SpecError` listing every problem with file,
+    key path, line and column.
+    """
+    path = os.fspath(path)
+    files: list = []
+    data, pos, problems = _load_tree(path, (), files)
+    if problems:
+        raise SpecError(problems)
+    try:
+        spec = build_spec(data)
+    except ValidationError as exc:
+        raise SpecError(problems_from_validation(exc, data, pos, path)) from None
+    return LoadedSpec(spec=spec, path=path, sha256=files[0]["sha256"], files=files)
+
+
+def load_spec_text(text: str, name: str = "<spec>") -> LoadedSpec:
+    """Validate a spec given as YAML text (``extends:`` is not allowed here)."""
+    data, pos, problems = parse_yaml(text, name)
+    if not problems and data is not None and "extends" in data:
+        f, line, col = pos.key[("extends",)]
+        problems.append((f, "extends", line, col, "extends needs a spec file (it is resolved relative to it)"))
+    if problems:
+        raise SpecError(problems)
+    try:
+        spec = build_spec(data)
+    except ValidationError as exc:
+        raise SpecError(problems_from_validation(exc, data, pos, name)) from None
+    digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    return LoadedSpec(spec=spec, path=name, sha256=digest, files=[{"path": name, "sha256": digest}])
