@@ -9,4 +9,6 @@ def analyzer_classes():
     # Imports are local so that a broken optional analyzer names itself clearly.
     from masterqc.measure import loudness, peaks
     classes += [loudness.LoudnessAnalyzer, peaks.SamplePeakAnalyzer, peaks.TruePeakAnalyzer]
+    from masterqc.measure import bitdepth, channels, clipping, dcoffset, nonfinite, silence
+    classes += [clipping.ClippingAnalyzer, dcoffset.DcOffsetAnalyzer, silence.SilenceAnalyzer, nonfinite.NonFiniteAnalyzer, bitdepth.BitDepthAnalyzer, channels.ChannelRelationAnalyzer]
     return classes

@@ -1,0 +1,141 @@
+"""Clipping: runs of consecutive samples at the encoding's full-scale code, and overs in float files.
+
+Full scale of integer PCM with ``b`` bits is the most positive code
+``(2**(b-1) - 1) / 2**(b-1)`` and the most negative ``-1.0`` (two's complement,
+as the reader delivers it).  Float files have no code limit; their full scale
+is +-1.0, and samples beyond it are counted as *overs*.
+
+A sample counts as clipped when it lies at or within ``clip_threshold_db`` dB
+below full scale on its side.  A *clipped run* is at least
+``clip_min_run_samples`` consecutive clipped samples of one polarity in one
+channel (default 3: common practice, no source).  Runs are counted per
+channel and located in time (seconds from the file start).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from masterqc.measure.base import (INTEGER, INTEGER_LIST, INTEGER_OR_NULL, TIME_RANGES, Analyzer,
+                                   AnalyzerResult, array_of)
+from masterqc.measure.runs import MAX_EVENTS, RunTracker, merge_ranges
+
+RUN_EVENT = {
+    "type": "object",
+    "required": ["channel", "start_s", "end_s", "samples", "polarity"],
+    "properties": {"channel": {"type": "string"}, "start_s": {"type": "number"},
+                   "end_s": {"type": "number"}, "samples": {"type": "integer"},
+                   "polarity": {"enum": ["positive", "negative"]}},
+}
+
+
+def full_scale_levels(bit_depth: int, is_float: bool) -> tuple[float, float]:
+    """Return ``(positive, negative)`` full-scale sample values of an encoding (linear, full scale = 1.0).
+
+    Integer PCM of ``b`` bits: ``((2**(b-1) - 1) / 2**(b-1), -1.0)``; float: ``(1.0, -1.0)``.
+    """
+    if is_float:
+        return 1.0, -1.0
+    half = float(2 ** (bit_depth - 1))
+    return (half - 1.0) / half, -1.0
+
+
+def clip_levels(bit_depth: int, is_float: bool, threshold_db: float) -> tuple[float, float]:
+    """Return ``(upper, lower)``: a sample >= upper or <= lower counts as clipped.
+
+    ``threshold_db`` (>= 0) is how far below full scale a sample still counts as
+    clipped; 0 means exactly at the full-scale code.  For integer PCM the
+    levels are rounded outwards to the nearest code at or below the distance,
+    so that 0 dB selects exactly the full-scale codes.
+    """
+    if threshold_db < 0:
+        raise ValueError(f"clip threshold {threshold_db} dB: must be >= 0 dB below full scale")
+    pos, neg = full_scale_levels(bit_depth, is_float)
+    factor = 10.0 ** (-threshold_db / 20.0)
+    if is_float:
+        return pos * factor, neg * factor
+    half = float(2 ** (bit_depth - 1))
+    # smallest code at or above pos*factor, largest at or below neg*factor
+    upper = np.ceil(pos * factor * half - 1e-9) / half
+    lower = np.floor(neg * factor * half + 1e-9) / half
+    return float(upper), float(lower)
+
+
+class ClippingAnalyzer(Analyzer):
+    """Clipped runs per channel with their times; overs (samples beyond full scale) in float files."""
+
+    name = "clipping"
+    measurement_schema = {
+        "clipped_runs": INTEGER,
+        "clipped_runs_per_channel": INTEGER_LIST,
+        "clipped_samples_per_channel": INTEGER_LIST,
+        "clipped_run_longest_samples": INTEGER,
+        "clipped_run_where_s": TIME_RANGES,
+        "clipped_run_events": array_of(RUN_EVENT),
+        "over_full_scale_sample_count": INTEGER_OR_NULL,
+        "over_full_scale_samples_per_channel": {"type": ["array", "null"], "items": {"type": "integer"}},
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.min_run = int(options.clip_min_run_samples)
+        self.threshold_db = float(options.clip_threshold_db)
+        self.upper, self.lower = clip_levels(info.bit_depth, info.is_float, self.threshold_db)
+        ch = info.channels
+        self.trackers = [RunTracker(self.min_run) for _ in range(ch)]
+        self.runs = np.zeros(ch, np.int64)
+        self.samples = np.zeros(ch, np.int64)
+        self.longest = 0
+        self.events = []
+        self.overs = np.zeros(ch, np.int64)
+
+    def _collect(self, c, starts, lengths, labels):
+        if starts.size == 0:
+            return
+        self.runs[c] += starts.size
+        self.samples[c] += int(lengths.sum())
+        self.longest = max(self.longest, int(lengths.max()))
+        room = MAX_EVENTS - len(self.events)
+        if room > 0:
+            fs = self.info.sample_rate_hz
+            label = self.info.channel_layout[c]
+            for s, n, lab in zip(starts[:room].tolist(), lengths[:room].tolist(), labels[:room].tolist()):
+                self.events.append({"channel": label, "start_s": s / fs, "end_s": (s + n) / fs,
+                                    "samples": n, "polarity": "positive" if lab > 0 else "negative"})
+
+    def process(self, block):
+        pos = block >= self.upper
+        neg = block <= self.lower
+        if self.info.is_float:
+            over = np.abs(block) > 1.0
+            if over.any():
+                self.overs += np.count_nonzero(over, axis=0)
+        active = pos | neg
+        if not active.any():
+            # nothing clipped in this block: close any carried runs cheaply
+            for c, tr in enumerate(self.trackers):
+                self._collect(c, *tr.skip(block.shape[0]))
+            return
+        labels = pos.astype(np.int8) - neg.astype(np.int8)
+        for c, tr in enumerate(self.trackers):
+            self._collect(c, *tr.feed(labels[:, c], active[:, c]))
+
+    def finish(self):
+        for c, tr in enumerate(self.trackers):
+            self._collect(c, *tr.close())
+        self.events.sort(key=lambda e: (e["start_s"], e["channel"]))
+        where = merge_ranges([(e["start_s"], e["end_s"]) for e in self.events])
+        m = {
+            "clipped_runs": int(self.runs.sum()),
+            "clipped_runs_per_channel": self.runs.tolist(),
+            "clipped_samples_per_channel": self.samples.tolist(),
+            "clipped_run_longest_samples": self.longest,
+            "clipped_run_where_s": where,
+            "clipped_run_events": self.events,
+            "over_full_scale_sample_count": int(self.overs.sum()) if self.info.is_float else None,
+            "over_full_scale_samples_per_channel": self.overs.tolist() if self.info.is_float else None,
+        }
+        settings = {"min_run_samples": self.min_run, "threshold_below_full_scale_db": self.threshold_db,
+                    "upper_level": self.upper, "lower_level": self.lower,
+                    "events_kept": MAX_EVENTS}
+        return AnalyzerResult(measurements=m, settings=settings)

@@ -1,0 +1,81 @@
+"""Non-finite samples (NaN, +Inf, -Inf) in float files.
+
+Integer PCM cannot hold a non-finite value, so its count is 0 by construction.
+This analyzer sees the blocks as read (``raw_input``); every other analyzer
+gets non-finite samples replaced by 0.0 by the engine, so the rest of the
+measurement still completes.  The first positions are kept with their
+channel, frame index and time (seconds from the file start).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from masterqc.measure.base import INTEGER, INTEGER_LIST, TIME_RANGES, Analyzer, AnalyzerResult, array_of
+from masterqc.measure.runs import merge_ranges
+
+#: how many positions are kept for the report (the counts stay exact)
+FIRST_POSITIONS = 20
+
+POSITION = {
+    "type": "object",
+    "required": ["channel", "frame", "time_s", "kind"],
+    "properties": {"channel": {"type": "string"}, "frame": {"type": "integer"},
+                   "time_s": {"type": "number"}, "kind": {"enum": ["nan", "+inf", "-inf"]}},
+}
+
+
+class NonFiniteAnalyzer(Analyzer):
+    """Counts of NaN and infinite samples per channel, with the first positions."""
+
+    name = "nonfinite"
+    raw_input = True
+    measurement_schema = {
+        "nonfinite_sample_count": INTEGER,
+        "nonfinite_samples_per_channel": INTEGER_LIST,
+        "nan_sample_count": INTEGER,
+        "inf_sample_count": INTEGER,
+        "nonfinite_first_positions": array_of(POSITION),
+        "nonfinite_where_s": TIME_RANGES,
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        ch = info.channels
+        self.per_channel = np.zeros(ch, np.int64)
+        self.nan = 0
+        self.inf = 0
+        self.first = []
+        self.pos = 0
+
+    def process(self, block):
+        if self.info.is_float:
+            bad = ~np.isfinite(block)
+            if bad.any():
+                self.per_channel += bad.sum(axis=0)
+                isnan = np.isnan(block)
+                self.nan += int(isnan.sum())
+                self.inf += int(bad.sum()) - int(isnan.sum())
+                room = FIRST_POSITIONS - len(self.first)
+                if room > 0:
+                    frames, chans = np.nonzero(bad)  # row-major: ordered by frame, then channel
+                    fs = self.info.sample_rate_hz
+                    for f, c in zip(frames[:room].tolist(), chans[:room].tolist()):
+                        v = block[f, c]
+                        kind = "nan" if np.isnan(v) else ("+inf" if v > 0 else "-inf")
+                        frame = self.pos + f
+                        self.first.append({"channel": self.info.channel_layout[c], "frame": frame,
+                                           "time_s": frame / fs, "kind": kind})
+        self.pos += block.shape[0]
+
+    def finish(self):
+        fs = self.info.sample_rate_hz
+        m = {
+            "nonfinite_sample_count": int(self.per_channel.sum()),
+            "nonfinite_samples_per_channel": self.per_channel.tolist(),
+            "nan_sample_count": self.nan,
+            "inf_sample_count": self.inf,
+            "nonfinite_first_positions": self.first,
+            "nonfinite_where_s": merge_ranges([(p["time_s"], p["time_s"] + 1.0 / fs) for p in self.first]),
+        }
+        return AnalyzerResult(measurements=m, settings={"positions_kept": FIRST_POSITIONS})

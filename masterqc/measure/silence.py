@@ -1,0 +1,157 @@
+"""Silence at head and tail, and dropouts in the middle of the file.
+
+Head and tail silence: a frame is *near-silent* when every channel's
+``|sample|`` is at or below ``silence_threshold_dbfs`` (a sample-peak
+criterion, full scale = 1.0), and *digitally silent* when every channel is
+exactly zero.  ``head_silence_s`` is the time from the file start to the first
+frame that is not near-silent, ``tail_silence_s`` the time from the end of the
+last such frame to the file end (both equal the duration for a file that is
+near-silent throughout); the ``..._digital_silence_s`` keys do the same for
+exact zeros.
+
+A *dropout* is a run, in one channel, of at least ``dropout_min_s`` of one
+repeated sample value that neither touches the file start nor the file end:
+digital silence (the value 0) or a frozen value.  Runs at the clipping
+levels are clipping, not dropouts, and are left out.  Dropouts are counted per
+channel.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from masterqc.measure.base import (INTEGER, INTEGER_LIST, NUMBER, NUMBER_OR_NULL, TIME_RANGES,
+                                   Analyzer, AnalyzerResult, array_of)
+from masterqc.measure.clipping import clip_levels
+from masterqc.measure.runs import MAX_EVENTS, RunTracker, merge_ranges
+
+DROPOUT_EVENT = {
+    "type": "object",
+    "required": ["channel", "start_s", "end_s", "kind", "value"],
+    "properties": {"channel": {"type": "string"}, "start_s": {"type": "number"},
+                   "end_s": {"type": "number"}, "kind": {"enum": ["silence", "frozen"]},
+                   "value": {"type": "number"}},
+}
+
+
+class SilenceAnalyzer(Analyzer):
+    """Head and tail silence (near and digital) and mid-file dropouts (silence or frozen values)."""
+
+    name = "silence"
+    measurement_schema = {
+        "head_silence_s": NUMBER,
+        "tail_silence_s": NUMBER,
+        "head_digital_silence_s": NUMBER,
+        "tail_digital_silence_s": NUMBER,
+        "dropout_count": INTEGER,
+        "dropout_count_per_channel": INTEGER_LIST,
+        "dropout_longest_s": NUMBER_OR_NULL,
+        "dropout_where_s": TIME_RANGES,
+        "dropout_events": array_of(DROPOUT_EVENT),
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.fs = info.sample_rate_hz
+        self.threshold_dbfs = float(options.silence_threshold_dbfs)
+        self.threshold = 10.0 ** (self.threshold_dbfs / 20.0)
+        self.dropout_min_s = float(options.dropout_min_s)
+        if not self.dropout_min_s > 0:
+            raise ValueError(f"dropout_min_s {self.dropout_min_s}: must be > 0 s")
+        self.min_len = max(2, int(math.ceil(self.dropout_min_s * self.fs - 1e-9)))
+        self.upper, self.lower = clip_levels(info.bit_depth, info.is_float, float(options.clip_threshold_db))
+        self.pos = 0
+        # first/last frame index that is not near-silent / not digitally silent
+        self.first_loud = None
+        self.last_loud = None
+        self.first_nonzero = None
+        self.last_nonzero = None
+        ch = info.channels
+        self.trackers = [RunTracker(self.min_len) for _ in range(ch)]
+        self.prev = np.full(ch, np.nan)  # last sample of the previous block, per channel
+        self.counts = np.zeros(ch, np.int64)
+        self.longest = 0
+        self.events = []
+
+    def _collect(self, c, starts, lengths, values):
+        if starts.size == 0:
+            return
+        keep = (starts > 0) & (values < self.upper) & (values > self.lower)
+        starts, lengths, values = starts[keep], lengths[keep], values[keep]
+        if starts.size == 0:
+            return
+        self.counts[c] += starts.size
+        self.longest = max(self.longest, int(lengths.max()))
+        room = MAX_EVENTS - len(self.events)
+        if room > 0:
+            label = self.info.channel_layout[c]
+            for s, n, v in zip(starts[:room].tolist(), lengths[:room].tolist(), values[:room].tolist()):
+                self.events.append({"channel": label, "start_s": s / self.fs, "end_s": (s + n) / self.fs,
+                                    "kind": "silence" if v == 0.0 else "frozen", "value": v})
+
+    def _extent(self, mask, what):
+        """Update the first/last frame index where ``mask`` (frames, channels) holds in any channel."""
+        cols = np.arange(mask.shape[1])
+        first_c = mask.argmax(axis=0)  # first True per channel (0 when there is none)
+        has = mask[first_c, cols]
+        if not has.any():
+            return
+        n = mask.shape[0]
+        last_c = n - 1 - mask[::-1].argmax(axis=0)
+        first = int(first_c[has].min())
+        last = int(last_c[has].max())
+        if getattr(self, "first_" + what) is None:
+            setattr(self, "first_" + what, self.pos + first)
+        setattr(self, "last_" + what, self.pos + last)
+
+    def process(self, block):
+        n = block.shape[0]
+        mag = np.abs(block)
+        self._extent(mag > self.threshold, "loud")
+        self._extent(mag > 0.0, "nonzero")
+        # frozen runs: sample i belongs to a run when it equals a neighbour (labels = values)
+        eq = np.empty_like(block, dtype=bool)
+        eq[0] = block[0] == self.prev
+        if n > 1:
+            np.equal(block[1:], block[:-1], out=eq[1:])
+        # a sample is active when it equals its predecessor or its successor; runs of equal
+        # values are then joined by the tracker, which compares labels
+        active = eq.copy()
+        active[:-1] |= eq[1:]
+        # the last sample may start a run that continues into the next block
+        active[-1] = True
+        for c, tr in enumerate(self.trackers):
+            self._collect(c, *tr.feed(block[:, c], active[:, c]))
+        self.prev = block[-1].copy()
+        self.pos += n
+
+    def _span(self, first, last):
+        total = self.pos
+        if first is None:
+            return total / self.fs, total / self.fs
+        return first / self.fs, (total - (last + 1)) / self.fs
+
+    def finish(self):
+        # a run still open at the file end touches the tail: tail silence, not a dropout
+        for tr in self.trackers:
+            tr.close()
+        head, tail = self._span(self.first_loud, self.last_loud)
+        dhead, dtail = self._span(self.first_nonzero, self.last_nonzero)
+        self.events.sort(key=lambda e: (e["start_s"], e["channel"]))
+        m = {
+            "head_silence_s": head,
+            "tail_silence_s": tail,
+            "head_digital_silence_s": dhead,
+            "tail_digital_silence_s": dtail,
+            "dropout_count": int(self.counts.sum()),
+            "dropout_count_per_channel": self.counts.tolist(),
+            "dropout_longest_s": self.longest / self.fs if self.counts.sum() else None,
+            "dropout_where_s": merge_ranges([(e["start_s"], e["end_s"]) for e in self.events]),
+            "dropout_events": self.events,
+        }
+        settings = {"silence_threshold_dbfs": self.threshold_dbfs, "silence_criterion": "sample peak, all channels",
+                    "dropout_min_s": self.dropout_min_s, "dropout_min_samples": self.min_len,
+                    "events_kept": MAX_EVENTS}
+        return AnalyzerResult(measurements=m, settings=settings)
