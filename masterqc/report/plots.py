@@ -1,0 +1,410 @@
+"""Report plots: matplotlib figures rendered to SVG text.
+
+Every function takes display series already prepared by
+:mod:`masterqc.report.view` (plain lists of numbers, ``None`` for a value that
+does not exist) and returns one ``<svg>`` element as a string, ready to be
+inlined in the HTML.  Nothing here measures: the series come from the
+analyzers at display resolution; a series longer than :data:`MAX_POINTS` is
+thinned for drawing by keeping each bucket's minimum and maximum, so peaks
+are never drawn lower than measured.
+
+Output is deterministic (fixed hash salt per plot, no date metadata), so the
+same result renders byte-identical HTML.  Text stays text (``svg.fonttype:
+none``), which keeps the files small and searchable.
+
+Palette: the eight colours of Okabe & Ito's colour-blind-safe set; every
+series also differs by line style or shape, so the plots read in greyscale.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import re
+
+import matplotlib
+
+matplotlib.use("Agg", force=False)
+import numpy as np  # noqa: E402
+from matplotlib.backends.backend_svg import FigureCanvasSVG  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+from matplotlib.ticker import FuncFormatter, MaxNLocator  # noqa: E402
+
+#: colour-blind-safe palette (Okabe & Ito 2008)
+BLACK = "#000000"
+ORANGE = "#E69F00"
+SKY = "#56B4E9"
+GREEN = "#009E73"
+YELLOW = "#F0E442"
+BLUE = "#0072B2"
+VERMILION = "#D55E00"
+PURPLE = "#CC79A7"
+GREY = "#6b6b6b"
+LIGHT = "#d9d9d9"
+
+#: colour and dash pattern for channel i (cycled)
+CHANNEL_STYLES = [
+    (BLUE, "-"), (VERMILION, (0, (5, 2))), (GREEN, (0, (1, 1.5))), (PURPLE, (0, (6, 2, 1, 2))),
+    (ORANGE, (0, (3, 1, 1, 1, 1, 1))), (SKY, (0, (8, 3))), (BLACK, (0, (2, 2))), (GREY, "-"),
+]
+
+#: most points drawn per line; longer series are thinned (min and max per bucket kept)
+MAX_POINTS = 3000
+
+FIG_WIDTH_IN = 7.0
+STYLE = {
+    "font.family": "DejaVu Sans",
+    "font.size": 7.5,
+    "axes.titlesize": 8,
+    "axes.labelsize": 7.5,
+    "xtick.labelsize": 7,
+    "ytick.labelsize": 7,
+    "legend.fontsize": 7,
+    "axes.edgecolor": "#444444",
+    "axes.linewidth": 0.6,
+    "axes.grid": True,
+    "grid.color": "#c8c8c8",
+    "grid.linewidth": 0.4,
+    "grid.linestyle": "-",
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "xtick.major.width": 0.5,
+    "ytick.major.width": 0.5,
+    "svg.fonttype": "none",
+    "svg.image_inline": True,
+    "path.simplify": True,
+    "legend.frameon": False,
+}
+
+
+class TimeAxis:
+    """How plot times are labelled.
+
+    ``offset_s``: time of day of the file's first sample (``None`` when the
+    file carries no start time: labels then count from the start of the file).
+    ``fps``: frame rate for timecode labels (``None``: hundredths of a second).
+    """
+
+    def __init__(self, offset_s: float | None = None, fps: float | None = None):
+        self.offset_s = offset_s
+        self.fps = fps
+
+    @property
+    def label(self) -> str:
+        if self.offset_s is None:
+            return "time from start of file (m:ss)"
+        if self.fps:
+            return f"timecode (HH:MM:SS:FF at {self.fps:g} fps)"
+        return "time of day from the file's start time (HH:MM:SS)"
+
+    def tick(self, seconds: float) -> str:
+        if self.offset_s is None:
+            neg = seconds < 0
+            s = int(round(abs(seconds)))
+            h, rem = divmod(s, 3600)
+            m, sec = divmod(rem, 60)
+            text = f"{h}:{m:02d}:{sec:02d}" if h else f"{m}:{sec:02d}"
+            return ("-" if neg else "") + text
+        t = (self.offset_s + seconds) % 86400.0
+        s = int(math.floor(t + 1e-9))
+        h, rem = divmod(s, 3600)
+        m, sec = divmod(rem, 60)
+        text = f"{h:02d}:{m:02d}:{sec:02d}"
+        if self.fps:
+            frames = int(math.floor((t - s) * round(self.fps) + 1e-6))
+            text += f":{frames:02d}"
+        return text
+
+
+def _arr(values) -> np.ndarray:
+    """List with ``None`` -> float array with NaN."""
+    return np.array([np.nan if v is None else float(v) for v in values], dtype=float)
+
+
+def thin(t: np.ndarray, y: np.ndarray, max_points: int = MAX_POINTS) -> tuple[np.ndarray, np.ndarray]:
+    """Thin a series for drawing: per bucket keep the minimum and the maximum, in time order.
+
+    Series already at or below ``max_points`` come back unchanged.
+    """
+    n = len(y)
+    if n <= max_points:
+        return t, y
+    buckets = max_points // 2
+    edges = np.linspace(0, n, buckets + 1).astype(int)
+    tt, yy = [], []
+    for a, b in zip(edges[:-1], edges[1:]):
+        seg = y[a:b]
+        if b <= a:
+            continue
+        if np.all(np.isnan(seg)):
+            tt += [t[a]]
+            yy += [np.nan]
+            continue
+        i_min = a + int(np.nanargmin(seg))
+        i_max = a + int(np.nanargmax(seg))
+        for i in sorted({i_min, i_max}):
+            tt.append(t[i])
+            yy.append(y[i])
+    return np.array(tt), np.array(yy)
+
+
+def _figure(height_in: float) -> Figure:
+    fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=72)
+    FigureCanvasSVG(fig)
+    return fig
+
+
+def _to_svg(fig: Figure, salt: str, title: str) -> str:
+    """Render ``fig`` as one ``<svg>`` element (no XML prolog, no metadata block)."""
+    buf = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": salt}):
+        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None, "Format": None,
+                                                   "Type": None})
+    text = buf.getvalue()
+    text = text[text.index("<svg"):]
+    text = re.sub(r"<metadata>.*?</metadata>\s*", "", text, flags=re.S)
+    # Accessible name, and a class the CSS scales by.
+    text = text.replace("<svg ", f'<svg class="plot" role="img" aria-label="{_attr(title)}" ', 1)
+    return text.strip() + "\n"
+
+
+def _attr(text: str) -> str:
+    return (text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+            .replace('"', "&quot;"))
+
+
+def _time_axis(ax, axis: TimeAxis, duration_s: float) -> None:
+    ax.set_xlim(0.0, max(duration_s, 1e-3))
+    ax.xaxis.set_major_locator(MaxNLocator(nbins=8, steps=[1, 2, 3, 5, 6, 10]))
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _pos: axis.tick(x)))
+    ax.set_xlabel(axis.label)
+
+
+def _spans(ax, ranges, color, hatch=None, alpha=0.35, label=None):
+    first = True
+    for a, b in ranges:
+        width = max(b - a, 0.0)
+        ax.axvspan(a, a + width if width > 0 else a, color=color, alpha=alpha, lw=0.8 if width == 0 else 0,
+                   hatch=hatch, label=label if first else None)
+        if width == 0:
+            ax.axvline(a, color=color, lw=0.8, alpha=0.9)
+        first = False
+
+
+def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=None,
+                  integrated_lufs: float | None = None, target_band=None, target_lufs=None) -> str:
+    """Loudness over time.
+
+    ``momentary``/``short_term``: ``(times_s, values_lufs)`` or None;
+    ``integrated_lufs``: horizontal line; ``target_band``: ``(low_lufs, high_lufs)``
+    of the spec's tolerance, drawn as a hatched band, ``target_lufs`` its centre.
+    """
+    with matplotlib.rc_context(STYLE):
+        fig = _figure(2.5)
+        ax = fig.add_axes((0.075, 0.19, 0.905, 0.66))
+        values = []
+        if target_band is not None:
+            lo, hi = target_band
+            ax.axhspan(lo, hi, facecolor="#f3ecc0", edgecolor=ORANGE, hatch="////", lw=0.0, alpha=0.9,
+                       label=f"target band {_num(lo)} to {_num(hi)}")
+            ax.axhline(lo, color="#9a6b00", lw=0.6, ls=(0, (2, 2)))
+            ax.axhline(hi, color="#9a6b00", lw=0.6, ls=(0, (2, 2)))
+            values += [lo, hi]
+        if momentary is not None:
+            t, y = thin(np.asarray(momentary[0], float), _arr(momentary[1]))
+            ax.plot(t, y, color=SKY, lw=0.55, label="momentary (400 ms)")
+            values += list(y[np.isfinite(y)])
+        if short_term is not None:
+            t, y = thin(np.asarray(short_term[0], float), _arr(short_term[1]))
+            ax.plot(t, y, color=BLUE, lw=1.4, label="short-term (3 s)")
+            values += list(y[np.isfinite(y)])
+        if integrated_lufs is not None:
+            ax.axhline(integrated_lufs, color=BLACK, lw=1.1, ls=(0, (6, 2)),
+                       label=f"integrated {_num(integrated_lufs)} LUFS")
+            values.append(integrated_lufs)
+        if values:
+            top = max(values) + 3.0
+            bottom = max(min(values) - 3.0, top - 60.0)
+            ax.set_ylim(bottom, top)
+        else:
+            ax.set_ylim(-60, 0)
+        ax.yaxis.set_major_locator(MaxNLocator(nbins=7, steps=[1, 2, 5, 10]))
+        ax.set_ylabel("loudness (LUFS)")
+        _time_axis(ax, axis, duration_s)
+        _legend(ax)
+        return _to_svg(fig, "loudness", "Loudness over time")
+
+
+def _legend(ax) -> None:
+    """One row of legend entries above the axes (never clipped at the right edge)."""
+    handles, texts = ax.get_legend_handles_labels()
+    if handles:
+        ax.legend(handles, texts, loc="lower left", bbox_to_anchor=(0.0, 1.01), ncol=min(len(handles), 4),
+                  borderaxespad=0.2, handlelength=2.6, columnspacing=1.6, fontsize=7)
+
+
+def _num(v: float) -> str:
+    return f"{v:.1f}"
+
+
+def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling_dbtp=None,
+                   over_ranges=()) -> str:
+    """True-peak envelope over time with the ceiling and the overs marked.
+
+    ``envelopes``: list of ``(times_s, values_dbtp)``, one per channel (or one
+    for all channels, label ``"all"``); ``over_ranges``: ``[(start_s, end_s)]``.
+    """
+    with matplotlib.rc_context(STYLE):
+        fig = _figure(2.3)
+        ax = fig.add_axes((0.075, 0.2, 0.905, 0.65))
+        values = []
+        for i, ((t, y), label) in enumerate(zip(envelopes, labels)):
+            color, ls = CHANNEL_STYLES[i % len(CHANNEL_STYLES)]
+            t, y = thin(np.asarray(t, float), _arr(y))
+            ax.plot(t, y, color=color, ls=ls, lw=0.9, label=label)
+            values += list(y[np.isfinite(y)])
+        if ceiling_dbtp is not None:
+            ax.axhline(ceiling_dbtp, color=BLACK, lw=1.0, ls=(0, (6, 2)),
+                       label=f"ceiling {_num(ceiling_dbtp)} dBTP")
+            values.append(ceiling_dbtp)
+        top = max(values) + 1.5 if values else 0.0
+        bottom = max(min(values) - 3.0, top - 48.0) if values else -48.0
+        ax.set_ylim(bottom, top)
+        if over_ranges:
+            min_w = max(duration_s, 1e-3) / 800.0
+            for a, b in over_ranges:
+                ax.axvspan(a, max(b, a + min_w), color=VERMILION, alpha=0.45, lw=0)
+            mids = [0.5 * (a + b) for a, b in over_ranges]
+            ax.plot(mids, [top - 0.45] * len(mids), ls="none", marker="v", ms=5.5, color=VERMILION,
+                    markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({len(over_ranges)})")
+        ax.yaxis.set_major_locator(MaxNLocator(nbins=6, steps=[1, 2, 3, 5, 10]))
+        ax.set_ylabel("true peak (dBTP)")
+        _time_axis(ax, axis, duration_s)
+        _legend(ax)
+        return _to_svg(fig, "truepeak", "True peak over time")
+
+
+def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=()) -> str:
+    """Long-term spectrum per channel on a log frequency axis.
+
+    ``lines``: ``[(freq_hz, label)]`` vertical reference lines (20 kHz, the
+    file's Nyquist, each conversion target's Nyquist), drawn with distinct
+    dash patterns and named in the legend.
+    """
+    with matplotlib.rc_context(STYLE):
+        fig = _figure(2.7)
+        ax = fig.add_axes((0.075, 0.17, 0.905, 0.63))
+        f = np.asarray(freqs_hz, float)
+        keep = f > 0
+        values = []
+        for i, (db, label) in enumerate(zip(per_channel_db, labels)):
+            color, ls = CHANNEL_STYLES[i % len(CHANNEL_STYLES)]
+            y = _arr(db)
+            ax.plot(f[keep], y[keep], color=color, ls=ls, lw=0.9, label=label)
+            values += list(y[keep][np.isfinite(y[keep])])
+        ax.set_xscale("log")
+        nyq = sample_rate_hz / 2.0
+        lo = f[keep].min() if keep.any() else 10.0
+        ax.set_xlim(max(lo, 10.0), nyq * 1.04)
+        if values:
+            top = max(values) + 6.0
+            ax.set_ylim(max(min(values) - 3.0, top - 120.0), top)
+        dashes = [(0, (4, 2)), "-", (0, (1, 1.2)), (0, (6, 2, 1, 2)), (0, (3, 3))]
+        for j, (freq, text) in enumerate(lines):
+            ax.axvline(freq, color=BLACK if "Nyquist" in text and "target" not in text else GREY, lw=1.0,
+                       ls=dashes[j % len(dashes)], label=text)
+        ax.set_xlabel("frequency (Hz)")
+        ax.set_ylabel("level (dB)")
+        ax.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
+        _legend(ax)
+        return _to_svg(fig, "spectrum", "Long-term spectrum per channel")
+
+
+def _hz_tick(x, _pos=None) -> str:
+    if x >= 1000:
+        v = x / 1000.0
+        return f"{v:g}k"
+    return f"{x:g}"
+
+
+def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: float,
+                     sample_rate_hz: int, lines=(), floor_db: float | None = None) -> str:
+    """Spectrogram: time across, frequency up (linear, to Nyquist), level as colour.
+
+    ``db_rows``: 2-D list indexed ``[time][frequency]``.  The colour map is
+    cividis (perceptually even, colour-blind safe, monotonic in greyscale).
+    ``lines``: horizontal reference lines ``[(freq_hz, label)]``.
+    """
+    with matplotlib.rc_context(STYLE):
+        fig = _figure(2.6)
+        ax = fig.add_axes((0.075, 0.2, 0.83, 0.74))
+        z = np.array([[np.nan if v is None else float(v) for v in row] for row in db_rows], dtype=float)
+        t = np.asarray(times_s, float)
+        f = np.asarray(freqs_hz, float)
+        finite = z[np.isfinite(z)]
+        vmax = float(finite.max()) if finite.size else 0.0
+        vmin = max(float(finite.min()), vmax - 100.0) if finite.size else vmax - 100.0
+        if floor_db is not None:
+            vmin = max(vmin, floor_db)
+        dt = (t[1] - t[0]) if len(t) > 1 else max(duration_s, 1e-3)
+        df = (f[1] - f[0]) if len(f) > 1 else sample_rate_hz / 2.0
+        extent = (t[0] - dt / 2 if len(t) else 0.0, t[-1] + dt / 2 if len(t) else duration_s,
+                  max(f[0] - df / 2, 0.0) if len(f) else 0.0, f[-1] + df / 2 if len(f) else sample_rate_hz / 2)
+        img = ax.imshow(z.T, origin="lower", aspect="auto", extent=extent, cmap="cividis",
+                        vmin=vmin, vmax=vmax, interpolation="nearest", rasterized=True)
+        for freq, text in lines:
+            ax.axhline(freq, color="white", lw=0.9, ls=(0, (4, 2)))
+            ax.text(extent[0], freq, f" {text} ", va="bottom", ha="left", fontsize=6.3, color=BLACK,
+                    bbox={"boxstyle": "square,pad=0.1", "facecolor": "white", "edgecolor": "none", "alpha": 0.8})
+        ax.set_ylim(0, sample_rate_hz / 2.0)
+        ax.yaxis.set_major_formatter(FuncFormatter(_hz_tick))
+        ax.set_ylabel("frequency (Hz)")
+        ax.grid(False)
+        _time_axis(ax, axis, duration_s)
+        ax.set_xlim(extent[0], extent[1])
+        cax = fig.add_axes((0.92, 0.2, 0.014, 0.74))
+        bar = fig.colorbar(img, cax=cax)
+        bar.set_label("level (dB)", fontsize=6.5)
+        bar.ax.tick_params(labelsize=6)
+        return _to_svg(fig, "spectrogram", "Spectrogram")
+
+
+#: marker row kind -> (colour, hatch)
+MARK_STYLES = {
+    "fail": (VERMILION, "xxxx"),
+    "warn": (ORANGE, "////"),
+    "info": (BLUE, None),
+    "quiet": (GREY, "...."),
+}
+
+
+def markers_plot(duration_s: float, axis: TimeAxis, rows) -> str:
+    """Event timeline: one lane per kind of event (clipping, silence, dropouts, overs ...).
+
+    ``rows``: ``[(label, [(start_s, end_s), ...], kind)]`` with ``kind`` a key of
+    :data:`MARK_STYLES`.  Events too short to see at this scale are drawn at a
+    minimum width and marked with a triangle.
+    """
+    with matplotlib.rc_context(STYLE):
+        n = max(len(rows), 1)
+        fig = _figure(0.55 + 0.28 * n)
+        bottom = 0.42 / (0.55 + 0.28 * n) + 0.12
+        ax = fig.add_axes((0.2, bottom, 0.75, 0.95 - bottom))
+        min_w = max(duration_s, 1e-3) / 600.0
+        for i, (label, ranges, kind) in enumerate(rows):
+            color, hatch = MARK_STYLES.get(kind, MARK_STYLES["info"])
+            y = n - 1 - i
+            bars = [(a, max(b - a, min_w)) for a, b in ranges]
+            if bars:
+                ax.broken_barh(bars, (y - 0.32, 0.64), facecolors=color, edgecolors=BLACK, linewidth=0.3,
+                               hatch=hatch)
+                short = [a + w / 2 for a, w in bars if w <= min_w * 1.01]
+                if short:
+                    ax.plot(short, [y + 0.42] * len(short), ls="none", marker="v", ms=3.5, color=color,
+                            markeredgecolor=BLACK, markeredgewidth=0.3, clip_on=False)
+        ax.set_yticks(range(n))
+        ax.set_yticklabels([r[0] for r in reversed(rows)] if rows else [""])
+        ax.set_ylim(-0.6, n - 0.4)
+        ax.grid(axis="y", visible=False)
+        _time_axis(ax, axis, duration_s)
+        return _to_svg(fig, "markers", "Event timeline")

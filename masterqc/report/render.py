@@ -1,0 +1,198 @@
+"""HTML and PDF reports of one master, from a result object.
+
+:func:`render_html` returns one self-contained HTML document (inline CSS and
+SVG, no scripts, no external references); :func:`render_pdf` prints the same
+document with weasyprint (A4 or Letter, page numbers, file name and verdict on
+every page); :func:`write_reports` writes ``<stem>.html`` / ``<stem>.pdf``
+atomically.  Rendering never measures: every number comes from the result.
+
+Determinism: the same result gives byte-identical HTML (no clock is read;
+plots are rendered with fixed ids).  PDFs carry weasyprint's creation date and
+so differ in their metadata only.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import json
+import os
+import tempfile
+from pathlib import Path
+
+import jinja2
+from markupsafe import Markup
+
+from masterqc.errors import UsageError
+
+#: report formats this module writes (``json`` is written by the caller)
+RENDER_FORMATS = ("html", "pdf")
+#: every format ``masterqc check --format`` accepts, and its default
+ALL_FORMATS = ("html", "pdf", "json")
+DEFAULT_FORMATS = ALL_FORMATS
+PAPERS = ("a4", "letter")
+
+_ENV: jinja2.Environment | None = None
+_CSS: str | None = None
+
+
+def _template_text(name: str) -> str:
+    return importlib.resources.files("masterqc.templates").joinpath(name).read_text(encoding="utf-8")
+
+
+def _env() -> jinja2.Environment:
+    global _ENV, _CSS
+    if _ENV is None:
+        _ENV = jinja2.Environment(
+            loader=jinja2.FunctionLoader(_template_text),
+            autoescape=True,               # every value, whatever the template's name
+            undefined=jinja2.StrictUndefined,
+            trim_blocks=False, lstrip_blocks=False, keep_trailing_newline=True,
+        )
+        css = _template_text("report.css")
+        for ch in "<&>":
+            if ch in css:  # pragma: no cover - guarded by a test
+                raise RuntimeError(f"report.css must not contain {ch!r} (it is embedded in well-formed XML)")
+        _CSS = css
+    return _ENV
+
+
+def parse_formats(text, allowed=ALL_FORMATS) -> tuple[str, ...]:
+    """``"html,pdf"`` -> ``("html", "pdf")``; raises :class:`UsageError` naming an unknown format.
+
+    Order follows ``allowed``; duplicates collapse; an empty list is refused.
+    """
+    if isinstance(text, (list, tuple)):
+        items = [str(x) for x in text]
+    else:
+        items = str(text or "").split(",")
+    wanted = {x.strip().lower() for x in items if x.strip()}
+    unknown = sorted(wanted - set(allowed))
+    if unknown:
+        raise UsageError(f"unknown report format {', '.join(unknown)!s}; use a comma-separated list of "
+                         f"{', '.join(allowed)}")
+    if not wanted:
+        raise UsageError(f"no report format given; use a comma-separated list of {', '.join(allowed)}")
+    return tuple(f for f in allowed if f in wanted)
+
+
+def render_html(result: dict, paper: str = "a4") -> str:
+    """The report of ``result`` as one self-contained HTML document (deterministic).
+
+    ``paper`` ("a4" or "letter") only sets the page size used when printing.
+    """
+    from masterqc.report.view import build_view
+
+    if paper not in PAPERS:
+        raise UsageError(f"unknown paper size {paper!r}; use a4 or letter")
+    view = build_view(result, paper=paper)
+    for key in ("loudness", "true_peak", "spectrum", "spectrogram", "events"):
+        if view[key].get("svg"):
+            view[key]["svg"] = Markup(view[key]["svg"])  # matplotlib output: escaped by matplotlib
+    env = _env()
+    template = env.get_template("report.html.j2")
+    version = str((result.get("tool") or {}).get("version", ""))
+    return template.render(v=view, css=Markup(_CSS), tool_version=version)
+
+
+class ExternalFetchRefused(Exception):
+    """Raised when a document tries to load anything but an inline ``data:`` URL."""
+
+
+def _no_network_fetcher(url: str, *args, **kwargs):
+    """weasyprint URL fetcher that serves ``data:`` URLs only (a report never fetches anything)."""
+    if url.startswith("data:"):
+        import weasyprint
+        return weasyprint.default_url_fetcher(url, *args, **kwargs)
+    raise ExternalFetchRefused(f"report tried to load {url!r}; reports are self-contained")
+
+
+def render_pdf(result: dict, paper: str = "a4", html: str | None = None) -> bytes:
+    """The PDF of the same document (:func:`render_html`) printed by weasyprint."""
+    import weasyprint
+
+    if html is None:
+        html = render_html(result, paper=paper)
+    doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=_no_network_fetcher)
+    return doc.write_pdf()
+
+
+def atomic_write(path: Path, data: bytes) -> None:
+    """Write ``data`` to ``path`` through a temporary file in the same folder and ``os.replace``.
+
+    A reader sees the old file or the whole new one, never a partial one; on any
+    error the temporary file is removed and the error propagates.
+    """
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
+    try:
+        with os.fdopen(fd, "wb") as f:
+            f.write(data)
+            f.flush()
+            os.fsync(f.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, paper: str = "a4") -> list[Path]:
+    """Write ``<stem>.html`` and/or ``<stem>.pdf`` for ``result`` into ``out_dir``; return the paths.
+
+    ``formats`` may include ``"json"`` (ignored here: the caller writes the
+    result itself).  Everything is rendered before anything is written, and
+    each file is written atomically, so a failure leaves no half-written report.
+    """
+    fmts = parse_formats(formats)
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    if not stem or os.sep in stem or (os.altsep and os.altsep in stem):
+        raise UsageError(f"report name {stem!r} must be a plain file name stem")
+    html = render_html(result, paper=paper) if ("html" in fmts or "pdf" in fmts) else None
+    payloads: list[tuple[Path, bytes]] = []
+    if "html" in fmts:
+        payloads.append((out / f"{stem}.html", html.encode("utf-8")))
+    if "pdf" in fmts:
+        payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html)))
+    written = []
+    for path, data in payloads:
+        atomic_write(path, data)
+        written.append(path)
+    return written
+
+
+def load_result(path) -> dict:
+    """Read a saved result JSON for re-rendering; :class:`UsageError` names the file and what is wrong.
+
+    JSON syntax errors give the line and column.  The object must look like a
+    masterqc result (``file``, ``format`` and ``measurements`` objects).
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise UsageError(f"{p}: no such result file") from None
+    except IsADirectoryError:
+        raise UsageError(f"{p}: is a directory, not a result JSON file") from None
+    except UnicodeDecodeError as exc:
+        raise UsageError(f"{p}: not a UTF-8 text file (byte {exc.start}): not a result JSON") from None
+    except OSError as exc:
+        raise UsageError(f"{p}: cannot read ({exc.strerror or exc})") from None
+    try:
+        result = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise UsageError(f"{p}: invalid JSON at line {exc.lineno}, column {exc.colno}: {exc.msg}") from None
+    if not isinstance(result, dict):
+        raise UsageError(f"{p}: not a masterqc result (the top level is a {type(result).__name__}, "
+                         "not an object)")
+    name = (result.get("tool") or {}).get("name") if isinstance(result.get("tool"), dict) else None
+    if name not in (None, "masterqc"):
+        raise UsageError(f"{p}: not a masterqc result (tool.name is {name!r})")
+    for key in ("file", "format", "measurements"):
+        if not isinstance(result.get(key), dict):
+            raise UsageError(f"{p}: not a masterqc result (key {key!r} is missing or not an object)")
+    if not isinstance(result.get("findings", []), list):
+        raise UsageError(f"{p}: key 'findings' must be a list")
+    return result

@@ -1,0 +1,863 @@
+"""The report's view model: everything the templates show, prepared from a result.
+
+:func:`build_view` turns a result object (``measure_file()`` output, plus
+``spec``, ``findings``, ``verdict`` and ``normalisation`` after a check) into a
+plain dict of strings, rows and SVG plots.  The templates only loop and print.
+
+Rules:
+
+* Nothing is measured or judged here.  Numbers are formatted, series are
+  handed to :mod:`masterqc.report.plots` as they arrive.
+* Every section renders from whatever keys are present; a section whose data
+  is absent says "not measured" (with the keys it looked for), never raises.
+* Strings from the file (metadata) are passed as plain text and escaped by the
+  template; control characters are made visible (:func:`fmt.clean_text`).
+* Deterministic: the same result gives the same view (no clock is read).
+"""
+
+from __future__ import annotations
+
+import os
+import re
+
+from masterqc.report import fmt
+from masterqc.report import plots
+
+#: status -> (word shown, shape name used by the template's icon)
+STATUS_WORDS = {
+    "pass": ("PASS", "circle"),
+    "warn": ("WARN", "triangle"),
+    "fail": ("FAIL", "square"),
+    "skipped": ("SKIPPED", "dash"),
+    "error": ("ERROR", "diamond"),
+    "unjudged": ("NOT JUDGED", "ring"),
+}
+
+#: findings are listed worst first
+STATUS_ORDER = {"error": 0, "fail": 1, "warn": 2, "skipped": 3, "pass": 4}
+
+#: how many time ranges a finding lists before "and N more"
+MAX_WHERE = 4
+
+CAUTIONS = [
+    "masterqc is a measurement aid. The receiving party's own delivery spec and QC govern "
+    "acceptance; a PASS here is not an acceptance by anyone.",
+    "Loud test content: masters that fail often hold full-scale peaks, clipping or inter-sample "
+    "overs. Set your monitoring level low before you play the file, and raise it slowly.",
+    "Measurements follow the methods and settings listed under Provenance; another meter set "
+    "differently (true-peak oversampling, gating, spectrum resolution) may read slightly differently.",
+]
+
+
+# ----------------------------------------------------------------- small helpers
+
+def _get(d, *path, default=None):
+    """``d[path[0]][path[1]]...`` or ``default`` when any step is missing or not a dict."""
+    for key in path:
+        if not isinstance(d, dict) or key not in d:
+            return default
+        d = d[key]
+    return d
+
+
+def _first(d: dict, keys, default=None):
+    """Value of the first of ``keys`` present (and not None) in ``d``."""
+    if not isinstance(d, dict):
+        return default
+    for k in keys:
+        if d.get(k) is not None:
+            return d[k]
+    return default
+
+
+def _is_number(v) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def _is_ranges(v) -> bool:
+    return isinstance(v, list) and all(
+        isinstance(r, (list, tuple)) and len(r) == 2 and all(_is_number(x) for x in r) for r in v)
+
+
+def _numbers(v) -> bool:
+    return isinstance(v, list) and len(v) > 0 and all(x is None or _is_number(x) for x in v)
+
+
+def _nested_numbers(v) -> bool:
+    return isinstance(v, list) and len(v) > 0 and all(_numbers(x) for x in v)
+
+
+class TimeLabels:
+    """Times shown as the file's timecode when it has a start time, else as m:ss from its start."""
+
+    def __init__(self, result: dict):
+        self.result = result
+        meta = result.get("metadata") or {}
+        self.rate_hz = int(_get(result, "format", "sample_rate_hz", default=0) or 0)
+        self.start_samples = meta.get("time_reference_samples")
+        self.fps = meta.get("timecode_fps")
+        self.has_start = self.start_samples is not None and self.rate_hz > 0
+        self._tc = None
+        if self.has_start:
+            try:
+                from masterqc.audio import timecode as _tc
+                self._tc = _tc
+                self.fps_name = str(self.fps or _tc.DEFAULT_FPS)
+                _tc.frame_rate(self.fps_name)
+            except (ImportError, ValueError):
+                self._tc = None
+                self.has_start = False
+
+    def at(self, seconds: float) -> str:
+        """One instant: ``"01:00:12:10 (0:12.40)"`` with a start time, else ``"0:12.40"``."""
+        rel = fmt.clock(seconds, 2)
+        if self.has_start and self._tc is not None:
+            return f"{self.timecode(seconds)} ({rel})"
+        return rel
+
+    def timecode(self, seconds: float) -> str:
+        return self._tc.timecode_for(max(seconds, 0.0), self.result, self.fps_name)
+
+    def span(self, a: float, b: float) -> str:
+        """A range ``start–end``; a range shorter than 10 ms is shown as its start only."""
+        if b - a < 0.01:
+            return self.at(a)
+        if self.has_start and self._tc is not None:
+            return f"{self.timecode(a)}\u2013{self.timecode(b)} ({fmt.clock(a, 2)}\u2013{fmt.clock(b, 2)})"
+        return f"{fmt.clock(a, 2)}\u2013{fmt.clock(b, 2)}"
+
+    def axis(self) -> plots.TimeAxis:
+        """The plots' time axis: timecode ticks when the file has a start time."""
+        if self.has_start and self._tc is not None:
+            fr = self._tc.frame_rate(self.fps_name)
+            suffix = " drop-frame" if fr.drop_frame else ""
+            return _TimecodeAxis(self, f"timecode (HH:MM:SS:FF at {fr.name} fps{suffix})")
+        return plots.TimeAxis()
+
+
+class _TimecodeAxis(plots.TimeAxis):
+    """A :class:`plots.TimeAxis` whose ticks are the file's timecode (the reader's timecode rules)."""
+
+    def __init__(self, labels: TimeLabels, label: str):
+        super().__init__(labels.start_samples / labels.rate_hz, None)
+        self._labels = labels
+        self._label_text = label
+
+    @property
+    def label(self) -> str:
+        return self._label_text
+
+    def tick(self, seconds: float) -> str:
+        return self._labels.timecode(seconds)
+
+
+def where_text(ranges, labels: TimeLabels) -> tuple[str, int]:
+    """``(text, count)`` of a finding's ranges, the first :data:`MAX_WHERE` spelled out."""
+    if not _is_ranges(ranges) or not ranges:
+        return "", 0
+    shown = [labels.span(float(a), float(b)) for a, b in ranges[:MAX_WHERE]]
+    more = len(ranges) - len(shown)
+    text = "; ".join(shown) + (f"; and {more} more" if more > 0 else "")
+    return text, len(ranges)
+
+
+# ----------------------------------------------------------------- verdict and findings
+
+def _check_label(check: str) -> str:
+    """``"loudness.integrated"`` -> ``"Loudness · integrated"``."""
+    parts = re.split(r"[./]", str(check))
+    words = [fmt.label_of_key(p) if i == 0 else fmt.label_of_key(p).lower() for i, p in enumerate(parts)]
+    fixed = []
+    for w in words:
+        for low, spelled in (("lufs", "LUFS"), ("dbtp", "dBTP"), ("isrc", "ISRC"), ("bext", "bext"),
+                             ("lra", "LRA"), ("dc", "DC"), ("lfe", "LFE"), ("db", "dB")):
+            w = re.sub(rf"\b{low}\b", spelled, w, flags=re.I)
+        fixed.append(w)
+    return " \u00b7 ".join(fixed)
+
+
+def _measured_text(f: dict) -> str:
+    value = f.get("measured")
+    unit = f.get("unit") or ""
+    if value is None:
+        return "n/a"
+    if _is_number(value) and not isinstance(value, int):
+        try:
+            from masterqc.judge.core import decimals_of
+            dec = max(fmt.UNIT_DECIMALS.get(unit, 1), decimals_of(value))
+        except ImportError:  # pragma: no cover - the judge ships with the package
+            dec = fmt.UNIT_DECIMALS.get(unit, 1)
+        return fmt.with_unit(float(value), unit, dec)
+    if isinstance(value, list):
+        return ", ".join(fmt.clean_text(v) for v in value) or "none"
+    return fmt.with_unit(value, unit) if _is_number(value) else fmt.clean_text(value)
+
+
+def _miss_text(f: dict) -> str:
+    miss = f.get("miss")
+    if not _is_number(miss):
+        return ""
+    unit = f.get("unit") or ""
+    diff_unit = {"LUFS": "LU", "dBTP": "dB", "dBFS": "dB"}.get(unit, unit)
+    try:
+        from masterqc.judge.core import decimals_of
+        dec = max(fmt.UNIT_DECIMALS.get(unit, 1), decimals_of(miss))
+    except ImportError:  # pragma: no cover
+        dec = 1
+    return fmt.with_unit(float(miss), diff_unit, dec)
+
+
+def limit_display(limit) -> str:
+    """A finding's limit text for reading: ``<=`` and ``>=`` as the signs, ``..`` as "to"."""
+    if not limit:
+        return "\u2014"
+    text = fmt.clean_text(limit)
+    return text.replace("<=", "\u2264").replace(">=", "\u2265").replace(" .. ", " to ")
+
+
+def findings_view(result: dict, labels: TimeLabels) -> list[dict]:
+    """Rows of the findings table, worst first (stable within a status)."""
+    rows = []
+    for i, f in enumerate(result.get("findings") or []):
+        if not isinstance(f, dict):
+            continue
+        status = f.get("status") if f.get("status") in STATUS_ORDER else "error"
+        word, shape = STATUS_WORDS[status]
+        where, n_where = where_text(f.get("where_s") or [], labels)
+        rows.append({
+            "order": (STATUS_ORDER[status], i),
+            "status": status, "word": word, "shape": shape,
+            "check": fmt.clean_text(f.get("check", "")),
+            "label": _check_label(f.get("check", "")),
+            "measured": _measured_text(f),
+            "limit": limit_display(f.get("limit")),
+            "miss": _miss_text(f) or "\u2014",
+            "where": where or "\u2014",
+            "where_count": n_where,
+            "message": fmt.clean_text(f.get("message", "")),
+            "severity": f.get("severity") or "",
+        })
+    rows.sort(key=lambda r: r["order"])
+    return rows
+
+
+def verdict_view(result: dict, findings: list[dict]) -> dict:
+    """The first lines: status word, one-line summary, and what to fix."""
+    verdict = result.get("verdict")
+    judged = verdict in ("pass", "warn", "fail", "error")
+    status = verdict if judged else "unjudged"
+    word, shape = STATUS_WORDS[status]
+    counts = {s: sum(1 for f in findings if f["status"] == s) for s in STATUS_ORDER}
+    n = len(findings)
+    spec_name = fmt.clean_text(_get(result, "spec", "name", default="") or "")
+    spec_ref = f"the spec \u201c{spec_name}\u201d" if spec_name else "the spec"
+    if not judged:
+        summary = "Measured only: no delivery spec was applied, so nothing was judged."
+    elif status == "pass":
+        summary = f"Meets {spec_ref}: all {counts['pass']} judged checks passed"
+    elif status == "warn":
+        summary = (f"Meets {spec_ref} with {_plural(counts['warn'], 'warning')}: "
+                   f"{counts['pass']} of {n - counts['skipped']} judged checks passed cleanly")
+    elif status == "fail":
+        summary = (f"Does not meet {spec_ref}: {_plural(counts['fail'], 'check')} failed"
+                   + (f", {_plural(counts['warn'], 'warning')}" if counts["warn"] else ""))
+    else:
+        summary = (f"Could not be fully judged against {spec_ref}: {_plural(counts['error'], 'check')} "
+                   "ended in an error" + (f", {counts['fail']} failed" if counts["fail"] else ""))
+    if judged and counts["skipped"]:
+        summary += f" ({counts['skipped']} skipped: not measurable for this file)"
+    if judged:
+        summary += "."
+    fixes = [f for f in findings if f["status"] in ("error", "fail", "warn")]
+    return {"status": status, "word": word, "shape": shape, "summary": summary,
+            "fixes": fixes[:8], "more_fixes": max(len(fixes) - 8, 0), "counts": counts,
+            "judged": judged}
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}" + ("" if n == 1 else "s")
+
+
+# ----------------------------------------------------------------- format and metadata
+
+def format_rows(result: dict) -> list[tuple[str, str]]:
+    f = result.get("format") or {}
+    file = result.get("file") or {}
+    rows = []
+    if file.get("path"):
+        rows.append(("File", fmt.clean_text(file["path"])))
+    if "size_bytes" in file:
+        rows.append(("Size", fmt.size_bytes(file.get("size_bytes"))))
+    if f.get("container"):
+        rows.append(("Container", fmt.clean_text(f["container"]).upper()
+                     + (f" ({fmt.clean_text(_get(result, 'metadata', 'container_kind'))})"
+                        if _get(result, "metadata", "container_kind") else "")))
+    if f.get("encoding"):
+        enc = fmt.clean_text(f["encoding"])
+        if f.get("bit_depth"):
+            enc += f", {f['bit_depth']}-bit"
+        rows.append(("Encoding", enc))
+    if f.get("sample_rate_hz"):
+        rows.append(("Sample rate", f"{fmt.number(f['sample_rate_hz'])}\u00a0Hz"))
+    if f.get("channels"):
+        layout = " ".join(fmt.clean_text(x) for x in (f.get("channel_layout") or []))
+        src = {"channel_mask": "from the channel mask", "conventional": "conventional order for the count",
+               "override": "set by the user or spec", "unknown": "unknown: every channel weighted 1.0"
+               }.get(f.get("channel_layout_source"), "")
+        text = f"{f['channels']}" + (f" ({layout})" if layout else "") + (f", {src}" if src else "")
+        rows.append(("Channels", text))
+        if f.get("channel_weights"):
+            rows.append(("Loudness weights", ", ".join(
+                f"{lab} {w:g}" for lab, w in zip(f.get("channel_layout") or [], f["channel_weights"]))))
+    if f.get("frames"):
+        dur = f.get("duration_s")
+        rows.append(("Duration", f"{fmt.clock(dur, 3)} ({fmt.number(dur, 3)}\u00a0s, "
+                     f"{fmt.number(f['frames'])} frames)" if _is_number(dur) else fmt.number(f["frames"])))
+    labels = TimeLabels(result)
+    if labels.has_start:
+        rows.append(("Start timecode", f"{labels.timecode(0.0)} ({labels.fps_name} fps)"))
+    return rows
+
+
+_META_SKIP = {"chunks", "problems", "container_kind", "time_reference_samples", "timecode_fps"}
+
+
+def _flatten(prefix: str, value, out: list, depth: int = 0):
+    if isinstance(value, dict) and depth < 3:
+        for k in sorted(value, key=str):
+            _flatten(f"{prefix}.{k}" if prefix else str(k), value[k], out, depth + 1)
+    elif isinstance(value, list) and value and all(isinstance(v, dict) for v in value) and depth < 3:
+        for i, v in enumerate(value[:50]):
+            _flatten(f"{prefix}[{i}]", v, out, depth + 1)
+    else:
+        if isinstance(value, list):
+            text = ", ".join(fmt.clean_text(v) for v in value[:64])
+            if len(value) > 64:
+                text += f" \u2026 ({len(value)} items)"
+        elif value is None:
+            text = "\u2014"
+        else:
+            text = fmt.clean_text(value)
+        if len(text) > 2000:
+            text = text[:2000] + f" \u2026 ({len(text)} characters)"
+        out.append((fmt.clean_text(prefix), text))
+
+
+def metadata_view(result: dict) -> dict:
+    meta = result.get("metadata") or {}
+    rows: list = []
+    for key in sorted(meta, key=str):
+        if key in _META_SKIP:
+            continue
+        _flatten(str(key), meta[key], rows)
+    if meta.get("time_reference_samples") is not None:
+        rows.append(("time_reference_samples", fmt.number(meta["time_reference_samples"])))
+    chunks = [{"id": fmt.clean_text(c.get("id", "")), "offset": fmt.number(c.get("offset")),
+               "size": fmt.number(c.get("size"))} for c in (meta.get("chunks") or []) if isinstance(c, dict)]
+    problems = [{"offset": fmt.number(p.get("offset")) if p.get("offset") is not None else "\u2014",
+                 "message": fmt.clean_text(p.get("message", ""))}
+                for p in (meta.get("problems") or []) if isinstance(p, dict)]
+    return {"rows": rows, "chunks": chunks, "problems": problems}
+
+
+# ----------------------------------------------------------------- series access
+
+_TIME_KEYS = ("time_s", "times_s", "t_s", "start_s_list")
+_HOP_KEYS = ("hop_s", "step_s", "interval_s", "resolution_s")
+
+
+def _stem(name: str) -> str:
+    for unit in ("_lufs", "_dbtp", "_dbfs", "_db"):
+        if name.endswith(unit):
+            return name[: -len(unit)]
+    return name
+
+
+def series_xy(result: dict, name: str, duration_s: float):
+    """``(times_s, values)`` of a display series, or None when absent.
+
+    Accepts the shapes analyzers use: a dict with a time list (``time_s``) or a
+    hop (``hop_s``, optional ``start_s``) and a value list; or a plain list
+    beside ``<stem>_time_s`` / ``<stem>_hop_s`` keys.  ``values`` may be a list
+    of numbers or a list of per-channel lists.  Without any time information the
+    values are spread evenly over the file's duration.
+    """
+    series = result.get("series") or {}
+    raw = series.get(name)
+    if raw is None:
+        raw = (result.get("measurements") or {}).get(name)
+        if not isinstance(raw, (list, dict)):
+            return None
+    times = hop = start = None
+    values = raw
+    if isinstance(raw, dict):
+        times = _first(raw, _TIME_KEYS)
+        hop = _first(raw, _HOP_KEYS)
+        start = _first(raw, ("start_s", "first_s", "offset_s"))
+        values = _first(raw, ("values", "value", "lufs", "dbtp", "db", "levels", "per_channel",
+                              name, _stem(name)))
+        if values is None:
+            n_expected = len(times) if isinstance(times, list) else None
+            for k, v in raw.items():
+                if k in _TIME_KEYS:
+                    continue
+                if (_numbers(v) or _nested_numbers(v)) and (n_expected is None or len(v) == n_expected
+                                                            or (_nested_numbers(v) and len(v[0]) == n_expected)):
+                    values = v
+                    break
+    else:
+        stem = _stem(name)
+        times = _first(series, (f"{stem}_time_s", f"{name}_time_s", f"{stem}_times_s"))
+        hop = _first(series, (f"{stem}_hop_s", f"{name}_hop_s"))
+        start = _first(series, (f"{stem}_start_s",))
+    if not (_numbers(values) or _nested_numbers(values)):
+        return None
+    n = len(values[0]) if _nested_numbers(values) else len(values)
+    if _numbers(times) and len(times) == n:
+        t = [float(x) for x in times]
+    elif _is_number(hop) and hop > 0:
+        s0 = float(start) if _is_number(start) else 0.0
+        t = [s0 + i * float(hop) for i in range(n)]
+    else:
+        t = [duration_s * (i + 0.5) / n for i in range(n)] if n else []
+    return t, values
+
+
+# ----------------------------------------------------------------- plot sections
+
+def _not_measured(keys) -> str:
+    return "Not measured: the result holds no " + ", ".join(f"\u201c{k}\u201d" for k in keys) + "."
+
+
+def _parse_band(limit: str | None):
+    """``(low, high, target)`` from a limit text of :func:`masterqc.judge.core.limit_text`."""
+    if not limit:
+        return None
+    num = r"([+\-\u2212]?\d+(?:\.\d+)?)"
+    text = str(limit).replace("\u2212", "-")
+    m = re.match(rf"^\s*{num}\s*\w*\s*(?:\u00b1|\+-|\+/-)\s*{num}", text)
+    if m:
+        t, tol = float(m.group(1)), float(m.group(2))
+        return (t - tol, t + tol, t)
+    m = re.match(rf"^\s*{num}\s*\.\.\s*{num}", text)
+    if m:
+        lo, hi = float(m.group(1)), float(m.group(2))
+        return (lo, hi, None)
+    m = re.match(rf"^\s*<=\s*{num}", text)
+    if m:
+        return (None, float(m.group(1)), None)
+    m = re.match(rf"^\s*>=\s*{num}", text)
+    if m:
+        return (float(m.group(1)), None, None)
+    return None
+
+
+def _finding_for(result: dict, words) -> dict | None:
+    for f in result.get("findings") or []:
+        check = str(f.get("check", "")).lower() if isinstance(f, dict) else ""
+        if all(w in check for w in words):
+            return f
+    return None
+
+
+def _rows_for(m: dict, keys) -> list[tuple[str, str]]:
+    return [(fmt.label_of_key(k), fmt.value_for_key(k, m[k])) for k in keys if k in m]
+
+
+def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
+    m = result.get("measurements") or {}
+    mom = series_xy(result, "momentary_lufs", duration_s)
+    st = series_xy(result, "short_term_lufs", duration_s)
+    rows = _rows_for(m, ["integrated_lufs", "loudness_range_lu", "max_momentary_lufs",
+                         "max_short_term_lufs", "loudness_range_low_lufs", "loudness_range_high_lufs"])
+    band = None
+    f = _finding_for(result, ["integrated"])
+    note = ""
+    if f is not None:
+        parsed = _parse_band(f.get("limit"))
+        if parsed and parsed[0] is not None and parsed[1] is not None:
+            band = (parsed[0], parsed[1])
+    if mom is None and st is None:
+        return {"svg": None, "rows": rows, "note": _not_measured(["momentary_lufs", "short_term_lufs"])
+                if not rows else "Loudness over time not measured (no momentary or short-term series).",
+                "present": bool(rows)}
+    if band:
+        note = (f"Hatched band: the spec's integrated-loudness range {fmt.number(band[0], 1)} to "
+                f"{fmt.number(band[1], 1)} LUFS.")
+    svg = plots.loudness_plot(duration_s, labels.axis(), momentary=mom, short_term=st,
+                              integrated_lufs=m.get("integrated_lufs") if _is_number(m.get("integrated_lufs"))
+                              else None, target_band=band)
+    return {"svg": svg, "rows": rows, "note": note, "present": True}
+
+
+def _ceiling(result: dict):
+    f = _finding_for(result, ["true_peak"]) or _finding_for(result, ["true", "peak"])
+    if f is not None:
+        parsed = _parse_band(f.get("limit"))
+        if parsed and parsed[1] is not None:
+            return parsed[1], "spec"
+    settings = result.get("settings") or {}
+    for block in settings.values():
+        if isinstance(block, dict):
+            v = _first(block, ("ceiling_dbtp", "true_peak_ceiling_dbtp", "over_ceiling_dbtp"))
+            if _is_number(v):
+                return float(v), "settings"
+    return None, None
+
+
+def _ranges_of(value) -> list:
+    """Time ranges from ``[[a, b], ...]`` or a list of dicts with ``start_s``/``end_s`` (or ``duration_s``)."""
+    if _is_ranges(value):
+        return [(float(a), float(b)) for a, b in value]
+    out = []
+    if isinstance(value, list):
+        for item in value:
+            if isinstance(item, dict) and _is_number(item.get("start_s")):
+                a = float(item["start_s"])
+                if _is_number(item.get("end_s")):
+                    b = float(item["end_s"])
+                elif _is_number(item.get("duration_s")):
+                    b = a + float(item["duration_s"])
+                else:
+                    b = a
+                out.append((a, b))
+    return out
+
+
+def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
+    m = result.get("measurements") or {}
+    fmt_ = result.get("format") or {}
+    rows = _rows_for(m, ["true_peak_dbtp", "sample_peak_dbfs"])
+    ch = fmt_.get("channel_layout") or []
+    for key, unit in (("true_peak_dbtp_per_channel", "dBTP"), ("sample_peak_dbfs_per_channel", "dBFS")):
+        per = m.get(key)
+        if _numbers(per):
+            rows.append((fmt.label_of_key(key), ", ".join(
+                f"{fmt.clean_text(lab)} {fmt.number(v, 1)}" for lab, v in zip(ch or [f"ch{i + 1}" for i in range(len(per))], per))
+                + f"\u00a0{unit}"))
+    overs = _ranges_of(_first(m, ("true_peak_over_ranges_s", "true_peak_over_where_s"))
+                       or _first(result.get("series") or {}, ("true_peak_over_ranges_s",)) or [])
+    ceiling, source = _ceiling(result)
+    if overs or "true_peak_over_ranges_s" in m:
+        rows.append(("Overs above the ceiling", f"{len(overs)}" + (
+            f" at or above {fmt.number(ceiling, 1)} dBTP" if ceiling is not None else "")))
+    env = series_xy(result, "true_peak_envelope_dbtp", duration_s)
+    if env is None:
+        return {"svg": None, "rows": rows, "present": bool(rows),
+                "note": _not_measured(["true_peak_envelope_dbtp"]) if not rows
+                else "True peak over time not measured (no envelope series)."}
+    t, values = env
+    if _nested_numbers(values):
+        # per channel when the outer list has one entry per channel, else per time step
+        if len(values) == len(ch) and len(values) != len(t):
+            envelopes = [(t, v) for v in values]
+            names = [fmt.clean_text(x) for x in ch]
+        else:
+            envelopes = [(t, [row[i] if i < len(row) else None for row in values]) for i in range(len(values[0]))]
+            names = [fmt.clean_text(x) for x in ch] if len(ch) == len(values[0]) else [
+                f"ch{i + 1}" for i in range(len(values[0]))]
+    else:
+        envelopes = [(t, values)]
+        names = ["all channels (max)"]
+    svg = plots.true_peak_plot(duration_s, labels.axis(), envelopes, names, ceiling_dbtp=ceiling,
+                               over_ranges=overs)
+    note = ""
+    if ceiling is not None:
+        note = (f"Dashed line: the {'spec' if source == 'spec' else 'measurement'} ceiling "
+                f"{fmt.number(ceiling, 1)} dBTP; triangles and shaded spans mark the overs.")
+    return {"svg": svg, "rows": rows, "note": note, "present": True}
+
+
+def _conversion_targets(result: dict) -> list[float]:
+    conv = _conversions_raw(result)
+    targets = []
+    for item in conv:
+        if isinstance(item, dict):
+            v = _first(item, ("target_hz", "target_rate_hz", "rate_hz", "sample_rate_hz"))
+            if _is_number(v):
+                targets.append(float(v))
+    for block in (result.get("settings") or {}).values():
+        if isinstance(block, dict):
+            v = block.get("conversion_targets_hz")
+            if _numbers(v):
+                targets += [float(x) for x in v]
+    return sorted(set(targets))
+
+
+def spectrum_view(result: dict) -> dict:
+    fmt_ = result.get("format") or {}
+    rate = int(fmt_.get("sample_rate_hz") or 0)
+    series = result.get("series") or {}
+    m = result.get("measurements") or {}
+    freqs = _first(series, ("ltas_hz", "ltas_freq_hz")) or _first(m, ("ltas_hz",))
+    per = _first(series, ("ltas_db_per_channel",)) or _first(m, ("ltas_db_per_channel",))
+    if isinstance(per, dict):
+        per = _first(per, ("values", "db"))
+    rows = _rows_for(m, sorted(k for k in m if k.startswith("ultrasonic") and not isinstance(m[k], (list, dict))))
+    if not (_numbers(freqs) and _nested_numbers(per)) or rate <= 0:
+        return {"svg": None, "rows": rows, "present": bool(rows),
+                "note": _not_measured(["ltas_hz", "ltas_db_per_channel"])}
+    ch = [fmt.clean_text(x) for x in (fmt_.get("channel_layout") or [])]
+    names = ch if len(ch) == len(per) else [f"ch{i + 1}" for i in range(len(per))]
+    lines = _reference_lines(result, rate)
+    svg = plots.spectrum_plot(freqs, per, names, rate, lines)
+    return {"svg": svg, "rows": rows, "present": True,
+            "note": "Vertical lines: " + "; ".join(text for _f, text in lines) + "."}
+
+
+def _reference_lines(result: dict, rate: int) -> list[tuple[float, str]]:
+    nyq = rate / 2.0
+    lines = []
+    if nyq > 20000.0:
+        lines.append((20000.0, "20 kHz"))
+    lines.append((nyq, f"Nyquist {nyq / 1000:g} kHz"))
+    for target in _conversion_targets(result):
+        if target / 2.0 < nyq:
+            lines.append((target / 2.0, f"{target / 1000:g} kHz target: Nyquist {target / 2000:g} kHz"))
+    if nyq <= 20000.0:
+        lines = lines[:1] + lines[1:]
+    return lines
+
+
+def spectrogram_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
+    fmt_ = result.get("format") or {}
+    rate = int(fmt_.get("sample_rate_hz") or 0)
+    raw = (result.get("series") or {}).get("spectrogram")
+    if not isinstance(raw, dict) or rate <= 0:
+        return {"svg": None, "present": False, "note": _not_measured(["spectrogram"])}
+    times = _first(raw, _TIME_KEYS)
+    freqs = _first(raw, ("freq_hz", "freqs_hz", "frequency_hz", "frequencies_hz", "bin_hz", "bins_hz"))
+    values = _first(raw, ("db", "level_db", "power_db", "values_db", "magnitude_db", "values", "db_rows"))
+    note = ""
+    if isinstance(values, list) and values and _nested_numbers(values[0]) if values else False:
+        # per channel: show the loudest channel in each cell (display choice, said below)
+        n_t, n_f = len(values[0]), len(values[0][0])
+        merged = []
+        for i in range(n_t):
+            row = []
+            for j in range(n_f):
+                cell = [c[i][j] for c in values if c[i][j] is not None]
+                row.append(max(cell) if cell else None)
+            merged.append(row)
+        values = merged
+        note = "Each cell shows the highest level of any channel. "
+    if not (_numbers(times) and _numbers(freqs) and _nested_numbers(values)):
+        return {"svg": None, "present": False, "note": _not_measured(["spectrogram"])}
+    if len(values) != len(times) and len(values) == len(freqs):
+        values = [list(col) for col in zip(*values)]
+    if len(values) != len(times) or any(len(r) != len(freqs) for r in values):
+        return {"svg": None, "present": False,
+                "note": "Spectrogram present but its axes do not match its values; not drawn."}
+    lines = [(f, t) for f, t in _reference_lines(result, rate) if f < rate / 2.0]
+    svg = plots.spectrogram_plot(times, freqs, values, labels.axis(), duration_s, rate, lines)
+    return {"svg": svg, "present": True, "note": note + "Colour: cividis map, dark is quiet, light is loud; "
+            "dashed lines at 20 kHz and each conversion target's Nyquist."}
+
+
+# ----------------------------------------------------------------- events
+
+_SILENCE_HEAD = ("head_silence_s", "leading_silence_s", "silence_head_s")
+_SILENCE_TAIL = ("tail_silence_s", "trailing_silence_s", "silence_tail_s")
+
+
+def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
+    """Lanes of located events (clipping, silence, dropouts, overs...) and a table of them."""
+    m = result.get("measurements") or {}
+    lanes, table = [], []
+    for key in sorted(m):
+        if key.endswith("_where_s") or key.endswith("_ranges_s"):
+            ranges = _ranges_of(m[key])
+            stem = key.rsplit("_where_s", 1)[0] if key.endswith("_where_s") else key.rsplit("_ranges_s", 1)[0]
+            label = fmt.label_of_key(stem)
+            kind = "quiet" if "silence" in key or "dropout" in key else "info"
+            lanes.append((label, ranges, kind))
+            table.append({"label": label, "count": str(len(ranges)),
+                          "where": where_text([list(r) for r in ranges], labels)[0] or "none"})
+    head = _first(m, _SILENCE_HEAD)
+    tail = _first(m, _SILENCE_TAIL)
+    if _is_number(head) or _is_number(tail):
+        ranges = []
+        if _is_number(head) and head > 0:
+            ranges.append((0.0, float(head)))
+        if _is_number(tail) and tail > 0:
+            ranges.append((max(duration_s - float(tail), 0.0), duration_s))
+        lanes.append(("Head/tail silence", ranges, "quiet"))
+        table.append({"label": "Head / tail silence",
+                      "count": f"{fmt.with_unit(head, 's', 3)} / {fmt.with_unit(tail, 's', 3)}",
+                      "where": where_text([list(r) for r in ranges], labels)[0] or "none"})
+    for f in result.get("findings") or []:
+        if isinstance(f, dict) and f.get("status") in ("fail", "warn") and _is_ranges(f.get("where_s")) \
+                and f.get("where_s"):
+            word = STATUS_WORDS[f["status"]][0]
+            lanes.append((f"{word}: {_check_label(f.get('check', ''))}"[:40], _ranges_of(f["where_s"]),
+                          f["status"]))
+    if not lanes:
+        return {"svg": None, "rows": [], "present": False,
+                "note": "Not measured: the result holds no located events (keys ending in \u201c_where_s\u201d "
+                        "or \u201c_ranges_s\u201d, head or tail silence)."}
+    svg = plots.markers_plot(duration_s, labels.axis(), lanes) if duration_s > 0 else None
+    return {"svg": svg, "rows": table, "present": True,
+            "note": "Events too short to see at this scale are widened to be visible and marked with a triangle."}
+
+
+# ----------------------------------------------------------------- tables
+
+def _conversions_raw(result: dict) -> list:
+    conv = _first(result.get("measurements") or {}, ("conversions",))
+    if conv is None:
+        conv = result.get("conversions")
+    if isinstance(conv, dict):
+        items = []
+        for k in sorted(conv, key=str):
+            v = conv[k]
+            if isinstance(v, dict):
+                items.append({"target": k, **v})
+        return items
+    return conv if isinstance(conv, list) else []
+
+
+def records_table(records: list, first_keys=()) -> dict | None:
+    """A table (columns, rows of cells) from a list of flat dicts; units come from the keys."""
+    records = [r for r in records if isinstance(r, dict)]
+    if not records:
+        return None
+    keys = [k for k in first_keys if any(k in r for r in records)]
+    for r in records:
+        for k in r:
+            if k not in keys:
+                keys.append(k)
+    header = [fmt.label_of_key(k, with_unit_text=True) for k in keys]
+    rows = []
+    for r in records:
+        row = []
+        for k in keys:
+            v = r.get(k)
+            if isinstance(v, (dict,)) or (isinstance(v, list) and v and isinstance(v[0], dict)):
+                cell = fmt.clean_text(", ".join(f"{a}={b}" for a, b in (v.items() if isinstance(v, dict) else [])))\
+                    if isinstance(v, dict) else f"{len(v)} entries"
+            elif _is_ranges(v):
+                cell = f"{len(v)} ranges"
+            elif isinstance(v, bool):
+                cell = "yes" if v else "no"
+            elif v is None:
+                cell = "\u2014"
+            else:
+                cell = fmt.value_for_key(k, v)
+            row.append(cell)
+        rows.append(row)
+    return {"columns": header, "rows": rows}
+
+
+def conversions_view(result: dict) -> dict:
+    conv = _conversions_raw(result)
+    table = records_table(conv, ("target", "target_hz", "target_rate_hz"))
+    if table is None:
+        return {"table": None, "note": _not_measured(["conversions"])}
+    return {"table": table, "note": ""}
+
+
+def normalisation_view(result: dict) -> dict:
+    norm = result.get("normalisation")
+    if norm is None:
+        norm = result.get("normalization")
+    if isinstance(norm, dict):
+        items = norm.get("targets") if isinstance(norm.get("targets"), list) else None
+        if items is None:
+            scalar = {k: v for k, v in norm.items() if not isinstance(v, (dict, list))}
+            nested = [{"target": k, **v} for k, v in sorted(norm.items(), key=lambda kv: str(kv[0]))
+                      if isinstance(v, dict)]
+            items = nested or ([scalar] if scalar else [])
+        norm = items
+    table = records_table(norm if isinstance(norm, list) else [], ("target", "name", "target_lufs"))
+    if table is None:
+        return {"table": None, "note": "Not computed: the result holds no \u201cnormalisation\u201d block "
+                "(a check with a normalisation section in the spec adds it)."}
+    return {"table": table, "note": ""}
+
+
+def provenance_view(result: dict) -> dict:
+    tool = result.get("tool") or {}
+    file = result.get("file") or {}
+    spec = result.get("spec") or {}
+    analysis = result.get("analysis") or {}
+    rows = [("Tool", f"{fmt.clean_text(tool.get('name', 'masterqc'))} {fmt.clean_text(tool.get('version', '?'))}")]
+    if file:
+        rows.append(("File", fmt.clean_text(file.get("path", ""))))
+        rows.append(("File SHA-256", fmt.clean_text(file.get("sha256", "n/a"))))
+    if spec:
+        rows.append(("Spec", fmt.clean_text(spec.get("name", "")) + (f" ({fmt.clean_text(spec['path'])})"
+                                                                    if spec.get("path") else "")))
+        rows.append(("Spec SHA-256", fmt.clean_text(spec.get("sha256", "n/a"))))
+    else:
+        rows.append(("Spec", "none (measured only)"))
+    for key in sorted(analysis, key=str):
+        v = analysis[key]
+        if isinstance(v, (dict, list)):
+            continue
+        label = {"elapsed_s": "Analysis time", "block_frames": "Block size (frames)"}.get(key, fmt.label_of_key(key))
+        rows.append((label, fmt.value_for_key(key, v) if key != "block_frames" else fmt.number(v)))
+    settings = []
+    for name in sorted(result.get("settings") or {}, key=str):
+        block = result["settings"][name]
+        if isinstance(block, dict):
+            for k in sorted(block, key=str):
+                settings.append((fmt.clean_text(name), fmt.clean_text(k), _setting_text(k, block[k])))
+        else:
+            settings.append((fmt.clean_text(name), "", _setting_text(name, block)))
+    return {"rows": rows, "settings": settings}
+
+
+def _setting_text(key, v) -> str:
+    if isinstance(v, (dict, list)):
+        import json
+        return fmt.clean_text(json.dumps(v, sort_keys=True))[:600]
+    return fmt.value_for_key(str(key), v)
+
+
+def all_measurements(result: dict) -> list[tuple[str, str, str]]:
+    """Every scalar or short-list measurement: (label, key, value) rows, in key order."""
+    m = result.get("measurements") or {}
+    rows = []
+    for k in sorted(m):
+        v = m[k]
+        if isinstance(v, dict) or (isinstance(v, list) and v and isinstance(v[0], (dict, list))):
+            continue
+        rows.append((fmt.label_of_key(k), k, fmt.value_for_key(k, v)))
+    return rows
+
+
+# ----------------------------------------------------------------- the whole view
+
+def build_view(result: dict, paper: str = "a4") -> dict:
+    """The complete view model of one report (see the module docstring)."""
+    if not isinstance(result, dict):
+        raise TypeError("a result object must be a dict")
+    labels = TimeLabels(result)
+    duration = _get(result, "format", "duration_s", default=0.0)
+    duration = float(duration) if _is_number(duration) else 0.0
+    findings = findings_view(result, labels)
+    verdict = verdict_view(result, findings)
+    path = _get(result, "file", "path", default="") or ""
+    name = os.path.basename(str(path)) or "(unnamed)"
+    return {
+        "file_name": fmt.clean_text(name),
+        "title": f"{verdict['word']} \u2014 {fmt.clean_text(name)}",
+        "paper": "letter" if str(paper).lower() == "letter" else "a4",
+        "verdict": verdict,
+        "findings": findings,
+        "spec_name": fmt.clean_text(_get(result, "spec", "name", default="") or ""),
+        "format_rows": format_rows(result),
+        "metadata": metadata_view(result),
+        "loudness": loudness_view(result, labels, duration),
+        "true_peak": true_peak_view(result, labels, duration),
+        "spectrum": spectrum_view(result),
+        "spectrogram": spectrogram_view(result, labels, duration),
+        "events": events_view(result, labels, duration),
+        "conversions": conversions_view(result),
+        "normalisation": normalisation_view(result),
+        "provenance": provenance_view(result),
+        "measurements": all_measurements(result),
+        "cautions": CAUTIONS,
+        "time_note": ("Times are given as the file's timecode, with the time from the start of the file in "
+                      "brackets." if labels.has_start else "Times count from the start of the file (m:ss.ss)."),
+    }
