@@ -14,8 +14,8 @@ Filter (``kaiser`` design, the default)
     is half amplitude at fs/2 (a Nyquist filter), ripple within 0.011 dB up to
     0.375*fs, -0.015 dB at 0.45*fs, images of content up to 0.4*fs at least
     58 dB down and the image of 0.45*fs 54 dB down; the worst-case under-read of
-    a sine up to 0.45*fs at 4x is 0.55 dB, the grid-only figure of Annex 2
-    (figures computed by :func:`filter_properties` and :func:`underread_db`;
+    a sine up to 0.45*fs is 0.58 dB at 4x (grid-only figure of Annex 2: 0.554),
+    0.17 dB at 8x (0.136) and 0.07 dB at 16x (0.034) (figures computed by :func:`filter_properties` and :func:`underread_db`;
     checked in ``tests/test_true_peak.py``).
 
 Filter (``annex2`` design)
@@ -44,6 +44,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+from numpy.lib.stride_tricks import as_strided
 
 #: the example interpolation filter of ITU-R BS.1770-5 Annex 2 (phases 0 and 1;
 #: phase 2 is phase 1 reversed, phase 3 is phase 0 reversed)
@@ -134,7 +135,7 @@ def kaiser_filter(factor: int, taps_per_phase: int = DEFAULT_TAPS_PER_PHASE,
     window = np.i0(beta * np.sqrt(np.clip(1.0 - (t / half) ** 2, 0.0, None))) / np.i0(beta)
     h = np.sinc(t) * window
     h /= h.sum(axis=0, keepdims=True)                     # unit gain at 0 Hz per phase
-    h[np.abs(h) < 1e-300] = 0.0
+    h[:, 0] = (d == 0)                                    # sinc zeros on the integers, exactly
     return PolyphaseFilter(factor=L, taps=h, design="kaiser", beta=float(beta), phase0_identity=True)
 
 
@@ -214,7 +215,7 @@ def image_rejection_db(flt: PolyphaseFilter, freqs_norm) -> np.ndarray:
     return 20 * np.log10(np.maximum(images, 1e-300) / wanted)
 
 
-def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int = 128) -> np.ndarray:
+def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int = 256) -> np.ndarray:
     """Worst-case under-read (dB, >= 0) of a single sine peak at each frequency.
 
     A full-scale sine ``cos(2*pi*f*(t - t0))`` is sampled; the meter's reading
@@ -228,7 +229,9 @@ def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int = 128) -> np.nda
     freqs = np.atleast_1d(np.asarray(freqs_norm, dtype=float))
     g = phase_responses(flt, freqs)                               # (F, L)
     out = np.empty(freqs.shape[0])
-    t0 = (np.arange(offsets) + 0.5) / offsets                     # peak instants in [0, 1)
+    # peak instants in [0, 1); a multiple of 2L positions includes the half-way
+    # points between instants, where the grid loss is largest
+    t0 = np.arange(offsets) / offsets
     for j, f in enumerate(freqs):
         w = 2 * np.pi * f
         half = 0.5 / f
@@ -285,19 +288,16 @@ class TruePeakMeter:
     - ``frames_done``: input frames evaluated so far.
 
     ``on_frames(start_frame, frame_peak)`` is called, when given, with the
-    per-frame maximum over channels and phases (float64 array) for every run of
-    evaluated frames, in order, so callers can build envelopes and find overs.
-    With ``skip_below`` (a callable returning a linear level), runs whose safe
-    upper bound ``max_gain * max|x|`` is at or below that level are not
-    interpolated; ``on_frames`` then receives ``None`` for them (callers must
-    accept that the true peak of those frames is <= the level returned).
+    per-frame maximum over channels and instants (float32 array, phase 0
+    included) for every run of evaluated frames, in order, so callers can build
+    envelopes and find overs.  Frame ``i`` covers the instants ``[i, i+1)``.
     """
 
     #: frames per internal run (multiple of T/2)
     RUN_FRAMES = 8192
 
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
-                 design: str = "kaiser", on_frames=None, skip_below=None):
+                 design: str = "kaiser", on_frames=None):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
         self.filter = get_filter(factor, design)
@@ -307,29 +307,28 @@ class TruePeakMeter:
         self._B = T // 2
         self._lead = self.filter.lead
         self._on_frames = on_frames
-        self._skip_below = skip_below
         self.peak_linear = np.zeros(self.channels)
         self.frames_done = 0
         self._received = 0
         self._flushed = False
         # buffer holds input from frame (frames_done - lead) onwards, (C, n)
         self._buf = np.zeros((self.channels, self._lead))
-        self._mats = self._block_matrices()
-        self._gain = self.filter.max_gain
+        self._mat = self._block_matrix()
 
-    def _block_matrices(self):
-        """Three (B, B*P) matrices: output block b = S0@M0 + S1@M1 + S2@M2 where
-        S_s is input segment b+s (B frames) of the buffer; P = L-1 phases (1..L-1)."""
+    def _block_matrix(self):
+        """(3B, P*B) float32 matrix: the P interpolated phases of the B frames of
+        output block b are ``[S_b, S_b+1, S_b+2] @ M``, where S_s is the s-th
+        B-frame segment of the buffer; column ``p*B + j`` is phase p of frame j.
+        P = L-1 when phase 0 is the sample itself (it is then not computed)."""
         T, B = self._T, self._B
         taps = self.filter.taps[:, 1:] if self.filter.phase0_identity else self.filter.taps
         P = taps.shape[1]
-        mats = np.zeros((3, B, B * P))
+        mat = np.zeros((3 * B, P * B))
         for j in range(B):                 # output frame within the block
-            for k in range(T):             # tap
-                s, r = divmod(j + k, B)
-                mats[s, r, j * P:(j + 1) * P] = taps[k]
+            for k in range(T):             # tap: input j + k of the 3B-frame window
+                mat[j + k, np.arange(P) * B + j] = taps[k]
         self._P = P
-        return mats.astype(np.float32)
+        return mat.astype(np.float32)
 
     def process(self, block) -> None:
         """Feed a (frames, channels) block."""
@@ -371,36 +370,28 @@ class TruePeakMeter:
 
     def _evaluate(self, m: int) -> None:
         """Evaluate ``m`` frames from the buffer start (m <= available)."""
-        B, lead, C = self._B, self._lead, self.channels
+        B, lead, C, P = self._B, self._lead, self.channels, self._P
         xb = self._buf
-        x0 = xb[:, lead:lead + m]                        # the frames themselves (float64)
-        sample_abs = np.abs(x0)
         start = self.frames_done
-        if self._skip_below is not None:
-            span = np.abs(xb[:, :m + self._T]).max()
-            if self._gain * span <= self._skip_below():
-                np.maximum(self.peak_linear, sample_abs.max(axis=1), out=self.peak_linear)
-                self.frames_done += m
-                if self._on_frames is not None:
-                    self._on_frames(start, None, sample_abs.max(axis=0))
-                return
-        mb = -(-m // B)                                  # blocks (last may be partial)
-        need = (mb + 2) * B
-        seg = xb[:, :need].astype(np.float32)
-        frame_peak_ch = np.empty((C, mb * B), dtype=np.float32)
+        sample_peak = np.abs(xb[:, lead:lead + m]).max(axis=1)     # float64, per channel
+        mb = -(-m // B)                                  # output blocks (last may be partial)
+        seg = xb[:, :(mb + 2) * B].astype(np.float32)
+        frame_peak = np.empty((C, mb * B), dtype=np.float32)
         for c in range(C):
             s = seg[c]
-            y = s[0:mb * B].reshape(mb, B) @ self._mats[0]
-            y += s[B:(mb + 1) * B].reshape(mb, B) @ self._mats[1]
-            y += s[2 * B:(mb + 2) * B].reshape(mb, B) @ self._mats[2]
+            win = as_strided(s, shape=(mb, 3 * B), strides=(B * s.itemsize, s.itemsize))
+            y = np.ascontiguousarray(win) @ self._mat                 # (mb, P*B)
             np.abs(y, out=y)
-            frame_peak_ch[c] = y.reshape(mb * B, self._P).max(axis=1)
-        fp = frame_peak_ch[:, :m].astype(np.float64)
-        np.maximum(fp, sample_abs, out=fp)               # phase 0 / sample peak, float64
-        np.maximum(self.peak_linear, fp.max(axis=1), out=self.peak_linear)
+            fp = frame_peak[c].reshape(mb, B)
+            np.abs(s[lead:lead + mb * B].reshape(mb, B), out=fp)      # phase 0: the samples
+            for p in range(P):
+                np.maximum(fp, y[:, p * B:(p + 1) * B], out=fp)
+        frame_peak = frame_peak[:, :m]
+        np.maximum(self.peak_linear, sample_peak, out=self.peak_linear)
+        np.maximum(self.peak_linear, frame_peak.max(axis=1), out=self.peak_linear)
         self.frames_done += m
         if self._on_frames is not None:
-            self._on_frames(start, fp.max(axis=0), sample_abs.max(axis=0))
+            self._on_frames(start, frame_peak.max(axis=0))
 
 
 def true_peak_linear(x, sample_rate_hz: float, factor: int = 4, design: str = "kaiser") -> np.ndarray:
