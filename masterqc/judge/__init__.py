@@ -28,6 +28,7 @@ JUDGES: list[tuple[str, str]] = [
     ("loudness", "masterqc.judge.loudness"),
     ("peaks", "masterqc.judge.peaks"),
     ("normalisation", "masterqc.judge.normalisation"),
+    ("metadata", "masterqc.judge.metadata"),
 ]
 
 

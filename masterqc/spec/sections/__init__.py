@@ -33,6 +33,7 @@ SECTIONS: list[tuple[str, str]] = [
     ("peaks", "masterqc.spec.sections.peaks"),
     ("duration", "masterqc.spec.sections.duration"),
     ("normalisation", "masterqc.spec.sections.normalisation"),
+    ("metadata", "masterqc.spec.sections.metadata"),
 ]
 
 
