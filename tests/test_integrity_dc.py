@@ -1,0 +1,71 @@
+"""DC offset and energy below 20 Hz.
+
+Analytic truth: the mean of a sine over whole periods is 0, so a constant
+offset c reads 20*log10(|c|) dBFS; the mean square of a sum of sines of
+distinct frequencies is the sum of a**2/2, and of a constant c is c**2.  The
+20 Hz low-pass passes 5 Hz with |H|**2 = 1/(1 + (5/20)**8) (Butterworth
+magnitude, order 4) and stops 1 kHz by more than 200 dB.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+import soundfile as sf
+
+from integrity_support import feed, info_for
+from masterqc.measure.dcoffset import DcOffsetAnalyzer, energy_ratio_db, level_dbfs
+from masterqc.measure.engine import measure_file
+
+FS = 48000
+
+
+def _tones(seconds=10, offset=(0.01, -0.001)):
+    t = np.arange(seconds * FS) / FS
+    tone = 0.5 * np.sin(2 * np.pi * 1000 * t)  # 48 samples per period: whole periods
+    return np.stack([tone + offset[0], tone + offset[1]], axis=1)
+
+
+@pytest.mark.parametrize("block", [65536, 4099])
+def test_dc_offset_level_and_sign(block):
+    x = _tones()
+    m = feed(DcOffsetAnalyzer, x, info_for(x, bits=64, is_float=True), block=block).measurements
+    assert m["dc_offset_dbfs_per_channel"] == pytest.approx([-40.0, -60.0], abs=1e-9)
+    assert m["dc_offset_sign_per_channel"] == [1, -1]
+    assert m["dc_offset_dbfs"] == pytest.approx(-40.0, abs=1e-9)
+
+
+def test_dc_energy_share_below_20_hz():
+    x = _tones()
+    m = feed(DcOffsetAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
+    # mean square: DC c**2 below 20 Hz, tone 0.5**2/2 above.  The DC steps on at the first
+    # sample; the low-pass (starting at rest) overshoots by about 11 % (order-4 Butterworth step
+    # response) for some tens of ms, which adds about 1.5 % (+0.07 dB) over 10 s: tolerance 0.1 dB.
+    for got, c in zip(m["subsonic_energy_db_per_channel"], (0.01, -0.001)):
+        expected = 10 * math.log10(c ** 2 / (c ** 2 + 0.125))
+        assert expected - 0.01 < got < expected + 0.1
+
+
+def test_rumble_share_below_20_hz(tmp_path):
+    t = np.arange(10 * FS) / FS  # 50 whole periods of 5 Hz
+    x = 0.1 * np.sin(2 * np.pi * 5 * t) + 0.5 * np.sin(2 * np.pi * 1000 * t)
+    path = tmp_path / "rumble.wav"
+    sf.write(path, x[:, None], FS, subtype="DOUBLE")
+    m = measure_file(path)["measurements"]
+    gain = 1.0 / (1.0 + (5.0 / 20.0) ** 8)
+    expected = 10 * math.log10(gain * 0.1 ** 2 / 2 / (0.1 ** 2 / 2 + 0.5 ** 2 / 2))
+    assert m["subsonic_energy_db_per_channel"][0] == pytest.approx(expected, abs=0.05)
+    assert m["dc_offset_dbfs"] < -100  # a sine has no DC (float rounding only)
+
+
+def test_silent_channel_has_no_levels():
+    x = np.zeros((4800, 2))
+    x[:, 1] = 0.25
+    m = feed(DcOffsetAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
+    assert m["dc_offset_dbfs_per_channel"][0] is None
+    assert m["dc_offset_dbfs_per_channel"][1] == pytest.approx(20 * math.log10(0.25), abs=1e-12)
+    assert m["subsonic_energy_db_per_channel"][0] is None
+    assert m["dc_offset_sign_per_channel"] == [0, 1]
+    assert level_dbfs(0.0) is None and energy_ratio_db(1.0, 0.0) is None

@@ -1,0 +1,103 @@
+"""Head/tail silence and dropouts.
+
+Every signal is built with silence, low-level noise, frozen values and
+dropouts at known frames, so expected durations and times follow by
+arithmetic (frames / 48000).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from integrity_support import feed, info_for, pcm, write_pcm
+from masterqc.measure.engine import measure_file
+from masterqc.measure.options import MeasureOptions
+from masterqc.measure.silence import SilenceAnalyzer
+
+FS = 48000
+
+
+def _programme(frames=3 * FS):
+    """24-bit codes: 12000 frames digital silence, 2400 frames at -80 dBFS (alternating sign),
+    tone, and 24000 frames of digital silence at the end."""
+    t = np.arange(frames) / FS
+    tone = np.round(0.25 * np.sin(2 * np.pi * 997 * t) * 2 ** 23).astype(np.int64)
+    codes = np.stack([tone, tone // 2], axis=1)
+    codes[:12000] = 0
+    low = int(round(1e-4 * 2 ** 23))  # -80 dBFS
+    codes[12000:14400, 0] = low * np.where(np.arange(2400) % 2 == 0, 1, -1)
+    codes[12000:14400, 1] = 0
+    codes[-24000:] = 0
+    return codes
+
+
+@pytest.mark.parametrize("block", [65536, 4800, 997])
+def test_head_and_tail_silence(block):
+    x = pcm(_programme(), 24)
+    m = feed(SilenceAnalyzer, x, info_for(x), block=block).measurements
+    assert m["head_digital_silence_s"] == 12000 / FS
+    assert m["head_silence_s"] == 14400 / FS   # -80 dBFS is below the default -60 dBFS threshold
+    assert m["tail_silence_s"] == 24000 / FS
+    assert m["tail_digital_silence_s"] == 24000 / FS
+    assert m["dropout_count"] == 0
+
+
+def test_threshold_moves_near_silence():
+    x = pcm(_programme(), 24)
+    m = feed(SilenceAnalyzer, x, info_for(x), silence_threshold_dbfs=-90.0).measurements
+    assert m["head_silence_s"] == 12000 / FS  # -80 dBFS is now above the threshold
+
+
+def test_all_silent_file_is_silent_from_both_ends():
+    x = np.zeros((9600, 2))
+    m = feed(SilenceAnalyzer, x, info_for(x)).measurements
+    assert m["head_silence_s"] == m["tail_silence_s"] == 0.2
+    assert m["head_digital_silence_s"] == m["tail_digital_silence_s"] == 0.2
+    assert m["dropout_count"] == 0  # a silent channel touches both ends: not a dropout
+
+
+def _dropouts():
+    codes = _programme()
+    codes[50000:50240, 0] = 0          # 240 samples = 5.0 ms of silence in L: a dropout
+    codes[60000:60239, 0] = 0          # 239 samples: shorter than 5 ms, not reported
+    codes[65500:66500, 1] = 12345      # 1000 frames frozen in R, across the 65536 boundary
+    codes[90000:90480, :] = 0          # both channels silent for 10 ms
+    return codes
+
+
+@pytest.mark.parametrize("block", [65536, 4096, 1001])
+def test_dropouts_silence_and_frozen_values(block):
+    x = pcm(_dropouts(), 24)
+    m = feed(SilenceAnalyzer, x, info_for(x), block=block).measurements
+    assert m["dropout_count"] == 4
+    assert m["dropout_count_per_channel"] == [2, 2]
+    got = [(e["channel"], e["start_s"], e["end_s"], e["kind"]) for e in m["dropout_events"]]
+    assert got == [("L", 50000 / FS, 50240 / FS, "silence"),
+                   ("R", 65500 / FS, 66500 / FS, "frozen"),
+                   ("L", 90000 / FS, 90480 / FS, "silence"),
+                   ("R", 90000 / FS, 90480 / FS, "silence")]
+    assert m["dropout_events"][1]["value"] == 12345 / 2 ** 23
+    assert m["dropout_longest_s"] == 1000 / FS
+    assert m["dropout_where_s"] == [[50000 / FS, 50240 / FS], [65500 / FS, 66500 / FS], [90000 / FS, 90480 / FS]]
+
+
+def test_dropout_length_option_and_exclusions():
+    x = pcm(_dropouts(), 24)
+    m = feed(SilenceAnalyzer, x, info_for(x), dropout_min_s=0.015).measurements
+    assert m["dropout_count"] == 1  # only the 1000-frame (20.8 ms) frozen run
+    # a flat top at the full-scale code is clipping, not a dropout
+    codes = _programme()
+    codes[70000:71000, 0] = 2 ** 23 - 1
+    codes[72000:73000, 0] = -2 ** 23
+    x = pcm(codes, 24)
+    assert feed(SilenceAnalyzer, x, info_for(x)).measurements["dropout_count"] == 0
+    with pytest.raises(ValueError, match="dropout_min_s"):
+        feed(SilenceAnalyzer, x, info_for(x), dropout_min_s=0.0)
+
+
+def test_measure_file_silence_keys(tmp_path):
+    path = write_pcm(tmp_path / "s.wav", _dropouts(), FS, 24)
+    m = measure_file(path, MeasureOptions(block_frames=10000))["measurements"]
+    assert m["head_digital_silence_s"] == 0.25 and m["tail_silence_s"] == 0.5
+    assert m["dropout_count"] == 4
