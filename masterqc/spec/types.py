@@ -58,6 +58,8 @@ UNITS: dict[str, tuple[str, str, int]] = {
     "hz": ("Hz", "hz", 0),
     "percent": ("%", "percent", 1),
     "count": ("", "count", 0),
+    "bits": ("bits", "bits", 0),
+    "corr": ("", "corr", 2),  # a correlation coefficient, -1 .. +1
 }
 
 
