@@ -14,6 +14,7 @@ def add_parsers(sub) -> None:
     """Add the sub-parsers of check, spec, report, demo and runs."""
     _add_check(sub)
     _add_spec(sub)
+    _add_report(sub)
     _add_demo(sub)
 
 
@@ -144,6 +145,13 @@ def cmd_spec_schema(args) -> int:
     json.dump(spec_schema(), sys.stdout, indent=2)
     sys.stdout.write("\n")
     return 0
+
+
+# ---------------------------------------------------------------- report
+
+def _add_report(sub) -> None:
+    from masterqc.report.command import add_parser
+    add_parser(sub)
 
 
 # ---------------------------------------------------------------- demo

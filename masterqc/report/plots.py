@@ -52,6 +52,9 @@ CHANNEL_STYLES = [
 MAX_POINTS = 3000
 
 FIG_WIDTH_IN = 7.0
+#: axes rectangle left and width shared by every plot over time, so their time axes line up
+TIME_LEFT = 0.075
+TIME_WIDTH = 0.835
 STYLE = {
     "font.family": "DejaVu Sans",
     "font.size": 7.5,
@@ -154,12 +157,15 @@ def _figure(height_in: float) -> Figure:
     return fig
 
 
-def _to_svg(fig: Figure, salt: str, title: str) -> str:
-    """Render ``fig`` as one ``<svg>`` element (no XML prolog, no metadata block)."""
+def _to_svg(fig: Figure, salt: str, title: str, raster_dpi: int = 72) -> str:
+    """Render ``fig`` as one ``<svg>`` element (no XML prolog, no metadata block).
+
+    ``raster_dpi``: resolution of the parts drawn as an embedded image (the spectrogram).
+    """
     buf = io.StringIO()
     with matplotlib.rc_context({"svg.hashsalt": salt}):
-        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None, "Format": None,
-                                                   "Type": None})
+        fig.savefig(buf, format="svg", dpi=raster_dpi,
+                    metadata={"Date": None, "Creator": None, "Format": None, "Type": None})
     text = buf.getvalue()
     text = text[text.index("<svg"):]
     text = re.sub(r"<metadata>.*?</metadata>\s*", "", text, flags=re.S)
@@ -201,7 +207,7 @@ def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=
     """
     with matplotlib.rc_context(STYLE):
         fig = _figure(2.5)
-        ax = fig.add_axes((0.075, 0.19, 0.905, 0.66))
+        ax = fig.add_axes((TIME_LEFT, 0.19, TIME_WIDTH, 0.66))
         values = []
         if target_band is not None:
             lo, hi = target_band
@@ -256,7 +262,7 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
     """
     with matplotlib.rc_context(STYLE):
         fig = _figure(2.3)
-        ax = fig.add_axes((0.075, 0.2, 0.905, 0.65))
+        ax = fig.add_axes((TIME_LEFT, 0.2, TIME_WIDTH, 0.65))
         values = []
         for i, ((t, y), label) in enumerate(zip(envelopes, labels)):
             color, ls = CHANNEL_STYLES[i % len(CHANNEL_STYLES)]
@@ -331,13 +337,14 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
                      sample_rate_hz: int, lines=(), floor_db: float | None = None) -> str:
     """Spectrogram: time across, frequency up (linear, to Nyquist), level as colour.
 
-    ``db_rows``: 2-D list indexed ``[time][frequency]``.  The colour map is
+    ``db_rows``: 2-D list indexed ``[time][frequency]``; times and frequencies
+    are cell centres (need not be evenly spaced).  The colour map is
     cividis (perceptually even, colour-blind safe, monotonic in greyscale).
     ``lines``: horizontal reference lines ``[(freq_hz, label)]``.
     """
     with matplotlib.rc_context(STYLE):
         fig = _figure(2.6)
-        ax = fig.add_axes((0.075, 0.2, 0.83, 0.74))
+        ax = fig.add_axes((TIME_LEFT, 0.2, TIME_WIDTH, 0.74))
         z = np.array([[np.nan if v is None else float(v) for v in row] for row in db_rows], dtype=float)
         t = np.asarray(times_s, float)
         f = np.asarray(freqs_hz, float)
@@ -346,12 +353,10 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         vmin = max(float(finite.min()), vmax - 100.0) if finite.size else vmax - 100.0
         if floor_db is not None:
             vmin = max(vmin, floor_db)
-        dt = (t[1] - t[0]) if len(t) > 1 else max(duration_s, 1e-3)
-        df = (f[1] - f[0]) if len(f) > 1 else sample_rate_hz / 2.0
-        extent = (t[0] - dt / 2 if len(t) else 0.0, t[-1] + dt / 2 if len(t) else duration_s,
-                  max(f[0] - df / 2, 0.0) if len(f) else 0.0, f[-1] + df / 2 if len(f) else sample_rate_hz / 2)
-        img = ax.imshow(z.T, origin="lower", aspect="auto", extent=extent, cmap="cividis",
-                        vmin=vmin, vmax=vmax, interpolation="nearest", rasterized=True)
+        img = ax.pcolormesh(t, f, z.T, shading="nearest", cmap="cividis", vmin=vmin, vmax=vmax,
+                            rasterized=True)
+        half_dt = 0.5 * (t[1] - t[0]) if len(t) > 1 else 0.5 * max(duration_s, 1e-3)
+        extent = (float(t[0]) - half_dt if len(t) else 0.0, float(t[-1]) + half_dt if len(t) else duration_s)
         for freq, text in lines:
             ax.axhline(freq, color="white", lw=0.9, ls=(0, (4, 2)))
             ax.text(extent[0], freq, f" {text} ", va="bottom", ha="left", fontsize=6.3, color=BLACK,
@@ -361,12 +366,12 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         ax.set_ylabel("frequency (Hz)")
         ax.grid(False)
         _time_axis(ax, axis, duration_s)
-        ax.set_xlim(extent[0], extent[1])
-        cax = fig.add_axes((0.92, 0.2, 0.014, 0.74))
+        ax.set_xlim(0.0, max(duration_s, extent[1] if len(t) else 0.0, 1e-3))
+        cax = fig.add_axes((TIME_LEFT + TIME_WIDTH + 0.015, 0.2, 0.013, 0.74))
         bar = fig.colorbar(img, cax=cax)
         bar.set_label("level (dB)", fontsize=6.5)
         bar.ax.tick_params(labelsize=6)
-        return _to_svg(fig, "spectrogram", "Spectrogram")
+        return _to_svg(fig, "spectrogram", "Spectrogram", raster_dpi=110)
 
 
 #: marker row kind -> (colour, hatch)
@@ -387,24 +392,27 @@ def markers_plot(duration_s: float, axis: TimeAxis, rows) -> str:
     """
     with matplotlib.rc_context(STYLE):
         n = max(len(rows), 1)
-        fig = _figure(0.55 + 0.28 * n)
-        bottom = 0.42 / (0.55 + 0.28 * n) + 0.12
-        ax = fig.add_axes((0.2, bottom, 0.75, 0.95 - bottom))
+        lane_in = 0.36
+        height = 0.5 + lane_in * n
+        fig = _figure(height)
+        bottom = 0.42 / height
+        ax = fig.add_axes((TIME_LEFT, bottom, TIME_WIDTH, 1.0 - bottom - 0.02))
         min_w = max(duration_s, 1e-3) / 600.0
         for i, (label, ranges, kind) in enumerate(rows):
             color, hatch = MARK_STYLES.get(kind, MARK_STYLES["info"])
             y = n - 1 - i
             bars = [(a, max(b - a, min_w)) for a, b in ranges]
             if bars:
-                ax.broken_barh(bars, (y - 0.32, 0.64), facecolors=color, edgecolors=BLACK, linewidth=0.3,
+                ax.broken_barh(bars, (y - 0.22, 0.4), facecolors=color, edgecolors=BLACK, linewidth=0.3,
                                hatch=hatch)
                 short = [a + w / 2 for a, w in bars if w <= min_w * 1.01]
                 if short:
-                    ax.plot(short, [y + 0.42] * len(short), ls="none", marker="v", ms=3.5, color=color,
+                    ax.plot(short, [y + 0.3] * len(short), ls="none", marker="v", ms=3.8, color=color,
                             markeredgecolor=BLACK, markeredgewidth=0.3, clip_on=False)
-        ax.set_yticks(range(n))
-        ax.set_yticklabels([r[0] for r in reversed(rows)] if rows else [""])
-        ax.set_ylim(-0.6, n - 0.4)
+            ax.text(0.004, y + 0.2, f"{label} ({len(ranges)})", transform=ax.get_yaxis_transform(),
+                    va="bottom", ha="left", fontsize=6.8, color="#222222")
+        ax.set_yticks([])
+        ax.set_ylim(-0.5, n - 0.5 + 0.25)
         ax.grid(axis="y", visible=False)
         _time_axis(ax, axis, duration_s)
         return _to_svg(fig, "markers", "Event timeline")

@@ -94,25 +94,49 @@ def render_html(result: dict, paper: str = "a4") -> str:
     return template.render(v=view, css=Markup(_CSS), tool_version=version)
 
 
-class ExternalFetchRefused(Exception):
+class ExternalFetchRefused(ValueError):
     """Raised when a document tries to load anything but an inline ``data:`` URL."""
 
 
-def _no_network_fetcher(url: str, *args, **kwargs):
-    """weasyprint URL fetcher that serves ``data:`` URLs only (a report never fetches anything)."""
-    if url.startswith("data:"):
-        import weasyprint
+def inline_only_fetcher(fetch_log: list | None = None):
+    """A weasyprint URL fetcher that serves ``data:`` URLs only (a report never loads anything).
+
+    Every URL asked for is appended to ``fetch_log`` when given, so tests can
+    prove that rendering requests nothing from outside the document.
+    """
+    import weasyprint
+    from weasyprint import urls
+
+    def refuse(url):
+        if fetch_log is not None:
+            fetch_log.append(url)
+        if not url.startswith("data:"):
+            raise ExternalFetchRefused(f"report tried to load {url!r}; reports are self-contained")
+
+    if hasattr(urls, "URLFetcher"):  # weasyprint >= 68: fetcher objects
+        class InlineOnly(urls.URLFetcher):
+            def fetch(self, url, headers=None):
+                refuse(url)
+                return super().fetch(url, headers)
+        return InlineOnly(allowed_protocols=("data",))
+
+    def fetch(url, *args, **kwargs):  # older weasyprint: a plain function
+        refuse(url)
         return weasyprint.default_url_fetcher(url, *args, **kwargs)
-    raise ExternalFetchRefused(f"report tried to load {url!r}; reports are self-contained")
+    return fetch
 
 
-def render_pdf(result: dict, paper: str = "a4", html: str | None = None) -> bytes:
-    """The PDF of the same document (:func:`render_html`) printed by weasyprint."""
+def render_pdf(result: dict, paper: str = "a4", html: str | None = None, fetch_log: list | None = None) -> bytes:
+    """The PDF of the same document (:func:`render_html`) printed by weasyprint.
+
+    ``fetch_log``: a list that receives every URL weasyprint asks for (only
+    inline ``data:`` images are ever served).
+    """
     import weasyprint
 
     if html is None:
         html = render_html(result, paper=paper)
-    doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=_no_network_fetcher)
+    doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=inline_only_fetcher(fetch_log))
     return doc.write_pdf()
 
 
@@ -167,7 +191,8 @@ def load_result(path) -> dict:
     """Read a saved result JSON for re-rendering; :class:`UsageError` names the file and what is wrong.
 
     JSON syntax errors give the line and column.  The object must look like a
-    masterqc result (``file``, ``format`` and ``measurements`` objects).
+    masterqc result (``file``, ``format`` and ``measurements`` objects), or be
+    the error result of a master that could not be read (``verdict: "error"``).
     """
     p = Path(path)
     try:
@@ -190,7 +215,12 @@ def load_result(path) -> dict:
     name = (result.get("tool") or {}).get("name") if isinstance(result.get("tool"), dict) else None
     if name not in (None, "masterqc"):
         raise UsageError(f"{p}: not a masterqc result (tool.name is {name!r})")
-    for key in ("file", "format", "measurements"):
+    if not isinstance(result.get("file"), dict):
+        raise UsageError(f"{p}: not a masterqc result (key 'file' is missing or not an object)")
+    is_error_result = result.get("verdict") == "error" and "measurements" not in result
+    for key in ("format", "measurements"):
+        if key not in result and is_error_result:
+            continue  # a master that could not be read: its report says why
         if not isinstance(result.get(key), dict):
             raise UsageError(f"{p}: not a masterqc result (key {key!r} is missing or not an object)")
     if not isinstance(result.get("findings", []), list):

@@ -269,7 +269,9 @@ def verdict_view(result: dict, findings: list[dict]) -> dict:
     if judged:
         summary += "."
     fixes = [f for f in findings if f["status"] in ("error", "fail", "warn")]
-    return {"status": status, "word": word, "shape": shape, "summary": summary,
+    # printed in every PDF page's head; built from fixed words only (it goes into CSS)
+    page_mark = f"verdict: {word}" + (f" ({_plural(counts['fail'], 'fail')})" if status == "fail" else "")
+    return {"status": status, "word": word, "shape": shape, "summary": summary, "page_mark": page_mark,
             "fixes": fixes[:8], "more_fixes": max(len(fixes) - 8, 0), "counts": counts,
             "judged": judged}
 
@@ -346,10 +348,15 @@ def _flatten(prefix: str, value, out: list, depth: int = 0):
 def metadata_view(result: dict) -> dict:
     meta = result.get("metadata") or {}
     rows: list = []
+    absent = []
     for key in sorted(meta, key=str):
         if key in _META_SKIP:
             continue
+        if meta[key] is None or meta[key] == {} or meta[key] == []:
+            absent.append(fmt.clean_text(key))
+            continue
         _flatten(str(key), meta[key], rows)
+    rows = [(k, v) for k, v in rows if v != "\u2014"]
     if meta.get("time_reference_samples") is not None:
         rows.append(("time_reference_samples", fmt.number(meta["time_reference_samples"])))
     chunks = [{"id": fmt.clean_text(c.get("id", "")), "offset": fmt.number(c.get("offset")),
@@ -357,7 +364,7 @@ def metadata_view(result: dict) -> dict:
     problems = [{"offset": fmt.number(p.get("offset")) if p.get("offset") is not None else "\u2014",
                  "message": fmt.clean_text(p.get("message", ""))}
                 for p in (meta.get("problems") or []) if isinstance(p, dict)]
-    return {"rows": rows, "chunks": chunks, "problems": problems}
+    return {"rows": rows, "chunks": chunks, "problems": problems, "absent": ", ".join(absent)}
 
 
 # ----------------------------------------------------------------- series access
@@ -413,6 +420,16 @@ def series_xy(result: dict, name: str, duration_s: float):
     if not (_numbers(values) or _nested_numbers(values)):
         return None
     n = len(values[0]) if _nested_numbers(values) else len(values)
+    if times is None and hop is None and not isinstance(raw, dict):
+        # a shared time axis (e.g. ``loudness_time_s`` for momentary and short-term): a key
+        # ending in ``_time_s`` whose first word matches the series', else any of the same length
+        first_word = name.split("_")[0]
+        candidates = sorted(k for k in series if k.endswith("_time_s") and _numbers(series[k])
+                            and len(series[k]) == n)
+        preferred = [k for k in candidates if k.split("_")[0] == first_word] + \
+                    [k for k in candidates if k.startswith("loudness_") and name.endswith("_lufs")]
+        chosen = (preferred or candidates or [None])[0]
+        times = series.get(chosen) if chosen else None
     if _numbers(times) and len(times) == n:
         t = [float(x) for x in times]
     elif _is_number(hop) and hop > 0:
@@ -496,12 +513,9 @@ def _ceiling(result: dict):
         parsed = _parse_band(f.get("limit"))
         if parsed and parsed[1] is not None:
             return parsed[1], "spec"
-    settings = result.get("settings") or {}
-    for block in settings.values():
-        if isinstance(block, dict):
-            v = _first(block, ("ceiling_dbtp", "true_peak_ceiling_dbtp", "over_ceiling_dbtp"))
-            if _is_number(v):
-                return float(v), "settings"
+    v = (result.get("measurements") or {}).get("true_peak_ceiling_dbtp")
+    if _is_number(v):
+        return float(v), "measurement"
     return None, None
 
 
@@ -564,7 +578,8 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     note = ""
     if ceiling is not None:
         note = (f"Dashed line: the {'spec' if source == 'spec' else 'measurement'} ceiling "
-                f"{fmt.number(ceiling, 1)} dBTP; triangles and shaded spans mark the overs.")
+                f"{fmt.number(ceiling, 1)} dBTP; triangles and shaded spans mark the overs."
+                + (" The envelope is the highest channel in each time step." if len(envelopes) == 1 else ""))
     return {"svg": svg, "rows": rows, "note": note, "present": True}
 
 
@@ -576,11 +591,14 @@ def _conversion_targets(result: dict) -> list[float]:
             v = _first(item, ("target_hz", "target_rate_hz", "rate_hz", "sample_rate_hz"))
             if _is_number(v):
                 targets.append(float(v))
-    for block in (result.get("settings") or {}).values():
-        if isinstance(block, dict):
-            v = block.get("conversion_targets_hz")
+    def visit(block, depth):
+        if isinstance(block, dict) and depth < 3:
+            v = block.get("conversion_targets_hz", block.get("targets_hz"))
             if _numbers(v):
-                targets += [float(x) for x in v]
+                targets.extend(float(x) for x in v)
+            for sub in block.values():
+                visit(sub, depth + 1)
+    visit(result.get("settings") or {}, 0)
     return sorted(set(targets))
 
 
@@ -650,8 +668,10 @@ def spectrogram_view(result: dict, labels: TimeLabels, duration_s: float) -> dic
                 "note": "Spectrogram present but its axes do not match its values; not drawn."}
     lines = [(f, t) for f, t in _reference_lines(result, rate) if f < rate / 2.0]
     svg = plots.spectrogram_plot(times, freqs, values, labels.axis(), duration_s, rate, lines)
-    return {"svg": svg, "present": True, "note": note + "Colour: cividis map, dark is quiet, light is loud; "
-            "dashed lines at 20 kHz and each conversion target's Nyquist."}
+    if isinstance(raw.get("note"), str):
+        note += fmt.clean_text(raw["note"]).rstrip(".") + ". "
+    return {"svg": svg, "present": True, "note": note + "Colour: dark is quiet, light is loud (cividis map); "
+            "dashed lines at 20 kHz and each conversion target's Nyquist frequency."}
 
 
 # ----------------------------------------------------------------- events
@@ -695,9 +715,11 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
         return {"svg": None, "rows": [], "present": False,
                 "note": "Not measured: the result holds no located events (keys ending in \u201c_where_s\u201d "
                         "or \u201c_ranges_s\u201d, head or tail silence)."}
-    svg = plots.markers_plot(duration_s, labels.axis(), lanes) if duration_s > 0 else None
+    drawn = [lane for lane in lanes if lane[1]]
+    svg = plots.markers_plot(duration_s, labels.axis(), drawn) if duration_s > 0 and drawn else None
     return {"svg": svg, "rows": table, "present": True,
-            "note": "Events too short to see at this scale are widened to be visible and marked with a triangle."}
+            "note": "Only kinds with at least one event are drawn. Events too short to see at this scale are "
+                    "widened to be visible and marked with a triangle."}
 
 
 # ----------------------------------------------------------------- tables
@@ -756,10 +778,49 @@ def conversions_view(result: dict) -> dict:
     return {"table": table, "note": ""}
 
 
+_HEADROOM_ROWS = [
+    ("target_lufs", "Target loudness"), ("gain_db", "Gain to reach the target"),
+    ("true_peak_after_gain_dbtp", "True peak after that gain"), ("ceiling_dbtp", "True-peak ceiling"),
+    ("limiting_needed_db", "Peak limiting needed"),
+]
+
+
+def headroom_sentence(norm: dict) -> str:
+    """One plain sentence from the normalisation figures (already computed by the judge layer)."""
+    gain, after = norm.get("gain_db"), norm.get("true_peak_after_gain_dbtp")
+    target, ceiling, limiting = norm.get("target_lufs"), norm.get("ceiling_dbtp"), norm.get("limiting_needed_db")
+    if not (_is_number(gain) and _is_number(target)):
+        return ""
+    text = (f"Playing this master at {fmt.number(float(target), 1)} LUFS means a gain of "
+            f"{fmt.signed(float(gain), 1)} dB")
+    if _is_number(after):
+        text += f", which puts its true peak at {fmt.number(float(after), 1)} dBTP"
+    if _is_number(limiting) and _is_number(ceiling):
+        if limiting > 0:
+            text += (f": {fmt.number(float(limiting), 1)} dB over the {fmt.number(float(ceiling), 1)} dBTP "
+                     "ceiling, so a normaliser would have to limit the peaks by that much")
+        else:
+            text += f", within the {fmt.number(float(ceiling), 1)} dBTP ceiling: no limiting needed"
+    return text + "."
+
+
 def normalisation_view(result: dict) -> dict:
     norm = result.get("normalisation")
     if norm is None:
         norm = result.get("normalization")
+    if isinstance(norm, dict) and any(k in norm for k, _l in _HEADROOM_ROWS):
+        rows = []
+        for key, label in _HEADROOM_ROWS:
+            if key in norm:
+                v = norm[key]
+                text = fmt.signed(v, 1) + "\u00a0dB" if key == "gain_db" and _is_number(v) else \
+                    fmt.value_for_key(key, v)
+                src = norm.get(key.replace("_lufs", "_source").replace("_dbtp", "_source"))
+                if key in ("target_lufs", "ceiling_dbtp") and src:
+                    text += f" (from {fmt.clean_text(src)})"
+                rows.append((label, text))
+        note = fmt.clean_text(norm["note"]) if norm.get("note") else ""
+        return {"table": None, "rows": rows, "sentence": headroom_sentence(norm), "note": note}
     if isinstance(norm, dict):
         items = norm.get("targets") if isinstance(norm.get("targets"), list) else None
         if items is None:
@@ -770,9 +831,10 @@ def normalisation_view(result: dict) -> dict:
         norm = items
     table = records_table(norm if isinstance(norm, list) else [], ("target", "name", "target_lufs"))
     if table is None:
-        return {"table": None, "note": "Not computed: the result holds no \u201cnormalisation\u201d block "
-                "(a check with a normalisation section in the spec adds it)."}
-    return {"table": table, "note": ""}
+        return {"table": None, "rows": [], "sentence": "",
+                "note": "Not computed: the result holds no \u201cnormalisation\u201d block "
+                "(masterqc check adds it from the spec's loudness target and true-peak ceiling)."}
+    return {"table": table, "rows": [], "sentence": "", "note": ""}
 
 
 def provenance_view(result: dict) -> dict:

@@ -1,0 +1,37 @@
+"""``masterqc report RESULT.json``: re-render HTML/PDF from a saved result, without re-measuring."""
+
+from __future__ import annotations
+
+import os
+import sys
+from pathlib import Path
+
+
+def add_parser(sub) -> None:
+    """Add the ``report`` sub-command to an argparse sub-parsers object."""
+    r = sub.add_parser("report", help="re-render the HTML/PDF report of a saved result JSON (no re-measuring)")
+    r.add_argument("results", nargs="+", metavar="RESULT.json", help="result files written by check or measure --json")
+    r.add_argument("--out", default=None, help="folder for the reports (default: beside each result file)")
+    r.add_argument("--format", dest="formats", default="html,pdf",
+                   help="comma-separated report formats from html,pdf (default: html,pdf)")
+    r.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size (default: a4)")
+    r.set_defaults(func=cmd_report)
+
+
+def cmd_report(args) -> int:
+    """Render every named result; exit 2 (UsageError) when any result file is missing or invalid.
+
+    Every file is validated before anything is written, so a typo in the
+    second name does not leave the first re-rendered alone and unnoticed.
+    """
+    from masterqc.report.render import RENDER_FORMATS, load_result, parse_formats, write_reports
+
+    formats = parse_formats(args.formats, allowed=RENDER_FORMATS)
+    loaded = [(Path(p), load_result(p)) for p in args.results]  # UsageError -> exit 2
+    for path, result in loaded:
+        out_dir = Path(args.out) if args.out else (path.parent if str(path.parent) else Path("."))
+        stem = path.stem
+        written = write_reports(result, out_dir, stem, formats, paper=args.paper)
+        sys.stdout.write(f"{str(result.get('verdict') or 'measured').upper():8s} {path} -> "
+                         + ", ".join(os.fspath(w) for w in written) + "\n")
+    return 0
