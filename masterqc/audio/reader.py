@@ -111,9 +111,9 @@ class AudioStream:
         try:
             self._sf = sf.SoundFile(self.path)
         except sf.LibsndfileError as exc:
-            raise AudioReadError(self.path, f"not a readable audio file ({_clean(exc)})") from None
-        except (RuntimeError, TypeError, ValueError) as exc:
-            raise AudioReadError(self.path, f"not a readable audio file ({exc})") from None
+            raise _unreadable(self.path, _clean(exc)) from None
+        except (RuntimeError, TypeError, ValueError, OSError) as exc:
+            raise _unreadable(self.path, str(exc)) from None
         try:
             self.container: ContainerInfo = walk(self.path)
             container = CONTAINERS.get(self._sf.format)
@@ -157,7 +157,7 @@ class AudioStream:
         while True:
             try:
                 block = self._sf.read(block_frames, dtype="float64", always_2d=True)
-            except sf.LibsndfileError as exc:
+            except (RuntimeError, ValueError, OSError) as exc:  # LibsndfileError is a RuntimeError
                 raise AudioReadError(self.path, f"decoding failed after frame {done} ({_clean(exc)})") from None
             if block.shape[0] == 0:
                 break
@@ -174,6 +174,16 @@ class AudioStream:
 
     def __exit__(self, *exc):
         self.close()
+
+
+def _unreadable(path, cause: str) -> AudioReadError:
+    """The error for a file libsndfile refuses, naming the walker's first container problem and its offset."""
+    info = walk(path)
+    if info.problems:
+        first = info.problems[0]
+        return AudioReadError(path, f"not a readable audio file ({cause}); container: {first['message']}",
+                              first["offset"])
+    return AudioReadError(path, f"not a readable audio file ({cause})")
 
 
 def _clean(exc) -> str:
