@@ -29,6 +29,7 @@ JUDGES: list[tuple[str, str]] = [
     ("peaks", "masterqc.judge.peaks"),
     ("normalisation", "masterqc.judge.normalisation"),
     ("metadata", "masterqc.judge.metadata"),
+    ("integrity", "masterqc.judge.integrity"),
 ]
 
 

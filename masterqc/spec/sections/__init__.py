@@ -34,6 +34,7 @@ SECTIONS: list[tuple[str, str]] = [
     ("duration", "masterqc.spec.sections.duration"),
     ("normalisation", "masterqc.spec.sections.normalisation"),
     ("metadata", "masterqc.spec.sections.metadata"),
+    ("integrity", "masterqc.spec.sections.integrity"),
 ]
 
 

@@ -1,0 +1,174 @@
+"""Judge of the ``integrity:`` section against the sample-level measurements.
+
+Times in findings are seconds from the file start (``where_s``); the report
+shows them as timecode.  Non-finite samples give an ``error`` finding with
+the first positions whatever else the spec asks.
+"""
+
+from __future__ import annotations
+
+from masterqc.judge.core import Finding, check_allowed, check_limits, skipped
+
+_MISSING = "the measurement {key} is missing from the result"
+
+
+def _per_channel(result: dict, values) -> str:
+    """``" (L: 2, R: 0)"`` for per-channel values, or ``""``."""
+    labels = (result.get("format") or {}).get("channel_layout") or []
+    if not values or len(values) != len(labels):
+        return ""
+    return " (" + ", ".join(f"{lab}: {v}" for lab, v in zip(labels, values)) + ")"
+
+
+def _why(m: dict, key: str, reason: str) -> str:
+    return reason if key in m else _MISSING.format(key=key)
+
+
+def _nonfinite(section, result: dict, m: dict) -> list[Finding]:
+    count = m.get("nonfinite_sample_count")
+    if count is None:
+        if "nonfinite_samples" in section.model_fields_set:
+            return [skipped("integrity.nonfinite_samples", "non-finite samples: not judged, "
+                            + _MISSING.format(key="nonfinite_sample_count"))]
+        return []
+    if count == 0:
+        if "nonfinite_samples" in section.model_fields_set:
+            return [Finding(check="integrity.nonfinite_samples", status="pass", measured=0, measured_raw=0,
+                            limit="none", measured_text="0",
+                            message="no non-finite samples (NaN, +-Inf)")]
+        return []
+    first = m.get("nonfinite_first_positions") or []
+    shown = ", ".join(f"{p['kind']} in {p['channel']} at frame {p['frame']} ({p['time_s']:.6f} s)"
+                      for p in first[:5])
+    more = f" and {count - min(len(first), 5)} more" if count > min(len(first), 5) else ""
+    return [Finding(check="integrity.nonfinite_samples", status="error", measured=count, measured_raw=count,
+                    limit="none", measured_text=str(count),
+                    where_s=[list(w) for w in (m.get("nonfinite_where_s") or [])],
+                    message=f"{count} non-finite sample(s) (NaN {m.get('nan_sample_count', '?')}, "
+                            f"infinite {m.get('inf_sample_count', '?')}){_per_channel(result, m.get('nonfinite_samples_per_channel'))}"
+                            f": first {shown}{more}; they were read as 0.0 for every other measurement")]
+
+
+def _dc(section, m: dict) -> Finding:
+    value = m.get("dc_offset_dbfs")
+    per = m.get("dc_offset_dbfs_per_channel")
+    if value is None and per is not None and all(v is None for v in per):
+        # every channel has a mean of exactly zero: no DC at all, which meets any ceiling
+        return Finding(check="integrity.dc_offset", status="pass", severity=section.dc_offset.severity,
+                       limit=f"<= {section.dc_offset.max_dbfs:.1f} dBFS", unit="dBFS",
+                       message="DC offset: every channel's mean is exactly zero")
+    return check_limits("integrity.dc_offset", "DC offset (worst channel)", value, section.dc_offset,
+                        missing_reason=_MISSING.format(key="dc_offset_dbfs"))
+
+
+def _worst_balance(m: dict):
+    pairs = m.get("channel_pairs") or []
+    values = m.get("level_balance_lu_per_pair") or []
+    best = None
+    for pair, v in zip(pairs, values):
+        if v is not None and (best is None or abs(v) > abs(best[1])):
+            best = ("/".join(pair), v)
+    return best
+
+
+def _lowest_depth(result: dict, m: dict):
+    per = m.get("effective_bit_depth_per_channel") or []
+    labels = (result.get("format") or {}).get("channel_layout") or [f"ch{i + 1}" for i in range(len(per))]
+    known = [(v, lab) for v, lab in zip(per, labels) if v is not None]
+    return min(known) if known else None
+
+
+def judge(section, result: dict) -> list[Finding]:
+    m = result.get("measurements") or {}
+    out: list[Finding] = []
+    s = section
+    if s.nonfinite_samples:
+        out += _nonfinite(s, result, m)
+    if s.clipped_runs is not None:
+        f = check_limits("integrity.clipped_runs", "clipped runs", m.get("clipped_runs"), s.clipped_runs,
+                         where_s=m.get("clipped_run_where_s") or [],
+                         missing_reason=_MISSING.format(key="clipped_runs"))
+        if f.status in ("warn", "fail"):
+            f.message += _per_channel(result, m.get("clipped_runs_per_channel"))
+            f.message += f"; longest run {m.get('clipped_run_longest_samples')} samples"
+        out.append(f)
+    if s.over_full_scale_samples is not None:
+        out.append(check_limits(
+            "integrity.over_full_scale_samples", "samples beyond full scale", m.get("over_full_scale_sample_count"),
+            s.over_full_scale_samples,
+            missing_reason=_why(m, "over_full_scale_sample_count",
+                                "integer PCM cannot exceed full scale (only float files are judged)")))
+    if s.dc_offset is not None:
+        out.append(_dc(s, m))
+    if s.subsonic_energy is not None:
+        out.append(check_limits("integrity.subsonic_energy", "energy below 20 Hz (worst channel)",
+                                m.get("subsonic_energy_db"), s.subsonic_energy,
+                                missing_reason=_why(m, "subsonic_energy_db", "every channel is digital silence")))
+    for key, what, where in (("head_silence", "silence at the head", "head"),
+                             ("tail_silence", "silence at the tail", "tail"),
+                             ("head_digital_silence", "digital silence at the head", "head"),
+                             ("tail_digital_silence", "digital silence at the tail", "tail")):
+        req = getattr(s, key)
+        if req is None:
+            continue
+        value = m.get(f"{key}_s")
+        f = check_limits(f"integrity.{key}", what, value, req, missing_reason=_MISSING.format(key=f"{key}_s"))
+        if f.status in ("warn", "fail") and value is not None:
+            dur = (result.get("format") or {}).get("duration_s")
+            if where == "head":
+                f.where_s = [[0.0, float(value)]] if value > 0 else []
+            elif dur is not None and value > 0:
+                f.where_s = [[float(dur) - float(value), float(dur)]]
+        out.append(f)
+    if s.dropouts is not None:
+        f = check_limits("integrity.dropouts", "dropouts", m.get("dropout_count"), s.dropouts,
+                         where_s=m.get("dropout_where_s") or [], missing_reason=_MISSING.format(key="dropout_count"))
+        if f.status in ("warn", "fail"):
+            f.message += _per_channel(result, m.get("dropout_count_per_channel"))
+            events = m.get("dropout_events") or []
+            kinds = {e["kind"] for e in events}
+            if kinds:
+                f.message += "; " + " and ".join(sorted(kinds)) + " runs"
+        out.append(f)
+    if s.effective_bit_depth is not None:
+        low = _lowest_depth(result, m)
+        what = f"effective bit depth (lowest channel, {low[1]})" if low else "effective bit depth"
+        reason = _why(m, "effective_bit_depth_per_channel", "every channel is digital silence")
+        out.append(check_limits("integrity.effective_bit_depth", what, low[0] if low else None,
+                                s.effective_bit_depth, missing_reason=reason))
+    mono = ((result.get("format") or {}).get("channels") or 0) < 2
+    mono_reason = "the file has one channel" if mono else "the channels are digital silence"
+    if s.dual_mono is not None:
+        out.append(check_allowed("integrity.dual_mono", "first channel pair identical (dual mono)",
+                                 m.get("dual_mono"), s.dual_mono, show=lambda v: str(v).lower(),
+                                 missing_reason=_why(m, "dual_mono", mono_reason)))
+    if s.inverted_polarity is not None:
+        f = check_allowed("integrity.inverted_polarity", "channel pair in inverted polarity",
+                          m.get("inverted_polarity"), s.inverted_polarity, show=lambda v: str(v).lower(),
+                          missing_reason=_why(m, "inverted_polarity", mono_reason))
+        pairs = m.get("inverted_polarity_pairs") or []
+        if f.status in ("warn", "fail") and pairs:
+            f.message += " (" + ", ".join("/".join(p) for p in pairs) + ")"
+        out.append(f)
+    if s.phase_correlation is not None:
+        out.append(check_limits("integrity.phase_correlation", "lowest phase correlation (100 ms windows)",
+                                m.get("phase_correlation_min"), s.phase_correlation,
+                                missing_reason=_why(m, "phase_correlation_min",
+                                                    "no channel pair, or no window above the level floor")))
+    if s.phase_correlation_below is not None:
+        share = m.get("phase_correlation_below_share")
+        out.append(check_limits("integrity.phase_correlation_below", "share of time below the phase threshold",
+                                None if share is None else 100.0 * share, s.phase_correlation_below,
+                                missing_reason=_why(m, "phase_correlation_below_share",
+                                                    "no channel pair, or no window above the level floor")))
+    if s.level_balance is not None:
+        worst = _worst_balance(m)
+        what = f"level balance {worst[0]} (magnitude)" if worst else "level balance"
+        f = check_limits("integrity.level_balance", what, abs(worst[1]) if worst else None, s.level_balance,
+                         missing_reason=_why(m, "level_balance_lu_per_pair",
+                                             "no channel pair with signal in both channels"))
+        if worst and f.status in ("warn", "fail"):
+            side = worst[0].split("/")[0 if worst[1] > 0 else 1]
+            f.message += f"; {side} is louder"
+        out.append(f)
+    return out

@@ -1,0 +1,115 @@
+"""``integrity:`` -- sample-level requirements: clipping, DC, silence, dropouts, bit depth, channels::
+
+    integrity:
+      clipped_runs: {max_count: 0}               # runs of >= clip_min_run_samples at full scale
+      clip_min_run_samples: 3                    # common practice, no source
+      clip_threshold_db: 0.0                     # how far below full scale still counts as clipped
+      over_full_scale_samples: {max_count: 0}    # float files: samples beyond +-1.0
+      dc_offset: {max_dbfs: -60.0}               # mean level of the worst channel
+      subsonic_energy: {max_db: -30.0, severity: warn}   # energy below 20 Hz vs total
+      head_silence: {min_s: 0.5, max_s: 2.0}     # near-silence at the start (sample peak)
+      tail_silence: {min_s: 1.0}
+      silence_threshold_dbfs: -60.0
+      dropouts: {max_count: 0}                   # mid-file digital silence or frozen values
+      dropout_min_s: 0.005
+      effective_bit_depth: {min_bits: 24}        # judged on the lowest non-silent channel
+      dual_mono: [false]
+      inverted_polarity: [false]
+      phase_correlation: {min_corr: -0.3, severity: warn}
+      phase_correlation_below: {max_percent: 5.0}  # share of time below the threshold
+      phase_correlation_threshold: 0.0
+      level_balance: {max_lu: 1.5}               # |balance| of the worst channel pair, K-weighted
+
+The section always exists: non-finite samples (NaN, +-Inf) in a float file
+give an ``error`` finding with their first positions even when a spec leaves
+the section out (``nonfinite_samples: false`` turns the check off; writing
+``true`` also reports a pass when there are none).
+
+Every key is optional; leave a key out and that property is measured and
+reported but not judged.
+"""
+
+from __future__ import annotations
+
+from pydantic import Field
+
+from masterqc.spec.types import SpecModel, allowed, bounds, ceiling, floor
+
+ALWAYS = True
+
+
+class Section(SpecModel):
+    """Sample-level integrity requirements (clipping, DC, silence, dropouts, non-finite, bit depth, channels)."""
+
+    clipped_runs: ceiling("count") | None = Field(
+        None, description="most clipped runs allowed, counted over all channels (e.g. {max_count: 0})")
+    clip_min_run_samples: int | None = Field(
+        None, ge=1, le=1000, description="a clipped run is at least this many consecutive full-scale samples "
+                                         "(default 3; common practice)")
+    clip_threshold_db: float | None = Field(
+        None, ge=0.0, le=6.0, description="how far below full scale, dB, a sample still counts as clipped "
+                                          "(default 0: exactly the full-scale code)")
+    over_full_scale_samples: ceiling("count") | None = Field(
+        None, description="float files: most samples allowed beyond full scale (+-1.0)")
+    dc_offset: ceiling("dbfs") | None = Field(
+        None, description="highest DC offset (mean level) of any channel, dBFS")
+    subsonic_energy: ceiling("db") | None = Field(
+        None, description="highest energy below 20 Hz relative to the channel's total energy, dB")
+    head_silence: bounds("s") | None = Field(
+        None, description="near-silence at the start of the file, s (frames where every channel is at or "
+                          "below silence_threshold_dbfs)")
+    tail_silence: bounds("s") | None = Field(None, description="near-silence at the end of the file, s")
+    head_digital_silence: bounds("s") | None = Field(
+        None, description="digital silence (exact zeros) at the start of the file, s")
+    tail_digital_silence: bounds("s") | None = Field(
+        None, description="digital silence (exact zeros) at the end of the file, s")
+    silence_threshold_dbfs: float | None = Field(
+        None, le=0.0, ge=-200.0, description="sample level at or below which a frame counts as near-silent, dBFS "
+                                             "(default -60)")
+    dropouts: ceiling("count") | None = Field(
+        None, description="most dropouts allowed (mid-file runs of digital silence or of a frozen value), "
+                          "counted per channel")
+    dropout_min_s: float | None = Field(
+        None, gt=0.0, le=10.0, description="shortest run reported as a dropout, s (default 0.005)")
+    nonfinite_samples: bool = Field(
+        True, description="judge non-finite samples (NaN, +-Inf): an error finding with the first positions")
+    effective_bit_depth: floor("bits") | None = Field(
+        None, description="fewest bits of resolution any non-silent channel may actually use (e.g. {min_bits: 24})")
+    dual_mono: allowed(bool, "false") | None = Field(
+        None, description="allowed values of 'the first channel pair is identical', e.g. [false]")
+    inverted_polarity: allowed(bool, "false") | None = Field(
+        None, description="allowed values of 'a channel pair is in inverted polarity', e.g. [false]")
+    inverted_polarity_correlation: float | None = Field(
+        None, ge=-1.0, le=0.0, description="a pair whose whole-file correlation is at or below this counts as "
+                                           "inverted polarity (default -0.5)")
+    phase_correlation: floor("corr") | None = Field(
+        None, description="lowest phase correlation allowed in any 100 ms window of any channel pair")
+    phase_correlation_below: ceiling("percent") | None = Field(
+        None, description="largest share of time, %, of the first pair below phase_correlation_threshold")
+    phase_correlation_threshold: float | None = Field(
+        None, ge=-1.0, le=1.0, description="correlation below which time is counted for phase_correlation_below "
+                                           "(default 0.0)")
+    level_balance: ceiling("lu") | None = Field(
+        None, description="largest level difference between the channels of a pair (L/R, Ls/Rs, ...), "
+                          "K-weighted, LU")
+
+
+#: spec key -> MeasureOptions field
+_OPTIONS = {
+    "clip_min_run_samples": "clip_min_run_samples",
+    "clip_threshold_db": "clip_threshold_db",
+    "silence_threshold_dbfs": "silence_threshold_dbfs",
+    "dropout_min_s": "dropout_min_s",
+    "phase_correlation_threshold": "phase_correlation_threshold",
+    "inverted_polarity_correlation": "inverted_polarity_correlation",
+}
+
+
+def measure_options(section: Section) -> dict:
+    """The measurement choices the section sets (only those given)."""
+    out = {}
+    for key, option in _OPTIONS.items():
+        value = getattr(section, key)
+        if value is not None:
+            out[option] = value
+    return out
