@@ -209,7 +209,8 @@ def gating_block_histogram(block_energies) -> dict:
     return out
 
 
-def _merge_histograms(histograms):
+def _histogram_entries(histograms):
+    """Concatenate the (bin, count, energy) entries of several histograms, unmerged."""
     bins, counts, energies = [], [], []
     for h in histograms:
         if h is None:
@@ -223,14 +224,24 @@ def _merge_histograms(histograms):
         energies.append(np.asarray(h["energy"], dtype=float))
     if not bins:
         return np.zeros(0, np.int64), np.zeros(0), np.zeros(0)
-    b = np.concatenate(bins)
-    u, inv = np.unique(b, return_inverse=True)
-    return u, np.bincount(inv, weights=np.concatenate(counts)), np.bincount(inv, weights=np.concatenate(energies))
+    return np.concatenate(bins), np.concatenate(counts), np.concatenate(energies)
 
 
 def _pooled(histograms):
-    """(integrated energy with the straddling bin apportioned, bound in LU) or (None, None)."""
-    bins, counts, energies = _merge_histograms(histograms)
+    """(integrated mean square, error bound in LU), or (None, None) when nothing is above -70 LUFS.
+
+    The relative gate ``g`` is exact (sums of energies and counts).  Entries are kept per
+    histogram (not merged).  An entry wholly above the gate counts in, wholly below counts
+    out; an entry of one block is classified exactly (its energy sum is the block's
+    energy).  For an entry of ``c`` blocks, energy sum ``E``, whose bin ``(lo, hi]``
+    straddles the gate, the number ``k`` of its blocks above the gate is confined by the
+    energy sum: blocks above lie in ``(g, hi]``, blocks below in ``(lo, g]``, so
+    ``(E - c g) / (hi - g) <= k < (E - c lo) / (g - lo)``.  The estimate takes the middle
+    of that range with the entry's mean block energy; the bound is the spread between
+    taking every such entry at its fewest blocks with the most energy and at its most
+    blocks with the least energy.
+    """
+    bins, counts, energies = _histogram_entries(histograms)
     total = counts.sum()
     if total <= 0:
         return None, None
@@ -238,24 +249,30 @@ def _pooled(histograms):
     gate_lufs = energy_to_lufs(gate)
     lower = ABSOLUTE_GATE_LUFS + bins * HISTOGRAM_BIN_LU     # bin i holds (lower, upper]
     upper = lower + HISTOGRAM_BIN_LU
-    inside = upper <= gate_lufs          # wholly at or below the gate: excluded
-    above = lower >= gate_lufs           # wholly above the gate: included
-    straddle = ~inside & ~above
-    n_in, e_in = counts[above].sum(), energies[above].sum()
-    n_s, e_s = counts[straddle].sum(), energies[straddle].sum()
-    frac = 0.0
-    if n_s:
-        lo = lower[straddle][0]
-        frac = (lo + HISTOGRAM_BIN_LU - gate_lufs) / HISTOGRAM_BIN_LU
-    n, e = n_in + frac * n_s, e_in + frac * e_s
-    if n <= 0:
-        # every block sits in the straddling bin just above the gate
-        n, e = n_s, e_s
-    value = e / n
-    # worst case: the straddling bin's blocks all included or all excluded
-    candidates = [v for v in ((e_in + e_s) / (n_in + n_s) if n_in + n_s else None,
-                              e_in / n_in if n_in else None) if v]
-    bound = max(abs(energy_to_lufs(v) - energy_to_lufs(value)) for v in candidates) if candidates else 0.0
+    single = counts == 1
+    include = np.where(single, energies > gate, lower >= gate_lufs)
+    straddle = ~single & (lower < gate_lufs) & (upper > gate_lufs)
+    n_in, e_in = counts[include].sum(), energies[include].sum()
+    c, e = counts[straddle], energies[straddle]
+    e_lo, e_hi = lufs_to_energy(lower[straddle]), lufs_to_energy(upper[straddle])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k_min = np.clip(np.ceil((e - c * gate) / (e_hi - gate) - 1e-9), 0, c)
+        k_max = np.clip(np.floor((e - c * e_lo) / (gate - e_lo) + 1e-9), 0, c)
+    k_max = np.maximum(k_max, k_min)
+    k_est = 0.5 * (k_min + k_max)
+    mean = e / np.maximum(c, 1)
+    n_est, e_est = n_in + k_est.sum(), e_in + (k_est * mean).sum()
+    if n_est <= 0:   # pragma: no cover - the loudest block is always above the gate
+        return None, None
+    value = e_est / n_est
+    # extremes: fewest blocks above, each as loud as its bin allows / most blocks, least energy
+    hi_e = np.minimum(k_min * e_hi, e - (c - k_min) * e_lo)
+    lo_e = np.maximum(k_max * gate, e - (c - k_max) * gate)
+    candidates = []
+    if n_in + k_min.sum() > 0:
+        candidates.append((e_in + hi_e.sum()) / (n_in + k_min.sum()))
+    candidates.append((e_in + lo_e.sum()) / (n_in + k_max.sum()))
+    bound = max(abs(energy_to_lufs(v) - energy_to_lufs(value)) for v in candidates if v > 0)
     return value, bound
 
 
@@ -264,8 +281,9 @@ def pooled_integrated_lufs(histograms) -> float | None:
 
     ``histograms``: iterable of :func:`gating_block_histogram` dicts (None entries are
     skipped).  The relative gate is computed exactly from the bins' energy sums; only
-    the blocks of the one bin that the gate falls into are apportioned, by the share
-    of the bin's 0.01 LU width above the gate.  :func:`pooled_integrated_error_bound_lu`
+    blocks in bins that the gate falls into are uncertain: a bin entry holding one block
+    is classified exactly (its energy sum is the block's energy), entries of several
+    blocks are apportioned by the share of the bin's 0.01 LU width above the gate.  :func:`pooled_integrated_error_bound_lu`
     gives the largest error that apportioning can cause.  None when no block is
     above -70 LUFS.
     """
