@@ -11,4 +11,6 @@ def analyzer_classes():
     classes += [loudness.LoudnessAnalyzer, peaks.SamplePeakAnalyzer, peaks.TruePeakAnalyzer]
     from masterqc.measure import bitdepth, channels, clipping, dcoffset, nonfinite, silence
     classes += [clipping.ClippingAnalyzer, dcoffset.DcOffsetAnalyzer, silence.SilenceAnalyzer, nonfinite.NonFiniteAnalyzer, bitdepth.BitDepthAnalyzer, channels.ChannelRelationAnalyzer]
+    from masterqc.measure import spectral
+    classes += [spectral.SamplingSpectrumAnalyzer]
     return classes

@@ -1,0 +1,343 @@
+"""Effective bandwidth, converter cliffs and upsampling from a lower rate.
+
+Works on the channel-summed long-term average spectrum (10 Hz bins) of
+:mod:`masterqc.measure.spectral`.  All functions are pure; levels in dB,
+frequencies in Hz.
+
+Method (:func:`assess`):
+
+1. Envelope ``C``: the LTAS in dB, morphologically *closed* over
+   :data:`CLOSING_HZ` (running max, then running min: gaps between the partials
+   of a harmonic tone narrower than that are filled, while a step edge stays
+   where it is), then smoothed over :data:`SMOOTH_HZ`.
+2. Cliff search: for every edge position ``e`` (50 Hz grid) the pass level
+   ``pre(e)`` is the median of ``C`` over ``[e - 1.5 kHz, e - 0.5 kHz]`` and the
+   stop level ``post(e)`` the 90th percentile of ``C`` over
+   ``[e + 3 kHz, e + 9 kHz]`` (the 3 kHz gap leaves room for the transition
+   band of an ordinary resampler: scipy's ``resample_poly`` default falls from
+   -6 dB at the old Nyquist to -55 dB about 4 kHz higher).  The 90th percentile
+   ignores a few narrow tones above the edge.  The position with the largest
+   ``drop = pre - post`` wins if the drop is at least :data:`CLIFF_MIN_DROP_DB`,
+   the region below the edge is broadband content (within
+   :data:`PASS_FLATNESS_DB` of its median over 1.5 kHz, i.e. not the skirt of a
+   single tone), everything above the edge stays at least
+   :data:`CLIFF_MIN_DROP_DB` below the pass level, and the fall is steep
+   (average slope from -6 dB to the bottom at least :data:`CLIFF_MIN_SLOPE_DB_PER_KHZ`).
+   The content below the edge must also be broadband (the median 10 Hz bin
+   within :data:`BROADBAND_GAP_DB` of the envelope over 0.5-5 kHz below it):
+   a sparse harmonic series that simply ends is reported as tonal material,
+   with its last partial as the effective bandwidth and no verdict.
+3. The edge frequency is the -6 dB point relative to the pass level measured
+   2-5 kHz below the edge (a windowed-sinc converter is -6 dB at its cutoff).
+   A cliff whose edge lies within [0.88, 1.03] of a standard rate's Nyquist
+   (:data:`CANDIDATE_RATES_HZ`), and that is at least :data:`UPSAMPLED_MIN_DEPTH_DB`
+   deep, reads as upsampling from that rate; any other cliff is a band limit.
+4. Without a cliff, the effective bandwidth is the highest frequency where
+   ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor;
+   below 0.97 x Nyquist that edge is a (natural) roll-off.
+
+A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
+least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
+walls are codec or filter band limits).  A cliff above :data:`OWN_FILTER_RATIO`
+of the file's Nyquist that matches no rate is the file's own anti-alias filter
+and is not reported.
+
+A candidate rate is untestable (listed in ``untestable_source_rates_hz``) when
+its Nyquist lies above :data:`TESTABLE_MAX_RATIO` of the file's Nyquist (no
+room to see a stop band below the file's own anti-alias filter), or when the
+file has no content just below the candidate's Nyquist (nothing there could
+show a cliff: typical of 88.2 kHz inside a 96 kHz music master, whose
+content above 35 kHz is at the noise floor).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
+
+from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, array_of
+
+#: standard rates a master may have been made at (Hz)
+CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400, 192000)
+#: closing width of the envelope (own reasoning: fills the gaps of tones with f0 up to ~1 kHz)
+CLOSING_HZ = 1010.0
+#: smoothing of the envelope
+SMOOTH_HZ = 110.0
+#: minimum pass-to-stop drop of a cliff, dB (own reasoning: "tens of dB"; natural roll-offs do not fall 20 dB in 3 kHz at these frequencies)
+CLIFF_MIN_DROP_DB = 20.0
+#: minimum average slope of a cliff, dB/kHz (own reasoning: a 12 dB/octave acoustic roll-off is 0.6 dB/kHz at 20 kHz; converter filters fall 10-50 dB/kHz)
+CLIFF_MIN_SLOPE_DB_PER_KHZ = 5.0
+#: minimum depth of a cliff read as upsampling, dB (own reasoning: ordinary resamplers reach 50 dB or more of stop-band rejection; codec shelves are shallower)
+UPSAMPLED_MIN_DEPTH_DB = 40.0
+#: the region below an edge must stay within this many dB of its median (own reasoning)
+PASS_FLATNESS_DB = 12.0
+#: below an edge, the median bin must lie within this many dB of the closed envelope for the content to count as broadband (own reasoning: between the partials of a sparse harmonic series the bins sit far below the envelope)
+BROADBAND_GAP_DB = 10.0
+#: "clearly above the floor", dB (own reasoning)
+ABOVE_FLOOR_DB = 10.0
+#: the edge of a standard rate must lie within this fraction of its Nyquist (own reasoning, from windowed-sinc and half-band converter designs)
+EDGE_RATIO_RANGE = (0.88, 1.03)
+#: most likely edge position relative to the source Nyquist
+EDGE_RATIO_TYPICAL = 0.975
+#: a candidate whose Nyquist is above this fraction of the file's Nyquist is untestable (own reasoning: the stop band must be visible below the file's own anti-alias filter)
+TESTABLE_MAX_RATIO = 0.93
+#: a cliff whose edge is above this fraction of the file's Nyquist is the file's own anti-alias filter (own reasoning; converters commonly pass to 0.45 fs = 0.9 x Nyquist, common practice, no source)
+OWN_FILTER_RATIO = 0.9
+#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent; the steeper brick walls of codec low-passes and IIR shelves are band limits)
+CONVERTER_MIN_WIDTH_RATIO = 0.028
+#: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the floor for the candidate to be testable, dB (own reasoning)
+TESTABLE_MIN_CONTENT_DB = 30.0
+#: the cliff search starts this high, Hz
+SEARCH_LOW_HZ = 6000.0
+#: windows of the cliff search, Hz (relative to the edge position)
+PRE_WINDOW_HZ = (-1500.0, -500.0)
+POST_WINDOW_HZ = (3000.0, 9000.0)
+PASS_WINDOW_HZ = (-5000.0, -2000.0)
+#: search grid step, Hz
+SEARCH_STEP_HZ = 50.0
+
+MEASUREMENT_SCHEMA = {
+    "effective_bandwidth_hz": NUMBER_OR_NULL,
+    "bandwidth_edge": {"enum": ["cliff", "rolloff", None]},
+    "bandwidth_edge_depth_db": NUMBER_OR_NULL,
+    "bandwidth_edge_slope_db_per_khz": NUMBER_OR_NULL,
+    "upsampled_from_hz": {"type": ["integer", "null"]},
+    "upsampled_confidence": NUMBER_OR_NULL,
+    "band_limit_hz": NUMBER_OR_NULL,
+    "untestable_source_rates_hz": array_of({"type": "integer"}),
+    "bandwidth_note": STRING_OR_NULL,
+}
+
+
+@dataclass
+class BandwidthResult:
+    effective_bandwidth_hz: float | None = None
+    edge: str | None = None
+    depth_db: float | None = None
+    slope_db_per_khz: float | None = None
+    upsampled_from_hz: int | None = None
+    confidence: float | None = None
+    band_limit_hz: float | None = None
+    untestable_hz: list = field(default_factory=list)
+    note: str | None = None
+    settings: dict = field(default_factory=dict)
+
+    def measurements(self) -> dict:
+        return {
+            "effective_bandwidth_hz": self.effective_bandwidth_hz,
+            "bandwidth_edge": self.edge,
+            "bandwidth_edge_depth_db": self.depth_db,
+            "bandwidth_edge_slope_db_per_khz": self.slope_db_per_khz,
+            "upsampled_from_hz": self.upsampled_from_hz,
+            "upsampled_confidence": self.confidence,
+            "band_limit_hz": self.band_limit_hz,
+            "untestable_source_rates_hz": list(self.untestable_hz),
+            "bandwidth_note": self.note,
+        }
+
+
+def _db(p):
+    return 10.0 * np.log10(np.maximum(np.asarray(p, dtype=float), 1e-30))
+
+
+def format_floor_db(bit_depth: int, is_float: bool, frame_length: int) -> float:
+    """Per-bin power (dB) of the format's quantisation noise in the front end's normalisation.
+
+    Integer PCM of ``b`` bits: white noise of variance ``q**2 / 12`` with
+    ``q = 2**-(b-1)``, spread over ``frame_length / 2`` bins.  Float files are
+    given the floor of 24-bit PCM (own reasoning: content below it is
+    inaudible and at the edge of float32 precision).
+    """
+    bits = 24 if is_float else max(1, int(bit_depth))
+    q = 2.0 ** -(bits - 1)
+    return 10.0 * math.log10((q * q / 12.0) / (frame_length / 2.0))
+
+
+def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_db=None):
+    """``(testable, untestable)`` candidate source rates below ``sample_rate_hz``.
+
+    With ``env_db`` (the envelope of :func:`envelope_db`), ``bin_hz`` and
+    ``floor_db``, a candidate without content at 0.84..0.88 of its Nyquist is
+    untestable too.
+    """
+    nyq = sample_rate_hz / 2.0
+    testable, untestable = [], []
+    for r in CANDIDATE_RATES_HZ:
+        if r >= sample_rate_hz:
+            continue
+        ok = r / 2.0 <= TESTABLE_MAX_RATIO * nyq
+        if ok and env_db is not None:
+            a, b = _bins(0.84 * r / 2.0, bin_hz), _bins(0.88 * r / 2.0, bin_hz)
+            ok = float(np.median(env_db[a:b + 1])) >= floor_db + TESTABLE_MIN_CONTENT_DB
+        (testable if ok else untestable).append(r)
+    return testable, untestable
+
+
+def envelope_db(ltas_power: np.ndarray, bin_hz: float) -> np.ndarray:
+    """The closed and smoothed envelope ``C`` (dB) of a power spectrum (step 1)."""
+    level = _db(ltas_power)
+    w = max(3, int(round(CLOSING_HZ / bin_hz)) | 1)
+    closed = minimum_filter1d(maximum_filter1d(level, w, mode="nearest"), w, mode="nearest")
+    s = max(1, int(round(SMOOTH_HZ / bin_hz)))
+    return uniform_filter1d(closed, s, mode="nearest")
+
+
+def _bins(hz, bin_hz):
+    return int(round(hz / bin_hz))
+
+
+def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
+    """Step 2: the best cliff as a dict, or None.
+
+    Keys: ``edge_bin`` (search position), ``pass_db``, ``stop_db``, ``drop_db``,
+    ``edge_hz`` (-6 dB point), ``slope_db_per_khz``.
+    """
+    lo = _bins(SEARCH_LOW_HZ, bin_hz)
+    step = max(1, _bins(SEARCH_STEP_HZ, bin_hz))
+    pre_a, pre_b = _bins(PRE_WINDOW_HZ[0], bin_hz), _bins(PRE_WINDOW_HZ[1], bin_hz)
+    post_a, post_b = _bins(POST_WINDOW_HZ[0], bin_hz), _bins(POST_WINDOW_HZ[1], bin_hz)
+    min_post = _bins(1000.0, bin_hz)
+    positions = np.arange(lo, top_bin - post_a - min_post, step)
+    if positions.size == 0:
+        return None
+    pre = np.empty(positions.size)
+    post = np.empty(positions.size)
+    flat = np.empty(positions.size, dtype=bool)
+    for i, e in enumerate(positions):
+        near = env_db[e + pre_a:e + pre_b]
+        pre[i] = np.median(near)
+        flat[i] = np.max(np.abs(near - pre[i])) <= PASS_FLATNESS_DB
+        post[i] = np.percentile(env_db[e + post_a:min(e + post_b, top_bin)], 90)
+    drop = np.where(flat, pre - post, -np.inf)
+    i = int(np.argmax(drop))
+    if not drop[i] >= CLIFF_MIN_DROP_DB:
+        return None
+    e, post = int(positions[i]), float(post[i])
+    # pass level further below the edge
+    pa, pb = max(0, e + _bins(PASS_WINDOW_HZ[0], bin_hz)), max(1, e + _bins(PASS_WINDOW_HZ[1], bin_hz))
+    pass_db = float(np.median(env_db[pa:pb]))
+    rest = env_db[e + post_a:top_bin]
+    if float(np.percentile(rest, 90)) > pass_db - CLIFF_MIN_DROP_DB:
+        return None
+    # -1, -3, -6, -30 dB points and the bottom
+    start = max(0, e + _bins(PASS_WINDOW_HZ[1], bin_hz))
+    depth = pass_db - post
+    pts = {d: _crossing(env_db, start, top_bin, pass_db - d, bin_hz) for d in (1.0, 3.0, 6.0, 30.0)}
+    bottom = pass_db - min(depth - 3.0, 40.0)
+    fb = _crossing(env_db, start, top_bin, bottom, bin_hz)
+    f6 = pts[6.0]
+    if f6 is None or fb is None or any(v is None for v in pts.values()):
+        return None
+    width_khz = max((fb - f6) / 1000.0, bin_hz / 1000.0)
+    slope = (pass_db - 6.0 - bottom) / width_khz
+    return {"edge_bin": e, "pass_db": pass_db, "stop_db": post, "drop_db": depth,
+            "edge_hz": f6, "slope_db_per_khz": slope, "f1_hz": pts[1.0], "f3_hz": pts[3.0],
+            "f30_hz": pts[30.0]}
+
+
+def _crossing(env_db, start, stop, level, bin_hz):
+    """First frequency at or above bin ``start`` where ``env_db`` falls below ``level`` (linear interpolation)."""
+    seg = env_db[start:stop]
+    below = np.nonzero(seg < level)[0]
+    if below.size == 0:
+        return None
+    k = int(below[0]) + start
+    if k == 0:
+        return 0.0
+    a, b = env_db[k - 1], env_db[k]
+    frac = 0.0 if a == b else (a - level) / (a - b)
+    return (k - 1 + float(np.clip(frac, 0.0, 1.0))) * bin_hz
+
+
+def match_rate(edge_hz: float, candidates) -> tuple[int | None, float]:
+    """The candidate rate whose Nyquist best explains an edge, and the position score (0..1)."""
+    best, score = None, 0.0
+    for r in candidates:
+        ratio = edge_hz / (r / 2.0)
+        if EDGE_RATIO_RANGE[0] <= ratio <= EDGE_RATIO_RANGE[1]:
+            s = 1.0 - abs(ratio - EDGE_RATIO_TYPICAL) / 0.095
+            if best is None or s > score:
+                best, score = r, max(0.0, s)
+    return best, score
+
+
+def assess(fe, info) -> BandwidthResult:
+    """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`."""
+    fs = float(fe.sample_rate_hz)
+    testable, untestable = testable_candidates(fs)
+    out = BandwidthResult(untestable_hz=untestable)
+    floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+    out.settings = {
+        "candidates_hz": list(CANDIDATE_RATES_HZ), "testable_hz": testable,
+        "format_floor_db_per_bin": round(floor, 2), "closing_hz": CLOSING_HZ,
+        "cliff_min_drop_db": CLIFF_MIN_DROP_DB, "cliff_min_slope_db_per_khz": CLIFF_MIN_SLOPE_DB_PER_KHZ,
+        "upsampled_min_depth_db": UPSAMPLED_MIN_DEPTH_DB, "above_floor_db": ABOVE_FLOOR_DB,
+    }
+    total = fe.ltas_total
+    if fe.frames == 0 or not np.any(total > 0):
+        out.note = "no signal: digital silence"
+        return out
+    bin_hz = fe.bin_hz
+    env = envelope_db(total, bin_hz)
+    testable, untestable = testable_candidates(fs, env, bin_hz, floor)
+    out.untestable_hz = untestable
+    out.settings["testable_hz"] = testable
+    nyq = fs / 2.0
+    top = min(len(env), _bins(0.99 * nyq, bin_hz))
+    cliff = find_cliff(env, bin_hz, top)
+    if cliff is not None and not (cliff["slope_db_per_khz"] >= CLIFF_MIN_SLOPE_DB_PER_KHZ
+                                  and cliff["pass_db"] >= floor + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB):
+        cliff = None
+    rate = pos = None
+    tonal = False
+    if cliff is not None:
+        a, b = max(0, cliff["edge_bin"] + _bins(PASS_WINDOW_HZ[0], bin_hz)), cliff["edge_bin"] + _bins(PRE_WINDOW_HZ[1], bin_hz)
+        gap = _db(total[a:b]) - env[a:b]
+        tonal = float(np.median(gap)) < -BROADBAND_GAP_DB
+    if cliff is not None and tonal:
+        edge = round(cliff["edge_hz"] / 10.0) * 10.0
+        out.effective_bandwidth_hz = edge
+        out.note = (f"tonal material: its highest partials end at {edge / 1000:.2f} kHz; "
+                    "a converter cliff cannot be told from the end of a harmonic series")
+        return out
+    if cliff is not None:
+        rate, pos = match_rate(cliff["edge_hz"], testable)
+        width = cliff["f30_hz"] - cliff["f3_hz"]
+        if rate is not None and not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
+                                     and width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0):
+            rate = None
+        if rate is None and cliff["edge_hz"] > OWN_FILTER_RATIO * nyq:
+            cliff = None
+    if cliff is not None:
+        edge = round(cliff["edge_hz"] / 10.0) * 10.0
+        out.effective_bandwidth_hz = edge
+        out.edge = "cliff"
+        out.depth_db = round(cliff["drop_db"], 1)
+        out.slope_db_per_khz = round(cliff["slope_db_per_khz"], 1)
+        if rate is not None:
+            c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
+            c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
+            out.upsampled_from_hz = int(rate)
+            out.confidence = round(0.4 + 0.6 * (c_depth + pos + c_slope) / 3.0, 2)
+            out.note = (f"content ends in a converter cliff at {edge / 1000:.2f} kHz "
+                        f"({out.depth_db:.0f} dB deep): upsampled from {rate / 1000:g} kHz?")
+        else:
+            out.band_limit_hz = edge
+            out.note = f"low-passed at {edge / 1000:.1f} kHz: lossy or filtered source?"
+        return out
+    above = np.nonzero(env[:top] >= floor + ABOVE_FLOOR_DB)[0]
+    if above.size == 0:
+        out.note = "no content above the format's noise floor"
+        return out
+    bw = round(float(above[-1]) * bin_hz / 10.0) * 10.0
+    if above[-1] >= 0.97 * nyq / bin_hz:
+        out.effective_bandwidth_hz = round(nyq / 10.0) * 10.0
+        out.note = "content reaches the Nyquist frequency"
+    else:
+        out.effective_bandwidth_hz = bw
+        out.edge = "rolloff"
+        out.note = f"content rolls off into the noise floor by {bw / 1000:.1f} kHz"
+    return out

@@ -1,0 +1,327 @@
+"""Streaming spectral front end (sampling integrity), constant memory.
+
+:class:`SpectralFrontEnd` cuts the stream into frames of ``N = round(fs / 10)``
+samples (10 Hz bins: every standard rate's Nyquist and every mirror frequency
+``R - f`` of a 10 Hz bin falls on a bin), periodic Hann window, hop ``N / 2``.
+One frame of ``N / 2`` zeros is put before the file and the end is padded with
+zeros, so every sample is covered by exactly two frames and the windows sum to
+one everywhere (Hann at 50 % overlap is constant-overlap-add).  Frame ``j`` is
+centred at sample ``j * hop``.
+
+Power normalisation: ``P[k] = c_k * |X[k]|**2 / (N * sum(w**2))`` with
+``c_k = 2`` except at 0 Hz and Nyquist (``c_k = 1``).  Then, for a stationary
+signal, ``sum(P)`` is the mean square, and a sine of amplitude ``A`` puts
+``A**2 / 2`` into its main lobe (+-2 bins): ``10*log10(2 * lobe power)`` is
+``20*log10(A)`` dBFS (a full-scale sine reads 0 dBFS).
+
+What it keeps (memory independent of the file's length):
+
+- ``ltas``: per-channel long-term average power per 10 Hz bin;
+- a histogram per bin of the channel-mean frame level (1 dB steps from
+  :data:`HIST_MIN_DB` to :data:`HIST_MAX_DB`), giving low / median / high
+  percentiles over time per bin (the low percentile is a noise floor);
+- a display spectrogram of at most ``columns`` x ``rows`` (columns follow the
+  file's known length; rows are equal-width frequency bands, channel-summed
+  power, mean over the frames of each column).
+
+Consumers (callables ``fn(power, first_frame_index)`` with ``power`` of shape
+(frames, channels, bins)) see every frame's power spectrum as it is computed,
+so several detectors share one FFT.
+
+:class:`SamplingSpectrumAnalyzer` is the registered analyzer: it runs the
+front end and hands its result to :mod:`masterqc.measure.bandwidth`,
+:mod:`masterqc.measure.ultrasonic` and :mod:`masterqc.measure.conversion`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.fft
+
+from masterqc.measure.base import Analyzer, AnalyzerResult
+
+#: target bin spacing (Hz); frames are round(fs / BIN_TARGET_HZ) samples long
+BIN_TARGET_HZ = 10.0
+#: level histogram range (dB of per-bin power, channel mean) and step
+HIST_MIN_DB = -200.0
+HIST_MAX_DB = 10.0
+HIST_STEP_DB = 1.0
+#: default display sizes
+SPECTROGRAM_COLUMNS = 512
+SPECTROGRAM_ROWS = 128
+#: display LTAS: points per octave and lowest frequency
+DISPLAY_POINTS_PER_OCTAVE = 48
+DISPLAY_LOW_HZ = 20.0
+#: power below this counts as zero when converted to dB (1e-30 = -300 dB)
+POWER_EPS = 1e-30
+
+
+def frame_length_for(sample_rate_hz: float) -> int:
+    """Frame length in samples for ~10 Hz bins: ``round(fs / 10)`` (4800 at 48 kHz)."""
+    return max(16, int(round(float(sample_rate_hz) / BIN_TARGET_HZ)))
+
+
+def power_db(power) -> np.ndarray:
+    """``10*log10(power)`` with powers at or below :data:`POWER_EPS` read as -300 dB."""
+    return 10.0 * np.log10(np.maximum(np.asarray(power, dtype=float), POWER_EPS))
+
+
+@dataclass
+class FrontEndResult:
+    """What :class:`SpectralFrontEnd` hands to the detectors (all numpy)."""
+
+    sample_rate_hz: float
+    frame_length: int
+    hop: int
+    bin_hz: float
+    freqs_hz: np.ndarray          # (bins,)
+    frames: int                   # number of analysis frames
+    ltas: np.ndarray              # (channels, bins) mean power per bin
+    p10_db: np.ndarray | None     # (bins,) 10th percentile of channel-mean level over frames
+    p50_db: np.ndarray | None
+    p90_db: np.ndarray | None
+    spectrogram_db: np.ndarray    # (columns, rows)
+    spectrogram_time_s: np.ndarray  # (columns,) centre times
+    spectrogram_freq_hz: np.ndarray  # (rows,) band centres
+
+    @property
+    def ltas_total(self) -> np.ndarray:
+        """Channel-summed mean power per bin."""
+        return self.ltas.sum(axis=0)
+
+
+class SpectralFrontEnd:
+    """Framing, windowing and FFT of a stream; see the module docstring."""
+
+    def __init__(self, sample_rate_hz: float, channels: int, total_frames: int, *,
+                 columns: int = SPECTROGRAM_COLUMNS, rows: int = SPECTROGRAM_ROWS,
+                 histogram: bool = True, consumers=()):
+        self.fs = float(sample_rate_hz)
+        self.channels = int(channels)
+        self.N = frame_length_for(self.fs)
+        self.hop = self.N // 2
+        self.bins = self.N // 2 + 1
+        self.bin_hz = self.fs / self.N
+        self.window = np.hanning(self.N + 1)[:-1]          # periodic Hann
+        scale = np.full(self.bins, 2.0 / (self.N * float(np.sum(self.window ** 2))))
+        scale[0] *= 0.5
+        if self.N % 2 == 0:
+            scale[-1] *= 0.5
+        self._scale = scale
+        self.total_samples = int(total_frames)
+        #: number of frames the whole file gives: starts at -hop, hop, ... < total
+        self.total_frame_count = max(1, -(-(self.total_samples + self.hop) // self.hop))
+        self.consumers = list(consumers)
+        self.frame_index = 0
+        self._buf = np.zeros((self.hop, self.channels))    # leading half frame of zeros
+        self.ltas_sum = np.zeros((self.channels, self.bins))
+        self.histogram = histogram
+        self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
+        self.hist = np.zeros((self.bins, self.n_levels), dtype=np.uint32) if histogram else None
+        self._bin_index = np.arange(self.bins)
+        self.columns = int(max(1, min(columns, self.total_frame_count)))
+        self.rows = int(max(1, min(rows, self.bins - 1)))
+        edges = np.linspace(1, self.bins, self.rows + 1).round().astype(int)
+        edges = np.unique(edges)
+        self._row_edges = edges[:-1]
+        self._row_freqs = (0.5 * (edges[:-1] + edges[1:] - 1)) * self.bin_hz
+        self.rows = len(self._row_edges)
+        self._row_width = np.diff(edges).astype(float)
+        self.spec_sum = np.zeros((self.columns, self.rows))
+        self.spec_count = np.zeros(self.columns)
+        self._finished = False
+
+    # -- streaming -------------------------------------------------------
+    def process(self, block) -> None:
+        """Feed a (frames, channels) float block."""
+        block = np.asarray(block, dtype=np.float64)
+        if block.ndim == 1:
+            block = block[:, None]
+        if block.shape[0] == 0:
+            return
+        self._buf = np.concatenate([self._buf, block], axis=0)
+        self._run()
+
+    def _run(self) -> None:
+        n_avail = self._buf.shape[0]
+        if n_avail < self.N:
+            return
+        n_frames = (n_avail - self.N) // self.hop + 1
+        view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
+        # view: (frames, channels, N)
+        spec = scipy.fft.rfft(view * self.window, axis=-1)
+        power = (spec.real ** 2 + spec.imag ** 2) * self._scale
+        self._accumulate(power)
+        self._buf = self._buf[n_frames * self.hop:]
+
+    def _accumulate(self, power: np.ndarray) -> None:
+        first = self.frame_index
+        nfr = power.shape[0]
+        self.ltas_sum += power.sum(axis=0)
+        total = power.sum(axis=1)                               # (frames, bins) channel sum
+        if self.histogram:
+            level = power_db(total / self.channels)
+            idx = np.clip(((level - HIST_MIN_DB) / HIST_STEP_DB).astype(np.int64), 0, self.n_levels - 1)
+            for j in range(nfr):
+                self.hist[self._bin_index, idx[j]] += 1
+        bands = np.add.reduceat(total[:, 1:], self._row_edges - 1, axis=1) / self._row_width
+        cols = (np.arange(first, first + nfr) * self.columns) // self.total_frame_count
+        cols = np.minimum(cols, self.columns - 1)
+        np.add.at(self.spec_sum, cols, bands)
+        np.add.at(self.spec_count, cols, 1.0)
+        for fn in self.consumers:
+            fn(power, first)
+        self.frame_index += nfr
+
+    def finish(self) -> FrontEndResult:
+        """Flush the zero-padded tail and return the accumulated result."""
+        if not self._finished:
+            # pad so that the last real sample is covered by two frames
+            need = self.total_frame_count - self.frame_index
+            if need > 0:
+                target = (need - 1) * self.hop + self.N
+                pad = max(0, target - self._buf.shape[0])
+                self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels))], axis=0)
+                self._run()
+            self._finished = True
+        frames = max(self.frame_index, 1)
+        ltas = self.ltas_sum / frames
+        p10 = p50 = p90 = None
+        if self.histogram and self.frame_index > 0:
+            p10, p50, p90 = (self.percentile_db(q) for q in (0.10, 0.50, 0.90))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sg = self.spec_sum / np.maximum(self.spec_count, 1.0)[:, None]
+        sg_db = power_db(sg)
+        t_cols = ((np.arange(self.columns) + 0.5) * self.total_frame_count / self.columns) * self.hop / self.fs
+        return FrontEndResult(
+            sample_rate_hz=self.fs, frame_length=self.N, hop=self.hop, bin_hz=self.bin_hz,
+            freqs_hz=np.arange(self.bins) * self.bin_hz, frames=self.frame_index, ltas=ltas,
+            p10_db=p10, p50_db=p50, p90_db=p90, spectrogram_db=sg_db,
+            spectrogram_time_s=t_cols, spectrogram_freq_hz=self._row_freqs)
+
+    def percentile_db(self, q: float) -> np.ndarray:
+        """Per-bin level (dB, channel mean) below which a fraction ``q`` of the frames lie.
+
+        Read from the 1 dB histogram: the centre of the first level step whose
+        cumulative count reaches ``q`` of the frames.
+        """
+        cum = np.cumsum(self.hist, axis=1)
+        need = q * cum[:, -1:]
+        k = (cum < need).sum(axis=1)
+        return HIST_MIN_DB + (k + 0.5) * HIST_STEP_DB
+
+    def settings(self) -> dict:
+        return {"frame_length": self.N, "hop": self.hop, "bin_hz": self.bin_hz, "window": "hann (periodic)",
+                "overlap": 0.5, "fft": "float64", "histogram_step_db": HIST_STEP_DB,
+                "spectrogram_columns": self.columns, "spectrogram_rows": self.rows}
+
+
+# ---------------------------------------------------------------------------
+# display helpers
+
+
+def display_ltas(fe: FrontEndResult, points_per_octave: int = DISPLAY_POINTS_PER_OCTAVE,
+                 low_hz: float = DISPLAY_LOW_HZ):
+    """Smoothed LTAS for display: ``(freqs_hz, db_per_channel)``.
+
+    Log-spaced centres from ``low_hz`` to Nyquist at ``points_per_octave``; each
+    value is the mean power of the 10 Hz bins within +-1/(2*points_per_octave)
+    octave of the centre (at least the nearest bin), in dB (a bin of a full-scale
+    sine's main lobe reads about -6 dB; see the module docstring).
+    """
+    nyq = fe.sample_rate_hz / 2.0
+    low = min(low_hz, nyq / 2)
+    n = max(2, int(math.floor(math.log2(nyq / low) * points_per_octave)) + 1)
+    n = min(n, 1000)
+    centres = low * 2.0 ** (np.arange(n) / points_per_octave)
+    centres = centres[centres <= nyq]
+    half = 2.0 ** (0.5 / points_per_octave)
+    lo = np.clip(np.floor(centres / half / fe.bin_hz).astype(int), 0, len(fe.freqs_hz) - 1)
+    hi = np.clip(np.ceil(centres * half / fe.bin_hz).astype(int), 0, len(fe.freqs_hz) - 1)
+    hi = np.maximum(hi, lo + 1)
+    csum = np.concatenate([np.zeros((fe.ltas.shape[0], 1)), np.cumsum(fe.ltas, axis=1)], axis=1)
+    hi_c = np.minimum(hi, fe.ltas.shape[1])
+    mean = (csum[:, hi_c] - csum[:, lo]) / np.maximum(hi_c - lo, 1)
+    return centres, np.round(power_db(mean), 2)
+
+
+# ---------------------------------------------------------------------------
+# the registered analyzer
+
+
+def _spectrum_options(options) -> dict:
+    extra = getattr(options, "extra", {}) or {}
+    return dict(extra.get("spectrum", {}) or {})
+
+
+class SamplingSpectrumAnalyzer(Analyzer):
+    """Spectral part of the sampling-integrity checks (bandwidth, ultrasonic, conversion).
+
+    Options in ``MeasureOptions.extra["spectrum"]``: ``spectrogram_columns``,
+    ``spectrogram_rows`` (display sizes).  ``MeasureOptions.ultrasonic_from_hz``
+    and ``MeasureOptions.conversion_targets_hz`` are read by the detectors.
+    """
+
+    name = "sampling_spectrum"
+
+    # the schema is the union of the detectors' schemas (filled below)
+    measurement_schema: dict = {}
+    series_schema = {
+        "ltas_hz": {"type": "array", "items": {"type": "number"}},
+        "ltas_db_per_channel": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
+        "spectrogram": {"type": "object"},
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        from masterqc.measure import conversion, ultrasonic
+        opts = _spectrum_options(options)
+        self.ultra = ultrasonic.UltrasonicTracker(info, options)
+        self.conv = conversion.ConversionTracker(info, options)
+        self.fe = SpectralFrontEnd(info.sample_rate_hz, info.channels, info.frames,
+                                   columns=int(opts.get("spectrogram_columns", SPECTROGRAM_COLUMNS)),
+                                   rows=int(opts.get("spectrogram_rows", SPECTROGRAM_ROWS)),
+                                   consumers=[self.ultra.frames])
+
+    def process(self, block) -> None:
+        self.fe.process(block)
+        self.conv.process(block)
+
+    def finish(self) -> AnalyzerResult:
+        from masterqc.measure import bandwidth
+        fe = self.fe.finish()
+        m = {}
+        bw = bandwidth.assess(fe, self.info)
+        m.update(bw.measurements())
+        m.update(self.ultra.finish(fe))
+        m.update(self.conv.finish(fe))
+        hz, db = display_ltas(fe)
+        series = {
+            "ltas_hz": np.round(hz, 2),
+            "ltas_db_per_channel": db,
+            "spectrogram": {
+                "time_s": np.round(fe.spectrogram_time_s, 3),
+                "frequency_hz": np.round(fe.spectrogram_freq_hz, 1),
+                "db": np.round(np.maximum(fe.spectrogram_db, -200.0), 1),
+                "note": "channel-summed power per band, mean over the frames of each column, dB",
+            },
+        }
+        settings = {"front_end": self.fe.settings(), "bandwidth": bw.settings,
+                    "ultrasonic": self.ultra.settings(), "conversion": self.conv.settings()}
+        return AnalyzerResult(measurements=m, series=series, settings=settings)
+
+
+def _collect_schema() -> dict:
+    from masterqc.measure import bandwidth, conversion, ultrasonic
+    out = {}
+    out.update(bandwidth.MEASUREMENT_SCHEMA)
+    out.update(ultrasonic.MEASUREMENT_SCHEMA)
+    out.update(conversion.MEASUREMENT_SCHEMA)
+    return out
+
+
+# The detector modules import nothing from this one at import time.
+SamplingSpectrumAnalyzer.measurement_schema = _collect_schema()
