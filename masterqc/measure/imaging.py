@@ -1,0 +1,456 @@
+"""Imaging: mirror images of the audio left by an upsampler without a proper filter.
+
+A signal recorded at a rate ``r`` and converted up to the file's rate ``fs``
+without a proper interpolation filter (sample hold, linear interpolation, zero
+stuffing) carries copies of its baseband spectrum at ``q*r +- f``.  Such a copy
+is a deterministic function of the baseband: the product ``X(f) * X(q*r - f)``
+keeps its phase from frame to frame, which makes the signal cyclostationary at
+the cycle frequency ``alpha = q*r`` (spectral correlation at cycle frequency
+alpha, in the sense of Gardner's cyclostationary analysis; the periodic
+correlations that resampling leaves, described by Popescu and Farid, are the
+same property).  Natural audio has no spectral correlation at those cycle
+frequencies, so the measure is a clean test:
+
+    S(f) = sum_m X_m(f) X_m(alpha - f) exp(-j 2 pi alpha n_m / fs)
+    gamma^2(f) = |S(f)|^2 / (sum_m |X_m(f)|^2  sum_m |X_m(alpha - f)|^2)
+
+with ``X_m`` the Hann-windowed DFT of the frame starting at sample ``n_m``.
+Frequencies are taken modulo ``fs`` on the two-sided DFT, so images folded at
+the file's Nyquist are paired with their source automatically.  The frame
+length is ``fs/10`` samples (10 Hz bins), so ``q*r - f`` of every standard rate
+falls on a bin.
+
+For each candidate source rate below the file's rate the analyzer reports
+
+* ``coherence``: the fraction of the power in the weaker member of each
+  (f, alpha - f) pair that the other member explains, power-weighted over all
+  pairs, corrected for the estimator's bias ``1/M`` (M frames), in [0, 1];
+* ``image_level_db``: the coherent (image) power relative to the baseband power
+  below ``r/2``, in dB (None when no coherent image was found);
+* ``verdict``: "defect" (significant coherence with an image at or above
+  :data:`DEFECT_IMAGE_LEVEL_DB`), "trace" (significant coherence with a deeper
+  image: a resampler's trace), "none", or "untestable" (with a reason).
+
+Cost: at most :data:`MAX_FRAMES` frames per file, spread evenly over it (a few
+FFTs of ``fs/10`` samples per frame and channel and one gather per candidate
+pair), independent of the file's length.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult, array_of)
+
+#: standard source rates that are tested when they are below the file's rate
+CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400)
+#: analysis bin spacing; fs/20 samples per frame puts every candidate's mirror on a bin
+BIN_HZ = 20.0
+#: at most this many frames per file are analysed (cost bound, independent of length)
+MAX_FRAMES = 192
+#: fewer frames than this and the coherence estimate is meaningless
+MIN_FRAMES = 6
+#: baseband bins below this are left out (DC offsets and rumble carry no image information)
+LOW_EDGE_HZ = 20.0
+#: pairs closer than this in frequency share the leakage of one component and are skipped
+PAIR_GUARD_BINS = 3
+#: z-score of the pooled coherence statistic above which the coherence is significant.
+#: Own reasoning: the statistic is a sum over thousands of pairs, close to Gaussian under the
+#: null (no image); 8 standard deviations keeps false alarms negligible over all candidates,
+#: channels and files of a release, and covers the inflation by neighbouring-bin correlation
+#: that :data:`NULL_VARIANCE_INFLATION` only approximates.
+Z_SIGNIFICANT = 8.0
+#: variance inflation of the null statistic: Hann-window leakage correlates adjacent bins
+#: (own reasoning: the squared coherence between neighbouring Hann bins of white noise is
+#: 0.25, which gives a factor of about 1.5; 2 is taken for margin)
+NULL_VARIANCE_INFLATION = 2.0
+#: images at or above this level relative to the baseband are a defect.  Own reasoning: a
+#: sample-hold upsampler leaves images at about -15 to -30 dB of bright programme, a linear
+#: interpolator about -25 to -45 dB, while purpose-built interpolation filters (even short
+#: windowed-sinc kernels) keep them below about -50 dB; -45 dB separates the two groups.
+DEFECT_IMAGE_LEVEL_DB = -45.0
+#: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
+#: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
+#: lines this far above the local floor (own reasoning).
+LINE_PROMINENCE_DB = 20.0
+
+
+def linear_to_db10(value: float):
+    """``10*log10(value)`` for a power ratio; None when the ratio is not positive."""
+    value = float(value)
+    if not value > 0.0 or not math.isfinite(value):
+        return None
+    return 10.0 * math.log10(value)
+
+
+def frame_starts(total_frames: int, frame_len: int, max_frames: int, min_hop: int, seed: int = 0) -> np.ndarray:
+    """Start positions of at most ``max_frames`` frames of ``frame_len`` samples spread over
+    ``total_frames`` samples: one frame at a pseudo-random place inside each of ``count``
+    equal strata (stratified jitter, fixed ``seed``, so results are reproducible).
+
+    Irregular spacing matters: with frames on a regular grid of hop H, two unrelated
+    components whose frequencies sum to alpha + k/H (any integer k) would look phase-locked.
+    Strata are at least ``min_hop`` samples wide.  Integers, ascending.
+    """
+    if total_frames < frame_len:
+        return np.zeros(0, dtype=np.int64)
+    span = total_frames - frame_len
+    count = int(min(max_frames, span // max(1, min_hop) + 1))
+    if count <= 1:
+        return np.zeros(1, dtype=np.int64)
+    u = np.random.default_rng(seed).random(count)
+    starts = np.floor((np.arange(count) + u) * (span + 1) / count).astype(np.int64)
+    return np.clip(starts, 0, span)
+
+
+def null_coherence_bias(starts, window) -> float:
+    """Expected squared coherence of two independent noises over frames at ``starts``.
+
+    For locally white Gaussian noise the DFT coefficients of two frames ``d`` samples
+    apart correlate by rho(d) = sum w[n] w[n+d] / sum w^2 (the window's normalised
+    autocorrelation), and the phase correction at the cycle frequency cancels the
+    frequency-dependent phase of the pair, so E|S|^2 / (E P1 E P2) = sum_{m,m'} rho^2 / M^2.
+    With non-overlapping frames this is 1/M.
+    """
+    s = np.asarray(starts, dtype=np.int64)
+    m = s.size
+    if m == 0:
+        return 1.0
+    w = np.asarray(window, dtype=float)
+    n = w.size
+    ac = np.fft.irfft(np.abs(np.fft.rfft(w, 2 * n)) ** 2, 2 * n)[:n]
+    ac = ac / ac[0]
+    d = np.abs(s[:, None] - s[None, :])
+    rho = np.where(d < n, ac[np.minimum(d, n - 1)], 0.0)
+    return float(np.sum(rho ** 2)) / (m * m)
+
+
+class FramePicker:
+    """Cut frames at fixed absolute sample positions out of a stream of blocks.
+
+    Results never depend on the block size: frames are taken at the positions
+    given up front, whatever blocks they straddle.
+    """
+
+    def __init__(self, starts, frame_len: int, channels: int):
+        self.starts = np.asarray(starts, dtype=np.int64)
+        self.frame_len = int(frame_len)
+        self.next = 0
+        self.buf = np.zeros((0, channels))
+        self.buf_start = 0
+
+    def feed(self, block):
+        """Yield ``(start, frame)`` for every frame that ``block`` completes."""
+        if self.next >= len(self.starts):
+            return
+        buf = np.concatenate([self.buf, block]) if self.buf.shape[0] else block
+        buf_end = self.buf_start + buf.shape[0]
+        while self.next < len(self.starts):
+            s = int(self.starts[self.next])
+            if s + self.frame_len > buf_end:
+                break
+            off = s - self.buf_start
+            yield s, buf[off:off + self.frame_len]
+            self.next += 1
+        if self.next < len(self.starts):
+            keep_from = max(int(self.starts[self.next]) - self.buf_start, buf.shape[0] - self.frame_len)
+            keep_from = max(0, min(keep_from, buf.shape[0]))
+            self.buf = np.array(buf[keep_from:])
+            self.buf_start += keep_from
+        else:
+            self.buf = np.zeros((0, buf.shape[1]))
+
+
+def mirror_pairs(fs: int, rate: float, n_fft: int):
+    """Bin pairs of the two-sided DFT linked by the images of an upsampler from ``rate``.
+
+    Returns ``(ka, kb, alpha_bins)``: full-DFT indices (0..n_fft-1) of a baseband
+    bin (``|f| < rate/2``) and of its image at ``q*rate - f`` (modulo fs), and the
+    cycle frequency ``q*rate`` in bins (modulo n_fft), for every image order
+    ``q`` whose images reach the band below fs (``q*rate - rate/2 < fs``).
+    Conjugate duplicates and pairs closer than :data:`PAIR_GUARD_BINS` are removed.
+    """
+    bin_hz = fs / n_fft
+    lo = int(math.ceil(LOW_EDGE_HZ / bin_hz))
+    hi = int(math.ceil(rate / 2.0 / bin_hz)) - 1
+    base = np.arange(lo, hi + 1, dtype=np.int64)
+    keys = set()
+    out_a, out_b, out_al = [], [], []
+    q = 1
+    while q * rate - rate / 2.0 < fs:
+        alpha = int(round(q * rate / bin_hz)) % n_fft
+        q += 1
+        if alpha == 0:
+            continue
+        for sign in (1, -1):
+            ka = (sign * base) % n_fft
+            kb = (alpha - ka) % n_fft
+            for a, b in zip(ka.tolist(), kb.tolist()):
+                fa = min(a, n_fft - a)
+                fb = min(b, n_fft - b)
+                if fb < lo or abs(fa - fb) < PAIR_GUARD_BINS:
+                    continue
+                rep1 = (min(a, b), max(a, b), alpha)
+                na, nb = (n_fft - a) % n_fft, (n_fft - b) % n_fft
+                rep2 = (min(na, nb), max(na, nb), (n_fft - alpha) % n_fft)
+                key = min(rep1, rep2)
+                if key in keys:
+                    continue
+                keys.add(key)
+                out_a.append(a)
+                out_b.append(b)
+                out_al.append(alpha)
+    return (np.asarray(out_a, dtype=np.int64), np.asarray(out_b, dtype=np.int64),
+            np.asarray(out_al, dtype=np.int64))
+
+
+def _gather(spec: np.ndarray, k: np.ndarray, n_fft: int) -> np.ndarray:
+    """Values of the two-sided DFT at full indices ``k`` from a one-sided ``spec`` (last axis)."""
+    half = n_fft // 2
+    neg = k > half
+    idx = np.where(neg, n_fft - k, k)
+    vals = spec[..., idx]
+    return np.where(neg, np.conj(vals), vals)
+
+
+def spectral_lines(power: np.ndarray, prominence_db: float = LINE_PROMINENCE_DB, halfwidth: int = 25):
+    """Indices of spectral lines in a power spectrum: local maxima standing at least
+    ``prominence_db`` above the median of the surrounding ``2*halfwidth+1`` bins."""
+    p = np.asarray(power, dtype=float)
+    if p.size < 5:
+        return np.zeros(0, dtype=np.int64)
+    from scipy.ndimage import median_filter
+    floor = median_filter(p, size=2 * halfwidth + 1, mode="nearest")
+    tiny = max(float(p.max()) * 1e-30, 1e-300)
+    ratio = p / np.maximum(floor, tiny)
+    peak = (p[1:-1] >= p[:-2]) & (p[1:-1] >= p[2:]) & (ratio[1:-1] >= 10 ** (prominence_db / 10))
+    return np.nonzero(peak)[0] + 1
+
+
+def refine_peak(power: np.ndarray, k: int) -> float:
+    """Fractional bin of the peak at ``k`` (parabola through the log powers of k-1, k, k+1)."""
+    if k <= 0 or k >= len(power) - 1:
+        return float(k)
+    a, b, c = (math.log(max(float(v), 1e-300)) for v in power[k - 1:k + 2])
+    den = a - 2 * b + c
+    if den >= 0:
+        return float(k)
+    return k + 0.5 * (a - c) / den
+
+
+def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz: float = 3.0,
+                         min_harmonics: int = 3, min_explained: float = 0.8, min_density: float = 0.3):
+    """The fundamental of a harmonic series that explains the given spectral lines, or None.
+
+    ``freqs_hz``/``powers``: line frequencies and powers.  A candidate fundamental
+    (a line frequency divided by 1..8, at least ``min_f0_hz``) is accepted when the
+    lines within ``tolerance_hz`` (scaled by nothing: absolute) of its multiples carry
+    at least ``min_explained`` of the line power, at least ``min_harmonics`` lines match
+    and the matched harmonic numbers fill at least ``min_density`` of 1..highest match
+    (a real series is dense; two unrelated lines always share some tiny common divisor).
+    The largest accepted fundamental is returned, refined by least squares over the
+    matched lines.
+    """
+    f = np.asarray(freqs_hz, dtype=float)
+    p = np.asarray(powers, dtype=float)
+    if f.size < min_harmonics:
+        return None
+    order = np.argsort(p)[::-1][:12]
+    total = p.sum()
+    best = None
+    for i in order:
+        for n in range(1, 9):
+            f0 = f[i] / n
+            if f0 < min_f0_hz:
+                break
+            h = np.round(f / f0)
+            ok = (h >= 1) & (np.abs(f - h * f0) <= tolerance_hz + 1e-3 * f)
+            if ok.sum() < min_harmonics:
+                continue
+            if p[ok].sum() < min_explained * total:
+                continue
+            hs = np.unique(h[ok])
+            if len(hs) < min_density * hs.max():
+                continue
+            f0_ls = float(np.sum(f[ok] * h[ok]) / np.sum(h[ok] ** 2))
+            if best is None or f0_ls > best * 1.01:
+                best = f0_ls
+    return best
+
+
+def locked_order(f0: float, rate: float, fs: float, tolerance_hz: float, max_order: int | None = None):
+    """Smallest K (1..max_order, default fs/f0) with K*f0 within ``tolerance_hz`` of
+    ``rate`` modulo ``fs``, or None.  Periodic material at f0 is cyclostationary at every
+    K*f0 (mod fs, once sampled), so at such a cycle frequency a test for images says
+    nothing."""
+    if not f0 or f0 <= 0:
+        return None
+    top = int(max_order if max_order is not None else max(1, fs // f0))
+    k = np.arange(1, top + 1)
+    resid = np.mod(k * f0 - rate + fs / 2.0, fs) - fs / 2.0
+    hit = np.nonzero(np.abs(resid) <= tolerance_hz)[0]
+    return int(k[hit[0]]) if hit.size else None
+
+
+def periodic_fundamental(power: np.ndarray, bin_hz: float):
+    """Fundamental (Hz) of line-dominated periodic material in a long-term power spectrum, or None.
+
+    Lines must hold most of the power for the material to count as periodic.
+    """
+    lines = spectral_lines(power)
+    if lines.size < 3:
+        return None
+    lobe = np.zeros(power.size, dtype=bool)
+    for k in lines:
+        lobe[max(0, k - 2):k + 3] = True
+    if power[lobe].sum() < 0.5 * power.sum():
+        return None
+    freqs = np.array([refine_peak(power, int(k)) for k in lines]) * bin_hz
+    return harmonic_fundamental(freqs, power[lines])
+
+
+class ImagingAnalyzer(Analyzer):
+    """Spectral correlation at the cycle frequencies of every candidate source rate."""
+
+    name = "imaging"
+    measurement_schema = {
+        "imaging_detected": BOOLEAN_OR_NULL,
+        "imaging": array_of({
+            "type": "object",
+            "properties": {
+                "source_rate_hz": {"type": "number"},
+                "coherence": NUMBER_OR_NULL,
+                "image_level_db": NUMBER_OR_NULL,
+                "z_score": NUMBER_OR_NULL,
+                "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
+                "reason": {"type": ["string", "null"]},
+                "channel": {"type": ["string", "null"]},
+            },
+            "required": ["source_rate_hz", "coherence", "image_level_db", "verdict"],
+        }),
+    }
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        extra = dict(getattr(options, "extra", {}) or {}).get("imaging", {})
+        self.fs = int(info.sample_rate_hz)
+        self.n_fft = int(round(self.fs / BIN_HZ))
+        self.bin_hz = self.fs / self.n_fft
+        rates = extra.get("candidate_rates_hz", CANDIDATE_RATES_HZ)
+        self.rates = [float(r) for r in rates if r < self.fs]
+        self.max_frames = int(extra.get("max_frames", MAX_FRAMES))
+        self.window = np.hanning(self.n_fft + 2)[1:-1]
+        starts = frame_starts(int(info.frames), self.n_fft, self.max_frames, self.n_fft // 2)
+        self.null_bias = null_coherence_bias(starts, self.window)
+        self.span_s = (float(starts[-1] - starts[0]) + self.n_fft) / self.fs if starts.size else 0.0
+        self.picker = FramePicker(starts, self.n_fft, info.channels)
+        self.frames = 0
+        nb = self.n_fft // 2 + 1
+        self.power = np.zeros((info.channels, nb))
+        self.cands = []
+        for r in self.rates:
+            ka, kb, al = mirror_pairs(self.fs, r, self.n_fft)
+            self.cands.append({"rate": r, "ka": ka, "kb": kb, "alpha": al,
+                               "S": np.zeros((info.channels, ka.size), dtype=complex)})
+
+    def process(self, block) -> None:
+        for start, frame in self.picker.feed(block):
+            spec = np.fft.rfft(frame.T * self.window, axis=-1)
+            self.power += spec.real ** 2 + spec.imag ** 2
+            self.frames += 1
+            for c in self.cands:
+                if c["ka"].size == 0:
+                    continue
+                phase = np.exp(-2j * np.pi * (c["alpha"] * (start % self.n_fft)) / self.n_fft)
+                c["S"] += _gather(spec, c["ka"], self.n_fft) * _gather(spec, c["kb"], self.n_fft) * phase
+
+    def _assess(self, c, ch: int, f0):
+        m = self.frames
+        rate = c["rate"]
+        base = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
+                "verdict": "untestable", "reason": None, "channel": self.info.channel_layout[ch]}
+        if m < MIN_FRAMES:
+            base["reason"] = f"too short: {m} analysis frames of {self.n_fft} samples, {MIN_FRAMES} needed"
+            return base
+        if c["ka"].size == 0:
+            base["reason"] = "no baseband/image bin pairs at this rate"
+            return base
+        pw = self.power[ch]
+        lo = int(math.ceil(LOW_EDGE_HZ / self.bin_hz))
+        hi = int(math.ceil(rate / 2.0 / self.bin_hz)) - 1
+        base_power = float(pw[lo:hi + 1].sum())
+        if not base_power > 0.0:
+            base["reason"] = "no signal below the candidate's Nyquist frequency"
+            return base
+        if f0 is not None:
+            k = locked_order(f0, rate, self.fs, tolerance_hz=max(0.05, 1.0 / max(self.span_s, 1e-9)))
+            if k is not None:
+                base["reason"] = (f"periodic material (fundamental {f0:.3f} Hz) whose {k}th multiple "
+                                  f"meets {rate:.0f} Hz modulo the sampling rate: its partials pair up "
+                                  "like images")
+                return base
+        ka, kb = c["ka"], c["kb"]
+        fa = np.minimum(ka, self.n_fft - ka)
+        fb = np.minimum(kb, self.n_fft - kb)
+        p1, p2 = pw[fa], pw[fb]
+        tiny = 1e-300
+        g2 = np.abs(c["S"][ch]) ** 2 / np.maximum(p1 * p2, tiny)
+        g2 = np.minimum(g2, 1.0)
+        w = np.minimum(p1, p2)
+        wsum = float(w.sum())
+        if not wsum > 0.0:
+            base["reason"] = "no signal at the mirror frequencies"
+            return base
+        b0 = min(self.null_bias, 0.999)
+        m_eff = 1.0 / b0
+        v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
+        # two pooled statistics: power-weighted (tones, strong images) and unweighted
+        # (images spread thinly over many bins, e.g. folded onto programme content)
+        t = float(np.sum((g2 - b0) * w))
+        sd = math.sqrt(NULL_VARIANCE_INFLATION * v0 * float(np.sum(w * w)))
+        z_w = t / sd if sd > 0 else 0.0
+        z_u = float(np.sum(g2 - b0)) / math.sqrt(NULL_VARIANCE_INFLATION * v0 * g2.size)
+        z = max(z_w, z_u)
+        coh = (float(np.sum(g2 * w)) / wsum - b0) / (1.0 - b0)
+        base["coherence"] = round(min(1.0, max(0.0, coh)), 4)
+        base["z_score"] = round(z, 2)
+        if z >= Z_SIGNIFICANT and t > 0:
+            level = linear_to_db10(t / base_power)
+            base["image_level_db"] = None if level is None else round(level, 2)
+            if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
+                base["verdict"] = "defect"
+                base["reason"] = (f"mirror images of the content below {rate / 2000:.2f} kHz at "
+                                  f"{level:.1f} dB: upsampled from {rate / 1000:g} kHz without a proper filter")
+            else:
+                base["verdict"] = "trace"
+                base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
+                                  f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
+        else:
+            base["verdict"] = "none"
+        return base
+
+    def finish(self) -> AnalyzerResult:
+        rank = {"defect": 3, "trace": 2, "none": 1, "untestable": 0}
+        out = []
+        f0s = [periodic_fundamental(self.power[ch], self.bin_hz) if self.frames >= MIN_FRAMES else None
+               for ch in range(self.info.channels)]
+        for c in self.cands:
+            best = None
+            for ch in range(self.info.channels):
+                a = self._assess(c, ch, f0s[ch])
+                key = (rank[a["verdict"]], a["z_score"] if a["z_score"] is not None else -1e9)
+                if best is None or key > best[0]:
+                    best = (key, a)
+            out.append(best[1])
+        tested = [a for a in out if a["verdict"] != "untestable"]
+        detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
+        settings = {"frame_samples": self.n_fft, "bin_hz": self.bin_hz, "frames_analysed": self.frames,
+                    "max_frames": self.max_frames, "window": "hann",
+                    "z_significant": Z_SIGNIFICANT, "defect_image_level_db": DEFECT_IMAGE_LEVEL_DB}
+        return AnalyzerResult(measurements={"imaging_detected": detected, "imaging": out}, settings=settings)
+
+    @classmethod
+    def applies_to(cls, info, options) -> bool:
+        return any(r < info.sample_rate_hz for r in CANDIDATE_RATES_HZ)

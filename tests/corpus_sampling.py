@@ -1,0 +1,408 @@
+"""Ground-truth corpus for the sampling-integrity detectors (imaging, aliasing,
+upsampling from a lower rate, ultrasonic content, band limits).
+
+Every signal is synthesised here from its definition, so its truth is known by
+construction.  :func:`corpus` yields :class:`CorpusSignal` objects one at a time
+(memory stays small); ``labels`` holds only the detectors the signal is scored
+on:
+
+``imaging``            True: mirror images left by an unfiltered upsampler
+                       (hold, linear interpolation, zero stuffing); False: none
+                       (native content or a proper resampler).
+``aliasing``           True: folded content that a detector must see (naive
+                       waveforms, sample-dropping decimation of tonal material,
+                       a sweep generated past Nyquist); False: must not be
+                       flagged (band-limited synthesis, filtered decimation, and
+                       noise-like material, which never carries evidence of its
+                       own folding); None: not assessable (fs a whole multiple
+                       of f0) and must not be flagged.
+``upsampled_from_hz``  the source rate of noise converted up by a proper
+                       resampler, or None for native content.
+``ultrasonic_tones_hz`` the stationary tones above 20 kHz that were added
+                       ([] when none).
+``ultrasonic``         True when the band above 20 kHz carries broadband energy
+                       within 30 dB of the audible band; False when it is empty
+                       below -60 dB.
+``band_limit_hz``      the corner of a steep low-pass at no standard rate's
+                       Nyquist (a codec-like shelf), or None.
+
+Integer masters are the norm, so signals are quantised to 24 bits (TPDF dither
+of one LSB) unless a case asks for 16-bit noise-shaped dither.
+
+Listening caution: these are test signals (noise, naive waveforms, sweeps up to
+Nyquist); if you write them to files and play them, start with the monitoring
+level turned down.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+import numpy as np
+from scipy import signal as sps
+
+from masterqc.audio.reader import StreamInfo
+
+SECONDS = 1.0
+SWEEP_SECONDS = 1.5
+
+
+@dataclass
+class CorpusSignal:
+    name: str
+    group: str
+    fs: int
+    data: np.ndarray  # (frames, channels) float64 in [-1, 1)
+    bits: int
+    labels: dict = field(default_factory=dict)
+
+
+# ---------------------------------------------------------------- building blocks
+def times(fs: int, seconds: float) -> np.ndarray:
+    return np.arange(int(round(fs * seconds))) / fs
+
+
+def additive_wave(kind: str, f0: float, fs: int, seconds: float = SECONDS, top_hz: float | None = None,
+                  amplitude: float = 0.5, phase0: float = 0.0) -> np.ndarray:
+    """Band-limited sawtooth or square by additive synthesis: every harmonic below
+    ``top_hz`` (default the Nyquist frequency) with its Fourier-series amplitude
+    (saw: 2/(pi k), all k; square: 4/(pi k), odd k)."""
+    t = times(fs, seconds)
+    top = fs / 2.0 if top_hz is None else min(top_hz, fs / 2.0)
+    out = np.zeros_like(t)
+    k = 1
+    while k * f0 < top:
+        if kind == "saw":
+            out += (2 / math.pi) * (-1) ** (k + 1) * np.sin(2 * math.pi * k * f0 * t + k * phase0) / k
+        elif kind == "square":
+            if k % 2:
+                out += (4 / math.pi) * np.sin(2 * math.pi * k * f0 * t + k * phase0) / k
+        else:
+            raise ValueError(kind)
+        k += 1
+    return amplitude * out
+
+
+def naive_wave(kind: str, f0: float, fs: int, seconds: float = SECONDS, amplitude: float = 0.5) -> np.ndarray:
+    """Naively sampled sawtooth or square (the discontinuous waveform evaluated at
+    the sample instants, no band limitation).  A start phase offset keeps every
+    sample off the discontinuities, so the samples equal the periodised Fourier
+    series exactly."""
+    n = np.arange(int(round(fs * seconds)))
+    ph = np.mod(n * (f0 / fs) + 0.1234567, 1.0)
+    if kind == "saw":
+        x = 2.0 * ph - 1.0
+    elif kind == "square":
+        x = np.where(ph < 0.5, 1.0, -1.0)
+    else:
+        raise ValueError(kind)
+    return amplitude * x
+
+
+def white(fs: int, seconds: float, rng, level: float = 0.1) -> np.ndarray:
+    return level * rng.standard_normal(int(round(fs * seconds)))
+
+
+def pink(fs: int, seconds: float, rng, level: float = 0.1) -> np.ndarray:
+    """Gaussian noise with a 1/f power spectrum above 20 Hz (FFT shaping), RMS ``level``."""
+    n = int(round(fs * seconds))
+    spec = np.fft.rfft(rng.standard_normal(n))
+    f = np.fft.rfftfreq(n, 1.0 / fs)
+    shape = 1.0 / np.sqrt(np.maximum(f, 20.0))
+    shape[f < 10.0] = 0.0
+    x = np.fft.irfft(spec * shape, n)
+    return level * x / np.sqrt(np.mean(x ** 2))
+
+
+def good_filter(fs_in: int, fs_out: int):
+    """The proper resampling filter of the corpus: Kaiser-window FIR at the working
+    rate ``fs_in*up``, pass band to 0.45*min(fs_in, fs_out), 100 dB stop band from
+    0.5*min(fs_in, fs_out) (scipy.signal.kaiserord / firwin).  Unity DC gain."""
+    fr = Fraction(fs_out, fs_in)
+    up, down = fr.numerator, fr.denominator
+    work = fs_in * up
+    edge = 0.5 * min(fs_in, fs_out)
+    width = 0.05 * min(fs_in, fs_out)
+    numtaps, beta = sps.kaiserord(100.0, width / (work / 2.0))
+    numtaps |= 1
+    h = sps.firwin(numtaps, edge - width / 2.0, window=("kaiser", beta), fs=work)
+    return up, down, h
+
+
+def good_resample(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
+    """Convert ``x`` from ``fs_in`` to ``fs_out`` with :func:`good_filter` (polyphase)."""
+    up, down, h = good_filter(fs_in, fs_out)
+    return sps.resample_poly(x, up, down, window=h)
+
+
+def hold_upsample(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
+    """Sample hold: output sample n repeats input sample floor(n*fs_in/fs_out)."""
+    n = np.arange(len(x) * fs_out // fs_in)
+    return x[(n * fs_in) // fs_out]
+
+
+def linear_upsample(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
+    """Linear interpolation between input samples at the output instants."""
+    n = np.arange((len(x) - 1) * fs_out // fs_in)
+    return np.interp(n * fs_in / fs_out, np.arange(len(x)), x)
+
+
+def zero_stuff(x: np.ndarray, factor: int) -> np.ndarray:
+    """Zero stuffing by an integer factor (gain ``factor`` keeps the baseband level)."""
+    y = np.zeros(len(x) * factor)
+    y[::factor] = x * factor
+    return y
+
+
+def drop_decimate(x: np.ndarray, factor: int) -> np.ndarray:
+    """Decimation by keeping every ``factor``-th sample (no anti-alias filter)."""
+    return x[::factor]
+
+
+def quantise(x: np.ndarray, bits: int, rng) -> np.ndarray:
+    """Round to ``bits``-bit codes with TPDF dither of 1 LSB peak, as code/2**(bits-1)."""
+    q = 2.0 ** (bits - 1)
+    d = rng.random(x.shape) - rng.random(x.shape)
+    return np.clip(np.round(x * q + d), -q, q - 1) / q
+
+
+def shaped_dither_16(x: np.ndarray, rng) -> np.ndarray:
+    """16-bit quantisation with TPDF dither and second-order error feedback
+    (error filter 1 - 2 z^-1 + z^-2: the requantisation noise rises 12 dB per octave
+    towards Nyquist)."""
+    q = 32768.0
+    xs = x * q
+    d = rng.random(x.shape) - rng.random(x.shape)
+    y = np.empty_like(xs)
+    e1 = e2 = 0.0
+    for i in range(xs.size):
+        v = xs[i] - 2.0 * e1 + e2
+        o = min(max(round(v + d[i]), -q), q - 1)
+        e2, e1 = e1, o - v
+        y[i] = o
+    return y / q
+
+
+def chord(fs: int, seconds: float, top_hz: float, rng) -> np.ndarray:
+    """Music-like tonal material: three band-limited sawtooth notes (f0 196.3, 247.1,
+    293.9 Hz, harmonics below ``top_hz``) with a slow tremolo, plus noise at -50 dB."""
+    t = times(fs, seconds)
+    x = sum(additive_wave("saw", f0, fs, seconds, top_hz=top_hz, amplitude=0.2, phase0=p)
+            for f0, p in ((196.3, 0.3), (247.1, 1.1), (293.9, 2.0)))
+    x = x * (1.0 + 0.3 * np.sin(2 * math.pi * 3.1 * t))
+    return x + 0.003 * rng.standard_normal(t.size)
+
+
+def sine_sweep(fs: int, f_start: float, f_end: float, seconds: float = SWEEP_SECONDS,
+               amplitude: float = 0.5) -> np.ndarray:
+    """Linear sine sweep evaluated at the sample instants (beyond fs/2 it folds)."""
+    t = times(fs, seconds)
+    k = (f_end - f_start) / seconds
+    return amplitude * np.sin(2 * math.pi * (f_start * t + 0.5 * k * t * t))
+
+
+def naive_saw_sweep(fs: int, f_start: float, f_end: float, seconds: float = SWEEP_SECONDS,
+                    amplitude: float = 0.4) -> np.ndarray:
+    """Naive sawtooth whose fundamental rises linearly: aliased partials fall."""
+    t = times(fs, seconds)
+    k = (f_end - f_start) / seconds
+    ph = np.mod(f_start * t + 0.5 * k * t * t + 0.1234567, 1.0)
+    return amplitude * (2.0 * ph - 1.0)
+
+
+def lowpass(x: np.ndarray, fs: int, corner_hz: float) -> np.ndarray:
+    """Steep elliptic low-pass (order 10, 0.1 dB ripple, 90 dB stop band), zero phase."""
+    sos = sps.ellip(10, 0.1, 90.0, corner_hz, fs=fs, output="sos")
+    return sps.sosfiltfilt(sos, x)
+
+
+def tones(fs: int, seconds: float, freqs_hz, level: float) -> np.ndarray:
+    t = times(fs, seconds)
+    return sum(level * np.sin(2 * math.pi * f * t + i) for i, f in enumerate(freqs_hz))
+
+
+# ---------------------------------------------------------------- the corpus
+#: fundamentals that divide none of the standard rates (so aliases never land on harmonics)
+FUNDAMENTALS_HZ = (131.7, 277.3, 443.1, 1187.3)
+#: (fundamental, rate) pairs where fs is a whole multiple of f0: aliasing not assessable
+WHOLE_MULTIPLES = ((1000.0, 48000), (1200.0, 48000), (441.0, 44100), (480.0, 96000))
+#: (source rate, file rate) of the proper-resampler cases
+UP_PAIRS = ((32000, 48000), (44100, 48000), (44100, 88200), (44100, 96000), (48000, 96000), (32000, 96000))
+#: (source rate, file rate) of the unfiltered-upsampler cases
+IMAGING_PAIRS = ((44100, 88200), (48000, 96000), (32000, 96000), (44100, 48000))
+#: (source rate, decimation factor)
+DECIMATIONS = ((96000, 2), (88200, 2), (96000, 3))
+
+
+def _mono(x):
+    return np.asarray(x, dtype=float).reshape(-1, 1)
+
+
+def _builders():
+    """(name, group, builder(rng) -> (fs, data, bits, labels)) for every corpus signal."""
+    out = []
+
+    def add(name, group, fn):
+        out.append((name, group, fn))
+
+    # 1. band-limited (additive) vs naive sawtooth and square
+    for fs in (44100, 48000, 96000):
+        for kind in ("saw", "square"):
+            for f0 in FUNDAMENTALS_HZ:
+                add(f"additive_{kind}_{f0:g}Hz_{fs}", "waveforms",
+                    lambda rng, fs=fs, kind=kind, f0=f0: (fs, _mono(additive_wave(kind, f0, fs)), 24,
+                                                          {"aliasing": False, "imaging": False}))
+                add(f"naive_{kind}_{f0:g}Hz_{fs}", "waveforms",
+                    lambda rng, fs=fs, kind=kind, f0=f0: (fs, _mono(naive_wave(kind, f0, fs)), 24,
+                                                          {"aliasing": True, "imaging": False}))
+    for f0, fs in WHOLE_MULTIPLES:
+        add(f"naive_saw_{f0:g}Hz_{fs}_whole_multiple", "waveforms",
+            lambda rng, fs=fs, f0=f0: (fs, _mono(naive_wave("saw", f0, fs)), 24, {"aliasing": None}))
+
+    # 2. noise band-limited at a candidate rate's Nyquist, converted up properly; native noise
+    for r, fs in UP_PAIRS:
+        for kind in ("white", "pink"):
+            def build(rng, r=r, fs=fs, kind=kind):
+                gen = white if kind == "white" else pink
+                x = np.stack([good_resample(gen(r, SECONDS, rng), r, fs) for _ in range(2)], axis=1)
+                return fs, x, 24, {"upsampled_from_hz": r, "imaging": False, "aliasing": False,
+                                   **({"ultrasonic": False} if fs >= 88200 else {}),
+                                   "band_limit_hz": None}
+            add(f"{kind}_from_{r}_to_{fs}_proper", "proper_upsampling", build)
+    for fs in (48000, 96000):
+        for kind in ("white", "pink"):
+            def build(rng, fs=fs, kind=kind):
+                gen = white if kind == "white" else pink
+                x = np.stack([gen(fs, SECONDS, rng) for _ in range(2)], axis=1)
+                lab = {"upsampled_from_hz": None, "imaging": False, "aliasing": False, "band_limit_hz": None}
+                if fs >= 88200 and kind == "white":
+                    lab["ultrasonic"] = True
+                return fs, x, 24, lab
+            add(f"{kind}_native_{fs}", "native_noise", build)
+
+    # 3. hold, linear-interpolation and unfiltered (zero-stuffing) upsampling
+    for r, fs in IMAGING_PAIRS:
+        methods = ["hold", "linear"] + (["zero_stuff"] if fs % r == 0 else [])
+        for method in methods:
+            for material in ("pink", "chord"):
+                def build(rng, r=r, fs=fs, method=method, material=material):
+                    x = pink(r, SECONDS, rng, 0.15) if material == "pink" else chord(r, SECONDS, 0.45 * r, rng)
+                    if method == "hold":
+                        y = hold_upsample(x, r, fs)
+                    elif method == "linear":
+                        y = linear_upsample(x, r, fs)
+                    else:
+                        y = zero_stuff(x, fs // r)
+                    return fs, _mono(y), 24, {"imaging": True}
+                add(f"{material}_from_{r}_to_{fs}_{method}", "unfiltered_upsampling", build)
+
+    # 4. decimation by sample dropping vs with a proper filter, tonal and noise-like
+    for fs_src, d in DECIMATIONS:
+        fs = fs_src // d
+        for method in ("drop", "filtered"):
+            for f0 in (523.7, 1571.3):
+                def build(rng, fs_src=fs_src, d=d, fs=fs, method=method, f0=f0):
+                    x = additive_wave("saw", f0, fs_src, SECONDS + 0.05, amplitude=0.5)
+                    y = drop_decimate(x, d) if method == "drop" else good_resample(x, fs_src, fs)
+                    return fs, _mono(y[:int(fs * SECONDS)]), 24, {"aliasing": method == "drop"}
+                add(f"saw_{f0:g}Hz_{fs_src}_decimated_{d}_{method}", "decimation", build)
+            def build(rng, fs_src=fs_src, d=d, fs=fs, method=method):
+                x = white(fs_src, SECONDS + 0.05, rng, 0.1)
+                y = drop_decimate(x, d) if method == "drop" else good_resample(x, fs_src, fs)
+                return fs, _mono(y[:int(fs * SECONDS)]), 24, {"aliasing": False, "imaging": False}
+            add(f"white_{fs_src}_decimated_{d}_{method}", "decimation", build)
+
+    # 5. genuinely wide-band 96 kHz content, with and without ultrasonic tones
+    for i, tone_set in enumerate(((), (), (25000.0,), (31500.0, 40000.0), (), (27300.0,), (), (44000.0,))):
+        kind = "white" if i % 2 == 0 else "pink"
+        def build(rng, tone_set=tone_set, kind=kind):
+            fs = 96000
+            gen = white if kind == "white" else pink
+            x = gen(fs, SECONDS, rng, 0.05)
+            if tone_set:
+                x = x + tones(fs, SECONDS, tone_set, 0.01)
+            lab = {"ultrasonic_tones_hz": list(tone_set), "upsampled_from_hz": None, "imaging": False,
+                   "aliasing": False, "band_limit_hz": None}
+            if kind == "white":
+                lab["ultrasonic"] = True
+            return fs, _mono(x), 24, lab
+        add(f"wideband_{kind}_96000_tones_{'_'.join(f'{f:g}' for f in tone_set) or 'none'}", "wideband", build)
+
+    # 6. 16-bit noise-shaped dither on quiet tonal material
+    for fs in (44100, 48000):
+        for f0 in (311.1, 740.3):
+            def build(rng, fs=fs, f0=f0):
+                x = additive_wave("saw", f0, fs, SECONDS, top_hz=0.45 * fs, amplitude=0.05)
+                return fs, _mono(shaped_dither_16(x, rng)), 16, {"imaging": False, "aliasing": False,
+                                                                 "upsampled_from_hz": None}
+            add(f"saw_{f0:g}Hz_{fs}_16bit_shaped_dither", "dither", build)
+
+    # 7. codec-like shelf: steep low-pass at a corner no standard rate explains
+    for fs in (44100, 48000):
+        for corner in (16000.0, 15000.0):
+            def build(rng, fs=fs, corner=corner):
+                x = lowpass(pink(fs, SECONDS, rng, 0.1), fs, corner)
+                return fs, _mono(x), 24, {"band_limit_hz": corner, "upsampled_from_hz": None,
+                                          "imaging": False, "aliasing": False}
+            add(f"pink_{fs}_lowpass_{corner:g}", "codec_shelf", build)
+
+    # 8. sweeps crossing Nyquist (naive) vs band-limited sweeps
+    for fs in (44100, 48000, 96000):
+        add(f"sine_sweep_{fs}_past_nyquist", "sweeps",
+            lambda rng, fs=fs: (fs, _mono(sine_sweep(fs, 500.0, 0.8 * fs)), 24, {"aliasing": True}))
+        add(f"sine_sweep_{fs}_bandlimited", "sweeps",
+            lambda rng, fs=fs: (fs, _mono(sine_sweep(fs, 500.0, 0.45 * fs)), 24, {"aliasing": False}))
+        add(f"naive_saw_sweep_{fs}", "sweeps",
+            lambda rng, fs=fs: (fs, _mono(naive_saw_sweep(fs, 300.0, 1500.0)), 24, {"aliasing": True}))
+    return out
+
+
+def corpus_names() -> list[str]:
+    return [name for name, _g, _f in _builders()]
+
+
+def corpus(seed: int = 20261201, groups=None):
+    """Yield every :class:`CorpusSignal` (deterministic for a given ``seed``)."""
+    for i, (name, group, fn) in enumerate(_builders()):
+        if groups is not None and group not in groups:
+            continue
+        rng = np.random.default_rng([seed, i])
+        fs, data, bits, labels = fn(rng)
+        data = np.asarray(data, dtype=float)
+        if data.ndim == 1:
+            data = data.reshape(-1, 1)
+        if bits == 24:
+            data = quantise(data, 24, rng)
+        yield CorpusSignal(name=name, group=group, fs=int(fs), data=data, bits=bits, labels=labels)
+
+
+# ---------------------------------------------------------------- running analyzers on arrays
+class ArrayStream:
+    """An in-memory stand-in for :class:`masterqc.audio.reader.AudioStream`."""
+
+    def __init__(self, data: np.ndarray, fs: int, bits: int = 24):
+        data = np.asarray(data, dtype=float)
+        if data.ndim == 1:
+            data = data.reshape(-1, 1)
+        self.data = data
+        ch = data.shape[1]
+        labels = ("M",) if ch == 1 else ("L", "R") if ch == 2 else tuple(f"ch{i + 1}" for i in range(ch))
+        self.info = StreamInfo(path="<memory>", container="wav", encoding=f"pcm_{bits}", sample_rate_hz=int(fs),
+                               bit_depth=bits, is_float=False, channels=ch, frames=data.shape[0],
+                               channel_layout=labels, layout_source="conventional",
+                               channel_weights=tuple(1.0 for _ in labels))
+
+    def blocks(self, block_frames: int = 65536):
+        for i in range(0, self.data.shape[0], block_frames):
+            yield self.data[i:i + block_frames]
+
+
+def analyse(data, fs, classes, bits: int = 24, options=None):
+    """Measurements of ``classes`` on an array, through the engine's :func:`run_analyzers`."""
+    from masterqc.measure.engine import run_analyzers
+    from masterqc.measure.options import MeasureOptions
+    measurements, _series, _settings = run_analyzers(ArrayStream(data, fs, bits), options or MeasureOptions(),
+                                                     classes=classes)
+    return measurements
