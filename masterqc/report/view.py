@@ -95,7 +95,8 @@ class TimeLabels:
         meta = result.get("metadata") or {}
         self.rate_hz = int(_get(result, "format", "sample_rate_hz", default=0) or 0)
         self.start_samples = meta.get("time_reference_samples")
-        self.fps = meta.get("timecode_fps")
+        # the spec's rate, else the rate the file declares (iXML), else the timecode module's default
+        self.fps = meta.get("timecode_fps") or meta.get("declared_timecode_fps")
         self.has_start = self.start_samples is not None and self.rate_hz > 0
         self._tc = None
         if self.has_start:
@@ -321,7 +322,7 @@ def format_rows(result: dict) -> list[tuple[str, str]]:
     return rows
 
 
-_META_SKIP = {"chunks", "problems", "container_kind", "time_reference_samples", "timecode_fps"}
+_META_SKIP = {"chunks", "problems", "container_kind", "time_reference_samples"}
 
 
 def _flatten(prefix: str, value, out: list, depth: int = 0):
@@ -443,7 +444,8 @@ def series_xy(result: dict, name: str, duration_s: float):
 # ----------------------------------------------------------------- plot sections
 
 def _not_measured(keys) -> str:
-    return "Not measured: the result holds no " + ", ".join(f"\u201c{k}\u201d" for k in keys) + "."
+    """The sentence shown where a section's data is absent, naming the keys looked for."""
+    return "Not measured: the result holds no " + " or ".join(f"\u201c{k}\u201d" for k in keys) + "."
 
 
 def _parse_band(limit: str | None):
@@ -495,8 +497,7 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
         if parsed and parsed[0] is not None and parsed[1] is not None:
             band = (parsed[0], parsed[1])
     if mom is None and st is None:
-        return {"svg": None, "rows": rows, "note": _not_measured(["momentary_lufs", "short_term_lufs"])
-                if not rows else "Loudness over time not measured (no momentary or short-term series).",
+        return {"svg": None, "rows": rows, "note": _not_measured(["momentary_lufs", "short_term_lufs"]),
                 "present": bool(rows)}
     if band:
         note = (f"Hatched band: the spec's integrated-loudness range {fmt.number(band[0], 1)} to "
@@ -558,8 +559,7 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     env = series_xy(result, "true_peak_envelope_dbtp", duration_s)
     if env is None:
         return {"svg": None, "rows": rows, "present": bool(rows),
-                "note": _not_measured(["true_peak_envelope_dbtp"]) if not rows
-                else "True peak over time not measured (no envelope series)."}
+                "note": _not_measured(["true_peak_envelope_dbtp"])}
     t, values = env
     if _nested_numbers(values):
         # per channel when the outer list has one entry per channel, else per time step

@@ -1,0 +1,255 @@
+"""HTML report: well-formed, self-contained, escaped, deterministic, in the issue's order.
+
+The result under test is a real one: a synthesized BWF measured by
+``measure_file`` and judged by the real judge (tests/report_fixtures.py).
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import re
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+
+from masterqc.report import fmt, plots
+from masterqc.report.render import render_html, write_reports
+from masterqc.report.view import build_view
+from report_fixtures import HOSTILE_DESCRIPTION, measured_and_judged
+
+SVG = "{http://www.w3.org/2000/svg}"
+XLINK_HREF = "{http://www.w3.org/1999/xlink}href"
+
+
+@pytest.fixture(scope="module")
+def judged(tmp_path_factory):
+    return measured_and_judged(tmp_path_factory.mktemp("report"))
+
+
+@pytest.fixture(scope="module")
+def html(judged):
+    return render_html(judged[2])
+
+
+@pytest.fixture(scope="module")
+def tree(html):
+    return ET.fromstring(html.split("\n", 1)[1] if html.startswith("<!DOCTYPE") else html)
+
+
+def _text(el) -> str:
+    """The element's text with runs of ASCII white space collapsed (no-break spaces kept)."""
+    return re.sub(r"[ \t\r\n]+", " ", " ".join(el.itertext())).strip()
+
+
+def test_html_is_well_formed_xml(html, tree):
+    assert html.startswith("<!DOCTYPE html>\n")
+    assert tree.tag == "html"
+    assert [c.tag for c in tree] == ["head", "body"]
+
+
+def test_no_external_requests_and_no_scripts(html, tree):
+    for el in tree.iter():
+        tag = el.tag.split("}")[-1]
+        assert tag not in ("script", "link", "iframe", "object", "embed", "img", "base"), tag
+        for name, value in el.attrib.items():
+            if name.split("}")[-1] in ("href", "src", "srcset", "data", "action", "poster") or name == XLINK_HREF:
+                assert value.startswith(("#", "data:")), (tag, name, value[:60])
+    style = "".join(s.text or "" for s in tree.iter("style"))
+    assert "@import" not in style
+    for url in re.findall(r"url\(([^)]*)\)", html):
+        assert url.strip("'\" ").startswith(("#", "data:")), url
+
+
+def test_bext_markup_is_shown_as_text_only(html, tree):
+    # the raw markup never appears; its escaped form does, and parses back to the exact string
+    assert "<script>alert" not in html and "<b>Night" not in html
+    assert "&lt;script&gt;alert(" in html
+    cells = [td for td in tree.iter("td") if "Night" in _text(td)]
+    assert cells and cells[0].text == HOSTILE_DESCRIPTION
+    assert not any(el.tag == "b" for el in tree.iter())
+
+
+def test_control_character_in_metadata_is_visible(tree):
+    originator = [td for td in tree.iter("td") if (td.text or "").startswith("Harbour Lane Rooms")]
+    assert originator and originator[0].text == "Harbour Lane Rooms\\x07"
+
+
+def test_render_is_deterministic_and_survives_a_json_round_trip(judged, html):
+    result = judged[2]
+    assert render_html(copy.deepcopy(result)) == html
+    again = json.loads(json.dumps(result, indent=2))
+    again["outputs"] = {"json": "x.json"}  # written by check after rendering; must not change the page
+    assert render_html(again) == html
+
+
+def test_verdict_comes_first_then_what_to_fix(tree, judged):
+    body = tree.find("body")
+    masthead = body.find("header")
+    assert masthead is body[0]
+    verdict = [el for el in masthead.iter() if el.get("class", "").startswith("verdict ")][0]
+    text = _text(verdict)
+    assert text.startswith("FAIL Does not meet the spec")
+    assert "1 check failed" in text
+    fixes = _text([el for el in masthead.iter() if el.get("class") == "fixes"][0])
+    # the true-peak failure, its miss (-20.0 against -25.0: 5.0 dB) and where, in the file's timecode
+    assert "true peak -20.0 dBTP is above the limit -25.0 dBTP by 5.0 dB" in fixes
+    assert "01:00:00:00" in fixes
+
+
+def test_sections_in_the_issue_order(tree):
+    ids = [s.get("id") for s in tree.iter("section")]
+    assert ids == ["findings", "format", "loudness", "true-peak", "spectrum", "spectrogram", "events",
+                   "conversions", "normalisation", "provenance", "cautions"]
+
+
+def test_findings_rows_carry_word_shape_and_numbers(tree):
+    rows = [tr for tr in tree.iter("tr") if tr.get("class", "").startswith("row-")]
+    by_check = {}
+    for tr in rows:
+        cells = tr.findall("td")
+        check_id = [s for s in cells[1] if s.get("class") == "check-id"][0].text
+        by_check[check_id.split(" ")[0]] = (tr.get("class"), cells)
+    cls, cells = by_check["peaks.true_peak"]
+    assert cls == "row-fail"
+    assert _text(cells[0]) == "FAIL"
+    icon = cells[0].find(f"{SVG}svg")
+    assert icon is not None and icon.find(f"{SVG}rect") is not None  # fail: a square
+    assert [_text(c) for c in cells[2:5]] == ["-20.0\u00a0dBTP", "\u2264 -25.0 dBTP", "5.0\u00a0dB"]
+    cls, cells = by_check["loudness.integrated"]
+    assert cls == "row-pass" and _text(cells[0]) == "PASS"
+    assert cells[0].find(f"{SVG}svg").find(f"{SVG}circle") is not None  # pass: a disc
+    # worst first
+    assert [r.get("class") for r in rows][0] == "row-fail"
+
+
+def test_key_numbers_match_an_outside_meter(judged, html):
+    """Integrated loudness shown equals pyloudnorm's (BS.1770, DeMan filter) at the shown precision.
+
+    EBU Tech 3341 Table 1 case 1 shape: a 1 kHz stereo sine at -20 dBFS per channel reads -20.0 LUFS.
+    """
+    import pyloudnorm
+    import soundfile as sf
+
+    data, rate = sf.read(str(judged[0]))
+    reference = pyloudnorm.Meter(rate, filter_class="DeMan").integrated_loudness(data)
+    shown = f"{reference:.1f}"
+    assert shown == "-20.0"
+    assert f"<td>{shown}\u00a0LUFS</td>" in html  # the loudness table row
+    assert f"integrated -{shown[1:]} LUFS" in html  # the plot's legend
+
+
+def test_plots_are_matplotlib_svg_with_timecode_axis(tree):
+    plots_found = [el for el in tree.iter(f"{SVG}svg") if el.get("class") == "plot"]
+    labels = [p.get("aria-label") for p in plots_found]
+    assert labels[:3] == ["Loudness over time", "True peak over time", "Long-term spectrum per channel"]
+    loud = plots_found[0]
+    texts = [t for el in loud.iter(f"{SVG}text") for t in el.itertext()]
+    assert any(t.strip() == "01:00:00:00" for t in texts)  # bext TimeReference 3600 s at 25 fps
+    assert any("timecode (HH:MM:SS:FF at 25 fps)" in t for t in texts)
+
+
+def test_missing_data_says_not_measured_and_never_raises(judged):
+    result = copy.deepcopy(judged[2])
+    result["series"] = {}
+    for key in list(result["measurements"]):
+        if key.startswith(("true_peak", "integrated", "loudness", "max_")) or key.endswith(("_where_s", "_ranges_s")):
+            del result["measurements"][key]
+    for key in ("head_silence_s", "tail_silence_s", "conversions"):
+        result["measurements"].pop(key, None)
+    result.pop("normalisation", None)
+    for f in result["findings"]:
+        f["where_s"] = []
+    page = render_html(result)
+    tree = ET.fromstring(page.split("\n", 1)[1])
+    sections = {s.get("id"): _text(s) for s in tree.iter("section")}
+    for sid in ("loudness", "true-peak", "spectrum", "spectrogram", "events", "conversions"):
+        assert "Not measured" in sections[sid], sid
+    assert "Not computed" in sections["normalisation"]
+    assert not [el for el in tree.iter(f"{SVG}svg") if el.get("class") == "plot"]
+
+
+def test_error_result_of_an_unreadable_master_renders(tmp_path):
+    from masterqc.pipeline import check_file
+    from masterqc.spec.loader import load_spec
+    from report_fixtures import SPEC_YAML
+
+    bad = tmp_path / "truncated.wav"
+    bad.write_bytes(b"RIFF\x10\x00\x00\x00WAVEfmt ")
+    spec = tmp_path / "s.yaml"
+    spec.write_text(SPEC_YAML)
+    result = check_file(bad, load_spec(spec), tmp_path, ("json",))
+    page = render_html(result)
+    tree = ET.fromstring(page.split("\n", 1)[1])
+    assert _text(tree.find("body").find("header")).startswith("masterqc delivery report")
+    assert "ERROR" in _text(tree.find("body").find("header"))
+    assert "cannot be checked" in page
+
+
+def test_measure_only_result_is_marked_not_judged(judged):
+    result = {k: v for k, v in judged[2].items() if k not in ("spec", "findings", "verdict", "normalisation")}
+    view = build_view(result)
+    assert view["verdict"]["word"] == "NOT JUDGED"
+    assert view["findings"] == []
+
+
+def test_write_reports_is_atomic_when_rendering_fails(judged, tmp_path, monkeypatch):
+    from masterqc.report import render
+
+    old = tmp_path / "take.html"
+    old.write_text("previous report")
+
+    def broken(*_a, **_k):
+        raise RuntimeError("printer on fire")
+
+    monkeypatch.setattr(render, "render_pdf", broken)
+    with pytest.raises(RuntimeError):
+        write_reports(judged[2], tmp_path, "take", ("html", "pdf"))
+    assert old.read_text() == "previous report"  # nothing written: every payload is rendered first
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["take.html"]
+
+
+def test_write_reports_html_only(judged, tmp_path, html):
+    paths = write_reports(judged[2], tmp_path, "take", "json,html")
+    assert [p.name for p in paths] == ["take.html"]
+    assert paths[0].read_text(encoding="utf-8") == html
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["take.html"]  # no temporary left behind
+
+
+def test_css_is_safe_to_embed():
+    import importlib.resources
+    css = importlib.resources.files("masterqc.templates").joinpath("report.css").read_text()
+    assert not set("<>&") & set(css)
+
+
+# ------------------------------------------------------------------ formatting and plotting helpers
+
+def test_labels_and_units_from_key_names():
+    assert fmt.unit_of_key("true_peak_dbtp_per_channel") == ("dBTP", 1)
+    assert fmt.unit_of_key("dropout_longest_s") == ("s", 3)
+    assert fmt.label_of_key("max_short_term_lufs") == "Max short-term loudness"
+    assert fmt.label_of_key("dc_offset_dbfs", with_unit_text=True) == "DC offset (dBFS)"
+    assert fmt.value_for_key("sample_peak_dbfs_per_channel", [-1.04, -0.96]) == "-1.0, -1.0\u00a0dBFS"
+    assert fmt.value_for_key("integrated_lufs", None) == "n/a"
+    assert fmt.number(-0.04, 1) == "0.0"  # no negative zero
+
+
+def test_clock_and_timecode_text():
+    assert fmt.clock(0.0) == "0:00.00"
+    assert fmt.clock(3725.456, 2) == "1:02:05.46"
+    assert fmt.timecode(3600.0 + 12.4, 25) == "01:00:12:10"  # 0.4 s = 10 frames at 25 fps
+    assert fmt.timecode(86400.0 + 1.0, None) == "00:00:01.00"  # wraps at 24 h
+
+
+def test_thinning_keeps_every_bucket_extreme():
+    rng = np.random.default_rng(7)
+    y = rng.normal(-20, 3, 100_000)
+    y[54_321] = 3.5  # one over
+    y[77_777] = -90.0
+    t = np.arange(y.size) * 0.01
+    tt, yy = plots.thin(t, y, 3000)
+    assert len(yy) <= 3000
+    assert yy.max() == 3.5 and yy.min() == -90.0
+    assert tt[int(np.argmax(yy))] == t[54_321]
+    assert np.all(np.diff(tt) > 0)
