@@ -116,6 +116,9 @@ def walk(path) -> ContainerInfo:
                 info.problems.append({"offset": 0, "message": "no RIFF/RF64 WAVE, AIFF or FLAC header "
                                       f"(first bytes {head[:12]!r}, file is {size} bytes)"})
             w.finish()
+            # an offset names a byte of the file: a fault found past the end is reported at the end
+            for p in info.problems:
+                p["offset"] = max(0, min(int(p["offset"]), size))
     except OSError as exc:
         info.problems.append({"offset": 0, "message": f"cannot read container ({exc.strerror or exc})"})
     except Exception as exc:  # the walker must not take the measurement down with it

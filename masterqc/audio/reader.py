@@ -152,7 +152,10 @@ class AudioStream:
         """
         if block_frames < 1:
             raise ValueError("block_frames must be >= 1")
-        self._sf.seek(0)
+        try:
+            self._sf.seek(0)
+        except (RuntimeError, ValueError, OSError) as exc:  # libsndfile fails to seek in some broken files
+            raise AudioReadError(self.path, f"decoding failed: cannot seek to the first frame ({_clean(exc)})") from None
         done = 0
         while True:
             try:
