@@ -1,0 +1,380 @@
+"""``masterqc demo``: invented example masters, checked against the invented demo specs.
+
+Every master is synthesised here from a fixed random seed (chords, bass,
+percussion, noise beds, speech-like bursts), set to a designed integrated
+loudness, and some carry a deliberate fault.  :data:`MASTERS` lists each one
+with the properties it was built to have; the tests derive every expected
+verdict from those properties and check the properties themselves with
+reference libraries.
+
+All titles, labels, networks and people are invented.
+
+CAUTION: the demo masters include loud test content (a hot master, a clipped
+master, full-scale 12 kHz bursts).  Set the monitoring level low before
+listening.  masterqc is a measurement aid: the receiving party's own spec and
+QC govern acceptance.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import soundfile as sf
+from scipy import signal
+
+CAUTION = ("CAUTION: the demo masters include loud test content (hot, clipped and full-scale "
+           "high-frequency material); set your monitoring level low before listening. masterqc is a "
+           "measurement aid: the receiving party's own spec and QC govern acceptance.")
+
+SEED = 20261201
+
+
+# ---------------------------------------------------------------- building blocks
+
+def _note_hz(midi: float) -> float:
+    return 440.0 * 2.0 ** ((midi - 69) / 12.0)
+
+
+def _env(n: int, sr: int, attack_s: float, release_s: float) -> np.ndarray:
+    """Linear attack, exponential-ish release envelope of ``n`` samples."""
+    e = np.ones(n)
+    a = max(1, min(n, int(attack_s * sr)))
+    e[:a] = np.linspace(0.0, 1.0, a)
+    r = max(1, min(n - a, int(release_s * sr)))
+    e[n - r:] *= np.linspace(1.0, 0.0, r) ** 2
+    return e
+
+
+def _tone(freq_hz: float, n: int, sr: int, harmonics: int = 6, bright: float = 1.0, phase: float = 0.0):
+    t = np.arange(n) / sr
+    out = np.zeros(n)
+    for k in range(1, harmonics + 1):
+        if k * freq_hz >= 0.45 * sr:
+            break
+        out += (bright ** (k - 1)) / k * np.sin(2 * np.pi * k * freq_hz * t + phase * k)
+    return out
+
+
+def _pink(n: int, rng) -> np.ndarray:
+    """Pink-ish noise (-3 dB/octave) by filtering white noise, unit RMS."""
+    white = rng.standard_normal(n)
+    b = [0.049922035, -0.095993537, 0.050612699, -0.004408786]
+    a = [1.0, -2.494956002, 2.017265875, -0.522189400]
+    x = signal.lfilter(b, a, white)
+    return x / (np.sqrt(np.mean(x ** 2)) + 1e-30)
+
+
+def music(duration_s: float, sr: int, rng, tempo_bpm: float = 112.0, key_midi: int = 57) -> np.ndarray:
+    """A stereo music-like bed: chords, bass, kick, snare, hats and a noise bed (frames, 2)."""
+    n = int(round(duration_s * sr))
+    out = np.zeros((n, 2))
+    beat = int(round(60.0 / tempo_bpm * sr))
+    bar = 4 * beat
+    progression = [(0, 4, 7, 11), (5, 9, 12, 16), (7, 11, 14, 17), (9, 12, 16, 19)]  # I, IV, V, vi-ish
+    # chords: one per bar, slight detune and pan per voice
+    for i, start in enumerate(range(0, n, bar)):
+        m = min(bar, n - start)
+        chord = progression[i % len(progression)]
+        env = _env(m, sr, 0.03, 0.4)
+        for j, step in enumerate(chord):
+            f = _note_hz(key_midi + step) * (1 + 0.001 * (j - 1.5))
+            v = _tone(f, m, sr, harmonics=5, bright=0.6) * env * 0.12
+            pan = 0.25 + 0.5 * (j / (len(chord) - 1))
+            out[start:start + m, 0] += v * np.cos(pan * np.pi / 2)
+            out[start:start + m, 1] += v * np.sin(pan * np.pi / 2)
+    # bass: root on every beat, an octave below the chords
+    for i, start in enumerate(range(0, n, beat)):
+        m = min(beat, n - start)
+        root = progression[(i // 4) % len(progression)][0]
+        f = _note_hz(key_midi - 24 + root)
+        v = _tone(f, m, sr, harmonics=3, bright=0.5) * _env(m, sr, 0.005, 0.25) * 0.35
+        out[start:start + m] += v[:, None]
+    # kick on beats 1 and 3, snare on 2 and 4, hats on eighths
+    for i, start in enumerate(range(0, n, beat)):
+        if i % 2 == 0:
+            m = min(int(0.18 * sr), n - start)
+            t = np.arange(m) / sr
+            sweep = 2 * np.pi * np.cumsum(50 + 90 * np.exp(-t / 0.03)) / sr
+            v = np.sin(sweep) * np.exp(-t / 0.06) * 0.5
+            out[start:start + m] += v[:, None]
+        else:
+            m = min(int(0.14 * sr), n - start)
+            t = np.arange(m) / sr
+            v = signal.lfilter(*signal.butter(2, [900 / (sr / 2), 5000 / (sr / 2)], "band"),
+                               rng.standard_normal(m)) * np.exp(-t / 0.04) * 0.35
+            out[start:start + m, 0] += v * 0.9
+            out[start:start + m, 1] += v
+    hat_b, hat_a = signal.butter(2, 7000 / (sr / 2), "high")
+    for start in range(0, n, beat // 2):
+        m = min(int(0.03 * sr), n - start)
+        t = np.arange(m) / sr
+        v = signal.lfilter(hat_b, hat_a, rng.standard_normal(m)) * np.exp(-t / 0.008) * 0.12
+        out[start:start + m, 1] += v
+        out[start:start + m, 0] += 0.5 * v
+    # noise bed
+    out += 0.004 * np.stack([_pink(n, rng), _pink(n, rng)], axis=1)
+    return out
+
+
+def speech(duration_s: float, sr: int, rng, f0_hz: float = 140.0) -> np.ndarray:
+    """A mono speech-like signal: voiced syllables through formant filters, pauses, room tone (frames,)."""
+    n = int(round(duration_s * sr))
+    out = np.zeros(n)
+    vowels = [(730, 1090, 2440), (270, 2290, 3010), (300, 870, 2240), (530, 1840, 2480), (570, 840, 2410)]
+    pos = int(0.2 * sr)
+    while pos < n:
+        phrase_end = pos + int(rng.uniform(1.2, 2.6) * sr)
+        while pos < min(phrase_end, n):
+            m = min(int(rng.uniform(0.09, 0.26) * sr), n - pos)
+            t = np.arange(m) / sr
+            f0 = f0_hz * (1 + 0.08 * np.sin(2 * np.pi * rng.uniform(1, 3) * t)) * rng.uniform(0.9, 1.15)
+            phase = 2 * np.pi * np.cumsum(f0) / sr
+            src = np.sign(np.sin(phase)) * 0.5 + 0.5 * np.sin(phase)  # buzzy glottal-like source
+            v = np.zeros(m)
+            for k, fc in enumerate(vowels[rng.integers(len(vowels))]):
+                bw = 80 + 40 * k
+                b, a = signal.iirpeak(fc / (sr / 2), fc / bw)
+                v += signal.lfilter(b, a, src) / (k + 1)
+            if rng.random() < 0.3:  # fricative onset
+                fr = min(int(0.05 * sr), m)
+                hb, ha = signal.butter(2, 3500 / (sr / 2), "high")
+                v[:fr] += signal.lfilter(hb, ha, rng.standard_normal(fr)) * 0.3
+            out[pos:pos + m] += v * np.hanning(m)
+            pos += m + int(rng.uniform(0.02, 0.08) * sr)
+        pos += int(rng.uniform(0.3, 0.8) * sr)
+    out += 0.0015 * _pink(n, rng)  # room tone
+    return out
+
+
+def integrated_lufs(x: np.ndarray, sr: int) -> float:
+    """Integrated loudness (BS.1770) of an in-memory signal, with masterqc's meter."""
+    from masterqc.audio.layout import bs1770_weight
+    from masterqc.measure.loudness import LoudnessMeter
+    x2 = x if x.ndim == 2 else x[:, None]
+    labels = ["L", "R"] if x2.shape[1] == 2 else ["C"] * x2.shape[1]
+    meter = LoudnessMeter(sr, [bs1770_weight(lab) for lab in labels])
+    meter.process(x2)
+    value = meter.summary().gating.integrated_lufs
+    if value is None:
+        raise ValueError("demo signal has no gated loudness")
+    return value
+
+
+def set_loudness(x: np.ndarray, sr: int, target_lufs: float) -> np.ndarray:
+    """``x`` scaled to ``target_lufs`` integrated (gating is scale-invariant, so one pass is exact)."""
+    return x * 10.0 ** ((target_lufs - integrated_lufs(x, sr)) / 20.0)
+
+
+def quarter_rate_burst(n: int, amplitude: float, sr: int, fade_s: float = 0.004) -> np.ndarray:
+    """``n`` samples of a sine at fs/4 with 45 degree phase: samples at +-0.707*amplitude,
+    true peak ``amplitude`` (the shape of EBU Tech 3341 true-peak case 16)."""
+    k = np.arange(n)
+    x = amplitude * np.sin(np.pi / 2 * k + np.pi / 4)
+    return x * _env(n, sr, fade_s, fade_s) ** 0.5
+
+
+# ---------------------------------------------------------------- the masters
+
+@dataclass(frozen=True)
+class DemoMaster:
+    """One invented master and the properties it is built to have.
+
+    ``integrated_lufs`` is set exactly (to float precision); the ``*_max`` and
+    ``*_min`` fields are design bounds the tests verify with reference libraries.
+    """
+
+    stem: str
+    title: str
+    build: str
+    sample_rate_hz: int
+    bit_depth: int
+    channels: int
+    duration_s: float
+    integrated_lufs: float
+    true_peak_dbtp_max: float
+    true_peak_dbtp_min: float | None = None
+    loudness_range_lu_min: float | None = None
+    loudness_range_lu_max: float | None = None
+    max_short_term_lufs_max: float | None = None
+    sample_peak_dbfs_max: float | None = None
+    fault: str = ""
+    #: demo specs this master is checked against by ``masterqc demo`` (stems in specs_demo/)
+    demo_specs: tuple = field(default_factory=tuple)
+
+
+MASTERS: list[DemoMaster] = [
+    DemoMaster("tidewater_theme", "Tidewater (main theme)", "music", 48000, 24, 2, 30.0, -23.0,
+               true_peak_dbtp_max=-8.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-19.0,
+               demo_specs=("harbourlight-house", "copperfield-album")),
+    DemoMaster("lighthouse_ad_hot", "Lighthouse Lane Bakery - 30 s spot", "music", 48000, 24, 2, 30.0, -15.0,
+               true_peak_dbtp_max=-2.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-11.0,
+               fault="too loud for broadcast (-15 LUFS)", demo_specs=("harbourlight-shortform",)),
+    DemoMaster("harbour_overs", "Harbour Lights (radio edit)", "music+bursts", 48000, 24, 2, 30.0, -23.0,
+               true_peak_dbtp_max=0.3, true_peak_dbtp_min=-0.4, sample_peak_dbfs_max=-2.9,
+               fault="inter-sample overs: 12 kHz bursts peak at 0 dBTP while samples stay at -3 dBFS",
+               demo_specs=("harbourlight-house",)),
+    DemoMaster("estuary_suite_wide", "Estuary Suite, mvt. II", "music+dynamics", 48000, 24, 2, 48.0, -23.0,
+               true_peak_dbtp_max=-9.0, loudness_range_lu_min=19.0,
+               fault="too much loudness range (quiet and loud passages 22 dB apart)",
+               demo_specs=("harbourlight-house",)),
+    DemoMaster("marina_interview_44k", "Marina Talks, ep. 4 (interview)", "speech", 44100, 24, 2, 15.0, -23.0,
+               true_peak_dbtp_max=-8.0, fault="wrong sample rate for broadcast (44.1 kHz)",
+               demo_specs=("harbourlight-house",)),
+    DemoMaster("quayside_clipped", "Quayside (club mix)", "music+clip", 48000, 24, 2, 20.0, -9.5,
+               true_peak_dbtp_max=3.0, true_peak_dbtp_min=0.0, sample_peak_dbfs_max=0.0,
+               fault="driven into hard clipping at full scale",
+               demo_specs=("copperfield-album",)),
+    DemoMaster("lantern_lane_episode", "Lantern Lane Stories, ep. 12", "speech", 48000, 24, 1, 15.0, -18.0,
+               true_peak_dbtp_max=-2.0, demo_specs=("lantern-lane-spoken",)),
+    DemoMaster("pier_talk_quiet", "Pier Talk, ep. 3", "speech", 48000, 16, 1, 15.0, -19.7,
+               true_peak_dbtp_max=-2.0, fault="quiet: within 0.5 LU of the lower loudness limit",
+               demo_specs=("lantern-lane-spoken",)),
+]
+
+
+def _section_gain(n: int, sr: int, levels_db, fade_s: float = 0.5) -> np.ndarray:
+    """Piecewise-constant gain (dB levels, equal sections) with short linear fades between."""
+    k = len(levels_db)
+    g = np.repeat(np.asarray(levels_db, dtype=float), int(np.ceil(n / k)))[:n]
+    w = max(1, int(fade_s * sr))
+    padded = np.pad(g, (w // 2, w - w // 2 - 1), mode="edge")
+    c = np.concatenate([[0.0], np.cumsum(padded)])
+    g = (c[w:] - c[:-w]) / w  # moving average: linear fades of fade_s between sections
+    return 10.0 ** (g / 20.0)
+
+
+def _voice_chain(x: np.ndarray, drive: float = 4.0) -> np.ndarray:
+    """A gentle saturating leveller for the voice (peaks normalised, then tanh), as speech masters have."""
+    x = x / (np.max(np.abs(x)) + 1e-30)
+    y = np.tanh(drive * x) / np.tanh(drive)
+    return signal.sosfilt(signal.butter(4, 0.35, "low", output="sos"), y)  # voice band: below 0.35 * Nyquist
+
+
+def synthesize(master: DemoMaster, seed: int = SEED) -> np.ndarray:
+    """The float signal of ``master`` (frames, channels), before writing to PCM."""
+    rng = np.random.default_rng([seed, sum(map(ord, master.stem))])
+    sr, dur = master.sample_rate_hz, master.duration_s
+    n = int(round(dur * sr))
+    if master.build == "music":
+        x = set_loudness(music(dur, sr, rng), sr, master.integrated_lufs)
+    elif master.build == "music+dynamics":
+        x = music(dur, sr, rng) * _section_gain(n, sr, [-22.0, 0.0, -22.0, 0.0])[:, None]
+        x = set_loudness(x, sr, master.integrated_lufs)
+    elif master.build == "music+bursts":
+        bed = music(dur, sr, rng)
+        burst_n = int(0.004 * sr)  # short, so the bursts barely add loudness
+        starts = [int(s * sr) for s in (7.0, 15.5, 24.25)]
+        gap = np.ones(n)
+        for s in starts:  # the music makes room for each burst (20 ms either side)
+            pad = int(0.02 * sr)
+            gap[s - pad:s + burst_n + pad] = 0.0
+        gap = np.convolve(gap, np.ones(64) / 64, mode="same")
+        bursts = np.zeros(n)
+        for s in starts:
+            bursts[s:s + burst_n] = quarter_rate_burst(burst_n, 1.0, sr, fade_s=0.0005)
+        gain = 10.0 ** ((master.integrated_lufs - integrated_lufs(bed, sr)) / 20.0)
+        for _ in range(8):  # the bursts add a little loudness: settle the bed's gain
+            x = bed * gap[:, None] * gain + bursts[:, None]
+            err = master.integrated_lufs - integrated_lufs(x, sr)
+            if abs(err) < 1e-4:
+                break
+            gain *= 10.0 ** (err / 20.0)
+    elif master.build == "music+clip":
+        bed = music(dur, sr, rng)
+        bed = bed / np.max(np.abs(bed))
+        drive = 1.0
+        for _ in range(30):  # louder until the clipped result reaches the target
+            x = np.clip(bed * drive, -1.0, 1.0)
+            err = master.integrated_lufs - integrated_lufs(x, sr)
+            if abs(err) < 1e-3:
+                break
+            drive *= 10.0 ** (err / 20.0 * 1.5)
+        x = np.clip(bed * drive, -1.0, 1.0)
+    elif master.build == "speech":
+        mono = _voice_chain(speech(dur, sr, rng, f0_hz=120.0 + 60.0 * rng.random()))
+        if master.channels == 2:  # two voices: host left-of-centre, guest right-of-centre
+            other = _voice_chain(speech(dur, sr, rng, f0_hz=210.0))
+            x = np.stack([0.8 * mono + 0.35 * other, 0.35 * mono + 0.8 * other], axis=1)
+        else:
+            x = mono[:, None]
+        x = set_loudness(x, sr, master.integrated_lufs)
+    else:  # pragma: no cover - table error
+        raise ValueError(f"unknown build {master.build!r}")
+    return x
+
+
+def write_master(master: DemoMaster, folder) -> Path:
+    """Synthesise ``master`` and write it as WAV (integer PCM of its bit depth); returns the path."""
+    x = synthesize(master)
+    full_scale = (2 ** (master.bit_depth - 1) - 1) / 2 ** (master.bit_depth - 1)  # largest positive code
+    x = np.clip(x, -1.0, full_scale)  # the clipped master is already inside; the others never reach it
+    path = Path(folder) / f"{master.stem}.wav"
+    tmp = path.with_name(f".{path.name}.tmp")
+    sf.write(tmp, x, master.sample_rate_hz, subtype=f"PCM_{master.bit_depth}", format="WAV")
+    os.replace(tmp, path)
+    return path
+
+
+def demo_specs_dir() -> Path:
+    """The folder of the demo specs (the repository's specs_demo/, or the installed copy)."""
+    here = Path(__file__).resolve().parent.parent / "specs_demo"
+    if here.is_dir():
+        return here
+    from importlib.resources import files
+    return Path(str(files("masterqc.specs_demo")))
+
+
+# ---------------------------------------------------------------- the command
+
+def run_demo(out_dir="demo-output", formats: str | None = None, stream=None) -> int:
+    """Make the masters, check each against its demo specs, print a summary; returns exit code 0.
+
+    The demo's own exit code is 0 when it ran (the faults are deliberate); the
+    per-file verdicts are in the summary and the reports.
+    """
+    from masterqc.errors import UsageError
+    from masterqc.pipeline import check_file, default_formats, parse_formats, reports_available
+    from masterqc.spec.loader import load_spec
+
+    out = stream or sys.stdout
+    started = time.perf_counter()
+    if formats is None:
+        fmts = default_formats()
+    else:
+        try:
+            fmts = parse_formats(formats)
+        except ValueError as exc:
+            raise UsageError(f"--format: {exc}") from None
+        if any(f in ("html", "pdf") for f in fmts) and reports_available() is not None:
+            raise UsageError(f"HTML/PDF reports cannot be rendered here ({reports_available()}); use --format json")
+    out.write(CAUTION + "\n\n")
+    out_dir = Path(out_dir)
+    masters_dir = out_dir / "masters"
+    masters_dir.mkdir(parents=True, exist_ok=True)
+    specs = {p.stem: load_spec(p) for p in sorted(demo_specs_dir().glob("*.yaml"))}
+    out.write(f"Writing {len(MASTERS)} invented masters to {masters_dir}/\n")
+    paths = {m.stem: write_master(m, masters_dir) for m in MASTERS}
+    out.write(f"Checking them against {len(specs)} invented delivery specs ({demo_specs_dir()}):\n\n")
+    rows = []
+    for m in MASTERS:
+        for spec_stem in m.demo_specs:
+            loaded = specs[spec_stem]
+            report_dir = out_dir / spec_stem
+            result = check_file(paths[m.stem], loaded, report_dir, fmts, stem=m.stem)
+            missed = [f for f in result["findings"] if f["status"] in ("error", "fail")] or \
+                [f for f in result["findings"] if f["status"] == "warn"]
+            reason = missed[0]["message"] if missed else "meets every requirement"
+            if len(missed) > 1:
+                reason += f" (and {', '.join(f['check'] for f in missed[1:])})"
+            rows.append((result["verdict"], m.stem, loaded.name, reason, report_dir))
+            out.write(f"  {result['verdict'].upper():5s} {m.stem:22s} vs {loaded.name}\n"
+                      f"        {reason}\n")
+    elapsed = time.perf_counter() - started
+    out.write(f"\nReports ({', '.join(fmts)}) are in {out_dir}/<spec>/<master>.*; the masters in {masters_dir}/.\n")
+    out.write(f"Done in {elapsed:.1f} s. The faults are deliberate: see masterqc/demo.py for how each master was made.\n")
+    return 0
