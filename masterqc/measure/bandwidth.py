@@ -88,8 +88,10 @@ TESTABLE_MAX_RATIO = 0.93
 OWN_FILTER_RATIO = 0.9
 #: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent; the steeper brick walls of codec low-passes and IIR shelves are band limits)
 CONVERTER_MIN_WIDTH_RATIO = 0.028
-#: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the floor for the candidate to be testable, dB (own reasoning)
-TESTABLE_MIN_CONTENT_DB = 30.0
+#: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the format's floor for the candidate to be testable, dB (own reasoning: a cliff must be able to fall UPSAMPLED_MIN_DEPTH_DB + ABOVE_FLOOR_DB)
+TESTABLE_MIN_CONTENT_DB = 50.0
+#: ... and lie no further than this below the programme's main band (median of 1-10 kHz), dB (own reasoning: content that far down sits at a real master's noise floor, where no cliff can show)
+TESTABLE_MAX_BELOW_MAIN_DB = 60.0
 #: the cliff search starts this high, Hz
 SEARCH_LOW_HZ = 6000.0
 #: windows of the cliff search, Hz (relative to the edge position)
@@ -171,7 +173,9 @@ def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_d
         ok = r / 2.0 <= TESTABLE_MAX_RATIO * nyq
         if ok and env_db is not None:
             a, b = _bins(0.84 * r / 2.0, bin_hz), _bins(0.88 * r / 2.0, bin_hz)
-            ok = float(np.median(env_db[a:b + 1])) >= floor_db + TESTABLE_MIN_CONTENT_DB
+            near = float(np.median(env_db[a:b + 1]))
+            main = float(np.median(env_db[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+            ok = near >= floor_db + TESTABLE_MIN_CONTENT_DB and near >= main - TESTABLE_MAX_BELOW_MAIN_DB
         (testable if ok else untestable).append(r)
     return testable, untestable
 
@@ -225,7 +229,9 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
     # -1, -3, -6, -30 dB points and the bottom
     start = max(0, e + _bins(PASS_WINDOW_HZ[1], bin_hz))
     depth = pass_db - post
-    pts = {d: _crossing(env_db, start, top_bin, pass_db - d, bin_hz) for d in (1.0, 3.0, 6.0, 30.0)}
+    low = min(30.0, depth - 3.0)          # the "-30 dB" point of a shallower cliff is 3 dB above its bottom
+    pts = {d: _crossing(env_db, start, top_bin, pass_db - (low if d == 30.0 else d), bin_hz)
+           for d in (1.0, 3.0, 6.0, 30.0)}
     bottom = pass_db - min(depth - 3.0, 40.0)
     fb = _crossing(env_db, start, top_bin, bottom, bin_hz)
     f6 = pts[6.0]

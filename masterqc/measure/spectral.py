@@ -79,7 +79,7 @@ class FrontEndResult:
     bin_hz: float
     freqs_hz: np.ndarray          # (bins,)
     frames: int                   # number of analysis frames
-    ltas: np.ndarray              # (channels, bins) mean power per bin
+    ltas: np.ndarray              # (channels, bins) mean power per bin over the file's duration
     p10_db: np.ndarray | None     # (bins,) 10th percentile of channel-mean level over frames
     p50_db: np.ndarray | None
     p90_db: np.ndarray | None
@@ -187,8 +187,9 @@ class SpectralFrontEnd:
                 self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels))], axis=0)
                 self._run()
             self._finished = True
-        frames = max(self.frame_index, 1)
-        ltas = self.ltas_sum / frames
+        # every sample is covered by the windows of two frames: the sum over frames
+        # is the energy of total_samples / hop frames' worth of signal
+        ltas = self.ltas_sum / max(self.total_samples / self.hop, 1e-12)
         p10 = p50 = p90 = None
         if self.histogram and self.frame_index > 0:
             p10, p50, p90 = (self.percentile_db(q) for q in (0.10, 0.50, 0.90))

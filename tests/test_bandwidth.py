@@ -1,0 +1,182 @@
+"""Effective bandwidth, converter cliffs and upsampling (masterqc.measure.bandwidth).
+
+Ground truth is by construction: noise made at a lower rate (so band-limited
+to that rate's Nyquist by definition) and converted up with
+scipy.signal.resample_poly, a general-purpose reference resampler; wide-band
+noise made at the file's own rate; steep low-passes at corners no standard
+rate explains.  Tolerances on frequencies are a few bins (10 Hz each) plus the
+-6 dB point's position inside a converter's transition band (analytic for
+resample_poly: its windowed-sinc filter is -6 dB at the old Nyquist).
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from scipy import signal as sps
+
+from masterqc.audio.reader import StreamInfo
+from masterqc.measure import bandwidth as bw
+from masterqc.measure.spectral import SpectralFrontEnd
+
+
+def info_for(fs, ch=1, frames=1, bits=24, is_float=False):
+    return StreamInfo(path="<memory>", container="wav", encoding="pcm_24", sample_rate_hz=fs, bit_depth=bits,
+                      is_float=is_float, channels=ch, frames=frames, channel_layout=("M",) * ch,
+                      layout_source="conventional", channel_weights=(1.0,) * ch)
+
+
+def quantise24(x, rng):
+    q = 2.0 ** 23
+    return np.round(x * q + rng.random(x.shape) - rng.random(x.shape)) / q
+
+
+def assess(x, fs, bits=24, is_float=False):
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1:
+        x = x[:, None]
+    fe = SpectralFrontEnd(fs, x.shape[1], x.shape[0])
+    fe.process(x)
+    return bw.assess(fe.finish(), info_for(fs, x.shape[1], x.shape[0], bits, is_float))
+
+
+def upsampled_noise(src, dst, seconds=1.5, seed=0, kind="white"):
+    rng = np.random.default_rng(seed)
+    x = 0.1 * rng.standard_normal(int(src * seconds))
+    if kind == "pink":
+        spec = np.fft.rfft(x)
+        f = np.fft.rfftfreq(x.size, 1 / src)
+        x = np.fft.irfft(spec / np.sqrt(np.maximum(f, 20.0)), x.size)
+        x *= 0.1 / np.std(x)
+    fr = Fraction(dst, src)
+    y = sps.resample_poly(x, fr.numerator, fr.denominator)
+    return quantise24(y, rng)
+
+
+@pytest.mark.parametrize("src,dst", [(44100, 96000), (48000, 96000), (32000, 48000), (44100, 88200),
+                                     (48000, 192000)])
+@pytest.mark.parametrize("kind", ["white", "pink"])
+def test_resample_poly_upsampling_is_found(src, dst, kind):
+    r = assess(upsampled_noise(src, dst, kind=kind), dst)
+    assert r.upsampled_from_hz == src
+    assert r.edge == "cliff"
+    assert 0.4 <= r.confidence <= 1.0
+    # resample_poly's filter is -6 dB at src/2; the pass level is read 2-5 kHz below the edge,
+    # so the -6 dB point lands within ~5 % below the old Nyquist
+    assert 0.93 * src / 2 <= r.effective_bandwidth_hz <= 1.01 * src / 2
+    assert r.band_limit_hz is None
+    assert r.depth_db >= bw.UPSAMPLED_MIN_DEPTH_DB
+
+
+def test_wideband_native_noise_is_not_upsampled():
+    rng = np.random.default_rng(1)
+    fs = 96000
+    r = assess(quantise24(0.1 * rng.standard_normal(int(fs * 1.5)), rng), fs)
+    assert r.upsampled_from_hz is None and r.confidence is None
+    assert r.band_limit_hz is None
+    assert r.effective_bandwidth_hz == 48000.0
+    assert r.edge is None
+    assert 88200 not in r.untestable_hz      # content reaches 88.2 kHz's Nyquist: testable
+
+
+@pytest.mark.parametrize("corner", [16000.0, 15000.0, 17500.0])
+def test_steep_low_pass_at_no_standard_rate_is_a_band_limit(corner):
+    # a codec-like brick wall: elliptic, order 10, 0.1 dB ripple, 90 dB stop band, zero phase
+    rng = np.random.default_rng(2)
+    fs = 48000
+    x = 0.1 * rng.standard_normal(int(fs * 1.5))
+    sos = sps.ellip(10, 0.1, 90.0, corner, fs=fs, output="sos")
+    r = assess(quantise24(sps.sosfiltfilt(sos, x), rng), fs)
+    assert r.upsampled_from_hz is None
+    assert r.edge == "cliff"
+    assert r.band_limit_hz == pytest.approx(corner, abs=150.0)
+    assert "low-passed" in r.note
+
+
+def test_shallow_shelf_at_16k_is_a_band_limit_not_upsampling():
+    # content above 16 kHz kept 30 dB down (a shelf, not a stop band): FFT-domain shelf
+    rng = np.random.default_rng(3)
+    fs = 44100
+    x = 0.1 * rng.standard_normal(int(fs * 1.5))
+    spec = np.fft.rfft(x)
+    f = np.fft.rfftfreq(x.size, 1 / fs)
+    gain = np.where(f < 16000.0, 1.0, 10 ** (-30 / 20))
+    r = assess(quantise24(np.fft.irfft(spec * gain, x.size), rng), fs)
+    assert r.upsampled_from_hz is None
+    assert r.band_limit_hz == pytest.approx(16000.0, abs=100.0)
+    assert 25.0 <= r.depth_db <= 35.0
+
+
+def test_natural_roll_off_is_not_a_cliff():
+    # second-order low-pass at 3 kHz: 12 dB/octave, nowhere near a converter's slope
+    rng = np.random.default_rng(4)
+    fs = 96000
+    x = 0.3 * rng.standard_normal(int(fs * 1.5))
+    sos = sps.butter(2, 3000.0, fs=fs, output="sos")
+    r = assess(quantise24(sps.sosfilt(sos, x), rng), fs)
+    assert r.edge in ("rolloff", None)
+    assert r.upsampled_from_hz is None and r.band_limit_hz is None
+
+
+def test_harmonic_series_that_ends_is_tonal_not_upsampled():
+    # band-limited sawtooth at 48 kHz with partials up to 20.9 kHz (f0 311.1 Hz): ends like a cliff,
+    # but the region below is a sparse line spectrum, not broadband content
+    fs = 48000
+    t = np.arange(int(fs * 1.5)) / fs
+    x = sum((2 / np.pi) * np.sin(2 * np.pi * k * 311.1 * t) / k for k in range(1, 68))
+    rng = np.random.default_rng(5)
+    r = assess(quantise24(0.2 * x, rng), fs)
+    assert r.upsampled_from_hz is None and r.band_limit_hz is None
+    assert "tonal" in (r.note or "")
+
+
+def test_digital_silence_gives_nulls():
+    r = assess(np.zeros(48000), 48000)
+    assert r.effective_bandwidth_hz is None and r.edge is None and r.upsampled_from_hz is None
+    assert r.measurements()["upsampled_confidence"] is None
+
+
+def test_candidates_and_untestable_rates():
+    testable, untestable = bw.testable_candidates(96000)
+    assert testable == [32000, 44100, 48000, 88200] and untestable == []
+    testable, untestable = bw.testable_candidates(48000)
+    assert testable == [32000, 44100] and untestable == []
+    testable, untestable = bw.testable_candidates(44100)
+    assert testable == [32000]
+    # 88.2 kHz inside 96 kHz content that rolls off from 10 kHz (8th order, 48 dB/octave: about
+    # -90 dB at 37 kHz): nothing near 44.1 kHz could show a cliff
+    rng = np.random.default_rng(6)
+    fs = 96000
+    x = 0.1 * rng.standard_normal(int(fs * 1.5))
+    sos = sps.butter(8, 10000.0, fs=fs, output="sos")
+    r = assess(quantise24(sps.sosfilt(sos, x), rng), fs)
+    assert 88200 in r.untestable_hz
+    assert r.upsampled_from_hz is None
+
+
+def test_match_rate_ranges():
+    assert bw.match_rate(22050.0, [32000, 44100, 48000])[0] == 44100
+    assert bw.match_rate(21000.0, [32000, 44100, 48000])[0] == 44100
+    assert bw.match_rate(23400.0, [32000, 44100, 48000])[0] == 48000
+    assert bw.match_rate(18000.0, [32000, 44100, 48000])[0] is None
+
+
+def test_format_floor_figures():
+    # 16-bit: q^2/12 with q = 2^-15 is 20*log10(2^-15) - 10*log10(12) = -90.31 - 10.79 = -101.10 dB
+    # of mean square (computed); over 2400 bins (48 kHz, 10 Hz) another -33.80 dB per bin
+    assert bw.format_floor_db(16, False, 4800) == pytest.approx(-101.10 - 33.80, abs=0.02)
+    assert bw.format_floor_db(24, True, 4800) == bw.format_floor_db(24, False, 4800)
+
+
+def test_block_size_does_not_change_the_verdict():
+    x = upsampled_noise(44100, 96000, seconds=1.0, seed=7)[:, None]
+    fs = 96000
+    out = []
+    for block in (65536, 7000):
+        fe = SpectralFrontEnd(fs, 1, x.shape[0])
+        for i in range(0, x.shape[0], block):
+            fe.process(x[i:i + block])
+        out.append(bw.assess(fe.finish(), info_for(fs, 1, x.shape[0])).measurements())
+    assert out[0] == out[1]

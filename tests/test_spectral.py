@@ -1,0 +1,180 @@
+"""Spectral front end (masterqc.measure.spectral): framing, normalisation, statistics, display.
+
+References: Parseval's theorem and the constant-overlap-add property of the
+periodic Hann window at 50 % overlap (analytic); the level of a sine in dBFS
+(AES17 convention: a full-scale sine reads 0 dBFS; common practice, no source).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from masterqc.audio.reader import StreamInfo
+from masterqc.measure.engine import run_analyzers
+from masterqc.measure.options import MeasureOptions
+from masterqc.measure.spectral import (SamplingSpectrumAnalyzer, SpectralFrontEnd, display_ltas,
+                                       frame_length_for)
+
+
+def run_fe(x, fs, block=65536, **kw):
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1:
+        x = x[:, None]
+    fe = SpectralFrontEnd(fs, x.shape[1], x.shape[0], **kw)
+    for i in range(0, x.shape[0], block):
+        fe.process(x[i:i + block])
+    return fe, fe.finish()
+
+
+def sine(fs, seconds, f, amp, phase=0.0):
+    t = np.arange(int(round(fs * seconds))) / fs
+    return amp * np.sin(2 * np.pi * f * t + phase)
+
+
+@pytest.mark.parametrize("fs,n", [(48000, 4800), (44100, 4410), (96000, 9600), (88200, 8820), (32000, 3200)])
+def test_frame_length_gives_10_hz_bins(fs, n):
+    assert frame_length_for(fs) == n
+    fe = SpectralFrontEnd(fs, 1, fs)
+    assert fe.bin_hz == pytest.approx(10.0)
+
+
+@pytest.mark.parametrize("fs", [88200, 96000, 192000])
+def test_candidate_nyquists_and_mirrors_fall_on_bins(fs):
+    # analytic: with 10 Hz bins, r/2 and fs - f for any 10 Hz multiple f are multiples of 10 Hz
+    fe = SpectralFrontEnd(fs, 1, fs)
+    for r in (32000, 44100, 48000, 88200, 96000):
+        if r < fs:
+            k = (r / 2) / fe.bin_hz
+            assert k == pytest.approx(round(k), abs=1e-9)
+            mirror = (r - 1230.0) / fe.bin_hz
+            assert mirror == pytest.approx(round(mirror), abs=1e-9)
+
+
+@pytest.mark.parametrize("f,amp", [(1000.0, 0.5), (30000.0, 0.01), (12345.6, 0.25)])
+def test_sine_lobe_power_reads_its_peak_level(f, amp):
+    fs = 96000
+    fe, r = run_fe(sine(fs, 1.0, f, amp), fs)
+    k = int(round(f / r.bin_hz))
+    lobe = r.ltas[0, k - 3:k + 4].sum()
+    # 20*log10(A): A sine's mean square is A^2/2, all inside the +-3-bin Hann main lobe
+    assert 10 * math.log10(2 * lobe) == pytest.approx(20 * math.log10(amp), abs=0.02)
+
+
+def test_parseval_white_noise_mean_square():
+    # Hann at 50 % overlap is constant-overlap-add, and the leading/trailing half frames
+    # make every sample count the same: sum of the LTAS is the mean square (within noise)
+    rng = np.random.default_rng(1)
+    fs = 48000
+    x = 0.1 * rng.standard_normal(fs * 2)
+    fe, r = run_fe(x, fs)
+    assert r.ltas[0].sum() == pytest.approx(np.mean(x ** 2), rel=0.02)
+
+
+def test_frame_count_covers_the_file():
+    fs = 48000
+    fe, r = run_fe(np.zeros(12345), fs)
+    # frames start at -hop, every hop, while the start is inside the file
+    assert r.frames == math.ceil((12345 + 2400) / 2400)
+
+
+def test_results_do_not_depend_on_block_size():
+    rng = np.random.default_rng(2)
+    fs = 44100
+    x = rng.standard_normal((fs, 2)) * 0.1
+    _, a = run_fe(x, fs, block=65536)
+    _, b = run_fe(x, fs, block=1000)
+    _, c = run_fe(x, fs, block=4410)
+    np.testing.assert_allclose(a.ltas, b.ltas, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(a.ltas, c.ltas, rtol=1e-12, atol=0)
+    np.testing.assert_array_equal(a.p50_db, b.p50_db)
+    np.testing.assert_allclose(a.spectrogram_db, b.spectrogram_db, rtol=1e-12)
+
+
+def test_percentiles_of_an_intermittent_tone():
+    # a 5 kHz tone at -20 dBFS present in the middle 30 % of the time over noise at -100 dB:
+    # the 10th percentile of its bin is the noise floor, the 90th the tone's bin level.
+    # A noise bin's power in one frame is exponentially distributed (chi-square, 2 degrees
+    # of freedom): its 10th percentile lies 10*log10(-ln 0.9) = -9.78 dB from the mean (analytic).
+    fs = 48000
+    rng = np.random.default_rng(3)
+    n = fs * 4
+    x = 1e-5 * rng.standard_normal(n)
+    tone = sine(fs, 4.0, 5000.0, 0.1)
+    gate = np.zeros(n)
+    gate[int(0.35 * n):int(0.65 * n)] = 1.0
+    x = x + tone * gate
+    _, r = run_fe(x, fs)
+    k = 500
+    # bin level of a centred sine: A^2/2 * (coherent gain^2 / (N * sum w^2)) * 2 = A^2/2 * 2/3 for Hann
+    tone_bin_db = 10 * math.log10(0.1 ** 2 / 2 * (2.0 / 3.0))
+    noise_bin_db = 10 * math.log10(1e-10 / (r.frame_length / 2))
+    assert r.p90_db[k] == pytest.approx(tone_bin_db, abs=1.0)
+    # 81 frames give each bin's percentile a sampling spread of about a dB: average over bins
+    noise = slice(600, 1000)
+    assert np.mean(r.p10_db[noise]) == pytest.approx(noise_bin_db + 10 * math.log10(-math.log(0.9)), abs=0.7)
+    # the median of an exponential is ln 2 of the mean (-1.59 dB)
+    assert np.mean(r.p50_db[noise]) == pytest.approx(noise_bin_db + 10 * math.log10(math.log(2)), abs=0.7)
+    assert r.p10_db[k] < tone_bin_db - 60
+
+
+def test_spectrogram_is_bounded_and_locates_a_burst():
+    fs = 8000
+    rng = np.random.default_rng(4)
+    n = fs * 60
+    x = 1e-4 * rng.standard_normal(n)
+    x[int(31.0 * fs):int(31.5 * fs)] += 0.3 * rng.standard_normal(int(0.5 * fs))
+    fe, r = run_fe(x, fs, columns=400, rows=64)
+    assert r.spectrogram_db.shape == (400, 64)
+    col_energy = (10 ** (r.spectrogram_db / 10)).sum(axis=1)
+    j = int(np.argmax(col_energy))
+    assert r.spectrogram_time_s[j] == pytest.approx(31.25, abs=0.3)
+    assert r.spectrogram_freq_hz[-1] < fs / 2
+
+
+def test_display_ltas_is_short_and_smoothed():
+    fs = 96000
+    rng = np.random.default_rng(5)
+    _, r = run_fe(0.1 * rng.standard_normal(fs), fs)
+    hz, db = display_ltas(r)
+    assert len(hz) <= 1000 and db.shape == (1, len(hz))
+    assert hz[0] == pytest.approx(20.0) and hz[-1] <= fs / 2
+    # white noise of mean square 0.01 over 4800 bins: -56.8 dB per 10 Hz bin, flat within
+    # about a dB above 5 kHz, where each point averages 10 or more bins of 21 frames
+    sel = hz > 5000
+    assert np.ptp(db[0, sel]) < 2.0
+    assert np.median(db[0, sel]) == pytest.approx(10 * math.log10(0.01 / 4800), abs=0.3)
+
+
+def _info(fs, ch, frames, bits=24):
+    labels = ("L", "R")[:ch] if ch <= 2 else tuple(f"ch{i}" for i in range(ch))
+    return StreamInfo(path="<memory>", container="wav", encoding=f"pcm_{bits}", sample_rate_hz=fs,
+                      bit_depth=bits, is_float=False, channels=ch, frames=frames, channel_layout=labels,
+                      layout_source="conventional", channel_weights=tuple(1.0 for _ in labels))
+
+
+class _Stream:
+    def __init__(self, x, fs):
+        self.x = x
+        self.info = _info(fs, x.shape[1], x.shape[0])
+
+    def blocks(self, n):
+        for i in range(0, self.x.shape[0], n):
+            yield self.x[i:i + n]
+
+
+def test_analyzer_series_and_keys_through_the_engine():
+    fs = 48000
+    rng = np.random.default_rng(6)
+    x = 0.05 * rng.standard_normal((fs * 2, 2))
+    m, series, settings = run_analyzers(_Stream(x, fs), MeasureOptions(), classes=[SamplingSpectrumAnalyzer])
+    for key in SamplingSpectrumAnalyzer.measurement_schema:
+        assert key in m
+    assert len(series["ltas_hz"]) <= 1000
+    assert len(series["ltas_db_per_channel"]) == 2
+    sg = series["spectrogram"]
+    assert len(sg["db"]) <= 1000 and len(sg["db"][0]) <= 256
+    assert len(sg["time_s"]) == len(sg["db"]) and len(sg["frequency_hz"]) == len(sg["db"][0])
+    assert settings["sampling_spectrum"]["front_end"]["bin_hz"] == pytest.approx(10.0)
