@@ -280,6 +280,7 @@ def test_digital_silence_gives_nulls():
                 "loudness_range_high_lufs", "max_momentary_lufs", "max_short_term_lufs"):
         assert m[key] is None, key
     assert m["gating_block_count"] == 47 and m["gated_block_count"] == 0
+    assert m["max_momentary_end_s"] is None and m["max_short_term_end_s"] is None
     assert all(v is None for v in s["momentary_lufs"])
     assert s["gating_block_histogram"]["bin"] == []
 
@@ -327,6 +328,14 @@ def test_subblock_boundaries_rounding(fs):
     assert np.array_equal(b, np.floor(k * fs / 10 + 0.5).astype(np.int64))
     # and every 400 ms block is 0.4 s to the nearest sample
     assert np.all(np.abs((b[4:] - b[:-4]) - 0.4 * fs) <= 0.5)
+
+
+def test_sample_rate_outside_kweighting_range_gives_nulls():
+    # K-weighting is designed for 8..384 kHz here; a 6 kHz stream is not measured
+    m, s, settings = analyse(np.ones((6000 * 4, 1)) * 0.1, 6000)
+    assert m["integrated_lufs"] is None and m["max_momentary_lufs"] is None
+    assert set(m) == set(ld.LoudnessAnalyzer.measurement_schema)
+    assert "6000 Hz" in settings["not_measured"] and s["momentary_lufs"] == []
 
 
 # ---------------------------------------------------------------- streaming guarantees

@@ -46,6 +46,8 @@ from scipy.signal import sosfilt
 
 from masterqc.measure.base import (INTEGER, NUMBER_OR_NULL, Analyzer,
                                    AnalyzerResult)
+from masterqc.measure.kweight import MAX_RATE_HZ as KW_MAX_RATE_HZ
+from masterqc.measure.kweight import MIN_RATE_HZ as KW_MIN_RATE_HZ
 from masterqc.measure.kweight import kweighting_sos
 
 #: -0.691 dB offset of the BS.1770 loudness formula
@@ -483,6 +485,11 @@ class LoudnessMeter:
 
 # ---------------------------------------------------------------- analyzer
 
+def _time_if(energy, time_s):
+    """The time of a maximum, or None when the maximum itself cannot exist (silence)."""
+    return time_s if _lufs_or_none(energy) is not None else None
+
+
 STANDARDS = "ITU-R BS.1770-5 (11/2023); EBU Tech 3341 (2023); EBU Tech 3342 (2023)"
 
 
@@ -521,12 +528,27 @@ class LoudnessAnalyzer(Analyzer):
     def __init__(self, info, options):
         super().__init__(info, options)
         self.weights = tuple(float(w) for w in info.channel_weights)
-        self.meter = LoudnessMeter(info.sample_rate_hz, self.weights)
+        self.unsupported = None
+        fs = info.sample_rate_hz
+        if not (KW_MIN_RATE_HZ <= fs <= KW_MAX_RATE_HZ):
+            # every loudness value is then null (cannot exist for this analyzer), said in settings
+            self.unsupported = (f"sample rate {fs} Hz is outside the {KW_MIN_RATE_HZ}..{KW_MAX_RATE_HZ} Hz "
+                                "for which K-weighting is designed here; loudness not measured")
+            self.meter = None
+        else:
+            self.meter = LoudnessMeter(fs, self.weights)
 
     def process(self, block) -> None:
-        self.meter.process(block)
+        if self.meter is not None:
+            self.meter.process(block)
 
     def finish(self) -> AnalyzerResult:
+        if self.meter is None:
+            measurements = {key: None for key in self.measurement_schema}
+            measurements.update(gating_block_count=0, gated_block_count=0, loudness_range_value_count=0)
+            series = {"loudness_time_s": [], "momentary_lufs": [], "short_term_lufs": [],
+                      "gating_block_histogram": gating_block_histogram([])}
+            return AnalyzerResult(measurements, series, {"standards": STANDARDS, "not_measured": self.unsupported})
         s = self.meter.summary()
         fs = s.sample_rate_hz
         g, lra = s.gating, s.lra
@@ -541,9 +563,9 @@ class LoudnessAnalyzer(Analyzer):
             "loudness_range_gate_lufs": lra.relative_gate_lufs,
             "loudness_range_value_count": lra.values_used,
             "max_momentary_lufs": _lufs_or_none(s.max_momentary_energy),
-            "max_momentary_end_s": s.max_momentary_end_s,
+            "max_momentary_end_s": _time_if(s.max_momentary_energy, s.max_momentary_end_s),
             "max_short_term_lufs": _lufs_or_none(s.max_short_term_energy),
-            "max_short_term_end_s": s.max_short_term_end_s,
+            "max_short_term_end_s": _time_if(s.max_short_term_energy, s.max_short_term_end_s),
             "loudness_analysed_s": s.analysed_s,
         }
         k = s.subblock_sums.size
