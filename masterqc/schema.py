@@ -8,6 +8,7 @@ The ``measurements`` properties come from every analyzer's
 
 from __future__ import annotations
 
+from masterqc.audio.container import METADATA_SCHEMA
 from masterqc.measure.registry import analyzer_classes
 
 STATUS = ["pass", "warn", "fail", "skipped", "error"]
@@ -83,7 +84,7 @@ def result_schema() -> dict:
                            "channel_layout_source": {"enum": ["channel_mask", "conventional", "override", "unknown"]},
                            "frames": {"type": "integer", "minimum": 1},
                            "duration_s": {"type": "number"}}},
-            "metadata": {"type": "object"},
+            "metadata": METADATA_SCHEMA,
             "measurements": {"type": "object", "properties": measurement_properties(),
                              "required": sorted(measurement_properties())},
             "series": {"type": "object"},

@@ -21,6 +21,7 @@ from masterqc.audio.container import MAX_TEXT_BYTES, METADATA_SCHEMA, walk
 from masterqc.audio.reader import open_stream
 from masterqc.errors import AudioReadError
 from masterqc.measure import MeasureOptions, measure_file
+from masterqc.schema import result_schema
 
 jsonschema = pytest.importorskip("jsonschema")
 
@@ -431,4 +432,5 @@ def test_metadata_schema_accepts_a_full_result(tmp_path):
                     cb.chunk(b"iXML", IXML.encode()), cb.chunk(b"data", cb.pcm16(_codes(4800))), lst])
     result = measure_file(_write(tmp_path, "full.wav", data))
     jsonschema.validate(result["metadata"], METADATA_SCHEMA)
+    jsonschema.validate(result, result_schema())  # the published result schema carries the metadata schema
     assert result["metadata"]["problems"] == []
