@@ -213,3 +213,32 @@ def test_spec_rate_sets_measure_option():
     assert measure_options_for(_spec({"timecode_fps": "29.97ndf"})).timecode_fps == "29.97ndf"
     assert measure_options_for(_spec({"timecode_fps": 23.976})).timecode_fps == "23.976"
     assert measure_options_for(_spec({})).timecode_fps == MeasureOptions().timecode_fps == "25"
+
+
+def test_demo_archive_spec_on_a_good_and_a_bad_bwf(tmp_path):
+    from pathlib import Path
+
+    from masterqc.pipeline import judge_result
+    from masterqc.spec.loader import load_spec
+
+    spec_path = Path(__file__).resolve().parent.parent / "specs_demo" / "harbourlight-bwf-archive.yaml"
+    loaded = load_spec(spec_path)
+    good = cb.chunk(b"bext", cb.bext_body(version=2, originator="Harbourlight Post", date="2026-11-30",
+                                          time="09:58:00", time_reference=10 * 3600 * RATE,
+                                          loudness=(-2300, 0, -2300, -2300, -2300)))
+    p = tmp_path / "good.wav"
+    p.write_bytes(cb.riff([FMT, good, TONE]))
+    result = judge_result(measure_file(p, measure_options_for(loaded.spec)), loaded)
+    meta = [f for f in result["findings"] if f["check"].startswith("metadata.")]
+    assert meta and all(f["status"] in ("pass", "skipped") for f in meta), meta
+    assert result["metadata"]["start_timecode"] == "10:00:00:00"
+
+    bad = cb.chunk(b"bext", cb.bext_body(version=1, originator="Harbourlight Post",
+                                         time_reference=9 * 3600 * RATE)[:500])
+    p = tmp_path / "bad.wav"
+    p.write_bytes(cb.riff([FMT, bad, TONE]))
+    result = judge_result(measure_file(p, measure_options_for(loaded.spec)), loaded)
+    failed = {f["check"] for f in result["findings"] if f["status"] == "fail"}
+    assert {"metadata.chunk_problems", "metadata.bext.version", "metadata.bext.origination_date",
+            "metadata.bext_loudness.loudness_value", "metadata.time_reference"} <= failed
+    assert result["verdict"] == "fail"
