@@ -5,8 +5,9 @@ Fed frame by frame with the power spectra of :mod:`masterqc.measure.spectral`
 
 - ``ultrasonic_energy_db``: energy from ``MeasureOptions.ultrasonic_from_hz``
   (default 20 kHz) up to Nyquist relative to the audible band (10 Hz up to
-  that frequency), over the whole file, dB.  None when Nyquist is at or below
-  the threshold frequency, or when the audible band holds no energy.
+  that frequency), over the whole file, dB.  None for files at 48 kHz or
+  below (:data:`MIN_RATE_HZ`), when Nyquist is at or below the threshold
+  frequency, or when the audible band holds no energy.
 - ``ultrasonic_energy_max_3s_db`` and ``ultrasonic_energy_max_3s_where_s``: the
   same ratio in the worst 3 s window (stepped by one hop, 50 ms), and where it is.
 - ``ultrasonic_tones``: stationary tones above the threshold frequency: a bin
@@ -45,6 +46,9 @@ TONE_MIN_STATIONARY_DB = 10.0
 TONE_NEIGHBOURHOOD_HZ = 1010.0
 #: at most this many tones are listed (the loudest)
 TONES_MAX = 20
+#: ultrasonic content is assessed for files above this rate (hi-res masters); at 44.1 and 48 kHz the band
+#: above 20 kHz is the converter's transition band, not content a master carries on purpose (own reasoning)
+MIN_RATE_HZ = 48000
 #: window of the worst-window measure, s
 WINDOW_S = 3.0
 #: BS.1770-5 gating figures
@@ -96,7 +100,7 @@ class UltrasonicTracker:
         self.fs = float(info.sample_rate_hz)
         self.channels = int(info.channels)
         self.from_hz = float(getattr(options, "ultrasonic_from_hz", 20000.0))
-        self.active = self.fs / 2.0 > self.from_hz
+        self.active = self.fs > MIN_RATE_HZ and self.fs / 2.0 > self.from_hz
         self.weights = np.asarray(info.channel_weights, dtype=float)
         self._audible, self._ultra, self._zfull, self._zlp = [], [], [], []
         self._k2 = None
