@@ -135,7 +135,7 @@ def _count_requirements(spec) -> int:
     n = 0
     for name in type(spec).model_fields:
         section = getattr(spec, name)
-        if hasattr(section, "model_fields"):
+        if hasattr(type(section), "model_fields"):
             n += sum(isinstance(getattr(section, k), (Allowed, Requirement)) for k in type(section).model_fields)
     return n
 

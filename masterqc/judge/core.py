@@ -100,7 +100,7 @@ def _dec(x: float) -> Decimal:
 
 
 def decimals_of(x: float | None) -> int:
-    """Decimal places a number is written with (``-0.95`` -> 2, ``-1.0`` -> 1, ``48000.0`` -> 1)."""
+    """Decimal places a number needs (``-0.95`` -> 2, ``0.3`` -> 1, ``-1.0`` -> 0, ``48000.0`` -> 0)."""
     if x is None:
         return 0
     exp = _dec(x).normalize().as_tuple().exponent

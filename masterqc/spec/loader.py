@@ -84,6 +84,12 @@ class _Positions:
             p = p[:-1]
 
 
+_TIMESTAMP = "tag:yaml.org,2002:timestamp"
+#: the only tags a spec may hold (what plain YAML resolves to); anything else is refused
+_PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in ("map", "seq", "str", "int", "float", "bool", "null",
+                                                   "timestamp", "merge")}
+
+
 def _mark(file: str, node) -> tuple:
     return (file, node.start_mark.line + 1, node.start_mark.column + 1)
 
@@ -94,6 +100,12 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
                          "nesting is too deep (more than 64 levels)"))
         return None
     pos.value[path] = _mark(file, node)
+    if node.tag not in _PLAIN_TAGS:
+        problems.append((file, _dotted(path), node.start_mark.line + 1, node.start_mark.column + 1,
+                         f"the YAML tag {node.tag!r} is not allowed: a spec holds plain values only"))
+        return None
+    if node.tag == _TIMESTAMP:
+        return node.value  # a date stays the text it was written as
     if isinstance(node, yaml.MappingNode):
         loader.flatten_mapping(node)  # YAML merge keys (<<)
         out = {}

@@ -38,7 +38,10 @@ def spec_model() -> type[SpecModel]:
     """The ``Spec`` model class (built once from the registry)."""
     fields = {}
     for name, module in section_modules():
-        section_cls = module.Section
+        # a subclass named after the key, so the published schema reads "LoudnessSection"
+        base_cls = module.Section
+        section_cls = type(f"{name.title().replace('_', '')}Section", (base_cls,),
+                           {"__doc__": base_cls.__doc__, "__module__": base_cls.__module__})
         doc = (module.__doc__ or "").strip().splitlines()[0] if module.__doc__ else name
         if getattr(module, "ALWAYS", False):
             fields[name] = (section_cls, Field(default_factory=section_cls, description=doc))

@@ -240,6 +240,16 @@ class Allowed(SpecModel):
         raise ValueError(f"expected a list of allowed values (e.g. [{_example(cls)}]) "
                          f"or {{allowed: [...], severity: warn}}, got {type(data).__name__} {data!r}")
 
+    @classmethod
+    def __get_pydantic_json_schema__(cls, core_schema, handler):
+        """Published as: a plain list of values, or the ``{allowed, severity}`` mapping."""
+        ref = handler(core_schema)
+        obj = handler.resolve_ref_schema(ref)
+        items = obj["properties"]["allowed"].get("items", {})
+        obj.setdefault("description", "a list of allowed values, or {allowed: [...], severity: warn}")
+        return {"anyOf": [{"type": "array", "items": items, "minItems": 1}, dict(obj)],
+                "description": obj["description"]}
+
     def accepts(self, value) -> bool:
         return value in self.allowed  # type: ignore[attr-defined]
 
@@ -249,14 +259,15 @@ def _example(cls) -> str:
 
 
 @functools.cache
-def allowed(item_type, example: str = "...") -> type[Allowed]:
+def allowed(item_type, example: str = "...", name: str | None = None) -> type[Allowed]:
     """Requirement: the measured value must be one of a list.
 
     In YAML either a plain list (severity ``fail``) or ``{allowed: [...], severity: warn}``.
     ``item_type`` is a type such as ``int``, ``str`` or ``list[str]``; ``example``
-    appears in the error message when a single value is given where a list is needed.
+    appears in the error message when a single value is given where a list is needed;
+    ``name`` names the model in the published schema.
     """
-    name = "Allowed" + "".join(c for c in str(getattr(item_type, "__name__", item_type) if isinstance(item_type, type) else item_type).title() if c.isalnum())
+    name = name or "Allowed" + "".join(c for c in str(getattr(item_type, "__name__", item_type) if isinstance(item_type, type) else item_type).title() if c.isalnum())
     return create_model(
         name, __base__=Allowed,
         allowed=(list[item_type], Field(..., min_length=1, description="accepted values")),

@@ -27,9 +27,9 @@ Encoding = Literal["pcm_8", "pcm_16", "pcm_24", "pcm_32", "float_32", "float_64"
 class Section(SpecModel):
     """Requirements on the file's format (compared with ``result["format"]``)."""
 
-    containers: allowed(Container, "wav") | None = Field(
+    containers: allowed(Container, "wav", "AllowedContainers") | None = Field(
         None, description="allowed containers: wav, rf64, w64, aiff, flac, caf")
-    encodings: allowed(Encoding, "pcm_24") | None = Field(
+    encodings: allowed(Encoding, "pcm_24", "AllowedEncodings") | None = Field(
         None, description="allowed sample encodings: pcm_8, pcm_16, pcm_24, pcm_32, float_32, float_64")
     sample_rates_hz: allowed(int, "48000") | None = Field(None, description="allowed sample rates, Hz")
     bit_depths: allowed(int, "24") | None = Field(None, description="allowed bit depths (bits per sample)")
