@@ -11,10 +11,14 @@ start with the monitoring level turned down.
 from __future__ import annotations
 
 import math
+import struct
 
 import numpy as np
 import pytest
 import soundfile as sf
+from hypothesis import given
+from hypothesis import settings as hyp_settings
+from hypothesis import strategies as st
 from jsonschema import Draft202012Validator
 
 from masterqc.audio.layout import bs1770_weight
@@ -473,3 +477,66 @@ def test_pooled_equals_file_value_for_one_file():
     pooled = ld.pooled_integrated_lufs([s["gating_block_histogram"]])
     assert pooled == pytest.approx(m["integrated_lufs"], abs=0.001)
     assert sum(s["gating_block_histogram"]["count"]) == m["gating_block_count"]
+
+
+# ---------------------------------------------------------------- properties
+
+@hyp_settings(max_examples=60, deadline=None)
+@given(levels=st.lists(st.floats(-60.0, 0.0), min_size=1, max_size=200),
+       shift_db=st.floats(-9.0, 9.0))
+def test_gating_is_scale_invariant(levels, shift_db):
+    # BS.1770 relative gating (analytic): scaling every block by c shifts the integrated
+    # loudness by 10 log10(c) as long as no block crosses the -70 LUFS absolute gate
+    z = ld.lufs_to_energy(np.array(levels))
+    a = ld.gated_integrated(z)
+    b = ld.gated_integrated(z * 10 ** (shift_db / 10))
+    assert b.blocks_gated == a.blocks_gated
+    assert b.integrated_lufs == pytest.approx(a.integrated_lufs + shift_db, abs=1e-9)
+    r1, r2 = ld.loudness_range(z), ld.loudness_range(z * 10 ** (shift_db / 10))
+    assert r2.range_lu == pytest.approx(r1.range_lu, abs=1e-9)
+
+
+@hyp_settings(max_examples=60, deadline=None)
+@given(levels=st.lists(st.floats(-69.0, 0.0), min_size=1, max_size=200))
+def test_integrated_lies_between_gated_blocks(levels):
+    # a power mean of the blocks that pass the gates lies between their extremes, and the
+    # loudest block always passes (analytic)
+    z = ld.lufs_to_energy(np.array(levels))
+    g = ld.gated_integrated(z)
+    assert g.blocks_gated >= 1
+    assert g.relative_gate_lufs - 1e-9 <= g.integrated_lufs <= max(levels) + 1e-9
+
+
+def _wavex_bytes(x_int16, fs, mask):
+    """A WAVE_FORMAT_EXTENSIBLE file (16-bit PCM) carrying ``mask``, built by hand."""
+    frames, channels = x_int16.shape
+    block_align = 2 * channels
+    sub_format = bytes.fromhex("0100000000001000800000aa00389b71")   # KSDATAFORMAT_SUBTYPE_PCM
+    fmt = struct.pack("<HHIIHHHHI", 0xFFFE, channels, fs, fs * block_align, block_align, 16, 22, 16, mask) + sub_format
+    data = x_int16.astype("<i2").tobytes()
+    body = b"WAVE" + b"fmt " + struct.pack("<I", len(fmt)) + fmt + b"data" + struct.pack("<I", len(data)) + data
+    return b"RIFF" + struct.pack("<I", len(body)) + body
+
+
+def test_5_1_file_with_channel_mask_ignores_lfe(tmp_path):
+    # BS.1770-5: the LFE channel is not measured, surrounds weigh 1.41.  A 5.1 file with
+    # mask 0x60F (L R C LFE Ls Rs): the same tone in L alone, then plus a full-scale LFE
+    # tone, reads the same; a tone in Ls reads 1.49 dB more than in L (10 log10 1.41)
+    fs = 48000
+    tone = np.round(0.25 * 32767 * np.sin(2 * np.pi * 997 * np.arange(2 * fs) / fs))
+    readings = {}
+    for name, chans in (("L", [0]), ("L+LFE", [0, 3]), ("Ls", [4])):
+        x = np.zeros((2 * fs, 6))
+        for c in chans:
+            x[:, c] = tone if c != 3 else np.round(32767 * np.sin(2 * np.pi * 50 * np.arange(2 * fs) / fs))
+        path = tmp_path / f"{name}.wav"
+        path.write_bytes(_wavex_bytes(x.astype(np.int16), fs, 0x60F))
+        with open_stream(path) as stream:
+            assert stream.info.layout_source == "channel_mask"
+            assert stream.info.channel_layout == ("L", "R", "C", "LFE", "Ls", "Rs")
+            m, _s, _ = run_analyzers(stream, MeasureOptions(), classes=[ld.LoudnessAnalyzer])
+        readings[name] = m["integrated_lufs"]
+    assert readings["L+LFE"] == pytest.approx(readings["L"], abs=1e-9)
+    assert readings["Ls"] - readings["L"] == pytest.approx(10 * math.log10(1.41), abs=1e-6)
+    # and the level itself: 0.25 peak 997 Hz in one channel -> -3.01 + 20 log10(0.25) (BS.1770-5)
+    assert readings["L"] == pytest.approx(-3.01 + 20 * math.log10(0.25 * 32767 / 32768), abs=0.01)
