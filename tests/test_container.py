@@ -434,3 +434,51 @@ def test_metadata_schema_accepts_a_full_result(tmp_path):
     jsonschema.validate(result["metadata"], METADATA_SCHEMA)
     jsonschema.validate(result, result_schema())  # the published result schema carries the metadata schema
     assert result["metadata"]["problems"] == []
+
+
+def _cuesheet(tracks):
+    """A FLAC CUESHEET block body (FLAC format description, from memory): 128-byte catalog number,
+    uint64 lead-in, 1 flag byte + 258 reserved, track count; each track 36 bytes + 12 per index point."""
+    body = b"0000000000000".ljust(128, b"\0") + struct.pack(">Q", 0) + b"\0" * 259 + bytes([len(tracks)])
+    for number, isrc, offset in tracks:
+        body += struct.pack(">Q", offset) + bytes([number]) + isrc.ljust(12, b"\0") + b"\0" * 14 + bytes([1])
+        body += struct.pack(">Q", 0) + bytes([1]) + b"\0\0\0"
+    return body
+
+
+def test_flac_cuesheet_track_isrc(tmp_path):
+    base = tmp_path / "base.flac"
+    sf.write(base, np.zeros((4410, 2), dtype=np.int16), 44100, format="FLAC", subtype="PCM_16")
+    blocks, audio = cb.flac_blocks(base.read_bytes())
+    blocks = blocks + [(5, _cuesheet([(1, b"XXQ7Z2600042", 0), (170, b"", 4410)]))]
+    p = _write(tmp_path, "cue.flac", cb.flac_join(blocks, audio))
+    info = walk(p)
+    assert info.problems == []
+    cue = info.metadata["cuesheet"]
+    assert cue["media_catalog_number"] == "0000000000000"
+    assert [(t["number"], t["isrc"]) for t in cue["tracks"]] == [(1, "XXQ7Z2600042"), (170, None)]
+    assert [(e["source"], e["code"]) for e in info.metadata["isrc"]] == [("cuesheet.track1", "XXQ7Z2600042")]
+
+
+def test_aiff_id3_chunk(tmp_path):
+    codes = _codes(100, 1)
+    tag = cb.id3v2([(b"TSRC", "XXQ7Z2600042")], major=4, encoding=3)
+    p = _write(tmp_path, "id3.aiff", cb.aiff([cb.comm(1, 100, 16, 48000.0), cb.ssnd(cb.be16(codes)),
+                                              cb.chunk(b"ID3 ", tag, endian=">")]))
+    info = walk(p)
+    assert info.problems == []
+    assert [(e["source"], e["code"]) for e in info.metadata["isrc"]] == [("id3.TSRC", "XXQ7Z2600042")]
+    _got, sinfo = _read_all(p)
+    assert sinfo.frames == 100
+
+
+def test_flac_behind_an_id3_tag_is_reported(tmp_path):
+    base = tmp_path / "base.flac"
+    sf.write(base, np.zeros((1000, 1), dtype=np.int16), RATE, format="FLAC", subtype="PCM_16")
+    tag = cb.id3v2([(b"TIT2", "Tagged")])
+    p = _write(tmp_path, "tagged.flac", tag + base.read_bytes())
+    info = walk(p)
+    assert info.kind == "flac"
+    assert info.problems[0]["offset"] == 0 and "precedes the FLAC stream marker" in info.problems[0]["message"]
+    assert info.metadata["id3"]["frames"]["TIT2"] == "Tagged"
+    assert info.metadata["streaminfo"]["frames"] == 1000
