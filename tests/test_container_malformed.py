@@ -250,3 +250,15 @@ def test_not_a_container(tmp_path):
     with pytest.raises(AudioReadError) as err:
         measure_file(p)
     assert err.value.offset == 0 and "text.wav" in str(err.value)
+
+
+def test_measure_table_lists_container_problems(tmp_path, capsys):
+    from masterqc.cli import main
+
+    p = tmp_path / "short.wav"
+    p.write_bytes(cb.riff([FMT, cb.chunk(b"bext", cb.bext_body(version=2, time_reference=RATE)[:500]), DATA]))
+    assert main(["measure", str(p), "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert "Container     1 problem:" in out
+    assert "at byte 36: bext chunk is 500 bytes, version 2 requires at least 602 (EBU Tech 3285)" in out
+    assert "Start         00:00:01:00 (25 fps, from bext: 48000 samples)" in out
