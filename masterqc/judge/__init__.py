@@ -30,6 +30,7 @@ JUDGES: list[tuple[str, str]] = [
     ("normalisation", "masterqc.judge.normalisation"),
     ("metadata", "masterqc.judge.metadata"),
     ("integrity", "masterqc.judge.integrity"),
+    ("sampling", "masterqc.judge.sampling"),
 ]
 
 

@@ -35,6 +35,7 @@ SECTIONS: list[tuple[str, str]] = [
     ("normalisation", "masterqc.spec.sections.normalisation"),
     ("metadata", "masterqc.spec.sections.metadata"),
     ("integrity", "masterqc.spec.sections.integrity"),
+    ("sampling", "masterqc.spec.sections.sampling"),
 ]
 
 

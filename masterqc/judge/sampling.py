@@ -1,0 +1,234 @@
+"""Judge of the ``sampling:`` section: bandwidth, upsampling, imaging, aliasing, ultrasonic content, conversions.
+
+Reads the measurements of :mod:`masterqc.measure.spectral` (bandwidth,
+ultrasonic, conversions) and of :mod:`masterqc.measure.imaging` and
+:mod:`masterqc.measure.aliasing`.  Every finding names where in frequency the
+problem lies (in its message) and, where the measurement locates it in time,
+the time ranges (``where_s``).
+"""
+
+from __future__ import annotations
+
+from masterqc.judge.core import Finding, check_allowed, check_limits, limit_text, skipped
+
+_LOW = "ultrasonic content is judged for masters above 48 kHz"
+
+
+def _khz(hz) -> str:
+    return f"{float(hz) / 1000.0:.2f} kHz"
+
+
+def _khz_range(lo, hi) -> str:
+    return f"{float(lo) / 1000.0:.2f}-{float(hi) / 1000.0:.2f} kHz"
+
+
+def _missing(m: dict, key: str, reason: str) -> str:
+    if key not in m:
+        return f"the measurement {key} is missing from the result (its analyzer did not run)"
+    return reason
+
+
+def _bool_str(v) -> str:
+    return str(v).lower()
+
+
+def _rate(result: dict):
+    return (result.get("format") or {}).get("sample_rate_hz")
+
+
+def _ultra_reason(result: dict, m: dict, key: str) -> str:
+    fs = _rate(result)
+    if key not in m:
+        return _missing(m, key, "")
+    if fs is not None and fs <= 48000:
+        return f"the master is at {fs / 1000:g} kHz; {_LOW}"
+    frm = m.get("ultrasonic_from_hz")
+    if fs is not None and frm is not None and fs / 2 <= frm:
+        return f"the Nyquist frequency ({_khz(fs / 2)}) is not above the ultrasonic band edge ({_khz(frm)})"
+    return "the audible band holds no energy (digital silence)"
+
+
+def _upsampling(section, m: dict) -> list[Finding]:
+    key = "upsampled_from_hz"
+    if key not in m:
+        return [check_allowed("sampling.upsampled", "upsampled from a lower rate", None, section.upsampled,
+                              show=_bool_str, missing_reason=_missing(m, key, ""))]
+    src, conf = m.get(key), m.get("upsampled_confidence")
+    need = section.upsampled_min_confidence or 0.0
+    counted = src is not None and (conf is None or conf >= need)
+    f = check_allowed("sampling.upsampled", "upsampled from a lower rate", counted, section.upsampled,
+                      show=_bool_str)
+    edge = m.get("effective_bandwidth_hz")
+    if src is not None:
+        detail = (f": content ends in a converter cliff at {_khz(edge)}"
+                  f" ({m.get('bandwidth_edge_depth_db')} dB deep), consistent with a {src / 1000:g} kHz source"
+                  f" (confidence {conf:.2f})")
+        if not counted:
+            detail += f"; below the spec's minimum confidence {need:.2f}, so not counted"
+        f.message += detail
+    untestable = m.get("untestable_source_rates_hz") or []
+    if untestable:
+        f.message += "; cannot be tested for " + ", ".join(f"{r / 1000:g} kHz" for r in untestable)
+    return [f]
+
+
+def _imaging_detail(m: dict) -> str:
+    parts = []
+    for c in m.get("imaging") or []:
+        v = c.get("verdict")
+        if v in ("defect", "trace"):
+            coh, lvl = c.get("coherence"), c.get("image_level_db")
+            txt = f"{float(c.get('source_rate_hz')) / 1000:g} kHz source: {v}"
+            if coh is not None:
+                txt += f", coherence {coh:.2f}"
+            if lvl is not None:
+                txt += f", mirror image {lvl:.1f} dB re baseband"
+            parts.append(txt)
+    return ("; " + "; ".join(parts)) if parts else ""
+
+
+def judge(section, result: dict) -> list[Finding]:
+    m = result.get("measurements") or {}
+    s = section
+    out: list[Finding] = []
+
+    if s.effective_bandwidth is not None:
+        f = check_limits("sampling.effective_bandwidth", "effective bandwidth", m.get("effective_bandwidth_hz"),
+                         s.effective_bandwidth,
+                         missing_reason=_missing(m, "effective_bandwidth_hz",
+                                                 m.get("bandwidth_note") or "no content above the noise floor"))
+        if f.status in ("warn", "fail") and m.get("bandwidth_note"):
+            f.message += f" ({m['bandwidth_note']})"
+        out.append(f)
+
+    if s.upsampled is not None:
+        out += _upsampling(s, m)
+
+    if s.band_limited is not None:
+        key = "band_limit_hz"
+        value = (m.get(key) is not None) if key in m else None
+        f = check_allowed("sampling.band_limited", "low-passed at a frequency no standard rate explains", value,
+                          s.band_limited, show=_bool_str, missing_reason=_missing(m, key, ""))
+        if value:
+            f.message += (f": content ends in a cliff at {_khz(m[key])} ({m.get('bandwidth_edge_depth_db')} dB deep)"
+                          ": lossy or filtered source?")
+        out.append(f)
+
+    if s.imaging is not None:
+        key = "imaging_detected"
+        f = check_allowed("sampling.imaging", "mirror images of an unfiltered upsampler", m.get(key), s.imaging,
+                          show=_bool_str,
+                          missing_reason=_missing(m, key, "no candidate source rate could be tested"))
+        if f.status != "skipped":
+            f.message += _imaging_detail(m)
+        out.append(f)
+
+    detail = m.get("aliasing_detail") or {}
+    where = [list(w) for w in (detail.get("where_s") or [])]
+    if s.aliasing is not None:
+        key = "aliasing_detected"
+        f = check_allowed("sampling.aliasing", "folded (aliased) content", m.get(key), s.aliasing, show=_bool_str,
+                          missing_reason=_missing(m, key, detail.get("reason") or "not assessable on this material"))
+        if f.status in ("warn", "fail"):
+            f.where_s = where
+            if m.get("aliasing_score") is not None:
+                f.message += f" (alias-to-harmonic ratio {m['aliasing_score']:.1f} dB)"
+            ex = detail.get("fold_examples") or []
+            if ex:
+                f.message += "; e.g. " + ", ".join(_fold_example(e) for e in ex[:3])
+        out.append(f)
+    if s.aliasing_score is not None:
+        key = "aliasing_score"
+        out.append(check_limits("sampling.aliasing_score", "alias-to-harmonic ratio", m.get(key), s.aliasing_score,
+                                where_s=where,
+                                missing_reason=_missing(m, key, detail.get("reason") or
+                                                        "not assessable on this material")))
+
+    if s.ultrasonic_energy is not None:
+        out.append(check_limits("sampling.ultrasonic_energy", "ultrasonic energy re audible band",
+                                m.get("ultrasonic_energy_db"), s.ultrasonic_energy,
+                                missing_reason=_ultra_reason(result, m, "ultrasonic_energy_db")))
+    if s.ultrasonic_energy_3s is not None:
+        out.append(check_limits("sampling.ultrasonic_energy_3s", "ultrasonic energy re audible band, worst 3 s",
+                                m.get("ultrasonic_energy_max_3s_db"), s.ultrasonic_energy_3s,
+                                where_s=m.get("ultrasonic_energy_max_3s_where_s") or [],
+                                missing_reason=_ultra_reason(result, m, "ultrasonic_energy_max_3s_db")))
+    if s.ultrasonic_tones is not None:
+        out.append(_tones(s, result, m))
+    if s.ultrasonic_loudness_change is not None:
+        change = m.get("ultrasonic_loudness_change_lu")
+        f = check_limits("sampling.ultrasonic_loudness_change",
+                         "loudness change a low-pass at the ultrasonic band edge would cause (magnitude)",
+                         None if change is None else abs(change), s.ultrasonic_loudness_change,
+                         missing_reason=_ultra_reason(result, m, "ultrasonic_loudness_change_lu"))
+        out.append(f)
+
+    for target in s.conversions or []:
+        out += _conversion(target, result, m)
+    return out
+
+
+def _fold_example(e: dict) -> str:
+    items = [f"{k} {v}" for k, v in e.items() if isinstance(v, (int, float, str))][:3]
+    return "(" + ", ".join(items) + ")"
+
+
+def _tones(s, result, m) -> Finding:
+    key = "ultrasonic_tones"
+    req = s.ultrasonic_tones
+    if m.get("ultrasonic_energy_db") is None or key not in m:
+        return check_limits("sampling.ultrasonic_tones", "loudest ultrasonic tone", None, req,
+                            missing_reason=_ultra_reason(result, m, "ultrasonic_energy_db"))
+    tones = m.get(key) or []
+    if not tones:
+        limit = limit_text(req)
+        return Finding(check="sampling.ultrasonic_tones", status="pass",
+                       message=f"no stationary tone above {_khz(m.get('ultrasonic_from_hz') or 20000)}; meets {limit}",
+                       limit=limit, unit="dBFS", severity=req.severity)
+    loudest = max(tones, key=lambda t: t["level_dbfs"])
+    f = check_limits("sampling.ultrasonic_tones", f"loudest ultrasonic tone ({_khz(loudest['frequency_hz'])})",
+                     loudest["level_dbfs"], req)
+    listed = sorted(tones, key=lambda t: -t["level_dbfs"])[:5]
+    f.message += "; tones: " + ", ".join(f"{_khz(t['frequency_hz'])} at {t['level_dbfs']:.1f} dBFS" for t in listed)
+    return f
+
+
+def _conversion(target, result, m) -> list[Finding]:
+    t = target.target_rate_hz
+    fs = _rate(result)
+    entries = {c.get("target_rate_hz"): c for c in (m.get("conversions") or [])}
+    c = entries.get(t)
+    base = f"sampling.conversion_{t}"
+    out = []
+    if c is None:
+        why = (f"the master is already at {t / 1000:g} kHz" if fs == t
+               else f"no conversion to {t} Hz was measured (the measurement was made without this spec's targets)")
+        if target.true_peak is not None:
+            out.append(skipped(f"{base}.true_peak", f"true peak after conversion to {t / 1000:g} kHz: not judged, {why}",
+                               severity=target.true_peak.severity))
+        if target.energy_above_nyquist is not None:
+            out.append(skipped(f"{base}.energy_above_nyquist",
+                               f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz): not judged, {why}",
+                               severity=target.energy_above_nyquist.severity))
+        return out
+    if target.true_peak is not None:
+        f = check_limits(f"{base}.true_peak", f"true peak after conversion to {t / 1000:g} kHz",
+                         c.get("true_peak_after_dbtp"), target.true_peak,
+                         missing_reason="the converted signal is digital silence")
+        if f.status in ("warn", "fail"):
+            f.message += f" (converter: {c.get('filter')})"
+        out.append(f)
+    if target.energy_above_nyquist is not None:
+        f = check_limits(f"{base}.energy_above_nyquist",
+                         f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz) re the band below",
+                         c.get("energy_above_target_nyquist_db"), target.energy_above_nyquist,
+                         missing_reason=(f"the target rate is not below the master's ({fs} Hz): nothing can fold"
+                                         if fs is not None and t >= fs else "no content above the target's Nyquist"))
+        folds = c.get("folds") or []
+        if f.status in ("warn", "fail") and folds:
+            f.message += "; a converter without an anti-alias filter would fold " + ", ".join(
+                f"{_khz_range(d['from_hz'], d['to_hz'])} to "
+                + " and ".join(_khz_range(a, b) for a, b in d["fold_to_hz"])
+                for d in folds[:4])
+        out.append(f)
+    return out
