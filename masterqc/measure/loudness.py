@@ -350,6 +350,8 @@ class LoudnessMeter:
 
     def __init__(self, sample_rate_hz: int, channel_weights, kweighting: bool = True):
         self.fs = int(sample_rate_hz)
+        if self.fs < TICKS_PER_SECOND:
+            raise ValueError(f"loudness meter needs a sample rate of at least {TICKS_PER_SECOND} Hz, got {sample_rate_hz!r}")
         w = np.asarray(channel_weights, dtype=float)
         self._active = np.flatnonzero(w != 0.0)
         self._all_active = self._active.size == w.size
@@ -365,7 +367,6 @@ class LoudnessMeter:
         self._pending: list[np.ndarray] = []
         self._pending_n = 0
         self._tail = np.zeros(0)      # last ticks (up to SHORT_TERM_TICKS - 1) already flushed
-        self._tail_start = 0          # global tick index of _tail[0]
         self._group = np.zeros(0)     # flushed ticks not yet forming a full sub-block
         self._sub = np.zeros(1024)
         self._nsub = 0
@@ -457,7 +458,6 @@ class LoudnessMeter:
                 self._max[width] = (float(energy[i]), int(ee[i]))
         keep = SHORT_TERM_TICKS - 1
         self._tail = arr[-keep:].copy() if arr.size > keep else arr.copy()
-        self._tail_start = self._ticks_done - self._tail.size
 
     # -- results
     def summary(self) -> LoudnessSummary:
