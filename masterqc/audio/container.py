@@ -257,6 +257,9 @@ class _Walker:
             if hdr[:4] == b"ds64":
                 (ds_size,) = struct.unpack("<I", hdr[4:8])
                 self.info.chunks.append({"id": "ds64", "offset": 12, "size": ds_size})
+                if ds_size > self.size - 20:
+                    self.problem(12, f"chunk 'ds64' declares {ds_size} bytes; only {max(self.size - 20, 0)} "
+                                     "remain in the file")
                 self.parse_ds64(12, 20, min(ds_size, max(self.size - 20, 0)))
                 start = 20 + ds_size + (ds_size & 1)
                 form_end = 8 + self.ds64["riff_size_bytes"] if self.ds64 else self.size
