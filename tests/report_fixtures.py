@@ -29,6 +29,9 @@ loudness:
 peaks:
   true_peak: {max_dbtp: -25.0}
   sample_peak: {max_dbfs: -0.1}
+sampling:
+  conversions:
+    - target_rate_hz: 44100
 """
 
 

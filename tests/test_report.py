@@ -91,7 +91,7 @@ def test_verdict_comes_first_then_what_to_fix(tree, judged):
     verdict = [el for el in masthead.iter() if el.get("class", "").startswith("verdict ")][0]
     text = _text(verdict)
     assert text.startswith("FAIL Does not meet the spec")
-    assert "1 check failed" in text
+    assert "2 checks failed" in text  # true peak, and true peak after conversion to 44.1 kHz
     fixes = _text([el for el in masthead.iter() if el.get("class") == "fixes"][0])
     # the true-peak failure, its miss (-20.0 against -25.0: 5.0 dB) and where, in the file's timecode
     assert "true peak -20.0 dBTP is above the limit -25.0 dBTP by 5.0 dB" in fixes
@@ -148,6 +148,20 @@ def test_plots_are_matplotlib_svg_with_timecode_axis(tree):
     texts = [t for el in loud.iter(f"{SVG}text") for t in el.itertext()]
     assert any(t.strip() == "01:00:00:00" for t in texts)  # bext TimeReference 3600 s at 25 fps
     assert any("timecode (HH:MM:SS:FF at 25 fps)" in t for t in texts)
+
+
+def test_conversion_table_and_target_nyquist_line(tree, judged):
+    conv = [c for c in judged[2]["measurements"]["conversions"] if c["target_rate_hz"] == 44100][0]
+    section = [s for s in tree.iter("section") if s.get("id") == "conversions"][0]
+    rows = [[_text(td) for td in tr.findall("td")] for tr in section.iter("tr") if tr.findall("td")]
+    assert rows and rows[0][0] == "44.1\u00a0kHz"
+    heads = [_text(th) for th in section.iter("th")]
+    shown_tp = rows[0][heads.index("True peak after conversion")]
+    # a 1 kHz sine keeps its peak through a band-limited rate change (analytic): about -20 dBTP
+    assert shown_tp == f"{conv['true_peak_after_dbtp']:.1f}\u00a0dBTP" == "-20.0\u00a0dBTP"
+    spectrum = [el for el in tree.iter(f"{SVG}svg") if el.get("aria-label") == "Long-term spectrum per channel"][0]
+    legend = " ".join(t for el in spectrum.iter(f"{SVG}text") for t in el.itertext())
+    assert "44.1 kHz target: Nyquist 22.05 kHz" in legend and "Nyquist 24 kHz" in legend and "20 kHz" in legend
 
 
 def test_missing_data_says_not_measured_and_never_raises(judged):

@@ -647,7 +647,7 @@ def spectrogram_view(result: dict, labels: TimeLabels, duration_s: float) -> dic
     freqs = _first(raw, ("freq_hz", "freqs_hz", "frequency_hz", "frequencies_hz", "bin_hz", "bins_hz"))
     values = _first(raw, ("db", "level_db", "power_db", "values_db", "magnitude_db", "values", "db_rows"))
     note = ""
-    if isinstance(values, list) and values and _nested_numbers(values[0]) if values else False:
+    if isinstance(values, list) and values and _nested_numbers(values[0]):
         # per channel: show the loudest channel in each cell (display choice, said below)
         n_t, n_f = len(values[0]), len(values[0][0])
         merged = []
@@ -770,12 +770,62 @@ def records_table(records: list, first_keys=()) -> dict | None:
     return {"columns": header, "rows": rows}
 
 
+def _khz_ranges(ranges, most: int = 4) -> str:
+    """Frequency ranges in kHz: ``"8.20\u201310.00 kHz; 12.00\u201312.40 kHz"`` (``"none"`` when empty)."""
+    if not _is_ranges(ranges) or not ranges:
+        return "none"
+    parts = [f"{a / 1000:.2f}\u2013{b / 1000:.2f}" for a, b in ranges[:most]]
+    more = len(ranges) - len(parts)
+    return "; ".join(parts) + "\u00a0kHz" + (f"; and {more} more" if more > 0 else "")
+
+
+#: conversion entry key -> column heading (other keys follow, labelled from their names)
+_CONVERSION_COLUMNS = [
+    ("target_rate_hz", "Target rate"),
+    ("energy_above_target_nyquist_db", "Energy above the target's Nyquist (dB re. below)"),
+    ("energy_above_target_nyquist_dbfs", "That energy as a level"),
+    ("fold_to_hz", "Would fold (alias) to"),
+    ("true_peak_after_dbtp", "True peak after conversion"),
+    ("true_peak_after_dbtp_per_channel", "per channel"),
+    ("filter", "Converter filter"),
+]
+
+
 def conversions_view(result: dict) -> dict:
-    conv = _conversions_raw(result)
-    table = records_table(conv, ("target", "target_hz", "target_rate_hz"))
-    if table is None:
-        return {"table": None, "note": _not_measured(["conversions"])}
-    return {"table": table, "note": ""}
+    """Conversion-safety table, one row per target rate."""
+    conv = [c for c in _conversions_raw(result) if isinstance(c, dict)]
+    if not conv:
+        note = _not_measured(["conversions"])
+        if "conversions" in (result.get("measurements") or {}):
+            note = "No conversion targets: the spec names no target rates to convert to."
+        return {"table": None, "note": note}
+    known = [k for k, _h in _CONVERSION_COLUMNS if any(k in c for c in conv)]
+    extra = []
+    for c in conv:
+        for k in c:
+            if k not in known and k not in extra and k not in ("folds", "target"):
+                extra.append(k)
+    columns = [h for k, h in _CONVERSION_COLUMNS if k in known] + [fmt.label_of_key(k, True) for k in extra]
+    rows = []
+    for c in conv:
+        row = []
+        for k in known + extra:
+            v = c.get(k)
+            if k == "target_rate_hz" and _is_number(v):
+                cell = f"{v / 1000:g}\u00a0kHz"
+            elif k == "fold_to_hz":
+                cell = _khz_ranges(v)
+            elif k == "filter":
+                cell = fmt.clean_text(v) if v else "\u2014"
+            elif v is None:
+                cell = "n/a"
+            else:
+                cell = fmt.value_for_key(k, v)
+            row.append(cell)
+        rows.append(row)
+    note = ("n/a: the quantity does not exist for that target (e.g. no content above the target's "
+            "Nyquist frequency, or a target above the file's own rate).")
+    return {"table": {"columns": columns, "rows": rows}, "note": note}
 
 
 _HEADROOM_ROWS = [
