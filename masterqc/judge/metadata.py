@@ -125,7 +125,8 @@ def _bext_loudness(rule, meta, measurements) -> list[Finding]:
                               f"tolerance_{'db' if unit == 'dbtp' else 'lu'}": tol, "severity": sev})
         why = "the measurement does not exist for this file (e.g. digital silence)" if mkey in measurements \
             else f"the measurement {mkey} is missing from the result"
-        f = check_limits(check, what, measured, req, missing_reason=why)
+        f = check_limits(check, f"bext {tech_name} against the measured {what}", measured, req,
+                         missing_reason=why)
         label = _LABEL[unit]
         if f.status != "skipped":
             dec = f.decimals or 2
