@@ -482,3 +482,21 @@ def test_flac_behind_an_id3_tag_is_reported(tmp_path):
     assert info.problems[0]["offset"] == 0 and "precedes the FLAC stream marker" in info.problems[0]["message"]
     assert info.metadata["id3"]["frames"]["TIT2"] == "Tagged"
     assert info.metadata["streaminfo"]["frames"] == 1000
+
+
+def test_id3_utf16_and_user_text_frames():
+    from masterqc.audio.container import parse_id3
+
+    # ID3v2.3 frame: id, uint32 size, 2 flag bytes; text encoding 1 = UTF-16 with BOM (from memory)
+    def frame(fid, data):
+        return fid + struct.pack(">I", len(data)) + b"\0\0" + data
+
+    title = b"\x01" + "Harbour \u00e9t\u00e9".encode("utf-16")
+    user = b"\x00" + b"ISRC\0" + b"XXQ7Z2600042"
+    body = frame(b"TIT2", title) + frame(b"TXXX", user) + frame(b"APIC", b"\0" * 20) + b"\0" * 10
+    tag = b"ID3\x03\x00\x00" + cb.syncsafe(len(body)) + body
+    seen = []
+    out = parse_id3(tag, 100, lambda off, msg: seen.append((off, msg)))
+    assert seen == []
+    assert out["frames"] == {"TIT2": "Harbour \u00e9t\u00e9", "TXXX:ISRC": "XXQ7Z2600042"}
+    assert out["other_frames"] == ["APIC"]
