@@ -182,3 +182,15 @@ def test_cli_unreadable_file_one_line_exit_3(tmp_path):
     assert len(lines) == 1
     assert str(p) in lines[0] and "(at byte " in lines[0]
     assert "Traceback" not in proc.stderr
+
+
+@pytest.mark.parametrize("rate", [1, 7, 4000, 768000])
+def test_unmeasurable_sample_rate_is_a_read_error(tmp_path, rate):
+    # such files open in libsndfile, but no loudness filter exists for them: an unreadable file
+    # (exit 3 in the CLI), never an exception from deep inside an analyzer
+    from masterqc.measure import measure_file
+
+    p = tmp_path / f"r{rate}.wav"
+    p.write_bytes(cb.riff([cb.fmt_pcm(1, rate, 16), cb.chunk(b"data", b"\0" * 200)]))
+    with pytest.raises(AudioReadError, match=f"sample rate {rate} Hz is outside"):
+        measure_file(p)

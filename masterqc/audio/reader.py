@@ -36,6 +36,9 @@ ENCODINGS = {
 }
 
 DEFAULT_BLOCK_FRAMES = 65536
+#: sample rates masterqc measures: the range its BS.1770 K-weighting is built for (masterqc.measure.kweight)
+MIN_RATE_HZ = 8000
+MAX_RATE_HZ = 384000
 
 
 @dataclass(frozen=True)
@@ -127,6 +130,9 @@ class AudioStream:
                 raise AudioReadError(self.path, "holds no audio frames")
             if self._sf.channels <= 0:
                 raise AudioReadError(self.path, "declares no channels")
+            if not MIN_RATE_HZ <= self._sf.samplerate <= MAX_RATE_HZ:
+                raise AudioReadError(self.path, f"sample rate {self._sf.samplerate} Hz is outside what masterqc "
+                                     f"measures ({MIN_RATE_HZ}..{MAX_RATE_HZ} Hz)")
             if container == "aiff" and self.container.kind == "aifc":
                 container = "aifc"
             try:
