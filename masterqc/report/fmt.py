@@ -130,7 +130,7 @@ def number(value, digits: int | None = None) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int):
-        return f"{value:,}".replace(",", "\u202f") if abs(value) >= 10000 else str(value)
+        return f"{value:,}".replace(",", "\u202f") if abs(value) >= 1_000_000 else str(value)
     if isinstance(value, float):
         if not math.isfinite(value):
             return "n/a"

@@ -209,13 +209,20 @@ def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=
         fig = _figure(2.5)
         ax = fig.add_axes((TIME_LEFT, 0.19, TIME_WIDTH, 0.66))
         values = []
-        if target_band is not None:
+        if target_band is not None and None not in target_band:
             lo, hi = target_band
             ax.axhspan(lo, hi, facecolor="#f3ecc0", edgecolor=ORANGE, hatch="////", lw=0.0, alpha=0.9,
                        label=f"target band {_num(lo)} to {_num(hi)}")
             ax.axhline(lo, color="#9a6b00", lw=0.6, ls=(0, (2, 2)))
             ax.axhline(hi, color="#9a6b00", lw=0.6, ls=(0, (2, 2)))
             values += [lo, hi]
+        elif target_band is not None:
+            lo, hi = target_band
+            limit = hi if hi is not None else lo
+            sign = "\u2264" if hi is not None else "\u2265"
+            ax.axhline(limit, color="#9a6b00", lw=1.3, ls=(0, (1, 1.3)),
+                       label=f"spec limit {sign} {_num(limit)} LUFS")
+            values.append(limit)
         if momentary is not None:
             t, y = thin(np.asarray(momentary[0], float), _arr(momentary[1]))
             ax.plot(t, y, color=SKY, lw=0.55, label="momentary (400 ms)")
@@ -278,8 +285,9 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
         ax.set_ylim(bottom, top)
         if over_ranges:
             min_w = max(duration_s, 1e-3) / 800.0
+            alpha = 0.45 if len(over_ranges) <= 20 else 0.22
             for a, b in over_ranges:
-                ax.axvspan(a, max(b, a + min_w), color=VERMILION, alpha=0.45, lw=0)
+                ax.axvspan(a, max(b, a + min_w), color=VERMILION, alpha=alpha, lw=0)
             mids = [0.5 * (a + b) for a, b in over_ranges]
             ax.plot(mids, [top - 0.45] * len(mids), ls="none", marker="v", ms=5.5, color=VERMILION,
                     markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({len(over_ranges)})")
@@ -410,7 +418,9 @@ def markers_plot(duration_s: float, axis: TimeAxis, rows) -> str:
                     ax.plot(short, [y + 0.3] * len(short), ls="none", marker="v", ms=3.8, color=color,
                             markeredgecolor=BLACK, markeredgewidth=0.3, clip_on=False)
             ax.text(0.004, y + 0.2, f"{label} ({len(ranges)})", transform=ax.get_yaxis_transform(),
-                    va="bottom", ha="left", fontsize=6.8, color="#222222")
+                    va="bottom", ha="left", fontsize=6.8, color="#222222", zorder=5,
+                    bbox={"boxstyle": "square,pad=0.15", "facecolor": "white", "edgecolor": "none",
+                          "alpha": 0.88})
         ax.set_yticks([])
         ax.set_ylim(-0.5, n - 0.5 + 0.25)
         ax.grid(axis="y", visible=False)

@@ -36,8 +36,10 @@ STATUS_WORDS = {
 #: findings are listed worst first
 STATUS_ORDER = {"error": 0, "fail": 1, "warn": 2, "skipped": 3, "pass": 4}
 
-#: how many time ranges a finding lists before "and N more"
+#: how many time ranges a finding lists in full before it summarises them
 MAX_WHERE = 4
+#: how many individual events (clipped runs, dropouts...) the events table lists
+MAX_EVENT_ROWS = 24
 
 CAUTIONS = [
     "masterqc is a measurement aid. The receiving party's own delivery spec and QC govern "
@@ -156,9 +158,13 @@ def where_text(ranges, labels: TimeLabels) -> tuple[str, int]:
     """``(text, count)`` of a finding's ranges, the first :data:`MAX_WHERE` spelled out."""
     if not _is_ranges(ranges) or not ranges:
         return "", 0
-    shown = [labels.span(float(a), float(b)) for a, b in ranges[:MAX_WHERE]]
-    more = len(ranges) - len(shown)
-    text = "; ".join(shown) + (f"; and {more} more" if more > 0 else "")
+    if len(ranges) <= MAX_WHERE:
+        return "; ".join(labels.span(float(a), float(b)) for a, b in ranges), len(ranges)
+    first = [labels.span(float(a), float(b)) for a, b in ranges[:MAX_WHERE - 1]]
+    start = min(float(a) for a, _b in ranges)
+    end = max(float(b) for _a, b in ranges)
+    text = (f"{len(ranges)} places from {labels.at(start)} to {labels.at(end)}; first: " + "; ".join(first)
+            + " \u2026")
     return text, len(ranges)
 
 
@@ -494,14 +500,22 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     note = ""
     if f is not None:
         parsed = _parse_band(f.get("limit"))
-        if parsed and parsed[0] is not None and parsed[1] is not None:
+        if parsed and (parsed[0] is not None or parsed[1] is not None):
             band = (parsed[0], parsed[1])
+    duration = _get(result, "format", "duration_s")
+    if _is_number(duration) and duration < 60.0 and _is_number(m.get("loudness_range_lu")):
+        note = ("Loudness range is of little meaning for a programme under one minute "
+                "(EBU R 128 practice, from memory). ")
     if mom is None and st is None:
         return {"svg": None, "rows": rows, "note": _not_measured(["momentary_lufs", "short_term_lufs"]),
                 "present": bool(rows)}
-    if band:
-        note = (f"Hatched band: the spec's integrated-loudness range {fmt.number(band[0], 1)} to "
-                f"{fmt.number(band[1], 1)} LUFS.")
+    if band and band[0] is not None and band[1] is not None:
+        note += (f"Hatched band: the spec's integrated-loudness range {fmt.number(band[0], 1)} to "
+                 f"{fmt.number(band[1], 1)} LUFS.")
+    elif band:
+        side = "at most" if band[1] is not None else "at least"
+        note += (f"Dotted line: the spec's integrated-loudness limit, {side} "
+                 f"{fmt.number(band[1] if band[1] is not None else band[0], 1)} LUFS.")
     svg = plots.loudness_plot(duration_s, labels.axis(), momentary=mom, short_term=st,
                               integrated_lufs=m.get("integrated_lufs") if _is_number(m.get("integrated_lufs"))
                               else None, target_band=band)
@@ -619,8 +633,10 @@ def spectrum_view(result: dict) -> dict:
     names = ch if len(ch) == len(per) else [f"ch{i + 1}" for i in range(len(per))]
     lines = _reference_lines(result, rate)
     svg = plots.spectrum_plot(freqs, per, names, rate, lines)
-    return {"svg": svg, "rows": rows, "present": True,
-            "note": "Vertical lines: " + "; ".join(text for _f, text in lines) + "."}
+    note = "Vertical lines: " + "; ".join(text for _f, text in lines) + "."
+    if any(v == "n/a" for _l, v in rows):
+        note += " Ultrasonic figures marked n/a do not exist for this file (no band above the ultrasonic edge)."
+    return {"svg": svg, "rows": rows, "present": True, "note": note}
 
 
 def _reference_lines(result: dict, rate: int) -> list[tuple[float, str]]:
@@ -705,6 +721,21 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
         table.append({"label": "Head / tail silence",
                       "count": f"{fmt.with_unit(head, 's', 3)} / {fmt.with_unit(tail, 's', 3)}",
                       "where": where_text([list(r) for r in ranges], labels)[0] or "none"})
+    details = []
+    for key in sorted(m):
+        if key.endswith("_events") and isinstance(m[key], list):
+            kind = fmt.label_of_key(key[: -len("_events")])
+            for e in m[key]:
+                if isinstance(e, dict) and _is_number(e.get("start_s")):
+                    a = float(e["start_s"])
+                    b = float(e["end_s"]) if _is_number(e.get("end_s")) else a
+                    length = (f"{e['samples']} samples" if isinstance(e.get("samples"), int) else
+                              fmt.with_unit(b - a, "s", 3))
+                    extra = [fmt.clean_text(e[k]) for k in ("polarity", "kind") if isinstance(e.get(k), str)]
+                    details.append({"kind": kind, "channel": fmt.clean_text(e.get("channel", "")),
+                                    "at": labels.at(a), "length": length, "detail": ", ".join(extra),
+                                    "order": (a, kind)})
+    details.sort(key=lambda d: d["order"])
     for f in result.get("findings") or []:
         if isinstance(f, dict) and f.get("status") in ("fail", "warn") and _is_ranges(f.get("where_s")) \
                 and f.get("where_s"):
@@ -712,12 +743,13 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
             lanes.append((f"{word}: {_check_label(f.get('check', ''))}"[:40], _ranges_of(f["where_s"]),
                           f["status"]))
     if not lanes:
-        return {"svg": None, "rows": [], "present": False,
+        return {"svg": None, "rows": [], "present": False, "details": [], "details_more": 0,
                 "note": "Not measured: the result holds no located events (keys ending in \u201c_where_s\u201d "
                         "or \u201c_ranges_s\u201d, head or tail silence)."}
     drawn = [lane for lane in lanes if lane[1]]
     svg = plots.markers_plot(duration_s, labels.axis(), drawn) if duration_s > 0 and drawn else None
-    return {"svg": svg, "rows": table, "present": True,
+    return {"svg": svg, "rows": table, "present": True, "details": details[:MAX_EVENT_ROWS],
+            "details_more": max(len(details) - MAX_EVENT_ROWS, 0),
             "note": "Only kinds with at least one event are drawn. Events too short to see at this scale are "
                     "widened to be visible and marked with a triangle."}
 
