@@ -83,6 +83,17 @@ def test_off_bin_tones(f, amp):
     assert tones[0]["level_dbfs"] == pytest.approx(20 * math.log10(amp), abs=0.5)
 
 
+def test_tone_19_db_above_white_noise_is_found():
+    # white noise of RMS 0.05 puts -62.8 dB in each 10 Hz bin; a -40 dBFS sine's centre bin holds
+    # 0.01^2/2 * 2/3 (Hann) = -44.8 dB: 18 dB above the noise
+    fs = 96000
+    rng = np.random.default_rng(11)
+    x = 0.05 * rng.standard_normal(fs) + sine(fs, 1.0, 25000.0, 0.01)
+    tones = measure(x, fs)["ultrasonic_tones"]
+    assert [t["frequency_hz"] for t in tones] == [pytest.approx(25000.0, abs=1.0)]
+    assert tones[0]["level_dbfs"] == pytest.approx(-40.0, abs=0.5)
+
+
 def test_broadband_ultrasonic_noise_is_not_a_tone():
     fs = 96000
     rng = np.random.default_rng(3)

@@ -50,8 +50,9 @@ HIST_MIN_DB = -200.0
 HIST_MAX_DB = 10.0
 HIST_STEP_DB = 1.0
 #: default display sizes
-SPECTROGRAM_COLUMNS = 512
-SPECTROGRAM_ROWS = 128
+#: (about 40 000 cells, whole dB: some 200 kB of JSON)
+SPECTROGRAM_COLUMNS = 400
+SPECTROGRAM_ROWS = 96
 #: display LTAS: points per octave and lowest frequency
 DISPLAY_POINTS_PER_OCTAVE = 48
 DISPLAY_LOW_HZ = 20.0
@@ -306,8 +307,8 @@ class SamplingSpectrumAnalyzer(Analyzer):
             "spectrogram": {
                 "time_s": np.round(fe.spectrogram_time_s, 3),
                 "frequency_hz": np.round(fe.spectrogram_freq_hz, 1),
-                "db": np.round(np.maximum(fe.spectrogram_db, -200.0), 1),
-                "note": "channel-summed power per band, mean over the frames of each column, dB",
+                "db": np.round(np.maximum(fe.spectrogram_db, -200.0)).astype(int),
+                "note": "channel-summed power per band, mean over the frames of each column, whole dB",
             },
         }
         settings = {"front_end": self.fe.settings(), "bandwidth": bw.settings,

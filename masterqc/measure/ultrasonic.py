@@ -38,8 +38,9 @@ from scipy.ndimage import median_filter
 from masterqc.measure.base import NUMBER_OR_NULL, TIME_RANGES, array_of
 from masterqc.measure.kweight import kweighting_gain_db
 
-#: a tone stands this far above its neighbourhood in the LTAS, dB (own reasoning)
-TONE_MIN_PROMINENCE_DB = 20.0
+#: a tone stands this far above its neighbourhood in the LTAS, dB (own reasoning: a noise bin averaged over
+#: five or more frames is a Gamma variable that exceeds 16x its mean with negligible probability)
+TONE_MIN_PROMINENCE_DB = 12.0
 #: and its median level over time this far above the neighbourhood's median, dB (own reasoning)
 TONE_MIN_STATIONARY_DB = 10.0
 #: neighbourhood width for the tone floor, Hz
