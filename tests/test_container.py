@@ -500,3 +500,20 @@ def test_id3_utf16_and_user_text_frames():
     assert seen == []
     assert out["frames"] == {"TIT2": "Harbour \u00e9t\u00e9", "TXXX:ISRC": "XXQ7Z2600042"}
     assert out["other_frames"] == ["APIC"]
+
+
+def test_bw64_is_walked_and_read_as_rf64(tmp_path):
+    # BW64 (ITU-R BS.2088) keeps the RF64 layout of EBU Tech 3306 under the magic 'BW64' (from memory)
+    codes = _codes(3000)
+    base = tmp_path / "base.wav"
+    sf.write(base, codes.astype(np.int16), RATE, format="RF64", subtype="PCM_16")
+    raw = bytearray(base.read_bytes())
+    assert raw[:4] == b"RF64"
+    raw[:4] = b"BW64"
+    p = _write(tmp_path, "adm.wav", bytes(raw))
+    info = walk(p)
+    assert info.kind == "bw64" and info.problems == []
+    assert info.metadata["audio_data"]["frames"] == 3000
+    got, sinfo = _read_all(p)
+    assert sinfo.container == "rf64" and sinfo.frames == 3000
+    assert np.array_equal(got * 32768, codes)

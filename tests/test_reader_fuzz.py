@@ -52,6 +52,7 @@ def _seeds() -> dict[str, bytes]:
     data_chunk = b"data" + struct.pack("<I", 0xFFFFFFFF) + audio
     ds64 = cb.chunk(b"ds64", cb.ds64_body(4 + 36 + len(fmt) + len(data_chunk), len(audio), 64))
     seeds["rf64"] = b"RF64" + struct.pack("<I", 0xFFFFFFFF) + b"WAVE" + ds64 + fmt + data_chunk
+    seeds["bw64"] = b"BW64" + seeds["rf64"][4:]  # ITU-R BS.2088: the RF64 layout under another magic
     return seeds
 
 

@@ -111,11 +111,14 @@ class AudioStream:
             raise AudioReadError(self.path, "no such file")
         if os.path.isdir(self.path):
             raise AudioReadError(self.path, "is a directory, not an audio file")
+        self._source = _Bw64AsRf64.open_if_bw64(self.path)
         try:
-            self._sf = sf.SoundFile(self.path)
+            self._sf = sf.SoundFile(self._source or self.path)
         except sf.LibsndfileError as exc:
+            self._close_source()
             raise _unreadable(self.path, _clean(exc)) from None
         except (RuntimeError, TypeError, ValueError, OSError) as exc:
+            self._close_source()
             raise _unreadable(self.path, str(exc)) from None
         try:
             self.container: ContainerInfo = walk(self.path)
@@ -149,6 +152,7 @@ class AudioStream:
             )
         except Exception:
             self._sf.close()
+            self._close_source()
             raise
 
     def blocks(self, block_frames: int = DEFAULT_BLOCK_FRAMES):
@@ -177,12 +181,58 @@ class AudioStream:
 
     def close(self):
         self._sf.close()
+        self._close_source()
+
+    def _close_source(self):
+        if self._source is not None:
+            self._source.close()
+            self._source = None
 
     def __enter__(self):
         return self
 
     def __exit__(self, *exc):
         self.close()
+
+
+class _Bw64AsRf64:
+    """A BW64 file (ITU-R BS.2088) shown to libsndfile as RF64.
+
+    BW64 keeps the RF64 layout of EBU Tech 3306 (ds64 first, 0xFFFFFFFF sizes)
+    under another four-byte magic, which libsndfile 1.2 does not recognise; this
+    file object replaces the magic on the fly and passes every other byte through.
+    """
+
+    def __init__(self, path):
+        self._f = open(path, "rb")
+
+    @classmethod
+    def open_if_bw64(cls, path):
+        try:
+            with open(path, "rb") as f:
+                head = f.read(12)
+        except OSError:
+            return None
+        if head[:4] == b"BW64" and head[8:12] == b"WAVE":
+            return cls(path)
+        return None
+
+    def read(self, n=-1):
+        pos = self._f.tell()
+        data = self._f.read(n)
+        if pos < 4 and data:
+            k = min(4 - pos, len(data))
+            data = b"RF64"[pos:pos + k] + data[k:]
+        return data
+
+    def seek(self, offset, whence=0):
+        return self._f.seek(offset, whence)
+
+    def tell(self):
+        return self._f.tell()
+
+    def close(self):
+        self._f.close()
 
 
 def _unreadable(path, cause: str) -> AudioReadError:
