@@ -16,6 +16,7 @@ def add_parsers(sub) -> None:
     _add_spec(sub)
     _add_report(sub)
     _add_demo(sub)
+    _add_runs(sub)
 
 
 # ---------------------------------------------------------------- check
@@ -23,14 +24,17 @@ def add_parsers(sub) -> None:
 def _add_check(sub) -> None:
     from masterqc.pipeline import ALL_FORMATS, DEFAULT_FORMATS
     c = sub.add_parser("check", help="check masters against a delivery spec and write a result per file")
-    c.add_argument("paths", nargs="+", metavar="PATH", help="master files, checked in the order given")
-    c.add_argument("--spec", required=True, help="delivery spec (YAML)")
+    c.add_argument("paths", nargs="+", metavar="PATH",
+                   help="master files, checked in the order given, or folders (searched recursively; see below)")
+    c.add_argument("--spec", required=True, help="delivery spec (YAML); with folders also a spec map")
     c.add_argument("--out", default=".", help="folder for the results (default: the current folder)")
     c.add_argument("--format", dest="formats", default=None,
                    help=f"comma-separated outputs from {','.join(ALL_FORMATS)} "
                         f"(default: {','.join(DEFAULT_FORMATS)}; json only while reports cannot be rendered)")
     c.add_argument("--layout", help="channel labels overriding the files', e.g. L,R,C,LFE,Ls,Rs")
     c.add_argument("--quiet", action="store_true", help="no progress display and no per-file lines")
+    from masterqc.batch.cli import add_batch_arguments
+    add_batch_arguments(c)
     c.set_defaults(func=cmd_check)
 
 
@@ -56,6 +60,9 @@ def cmd_check(args) -> int:
             if why is not None:
                 raise UsageError(f"--format {args.formats}: HTML/PDF reports cannot be rendered here ({why}); "
                                  "use --format json")
+    from masterqc.batch.cli import cmd_check_batch, wants_batch
+    if wants_batch(args):
+        return cmd_check_batch(args, formats)
     loaded = load_spec(args.spec)  # SpecError -> exit 2 (before any file is touched)
     layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
     base = MeasureOptions(channel_layout=layout)
@@ -152,6 +159,13 @@ def cmd_spec_schema(args) -> int:
 def _add_report(sub) -> None:
     from masterqc.report.command import add_parser
     add_parser(sub)
+
+
+# ---------------------------------------------------------------- runs
+
+def _add_runs(sub) -> None:
+    from masterqc.batch.cli import add_runs_parser
+    add_runs_parser(sub)
 
 
 # ---------------------------------------------------------------- demo

@@ -36,6 +36,7 @@ SECTIONS: list[tuple[str, str]] = [
     ("metadata", "masterqc.spec.sections.metadata"),
     ("integrity", "masterqc.spec.sections.integrity"),
     ("sampling", "masterqc.spec.sections.sampling"),
+    ("release", "masterqc.spec.sections.release"),
 ]
 
 

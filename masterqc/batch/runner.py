@@ -1,0 +1,420 @@
+"""One batch run: discover, hash, reuse or check each master, judge releases, write the run outputs.
+
+:func:`run_batch` is what ``masterqc check FOLDER...`` calls.  In order:
+
+1. load ``--spec`` (one spec or a spec map; an invalid spec stops the run before any file is touched);
+2. discover the masters (:mod:`masterqc.batch.discover`);
+3. hash every file (content SHA-256; skipped for a file whose size, mtime, ctime and inode
+   the ledger has seen with a hash);
+4. for each file, reuse the ledger's result for (content hash, spec key, tool version) or
+   run :func:`masterqc.pipeline.check_file` through the backend (inline, process pool or dask);
+   files with identical content and spec are checked once;
+5. record every file in the ledger the moment it is done (an interrupted run keeps them);
+6. judge each release folder (:mod:`masterqc.batch.releases`);
+7. compare with the previous complete run into the same output folder (new, fixed, newly failing, gone);
+8. write ``summary.json``, ``junit.xml`` and ``index.html`` atomically.
+
+Output layout::
+
+    OUT/index.html  OUT/summary.json  OUT/junit.xml  OUT/masterqc-ledger.sqlite
+    OUT/files/<folder label>/<sub folders>/<name>.json|.html|.pdf
+
+Exit code: 3 when a file could not be read, else 1 when a file or a release failed, else 0.
+"""
+
+from __future__ import annotations
+
+import os
+import posixpath
+import signal
+import time
+from dataclasses import dataclass, field
+
+from masterqc import __version__
+from masterqc.batch.discover import discover
+from masterqc.batch.execute import make_backend
+from masterqc.batch.ledger import Ledger, utc_now
+from masterqc.batch.names import NameAllocator, inside, safe_component
+from masterqc.batch.progress import BatchProgress
+from masterqc.batch.releases import judge_release, parse_release_mode, release_of
+from masterqc.batch.specmap import load_spec_map
+from masterqc.batch.work import check_task, hash_task
+
+LEDGER_NAME = "masterqc-ledger.sqlite"
+FILES_DIR = "files"
+
+
+@dataclass
+class BatchConfig:
+    roots: list
+    spec_path: str
+    out_dir: str
+    formats: tuple = ("json",)
+    jobs: int | None = None
+    scheduler: str | None = None
+    ledger_path: str | None = None
+    releases: str | None = None  #: grouping mode; None: the spec map's, else "folder"
+    layout: tuple | None = None
+    quiet: bool = False
+    reuse: bool = True  #: False: analyse every file again (results still recorded)
+    progress_stream: object = None
+    live_progress: bool | None = None
+
+
+@dataclass
+class Item:
+    found: object
+    path: str          #: absolute path as reached (the ledger's key for a file)
+    rel: str           #: shown name: folder label / path below it
+    release: str | None
+    rule: object       #: specmap.Rule or None
+    out_folder: str    #: absolute output folder
+    out_rel: str       #: output folder relative to OUT
+    stem: str
+    size_bytes: int = 0
+    stat: object = None
+    sha256: str | None = None
+    result: dict | None = None
+    analysed: bool = False
+    elapsed_s: float = 0.0
+    hash_error: str | None = None
+
+
+@dataclass
+class BatchOutcome:
+    exit_code: int
+    summary: dict
+    run_id: int
+    ledger_path: str
+    outputs: dict = field(default_factory=dict)
+
+
+class _Terminate(KeyboardInterrupt):
+    """SIGTERM, handled like Ctrl-C: stop, keep what is done, mark the run interrupted."""
+
+
+def _on_sigterm(signum, frame):
+    raise _Terminate()
+
+
+def _root_labels(roots) -> dict:
+    labels, used = {}, set()
+    for r in roots:
+        key = os.fspath(r)
+        base = os.path.abspath(key) if os.path.isdir(key) else os.path.dirname(os.path.abspath(key))
+        label = safe_component(os.path.basename(base.rstrip(os.sep)) or "root")
+        cand, n = label, 1
+        while cand.lower() in used:
+            n += 1
+            cand = f"{label}-{n}"
+        used.add(cand.lower())
+        labels[key] = cand
+    return labels
+
+
+def _problems(result: dict) -> list[dict]:
+    return [{"check": f["check"], "status": f["status"], "message": f["message"]}
+            for f in result.get("findings", []) if f["status"] in ("fail", "error", "warn")]
+
+
+def _first_problem(result: dict) -> str | None:
+    for status in ("error", "fail", "warn"):
+        for f in result.get("findings", []):
+            if f["status"] == status:
+                return f["message"]
+    return None
+
+
+def _error_result(item: Item, loaded, cause: str) -> dict:
+    from masterqc.pipeline import error_result
+    r = error_result(item.path, loaded, cause)
+    r["outputs"] = {}
+    return r
+
+
+def _slim(result: dict) -> dict:
+    """What the run outputs and release checks need of a result (drops the display series)."""
+    keep = {k: result[k] for k in ("file", "format", "measurements", "spec", "findings", "verdict", "outputs", "error")
+            if k in result}
+    hist = (result.get("series") or {}).get("gating_block_histogram")
+    if hist is not None:
+        keep["series"] = {"gating_block_histogram": hist}
+    return keep
+
+
+class _NoSpec:
+    """Stand-in spec for a file that no spec-map rule matches."""
+
+    def info(self):
+        return {"name": None, "path": None, "sha256": None, "files": []}
+
+
+def run_batch(cfg: BatchConfig) -> BatchOutcome:
+    """Run a batch (see the module docstring); raises SpecError/UsageError before touching any file."""
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.pipeline import write_json
+
+    t0 = time.perf_counter()
+    base = MeasureOptions(channel_layout=cfg.layout)
+    specmap = load_spec_map(cfg.spec_path, base)
+    mode = parse_release_mode(cfg.releases or specmap.releases or "folder")
+    out_dir = os.path.abspath(cfg.out_dir)
+    os.makedirs(out_dir, exist_ok=True)
+    ledger_path = os.path.abspath(cfg.ledger_path) if cfg.ledger_path else os.path.join(out_dir, LEDGER_NAME)
+    ledger = Ledger(ledger_path)
+    backend = None
+    run_id = None
+    old_term = None
+    try:
+        try:
+            old_term = signal.signal(signal.SIGTERM, _on_sigterm)
+        except ValueError:  # not the main thread (e.g. called from a test thread)
+            old_term = None
+        backend = make_backend(cfg.jobs, cfg.scheduler)
+        run_id = ledger.start_run(cfg.roots, out_dir, os.path.abspath(cfg.spec_path), __version__)
+        disc = discover(cfg.roots, exclude=[out_dir])
+        labels = _root_labels(cfg.roots)
+        names = NameAllocator()
+        items: list[Item] = []
+        for fnd in disc.files:
+            label = labels.get(fnd.root) or safe_component(os.path.basename(os.path.abspath(fnd.root)))
+            rel_in_root = fnd.rel
+            parts = [label] + rel_in_root.split("/")[:-1]
+            stem = os.path.splitext(posixpath.basename(rel_in_root))[0] or "master"
+            folder_rel, stem = names.allocate(parts, stem)
+            out_folder = os.path.join(out_dir, FILES_DIR, *folder_rel.split("/"))
+            items.append(Item(found=fnd, path=os.path.abspath(fnd.path), rel=f"{label}/{rel_in_root}",
+                              release=release_of(label, rel_in_root, mode), rule=specmap.lookup(rel_in_root),
+                              out_folder=out_folder, out_rel=f"{FILES_DIR}/{folder_rel}", stem=stem))
+
+        # ---- 1. content hashes (stat cache first)
+        to_hash = []
+        for it in items:
+            try:
+                it.stat = os.stat(it.path)
+                it.size_bytes = it.stat.st_size
+            except OSError as exc:
+                it.hash_error = f"cannot be read ({exc.strerror or exc})"
+                continue
+            known = ledger.known_hash(it.path, it.stat)
+            if known:
+                it.sha256 = known
+            else:
+                to_hash.append(it)
+        for i, value, exc in backend.map_unordered(hash_task, [it.path for it in to_hash]):
+            it = to_hash[i]
+            if exc is not None:
+                it.hash_error = f"cannot be hashed ({type(exc).__name__}: {exc})"
+            elif "error" in value:
+                it.hash_error = value["error"]
+            else:
+                it.sha256 = value["sha256"]
+                ledger.remember_hash(it.path, it.stat, it.sha256)
+
+        progress = BatchProgress(len(items), sum(it.size_bytes for it in items), stream=cfg.progress_stream,
+                                 quiet=cfg.quiet, live=cfg.live_progress)
+        for p in disc.problems:
+            progress.note(f"masterqc: skipped {p.path}: {p.message}")
+
+        # previous outputs of this output folder: re-render only what is missing or stale
+        prev_run = ledger.previous_run(run_id, out_dir)
+        prev_rows = {r["path"]: r for r in ledger.run_files(prev_run["run_id"])} if prev_run else {}
+
+        def finish(it: Item, result: dict, analysed: bool) -> None:
+            it.result = _slim(result)  # a catalogue's results are not all kept whole in memory
+            it.analysed = analysed
+            verdict = result.get("verdict", "error")
+            ledger.record_file(run_id, path=it.path, rel=it.rel, release=it.release, content_sha256=it.sha256,
+                               spec_key=it.rule.key if it.rule else None, verdict=verdict, analysed=analysed,
+                               message=_first_problem(result), out_stem=f"{it.out_rel}/{it.stem}")
+            audio_s = float((result.get("format") or {}).get("duration_s") or 0.0)
+            progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed)
+
+        def place(it: Item, result: dict, wrote: bool) -> dict:
+            """Write ``result`` as ``it``'s outputs (JSON always; HTML/PDF when missing or stale)."""
+            if not inside(out_dir, it.out_folder):
+                raise RuntimeError(f"output folder {it.out_folder} resolves outside {out_dir}")
+            result = dict(result)
+            result["file"] = dict(result.get("file") or {}, path=it.found.path)
+            outputs = {}
+            if not wrote:
+                rendered = [f for f in cfg.formats if f in ("html", "pdf")]
+                os.makedirs(it.out_folder, exist_ok=True)
+                prev = prev_rows.get(it.path)
+                fresh = (prev is not None and prev.get("content_sha256") == it.sha256 and it.rule is not None
+                         and prev.get("spec_key") == it.rule.key and prev.get("out_stem") == f"{it.out_rel}/{it.stem}")
+                todo = []
+                for fmt in rendered:
+                    target = os.path.join(it.out_folder, f"{it.stem}.{fmt}")
+                    if fresh and os.path.exists(target):
+                        outputs[fmt] = f"{it.stem}.{fmt}"
+                    else:
+                        todo.append(fmt)
+                if todo and "measurements" in result:
+                    try:
+                        from masterqc.report.render import write_reports
+                        for p in write_reports(result, it.out_folder, it.stem, todo) or []:
+                            outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
+                    except Exception as exc:
+                        from masterqc.judge.core import Finding, verdict
+                        result["findings"] = list(result.get("findings", [])) + [Finding(
+                            check="report.render", status="error",
+                            message=f"the {'/'.join(todo)} report could not be written: {type(exc).__name__}: {exc}"
+                        ).to_dict()]
+                        result["verdict"] = verdict(result["findings"])
+                if "json" in cfg.formats:
+                    outputs["json"] = f"{it.stem}.json"
+                result["outputs"] = outputs
+                if "json" in cfg.formats:
+                    write_json(result, os.path.join(it.out_folder, f"{it.stem}.json"))
+            return result
+
+        # ---- 2. reuse or schedule
+        groups: dict[tuple, list[Item]] = {}
+        for it in items:
+            if it.hash_error is not None:
+                loaded = it.rule.loaded if it.rule else _NoSpec()
+                finish(it, place(it, _error_result(it, loaded, it.hash_error), False), False)
+                continue
+            if it.rule is None:
+                finish(it, place(it, _error_result(it, _NoSpec(), f"no rule of the spec map {specmap.path} matches "
+                                                                   f"{it.found.rel!r}"), False), False)
+                continue
+            cached = ledger.get_result(it.sha256, it.rule.key, __version__) if cfg.reuse else None
+            if cached is not None:
+                finish(it, place(it, cached, False), False)
+                continue
+            groups.setdefault((it.sha256, it.rule.key), []).append(it)
+
+        keys = list(groups)
+        tasks = []
+        for k in keys:
+            lead = groups[k][0]
+            os.makedirs(lead.out_folder, exist_ok=True)
+            if not inside(out_dir, lead.out_folder):
+                raise RuntimeError(f"output folder {lead.out_folder} resolves outside {out_dir}")
+            tasks.append({"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
+                          "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(cfg.formats),
+                          "layout": list(cfg.layout) if cfg.layout else None})
+        for i, value, exc in backend.map_unordered(check_task, tasks):
+            group = groups[keys[i]]
+            lead = group[0]
+            if exc is not None:
+                result = _error_result(lead, lead.rule.loaded,
+                                       f"the worker checking this file stopped: {type(exc).__name__}: {exc}")
+                result["error"]["internal"] = True
+                wrote = False
+            else:
+                result = value["result"]
+                lead.elapsed_s = value["elapsed_s"]
+                wrote = True
+            internal = bool((result.get("error") or {}).get("internal"))
+            got_hash = (result.get("file") or {}).get("sha256")
+            if not internal and got_hash == lead.sha256:
+                ledger.put_result(lead.sha256, lead.rule.key, __version__, result)
+            finish(lead, place(lead, result, wrote), True)
+            for other in group[1:]:
+                finish(other, place(other, result, False), False)
+        progress.close()
+
+        # ---- 3. releases, changes, outputs
+        summary = _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, backend, prev_run,
+                           prev_rows, t0)
+        from masterqc.batch.outputs import write_run_outputs
+        outputs = write_run_outputs(summary, out_dir)
+        row = ledger.finish_run(run_id, "complete", time.perf_counter() - t0)
+        summary["run"]["finished_utc"] = row["finished_utc"]
+        return BatchOutcome(summary["exit_code"], summary, run_id, ledger_path, outputs)
+    except KeyboardInterrupt:
+        if backend is not None:
+            backend.close(cancel=True)
+            backend = None
+        if run_id is not None:
+            ledger.finish_run(run_id, "interrupted", time.perf_counter() - t0)
+        raise
+    finally:
+        if backend is not None:
+            backend.close()
+        if old_term is not None:
+            signal.signal(signal.SIGTERM, old_term)
+        ledger.close()
+
+
+def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, backend, prev_run, prev_rows, t0) -> dict:
+    files = []
+    for it in items:
+        r = it.result or {}
+        m = r.get("measurements") or {}
+        fmt = r.get("format") or {}
+        prev = prev_rows.get(it.path)
+        v = r.get("verdict", "error")
+        if prev_run is None or prev is None:
+            change = "new"
+        elif prev["verdict"] in ("fail", "error") and v in ("pass", "warn"):
+            change = "fixed"
+        elif prev["verdict"] in ("pass", "warn") and v in ("fail", "error"):
+            change = "newly_failing"
+        elif prev["verdict"] != v:
+            change = "changed"
+        else:
+            change = "unchanged"
+        files.append({
+            "path": it.path, "rel": it.rel, "release": it.release, "verdict": v, "analysed": it.analysed,
+            "elapsed_s": it.elapsed_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
+            "sha256": it.sha256, "size_bytes": it.size_bytes,
+            "spec": (r.get("spec") or {}).get("name"), "spec_key": it.rule.key if it.rule else None,
+            "integrated_lufs": m.get("integrated_lufs"), "true_peak_dbtp": m.get("true_peak_dbtp"),
+            "loudness_range_lu": m.get("loudness_range_lu"), "duration_s": fmt.get("duration_s"),
+            "sample_rate_hz": fmt.get("sample_rate_hz"), "bit_depth": fmt.get("bit_depth"),
+            "channels": fmt.get("channels"),
+            "counts": {s: sum(1 for f in r.get("findings", []) if f["status"] == s)
+                       for s in ("pass", "warn", "fail", "skipped", "error")},
+            "first_problem": _first_problem(r), "problems": _problems(r),
+            "outputs": {k: f"{it.out_rel}/{name}" for k, name in (r.get("outputs") or {}).items()},
+        })
+    # releases
+    releases = []
+    by_release: dict[str, list[Item]] = {}
+    for it in items:
+        if it.release is not None:
+            by_release.setdefault(it.release, []).append(it)
+    for rid in sorted(by_release):
+        group = by_release[rid]
+        lead = next((g for g in group if g.rule is not None), None)
+        rel = judge_release(rid, rid, [g.rel for g in group], [g.result or {} for g in group],
+                            lead.rule.loaded if lead else None)
+        specs = {g.rule.key for g in group if g.rule is not None}
+        rel["mixed_specs"] = len(specs) > 1
+        releases.append(rel)
+    counts = {v: sum(1 for f in files if f["verdict"] == v) for v in ("pass", "warn", "fail", "error")}
+    counts.update(files=len(files), analysed=sum(1 for f in files if f["analysed"]),
+                  reused=sum(1 for f in files if not f["analysed"]),
+                  releases=len(releases),
+                  releases_failed=sum(1 for r in releases if r["verdict"] in ("fail", "error")))
+    now = {it.path for it in items}
+    changes = {"new": [f["rel"] for f in files if f["change"] == "new" and prev_run is not None],
+               "fixed": [f["rel"] for f in files if f["change"] == "fixed"],
+               "newly_failing": [f["rel"] for f in files if f["change"] == "newly_failing"],
+               "gone": sorted(r["rel"] for p, r in prev_rows.items() if p not in now)}
+    if counts["error"]:
+        code = 3
+    elif counts["fail"] or any(r["verdict"] == "fail" for r in releases):
+        code = 1
+    else:
+        code = 0
+    started = ledger.run(run_id)["started_utc"]
+    return {
+        "tool": {"name": "masterqc", "version": __version__},
+        "run": {"id": run_id, "started_utc": started, "finished_utc": utc_now(),
+                "elapsed_s": time.perf_counter() - t0, "roots": [os.fspath(r) for r in cfg.roots],
+                "out_dir": out_dir, "ledger": ledger_path, "spec": os.fspath(cfg.spec_path),
+                "spec_map": specmap.is_map, "backend": backend.description, "formats": list(cfg.formats),
+                "releases_mode": cfg.releases or specmap.releases or "folder"},
+        "exit_code": code,
+        "counts": counts,
+        "previous_run": ({"run_id": prev_run["run_id"], "started_utc": prev_run["started_utc"]} if prev_run else None),
+        "changes": changes,
+        "releases": releases,
+        "files": files,
+        "skipped_paths": [{"path": p.path, "message": p.message} for p in disc.problems],
+    }

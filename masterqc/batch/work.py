@@ -1,0 +1,78 @@
+"""The per-file work of a batch, as top-level functions a process pool or a dask worker can run.
+
+Both take and return plain picklable values (paths and dicts), so the same
+function runs in this process, in a spawned worker process, or on a dask
+worker that reads the masters (and writes the reports) by path on shared storage.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import threading
+import time
+
+from masterqc import __version__
+
+_SPECS: dict = {}
+_LOCK = threading.Lock()
+
+
+def ignore_sigint() -> None:
+    """Pool-worker initializer: Ctrl-C is handled by the parent, which stops the workers."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def hash_task(path: str) -> dict:
+    """``{"path", "sha256", "size_bytes"}`` of a file, or ``{"path", "error"}`` when it cannot be read."""
+    from masterqc.errors import AudioReadError
+    from masterqc.measure.engine import file_facts
+    try:
+        facts = file_facts(path)
+    except AudioReadError as exc:
+        return {"path": path, "error": exc.cause}
+    except OSError as exc:
+        return {"path": path, "error": f"cannot be read ({exc.strerror or exc})"}
+    return {"path": path, "sha256": facts["sha256"], "size_bytes": facts["size_bytes"]}
+
+
+def _spec(spec_path: str, key: str, layout):
+    from masterqc.batch.specmap import spec_key
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.spec.loader import load_spec
+    with _LOCK:
+        loaded = _SPECS.get((spec_path, key))
+        if loaded is None:
+            loaded = load_spec(spec_path)
+            got = spec_key(loaded, MeasureOptions(channel_layout=layout))
+            if got != key:
+                raise RuntimeError(f"{spec_path}: the spec changed while the batch was running "
+                                   "(its resolved content differs from the one the run started with)")
+            _SPECS[(spec_path, key)] = loaded
+        return loaded
+
+
+def check_task(task: dict) -> dict:
+    """Run :func:`masterqc.pipeline.check_file` for one master.
+
+    ``task``: ``path``, ``spec_path``, ``spec_key``, ``out_dir``, ``stem``, ``formats``,
+    ``layout`` (list or None).  Returns ``{"result": <result dict>, "elapsed_s": float,
+    "worker_pid": int}``.  A failure outside reading the master (an internal bug)
+    still returns a result: an error result whose ``error.internal`` is true, so the
+    batch records it and goes on.
+    """
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.pipeline import check_file, error_result
+
+    t0 = time.perf_counter()
+    layout = tuple(task["layout"]) if task.get("layout") else None
+    loaded = _spec(task["spec_path"], task["spec_key"], layout)
+    try:
+        result = check_file(task["path"], loaded, task["out_dir"], tuple(task["formats"]), stem=task["stem"],
+                            base_options=MeasureOptions(channel_layout=layout))
+    except Exception as exc:  # never lose the batch to one file
+        result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
+        result["error"]["internal"] = True
+        result["outputs"] = {}
+    return {"result": result, "elapsed_s": time.perf_counter() - t0, "worker_pid": os.getpid(),
+            "tool_version": __version__}
