@@ -91,7 +91,8 @@ def render_html(result: dict, paper: str = "a4") -> str:
     env = _env()
     template = env.get_template("report.html.j2")
     version = str((result.get("tool") or {}).get("version", ""))
-    return template.render(v=view, css=Markup(_CSS), tool_version=version)
+    from masterqc.report.view import STATUS_COLOURS
+    return template.render(v=view, css=Markup(_CSS), tool_version=version, colours=STATUS_COLOURS)
 
 
 class ExternalFetchRefused(ValueError):

@@ -33,6 +33,13 @@ STATUS_WORDS = {
     "unjudged": ("NOT JUDGED", "ring"),
 }
 
+#: status -> colour of its icon (the CSS uses the same values for the words; icons carry the
+#: colour as an attribute because not every renderer resolves ``currentColor`` inside inline SVG)
+STATUS_COLOURS = {
+    "pass": "#007a5a", "warn": "#b37400", "fail": "#b84a00", "error": "#9c4a7a",
+    "skipped": "#6e6e6e", "unjudged": "#0061a0",
+}
+
 #: findings are listed worst first
 STATUS_ORDER = {"error": 0, "fail": 1, "warn": 2, "skipped": 3, "pass": 4}
 
@@ -505,7 +512,7 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     duration = _get(result, "format", "duration_s")
     if _is_number(duration) and duration < 60.0 and _is_number(m.get("loudness_range_lu")):
         note = ("Loudness range is of little meaning for a programme under one minute "
-                "(EBU R 128 practice, from memory). ")
+                "(EBU Tech 3342: not recommended under one minute). ")
     if mom is None and st is None:
         return {"svg": None, "rows": rows, "note": _not_measured(["momentary_lufs", "short_term_lufs"]),
                 "present": bool(rows)}
@@ -729,8 +736,12 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
                 if isinstance(e, dict) and _is_number(e.get("start_s")):
                     a = float(e["start_s"])
                     b = float(e["end_s"]) if _is_number(e.get("end_s")) else a
-                    length = (f"{e['samples']} samples" if isinstance(e.get("samples"), int) else
-                              fmt.with_unit(b - a, "s", 3))
+                    if isinstance(e.get("samples"), int):
+                        length = f"{e['samples']} samples"
+                    elif b - a < 1.0:
+                        length = fmt.with_unit((b - a) * 1000.0, "ms", 1)
+                    else:
+                        length = fmt.with_unit(b - a, "s", 3)
                     extra = [fmt.clean_text(e[k]) for k in ("polarity", "kind") if isinstance(e.get(k), str)]
                     details.append({"kind": kind, "channel": fmt.clean_text(e.get("channel", "")),
                                     "at": labels.at(a), "length": length, "detail": ", ".join(extra),
