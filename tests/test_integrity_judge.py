@@ -163,3 +163,19 @@ def test_invalid_section_names_the_key(bad, key):
     with pytest.raises(ValidationError) as info:
         _spec(bad)
     assert key in str(info.value)
+
+
+def test_results_of_awkward_files_fit_the_result_schema(tmp_path):
+    # NaN in a float file, a mono file, a digitally silent file: every integrity key still fits
+    x = np.full((FS // 2, 2), 0.2, np.float32)
+    x[100, 0] = np.nan
+    sf.write(tmp_path / "nan.wav", x, FS, subtype="FLOAT")
+    write_pcm(tmp_path / "mono.wav", np.full((FS // 2, 1), 77, np.int64), FS, 16)
+    write_pcm(tmp_path / "silent.wav", np.zeros((FS // 2, 2), np.int64), FS, 24)
+    schema = result_schema()
+    for name in ("nan.wav", "mono.wav", "silent.wav"):
+        r = measure_file(tmp_path / name)
+        jsonschema.validate(r, schema)
+    m = measure_file(tmp_path / "silent.wav")["measurements"]
+    assert m["effective_bit_depth"] is None and m["dual_mono"] is None
+    assert m["head_digital_silence_s"] == 0.5 and m["dc_offset_dbfs"] is None

@@ -27,6 +27,11 @@ the section out (``nonfinite_samples: false`` turns the check off; writing
 
 Every key is optional; leave a key out and that property is measured and
 reported but not judged.
+
+Full scale is the encoding's own: a 16-bit master padded into a 24-bit file
+tops out at code 0x7FFF00, 0.00027 dB below 24-bit full scale, so its clipped
+runs count only with ``clip_threshold_db`` of at least 0.001 (the
+``effective_bit_depth`` check finds the padding itself).
 """
 
 from __future__ import annotations
