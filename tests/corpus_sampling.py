@@ -47,6 +47,7 @@ from masterqc.audio.reader import StreamInfo
 
 SECONDS = 1.0
 SWEEP_SECONDS = 1.5
+IMAGING_SECONDS = 2.0
 
 
 @dataclass
@@ -224,8 +225,9 @@ def tones(fs: int, seconds: float, freqs_hz, level: float) -> np.ndarray:
 
 
 # ---------------------------------------------------------------- the corpus
-#: fundamentals that divide none of the standard rates (so aliases never land on harmonics)
-FUNDAMENTALS_HZ = (131.7, 277.3, 443.1, 1187.3)
+#: fundamentals whose folds land at least 40 Hz from a harmonic at every standard rate
+#: (fs mod f0 is at least 40 Hz from 0 and from f0), so they are resolvable at 5 Hz bins
+FUNDAMENTALS_HZ = (139.4, 286.9, 435.2, 1204.9)
 #: (fundamental, rate) pairs where fs is a whole multiple of f0: aliasing not assessable
 WHOLE_MULTIPLES = ((1000.0, 48000), (1200.0, 48000), (441.0, 44100), (480.0, 96000))
 #: (source rate, file rate) of the proper-resampler cases
@@ -288,7 +290,8 @@ def _builders():
         for method in methods:
             for material in ("pink", "chord"):
                 def build(rng, r=r, fs=fs, method=method, material=material):
-                    x = pink(r, SECONDS, rng, 0.15) if material == "pink" else chord(r, SECONDS, 0.45 * r, rng)
+                    x = pink(r, IMAGING_SECONDS, rng, 0.15) if material == "pink" else \
+                        chord(r, IMAGING_SECONDS, 0.45 * r, rng)
                     if method == "hold":
                         y = hold_upsample(x, r, fs)
                     elif method == "linear":
@@ -302,7 +305,7 @@ def _builders():
     for fs_src, d in DECIMATIONS:
         fs = fs_src // d
         for method in ("drop", "filtered"):
-            for f0 in (523.7, 1571.3):
+            for f0 in (529.3, 1561.0):
                 def build(rng, fs_src=fs_src, d=d, fs=fs, method=method, f0=f0):
                     x = additive_wave("saw", f0, fs_src, SECONDS + 0.05, amplitude=0.5)
                     y = drop_decimate(x, d) if method == "drop" else good_resample(x, fs_src, fs)

@@ -62,6 +62,24 @@ PAIR_GUARD_BINS = 3
 #: channels and files of a release, and covers the inflation by neighbouring-bin correlation
 #: that :data:`NULL_VARIANCE_INFLATION` only approximates.
 Z_SIGNIFICANT = 8.0
+#: a pair of two spectral lines is an image pair only if their frequencies sum to the cycle
+#: frequency: pairs whose refined line frequencies miss it by more than this are left out.
+#: Own reasoning: parabolic interpolation of a Hann log-spectrum places a clean line within
+#: about 0.05 bin (1 Hz at 20 Hz bins); 3 Hz leaves room for noise.  Without this check two
+#: unrelated stationary lines can look phase-locked by chance over a short file, and every
+#: pair of harmonics with the same order sum shares that one chance.
+LINE_PAIR_TOLERANCE_HZ = 3.0
+#: the image level is quoted only when the power-weighted statistic alone reaches this z
+#: (own reasoning: below it the level estimate is dominated by its own noise)
+Z_LEVEL = 5.0
+#: pairs whose weaker member is this far below the stronger one give the image level when
+#: the images fall on programme content (own reasoning: 10 dB)
+ASYMMETRY_DB = 10.0
+#: per-pair false-inclusion probability of the significant-pair image estimate, and the
+#: number of such pairs it needs (own reasoning: with a few thousand pairs per candidate,
+#: 1e-6 makes a chance inclusion a one-in-several-hundred-files event)
+PAIR_P = 1e-6
+MIN_SIGNIFICANT_PAIRS = 3
 #: variance inflation of the null statistic: Hann-window leakage correlates adjacent bins
 #: (own reasoning: the squared coherence between neighbouring Hann bins of white noise is
 #: 0.25, which gives a factor of about 1.5; 2 is taken for margin)
@@ -71,6 +89,17 @@ NULL_VARIANCE_INFLATION = 2.0
 #: interpolator about -25 to -45 dB, while purpose-built interpolation filters (even short
 #: windowed-sinc kernels) keep them below about -50 dB; -45 dB separates the two groups.
 DEFECT_IMAGE_LEVEL_DB = -45.0
+#: control cycle frequencies, in bins from each candidate's: an upsampler's images are
+#: coherent only at the exact cycle frequency, while material that is cyclostationary at
+#: almost every cycle frequency (periodic material whose folded partials fill a dense comb)
+#: shows the same coherence at the controls.  Own reasoning: 3 and 5 bins lie outside the
+#: Hann main lobe (2 bins), so a true image is not seen at the controls.
+CONTROL_OFFSETS_BINS = (-5, 3)
+#: a control this significant (absolute, and relative to the candidate's z) makes the
+#: candidate untestable (own reasoning)
+CONTROL_Z_RELATIVE = 0.25
+#: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
+FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
 #: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
 #: lines this far above the local floor (own reasoning).
@@ -163,7 +192,7 @@ class FramePicker:
             self.buf = np.zeros((0, buf.shape[1]))
 
 
-def mirror_pairs(fs: int, rate: float, n_fft: int):
+def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None):
     """Bin pairs of the two-sided DFT linked by the images of an upsampler from ``rate``.
 
     Returns ``(ka, kb, alpha_bins)``: full-DFT indices (0..n_fft-1) of a baseband
@@ -171,48 +200,44 @@ def mirror_pairs(fs: int, rate: float, n_fft: int):
     cycle frequency ``q*rate`` in bins (modulo n_fft), for every image order
     ``q`` whose images reach the band below fs (``q*rate - rate/2 < fs``).
     Conjugate duplicates and pairs closer than :data:`PAIR_GUARD_BINS` are removed.
+    ``rate_for_band`` (default ``rate``) sets the baseband edge, so that control cycle
+    frequencies near a candidate pair the same baseband bins.
     """
     bin_hz = fs / n_fft
     lo = int(math.ceil(LOW_EDGE_HZ / bin_hz))
-    hi = int(math.ceil(rate / 2.0 / bin_hz)) - 1
+    hi = int(math.ceil((rate if rate_for_band is None else rate_for_band) / 2.0 / bin_hz)) - 1
     base = np.arange(lo, hi + 1, dtype=np.int64)
-    keys = set()
-    out_a, out_b, out_al = [], [], []
+    n = int(n_fft)
+    parts_a, parts_b, parts_al = [], [], []
     q = 1
     while q * rate - rate / 2.0 < fs:
-        alpha = int(round(q * rate / bin_hz)) % n_fft
+        alpha = int(round(q * rate / bin_hz)) % n
         q += 1
         if alpha == 0:
             continue
         for sign in (1, -1):
-            ka = (sign * base) % n_fft
-            kb = (alpha - ka) % n_fft
-            for a, b in zip(ka.tolist(), kb.tolist()):
-                fa = min(a, n_fft - a)
-                fb = min(b, n_fft - b)
-                if fb < lo or abs(fa - fb) < PAIR_GUARD_BINS:
-                    continue
-                rep1 = (min(a, b), max(a, b), alpha)
-                na, nb = (n_fft - a) % n_fft, (n_fft - b) % n_fft
-                rep2 = (min(na, nb), max(na, nb), (n_fft - alpha) % n_fft)
-                key = min(rep1, rep2)
-                if key in keys:
-                    continue
-                keys.add(key)
-                out_a.append(a)
-                out_b.append(b)
-                out_al.append(alpha)
-    return (np.asarray(out_a, dtype=np.int64), np.asarray(out_b, dtype=np.int64),
-            np.asarray(out_al, dtype=np.int64))
-
-
-def _gather(spec: np.ndarray, k: np.ndarray, n_fft: int) -> np.ndarray:
-    """Values of the two-sided DFT at full indices ``k`` from a one-sided ``spec`` (last axis)."""
-    half = n_fft // 2
-    neg = k > half
-    idx = np.where(neg, n_fft - k, k)
-    vals = spec[..., idx]
-    return np.where(neg, np.conj(vals), vals)
+            ka = (sign * base) % n
+            parts_a.append(ka)
+            parts_b.append((alpha - ka) % n)
+            parts_al.append(np.full(ka.size, alpha, dtype=np.int64))
+    if not parts_a:
+        empty = np.zeros(0, dtype=np.int64)
+        return empty, empty, empty
+    a = np.concatenate(parts_a)
+    b = np.concatenate(parts_b)
+    al = np.concatenate(parts_al)
+    fa = np.minimum(a, n - a)
+    fb = np.minimum(b, n - b)
+    ok = (fb >= lo) & (np.abs(fa - fb) >= PAIR_GUARD_BINS)
+    a, b, al = a[ok], b[ok], al[ok]
+    # canonical key of the unordered pair and its conjugate (-a, -b, -alpha)
+    na, nb, nal = (n - a) % n, (n - b) % n, (n - al) % n
+    k1 = (np.minimum(a, b) * n + np.maximum(a, b)) * n + al
+    k2 = (np.minimum(na, nb) * n + np.maximum(na, nb)) * n + nal
+    key = np.minimum(k1, k2)
+    _u, first = np.unique(key, return_index=True)
+    first = np.sort(first)
+    return a[first], b[first], al[first]
 
 
 def spectral_lines(power: np.ndarray, prominence_db: float = LINE_PROMINENCE_DB, halfwidth: int = 25):
@@ -246,7 +271,7 @@ def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz
 
     ``freqs_hz``/``powers``: line frequencies and powers.  A candidate fundamental
     (a line frequency divided by 1..8, at least ``min_f0_hz``) is accepted when the
-    lines within ``tolerance_hz`` (scaled by nothing: absolute) of its multiples carry
+    lines within ``tolerance_hz + 1e-4*f`` of its multiples carry
     at least ``min_explained`` of the line power, at least ``min_harmonics`` lines match
     and the matched harmonic numbers fill at least ``min_density`` of 1..highest match
     (a real series is dense; two unrelated lines always share some tiny common divisor).
@@ -266,7 +291,7 @@ def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz
             if f0 < min_f0_hz:
                 break
             h = np.round(f / f0)
-            ok = (h >= 1) & (np.abs(f - h * f0) <= tolerance_hz + 1e-3 * f)
+            ok = (h >= 1) & (np.abs(f - h * f0) <= tolerance_hz + 1e-4 * f)
             if ok.sum() < min_harmonics:
                 continue
             if p[ok].sum() < min_explained * total:
@@ -349,60 +374,96 @@ class ImagingAnalyzer(Analyzer):
         self.frames = 0
         nb = self.n_fft // 2 + 1
         self.power = np.zeros((info.channels, nb))
+        # a few long Blackman-Harris frames to recognise periodic material with folded partials
+        from masterqc.measure import aliasing as _al
+        self._al = _al
+        self.n_tonal = int(round(self.fs / _al.TONAL_BIN_HZ))
+        self.win_tonal = _al.blackman_harris(self.n_tonal)
+        self.pick_tonal = FramePicker(frame_starts(int(info.frames), self.n_tonal, FOLD_CHECK_FRAMES,
+                                                   self.n_tonal // 2, seed=3), self.n_tonal, info.channels)
+        self.folded_frames = 0
+        self.tonal_frames = 0
+        self._lines = {}
         self.cands = []
+        parts = []
+        pos = 0
         for r in self.rates:
-            ka, kb, al = mirror_pairs(self.fs, r, self.n_fft)
-            self.cands.append({"rate": r, "ka": ka, "kb": kb, "alpha": al,
-                               "S": np.zeros((info.channels, ka.size), dtype=complex)})
+            cand = {"rate": r, "cycles": []}
+            for off in (0,) + tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)):
+                ka, kb, al = mirror_pairs(self.fs, r + off * self.bin_hz, self.n_fft, rate_for_band=r)
+                cand["cycles"].append({"offset": off, "ka": ka, "kb": kb, "alpha": al,
+                                       "slice": slice(pos, pos + ka.size)})
+                parts.append((ka, kb, al))
+                pos += ka.size
+            self.cands.append(cand)
+        cat = (lambda i: np.concatenate([p[i] for p in parts]) if parts else np.zeros(0, dtype=np.int64))
+        self.all_ka, self.all_kb, self.all_alpha = cat(0), cat(1), cat(2)
+        self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
+        self.alphas, self.alpha_index = np.unique(self.all_alpha, return_inverse=True)
 
     def process(self, block) -> None:
+        for _start, frame in self.pick_tonal.feed(block):
+            spec = np.fft.rfft(frame.T * self.win_tonal, axis=-1)
+            r = self._al.analyse_tonal_frame(np.sum(spec.real ** 2 + spec.imag ** 2, axis=0),
+                                             self.fs / self.n_tonal, self.fs)
+            if r is not None:
+                self.tonal_frames += 1
+                if r["assessable"] and r["found"] >= max(self._al.MIN_CLEAR_FOLDS,
+                                                         self._al.MIN_FOUND_FRACTION * r["clear"]) \
+                        and r["alias_power"] >= r["harmonic_power"] * 10 ** (self._al.ALIAS_SCORE_MIN_DB / 10):
+                    self.folded_frames += 1
         for start, frame in self.picker.feed(block):
             spec = np.fft.rfft(frame.T * self.window, axis=-1)
             self.power += spec.real ** 2 + spec.imag ** 2
             self.frames += 1
-            for c in self.cands:
-                if c["ka"].size == 0:
-                    continue
-                phase = np.exp(-2j * np.pi * (c["alpha"] * (start % self.n_fft)) / self.n_fft)
-                c["S"] += _gather(spec, c["ka"], self.n_fft) * _gather(spec, c["kb"], self.n_fft) * phase
+            if self.all_ka.size == 0:
+                continue
+            # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
+            full = np.concatenate([spec, np.conj(spec[:, (self.n_fft - 1) // 2:0:-1])], axis=1)
+            phase = np.exp(-2j * np.pi * (self.alphas * (start % self.n_fft)) / self.n_fft)[self.alpha_index]
+            prod = np.take(full, self.all_ka, axis=1)
+            prod *= np.take(full, self.all_kb, axis=1)
+            prod *= phase
+            self.S += prod
 
-    def _assess(self, c, ch: int, f0):
-        m = self.frames
-        rate = c["rate"]
-        base = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
-                "verdict": "untestable", "reason": None, "channel": self.info.channel_layout[ch]}
-        if m < MIN_FRAMES:
-            base["reason"] = f"too short: {m} analysis frames of {self.n_fft} samples, {MIN_FRAMES} needed"
-            return base
-        if c["ka"].size == 0:
-            base["reason"] = "no baseband/image bin pairs at this rate"
-            return base
+    def _line_map(self, ch: int) -> np.ndarray:
+        """Per one-sided bin: the refined frequency (Hz) of the spectral line whose main lobe
+        covers it, NaN elsewhere."""
+        if ch in self._lines:
+            return self._lines[ch]
         pw = self.power[ch]
-        lo = int(math.ceil(LOW_EDGE_HZ / self.bin_hz))
-        hi = int(math.ceil(rate / 2.0 / self.bin_hz)) - 1
-        base_power = float(pw[lo:hi + 1].sum())
-        if not base_power > 0.0:
-            base["reason"] = "no signal below the candidate's Nyquist frequency"
-            return base
-        if f0 is not None:
-            k = locked_order(f0, rate, self.fs, tolerance_hz=max(0.05, 1.0 / max(self.span_s, 1e-9)))
-            if k is not None:
-                base["reason"] = (f"periodic material (fundamental {f0:.3f} Hz) whose {k}th multiple "
-                                  f"meets {rate:.0f} Hz modulo the sampling rate: its partials pair up "
-                                  "like images")
-                return base
+        out = np.full(pw.size, np.nan)
+        for k in spectral_lines(pw):
+            f = refine_peak(pw, int(k)) * self.bin_hz
+            lo, hi = max(0, k - 2), min(pw.size, k + 3)
+            seg = out[lo:hi]
+            seg[np.isnan(seg)] = f
+        self._lines[ch] = out
+        return out
+
+    def _stats(self, c, ch: int):
+        """Pooled statistics of one cycle frequency on one channel:
+        ``(z_weighted, z_unweighted, coherent_power, coherence)``, or None without pairs."""
+        if c["ka"].size == 0:
+            return None
+        pw = self.power[ch]
         ka, kb = c["ka"], c["kb"]
-        fa = np.minimum(ka, self.n_fft - ka)
-        fb = np.minimum(kb, self.n_fft - kb)
-        p1, p2 = pw[fa], pw[fb]
-        tiny = 1e-300
-        g2 = np.abs(c["S"][ch]) ** 2 / np.maximum(p1 * p2, tiny)
-        g2 = np.minimum(g2, 1.0)
+        ia, ib = np.minimum(ka, self.n_fft - ka), np.minimum(kb, self.n_fft - kb)
+        p1, p2 = pw[ia], pw[ib]
+        g2 = np.minimum(np.abs(self.S[ch, c["slice"]]) ** 2 / np.maximum(p1 * p2, 1e-300), 1.0)
         w = np.minimum(p1, p2)
+        lines = self._line_map(ch)
+        la = np.where(ka > self.n_fft // 2, -lines[ia], lines[ia])
+        lb = np.where(kb > self.n_fft // 2, -lines[ib], lines[ib])
+        delta = np.mod(la + lb - c["alpha"] * self.bin_hz + self.fs / 2.0, self.fs) - self.fs / 2.0
+        keep = ~(np.abs(delta) > LINE_PAIR_TOLERANCE_HZ)  # NaN (not two lines) is kept
+        if not keep.all():
+            g2, w, p1, p2 = g2[keep], w[keep], p1[keep], p2[keep]
+            if g2.size == 0:
+                return None
         wsum = float(w.sum())
         if not wsum > 0.0:
-            base["reason"] = "no signal at the mirror frequencies"
-            return base
+            return None
         b0 = min(self.null_bias, 0.999)
         m_eff = 1.0 / b0
         v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
@@ -412,23 +473,77 @@ class ImagingAnalyzer(Analyzer):
         sd = math.sqrt(NULL_VARIANCE_INFLATION * v0 * float(np.sum(w * w)))
         z_w = t / sd if sd > 0 else 0.0
         z_u = float(np.sum(g2 - b0)) / math.sqrt(NULL_VARIANCE_INFLATION * v0 * g2.size)
-        z = max(z_w, z_u)
         coh = (float(np.sum(g2 * w)) / wsum - b0) / (1.0 - b0)
-        base["coherence"] = round(min(1.0, max(0.0, coh)), 4)
+        # where images fall on programme content, the pairs with two strong members carry most
+        # of the weight and most of the noise; the pairs whose weaker member is at least
+        # ASYMMETRY_DB below the stronger one carry the image itself
+        asym = w * 10 ** (ASYMMETRY_DB / 10) <= np.maximum(p1, p2)
+        wa = w[asym]
+        t_a = float(np.sum((g2[asym] - b0) * wa))
+        sd_a = math.sqrt(NULL_VARIANCE_INFLATION * v0 * float(np.sum(wa * wa)))
+        z_a = t_a / sd_a if sd_a > 0 else 0.0
+        # and pairs that are individually significant (false inclusion PAIR_P each) give a
+        # lower bound of the coherent power that does not depend on the weighting
+        x_q = 1.0 - PAIR_P ** (1.0 / max(m_eff - 1.0, 1.0))
+        sig = g2 > x_q
+        t_s = float(np.sum(g2[sig] * w[sig])) if int(sig.sum()) >= MIN_SIGNIFICANT_PAIRS else 0.0
+        return z_w, z_u, t, min(1.0, max(0.0, coh)), t_a, z_a, t_s
+
+    def _assess(self, cand, ch: int, f0):
+        m = self.frames
+        rate = cand["rate"]
+        base = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
+                "verdict": "untestable", "reason": None, "channel": self.info.channel_layout[ch]}
+        if m < MIN_FRAMES:
+            base["reason"] = f"too short: {m} analysis frames of {self.n_fft} samples, {MIN_FRAMES} needed"
+            return base
+        pw = self.power[ch]
+        lo = int(math.ceil(LOW_EDGE_HZ / self.bin_hz))
+        hi = int(math.ceil(rate / 2.0 / self.bin_hz)) - 1
+        base_power = float(pw[lo:hi + 1].sum())
+        if not base_power > 0.0:
+            base["reason"] = "no signal below the candidate's Nyquist frequency"
+            return base
+        if self.folded_frames and self.folded_frames >= 0.5 * self.tonal_frames:
+            base["reason"] = ("periodic material with folded partials: it is cyclostationary at "
+                              "nearly every cycle frequency, so images cannot be told from it")
+            return base
+        if f0 is not None:
+            k = locked_order(f0, rate, self.fs, tolerance_hz=max(0.05, 1.0 / max(self.span_s, 1e-9)))
+            if k is not None:
+                base["reason"] = (f"periodic material (fundamental {f0:.3f} Hz) whose {k}th multiple "
+                                  f"meets {rate:.0f} Hz modulo the sampling rate: its partials pair up "
+                                  "like images")
+                return base
+        main = self._stats(cand["cycles"][0], ch)
+        if main is None:
+            base["reason"] = "no signal at the mirror frequencies"
+            return base
+        z_w, z_u, t, coh, t_a, z_a, t_s = main
+        z = max(z_w, z_u)
+        base["coherence"] = round(coh, 4)
         base["z_score"] = round(z, 2)
-        if z >= Z_SIGNIFICANT and t > 0:
-            level = linear_to_db10(t / base_power)
-            base["image_level_db"] = None if level is None else round(level, 2)
-            if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
-                base["verdict"] = "defect"
-                base["reason"] = (f"mirror images of the content below {rate / 2000:.2f} kHz at "
-                                  f"{level:.1f} dB: upsampled from {rate / 1000:g} kHz without a proper filter")
-            else:
-                base["verdict"] = "trace"
-                base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
-                                  f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
-        else:
+        controls = [self._stats(c, ch) for c in cand["cycles"][1:]]
+        z_ctrl = max([max(c[0], c[1]) for c in controls if c is not None], default=0.0)
+        if z < Z_SIGNIFICANT:
             base["verdict"] = "none"
+            return base
+        if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * z):
+            base["reason"] = ("the material is coherent at neighbouring cycle frequencies too (z "
+                              f"{z_ctrl:.0f} against {z:.0f}): periodic or strongly modulated content, "
+                              "not an upsampler's images")
+            return base
+        estimates = [t_s] + ([t] if z_w >= Z_LEVEL else []) + ([t_a] if z_a >= Z_LEVEL else [])
+        level = linear_to_db10(max(estimates) / base_power)
+        base["image_level_db"] = None if level is None else round(level, 2)
+        if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
+            base["verdict"] = "defect"
+            base["reason"] = (f"mirror images of the content below {rate / 2000:.2f} kHz at "
+                              f"{level:.1f} dB: upsampled from {rate / 1000:g} kHz without a proper filter")
+        else:
+            base["verdict"] = "trace"
+            base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
+                              f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
         return base
 
     def finish(self) -> AnalyzerResult:
@@ -436,10 +551,10 @@ class ImagingAnalyzer(Analyzer):
         out = []
         f0s = [periodic_fundamental(self.power[ch], self.bin_hz) if self.frames >= MIN_FRAMES else None
                for ch in range(self.info.channels)]
-        for c in self.cands:
+        for cand in self.cands:
             best = None
             for ch in range(self.info.channels):
-                a = self._assess(c, ch, f0s[ch])
+                a = self._assess(cand, ch, f0s[ch])
                 key = (rank[a["verdict"]], a["z_score"] if a["z_score"] is not None else -1e9)
                 if best is None or key > best[0]:
                     best = (key, a)
@@ -448,9 +563,7 @@ class ImagingAnalyzer(Analyzer):
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
         settings = {"frame_samples": self.n_fft, "bin_hz": self.bin_hz, "frames_analysed": self.frames,
                     "max_frames": self.max_frames, "window": "hann",
+                    "null_coherence_bias": round(self.null_bias, 5),
                     "z_significant": Z_SIGNIFICANT, "defect_image_level_db": DEFECT_IMAGE_LEVEL_DB}
         return AnalyzerResult(measurements={"imaging_detected": detected, "imaging": out}, settings=settings)
 
-    @classmethod
-    def applies_to(cls, info, options) -> bool:
-        return any(r < info.sample_rate_hz for r in CANDIDATE_RATES_HZ)

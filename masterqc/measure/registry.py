@@ -13,4 +13,6 @@ def analyzer_classes():
     classes += [clipping.ClippingAnalyzer, dcoffset.DcOffsetAnalyzer, silence.SilenceAnalyzer, nonfinite.NonFiniteAnalyzer, bitdepth.BitDepthAnalyzer, channels.ChannelRelationAnalyzer]
     from masterqc.measure import spectral
     classes += [spectral.SamplingSpectrumAnalyzer]
+    from masterqc.measure import aliasing, imaging
+    classes += [imaging.ImagingAnalyzer, aliasing.AliasingAnalyzer]
     return classes
