@@ -85,6 +85,7 @@ def test_phase_correlation_over_time(block):
     assert m["phase_correlation_min"] == pytest.approx(-1.0, abs=1e-9)
     assert m["phase_correlation_below_share"] == pytest.approx(5 / 30, abs=1e-12)
     assert m["phase_correlation_below_s"] == pytest.approx(0.5, abs=1e-12)
+    assert m["phase_correlation_below_where_s"] == [[1.0, 1.5]]
     assert m["channel_correlation_per_pair"][0] == pytest.approx(2 / 3, abs=1e-3)
     assert m["inverted_polarity"] is False
     series = res.series["phase_correlation"]

@@ -133,6 +133,7 @@ def test_inverted_and_unbalanced_pair(tmp_path):
     assert f["integrity.inverted_polarity"].status == "fail" and "(L/R)" in f["integrity.inverted_polarity"].message
     assert f["integrity.phase_correlation"].status == "fail" and f["integrity.phase_correlation"].measured == -1.0
     assert f["integrity.phase_correlation_below"].measured == 100.0
+    assert f["integrity.phase_correlation_below"].where_s == [[0.0, 2.0]]
     bal = f["integrity.level_balance"]
     assert bal.status == "fail" and bal.measured == 6.0 and "L is louder" in bal.message
     assert f["integrity.over_full_scale_samples"].status == "pass"

@@ -7,7 +7,7 @@ the first positions whatever else the spec asks.
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_allowed, check_limits, skipped
+from masterqc.judge.core import Finding, check_allowed, check_limits, limit_text, skipped
 
 _MISSING = "the measurement {key} is missing from the result"
 
@@ -55,7 +55,7 @@ def _dc(section, m: dict) -> Finding:
     if value is None and per is not None and all(v is None for v in per):
         # every channel has a mean of exactly zero: no DC at all, which meets any ceiling
         return Finding(check="integrity.dc_offset", status="pass", severity=section.dc_offset.severity,
-                       limit=f"<= {section.dc_offset.max_dbfs:.1f} dBFS", unit="dBFS",
+                       limit=limit_text(section.dc_offset), unit="dBFS",
                        message="DC offset: every channel's mean is exactly zero")
     return check_limits("integrity.dc_offset", "DC offset (worst channel)", value, section.dc_offset,
                         missing_reason=_MISSING.format(key="dc_offset_dbfs"))
@@ -159,6 +159,7 @@ def judge(section, result: dict) -> list[Finding]:
         share = m.get("phase_correlation_below_share")
         out.append(check_limits("integrity.phase_correlation_below", "share of time below the phase threshold",
                                 None if share is None else 100.0 * share, s.phase_correlation_below,
+                                where_s=m.get("phase_correlation_below_where_s") or [],
                                 missing_reason=_why(m, "phase_correlation_below_share",
                                                     "no channel pair, or no window above the level floor")))
     if s.level_balance is not None:

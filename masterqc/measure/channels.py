@@ -15,8 +15,9 @@ pairs its two channels.
   windows aligned to the file start (a final partial window of at least 50 ms
   counts).  Windows where either channel's RMS is below
   :data:`CORRELATION_FLOOR_DBFS` have no defined correlation and are left out.
-  Reported: the minimum, and the share and duration of windows below
-  ``phase_correlation_threshold``.
+  Reported: the minimum, and the share, duration and times of windows below
+  ``phase_correlation_threshold`` (in the first pair for share and duration,
+  in any pair for the times).
 * Level balance: ``10*log10(zL / zR)`` in LU, ``z`` the mean square of the
   K-weighted channel over the whole file (ITU-R BS.1770-5 K-weighting,
   ungated); positive means the left channel of the pair is louder.
@@ -29,10 +30,10 @@ import math
 import numpy as np
 from scipy import signal
 
-from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult,
-                                   array_of)
+from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES, Analyzer,
+                                   AnalyzerResult, array_of)
 from masterqc.measure.kweight import kweighting_sos
-from masterqc.measure.runs import column_sum
+from masterqc.measure.runs import MAX_WHERE, column_sum
 
 #: left/right label pairs, in the order they are reported (the first present one is primary)
 PAIR_LABELS = [("L", "R"), ("Ls", "Rs"), ("Lrs", "Rrs"), ("Lss", "Rss"), ("Lc", "Rc"),
@@ -84,6 +85,7 @@ class ChannelRelationAnalyzer(Analyzer):
         "phase_correlation_below_share": NUMBER_OR_NULL,
         "phase_correlation_below_s": NUMBER_OR_NULL,
         "phase_correlation_below_share_per_pair": array_of(NUMBER_OR_NULL),
+        "phase_correlation_below_where_s": TIME_RANGES,
         "level_balance_lu": NUMBER_OR_NULL,
         "level_balance_lu_per_pair": array_of(NUMBER_OR_NULL),
     }
@@ -125,6 +127,7 @@ class ChannelRelationAnalyzer(Analyzer):
         self.bucket = max(1, -(-windows_total // SERIES_POINTS))
         self.series = np.full(-(-windows_total // self.bucket) + 1, np.inf)
         self.window_index = 0
+        self.below_where = []  # [start_frame, end_frame] of windows below the threshold in any pair
         # K-weighted energy of the paired channels
         self.kchannels = sorted({c for p in self.pairs for c in p})
         try:
@@ -153,6 +156,18 @@ class ChannelRelationAnalyzer(Analyzer):
             idx = (self.window_index + np.arange(len(frames))) // self.bucket
             idx = np.minimum(idx, len(self.series) - 1)
             np.minimum.at(self.series, idx, prim)
+        low_any = np.flatnonzero(low.any(axis=1))
+        if low_any.size and len(self.below_where) <= MAX_WHERE:
+            w = self.window
+            for i in low_any.tolist():
+                start = (self.window_index + i) * w
+                end = start + int(frames[i])
+                if self.below_where and self.below_where[-1][1] == start:
+                    self.below_where[-1][1] = end
+                elif len(self.below_where) < MAX_WHERE:
+                    self.below_where.append([start, end])
+                else:
+                    break
         self.window_index += len(frames)
 
     def process(self, block):
@@ -236,6 +251,7 @@ class ChannelRelationAnalyzer(Analyzer):
             "phase_correlation_below_s": (float(self.below_frames[0]) / fs
                                           if self.pairs and self.valid[0] else None),
             "phase_correlation_below_share_per_pair": share_per,
+            "phase_correlation_below_where_s": [[a / fs, b / fs] for a, b in self.below_where],
             "level_balance_lu": max(known_bal, key=abs) if known_bal else None,
             "level_balance_lu_per_pair": balance,
         }
