@@ -35,13 +35,25 @@ sampling:
 """
 
 
-def tone_frames(seconds: float = 8.0, level_dbfs: float = -20.0, freq_hz: float = 1000.0) -> np.ndarray:
-    """Stereo 24-bit integer codes of a sine at ``level_dbfs`` peak, in phase on both channels."""
+#: a 30 ms digital-silence dropout in both channels of the tone, from this instant (s)
+DROPOUT_AT_S = 3.0
+DROPOUT_S = 0.030
+
+
+def tone_frames(seconds: float = 8.0, level_dbfs: float = -20.0, freq_hz: float = 1000.0,
+                dropout: bool = True) -> np.ndarray:
+    """Stereo 24-bit integer codes of a sine at ``level_dbfs`` peak, in phase on both channels.
+
+    With ``dropout``, samples [DROPOUT_AT_S, DROPOUT_AT_S + DROPOUT_S) are digital silence.
+    """
     n = int(round(seconds * RATE_HZ))
     t = np.arange(n) / RATE_HZ
     amp = 10.0 ** (level_dbfs / 20.0)
     x = amp * np.sin(2.0 * np.pi * freq_hz * t)
     codes = np.round(x * (2 ** 23 - 1)).astype(np.int64)
+    if dropout:
+        a = int(round(DROPOUT_AT_S * RATE_HZ))
+        codes[a:a + int(round(DROPOUT_S * RATE_HZ))] = 0
     return np.stack([codes, codes], axis=1)
 
 

@@ -164,6 +164,20 @@ def test_conversion_table_and_target_nyquist_line(tree, judged):
     assert "44.1 kHz target: Nyquist 22.05 kHz" in legend and "Nyquist 24 kHz" in legend and "20 kHz" in legend
 
 
+def test_dropout_is_located_in_the_events_section(tree, judged):
+    """The 30 ms silence written at 3.000 s shows up as an event at the file's timecode 01:00:03:00."""
+    m = judged[2]["measurements"]
+    assert m["dropout_count"] >= 1  # the analyzer found it (precondition of what the page shows)
+    section = [s for s in tree.iter("section") if s.get("id") == "events"][0]
+    rows = [[_text(td) for td in tr.findall("td")] for tr in section.iter("tr") if tr.findall("td")]
+    dropouts = [r for r in rows if r[0] == "Dropout" and len(r) == 5]
+    assert {r[1] for r in dropouts} == {"L", "R"}
+    # 3.000 s at 25 fps after a 01:00:00:00 start (bext TimeReference)
+    assert all(r[2] == "01:00:03:00 (0:03.00)" for r in dropouts), dropouts
+    lanes = [el for el in section.iter(f"{SVG}svg") if el.get("aria-label") == "Event timeline"]
+    assert lanes and "Dropout (1)" in " ".join(t for el in lanes[0].iter(f"{SVG}text") for t in el.itertext())
+
+
 def test_missing_data_says_not_measured_and_never_raises(judged):
     result = copy.deepcopy(judged[2])
     result["series"] = {}
@@ -242,6 +256,7 @@ def test_css_is_safe_to_embed():
 def test_labels_and_units_from_key_names():
     assert fmt.unit_of_key("true_peak_dbtp_per_channel") == ("dBTP", 1)
     assert fmt.unit_of_key("dropout_longest_s") == ("s", 3)
+    assert fmt.value_for_key("bandwidth_edge_slope_db_per_khz", 8.6) == "8.60\u00a0dB/kHz"
     assert fmt.label_of_key("max_short_term_lufs") == "Max short-term loudness"
     assert fmt.label_of_key("dc_offset_dbfs", with_unit_text=True) == "DC offset (dBFS)"
     assert fmt.value_for_key("sample_peak_dbfs_per_channel", [-1.04, -0.96]) == "-1.0, -1.0\u00a0dBFS"

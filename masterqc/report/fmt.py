@@ -59,6 +59,11 @@ def unit_of_key(key: str) -> tuple[str, int | None]:
         if k.endswith(tail):
             k = k[: -len(tail)]
     for suffix, unit, digits in UNIT_SUFFIXES:
+        if k.endswith("_per" + suffix):  # a rate: dB per kHz, samples per s ...
+            head, _u = unit_of_key(k[: -len("_per" + suffix)])
+            if head:
+                return f"{head}/{unit}", 2
+            continue
         if k.endswith(suffix):
             return unit, digits
     return "", None
@@ -94,7 +99,9 @@ def label_of_key(key: str, with_unit_text: bool = False) -> str:
         if k.endswith(tail):
             k = k[: -len(tail)]
     parts = [p for p in k.split("_") if p]
-    if unit and parts and _WORDS.get(parts[-1].lower(), parts[-1]) == unit:
+    if unit and "/" in unit and len(parts) >= 3 and parts[-2] == "per":
+        parts = parts[:-3]
+    elif unit and parts and _WORDS.get(parts[-1].lower(), parts[-1]) == unit:
         parts = parts[:-1]
     words = [_WORDS.get(p.lower(), p) for p in parts]
     if words:

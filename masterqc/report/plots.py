@@ -248,11 +248,11 @@ def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=
         return _to_svg(fig, "loudness", "Loudness over time")
 
 
-def _legend(ax) -> None:
-    """One row of legend entries above the axes (never clipped at the right edge)."""
+def _legend(ax, ncol: int = 4) -> None:
+    """Legend entries in rows above the axes (never clipped at the right edge)."""
     handles, texts = ax.get_legend_handles_labels()
     if handles:
-        ax.legend(handles, texts, loc="lower left", bbox_to_anchor=(0.0, 1.01), ncol=min(len(handles), 4),
+        ax.legend(handles, texts, loc="lower left", bbox_to_anchor=(0.0, 1.01), ncol=min(len(handles), ncol),
                   borderaxespad=0.2, handlelength=2.6, columnspacing=1.6, fontsize=7)
 
 
@@ -330,7 +330,7 @@ def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(
         ax.set_xlabel("frequency (Hz)")
         ax.set_ylabel("level (dB)")
         ax.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
-        _legend(ax)
+        _legend(ax, ncol=6)
         return _to_svg(fig, "spectrum", "Long-term spectrum per channel")
 
 

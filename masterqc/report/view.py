@@ -623,6 +623,18 @@ def _conversion_targets(result: dict) -> list[float]:
     return sorted(set(targets))
 
 
+#: measurement keys shown beside the long-term spectrum, in this order of prefixes
+_SPECTRAL_PREFIXES = ("bandwidth_note", "effective_bandwidth", "bandwidth", "band_limit", "upsampled",
+                      "imaging", "imaged", "aliasing", "aliased", "ultrasonic")
+
+
+def _spectral_order(key: str):
+    for i, p in enumerate(_SPECTRAL_PREFIXES):
+        if key.startswith(p):
+            return (i, key)
+    return (len(_SPECTRAL_PREFIXES), key)
+
+
 def spectrum_view(result: dict) -> dict:
     fmt_ = result.get("format") or {}
     rate = int(fmt_.get("sample_rate_hz") or 0)
@@ -632,13 +644,17 @@ def spectrum_view(result: dict) -> dict:
     per = _first(series, ("ltas_db_per_channel",)) or _first(m, ("ltas_db_per_channel",))
     if isinstance(per, dict):
         per = _first(per, ("values", "db"))
-    rows = _rows_for(m, sorted(k for k in m if k.startswith("ultrasonic") and not isinstance(m[k], (list, dict))))
+    rows = _rows_for(m, [k for k in sorted(m, key=_spectral_order) if k.startswith(_SPECTRAL_PREFIXES)
+                         and not isinstance(m[k], (list, dict))])
     if not (_numbers(freqs) and _nested_numbers(per)) or rate <= 0:
         return {"svg": None, "rows": rows, "present": bool(rows),
                 "note": _not_measured(["ltas_hz", "ltas_db_per_channel"])}
     ch = [fmt.clean_text(x) for x in (fmt_.get("channel_layout") or [])]
     names = ch if len(ch) == len(per) else [f"ch{i + 1}" for i in range(len(per))]
     lines = _reference_lines(result, rate)
+    edge = m.get("effective_bandwidth_hz")
+    if _is_number(edge) and 0 < edge < rate / 2.0 * 0.995:
+        lines.append((float(edge), f"content edge {edge / 1000:.2f} kHz (measured)"))
     svg = plots.spectrum_plot(freqs, per, names, rate, lines)
     note = "Vertical lines: " + "; ".join(text for _f, text in lines) + "."
     if any(v == "n/a" for _l, v in rows):
