@@ -97,7 +97,15 @@ def _summary_line(path, result: dict, out_dir: str) -> str:
     if result["verdict"] in ("fail", "error"):
         first = next(f for f in result["findings"] if f["status"] in ("fail", "error"))
         line += f": {first['message']}"
-    return line + (f" -> {outs}" if outs else "")
+    line += f" -> {outs}" if outs else ""
+    n = result.get("normalisation") or {}
+    if n.get("gain_db") is not None:
+        line += f"\n      normalised to {n['target_lufs']:.1f} LUFS: gain {n['gain_db']:+.1f} dB"
+        if n.get("true_peak_after_gain_dbtp") is not None:
+            line += f", true peak {n['true_peak_after_gain_dbtp']:.1f} dBTP"
+        if n.get("limiting_needed_db") is not None:
+            line += f", peak limiting needed {n['limiting_needed_db']:.1f} dB (ceiling {n['ceiling_dbtp']:.1f} dBTP)"
+    return line
 
 
 # ---------------------------------------------------------------- spec

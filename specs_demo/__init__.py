@@ -1,0 +1,1 @@
+"""The invented demo delivery specs (YAML), shipped with the package for ``masterqc demo``."""
