@@ -36,7 +36,7 @@ STATUS_WORDS = {
 #: status -> colour of its icon (the CSS uses the same values for the words; icons carry the
 #: colour as an attribute because not every renderer resolves ``currentColor`` inside inline SVG)
 STATUS_COLOURS = {
-    "pass": "#007a5a", "warn": "#b37400", "fail": "#b84a00", "error": "#9c4a7a",
+    "pass": "#007a5a", "warn": "#d99500", "fail": "#b84a00", "error": "#9c4a7a",
     "skipped": "#6e6e6e", "unjudged": "#0061a0",
 }
 
@@ -283,9 +283,11 @@ def verdict_view(result: dict, findings: list[dict]) -> dict:
     if judged:
         summary += "."
     fixes = [f for f in findings if f["status"] in ("error", "fail", "warn")]
+    fixes_title = "What to fix" if any(f["status"] in ("error", "fail") for f in fixes) else "What to look at"
     # printed in every PDF page's head; built from fixed words only (it goes into CSS)
     page_mark = f"verdict: {word}" + (f" ({_plural(counts['fail'], 'fail')})" if status == "fail" else "")
     return {"status": status, "word": word, "shape": shape, "summary": summary, "page_mark": page_mark,
+            "fixes_title": fixes_title,
             "fixes": fixes[:8], "more_fixes": max(len(fixes) - 8, 0), "counts": counts,
             "judged": judged}
 
