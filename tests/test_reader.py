@@ -169,3 +169,20 @@ def test_bad_inputs_name_file_and_cause(tmp_path):
 
     with pytest.raises(AudioReadError, match="is a directory"):
         open_stream(tmp_path)
+
+
+@pytest.mark.parametrize("channels, labels", [
+    (4, ("L", "R", "Ls", "Rs")),
+    (5, ("L", "R", "C", "Ls", "Rs")),
+    (6, ("L", "R", "C", "LFE", "Ls", "Rs")),
+    (8, ("L", "R", "C", "LFE", "Lrs", "Rrs", "Ls", "Rs")),
+])
+def test_flac_channel_order_without_mask(tmp_path, channels, labels):
+    # FLAC format specification, channel assignment for 3..8 channels (from memory).
+    path = tmp_path / f"f{channels}.flac"
+    sf.write(path, np.zeros((100, channels)), 48000, subtype="PCM_16", format="FLAC")
+    with open_stream(path) as s:
+        if s.info.layout_source == "channel_mask":
+            pytest.skip("libsndfile wrote a channel-mask comment")
+        assert s.info.channel_layout == labels
+        assert s.info.layout_source == "conventional"

@@ -46,6 +46,12 @@ CONVENTIONAL = {
     8: ["L", "R", "C", "LFE", "Ls", "Rs", "Lrs", "Rrs"],
 }
 
+# FLAC defines its own channel order for 3..8 channels without a mask (FLAC
+# format specification, "channel assignment"; from memory): 3 FL FR FC; 4 FL FR
+# BL BR; 5 FL FR FC BL BR; 6 FL FR FC LFE BL BR; 7 FL FR FC LFE BC SL SR;
+# 8 FL FR FC LFE BL BR SL SR.  As WAVE_FORMAT_EXTENSIBLE masks:
+FLAC_DEFAULT_MASKS = {3: 0x7, 4: 0x33, 5: 0x37, 6: 0x3F, 7: 0x70F, 8: 0x63F}
+
 # Rear surrounds take the label "Ls"/"Rs" when the mask has back speakers but
 # no side speakers (the common 5.1 "back" mask 0x3F): the loudspeakers then sit
 # at the 5.1 surround positions of ITU-R BS.775 (+-110 deg).

@@ -86,7 +86,7 @@ class StreamInfo:
         }
 
 
-def _resolve_layout(channels: int, mask: int | None, override) -> tuple[list[str], str]:
+def _resolve_layout(channels: int, mask: int | None, override, container: str = "") -> tuple[list[str], str]:
     if override:
         labels = list(override)
         if len(labels) != channels:
@@ -97,6 +97,8 @@ def _resolve_layout(channels: int, mask: int | None, override) -> tuple[list[str
         labels = _layout.labels_from_mask(mask, channels)
         if labels is not None:
             return labels, "channel_mask"
+    if container == "flac" and channels in _layout.FLAC_DEFAULT_MASKS:
+        return _layout.labels_from_mask(_layout.FLAC_DEFAULT_MASKS[channels], channels), "conventional"
     if channels in _layout.CONVENTIONAL:
         return list(_layout.CONVENTIONAL[channels]), "conventional"
     return _layout.unknown_labels(channels), "unknown"
@@ -139,7 +141,8 @@ class AudioStream:
             if container == "aiff" and self.container.kind == "aifc":
                 container = "aifc"
             try:
-                labels, source = _resolve_layout(self._sf.channels, self.container.channel_mask, channel_layout)
+                labels, source = _resolve_layout(self._sf.channels, self.container.channel_mask, channel_layout,
+                                                container)
             except ValueError as exc:
                 raise AudioReadError(self.path, str(exc)) from None
             self.info = StreamInfo(
