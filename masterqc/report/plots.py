@@ -361,10 +361,17 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         vmin = max(float(finite.min()), vmax - 100.0) if finite.size else vmax - 100.0
         if floor_db is not None:
             vmin = max(vmin, floor_db)
-        img = ax.pcolormesh(t, f, z.T, shading="nearest", cmap="cividis", vmin=vmin, vmax=vmax,
-                            rasterized=True)
         half_dt = 0.5 * (t[1] - t[0]) if len(t) > 1 else 0.5 * max(duration_s, 1e-3)
         extent = (float(t[0]) - half_dt if len(t) else 0.0, float(t[-1]) + half_dt if len(t) else duration_s)
+        if _evenly_spaced(f):
+            # one image pixel per cell, embedded at the data's own resolution (small, exact cells)
+            half_df = 0.5 * (f[1] - f[0]) if len(f) > 1 else 0.5 * sample_rate_hz / 2.0
+            img = ax.imshow(z.T, origin="lower", aspect="auto", cmap="cividis", vmin=vmin, vmax=vmax,
+                            interpolation="none",
+                            extent=(extent[0], extent[1], max(float(f[0]) - half_df, 0.0), float(f[-1]) + half_df))
+        else:
+            img = ax.pcolormesh(t, f, z.T, shading="nearest", cmap="cividis", vmin=vmin, vmax=vmax,
+                                rasterized=True)
         for freq, text in lines:
             ax.axhline(freq, color="white", lw=0.9, ls=(0, (4, 2)))
             ax.text(extent[0], freq, f" {text} ", va="bottom", ha="left", fontsize=6.3, color=BLACK,
@@ -380,6 +387,17 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         bar.set_label("level (dB)", fontsize=6.5)
         bar.ax.tick_params(labelsize=6)
         return _to_svg(fig, "spectrogram", "Spectrogram", raster_dpi=110)
+
+
+def _evenly_spaced(f: np.ndarray) -> bool:
+    """Whether cell centres ``f`` lie within a quarter step of an even grid (so one image row per cell is true)."""
+    if len(f) < 2:
+        return True
+    step = (f[-1] - f[0]) / (len(f) - 1)
+    if step <= 0:
+        return False
+    grid = f[0] + step * np.arange(len(f))
+    return bool(np.max(np.abs(f - grid)) <= 0.25 * step)
 
 
 #: marker row kind -> (colour, hatch)

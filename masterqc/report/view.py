@@ -659,8 +659,11 @@ def spectrum_view(result: dict) -> dict:
         lines.append((float(edge), f"content edge {edge / 1000:.2f} kHz (measured)"))
     svg = plots.spectrum_plot(freqs, per, names, rate, lines)
     note = "Vertical lines: " + "; ".join(text for _f, text in lines) + "."
-    if any(v == "n/a" for _l, v in rows):
-        note += " Ultrasonic figures marked n/a do not exist for this file (no band above the ultrasonic edge)."
+    missing = [label for label, v in rows if v == "n/a"]
+    rows = [(label, v) for label, v in rows if v != "n/a"]
+    if missing:
+        note += (" Not existing for this file (null in the result): " + ", ".join(missing).lower()
+                 + ". Ultrasonic figures exist only where the file has a band above the ultrasonic edge.")
     return {"svg": svg, "rows": rows, "present": True, "note": note}
 
 
