@@ -186,24 +186,14 @@ def _time_axis(ax, axis: TimeAxis, duration_s: float) -> None:
     ax.set_xlabel(axis.label)
 
 
-def _spans(ax, ranges, color, hatch=None, alpha=0.35, label=None):
-    first = True
-    for a, b in ranges:
-        width = max(b - a, 0.0)
-        ax.axvspan(a, a + width if width > 0 else a, color=color, alpha=alpha, lw=0.8 if width == 0 else 0,
-                   hatch=hatch, label=label if first else None)
-        if width == 0:
-            ax.axvline(a, color=color, lw=0.8, alpha=0.9)
-        first = False
-
-
 def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=None,
-                  integrated_lufs: float | None = None, target_band=None, target_lufs=None) -> str:
+                  integrated_lufs: float | None = None, target_band=None) -> str:
     """Loudness over time.
 
     ``momentary``/``short_term``: ``(times_s, values_lufs)`` or None;
     ``integrated_lufs``: horizontal line; ``target_band``: ``(low_lufs, high_lufs)``
-    of the spec's tolerance, drawn as a hatched band, ``target_lufs`` its centre.
+    of the spec's integrated-loudness requirement, drawn as a hatched band, or
+    as one dotted limit line when a side is ``None``.
     """
     with matplotlib.rc_context(STYLE):
         fig = _figure(2.5)
