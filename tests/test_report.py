@@ -198,6 +198,24 @@ def test_missing_data_says_not_measured_and_never_raises(judged):
     assert not [el for el in tree.iter(f"{SVG}svg") if el.get("class") == "plot"]
 
 
+def test_render_survives_missing_or_odd_keys(judged):
+    """Every top-level key removed in turn, every measurement null, every series of the wrong type."""
+    base = judged[2]
+    for key in list(base):
+        result = {k: v for k, v in copy.deepcopy(base).items() if k != key}
+        ET.fromstring(render_html(result).split("\n", 1)[1])  # renders, and stays well-formed
+    nulls = copy.deepcopy(base)
+    nulls["measurements"] = {k: None for k in nulls["measurements"]}
+    page = render_html(nulls)
+    assert "<tr><th scope=\"row\">Integrated loudness</th><td>n/a</td></tr>" in page  # null shown as n/a
+    odd = copy.deepcopy(base)
+    odd["series"] = {k: "not a series" for k in odd["series"]}
+    odd["settings"] = {"loudness": [1, 2, 3]}
+    odd["findings"] = [{"check": "x.y", "status": "bogus", "message": 5, "where_s": "nowhere"}, "not a dict"]
+    page = render_html(odd)
+    assert "ERROR" in page  # an unknown status is shown as an error, never hidden
+
+
 def test_error_result_of_an_unreadable_master_renders(tmp_path):
     from masterqc.pipeline import check_file
     from masterqc.spec.loader import load_spec
