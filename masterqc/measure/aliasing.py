@@ -35,7 +35,7 @@ import math
 import numpy as np
 
 from masterqc.measure.base import BOOLEAN, BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult
-from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundamental, refine_peak
+from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundamental, refine_peaks
 
 #: long frames: 5 Hz bins (fs/5 samples)
 TONAL_BIN_HZ = 5.0
@@ -178,7 +178,7 @@ def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
     total = float(power.sum())
     if not total > 0 or power[lobe].sum() < MIN_TONAL_FRACTION * total:
         return None
-    freqs = np.array([refine_peak(power, int(k)) for k in lines]) * bin_hz
+    freqs = refine_peaks(power, lines) * bin_hz
     f0 = harmonic_fundamental(freqs, power[lines], min_f0_hz=MIN_F0_HZ, tolerance_hz=0.3 * bin_hz)
     if f0 is None:
         return None
@@ -200,26 +200,28 @@ def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
 
 
 def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: float):
-    """Partials of two short frames ``dt_s`` apart: ``(freq_hz, slope_hz_per_s, power)`` arrays
-    for every peak of frame a (at least :data:`TRACK_LINE_DB` above the local floor) matched
-    to the nearest peak of frame b within 4 bins."""
-    pa, pb = spec_a, spec_b
+    """Partials of two short frames ``dt_s`` apart in the upper half of the band (where a
+    fold at Nyquist shows): ``(freq_hz, slope_hz_per_s, power)`` arrays for every peak of
+    frame a (at least :data:`TRACK_LINE_DB` above the local floor) matched to the nearest
+    peak of frame b within 4 bins."""
+    lo = spec_a.size // 2 - 30
+    pa, pb = spec_a[lo:], spec_b[lo:]
     la = find_lines(pa, local_floor(pa) + 1e-300, TRACK_LINE_DB)
     lb = find_lines(pb, local_floor(pb) + 1e-300, TRACK_LINE_DB)
     if la.size == 0 or lb.size == 0:
         return np.zeros(0), np.zeros(0), np.zeros(0)
-    fa = np.array([refine_peak(pa, int(k)) for k in la])
-    fb = np.array([refine_peak(pb, int(k)) for k in lb])
+    fa = refine_peaks(pa, la)
+    fb = refine_peaks(pb, lb)
     j = np.searchsorted(fb, fa)
     cand = np.stack([np.clip(j - 1, 0, fb.size - 1), np.clip(j, 0, fb.size - 1)])
     d = np.abs(fb[cand] - fa[None, :])
     pick = cand[np.argmin(d, axis=0), np.arange(fa.size)]
     ok = np.abs(fb[pick] - fa) <= 4.0
-    # lines within 3 bins of DC or Nyquist interfere with their own mirror image in the
-    # DFT, which moves the interpolated peak from frame to frame: no slope there
+    # lines within 3 bins of Nyquist interfere with their own mirror image in the DFT,
+    # which moves the interpolated peak from frame to frame: no slope there
     edge = pa.size - 1
-    ok &= (fa > 3.0) & (fa < edge - 3.0)
-    f = fa[ok] * bin_hz
+    ok &= (fa > 30.0) & (fa < edge - 3.0)
+    f = (fa[ok] + lo) * bin_hz
     slope = (fb[pick][ok] - fa[ok]) * bin_hz / dt_s
     return f, slope, pa[la][ok]
 

@@ -97,7 +97,7 @@ DEFECT_IMAGE_LEVEL_DB = -45.0
 CONTROL_OFFSETS_BINS = (-5, 3)
 #: a control this significant (absolute, and relative to the candidate's z) makes the
 #: candidate untestable (own reasoning)
-CONTROL_Z_RELATIVE = 0.25
+CONTROL_Z_RELATIVE = 0.5
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
 FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
@@ -265,6 +265,23 @@ def refine_peak(power: np.ndarray, k: int) -> float:
     return k + 0.5 * (a - c) / den
 
 
+def refine_peaks(power: np.ndarray, ks) -> np.ndarray:
+    """Vectorised :func:`refine_peak` for an array of peak bins."""
+    k = np.asarray(ks, dtype=np.int64)
+    out = k.astype(float)
+    inner = (k > 0) & (k < len(power) - 1)
+    if not inner.any():
+        return out
+    ki = k[inner]
+    a = np.log(np.maximum(power[ki - 1], 1e-300))
+    b = np.log(np.maximum(power[ki], 1e-300))
+    c = np.log(np.maximum(power[ki + 1], 1e-300))
+    den = a - 2 * b + c
+    shift = np.where(den < 0, 0.5 * (a - c) / np.where(den < 0, den, -1.0), 0.0)
+    out[inner] = ki + shift
+    return out
+
+
 def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz: float = 3.0,
                          min_harmonics: int = 3, min_explained: float = 0.8, min_density: float = 0.3):
     """The fundamental of a harmonic series that explains the given spectral lines, or None.
@@ -332,7 +349,7 @@ def periodic_fundamental(power: np.ndarray, bin_hz: float):
         lobe[max(0, k - 2):k + 3] = True
     if power[lobe].sum() < 0.5 * power.sum():
         return None
-    freqs = np.array([refine_peak(power, int(k)) for k in lines]) * bin_hz
+    freqs = refine_peaks(power, lines) * bin_hz
     return harmonic_fundamental(freqs, power[lines])
 
 

@@ -1,0 +1,155 @@
+"""Aliasing (folded content) detector.
+
+Analytic reference: a sawtooth's harmonic k has amplitude proportional to 1/k (its
+Fourier series, 2/(pi k)).  Sampling it naively at fs keeps every harmonic, and the
+ones above Nyquist land at |k*f0 - m*fs|.  The alias-to-harmonic ratio measured over
+the fold positions the detector tests is therefore
+
+    sum over folds landing in a tested lobe of 1/k^2  /  sum over harmonics below Nyquist of 1/k^2
+
+where folds of different orders that land in the same lobe are added in power (their
+frequencies differ, so they do not add coherently over a frame).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from corpus_sampling import (additive_wave, analyse, drop_decimate, good_resample, naive_saw_sweep, naive_wave,
+                             sine_sweep, white)
+from masterqc.measure import aliasing as al
+from masterqc.measure.aliasing import AliasingAnalyzer
+from masterqc.measure.options import MeasureOptions
+
+
+def _run(x, fs, options=None):
+    return analyse(np.asarray(x).reshape(len(x), -1), fs, [AliasingAnalyzer], 24, options)
+
+
+def predicted_naive_saw_score_db(f0: float, fs: float) -> float:
+    """Alias-to-harmonic ratio of a naive sawtooth from its Fourier series (module docstring)."""
+    harmonics, folds, _orders = al.fold_plan(f0, fs, al.TONAL_BIN_HZ)
+    k = np.arange(1, int(200 * fs / f0))
+    pos = al.fold_frequency(k * f0, fs)
+    power = 1.0 / k ** 2
+    lobe = (al.LOBE_BINS + 0.5) * al.TONAL_BIN_HZ
+    near_fold = np.min(np.abs(pos[:, None] - folds[None, :]), axis=1) <= lobe
+    near_harm = np.min(np.abs(pos[:, None] - harmonics[None, :]), axis=1) <= lobe
+    return 10 * math.log10(power[near_fold].sum() / power[near_harm].sum())
+
+
+@pytest.mark.parametrize("fs", [44100, 48000, 96000])
+@pytest.mark.parametrize("f0", [435.2, 1204.9])
+def test_naive_sawtooth_score_follows_fourier_series(fs, f0):
+    m = _run(naive_wave("saw", f0, fs), fs)
+    assert m["aliasing_detected"] is True
+    assert m["aliasing_assessable"] is True
+    assert m["aliasing_score"] == pytest.approx(predicted_naive_saw_score_db(f0, fs), abs=0.5)
+
+
+def test_fourier_prediction_is_about_one_over_highest_harmonic():
+    """Sanity of the analytic formula itself: the first fold zone alone carries
+    sum_{K..2K} 1/k^2 ~ 1/(2K) against pi^2/6, i.e. about -10*log10(3.3 K) dB."""
+    f0, fs = 1204.9, 48000
+    kh = int((fs / 2) // f0)
+    rough = -10 * math.log10(math.pi ** 2 / 6 * 2 * kh)
+    assert predicted_naive_saw_score_db(f0, fs) == pytest.approx(rough, abs=3.0)
+
+
+@pytest.mark.parametrize("kind", ["saw", "square"])
+def test_band_limited_synthesis_is_clean(kind):
+    m = _run(additive_wave(kind, 435.2, 48000), 48000)
+    assert m["aliasing_detected"] is False
+    assert m["aliasing_assessable"] is True
+    assert m["aliasing_score"] is None or m["aliasing_score"] < al.ALIAS_SCORE_MIN_DB
+
+
+def test_fs_whole_multiple_of_f0_is_not_assessable():
+    m = _run(naive_wave("saw", 1000.0, 48000), 48000)
+    assert m["aliasing_detected"] is None
+    assert m["aliasing_assessable"] is False
+    assert "whole multiple" in m["aliasing_detail"]["reason"]
+
+
+def test_noise_is_never_flagged(rng):
+    """White noise decimated by dropping samples is folded, but carries no evidence of it."""
+    x = drop_decimate(white(96000, 1.0, rng, 0.1), 2)
+    m = _run(x, 48000)
+    assert m["aliasing_detected"] is None
+    assert m["aliasing_assessable"] is False
+    assert "noise-like" in m["aliasing_detail"]["reason"]
+
+
+def test_sample_dropping_folds_the_upper_harmonics():
+    """A band-limited sawtooth at 96 kHz decimated by 2 without a filter: harmonics between
+    24 and 48 kHz reappear at 48 kHz - k*f0; with a proper filter they do not."""
+    f0 = 529.3
+    x = additive_wave("saw", f0, 96000, 1.05)
+    dropped = _run(drop_decimate(x, 2)[:48000], 48000)
+    filtered = _run(good_resample(x, 96000, 48000)[:48000], 48000)
+    assert dropped["aliasing_detected"] is True
+    assert filtered["aliasing_detected"] is False
+    assert dropped["aliasing_score"] > -30.0
+    assert filtered["aliasing_score"] is None or filtered["aliasing_score"] < -100.0
+    assert dropped["aliasing_detail"]["median_f0_hz"] == pytest.approx(f0, abs=0.05)
+
+
+@pytest.mark.parametrize("fs", [44100, 48000, 96000])
+def test_sweep_generated_past_nyquist_reflects(fs):
+    """A linear sweep 500 Hz -> 0.8 fs over 1.5 s meets Nyquist at t = (fs/2 - 500)/k."""
+    m = _run(sine_sweep(fs, 500.0, 0.8 * fs), fs)
+    d = m["aliasing_detail"]
+    assert m["aliasing_detected"] is True
+    assert d["folded_partials"] >= 1
+    rate = (0.8 * fs - 500.0) / 1.5
+    t_cross = (fs / 2 - 500.0) / rate
+    for ex in d["fold_examples"]:
+        assert ex["at_s"] <= t_cross + 0.01 and ex["folded_at_s"] >= t_cross - 0.01
+        # the rising partial is the sweep itself, and its continuation is mirrored at Nyquist
+        assert ex["rising_hz"] == pytest.approx(500.0 + rate * ex["at_s"], abs=100.0)
+        assert ex["folded_hz"] == pytest.approx(fs - (500.0 + rate * ex["folded_at_s"]), abs=150.0)
+    lo, hi = d["where_s"][0]
+    assert lo <= t_cross <= hi
+
+
+@pytest.mark.parametrize("fs", [44100, 96000])
+def test_band_limited_sweep_is_clean(fs):
+    m = _run(sine_sweep(fs, 500.0, 0.45 * fs), fs)
+    assert m["aliasing_detected"] is not True
+    assert m["aliasing_detail"]["folded_partials"] == 0
+
+
+def test_naive_sawtooth_sweep_partials_fall_while_the_fundamental_rises():
+    m = _run(naive_saw_sweep(48000, 300.0, 1500.0), 48000)
+    assert m["aliasing_detected"] is True
+    assert m["aliasing_detail"]["folded_partials"] >= 1
+
+
+def test_fold_frequency():
+    assert al.fold_frequency(30000.0, 48000.0) == pytest.approx(18000.0)
+    assert al.fold_frequency(50000.0, 48000.0) == pytest.approx(2000.0)
+    assert al.fold_frequency(71000.0, 48000.0) == pytest.approx(23000.0)
+    assert al.fold_frequency(-1000.0, 48000.0) == pytest.approx(1000.0)
+
+
+def test_fold_plan_excludes_folds_on_harmonics():
+    h, folds, orders = al.fold_plan(1000.0, 48000.0, al.TONAL_BIN_HZ)
+    assert h.size == 23 and folds.size == 0
+    h, folds, orders = al.fold_plan(1204.9, 48000.0, al.TONAL_BIN_HZ)
+    assert np.allclose(folds, al.fold_frequency(orders * 1204.9, 48000.0))
+    assert np.all(orders * 1204.9 > 24000.0)
+
+
+def test_block_size_does_not_change_the_result():
+    x = naive_wave("square", 286.9, 48000)
+    a = _run(x, 48000, MeasureOptions(block_frames=777))
+    b = _run(x, 48000, MeasureOptions(block_frames=65536))
+    assert a == b
+
+
+def test_keys_are_declared():
+    m = _run(naive_wave("saw", 435.2, 48000), 48000)
+    assert set(m) == set(AliasingAnalyzer.measurement_schema)
