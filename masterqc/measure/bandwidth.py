@@ -207,14 +207,17 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
     positions = np.arange(lo, top_bin - post_a - min_post, step)
     if positions.size == 0:
         return None
-    pre = np.empty(positions.size)
+    # all positions at once: windows as rows of strided views (the stop window is cut at top_bin)
+    near = np.lib.stride_tricks.sliding_window_view(env_db, pre_b - pre_a)[positions + pre_a]
+    pre = np.median(near, axis=1)
+    flat = np.max(np.abs(near - pre[:, None]), axis=1) <= PASS_FLATNESS_DB
     post = np.empty(positions.size)
-    flat = np.empty(positions.size, dtype=bool)
-    for i, e in enumerate(positions):
-        near = env_db[e + pre_a:e + pre_b]
-        pre[i] = np.median(near)
-        flat[i] = np.max(np.abs(near - pre[i])) <= PASS_FLATNESS_DB
-        post[i] = np.percentile(env_db[e + post_a:min(e + post_b, top_bin)], 90)
+    full = positions + post_b <= top_bin
+    if full.any():
+        stop = np.lib.stride_tricks.sliding_window_view(env_db[:top_bin], post_b - post_a)[positions[full] + post_a]
+        post[full] = np.percentile(stop, 90, axis=1)
+    for i in np.nonzero(~full)[0]:
+        post[i] = np.percentile(env_db[positions[i] + post_a:top_bin], 90)
     drop = np.where(flat, pre - post, -np.inf)
     i = int(np.argmax(drop))
     if not drop[i] >= CLIFF_MIN_DROP_DB:

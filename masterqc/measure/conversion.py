@@ -188,8 +188,6 @@ class ConversionTracker:
             factor = choose_factor(t, getattr(options, "true_peak_oversample", 4))
             design = self.design if (self.design != "annex2" or factor == 4) else "kaiser"
             meter = TruePeakMeter(t, self.channels, factor, design)
-            # only the maximum is wanted: runs that provably cannot exceed it are not interpolated
-            meter._skip_below = (lambda m=meter: float(m.peak_linear.min()))
             self.stages.append((t, rs, meter))
 
     def process(self, block) -> None:

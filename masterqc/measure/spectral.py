@@ -24,9 +24,13 @@ What it keeps (memory independent of the file's length):
   file's known length; rows are equal-width frequency bands, channel-summed
   power, mean over the frames of each column).
 
-Consumers (callables ``fn(power, first_frame_index)`` with ``power`` of shape
-(frames, channels, bins)) see every frame's power spectrum as it is computed,
-so several detectors share one FFT.
+Consumers (callables ``fn(power, frame_index)`` with ``power`` of shape
+(frames, channels, bins) and the frames' position indices) see every analysed
+frame's power spectrum as it is computed, so several detectors share one FFT.
+
+Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
+of frames (1 in :data:`LONG_FILE_STRIDE`); the long-term spectrum is then the
+mean over those frames.
 
 :class:`SamplingSpectrumAnalyzer` is the registered analyzer: it runs the
 front end and hands its result to :mod:`masterqc.measure.bandwidth`,
@@ -45,6 +49,14 @@ from masterqc.measure.base import Analyzer, AnalyzerResult
 
 #: target bin spacing (Hz); frames are round(fs / BIN_TARGET_HZ) samples long
 BIN_TARGET_HZ = 10.0
+#: files up to this long have every frame analysed; longer files a regular subsample of
+#: 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms): long-term spectra, level
+#: statistics and tones are statistics over time, and the subsample keeps the cost of
+#: the analysis a small fraction of the core's (own reasoning; see bench/bench_sampling_cost.py)
+FULL_ANALYSIS_S = 30.0
+LONG_FILE_STRIDE = 6
+#: the level histogram takes every HIST_STRIDE-th analysed frame
+HIST_STRIDE = 2
 #: level histogram range (dB of per-bin power, channel mean) and step
 HIST_MIN_DB = -200.0
 HIST_MAX_DB = 10.0
@@ -58,6 +70,11 @@ DISPLAY_POINTS_PER_OCTAVE = 48
 DISPLAY_LOW_HZ = 20.0
 #: power below this counts as zero when converted to dB (1e-30 = -300 dB)
 POWER_EPS = 1e-30
+
+
+def default_frame_stride(duration_s: float) -> int:
+    """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, else 1 in :data:`LONG_FILE_STRIDE`."""
+    return 1 if duration_s <= FULL_ANALYSIS_S else LONG_FILE_STRIDE
 
 
 def frame_length_for(sample_rate_hz: float) -> int:
@@ -79,7 +96,7 @@ class FrontEndResult:
     hop: int
     bin_hz: float
     freqs_hz: np.ndarray          # (bins,)
-    frames: int                   # number of analysis frames
+    frames: int                   # number of frames analysed
     ltas: np.ndarray              # (channels, bins) mean power per bin over the file's duration
     p10_db: np.ndarray | None     # (bins,) 10th percentile of channel-mean level over frames
     p50_db: np.ndarray | None
@@ -87,6 +104,8 @@ class FrontEndResult:
     spectrogram_db: np.ndarray    # (columns, rows)
     spectrogram_time_s: np.ndarray  # (columns,) centre times
     spectrogram_freq_hz: np.ndarray  # (rows,) band centres
+    frame_stride: int = 1         # 1 in frame_stride frame positions was analysed
+    frame_positions: int = 0      # frame positions in the file (analysed or not)
 
     @property
     def ltas_total(self) -> np.ndarray:
@@ -99,25 +118,30 @@ class SpectralFrontEnd:
 
     def __init__(self, sample_rate_hz: float, channels: int, total_frames: int, *,
                  columns: int = SPECTROGRAM_COLUMNS, rows: int = SPECTROGRAM_ROWS,
-                 histogram: bool = True, consumers=()):
+                 histogram: bool = True, consumers=(), frame_stride: int | None = None):
         self.fs = float(sample_rate_hz)
         self.channels = int(channels)
         self.N = frame_length_for(self.fs)
         self.hop = self.N // 2
         self.bins = self.N // 2 + 1
         self.bin_hz = self.fs / self.N
-        self.window = np.hanning(self.N + 1)[:-1]          # periodic Hann
-        scale = np.full(self.bins, 2.0 / (self.N * float(np.sum(self.window ** 2))))
+        self.window = np.hanning(self.N + 1)[:-1].astype(np.float32)          # periodic Hann
+        scale = np.full(self.bins, 2.0 / (self.N * float(np.sum(self.window.astype(float) ** 2))))
         scale[0] *= 0.5
         if self.N % 2 == 0:
             scale[-1] *= 0.5
-        self._scale = scale
+        self._scale = scale.astype(np.float32)
         self.total_samples = int(total_frames)
         #: number of frames the whole file gives: starts at -hop, hop, ... < total
         self.total_frame_count = max(1, -(-(self.total_samples + self.hop) // self.hop))
         self.consumers = list(consumers)
-        self.frame_index = 0
-        self._buf = np.zeros((self.hop, self.channels))    # leading half frame of zeros
+        if frame_stride is None:
+            frame_stride = default_frame_stride(self.total_samples / self.fs)
+        #: analyse every frame_stride-th frame (1: all of them)
+        self.stride = max(1, int(frame_stride))
+        self.frame_index = 0          # global index of the next frame position
+        self.analysed = 0             # frames actually analysed
+        self._buf = np.zeros((self.hop, self.channels), dtype=np.float32)    # leading half frame of zeros
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
@@ -138,12 +162,15 @@ class SpectralFrontEnd:
     # -- streaming -------------------------------------------------------
     def process(self, block) -> None:
         """Feed a (frames, channels) float block."""
-        block = np.asarray(block, dtype=np.float64)
+        block = np.asarray(block)
         if block.ndim == 1:
             block = block[:, None]
         if block.shape[0] == 0:
             return
-        self._buf = np.concatenate([self._buf, block], axis=0)
+        buf = np.empty((self._buf.shape[0] + block.shape[0], self.channels), dtype=np.float32)
+        buf[:self._buf.shape[0]] = self._buf
+        buf[self._buf.shape[0]:] = block
+        self._buf = buf
         self._run()
 
     def _run(self) -> None:
@@ -151,31 +178,42 @@ class SpectralFrontEnd:
         if n_avail < self.N:
             return
         n_frames = (n_avail - self.N) // self.hop + 1
-        view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
-        # view: (frames, channels, N)
-        spec = scipy.fft.rfft(view * self.window, axis=-1)
-        power = (spec.real ** 2 + spec.imag ** 2) * self._scale
-        self._accumulate(power)
-        self._buf = self._buf[n_frames * self.hop:]
+        index = np.arange(self.frame_index, self.frame_index + n_frames)
+        pick = np.nonzero(index % self.stride == 0)[0]
+        if pick.size:
+            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
+            # view: (frames, channels, N); the product is a new contiguous float32 array
+            frames = view[pick]
+            frames *= self.window
+            spec = scipy.fft.rfft(frames, axis=-1, overwrite_x=True)
+            power = np.square(spec.real)
+            power += np.square(spec.imag)
+            power *= self._scale
+            self._accumulate(power, index[pick])
+        self.frame_index += n_frames
+        self._buf = self._buf[n_frames * self.hop:].copy()
 
-    def _accumulate(self, power: np.ndarray) -> None:
-        first = self.frame_index
+    def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
-        self.ltas_sum += power.sum(axis=0)
-        total = power.sum(axis=1)                               # (frames, bins) channel sum
+        self.ltas_sum += power.sum(axis=0, dtype=np.float64)
+        total = power.sum(axis=1) if self.channels > 1 else power[:, 0]   # (frames, bins) channel sum
         if self.histogram:
-            level = power_db(total / self.channels)
-            idx = np.clip(((level - HIST_MIN_DB) / HIST_STEP_DB).astype(np.int64), 0, self.n_levels - 1)
-            for j in range(nfr):
-                self.hist[self._bin_index, idx[j]] += 1
+            # level statistics from every HIST_STRIDE-th frame (a regular subsample: percentiles
+            # over time need many frames, not every frame)
+            pick = np.nonzero(((np.arange(nfr) + self.analysed) % HIST_STRIDE) == 0)[0]
+            if pick.size:
+                level = power_db(total[pick] / self.channels)
+                idx = np.clip(((level - HIST_MIN_DB) / HIST_STEP_DB).astype(np.int64), 0, self.n_levels - 1)
+                for j in range(pick.size):
+                    self.hist[self._bin_index, idx[j]] += 1
         bands = np.add.reduceat(total[:, 1:], self._row_edges - 1, axis=1) / self._row_width
-        cols = (np.arange(first, first + nfr) * self.columns) // self.total_frame_count
+        cols = (index * self.columns) // self.total_frame_count
         cols = np.minimum(cols, self.columns - 1)
         np.add.at(self.spec_sum, cols, bands)
         np.add.at(self.spec_count, cols, 1.0)
         for fn in self.consumers:
-            fn(power, first)
-        self.frame_index += nfr
+            fn(power, index)
+        self.analysed += nfr
 
     def finish(self) -> FrontEndResult:
         """Flush the zero-padded tail and return the accumulated result."""
@@ -185,39 +223,48 @@ class SpectralFrontEnd:
             if need > 0:
                 target = (need - 1) * self.hop + self.N
                 pad = max(0, target - self._buf.shape[0])
-                self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels))], axis=0)
+                self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels), dtype=np.float32)], axis=0)
                 self._run()
             self._finished = True
-        # every sample is covered by the windows of two frames: the sum over frames
-        # is the energy of total_samples / hop frames' worth of signal
-        ltas = self.ltas_sum / max(self.total_samples / self.hop, 1e-12)
+        # with every frame analysed, every sample is covered by the windows of two frames: the
+        # sum over frames is the energy of total_samples / hop frames' worth of signal; a
+        # regular subsample of 1 in `stride` frames holds 1/stride of that (exact for
+        # stationary signals)
+        ltas = self.ltas_sum / max(self.total_samples / (self.hop * self.stride), 1e-12)
         p10 = p50 = p90 = None
-        if self.histogram and self.frame_index > 0:
-            p10, p50, p90 = (self.percentile_db(q) for q in (0.10, 0.50, 0.90))
+        if self.histogram and self.analysed > 0:
+            p10, p50, p90 = self.percentile_db((0.10, 0.50, 0.90))
         with np.errstate(invalid="ignore", divide="ignore"):
             sg = self.spec_sum / np.maximum(self.spec_count, 1.0)[:, None]
         sg_db = power_db(sg)
         t_cols = ((np.arange(self.columns) + 0.5) * self.total_frame_count / self.columns) * self.hop / self.fs
         return FrontEndResult(
             sample_rate_hz=self.fs, frame_length=self.N, hop=self.hop, bin_hz=self.bin_hz,
-            freqs_hz=np.arange(self.bins) * self.bin_hz, frames=self.frame_index, ltas=ltas,
+            freqs_hz=np.arange(self.bins) * self.bin_hz, frames=self.analysed, ltas=ltas,
+            frame_stride=self.stride, frame_positions=self.frame_index,
             p10_db=p10, p50_db=p50, p90_db=p90, spectrogram_db=sg_db,
             spectrogram_time_s=t_cols, spectrogram_freq_hz=self._row_freqs)
 
-    def percentile_db(self, q: float) -> np.ndarray:
-        """Per-bin level (dB, channel mean) below which a fraction ``q`` of the frames lie.
+    def percentile_db(self, q):
+        """Per-bin level (dB, channel mean) below which a fraction ``q`` of the histogram's frames lie.
 
         Read from the 1 dB histogram: the centre of the first level step whose
-        cumulative count reaches ``q`` of the frames.
+        cumulative count reaches ``q`` of the frames.  ``q`` may be a sequence:
+        then a tuple of arrays is returned.
         """
         cum = np.cumsum(self.hist, axis=1)
-        need = q * cum[:, -1:]
-        k = (cum < need).sum(axis=1)
-        return HIST_MIN_DB + (k + 0.5) * HIST_STEP_DB
+        qs = [q] if np.isscalar(q) else list(q)
+        out = []
+        for qq in qs:
+            k = (cum < qq * cum[:, -1:]).sum(axis=1)
+            out.append(HIST_MIN_DB + (k + 0.5) * HIST_STEP_DB)
+        return out[0] if np.isscalar(q) else tuple(out)
 
     def settings(self) -> dict:
         return {"frame_length": self.N, "hop": self.hop, "bin_hz": self.bin_hz, "window": "hann (periodic)",
-                "overlap": 0.5, "fft": "float64", "histogram_step_db": HIST_STEP_DB,
+                "overlap": 0.5, "fft": "float32", "histogram_step_db": HIST_STEP_DB,
+                "histogram_frame_stride": HIST_STRIDE,
+                "frame_stride": self.stride, "frames_analysed": self.analysed,
                 "spectrogram_columns": self.columns, "spectrogram_rows": self.rows}
 
 
@@ -263,7 +310,8 @@ class SamplingSpectrumAnalyzer(Analyzer):
     """Spectral part of the sampling-integrity checks (bandwidth, ultrasonic, conversion).
 
     Options in ``MeasureOptions.extra["spectrum"]``: ``spectrogram_columns``,
-    ``spectrogram_rows`` (display sizes).  ``MeasureOptions.ultrasonic_from_hz``
+    ``spectrogram_rows`` (display sizes), ``frame_stride`` (analyse 1 in this many
+    frames; default: all up to 30 s, 1 in 6 for longer files).  ``MeasureOptions.ultrasonic_from_hz``
     and ``MeasureOptions.conversion_targets_hz`` are read by the detectors.
     """
 
@@ -283,10 +331,12 @@ class SamplingSpectrumAnalyzer(Analyzer):
         opts = _spectrum_options(options)
         self.ultra = ultrasonic.UltrasonicTracker(info, options)
         self.conv = conversion.ConversionTracker(info, options)
+        stride = opts.get("frame_stride")
         self.fe = SpectralFrontEnd(info.sample_rate_hz, info.channels, info.frames,
                                    columns=int(opts.get("spectrogram_columns", SPECTROGRAM_COLUMNS)),
                                    rows=int(opts.get("spectrogram_rows", SPECTROGRAM_ROWS)),
-                                   consumers=[self.ultra.frames])
+                                   consumers=[self.ultra.frames],
+                                   frame_stride=None if stride is None else int(stride))
 
     def process(self, block) -> None:
         self.fe.process(block)

@@ -10,6 +10,10 @@ Fed frame by frame with the power spectra of :mod:`masterqc.measure.spectral`
   frequency, or when the audible band holds no energy.
 - ``ultrasonic_energy_max_3s_db`` and ``ultrasonic_energy_max_3s_where_s``: the
   same ratio in the worst 3 s window (stepped by one hop, 50 ms), and where it is.
+  Files longer than 30 s are analysed on 1 frame in 6 (see
+  :mod:`masterqc.measure.spectral`): 100 ms of every 300 ms, so the 3 s figure
+  is then an estimate from ten frames, and a burst much shorter than 300 ms
+  may fall between them; the location is the window's, not the burst's.
 - ``ultrasonic_tones``: stationary tones above the threshold frequency: a bin
   that is a local maximum and stands :data:`TONE_MIN_PROMINENCE_DB` above the
   median of its +-500 Hz neighbourhood in the LTAS *and* whose median level over
@@ -103,32 +107,37 @@ class UltrasonicTracker:
         self.from_hz = float(getattr(options, "ultrasonic_from_hz", 20000.0))
         self.active = self.fs > MIN_RATE_HZ and self.fs / 2.0 > self.from_hz
         self.weights = np.asarray(info.channel_weights, dtype=float)
-        self._audible, self._ultra, self._zfull, self._zlp = [], [], [], []
+        self._audible, self._ultra, self._zfull, self._zlp, self._index = [], [], [], [], []
         self._k2 = None
 
     def _setup(self, bins):
         n = (bins - 1) * 2
         freqs = np.arange(bins) * self.fs / n
-        self._k_from = int(math.ceil(self.from_hz / (self.fs / n) - 1e-9))
-        self._k_lo = 1
-        self._k2 = 10.0 ** (kweighting_gain_db(np.maximum(freqs, 1e-3), self.fs) / 10.0)
-        self._k2[0] = 0.0
+        kf = int(math.ceil(self.from_hz / (self.fs / n) - 1e-9))
+        k2 = 10.0 ** (kweighting_gain_db(np.maximum(freqs, 1e-3), self.fs) / 10.0)
+        k2[0] = 0.0
+        # one projection per frame and channel: audible, ultrasonic, K-weighted full, K-weighted low-passed
+        proj = np.zeros((bins, 4))
+        proj[1:kf, 0] = 1.0
+        proj[kf:, 1] = 1.0
+        proj[:, 2] = k2
+        proj[:kf, 3] = k2[:kf]
+        self._proj = proj.astype(np.float32)
+        self._k2 = k2
 
-    def frames(self, power, first) -> None:
-        """Consume power spectra of shape (frames, channels, bins)."""
+    def frames(self, power, index) -> None:
+        """Consume power spectra of shape (frames, channels, bins) at frame positions ``index``."""
         if not self.active:
             return
         if self._k2 is None:
             self._setup(power.shape[-1])
-        total = power.sum(axis=1)
-        kf = self._k_from
-        self._audible.append(total[:, self._k_lo:kf].sum(axis=1))
-        self._ultra.append(total[:, kf:].sum(axis=1))
-        kw = power * self._k2                                    # (frames, ch, bins)
-        full = kw.sum(axis=2)
-        lp = kw[:, :, :kf].sum(axis=2)
-        self._zfull.append(full @ self.weights)
-        self._zlp.append(lp @ self.weights)
+        nfr, ch, nb = power.shape
+        q = (power.reshape(nfr * ch, nb) @ self._proj).astype(np.float64).reshape(nfr, ch, 4)
+        self._audible.append(q[:, :, 0].sum(axis=1))
+        self._ultra.append(q[:, :, 1].sum(axis=1))
+        self._zfull.append(q[:, :, 2] @ self.weights)
+        self._zlp.append(q[:, :, 3] @ self.weights)
+        self._index.append(np.asarray(index))
 
     def settings(self) -> dict:
         return {"from_hz": self.from_hz, "window_s": WINDOW_S,
@@ -144,49 +153,56 @@ class UltrasonicTracker:
             return out
         aud = np.concatenate(self._audible)
         ult = np.concatenate(self._ultra)
-        out["ultrasonic_energy_db"] = _ratio_db(ult.sum(), aud.sum())
         hop_s = fe.hop / self.fs
-        w = max(1, int(round(WINDOW_S / hop_s)))
-        if aud.size <= w:
+        centres = np.concatenate(self._index) * hop_s
+        out["ultrasonic_energy_db"] = _ratio_db(ult.sum(), aud.sum())
+        duration = (fe.frame_positions - 1) * hop_s
+        if duration <= WINDOW_S:
             r = _ratio_db(ult.sum(), aud.sum())
             if r is not None:
                 out["ultrasonic_energy_max_3s_db"] = r
-                out["ultrasonic_energy_max_3s_where_s"] = [[0.0, fe.frames * hop_s]]
+                out["ultrasonic_energy_max_3s_where_s"] = [[0.0, round(duration, 3)]]
         else:
+            # windows [t, t + 3 s) stepped by one hop; each sums the analysed frames centred inside it
+            starts = np.arange(0.0, duration - WINDOW_S + 1e-9, hop_s)
+            lo = np.searchsorted(centres, starts - 1e-9, side="left")
+            hi = np.searchsorted(centres, starts + WINDOW_S - 1e-9, side="left")
             ca = np.concatenate([[0.0], np.cumsum(aud)])
             cu = np.concatenate([[0.0], np.cumsum(ult)])
-            a = ca[w:] - ca[:-w]
-            u = cu[w:] - cu[:-w]
+            a = ca[hi] - ca[lo]
+            u = cu[hi] - cu[lo]
             ok = (a > 0) & (u > 0)
             if ok.any():
                 ratio = np.full(a.shape, -np.inf)
                 ratio[ok] = u[ok] / a[ok]
                 j = int(np.argmax(ratio))
                 out["ultrasonic_energy_max_3s_db"] = 10.0 * math.log10(ratio[j])
-                start = max(0.0, (j - 0.5) * hop_s)
-                out["ultrasonic_energy_max_3s_where_s"] = [[round(start, 3), round(start + w * hop_s, 3)]]
+                start = float(starts[j])
+                out["ultrasonic_energy_max_3s_where_s"] = [[round(start, 3), round(start + WINDOW_S, 3)]]
         out["ultrasonic_tones"] = find_tones(fe, self.from_hz)
-        out["ultrasonic_loudness_change_lu"] = self._loudness_change(fe)
+        out["ultrasonic_loudness_change_lu"] = self._loudness_change(fe, centres)
         return out
 
-    def _loudness_change(self, fe):
+    def _loudness_change(self, fe, centres):
         zf = np.concatenate(self._zfull)
         zl = np.concatenate(self._zlp)
         hop_s = fe.hop / self.fs
-        real_s = (fe.frames - 1) * hop_s
+        real_s = (fe.frame_positions - 1) * hop_s
         n_blocks = int(math.floor((real_s - BLOCK_S) / STEP_S + 1e-9)) + 1 if real_s >= BLOCK_S else 0
         if n_blocks <= 0:
             return None
-        centres = np.arange(zf.size) * hop_s
         cf = np.concatenate([[0.0], np.cumsum(zf)])
         cl = np.concatenate([[0.0], np.cumsum(zl)])
         t0 = np.arange(n_blocks) * STEP_S
-        # frames whose window lies inside the block: centre in [t0 + hop, t0 + 0.4 - hop]
+        # analysed frames whose window lies inside the block: centre in [t0 + hop, t0 + 0.4 - hop]
         lo = np.searchsorted(centres, t0 + hop_s - 1e-9, side="left")
         hi = np.searchsorted(centres, t0 + BLOCK_S - hop_s + 1e-9, side="right")
-        cnt = np.maximum(hi - lo, 1)
-        bf = (cf[hi] - cf[lo]) / cnt
-        bl = (cl[hi] - cl[lo]) / cnt
+        cnt = hi - lo
+        has = cnt > 0
+        if not has.any():
+            return None
+        bf = (cf[hi] - cf[lo])[has] / cnt[has]
+        bl = (cl[hi] - cl[lo])[has] / cnt[has]
         lf = gated_loudness(bf)
         ll = gated_loudness(bl)
         if lf is None or ll is None:
