@@ -116,7 +116,7 @@ class DaskBackend:
             futures[f.key] = (f, i)
         self._futures = [f for f, _ in futures.values()]
         try:
-            for f in as_completed(self._futures):
+            for f in as_completed(self._futures, loop=self.client.loop):
                 i = futures[f.key][1]
                 try:
                     value = f.result()
