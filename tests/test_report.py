@@ -289,6 +289,13 @@ def test_clock_and_timecode_text():
     assert fmt.timecode(86400.0 + 1.0, None) == "00:00:01.00"  # wraps at 24 h
 
 
+def test_display_merge_bounds_the_shapes_drawn():
+    ranges = [(i * 0.001, i * 0.001 + 0.0001) for i in range(100_000)]  # 100 000 events in 100 s
+    merged = plots.merge_for_display(ranges, 100.0 / 600)
+    assert len(merged) == 1 and merged[0][0] == 0.0 and merged[0][1] == pytest.approx(99.9991)
+    assert plots.merge_for_display([(5, 6), (1, 2), (2.05, 3)], 0.1) == [(1.0, 3.0), (5.0, 6.0)]
+
+
 def test_thinning_keeps_every_bucket_extreme():
     rng = np.random.default_rng(7)
     y = rng.normal(-20, 3, 100_000)

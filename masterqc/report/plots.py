@@ -151,6 +151,22 @@ def thin(t: np.ndarray, y: np.ndarray, max_points: int = MAX_POINTS) -> tuple[np
     return np.array(tt), np.array(yy)
 
 
+def merge_for_display(ranges, min_gap_s: float) -> list[tuple[float, float]]:
+    """Ranges sorted and joined where the gap between them is below ``min_gap_s`` (drawing only).
+
+    At a plot's scale, events closer than about one pixel cannot be told apart;
+    joining them bounds the number of shapes drawn however many events a long
+    file holds.  Counts shown in the report come from the result, not from this.
+    """
+    out: list[list[float]] = []
+    for a, b in sorted((float(a), float(b)) for a, b in ranges):
+        if out and a - out[-1][1] < min_gap_s:
+            out[-1][1] = max(out[-1][1], b)
+        else:
+            out.append([a, b])
+    return [(a, b) for a, b in out]
+
+
 def _figure(height_in: float) -> Figure:
     fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=72)
     FigureCanvasSVG(fig)
@@ -274,13 +290,15 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
         bottom = max(min(values) - 3.0, top - 48.0) if values else -48.0
         ax.set_ylim(bottom, top)
         if over_ranges:
+            count = len(over_ranges)
             min_w = max(duration_s, 1e-3) / 800.0
+            over_ranges = merge_for_display(over_ranges, min_w)
             alpha = 0.45 if len(over_ranges) <= 20 else 0.22
             for a, b in over_ranges:
                 ax.axvspan(a, max(b, a + min_w), color=VERMILION, alpha=alpha, lw=0)
             mids = [0.5 * (a + b) for a, b in over_ranges]
             ax.plot(mids, [top - 0.45] * len(mids), ls="none", marker="v", ms=5.5, color=VERMILION,
-                    markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({len(over_ranges)})")
+                    markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({count})")
         ax.yaxis.set_major_locator(MaxNLocator(nbins=6, steps=[1, 2, 3, 5, 10]))
         ax.set_ylabel("true peak (dBTP)")
         _time_axis(ax, axis, duration_s)
@@ -417,7 +435,7 @@ def markers_plot(duration_s: float, axis: TimeAxis, rows) -> str:
         for i, (label, ranges, kind) in enumerate(rows):
             color, hatch = MARK_STYLES.get(kind, MARK_STYLES["info"])
             y = n - 1 - i
-            bars = [(a, max(b - a, min_w)) for a, b in ranges]
+            bars = [(a, max(b - a, min_w)) for a, b in merge_for_display(ranges, min_w)]
             if bars:
                 ax.broken_barh(bars, (y - 0.22, 0.4), facecolors=color, edgecolors=BLACK, linewidth=0.3,
                                hatch=hatch)
