@@ -180,3 +180,11 @@ def test_block_size_does_not_change_the_verdict():
             fe.process(x[i:i + block])
         out.append(bw.assess(fe.finish(), info_for(fs, 1, x.shape[0])).measurements())
     assert out[0] == out[1]
+
+
+def test_upsampling_found_on_the_long_file_subsample():
+    x = upsampled_noise(44100, 96000, seconds=3.0, seed=8)[:, None]
+    fe = SpectralFrontEnd(96000, 1, x.shape[0], frame_stride=6)
+    fe.process(x)
+    r = bw.assess(fe.finish(), info_for(96000, 1, x.shape[0]))
+    assert r.upsampled_from_hz == 44100

@@ -178,3 +178,21 @@ def test_analyzer_series_and_keys_through_the_engine():
     assert len(sg["db"]) <= 1000 and len(sg["db"][0]) <= 256
     assert len(sg["time_s"]) == len(sg["db"]) and len(sg["frequency_hz"]) == len(sg["db"][0])
     assert settings["sampling_spectrum"]["front_end"]["bin_hz"] == pytest.approx(10.0)
+
+
+def test_long_files_are_analysed_on_a_regular_subsample():
+    from masterqc.measure.spectral import LONG_FILE_STRIDE, default_frame_stride
+    assert default_frame_stride(30.0) == 1
+    assert default_frame_stride(30.1) == LONG_FILE_STRIDE == 6
+    rng = np.random.default_rng(8)
+    fs = 48000
+    x = 0.1 * rng.standard_normal((fs * 6, 1))
+    _, full = run_fe(x, fs, frame_stride=1)
+    fe, sub = run_fe(x, fs, frame_stride=6)
+    assert sub.frames == -(-full.frames // 6)
+    # the subsample's LTAS estimates the same mean square (Parseval, within the noise of fewer frames)
+    assert sub.ltas[0].sum() == pytest.approx(np.mean(x ** 2), rel=0.03)
+    band = slice(100, 2300)
+    ratio_db = 10 * np.log10(sub.ltas[0, band].mean() / full.ltas[0, band].mean())
+    assert abs(ratio_db) < 0.2
+    assert fe.settings()["frame_stride"] == 6

@@ -192,3 +192,21 @@ def test_gated_loudness_matches_bs1770_arithmetic():
     z = np.array([10 ** ((-20 + 0.691) / 10)] * 10 + [10 ** ((-40 + 0.691) / 10)] * 10 + [1e-12] * 5)
     assert gated_loudness(z) == pytest.approx(-20.0, abs=1e-9)
     assert gated_loudness(np.array([1e-12] * 5)) is None
+
+
+def test_subsampled_analysis_still_finds_a_2s_burst_and_the_loudness_change():
+    # frame_stride 6 is what files over 30 s get: 100 ms frames every 300 ms
+    fs = 96000
+    rng = np.random.default_rng(12)
+    x = band_noise(fs, 12.0, 20.0, 18000.0, 0.05, rng)
+    x[6 * fs:8 * fs] += band_noise(fs, 2.0, 25000.0, 40000.0, 0.02, rng)
+    m, _s, _t = run_analyzers(Stream(x, fs), MeasureOptions(extra={"spectrum": {"frame_stride": 6}}),
+                              classes=[SamplingSpectrumAnalyzer])
+    full = measure(x, fs)
+    assert m["ultrasonic_energy_db"] == pytest.approx(full["ultrasonic_energy_db"], abs=0.3)
+    assert m["ultrasonic_energy_max_3s_db"] == pytest.approx(full["ultrasonic_energy_max_3s_db"], abs=0.5)
+    (a, b), = m["ultrasonic_energy_max_3s_where_s"]
+    assert a <= 6.3 and b >= 7.7
+    meter = pyloudnorm.Meter(fs, filter_class="DeMan")
+    expected = meter.integrated_loudness(_lowpass_fft(x, fs, 20000.0)) - meter.integrated_loudness(x)
+    assert m["ultrasonic_loudness_change_lu"] == pytest.approx(expected, abs=0.1)
