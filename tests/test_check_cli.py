@@ -172,6 +172,28 @@ def test_html_report_written_beside_the_json(tmp_path, spec):
     assert (tmp_path / "o" / "a.html").stat().st_size > 0
 
 
+def test_broken_renderer_keeps_the_json_and_says_so(tmp_path, spec, monkeypatch):
+    import sys
+    import types
+    fake = types.ModuleType("masterqc.report.render")
+
+    def write_reports(result, out_dir, stem, formats):
+        raise RuntimeError("template exploded")
+
+    fake.write_reports = write_reports
+    monkeypatch.setitem(sys.modules, "masterqc.report.render", fake)
+    wav = tone(tmp_path / "a.wav", -23.0, seconds=3.0)
+    out = tmp_path / "o"
+    assert main(["check", str(wav), "--spec", str(spec), "--out", str(out), "--format", "json,html",
+                 "--quiet"]) == 3
+    r = load(out / "a.json")
+    assert valid(r) and r["verdict"] == "error"
+    (f,) = [f for f in r["findings"] if f["check"] == "report.render"]
+    assert f["status"] == "error" and "template exploded" in f["message"]
+    # the master itself was still judged
+    assert next(f for f in r["findings"] if f["check"] == "loudness.integrated")["status"] == "pass"
+
+
 def test_write_atomic_leaves_nothing_on_failure(tmp_path, monkeypatch):
     target = tmp_path / "r.json"
     target.write_text("old")

@@ -47,9 +47,10 @@ EXPECTED = {
     "lighthouse_ad_hot": ("fail", "fail", "pass", "fail", "fail"),
     # true peak about 0 dBTP: over every ceiling
     "harbour_overs": ("fail", "fail", "fail", "fail", "fail"),
-    # LRA >= 19 > 18 (a warning only in the house spec); 48 s fails the 30 s spot; album and atsc
-    # pass (-23 LUFS, TP <= -9: +7 dB keeps it <= -2 dBTP); podcast: -23 is below -20
-    "estuary_suite_wide": ("warn", "fail", "pass", "fail", "pass"),
+    # LRA >= 19 > 18 (a warning only in the house spec); the 30 s spot spec asks no LRA and the
+    # short-term maximum is <= -19: pass; album and atsc pass (-23 LUFS, TP <= -9: +7 dB keeps
+    # it <= -2 dBTP); podcast: -23 is below -20
+    "estuary_suite_wide": ("warn", "pass", "pass", "fail", "pass"),
     # 44.1 kHz: refused by house, short and atsc; allowed by album (TP <= -8: +7 dB keeps it <= -1);
     # podcast: -23 LUFS is below -20
     "marina_interview_44k": ("fail", "fail", "pass", "fail", "fail"),

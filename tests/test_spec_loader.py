@@ -71,6 +71,7 @@ _T11 = GOOD.replace("max_dbtp: -1.0, ", "")
 _T12 = GOOD + "peaks:\n  sample_peak: {max_dbfs: -1.0}\n"
 _T13 = GOOD.replace("spec_version: 1", "spec_version: 2")
 _T14 = GOOD.replace("warn_margin_db: 0.3", "severity: error")
+_T15 = GOOD.replace("max_dbtp: -1.0", "max_dbtp: .nan")
 
 # (case id, YAML, expected key path, line, column, words the message must contain);
 # the position is that of the offending key (unknown, duplicate, missing: its mapping's
@@ -92,6 +93,7 @@ INVALID = [
     case("duplicate key", _T12, "peaks", "peaks", ["given twice"], nth=1),
     case("unsupported version", _T13, "spec_version", "2", ["spec_version 2", "supported: 1"]),
     case("severity not fail/warn", _T14, "peaks.true_peak.severity", "error", ["'error'", "'fail' or 'warn'"]),
+    case("not a finite number", _T15, "peaks.true_peak.max_dbtp", ".nan", ["finite number"]),
 ]
 
 

@@ -79,9 +79,9 @@ def unit_decimals(unit: str) -> int:
 
 
 class SpecModel(BaseModel):
-    """Base of every spec model: unknown keys refused, no silent type coercion."""
+    """Base of every spec model: unknown keys refused, no silent type coercion, no NaN or infinity."""
 
-    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False)
 
 
 class Requirement(SpecModel):
