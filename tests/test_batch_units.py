@@ -353,3 +353,87 @@ def test_cli_errors_before_any_file_is_touched(tmp_path, rng, capsys):
     assert main(["check", str(root), "--spec", str(good), "--out", str(out), "--releases", "albums", "--quiet"]) == 2
     assert main(["runs", "--out", str(tmp_path / "nothing"), "list"]) == 2
     assert "no run ledger" in capsys.readouterr().err
+
+
+def test_release_failure_alone_gives_exit_1_and_gone_files_are_listed(tmp_path, rng, capsys):
+    root = tmp_path / "in"
+    write(str(root / "album" / "01.wav"), noise(rng, 1.0, -20.0))
+    write(str(root / "album" / "02.wav"), noise(rng, 1.0, -20.0, sr=44100), sr=44100)
+    spec = spec_file(tmp_path, SPEC.replace("consistent_format: {severity: warn}", "consistent_format: {}")
+                     .replace("tolerance_lu: 2.0", "tolerance_lu: 8.0"))
+    out = tmp_path / "out"
+    args = ["check", str(root), "--spec", str(spec), "--out", str(out), "--format", "json", "--jobs", "1"]
+    assert main(args) == 1  # both files pass; the release mixes sample rates
+    printed = capsys.readouterr().out
+    assert "2 files: 0 fail, 0 error, 0 warn, 2 pass" in printed and "1 failing" in printed
+    assert main(args + ["--releases", "none", "--quiet"]) == 0
+    os.unlink(root / "album" / "02.wav")
+    assert main(args + ["--quiet"]) == 0
+    import json
+    s = json.loads((out / "summary.json").read_text())
+    assert s["changes"]["gone"] == ["in/album/02.wav"]
+
+
+def test_unreadable_folder_is_a_problem_not_a_stop(tmp_path, rng, monkeypatch):
+    """The same as a folder without read permission, for a test run as root: listing raises EACCES."""
+    import masterqc.batch.discover as dmod
+    root = tmp_path / "in"
+    write(str(root / "ok" / "a.wav"), noise(rng, 0.2, -20.0))
+    (root / "locked").mkdir()
+    real_scandir = os.scandir
+
+    def scandir(path):
+        if os.fspath(path).endswith("locked"):
+            raise PermissionError(13, "Permission denied", os.fspath(path))
+        return real_scandir(path)
+
+    monkeypatch.setattr(dmod.os, "scandir", scandir)
+    d = discover([str(root)])
+    assert [f.rel for f in d.files] == ["ok/a.wav"]
+    (p,) = d.problems
+    assert p.path.endswith("locked") and p.message == "folder cannot be listed (Permission denied)"
+
+
+def test_killed_run_resumes(tmp_path, rng):
+    """SIGTERM to a running ``masterqc check FOLDER``: the run is marked interrupted, no temporary
+    file is left, and the next run analyses only what the killed one had not finished."""
+    import signal
+    import subprocess
+    import sys
+    import time
+    root = tmp_path / "in"
+    for i in range(8):
+        write(str(root / f"t{i}.wav"), noise(rng, 1.0, -20.0 - i))
+    spec = spec_file(tmp_path)
+    out = tmp_path / "out"
+    proc = subprocess.Popen([sys.executable, "-m", "masterqc", "check", str(root), "--spec", str(spec), "--out",
+                             str(out), "--format", "json", "--jobs", "1", "--quiet"],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    ledger = out / "masterqc-ledger.sqlite"
+    deadline = time.monotonic() + 60
+    done = 0
+    while time.monotonic() < deadline and proc.poll() is None:
+        if ledger.exists():
+            try:
+                with sqlite3.connect(ledger, timeout=5) as db:
+                    done = db.execute("SELECT COUNT(*) FROM results").fetchone()[0]
+            except sqlite3.OperationalError:
+                done = 0
+            if done >= 2:
+                break
+        time.sleep(0.05)
+    assert proc.poll() is None, "the run finished before it could be stopped"
+    proc.send_signal(signal.SIGTERM)
+    proc.wait(timeout=30)
+    assert proc.returncode == 130, proc.stderr.read()
+    assert not (out / "summary.json").exists()
+    assert [n for _, _, names in os.walk(out) for n in names if n.startswith(".masterqc-")] == []
+    with Ledger(ledger) as led:
+        (run,) = led.runs()
+        assert run["status"] == "interrupted"
+        finished = run["files"]
+    assert 2 <= finished < 8
+    again = run_batch(BatchConfig(roots=[str(root)], spec_path=str(spec), out_dir=str(out), formats=("json",),
+                                  jobs=1, quiet=True))
+    c = again.summary["counts"]
+    assert c["files"] == 8 and c["reused"] == finished and c["analysed"] == 8 - finished
