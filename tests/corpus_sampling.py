@@ -335,7 +335,7 @@ def _builders():
             lab = {"ultrasonic_tones_hz": list(tone_set), "upsampled_from_hz": None, "imaging": False,
                    "aliasing": False, "band_limit_hz": None, "ultrasonic": True}
             return fs, _mono(x), 24, lab
-        add(f"wideband_{kind}_96000_tones_{'_'.join(f'{f:g}' for f in tone_set) or 'none'}", "wideband", build)
+        add(f"wideband_{i}_{kind}_96000_tones_{'_'.join(f'{f:g}' for f in tone_set) or 'none'}", "wideband", build)
 
     # 6. 16-bit noise-shaped dither on quiet tonal material
     for fs in (44100, 48000):
@@ -423,6 +423,10 @@ ULTRASONIC_PRESENT_DB = -20.0
 TONE_MATCH_HZ = 50.0
 #: a reported band limit matches the true corner within 5 %
 BAND_LIMIT_MATCH = 0.05
+
+#: measurements kept per signal by :func:`score_corpus`
+KEPT_KEYS = ("imaging_detected", "aliasing_detected", "aliasing_assessable", "aliasing_score",
+             "upsampled_from_hz", "band_limit_hz", "ultrasonic_energy_db")
 
 DETECTORS = ("imaging", "aliasing", "upsampled_from", "ultrasonic_tones", "ultrasonic_energy", "band_limit")
 
@@ -530,20 +534,22 @@ def score_corpus(seed: int = 20261201, classes=None, progress=None):
 
     Returns ``(rates, outcomes)``: ``rates[detector] = {"detected", "positives",
     "false_alarms", "negatives", "missing", "detection_rate", "false_alarm_rate"}``
-    and the list of ``(signal name, {detector: outcome})``.
+    and the list of ``(signal name, {detector: outcome}, facts)`` where ``facts`` holds
+    the labels and the measurements listed in :data:`KEPT_KEYS`.
     """
     classes = sampling_classes() if classes is None else classes
     outcomes = []
     for sig in corpus(seed):
         m = analyse(sig.data, sig.fs, classes, sig.bits)
         res = judge_signal(sig, m)
-        outcomes.append((sig.name, res))
+        facts = {"labels": sig.labels, "fs": sig.fs, **{k: m.get(k) for k in KEPT_KEYS}}
+        outcomes.append((sig.name, res, facts))
         if progress is not None:
             progress(sig, m, res)
     rates = {}
     for det in DETECTORS:
         c = {"detected": 0, "positives": 0, "false_alarms": 0, "negatives": 0, "missing": 0}
-        for _name, res in outcomes:
+        for _name, res, _facts in outcomes:
             if det not in res:
                 continue
             o = res[det][0]
