@@ -56,51 +56,55 @@ class RunTracker:
         self._open_label = None
 
     def feed(self, labels: np.ndarray, active: np.ndarray):
-        """Feed one block; return ``(starts, lengths, labels)`` of the runs that ended in it."""
+        """Feed one block; return ``(starts, lengths, labels)`` of the runs that ended in it.
+
+        Works on the positions of the active samples only, so a block with few
+        active samples costs little more than finding them.
+        """
         n = labels.shape[0]
-        empty = (np.zeros(0, np.int64), np.zeros(0, np.int64), labels[:0])
         if n == 0:
-            return empty
+            return np.zeros(0, np.int64), np.zeros(0, np.int64), labels[:0]
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            return self.skip(n)
         offset = self.pos
         self.pos += n
-        cont = np.empty(n, dtype=bool)  # sample i continues the run of sample i-1
-        if n > 1:
-            np.logical_and(active[1:], active[:-1], out=cont[1:])
-            cont[1:] &= labels[1:] == labels[:-1]
-        cont[0] = bool(self._open_start is not None and active[0] and labels[0] == self._open_label)
-        start_mask = active & ~cont
-        end_mask = np.empty(n, dtype=bool)  # sample i is the last of its run inside the block
-        if n > 1:
-            end_mask[:-1] = active[:-1] & ~cont[1:]
-        end_mask[-1] = active[-1]
-        starts = np.flatnonzero(start_mask).astype(np.int64) + offset
-        ends = np.flatnonzero(end_mask).astype(np.int64) + offset
+        lab = labels[idx]
+        k = idx.size
+        cont = np.empty(k, dtype=bool)  # active sample j continues the run of active sample j-1
+        if k > 1:
+            np.equal(idx[1:], idx[:-1] + 1, out=cont[1:])
+            cont[1:] &= lab[1:] == lab[:-1]
+        carried = self._open_start is not None
+        cont[0] = bool(carried and idx[0] == 0 and lab[0] == self._open_label)
         out_s, out_l, out_lab = [], [], []
-        if self._open_start is not None:
-            if cont[0]:
-                # the first end inside this block closes the carried run
-                starts = np.concatenate(([self._open_start], starts))
-            else:
-                out_s.append(np.array([self._open_start], np.int64))
-                out_l.append(np.array([offset - self._open_start], np.int64))
-                out_lab.append(np.array([self._open_label], dtype=labels.dtype))
+        if carried and not cont[0]:
+            out_s.append(np.array([self._open_start], np.int64))
+            out_l.append(np.array([offset - self._open_start], np.int64))
+            out_lab.append(np.array([self._open_label], dtype=labels.dtype))
+        seg = np.flatnonzero(~cont)
+        if cont[0]:
+            seg = np.concatenate(([0], seg))
+        seg_end = np.append(seg[1:], k) - 1
+        starts = idx[seg].astype(np.int64) + offset
+        ends = idx[seg_end].astype(np.int64) + offset
+        if cont[0]:
+            starts[0] = self._open_start
+        run_labels = lab[seg_end]
         self._open_start = None
         self._open_label = None
-        # starts and ends now pair one to one; the last run stays open if it reaches the block end
-        if ends.size and ends[-1] == offset + n - 1:
+        if idx[-1] == n - 1:  # the last run reaches the block end: it stays open
             self._open_start = int(starts[-1])
-            self._open_label = labels[-1]
-            starts, ends = starts[:-1], ends[:-1]
-        lengths = ends - starts + 1
-        run_labels = labels[ends - offset] if ends.size else labels[:0]
+            self._open_label = run_labels[-1]
+            starts, ends, run_labels = starts[:-1], ends[:-1], run_labels[:-1]
         out_s.append(starts)
-        out_l.append(lengths)
+        out_l.append(ends - starts + 1)
         out_lab.append(run_labels)
-        s = np.concatenate(out_s)
+        st = np.concatenate(out_s)
         ln = np.concatenate(out_l)
-        lab = np.concatenate(out_lab)
+        lb = np.concatenate(out_lab)
         keep = ln >= self.min_len
-        return s[keep], ln[keep], lab[keep]
+        return st[keep], ln[keep], lb[keep]
 
     def skip(self, n: int):
         """Feed ``n`` inactive samples at once; return the run they close, as :meth:`feed` does."""

@@ -93,18 +93,16 @@ class SilenceAnalyzer(Analyzer):
 
     def _extent(self, mask, what):
         """Update the first/last frame index where ``mask`` (frames, channels) holds in any channel."""
-        cols = np.arange(mask.shape[1])
-        first_c = mask.argmax(axis=0)  # first True per channel (0 when there is none)
-        has = mask[first_c, cols]
+        n, c = mask.shape
+        cols = np.arange(c)
+        last_c = n - 1 - mask[::-1].argmax(axis=0)  # last True per channel (n-1 when there is none)
+        has = mask[last_c, cols]
         if not has.any():
             return
-        n = mask.shape[0]
-        last_c = n - 1 - mask[::-1].argmax(axis=0)
-        first = int(first_c[has].min())
-        last = int(last_c[has].max())
+        setattr(self, "last_" + what, self.pos + int(last_c[has].max()))
         if getattr(self, "first_" + what) is None:
-            setattr(self, "first_" + what, self.pos + first)
-        setattr(self, "last_" + what, self.pos + last)
+            first_c = mask.argmax(axis=0)
+            setattr(self, "first_" + what, self.pos + int(first_c[has].min()))
 
     def process(self, block):
         n = block.shape[0]
