@@ -270,9 +270,9 @@ def synthesize(master: DemoMaster, seed: int = SEED) -> np.ndarray:
         burst_n = int(0.004 * sr)  # short, so the bursts barely add loudness
         starts = [int(s * sr) for s in (7.0, 15.5, 24.25)]
         gap = np.ones(n)
-        for s in starts:  # the music makes room for each burst (20 ms either side)
+        for s in starts:  # the music ducks by 26 dB around each burst (20 ms either side), never to silence
             pad = int(0.02 * sr)
-            gap[s - pad:s + burst_n + pad] = 0.0
+            gap[s - pad:s + burst_n + pad] = 0.05
         gap = np.convolve(gap, np.ones(64) / 64, mode="same")
         bursts = np.zeros(n)
         for s in starts:
