@@ -4,7 +4,8 @@ Every numeric measurement that the engine's whole registry produces, whatever
 analyzers are registered now or later, is compared between block sizes from 1 to
 65536 frames: levels (keys in dB, dBFS, dBTP, LUFS, LU) within 0.001 dB, counts
 and other integers exactly, other numbers to a relative 1e-6, None/booleans/
-strings exactly.  Tiny block sizes run on a 0.5 s file, the others on a 6 s file.
+strings exactly.  Tiny block sizes run on 0.2 s and 0.5 s files, the others on
+a 6 s file.
 """
 
 from __future__ import annotations
@@ -50,7 +51,7 @@ def music_like(seconds: float, seed: int = 5) -> np.ndarray:
 def files(tmp_path_factory):
     d = tmp_path_factory.mktemp("blocks")
     paths = {}
-    for name, seconds in (("long", 6.0), ("short", 0.5)):
+    for name, seconds in (("long", 6.0), ("short", 0.5), ("tiny", 0.2)):
         p = d / f"{name}.wav"
         sf.write(p, music_like(seconds), FS, subtype="PCM_24")
         paths[name] = p
@@ -81,12 +82,17 @@ def leaves(value, prefix):
         yield (prefix, value)
 
 
+def is_level(path: str) -> bool:
+    """Whether a leaf is a level in dB: its own key (or the top key) names a dB unit."""
+    names = [part.split("[")[0].split("#")[0] for part in path.split(".")]
+    return any(n.endswith(LEVEL_SUFFIXES) or any(s + "_" in n for s in LEVEL_SUFFIXES) for n in names)
+
+
 def differences(ref: dict, got: dict) -> list[str]:
     problems = []
     if set(ref) != set(got):
         problems.append(f"keys differ: {sorted(set(ref) ^ set(got))}")
     for key in sorted(set(ref) & set(got)):
-        level = key.endswith(LEVEL_SUFFIXES) or any(s + "_" in key for s in LEVEL_SUFFIXES)
         a_items = dict(leaves(ref[key], key))
         b_items = dict(leaves(got[key], key))
         if a_items.keys() != b_items.keys():
@@ -101,7 +107,7 @@ def differences(ref: dict, got: dict) -> list[str]:
             elif isinstance(a, int) and isinstance(b, int):
                 if a != b:
                     problems.append(f"{path}: {a} != {b}")
-            elif level:
+            elif is_level(path):
                 if abs(a - b) > 1e-3:
                     problems.append(f"{path}: {a} vs {b} (> 0.001 dB)")
             elif not math.isclose(a, b, rel_tol=1e-6, abs_tol=1e-9):
@@ -131,21 +137,24 @@ def test_reference_covers_the_registry(reference):
     assert set(m) <= set(declared), sorted(set(m) - set(declared))
 
 
-@pytest.mark.parametrize("block_frames,which", [(1, "short"), (7, "short"), (4799, "long"), (65535, "long")])
+# block size 1 runs on a 0.2 s file (one Python call per frame per analyzer is slow);
+# loudness there has no complete gating block, so block 7 and the small sizes
+# below run on the 0.5 s file
+@pytest.mark.parametrize("block_frames,which", [(1, "tiny"), (7, "short"), (4799, "long"), (65535, "long")])
 def test_fixed_extremes(files, reference, block_frames, which):
     got = measure(files[which], block_frames)
     assert differences(reference[which], got) == []
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(block_frames=st.integers(min_value=64, max_value=65536))
+@given(block_frames=st.integers(min_value=256, max_value=65536))
 def test_any_block_size_gives_the_same_results(files, reference, block_frames):
     got = measure(files["long"], block_frames)
     assert differences(reference["long"], got) == []
 
 
-@settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(block_frames=st.integers(min_value=2, max_value=63))
+@settings(max_examples=4, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(block_frames=st.integers(min_value=2, max_value=255))
 def test_small_block_sizes_give_the_same_results(files, reference, block_frames):
     got = measure(files["short"], block_frames)
     assert differences(reference["short"], got) == []

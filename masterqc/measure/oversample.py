@@ -34,11 +34,14 @@ matrix products of non-overlapping reshaped views (BLAS, no window copies), in
 float32.  float32 is safe here: 24-bit codes are exact in float32 and the
 rounding error of a 32-term dot product is below 1e-6 of full scale
 (< 0.0001 dB at any level above -100 dBFS); the phase-0 values and the sample
-peak are taken in float64.
+peak are taken in float64.  The products are small, so BLAS runs them on one
+thread (threadpoolctl): on a loaded machine, multi-threaded OpenBLAS workers
+spin and made the meter over 100x slower in the benchmark.
 """
 
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import dataclass
 from functools import lru_cache
@@ -275,6 +278,22 @@ def filter_properties(flt: PolyphaseFilter) -> dict:
 # ---------------------------------------------------------------------------
 # Streaming meter
 
+_BLAS = None
+
+
+def single_thread_blas():
+    """Context manager limiting BLAS to one thread (no-op without threadpoolctl)."""
+    global _BLAS
+    if _BLAS is None:
+        try:
+            from threadpoolctl import ThreadpoolController
+            _BLAS = ThreadpoolController().select(user_api="blas")
+        except Exception:          # threadpoolctl missing or unable to inspect: leave BLAS as is
+            _BLAS = False
+    if _BLAS is False or not _BLAS.lib_controllers:
+        return contextlib.nullcontext()
+    return _BLAS.limit(limits=1)
+
 
 class TruePeakMeter:
     """Streaming true-peak meter for ``channels`` channels.
@@ -356,6 +375,12 @@ class TruePeakMeter:
         self._buf = np.zeros((self.channels, 0))
 
     def _run(self, final: bool) -> None:
+        if self._buf.shape[1] - self._lead < self._T + self._B and not final:
+            return                                       # not enough look-ahead yet
+        with single_thread_blas():
+            self._run_blocks(final)
+
+    def _run_blocks(self, final: bool) -> None:
         B = self._B
         while True:
             todo = self._received - self.frames_done     # frames still to evaluate
