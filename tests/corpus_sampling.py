@@ -272,6 +272,8 @@ def _builders():
                 gen = white if kind == "white" else pink
                 x = np.stack([good_resample(gen(r, SECONDS, rng), r, fs) for _ in range(2)], axis=1)
                 lab = {"upsampled_from_hz": r, "imaging": False, "aliasing": False, "band_limit_hz": None}
+                if fs >= 88200:
+                    lab["ultrasonic_tones_hz"] = []
                 if fs >= 88200 and r == 32000:
                     lab["ultrasonic"] = False
                 return fs, x, 24, lab
@@ -284,6 +286,7 @@ def _builders():
                 lab = {"upsampled_from_hz": None, "imaging": False, "aliasing": False, "band_limit_hz": None}
                 if fs >= 88200:
                     lab["ultrasonic"] = True
+                    lab["ultrasonic_tones_hz"] = []
                 return fs, x, 24, lab
             add(f"{kind}_native_{fs}", "native_noise", build)
 
