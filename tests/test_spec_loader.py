@@ -229,8 +229,10 @@ def test_diamond_extends_is_not_a_cycle(tmp_path):
     write(tmp_path, "l.yaml", "extends: root.yaml\nformat: {bit_depths: [24]}\n")
     write(tmp_path, "r.yaml", "extends: root.yaml\nformat: {channel_counts: [2]}\n")
     top = write(tmp_path, "top.yaml", "extends: [l.yaml, r.yaml]\nname: top\n")
-    s = load_spec(top).spec
+    loaded = load_spec(top)
+    s = loaded.spec
     assert s.format.bit_depths.allowed == [24] and s.format.channel_counts.allowed == [2]
+    assert [Path(f["path"]).name for f in loaded.files] == ["top.yaml", "l.yaml", "root.yaml", "r.yaml"]
 
 
 # ------------------------------------------------------------------ the demo specs and the schema
@@ -293,3 +295,35 @@ def test_normalisation_defaults_from_the_loudness_target():
     assert s.normalisation.target_lufs == -18.0
     s = load_spec_text("spec_version: 1\nname: bare\n").spec
     assert s.normalisation.target_lufs is None and s.normalisation.target_source is None
+
+
+def test_a_new_section_plugs_in_with_one_registry_line(monkeypatch):
+    import sys
+    import types
+
+    from masterqc.spec import sections
+    from masterqc.spec.model import spec_model
+    from masterqc.spec.types import SpecModel, ceiling
+
+    mod = types.ModuleType("masterqc_test_example_section")
+
+    class Section(SpecModel):
+        hiss: ceiling("db") | None = None
+
+    mod.Section = Section
+    mod.measure_options = lambda section: {"extra": {"hiss": section.hiss.max_db}}
+    monkeypatch.setitem(sys.modules, mod.__name__, mod)
+    monkeypatch.setattr(sections, "SECTIONS", sections.SECTIONS + [("example", mod.__name__)])
+    spec_model.cache_clear()
+    try:
+        s = load_spec_text(GOOD + "example:\n  hiss: {max_db: -60.0}\n").spec
+        assert s.example.hiss.max_db == -60.0
+        assert measure_options_for(s).extra["hiss"] == -60.0
+        assert "example" in spec_schema()["properties"]
+        with pytest.raises(SpecError) as ei:
+            load_spec_text(GOOD + "example:\n  his: {max_db: -60.0}\n")
+        assert "did you mean 'hiss'" in ei.value.problems[0][4]
+    finally:
+        monkeypatch.undo()
+        spec_model.cache_clear()
+    assert "example" not in spec_schema()["properties"]

@@ -418,7 +418,13 @@ def load_spec(path) -> LoadedSpec:
         spec = build_spec(data)
     except ValidationError as exc:
         raise SpecError(problems_from_validation(exc, data, pos, path)) from None
-    return LoadedSpec(spec=spec, path=path, sha256=files[0]["sha256"], files=files)
+    unique, seen = [], set()
+    for f in files:  # a base reached twice (two variants of one house spec) is listed once
+        key = os.path.realpath(f["path"])
+        if key not in seen:
+            seen.add(key)
+            unique.append(f)
+    return LoadedSpec(spec=spec, path=path, sha256=files[0]["sha256"], files=unique)
 
 
 def load_spec_text(text: str, name: str = "<spec>") -> LoadedSpec:

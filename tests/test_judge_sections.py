@@ -1,0 +1,160 @@
+"""Section judges and the judge registry, on synthetic measurement dicts (pure, no audio)."""
+
+from __future__ import annotations
+
+import sys
+import types
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from masterqc import judge as judge_pkg
+from masterqc.judge import judge
+from masterqc.judge.core import check_limits
+from masterqc.spec.loader import load_spec_text
+from masterqc.spec.types import bounds
+
+SPEC = """\
+spec_version: 1
+name: synthetic
+format:
+  containers: [wav]
+  sample_rates_hz: [48000]
+  channel_layouts: [[L, R]]
+loudness:
+  integrated: {target_lufs: -23.0, tolerance_lu: 1.0}
+  range: {max_lu: 15.0}
+  max_momentary: {max_lufs: -10.0}
+  max_short_term: {max_lufs: -18.0, severity: warn}
+peaks:
+  true_peak: {max_dbtp: -1.0}
+  sample_peak: {max_dbfs: -0.5}
+duration:
+  total: {min_s: 10.0, max_s: 60.0}
+"""
+
+
+def result(**over):
+    m = {"integrated_lufs": -23.0, "loudness_range_lu": 6.0, "max_momentary_lufs": -15.0,
+         "max_short_term_lufs": -19.0, "true_peak_dbtp": -2.0, "sample_peak_dbfs": -2.2,
+         "true_peak_over_ranges_s": []}
+    fmt = {"container": "wav", "sample_rate_hz": 48000, "channel_layout": ["L", "R"],
+           "channel_layout_source": "conventional", "duration_s": 30.0}
+    for k, v in over.items():
+        (fmt if k in fmt else m)[k] = v
+    return {"format": fmt, "measurements": m}
+
+
+@pytest.fixture(scope="module")
+def spec():
+    return load_spec_text(SPEC).spec
+
+
+def by_check(findings):
+    return {f.check: f for f in findings}
+
+
+def test_all_pass(spec):
+    findings, verdict = judge(spec, result())
+    assert verdict == "pass"
+    assert set(by_check(findings)) == {
+        "format.container", "format.sample_rate", "format.channel_layout", "duration.total",
+        "loudness.integrated", "loudness.range", "loudness.max_momentary", "loudness.max_short_term",
+        "peaks.true_peak", "peaks.sample_peak"}
+
+
+def test_each_requirement_reads_its_own_measurement(spec):
+    cases = {
+        "loudness.range": dict(loudness_range_lu=15.06),
+        "loudness.max_momentary": dict(max_momentary_lufs=-9.9),
+        "peaks.sample_peak": dict(sample_peak_dbfs=-0.4),
+        "duration.total": dict(duration_s=60.001),   # judged at 0.001 s
+        "format.sample_rate": dict(sample_rate_hz=96000),
+        "format.channel_layout": dict(channel_layout=["R", "L"]),
+    }
+    for check, over in cases.items():
+        findings, verdict = judge(spec, result(**over))
+        f = by_check(findings)
+        assert f[check].status == "fail", check
+        assert [c for c, x in f.items() if x.status != "pass"] == [check]
+        assert verdict == "fail"
+
+
+def test_severity_warn_section(spec):
+    findings, verdict = judge(spec, result(max_short_term_lufs=-17.0))
+    assert by_check(findings)["loudness.max_short_term"].status == "warn" and verdict == "warn"
+
+
+def test_overs_carry_their_times(spec):
+    findings, _ = judge(spec, result(true_peak_dbtp=0.4, true_peak_over_ranges_s=[[1.5, 1.52], [3.0, 3.01]]))
+    f = by_check(findings)["peaks.true_peak"]
+    assert f.status == "fail" and f.where_s == [[1.5, 1.52], [3.0, 3.01]]
+    assert f.to_dict()["where_s"] == [[1.5, 1.52], [3.0, 3.01]]
+
+
+def test_silence_and_missing_measurements_are_skipped(spec):
+    findings, verdict = judge(spec, result(integrated_lufs=None, loudness_range_lu=None,
+                                           max_momentary_lufs=None, max_short_term_lufs=None,
+                                           true_peak_dbtp=None, sample_peak_dbfs=None))
+    f = by_check(findings)
+    for c in ("loudness.integrated", "loudness.range", "peaks.true_peak", "peaks.sample_peak"):
+        assert f[c].status == "skipped" and "not judged" in f[c].message
+    assert "silence" in f["loudness.integrated"].message
+    assert verdict == "pass"  # skipped never decides the verdict
+    r = result()
+    del r["measurements"]["loudness_range_lu"]
+    f = by_check(judge(spec, r)[0])["loudness.range"]
+    assert f.status == "skipped" and "loudness_range_lu is missing" in f.message
+
+
+def test_unknown_layout_is_not_judged(spec):
+    f = by_check(judge(spec, result(channel_layout=["ch1", "ch2"], channel_layout_source="unknown"))[0])
+    assert f["format.channel_layout"].status == "skipped"
+
+
+def test_a_broken_section_judge_gives_an_error_finding(spec, monkeypatch):
+    broken = types.ModuleType("masterqc.judge._broken_for_test")
+
+    def bad(section, result):
+        raise KeyError("surprise")
+
+    broken.judge = bad
+    monkeypatch.setitem(sys.modules, broken.__name__, broken)
+    monkeypatch.setattr(judge_pkg, "JUDGES", [("peaks", broken.__name__)] + judge_pkg.JUDGES)
+    findings, verdict = judge(spec, result())
+    assert verdict == "error"
+    err = [f for f in findings if f.status == "error"]
+    assert len(err) == 1 and err[0].check == "peaks" and "surprise" in err[0].message
+    assert by_check(findings)["loudness.integrated"].status == "pass"  # the rest still judged
+
+
+def test_normalisation_limiting_judged_from_the_figures():
+    s = load_spec_text("spec_version: 1\nname: n\nloudness:\n  integrated: {max_lufs: -14.0}\n"
+                       "peaks:\n  true_peak: {max_dbtp: -1.0}\n"
+                       "normalisation: {target_lufs: -14.0, limiting: {max_db: 1.0}}\n").spec
+    # -20 LUFS with a -4 dBTP peak: +6 dB puts the peak at +2 dBTP, 3 dB over -1 dBTP (analytic)
+    r = result(integrated_lufs=-20.0, true_peak_dbtp=-4.0)
+    f = by_check(judge(s, r)[0])["normalisation.limiting"]
+    assert f.status == "fail" and f.measured == 3.0 and f.miss == pytest.approx(2.0)
+    # -20 LUFS with a -8 dBTP peak: +6 dB -> -2 dBTP, no limiting
+    f = by_check(judge(s, result(integrated_lufs=-20.0, true_peak_dbtp=-8.0))[0])["normalisation.limiting"]
+    assert f.status == "pass" and f.measured == 0.0
+    f = by_check(judge(s, result(integrated_lufs=None))[0])["normalisation.limiting"]
+    assert f.status == "skipped"
+
+
+@settings(max_examples=300, deadline=None)
+@given(value=st.floats(0, 40, allow_nan=False), lo=st.integers(0, 200), width=st.integers(0, 200),
+       margin=st.integers(0, 30))
+def test_bounds_with_margin_are_consistent(value, lo, width, margin):
+    lo_lu, hi_lu, m_lu = lo / 10, (lo + width) / 10, margin / 10
+    req = bounds("lu").model_validate({"min_lu": lo_lu, "max_lu": hi_lu, "warn_margin_lu": m_lu})
+    f = check_limits("r", "range", value, req)
+    shown = f.measured
+    if shown > hi_lu + 1e-9 or shown < lo_lu - 1e-9:
+        assert f.status == "fail" and f.miss >= 0.1 - 1e-9
+    elif m_lu > 0 and (shown > hi_lu - m_lu + 1e-9 or shown < lo_lu + m_lu - 1e-9):
+        assert f.status == "warn" and f.miss is None
+    else:
+        assert f.status == "pass"
