@@ -354,6 +354,8 @@ def _flatten(prefix: str, value, out: list, depth: int = 0):
                 text += f" \u2026 ({len(value)} items)"
         elif value is None:
             text = "\u2014"
+        elif value == "":
+            text = "(empty)"
         else:
             text = fmt.clean_text(value)
         if len(text) > 2000:
