@@ -81,6 +81,15 @@ def test_each_requirement_reads_its_own_measurement(spec):
         assert verdict == "fail"
 
 
+def test_short_programme_range_carries_the_caution(spec):
+    f = by_check(judge(spec, result(duration_s=30.0))[0])["loudness.range"]
+    assert "under one minute" in f.message
+    r = result(duration_s=30.0)
+    r["format"]["duration_s"] = 75.0
+    f = by_check(judge(spec, r)[0])["loudness.range"]
+    assert "under one minute" not in f.message
+
+
 def test_severity_warn_section(spec):
     findings, verdict = judge(spec, result(max_short_term_lufs=-17.0))
     assert by_check(findings)["loudness.max_short_term"].status == "warn" and verdict == "warn"

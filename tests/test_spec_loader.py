@@ -109,7 +109,7 @@ def test_invalid_spec_names_key_line_column(tmp_path, case, text, key, line, col
         assert w in message
 
 
-@pytest.mark.parametrize("case,text,key,line,col,words", INVALID[:8], ids=[c[0] for c in INVALID[:8]])
+@pytest.mark.parametrize("case,text,key,line,col,words", INVALID, ids=[c[0] for c in INVALID])
 def test_cli_validate_invalid_exit_2_and_names_location(tmp_path, capsys, case, text, key, line, col, words):
     p = write(tmp_path, "spec.yaml", text)
     assert main(["spec", "validate", str(p)]) == 2

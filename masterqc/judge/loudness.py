@@ -4,6 +4,9 @@ from __future__ import annotations
 
 from masterqc.judge.core import Finding, check_limits
 
+#: below this duration a loudness-range figure is shown with a caution (EBU R 128)
+SHORT_PROGRAMME_S = 60.0
+
 _SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
 
 #: spec key -> (check id, what, measurement key, why a None can happen)
@@ -29,5 +32,9 @@ def judge(section, result: dict) -> list[Finding]:
             out.append(check_limits(check, what, None, req,
                                     missing_reason=f"the measurement {mkey} is missing from the result"))
             continue
-        out.append(check_limits(check, what, m[mkey], req, missing_reason=why))
+        f = check_limits(check, what, m[mkey], req, missing_reason=why)
+        duration = (result.get("format") or {}).get("duration_s")
+        if key == "range" and f.status != "skipped" and duration is not None and duration < SHORT_PROGRAMME_S:
+            f.message += " (loudness range is not recommended for programmes under one minute, EBU R 128)"
+        out.append(f)
     return out
