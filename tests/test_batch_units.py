@@ -328,7 +328,7 @@ def test_progress_plain_and_live_lines():
     p = BatchProgress(2, 200, stream=buf, live=False)
     p.file_done("in/a.wav", "pass", 3600.0, 100, True)
     p.file_done("in/b.wav", "fail", 10.0, 100, False)
-    assert buf.getvalue().splitlines() == ["[1/2] PASS  in/a.wav (checked)", "[2/2] FAIL  in/b.wav (unchanged)"]
+    assert buf.getvalue().splitlines() == ["[1/2] PASS  in/a.wav (checked)", "[2/2] FAIL  in/b.wav (reused)"]
     st = p.stats()
     assert st["audio_hours"] == pytest.approx(1.0) and st["eta_s"] == pytest.approx(0.0)
     live = io.StringIO()
@@ -437,3 +437,14 @@ def test_killed_run_resumes(tmp_path, rng):
                                   jobs=1, quiet=True))
     c = again.summary["counts"]
     assert c["files"] == 8 and c["reused"] == finished and c["analysed"] == 8 - finished
+
+
+def test_output_folder_inside_the_input_is_not_checked(tmp_path, rng):
+    root = tmp_path / "in"
+    write(str(root / "a.wav"), noise(rng, 1.0, -20.0))
+    cfg = BatchConfig(roots=[str(root)], spec_path=str(spec_file(tmp_path)), out_dir=str(root / "qc"),
+                      formats=("json",), jobs=1, quiet=True)
+    run_batch(cfg)
+    again = run_batch(cfg)
+    assert [f["rel"] for f in again.summary["files"]] == ["in/a.wav"]
+    assert again.summary["counts"]["analysed"] == 0

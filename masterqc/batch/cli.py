@@ -59,7 +59,7 @@ def cmd_check_batch(args, formats) -> int:
         ch = s["changes"]
         sys.stdout.write(
             f"{c['files']} files: {c['fail']} fail, {c['error']} error, {c['warn']} warn, {c['pass']} pass "
-            f"({c['analysed']} analysed, {c['reused']} unchanged); "
+            f"({c['analysed']} analysed, {c['reused']} reused); "
             f"{c['releases']} releases, {c['releases_failed']} failing\n")
         if s["previous_run"] is not None:
             sys.stdout.write(f"since run {s['previous_run']['run_id']}: {len(ch['newly_failing'])} newly failing, "

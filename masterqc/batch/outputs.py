@@ -111,7 +111,7 @@ INDEX_CSS = """
 table.index { width: 100%; border-collapse: collapse; margin-top: 6px; }
 table.index th { text-align: left; font-size: 12px; border-bottom: 2px solid var(--ink); padding: 4px 6px; white-space: nowrap; }
 table.index th.num { text-align: right; }
-table.index th button { font: inherit; font-weight: bold; background: none; border: 0; padding: 0; cursor: pointer; color: inherit; }
+table.index th button { font: inherit; font-weight: bold; text-transform: inherit; letter-spacing: inherit; background: none; border: 0; padding: 0; cursor: pointer; color: inherit; }
 table.index th[aria-sort="ascending"] button::after { content: " \\25B2"; }
 table.index th[aria-sort="descending"] button::after { content: " \\25BC"; }
 table.index td { border-bottom: 1px solid var(--rule); padding: 4px 6px; vertical-align: top; font-size: 12.5px; }
@@ -158,7 +158,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <p class="run-file">{{ run.roots|join(", ") }}</p>
 <div class="verdict st-{{ overall }}" role="status">
 <div class="verdict-word">{{ icon(overall) }}<span class="run-verdict">{{ WORD[overall] }}</span></div>
-<p class="verdict-summary">{{ headline }}. {{ counts.analysed }} analysed, {{ counts.reused }} unchanged since an earlier check (not analysed again); {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
+<p class="verdict-summary">{{ headline }}. {{ counts.analysed }} analysed, {{ counts.reused }} not analysed again (unchanged since an earlier check, or identical to another file); {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
 </div>
 <ul class="index-counts">
 {%- for v in ["fail", "error", "warn", "pass"] %}

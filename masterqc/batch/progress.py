@@ -60,7 +60,7 @@ class BatchProgress:
             self.stream.write(f"\r{self.line()}\033[K")
             self._shown = True
         else:
-            how = "checked" if analysed else "unchanged"
+            how = "checked" if analysed else "reused"
             self.stream.write(f"[{self.done_files}/{self.total_files}] {verdict.upper():5s} {rel} ({how})\n")
         self.stream.flush()
 
