@@ -94,7 +94,20 @@ def _mark(file: str, node) -> tuple:
     return (file, node.start_mark.line + 1, node.start_mark.column + 1)
 
 
-def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: list, depth: int = 0):
+#: most values a spec may expand to (aliases included): a guard against alias bombs
+MAX_VALUES = 100_000
+
+
+class _TooLarge(Exception):
+    pass
+
+
+def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: list, depth: int = 0,
+              budget=None):
+    budget = budget if budget is not None else [MAX_VALUES]
+    budget[0] -= 1
+    if budget[0] < 0:
+        raise _TooLarge(node)
     if depth > 64:
         problems.append((file, _dotted(path), node.start_mark.line + 1, node.start_mark.column + 1,
                          "nesting is too deep (more than 64 levels)"))
@@ -122,10 +135,11 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
                                  knode.start_mark.column + 1, f"key {key!r} is given twice"))
                 continue
             pos.key[path + (key,)] = _mark(file, knode)
-            out[key] = _to_plain(loader, vnode, path + (key,), pos, file, problems, depth + 1)
+            out[key] = _to_plain(loader, vnode, path + (key,), pos, file, problems, depth + 1, budget)
         return out
     if isinstance(node, yaml.SequenceNode):
-        return [_to_plain(loader, v, path + (i,), pos, file, problems, depth + 1) for i, v in enumerate(node.value)]
+        return [_to_plain(loader, v, path + (i,), pos, file, problems, depth + 1, budget)
+                for i, v in enumerate(node.value)]
     return loader.construct_object(node)
 
 
@@ -151,6 +165,11 @@ def parse_yaml(text: str, file: str):
             return None, pos, problems
         try:
             data = _to_plain(loader, node, (), pos, file, problems)
+        except _TooLarge as exc:
+            n = exc.args[0]
+            problems.append((file, "", n.start_mark.line + 1, n.start_mark.column + 1,
+                             f"the spec expands to more than {MAX_VALUES} values (aliases repeated?)"))
+            return None, pos, problems
         except yaml.MarkedYAMLError as exc:
             mark = exc.problem_mark or exc.context_mark
             problems.append((file, "", mark.line + 1 if mark else None, mark.column + 1 if mark else None,
