@@ -364,3 +364,12 @@ def test_meter_rejects_wrong_channel_count():
     meter = ov.TruePeakMeter(FS, 2, 4)
     with pytest.raises(ValueError, match="3 channels"):
         meter.process(np.zeros((10, 3)))
+
+
+def test_column_abs_max_equals_the_plain_reduction():
+    from masterqc.measure.peaks import column_abs_max
+    rng = np.random.default_rng(3)
+    for n in (1, 7, 255, 256, 257, 1000, 65536):
+        for c in (1, 2, 6):
+            b = rng.standard_normal((n, c))
+            assert np.array_equal(column_abs_max(b), np.abs(b).max(axis=0)), (n, c)

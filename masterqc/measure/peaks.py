@@ -39,6 +39,29 @@ def linear_to_db(value: float):
     return 20.0 * math.log10(value)
 
 
+#: rows folded into one wide row by :func:`column_abs_max`
+_FOLD_ROWS = 256
+
+
+def column_abs_max(block: np.ndarray) -> np.ndarray:
+    """Per-channel ``max(|x|)`` of a (frames, channels) block.
+
+    Same result as ``np.abs(block).max(axis=0)``, computed on the block folded
+    into rows of ``256 * channels`` values: numpy reduces a narrow (n, 2) array
+    along axis 0 about 40x slower than a wide one (measured, numpy 2.4).
+    """
+    n, c = block.shape
+    q = n - n % _FOLD_ROWS
+    out = np.zeros(c)
+    if q:
+        wide = block[:q].reshape(-1, _FOLD_ROWS * c)
+        hi = np.maximum(wide.max(axis=0), -wide.min(axis=0))
+        out = hi.reshape(_FOLD_ROWS, c).max(axis=0)
+    if q < n:
+        out = np.maximum(out, np.abs(block[q:]).max(axis=0))
+    return out
+
+
 def bucket_frames_for(frames: int, buckets: int = ENVELOPE_BUCKETS) -> int:
     """Frames per envelope bucket so that a file of ``frames`` needs at most ``buckets``."""
     return max(1, -(-int(frames) // buckets))
@@ -59,7 +82,7 @@ class SamplePeakAnalyzer(Analyzer):
         self.peak = np.zeros(info.channels)
 
     def process(self, block) -> None:
-        np.maximum(self.peak, np.abs(block).max(axis=0), out=self.peak)
+        np.maximum(self.peak, column_abs_max(block), out=self.peak)
 
     def finish(self) -> AnalyzerResult:
         per = [linear_to_db(v) for v in self.peak]
@@ -116,8 +139,7 @@ class TruePeakAnalyzer(Analyzer):
                                    on_frames=self._frames)
 
     # -- per-frame bookkeeping -------------------------------------------------
-    def _frames(self, start: int, frame_peak, sample_abs) -> None:
-        fp = sample_abs if frame_peak is None else frame_peak
+    def _frames(self, start: int, fp) -> None:
         m = fp.shape[0]
         bf = self.bucket_frames
         last = self.envelope.shape[0] - 1
