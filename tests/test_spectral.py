@@ -196,3 +196,18 @@ def test_long_files_are_analysed_on_a_regular_subsample():
     ratio_db = 10 * np.log10(sub.ltas[0, band].mean() / full.ltas[0, band].mean())
     assert abs(ratio_db) < 0.2
     assert fe.settings()["frame_stride"] == 6
+
+
+def test_noise_floor_series_follows_the_low_percentile():
+    # white noise of mean square 0.01: per 10 Hz bin at 48 kHz the mean is 10*log10(0.01/2400) = -53.8 dB;
+    # a single frame's bin is exponential, its 10th percentile 9.78 dB below the mean (analytic)
+    fs = 48000
+    rng = np.random.default_rng(9)
+    x = 0.1 * rng.standard_normal((fs * 3, 1))
+    m, series, _ = run_analyzers(_Stream(x, fs), MeasureOptions(), classes=[SamplingSpectrumAnalyzer])
+    floor = np.array(series["ltas_floor_db"], dtype=float)
+    hz = np.array(series["ltas_hz"])
+    sel = (hz > 2000) & (hz < 20000)
+    assert len(floor) == len(hz)
+    assert np.median(floor[sel]) == pytest.approx(10 * math.log10(0.01 / 2400) + 10 * math.log10(-math.log(0.9)),
+                                                  abs=1.0)

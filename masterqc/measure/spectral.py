@@ -14,12 +14,18 @@ signal, ``sum(P)`` is the mean square, and a sine of amplitude ``A`` puts
 ``A**2 / 2`` into its main lobe (+-2 bins): ``10*log10(2 * lobe power)`` is
 ``20*log10(A)`` dBFS (a full-scale sine reads 0 dBFS).
 
+Precision: frames are windowed and transformed in float32 (24-bit codes are
+exact in float32; the FFT's rounding noise lies some 130 dB below the frame's
+level per bin, below every threshold the detectors use); sums over frames are
+kept in float64.
+
 What it keeps (memory independent of the file's length):
 
 - ``ltas``: per-channel long-term average power per 10 Hz bin;
 - a histogram per bin of the channel-mean frame level (1 dB steps from
-  :data:`HIST_MIN_DB` to :data:`HIST_MAX_DB`), giving low / median / high
-  percentiles over time per bin (the low percentile is a noise floor);
+  :data:`HIST_MIN_DB` to :data:`HIST_MAX_DB`, every :data:`HIST_STRIDE`-th
+  analysed frame), giving low / median / high percentiles over time per bin
+  (the low percentile is a noise floor; the median tells stationary tones);
 - a display spectrogram of at most ``columns`` x ``rows`` (columns follow the
   file's known length; rows are equal-width frequency bands, channel-summed
   power, mean over the frames of each column).
@@ -297,6 +303,15 @@ def display_ltas(fe: FrontEndResult, points_per_octave: int = DISPLAY_POINTS_PER
     return centres, np.round(power_db(mean), 2)
 
 
+def display_floor(fe: FrontEndResult, centres_hz) -> list:
+    """The noise floor (10th percentile over time of the channel-mean level per bin) at the
+    display centres, dB; None where no frame was analysed."""
+    if fe.p10_db is None:
+        return [None] * len(centres_hz)
+    k = np.clip(np.round(np.asarray(centres_hz) / fe.bin_hz).astype(int), 0, len(fe.p10_db) - 1)
+    return [round(float(v), 1) for v in fe.p10_db[k]]
+
+
 # ---------------------------------------------------------------------------
 # the registered analyzer
 
@@ -322,6 +337,7 @@ class SamplingSpectrumAnalyzer(Analyzer):
     series_schema = {
         "ltas_hz": {"type": "array", "items": {"type": "number"}},
         "ltas_db_per_channel": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
+        "ltas_floor_db": {"type": "array", "items": {"type": ["number", "null"]}},
         "spectrogram": {"type": "object"},
     }
 
@@ -354,6 +370,7 @@ class SamplingSpectrumAnalyzer(Analyzer):
         series = {
             "ltas_hz": np.round(hz, 2),
             "ltas_db_per_channel": db,
+            "ltas_floor_db": display_floor(fe, hz),
             "spectrogram": {
                 "time_s": np.round(fe.spectrogram_time_s, 3),
                 "frequency_hz": np.round(fe.spectrogram_freq_hz, 1),
