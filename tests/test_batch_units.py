@@ -448,3 +448,21 @@ def test_output_folder_inside_the_input_is_not_checked(tmp_path, rng):
     again = run_batch(cfg)
     assert [f["rel"] for f in again.summary["files"]] == ["in/a.wav"]
     assert again.summary["counts"]["analysed"] == 0
+
+
+def test_link_planted_in_the_output_folder_writes_nothing_outside(tmp_path, rng):
+    root = tmp_path / "in"
+    write(str(root / "sub" / "a.wav"), noise(rng, 1.0, -20.0))
+    write(str(root / "b.wav"), noise(rng, 1.0, -21.0))
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    out = tmp_path / "out"
+    (out / "files" / "in").mkdir(parents=True)
+    os.symlink(str(elsewhere), out / "files" / "in" / "sub")  # would redirect in/sub/*
+    res = run_batch(BatchConfig(roots=[str(root)], spec_path=str(spec_file(tmp_path)), out_dir=str(out),
+                                formats=("json",), jobs=1, quiet=True))
+    files = {f["rel"]: f for f in res.summary["files"]}
+    assert files["in/b.wav"]["verdict"] == "pass"
+    assert files["in/sub/a.wav"]["verdict"] == "error"
+    assert "resolves outside" in files["in/sub/a.wav"]["first_problem"]
+    assert os.listdir(elsewhere) == []

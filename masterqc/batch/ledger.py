@@ -6,7 +6,7 @@ Tables
                the result JSON (zlib-compressed) -- a file whose bytes, spec and masterqc
                version are unchanged is never analysed again.
 ``runs``       one row per run: start/finish time (UTC, ISO 8601), status
-               (``running``, ``complete``, ``interrupted``), folders, output folder, counts.
+               (``running``, ``complete``, ``interrupted``, ``failed``), folders, output folder, counts.
 ``run_files``  one row per file per run: path, release, content hash, spec key,
                verdict, whether it was analysed or reused, first failing message.
 ``file_stat``  size, mtime and inode last seen for a path with its content hash, so an

@@ -132,6 +132,17 @@ def _error_result(item: Item, loaded, cause: str) -> dict:
     return r
 
 
+def _safe_folder(out_dir: str, folder: str) -> bool:
+    """Create ``folder`` and say whether it really lies inside ``out_dir`` (links followed)."""
+    if not inside(out_dir, folder):
+        return False
+    try:
+        os.makedirs(folder, exist_ok=True)
+    except OSError:
+        return False
+    return inside(out_dir, folder)
+
+
 def _slim(result: dict) -> dict:
     """What the run outputs and release checks need of a result (drops the display series)."""
     keep = {k: result[k] for k in ("file", "format", "measurements", "spec", "findings", "verdict", "outputs", "error")
@@ -232,14 +243,20 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
 
         def place(it: Item, result: dict, wrote: bool) -> dict:
             """Write ``result`` as ``it``'s outputs (JSON always; HTML/PDF when missing or stale)."""
-            if not inside(out_dir, it.out_folder):
-                raise RuntimeError(f"output folder {it.out_folder} resolves outside {out_dir}")
             result = dict(result)
             result["file"] = dict(result.get("file") or {}, path=it.found.path)
             outputs = {}
+            if not _safe_folder(out_dir, it.out_folder):
+                from masterqc.judge.core import Finding, verdict
+                result["findings"] = list(result.get("findings", [])) + [Finding(
+                    check="batch.output", status="error",
+                    message=f"{it.found.path}: its output folder {it.out_folder} resolves outside {out_dir} "
+                            "(a link inside the output folder?); nothing written for this file").to_dict()]
+                result["verdict"] = verdict(result["findings"])
+                result["outputs"] = {}
+                return result
             if not wrote:
                 rendered = [f for f in cfg.formats if f in ("html", "pdf")]
-                os.makedirs(it.out_folder, exist_ok=True)
                 prev = prev_rows.get(it.path)
                 fresh = (prev is not None and prev.get("content_sha256") == it.sha256 and it.rule is not None
                          and prev.get("spec_key") == it.rule.key and prev.get("out_stem") == f"{it.out_rel}/{it.stem}")
@@ -286,13 +303,18 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 continue
             groups.setdefault((it.sha256, it.rule.key), []).append(it)
 
-        keys = list(groups)
+        keys = []
         tasks = []
-        for k in keys:
+        for k in list(groups):
             lead = groups[k][0]
-            os.makedirs(lead.out_folder, exist_ok=True)
-            if not inside(out_dir, lead.out_folder):
-                raise RuntimeError(f"output folder {lead.out_folder} resolves outside {out_dir}")
+            if not _safe_folder(out_dir, lead.out_folder):
+                for it in groups[k]:  # place() turns this into an error row and writes nothing
+                    finish(it, place(it, _error_result(
+                        it, it.rule.loaded, f"its output folder {it.out_folder} resolves outside {out_dir} "
+                                            "(a link planted there?); not analysed"),
+                                     False), False)
+                continue
+            keys.append(k)
             tasks.append({"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
                           "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(cfg.formats),
                           "layout": list(cfg.layout) if cfg.layout else None})
@@ -331,6 +353,16 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             backend = None
         if run_id is not None:
             ledger.finish_run(run_id, "interrupted", time.perf_counter() - t0)
+        raise
+    except Exception:
+        if backend is not None:
+            backend.close(cancel=True)
+            backend = None
+        if run_id is not None:
+            try:
+                ledger.finish_run(run_id, "failed", time.perf_counter() - t0)
+            except Exception:
+                pass
         raise
     finally:
         if backend is not None:
