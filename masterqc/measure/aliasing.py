@@ -40,11 +40,16 @@ from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundame
 #: long frames: 5 Hz bins (fs/5 samples)
 TONAL_BIN_HZ = 5.0
 #: at most this many long frames per file (cost bound)
-MAX_TONAL_FRAMES = 96
+MAX_TONAL_FRAMES = 48
 #: short frame pairs for partial tracks: fs/50 samples (50 Hz bins), second frame fs/800 later
 TRACK_BIN_HZ = 50.0
 TRACK_HOP_DIVISOR = 16
 MAX_TRACK_PAIRS = 200
+#: per track resolution: (bin Hz, hop divisor, minimum slope Hz/s, mirror position
+#: tolerance Hz).  The minimum slope is a quarter of a bin per hop, the tolerance three
+#: bins (own reasoning).  A coarser second resolution (200 Hz bins) was tried for the fast
+#: high partials of moving naive waveforms at 96 kHz and found nothing more in the corpus.
+TRACK_RESOLUTIONS = ((TRACK_BIN_HZ, TRACK_HOP_DIVISOR, 5000.0, 150.0),)
 #: a spectral line stands this far above the local floor (median of +-25 bins).
 #: Own reasoning: 20 dB is far outside the spread of a noise periodogram (an exponential
 #: variable exceeds its median by 20 dB with probability 2**-100).
@@ -226,7 +231,7 @@ def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: flo
     return f, slope, pa[la][ok]
 
 
-def find_reflections(tracks, fs: float):
+def find_reflections(tracks, fs: float, min_slope: float = None, position_tolerance_hz: float = None):
     """Folded partial tracks: a rising partial (time t, frequency f, slope s > 0) whose
     mirrored continuation ``fs - (f + s*(t2 - t))`` appears at a later time t2 with slope
     close to ``-s``, after crossing Nyquist (``f + s*(t2 - t) > fs/2``).
@@ -234,18 +239,20 @@ def find_reflections(tracks, fs: float):
     ``tracks``: list of ``(time_s, freq_hz, slope_hz_per_s)`` arrays per frame pair,
     in time order.  Returns a list of ``(t_rise, f_rise, t_fall, f_fall)``.
     """
+    min_slope = MIN_TRACK_SLOPE_HZ_PER_S if min_slope is None else min_slope
+    tol = REFLECT_POSITION_TOLERANCE_HZ if position_tolerance_hz is None else position_tolerance_hz
     found = []
     hits = {}
     nyq = fs / 2.0
     for i, (t1, f1, s1) in enumerate(tracks):
-        up = (s1 >= MIN_TRACK_SLOPE_HZ_PER_S) & (f1 > 0.5 * nyq)
+        up = (s1 >= min_slope) & (f1 > 0.5 * nyq)
         if not up.any():
             continue
         for t2, f2, s2 in tracks[i + 1:]:
             gap = t2 - t1
             if gap > REFLECT_MAX_GAP_S:
                 break
-            down = s2 <= -MIN_TRACK_SLOPE_HZ_PER_S
+            down = s2 <= -min_slope
             if not down.any():
                 continue
             for fr, sr in zip(f1[up], s1[up]):
@@ -253,7 +260,7 @@ def find_reflections(tracks, fs: float):
                 if ahead <= nyq:
                     continue
                 mirror = fs - ahead
-                ok = (np.abs(f2[down] - mirror) <= REFLECT_POSITION_TOLERANCE_HZ) & \
+                ok = (np.abs(f2[down] - mirror) <= tol) & \
                      (np.abs(-s2[down] - sr) <= REFLECT_SLOPE_TOLERANCE * sr)
                 if ok.any():
                     hits.setdefault((i, float(fr)), []).append((float(t2), float(f2[down][ok][0])))
@@ -300,18 +307,17 @@ class AliasingAnalyzer(Analyzer):
         starts = frame_starts(int(info.frames), self.n_long, int(extra.get("max_tonal_frames", MAX_TONAL_FRAMES)),
                               self.n_long // 2, seed=1)
         self.pick_long = FramePicker(starts, self.n_long, ch)
-        # short frame pairs: one frame of n_short + hop samples holds both
-        self.n_short = int(round(self.fs / TRACK_BIN_HZ))
-        self.bin_short = self.fs / self.n_short
-        self.hop_short = max(1, self.n_short // TRACK_HOP_DIVISOR)
-        self.win_short = np.hanning(self.n_short + 2)[1:-1]
-        span = self.n_short + self.hop_short
-        pstarts = frame_starts(int(info.frames), span, int(extra.get("max_track_pairs", MAX_TRACK_PAIRS)),
-                               self.hop_short * 2, seed=2)
-        self.pick_short = FramePicker(pstarts, span, ch)
+        # short frame pairs, at each track resolution: one frame of n + hop samples holds both
+        self.trackers = []
+        n_pairs = int(extra.get("max_track_pairs", MAX_TRACK_PAIRS))
+        for j, (bin_hz, div, min_slope, tol) in enumerate(TRACK_RESOLUTIONS):
+            n = int(round(self.fs / bin_hz))
+            hop = max(1, n // div)
+            starts = frame_starts(int(info.frames), n + hop, n_pairs, hop * 2, seed=2 + j)
+            self.trackers.append({"n": n, "hop": hop, "bin_hz": self.fs / n, "min_slope": min_slope,
+                                  "tolerance_hz": tol, "window": np.hanning(n + 2)[1:-1],
+                                  "picker": FramePicker(starts, n + hop, ch), "tracks": []})
         self.frames = []   # per tonal long frame: (start, result dict)
-        self.tonal_seen = 0
-        self.tracks = []   # per short pair: (time_s, freq, slope)
 
     def process(self, block) -> None:
         for start, frame in self.pick_long.feed(block):
@@ -320,14 +326,15 @@ class AliasingAnalyzer(Analyzer):
             r = analyse_tonal_frame(power, self.bin_long, self.fs)
             if r is not None:
                 self.frames.append((int(start), r))
-        for start, frame in self.pick_short.feed(block):
-            a = np.fft.rfft(frame[:self.n_short].T * self.win_short, axis=-1)
-            b = np.fft.rfft(frame[self.hop_short:self.hop_short + self.n_short].T * self.win_short, axis=-1)
-            pa = np.sum(a.real ** 2 + a.imag ** 2, axis=0)
-            pb = np.sum(b.real ** 2 + b.imag ** 2, axis=0)
-            f, s, _p = track_peaks(pa, pb, self.bin_short, self.hop_short / self.fs)
-            t = (start + self.hop_short / 2.0 + self.n_short / 2.0) / self.fs
-            self.tracks.append((t, f, s))
+        for tr in self.trackers:
+            n, hop, win = tr["n"], tr["hop"], tr["window"]
+            for start, frame in tr["picker"].feed(block):
+                a = np.fft.rfft(frame[:n].T * win, axis=-1)
+                b = np.fft.rfft(frame[hop:hop + n].T * win, axis=-1)
+                pa = np.sum(a.real ** 2 + a.imag ** 2, axis=0)
+                pb = np.sum(b.real ** 2 + b.imag ** 2, axis=0)
+                f, s, _p = track_peaks(pa, pb, tr["bin_hz"], hop / self.fs)
+                tr["tracks"].append(((start + hop / 2.0 + n / 2.0) / self.fs, f, s))
 
     def finish(self) -> AnalyzerResult:
         tonal = [r for _s, r in self.frames]
@@ -338,7 +345,9 @@ class AliasingAnalyzer(Analyzer):
         score = None
         if assess and h > 0:
             score = 10.0 * math.log10(a / h) if a > 0 else None
-        reflections = find_reflections(self.tracks, self.fs)
+        reflections = []
+        for tr in self.trackers:
+            reflections += find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"])
         detail = {
             "reason": None,
             "tonal_frames": len(tonal),
@@ -390,8 +399,10 @@ class AliasingAnalyzer(Analyzer):
             "aliasing_detail": detail,
         }
         settings = {"tonal_frame_samples": self.n_long, "tonal_frames_max": self.pick_long.starts.size,
-                    "track_frame_samples": self.n_short, "track_hop_samples": self.hop_short,
-                    "track_pairs": self.pick_short.starts.size, "alias_score_min_db": ALIAS_SCORE_MIN_DB,
+                    "track_frame_samples": [tr["n"] for tr in self.trackers],
+                    "track_hop_samples": [tr["hop"] for tr in self.trackers],
+                    "track_pairs": [int(tr["picker"].starts.size) for tr in self.trackers],
+                    "alias_score_min_db": ALIAS_SCORE_MIN_DB,
                     "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
         return AnalyzerResult(measurements=measurements, settings=settings)
 

@@ -49,7 +49,7 @@ CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400)
 #: analysis bin spacing; fs/20 samples per frame puts every candidate's mirror on a bin
 BIN_HZ = 20.0
 #: at most this many frames per file are analysed (cost bound, independent of length)
-MAX_FRAMES = 192
+MAX_FRAMES = 128
 #: fewer frames than this and the coherence estimate is meaningless
 MIN_FRAMES = 6
 #: baseband bins below this are left out (DC offsets and rumble carry no image information)
