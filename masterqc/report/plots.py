@@ -49,7 +49,7 @@ CHANNEL_STYLES = [
 ]
 
 #: most points drawn per line; longer series are thinned (min and max per bucket kept)
-MAX_POINTS = 3000
+MAX_POINTS = 1400
 
 FIG_WIDTH_IN = 7.0
 #: axes rectangle left and width shared by every plot over time, so their time axes line up
