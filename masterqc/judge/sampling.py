@@ -59,6 +59,10 @@ def _upsampling(section, m: dict) -> list[Finding]:
     f = check_allowed("sampling.upsampled", "upsampled from a lower rate", counted, section.upsampled,
                       show=_bool_str)
     edge = m.get("effective_bandwidth_hz")
+    if src is None:
+        f.message = ("no converter cliff at a lower standard rate's Nyquist frequency"
+                     + (f" ({m['bandwidth_note']})" if m.get("bandwidth_note") else "")
+                     + f": {f.message}")
     if src is not None:
         detail = (f": content ends in a converter cliff at {_khz(edge)}"
                   f" ({m.get('bandwidth_edge_depth_db')} dB deep), consistent with a {src / 1000:g} kHz source"
@@ -112,6 +116,8 @@ def judge(section, result: dict) -> list[Finding]:
         if value:
             f.message += (f": content ends in a cliff at {_khz(m[key])} ({m.get('bandwidth_edge_depth_db')} dB deep)"
                           ": lossy or filtered source?")
+        elif value is False and m.get("bandwidth_note"):
+            f.message += f" ({m['bandwidth_note']})"
         out.append(f)
 
     if s.imaging is not None:

@@ -68,8 +68,8 @@ HIST_MIN_DB = -200.0
 HIST_MAX_DB = 10.0
 HIST_STEP_DB = 1.0
 #: default display sizes
-#: (about 40 000 cells, whole dB: some 200 kB of JSON)
-SPECTROGRAM_COLUMNS = 400
+#: (about 29 000 cells, whole dB: some 140 kB of JSON)
+SPECTROGRAM_COLUMNS = 300
 SPECTROGRAM_ROWS = 96
 #: display LTAS: points per octave and lowest frequency
 DISPLAY_POINTS_PER_OCTAVE = 48
