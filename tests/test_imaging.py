@@ -174,3 +174,16 @@ def test_locked_order():
 def test_keys_are_declared():
     m = _run(_tone(1000.0, fs=96000), 96000)
     assert set(m) == set(ImagingAnalyzer.measurement_schema)
+
+
+@pytest.mark.parametrize("block", [1, 7, 480, 4800, 100000])
+def test_frame_picker_cuts_the_same_frames_for_any_block_size(block, rng):
+    x = rng.standard_normal((20000, 2))
+    starts = [0, 5, 4000, 4001, 9000, 15000 - 64, 20000 - 64]
+    picker = im.FramePicker(starts, 64, 2)
+    got = []
+    for i in range(0, x.shape[0], block):
+        got += [(s, f.copy()) for s, f in picker.feed(x[i:i + block])]
+    assert [s for s, _f in got] == starts
+    for s, f in got:
+        assert np.array_equal(f, x[s:s + 64])

@@ -40,11 +40,11 @@ from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundame
 #: long frames: 5 Hz bins (fs/5 samples)
 TONAL_BIN_HZ = 5.0
 #: at most this many long frames per file (cost bound)
-MAX_TONAL_FRAMES = 48
+MAX_TONAL_FRAMES = 32
 #: short frame pairs for partial tracks: fs/50 samples (50 Hz bins), second frame fs/800 later
 TRACK_BIN_HZ = 50.0
 TRACK_HOP_DIVISOR = 16
-MAX_TRACK_PAIRS = 200
+MAX_TRACK_PAIRS = 160
 #: per track resolution: (bin Hz, hop divisor, minimum slope Hz/s, mirror position
 #: tolerance Hz).  The minimum slope is a quarter of a bin per hop, the tolerance three
 #: bins (own reasoning).  A coarser second resolution (200 Hz bins) was tried for the fast
@@ -373,7 +373,10 @@ class AliasingAnalyzer(Analyzer):
                                         "folded_hz": round(f2, 1), "folded_at_s": round(t2, 3)}
                                        for t1, f1, t2, f2 in reflections[:5]]
         if not assessable:
-            if not tonal:
+            if self.pick_long.starts.size == 0:
+                detail["reason"] = (f"not assessable: shorter than one analysis frame "
+                                    f"({self.n_long / self.fs:.2f} s)")
+            elif not tonal:
                 detail["reason"] = "not assessable: no tonal passage (noise-like material is never judged)"
             else:
                 detail["reason"] = ("not assessable: the fold frequencies land on the harmonics (the "

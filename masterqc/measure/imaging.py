@@ -17,8 +17,18 @@ frequencies, so the measure is a clean test:
 with ``X_m`` the Hann-windowed DFT of the frame starting at sample ``n_m``.
 Frequencies are taken modulo ``fs`` on the two-sided DFT, so images folded at
 the file's Nyquist are paired with their source automatically.  The frame
-length is ``fs/10`` samples (10 Hz bins), so ``q*r - f`` of every standard rate
-falls on a bin.
+length is ``fs/20`` samples (20 Hz bins): every standard rate is a whole number
+of 20 Hz, so ``q*r - f`` falls on a bin, and 20 Hz bins give twice as many
+frames as 10 Hz bins for the same audio, which is what the coherence estimate
+needs.  Frames are placed at irregular (stratified pseudo-random) positions:
+on a regular grid two unrelated components could look phase-locked.
+
+Guards against look-alikes, each reported as ``untestable`` with its reason:
+periodic material whose fundamental meets the cycle frequency (its harmonics pair
+up exactly like images), periodic material with folded partials (cyclostationary
+at nearly every cycle frequency), and material that is just as coherent at
+control cycle frequencies a few bins away.  Pairs of two spectral lines whose
+frequencies do not sum to the cycle frequency are left out.
 
 For each candidate source rate below the file's rate the analyzer reports
 
@@ -31,9 +41,9 @@ For each candidate source rate below the file's rate the analyzer reports
   :data:`DEFECT_IMAGE_LEVEL_DB`), "trace" (significant coherence with a deeper
   image: a resampler's trace), "none", or "untestable" (with a reason).
 
-Cost: at most :data:`MAX_FRAMES` frames per file, spread evenly over it (a few
-FFTs of ``fs/10`` samples per frame and channel and one gather per candidate
-pair), independent of the file's length.
+Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
+``fs/20`` samples per frame and channel, and one product per candidate pair) plus
+:data:`FOLD_CHECK_FRAMES` longer frames, independent of the file's length.
 """
 
 from __future__ import annotations
@@ -160,36 +170,45 @@ class FramePicker:
     """Cut frames at fixed absolute sample positions out of a stream of blocks.
 
     Results never depend on the block size: frames are taken at the positions
-    given up front, whatever blocks they straddle.
+    given up front, whatever blocks they straddle.  Only the samples a pending
+    frame needs are kept between blocks, so blocks with no frame cost nothing.
     """
 
     def __init__(self, starts, frame_len: int, channels: int):
         self.starts = np.asarray(starts, dtype=np.int64)
         self.frame_len = int(frame_len)
         self.next = 0
-        self.buf = np.zeros((0, channels))
+        self.pos = 0                       # absolute index of the next block's first sample
+        self.buf = np.zeros((0, channels))  # samples from buf_start up to pos
         self.buf_start = 0
 
     def feed(self, block):
         """Yield ``(start, frame)`` for every frame that ``block`` completes."""
-        if self.next >= len(self.starts):
-            return
-        buf = np.concatenate([self.buf, block]) if self.buf.shape[0] else block
-        buf_end = self.buf_start + buf.shape[0]
+        blk_start = self.pos
+        blk_end = blk_start + block.shape[0]
+        self.pos = blk_end
+        n = self.frame_len
         while self.next < len(self.starts):
             s = int(self.starts[self.next])
-            if s + self.frame_len > buf_end:
+            if s + n > blk_end:
                 break
-            off = s - self.buf_start
-            yield s, buf[off:off + self.frame_len]
+            if s >= blk_start:
+                frame = block[s - blk_start:s - blk_start + n]
+            else:
+                frame = np.concatenate([self.buf[s - self.buf_start:], block[:s + n - blk_start]])
+            yield s, frame
             self.next += 1
-        if self.next < len(self.starts):
-            keep_from = max(int(self.starts[self.next]) - self.buf_start, buf.shape[0] - self.frame_len)
-            keep_from = max(0, min(keep_from, buf.shape[0]))
-            self.buf = np.array(buf[keep_from:])
-            self.buf_start += keep_from
+        if self.next >= len(self.starts):
+            self.buf = self.buf[:0]
+            return
+        s = int(self.starts[self.next])
+        if s >= blk_end:
+            self.buf, self.buf_start = self.buf[:0], blk_end
+        elif s >= blk_start:
+            self.buf, self.buf_start = np.array(block[s - blk_start:]), s
         else:
-            self.buf = np.zeros((0, buf.shape[1]))
+            self.buf = np.concatenate([self.buf[s - self.buf_start:], block])
+            self.buf_start = s
 
 
 def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None):
