@@ -87,6 +87,8 @@ def _imaging_detail(m: dict) -> str:
                 txt += f", coherence {coh:.2f}"
             if lvl is not None:
                 txt += f", mirror image {lvl:.1f} dB re baseband"
+            if c.get("channel"):
+                txt += f" ({c['channel']})"
             parts.append(txt)
     return ("; " + "; ".join(parts)) if parts else ""
 
@@ -137,8 +139,12 @@ def judge(section, result: dict) -> list[Finding]:
                           missing_reason=_missing(m, key, detail.get("reason") or "not assessable on this material"))
         if f.status in ("warn", "fail"):
             f.where_s = where
-            if m.get("aliasing_score") is not None:
+            if detail.get("reason"):
+                f.message += f": {detail['reason']}"
+            elif m.get("aliasing_score") is not None:
                 f.message += f" (alias-to-harmonic ratio {m['aliasing_score']:.1f} dB)"
+            if detail.get("median_f0_hz"):
+                f.message += f"; fundamental about {detail['median_f0_hz']:.1f} Hz"
             ex = detail.get("fold_examples") or []
             if ex:
                 f.message += "; e.g. " + ", ".join(_fold_example(e) for e in ex[:3])
