@@ -29,9 +29,25 @@ def default_jobs() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+def _hash_in_threads(fn, items, threads: int = 4):
+    """``map_unordered`` over threads of this process (hashing is I/O and releases the GIL)."""
+    from concurrent.futures import ThreadPoolExecutor, as_completed
+    with ThreadPoolExecutor(max_workers=threads) as ex:
+        futures = {ex.submit(fn, item): i for i, item in enumerate(items)}
+        for f in as_completed(futures):
+            exc = f.exception()
+            yield futures[f], (None if exc else f.result()), exc
+
+
 class InlineBackend:
     workers = 1
     description = "in this process"
+
+    def start(self) -> None:
+        pass
+
+    def hash_unordered(self, fn, items):
+        return self.map_unordered(fn, items)
 
     def map_unordered(self, fn, items):
         for i, item in enumerate(items):
@@ -51,6 +67,16 @@ class PoolBackend:
         self.workers = jobs
         self.description = f"{jobs} worker processes"
         self._pool = None
+
+    def start(self) -> None:
+        """Spawn the workers now (they import the measuring code while the parent hashes)."""
+        from masterqc.batch.work import warm
+        pool = self._get()
+        for _ in range(self.workers):
+            pool.submit(warm)
+
+    def hash_unordered(self, fn, items):
+        return _hash_in_threads(fn, items)
 
     def _get(self):
         if self._pool is None:
@@ -106,6 +132,13 @@ class DaskBackend:
         self.workers = max(1, sum(int(w.get("nthreads", 1)) for w in info.get("workers", {}).values()))
         self.description = f"dask cluster at {address} ({len(info.get('workers', {}))} workers, {self.workers} threads)"
         self._futures = []
+
+    def start(self) -> None:
+        pass
+
+    def hash_unordered(self, fn, items):
+        """On the workers: they see the masters on shared storage, this machine may not hold them."""
+        return self.map_unordered(fn, items)
 
     def map_unordered(self, fn, items):
         from distributed import as_completed

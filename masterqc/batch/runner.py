@@ -212,7 +212,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 it.sha256 = known
             else:
                 to_hash.append(it)
-        for i, value, exc in backend.map_unordered(hash_task, [it.path for it in to_hash]):
+        if to_hash:  # new or changed files: there will be work, let the workers start up meanwhile
+            backend.start()
+        for i, value, exc in backend.hash_unordered(hash_task, [it.path for it in to_hash]):
             it = to_hash[i]
             if exc is not None:
                 it.hash_error = f"cannot be hashed ({type(exc).__name__}: {exc})"
