@@ -182,9 +182,11 @@ def _add_demo(sub) -> None:
     d = sub.add_parser("demo", help="make invented example masters, check them against the demo specs")
     d.add_argument("--out", default="demo-output", help="folder for the masters and reports (default: demo-output)")
     d.add_argument("--format", dest="formats", default=None, help="comma-separated outputs (default as for check)")
+    d.add_argument("--jobs", type=int, default=None, metavar="N",
+                   help="worker processes (default: up to 2; 1 runs everything in this process)")
     d.set_defaults(func=cmd_demo)
 
 
 def cmd_demo(args) -> int:
     from masterqc.demo import run_demo
-    return run_demo(args.out, args.formats)
+    return run_demo(args.out, args.formats, jobs=args.jobs)

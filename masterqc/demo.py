@@ -331,15 +331,36 @@ def demo_specs_dir() -> Path:
 
 # ---------------------------------------------------------------- the command
 
-def run_demo(out_dir="demo-output", formats: str | None = None, stream=None) -> int:
+def _check_one(job: tuple) -> dict:
+    """One demo check (runs in a worker process): returns the verdict and the findings' gist."""
+    from masterqc.pipeline import check_file
+    from masterqc.spec.loader import load_spec
+    path, spec_path, report_dir, fmts, stem = job
+    loaded = load_spec(spec_path)
+    r = check_file(path, loaded, report_dir, fmts, stem=stem)
+    return {"verdict": r["verdict"], "spec_name": loaded.name,
+            "findings": [{k: f[k] for k in ("check", "status", "message")} for f in r["findings"]]}
+
+
+def _pool(jobs: int):
+    if jobs <= 1:
+        return None
+    try:
+        from concurrent.futures import ProcessPoolExecutor
+        return ProcessPoolExecutor(max_workers=jobs)
+    except (OSError, ImportError, NotImplementedError):  # no process support here: run inline
+        return None
+
+
+def run_demo(out_dir="demo-output", formats: str | None = None, stream=None, jobs: int | None = None) -> int:
     """Make the masters, check each against its demo specs, print a summary; returns exit code 0.
 
     The demo's own exit code is 0 when it ran (the faults are deliberate); the
-    per-file verdicts are in the summary and the reports.
+    per-file verdicts are in the summary and the reports.  ``jobs``: worker
+    processes (default: up to 2, the cores of a small machine; 1 runs inline).
     """
     from masterqc.errors import UsageError
-    from masterqc.pipeline import check_file, default_formats, parse_formats, reports_available
-    from masterqc.spec.loader import load_spec
+    from masterqc.pipeline import default_formats, parse_formats, reports_available
 
     out = stream or sys.stdout
     started = time.perf_counter()
@@ -352,28 +373,44 @@ def run_demo(out_dir="demo-output", formats: str | None = None, stream=None) -> 
             raise UsageError(f"--format: {exc}") from None
         if any(f in ("html", "pdf") for f in fmts) and reports_available() is not None:
             raise UsageError(f"HTML/PDF reports cannot be rendered here ({reports_available()}); use --format json")
+    if jobs is None:
+        jobs = max(1, min(2, os.cpu_count() or 1))
+    if jobs < 1:
+        raise UsageError(f"--jobs {jobs}: give a whole number of 1 or more")
     out.write(CAUTION + "\n\n")
     out_dir = Path(out_dir)
     masters_dir = out_dir / "masters"
     masters_dir.mkdir(parents=True, exist_ok=True)
-    specs = {p.stem: load_spec(p) for p in sorted(demo_specs_dir().glob("*.yaml"))}
+    spec_files = {p.stem: p for p in sorted(demo_specs_dir().glob("*.yaml"))}
+    needed = sorted({s for m in MASTERS for s in m.demo_specs})
+    missing = [s for s in needed if s not in spec_files]
+    if missing:
+        raise UsageError(f"demo specs missing from {demo_specs_dir()}: {', '.join(missing)}")
     out.write(f"Writing {len(MASTERS)} invented masters to {masters_dir}/\n")
-    paths = {m.stem: write_master(m, masters_dir) for m in MASTERS}
-    out.write(f"Checking them against {len(specs)} invented delivery specs ({demo_specs_dir()}):\n\n")
-    rows = []
-    for m in MASTERS:
-        for spec_stem in m.demo_specs:
-            loaded = specs[spec_stem]
-            report_dir = out_dir / spec_stem
-            result = check_file(paths[m.stem], loaded, report_dir, fmts, stem=m.stem)
-            missed = [f for f in result["findings"] if f["status"] in ("error", "fail")] or \
-                [f for f in result["findings"] if f["status"] == "warn"]
+    out.flush()
+    jobs_list = [(m, s) for m in MASTERS for s in m.demo_specs]
+    pool = _pool(jobs)
+    try:
+        if pool is not None:
+            paths = dict(zip([m.stem for m in MASTERS], pool.map(write_master, MASTERS, [masters_dir] * len(MASTERS))))
+        else:
+            paths = {m.stem: write_master(m, masters_dir) for m in MASTERS}
+        out.write(f"Checking them against {len(needed)} invented delivery specs ({demo_specs_dir()}):\n\n")
+        out.flush()
+        work = [(str(paths[m.stem]), str(spec_files[s]), str(out_dir / s), tuple(fmts), m.stem) for m, s in jobs_list]
+        results = pool.map(_check_one, work) if pool is not None else map(_check_one, work)
+        for (m, s), r in zip(jobs_list, results):
+            missed = [f for f in r["findings"] if f["status"] in ("error", "fail")] or \
+                [f for f in r["findings"] if f["status"] == "warn"]
             reason = missed[0]["message"] if missed else "meets every requirement"
             if len(missed) > 1:
                 reason += f" (and {', '.join(f['check'] for f in missed[1:])})"
-            rows.append((result["verdict"], m.stem, loaded.name, reason, report_dir))
-            out.write(f"  {result['verdict'].upper():5s} {m.stem:22s} vs {loaded.name}\n"
+            out.write(f"  {r['verdict'].upper():5s} {m.stem:22s} vs {r['spec_name']}\n"
                       f"        {reason}\n")
+            out.flush()
+    finally:
+        if pool is not None:
+            pool.shutdown()
     elapsed = time.perf_counter() - started
     out.write(f"\nReports ({', '.join(fmts)}) are in {out_dir}/<spec>/<master>.*; the masters in {masters_dir}/.\n")
     out.write(f"Done in {elapsed:.1f} s. The faults are deliberate: see masterqc/demo.py for how each master was made.\n")

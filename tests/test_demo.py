@@ -161,7 +161,7 @@ def test_every_master_gets_its_expected_verdict(masters, tmp_path, spec_id):
 
 def test_demo_command(tmp_path):
     buf = io.StringIO()
-    assert run_demo(tmp_path / "demo", "json", stream=buf) == 0
+    assert run_demo(tmp_path / "demo", "json", stream=buf, jobs=1) == 0
     text = buf.getvalue()
     assert CAUTION in text
     for m in MASTERS:
@@ -171,3 +171,14 @@ def test_demo_command(tmp_path):
                 assert json.load(f)["verdict"] == want, (m.stem, spec_id)
             assert f"{want.upper():5s} {m.stem}" in text
     assert (tmp_path / "demo" / "masters" / "tidewater_theme.wav").exists()
+
+
+def test_demo_command_with_two_workers_writes_the_same_verdicts(tmp_path):
+    # the worker processes measure for themselves (no cache there): JSON only, to stay quick
+    buf = io.StringIO()
+    assert main(["demo", "--out", str(tmp_path / "d"), "--format", "json", "--jobs", "2"]) == 0
+    for m in MASTERS:
+        for spec_id in m.demo_specs:
+            with open(tmp_path / "d" / spec_id / f"{m.stem}.json") as f:
+                assert json.load(f)["verdict"] == EXPECTED[m.stem][SPECS.index(spec_id)]
+    del buf
