@@ -36,6 +36,8 @@ KAISER_BETA = 10.0
 #: still hold (delay and ringing of the last samples) is counted (about 12 time constants
 #: of the slowest 20 Hz pole)
 FLUSH_S = 0.5
+#: decimated samples collected before the 20 Hz low-pass runs on them
+LOW_BATCH = 16384
 
 
 class Decimator:
@@ -43,30 +45,28 @@ class Decimator:
 
     ``factor = max(1, fs // LOW_RATE_HZ)``; the FIR (``TAPS_PER_PHASE * factor``
     taps, cut-off at half the output rate, DC gain 1) runs as polyphase
-    matrix products on the interleaved block (rows of ``factor`` frames, no
-    transposition).  :meth:`process` returns the decimated samples as
-    (channels, k); the state (left-over frames, last FIR rows) carries across
-    blocks, so the output never depends on the block size.
+    matrix-vector products on each channel's rows of ``factor`` frames.
+    :meth:`process` returns the decimated samples as (channels, k); the state
+    (left-over frames, last FIR rows) carries across blocks, so the output
+    never depends on the block size.
     """
 
     def __init__(self, fs: float, channels: int):
         self.factor = max(1, int(fs // LOW_RATE_HZ))
         self.rate_hz = fs / self.factor
         self.channels = channels
-        d, q, c = self.factor, TAPS_PER_PHASE, channels
+        d, q = self.factor, TAPS_PER_PHASE
         if d > 1:
             h = signal.firwin(q * d, self.rate_hz / 2.0, window=("kaiser", KAISER_BETA), fs=fs)
-            # branch k as a (d*c, c) matrix acting on one interleaved row of d frames
-            self.hq = np.zeros((q, d * c, c))
-            for ch in range(c):
-                self.hq[:, ch::c, ch] = h.reshape(q, d)
-            self.tail = np.zeros((q - 1, d * c))
-            self.rest = np.zeros((0, c))
+            self.hq = np.ascontiguousarray(h.reshape(q, d))
+            self.tail = np.zeros((channels, q - 1, d))
+            self.rest = np.zeros((0, channels))
 
     def _fir(self, rows: np.ndarray, n_out: int) -> np.ndarray:
-        y = rows[0:n_out] @ self.hq[0]
-        for k in range(1, TAPS_PER_PHASE):
-            y += rows[k:k + n_out] @ self.hq[k]
+        """``y[c, k] = sum over branches b of rows[c, k + b] . hq[b]`` for k < n_out."""
+        y = rows[:, 0:n_out] @ self.hq[0]
+        for b in range(1, TAPS_PER_PHASE):
+            y += rows[:, b:b + n_out] @ self.hq[b]
         return y
 
     def process(self, block: np.ndarray) -> np.ndarray:
@@ -78,17 +78,17 @@ class Decimator:
         self.rest = buf[g * d:].copy()
         if g == 0:
             return np.zeros((c, 0))
-        rows = np.ascontiguousarray(buf[:g * d]).reshape(g, d * c)
+        rows = np.ascontiguousarray(buf[:g * d].T).reshape(c, g, d)
         if g < 2 * q:
-            seq = np.concatenate((self.tail, rows))
+            seq = np.concatenate((self.tail, rows), axis=1)
             y = self._fir(seq, g)
-            self.tail = seq[-(q - 1):].copy()
-            return y.T
+            self.tail = seq[:, -(q - 1):].copy()
+            return y
         # outputs 0..q-2 reach back into the carried rows; the rest use this block's rows only
-        head = self._fir(np.concatenate((self.tail, rows[:q - 1])), q - 1)
+        head = self._fir(np.concatenate((self.tail, rows[:, :q - 1]), axis=1), q - 1)
         body = self._fir(rows, g - q + 1)
-        self.tail = rows[-(q - 1):].copy()
-        return np.concatenate((head, body)).T
+        self.tail = rows[:, -(q - 1):].copy()
+        return np.concatenate((head, body), axis=1)
 
 
 def level_dbfs(value: float) -> float | None:
@@ -127,9 +127,17 @@ class DcOffsetAnalyzer(Analyzer):
         self.sos = signal.butter(SUBSONIC_ORDER, SUBSONIC_EDGE_HZ, btype="lowpass",
                                  fs=self.decimator.rate_hz, output="sos")
         self.zi = np.zeros((self.sos.shape[0], ch, 2))
+        self.pending = []
+        self.pending_n = 0
 
-    def _low(self, y):
+    def _low(self, y, flush=False):
+        """Queue decimated samples (channels, k); filter them in batches (fewer calls, same result)."""
         if y.shape[1]:
+            self.pending.append(y)
+            self.pending_n += y.shape[1]
+        if self.pending_n and (flush or self.pending_n >= LOW_BATCH):
+            y = np.concatenate(self.pending, axis=1) if len(self.pending) > 1 else self.pending[0]
+            self.pending, self.pending_n = [], 0
             low, self.zi = signal.sosfilt(self.sos, y, axis=-1, zi=self.zi)
             self.low_sumsq += np.einsum("ij,ij->i", low, low) * self.decimator.factor
 
@@ -144,7 +152,7 @@ class DcOffsetAnalyzer(Analyzer):
         ch = self.info.channels
         if self.frames:
             self._low(dec.process(np.zeros(((TAPS_PER_PHASE + 1) * dec.factor, ch))))
-            self._low(np.zeros((ch, int(FLUSH_S * dec.rate_hz))))
+            self._low(np.zeros((ch, int(FLUSH_S * dec.rate_hz))), flush=True)
         mean = self.sum / max(self.frames, 1)
         per = [level_dbfs(x) for x in mean]
         sub = [energy_ratio_db(lo, tot) for lo, tot in zip(self.low_sumsq, self.sumsq)]
