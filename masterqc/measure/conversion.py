@@ -161,10 +161,25 @@ class StreamingResampler:
         self.buf = np.concatenate([self.buf, np.zeros((pad, self.channels))], axis=0)
         return self._emit(self._n_total() - 1)
 
-    def describe(self) -> str:
-        return (f"polyphase {self.up}/{self.down}, Kaiser-windowed sinc beta {KAISER_BETA:g}, "
-                f"{self.M - ((-self.half) % self.down)} taps at {self.up}x, cutoff at the lower Nyquist "
+    def response_db(self, freqs_hz, in_rate_hz: float) -> np.ndarray:
+        """Magnitude response (dB, 0 dB = unity gain) of the conversion filter at ``freqs_hz``
+        for an input at ``in_rate_hz``."""
+        f = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
+        work = float(in_rate_hz) * self.up
+        n = np.arange(self.M)
+        h = np.exp(-2j * np.pi * np.outer(f / work, n)) @ self.h
+        return 20.0 * np.log10(np.maximum(np.abs(h) / self.up, 1e-300))
+
+    def describe(self, in_rate_hz: float | None = None) -> str:
+        text = (f"polyphase {self.up}/{self.down}, Kaiser-windowed sinc beta {KAISER_BETA:g}, "
+                f"{self.M - ((-self.half) % self.down)} taps at {self.up}x, -6 dB at the lower Nyquist "
                 "(scipy resample_poly default design)")
+        if in_rate_hz:
+            nyq = min(float(in_rate_hz), float(in_rate_hz) * self.up / self.down) / 2.0
+            g = self.response_db([0.8 * nyq, 0.9 * nyq, 1.1 * nyq], in_rate_hz)
+            text += (f"; {g[0]:.2f} dB at {0.8 * nyq / 1000:.1f} kHz, {g[1]:.2f} dB at {0.9 * nyq / 1000:.1f} kHz, "
+                     f"{g[2]:.0f} dB at {1.1 * nyq / 1000:.1f} kHz")
+        return text
 
 
 class ConversionTracker:
@@ -198,7 +213,7 @@ class ConversionTracker:
 
     def settings(self) -> dict:
         return {"targets_hz": self.targets,
-                "filters": {str(t): rs.describe() for t, rs, _ in self.stages},
+                "filters": {str(t): rs.describe(self.fs) for t, rs, _ in self.stages},
                 "fold_above_floor_db": FOLD_ABOVE_FLOOR_DB, "fold_below_peak_db": FOLD_BELOW_PEAK_DB}
 
     def finish(self, fe) -> dict:
@@ -219,7 +234,7 @@ class ConversionTracker:
             entry = {"target_rate_hz": t, "energy_above_target_nyquist_db": None,
                      "energy_above_target_nyquist_dbfs": None, "fold_to_hz": [], "folds": [],
                      "true_peak_after_dbtp": tp, "true_peak_after_dbtp_per_channel": tp_ch,
-                     "filter": rs.describe()}
+                     "filter": rs.describe(self.fs)}
             if t < self.fs:
                 half = t / 2.0
                 above_mask = freqs > half
