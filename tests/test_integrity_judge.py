@@ -72,7 +72,7 @@ def test_findings_on_a_defective_file(tmp_path):
     assert f["integrity.tail_silence"].where_s == [[3.75, 4.0]]
     assert f["integrity.dropouts"].status == "fail"
     assert f["integrity.dropouts"].where_s == [[120010 / FS, 120490 / FS]]
-    assert "silence runs" in f["integrity.dropouts"].message
+    assert "; digital silence" in f["integrity.dropouts"].message
     bits = f["integrity.effective_bit_depth"]
     assert bits.status == "fail" and bits.measured == 16 and "R" in bits.message
     assert f["integrity.dual_mono"].status == "pass"

@@ -20,6 +20,20 @@ def _per_channel(result: dict, values) -> str:
     return " (" + ", ".join(f"{lab}: {v}" for lab, v in zip(labels, values)) + ")"
 
 
+_WARN_NOTE = " (severity warn: reported as a warning)"
+
+
+def _add_detail(f: Finding, text: str) -> None:
+    """Append ``text`` to the finding's message, before the severity note when there is one."""
+    if f.message.endswith(_WARN_NOTE):
+        f.message = f.message[: -len(_WARN_NOTE)] + text + _WARN_NOTE
+    else:
+        f.message += text
+
+
+_KINDS = {"silence": "digital silence", "frozen": "a frozen sample value"}
+
+
 def _why(m: dict, key: str, reason: str) -> str:
     return reason if key in m else _MISSING.format(key=key)
 
@@ -89,8 +103,8 @@ def judge(section, result: dict) -> list[Finding]:
                          where_s=m.get("clipped_run_where_s") or [],
                          missing_reason=_MISSING.format(key="clipped_runs"))
         if f.status in ("warn", "fail"):
-            f.message += _per_channel(result, m.get("clipped_runs_per_channel"))
-            f.message += f"; longest run {m.get('clipped_run_longest_samples')} samples"
+            _add_detail(f, _per_channel(result, m.get("clipped_runs_per_channel"))
+                        + f"; longest run {m.get('clipped_run_longest_samples')} samples")
         out.append(f)
     if s.over_full_scale_samples is not None:
         out.append(check_limits(
@@ -124,11 +138,10 @@ def judge(section, result: dict) -> list[Finding]:
         f = check_limits("integrity.dropouts", "dropouts", m.get("dropout_count"), s.dropouts,
                          where_s=m.get("dropout_where_s") or [], missing_reason=_MISSING.format(key="dropout_count"))
         if f.status in ("warn", "fail"):
-            f.message += _per_channel(result, m.get("dropout_count_per_channel"))
             events = m.get("dropout_events") or []
-            kinds = {e["kind"] for e in events}
-            if kinds:
-                f.message += "; " + " and ".join(sorted(kinds)) + " runs"
+            kinds = sorted({e.get("kind") for e in events} & set(_KINDS))
+            _add_detail(f, _per_channel(result, m.get("dropout_count_per_channel"))
+                        + ("; " + " and ".join(_KINDS[k] for k in kinds) if kinds else ""))
         out.append(f)
     if s.effective_bit_depth is not None:
         low = _lowest_depth(result, m)
@@ -148,7 +161,7 @@ def judge(section, result: dict) -> list[Finding]:
                           missing_reason=_why(m, "inverted_polarity", mono_reason))
         pairs = m.get("inverted_polarity_pairs") or []
         if f.status in ("warn", "fail") and pairs:
-            f.message += " (" + ", ".join("/".join(p) for p in pairs) + ")"
+            _add_detail(f, " (" + ", ".join("/".join(p) for p in pairs) + ")")
         out.append(f)
     if s.phase_correlation is not None:
         out.append(check_limits("integrity.phase_correlation", "lowest phase correlation (100 ms windows)",
@@ -170,6 +183,6 @@ def judge(section, result: dict) -> list[Finding]:
                                              "no channel pair with signal in both channels"))
         if worst and f.status in ("warn", "fail"):
             side = worst[0].split("/")[0 if worst[1] > 0 else 1]
-            f.message += f"; {side} is louder"
+            _add_detail(f, f"; {side} is louder")
         out.append(f)
     return out
