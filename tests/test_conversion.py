@@ -179,3 +179,14 @@ def test_conversion_does_not_depend_on_block_size():
     b, _ = measure(x, fs, (44100,), block=5000)
     assert a["conversions"][0]["true_peak_after_dbtp"] == pytest.approx(b["conversions"][0]["true_peak_after_dbtp"],
                                                                         abs=1e-9)
+
+
+@pytest.mark.parametrize("up,down,fs", [(1, 2, 96000), (147, 320, 96000), (147, 160, 48000)])
+def test_stated_filter_response_matches_scipy(up, down, fs):
+    # the figures printed in the "filter" text are the response of scipy's own resample_poly design
+    rs = StreamingResampler(up, down, 1)
+    h = sps.firwin(2 * 10 * max(up, down) + 1, 1.0 / max(up, down), window=("kaiser", 5.0))
+    freqs = [1000.0, 15000.0, 20000.0, 30000.0]
+    _w, ref = sps.freqz(h, worN=freqs, fs=fs * up)
+    np.testing.assert_allclose(rs.response_db(freqs, fs), 20 * np.log10(np.abs(ref)), atol=1e-6)
+    assert "dB at" in rs.describe(fs)
