@@ -230,14 +230,15 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
 
 
 def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
-                  missing_reason: str | None = None) -> Finding:
-    """Judge whether ``value`` is one of ``req.allowed``; ``show`` formats values for the message."""
+                  missing_reason: str | None = None, unit: str | None = None) -> Finding:
+    """Judge whether ``value`` is one of ``req.allowed``; ``show`` formats values for the message,
+    ``unit`` (e.g. "Hz") is recorded for renderers."""
     limit = "one of " + ", ".join(show(v) for v in req.allowed)
     if value is None:
         return skipped(check, f"{what}: not judged, {missing_reason or 'the value is unknown for this file'}",
-                       limit=limit, severity=req.severity)
+                       limit=limit, severity=req.severity, unit=unit)
     base = dict(check=check, measured=value, measured_raw=value, limit=limit, severity=req.severity,
-                measured_text=show(value))
+                measured_text=show(value), unit=unit)
     if req.accepts(value):
         return Finding(status="pass", message=f"{what} {show(value)} is allowed", **base)
     status = "fail" if req.severity == "fail" else "warn"
