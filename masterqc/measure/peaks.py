@@ -100,6 +100,21 @@ class TruePeakAnalyzer(Analyzer):
     never below BS.1770-5 Annex 2's minimum for the rate: 4x up to 48 kHz, 2x up
     to 96 kHz, 1x above), ``true_peak_ceiling_dbtp`` and ``true_peak_filter``
     ("kaiser", default, or "annex2" for the standard's example filter, 4x).
+
+    Keys: ``true_peak_dbtp`` (highest channel) and ``..._per_channel`` (None for
+    an all-zero channel); ``true_peak_linear_per_channel``;
+    ``true_peak_oversample_factor``; ``true_peak_underread_max_db``, the worst
+    under-read of a single sine peak up to 0.45*fs at any sub-sample position,
+    computed from the filter actually used (grid loss and passband loss);
+    ``true_peak_ceiling_dbtp`` (the ceiling the overs refer to);
+    ``true_peak_over_count``, the number of frames (sample periods) in which an
+    interpolated value of any channel exceeds the ceiling;
+    ``true_peak_over_ranges_s``, those frames merged into [start, end] ranges
+    (frames closer than 10 ms join one range; the first 100 ranges are listed)
+    and ``true_peak_over_range_count``, the number of all ranges.  Series:
+    ``true_peak_envelope_dbtp`` (maximum over channels per bucket of at most
+    1/2000 of the file, None where silent) with ``true_peak_envelope_time_s``
+    (bucket start times).
     """
 
     name = "true_peak"
