@@ -112,3 +112,43 @@ def test_results_do_not_depend_on_block_size_and_fit_the_schema(segments, channe
         assert set(whole_m) == set(cls.measurement_schema), cls.__name__
         for key, schema in cls.measurement_schema.items():
             jsonschema.validate(whole_m[key], schema)
+
+
+FULL_SECTION = {
+    "clipped_runs": {"max_count": 0}, "over_full_scale_samples": {"max_count": 0},
+    "dc_offset": {"max_dbfs": -60.0}, "subsonic_energy": {"max_db": -30.0},
+    "head_silence": {"min_s": 0.1, "max_s": 2.0}, "tail_silence": {"min_s": 0.1},
+    "head_digital_silence": {"max_s": 1.0}, "tail_digital_silence": {"max_s": 1.0},
+    "dropouts": {"max_count": 0}, "nonfinite_samples": True, "effective_bit_depth": {"min_bits": 24},
+    "dual_mono": [False], "inverted_polarity": [False], "phase_correlation": {"min_corr": 0.0},
+    "phase_correlation_below": {"max_percent": 5.0}, "level_balance": {"max_lu": 1.0},
+}
+
+
+def _base_result():
+    x = build([("tone", 4000, 1), ("zero", 500, 0), ("top", 10, 0), ("nan", 300, 1), ("noise", 2000, 0)],
+              2, True, 7)
+    info = info_for(x, fs=FS, bits=32, is_float=True)
+    m = {}
+    for cls in ANALYZERS:
+        m.update(run(cls, x, info, [4096])[0])
+    return {"format": {"channels": 2, "channel_layout": ["L", "R"], "duration_s": x.shape[0] / FS},
+            "measurements": m}
+
+
+BASE = _base_result()
+
+
+@settings(max_examples=60, deadline=None)
+@given(drop=st.sets(st.sampled_from(sorted(BASE["measurements"]))),
+       nulls=st.sets(st.sampled_from(sorted(BASE["measurements"]))))
+def test_judge_never_raises_on_missing_or_null_measurements(drop, nulls):
+    from masterqc.judge.integrity import judge
+    from masterqc.schema import FINDING_SCHEMA
+    from masterqc.spec import build_spec
+    spec = build_spec({"spec_version": 1, "name": "property", "integrity": FULL_SECTION})
+    m = {k: (None if k in nulls else v) for k, v in BASE["measurements"].items() if k not in drop}
+    findings = judge(spec.integrity, dict(BASE, measurements=m))
+    assert {f.check for f in findings} >= {"integrity.clipped_runs", "integrity.level_balance"}
+    for f in findings:
+        jsonschema.validate(jsonable(f.to_dict()), FINDING_SCHEMA)
