@@ -171,16 +171,24 @@ class FramePicker:
 
     Results never depend on the block size: frames are taken at the positions
     given up front, whatever blocks they straddle.  Only the samples a pending
-    frame needs are kept between blocks, so blocks with no frame cost nothing.
+    frame needs are kept between blocks (as a list of pieces, joined once when a
+    frame completes), so blocks with no frame cost nothing and tiny blocks cost
+    no repeated copying.
     """
 
     def __init__(self, starts, frame_len: int, channels: int):
         self.starts = np.asarray(starts, dtype=np.int64)
         self.frame_len = int(frame_len)
+        self.channels = channels
         self.next = 0
-        self.pos = 0                       # absolute index of the next block's first sample
-        self.buf = np.zeros((0, channels))  # samples from buf_start up to pos
+        self.pos = 0          # absolute index of the next block's first sample
+        self.pieces = []      # consecutive samples from buf_start up to pos
         self.buf_start = 0
+
+    def _joined(self):
+        if len(self.pieces) != 1:
+            self.pieces = [np.concatenate(self.pieces) if self.pieces else np.zeros((0, self.channels))]
+        return self.pieces[0]
 
     def feed(self, block):
         """Yield ``(start, frame)`` for every frame that ``block`` completes."""
@@ -188,26 +196,31 @@ class FramePicker:
         blk_end = blk_start + block.shape[0]
         self.pos = blk_end
         n = self.frame_len
+        if self.next >= len(self.starts):
+            return
+        s = int(self.starts[self.next])
+        if s >= blk_end:                      # nothing of this block is needed
+            self.pieces, self.buf_start = [], blk_end
+            return
+        if not self.pieces:
+            self.buf_start = max(s, blk_start)
+        self.pieces.append(block[max(0, self.buf_start - blk_start):])
         while self.next < len(self.starts):
             s = int(self.starts[self.next])
             if s + n > blk_end:
                 break
-            if s >= blk_start:
-                frame = block[s - blk_start:s - blk_start + n]
-            else:
-                frame = np.concatenate([self.buf[s - self.buf_start:], block[:s + n - blk_start]])
-            yield s, frame
+            buf = self._joined()
+            yield s, buf[s - self.buf_start:s - self.buf_start + n]
             self.next += 1
         if self.next >= len(self.starts):
-            self.buf = self.buf[:0]
+            self.pieces = []
             return
         s = int(self.starts[self.next])
         if s >= blk_end:
-            self.buf, self.buf_start = self.buf[:0], blk_end
-        elif s >= blk_start:
-            self.buf, self.buf_start = np.array(block[s - blk_start:]), s
-        else:
-            self.buf = np.concatenate([self.buf[s - self.buf_start:], block])
+            self.pieces, self.buf_start = [], blk_end
+        elif s > self.buf_start:
+            buf = self._joined()
+            self.pieces = [np.array(buf[s - self.buf_start:])]
             self.buf_start = s
 
 
