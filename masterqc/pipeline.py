@@ -152,7 +152,7 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
 
     outputs = {}
     rendered = [f for f in formats if f in ("html", "pdf")]
-    if rendered and "measurements" in result:
+    if rendered:  # error results get their reports too: the page says why the file was not judged
         try:
             from masterqc.report.render import write_reports
             paths = write_reports(result, out_dir, stem, rendered)

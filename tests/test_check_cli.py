@@ -240,3 +240,14 @@ def test_limiting_requirement_end_to_end(tmp_path):
     (f,) = [f for f in r["findings"] if f["check"] == "normalisation.limiting"]
     assert f["status"] == "fail" and f["miss"] == pytest.approx(3.0, abs=0.15)
     assert valid(r)
+
+
+@pytest.mark.skipif(pipeline.reports_available() is not None, reason="report renderer not importable")
+def test_unreadable_file_gets_an_html_report_too(tmp_path, spec):
+    broken = tmp_path / "broken.wav"
+    broken.write_bytes(b"not audio at all")
+    assert main(["check", str(broken), "--spec", str(spec), "--out", str(tmp_path / "o"),
+                 "--format", "json,html", "--quiet"]) == 3
+    r = load(tmp_path / "o" / "broken.json")
+    assert r["verdict"] == "error" and r["outputs"]["html"] == "broken.html"
+    assert "cannot be checked" in (tmp_path / "o" / "broken.html").read_text()
