@@ -176,3 +176,11 @@ def test_shown_value_and_status_always_agree(value, limit_tenths, kind):
     if f.status == "fail":
         assert f.miss >= 0.1 - 1e-9
         assert math.isclose(f.miss, abs(shown - limit), abs_tol=1e-9)
+
+
+def test_target_limits_are_exact_decimals():
+    # 0.1 + 0.2 is 0.30000000000000004 in binary; the limit must stay 0.3 (judged at 0.1)
+    req = target("db").model_validate({"target_db": 0.1, "tolerance_db": 0.2})
+    assert req.limits() == (-0.1, 0.3) and judging_decimals(req) == 1
+    assert check_limits("x", "level", 0.34, req).status == "pass"
+    assert check_limits("x", "level", 0.36, req).status == "fail"

@@ -40,6 +40,7 @@ is not a number), so the loader can name the key of every mistake.
 from __future__ import annotations
 
 import functools
+from decimal import Decimal
 from typing import Any, ClassVar, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, create_model, model_validator
@@ -135,7 +136,9 @@ class Target(Requirement):
         t = self._get("target")
         if t is not None:
             tol = getattr(self, f"tolerance_{difference_unit(self.unit)}")
-            return (t - tol, t + tol)
+            # in decimal, so -23.0 +- 0.7 gives -23.7 and -22.3, not binary neighbours of them
+            dt, dtol = Decimal(repr(float(t))), Decimal(repr(float(tol)))
+            return (float(dt - dtol), float(dt + dtol))
         return (self._get("min"), self._get("max"))
 
     @property
