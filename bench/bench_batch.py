@@ -13,7 +13,11 @@ in one run, side by side:
 Printed: the speed-up t(jobs 1) / t(jobs 2), the second run's time as a ratio of the
 first (t3 / t2), the audio real-time factor of each run, and the load average (the
 machine is shared: read the ratios, not the absolute times).  Targets, printed beside
-the figures: speed-up >= 1.5 on 2 free cores, second run <= 0.10 of the first.  A
+the figures: speed-up >= 1.5 on 2 free cores, second run <= 0.10 of the first.
+"cores used" is the CPU time of the per-file checks over the wall time: with the
+Linux scheduler's autogroups on, every process of one session shares that session's
+CPU share, so on a machine other sessions keep busy (CPU pressure near 100 %) two
+workers cannot get more CPU than one, and the speed-up stays near 1 or below.  A
 missed target is reported, not fatal; ``--strict`` makes it exit 1.
 
 Usage: ``bench/bench_batch.py [--files 16] [--seconds 20] [--format json] [--dask] [--strict]``.
@@ -62,6 +66,24 @@ def make_folder(root: Path, n: int, seconds: float, sr: int = 48000) -> float:
     return n * seconds
 
 
+def cpu_pressure() -> str:
+    """Linux PSI: share of the last 10 s in which some runnable task waited for a CPU."""
+    try:
+        with open("/proc/pressure/cpu") as f:
+            first = f.readline().split()
+        return next(x for x in first if x.startswith("avg10=")).split("=")[1] + " %"
+    except (OSError, StopIteration):
+        return "n/a"
+
+
+def autogroup() -> str:
+    try:
+        with open("/proc/sys/kernel/sched_autogroup_enabled") as f:
+            return "on" if f.read().strip() == "1" else "off"
+    except OSError:
+        return "n/a"
+
+
 def timed(cfg):
     from masterqc.batch.runner import run_batch
     t0 = time.perf_counter()
@@ -94,7 +116,8 @@ def main(argv=None) -> int:
                            jobs=jobs, scheduler=scheduler, quiet=True)
 
     print(f"folder: {args.files} files x {args.seconds:g} s = {audio_s / 60:.1f} min of audio, outputs {args.format}")
-    print(f"load average before: {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores")
+    print(f"before: load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores, CPU pressure {cpu_pressure()}, "
+          f"scheduler autogroups {autogroup()}")
     t1, o1 = timed(cfg("jobs1", jobs=1))
     t2, o2 = timed(cfg("jobs2", jobs=2))
     t3, o3 = timed(cfg("jobs2", jobs=2))
@@ -102,7 +125,7 @@ def main(argv=None) -> int:
     v1 = {f["rel"]: (f["verdict"], f["integrated_lufs"]) for f in o1.summary["files"]}
     v2 = {f["rel"]: (f["verdict"], f["integrated_lufs"]) for f in o2.summary["files"]}
     assert v1 == v2, "jobs 1 and jobs 2 must give the same results"
-    rows = [("jobs 1 (fresh)", t1), ("jobs 2 (fresh)", t2), ("jobs 2, unchanged second run", t3)]
+    rows = [("jobs 1 (fresh)", t1, o1), ("jobs 2 (fresh)", t2, o2), ("jobs 2, unchanged second run", t3, o3)]
     td = None
     if args.dask:
         from distributed import LocalCluster
@@ -110,12 +133,13 @@ def main(argv=None) -> int:
             td, od = timed(cfg("dask", scheduler=cl.scheduler_address))
         vd = {f["rel"]: (f["verdict"], f["integrated_lufs"]) for f in od.summary["files"]}
         assert vd == v1, "the dask run must give the same results"
-        rows.append(("dask LocalCluster, 2 processes (fresh)", td))
-    print(f"load average after: {os.getloadavg()[0]:.2f}")
+        rows.append(("dask LocalCluster, 2 processes (fresh)", td, od))
+    print(f"after:  load average {os.getloadavg()[0]:.2f}, CPU pressure {cpu_pressure()}")
     print()
-    print(f"{'run':<42}{'time s':>9}{'x real time':>13}")
-    for name, t in rows:
-        print(f"{name:<42}{t:9.2f}{audio_s / t:13.1f}")
+    print(f"{'run':<42}{'time s':>9}{'x real time':>13}{'check CPU s':>13}{'cores used':>12}")
+    for name, t, o in rows:
+        cpu = sum(f.get("cpu_s") or 0.0 for f in o.summary["files"])
+        print(f"{name:<42}{t:9.2f}{audio_s / t:13.1f}{cpu:13.2f}{cpu / t:12.2f}")
     speedup = t1 / t2
     second = t3 / t2
     print()

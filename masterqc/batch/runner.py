@@ -77,6 +77,7 @@ class Item:
     result: dict | None = None
     analysed: bool = False
     elapsed_s: float = 0.0
+    cpu_s: float = 0.0
     hash_error: str | None = None
 
 
@@ -331,6 +332,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             else:
                 result = value["result"]
                 lead.elapsed_s = value["elapsed_s"]
+                lead.cpu_s = value.get("cpu_s", 0.0)
                 wrote = True
             internal = bool((result.get("error") or {}).get("internal"))
             got_hash = (result.get("file") or {}).get("sha256")
@@ -394,7 +396,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
             change = "unchanged"
         files.append({
             "path": it.path, "rel": it.rel, "release": it.release, "verdict": v, "analysed": it.analysed,
-            "elapsed_s": it.elapsed_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
+            "elapsed_s": it.elapsed_s, "cpu_s": it.cpu_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
             "sha256": it.sha256, "size_bytes": it.size_bytes,
             "spec": (r.get("spec") or {}).get("name"), "spec_key": it.rule.key if it.rule else None,
             "integrated_lufs": m.get("integrated_lufs"), "true_peak_dbtp": m.get("true_peak_dbtp"),

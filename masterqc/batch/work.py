@@ -69,7 +69,7 @@ def check_task(task: dict) -> dict:
 
     ``task``: ``path``, ``spec_path``, ``spec_key``, ``out_dir``, ``stem``, ``formats``,
     ``layout`` (list or None).  Returns ``{"result": <result dict>, "elapsed_s": float,
-    "worker_pid": int}``.  A failure outside reading the master (an internal bug)
+    "cpu_s": float, "worker_pid": int}``.  A failure outside reading the master (an internal bug)
     still returns a result: an error result whose ``error.internal`` is true, so the
     batch records it and goes on.
     """
@@ -77,6 +77,7 @@ def check_task(task: dict) -> dict:
     from masterqc.pipeline import check_file, error_result
 
     t0 = time.perf_counter()
+    c0 = time.process_time()
     layout = tuple(task["layout"]) if task.get("layout") else None
     loaded = _spec(task["spec_path"], task["spec_key"], layout)
     try:
@@ -86,5 +87,6 @@ def check_task(task: dict) -> dict:
         result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
         result["error"]["internal"] = True
         result["outputs"] = {}
-    return {"result": result, "elapsed_s": time.perf_counter() - t0, "worker_pid": os.getpid(),
+    return {"result": result, "elapsed_s": time.perf_counter() - t0, "cpu_s": time.process_time() - c0,
+            "worker_pid": os.getpid(),
             "tool_version": __version__}
