@@ -183,14 +183,19 @@ class ChannelRelationAnalyzer(Analyzer):
         if not self.pairs:
             self.pos += n
             return
-        x = block[:, self.left]
-        y = block[:, self.right]
         w = self.window
         first = (-self.pos) % w  # frames until the next window boundary
         cuts = np.arange(first, n, w)
         if cuts.size == 0 or cuts[0] != 0:
             cuts = np.concatenate(([0], cuts))
-        sums = np.stack([np.add.reduceat(p, cuts, axis=0) for p in (x * y, x * x, y * y)])  # (3, segments, pairs)
+        # per pair on 1-D column views: reduceat over a (frames, 1) array is many times slower
+        sums = np.empty((3, cuts.size, len(self.pairs)))  # (xy, xx, yy) per segment and pair
+        for k, (a, b) in enumerate(self.pairs):
+            x = block[:, a]
+            y = block[:, b]
+            sums[0, :, k] = np.add.reduceat(x * y, cuts)
+            sums[1, :, k] = np.add.reduceat(x * x, cuts)
+            sums[2, :, k] = np.add.reduceat(y * y, cuts)
         self.total += sums.sum(axis=1)
         lengths = np.diff(np.append(cuts, n))
         sums[:, 0] += self.acc
@@ -208,7 +213,9 @@ class ChannelRelationAnalyzer(Analyzer):
             self.acc_frames = int(lengths[-1])
         self.pos += n
         if self.sos is not None:
-            kw, self.zi = signal.sosfilt(self.sos, block[:, self.kchannels], axis=0, zi=self.zi)
+            # every channel paired (stereo): filter the block itself, no copy
+            src = block if self.kchannels == list(range(block.shape[1])) else block[:, self.kchannels]
+            kw, self.zi = signal.sosfilt(self.sos, src, axis=0, zi=self.zi)
             self.kenergy += column_sum(kw * kw)
 
     def _name(self, p):
