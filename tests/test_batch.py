@@ -255,17 +255,22 @@ def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_p
     c = second.summary["counts"]
     assert (c["analysed"], c["reused"]) == (0, 24)
     assert second.summary["changes"] == {"new": [], "fixed": [], "newly_failing": [], "gone": []}
-    # fix the too-loud track, break a passing one: exactly those two are analysed again
+    # fix the too-loud track: exactly that file is analysed again, and it counts as fixed
     tone(os.path.join(root, "album_b", "02.wav"), -14.3)
-    tone(os.path.join(root, "album_a", "03.wav"), -3.0)
     third = run_batch(BatchConfig(**cfg))
     files = by_rel(third.summary)
-    assert sorted(r for r, f in files.items() if f["analysed"]) == ["album_a/03.wav", "album_b/02.wav"]
-    ch = third.summary["changes"]
-    assert [x.split("/", 1)[1] for x in ch["fixed"]] == ["album_b/02.wav"]
-    assert [x.split("/", 1)[1] for x in ch["newly_failing"]] == ["album_a/03.wav"]
+    assert [r for r, f in files.items() if f["analysed"]] == ["album_b/02.wav"]
+    assert files["album_b/02.wav"]["verdict"] == "pass" and files["album_b/02.wav"]["change"] == "fixed"
+    assert [x.split("/", 1)[1] for x in third.summary["changes"]["fixed"]] == ["album_b/02.wav"]
+    # break a passing one: exactly that file, newly failing
+    tone(os.path.join(root, "album_a", "03.wav"), -3.0)
+    fourth = run_batch(BatchConfig(**cfg))
+    files = by_rel(fourth.summary)
+    assert [r for r, f in files.items() if f["analysed"]] == ["album_a/03.wav"]
+    ch = fourth.summary["changes"]
+    assert ch["fixed"] == [] and [x.split("/", 1)[1] for x in ch["newly_failing"]] == ["album_a/03.wav"]
     html = (out / "index.html").read_text(encoding="utf-8")
-    assert "Newly failing (1)" in html and "Fixed (1)" in html
+    assert "Newly failing (1)" in html and "Fixed (0)" in html and "album_a/03.wav" in html.split("Newly failing")[1]
     # the runs command lists the three runs and one file's history
     import io
     import contextlib
@@ -273,14 +278,15 @@ def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_p
     with contextlib.redirect_stdout(buf):
         assert main(["runs", "--out", str(out), "--json", "list"]) == 0
     runs = json.loads(buf.getvalue())
-    assert [r["run_id"] for r in runs][:3] == [third.run_id, second.run_id, third.run_id - 2]
-    assert [r["analysed"] for r in runs[:3]] == [2, 0, 19]
+    assert [r["run_id"] for r in runs] == [fourth.run_id, third.run_id, second.run_id, second.run_id - 1]
+    assert [r["analysed"] for r in runs] == [1, 1, 0, 19]
+    assert [r["status"] for r in runs] == ["complete"] * 4
     buf = io.StringIO()
     with contextlib.redirect_stdout(buf):
         assert main(["runs", "--out", str(out), "--json", "history", str(root / "album_b" / "02.wav")]) == 0
     hist = json.loads(buf.getvalue())
-    assert [h["verdict"] for h in hist] == ["fail", "fail", "pass"]
-    assert [h["analysed"] for h in hist] == [1, 0, 1]
+    assert [h["verdict"] for h in hist] == ["fail", "fail", "pass", "pass"]
+    assert [h["analysed"] for h in hist] == [1, 0, 1, 0]
     # restore for the dask comparison
     tone(os.path.join(root, "album_b", "02.wav"), -8.0)
     tone(os.path.join(root, "album_a", "03.wav"), -14.0 + 0.1 * 3)

@@ -270,7 +270,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                         outputs[fmt] = f"{it.stem}.{fmt}"
                     else:
                         todo.append(fmt)
-                if todo and "measurements" in result:
+                if todo:  # error results get their reports too, as check_file writes them
                     try:
                         from masterqc.report.render import write_reports
                         for p in write_reports(result, it.out_folder, it.stem, todo) or []:
