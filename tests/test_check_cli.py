@@ -140,7 +140,9 @@ def test_wrong_sample_rate_and_silence(tmp_path, spec):
     s = load(tmp_path / "silent.json")
     assert valid(s)
     f = next(f for f in s["findings"] if f["check"] == "loudness.integrated")
-    assert f["status"] == "skipped" and "silence" in f["message"] and f["measured"] is None
+    # digital silence lies below the -70 LUFS gate: it misses the loudness target (not skipped)
+    assert f["status"] == "fail" and "silence" in f["message"] and f["measured"] is None
+    assert s["verdict"] == "fail"
     assert s["normalisation"]["gain_db"] is None and "silent" in s["normalisation"]["note"]
 
 

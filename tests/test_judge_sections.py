@@ -102,15 +102,29 @@ def test_overs_carry_their_times(spec):
     assert f.to_dict()["where_s"] == [[1.5, 1.52], [3.0, 3.01]]
 
 
-def test_silence_and_missing_measurements_are_skipped(spec):
+def test_silence_misses_a_loudness_target_and_meets_ceilings(spec):
+    # A 30 s programme with no gated loudness lies below the -70 LUFS absolute gate
+    # (ITU-R BS.1770-5, gating): it cannot reach a -23 LUFS target, and cannot exceed a ceiling.
     findings, verdict = judge(spec, result(integrated_lufs=None, loudness_range_lu=None,
                                            max_momentary_lufs=None, max_short_term_lufs=None,
                                            true_peak_dbtp=None, sample_peak_dbfs=None))
     f = by_check(findings)
-    for c in ("loudness.integrated", "loudness.range", "peaks.true_peak", "peaks.sample_peak"):
+    assert f["loudness.integrated"].status == "fail" and "silence" in f["loudness.integrated"].message
+    assert f["loudness.integrated"].measured is None
+    for c in ("loudness.max_momentary", "loudness.max_short_term"):
+        assert f[c].status == "pass"
+    for c in ("loudness.range", "peaks.true_peak", "peaks.sample_peak"):
         assert f[c].status == "skipped" and "not judged" in f[c].message
-    assert "silence" in f["loudness.integrated"].message
-    assert verdict == "pass"  # skipped never decides the verdict
+    assert verdict == "fail"
+
+
+def test_too_short_to_measure_is_skipped(spec):
+    findings, verdict = judge(spec, result(integrated_lufs=None, loudness_range_lu=None,
+                                           max_momentary_lufs=None, max_short_term_lufs=None,
+                                           duration_s=0.3))
+    f = by_check(findings)
+    for c in ("loudness.integrated", "loudness.max_momentary", "loudness.max_short_term", "loudness.range"):
+        assert f[c].status == "skipped" and "not judged" in f[c].message
     r = result()
     del r["measurements"]["loudness_range_lu"]
     f = by_check(judge(spec, r)[0])["loudness.range"]

@@ -229,6 +229,28 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     return Finding(status="pass", miss=None, message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
 
 
+def check_below_measurable(check: str, what: str, req: Requirement, reason: str) -> Finding:
+    """Judge a quantity known only to lie below the measurable range (e.g. loudness of digital
+    silence, below the -70 LUFS absolute gate): a floor or target is missed, a ceiling is met.
+
+    A master with no gated loudness cannot meet a loudness target, so it must not pass by being
+    skipped; it equally cannot exceed a ceiling.
+    """
+    dec = judging_decimals(req)
+    limit = limit_text(req, dec)
+    u = unit_label(req.unit)
+    lo, hi = req.limits()
+    base = dict(check=check, measured=None, measured_raw=None, limit=limit, unit=u,
+                severity=req.severity, decimals=dec, measured_text="below measurable range")
+    if lo is not None:
+        status = "fail" if req.severity == "fail" else "warn"
+        note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
+        return Finding(status=status, miss=None,
+                       message=f"{what}: {reason}, so it is below the limit {fmt(lo, dec)} {u}{note}".rstrip(),
+                       **base)
+    return Finding(status="pass", miss=None, message=f"{what}: {reason}; meets {limit}", **base)
+
+
 def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
                   missing_reason: str | None = None, unit: str | None = None) -> Finding:
     """Judge whether ``value`` is one of ``req.allowed``; ``show`` formats values for the message,

@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_limits
+from masterqc.judge.core import Finding, check_below_measurable, check_limits
 
 #: below this duration a loudness-range figure is shown with a caution (EBU R 128)
 SHORT_PROGRAMME_S = 60.0
 
 _SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
+
+#: shortest programme (s) for which a None means "below the gate" rather than "too short to measure"
+_WINDOW_S = {"integrated": 0.4, "max_momentary": 0.4, "max_short_term": 3.0}
 
 #: spec key -> (check id, what, measurement key, why a None can happen)
 _CHECKS = [
@@ -32,8 +35,12 @@ def judge(section, result: dict) -> list[Finding]:
             out.append(check_limits(check, what, None, req,
                                     missing_reason=f"the measurement {mkey} is missing from the result"))
             continue
-        f = check_limits(check, what, m[mkey], req, missing_reason=why)
         duration = (result.get("format") or {}).get("duration_s")
+        if m[mkey] is None and key in _WINDOW_S and duration is not None and duration >= _WINDOW_S[key]:
+            # Long enough to measure, yet no value: the programme lies below the -70 LUFS gate.
+            out.append(check_below_measurable(check, what, req, _SILENT))
+            continue
+        f = check_limits(check, what, m[mkey], req, missing_reason=why)
         if key == "range" and f.status != "skipped" and duration is not None and duration < SHORT_PROGRAMME_S:
             f.message += " (loudness range is not recommended for programmes under one minute, EBU R 128)"
         out.append(f)
