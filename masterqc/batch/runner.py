@@ -309,14 +309,19 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         keys = []
         tasks = []
         for k in list(groups):
-            lead = groups[k][0]
-            if not _safe_folder(out_dir, lead.out_folder):
-                for it in groups[k]:  # place() turns this into an error row and writes nothing
+            safe = []
+            for it in groups[k]:
+                if _safe_folder(out_dir, it.out_folder):
+                    safe.append(it)
+                else:  # place() turns this into an error row and writes nothing
                     finish(it, place(it, _error_result(
                         it, it.rule.loaded, f"its output folder {it.out_folder} resolves outside {out_dir} "
                                             "(a link planted there?); not analysed"),
                                      False), False)
+            if not safe:
                 continue
+            groups[k] = safe
+            lead = safe[0]
             keys.append(k)
             tasks.append({"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
                           "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(cfg.formats),
