@@ -229,7 +229,7 @@ def test_error_result_of_an_unreadable_master_renders(tmp_path):
     page = render_html(result)
     tree = ET.fromstring(page.split("\n", 1)[1])
     assert _text(tree.find("body").find("header")).startswith("masterqc delivery report")
-    assert "ERROR" in _text(tree.find("body").find("header"))
+    assert "ERROR Could not be checked: the master could not be read" in _text(tree.find("body").find("header"))
     assert "cannot be checked" in page
 
 

@@ -275,6 +275,8 @@ def verdict_view(result: dict, findings: list[dict]) -> dict:
     elif status == "fail":
         summary = (f"Does not meet {spec_ref}: {_plural(counts['fail'], 'check')} failed"
                    + (f", {_plural(counts['warn'], 'warning')}" if counts["warn"] else ""))
+    elif "measurements" not in result:
+        summary = "Could not be checked: the master could not be read, so nothing was measured"
     else:
         summary = (f"Could not be fully judged against {spec_ref}: {_plural(counts['error'], 'check')} "
                    "ended in an error" + (f", {counts['fail']} failed" if counts["fail"] else ""))
