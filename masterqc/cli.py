@@ -37,7 +37,11 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("file")
     m.add_argument("--json", action="store_true", help="print the JSON result object")
     m.add_argument("--true-peak-oversample", type=int, choices=(4, 8, 16), default=4,
-                   help="true-peak oversampling factor (default 4)")
+                   help="true-peak oversampling factor (default 4; never below ITU-R BS.1770 Annex 2's "
+                        "minimum for the file's rate)")
+    m.add_argument("--true-peak-filter", choices=("kaiser", "annex2"), default="kaiser",
+                   help="interpolation filter: masterqc's Kaiser-windowed sinc (default) or the "
+                        "BS.1770-5 Annex 2 example filter (4x only)")
     m.add_argument("--layout", help="channel labels overriding the file's, e.g. L,R,C,LFE,Ls,Rs")
     m.add_argument("--block-frames", type=int, default=65536, help=argparse.SUPPRESS)
     m.add_argument("--quiet", action="store_true", help="no progress display")
@@ -56,9 +60,13 @@ def cmd_measure(args) -> int:
     from masterqc.progress import Progress
     from masterqc.report.text import measurement_table
 
+    if args.true_peak_filter == "annex2" and args.true_peak_oversample != 4:
+        raise UsageError("--true-peak-filter annex2 is defined for 4x only; "
+                         "use --true-peak-oversample 4 or the kaiser filter")
     layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
     options = MeasureOptions(block_frames=args.block_frames, channel_layout=layout,
-                             true_peak_oversample=args.true_peak_oversample)
+                             true_peak_oversample=args.true_peak_oversample,
+                             true_peak_filter=args.true_peak_filter)
     progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)
     try:
         result = measure_file(args.file, options, progress=progress.update)

@@ -138,3 +138,14 @@ def test_result_schema_command(capsys):
     jsonschema.Draft202012Validator.check_schema(schema)
     for key in ("integrated_lufs", "loudness_range_lu", "true_peak_dbtp", "sample_peak_dbfs_per_channel"):
         assert key in schema["properties"]["measurements"]["properties"]
+
+
+def test_annex2_filter_only_at_4x(tmp_path, capsys):
+    path = tmp_path / "a.wav"
+    sf.write(path, np.c_[_sine(1.0, 1000, 0.5)], RATE_HZ, subtype="PCM_16")
+    code, out, err = _run(["measure", str(path), "--true-peak-filter", "annex2", "--true-peak-oversample", "8"], capsys)
+    assert code == 2 and "4x only" in err
+    code, out, err = _run(["measure", str(path), "--json", "--true-peak-filter", "annex2"], capsys)
+    assert code == 0
+    # Tech 3341 tolerance for a 1 kHz sine: true peak within +0.2/-0.4 dB of the 0.5 peak (-6.02 dBFS).
+    assert json.loads(out)["measurements"]["true_peak_dbtp"] == pytest.approx(-6.02, abs=0.2)
