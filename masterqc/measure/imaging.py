@@ -90,6 +90,10 @@ ASYMMETRY_DB = 10.0
 #: 1e-6 makes a chance inclusion a one-in-several-hundred-files event)
 PAIR_P = 1e-6
 MIN_SIGNIFICANT_PAIRS = 3
+#: the image power seen across the file's two halves must reach this fraction of the
+#: whole-file estimate (own reasoning: a true image gives 1 within noise; a pair drifting by
+#: a quarter turn or more between halves gives 0 or less)
+HALVES_AGREEMENT = 0.25
 #: variance inflation of the null statistic: Hann-window leakage correlates adjacent bins
 #: (own reasoning: the squared coherence between neighbouring Hann bins of white noise is
 #: 0.25, which gives a factor of about 1.5; 2 is taken for margin)
@@ -448,6 +452,11 @@ class ImagingAnalyzer(Analyzer):
         cat = (lambda i: np.concatenate([p[i] for p in parts]) if parts else np.zeros(0, dtype=np.int64))
         self.all_ka, self.all_kb, self.all_alpha = cat(0), cat(1), cat(2)
         self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
+        # the first half of the frames separately: a true image keeps its phase over the
+        # whole file, a chance alignment of two unrelated components drifts between halves
+        self.half = int(self.picker.starts.size) // 2
+        self.S_first = np.zeros_like(self.S)
+        self.power_first = np.zeros_like(self.power)
         self.alphas, self.alpha_index = np.unique(self.all_alpha, return_inverse=True)
 
     def process(self, block) -> None:
@@ -463,7 +472,11 @@ class ImagingAnalyzer(Analyzer):
                     self.folded_frames += 1
         for start, frame in self.picker.feed(block):
             spec = np.fft.rfft(frame.T * self.window, axis=-1)
-            self.power += spec.real ** 2 + spec.imag ** 2
+            pw = spec.real ** 2 + spec.imag ** 2
+            self.power += pw
+            first = self.frames < self.half
+            if first:
+                self.power_first += pw
             self.frames += 1
             if self.all_ka.size == 0:
                 continue
@@ -474,6 +487,8 @@ class ImagingAnalyzer(Analyzer):
             prod *= np.take(full, self.all_kb, axis=1)
             prod *= phase
             self.S += prod
+            if first:
+                self.S_first += prod
 
     def _line_map(self, ch: int) -> np.ndarray:
         """Per one-sided bin: the refined frequency (Hz) of the spectral line whose main lobe
@@ -506,8 +521,16 @@ class ImagingAnalyzer(Analyzer):
         lb = np.where(kb > self.n_fft // 2, -lines[ib], lines[ib])
         delta = np.mod(la + lb - c["alpha"] * self.bin_hz + self.fs / 2.0, self.fs) - self.fs / 2.0
         keep = ~(np.abs(delta) > LINE_PAIR_TOLERANCE_HZ)  # NaN (not two lines) is kept
+        # cross-half coherence Re(gamma_first * conj(gamma_second)): unbiased for gamma^2, and
+        # near zero or negative for two components whose phase drifts over the file
+        pf = self.power_first[ch]
+        ps = pw - pf
+        s_all = self.S[ch, c["slice"]]
+        s_first = self.S_first[ch, c["slice"]]
+        den = np.sqrt(np.maximum(pf[ia] * pf[ib], 1e-300) * np.maximum(ps[ia] * ps[ib], 1e-300))
+        cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
         if not keep.all():
-            g2, w, p1, p2 = g2[keep], w[keep], p1[keep], p2[keep]
+            g2, w, p1, p2, cross = g2[keep], w[keep], p1[keep], p2[keep], cross[keep]
             if g2.size == 0:
                 return None
         wsum = float(w.sum())
@@ -536,7 +559,12 @@ class ImagingAnalyzer(Analyzer):
         x_q = 1.0 - PAIR_P ** (1.0 / max(m_eff - 1.0, 1.0))
         sig = g2 > x_q
         t_s = float(np.sum(g2[sig] * w[sig])) if int(sig.sum()) >= MIN_SIGNIFICANT_PAIRS else 0.0
-        return z_w, z_u, t, min(1.0, max(0.0, coh)), t_a, z_a, t_s
+        # the same three estimates from the cross-half coherence
+        x_all = float(np.sum(cross * w))
+        x_asym = float(np.sum(cross[asym] * wa))
+        x_sig = float(np.sum(cross[sig] * w[sig])) if int(sig.sum()) >= MIN_SIGNIFICANT_PAIRS else 0.0
+        return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "t_a": t_a, "z_a": z_a,
+                "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig}
 
     def _assess(self, cand, ch: int, f0):
         m = self.frames
@@ -568,12 +596,12 @@ class ImagingAnalyzer(Analyzer):
         if main is None:
             base["reason"] = "no signal at the mirror frequencies"
             return base
-        z_w, z_u, t, coh, t_a, z_a, t_s = main
+        z_w, z_u, coh = main["z_w"], main["z_u"], main["coh"]
         z = max(z_w, z_u)
         base["coherence"] = round(coh, 4)
         base["z_score"] = round(z, 2)
         controls = [self._stats(c, ch) for c in cand["cycles"][1:]]
-        z_ctrl = max([max(c[0], c[1]) for c in controls if c is not None], default=0.0)
+        z_ctrl = max([max(c["z_w"], c["z_u"]) for c in controls if c is not None], default=0.0)
         if z < Z_SIGNIFICANT:
             base["verdict"] = "none"
             return base
@@ -582,8 +610,16 @@ class ImagingAnalyzer(Analyzer):
                               f"{z_ctrl:.0f} against {z:.0f}): periodic or strongly modulated content, "
                               "not an upsampler's images")
             return base
-        estimates = [t_s] + ([t] if z_w >= Z_LEVEL else []) + ([t_a] if z_a >= Z_LEVEL else [])
-        level = linear_to_db10(max(estimates) / base_power)
+        full = [main["t_s"]] + ([main["t"]] if z_w >= Z_LEVEL else []) + \
+            ([main["t_a"]] if main["z_a"] >= Z_LEVEL else [])
+        halves = [main["x_s"]] + ([main["x"]] if z_w >= Z_LEVEL else []) + \
+            ([main["x_a"]] if main["z_a"] >= Z_LEVEL else [])
+        if max(full) > 0 and max(halves) < HALVES_AGREEMENT * max(full):
+            base["verdict"] = "none"
+            base["reason"] = ("coherence not kept between the two halves of the file: a chance "
+                              "alignment of unrelated components, not an image")
+            return base
+        level = linear_to_db10(min(max(full), max(halves)) / base_power)
         base["image_level_db"] = None if level is None else round(level, 2)
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
             base["verdict"] = "defect"
