@@ -197,7 +197,9 @@ def _attr(text: str) -> str:
 
 def _time_axis(ax, axis: TimeAxis, duration_s: float) -> None:
     ax.set_xlim(0.0, max(duration_s, 1e-3))
-    ax.xaxis.set_major_locator(MaxNLocator(nbins=8, steps=[1, 2, 3, 5, 6, 10]))
+    # timecode labels are twice as long as m:ss ones: fewer ticks keep them apart
+    nbins = 6 if axis.offset_s is not None else 8
+    ax.xaxis.set_major_locator(MaxNLocator(nbins=nbins, steps=[1, 2, 3, 5, 6, 10]))
     ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _pos: axis.tick(x)))
     ax.set_xlabel(axis.label)
 
@@ -439,7 +441,7 @@ def markers_plot(duration_s: float, axis: TimeAxis, rows) -> str:
             if bars:
                 ax.broken_barh(bars, (y - 0.22, 0.4), facecolors=color, edgecolors=BLACK, linewidth=0.3,
                                hatch=hatch)
-                short = [a + w / 2 for a, w in bars if w <= min_w * 1.01]
+                short = [a + w / 2 for a, w in bars if w <= min_w * 6]  # narrower than about 4 pixels
                 if short:
                     ax.plot(short, [y + 0.3] * len(short), ls="none", marker="v", ms=3.8, color=color,
                             markeredgecolor=BLACK, markeredgewidth=0.3, clip_on=False)

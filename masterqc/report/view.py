@@ -133,7 +133,9 @@ class TimeLabels:
         if b - a < 0.01:
             return self.at(a)
         if self.has_start and self._tc is not None:
-            return f"{self.timecode(a)}\u2013{self.timecode(b)} ({fmt.clock(a, 2)}\u2013{fmt.clock(b, 2)})"
+            ta, tb = self.timecode(a), self.timecode(b)
+            tc = ta if ta == tb else f"{ta}\u2013{tb}"  # within one frame: one label
+            return f"{tc} ({fmt.clock(a, 2)}\u2013{fmt.clock(b, 2)})"
         return f"{fmt.clock(a, 2)}\u2013{fmt.clock(b, 2)}"
 
     def axis(self) -> plots.TimeAxis:
