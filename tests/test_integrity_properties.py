@@ -139,16 +139,29 @@ def _base_result():
 BASE = _base_result()
 
 
+def _full_spec():
+    from masterqc.spec import build_spec
+    return build_spec({"spec_version": 1, "name": "property", "integrity": FULL_SECTION})
+
+
+SPEC = _full_spec()
+
+
+def _finding_validator():
+    from masterqc.schema import FINDING_SCHEMA
+    return jsonschema.Draft202012Validator(FINDING_SCHEMA)
+
+
+FINDING_VALIDATOR = _finding_validator()
+
+
 @settings(max_examples=60, deadline=None)
 @given(drop=st.sets(st.sampled_from(sorted(BASE["measurements"]))),
        nulls=st.sets(st.sampled_from(sorted(BASE["measurements"]))))
 def test_judge_never_raises_on_missing_or_null_measurements(drop, nulls):
     from masterqc.judge.integrity import judge
-    from masterqc.schema import FINDING_SCHEMA
-    from masterqc.spec import build_spec
-    spec = build_spec({"spec_version": 1, "name": "property", "integrity": FULL_SECTION})
     m = {k: (None if k in nulls else v) for k, v in BASE["measurements"].items() if k not in drop}
-    findings = judge(spec.integrity, dict(BASE, measurements=m))
+    findings = judge(SPEC.integrity, dict(BASE, measurements=m))
     assert {f.check for f in findings} >= {"integrity.clipped_runs", "integrity.level_balance"}
     for f in findings:
-        jsonschema.validate(jsonable(f.to_dict()), FINDING_SCHEMA)
+        FINDING_VALIDATOR.validate(jsonable(f.to_dict()))
