@@ -89,7 +89,7 @@ class SilenceAnalyzer(Analyzer):
             label = self.info.channel_layout[c]
             for s, n, v in zip(starts[:room].tolist(), lengths[:room].tolist(), values[:room].tolist()):
                 self.events.append({"channel": label, "start_s": s / self.fs, "end_s": (s + n) / self.fs,
-                                    "kind": "silence" if v == 0.0 else "frozen", "value": v})
+                                    "kind": "silence" if v == 0.0 else "frozen", "value": v + 0.0})
 
     def _extent(self, mask, what):
         """Update the first/last frame index where ``mask`` (frames, channels) holds in any channel."""
