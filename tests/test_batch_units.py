@@ -466,3 +466,31 @@ def test_link_planted_in_the_output_folder_writes_nothing_outside(tmp_path, rng)
     assert files["in/sub/a.wav"]["verdict"] == "error"
     assert "resolves outside" in files["in/sub/a.wav"]["first_problem"]
     assert os.listdir(elsewhere) == []
+
+
+def test_spec_in_folder_rules(tmp_path, rng):
+    """Each album folder carries its own spec; the nearest one wins; a broken one makes error rows only there."""
+    spec_file(tmp_path, SPEC, "house.yaml")
+    mp = spec_file(tmp_path, "masterqc_spec_map: 1\nspecs:\n"
+                             "  - {match: 'albums/**', spec_in_folder: delivery-spec.yaml}\n"
+                             "  - {match: '**', spec: house.yaml}\n", "map.yaml")
+    root = tmp_path / "in"
+    x = noise(rng, 1.0, -20.0)
+    for rel in ("albums/one/01.wav", "albums/one/cd2/01.wav", "albums/two/01.wav", "albums/three/01.wav"):
+        write(str(root / rel), x)
+    (root / "albums" / "one" / "delivery-spec.yaml").write_text(SPEC.replace("Unit album label", "Album one"))
+    (root / "albums" / "one" / "cd2" / "delivery-spec.yaml").write_text(
+        SPEC.replace("Unit album label", "Album one, disc two").replace("max_lufs: -5.0", "max_lufs: -25.0"))
+    (root / "albums" / "three" / "delivery-spec.yaml").write_text("spec_version: 1\nname: Broken\nloudness: {nope: 1}\n")
+    out = run_batch(BatchConfig(roots=[str(root)], spec_path=str(mp), out_dir=str(tmp_path / "out"),
+                                formats=("json",), jobs=1, quiet=True))
+    files = {f["rel"]: f for f in out.summary["files"]}
+    assert set(files) == {"in/albums/one/01.wav", "in/albums/one/cd2/01.wav", "in/albums/two/01.wav",
+                          "in/albums/three/01.wav"}  # the YAML files are not masters
+    assert files["in/albums/one/01.wav"]["spec"] == "Album one"
+    assert files["in/albums/one/cd2/01.wav"]["spec"] == "Album one, disc two"
+    assert files["in/albums/one/cd2/01.wav"]["verdict"] == "fail"
+    assert files["in/albums/two/01.wav"]["spec"] == "Unit album label"  # no folder spec: the next rule
+    bad = files["in/albums/three/01.wav"]
+    assert bad["verdict"] == "error" and "folder spec" in bad["first_problem"] and "nope" in bad["first_problem"]
+    assert out.exit_code == 3

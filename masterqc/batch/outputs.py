@@ -167,21 +167,6 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 </ul>
 </header>
 
-<section id="changes">
-<h2>Since the previous run</h2>
-{%- if previous_run is none %}
-<p class="note">No earlier complete run wrote to this output folder; every file counts as new.</p>
-{%- else %}
-<p class="note">Compared with run {{ previous_run.run_id }} of {{ previous_run.started_utc }}.</p>
-<ul class="changes">
-<li><strong>Newly failing ({{ changes.newly_failing|length }})</strong>{% if changes.newly_failing %}: {{ changes.newly_failing|join(", ") }}{% endif %}</li>
-<li><strong>Fixed ({{ changes.fixed|length }})</strong>{% if changes.fixed %}: {{ changes.fixed|join(", ") }}{% endif %}</li>
-<li><strong>New ({{ changes.new|length }})</strong>{% if changes.new %}: {{ changes.new|join(", ") }}{% endif %}</li>
-<li><strong>Gone ({{ changes.gone|length }})</strong>{% if changes.gone %}: {{ changes.gone|join(", ") }}{% endif %}</li>
-</ul>
-{%- endif %}
-</section>
-
 {%- if releases %}
 <section id="releases">
 <h2>Releases</h2>
@@ -205,6 +190,21 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <p class="note">Pooled loudness: the gating blocks of every track gated together (ITU-R BS.1770-5 integrated loudness of the release as one programme). Spread: loudest minus quietest track.</p>
 </section>
 {%- endif %}
+
+<section id="changes">
+<h2>Since the previous run</h2>
+{%- if previous_run is none %}
+<p class="note">No earlier complete run wrote to this output folder; every file counts as new.</p>
+{%- else %}
+<p class="note">Compared with run {{ previous_run.run_id }} of {{ previous_run.started_utc }}.</p>
+<ul class="changes">
+<li><strong>Newly failing ({{ changes.newly_failing|length }})</strong>{% if changes.newly_failing %}: {{ changes.newly_failing|join(", ") }}{% endif %}</li>
+<li><strong>Fixed ({{ changes.fixed|length }})</strong>{% if changes.fixed %}: {{ changes.fixed|join(", ") }}{% endif %}</li>
+<li><strong>New ({{ changes.new|length }})</strong>{% if changes.new %}: {{ changes.new|join(", ") }}{% endif %}</li>
+<li><strong>Gone ({{ changes.gone|length }})</strong>{% if changes.gone %}: {{ changes.gone|join(", ") }}{% endif %}</li>
+</ul>
+{%- endif %}
+</section>
 
 <section id="files">
 <h2>Files</h2>

@@ -37,7 +37,7 @@ from masterqc.batch.ledger import Ledger, utc_now
 from masterqc.batch.names import NameAllocator, inside, safe_component
 from masterqc.batch.progress import BatchProgress
 from masterqc.batch.releases import judge_release, parse_release_mode, release_of
-from masterqc.batch.specmap import load_spec_map
+from masterqc.batch.specmap import Unusable, load_spec_map
 from masterqc.batch.work import check_task, hash_task
 
 LEDGER_NAME = "masterqc-ledger.sqlite"
@@ -78,6 +78,7 @@ class Item:
     analysed: bool = False
     elapsed_s: float = 0.0
     cpu_s: float = 0.0
+    rule_error: str | None = None  #: the folder spec governing this master does not validate
     hash_error: str | None = None
 
 
@@ -195,8 +196,11 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             stem = os.path.splitext(posixpath.basename(rel_in_root))[0] or "master"
             folder_rel, stem = names.allocate(parts, stem)
             out_folder = os.path.join(out_dir, FILES_DIR, *folder_rel.split("/"))
+            rule = specmap.lookup(rel_in_root, fnd.root)
             items.append(Item(found=fnd, path=os.path.abspath(fnd.path), rel=f"{label}/{rel_in_root}",
-                              release=release_of(label, rel_in_root, mode), rule=specmap.lookup(rel_in_root),
+                              release=release_of(label, rel_in_root, mode),
+                              rule=None if isinstance(rule, Unusable) else rule,
+                              rule_error=rule.message if isinstance(rule, Unusable) else None,
                               out_folder=out_folder, out_rel=f"{FILES_DIR}/{folder_rel}", stem=stem))
 
         # ---- 1. content hashes (stat cache first)
@@ -295,6 +299,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             if it.hash_error is not None:
                 loaded = it.rule.loaded if it.rule else _NoSpec()
                 finish(it, place(it, _error_result(it, loaded, it.hash_error), False), False)
+                continue
+            if it.rule_error is not None:
+                finish(it, place(it, _error_result(it, _NoSpec(), it.rule_error), False), False)
                 continue
             if it.rule is None:
                 finish(it, place(it, _error_result(it, _NoSpec(), f"no rule of the spec map {specmap.path} matches "

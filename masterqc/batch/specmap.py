@@ -13,6 +13,19 @@ a *spec map*: a small YAML file a house keeps for its nightly run::
         spec: harbourlight-house.yaml
     releases: folder               # optional: folder | root | depth:N | none
 
+A rule may name ``spec_in_folder: FILE`` instead of ``spec:``: the spec is then the
+nearest file of that name in the master's folder or above it (up to the folder
+given on the command line), so each album or season can carry its own spec::
+
+      - match: "albums/**"
+        spec_in_folder: delivery-spec.yaml   # albums/<name>/delivery-spec.yaml
+      - match: "**"
+        spec: harbourlight-house.yaml
+
+A master under such a rule with no such file is judged by the next matching rule;
+a folder spec that does not validate makes error rows of the masters it governs
+(with the spec's problems), and the rest of the run goes on.
+
 Spec paths are relative to the map file.  In ``match``, ``*`` and ``?`` stay
 within one folder level, ``**`` spans any number of levels (including none),
 and matching is case-sensitive on the ``/``-separated path below the folder
@@ -87,34 +100,66 @@ def spec_key(loaded, base_options=None) -> str:
 class Rule:
     match: str
     regex: re.Pattern
-    spec_path: str
+    spec_path: str | None
     loaded: object
-    key: str
+    key: str | None
+    folder_spec: str | None = None  #: ``spec_in_folder`` file name (then spec_path/loaded/key are per folder)
+
+
+@dataclass
+class Unusable:
+    """A folder spec that does not validate: the masters it governs become error rows."""
+
+    spec_path: str
+    message: str
 
 
 class SpecMap:
     """The rules of a run: ``lookup(rel) -> Rule | None``; ``releases`` from the map (or None)."""
 
-    def __init__(self, rules: list[Rule], path: str, is_map: bool, releases: str | None = None):
+    def __init__(self, rules: list[Rule], path: str, is_map: bool, releases: str | None = None,
+                 base_options=None):
         self.rules = rules
         self.path = path
         self.is_map = is_map
         self.releases = releases
+        self.base_options = base_options
+        self._folder_specs: dict = {}
 
-    def lookup(self, rel: str) -> Rule | None:
+    def lookup(self, rel: str, root: str | None = None) -> "Rule | Unusable | None":
+        """The rule judging the master at ``rel`` below ``root`` (a folder-spec rule resolved to its file)."""
         for r in self.rules:
-            if r.regex.match(rel):
+            if not r.regex.match(rel):
+                continue
+            if r.folder_spec is None:
                 return r
+            found = self._nearest(r.folder_spec, root, rel)
+            if found is None:
+                continue
+            return self._folder_rule(r, found)
         return None
 
-    def specs(self) -> list[Rule]:
-        """One rule per distinct spec key, in rule order."""
-        seen, out = set(), []
-        for r in self.rules:
-            if r.key not in seen:
-                seen.add(r.key)
-                out.append(r)
-        return out
+    def _nearest(self, name: str, root: str | None, rel: str) -> str | None:
+        if root is None:
+            return None
+        parts = rel.split("/")[:-1]
+        for n in range(len(parts), -1, -1):
+            candidate = os.path.join(root, *parts[:n], name)
+            if os.path.isfile(candidate):
+                return os.path.abspath(candidate)
+        return None
+
+    def _folder_rule(self, r: Rule, path: str):
+        from masterqc.spec.loader import load_spec
+        if path not in self._folder_specs:
+            try:
+                loaded = load_spec(path)
+            except SpecError as exc:
+                self._folder_specs[path] = Unusable(path, f"its folder spec {path} is invalid: {exc}")
+            else:
+                self._folder_specs[path] = Rule(r.match, r.regex, path, loaded,
+                                                spec_key(loaded, self.base_options), r.folder_spec)
+        return self._folder_specs[path]
 
 
 def _is_map_file(path: str) -> bool:
@@ -137,7 +182,8 @@ def load_spec_map(path, base_options=None) -> SpecMap:
     path = os.fspath(path)
     if not _is_map_file(path):
         loaded = load_spec(path)
-        return SpecMap([Rule("**", glob_regex("**"), path, loaded, spec_key(loaded, base_options))], path, False)
+        return SpecMap([Rule("**", glob_regex("**"), path, loaded, spec_key(loaded, base_options))], path, False,
+                       base_options=base_options)
     from masterqc.spec.loader import parse_yaml
     with open(path, "rb") as f:
         text = f.read().decode("utf-8-sig")
@@ -171,9 +217,21 @@ def load_spec_map(path, base_options=None) -> SpecMap:
     rules, cache = [], {}
     for i, item in enumerate(items):
         kp = ("specs", i)
-        if not isinstance(item, dict) or set(item) - {"match", "spec"} or not isinstance(item.get("match"), str) \
-                or not isinstance(item.get("spec"), str):
-            errs.append((path, f"specs[{i}]", *where(kp), "each rule is a mapping with text keys 'match' (a glob) and 'spec' (a file)"))
+        ok = (isinstance(item, dict) and isinstance(item.get("match"), str)
+              and not set(item) - {"match", "spec", "spec_in_folder"}
+              and (isinstance(item.get("spec"), str)) != (isinstance(item.get("spec_in_folder"), str)))
+        if not ok:
+            errs.append((path, f"specs[{i}]", *where(kp),
+                         "each rule is a mapping with 'match' (a glob) and either 'spec' (a file) "
+                         "or 'spec_in_folder' (a file name looked for in each master's folder and above)"))
+            continue
+        if "spec_in_folder" in item:
+            name = item["spec_in_folder"]
+            if not name or "/" in name or os.sep in name or name in (".", ".."):
+                errs.append((path, f"specs[{i}].spec_in_folder", *where(kp + ("spec_in_folder",)),
+                             f"spec_in_folder must be a plain file name, not {name!r}"))
+                continue
+            rules.append(Rule(item["match"], glob_regex(item["match"]), None, None, None, name))
             continue
         sp = item["spec"] if os.path.isabs(item["spec"]) else os.path.join(here, item["spec"])
         if sp not in cache:
@@ -186,4 +244,4 @@ def load_spec_map(path, base_options=None) -> SpecMap:
         rules.append(Rule(item["match"], glob_regex(item["match"]), sp, loaded, spec_key(loaded, base_options)))
     if errs:
         raise SpecError(errs)
-    return SpecMap(rules, path, True, releases)
+    return SpecMap(rules, path, True, releases, base_options)
