@@ -188,3 +188,31 @@ def test_upsampling_found_on_the_long_file_subsample():
     fe.process(x)
     r = bw.assess(fe.finish(), info_for(96000, 1, x.shape[0]))
     assert r.upsampled_from_hz == 44100
+
+
+def test_spliced_upsampled_part_is_found_in_time():
+    # 10 s converted up from 44.1 kHz followed by 10 s of native wide-band noise: the whole file's
+    # spectrum has no cliff (the native half fills the band above 22 kHz), the 5 s segments do
+    rng = np.random.default_rng(9)
+    fs = 96000
+    first = upsampled_noise(44100, fs, seconds=10.0, seed=10)
+    second = quantise24(0.1 * rng.standard_normal(fs * 10), rng)
+    x = np.concatenate([first[:fs * 10], second])[:, None]
+    fe = SpectralFrontEnd(fs, 1, x.shape[0])
+    fe.process(x)
+    r = bw.assess(fe.finish(), info_for(fs, 1, x.shape[0]))
+    m = r.measurements()
+    assert m["upsampled_from_hz"] is None
+    assert [s["upsampled_from_hz"] for s in m["bandwidth_segments"]] == [44100, 44100, None, None]
+    assert m["upsampled_where_s"] == [[0.0, 10.0]]
+    assert bw.upsampled_ranges([]) == []
+
+
+def test_whole_file_upsampled_is_located_over_the_whole_file():
+    x = upsampled_noise(48000, 96000, seconds=12.0, seed=11)[:, None]
+    fe = SpectralFrontEnd(96000, 1, x.shape[0])
+    fe.process(x)
+    m = bw.assess(fe.finish(), info_for(96000, 1, x.shape[0])).measurements()
+    assert m["upsampled_from_hz"] == 48000
+    assert m["upsampled_where_s"] == [[0.0, pytest.approx(x.shape[0] / 96000, abs=1e-3)]]
+    assert m["bandwidth_segments"] == []

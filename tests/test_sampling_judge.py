@@ -175,3 +175,19 @@ def test_imaging_and_aliasing_findings_from_their_keys():
     m["aliasing_detail"] = {"reason": "fs is a whole multiple of f0: aliases land on harmonics"}
     by = {f.check: f for f in judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})[0]}
     assert by["sampling.aliasing"].status == "skipped" and "whole multiple" in by["sampling.aliasing"].message
+
+
+def test_partly_upsampled_master_fails_with_its_time_range():
+    sp = spec(upsampled=[False])
+    m = {"upsampled_from_hz": None, "upsampled_confidence": None, "effective_bandwidth_hz": 48000.0,
+         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.8},
+                                {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.7},
+                                {"start_s": 10.0, "end_s": 15.0, "upsampled_from_hz": None, "upsampled_confidence": None}]}
+    found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
+    f = found[0]
+    assert f.status == "fail" and f.where_s == [[0.0, 10.0]]
+    assert "44.1 kHz" in f.message and "0.0-10.0 s" in f.message
+    # a minimum confidence above the segments' waives them
+    found, _v = judge(spec(upsampled=[False], upsampled_min_confidence=0.9),
+                      {"format": {"sample_rate_hz": 96000}, "measurements": m})
+    assert found[0].status == "pass"

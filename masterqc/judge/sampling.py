@@ -22,6 +22,16 @@ def _khz_range(lo, hi) -> str:
     return f"{float(lo) / 1000.0:.2f}-{float(hi) / 1000.0:.2f} kHz"
 
 
+def _merge(ranges) -> list:
+    out = []
+    for a, b in sorted(ranges):
+        if out and a <= out[-1][1] + 1e-6:
+            out[-1][1] = max(out[-1][1], b)
+        else:
+            out.append([a, b])
+    return out
+
+
 def _missing(m: dict, key: str, reason: str) -> str:
     if key not in m:
         return f"the measurement {key} is missing from the result (its analyzer did not run)"
@@ -56,10 +66,23 @@ def _upsampling(section, m: dict) -> list[Finding]:
     src, conf = m.get(key), m.get("upsampled_confidence")
     need = section.upsampled_min_confidence or 0.0
     counted = src is not None and (conf is None or conf >= need)
-    f = check_allowed("sampling.upsampled", "upsampled from a lower rate", counted, section.upsampled,
+    # parts of the file (time segments) read as upsampled, when the whole file is not
+    parts = [p for p in (m.get("bandwidth_segments") or [])
+             if p.get("upsampled_from_hz") is not None
+             and (p.get("upsampled_confidence") is None or p["upsampled_confidence"] >= need)]
+    partial = src is None and bool(parts)
+    f = check_allowed("sampling.upsampled", "upsampled from a lower rate", counted or partial, section.upsampled,
                       show=_bool_str)
     edge = m.get("effective_bandwidth_hz")
-    if src is None:
+    if partial:
+        rates = sorted({p["upsampled_from_hz"] for p in parts})
+        ranges = _merge([[p["start_s"], p["end_s"]] for p in parts])
+        f.message += (": part of the file ends in a converter cliff consistent with "
+                      + " or ".join(f"{r / 1000:g} kHz" for r in rates) + " ("
+                      + ", ".join(f"{a:.1f}-{b:.1f} s" for a, b in ranges) + ")")
+        if f.status in ("warn", "fail"):
+            f.where_s = ranges
+    elif src is None:
         f.message = ("no converter cliff at a lower standard rate's Nyquist frequency"
                      + (f" ({m['bandwidth_note']})" if m.get("bandwidth_note") else "")
                      + f": {f.message}")

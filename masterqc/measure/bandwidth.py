@@ -58,7 +58,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
 
-from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, array_of
+from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, TIME_RANGES, array_of
 
 #: standard rates a master may have been made at (Hz)
 CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400, 192000)
@@ -100,6 +100,8 @@ POST_WINDOW_HZ = (3000.0, 9000.0)
 PASS_WINDOW_HZ = (-5000.0, -2000.0)
 #: search grid step, Hz
 SEARCH_STEP_HZ = 50.0
+#: a time segment needs this many analysed frames to be judged on its own
+SEGMENT_MIN_FRAMES = 10
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": NUMBER_OR_NULL,
@@ -111,6 +113,12 @@ MEASUREMENT_SCHEMA = {
     "band_limit_hz": NUMBER_OR_NULL,
     "untestable_source_rates_hz": array_of({"type": "integer"}),
     "bandwidth_note": STRING_OR_NULL,
+    "bandwidth_segments": array_of({"type": "object", "required": ["start_s", "end_s", "upsampled_from_hz"],
+                                    "properties": {"start_s": {"type": "number"}, "end_s": {"type": "number"},
+                                                   "upsampled_from_hz": {"type": ["integer", "null"]},
+                                                   "upsampled_confidence": NUMBER_OR_NULL,
+                                                   "effective_bandwidth_hz": NUMBER_OR_NULL}}),
+    "upsampled_where_s": TIME_RANGES,
 }
 
 
@@ -126,6 +134,8 @@ class BandwidthResult:
     untestable_hz: list = field(default_factory=list)
     note: str | None = None
     settings: dict = field(default_factory=dict)
+    segments: list = field(default_factory=list)
+    where_s: list = field(default_factory=list)
 
     def measurements(self) -> dict:
         return {
@@ -138,6 +148,8 @@ class BandwidthResult:
             "band_limit_hz": self.band_limit_hz,
             "untestable_source_rates_hz": list(self.untestable_hz),
             "bandwidth_note": self.note,
+            "bandwidth_segments": list(self.segments),
+            "upsampled_where_s": [list(w) for w in self.where_s],
         }
 
 
@@ -274,22 +286,95 @@ def match_rate(edge_hz: float, candidates) -> tuple[int | None, float]:
 
 
 def assess(fe, info) -> BandwidthResult:
-    """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`."""
+    """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`.
+
+    When the whole file does not read as upsampled, also judges the front end's
+    time segments (:func:`assess_segments`), so an upsampled part of a file (a
+    spliced intro) is found even where the whole file's spectrum hides it;
+    ``upsampled_where_s`` is then those segments' time ranges (the whole file
+    when the whole file reads as upsampled; ``bandwidth_segments`` is then empty).
+    """
+    out = assess_power(fe.ltas_total, fe.bin_hz, float(fe.sample_rate_hz), fe.frame_length, info,
+                       frames=fe.frames)
+    segs = getattr(fe, "segment_ltas", None)
+    if out.upsampled_from_hz is not None:
+        # the whole file reads as upsampled: that is where
+        dur = fe.segment_bounds_s[-1][1] if fe.segment_bounds_s else (fe.frame_positions - 1) * fe.hop / fe.sample_rate_hz
+        out.where_s = [[0.0, round(float(dur), 3)]]
+    elif segs is not None and len(segs):
+        out.segments = assess_segments(fe, info)
+        out.where_s = upsampled_ranges(out.segments)
+        out.settings["segments"] = len(segs)
+    return out
+
+
+def assess_segments(fe, info) -> list:
+    """The upsampling verdict of each time segment of the front end (see :func:`assess`).
+
+    Only segments whose spectrum drops by at least :data:`CLIFF_MIN_DROP_DB` across
+    some testable candidate's Nyquist (a quick check of two percentiles per
+    candidate) get the full analysis.  Returns one dict per segment: ``start_s``, ``end_s``,
+    ``upsampled_from_hz``, ``upsampled_confidence``, ``effective_bandwidth_hz``.
+    """
     fs = float(fe.sample_rate_hz)
+    floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+    out = []
+    for (a, b), power, n in zip(fe.segment_bounds_s, fe.segment_ltas, fe.segment_frames):
+        row = {"start_s": round(a, 3), "end_s": round(b, 3), "upsampled_from_hz": None,
+               "upsampled_confidence": None, "effective_bandwidth_hz": None}
+        out.append(row)
+        if n < SEGMENT_MIN_FRAMES or not np.any(power > 0):
+            continue
+        env = envelope_db(power, fe.bin_hz)
+        testable, _u = testable_candidates(fs, env, fe.bin_hz, floor)
+        top = min(len(env), _bins(0.99 * fs / 2.0, fe.bin_hz))
+        hit = False
+        top_hz = top * fe.bin_hz
+        for r in testable:
+            gap = min(POST_WINDOW_HZ[0], max(300.0, top_hz - r / 2.0 - 500.0))
+            k0, k1 = _bins(0.86 * r / 2.0, fe.bin_hz), _bins(0.93 * r / 2.0, fe.bin_hz)
+            k2 = _bins(r / 2.0 + gap, fe.bin_hz)
+            k3 = min(top, _bins(r / 2.0 + POST_WINDOW_HZ[1], fe.bin_hz))
+            if k3 - k2 < 10:
+                continue
+            if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
+                hit = True
+                break
+        if not hit:
+            continue
+        res = assess_power(power, fe.bin_hz, fs, fe.frame_length, info, frames=n)
+        row.update(upsampled_from_hz=res.upsampled_from_hz, upsampled_confidence=res.confidence,
+                   effective_bandwidth_hz=res.effective_bandwidth_hz)
+    return out
+
+
+def upsampled_ranges(segments) -> list:
+    """``[[start_s, end_s], ...]`` of consecutive segments read as upsampled (merged)."""
+    ranges = []
+    for row in segments:
+        if row.get("upsampled_from_hz") is None:
+            continue
+        if ranges and abs(ranges[-1][1] - row["start_s"]) < 1e-6:
+            ranges[-1][1] = row["end_s"]
+        else:
+            ranges.append([row["start_s"], row["end_s"]])
+    return ranges
+
+
+def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frames: int = 1) -> BandwidthResult:
+    """Effective bandwidth and upsampling verdict of a channel-summed power spectrum (10 Hz bins)."""
     testable, untestable = testable_candidates(fs)
     out = BandwidthResult(untestable_hz=untestable)
-    floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+    floor = format_floor_db(info.bit_depth, info.is_float, frame_length)
     out.settings = {
         "candidates_hz": list(CANDIDATE_RATES_HZ), "testable_hz": testable,
         "format_floor_db_per_bin": round(floor, 2), "closing_hz": CLOSING_HZ,
         "cliff_min_drop_db": CLIFF_MIN_DROP_DB, "cliff_min_slope_db_per_khz": CLIFF_MIN_SLOPE_DB_PER_KHZ,
         "upsampled_min_depth_db": UPSAMPLED_MIN_DEPTH_DB, "above_floor_db": ABOVE_FLOOR_DB,
     }
-    total = fe.ltas_total
-    if fe.frames == 0 or not np.any(total > 0):
+    if frames == 0 or not np.any(total > 0):
         out.note = "no signal: digital silence"
         return out
-    bin_hz = fe.bin_hz
     env = envelope_db(total, bin_hz)
     testable, untestable = testable_candidates(fs, env, bin_hz, floor)
     out.untestable_hz = untestable

@@ -28,7 +28,10 @@ What it keeps (memory independent of the file's length):
   (the low percentile is a noise floor; the median tells stationary tones);
 - a display spectrogram of at most ``columns`` x ``rows`` (columns follow the
   file's known length; rows are equal-width frequency bands, channel-summed
-  power, mean over the frames of each column).
+  power, mean over the frames of each column);
+- the channel-summed long-term spectrum of up to :data:`MAX_SEGMENTS` equal
+  time segments (files of 10 s or more), so a part of a file can be judged on
+  its own.
 
 Consumers (callables ``fn(power, frame_index)`` with ``power`` of shape
 (frames, channels, bins) and the frames' position indices) see every analysed
@@ -61,6 +64,9 @@ BIN_TARGET_HZ = 10.0
 #: the analysis a small fraction of the core's (own reasoning; see bench/bench_sampling_cost.py)
 FULL_ANALYSIS_S = 30.0
 LONG_FILE_STRIDE = 6
+#: time segments for the per-segment upsampling verdict (a spliced part of a file)
+SEGMENT_S = 5.0
+MAX_SEGMENTS = 8
 #: the level histogram takes every HIST_STRIDE-th analysed frame
 HIST_STRIDE = 2
 #: level histogram range (dB of per-bin power, channel mean) and step
@@ -76,6 +82,13 @@ DISPLAY_POINTS_PER_OCTAVE = 48
 DISPLAY_LOW_HZ = 20.0
 #: power below this counts as zero when converted to dB (1e-30 = -300 dB)
 POWER_EPS = 1e-30
+
+
+def segments_for(duration_s: float) -> int:
+    """Equal time segments judged on their own for upsampling: one per
+    :data:`SEGMENT_S` seconds, at most :data:`MAX_SEGMENTS`, none under two segments' worth."""
+    n = int(duration_s // SEGMENT_S)
+    return 0 if n < 2 else min(n, MAX_SEGMENTS)
 
 
 def default_frame_stride(duration_s: float) -> int:
@@ -112,6 +125,9 @@ class FrontEndResult:
     spectrogram_freq_hz: np.ndarray  # (rows,) band centres
     frame_stride: int = 1         # 1 in frame_stride frame positions was analysed
     frame_positions: int = 0      # frame positions in the file (analysed or not)
+    segment_ltas: np.ndarray | None = None   # (segments, bins) channel-summed mean power per time segment
+    segment_bounds_s: list = None            # [(start_s, end_s)] per segment
+    segment_frames: np.ndarray | None = None  # analysed frames per segment
 
     @property
     def ltas_total(self) -> np.ndarray:
@@ -161,6 +177,10 @@ class SpectralFrontEnd:
         self._row_freqs = (0.5 * (edges[:-1] + edges[1:] - 1)) * self.bin_hz
         self.rows = len(self._row_edges)
         self._row_width = np.diff(edges).astype(float)
+        # time segments for the upsampling verdict of parts of a file
+        self.n_segments = segments_for(self.total_samples / self.fs)
+        self.seg_sum = np.zeros((self.n_segments, self.bins))
+        self.seg_frames = np.zeros(self.n_segments, dtype=np.int64)
         self.spec_sum = np.zeros((self.columns, self.rows))
         self.spec_count = np.zeros(self.columns)
         self._finished = False
@@ -217,6 +237,19 @@ class SpectralFrontEnd:
         cols = np.minimum(cols, self.columns - 1)
         np.add.at(self.spec_sum, cols, bands)
         np.add.at(self.spec_count, cols, 1.0)
+        if self.n_segments:
+            # frame j spans samples [(j-1)*hop, (j+1)*hop); frames that straddle a segment boundary
+            # are left out, so a segment's spectrum holds nothing of its neighbours
+            seg_len = self.total_samples / self.n_segments
+            lo = np.floor((index - 1) * self.hop / seg_len).astype(np.int64)
+            hi = np.floor(((index + 1) * self.hop - 1) / seg_len).astype(np.int64)
+            keep = np.nonzero((lo == hi) & (lo >= 0) & (lo < self.n_segments))[0]
+            if keep.size:
+                g = lo[keep]
+                starts = np.concatenate([[0], np.nonzero(np.diff(g))[0] + 1])   # runs of one segment
+                sums = np.add.reduceat(total[keep], starts, axis=0, dtype=np.float64)
+                self.seg_sum[g[starts]] += sums
+                self.seg_frames[g[starts]] += np.diff(np.concatenate([starts, [keep.size]]))
         for fn in self.consumers:
             fn(power, index)
         self.analysed += nfr
@@ -244,10 +277,14 @@ class SpectralFrontEnd:
             sg = self.spec_sum / np.maximum(self.spec_count, 1.0)[:, None]
         sg_db = power_db(sg)
         t_cols = ((np.arange(self.columns) + 0.5) * self.total_frame_count / self.columns) * self.hop / self.fs
+        seg_ltas = self.seg_sum / np.maximum(self.seg_frames, 1)[:, None]
+        dur = self.total_samples / self.fs
+        bounds = [(g * dur / self.n_segments, (g + 1) * dur / self.n_segments) for g in range(self.n_segments)]
         return FrontEndResult(
             sample_rate_hz=self.fs, frame_length=self.N, hop=self.hop, bin_hz=self.bin_hz,
             freqs_hz=np.arange(self.bins) * self.bin_hz, frames=self.analysed, ltas=ltas,
             frame_stride=self.stride, frame_positions=self.frame_index,
+            segment_ltas=seg_ltas, segment_bounds_s=bounds, segment_frames=self.seg_frames.copy(),
             p10_db=p10, p50_db=p50, p90_db=p90, spectrogram_db=sg_db,
             spectrogram_time_s=t_cols, spectrogram_freq_hz=self._row_freqs)
 
