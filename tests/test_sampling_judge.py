@@ -82,6 +82,7 @@ def test_upsampled_master_fails_and_names_the_cliff(tmp_path):
     assert found["sampling.effective_bandwidth"].status == "fail"
     assert found["sampling.band_limited"].status == "pass"
     assert result["measurements"]["upsampled_from_hz"] == 44100
+    assert f.where_s == [[0.0, 2.0]]
 
 
 def test_min_confidence_can_waive_a_verdict(tmp_path):

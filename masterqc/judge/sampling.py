@@ -93,6 +93,8 @@ def _upsampling(section, m: dict) -> list[Finding]:
         if not counted:
             detail += f"; below the spec's minimum confidence {need:.2f}, so not counted"
         f.message += detail
+        if f.status in ("warn", "fail"):
+            f.where_s = [list(w) for w in (m.get("upsampled_where_s") or [])]
     untestable = m.get("untestable_source_rates_hz") or []
     if untestable:
         f.message += "; cannot be tested for " + ", ".join(f"{r / 1000:g} kHz" for r in untestable)
