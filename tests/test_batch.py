@@ -287,6 +287,15 @@ def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_p
     hist = json.loads(buf.getvalue())
     assert [h["verdict"] for h in hist] == ["fail", "fail", "pass", "pass"]
     assert [h["analysed"] for h in hist] == [1, 0, 1, 0]
+    # by content: the first 12 hex digits of the duplicated tone find all three masters holding it
+    sha = by_rel(second.summary)["misc/take7.dat"]["sha256"]
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        assert main(["runs", "history", sha[:12], "--out", str(out), "--json"]) == 0
+    rows = json.loads(buf.getvalue())
+    assert {r["rel"].split("/", 1)[1] for r in rows} == {"album_b/01.wav", "episodes/s01/extras/" + HOSTILE + ".wav",
+                                                         "misc/take7.dat"}
+    assert len(rows) == 3 * 4  # in each of the four runs
     # restore for the dask comparison
     tone(os.path.join(root, "album_b", "02.wav"), -8.0)
     tone(os.path.join(root, "album_a", "03.wav"), -14.0 + 0.1 * 3)

@@ -77,13 +77,21 @@ def add_runs_parser(sub) -> None:
     r.add_argument("--json", action="store_true", help="print JSON instead of a table")
     rs = r.add_subparsers(dest="runs_command", metavar="RUNS_COMMAND", parser_class=sub._parser_class)
     rs.required = True
-    ls = rs.add_parser("list", help="past runs, newest first")
+    def common(sp):  # the same options also after the sub-command: "runs list --out DIR"
+        import argparse
+        sp.add_argument("--ledger", metavar="PATH", default=argparse.SUPPRESS, help=argparse.SUPPRESS)
+        sp.add_argument("--out", default=argparse.SUPPRESS, help=argparse.SUPPRESS)
+        sp.add_argument("--json", action="store_true", default=argparse.SUPPRESS, help=argparse.SUPPRESS)
+        return sp
+
+    ls = common(rs.add_parser("list", help="past runs, newest first"))
     ls.add_argument("--limit", type=int, default=20)
     ls.set_defaults(func=cmd_runs_list)
-    sh = rs.add_parser("show", help="the files of one run")
+    sh = common(rs.add_parser("show", help="the files of one run"))
     sh.add_argument("run_id", type=int)
     sh.set_defaults(func=cmd_runs_show)
-    hi = rs.add_parser("history", help="every check of one file (by path, or by content SHA-256)")
+    hi = common(rs.add_parser("history", help="every check of one file (by path, or by content SHA-256 or "
+                                              "its first 8 or more hex digits)"))
     hi.add_argument("file")
     hi.set_defaults(func=cmd_runs_history)
 
@@ -143,7 +151,7 @@ def cmd_runs_history(args) -> int:
     from masterqc.errors import UsageError
     with _open(args) as led:
         f = args.file
-        if len(f) == 64 and all(c in "0123456789abcdef" for c in f.lower()) and not os.path.exists(f):
+        if 8 <= len(f) <= 64 and all(c in "0123456789abcdef" for c in f.lower()) and not os.path.exists(f):
             rows = led.history_by_hash(f.lower())
         else:
             rows = led.history(os.path.abspath(f))
@@ -151,5 +159,5 @@ def cmd_runs_history(args) -> int:
         raise UsageError(f"{args.file}: no check of this file is recorded in the ledger")
     for r in rows:
         r["content_sha256"] = (r.get("content_sha256") or "")[:12]
-    _print(args, rows, ["run_id", "started_utc", "verdict", "analysed", "content_sha256", "message"])
+    _print(args, rows, ["run_id", "started_utc", "verdict", "analysed", "rel", "content_sha256", "message"])
     return 0

@@ -241,10 +241,12 @@ class Ledger:
         names = [d[0] for d in cur.description]
         return [dict(zip(names, r)) for r in cur.fetchall()]
 
-    def history_by_hash(self, content_sha256: str) -> list[dict]:
+    def history_by_hash(self, prefix: str) -> list[dict]:
+        """Every recorded check of content whose SHA-256 (hex) starts with ``prefix``, oldest first."""
+        prefix = "".join(c for c in prefix.lower() if c in "0123456789abcdef")
         cur = self.db.execute(
             "SELECT f.*, r.started_utc, r.status AS run_status FROM run_files f JOIN runs r USING(run_id) "
-            "WHERE f.content_sha256=? ORDER BY f.run_id", (content_sha256,))
+            "WHERE substr(f.content_sha256, 1, ?) = ? ORDER BY f.run_id, f.path", (len(prefix), prefix))
         names = [d[0] for d in cur.description]
         return [dict(zip(names, r)) for r in cur.fetchall()]
 
