@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import threading
 import time
 
 import numpy as np
@@ -20,6 +21,7 @@ from masterqc.audio.reader import open_stream
 from masterqc.errors import AudioReadError
 from masterqc.jsonutil import jsonable
 from masterqc.measure.options import MeasureOptions
+from masterqc.measure.oversample import single_thread_blas
 from masterqc.measure.registry import analyzer_classes
 
 HASH_CHUNK_BYTES = 1 << 20
@@ -42,29 +44,26 @@ def file_facts(path) -> dict:
     return {"path": os.fspath(path), "size_bytes": size, "sha256": digest.hexdigest()}
 
 
-def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
-    """Feed every applicable analyzer from one read of ``stream``.
+#: blocks the reader may decode ahead of the slowest analyzer (threaded runs; memory stays flat)
+READ_AHEAD_BLOCKS = 4
 
-    ``progress(frames_done, frames_total)`` is called after each block when given.
-    Returns ``(measurements, series, settings)`` dicts.
+
+def _prepare(block, info, want_clean: bool):
+    """(raw, clean) views of a decoded block, both read-only.
+
+    ``clean`` has non-finite samples replaced by 0.0 (float files only); it is the
+    block itself when every sample is finite.  Read-only, because every analyzer
+    sees the same arrays: one that wrote into its input would change another's.
     """
-    info = stream.info
-    classes = analyzer_classes() if classes is None else classes
-    analyzers = [cls(info, options) for cls in classes if cls.applies_to(info, options)]
-    raw = [a for a in analyzers if a.raw_input]
-    clean = [a for a in analyzers if not a.raw_input]
-    done = 0
-    for block in stream.blocks(options.block_frames):
-        for a in raw:
-            a.process(block)
-        if clean:
-            if info.is_float and not np.isfinite(block).all():
-                block = np.where(np.isfinite(block), block, 0.0)
-            for a in clean:
-                a.process(block)
-        done += block.shape[0]
-        if progress is not None:
-            progress(done, info.frames)
+    block.flags.writeable = False
+    clean = block
+    if want_clean and info.is_float and not np.isfinite(block).all():
+        clean = np.where(np.isfinite(block), block, 0.0)
+        clean.flags.writeable = False
+    return block, clean
+
+
+def _collect(analyzers):
     measurements, series, settings = {}, {}, {}
     for a in analyzers:
         r = a.finish()
@@ -73,6 +72,194 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
         if r.settings:
             settings[a.name] = r.settings
     return measurements, series, settings
+
+
+def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
+    """Feed every applicable analyzer from one read of ``stream``.
+
+    ``progress(frames_done, frames_total)`` is called after each block when given
+    (always from the calling thread).  Returns ``(measurements, series, settings)``
+    dicts.
+
+    With ``options.threads`` > 1 the stream is decoded in a reader thread up to
+    :data:`READ_AHEAD_BLOCKS` blocks ahead, and the analyzers run on that many
+    threads (the calling one included): each analyzer takes every block in file
+    order, one block at a time, on whichever thread is free, so its results are
+    exactly those of a sequential run (filters, sums and reductions release the
+    GIL, which is where the time goes).  BLAS is held to one thread for the whole
+    run (its workers would compete with ours; its products here are small).
+    """
+    info = stream.info
+    classes = analyzer_classes() if classes is None else classes
+    analyzers = [cls(info, options) for cls in classes if cls.applies_to(info, options)]
+    threads = max(1, int(getattr(options, "threads", 1) or 1))
+    with single_thread_blas():
+        if threads == 1 or not analyzers:
+            _run_sequential(stream, info, options, analyzers, progress)
+        else:
+            _BlockScheduler(stream, info, options, analyzers, threads, progress).run()
+        return _collect(analyzers)
+
+
+def _run_sequential(stream, info, options, analyzers, progress) -> None:
+    raw = [a for a in analyzers if a.raw_input]
+    clean = [a for a in analyzers if not a.raw_input]
+    done = 0
+    for block in stream.blocks(options.block_frames):
+        block, cleaned = _prepare(block, info, bool(clean))
+        for a in raw:
+            a.process(block)
+        for a in clean:
+            a.process(cleaned)
+        done += block.shape[0]
+        if progress is not None:
+            progress(done, info.frames)
+
+
+class _BlockScheduler:
+    """One reader thread and ``threads`` analyzer workers (the caller is one).
+
+    Shared state, guarded by one condition variable: the decoded blocks not yet
+    taken by every analyzer, and per analyzer the index of its next block and
+    whether a worker holds it.  A free worker takes the analyzer that is furthest
+    behind (ties: the one listed first) whose next block is decoded.
+    """
+
+    def __init__(self, stream, info, options, analyzers, threads, progress):
+        self.stream, self.info, self.options = stream, info, options
+        self.analyzers = analyzers
+        self.threads = threads
+        self.progress = progress
+        self.want_clean = any(not a.raw_input for a in analyzers)
+        self.cond = threading.Condition()
+        self.blocks: dict[int, tuple] = {}     # index -> (raw, clean)
+        self.ends: list[int] = []              # frames done after block k
+        self.read_count = 0
+        self.read_done = False
+        self.read_error = None
+        self.errors: list[tuple] = []          # (block index, analyzer index, exception)
+        self.abort = False
+        self.next = [0] * len(analyzers)
+        self.busy = [False] * len(analyzers)
+        self.reported = 0
+
+    # -- reader thread
+    def _read(self) -> None:
+        gen = self.stream.blocks(self.options.block_frames)
+        try:
+            for block in gen:
+                pair = _prepare(block, self.info, self.want_clean)
+                with self.cond:
+                    if self.abort:
+                        return
+                    k = self.read_count
+                    self.blocks[k] = pair
+                    self.ends.append((self.ends[-1] if self.ends else 0) + block.shape[0])
+                    self.read_count = k + 1
+                    self.cond.notify_all()
+                    while not self.abort and self.read_count - min(self.next) >= READ_AHEAD_BLOCKS:
+                        self.cond.wait()
+                    if self.abort:
+                        return
+        except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
+            with self.cond:
+                self.read_error = exc
+        finally:
+            gen_close = getattr(gen, "close", None)
+            if gen_close is not None:
+                try:
+                    gen_close()
+                except Exception:              # noqa: BLE001 - closing must not hide the real error
+                    pass
+            with self.cond:
+                self.read_done = True
+                self.cond.notify_all()
+
+    # -- workers
+    def _pick(self):
+        best = None
+        for i, a in enumerate(self.analyzers):
+            if self.busy[i] or self.next[i] >= self.read_count:
+                continue
+            if best is None or self.next[i] < self.next[best]:
+                best = i
+        return best
+
+    def _finished(self) -> bool:
+        return self.read_done and all(n >= self.read_count for n in self.next)
+
+    def _work(self, report: bool) -> None:
+        while True:
+            pending = None
+            with self.cond:
+                while True:
+                    if self.abort:
+                        return
+                    if report and self.progress is not None:
+                        completed = min(self.next)
+                        if completed > self.reported:
+                            pending = self.ends[self.reported:completed]
+                            self.reported = completed
+                            break
+                    i = self._pick()
+                    if i is not None:
+                        break
+                    if self._finished():
+                        return
+                    self.cond.wait()
+                if pending is None:
+                    self.busy[i] = True
+                    k = self.next[i]
+                    raw, clean = self.blocks[k]
+            if pending is not None:
+                for frames in pending:
+                    self.progress(frames, self.info.frames)
+                continue
+            a = self.analyzers[i]
+            try:
+                a.process(raw if a.raw_input else clean)
+            except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
+                with self.cond:
+                    self.errors.append((k, i, exc))
+                    self.abort = True
+                    self.cond.notify_all()
+                return
+            finally:
+                raw = clean = None
+            with self.cond:
+                self.busy[i] = False
+                self.next[i] = k + 1
+                low = min(self.next)
+                for j in [j for j in self.blocks if j < low]:
+                    del self.blocks[j]
+                self.cond.notify_all()
+
+    def _stop(self) -> None:
+        with self.cond:
+            self.abort = True
+            self.cond.notify_all()
+
+    def run(self) -> None:
+        reader = threading.Thread(target=self._read, name="masterqc-read", daemon=True)
+        workers = [threading.Thread(target=self._work, args=(False,), name=f"masterqc-analyze-{n}", daemon=True)
+                   for n in range(1, self.threads)]
+        reader.start()
+        for w in workers:
+            w.start()
+        try:
+            self._work(report=True)
+        except BaseException:
+            self._stop()
+            raise
+        finally:
+            for w in workers:
+                w.join()
+            self._stop()
+            reader.join()
+        if self.errors:
+            raise min(self.errors, key=lambda e: (e[0], e[1]))[2]
+        if self.read_error is not None:
+            raise self.read_error
 
 
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:

@@ -7,7 +7,17 @@ Each analyzer reads only the fields it needs.
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
+
+
+def default_thread_count() -> int:
+    """Threads one measurement uses by default: 2, or 1 on a one-core machine."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        cores = os.cpu_count() or 1
+    return max(1, min(2, cores))
 
 
 @dataclass(frozen=True)
@@ -42,3 +52,6 @@ class MeasureOptions:
     timecode_fps: str = "25"
     #: free-form options for analyzers, keyed by analyzer name
     extra: dict = field(default_factory=dict)
+    #: threads of one measurement (analyzers in parallel, decoding ahead); 1 runs everything in
+    #: the calling thread (batch runs with several jobs pass 1); results never depend on it
+    threads: int = field(default_factory=default_thread_count)

@@ -1,0 +1,157 @@
+"""The threaded engine gives exactly the sequential engine's results.
+
+``MeasureOptions.threads`` > 1 decodes ahead in a reader thread and runs the
+analyzers on several threads, each analyzer taking every block in file order.
+The reference here is the same engine with ``threads=1`` (everything in the
+calling thread, blocks in file order): the results must be identical, value for
+value (JSON text compared), whatever the block size.  Errors keep their type
+and their file/frame naming; progress reaches the file's frame count in order.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+import soundfile as sf
+
+from masterqc.audio.reader import open_stream
+from masterqc.errors import AudioReadError
+from masterqc.measure.base import Analyzer, AnalyzerResult
+from masterqc.measure.engine import measure_file, run_analyzers
+from masterqc.measure.options import MeasureOptions, default_thread_count
+from masterqc.measure.registry import analyzer_classes
+
+FS = 48000
+
+
+def _programme(seconds: float, seed: int = 7) -> np.ndarray:
+    """Stereo test programme: two sines, noise, a burst near full scale, a silent gap."""
+    rng = np.random.default_rng(seed)
+    n = int(seconds * FS)
+    t = np.arange(n) / FS
+    x = np.stack([0.3 * np.sin(2 * np.pi * 997 * t), 0.25 * np.sin(2 * np.pi * 441 * t + 1.0)], axis=1)
+    x += 0.01 * rng.standard_normal((n, 2))
+    x[n // 3:n // 3 + 4800] *= 3.0
+    x[n // 2:n // 2 + 2400] = 0.0
+    return np.clip(x, -1.0, 1.0 - 2.0 ** -23)
+
+
+def _result_text(path, **options) -> str:
+    r = measure_file(str(path), MeasureOptions(**options))
+    r["analysis"].pop("elapsed_s")
+    return json.dumps(r, sort_keys=True)
+
+
+def test_default_is_two_threads_at_most():
+    assert 1 <= default_thread_count() <= 2
+    assert MeasureOptions().threads == default_thread_count()
+
+
+@pytest.mark.parametrize("block_frames", [65536, 4097])
+def test_threads_change_no_result_pcm(tmp_path, block_frames):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(12.0), FS, subtype="PCM_24")
+    one = _result_text(path, threads=1, block_frames=block_frames)
+    assert _result_text(path, threads=2, block_frames=block_frames) == one
+    assert _result_text(path, threads=3, block_frames=block_frames) == one
+
+
+def test_threads_change_no_result_float_with_non_finite(tmp_path):
+    x = _programme(6.0)
+    x[1000, 0] = np.nan
+    x[50000:50010, 1] = np.inf
+    path = tmp_path / "nan.wav"
+    sf.write(str(path), x, FS, subtype="FLOAT")
+    one = _result_text(path, threads=1, block_frames=8192)
+    two = _result_text(path, threads=2, block_frames=8192)
+    assert two == one
+    m = json.loads(two)["measurements"]
+    # the non-finite samples are counted from the raw blocks, the others see zeros there
+    assert m["nonfinite_sample_count"] == 11
+    assert m["integrated_lufs"] is not None
+
+
+class _Recorder(Analyzer):
+    """Records the blocks it sees (their first frame and length) and tries to write into one."""
+
+    name = "recorder"
+    seen: list = []
+    wrote: list = []
+
+    def process(self, block):
+        type(self).seen.append(block.shape[0])
+        try:
+            block[0, 0] = 1.0
+            type(self).wrote.append(True)
+        except ValueError:
+            type(self).wrote.append(False)
+
+    def finish(self):
+        return AnalyzerResult()
+
+
+class _Fails(Analyzer):
+    name = "fails"
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.calls = 0
+
+    def process(self, block):
+        self.calls += 1
+        if self.calls == 3:
+            raise RuntimeError("analyzer failed on its third block")
+
+    def finish(self):  # pragma: no cover - never reached
+        return AnalyzerResult()
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_blocks_are_read_only_and_in_order(tmp_path, threads):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(2.0), FS, subtype="PCM_16")
+    _Recorder.seen, _Recorder.wrote = [], []
+    calls = []
+    with open_stream(str(path)) as stream:
+        run_analyzers(stream, MeasureOptions(threads=threads, block_frames=10000),
+                      progress=lambda done, total: calls.append((done, total)),
+                      classes=[_Recorder] + analyzer_classes()[:3])
+    frames = 2 * FS
+    assert _Recorder.seen == [10000] * 9 + [frames - 90000]
+    assert _Recorder.wrote and not any(_Recorder.wrote)
+    assert calls == [(min(10000 * (k + 1), frames), frames) for k in range(10)]
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_analyzer_error_reaches_the_caller(tmp_path, threads):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(2.0), FS, subtype="PCM_16")
+    with open_stream(str(path)) as stream:
+        with pytest.raises(RuntimeError, match="third block"):
+            run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4096),
+                          classes=[_Fails] + analyzer_classes()[:2])
+
+
+class _BrokenStream:
+    """A stream whose decoding fails after two blocks, as the reader reports it."""
+
+    def __init__(self, info):
+        self.info = info
+
+    def blocks(self, block_frames):
+        rng = np.random.default_rng(1)
+        for _ in range(2):
+            yield 0.1 * rng.standard_normal((block_frames, self.info.channels))
+        raise AudioReadError("broken.wav", f"decoding failed after frame {2 * block_frames} (test)")
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_read_error_keeps_its_type_and_frame(tmp_path, threads):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    with open_stream(str(path)) as stream:
+        info = stream.info
+    with pytest.raises(AudioReadError, match="after frame 8192"):
+        run_analyzers(_BrokenStream(info), MeasureOptions(threads=threads, block_frames=4096))
