@@ -335,7 +335,9 @@ def test_progress_plain_and_live_lines():
     q = BatchProgress(4, 400, stream=live, live=True)
     q.file_done("x", "pass", 60.0, 100, True)
     text = live.getvalue()
-    assert text.startswith("\r1/4 files") and "x real time" in text and "ETA" in text
+    q.close()
+    assert text.startswith("\r1/4 files") and "x real time" in text and "elapsed 0:00:0" in text and "ETA" in text
+    assert live.getvalue().endswith("\r\033[K")  # the live line is cleared at the end
     quiet = io.StringIO()
     BatchProgress(1, 1, stream=quiet, quiet=True).file_done("x", "pass", 1.0, 1, True)
     assert quiet.getvalue() == ""

@@ -1,7 +1,8 @@
 """Progress of a batch on standard error.
 
 On a terminal: one live line -- files done of total, audio hours analysed,
-real-time factor (audio seconds analysed per second of wall time), ETA.
+real-time factor (audio seconds analysed per second of wall time), elapsed
+time and ETA -- redrawn every second while long files are still running.
 Not on a terminal (a log, cron mail, CI): one plain line per finished file.
 ``quiet``: nothing.
 """
@@ -9,6 +10,7 @@ Not on a terminal (a log, cron mail, CI): one plain line per finished file.
 from __future__ import annotations
 
 import sys
+import threading
 import time
 
 
@@ -32,6 +34,21 @@ class BatchProgress:
         self.audio_s = 0.0
         self.started = time.monotonic()
         self._shown = False
+        self._lock = threading.Lock()
+        self._stop = threading.Event()
+        self._ticker = None
+        if self.live and not self.quiet:
+            self._ticker = threading.Thread(target=self._tick, name="masterqc-progress", daemon=True)
+            self._ticker.start()
+
+    def _tick(self) -> None:
+        while not self._stop.wait(1.0):
+            with self._lock:
+                if self._stop.is_set():
+                    return
+                self.stream.write(f"\r{self.line()}\033[K")
+                self.stream.flush()
+                self._shown = True
 
     def stats(self) -> dict:
         """Figures shown: ``files_done``, ``audio_hours``, ``realtime_factor`` (None before any audio), ``eta_s``."""
@@ -47,9 +64,13 @@ class BatchProgress:
         rtf = f"{st['realtime_factor']:.1f}x real time" if st["realtime_factor"] else "-- real time"
         eta = _clock(st["eta_s"]) if st["eta_s"] is not None else "--:--"
         return (f"{st['files_done']}/{self.total_files} files  {st['audio_hours']:.2f} h audio analysed  "
-                f"{rtf}  ETA {eta}")
+                f"{rtf}  elapsed {_clock(st['elapsed_s'])}  ETA {eta}")
 
     def file_done(self, rel: str, verdict: str, audio_s: float, size_bytes: int, analysed: bool) -> None:
+        with self._lock:
+            self._file_done(rel, verdict, audio_s, size_bytes, analysed)
+
+    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed) -> None:
         self.done_files += 1
         self.done_bytes += max(0, size_bytes)
         if analysed:
@@ -67,12 +88,17 @@ class BatchProgress:
     def note(self, text: str) -> None:
         if self.quiet:
             return
-        if self._shown:
-            self.stream.write("\r\033[K")
-        self.stream.write(text + "\n")
-        self.stream.flush()
+        with self._lock:
+            if self._shown:
+                self.stream.write("\r\033[K")
+            self.stream.write(text + "\n")
+            self.stream.flush()
 
     def close(self) -> None:
+        self._stop.set()
+        if self._ticker is not None:
+            self._ticker.join(timeout=2.0)
+            self._ticker = None
         if self._shown:
             self.stream.write("\r\033[K")
             self.stream.flush()

@@ -178,6 +178,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
     backend = None
     run_id = None
     old_term = None
+    progress = None
     try:
         try:
             old_term = signal.signal(signal.SIGTERM, _on_sigterm)
@@ -381,6 +382,8 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 pass
         raise
     finally:
+        if progress is not None:
+            progress.close()
         if backend is not None:
             backend.close()
         if old_term is not None:
