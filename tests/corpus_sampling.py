@@ -307,6 +307,13 @@ def _builders():
                     return fs, _mono(y), 24, {"imaging": True}
                 add(f"{material}_from_{r}_to_{fs}_{method}", "unfiltered_upsampling", build)
 
+    # 3b. native tonal programme (no conversion at all): must not look imaged or aliased
+    for fs in (44100, 48000, 88200, 96000):
+        def build(rng, fs=fs):
+            x = chord(fs, IMAGING_SECONDS, 0.45 * fs, rng)
+            return fs, np.stack([x, 0.9 * x], axis=1), 24, {"imaging": False, "aliasing": False}
+        add(f"chord_native_{fs}", "native_tonal", build)
+
     # 4. decimation by sample dropping vs with a proper filter, tonal and noise-like
     for fs_src, d in DECIMATIONS:
         fs = fs_src // d
