@@ -7,8 +7,8 @@ clipped at full scale: thousands of clipped runs, the analyzers' slow path).
 For each file it times, in one run and side by side: a decode-only pass
 (soundfile, the engine's block size), pyebur128 (integrated + LRA + true
 peak, same blocks, decode included) and the engine with every registered
-analyzer, with the time spent inside each analyzer's ``process()`` and
-``finish()``.  It prints the integrity analyzers' share (clipping, DC,
+analyzer on one thread, with the time spent inside each analyzer's
+``process()`` and ``finish()``.  It prints the integrity analyzers' share (clipping, DC,
 silence/dropouts, non-finite, bit depth, channel relations) as ratios to the
 core analyzers (loudness, sample and true peak) of the same run, to
 pyebur128 and to the decode-only pass.
@@ -24,6 +24,7 @@ Usage: ``bench/bench_integrity_cost.py [--minutes 10] [--repeat 2] [--strict]``.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import os
 import sys
 import time
@@ -66,8 +67,12 @@ def engine_pass(path: Path, classes, spent=None) -> dict:
     from masterqc.audio.reader import open_stream
     from masterqc.measure.engine import run_analyzers
     from masterqc.measure.options import MeasureOptions
+    opts = MeasureOptions(block_frames=BLOCK)
+    if "threads" in {f.name for f in dataclasses.fields(opts)}:
+        # one thread: the per-analyzer times then add up to the pass, and compare like with like
+        opts = dataclasses.replace(opts, threads=1)
     with open_stream(str(path)) as stream:
-        m, _s, _st = run_analyzers(stream, MeasureOptions(block_frames=BLOCK), classes=classes)
+        m, _s, _st = run_analyzers(stream, opts, classes=classes)
     return m
 
 
