@@ -26,8 +26,8 @@ FLOAT_GRID_MAX_BITS = 32
 def lowest_bit_exponent(x: np.ndarray) -> np.ndarray:
     """Per column, the smallest exponent ``e`` such that a non-zero value has its lowest set bit at ``2**e``.
 
-    Returns int64 per column; a column of zeros (or non-finite values) gives a
-    large sentinel-free value ``+2**62`` that callers treat as "no bits".
+    Returns int64 per column; a column holding no non-zero finite value gives
+    ``2**62`` (internal only: :class:`BitDepthAnalyzer` turns it into null).
     """
     mant, exp = np.frexp(x)  # x = mant * 2**exp, 0.5 <= |mant| < 1
     m = np.abs(mant * 2.0 ** 53).astype(np.int64)  # exact integer mantissa (53 bits)
