@@ -6,6 +6,13 @@ The corpus is run once per test session through the engine's ``run_analyzers`` w
 registered sampling analyzers (imaging, aliasing, and the spectrum analyzer that reports
 ``upsampled_from_hz``, ultrasonic tones and energy, and band limits).  A detector whose
 result key is missing fails here: nothing is skipped silently.
+
+Known failures at the committed thresholds (seed 20261201, also printed by
+bench/bench_sampling_detection.py): the aliasing detector misses the naive sawtooth
+sweep at 96 kHz (its high partials are dense and move too fast to be tracked in 20 ms
+frames), and the imaging detector flags the native chord at 96 kHz at 32 kHz: one
+note's harmonic pairs sum to 31996.9 Hz and the 3.1 Hz tremolo sideband closes the gap
+exactly, which is a true spectral correlation at 32 kHz that no upsampler made.
 """
 
 from __future__ import annotations
