@@ -126,7 +126,7 @@ def test_spectrogram_is_bounded_and_locates_a_burst():
     n = fs * 60
     x = 1e-4 * rng.standard_normal(n)
     x[int(31.0 * fs):int(31.5 * fs)] += 0.3 * rng.standard_normal(int(0.5 * fs))
-    fe, r = run_fe(x, fs, columns=400, rows=64)
+    fe, r = run_fe(x, fs, columns=400, rows=64, frame_stride=1)
     assert r.spectrogram_db.shape == (400, 64)
     col_energy = (10 ** (r.spectrogram_db / 10)).sum(axis=1)
     j = int(np.argmax(col_energy))
@@ -211,3 +211,13 @@ def test_noise_floor_series_follows_the_low_percentile():
     assert len(floor) == len(hz)
     assert np.median(floor[sel]) == pytest.approx(10 * math.log10(0.01 / 2400) + 10 * math.log10(-math.log(0.9)),
                                                   abs=1.0)
+
+
+def test_spectrogram_of_a_subsampled_long_file_has_no_empty_columns():
+    fs = 8000
+    rng = np.random.default_rng(10)
+    x = 0.1 * rng.standard_normal((fs * 40, 1))          # 40 s: analysed on 1 frame in 6
+    fe, r = run_fe(x, fs)
+    assert fe.stride == 6
+    assert np.isfinite(r.spectrogram_db).all()
+    assert r.spectrogram_db.shape[0] <= 300

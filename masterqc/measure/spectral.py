@@ -169,7 +169,8 @@ class SpectralFrontEnd:
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
         self.hist = np.zeros((self.bins, self.n_levels), dtype=np.uint32) if histogram else None
         self._bin_index = np.arange(self.bins)
-        self.columns = int(max(1, min(columns, self.total_frame_count)))
+        # each column spans at least `stride` frame positions, so it holds an analysed frame
+        self.columns = int(max(1, min(columns, self.total_frame_count // self.stride)))
         self.rows = int(max(1, min(rows, self.bins - 1)))
         edges = np.linspace(1, self.bins, self.rows + 1).round().astype(int)
         edges = np.unique(edges)
@@ -276,6 +277,7 @@ class SpectralFrontEnd:
         with np.errstate(invalid="ignore", divide="ignore"):
             sg = self.spec_sum / np.maximum(self.spec_count, 1.0)[:, None]
         sg_db = power_db(sg)
+        sg_db[self.spec_count == 0] = np.nan          # (cannot happen by construction; shown as null)
         t_cols = ((np.arange(self.columns) + 0.5) * self.total_frame_count / self.columns) * self.hop / self.fs
         seg_ltas = self.seg_sum / np.maximum(self.seg_frames, 1)[:, None]
         dur = self.total_samples / self.fs
@@ -411,7 +413,8 @@ class SamplingSpectrumAnalyzer(Analyzer):
             "spectrogram": {
                 "time_s": np.round(fe.spectrogram_time_s, 3),
                 "frequency_hz": np.round(fe.spectrogram_freq_hz, 1),
-                "db": np.round(np.maximum(fe.spectrogram_db, -200.0)).astype(int),
+                "db": [[None if not np.isfinite(v) else int(round(max(v, -200.0))) for v in row]
+                       for row in fe.spectrogram_db],
                 "note": "channel-summed power per band, mean over the frames of each column, whole dB",
             },
         }
