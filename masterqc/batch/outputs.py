@@ -177,7 +177,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 {%- set st = r.verdict or "skipped" %}
 <tr class="row-{{ st }}">
 <td class="status st-{{ st }}">{{ icon(st) }}{{ WORD[st] if r.verdict else "NOT JUDGED" }}</td>
-<td class="file">{{ r.id }}<span class="first-problem">spec {{ r.spec or "none" }}</span></td>
+<td class="file">{{ r.id }}<span class="first-problem">spec {{ r.spec or "none" }}{% if r.mixed_specs %} (its files use several specs; the release is judged with this one, its first file's){% endif %}</span></td>
 <td class="num">{{ r.measurements.track_count }}{% if r.measurements.unreadable_count %} ({{ r.measurements.unreadable_count }} unreadable){% endif %}</td>
 <td class="num">{{ fmt(r.measurements.pooled_integrated_lufs, "LUFS") }}</td>
 <td class="num">{{ fmt(r.measurements.track_loudness_spread_lu, "LU") }}</td>
