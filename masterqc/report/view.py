@@ -193,6 +193,9 @@ def _check_label(check: str) -> str:
 
 
 def _measured_text(f: dict) -> str:
+    if f.get("measured_text"):
+        # exactly the value the judge compared; value and unit kept on one line
+        return fmt.clean_text(f["measured_text"]).replace(" ", "\u00a0")
     value = f.get("measured")
     unit = f.get("unit") or ""
     if value is None:
@@ -220,6 +223,8 @@ def _miss_text(f: dict) -> str:
         dec = max(fmt.UNIT_DECIMALS.get(unit, 1), decimals_of(miss))
     except ImportError:  # pragma: no cover
         dec = 1
+    if isinstance(f.get("decimals"), int):
+        dec = f["decimals"]  # the precision the judge compared at
     return fmt.with_unit(float(miss), diff_unit, dec)
 
 
