@@ -172,6 +172,18 @@ def test_first_run_verdicts_and_exit_code(catalogue, first_run):
         assert not [n for n in names if n.startswith(".masterqc-") or n.endswith(".tmp")]
 
 
+def test_summary_json_matches_its_published_schema(first_run, capsys):
+    import jsonschema
+    assert main(["runs", "schema"]) == 0
+    schema = json.loads(capsys.readouterr().out)
+    jsonschema.Draft202012Validator.check_schema(schema)
+    jsonschema.validate(first_run[2]["summary"], schema)
+    broken = json.loads(json.dumps(first_run[2]["summary"]))
+    broken["files"][0]["verdict"] = "maybe"
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(broken, schema)
+
+
 def test_error_rows_name_the_cause(first_run):
     _, out, snap = first_run
     files = by_rel(snap["summary"])
@@ -262,6 +274,9 @@ def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_p
     assert [r for r, f in files.items() if f["analysed"]] == ["album_b/02.wav"]
     assert files["album_b/02.wav"]["verdict"] == "pass" and files["album_b/02.wav"]["change"] == "fixed"
     assert [x.split("/", 1)[1] for x in third.summary["changes"]["fixed"]] == ["album_b/02.wav"]
+    import jsonschema
+    from masterqc.batch.summary_schema import summary_schema
+    jsonschema.validate(third.summary, summary_schema())  # with a previous run and changes
     # break a passing one: exactly that file, newly failing
     tone(os.path.join(root, "album_a", "03.wav"), -3.0)
     fourth = run_batch(BatchConfig(**cfg))

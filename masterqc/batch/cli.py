@@ -94,6 +94,15 @@ def add_runs_parser(sub) -> None:
                                               "its first 8 or more hex digits)"))
     hi.add_argument("file")
     hi.set_defaults(func=cmd_runs_history)
+    sc = rs.add_parser("schema", help="print the JSON Schema of summary.json")
+    sc.set_defaults(func=cmd_runs_schema)
+
+
+def cmd_runs_schema(args) -> int:
+    from masterqc.batch.summary_schema import summary_schema
+    json.dump(summary_schema(), sys.stdout, indent=2)
+    sys.stdout.write("\n")
+    return 0
 
 
 def _open(args):
