@@ -155,3 +155,28 @@ def test_read_error_keeps_its_type_and_frame(tmp_path, threads):
         info = stream.info
     with pytest.raises(AudioReadError, match="after frame 8192"):
         run_analyzers(_BrokenStream(info), MeasureOptions(threads=threads, block_frames=4096))
+
+
+@pytest.mark.parametrize("channels", [2, 6])
+def test_level_balance_taken_from_the_loudness_meter_is_unchanged(tmp_path, channels):
+    """The channel analyzer takes its K-weighted energies from the loudness meter of the
+    run (bind); alone it filters the block itself.  Both must give the same balance."""
+    from masterqc.measure.channels import ChannelRelationAnalyzer
+    from masterqc.measure.loudness import LoudnessAnalyzer
+    rng = np.random.default_rng(3)
+    x = 0.05 * rng.standard_normal((3 * FS, channels))
+    x *= np.linspace(0.5, 1.5, channels)[None, :]
+    path = tmp_path / f"ch{channels}.wav"
+    sf.write(str(path), x, FS, subtype="FLOAT")
+    layout = ("L", "R") if channels == 2 else ("L", "R", "C", "LFE", "Ls", "Rs")
+    got = {}
+    for name, classes in (("alone", [ChannelRelationAnalyzer]),
+                          ("shared", [LoudnessAnalyzer, ChannelRelationAnalyzer])):
+        with open_stream(str(path), channel_layout=layout) as stream:
+            m, _, _ = run_analyzers(stream, MeasureOptions(threads=2, block_frames=5000), classes=classes)
+        got[name] = m["level_balance_lu_per_pair"]
+    assert len(got["alone"]) == channels // 2 - (1 if channels == 6 else 0)
+    assert got["shared"] == pytest.approx(got["alone"], rel=0, abs=1e-9)
+    # the balance itself: pair gains differ by the channel scaling (white noise, flat K-weighting share)
+    assert got["alone"][0] == pytest.approx(20 * np.log10(np.linspace(0.5, 1.5, channels)[0]
+                                                          / np.linspace(0.5, 1.5, channels)[1]), abs=0.3)

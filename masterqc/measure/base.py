@@ -74,6 +74,14 @@ class Analyzer:
     def finish(self) -> AnalyzerResult:  # pragma: no cover - interface
         raise NotImplementedError
 
+    def bind(self, peers) -> None:
+        """Called by the engine once before the first block with every analyzer of the
+        run (this one included).  An analyzer may arrange here to take, at
+        :meth:`finish`, a figure a peer computes anyway instead of computing it
+        again (each one documents what it takes).  Peers must not be fed or
+        changed.  Default: nothing.
+        """
+
     @classmethod
     def applies_to(cls, info, options) -> bool:
         """Whether this analyzer runs for the stream at all (default: always)."""

@@ -136,6 +136,21 @@ class ChannelRelationAnalyzer(Analyzer):
             self.sos = None
         self.zi = np.zeros((2, 2, len(self.kchannels)))
         self.kenergy = np.zeros(len(self.kchannels))
+        self.kshared = None  # the loudness meter whose K-weighted channel energies are taken (bind)
+
+    def bind(self, peers):
+        """Take the K-weighted energies of the paired channels from the run's loudness meter
+        when it filters every one of them: the same K-weighting filter, from rest, on the
+        same samples, so the same values, and the block is not filtered twice."""
+        from masterqc.measure.loudness import LoudnessAnalyzer
+        if self.sos is None or not self.kchannels:
+            return
+        for peer in peers:
+            meter = getattr(peer, "meter", None) if isinstance(peer, LoudnessAnalyzer) else None
+            if (meter is not None and meter.filters_kweighting
+                    and set(self.kchannels) <= set(meter.active_channels)):
+                self.kshared = meter
+                return
 
     def _windows(self, sums: np.ndarray, frames: np.ndarray):
         """Take completed windows: ``sums`` (3, k, pairs), ``frames`` (k,)."""
@@ -212,7 +227,7 @@ class ChannelRelationAnalyzer(Analyzer):
             self.acc = sums[:, -1].copy()
             self.acc_frames = int(lengths[-1])
         self.pos += n
-        if self.sos is not None:
+        if self.sos is not None and self.kshared is None:
             # every channel paired (stereo): filter the block itself, no copy
             src = block if self.kchannels == list(range(block.shape[1])) else block[:, self.kchannels]
             kw, self.zi = signal.sosfilt(self.sos, src, axis=0, zi=self.zi)
@@ -234,6 +249,9 @@ class ChannelRelationAnalyzer(Analyzer):
         min_per = [float(v) if np.isfinite(v) else None for v in self.min_r]
         share_per = [float(b / v) if v else None for b, v in zip(self.below, self.valid)]
         kidx = {c: k for k, c in enumerate(self.kchannels)}
+        if self.kshared is not None:
+            pos = {c: k for k, c in enumerate(self.kshared.active_channels)}
+            self.kenergy = np.array([self.kshared.channel_energy[pos[c]] for c in self.kchannels])
         balance = []
         for a, b in self.pairs:
             za, zb = self.kenergy[kidx[a]], self.kenergy[kidx[b]]

@@ -92,6 +92,10 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
     info = stream.info
     classes = analyzer_classes() if classes is None else classes
     analyzers = [cls(info, options) for cls in classes if cls.applies_to(info, options)]
+    for a in analyzers:
+        bind = getattr(a, "bind", None)
+        if bind is not None:
+            bind(analyzers)
     threads = max(1, int(getattr(options, "threads", 1) or 1))
     with single_thread_blas():
         if threads == 1 or not analyzers:

@@ -49,6 +49,7 @@ from masterqc.measure.base import (INTEGER, NUMBER_OR_NULL, Analyzer,
 from masterqc.measure.kweight import MAX_RATE_HZ as KW_MAX_RATE_HZ
 from masterqc.measure.kweight import MIN_RATE_HZ as KW_MIN_RATE_HZ
 from masterqc.measure.kweight import kweighting_sos
+from masterqc.measure.runs import column_sum
 
 #: -0.691 dB offset of the BS.1770 loudness formula
 LOUDNESS_OFFSET_DB = -0.691
@@ -357,6 +358,11 @@ class LoudnessMeter:
         self._all_active = self._active.size == w.size
         self._w = w[self._active]
         self._sos = kweighting_sos(self.fs) if kweighting else None
+        #: channels that are filtered (weight != 0), in order, and the sum over the file of each
+        #: one's squared K-weighted samples (before the weights; fed through :meth:`process` only)
+        self.active_channels = tuple(int(c) for c in self._active)
+        self.channel_energy = np.zeros(self._active.size)
+        self.filters_kweighting = self._sos is not None
         self._zi = None
         if self._sos is not None and self._active.size:
             self._zi = np.zeros((self._sos.shape[0], 2, self._active.size))
@@ -391,6 +397,7 @@ class LoudnessMeter:
         else:
             x = x.copy()
         np.square(x, out=x)   # in place: a new temporary per block costs as much as the filter
+        self.channel_energy += column_sum(x)
         p = x @ self._w if x.shape[1] > 1 else x[:, 0] * self._w[0]
         self.process_power(p)
 
