@@ -355,6 +355,14 @@ def display_floor(fe: FrontEndResult, centres_hz) -> list:
 # the registered analyzer
 
 
+def _whole_db(values: np.ndarray):
+    """A dB matrix as whole dB (floored at -200), as a list of lists; non-finite cells as None."""
+    v = np.asarray(values, dtype=float)
+    if np.isfinite(v).all():
+        return np.round(np.maximum(v, -200.0)).astype(int).tolist()
+    return [[None if not np.isfinite(x) else int(round(max(x, -200.0))) for x in row] for row in v]
+
+
 def _spectrum_options(options) -> dict:
     extra = getattr(options, "extra", {}) or {}
     return dict(extra.get("spectrum", {}) or {})
@@ -413,8 +421,7 @@ class SamplingSpectrumAnalyzer(Analyzer):
             "spectrogram": {
                 "time_s": np.round(fe.spectrogram_time_s, 3),
                 "frequency_hz": np.round(fe.spectrogram_freq_hz, 1),
-                "db": [[None if not np.isfinite(v) else int(round(max(v, -200.0))) for v in row]
-                       for row in fe.spectrogram_db],
+                "db": _whole_db(fe.spectrogram_db),
                 "note": "channel-summed power per band, mean over the frames of each column, whole dB",
             },
         }
