@@ -26,6 +26,8 @@ FINDING_SCHEMA = {
         "measured_text": {"type": ["string", "null"]},
         "decimals": {"type": ["integer", "null"]},
         "limit": {"type": ["string", "null"]},
+        "limit_low": {"type": ["number", "null"]},
+        "limit_high": {"type": ["number", "null"]},
         "miss": {"type": ["number", "null"]},
         "unit": {"type": ["string", "null"]},
         "message": {"type": "string"},

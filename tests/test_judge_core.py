@@ -184,3 +184,13 @@ def test_target_limits_are_exact_decimals():
     assert req.limits() == (-0.1, 0.3) and judging_decimals(req) == 1
     assert check_limits("x", "level", 0.34, req).status == "pass"
     assert check_limits("x", "level", 0.36, req).status == "fail"
+
+
+def test_numeric_limits_travel_with_the_finding():
+    # EBU R 128 programme target -23.0 LUFS with +-1.0 LU (the live-programme tolerance):
+    # the finding carries -24.0 and -22.0 as numbers for renderers.
+    req = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    d = check_limits("loudness.integrated", "integrated loudness", -23.4, req).to_dict()
+    assert (d["limit_low"], d["limit_high"]) == (-24.0, -22.0)
+    d = check_limits("peaks.true_peak", "true peak", -3.0, tp()).to_dict()
+    assert (d["limit_low"], d["limit_high"]) == (None, -1.0)

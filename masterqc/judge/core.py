@@ -66,6 +66,10 @@ class Finding:
     decimals: int | None = None
     #: the measured value exactly as judged, with its unit ("-0.9 dBTP"); show this text
     measured_text: str | None = None
+    #: the numeric limits in the finding's unit (None for an open side or a non-numeric check);
+    #: a target with tolerance gives target - tolerance and target + tolerance
+    limit_low: float | None = None
+    limit_high: float | None = None
 
     def __post_init__(self):
         if self.status not in STATUSES:
@@ -76,7 +80,8 @@ class Finding:
         return {"check": self.check, "status": self.status, "severity": self.severity,
                 "measured": self.measured, "measured_raw": self.measured_raw,
                 "measured_text": self.measured_text, "decimals": self.decimals,
-                "limit": self.limit, "miss": self.miss, "unit": self.unit,
+                "limit": self.limit, "limit_low": self.limit_low, "limit_high": self.limit_high,
+                "miss": self.miss, "unit": self.unit,
                 "message": self.message,
                 "where_s": [[float(a), float(b)] for a, b in self.where_s]}
 
@@ -201,7 +206,8 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     shown = quantize(value, dec, ties)
     s = _dec(shown)
     base = dict(check=check, measured=shown, measured_raw=float(value), limit=limit, unit=u,
-                severity=req.severity, decimals=dec, measured_text=f"{fmt(shown, dec)}{sp}{u}")
+                severity=req.severity, decimals=dec, measured_text=f"{fmt(shown, dec)}{sp}{u}",
+                limit_low=lo, limit_high=hi)
     missed_status = "fail" if req.severity == "fail" else "warn"
     note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
     where = [list(w) for w in (where_s or [])]
@@ -241,7 +247,8 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
     u = unit_label(req.unit)
     lo, hi = req.limits()
     base = dict(check=check, measured=None, measured_raw=None, limit=limit, unit=u,
-                severity=req.severity, decimals=dec, measured_text="below measurable range")
+                severity=req.severity, decimals=dec, measured_text="below measurable range",
+                limit_low=lo, limit_high=hi)
     if lo is not None:
         status = "fail" if req.severity == "fail" else "warn"
         note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"

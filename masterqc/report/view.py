@@ -474,6 +474,18 @@ def _not_measured(keys) -> str:
     return "Not measured: the result holds no " + " or ".join(f"\u201c{k}\u201d" for k in keys) + "."
 
 
+def _finding_band(f: dict):
+    """``(low, high, target)`` of a finding: its numeric ``limit_low``/``limit_high`` where the
+    result carries them, else parsed from the limit text (results written before those keys)."""
+    lo, hi = f.get("limit_low"), f.get("limit_high")
+    if _is_number(lo) or _is_number(hi):
+        lo = float(lo) if _is_number(lo) else None
+        hi = float(hi) if _is_number(hi) else None
+        target = (lo + hi) / 2.0 if lo is not None and hi is not None and "\u00b1" in str(f.get("limit")) else None
+        return (lo, hi, target)
+    return _parse_band(f.get("limit"))
+
+
 def _parse_band(limit: str | None):
     """``(low, high, target)`` from a limit text of :func:`masterqc.judge.core.limit_text`."""
     if not limit:
@@ -519,7 +531,7 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     f = _finding_for(result, ["integrated"])
     note = ""
     if f is not None:
-        parsed = _parse_band(f.get("limit"))
+        parsed = _finding_band(f)
         if parsed and (parsed[0] is not None or parsed[1] is not None):
             band = (parsed[0], parsed[1])
     duration = _get(result, "format", "duration_s")
@@ -545,7 +557,7 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
 def _ceiling(result: dict):
     f = _finding_for(result, ["true_peak"]) or _finding_for(result, ["true", "peak"])
     if f is not None:
-        parsed = _parse_band(f.get("limit"))
+        parsed = _finding_band(f)
         if parsed and parsed[1] is not None:
             return parsed[1], "spec"
     v = (result.get("measurements") or {}).get("true_peak_ceiling_dbtp")
