@@ -6,6 +6,7 @@ progress lines and CLI errors.
 from __future__ import annotations
 
 import io
+import json
 import os
 import sqlite3
 import threading
@@ -396,9 +397,11 @@ def test_unreadable_folder_is_a_problem_not_a_stop(tmp_path, rng, monkeypatch):
     assert p.path.endswith("locked") and p.message == "folder cannot be listed (Permission denied)"
 
 
-def test_killed_run_resumes(tmp_path, rng):
-    """SIGTERM to a running ``masterqc check FOLDER``: the run is marked interrupted, no temporary
-    file is left, and the next run analyses only what the killed one had not finished."""
+@pytest.mark.parametrize("signame", ["SIGTERM", "SIGKILL"])
+def test_killed_run_resumes(tmp_path, rng, signame):
+    """SIGTERM to a running ``masterqc check FOLDER``: the run is marked interrupted; SIGKILL: it stays
+    marked running.  Either way no temporary file is left and the next run analyses only what the
+    killed one had not finished."""
     import signal
     import subprocess
     import sys
@@ -425,20 +428,25 @@ def test_killed_run_resumes(tmp_path, rng):
                 break
         time.sleep(0.05)
     assert proc.poll() is None, "the run finished before it could be stopped"
-    proc.send_signal(signal.SIGTERM)
+    proc.send_signal(getattr(signal, signame))
     proc.wait(timeout=30)
-    assert proc.returncode == 130, proc.stderr.read()
+    assert proc.returncode == (130 if signame == "SIGTERM" else -signal.SIGKILL), proc.stderr.read()
     assert not (out / "summary.json").exists()
-    assert [n for _, _, names in os.walk(out) for n in names if n.startswith(".masterqc-")] == []
+    if signame == "SIGTERM":  # a killed process may leave a temporary file being written; never a report
+        assert [n for _, _, names in os.walk(out) for n in names if n.startswith(".masterqc-")] == []
     with Ledger(ledger) as led:
         (run,) = led.runs()
-        assert run["status"] == "interrupted"
-        finished = run["files"]
+        assert run["status"] == ("interrupted" if signame == "SIGTERM" else "running")
+        finished = len(led.run_files(run["run_id"]))
     assert 2 <= finished < 8
     again = run_batch(BatchConfig(roots=[str(root)], spec_path=str(spec), out_dir=str(out), formats=("json",),
                                   jobs=1, quiet=True))
     c = again.summary["counts"]
     assert c["files"] == 8 and c["reused"] == finished and c["analysed"] == 8 - finished
+    reports = sorted(n for n in os.listdir(out / "files" / "in") if n.endswith(".json"))
+    assert reports == [f"t{i}.json" for i in range(8)]
+    for n in reports:  # every report is whole JSON
+        json.loads((out / "files" / "in" / n).read_text())
 
 
 def test_output_folder_inside_the_input_is_not_checked(tmp_path, rng):
