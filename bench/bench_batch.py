@@ -20,7 +20,7 @@ CPU share, so on a machine other sessions keep busy (CPU pressure near 100 %) tw
 workers cannot get more CPU than one, and the speed-up stays near 1 or below.  A
 missed target is reported, not fatal; ``--strict`` makes it exit 1.
 
-Usage: ``bench/bench_batch.py [--files 16] [--seconds 20] [--format json] [--dask] [--strict]``.
+Usage: ``bench/bench_batch.py [--files 20] [--seconds 60] [--format json] [--dask] [--strict]``.
 """
 
 from __future__ import annotations
@@ -93,8 +93,8 @@ def timed(cfg):
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--files", type=int, default=16)
-    ap.add_argument("--seconds", type=float, default=20.0)
+    ap.add_argument("--files", type=int, default=20)
+    ap.add_argument("--seconds", type=float, default=60.0)
     ap.add_argument("--format", default="json", help="per-file outputs (json, json,html, ...)")
     ap.add_argument("--dask", action="store_true", help="also run on a dask LocalCluster (2 worker processes)")
     ap.add_argument("--strict", action="store_true")
