@@ -24,7 +24,6 @@ from __future__ import annotations
 import json
 import os
 import sqlite3
-import time
 import zlib
 from contextlib import contextmanager
 from datetime import datetime, timezone
@@ -249,7 +248,3 @@ class Ledger:
             "WHERE substr(f.content_sha256, 1, ?) = ? ORDER BY f.run_id, f.path", (len(prefix), prefix))
         names = [d[0] for d in cur.description]
         return [dict(zip(names, r)) for r in cur.fetchall()]
-
-
-def elapsed_since(t0: float) -> float:
-    return time.perf_counter() - t0
