@@ -115,7 +115,7 @@ table.index th button { font: inherit; font-weight: bold; text-transform: inheri
 table.index th[aria-sort="ascending"] button::after { content: " \\25B2"; }
 table.index th[aria-sort="descending"] button::after { content: " \\25BC"; }
 table.index td { border-bottom: 1px solid var(--rule); padding: 4px 6px; vertical-align: top; font-size: 12.5px; }
-table.index td.file { word-break: break-all; }
+table.index td.file { overflow-wrap: anywhere; }
 table.index td.status { white-space: nowrap; font-weight: bold; }
 table.index .icon { vertical-align: -3px; margin-right: 4px; }
 .first-problem { display: block; color: var(--muted); font-size: 11.5px; }
