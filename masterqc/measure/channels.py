@@ -33,6 +33,7 @@ from scipy import signal
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
 from masterqc.measure.kweight import kweighting_sos
+from masterqc.measure.peaks import column_abs_max
 from masterqc.measure.runs import MAX_WHERE, column_sum
 
 #: left/right label pairs, in the order they are reported (the first present one is primary)
@@ -188,7 +189,9 @@ class ChannelRelationAnalyzer(Analyzer):
     def process(self, block):
         n = block.shape[0]
         if not self.nonzero.all():
-            self.nonzero |= (block != 0.0).any(axis=0)
+            # per-channel max |x| on a folded view: (block != 0).any(axis=0) reduces a narrow
+            # array along axis 0, about 40x slower; the engine's blocks hold no NaN here
+            self.nonzero |= column_abs_max(block) > 0.0
         for p in self.compared:
             i, j = p
             if self.same[p] and not np.array_equal(block[:, i], block[:, j]):

@@ -73,12 +73,18 @@ class Decimator:
         if self.factor == 1:
             return block.T
         d, q, c = self.factor, TAPS_PER_PHASE, self.channels
-        buf = np.concatenate((self.rest, block)) if self.rest.shape[0] else block
-        g = buf.shape[0] // d
-        self.rest = buf[g * d:].copy()
+        r = self.rest.shape[0]
+        g = (r + block.shape[0]) // d
         if g == 0:
+            self.rest = np.concatenate((self.rest, block))
             return np.zeros((c, 0))
-        rows = np.ascontiguousarray(buf[:g * d].T).reshape(c, g, d)
+        # the left-over frames and the block, transposed into per-channel rows in one copy
+        used = g * d - r                   # frames of this block that fill whole rows (> 0)
+        flat = np.empty((c, g * d))
+        flat[:, :r] = self.rest.T
+        flat[:, r:] = block[:used].T
+        self.rest = block[used:].copy()
+        rows = flat.reshape(c, g, d)
         if g < 2 * q:
             seq = np.concatenate((self.tail, rows), axis=1)
             y = self._fir(seq, g)
