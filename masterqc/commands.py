@@ -39,10 +39,10 @@ def _add_check(sub) -> None:
 
 
 def cmd_check(args) -> int:
-    from masterqc.cli import EXIT_FAIL, EXIT_PASS, EXIT_UNREADABLE
     from masterqc.errors import UsageError
     from masterqc.measure.options import MeasureOptions
-    from masterqc.pipeline import check_file, default_formats, parse_formats, reports_available, unique_stems
+    from masterqc.pipeline import (check_file, default_formats, exit_code_for, parse_formats, reports_available,
+                                   unique_stems)
     from masterqc.progress import Progress
     from masterqc.spec.loader import load_spec
 
@@ -66,7 +66,7 @@ def cmd_check(args) -> int:
     loaded = load_spec(args.spec)  # SpecError -> exit 2 (before any file is touched)
     layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
     base = MeasureOptions(channel_layout=layout)
-    verdicts = []
+    outcomes = []
     for path, stem in zip(args.paths, unique_stems(args.paths)):
         progress = Progress(f"checking {path}", enabled=False if args.quiet else None)
         try:
@@ -74,15 +74,11 @@ def cmd_check(args) -> int:
                                 progress=progress.update)
         finally:
             progress.close()
-        verdicts.append(result["verdict"])
+        outcomes.append({k: result[k] for k in ("verdict", "error") if k in result})
         if not args.quiet:
             sys.stdout.write(_summary_line(path, result, args.out) + "\n")
             sys.stdout.flush()
-    if "error" in verdicts:
-        return EXIT_UNREADABLE
-    if "fail" in verdicts:
-        return EXIT_FAIL
-    return EXIT_PASS
+    return exit_code_for(outcomes)
 
 
 def _summary_line(path, result: dict, out_dir: str) -> str:

@@ -90,6 +90,27 @@ def write_json(result: dict, path) -> None:
     write_atomic(path, text.encode("utf-8"))
 
 
+def was_unreadable(result: dict) -> bool:
+    """True when the master could not be read or checked at all (exit code 3).
+
+    A master that was read but carries an error finding (e.g. NaN samples, a
+    judge that failed) has verdict ``error`` yet was read: it counts as a
+    failure (exit code 1), not as unreadable.
+    """
+    return "error" in result
+
+
+def exit_code_for(results) -> int:
+    """Exit code of a run over ``results`` (../shared/design.md): 3 if any master could not be
+    read, else 1 if any failed or ended in error, else 0 (warnings allowed)."""
+    results = list(results)
+    if any(was_unreadable(r) for r in results):
+        return 3
+    if any(r.get("verdict") in ("fail", "error") for r in results):
+        return 1
+    return 0
+
+
 def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts: dict | None = None) -> dict:
     """The result written for a master that could not be read."""
     where = f" (at byte {offset})" if offset is not None else ""

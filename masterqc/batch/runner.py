@@ -38,6 +38,7 @@ from masterqc.batch.names import NameAllocator, inside, safe_component
 from masterqc.batch.progress import BatchProgress
 from masterqc.batch.releases import judge_release, parse_release_mode, release_of
 from masterqc.batch.specmap import Unusable, load_spec_map
+from masterqc.pipeline import exit_code_for
 from masterqc.batch.work import check_task, hash_task
 
 LEDGER_NAME = "masterqc-ledger.sqlite"
@@ -393,6 +394,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
 
 def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, backend, prev_run, prev_rows, t0) -> dict:
     files = []
+    outcomes = []  # verdict and error marker of every file, for the exit code
     for it in items:
         r = it.result or {}
         m = r.get("measurements") or {}
@@ -409,6 +411,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
             change = "changed"
         else:
             change = "unchanged"
+        outcomes.append({k: r[k] for k in ("verdict", "error") if k in r})
         files.append({
             "path": it.path, "rel": it.rel, "release": it.release, "verdict": v, "analysed": it.analysed,
             "elapsed_s": it.elapsed_s, "cpu_s": it.cpu_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
@@ -447,12 +450,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
                "fixed": [f["rel"] for f in files if f["change"] == "fixed"],
                "newly_failing": [f["rel"] for f in files if f["change"] == "newly_failing"],
                "gone": sorted(r["rel"] for p, r in prev_rows.items() if p not in now)}
-    if counts["error"]:
-        code = 3
-    elif counts["fail"] or any(r["verdict"] == "fail" for r in releases):
-        code = 1
-    else:
-        code = 0
+    code = exit_code_for(outcomes + [{"verdict": r["verdict"]} for r in releases if r["verdict"] == "fail"])
     started = ledger.run(run_id)["started_utc"]
     return {
         "tool": {"name": "masterqc", "version": __version__},
