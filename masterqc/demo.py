@@ -10,8 +10,8 @@ reference libraries.
 All titles, labels, networks and people are invented.
 
 CAUTION: the demo masters include loud test content (a hot master, a clipped
-master, full-scale 12 kHz bursts).  Set the monitoring level low before
-listening.  masterqc is a measurement aid: the receiving party's own spec and
+master, full-scale 12 kHz bursts, a 30 kHz tone you cannot hear but your
+tweeters and amplifier can).  Set the monitoring level low before listening.  masterqc is a measurement aid: the receiving party's own spec and
 QC govern acceptance.
 """
 
@@ -23,12 +23,15 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from fractions import Fraction
+
 import numpy as np
 import soundfile as sf
 from scipy import signal
 
 CAUTION = ("CAUTION: the demo masters include loud test content (hot, clipped and full-scale "
-           "high-frequency material); set your monitoring level low before listening. masterqc is a "
+           "high-frequency material, and a 30 kHz tone that is inaudible but reaches your tweeters); "
+           "set your monitoring level low before listening. masterqc is a "
            "measurement aid: the receiving party's own spec and QC govern acceptance.")
 
 SEED = 20261201
@@ -178,6 +181,44 @@ def quarter_rate_burst(n: int, amplitude: float, sr: int, fade_s: float = 0.004)
     return x * _env(n, sr, fade_s, fade_s) ** 0.5
 
 
+def good_upsample(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
+    """``x`` (frames, channels) converted from ``fs_in`` to ``fs_out`` (> ``fs_in``) as a good
+    sample-rate converter does: polyphase FIR (scipy ``resample_poly``), Kaiser window for
+    110 dB stop-band attenuation, -6 dB at 21 kHz, stop band from 22 kHz (below the 22.05 kHz
+    Nyquist frequency of 44.1 kHz, so no mirror image of the source passes)."""
+    fr = Fraction(fs_out, fs_in)
+    up, down = fr.numerator, fr.denominator
+    work_hz = fs_in * up
+    numtaps, beta = signal.kaiserord(110.0, 2000.0 / (work_hz / 2.0))
+    h = signal.firwin(numtaps | 1, 21000.0, window=("kaiser", beta), fs=work_hz)
+    return signal.resample_poly(x, up, down, axis=0, window=h)
+
+
+#: the notes of the naive synthesiser lead (MIDI numbers, one per eighth of the master);
+#: 96000 Hz is a whole multiple of none of their fundamentals, so their folded partials
+#: fall between the harmonics and can be told from them
+LEAD_NOTES = (69, 72, 76, 74, 72, 69, 67, 69)
+
+
+def naive_saw_lead(duration_s: float, sr: int, notes=LEAD_NOTES) -> np.ndarray:
+    """A mono sawtooth lead generated naively: the ideal sawtooth evaluated at the sample
+    instants (2*phase - 1), not band-limited, so every partial above ``sr``/2 folds back
+    into the band.  Peak 1, a short fade at each note's start and end (frames,)."""
+    n = int(round(duration_s * sr))
+    out = np.zeros(n)
+    step = n // len(notes)
+    for i, midi in enumerate(notes):
+        k = np.arange(step)
+        phase = np.mod(k * _note_hz(midi) / sr + 0.123, 1.0)
+        out[i * step:(i + 1) * step] = (2.0 * phase - 1.0) * _env(step, sr, 0.01, 0.05)
+    return out
+
+
+def sine(freq_hz: float, n: int, sr: int, peak: float) -> np.ndarray:
+    """``n`` samples of a sine of ``freq_hz`` with peak amplitude ``peak`` (frames,)."""
+    return peak * np.sin(2 * np.pi * freq_hz * np.arange(n) / sr)
+
+
 # ---------------------------------------------------------------- the masters
 
 @dataclass(frozen=True)
@@ -205,6 +246,13 @@ class DemoMaster:
     fault: str = ""
     #: demo specs this master is checked against by ``masterqc demo`` (stems in specs_demo/)
     demo_specs: tuple = field(default_factory=tuple)
+    #: sampling integrity by construction: the rate the music was made at before a good
+    #: upsampler brought it to ``sample_rate_hz`` (None: made at its own rate)
+    source_rate_hz: int | None = None
+    #: a naively generated (non-band-limited, so folding) waveform is part of the mix
+    naive_synthesis: bool = False
+    #: a stationary ultrasonic tone in the mix: (frequency Hz, peak level dBFS), or None
+    ultrasonic_tone: tuple | None = None
 
 
 MASTERS: list[DemoMaster] = [
@@ -234,6 +282,20 @@ MASTERS: list[DemoMaster] = [
     DemoMaster("pier_talk_quiet", "Pier Talk, ep. 3", "speech", 48000, 16, 1, 15.0, -19.7,
                true_peak_dbtp_max=-2.0, fault="quiet: within 0.5 LU of the lower loudness limit",
                demo_specs=("lantern-lane-spoken",)),
+    # high-resolution masters, checked against the high-resolution album spec
+    DemoMaster("foxglove_hires", "Foxglove Hollow (high-resolution master)", "music", 96000, 24, 2, 12.0, -18.0,
+               true_peak_dbtp_max=-3.5, demo_specs=("copperfield-hires",)),
+    DemoMaster("saltmarsh_fake_hires", "Saltmarsh Dawn (\"96 kHz\" master)", "music", 96000, 24, 2, 12.0, -18.0,
+               true_peak_dbtp_max=-3.5, source_rate_hz=44100,
+               fault="not high resolution: a 44.1 kHz mix converted up to 96 kHz", demo_specs=("copperfield-hires",)),
+    DemoMaster("ropewalk_synth_lead", "Ropewalk (synth lead mix)", "music+naive-lead", 96000, 24, 2, 12.0, -18.0,
+               true_peak_dbtp_max=-3.5, naive_synthesis=True,
+               fault="aliasing: a naively generated sawtooth lead folds its upper partials into the band",
+               demo_specs=("copperfield-hires",)),
+    DemoMaster("beacon_hill_pilot", "Beacon Hill (high-resolution master)", "music+tone", 96000, 24, 2, 12.0, -18.0,
+               true_peak_dbtp_max=-3.0, ultrasonic_tone=(30000.0, -30.0),
+               fault="a 30 kHz tone at -30 dBFS left in the master (inaudible, but it adds 0.6 LU of loudness)",
+               demo_specs=("copperfield-hires",)),
 ]
 
 
@@ -260,8 +322,26 @@ def synthesize(master: DemoMaster, seed: int = SEED) -> np.ndarray:
     rng = np.random.default_rng([seed, sum(map(ord, master.stem))])
     sr, dur = master.sample_rate_hz, master.duration_s
     n = int(round(dur * sr))
-    if master.build == "music":
+    if master.build == "music" and master.source_rate_hz:
+        src = master.source_rate_hz  # made at the lower rate, then converted up properly
+        x = good_upsample(music(dur, src, rng), src, sr)[:n]
+        x = set_loudness(x, sr, master.integrated_lufs)
+    elif master.build == "music":
         x = set_loudness(music(dur, sr, rng), sr, master.integrated_lufs)
+    elif master.build == "music+naive-lead":
+        x = 0.5 * music(dur, sr, rng) + 0.25 * naive_saw_lead(dur, sr)[:, None]
+        x = set_loudness(x, sr, master.integrated_lufs)
+    elif master.build == "music+tone":
+        freq_hz, level_dbfs = master.ultrasonic_tone
+        tone = sine(freq_hz, n, sr, 10.0 ** (level_dbfs / 20.0))[:, None]
+        bed = music(dur, sr, rng)
+        gain = 10.0 ** ((master.integrated_lufs - integrated_lufs(bed, sr)) / 20.0)
+        for _ in range(8):  # the tone adds loudness (K-weighting does not fall above 20 kHz): settle the bed
+            x = bed * gain + tone
+            err = master.integrated_lufs - integrated_lufs(x, sr)
+            if abs(err) < 1e-4:
+                break
+            gain *= 10.0 ** (err / 20.0)
     elif master.build == "music+dynamics":
         x = music(dur, sr, rng) * _section_gain(n, sr, [-22.0, 0.0, -22.0, 0.0])[:, None]
         x = set_loudness(x, sr, master.integrated_lufs)

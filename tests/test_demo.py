@@ -29,7 +29,8 @@ from masterqc.demo import CAUTION, MASTERS, demo_specs_dir, run_demo, write_mast
 from masterqc.schema import result_schema
 
 SPECS = ("harbourlight-house", "harbourlight-shortform", "copperfield-album", "lantern-lane-spoken",
-         "mesa-valley-atsc")
+         "mesa-valley-atsc", "copperfield-hires")
+HIRES = [m for m in MASTERS if "copperfield-hires" in m.demo_specs]
 
 # Expected verdicts, from the build properties (MASTERS) and the spec limits:
 #   house:   48 kHz/24-bit/2 ch, -23 +-1 LUFS, TP <= -1 dBTP (warn within 0.3), LRA <= 18 LU as a warning
@@ -38,28 +39,43 @@ SPECS = ("harbourlight-house", "harbourlight-shortform", "copperfield-album", "l
 #            normalised to -16 LUFS the peak may need at most 1 dB of limiting (warning only)
 #   podcast: 44.1/48 kHz, 16/24-bit, 1-2 ch, -18 +-2 LUFS (warn within 0.5 LU), TP <= -1 dBTP
 #   atsc:    48 kHz/24-bit/2 ch, -24 +-2 LUFS, TP <= -2 dBTP
+#   hires:   album, but 88.2/96 kHz only, and sampling: not upsampled, no imaging, no aliasing
+#            (fail); ultrasonic energy <= -15 dB, tones <= -50 dBFS, loudness change <= 0.2 LU,
+#            energy above each deliverable's Nyquist <= -20 dB (warnings); TP after conversion
+#            to 48 and 44.1 kHz <= -1 dBTP (fail)
+# Every 44.1/48 kHz master fails hires on its rate; every 96 kHz master fails house, short, podcast
+# and atsc on its rate, and passes album: -18 LUFS <= -14, TP <= -3 (+2 dB to -16 LUFS keeps it
+# <= -1 dBTP) -- the album spec has no sampling section, so it cannot see their faults.
 EXPECTED = {
     # -23 LUFS, TP <= -8, LRA <= 5, short-term <= -19, 30 s: meets all but the podcast's -18 +-2;
     # album: +7 dB to -16 LUFS leaves the peak <= -1 dBTP, no limiting
-    "tidewater_theme": ("pass", "pass", "pass", "fail", "pass"),
+    "tidewater_theme": ("pass", "pass", "pass", "fail", "pass", "fail"),
     # -15 LUFS: above -22 (house, short), above -16 (podcast), above -22 (atsc); album: <= -14, TP <= -2,
     # -1 dB to -16 LUFS needs no limiting
-    "lighthouse_ad_hot": ("fail", "fail", "pass", "fail", "fail"),
+    "lighthouse_ad_hot": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # true peak about 0 dBTP: over every ceiling
-    "harbour_overs": ("fail", "fail", "fail", "fail", "fail"),
+    "harbour_overs": ("fail", "fail", "fail", "fail", "fail", "fail"),
     # LRA >= 19 > 18 (a warning only in the house spec); the 30 s spot spec asks no LRA and the
     # short-term maximum is <= -19: pass; album and atsc pass (-23 LUFS, TP <= -9: +7 dB keeps
     # it <= -2 dBTP); podcast: -23 is below -20
-    "estuary_suite_wide": ("warn", "pass", "pass", "fail", "pass"),
+    "estuary_suite_wide": ("warn", "pass", "pass", "fail", "pass", "fail"),
     # 44.1 kHz: refused by house, short and atsc; allowed by album (TP <= -8: +7 dB keeps it <= -1);
     # podcast: -23 LUFS is below -20
-    "marina_interview_44k": ("fail", "fail", "pass", "fail", "fail"),
+    "marina_interview_44k": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # clipped: TP >= 0 dBTP over every ceiling
-    "quayside_clipped": ("fail", "fail", "fail", "fail", "fail"),
+    "quayside_clipped": ("fail", "fail", "fail", "fail", "fail", "fail"),
     # mono: refused where 2 channels are required; podcast: -18 LUFS, TP <= -2
-    "lantern_lane_episode": ("fail", "fail", "fail", "pass", "fail"),
+    "lantern_lane_episode": ("fail", "fail", "fail", "pass", "fail", "fail"),
     # mono 16-bit at -19.7 LUFS: 0.3 LU above the podcast's -20 edge, inside its 0.5 LU margin -> warn
-    "pier_talk_quiet": ("fail", "fail", "fail", "warn", "fail"),
+    "pier_talk_quiet": ("fail", "fail", "fail", "warn", "fail", "fail"),
+    # made at 96 kHz (hats and noise bed reach 48 kHz), band-limited tones, no added tone: passes hires
+    "foxglove_hires": ("fail", "fail", "pass", "fail", "fail", "pass"),
+    # made at 44.1 kHz and converted up: hires refuses it as upsampled from 44.1 kHz
+    "saltmarsh_fake_hires": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    # naive sawtooth lead: its partials above 48 kHz fold back, hires refuses aliasing
+    "ropewalk_synth_lead": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    # 30 kHz tone at -30 dBFS: over the -50 dBFS tone limit and the ultrasonic limits, warnings only
+    "beacon_hill_pilot": ("fail", "fail", "pass", "fail", "fail", "warn"),
 }
 
 
@@ -171,6 +187,16 @@ def test_demo_command(tmp_path):
                 assert json.load(f)["verdict"] == want, (m.stem, spec_id)
             assert f"{want.upper():5s} {m.stem}" in text
     assert (tmp_path / "demo" / "masters" / "tidewater_theme.wav").exists()
+    # the summary line under each high-resolution master names the fault built into it
+    lines = text.splitlines()
+
+    def reason(stem):
+        i = next(k for k, line in enumerate(lines) if f" {stem} " in line and "high-resolution" in line)
+        return lines[i + 1].strip()
+    assert reason("foxglove_hires") == "meets every requirement"
+    assert "converter cliff" in reason("saltmarsh_fake_hires") and "44.1 kHz source" in reason("saltmarsh_fake_hires")
+    assert "alias" in reason("ropewalk_synth_lead") and "440.0 Hz" in reason("ropewalk_synth_lead")
+    assert "ultrasonic" in reason("beacon_hill_pilot") and "sampling.ultrasonic_tones" in reason("beacon_hill_pilot")
 
 
 def test_demo_command_with_two_workers_writes_the_same_verdicts(tmp_path):
@@ -182,3 +208,141 @@ def test_demo_command_with_two_workers_writes_the_same_verdicts(tmp_path):
             with open(tmp_path / "d" / spec_id / f"{m.stem}.json") as f:
                 assert json.load(f)["verdict"] == EXPECTED[m.stem][SPECS.index(spec_id)]
     del buf
+
+
+# ---------------------------------------------------------------- sampling integrity of the hi-res masters
+# Each expectation follows from how demo.py builds the master (DemoMaster.source_rate_hz,
+# .naive_synthesis, .ultrasonic_tone); the masters are checked with scipy/pyloudnorm/pyebur128
+# first, then masterqc's findings must name the fault that was built in.
+
+def _band_energy_db(x, sr, lo_hz, hi_hz, split_hz):
+    """Energy above ``split_hz`` (up to ``hi_hz``) relative to the energy from ``lo_hz`` to
+    ``split_hz``, dB, from a Welch PSD (scipy, 10 Hz bins, channels summed)."""
+    from scipy import signal as sps
+    f, p = sps.welch(x, sr, nperseg=sr // 10, axis=0)  # 10 Hz bins
+    p = p.sum(axis=1)
+    above = p[(f > split_hz) & (f <= hi_hz)].sum()
+    below = p[(f >= lo_hz) & (f <= split_hz)].sum()
+    return 10 * np.log10(max(above, 1e-300) / below)
+
+
+@pytest.fixture(scope="module")
+def hires_results(masters, tmp_path_factory):
+    out = tmp_path_factory.mktemp("hires")
+    code = main(["check", *[str(masters[m.stem]) for m in HIRES], "--spec",
+                 str(demo_specs_dir() / "copperfield-hires.yaml"), "--out", str(out), "--format", "json", "--quiet"])
+    assert code == 1  # two of them fail by construction
+    res = {}
+    for m in HIRES:
+        with open(out / f"{m.stem}.json") as f:
+            res[m.stem] = json.load(f)
+    return res
+
+
+def _finding(result, check):
+    found = [f for f in result["findings"] if f["check"] == check]
+    assert len(found) == 1, (check, [f["check"] for f in result["findings"]])
+    return found[0]
+
+
+@pytest.mark.parametrize("m", HIRES, ids=[m.stem for m in HIRES])
+def test_hires_master_spectrum_is_as_built(masters, m):
+    # checked on the file with scipy's Welch estimate, independent of masterqc
+    x, sr = sf.read(str(masters[m.stem]), always_2d=True)
+    ratio_db = _band_energy_db(x, sr, 20.0, sr / 2, 22050.0)
+    if m.source_rate_hz == 44100:
+        # converted up with a 110 dB stop band from 22 kHz: what lies above 22.05 kHz is the
+        # filter's stop band and the 24-bit rounding floor (about -149 dBFS RMS: one LSB / sqrt(12))
+        assert ratio_db < -80.0
+    else:
+        # hats (high-passed noise) and the pink bed are generated at 96 kHz: real content to 48 kHz
+        assert ratio_db > -45.0
+
+
+@pytest.mark.parametrize("m", HIRES, ids=[m.stem for m in HIRES])
+def test_hires_master_upsampling_verdict_names_the_source_rate(hires_results, m):
+    meas = hires_results[m.stem]["measurements"]
+    f = _finding(hires_results[m.stem], "sampling.upsampled")
+    assert meas["upsampled_from_hz"] == m.source_rate_hz  # 44100 by construction, else made at 96 kHz
+    if m.source_rate_hz:
+        assert f["status"] == "fail"
+        assert "44.1 kHz source" in f["message"]
+        # the converter's -6 dB point is 21 kHz (demo.good_upsample); the edge is read below 22.05 kHz
+        assert 20000.0 <= meas["effective_bandwidth_hz"] <= 22050.0
+        assert meas["bandwidth_edge"] == "cliff"
+    else:
+        assert f["status"] == "pass"
+        assert meas["effective_bandwidth_hz"] >= 40000.0
+    # a good upsampler leaves no mirror image (110 dB stop band): never reported as imaging
+    assert meas["imaging_detected"] is not True
+    assert _finding(hires_results[m.stem], "sampling.imaging")["status"] in ("pass", "skipped")
+
+
+@pytest.mark.parametrize("m", HIRES, ids=[m.stem for m in HIRES])
+def test_hires_master_aliasing_verdict_follows_the_synthesis(hires_results, m):
+    meas = hires_results[m.stem]["measurements"]
+    f = _finding(hires_results[m.stem], "sampling.aliasing")
+    assert meas["aliasing_detected"] is m.naive_synthesis
+    assert f["status"] == ("fail" if m.naive_synthesis else "pass")
+    if m.naive_synthesis:
+        # the lead's notes are A4 (440 Hz) half the time (demo.LEAD_NOTES): the median fundamental
+        assert meas["aliasing_detail"]["median_f0_hz"] == pytest.approx(440.0, abs=1.0)
+        assert f["where_s"], "the folded passages are located in time"
+        lo, hi = min(a for a, _ in f["where_s"]), max(b for _, b in f["where_s"])
+        assert 0.0 <= lo < hi <= m.duration_s
+
+
+def _tone_only_lufs(m):
+    # loudness of the tone alone, with pyloudnorm's BS.1770 filter (K-weighting does not fall above 20 kHz)
+    freq_hz, level_dbfs = m.ultrasonic_tone
+    n = int(m.duration_s * m.sample_rate_hz)
+    t = np.arange(n) / m.sample_rate_hz
+    tone = 10 ** (level_dbfs / 20) * np.sin(2 * np.pi * freq_hz * t)
+    return pyln.Meter(m.sample_rate_hz, filter_class="DeMan").integrated_loudness(np.stack([tone, tone], axis=1))
+
+
+@pytest.mark.parametrize("m", HIRES, ids=[m.stem for m in HIRES])
+def test_hires_master_ultrasonic_tone_is_found_where_it_was_put(hires_results, m):
+    meas = hires_results[m.stem]["measurements"]
+    f = _finding(hires_results[m.stem], "sampling.ultrasonic_tones")
+    tones = meas["ultrasonic_tones"]
+    if m.ultrasonic_tone is None:
+        if not m.naive_synthesis:  # the naive lead's folded partials above 20 kHz may read as tones
+            assert tones == []
+        assert f["status"] == "pass"
+        assert abs(meas["ultrasonic_loudness_change_lu"]) <= 0.2
+        return
+    freq_hz, level_dbfs = m.ultrasonic_tone
+    loudest = max(tones, key=lambda t: t["level_dbfs"])
+    assert loudest["frequency_hz"] == pytest.approx(freq_hz, abs=10.0)  # one 10 Hz bin
+    assert loudest["level_dbfs"] == pytest.approx(level_dbfs, abs=0.5)
+    assert f["status"] == "warn" and "30.00 kHz" in f["message"]
+    # removing the tone lowers the loudness by 10*log10(1 - 10**((L_tone - L)/10)) LU (power sum;
+    # the tone is stationary and the music never falls below the gates, so gating changes little)
+    expected = 10 * np.log10(1 - 10 ** ((_tone_only_lufs(m) - m.integrated_lufs) / 10))
+    assert meas["ultrasonic_loudness_change_lu"] == pytest.approx(expected, abs=0.1)
+    assert abs(expected) > 0.2  # so the 0.2 LU warning is deserved
+    assert _finding(hires_results[m.stem], "sampling.ultrasonic_loudness_change")["status"] == "warn"
+
+
+def _true_peak_dbtp(x, sr):
+    st = eb.R128State(x.shape[1], sr, eb.MeasurementMode.MODE_TRUE_PEAK)
+    st.add_frames(np.ascontiguousarray(x).ravel(), x.shape[0])
+    return 20 * np.log10(max(eb.get_true_peak(st, c) for c in range(x.shape[1])))
+
+
+@pytest.mark.parametrize("m", HIRES, ids=[m.stem for m in HIRES])
+def test_hires_master_deliverables_stay_under_the_ceiling(masters, hires_results, m):
+    # reference: scipy's resample_poly (its own default Kaiser design) and pyebur128's true peak
+    from scipy import signal as sps
+    x, sr = sf.read(str(masters[m.stem]), always_2d=True)
+    meas = hires_results[m.stem]["measurements"]
+    conv = {c["target_rate_hz"]: c for c in meas["conversions"]}
+    assert sorted(conv) == [44100, 48000]  # the spec's deliverables
+    for target, (up, down) in ((48000, (1, 2)), (44100, (147, 320))):
+        ref = _true_peak_dbtp(sps.resample_poly(x, up, down, axis=0), target)
+        assert ref <= -1.0  # the album ceiling holds for each deliverable by construction (TP <= -3)
+        # two different good converters and true-peak meters agree within half a dB on music
+        assert conv[target]["true_peak_after_dbtp"] == pytest.approx(ref, abs=0.5)
+        assert _finding(hires_results[m.stem], f"sampling.conversion_{target}.true_peak")["status"] == "pass"
+
