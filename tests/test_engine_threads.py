@@ -180,3 +180,25 @@ def test_level_balance_taken_from_the_loudness_meter_is_unchanged(tmp_path, chan
     # the balance itself: pair gains differ by the channel scaling (white noise, flat K-weighting share)
     assert got["alone"][0] == pytest.approx(20 * np.log10(np.linspace(0.5, 1.5, channels)[0]
                                                           / np.linspace(0.5, 1.5, channels)[1]), abs=0.3)
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_missing_file_error_is_the_same_with_threads(tmp_path, threads):
+    missing = tmp_path / "nowhere.wav"
+    with pytest.raises(AudioReadError) as err:
+        measure_file(str(missing), MeasureOptions(threads=threads))
+    assert "nowhere.wav" in str(err.value)
+    with pytest.raises(AudioReadError) as ref:
+        measure_file(str(missing), MeasureOptions(threads=1))
+    assert str(err.value) == str(ref.value)
+
+
+def test_file_facts_are_the_same_with_threads(tmp_path):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_24")
+    one = measure_file(str(path), MeasureOptions(threads=1))["file"]
+    two = measure_file(str(path), MeasureOptions(threads=2))["file"]
+    import hashlib
+    assert one == two
+    assert two["sha256"] == hashlib.sha256(path.read_bytes()).hexdigest()
+    assert two["size_bytes"] == path.stat().st_size

@@ -123,10 +123,14 @@ def _run_sequential(stream, info, options, analyzers, progress) -> None:
 class _BlockScheduler:
     """One reader thread and ``threads`` analyzer workers (the caller is one).
 
-    Shared state, guarded by one condition variable: the decoded blocks not yet
-    taken by every analyzer, and per analyzer the index of its next block and
-    whether a worker holds it.  A free worker takes the analyzer that is furthest
-    behind (ties: the one listed first) whose next block is decoded.
+    Shared state, guarded by one lock: the decoded blocks not yet taken by every
+    analyzer, and per analyzer the index of its next block and whether a worker
+    holds it.  A free worker takes the analyzer that is furthest behind (ties:
+    the one listed first) whose next block is decoded.  Threads are woken only
+    when there is something for them (a waiting thread that wakes takes the GIL
+    from the ones at work): the reader when the slowest analyzer moves on, a
+    worker when a block arrives or a second task is free, the caller also when
+    there is progress to report.
     """
 
     def __init__(self, stream, info, options, analyzers, threads, progress):
@@ -135,7 +139,10 @@ class _BlockScheduler:
         self.threads = threads
         self.progress = progress
         self.want_clean = any(not a.raw_input for a in analyzers)
-        self.cond = threading.Condition()
+        self.lock = threading.Lock()
+        self.space = threading.Condition(self.lock)    # the reader waits here
+        self.work = threading.Condition(self.lock)     # the helper workers wait here
+        self.main = threading.Condition(self.lock)     # the calling thread waits here
         self.blocks: dict[int, tuple] = {}     # index -> (raw, clean)
         self.ends: list[int] = []              # frames done after block k
         self.read_count = 0
@@ -145,7 +152,13 @@ class _BlockScheduler:
         self.abort = False
         self.next = [0] * len(analyzers)
         self.busy = [False] * len(analyzers)
+        self.low = 0                           # min(self.next): blocks every analyzer has taken
         self.reported = 0
+
+    def _wake_all(self) -> None:
+        self.space.notify_all()
+        self.work.notify_all()
+        self.main.notify_all()
 
     # -- reader thread
     def _read(self) -> None:
@@ -153,20 +166,21 @@ class _BlockScheduler:
         try:
             for block in gen:
                 pair = _prepare(block, self.info, self.want_clean)
-                with self.cond:
+                with self.lock:
                     if self.abort:
                         return
                     k = self.read_count
                     self.blocks[k] = pair
                     self.ends.append((self.ends[-1] if self.ends else 0) + block.shape[0])
                     self.read_count = k + 1
-                    self.cond.notify_all()
-                    while not self.abort and self.read_count - min(self.next) >= READ_AHEAD_BLOCKS:
-                        self.cond.wait()
+                    self.work.notify_all()
+                    self.main.notify()
+                    while not self.abort and self.read_count - self.low >= READ_AHEAD_BLOCKS:
+                        self.space.wait()
                     if self.abort:
                         return
         except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
-            with self.cond:
+            with self.lock:
                 self.read_error = exc
         finally:
             gen_close = getattr(gen, "close", None)
@@ -175,42 +189,46 @@ class _BlockScheduler:
                     gen_close()
                 except Exception:              # noqa: BLE001 - closing must not hide the real error
                     pass
-            with self.cond:
+            with self.lock:
                 self.read_done = True
-                self.cond.notify_all()
+                self._wake_all()
 
     # -- workers
     def _pick(self):
         best = None
-        for i, a in enumerate(self.analyzers):
+        for i in range(len(self.analyzers)):
             if self.busy[i] or self.next[i] >= self.read_count:
                 continue
             if best is None or self.next[i] < self.next[best]:
                 best = i
         return best
 
+    def _ready_count(self) -> int:
+        return sum(1 for i in range(len(self.analyzers))
+                   if not self.busy[i] and self.next[i] < self.read_count)
+
     def _finished(self) -> bool:
-        return self.read_done and all(n >= self.read_count for n in self.next)
+        return self.read_done and self.low >= self.read_count
 
     def _work(self, report: bool) -> None:
+        wait_on = self.main if report else self.work
+        report = report and self.progress is not None
         while True:
             pending = None
-            with self.cond:
+            with self.lock:
                 while True:
                     if self.abort:
                         return
-                    if report and self.progress is not None:
-                        completed = min(self.next)
-                        if completed > self.reported:
-                            pending = self.ends[self.reported:completed]
-                            self.reported = completed
-                            break
+                    if report and self.low > self.reported:
+                        pending = self.ends[self.reported:self.low]
+                        self.reported = self.low
+                        break
                     i = self._pick()
                     if i is not None:
                         break
                     if self._finished():
                         return
-                    self.cond.wait()
+                    wait_on.wait()
                 if pending is None:
                     self.busy[i] = True
                     k = self.next[i]
@@ -223,25 +241,34 @@ class _BlockScheduler:
             try:
                 a.process(raw if a.raw_input else clean)
             except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
-                with self.cond:
+                with self.lock:
                     self.errors.append((k, i, exc))
                     self.abort = True
-                    self.cond.notify_all()
+                    self._wake_all()
                 return
             finally:
                 raw = clean = None
-            with self.cond:
+            with self.lock:
                 self.busy[i] = False
                 self.next[i] = k + 1
                 low = min(self.next)
-                for j in [j for j in self.blocks if j < low]:
-                    del self.blocks[j]
-                self.cond.notify_all()
+                if low > self.low:
+                    for j in range(self.low, low):
+                        del self.blocks[j]
+                    self.low = low
+                    self.space.notify()
+                    if self.progress is not None:
+                        self.main.notify()
+                if self._ready_count() > 1:    # this thread takes one; another one may take the next
+                    self.work.notify()
+                    self.main.notify()
+                if self._finished():
+                    self._wake_all()
 
     def _stop(self) -> None:
-        with self.cond:
+        with self.lock:
             self.abort = True
-            self.cond.notify_all()
+            self._wake_all()
 
     def run(self) -> None:
         reader = threading.Thread(target=self._read, name="masterqc-read", daemon=True)
@@ -266,6 +293,27 @@ class _BlockScheduler:
             raise self.read_error
 
 
+class _Background:
+    """``fn(*args)`` in a daemon thread; :meth:`result` waits and returns it or raises its error."""
+
+    def __init__(self, fn, *args):
+        self._value = self._error = None
+        self._thread = threading.Thread(target=self._run, args=(fn, args), name="masterqc-hash", daemon=True)
+        self._thread.start()
+
+    def _run(self, fn, args):
+        try:
+            self._value = fn(*args)
+        except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
+            self._error = exc
+
+    def result(self):
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        return self._value
+
+
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:
     """Measure one master and return the result object (without spec and findings).
 
@@ -273,11 +321,22 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     """
     options = options or MeasureOptions()
     started = time.perf_counter()
-    facts = file_facts(path)
-    with open_stream(path, channel_layout=options.channel_layout) as stream:
-        measurements, series, settings = run_analyzers(stream, options, progress)
-        container = stream.container
-        fmt = stream.info.format_dict()
+    threaded = max(1, int(getattr(options, "threads", 1) or 1)) > 1
+    # with threads, the file is hashed in the background while it is measured; its
+    # error (the file cannot be read) still comes first, as in a sequential run
+    hashing = _Background(file_facts, path) if threaded else None
+    facts = None if threaded else file_facts(path)
+    try:
+        with open_stream(path, channel_layout=options.channel_layout) as stream:
+            measurements, series, settings = run_analyzers(stream, options, progress)
+            container = stream.container
+            fmt = stream.info.format_dict()
+    except BaseException:
+        if hashing is not None:
+            hashing.result()
+        raise
+    if hashing is not None:
+        facts = hashing.result()
     metadata = dict(container.metadata)
     metadata["container_kind"] = container.kind
     metadata["chunks"] = container.chunks
