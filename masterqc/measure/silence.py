@@ -36,6 +36,27 @@ DROPOUT_EVENT = {
 }
 
 
+#: frames in the first piece :func:`_edge_frame` looks at (each next piece is 4x longer)
+EDGE_PIECE_FRAMES = 1024
+
+
+def _edge_frame(block, level: float, from_end: bool):
+    """Index of the last (``from_end``) or first frame of a (frames, channels) block
+    where ``|x| > level`` in any channel, or None when there is none."""
+    n, c = block.shape
+    size, done = EDGE_PIECE_FRAMES, 0
+    while done < n:
+        k = min(size, n - done)
+        piece = block[n - done - k:n - done] if from_end else block[done:done + k]
+        hit = np.flatnonzero(np.abs(piece).ravel() > level)
+        if hit.size:
+            row = int(hit[-1] if from_end else hit[0]) // c
+            return (n - done - k + row) if from_end else (done + row)
+        done += k
+        size *= 4
+    return None
+
+
 class SilenceAnalyzer(Analyzer):
     """Head and tail silence (near and digital) and mid-file dropouts (silence or frozen values)."""
 
@@ -91,24 +112,22 @@ class SilenceAnalyzer(Analyzer):
                 self.events.append({"channel": label, "start_s": s / self.fs, "end_s": (s + n) / self.fs,
                                     "kind": "silence" if v == 0.0 else "frozen", "value": v + 0.0})
 
-    def _extent(self, mask, what):
-        """Update the first/last frame index where ``mask`` (frames, channels) holds in any channel."""
-        n, c = mask.shape
-        cols = np.arange(c)
-        last_c = n - 1 - mask[::-1].argmax(axis=0)  # last True per channel (n-1 when there is none)
-        has = mask[last_c, cols]
-        if not has.any():
+    def _extent(self, block, level, what):
+        """Update the first/last frame index where ``|x| > level`` in any channel.
+
+        Scans from the block's end (and, until one is found, from its start) in
+        growing pieces, so a block with sound near both ends costs little."""
+        last = _edge_frame(block, level, from_end=True)
+        if last is None:
             return
-        setattr(self, "last_" + what, self.pos + int(last_c[has].max()))
+        setattr(self, "last_" + what, self.pos + last)
         if getattr(self, "first_" + what) is None:
-            first_c = mask.argmax(axis=0)
-            setattr(self, "first_" + what, self.pos + int(first_c[has].min()))
+            setattr(self, "first_" + what, self.pos + _edge_frame(block, level, from_end=False))
 
     def process(self, block):
         n = block.shape[0]
-        mag = np.abs(block)
-        self._extent(mag > self.threshold, "loud")
-        self._extent(mag > 0.0, "nonzero")
+        self._extent(block, self.threshold, "loud")
+        self._extent(block, 0.0, "nonzero")
         # frozen runs: sample i belongs to a run when it equals a neighbour (labels = values)
         eq = np.empty_like(block, dtype=bool)
         eq[0] = block[0] == self.prev
