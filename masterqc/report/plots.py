@@ -308,39 +308,79 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
         return _to_svg(fig, "truepeak", "True peak over time")
 
 
-def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=()) -> str:
+#: files whose Nyquist frequency is above this get a second, linear panel of the upper band
+UPPER_PANEL_MIN_NYQUIST_HZ = 24000.0
+#: lower edge of that panel: below the Nyquist frequencies of the standard lower rates (16 kHz
+#: for 32 kHz), so a converter cliff, the ultrasonic band and its tones are seen in full
+UPPER_PANEL_FROM_HZ = 10000.0
+
+
+def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(), marks=()) -> str:
     """Long-term spectrum per channel on a log frequency axis.
 
     ``lines``: ``[(freq_hz, label)]`` vertical reference lines (20 kHz, the
     file's Nyquist, each conversion target's Nyquist), drawn with distinct
-    dash patterns and named in the legend.
+    dash patterns and named in the legend.  Above a 48 kHz rate a second panel
+    shows the band from :data:`UPPER_PANEL_FROM_HZ` to Nyquist on a linear axis
+    (where a log axis squeezes the converter cliff and the ultrasonic band),
+    with ``marks``: ``[(freq_hz, label)]`` pointed at on the spectrum (e.g. the
+    stationary ultrasonic tones).
     """
+    nyq = sample_rate_hz / 2.0
+    upper = nyq > UPPER_PANEL_MIN_NYQUIST_HZ
     with matplotlib.rc_context(STYLE):
-        fig = _figure(2.7)
-        ax = fig.add_axes((0.075, 0.17, 0.905, 0.63))
+        fig = _figure(4.9 if upper else 2.7)
+        if upper:
+            ax = fig.add_axes((0.075, 0.585, 0.905, 0.32))
+            ax2 = fig.add_axes((0.075, 0.1, 0.905, 0.37))
+        else:
+            ax = fig.add_axes((0.075, 0.17, 0.905, 0.6))
+            ax2 = None
         f = np.asarray(freqs_hz, float)
         keep = f > 0
-        values = []
+        values, curves = [], []
         for i, (db, label) in enumerate(zip(per_channel_db, labels)):
             color, ls = CHANNEL_STYLES[i % len(CHANNEL_STYLES)]
             y = _arr(db)
-            ax.plot(f[keep], y[keep], color=color, ls=ls, lw=0.9, label=label)
+            curves.append(y)
+            for a in (ax, ax2) if ax2 is not None else (ax,):
+                a.plot(f[keep], y[keep], color=color, ls=ls, lw=0.9, label=label if a is ax else None)
             values += list(y[keep][np.isfinite(y[keep])])
         ax.set_xscale("log")
-        nyq = sample_rate_hz / 2.0
         lo = f[keep].min() if keep.any() else 10.0
         ax.set_xlim(max(lo, 10.0), nyq * 1.04)
         if values:
             top = max(values) + 6.0
-            ax.set_ylim(max(min(values) - 3.0, top - 120.0), top)
+            ylim = (max(min(values) - 3.0, top - 120.0), top)
+            ax.set_ylim(*ylim)
         dashes = [(0, (4, 2)), "-", (0, (1, 1.2)), (0, (6, 2, 1, 2)), (0, (3, 3))]
         for j, (freq, text) in enumerate(lines):
-            ax.axvline(freq, color=BLACK if "Nyquist" in text and "target" not in text else GREY, lw=1.0,
-                       ls=dashes[j % len(dashes)], label=text)
-        ax.set_xlabel("frequency (Hz)")
+            style = dict(color=BLACK if "Nyquist" in text and "target" not in text else GREY, lw=1.0,
+                         ls=dashes[j % len(dashes)])
+            ax.axvline(freq, label=text, **style)
+            if ax2 is not None and freq >= UPPER_PANEL_FROM_HZ:
+                ax2.axvline(freq, **style)
+        ax.set_xlabel("frequency (Hz), logarithmic")
         ax.set_ylabel("level (dB)")
         ax.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
-        _legend(ax, ncol=6)
+        _legend(ax, ncol=3)
+        if ax2 is not None:
+            ax2.set_xlim(UPPER_PANEL_FROM_HZ, nyq * 1.01)
+            if values:
+                ax2.set_ylim(*ylim)
+            ax2.set_xlabel(f"frequency (Hz), linear: the upper band, {UPPER_PANEL_FROM_HZ / 1000:g} kHz to Nyquist")
+            ax2.set_ylabel("level (dB)")
+            ax2.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
+            ax2.axvspan(20000.0, nyq, color=GREY, alpha=0.08, lw=0)
+            for freq, text in marks:
+                levels = [float(np.interp(freq, f[keep], c[keep])) for c in curves if np.isfinite(c[keep]).all()]
+                if not levels or not values:
+                    continue
+                y0 = max(levels)
+                ax2.annotate(text, xy=(freq, y0), xytext=(10, 6), textcoords="offset points", ha="left",
+                             va="bottom", fontsize=6.5, color=VERMILION,
+                             arrowprops={"arrowstyle": "-|>", "color": VERMILION, "lw": 0.8,
+                                         "shrinkA": 0, "shrinkB": 1})
         return _to_svg(fig, "spectrum", "Long-term spectrum per channel")
 
 
@@ -382,9 +422,13 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         else:
             img = ax.pcolormesh(t, f, z.T, shading="nearest", cmap="cividis", vmin=vmin, vmax=vmax,
                                 rasterized=True)
-        for freq, text in lines:
+        x_left = max(extent[0], 0.0)
+        x_span = max(duration_s, extent[1]) - x_left
+        for j, (freq, text) in enumerate(sorted(lines)):
             ax.axhline(freq, color="white", lw=0.9, ls=(0, (4, 2)))
-            ax.text(extent[0], freq, f" {text} ", va="bottom", ha="left", fontsize=6.3, color=BLACK,
+            # lines a few kHz apart (20, 22.05, 24 kHz): their labels are spread across the width
+            ax.text(x_left + x_span * j / max(len(lines), 1), freq, f" {text} ", va="bottom", ha="left",
+                    fontsize=6.3, color=BLACK,
                     bbox={"boxstyle": "square,pad=0.1", "facecolor": "white", "edgecolor": "none", "alpha": 0.8})
         ax.set_ylim(0, sample_rate_hz / 2.0)
         ax.yaxis.set_major_formatter(FuncFormatter(_hz_tick))

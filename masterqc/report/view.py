@@ -680,8 +680,20 @@ def spectrum_view(result: dict) -> dict:
     edge = m.get("effective_bandwidth_hz")
     if _is_number(edge) and 0 < edge < rate / 2.0 * 0.995:
         lines.append((float(edge), f"content edge {edge / 1000:.2f} kHz (measured)"))
-    svg = plots.spectrum_plot(freqs, per, names, rate, lines)
+    marks = []
+    tones = m.get("ultrasonic_tones")
+    if isinstance(tones, list):
+        tones = [t for t in tones if isinstance(t, dict) and _is_number(t.get("frequency_hz"))
+                 and _is_number(t.get("level_dbfs"))]
+        for t in sorted(tones, key=lambda t: -t["level_dbfs"])[:3]:  # the loudest three, so labels stay apart
+            marks.append((float(t["frequency_hz"]),
+                          f"tone {t['frequency_hz'] / 1000:.2f} kHz, {fmt.number(t['level_dbfs'], 1)} dBFS"))
+    svg = plots.spectrum_plot(freqs, per, names, rate, lines, marks)
     note = "Vertical lines: " + "; ".join(text for _f, text in lines) + "."
+    if rate / 2.0 > plots.UPPER_PANEL_MIN_NYQUIST_HZ:
+        note += (f" Lower panel: the band from {plots.UPPER_PANEL_FROM_HZ / 1000:g} kHz to Nyquist on a linear "
+                 "axis, the ultrasonic band shaded" + ("; arrows point at stationary ultrasonic tones" if marks
+                                                       else "") + ".")
     missing = [label for label, v in rows if v == "n/a"]
     rows = [(label, v) for label, v in rows if v != "n/a"]
     if missing:
