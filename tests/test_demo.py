@@ -194,6 +194,7 @@ def test_demo_command(tmp_path):
         i = next(k for k, line in enumerate(lines) if f" {stem} " in line and "high-resolution" in line)
         return lines[i + 1].strip()
     assert reason("foxglove_hires") == "meets every requirement"
+    assert reason("saltmarsh_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
     assert "converter cliff" in reason("saltmarsh_fake_hires") and "44.1 kHz source" in reason("saltmarsh_fake_hires")
     assert "alias" in reason("ropewalk_synth_lead") and "440.0 Hz" in reason("ropewalk_synth_lead")
     assert "ultrasonic" in reason("beacon_hill_pilot") and "sampling.ultrasonic_tones" in reason("beacon_hill_pilot")
@@ -346,3 +347,14 @@ def test_hires_master_deliverables_stay_under_the_ceiling(masters, hires_results
         assert conv[target]["true_peak_after_dbtp"] == pytest.approx(ref, abs=0.5)
         assert _finding(hires_results[m.stem], f"sampling.conversion_{target}.true_peak")["status"] == "pass"
 
+
+
+def test_hires_report_shows_the_upper_band_and_points_at_the_tone(hires_results):
+    # the report of a 96 kHz master draws the band above 10 kHz on a linear axis, and names the
+    # 30 kHz tone that the measurement found (it was put there by construction)
+    from masterqc.report.view import spectrum_view
+    tone = spectrum_view(hires_results["beacon_hill_pilot"])
+    assert "Lower panel: the band from 10 kHz to Nyquist" in tone["note"]
+    assert "tone 30.00 kHz, -30.0 dBFS" in tone["svg"]
+    fake = spectrum_view(hires_results["saltmarsh_fake_hires"])
+    assert "tone " not in fake["svg"] and "content edge 20.9" in fake["note"]

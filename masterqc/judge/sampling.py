@@ -42,6 +42,24 @@ def _bool_str(v) -> str:
     return str(v).lower()
 
 
+def _yes_no(f: Finding, what: str) -> Finding:
+    """``f`` (from :func:`check_allowed` on a yes/no measurement) with its opening in words:
+    "<what>: yes, which the spec does not allow" instead of "<what> true is not allowed
+    (allowed: false)"; the rest of the message is kept."""
+    v = f.measured
+    if f.status == "skipped" or not isinstance(v, bool):
+        return f
+    word = "yes" if v else "no"
+    ok = f"{what} {_bool_str(v)} is allowed"
+    bad = f"{what} {_bool_str(v)} is not allowed (allowed: "
+    if f.message.startswith(ok):
+        f.message = f"{what}: {word}, which the spec allows" + f.message[len(ok):]
+    elif f.message.startswith(bad) and ")" in f.message[len(bad):]:
+        rest = f.message[len(bad):]
+        f.message = f"{what}: {word}, which the spec does not allow" + rest[rest.index(")") + 1:]
+    return f
+
+
 def _rate(result: dict):
     return (result.get("format") or {}).get("sample_rate_hz")
 
@@ -71,8 +89,8 @@ def _upsampling(section, m: dict) -> list[Finding]:
              if p.get("upsampled_from_hz") is not None
              and (p.get("upsampled_confidence") is None or p["upsampled_confidence"] >= need)]
     partial = src is None and bool(parts)
-    f = check_allowed("sampling.upsampled", "upsampled from a lower rate", counted or partial, section.upsampled,
-                      show=_bool_str)
+    f = _yes_no(check_allowed("sampling.upsampled", "upsampled from a lower rate", counted or partial,
+                              section.upsampled, show=_bool_str), "upsampled from a lower rate")
     edge = m.get("effective_bandwidth_hz")
     if partial:
         rates = sorted({p["upsampled_from_hz"] for p in parts})
@@ -138,8 +156,9 @@ def judge(section, result: dict) -> list[Finding]:
     if s.band_limited is not None:
         key = "band_limit_hz"
         value = (m.get(key) is not None) if key in m else None
-        f = check_allowed("sampling.band_limited", "low-passed at a frequency no standard rate explains", value,
-                          s.band_limited, show=_bool_str, missing_reason=_missing(m, key, ""))
+        what = "low-passed at a frequency no standard rate explains"
+        f = _yes_no(check_allowed("sampling.band_limited", what, value, s.band_limited, show=_bool_str,
+                                  missing_reason=_missing(m, key, "")), what)
         if value:
             f.message += (f": content ends in a cliff at {_khz(m[key])} ({m.get('bandwidth_edge_depth_db')} dB deep)"
                           ": lossy or filtered source?")
@@ -149,9 +168,15 @@ def judge(section, result: dict) -> list[Finding]:
 
     if s.imaging is not None:
         key = "imaging_detected"
-        f = check_allowed("sampling.imaging", "mirror images of an unfiltered upsampler", m.get(key), s.imaging,
-                          show=_bool_str,
-                          missing_reason=_missing(m, key, "no candidate source rate could be tested"))
+        what = "mirror images of an unfiltered upsampler"
+        why = "no candidate source rate could be tested"
+        untestable = [c for c in (m.get("imaging") or []) if isinstance(c, dict)
+                      and c.get("verdict") == "untestable" and c.get("reason") and c.get("source_rate_hz")]
+        if untestable:  # the first candidate's reason says why (they are usually the same)
+            c = untestable[0]
+            why += f" (e.g. {float(c['source_rate_hz']) / 1000:g} kHz: {c['reason']})"
+        f = _yes_no(check_allowed("sampling.imaging", what, m.get(key), s.imaging, show=_bool_str,
+                                  missing_reason=_missing(m, key, why)), what)
         if f.status != "skipped":
             f.message += _imaging_detail(m)
         out.append(f)
@@ -160,8 +185,10 @@ def judge(section, result: dict) -> list[Finding]:
     where = [list(w) for w in (detail.get("where_s") or [])]
     if s.aliasing is not None:
         key = "aliasing_detected"
-        f = check_allowed("sampling.aliasing", "folded (aliased) content", m.get(key), s.aliasing, show=_bool_str,
-                          missing_reason=_missing(m, key, detail.get("reason") or "not assessable on this material"))
+        f = _yes_no(check_allowed("sampling.aliasing", "folded (aliased) content", m.get(key), s.aliasing,
+                                  show=_bool_str, missing_reason=_missing(m, key, detail.get("reason")
+                                                                          or "not assessable on this material")),
+                    "folded (aliased) content")
         if f.status in ("warn", "fail"):
             f.where_s = where
             if detail.get("reason"):
