@@ -55,6 +55,7 @@ def _prepare(block, info, want_clean: bool):
     block itself when every sample is finite.  Read-only, because every analyzer
     sees the same arrays: one that wrote into its input would change another's.
     """
+    block = np.asarray(block)
     block.flags.writeable = False
     clean = block
     if want_clean and info.is_float and not np.isfinite(block).all():
