@@ -214,6 +214,22 @@ def naive_saw_lead(duration_s: float, sr: int, notes=LEAD_NOTES) -> np.ndarray:
     return out
 
 
+#: the bell partials of :func:`flat_topped_bell`: a fundamental and its third harmonic at a
+#: sixth of its amplitude, in sine phase: sin(x) + sin(3x)/6 peaks at sqrt(3)/2 (at x = 60 deg,
+#: where the first derivative cos(x) + cos(3x)/2 is zero), 1.249 dB below the fundamental's own peak
+BELL_HZ = 11000.0
+BELL_THIRD_RATIO = 1.0 / 6.0
+
+
+def flat_topped_bell(n: int, sr: int, peak: float, fade_s: float = 0.005) -> np.ndarray:
+    """``n`` samples of a bell tone of :data:`BELL_HZ` whose third harmonic (33 kHz, ultrasonic)
+    flattens its peaks: true peak ``peak``.  Without the third harmonic (any conversion to
+    48 or 44.1 kHz removes it) the peak is ``peak * 2/sqrt(3)``, 1.249 dB higher (frames,)."""
+    x = 2.0 * np.pi * BELL_HZ * np.arange(n) / sr
+    wave = (np.sin(x) + BELL_THIRD_RATIO * np.sin(3.0 * x)) / (np.sqrt(3.0) / 2.0)
+    return peak * wave * _env(n, sr, fade_s, fade_s) ** 0.5
+
+
 def sine(freq_hz: float, n: int, sr: int, peak: float) -> np.ndarray:
     """``n`` samples of a sine of ``freq_hz`` with peak amplitude ``peak`` (frames,)."""
     return peak * np.sin(2 * np.pi * freq_hz * np.arange(n) / sr)
@@ -253,6 +269,9 @@ class DemoMaster:
     naive_synthesis: bool = False
     #: a stationary ultrasonic tone in the mix: (frequency Hz, peak level dBFS), or None
     ultrasonic_tone: tuple | None = None
+    #: bell bursts whose ultrasonic partial flattens their peaks (:func:`flat_topped_bell`):
+    #: their true peak at the master's rate, dBTP, or None
+    bell_peak_dbtp: float | None = None
 
 
 MASTERS: list[DemoMaster] = [
@@ -296,6 +315,11 @@ MASTERS: list[DemoMaster] = [
                true_peak_dbtp_max=-3.0, ultrasonic_tone=(30000.0, -30.0),
                fault="a 30 kHz tone at -30 dBFS left in the master (inaudible, but it adds 0.6 LU of loudness)",
                demo_specs=("copperfield-hires",)),
+    DemoMaster("lamplighter_bells", "Lamplighter's Waltz (high-resolution master)", "music+bells", 96000, 24, 2,
+               12.0, -16.0, true_peak_dbtp_max=-1.2, true_peak_dbtp_min=-1.8, bell_peak_dbtp=-1.6,
+               fault="under -1 dBTP at 96 kHz, over it once converted to 48 or 44.1 kHz: the bells' 33 kHz "
+                     "partial flattens their peaks, and the conversion removes it",
+               demo_specs=("copperfield-hires",)),
 ]
 
 
@@ -331,6 +355,27 @@ def synthesize(master: DemoMaster, seed: int = SEED) -> np.ndarray:
     elif master.build == "music+naive-lead":
         x = 0.5 * music(dur, sr, rng) + 0.25 * naive_saw_lead(dur, sr)[:, None]
         x = set_loudness(x, sr, master.integrated_lufs)
+    elif master.build == "music+bells":
+        bells = np.zeros(n)
+        burst_n = int(0.04 * sr)
+        gap = np.ones(n)
+        for start_s in (2.5, 6.0, 9.5):
+            k = int(start_s * sr)
+            bells[k:k + burst_n] = flat_topped_bell(burst_n, sr, 10.0 ** (master.bell_peak_dbtp / 20.0))
+            pad = int(0.02 * sr)  # the music ducks by 30 dB under each bell, so the bells set the peaks
+            gap[k - pad:k + burst_n + pad] = 10.0 ** (-30.0 / 20.0)
+        gap = np.convolve(gap, np.ones(64) / 64, mode="same")
+        bed = music(dur, sr, rng) * gap[:, None]
+        gain = 10.0 ** ((master.integrated_lufs - integrated_lufs(bed, sr)) / 20.0)
+        bells = np.stack([bells, 0.8 * bells], axis=1)
+        for _ in range(30):  # the bells carry a good part of the loudness: settle the bed's gain
+            x = bed * gain + bells
+            err = master.integrated_lufs - integrated_lufs(x, sr)
+            if abs(err) < 1e-4:
+                break
+            # Newton step: the bed's share of the power is how far its gain moves the total
+            share = 10.0 ** ((integrated_lufs(bed * gain, sr) - (master.integrated_lufs - err)) / 10.0)
+            gain *= 10.0 ** (err / max(share, 0.2) / 20.0)
     elif master.build == "music+tone":
         freq_hz, level_dbfs = master.ultrasonic_tone
         tone = sine(freq_hz, n, sr, 10.0 ** (level_dbfs / 20.0))[:, None]
