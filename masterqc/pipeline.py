@@ -22,10 +22,10 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 
 from masterqc import __version__
 from masterqc.errors import AudioReadError
+from masterqc.fileio import write_atomic  # noqa: F401  (part of this module's interface)
 from masterqc.jsonutil import jsonable
 
 #: every output format ``check`` can write
@@ -63,25 +63,6 @@ def parse_formats(text: str) -> tuple[str, ...]:
     if not out:
         raise ValueError("no output format given")
     return tuple(out)
-
-
-def write_atomic(path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder, then rename."""
-    path = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(prefix=".masterqc-", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
 
 
 def write_json(result: dict, path) -> None:

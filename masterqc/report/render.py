@@ -16,13 +16,13 @@ from __future__ import annotations
 import importlib.resources
 import json
 import os
-import tempfile
 from pathlib import Path
 
 import jinja2
 from markupsafe import Markup
 
 from masterqc.errors import UsageError
+from masterqc.fileio import write_atomic
 
 #: report formats this module writes (``json`` is written by the caller)
 RENDER_FORMATS = ("html", "pdf")
@@ -141,28 +141,6 @@ def render_pdf(result: dict, paper: str = "a4", html: str | None = None, fetch_l
     return doc.write_pdf()
 
 
-def atomic_write(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder and ``os.replace``.
-
-    A reader sees the old file or the whole new one, never a partial one; on any
-    error the temporary file is removed and the error propagates.
-    """
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".part")
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-            f.flush()
-            os.fsync(f.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
-
-
 def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, paper: str = "a4") -> list[Path]:
     """Write ``<stem>.html`` and/or ``<stem>.pdf`` for ``result`` into ``out_dir``; return the paths.
 
@@ -183,7 +161,7 @@ def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, pape
         payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html)))
     written = []
     for path, data in payloads:
-        atomic_write(path, data)
+        write_atomic(path, data)
         written.append(path)
     return written
 
