@@ -371,3 +371,12 @@ def test_hires_report_shows_the_upper_band_and_points_at_the_tone(hires_results)
     assert "tone 30.00 kHz, -30.0 dBFS" in tone["svg"]
     fake = spectrum_view(hires_results["saltmarsh_fake_hires"])
     assert "tone " not in fake["svg"] and "content edge 20.9" in fake["note"]
+
+
+def test_hires_report_conversion_table_says_which_deliverable_breaks_the_ceiling(hires_results):
+    from masterqc.report.view import conversions_view
+    for stem, word in (("lamplighter_bells", "FAIL: "), ("foxglove_hires", "pass (")):
+        table = conversions_view(hires_results[stem])["table"]
+        col = table["columns"].index("Spec ceiling")
+        cells = [row[col] for row in table["rows"]]
+        assert len(cells) == 2 and all(c.startswith(word) and c.endswith("\u2264 -1.0 dBTP)") for c in cells), cells

@@ -924,6 +924,29 @@ def conversions_view(result: dict) -> dict:
         rows.append(row)
     note = ("n/a: the quantity does not exist for that target (e.g. no content above the target's "
             "Nyquist frequency, or a target above the file's own rate).")
+    # the spec's true-peak ceiling of each deliverable, as judged, beside the measured value
+    judged = {f.get("check"): f for f in (result.get("findings") or []) if isinstance(f, dict)}
+    verdicts = []
+    for c in conv:
+        t = c.get("target_rate_hz")
+        f = judged.get(f"sampling.conversion_{int(t)}.true_peak") if _is_number(t) else None
+        if not f or f.get("status") not in ("pass", "warn", "fail"):
+            verdicts.append("not judged")
+            continue
+        limit = fmt.clean_text(str(f.get("limit") or "")).replace("<=", "\u2264")
+        if f["status"] == "pass":
+            verdicts.append(f"pass ({limit})")
+        elif _is_number(f.get("miss")):
+            verdicts.append(f"{f['status'].upper()}: {fmt.number(float(f['miss']), f.get('decimals') or 1)} dB "
+                            f"over ({limit})")
+        else:
+            verdicts.append(f"{f['status'].upper()} ({limit})")
+    if any(v != "not judged" for v in verdicts) and "true_peak_after_dbtp" in known:
+        at = known.index("true_peak_after_dbtp") + 1
+        columns.insert(at, "Spec ceiling")
+        for row, v in zip(rows, verdicts):
+            row.insert(at, v)
+        note += " Spec ceiling: the deliverable's true-peak requirement and how the converted signal meets it."
     return {"table": {"columns": columns, "rows": rows}, "note": note}
 
 
