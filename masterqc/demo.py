@@ -7,6 +7,15 @@ with the properties it was built to have; the tests derive every expected
 verdict from those properties and check the properties themselves with
 reference libraries.
 
+The five 96 kHz masters show the sampling-integrity checks against the
+high-resolution album spec (specs_demo/copperfield-hires.yaml): one made at
+96 kHz that passes; one made at 44.1 kHz and converted up with a good
+resampler (:func:`good_upsample`); one with a naively generated sawtooth lead
+(:func:`naive_saw_lead`, its partials above Nyquist fold back); one with a
+stationary 30 kHz tone; and one whose bells' ultrasonic partial flattens their
+peaks (:func:`flat_topped_bell`), so its 48 and 44.1 kHz deliverables go over
+the true-peak ceiling that the 96 kHz master meets.
+
 All titles, labels, networks and people are invented.
 
 CAUTION: the demo masters include loud test content (a hot master, a clipped
