@@ -64,6 +64,13 @@ def _rate(result: dict):
     return (result.get("format") or {}).get("sample_rate_hz")
 
 
+def _ultra_band(result: dict, m: dict) -> str:
+    """The ultrasonic band in words, e.g. "20.00-48.00 kHz" (or "above 20.00 kHz" when the rate is unknown)."""
+    frm = m.get("ultrasonic_from_hz") or 20000.0
+    fs = _rate(result)
+    return _khz_range(frm, fs / 2) if fs else f"above {_khz(frm)}"
+
+
 def _ultra_reason(result: dict, m: dict, key: str) -> str:
     fs = _rate(result)
     if key not in m:
@@ -209,11 +216,13 @@ def judge(section, result: dict) -> list[Finding]:
                                                         "not assessable on this material")))
 
     if s.ultrasonic_energy is not None:
-        out.append(check_limits("sampling.ultrasonic_energy", "ultrasonic energy re audible band",
+        out.append(check_limits("sampling.ultrasonic_energy", f"ultrasonic energy ({_ultra_band(result, m)}) "
+                                "relative to the audible band",
                                 m.get("ultrasonic_energy_db"), s.ultrasonic_energy,
                                 missing_reason=_ultra_reason(result, m, "ultrasonic_energy_db")))
     if s.ultrasonic_energy_3s is not None:
-        out.append(check_limits("sampling.ultrasonic_energy_3s", "ultrasonic energy re audible band, worst 3 s",
+        out.append(check_limits("sampling.ultrasonic_energy_3s", f"ultrasonic energy ({_ultra_band(result, m)}) "
+                                "relative to the audible band, worst 3 s",
                                 m.get("ultrasonic_energy_max_3s_db"), s.ultrasonic_energy_3s,
                                 where_s=m.get("ultrasonic_energy_max_3s_where_s") or [],
                                 missing_reason=_ultra_reason(result, m, "ultrasonic_energy_max_3s_db")))
@@ -284,7 +293,7 @@ def _conversion(target, result, m) -> list[Finding]:
         out.append(f)
     if target.energy_above_nyquist is not None:
         f = check_limits(f"{base}.energy_above_nyquist",
-                         f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz) re the band below",
+                         f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz) relative to the band below",
                          c.get("energy_above_target_nyquist_db"), target.energy_above_nyquist,
                          missing_reason=(f"the target rate is not below the master's ({fs} Hz): nothing can fold"
                                          if fs is not None and t >= fs else "no content above the target's Nyquist"))
