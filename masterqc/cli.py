@@ -43,6 +43,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="interpolation filter: masterqc's Kaiser-windowed sinc (default) or the "
                         "BS.1770-5 Annex 2 example filter (4x only)")
     m.add_argument("--layout", help="channel labels overriding the file's, e.g. L,R,C,LFE,Ls,Rs")
+    m.add_argument("--threads", type=int, default=None, metavar="N",
+                   help="threads for the one-pass measurement (default: up to 2; results are identical)")
     m.add_argument("--block-frames", type=int, default=65536, help=argparse.SUPPRESS)
     m.add_argument("--quiet", action="store_true", help="no progress display")
     m.set_defaults(func=cmd_measure)
@@ -63,8 +65,11 @@ def cmd_measure(args) -> int:
     if args.true_peak_filter == "annex2" and args.true_peak_oversample != 4:
         raise UsageError("--true-peak-filter annex2 is defined for 4x only; "
                          "use --true-peak-oversample 4 or the kaiser filter")
+    if args.threads is not None and args.threads < 1:
+        raise UsageError("--threads must be at least 1")
     layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
-    options = MeasureOptions(block_frames=args.block_frames, channel_layout=layout,
+    extra = {"threads": args.threads} if args.threads else {}
+    options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
                              true_peak_oversample=args.true_peak_oversample,
                              true_peak_filter=args.true_peak_filter)
     progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)

@@ -334,7 +334,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             keys.append(k)
             tasks.append({"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
                           "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(cfg.formats),
-                          "layout": list(cfg.layout) if cfg.layout else None})
+                          "layout": list(cfg.layout) if cfg.layout else None,
+                          # several files at once: each measurement on one thread (no oversubscription)
+                          "threads": 1 if backend.workers > 1 else None})
         for i, value, exc in backend.map_unordered(check_task, tasks):
             group = groups[keys[i]]
             lead = group[0]

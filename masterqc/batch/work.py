@@ -64,11 +64,18 @@ def _spec(spec_path: str, key: str, layout):
         return loaded
 
 
+def _options(layout, threads):
+    from masterqc.measure.options import MeasureOptions
+    if threads:
+        return MeasureOptions(channel_layout=layout, threads=int(threads))
+    return MeasureOptions(channel_layout=layout)
+
+
 def check_task(task: dict) -> dict:
     """Run :func:`masterqc.pipeline.check_file` for one master.
 
     ``task``: ``path``, ``spec_path``, ``spec_key``, ``out_dir``, ``stem``, ``formats``,
-    ``layout`` (list or None).  Returns ``{"result": <result dict>, "elapsed_s": float,
+    ``layout`` (list or None), ``threads`` (threads per measurement, None for the default).  Returns ``{"result": <result dict>, "elapsed_s": float,
     "cpu_s": float, "worker_pid": int}``.  A failure outside reading the master (an internal bug)
     still returns a result: an error result whose ``error.internal`` is true, so the
     batch records it and goes on.
@@ -82,7 +89,7 @@ def check_task(task: dict) -> dict:
     loaded = _spec(task["spec_path"], task["spec_key"], layout)
     try:
         result = check_file(task["path"], loaded, task["out_dir"], tuple(task["formats"]), stem=task["stem"],
-                            base_options=MeasureOptions(channel_layout=layout))
+                            base_options=_options(layout, task.get("threads")))
     except Exception as exc:  # never lose the batch to one file
         result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
         result["error"]["internal"] = True
