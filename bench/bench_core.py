@@ -140,6 +140,27 @@ SAMPLE_LEVEL = ("ClippingAnalyzer", "DcOffsetAnalyzer", "SilenceAnalyzer", "NonF
                 "BitDepthAnalyzer", "ChannelRelationAnalyzer")
 
 
+def run_subset(path: Path, names, threads: int | None = None):
+    """One engine pass with only the analyzer classes named (default threads unless given)."""
+    from masterqc.audio import open_stream
+    from masterqc.measure.engine import run_analyzers
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.measure.registry import analyzer_classes
+    opts = MeasureOptions(block_frames=BLOCK) if threads is None else MeasureOptions(block_frames=BLOCK,
+                                                                                    threads=threads)
+    classes = [c for c in analyzer_classes() if c.__name__ in names]
+    with open_stream(str(path)) as stream:
+        return run_analyzers(stream, opts, classes=classes)
+
+
+def run_core(path: Path):
+    return run_subset(path, CORE)
+
+
+def run_core_and_sample_level(path: Path):
+    return run_subset(path, CORE + SAMPLE_LEVEL)
+
+
 def run_pyebur128(path: Path):
     import pyebur128 as eb
     mode = eb.MeasurementMode.MODE_I | eb.MeasurementMode.MODE_LRA | eb.MeasurementMode.MODE_TRUE_PEAK
@@ -276,6 +297,7 @@ def main(argv=None) -> int:
     best, cpu = {}, {}
     result = None
     passes = [("dec", decode_only, ()), ("mq1", run_masterqc, (1,)), ("mqN", run_masterqc, (None,)),
+              ("core", run_core, ()), ("core5", run_core_and_sample_level, ()),
               ("eb", run_pyebur128, ()), ("pln", run_pyloudnorm, ())]
     outs = {}
     for _ in range(max(1, rep)):
@@ -309,6 +331,12 @@ def main(argv=None) -> int:
           f"  threads=1 {r_eb1:.2f}x  {verdict(r_eb1 <= 1.0)}")
     print(f"  target masterqc/decode-only <= 5x:           default {r_dec:.2f}x  {verdict(r_dec <= 5.0)};"
           f"  threads=1 {r_dec1:.2f}x  {verdict(r_dec1 <= 5.0)}")
+    t_core, t_core5 = best["core"], best["core5"]
+    print(f"  scope of the core issue (loudness + sample peak + true peak), default threads: {t_core:.2f} s = "
+          f"{t_core / t_eb:.2f}x pyebur128 {verdict(t_core / t_eb <= 1.0)}, {t_core / t_dec:.2f}x decode-only "
+          f"{verdict(t_core / t_dec <= 5.0)}")
+    print(f"  core + sample-level analyzers, default threads: {t_core5:.2f} s = {t_core5 / t_eb:.2f}x pyebur128 "
+          f"{verdict(t_core5 / t_eb <= 1.0)}, {t_core5 / t_dec:.2f}x decode-only {verdict(t_core5 / t_dec <= 5.0)}")
     print(f"  threads=1 and threads={default_threads} measurements identical: {same}")
     print(f"  agreement: integrated masterqc {m.get('integrated_lufs'):.3f} / pyebur128 {eb_i:.3f} / "
           f"pyloudnorm {pln_i:.3f} LUFS; LRA {m.get('loudness_range_lu'):.3f} / {eb_lra:.3f} LU; "
