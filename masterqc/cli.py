@@ -2,7 +2,9 @@
 
 Exit codes (../shared/design.md): 0 every file passed (warnings allowed),
 1 at least one file failed, 2 bad invocation or invalid spec, 3 at least one
-file could not be read (the rest are still judged and reported).
+file could not be read (the rest are still judged and reported).  A file that
+was read but ends in verdict ``error`` (e.g. NaN samples) counts as failed (1);
+the rule lives in :func:`masterqc.pipeline.exit_code_for`.
 """
 
 from __future__ import annotations
