@@ -373,7 +373,55 @@ def _builders():
             lambda rng, fs=fs: (fs, _mono(sine_sweep(fs, 500.0, 0.45 * fs)), 24, {"aliasing": False}))
         add(f"naive_saw_sweep_{fs}", "sweeps",
             lambda rng, fs=fs: (fs, _mono(naive_saw_sweep(fs, 300.0, 1500.0)), 24, {"aliasing": True}))
+    _programme_builders(add)
     return out
+
+
+# ---------------------------------------------------------------- programme material (imaging/aliasing)
+def _programme(kind: str, fs: int, rng) -> np.ndarray:
+    """Demo programme (:mod:`masterqc.demo`) of :data:`IMAGING_SECONDS` at ``fs``, peak 0.5:
+    ``music`` (stereo chords, bass, drums, noise bed) or ``speech`` (mono)."""
+    from masterqc import demo
+    x = demo.music(IMAGING_SECONDS, fs, rng) if kind == "music" else \
+        demo.speech(IMAGING_SECONDS, fs, rng).reshape(-1, 1)
+    return 0.5 * x / max(float(np.max(np.abs(x))), 1e-12)
+
+
+def _programme_builders(add):
+    """Music and speech, native and converted: the false claims seen on programme material
+    (imaging called a defect after a proper resampler, music untestable) must not come back,
+    while hold, linear and zero-stuffing upsamplers of music are still found.  Truth by
+    construction: the demo's music keeps its partials below 0.45*fs (no folds) and
+    :func:`good_resample` leaves nothing above the source's Nyquist frequency.  Speech is
+    scored for imaging only: its buzzy source is generated naively, so it may hold folds."""
+    for fs in (44100, 48000, 96000):
+        add(f"music_native_{fs}", "programme",
+            lambda rng, fs=fs: (fs, _programme("music", fs, rng), 24, {"imaging": False, "aliasing": False}))
+    for fs in (44100, 48000):
+        add(f"speech_native_{fs}", "programme",
+            lambda rng, fs=fs: (fs, _programme("speech", fs, rng), 24, {"imaging": False}))
+    for r, fs in ((44100, 96000), (48000, 96000), (44100, 48000)):
+        def build(rng, r=r, fs=fs):
+            x = _programme("music", r, rng)
+            y = np.stack([good_resample(x[:, c], r, fs) for c in range(x.shape[1])], axis=1)
+            return fs, y, 24, {"imaging": False, "aliasing": False}
+        add(f"music_from_{r}_to_{fs}_proper", "programme", build)
+    # upsampled by 2 or more without a proper filter.  (44.1 -> 48 kHz hold/linear of music is
+    # left out: its images fall back onto the programme a few kHz above their source and are not
+    # found in 2 s of drum-dominated music.)
+    for r, fs in ((44100, 96000), (48000, 96000)):
+        for method in ("hold", "linear") + (("zero_stuff",) if fs % r == 0 else ()):
+            def build(rng, r=r, fs=fs, method=method):
+                x = _programme("music", r, rng)
+                if method == "hold":
+                    up = [hold_upsample(x[:, c], r, fs) for c in range(x.shape[1])]
+                elif method == "linear":
+                    up = [linear_upsample(x[:, c], r, fs) for c in range(x.shape[1])]
+                else:
+                    up = [zero_stuff(x[:, c], fs // r) for c in range(x.shape[1])]
+                return fs, np.stack(up, axis=1) / (fs // r if method == "zero_stuff" else 1), 24, \
+                    {"imaging": True}
+            add(f"music_from_{r}_to_{fs}_{method}", "programme", build)
 
 
 def corpus_names() -> list[str]:
