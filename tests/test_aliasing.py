@@ -153,3 +153,72 @@ def test_block_size_does_not_change_the_result():
 def test_keys_are_declared():
     m = _run(naive_wave("saw", 435.2, 48000), 48000)
     assert set(m) == set(AliasingAnalyzer.measurement_schema)
+
+
+def _judge_score(m, max_db=-40.0):
+    from masterqc.judge import judge
+    from masterqc.spec import build_spec
+    sp = build_spec({"spec_version": 1, "name": "invented sampling spec",
+                     "sampling": {"aliasing_score": {"max_db": max_db}}})
+    found, _verdict = judge(sp, {"format": {"sample_rate_hz": 48000}, "measurements": m})
+    return next(f for f in found if f.check == "sampling.aliasing_score")
+
+
+@pytest.mark.parametrize("fs", [44100, 48000, 96000])
+@pytest.mark.parametrize("f0", [139.4, 435.2])
+def test_clean_band_limited_material_has_no_score_and_passes_a_minus_40_db_limit(f0, fs):
+    """Band-limited (additive) sawtooth: no partial above Nyquist, so no alias line.  The score
+    is null (not the floor's power at the fold positions read as a ratio), the detail states
+    the floor-limited bound, and a -40 dB ceiling on the score is met."""
+    m = _run(additive_wave("saw", f0, fs), fs)
+    assert m["aliasing_detected"] is False and m["aliasing_assessable"] is True
+    assert m["aliasing_score"] is None
+    d = m["aliasing_detail"]
+    assert d["alias_lines_found"] == 0 or d["frames_with_alias_lines"] == 0
+    assert isinstance(d["score_upper_bound_db"], float)
+    assert "no alias lines found above the floor" in d["reason"]
+    f = _judge_score(m)
+    assert f.status == "pass" and "no alias lines found above the floor" in f.message
+
+
+def test_clean_music_has_no_score_and_passes(rng):
+    """The demo's music (chords, bass, drums, noise bed; partials below 0.45 fs) at 48 kHz:
+    other notes' partials and the noise bed at the fold positions are no aliases."""
+    from masterqc import demo
+    x = demo.music(4.0, 48000, rng)
+    x = 0.5 * x / np.max(np.abs(x))
+    m = _run(x[:, 0], 48000)
+    assert m["aliasing_detected"] is not True
+    assert m["aliasing_score"] is None
+    f = _judge_score(m)
+    assert f.status in ("pass", "skipped")
+    if m["aliasing_assessable"]:
+        assert f.status == "pass"
+
+
+def test_naive_sawtooth_keeps_its_analytic_score_and_fails_a_minus_40_db_limit():
+    """Fourier series (module docstring): the naive sawtooth's ratio is far above -40 dB."""
+    f0, fs = 435.2, 48000
+    m = _run(naive_wave("saw", f0, fs), fs)
+    expected = predicted_naive_saw_score_db(f0, fs)
+    assert m["aliasing_score"] == pytest.approx(expected, abs=0.5)
+    assert m["aliasing_detail"]["score_upper_bound_db"] is None
+    f = _judge_score(m)
+    assert f.status == "fail" and f.miss == pytest.approx(expected + 40.0, abs=0.51)
+
+
+def test_score_bound_is_an_upper_bound_for_a_naive_sawtooth_under_noise():
+    """A naive sawtooth under white noise loud enough (RMS 0.1) to bury its alias lines: no
+    line is found, the score is null, and the stated floor-limited bound is indeed at least
+    the true (analytic, Fourier-series) ratio.  With the noise 14 dB lower the lines are found
+    and scored at the analytic ratio."""
+    f0, fs = 435.2, 48000
+    expected = predicted_naive_saw_score_db(f0, fs)
+    x = naive_wave("saw", f0, fs, amplitude=0.5) + white(fs, 1.0, np.random.default_rng(7), 0.1)
+    m = _run(x, fs)
+    assert m["aliasing_assessable"] is True and m["aliasing_score"] is None
+    assert m["aliasing_detail"]["score_upper_bound_db"] >= expected
+    x = naive_wave("saw", f0, fs, amplitude=0.5) + white(fs, 1.0, np.random.default_rng(7), 0.02)
+    m = _run(x, fs)
+    assert m["aliasing_detected"] is True
+    assert m["aliasing_score"] == pytest.approx(expected, abs=1.0)

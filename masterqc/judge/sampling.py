@@ -9,7 +9,8 @@ the time ranges (``where_s``).
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_allowed, check_limits, limit_text, skipped
+from masterqc.judge.core import (Finding, check_allowed, check_below_measurable, check_limits, limit_text,
+                                 skipped)
 
 _LOW = "ultrasonic content is judged for masters above 48 kHz"
 
@@ -36,6 +37,28 @@ def _missing(m: dict, key: str, reason: str) -> str:
     if key not in m:
         return f"the measurement {key} is missing from the result (its analyzer did not run)"
     return reason
+
+
+def _aliasing_score(m: dict, detail: dict, req, where) -> Finding:
+    """The alias-to-harmonic ratio against its ceiling.  The score is null where no alias line
+    was found above the floor on assessable tonal material (``aliasing_detail`` then gives the
+    floor-limited upper bound): the ratio lies below what can be measured there, which meets a
+    ceiling.  It is skipped where nothing was assessable, or where folded partial tracks were
+    found without alias lines (the aliasing check reports those)."""
+    key = "aliasing_score"
+    value = m.get(key)
+    what = "alias-to-harmonic ratio"
+    if value is None and key in m and m.get("aliasing_assessable") is True \
+            and (detail.get("assessable_frames") or 0) > 0 and not detail.get("folded_partials") \
+            and not detail.get("frames_with_alias_lines"):
+        bound = detail.get("score_upper_bound_db")
+        tested = detail.get("fold_positions_tested") or 0
+        reason = f"no alias lines found above the floor at the {tested} fold positions tested"
+        if bound is not None:
+            reason += f" (at most {float(bound):.0f} dB if every one held a line just below the detection level)"
+        return check_below_measurable("sampling.aliasing_score", what, req, reason)
+    return check_limits("sampling.aliasing_score", what, value, req, where_s=where,
+                        missing_reason=_missing(m, key, detail.get("reason") or "not assessable on this material"))
 
 
 def _bool_str(v) -> str:
@@ -209,11 +232,7 @@ def judge(section, result: dict) -> list[Finding]:
                 f.message += "; e.g. " + ", ".join(_fold_example(e) for e in ex[:3])
         out.append(f)
     if s.aliasing_score is not None:
-        key = "aliasing_score"
-        out.append(check_limits("sampling.aliasing_score", "alias-to-harmonic ratio", m.get(key), s.aliasing_score,
-                                where_s=where,
-                                missing_reason=_missing(m, key, detail.get("reason") or
-                                                        "not assessable on this material")))
+        out.append(_aliasing_score(m, detail, s.aliasing_score, where))
 
     if s.ultrasonic_energy is not None:
         out.append(check_limits("sampling.ultrasonic_energy", f"ultrasonic energy ({_ultra_band(result, m)}) "

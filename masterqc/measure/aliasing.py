@@ -22,10 +22,17 @@ Two complementary tests, each on a bounded number of frames spread over the file
    generated past Nyquist, or the harmonics of a naively generated moving tone,
    which fall while their fundamental rises).
 
-``aliasing_score`` is the alias-to-harmonic ratio in dB over the assessable tonal
-frames (None when none was assessable); ``aliasing_detected`` is True when alias
-lines were found with a ratio of at least :data:`ALIAS_SCORE_MIN_DB`, or when
-folded partial tracks were found; None when nothing could be assessed.
+``aliasing_score`` is the alias-to-harmonic energy ratio in dB, measured only
+where alias lines were found: over the tonal frames whose predicted fold positions
+show alias lines (at least :data:`MIN_FOUND_FRACTION` of them), when such frames
+are at least half of the assessable ones.  Otherwise it is None: on clean material
+the power at the fold positions is the floor and other notes' partials, not
+aliases, and quoting it as a ratio would read as aliasing.  In that case
+``aliasing_detail.score_upper_bound_db`` states the floor-limited upper bound: an
+alias line strong enough to escape detection at every fold position tested would
+give at most that ratio.  ``aliasing_detected`` is True when alias lines were
+found with a ratio of at least :data:`ALIAS_SCORE_MIN_DB`, or when folded partial
+tracks were found; None when nothing could be assessed.
 """
 
 from __future__ import annotations
@@ -80,6 +87,12 @@ MIN_FOUND_FRACTION = 0.25
 #: (see tests: from its Fourier series); -70 dB flags any converter worse than a short
 #: windowed-sinc kernel while leaving margin above good ones.
 ALIAS_SCORE_MIN_DB = -70.0
+#: power of a line whose highest bin within +-1 bin of a fold position is just below the
+#: detection level (:data:`ALIAS_LINE_DB` over the floor), in units of that level: the
+#: Blackman-Harris 4-term window's noise-equivalent bandwidth (2.00 bins) times its worst
+#: scalloping loss (0.83 dB at half a bin), 2.43 (own reasoning from the window's standard
+#: figures, quoted from memory)
+UNDETECTED_LINE_POWER_FACTOR = 2.43
 #: fundamentals below this cannot be resolved at 5 Hz bins with clear fold positions
 MIN_F0_HZ = 60.0
 #: a tonal frame holds at least this fraction of its power in line main lobes (own reasoning)
@@ -190,7 +203,7 @@ def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
     harmonics, folds, _orders = fold_plan(f0, fs, bin_hz)
     h_pow = float(lobe_power(power, harmonics, bin_hz).sum())
     out = {"f0_hz": f0, "assessable": folds.size >= MIN_CLEAR_FOLDS, "harmonic_power": h_pow,
-           "alias_power": 0.0, "clear": int(folds.size), "found": 0}
+           "alias_power": 0.0, "clear": int(folds.size), "found": 0, "bound_power": 0.0}
     if not out["assessable"] or not h_pow > 0:
         out["assessable"] = False
         return out
@@ -200,7 +213,10 @@ def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
     idx = np.round(folds / bin_hz).astype(int)
     n = power.size
     best = np.max(np.stack([power[np.clip(idx + j, 1, n - 2)] for j in (-1, 0, 1)]), axis=0)
-    out["found"] = int(np.sum(best >= floor[np.clip(idx, 0, n - 1)] * 10 ** (ALIAS_LINE_DB / 10)))
+    level = floor[np.clip(idx, 0, n - 1)] * 10 ** (ALIAS_LINE_DB / 10)
+    out["found"] = int(np.sum(best >= level))
+    # the most power undetected alias lines could hold at these positions
+    out["bound_power"] = float(np.sum(level) * UNDETECTED_LINE_POWER_FACTOR)
     return out
 
 
@@ -276,7 +292,14 @@ class AliasingAnalyzer(Analyzer):
     name = "aliasing"
     measurement_schema = {
         "aliasing_detected": BOOLEAN_OR_NULL,
-        "aliasing_score": NUMBER_OR_NULL,
+        "aliasing_score": {
+            **NUMBER_OR_NULL,
+            "description": ("alias-to-harmonic energy ratio, dB: power of the alias lines found at the "
+                            "predicted fold frequencies |k*f0 - m*fs| over the harmonic power, on the tonal "
+                            "frames where alias lines were found; null when no alias line was found above "
+                            "the floor (then aliasing_detail.score_upper_bound_db gives the floor-limited "
+                            "upper bound) or nothing was assessable"),
+        },
         "aliasing_assessable": BOOLEAN,
         "aliasing_detail": {
             "type": "object",
@@ -288,6 +311,12 @@ class AliasingAnalyzer(Analyzer):
                 "median_f0_hz": NUMBER_OR_NULL,
                 "alias_lines_found": {"type": "integer"},
                 "fold_positions_tested": {"type": "integer"},
+                "score_upper_bound_db": {
+                    **NUMBER_OR_NULL,
+                    "description": ("when aliasing_score is null on assessable material: the highest "
+                                    "alias-to-harmonic ratio, dB, that alias lines escaping detection at "
+                                    "every fold position tested could reach (floor-limited)"),
+                },
                 "folded_partials": {"type": "integer"},
                 "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
                 "fold_examples": {"type": "array", "items": {"type": "object"}},
@@ -342,9 +371,17 @@ class AliasingAnalyzer(Analyzer):
         h = sum(r["harmonic_power"] for _s, r in assess)
         a = sum(r["alias_power"] for _s, r in assess)
         evident = [(s, r) for s, r in assess if r["found"] >= max(MIN_CLEAR_FOLDS, MIN_FOUND_FRACTION * r["clear"])]
+        # the ratio is quoted only where alias lines were found, in enough of the frames
+        enough = bool(evident) and len(evident) >= max(1, 0.5 * len(assess))
         score = None
-        if assess and h > 0:
-            score = 10.0 * math.log10(a / h) if a > 0 else None
+        if enough:
+            h_e = sum(r["harmonic_power"] for _s, r in evident)
+            a_e = sum(r["alias_power"] for _s, r in evident)
+            score = 10.0 * math.log10(a_e / h_e) if a_e > 0 and h_e > 0 else None
+        bound = None
+        if score is None and assess and h > 0:
+            b = sum(r["bound_power"] for _s, r in assess)
+            bound = 10.0 * math.log10(b / h) if b > 0 else None
         reflections = []
         for tr in self.trackers:
             reflections += find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"])
@@ -356,12 +393,12 @@ class AliasingAnalyzer(Analyzer):
             "median_f0_hz": round(float(np.median([r["f0_hz"] for r in tonal])), 3) if tonal else None,
             "alias_lines_found": int(sum(r["found"] for _s, r in assess)),
             "fold_positions_tested": int(sum(r["clear"] for _s, r in assess)),
+            "score_upper_bound_db": None if bound is None else round(bound, 2),
             "folded_partials": len(reflections),
             "where_s": [],
             "fold_examples": [],
         }
-        line_hit = bool(evident) and len(evident) >= max(1, 0.5 * len(assess)) and score is not None \
-            and score >= ALIAS_SCORE_MIN_DB
+        line_hit = enough and score is not None and score >= ALIAS_SCORE_MIN_DB
         detected = line_hit or bool(reflections)
         assessable = bool(assess) or bool(reflections)
         if line_hit:
@@ -392,8 +429,17 @@ class AliasingAnalyzer(Analyzer):
                              "rising partials approach it)")
             detail["reason"] = "; ".join(parts)
         else:
-            detail["reason"] = ("no folded partials found" if score is None else
-                                f"no alias lines above {ALIAS_SCORE_MIN_DB:.0f} dB at the fold frequencies")
+            if score is not None:
+                detail["reason"] = f"no alias lines above {ALIAS_SCORE_MIN_DB:.0f} dB at the fold frequencies"
+            elif evident:
+                detail["reason"] = (f"alias lines in only {len(evident)} of {len(assess)} assessable tonal "
+                                    "frames: too few to call the material aliased or to quote a ratio")
+            elif bound is not None:
+                detail["reason"] = (f"no alias lines found above the floor at the {detail['fold_positions_tested']} "
+                                    f"fold positions tested (alias-to-harmonic ratio below about {bound:.0f} dB, "
+                                    "floor-limited)")
+            else:
+                detail["reason"] = "no folded partials found"
         detail["where_s"] = _merge(detail["where_s"])
         measurements = {
             "aliasing_detected": detected,
