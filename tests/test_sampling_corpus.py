@@ -71,3 +71,16 @@ def test_noise_like_material_is_never_judged_for_aliasing(scored):
     assert len(noise) == 6
     for name, f in noise:
         assert f["aliasing_detected"] is None and f["aliasing_assessable"] is False, name
+
+
+def test_clean_material_never_carries_an_alias_score(scored):
+    """aliasing_score is the alias-to-harmonic ratio where alias lines were found: on every
+    signal that holds no folds (band-limited synthesis, proper conversion, native programme)
+    it is null or below the detector's own threshold, so a spec ceiling such as -40 dB never
+    fails clean material."""
+    from masterqc.measure.aliasing import ALIAS_SCORE_MIN_DB
+    _rates, outcomes = scored
+    clean = [(n, f) for n, _res, f in outcomes if f["labels"].get("aliasing") is False]
+    assert len(clean) >= 40
+    for name, f in clean:
+        assert f["aliasing_score"] is None or f["aliasing_score"] < ALIAS_SCORE_MIN_DB, (name, f)
