@@ -229,7 +229,13 @@ class _Bw64AsRf64:
         return data
 
     def seek(self, offset, whence=0):
-        return self._f.seek(offset, whence)
+        # called from libsndfile through a C callback, where an exception cannot travel: a seek
+        # before the start (a corrupt length field) leaves the position where it was, and
+        # libsndfile then reports the read as failed, which the reader turns into AudioReadError
+        try:
+            return self._f.seek(offset, whence)
+        except (OSError, ValueError):
+            return self._f.tell()
 
     def tell(self):
         return self._f.tell()
