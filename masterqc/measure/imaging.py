@@ -464,16 +464,12 @@ class ImagingAnalyzer(Analyzer):
         self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
         # per pair, sum over frames of |X_m(a)|^2 |X_m(b)|^2: with it the null bias of each
         # pair's coherence follows the material's own frame-to-frame power changes
-        n = self.n_fft
-        self.all_ia = np.minimum(self.all_ka, n - self.all_ka)
-        self.all_ib = np.minimum(self.all_kb, n - self.all_kb)
         self.Q = np.zeros((info.channels, self.all_ka.size))
         # the first half of the frames separately: a true image keeps its phase over the
         # whole file, a chance alignment of two unrelated components drifts between halves
         self.half = int(self.picker.starts.size) // 2
         self.S_first = np.zeros_like(self.S)
         self.power_first = np.zeros_like(self.power)
-        self.alphas, self.alpha_index = np.unique(self.all_alpha, return_inverse=True)
 
     def process(self, block) -> None:
         for _start, frame in self.pick_tonal.feed(block):
@@ -487,7 +483,10 @@ class ImagingAnalyzer(Analyzer):
                         and r["alias_power"] >= r["harmonic_power"] * 10 ** (self._al.ALIAS_SCORE_MIN_DB / 10):
                     self.folded_frames += 1
         for start, frame in self.picker.feed(block):
-            spec = np.fft.rfft(frame.T * self.window, axis=-1)
+            # the windowed frame rotated circularly by its start (mod N): X(k) exp(-j 2 pi k n_m / N),
+            # so that X(a) X(b) carries the phase correction exp(-j 2 pi alpha n_m / N) of every
+            # pair at once (a + b = alpha mod N); magnitudes, hence powers, are unchanged
+            spec = np.fft.rfft(np.roll(frame.T * self.window, int(start % self.n_fft), axis=-1), axis=-1)
             pw = spec.real ** 2 + spec.imag ** 2
             self.power += pw
             first = self.frames < self.half
@@ -498,12 +497,13 @@ class ImagingAnalyzer(Analyzer):
                 continue
             # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
             full = np.concatenate([spec, np.conj(spec[:, (self.n_fft - 1) // 2:0:-1])], axis=1)
-            phase = np.exp(-2j * np.pi * (self.alphas * (start % self.n_fft)) / self.n_fft)[self.alpha_index]
             prod = np.take(full, self.all_ka, axis=1)
             prod *= np.take(full, self.all_kb, axis=1)
-            prod *= phase
+            # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
+            q = prod.real * prod.real
+            q += prod.imag * prod.imag
+            self.Q += q
             self.S += prod
-            self.Q += np.take(pw, self.all_ia, axis=1) * np.take(pw, self.all_ib, axis=1)
             if first:
                 self.S_first += prod
 
