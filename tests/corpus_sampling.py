@@ -26,7 +26,10 @@ on:
                        (noise from 32 kHz converted up properly: empty above
                        16 kHz but for the filter's stop band).
 ``band_limit_hz``      the corner of a steep low-pass at no standard rate's
-                       Nyquist (a codec-like shelf), or None.
+                       Nyquist (a codec-like shelf), or None.  Programme-like
+                       material (speech, soft acoustic music, dull recordings)
+                       that only rolls off gently is labelled None, and must
+                       never read as upsampled or band-limited.
 
 Integer masters are the norm, so signals are quantised to 24 bits (TPDF dither
 of one LSB) unless a case asks for 16-bit noise-shaped dither.
@@ -374,6 +377,7 @@ def _builders():
         add(f"naive_saw_sweep_{fs}", "sweeps",
             lambda rng, fs=fs: (fs, _mono(naive_saw_sweep(fs, 300.0, 1500.0)), 24, {"aliasing": True}))
     _programme_builders(add)
+    _bandwidth_builders(add)
     return out
 
 
@@ -422,6 +426,121 @@ def _programme_builders(add):
                 return fs, np.stack(up, axis=1) / (fs // r if method == "zero_stuff" else 1), 24, \
                     {"imaging": True}
             add(f"music_from_{r}_to_{fs}_{method}", "programme", build)
+
+
+# ---------------------------------------------------------------- programme-like material (bandwidth)
+#: vowel formants (F1, F2, F3), Hz: textbook averages for adult voices, from memory
+VOWEL_FORMANTS_HZ = ((730, 1090, 2440), (270, 2290, 3010), (300, 870, 2240), (530, 1840, 2480), (570, 840, 2410))
+
+
+def speech_like(fs: int, seconds: float, rng, f0_hz: float = 140.0, voice_corner_hz: float | None = 7500.0) -> np.ndarray:
+    """Speech-like material: voiced syllables (a buzzy glottal-like source through three
+    formant resonators), sibilant noise bursts (high-passed at 3.5 kHz), short pauses
+    with room tone (pink noise at -56 dB), and the gentle voice-band roll-off of a voice
+    chain (4th-order Butterworth low-pass at ``voice_corner_hz``; None: a bright
+    voice, sibilants kept).  Its spectrum runs out into the floor with no cliff anywhere."""
+    n = int(round(fs * seconds))
+    out = np.zeros(n)
+    pos = int(0.03 * fs)
+    while pos < n:
+        m = min(int(rng.uniform(0.09, 0.22) * fs), n - pos)
+        t = np.arange(m) / fs
+        f0 = f0_hz * (1 + 0.08 * np.sin(2 * math.pi * rng.uniform(1, 3) * t)) * rng.uniform(0.9, 1.15)
+        phase = 2 * math.pi * np.cumsum(f0) / fs
+        src = 0.5 * np.sign(np.sin(phase)) + 0.5 * np.sin(phase)
+        v = np.zeros(m)
+        for k, fc in enumerate(VOWEL_FORMANTS_HZ[rng.integers(len(VOWEL_FORMANTS_HZ))]):
+            b, a = sps.iirpeak(fc, fc / (80 + 40 * k), fs=fs)
+            v += sps.lfilter(b, a, src) / (k + 1)
+        if rng.random() < 0.4:  # sibilant onset
+            fr = min(int(0.05 * fs), m)
+            v[:fr] += 0.3 * sps.sosfilt(sps.butter(2, 3500.0, "high", fs=fs, output="sos"), rng.standard_normal(fr))
+        out[pos:pos + m] += v * np.hanning(m)
+        pos += m + int(rng.uniform(0.02, 0.12) * fs)
+    out += 0.0015 * pink(fs, seconds, rng, 1.0)
+    out = np.tanh(3.0 * out / (np.max(np.abs(out)) + 1e-30))  # a gentle leveller
+    if voice_corner_hz is not None:
+        out = sps.sosfilt(sps.butter(4, voice_corner_hz, fs=fs, output="sos"), out)
+    return 0.3 * out / np.max(np.abs(out))
+
+
+def analog_lowpass(x: np.ndarray, fs: int, corner_hz: float, order: int) -> np.ndarray:
+    """Zero-phase low-pass with an analogue Butterworth magnitude, 1/sqrt(1 + (f/fc)**(2 order)),
+    applied in the frequency domain: an acoustic or analogue roll-off, with no zero at the
+    Nyquist frequency (the bilinear transform would put one there)."""
+    f = np.fft.rfftfreq(x.size, 1.0 / fs)
+    return np.fft.irfft(np.fft.rfft(x) / np.sqrt(1.0 + (f / corner_hz) ** (2 * order)), x.size)
+
+
+def soft_acoustic(fs: int, seconds: float, rng) -> np.ndarray:
+    """Soft acoustic music: three plucked notes whose harmonics fall 9 dB per octave of
+    harmonic number and decay, over a pink room bed, through an analogue 2nd-order low-pass at
+    5 kHz (12 dB/octave: a soft, natural roll-off)."""
+    t = times(fs, seconds)
+    x = np.zeros_like(t)
+    for f0, start in ((220.4, 0.0), (277.7, 0.3), (330.1, 0.6)):
+        env = np.where(t >= start, np.exp(-(t - start) / 0.5), 0.0)
+        k = 1
+        while k * f0 < 0.5 * fs:
+            x += env * 0.2 * k ** -1.5 * np.sin(2 * math.pi * k * f0 * t + rng.uniform(0, 2 * math.pi))
+            k += 1
+    x = analog_lowpass(x + pink(fs, seconds, rng, 0.01), fs, 5000.0, 2)
+    return 0.3 * x / np.max(np.abs(x))
+
+
+def dull_recording(fs: int, seconds: float, rng) -> np.ndarray:
+    """A dull recording: pink noise through an analogue 3rd-order Butterworth low-pass at 3 kHz
+    (18 dB/octave from 3 kHz: about 50 dB down at 20 kHz)."""
+    x = analog_lowpass(pink(fs, seconds, rng, 1.0), fs, 3000.0, 3)
+    return 0.3 * x / np.max(np.abs(x))
+
+
+def faded(x: np.ndarray, fs: int, fade_s: float = 0.02) -> np.ndarray:
+    """``x`` with raised-cosine fades in and out (no step at the file's ends: a step is a
+    click whose spectrum reaches Nyquist, which a dull recording would not have)."""
+    m = min(int(fade_s * fs), x.size // 2)
+    w = np.ones(x.size)
+    ramp = 0.5 - 0.5 * np.cos(np.pi * np.arange(m) / m)
+    w[:m], w[x.size - m:] = ramp, ramp[::-1]
+    return x * w
+
+
+def bright_speech(fs: int, seconds: float, rng) -> np.ndarray:
+    """:func:`speech_like` without the voice chain's low-pass (sibilants reach the top of the band)."""
+    return speech_like(fs, seconds, rng, voice_corner_hz=None)
+
+
+BANDWIDTH_MATERIALS = {"voice_chain_speech": speech_like, "bright_speech": bright_speech,
+                       "soft_acoustic": soft_acoustic, "dull_recording": dull_recording}
+
+def _bandwidth_builders(add):
+    """Programme-like material at 44.1 and 48 kHz for the bandwidth detector.
+
+    Native speech, soft acoustic music and dull recordings roll off gently into the
+    floor: never upsampled, never band-limited.  The same material with a true
+    16 kHz band limit (:func:`lowpass`) must read as band-limited at 16 kHz, and
+    material made at 32 or 44.1 kHz and converted up with :func:`good_resample` must
+    read as upsampled, except the voice-chain speech, which holds nothing near the
+    old Nyquist frequency (60 dB and more below its main band there): it is scored
+    only on not being called band-limited.
+    """
+    for fs in (44100, 48000):
+        for material, gen in BANDWIDTH_MATERIALS.items():
+            add(f"{material}_native_{fs}", "programme_bandwidth",
+                lambda rng, fs=fs, gen=gen: (fs, _mono(faded(gen(fs, SECONDS, rng), fs)), 24,
+                                             {"upsampled_from_hz": None, "band_limit_hz": None}))
+            if material != "bright_speech":
+                add(f"{material}_{fs}_lowpass_16000", "programme_bandwidth",
+                    lambda rng, fs=fs, gen=gen: (fs, _mono(faded(lowpass(gen(fs, SECONDS, rng), fs, 16000.0), fs)),
+                                                 24, {"band_limit_hz": 16000.0, "upsampled_from_hz": None}))
+            for r in (32000, 44100):
+                if r >= fs:
+                    continue
+                lab = {"band_limit_hz": None} if material == "voice_chain_speech" else \
+                    {"upsampled_from_hz": r, "band_limit_hz": None}
+                add(f"{material}_from_{r}_to_{fs}_proper", "programme_bandwidth",
+                    lambda rng, fs=fs, gen=gen, r=r, lab=lab: (
+                        fs, _mono(faded(good_resample(gen(r, SECONDS, rng), r, fs), fs)), 24, dict(lab)))
 
 
 def corpus_names() -> list[str]:

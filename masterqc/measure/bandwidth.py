@@ -22,7 +22,10 @@ Method (:func:`assess`):
    :data:`PASS_FLATNESS_DB` of its median over 1.5 kHz, i.e. not the skirt of a
    single tone), everything above the edge stays at least
    :data:`CLIFF_MIN_DROP_DB` below the pass level, and the fall is steep
-   (average slope from -6 dB to the bottom at least :data:`CLIFF_MIN_SLOPE_DB_PER_KHZ`).
+   (average slope from -6 dB to the bottom at least :data:`CLIFF_MIN_SLOPE_DB_PER_KHZ`, and at
+   least :data:`CLIFF_MIN_SLOPE_RATIO` times the slope of the spectrum 2-5 kHz below the edge:
+   speech or a dull recording whose energy simply runs out into the floor falls
+   almost as fast above its "edge" as below it, and is a roll-off).
    The content below the edge must also be broadband (the median 10 Hz bin
    within :data:`BROADBAND_GAP_DB` of the envelope over 0.5-5 kHz below it):
    a sparse harmonic series that simply ends is reported as tonal material,
@@ -33,7 +36,9 @@ Method (:func:`assess`):
    (:data:`CANDIDATE_RATES_HZ`), and that is at least :data:`UPSAMPLED_MIN_DEPTH_DB`
    deep, reads as upsampling from that rate; any other cliff is a band limit.
 4. Without a cliff, the effective bandwidth is the highest frequency where
-   ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor;
+   ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
+   no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
+   (median of ``C`` over 1-10 kHz);
    below 0.97 x Nyquist that edge is a (natural) roll-off.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
@@ -70,6 +75,36 @@ SMOOTH_HZ = 110.0
 CLIFF_MIN_DROP_DB = 20.0
 #: minimum average slope of a cliff, dB/kHz (own reasoning: a 12 dB/octave acoustic roll-off is 0.6 dB/kHz at 20 kHz; converter filters fall 10-50 dB/kHz)
 CLIFF_MIN_SLOPE_DB_PER_KHZ = 5.0
+#: a cliff falls at least this many times faster than the spectrum just below it (the pass window, 2-5 kHz
+#: below the edge), own reasoning: a converter's or codec's pass band is flat to within ~1 dB/kHz under a cliff of
+#: 10-300 dB/kHz (ratios of 100 and more on noise and music), while speech and dull recordings whose energy runs
+#: out into the floor fall almost as fast above their "edge" as below it (ratios 1.3-1.6 on the demo's voice masters)
+CLIFF_MIN_SLOPE_RATIO = 4.0
+#: a pass band falling faster than this (dB/kHz, least-squares over 2-5 kHz below the edge) is tilted flat before
+#: the edge's -1/-3/-6 dB points are read, and its cliff must reach STEEPEST_MIN_DB_PER_KHZ (own reasoning: pink
+#: noise falls 0.1-0.5 dB/kHz above 6 kHz, and scipy's default resample_poly filter, whose slow transition starts
+#: inside the pass window, makes noise read up to 1.4 dB/kHz, so those readings are unchanged; speech and dull
+#: recordings fall 2-9 dB/kHz there)
+PASS_SLOPE_TOLERANCE_DB_PER_KHZ = 2.0
+#: a cliff's steepest kilohertz falls at least this far, dB/kHz (own reasoning from the issue's "tens of dB within a
+#: couple of kHz": the corpus' resamplers fall 36-56 dB/kHz on average and its codec shelves 70 and more, while the
+#: knee of a voice chain's low-pass and the end of speech energy fall at most about 12 dB/kHz)
+STEEPEST_MIN_DB_PER_KHZ = 20.0
+#: on a pass band not tilted flat, the steepest kilohertz at the -6 dB point falls at least this fraction of the
+#: cliff's average slope, else the -6 dB point lies on a gently sloping pass band below the real cliff (own
+#: reasoning: scipy's default resample_poly filter, the slowest converter here, gives 0.56-0.62; a -6 dB point
+#: read 3 kHz below a converter's cliff on soft music gave 0.25)
+EDGE_MIN_STEEPNESS_FRACTION = 0.4
+#: window above a cliff (from where it comes within 6 dB of its stop level) over which the spectrum must have
+#: stopped falling, Hz
+AFTER_WINDOW_HZ = 3000.0
+#: ... to at most this fraction of the cliff's fall (own reasoning: a converter's or codec's stop band and the
+#: format's floor are flat, while past the knee of a gentle low-pass, or where speech runs out, the spectrum
+#: falls on as fast as before or faster)
+CLIFF_MAX_AFTER_RATIO = 0.5
+#: span over which a cliff's steepest fall is read, Hz (own reasoning: a converter or codec low-pass falls tens
+#: of dB within 1-4 kHz, so its steepest kilohertz holds most of the fall)
+STEEPEST_SPAN_HZ = 1000.0
 #: minimum depth of a cliff read as upsampling, dB (own reasoning: ordinary resamplers reach 50 dB or more of stop-band rejection; codec shelves are shallower)
 UPSAMPLED_MIN_DEPTH_DB = 40.0
 #: the region below an edge must stay within this many dB of its median (own reasoning)
@@ -92,6 +127,10 @@ CONVERTER_MIN_WIDTH_RATIO = 0.028
 TESTABLE_MIN_CONTENT_DB = 50.0
 #: ... and lie no further than this below the programme's main band (median of 1-10 kHz), dB (own reasoning: content that far down sits at a real master's noise floor, where no cliff can show)
 TESTABLE_MAX_BELOW_MAIN_DB = 60.0
+#: without a cliff, content counts towards the effective bandwidth only down to this far below the programme's
+#: main band (median of 1-10 kHz), dB: the same reasoning as TESTABLE_MAX_BELOW_MAIN_DB (own reasoning: the
+#: filtered tail of a voice 100 dB down is far above a 24-bit format's floor but carries nothing)
+CONTENT_MAX_BELOW_MAIN_DB = TESTABLE_MAX_BELOW_MAIN_DB
 #: the cliff search starts this high, Hz
 SEARCH_LOW_HZ = 6000.0
 #: windows of the cliff search, Hz (relative to the edge position)
@@ -205,11 +244,17 @@ def _bins(hz, bin_hz):
     return int(round(hz / bin_hz))
 
 
-def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
+def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int, accept=None):
     """Step 2: the best cliff as a dict, or None.
 
+    Edge positions are tried in order of falling pass-to-stop drop; the first
+    one that passes every cliff test (and ``accept(cliff)``, when given) wins,
+    so the end of a natural roll-off lower down cannot hide a real cliff above it.
+
     Keys: ``edge_bin`` (search position), ``pass_db``, ``stop_db``, ``drop_db``,
-    ``edge_hz`` (-6 dB point), ``slope_db_per_khz``.
+    ``edge_hz`` (-6 dB point), ``slope_db_per_khz``, ``slope_below_db_per_khz``
+    (the fall of the spectrum 2-5 kHz below the edge), ``steepest_db_per_khz``
+    (the largest fall over a :data:`STEEPEST_SPAN_HZ` span that holds the -6 dB point).
     """
     lo = _bins(SEARCH_LOW_HZ, bin_hz)
     step = max(1, _bins(SEARCH_STEP_HZ, bin_hz))
@@ -231,21 +276,40 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
     for i in np.nonzero(~full)[0]:
         post[i] = np.percentile(env_db[positions[i] + post_a:top_bin], 90)
     drop = np.where(flat, pre - post, -np.inf)
-    i = int(np.argmax(drop))
-    if not drop[i] >= CLIFF_MIN_DROP_DB:
-        return None
-    e, post = int(positions[i]), float(post[i])
+    order = np.argsort(-drop, kind="stable")
+    for i in order[:int(np.count_nonzero(drop >= CLIFF_MIN_DROP_DB))]:
+        cliff = _cliff_at(env_db, bin_hz, top_bin, int(positions[i]), float(post[i]))
+        if cliff is not None and (accept is None or accept(cliff)):
+            return cliff
+    return None
+
+
+def _cliff_at(env_db, bin_hz, top_bin, e, post):
+    """The cliff tests and measures at search position ``e`` with stop level ``post`` (see :func:`find_cliff`)."""
+    post_a = _bins(POST_WINDOW_HZ[0], bin_hz)
     # pass level further below the edge
     pa, pb = max(0, e + _bins(PASS_WINDOW_HZ[0], bin_hz)), max(1, e + _bins(PASS_WINDOW_HZ[1], bin_hz))
     pass_db = float(np.median(env_db[pa:pb]))
     rest = env_db[e + post_a:top_bin]
     if float(np.percentile(rest, 90)) > pass_db - CLIFF_MIN_DROP_DB:
         return None
+    # how fast the spectrum already falls just below the edge (least-squares line over the pass window)
+    f_khz = np.arange(pa, pb) * bin_hz / 1000.0
+    below = -float(np.polyfit(f_khz, env_db[pa:pb], 1)[0]) if pb - pa >= 2 else 0.0
+    # on a pass band that falls faster than PASS_SLOPE_TOLERANCE_DB_PER_KHZ, the -1/-3/-6 dB points are read
+    # on the spectrum tilted flat (its trend added back), so they mark where it starts to fall faster than
+    # before, not merely where a steady roll-off has lost 6 dB
+    tilt = below if below > PASS_SLOPE_TOLERANCE_DB_PER_KHZ else 0.0
+    work = env_db
+    if tilt > 0.0:
+        ref_khz = 0.5 * (pa + pb - 1) * bin_hz / 1000.0
+        work = env_db + tilt * np.maximum(np.arange(env_db.size) * bin_hz / 1000.0 - ref_khz, 0.0)
+        pass_db = float(np.median(work[pa:pb]))
     # -1, -3, -6, -30 dB points and the bottom
     start = max(0, e + _bins(PASS_WINDOW_HZ[1], bin_hz))
     depth = pass_db - post
     low = min(30.0, depth - 3.0)          # the "-30 dB" point of a shallower cliff is 3 dB above its bottom
-    pts = {d: _crossing(env_db, start, top_bin, pass_db - (low if d == 30.0 else d), bin_hz)
+    pts = {d: _crossing(work, start, top_bin, pass_db - (low if d == 30.0 else d), bin_hz)
            for d in (1.0, 3.0, 6.0, 30.0)}
     bottom = pass_db - min(depth - 3.0, 40.0)
     fb = _crossing(env_db, start, top_bin, bottom, bin_hz)
@@ -254,9 +318,73 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int):
         return None
     width_khz = max((fb - f6) / 1000.0, bin_hz / 1000.0)
     slope = (pass_db - 6.0 - bottom) / width_khz
+    # the steepest fall over any STEEPEST_SPAN_HZ that holds the -6 dB point: a cliff is steep where its edge is
+    span = max(1, _bins(STEEPEST_SPAN_HZ, bin_hz))
+    k6 = int(f6 / bin_hz)
+    k0, k1 = max(0, k6 - span), min(top_bin - 1 - span, k6)
+    if k1 >= k0:
+        starts = np.arange(k0, k1 + 1)
+        steepest = float(np.max(env_db[starts] - env_db[starts + span])) / (span * bin_hz / 1000.0)
+    else:
+        steepest = slope
+    # how fast the spectrum still falls once it has reached the stop level (least-squares line over
+    # AFTER_WINDOW_HZ from where it first comes within 6 dB of the stop level, or from the bottom)
+    fs_ = _crossing(env_db, start, top_bin, post + 6.0, bin_hz)
+    ka = int(max(fb, fs_ if fs_ is not None else fb) / bin_hz)
+    kz = min(top_bin, ka + _bins(AFTER_WINDOW_HZ, bin_hz))
+    after = -float(np.polyfit(np.arange(ka, kz) * bin_hz / 1000.0, env_db[ka:kz], 1)[0]) if kz - ka >= 10 else 0.0
     return {"edge_bin": e, "pass_db": pass_db, "stop_db": post, "drop_db": depth,
             "edge_hz": f6, "slope_db_per_khz": slope, "f1_hz": pts[1.0], "f3_hz": pts[3.0],
-            "f30_hz": pts[30.0]}
+            "f30_hz": pts[30.0], "slope_below_db_per_khz": below, "steepest_db_per_khz": steepest,
+            "tilt_db_per_khz": tilt, "slope_after_db_per_khz": after}
+
+
+def transition_width_hz(cliff: dict) -> float:
+    """A cliff's fall from -3 dB to -30 dB, Hz (compared with :data:`CONVERTER_MIN_WIDTH_RATIO`).
+
+    On a pass band tilted flat (``cliff["tilt_db_per_khz"] > 0``) the -3 dB point
+    moves with the curvature of the programme's own roll-off, so the width is
+    read from the -6 dB to the -30 dB point and scaled by 1.45: in a transition
+    whose amplitude falls linearly over ``W`` (a windowed-sinc converter), -3 dB
+    lies 0.29 W, -6 dB 0.50 W and -30 dB 0.97 W into it (own reasoning), so
+    ``f30 - f3 = 0.68 W = 1.45 (f30 - f6)``.
+    """
+    if cliff.get("tilt_db_per_khz", 0.0) > 0.0:
+        return 1.45 * (cliff["f30_hz"] - cliff["edge_hz"])
+    return cliff["f30_hz"] - cliff["f3_hz"]
+
+
+def steep_relative(cliff: dict) -> bool:
+    """True when a cliff falls :data:`CLIFF_MIN_SLOPE_RATIO` times faster than the spectrum just below it.
+
+    ``cliff["slope_below_db_per_khz"]`` is the fall of the least-squares line
+    through the envelope 2-5 kHz below the edge (dB/kHz, positive when falling;
+    a rising pass band counts as 0).  On a flat pass band the cliff's fall is
+    its average slope from -6 dB to the bottom (``slope_db_per_khz``; the
+    closed envelope of a steadily falling spectrum has steps that make single
+    kilohertz look steeper than the fall is), and its steepest kilohertz at the
+    edge must reach :data:`EDGE_MIN_STEEPNESS_FRACTION` of it; on a pass band tilted flat
+    (``tilt_db_per_khz > 0``) only the steepest kilohertz counts, and it must also reach
+    :data:`STEEPEST_MIN_DB_PER_KHZ`.  Above the cliff's bottom the floor must be
+    a floor: the spectrum falls there (``slope_after_db_per_khz``, least squares
+    over :data:`AFTER_WINDOW_HZ`) at most :data:`CLIFF_MAX_AFTER_RATIO` times as
+    fast as the cliff.  A natural roll-off that merely runs into the noise floor,
+    or the knee of a gentle low-pass, fails this, however deep it gets.
+    """
+    below = max(0.0, float(cliff.get("slope_below_db_per_khz", 0.0)))
+    if cliff.get("tilt_db_per_khz", 0.0) > 0.0:
+        fall = cliff["steepest_db_per_khz"]
+        if fall < STEEPEST_MIN_DB_PER_KHZ:
+            return False
+    else:
+        fall = cliff["slope_db_per_khz"]
+        # (a kilohertz cannot fall more than the cliff's whole -6 dB-to-bottom height)
+        height_db = min(cliff["drop_db"] - 3.0, 40.0) - 6.0
+        span_khz = STEEPEST_SPAN_HZ / 1000.0
+        if cliff["steepest_db_per_khz"] < EDGE_MIN_STEEPNESS_FRACTION * min(fall, height_db / span_khz):
+            return False
+    after = float(cliff.get("slope_after_db_per_khz", 0.0))
+    return fall >= CLIFF_MIN_SLOPE_RATIO * below and after <= CLIFF_MAX_AFTER_RATIO * fall
 
 
 def _crossing(env_db, start, stop, level, bin_hz):
@@ -381,10 +509,10 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     out.settings["testable_hz"] = testable
     nyq = fs / 2.0
     top = min(len(env), _bins(0.99 * nyq, bin_hz))
-    cliff = find_cliff(env, bin_hz, top)
-    if cliff is not None and not (cliff["slope_db_per_khz"] >= CLIFF_MIN_SLOPE_DB_PER_KHZ
-                                  and cliff["pass_db"] >= floor + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB):
-        cliff = None
+    cliff = find_cliff(env, bin_hz, top,
+                       accept=lambda c: (c["slope_db_per_khz"] >= CLIFF_MIN_SLOPE_DB_PER_KHZ
+                                         and c["pass_db"] >= floor + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB
+                                         and steep_relative(c)))
     rate = pos = None
     tonal = False
     if cliff is not None:
@@ -399,7 +527,7 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         return out
     if cliff is not None:
         rate, pos = match_rate(cliff["edge_hz"], testable)
-        width = cliff["f30_hz"] - cliff["f3_hz"]
+        width = transition_width_hz(cliff)
         if rate is not None and not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                                      and width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0):
             rate = None
@@ -422,7 +550,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             out.band_limit_hz = edge
             out.note = f"low-passed at {edge / 1000:.1f} kHz: lossy or filtered source?"
         return out
-    above = np.nonzero(env[:top] >= floor + ABOVE_FLOOR_DB)[0]
+    main = float(np.median(env[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+    above = np.nonzero(env[:top] >= max(floor + ABOVE_FLOOR_DB, main - CONTENT_MAX_BELOW_MAIN_DB))[0]
     if above.size == 0:
         out.note = "no content above the format's noise floor"
         return out
