@@ -216,3 +216,94 @@ def test_whole_file_upsampled_is_located_over_the_whole_file():
     assert m["upsampled_from_hz"] == 48000
     assert m["upsampled_where_s"] == [[0.0, pytest.approx(x.shape[0] / 96000, abs=1e-3)]]
     assert m["bandwidth_segments"] == []
+
+
+# ---------------------------------------------------------------- natural roll-offs (speech, dull recordings)
+# Ground truth by construction: a Butterworth low-pass (digital, or its analogue magnitude applied in the
+# frequency domain) is a natural roll-off at any order; only a converter or a codec-like low-pass makes a cliff.
+
+def _pink(fs, seconds, rng):
+    from corpus_sampling import faded, pink
+    return faded(pink(fs, seconds, rng, 1.0), fs)
+
+
+@pytest.mark.parametrize("fs", [44100, 48000])
+@pytest.mark.parametrize("order", [2, 4, 8])
+@pytest.mark.parametrize("corner", [3000.0, 6000.0, 12000.0])
+def test_butterworth_roll_off_is_never_a_cliff(fs, order, corner):
+    # 12 to 48 dB/octave: deep by 20 kHz, but the fall above any "edge" continues as it was below it
+    from corpus_sampling import faded
+    rng = np.random.default_rng([12, fs, order, int(corner)])
+    x = faded(sps.sosfilt(sps.butter(order, corner, fs=fs, output="sos"), _pink(fs, 1.0, rng)), fs)
+    r = assess(quantise24(0.3 * x / np.max(np.abs(x)), rng), fs)
+    assert r.upsampled_from_hz is None and r.band_limit_hz is None, r.note
+    assert r.edge in ("rolloff", None)
+
+
+@pytest.mark.parametrize("stem", ["marina_interview_44k", "lantern_lane_episode", "pier_talk_quiet"])
+def test_demo_speech_masters_roll_off(stem):
+    # the demo's voice chain: a 4th-order Butterworth low-pass at 0.35 x Nyquist after a tanh leveller;
+    # these masters were once read as "upsampled from 32 kHz" and "low-passed at 16.9 / 15.5 kHz"
+    from masterqc import demo
+    m = next(m for m in demo.MASTERS if m.stem == stem)
+    x = demo.synthesize(m)
+    rng = np.random.default_rng(13)
+    q = 2.0 ** (m.bit_depth - 1)
+    x = np.round(x * q + rng.random(x.shape) - rng.random(x.shape)) / q
+    r = assess(x, m.sample_rate_hz, bits=m.bit_depth)
+    assert r.upsampled_from_hz is None and r.confidence is None
+    assert r.band_limit_hz is None
+    assert r.edge == "rolloff"
+    # content within 60 dB of the voice's main band ends between 15 kHz and the Nyquist frequency
+    assert 15000.0 <= r.effective_bandwidth_hz < m.sample_rate_hz / 2
+    assert all(s["upsampled_from_hz"] is None for s in r.segments)
+
+
+@pytest.mark.parametrize("fs", [44100, 48000])
+def test_band_limit_on_a_sloping_pass_band_is_found_at_its_corner(fs):
+    # a dull recording (analogue 3rd-order roll-off from 3 kHz, about 4 dB/kHz at 12 kHz) through a
+    # codec-like 16 kHz brick wall: the edge is read on the pass band tilted flat, at the corner
+    from corpus_sampling import analog_lowpass, faded, lowpass
+    rng = np.random.default_rng(14)
+    x = faded(lowpass(analog_lowpass(_pink(fs, 1.0, rng), fs, 3000.0, 3), fs, 16000.0), fs)
+    r = assess(quantise24(0.3 * x / np.max(np.abs(x)), rng), fs)
+    assert r.upsampled_from_hz is None
+    assert r.band_limit_hz == pytest.approx(16000.0, abs=200.0)
+    assert r.edge == "cliff"
+
+
+@pytest.mark.parametrize("src,fs", [(32000, 44100), (32000, 48000), (44100, 48000)])
+def test_upsampled_dull_recording_is_found(src, fs):
+    # made at the lower rate with a natural roll-off, converted up with the corpus' Kaiser resampler
+    # (-6 dB at 0.475 x src, stop band from src / 2): the edge lands inside the converter's transition
+    from corpus_sampling import analog_lowpass, faded, good_resample
+    rng = np.random.default_rng(15)
+    x = faded(good_resample(analog_lowpass(_pink(src, 1.0, rng), src, 3000.0, 3), src, fs), fs)
+    r = assess(quantise24(0.3 * x / np.max(np.abs(x)), rng), fs)
+    assert r.upsampled_from_hz == src
+    assert r.band_limit_hz is None
+    assert 0.9 * src / 2 <= r.effective_bandwidth_hz <= src / 2
+
+
+def test_steep_relative_rule():
+    # converter: flat pass band, 40 dB/kHz fall, flat stop band
+    cliff = {"slope_db_per_khz": 40.0, "steepest_db_per_khz": 30.0, "slope_below_db_per_khz": 0.3,
+             "slope_after_db_per_khz": 1.0, "tilt_db_per_khz": 0.0, "drop_db": 60.0}
+    assert bw.steep_relative(cliff)
+    # a roll-off falling 5 dB/kHz below its "edge" and 6.5 dB/kHz across it: not 4 times steeper
+    assert not bw.steep_relative({**cliff, "slope_db_per_khz": 6.5, "steepest_db_per_khz": 6.5,
+                                  "slope_below_db_per_khz": 1.8})
+    # the spectrum keeps falling above the bottom as fast as the "cliff": a knee, not a cliff
+    assert not bw.steep_relative({**cliff, "slope_after_db_per_khz": 25.0})
+    # tilted pass band: the steepest kilohertz must reach STEEPEST_MIN_DB_PER_KHZ
+    tilted = {**cliff, "tilt_db_per_khz": 5.0, "slope_below_db_per_khz": 5.0, "steepest_db_per_khz": 19.0}
+    assert not bw.steep_relative(tilted)
+    assert bw.steep_relative({**tilted, "steepest_db_per_khz": 45.0})
+
+
+def test_suffix_percentile_matches_numpy():
+    rng = np.random.default_rng(16)
+    v = rng.standard_normal(700)
+    starts = np.array([0, 3, 3, 350, 698, 699])
+    want = [np.percentile(v[s:], 90) for s in starts]
+    assert np.allclose(bw._suffix_percentile_90(v, starts), want, rtol=0, atol=1e-12)

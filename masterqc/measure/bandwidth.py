@@ -57,6 +57,7 @@ content above 35 kHz is at the noise floor).
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass, field
 
@@ -139,6 +140,10 @@ POST_WINDOW_HZ = (3000.0, 9000.0)
 PASS_WINDOW_HZ = (-5000.0, -2000.0)
 #: search grid step, Hz
 SEARCH_STEP_HZ = 50.0
+#: edge positions tried in turn lie at least this far apart, and at most MAX_CANDIDATES are tried (own reasoning,
+#: cost: neighbouring positions read the same -6 dB point; every cliff in the corpus is found within 2 tries)
+CANDIDATE_SPACING_HZ = 250.0
+MAX_CANDIDATES = 6
 #: a time segment needs this many analysed frames to be judged on its own
 SEGMENT_MIN_FRAMES = 10
 
@@ -273,15 +278,48 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int, accept=None):
     if full.any():
         stop = np.lib.stride_tricks.sliding_window_view(env_db[:top_bin], post_b - post_a)[positions[full] + post_a]
         post[full] = np.percentile(stop, 90, axis=1)
-    for i in np.nonzero(~full)[0]:
-        post[i] = np.percentile(env_db[positions[i] + post_a:top_bin], 90)
+    cut = np.nonzero(~full)[0]
+    if cut.size:
+        post[cut] = _suffix_percentile_90(env_db[:top_bin], positions[cut] + post_a)
     drop = np.where(flat, pre - post, -np.inf)
     order = np.argsort(-drop, kind="stable")
+    apart = max(1, _bins(CANDIDATE_SPACING_HZ, bin_hz))
+    tried = []
     for i in order[:int(np.count_nonzero(drop >= CLIFF_MIN_DROP_DB))]:
-        cliff = _cliff_at(env_db, bin_hz, top_bin, int(positions[i]), float(post[i]))
+        e = int(positions[i])
+        if any(abs(e - t) < apart for t in tried):
+            continue          # a neighbour of an edge already tried reads the same cliff
+        tried.append(e)
+        cliff = _cliff_at(env_db, bin_hz, top_bin, e, float(post[i]))
         if cliff is not None and (accept is None or accept(cliff)):
             return cliff
+        if len(tried) >= MAX_CANDIDATES:
+            break
     return None
+
+
+def _suffix_percentile_90(values: np.ndarray, starts: np.ndarray) -> np.ndarray:
+    """``np.percentile(values[s:], 90)`` (linear interpolation) for every ``s`` in ``starts``.
+
+    One pass from the end with a sorted list (``bisect.insort``), instead of one
+    partial sort per start.
+    """
+    out = np.empty(len(starts))
+    want = {}
+    for j, s0 in enumerate(starts):
+        want.setdefault(int(s0), []).append(j)
+    lowest = min(want)
+    ordered: list = []
+    for k in range(len(values) - 1, lowest - 1, -1):
+        bisect.insort(ordered, float(values[k]))
+        if k in want:
+            idx = 0.9 * (len(ordered) - 1)
+            lo = int(math.floor(idx))
+            hi = min(lo + 1, len(ordered) - 1)
+            v = ordered[lo] + (ordered[hi] - ordered[lo]) * (idx - lo)
+            for j in want[k]:
+                out[j] = v
+    return out
 
 
 def _cliff_at(env_db, bin_hz, top_bin, e, post):
