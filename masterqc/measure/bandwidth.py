@@ -600,5 +600,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     else:
         out.effective_bandwidth_hz = bw
         out.edge = "rolloff"
-        out.note = f"content rolls off into the noise floor by {bw / 1000:.1f} kHz"
+        out.note = (f"content rolls off gently (no converter cliff): nothing within "
+                    f"{CONTENT_MAX_BELOW_MAIN_DB:g} dB of the main band above {bw / 1000:.1f} kHz"
+                    if main - CONTENT_MAX_BELOW_MAIN_DB > floor + ABOVE_FLOOR_DB else
+                    f"content rolls off into the noise floor by {bw / 1000:.1f} kHz")
     return out
