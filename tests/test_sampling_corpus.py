@@ -12,7 +12,11 @@ bench/bench_sampling_detection.py): the aliasing detector misses the naive sawto
 sweep at 96 kHz (its high partials are dense and move too fast to be tracked in 20 ms
 frames), and the imaging detector flags the native chord at 96 kHz at 32 kHz: one
 note's harmonic pairs sum to 31996.9 Hz and the 3.1 Hz tremolo sideband closes the gap
-exactly, which is a true spectral correlation at 32 kHz that no upsampler made.
+exactly, which is a true spectral correlation at 32 kHz that no upsampler made.  At the
+other seeds of the benchmark (20261202, 20261203) the imaging detector also misses pink
+noise held from 44.1 to 48 kHz: its coherence is significant (z about 10.6) but no image
+level reaches the quoting threshold, since an image's members share their frame-to-frame
+fluctuation and so raise the per-pair null bias the detector estimates from the material.
 """
 
 from __future__ import annotations
