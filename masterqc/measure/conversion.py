@@ -29,6 +29,7 @@ import numpy as np
 from scipy.ndimage import uniform_filter1d
 from scipy.signal import firwin, upfirdn
 
+from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import array_of
 from masterqc.measure.oversample import TruePeakMeter, choose_factor
 
@@ -60,10 +61,6 @@ _ENTRY = {
 
 MEASUREMENT_SCHEMA = {"conversions": array_of(_ENTRY)}
 
-
-def _lin_to_db(v):
-    v = float(v)
-    return 20.0 * math.log10(v) if v > 0 and math.isfinite(v) else None
 
 
 def fold_frequency(f_hz: float, target_hz: float) -> float:
@@ -229,8 +226,8 @@ class ConversionTracker:
             if y.shape[0]:
                 meter.process(y)
             meter.flush()
-            tp_ch = [_lin_to_db(v) for v in meter.peak_linear]
-            tp = _lin_to_db(meter.peak_linear.max()) if meter.peak_linear.size else None
+            tp_ch = [amplitude_db(v) for v in meter.peak_linear]
+            tp = amplitude_db(meter.peak_linear.max()) if meter.peak_linear.size else None
             entry = {"target_rate_hz": t, "energy_above_target_nyquist_db": None,
                      "energy_above_target_nyquist_dbfs": None, "fold_to_hz": [], "folds": [],
                      "true_peak_after_dbtp": tp, "true_peak_after_dbtp_per_channel": tp_ch,

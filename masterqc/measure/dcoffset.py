@@ -21,6 +21,7 @@ import math
 import numpy as np
 from scipy import signal
 
+from masterqc.measure.levels import amplitude_db, power_ratio_db
 from masterqc.measure.base import (INTEGER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST, Analyzer,
                                    AnalyzerResult)
 from masterqc.measure.runs import column_sum
@@ -97,17 +98,10 @@ class Decimator:
         return np.concatenate((head, body), axis=1)
 
 
-def level_dbfs(value: float) -> float | None:
-    """``20*log10(|value|)`` in dBFS, or None for exactly zero."""
-    value = abs(float(value))
-    return 20.0 * math.log10(value) if value > 0.0 else None
-
-
-def energy_ratio_db(part: float, total: float) -> float | None:
-    """``10*log10(part/total)`` in dB, or None when either energy is zero."""
-    if total <= 0.0 or part <= 0.0:
-        return None
-    return 10.0 * math.log10(part / total)
+#: ``20*log10(|value|)`` in dBFS, or None for exactly zero
+level_dbfs = amplitude_db
+#: ``10*log10(part/total)`` in dB, or None when either energy is zero
+energy_ratio_db = power_ratio_db
 
 
 class DcOffsetAnalyzer(Analyzer):

@@ -62,6 +62,7 @@ import math
 
 import numpy as np
 
+from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult, array_of)
 
 #: standard source rates that are tested when they are below the file's rate
@@ -129,13 +130,6 @@ FOLD_CHECK_FRAMES = 8
 #: lines this far above the local floor (own reasoning).
 LINE_PROMINENCE_DB = 20.0
 
-
-def linear_to_db10(value: float):
-    """``10*log10(value)`` for a power ratio; None when the ratio is not positive."""
-    value = float(value)
-    if not value > 0.0 or not math.isfinite(value):
-        return None
-    return 10.0 * math.log10(value)
 
 
 def frame_starts(total_frames: int, frame_len: int, max_frames: int, min_hop: int, seed: int = 0) -> np.ndarray:
@@ -641,7 +635,7 @@ class ImagingAnalyzer(Analyzer):
             base["reason"] = ("coherence not kept between the two halves of the file: a chance "
                               "alignment of unrelated components, not an image")
             return base
-        level = linear_to_db10(min(max(full), max(halves)) / base_power)
+        level = power_ratio_db(min(max(full), max(halves)) / base_power)
         base["image_level_db"] = None if level is None else round(level, 2)
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
             base["verdict"] = "defect"

@@ -18,6 +18,7 @@ import math
 
 import numpy as np
 
+from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import (INTEGER, NUMBER, NUMBER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST,
                                    TIME_RANGES, Analyzer, AnalyzerResult)
 from masterqc.measure.oversample import (TruePeakMeter, choose_factor, filter_properties, get_filter,
@@ -31,12 +32,8 @@ OVER_MERGE_GAP_S = 0.010
 OVER_RANGES_MAX = 100
 
 
-def linear_to_db(value: float):
-    """``20*log10(value)``; None for 0 (or below), since -inf cannot exist in JSON."""
-    value = float(value)
-    if not value > 0.0 or not math.isfinite(value):
-        return None
-    return 20.0 * math.log10(value)
+#: ``20*log10(value)``; None for 0 (or below), since -inf cannot exist in JSON
+linear_to_db = amplitude_db
 
 
 #: rows folded into one wide row by :func:`column_abs_max`

@@ -39,6 +39,7 @@ import math
 import numpy as np
 from scipy.ndimage import median_filter
 
+from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import NUMBER_OR_NULL, TIME_RANGES, array_of
 from masterqc.measure.kweight import kweighting_gain_db
 
@@ -74,11 +75,6 @@ MEASUREMENT_SCHEMA = {
     "ultrasonic_loudness_change_lu": NUMBER_OR_NULL,
 }
 
-
-def _ratio_db(num, den):
-    if not (den > 0) or not (num > 0):
-        return None
-    return 10.0 * math.log10(num / den)
 
 
 def gated_loudness(z_blocks: np.ndarray) -> float | None:
@@ -155,10 +151,10 @@ class UltrasonicTracker:
         ult = np.concatenate(self._ultra)
         hop_s = fe.hop / self.fs
         centres = np.concatenate(self._index) * hop_s
-        out["ultrasonic_energy_db"] = _ratio_db(ult.sum(), aud.sum())
+        out["ultrasonic_energy_db"] = power_ratio_db(ult.sum(), aud.sum())
         duration = (fe.frame_positions - 1) * hop_s
         if duration <= WINDOW_S:
-            r = _ratio_db(ult.sum(), aud.sum())
+            r = power_ratio_db(ult.sum(), aud.sum())
             if r is not None:
                 out["ultrasonic_energy_max_3s_db"] = r
                 out["ultrasonic_energy_max_3s_where_s"] = [[0.0, round(duration, 3)]]
