@@ -256,6 +256,8 @@ def test_index_html(first_run):
     assert order == sorted(order, key=["error", "fail", "warn", "pass"].index)
     assert 'id="releases"' in html and html.index('id="releases"') < html.index('id="file-table"')
     assert "--pass:" in html  # the per-file report's stylesheet is inlined
+    style = html.split("<style>", 1)[1].split("</style>", 1)[0]
+    assert '"DejaVu Sans"' in style and "&#34;" not in style  # CSS inlined verbatim, not HTML-escaped
 
 
 def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_path):

@@ -15,6 +15,7 @@ import re
 import xml.etree.ElementTree as ET
 
 import jinja2
+from markupsafe import Markup
 
 from masterqc.jsonutil import jsonable
 from masterqc.pipeline import write_atomic
@@ -320,7 +321,8 @@ def index_html(summary: dict) -> str:
         releases.append(dict(r, format_text=", ".join(fmt_parts) or "n/a"))
     releases.sort(key=lambda r: (VERDICT_RANK.get(r["verdict"] or "pass", 9), r["id"]))
     spec_names = sorted({f["spec"] for f in summary["files"] if f.get("spec")})
-    return tpl.render(css=_report_css() + INDEX_CSS, run=summary["run"], counts=counts, overall=overall,
+    # the CSS is masterqc's own packaged file, never input: marked safe so quotes survive in <style>
+    return tpl.render(css=Markup(_report_css() + INDEX_CSS), run=summary["run"], counts=counts, overall=overall,
                       headline=headline, files=files, releases=releases, changes=summary["changes"],
                       previous_run=summary.get("previous_run"), skipped_paths=summary.get("skipped_paths", []),
                       spec_names=spec_names, WORD=WORD, SHAPE=SHAPE, RANK=VERDICT_RANK, CHANGE_TEXT=CHANGE_TEXT,
