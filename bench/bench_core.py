@@ -198,6 +198,28 @@ def timed_cpu(fn, *args):
     return time.perf_counter() - t, time.process_time() - c, out
 
 
+def timing_wrappers(classes, spent):
+    """Subclasses of ``classes`` whose process() and finish() add their wall seconds to
+    ``spent[class name]`` (for the cost benches of the analyzer groups)."""
+    out = []
+    for cls in classes:
+        name = cls.__name__
+        spent[name] = 0.0
+
+        def process(self, block, _cls=cls, _name=name):
+            t = time.perf_counter()
+            _cls.process(self, block)
+            spent[_name] += time.perf_counter() - t
+
+        def finish(self, _cls=cls, _name=name):
+            t = time.perf_counter()
+            r = _cls.finish(self)
+            spent[_name] += time.perf_counter() - t
+            return r
+        out.append(type(name, (cls,), {"process": process, "finish": finish}))
+    return out
+
+
 def analyzer_split(path: Path):
     """CPU seconds (``time.thread_time``: the machine is shared, waiting for a core is not
     counted) in process() and finish() of each registered analyzer (one extra run, one

@@ -76,24 +76,8 @@ def engine_pass(path: Path, classes, spent=None) -> dict:
     return m
 
 
-def timing_wrappers(classes, spent):
-    out = []
-    for cls in classes:
-        name = cls.__name__
-        spent[name] = 0.0
+timing_wrappers = bench_core.timing_wrappers
 
-        def process(self, block, _cls=cls, _name=name):
-            t = time.perf_counter()
-            _cls.process(self, block)
-            spent[_name] += time.perf_counter() - t
-
-        def finish(self, _cls=cls, _name=name):
-            t = time.perf_counter()
-            r = _cls.finish(self)
-            spent[_name] += time.perf_counter() - t
-            return r
-        out.append(type(name, (cls,), {"process": process, "finish": finish}))
-    return out
 
 
 def best(fn, repeat, *args):

@@ -82,24 +82,8 @@ def make_96k(path: Path, minutes: float) -> Path:
     return path
 
 
-def timing_wrappers(classes, spent):
-    out = []
-    for cls in classes:
-        name = cls.__name__
-        spent[name] = 0.0
+timing_wrappers = bench_core.timing_wrappers
 
-        def process(self, block, _cls=cls, _name=name):
-            t = time.perf_counter()
-            _cls.process(self, block)
-            spent[_name] += time.perf_counter() - t
-
-        def finish(self, _cls=cls, _name=name):
-            t = time.perf_counter()
-            r = _cls.finish(self)
-            spent[_name] += time.perf_counter() - t
-            return r
-        out.append(type(name, (cls,), {"process": process, "finish": finish}))
-    return out
 
 
 def engine_pass(path: Path, classes, targets=()) -> tuple[dict, dict]:
