@@ -12,7 +12,6 @@ import math
 import numpy as np
 import pytest
 
-from masterqc.audio.reader import StreamInfo
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.options import MeasureOptions
 from masterqc.measure.spectral import (SamplingSpectrumAnalyzer, SpectralFrontEnd, display_ltas,
@@ -148,21 +147,7 @@ def test_display_ltas_is_short_and_smoothed():
     assert np.median(db[0, sel]) == pytest.approx(10 * math.log10(0.01 / 4800), abs=0.3)
 
 
-def _info(fs, ch, frames, bits=24):
-    labels = ("L", "R")[:ch] if ch <= 2 else tuple(f"ch{i}" for i in range(ch))
-    return StreamInfo(path="<memory>", container="wav", encoding=f"pcm_{bits}", sample_rate_hz=fs,
-                      bit_depth=bits, is_float=False, channels=ch, frames=frames, channel_layout=labels,
-                      layout_source="conventional", channel_weights=tuple(1.0 for _ in labels))
-
-
-class _Stream:
-    def __init__(self, x, fs):
-        self.x = x
-        self.info = _info(fs, x.shape[1], x.shape[0])
-
-    def blocks(self, n):
-        for i in range(0, self.x.shape[0], n):
-            yield self.x[i:i + n]
+from corpus_sampling import ArrayStream as _Stream  # noqa: E402  (the corpus module's in-memory stream)
 
 
 def test_analyzer_series_and_keys_through_the_engine():

@@ -18,29 +18,14 @@ import numpy as np
 import pytest
 import pyloudnorm
 
-from masterqc.audio.reader import StreamInfo
+from corpus_sampling import ArrayStream
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.options import MeasureOptions
 from masterqc.measure.spectral import SamplingSpectrumAnalyzer
 from masterqc.measure.ultrasonic import gated_loudness
 
 
-class Stream:
-    def __init__(self, x, fs, bits=24):
-        x = np.asarray(x, dtype=float)
-        if x.ndim == 1:
-            x = x[:, None]
-        self.x = x
-        ch = x.shape[1]
-        labels = ("L", "R")[:ch] if ch <= 2 else tuple(f"ch{i}" for i in range(ch))
-        self.info = StreamInfo(path="<memory>", container="wav", encoding=f"pcm_{bits}", sample_rate_hz=fs,
-                               bit_depth=bits, is_float=False, channels=ch, frames=x.shape[0],
-                               channel_layout=labels, layout_source="conventional",
-                               channel_weights=tuple(1.0 for _ in labels))
-
-    def blocks(self, n):
-        for i in range(0, self.x.shape[0], n):
-            yield self.x[i:i + n]
+Stream = ArrayStream  # the corpus module's in-memory stream
 
 
 def measure(x, fs, **opts):
