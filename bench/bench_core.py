@@ -86,9 +86,10 @@ def section_gain(t_s: np.ndarray) -> np.ndarray:
     return 0.25 + 0.75 * (0.5 + 0.5 * np.tanh(4 * np.sin(2 * np.pi * t_s / 90.0)))
 
 
-def make_file(path: Path, minutes: float) -> Path:
-    """Write the programme (the loop tiled with the arrangement gain), block by block."""
-    frames = int(round(minutes * 60 * FS))
+def make_file(path: Path, minutes: float, fs: int = FS, loop_fn=None) -> Path:
+    """Write the programme (the loop tiled with the arrangement gain), block by block, at ``fs``;
+    ``loop_fn()`` gives another loop at that rate (default: :func:`music_loop`)."""
+    frames = int(round(minutes * 60 * fs))
     if path.exists():
         try:
             if sf.info(str(path)).frames == frames:
@@ -96,15 +97,15 @@ def make_file(path: Path, minutes: float) -> Path:
         except RuntimeError:
             pass
     path.parent.mkdir(parents=True, exist_ok=True)
-    loop = music_loop()
+    loop = music_loop() if loop_fn is None else loop_fn()
     tmp = path.with_suffix(".tmp.wav")
-    with sf.SoundFile(str(tmp), "w", FS, 2, subtype="PCM_24", format="WAV") as f:
+    with sf.SoundFile(str(tmp), "w", fs, 2, subtype="PCM_24", format="WAV") as f:
         done = 0
         chunk = 1 << 20
         while done < frames:
             m = min(chunk, frames - done)
             idx = (np.arange(done, done + m)) % loop.shape[0]
-            g = section_gain(np.arange(done, done + m) / FS)
+            g = section_gain(np.arange(done, done + m) / fs)
             f.write(np.clip(loop[idx] * g[:, None], -1.0, 1.0 - 2.0 ** -23))
             done += m
     os.replace(tmp, path)

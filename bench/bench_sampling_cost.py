@@ -32,13 +32,11 @@ Usage: ``bench/bench_sampling_cost.py [--minutes 3] [--repeat 2] [--blas-threads
 from __future__ import annotations
 
 import argparse
-import os
 import sys
 import time
 from pathlib import Path
 
 import numpy as np
-import soundfile as sf
 from scipy.signal import resample_poly
 
 HERE = Path(__file__).resolve().parent
@@ -54,32 +52,18 @@ SPECTRUM = "SamplingSpectrumAnalyzer"
 FOLDING = ("ImagingAnalyzer", "AliasingAnalyzer")
 
 
-def make_96k(path: Path, minutes: float) -> Path:
-    """The core loop converted to 96 kHz (resample_poly, 2/1) with noise at -90 dBFS, tiled to ``minutes``."""
-    fs = 96000
-    frames = int(round(minutes * 60 * fs))
-    if path.exists():
-        try:
-            if sf.info(str(path)).frames == frames:
-                return path
-        except RuntimeError:
-            pass
-    path.parent.mkdir(parents=True, exist_ok=True)
+def _loop_96k() -> np.ndarray:
+    """The core loop converted to 96 kHz (resample_poly, 2/1) with noise at -90 dBFS."""
     loop = resample_poly(bench_core.music_loop(), 2, 1, axis=0)
     rng = np.random.default_rng(7)
     loop = loop + 3e-5 * rng.standard_normal(loop.shape)
     loop *= 0.98 / np.abs(loop).max()
-    tmp = path.with_suffix(".tmp.wav")
-    with sf.SoundFile(str(tmp), "w", fs, 2, subtype="PCM_24", format="WAV") as f:
-        done = 0
-        while done < frames:
-            m = min(1 << 20, frames - done)
-            idx = np.arange(done, done + m) % loop.shape[0]
-            g = bench_core.section_gain(np.arange(done, done + m) / fs)
-            f.write(np.clip(loop[idx] * g[:, None], -1.0, 1.0 - 2.0 ** -23))
-            done += m
-    os.replace(tmp, path)
-    return path
+    return loop
+
+
+def make_96k(path: Path, minutes: float) -> Path:
+    """The 96 kHz loop tiled to ``minutes`` with the core programme's arrangement gain."""
+    return bench_core.make_file(path, minutes, fs=96000, loop_fn=_loop_96k)
 
 
 timing_wrappers = bench_core.timing_wrappers
