@@ -50,7 +50,7 @@ def write_bwf(path: Path, minutes: float) -> None:
     frames = int(minutes * 60 * FS)
     rng = np.random.default_rng(3)
     bext = cb.chunk(b"bext", cb.bext_body(version=2, description="bench master (fictional)",
-                                          originator="Harbour Lane Post", date="2026-11-30", time="10:00:00",
+                                          originator="Tamberlo Lane Post", date="2026-11-30", time="10:00:00",
                                           time_reference=10 * 3600 * FS, loudness=(-2300, 700, -100, -1500, -1800),
                                           coding_history=b"A=PCM,F=48000,W=24,M=stereo,T=bench\r\n" * 28))
     ixml = cb.chunk(b"iXML", (b"<BWFXML><PROJECT>Bench</PROJECT>" + b"<NOTE>n</NOTE>" * 290 + b"</BWFXML>"))

@@ -8,7 +8,7 @@ verdict from those properties and check the properties themselves with
 reference libraries.
 
 The five 96 kHz masters show the sampling-integrity checks against the
-high-resolution album spec (specs_demo/copperfield-hires.yaml): one made at
+high-resolution album spec (specs_demo/quillfen-hires.yaml): one made at
 96 kHz that passes; one made at 44.1 kHz and converted up with a good
 resampler (:func:`good_upsample`); one with a naively generated sawtooth lead
 (:func:`naive_saw_lead`, its partials above Nyquist fold back); one with a
@@ -284,51 +284,51 @@ class DemoMaster:
 
 
 MASTERS: list[DemoMaster] = [
-    DemoMaster("tidewater_theme", "Tidewater (main theme)", "music", 48000, 24, 2, 30.0, -23.0,
+    DemoMaster("brelloway_theme", "Brelloway (main theme)", "music", 48000, 24, 2, 30.0, -23.0,
                true_peak_dbtp_max=-8.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-19.0,
-               demo_specs=("harbourlight-house", "copperfield-album")),
-    DemoMaster("lighthouse_ad_hot", "Lighthouse Lane Bakery - 30 s spot", "music", 48000, 24, 2, 30.0, -15.0,
+               demo_specs=("ostravel-house", "quillfen-album")),
+    DemoMaster("quorrin_ad_hot", "Quorrin Street Bakery - 30 s spot", "music", 48000, 24, 2, 30.0, -15.0,
                true_peak_dbtp_max=-2.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-11.0,
-               fault="too loud for broadcast (-15 LUFS)", demo_specs=("harbourlight-shortform",)),
-    DemoMaster("harbour_overs", "Harbour Lights (radio edit)", "music+bursts", 48000, 24, 2, 30.0, -23.0,
+               fault="too loud for broadcast (-15 LUFS)", demo_specs=("ostravel-shortform",)),
+    DemoMaster("gullwick_overs", "Gullwick Glass (radio edit)", "music+bursts", 48000, 24, 2, 30.0, -23.0,
                true_peak_dbtp_max=0.3, true_peak_dbtp_min=-0.4, sample_peak_dbfs_max=-2.9,
                fault="inter-sample overs: 12 kHz bursts peak at 0 dBTP while samples stay at -3 dBFS",
-               demo_specs=("harbourlight-house",)),
-    DemoMaster("estuary_suite_wide", "Estuary Suite, mvt. II", "music+dynamics", 48000, 24, 2, 30.0, -23.0,
+               demo_specs=("ostravel-house",)),
+    DemoMaster("ostmere_suite_wide", "Ostmere Suite, mvt. II", "music+dynamics", 48000, 24, 2, 30.0, -23.0,
                true_peak_dbtp_max=-9.0, loudness_range_lu_min=19.0, max_short_term_lufs_max=-19.0,
                fault="too much loudness range (quiet and loud passages 22 dB apart)",
-               demo_specs=("harbourlight-house",)),
-    DemoMaster("marina_interview_44k", "Marina Talks, ep. 4 (interview)", "speech", 44100, 24, 2, 15.0, -23.0,
+               demo_specs=("ostravel-house",)),
+    DemoMaster("pellany_interview_44k", "Pellany Talks, ep. 4 (interview)", "speech", 44100, 24, 2, 15.0, -23.0,
                true_peak_dbtp_max=-8.0, fault="wrong sample rate for broadcast (44.1 kHz)",
-               demo_specs=("harbourlight-house",)),
-    DemoMaster("quayside_clipped", "Quayside (club mix)", "music+clip", 48000, 24, 2, 20.0, -9.5,
+               demo_specs=("ostravel-house",)),
+    DemoMaster("trevarrow_clipped", "Trevarrow (club mix)", "music+clip", 48000, 24, 2, 20.0, -9.5,
                true_peak_dbtp_max=3.0, true_peak_dbtp_min=0.0, sample_peak_dbfs_max=0.0,
                fault="driven into hard clipping at full scale",
-               demo_specs=("copperfield-album",)),
-    DemoMaster("lantern_lane_episode", "Lantern Lane Stories, ep. 12", "speech", 48000, 24, 1, 15.0, -18.0,
-               true_peak_dbtp_max=-2.0, demo_specs=("lantern-lane-spoken",)),
-    DemoMaster("pier_talk_quiet", "Pier Talk, ep. 3", "speech", 48000, 16, 1, 15.0, -19.7,
+               demo_specs=("quillfen-album",)),
+    DemoMaster("wrenmoor_episode", "Wrenmoor Stories, ep. 12", "speech", 48000, 24, 1, 15.0, -18.0,
+               true_peak_dbtp_max=-2.0, demo_specs=("wrenmoor-spoken",)),
+    DemoMaster("caddow_talk_quiet", "Caddow Talk, ep. 3", "speech", 48000, 16, 1, 15.0, -19.7,
                true_peak_dbtp_max=-2.0, fault="quiet: within 0.5 LU of the lower loudness limit",
-               demo_specs=("lantern-lane-spoken",)),
+               demo_specs=("wrenmoor-spoken",)),
     # high-resolution masters, checked against the high-resolution album spec
-    DemoMaster("foxglove_hires", "Foxglove Hollow (high-resolution master)", "music", 96000, 24, 2, 12.0, -18.0,
-               true_peak_dbtp_max=-3.5, demo_specs=("copperfield-hires",)),
-    DemoMaster("saltmarsh_fake_hires", "Saltmarsh Dawn (\"96 kHz\" master)", "music", 96000, 24, 2, 12.0, -18.0,
+    DemoMaster("ilvenbrook_hires", "Ilvenbrook (high-resolution master)", "music", 96000, 24, 2, 12.0, -18.0,
+               true_peak_dbtp_max=-3.5, demo_specs=("quillfen-hires",)),
+    DemoMaster("yarrowgate_fake_hires", "Yarrowgate Dawn (\"96 kHz\" master)", "music", 96000, 24, 2, 12.0, -18.0,
                true_peak_dbtp_max=-3.5, source_rate_hz=44100,
-               fault="not high resolution: a 44.1 kHz mix converted up to 96 kHz", demo_specs=("copperfield-hires",)),
-    DemoMaster("ropewalk_synth_lead", "Ropewalk (synth lead mix)", "music+naive-lead", 96000, 24, 2, 12.0, -18.0,
+               fault="not high resolution: a 44.1 kHz mix converted up to 96 kHz", demo_specs=("quillfen-hires",)),
+    DemoMaster("drimble_synth_lead", "Drimble Run (synth lead mix)", "music+naive-lead", 96000, 24, 2, 12.0, -18.0,
                true_peak_dbtp_max=-3.5, naive_synthesis=True,
                fault="aliasing: a naively generated sawtooth lead folds its upper partials into the band",
-               demo_specs=("copperfield-hires",)),
-    DemoMaster("beacon_hill_pilot", "Beacon Hill (high-resolution master)", "music+tone", 96000, 24, 2, 12.0, -18.0,
+               demo_specs=("quillfen-hires",)),
+    DemoMaster("maunsel_pilot", "Maunsel Rise (high-resolution master)", "music+tone", 96000, 24, 2, 12.0, -18.0,
                true_peak_dbtp_max=-3.0, ultrasonic_tone=(30000.0, -30.0),
                fault="a 30 kHz tone at -30 dBFS left in the master (inaudible, but it adds 0.6 LU of loudness)",
-               demo_specs=("copperfield-hires",)),
-    DemoMaster("lamplighter_bells", "Lamplighter's Waltz (high-resolution master)", "music+bells", 96000, 24, 2,
+               demo_specs=("quillfen-hires",)),
+    DemoMaster("corrowin_bells", "Corrowin Waltz (high-resolution master)", "music+bells", 96000, 24, 2,
                12.0, -16.0, true_peak_dbtp_max=-1.2, true_peak_dbtp_min=-1.8, bell_peak_dbtp=-1.6,
                fault="under -1 dBTP at 96 kHz, over it once converted to 48 or 44.1 kHz: the bells' 33 kHz "
                      "partial flattens their peaks, and the conversion removes it",
-               demo_specs=("copperfield-hires",)),
+               demo_specs=("quillfen-hires",)),
 ]
 
 

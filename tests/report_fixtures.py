@@ -17,12 +17,12 @@ RATE_HZ = 48000
 #: markup in an incoming file's bext description: must render as text
 HOSTILE_DESCRIPTION = "<b>Night & Day</b><script>alert('x')</script>"
 #: a control character in the originator: must show as a visible escape
-ORIGINATOR = "Harbour Lane Rooms\x07"
+ORIGINATOR = "Tamberlo Lane Rooms\x07"
 START_SAMPLES = 3600 * RATE_HZ  # bext TimeReference: 01:00:00:00
 
 SPEC_YAML = """\
 spec_version: 1
-name: "Quayside streaming stereo (fictional)"
+name: "Trevarrow streaming stereo (fictional)"
 loudness:
   integrated: {target_lufs: -20.0, tolerance_lu: 1.0}
   range: {max_lu: 15.0, severity: warn}
@@ -73,9 +73,9 @@ def measured_and_judged(tmp_path, seconds: float = 8.0):
     from masterqc.spec.loader import load_spec
     from masterqc.spec.model import measure_options_for
 
-    wav = tmp_path / "Quayside_Lights_master.wav"
+    wav = tmp_path / "Trevarrow_Glass_master.wav"
     write_bwf(wav, tone_frames(seconds))
-    spec = tmp_path / "quayside.yaml"
+    spec = tmp_path / "trevarrow.yaml"
     spec.write_text(SPEC_YAML, encoding="utf-8")
     loaded = load_spec(spec)
     result = judge_result(measure_file(wav, measure_options_for(loaded.spec, None)), loaded)

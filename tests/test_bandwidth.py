@@ -240,7 +240,7 @@ def test_butterworth_roll_off_is_never_a_cliff(fs, order, corner):
     assert r.edge in ("rolloff", None)
 
 
-@pytest.mark.parametrize("stem", ["marina_interview_44k", "lantern_lane_episode", "pier_talk_quiet"])
+@pytest.mark.parametrize("stem", ["pellany_interview_44k", "wrenmoor_episode", "caddow_talk_quiet"])
 def test_demo_speech_masters_roll_off(stem):
     # the demo's voice chain: a 4th-order Butterworth low-pass at 0.35 x Nyquist after a tanh leveller;
     # these masters were once read as "upsampled from 32 kHz" and "low-passed at 16.9 / 15.5 kHz"

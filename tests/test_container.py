@@ -46,7 +46,7 @@ def _read_all(path):
 
 # ------------------------------------------------------------------ bext
 
-BEXT_V2 = dict(version=2, description="Reel 3, final mix (fictional programme)", originator="Harbour Lane Post",
+BEXT_V2 = dict(version=2, description="Reel 3, final mix (fictional programme)", originator="Tamberlo Lane Post",
                originator_reference="HLP0000000001", date="2026-11-30", time="17:45:09",
                time_reference=10 * 3600 * RATE, umid=bytes(range(1, 65)),
                loudness=(-2300, 850, -150, -1612, -1999),
@@ -63,7 +63,7 @@ def test_bext_v2_fields_read_back_exactly(tmp_path):
     bx = info.metadata["bext"]
     assert bx["version"] == 2
     assert bx["description"] == BEXT_V2["description"]
-    assert bx["originator"] == "Harbour Lane Post"
+    assert bx["originator"] == "Tamberlo Lane Post"
     assert bx["originator_reference"] == "HLP0000000001"
     assert bx["origination_date"] == "2026-11-30"
     assert bx["origination_time"] == "17:45:09"
@@ -142,7 +142,7 @@ def test_bext_through_measure_file_lands_in_result_metadata(tmp_path):
 # ------------------------------------------------------------------ iXML, INFO, id3
 
 IXML = """<?xml version="1.0" encoding="UTF-8"?>
-<BWFXML><IXML_VERSION>1.61</IXML_VERSION><PROJECT>The Lantern Keeper</PROJECT><SCENE>12A</SCENE>
+<BWFXML><IXML_VERSION>1.61</IXML_VERSION><PROJECT>The Wickfen Keeper</PROJECT><SCENE>12A</SCENE>
 <TAKE>3</TAKE><TAPE>DAY04</TAPE><NOTE>ISRC XX-Q7Z-26-00042</NOTE>
 <SPEED><TIMECODE_RATE>30000/1001</TIMECODE_RATE><TIMECODE_FLAG>DF</TIMECODE_FLAG>
 <TIMESTAMP_SAMPLES_SINCE_MIDNIGHT_HI>0</TIMESTAMP_SAMPLES_SINCE_MIDNIGHT_HI>
@@ -158,7 +158,7 @@ def test_ixml_fields_rate_and_timestamp(tmp_path):
     info = walk(_write(tmp_path, "ix.wav", data))
     assert info.problems == []
     ix = info.metadata["ixml"]
-    assert ix["fields"]["PROJECT"] == "The Lantern Keeper"
+    assert ix["fields"]["PROJECT"] == "The Wickfen Keeper"
     assert ix["fields"]["SCENE"] == "12A"
     assert ix["fields"]["SPEED/TIMECODE_RATE"] == "30000/1001"
     assert ix["tracks"] == [{"CHANNEL_INDEX": "1", "NAME": "BOOM"}, {"CHANNEL_INDEX": "2", "NAME": "LAV"}]
@@ -194,12 +194,12 @@ def test_ixml_with_entities_is_refused(tmp_path):
 
 def test_list_info_with_isrc(tmp_path):
     # LIST/INFO 'ISRC' is defined as "source"; carrying the ISRC there is a convention (common practice, no source)
-    lst = cb.list_info([(b"INAM", "Northbound Lights"), (b"IART", "The Fictional Quartet"),
+    lst = cb.list_info([(b"INAM", "Skellbrook Lights"), (b"IART", "The Fictional Quartet"),
                         (b"ISRC", "XXQ7Z2600042"), (b"ICRD", "2026-11-30")])
     data = cb.riff([cb.fmt_pcm(2, RATE, 16), cb.chunk(b"data", cb.pcm16(_codes())), lst])
     info = walk(_write(tmp_path, "info.wav", data))
     assert info.problems == []
-    assert info.metadata["info"] == {"INAM": "Northbound Lights", "IART": "The Fictional Quartet",
+    assert info.metadata["info"] == {"INAM": "Skellbrook Lights", "IART": "The Fictional Quartet",
                                      "ISRC": "XXQ7Z2600042", "ICRD": "2026-11-30"}
     (entry,) = info.metadata["isrc"]
     assert entry["source"] == "info.ISRC"
@@ -208,14 +208,14 @@ def test_list_info_with_isrc(tmp_path):
 
 @pytest.mark.parametrize("major,encoding", [(3, 0), (4, 3)])
 def test_id3_chunk_text_frames_and_tsrc(tmp_path, major, encoding):
-    tag = cb.id3v2([(b"TIT2", "Northbound Lights \u00e9"), (b"TSRC", "XXQ7Z2600042"), (b"TPE1", "Quartet")],
+    tag = cb.id3v2([(b"TIT2", "Skellbrook Lights \u00e9"), (b"TSRC", "XXQ7Z2600042"), (b"TPE1", "Quartet")],
                    major=major, encoding=encoding)
     data = cb.riff([cb.fmt_pcm(2, RATE, 16), cb.chunk(b"data", cb.pcm16(_codes())), cb.chunk(b"id3 ", tag)])
     info = walk(_write(tmp_path, "id3.wav", data))
     assert info.problems == []
     id3 = info.metadata["id3"]
     assert id3["version"] == f"2.{major}"
-    assert id3["frames"]["TIT2"] == "Northbound Lights \u00e9"
+    assert id3["frames"]["TIT2"] == "Skellbrook Lights \u00e9"
     assert id3["frames"]["TPE1"] == "Quartet"
     assert [(e["source"], e["code"]) for e in info.metadata["isrc"]] == [("id3.TSRC", "XXQ7Z2600042")]
 
@@ -306,7 +306,7 @@ def test_mask_naming_too_few_speakers_is_a_problem(tmp_path):
 
 def test_aiff_chunks_and_text(tmp_path):
     codes = _codes(300)
-    chunks = [cb.comm(2, 300, 16, 44100.0), cb.chunk(b"NAME", b"Harbour Suite", endian=">"),
+    chunks = [cb.comm(2, 300, 16, 44100.0), cb.chunk(b"NAME", b"Tamberlo Suite", endian=">"),
               cb.chunk(b"AUTH", b"A. Fictional", endian=">"),
               cb.chunk(b"(c) ", b"2026 Nowhere Records", endian=">"),
               cb.chunk(b"ANNO", b"master v3; ISRC XX-Q7Z-26-00042", endian=">"),
@@ -317,7 +317,7 @@ def test_aiff_chunks_and_text(tmp_path):
     assert info.metadata["comm"] == {"channels": 2, "frames": 300, "bits_per_sample": 16,
                                      "sample_rate_hz": 44100.0, "compression_type": None,
                                      "compression_name": None}
-    assert info.metadata["text_chunks"] == {"name": "Harbour Suite", "author": "A. Fictional",
+    assert info.metadata["text_chunks"] == {"name": "Tamberlo Suite", "author": "A. Fictional",
                                             "copyright": "2026 Nowhere Records",
                                             "annotations": ["master v3; ISRC XX-Q7Z-26-00042"]}
     assert [(e["source"], e["code"]) for e in info.metadata["isrc"]] == [("aiff.annotations", "XXQ7Z2600042")]
@@ -355,13 +355,13 @@ def _flac_with_comments(tmp_path, channels, comments):
 
 
 def test_flac_vorbis_comments_and_mask(tmp_path):
-    p, codes = _flac_with_comments(tmp_path, 6, ["TITLE=Northbound Lights", "isrc=XXQ7Z2600042",
+    p, codes = _flac_with_comments(tmp_path, 6, ["TITLE=Skellbrook Lights", "isrc=XXQ7Z2600042",
                                                  "WAVEFORMATEXTENSIBLE_CHANNEL_MASK=0x60F"])
     info = walk(p)
     assert info.kind == "flac" and info.problems == []
     vc = info.metadata["vorbis_comments"]
     assert vc["vendor"] == "fictional encoder 1.0"
-    assert vc["comments"]["TITLE"] == ["Northbound Lights"]
+    assert vc["comments"]["TITLE"] == ["Skellbrook Lights"]
     assert info.metadata["streaminfo"]["channels"] == 6
     assert info.metadata["streaminfo"]["frames"] == 2000
     assert info.channel_mask == 0x60F
@@ -491,14 +491,14 @@ def test_id3_utf16_and_user_text_frames():
     def frame(fid, data):
         return fid + struct.pack(">I", len(data)) + b"\0\0" + data
 
-    title = b"\x01" + "Harbour \u00e9t\u00e9".encode("utf-16")
+    title = b"\x01" + "Tamberlo \u00e9t\u00e9".encode("utf-16")
     user = b"\x00" + b"ISRC\0" + b"XXQ7Z2600042"
     body = frame(b"TIT2", title) + frame(b"TXXX", user) + frame(b"APIC", b"\0" * 20) + b"\0" * 10
     tag = b"ID3\x03\x00\x00" + cb.syncsafe(len(body)) + body
     seen = []
     out = parse_id3(tag, 100, lambda off, msg: seen.append((off, msg)))
     assert seen == []
-    assert out["frames"] == {"TIT2": "Harbour \u00e9t\u00e9", "TXXX:ISRC": "XXQ7Z2600042"}
+    assert out["frames"] == {"TIT2": "Tamberlo \u00e9t\u00e9", "TXXX:ISRC": "XXQ7Z2600042"}
     assert out["other_frames"] == ["APIC"]
 
 

@@ -186,7 +186,7 @@ def test_ixml_rate_against_spec_rate(tmp_path):
 
 
 def test_bext_presence_and_fields(tmp_path):
-    bext = cb.chunk(b"bext", cb.bext_body(version=1, originator="Harbour Lane Post", date="2026-11-30"))
+    bext = cb.chunk(b"bext", cb.bext_body(version=1, originator="Tamberlo Lane Post", date="2026-11-30"))
     by, _all, verdict, _r = _run(tmp_path, [FMT, bext, TONE],
                                  {"bext": {"fields_required": ["originator", "origination_date",
                                                                "origination_time"], "min_version": 2}})
@@ -221,9 +221,9 @@ def test_demo_archive_spec_on_a_good_and_a_bad_bwf(tmp_path):
     from masterqc.pipeline import judge_result
     from masterqc.spec.loader import load_spec
 
-    spec_path = Path(__file__).resolve().parent.parent / "specs_demo" / "harbourlight-bwf-archive.yaml"
+    spec_path = Path(__file__).resolve().parent.parent / "specs_demo" / "ostravel-bwf-archive.yaml"
     loaded = load_spec(spec_path)
-    good = cb.chunk(b"bext", cb.bext_body(version=2, originator="Harbourlight Post", date="2026-11-30",
+    good = cb.chunk(b"bext", cb.bext_body(version=2, originator="Ostravel Post", date="2026-11-30",
                                           time="09:58:00", time_reference=10 * 3600 * RATE,
                                           loudness=(-2300, 0, -2300, -2300, -2300)))
     p = tmp_path / "good.wav"
@@ -233,7 +233,7 @@ def test_demo_archive_spec_on_a_good_and_a_bad_bwf(tmp_path):
     assert meta and all(f["status"] in ("pass", "skipped") for f in meta), meta
     assert result["metadata"]["start_timecode"] == "10:00:00:00"
 
-    bad = cb.chunk(b"bext", cb.bext_body(version=1, originator="Harbourlight Post",
+    bad = cb.chunk(b"bext", cb.bext_body(version=1, originator="Ostravel Post",
                                          time_reference=9 * 3600 * RATE)[:500])
     p = tmp_path / "bad.wav"
     p.write_bytes(cb.riff([FMT, bad, TONE]))

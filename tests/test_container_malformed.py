@@ -150,7 +150,7 @@ def test_data_before_fmt(tmp_path):
     (0, 500, None),
 ])
 def test_bext_shorter_than_its_version_requires(tmp_path, version, size, missing):
-    body = cb.bext_body(version=version, originator="Harbour Lane Post",
+    body = cb.bext_body(version=version, originator="Tamberlo Lane Post",
                         loudness=(-2300, 500, -100, -1800, -2000))[:size]
     p = tmp_path / "short.wav"
     p.write_bytes(cb.riff([FMT, cb.chunk(b"bext", body), DATA]))
@@ -160,7 +160,7 @@ def test_bext_shorter_than_its_version_requires(tmp_path, version, size, missing
         expect += f"; missing: {missing}"
     assert info.problems == [{"offset": FMT_END, "message": expect}]
     bx = info.metadata["bext"]
-    assert bx["originator"] == "Harbour Lane Post"
+    assert bx["originator"] == "Tamberlo Lane Post"
     if size == 420:  # four of five loudness fields fit
         assert bx["loudness_value_lufs"] == -23.0 and bx["max_momentary_loudness_lufs"] == -18.0
         assert bx["max_short_term_loudness_lufs"] is None

@@ -28,9 +28,9 @@ from masterqc.cli import main
 from masterqc.demo import CAUTION, MASTERS, demo_specs_dir, run_demo, write_master
 from masterqc.schema import result_schema
 
-SPECS = ("harbourlight-house", "harbourlight-shortform", "copperfield-album", "lantern-lane-spoken",
-         "mesa-valley-atsc", "copperfield-hires")
-HIRES = [m for m in MASTERS if "copperfield-hires" in m.demo_specs]
+SPECS = ("ostravel-house", "ostravel-shortform", "quillfen-album", "wrenmoor-spoken",
+         "calderwick-atsc", "quillfen-hires")
+HIRES = [m for m in MASTERS if "quillfen-hires" in m.demo_specs]
 
 # Expected verdicts, from the build properties (MASTERS) and the spec limits:
 #   house:   48 kHz/24-bit/2 ch, -23 +-1 LUFS, TP <= -1 dBTP (warn within 0.3), LRA <= 18 LU as a warning
@@ -49,36 +49,36 @@ HIRES = [m for m in MASTERS if "copperfield-hires" in m.demo_specs]
 EXPECTED = {
     # -23 LUFS, TP <= -8, LRA <= 5, short-term <= -19, 30 s: meets all but the podcast's -18 +-2;
     # album: +7 dB to -16 LUFS leaves the peak <= -1 dBTP, no limiting
-    "tidewater_theme": ("pass", "pass", "pass", "fail", "pass", "fail"),
+    "brelloway_theme": ("pass", "pass", "pass", "fail", "pass", "fail"),
     # -15 LUFS: above -22 (house, short), above -16 (podcast), above -22 (atsc); album: <= -14, TP <= -2,
     # -1 dB to -16 LUFS needs no limiting
-    "lighthouse_ad_hot": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    "quorrin_ad_hot": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # true peak about 0 dBTP: over every ceiling
-    "harbour_overs": ("fail", "fail", "fail", "fail", "fail", "fail"),
+    "gullwick_overs": ("fail", "fail", "fail", "fail", "fail", "fail"),
     # LRA >= 19 > 18 (a warning only in the house spec); the 30 s spot spec asks no LRA and the
     # short-term maximum is <= -19: pass; album and atsc pass (-23 LUFS, TP <= -9: +7 dB keeps
     # it <= -2 dBTP); podcast: -23 is below -20
-    "estuary_suite_wide": ("warn", "pass", "pass", "fail", "pass", "fail"),
+    "ostmere_suite_wide": ("warn", "pass", "pass", "fail", "pass", "fail"),
     # 44.1 kHz: refused by house, short and atsc; allowed by album (TP <= -8: +7 dB keeps it <= -1);
     # podcast: -23 LUFS is below -20
-    "marina_interview_44k": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    "pellany_interview_44k": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # clipped: TP >= 0 dBTP over every ceiling
-    "quayside_clipped": ("fail", "fail", "fail", "fail", "fail", "fail"),
+    "trevarrow_clipped": ("fail", "fail", "fail", "fail", "fail", "fail"),
     # mono: refused where 2 channels are required; podcast: -18 LUFS, TP <= -2
-    "lantern_lane_episode": ("fail", "fail", "fail", "pass", "fail", "fail"),
+    "wrenmoor_episode": ("fail", "fail", "fail", "pass", "fail", "fail"),
     # mono 16-bit at -19.7 LUFS: 0.3 LU above the podcast's -20 edge, inside its 0.5 LU margin -> warn
-    "pier_talk_quiet": ("fail", "fail", "fail", "warn", "fail", "fail"),
+    "caddow_talk_quiet": ("fail", "fail", "fail", "warn", "fail", "fail"),
     # made at 96 kHz (hats and noise bed reach 48 kHz), band-limited tones, no added tone: passes hires
-    "foxglove_hires": ("fail", "fail", "pass", "fail", "fail", "pass"),
+    "ilvenbrook_hires": ("fail", "fail", "pass", "fail", "fail", "pass"),
     # made at 44.1 kHz and converted up: hires refuses it as upsampled from 44.1 kHz
-    "saltmarsh_fake_hires": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    "yarrowgate_fake_hires": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # naive sawtooth lead: its partials above 48 kHz fold back, hires refuses aliasing
-    "ropewalk_synth_lead": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    "drimble_synth_lead": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # 30 kHz tone at -30 dBFS: over the -50 dBFS tone limit and the ultrasonic limits, warnings only
-    "beacon_hill_pilot": ("fail", "fail", "pass", "fail", "fail", "warn"),
+    "maunsel_pilot": ("fail", "fail", "pass", "fail", "fail", "warn"),
     # -16 LUFS, TP <= -1.2 at 96 kHz (album: pass, no gain to -16 LUFS); its bells' peaks rise by
     # 1.25 dB once their 33 kHz partial is removed: over -1 dBTP at 48 and 44.1 kHz, hires fails
-    "lamplighter_bells": ("fail", "fail", "pass", "fail", "fail", "fail"),
+    "corrowin_bells": ("fail", "fail", "pass", "fail", "fail", "fail"),
 }
 
 
@@ -153,7 +153,7 @@ def test_master_has_its_designed_properties(masters, m):
 
 
 def test_overs_master_samples_stay_low_while_true_peak_is_over():
-    # the fault of harbour_overs by construction (EBU Tech 3341 case 16 shape at full scale)
+    # the fault of gullwick_overs by construction (EBU Tech 3341 case 16 shape at full scale)
     from masterqc.demo import quarter_rate_burst
     b = quarter_rate_burst(192, 1.0, 48000, fade_s=0.0005)
     assert np.max(np.abs(b)) == pytest.approx(np.sqrt(0.5), abs=1e-12)
@@ -189,19 +189,19 @@ def test_demo_command(tmp_path):
             with open(tmp_path / "demo" / spec_id / f"{m.stem}.json") as f:
                 assert json.load(f)["verdict"] == want, (m.stem, spec_id)
             assert f"{want.upper():5s} {m.stem}" in text
-    assert (tmp_path / "demo" / "masters" / "tidewater_theme.wav").exists()
+    assert (tmp_path / "demo" / "masters" / "brelloway_theme.wav").exists()
     # the summary line under each high-resolution master names the fault built into it
     lines = text.splitlines()
 
     def reason(stem):
         i = next(k for k, line in enumerate(lines) if f" {stem} " in line and "high-resolution" in line)
         return lines[i + 1].strip()
-    assert reason("foxglove_hires") == "meets every requirement"
-    assert reason("saltmarsh_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
-    assert "converter cliff" in reason("saltmarsh_fake_hires") and "44.1 kHz source" in reason("saltmarsh_fake_hires")
-    assert "alias" in reason("ropewalk_synth_lead") and "440.0 Hz" in reason("ropewalk_synth_lead")
-    assert "ultrasonic" in reason("beacon_hill_pilot") and "sampling.ultrasonic_tones" in reason("beacon_hill_pilot")
-    assert reason("lamplighter_bells").startswith("true peak after conversion to 48 kHz")
+    assert reason("ilvenbrook_hires") == "meets every requirement"
+    assert reason("yarrowgate_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
+    assert "converter cliff" in reason("yarrowgate_fake_hires") and "44.1 kHz source" in reason("yarrowgate_fake_hires")
+    assert "alias" in reason("drimble_synth_lead") and "440.0 Hz" in reason("drimble_synth_lead")
+    assert "ultrasonic" in reason("maunsel_pilot") and "sampling.ultrasonic_tones" in reason("maunsel_pilot")
+    assert reason("corrowin_bells").startswith("true peak after conversion to 48 kHz")
 
 
 def test_demo_command_with_two_workers_writes_the_same_verdicts(tmp_path):
@@ -235,7 +235,7 @@ def _band_energy_db(x, sr, lo_hz, hi_hz, split_hz):
 def hires_results(masters, tmp_path_factory):
     out = tmp_path_factory.mktemp("hires")
     code = main(["check", *[str(masters[m.stem]) for m in HIRES], "--spec",
-                 str(demo_specs_dir() / "copperfield-hires.yaml"), "--out", str(out), "--format", "json", "--quiet"])
+                 str(demo_specs_dir() / "quillfen-hires.yaml"), "--out", str(out), "--format", "json", "--quiet"])
     assert code == 1  # two of them fail by construction
     res = {}
     for m in HIRES:
@@ -366,16 +366,16 @@ def test_hires_report_shows_the_upper_band_and_points_at_the_tone(hires_results)
     # the report of a 96 kHz master draws the band above 10 kHz on a linear axis, and names the
     # 30 kHz tone that the measurement found (it was put there by construction)
     from masterqc.report.view import spectrum_view
-    tone = spectrum_view(hires_results["beacon_hill_pilot"])
+    tone = spectrum_view(hires_results["maunsel_pilot"])
     assert "Lower panel: the band from 10 kHz to Nyquist" in tone["note"]
     assert "tone 30.00 kHz, -30.0 dBFS" in tone["svg"]
-    fake = spectrum_view(hires_results["saltmarsh_fake_hires"])
+    fake = spectrum_view(hires_results["yarrowgate_fake_hires"])
     assert "tone " not in fake["svg"] and "content edge 20.9" in fake["note"]
 
 
 def test_hires_report_conversion_table_says_which_deliverable_breaks_the_ceiling(hires_results):
     from masterqc.report.view import conversions_view
-    for stem, word in (("lamplighter_bells", "FAIL: "), ("foxglove_hires", "pass (")):
+    for stem, word in (("corrowin_bells", "FAIL: "), ("ilvenbrook_hires", "pass (")):
         table = conversions_view(hires_results[stem])["table"]
         col = table["columns"].index("Spec ceiling")
         cells = [row[col] for row in table["rows"]]

@@ -23,7 +23,7 @@ FS = 48000
 
 
 def _spec(integrity: dict):
-    return build_spec({"spec_version": 1, "name": "Harbourlight integrity test", "integrity": integrity})
+    return build_spec({"spec_version": 1, "name": "Ostravel integrity test", "integrity": integrity})
 
 
 def _by_check(findings):

@@ -72,8 +72,8 @@ def test_bext_markup_is_shown_as_text_only(html, tree):
 
 
 def test_control_character_in_metadata_is_visible(tree):
-    originator = [td for td in tree.iter("td") if (td.text or "").startswith("Harbour Lane Rooms")]
-    assert originator and originator[0].text == "Harbour Lane Rooms\\x07"
+    originator = [td for td in tree.iter("td") if (td.text or "").startswith("Tamberlo Lane Rooms")]
+    assert originator and originator[0].text == "Tamberlo Lane Rooms\\x07"
 
 
 def test_render_is_deterministic_and_survives_a_json_round_trip(judged, html):

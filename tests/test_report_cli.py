@@ -14,7 +14,7 @@ from report_fixtures import SPEC_YAML, tone_frames, write_bwf
 def checked(tmp_path_factory):
     """``masterqc check`` of one master with JSON and HTML written."""
     d = tmp_path_factory.mktemp("report_cli")
-    wav = d / "Tidewater_take2.wav"
+    wav = d / "Brelloway_take2.wav"
     write_bwf(wav, tone_frames(6.0))
     spec = d / "spec.yaml"
     spec.write_text(SPEC_YAML, encoding="utf-8")
@@ -31,10 +31,10 @@ def test_rerender_from_json_gives_the_same_html(checked, tmp_path, capsys, monke
         raise AssertionError("measure_file called by report")
 
     monkeypatch.setattr(engine, "measure_file", no_measuring)
-    rc = main(["report", str(checked / "Tidewater_take2.json"), "--out", str(tmp_path), "--format", "html"])
+    rc = main(["report", str(checked / "Brelloway_take2.json"), "--out", str(tmp_path), "--format", "html"])
     assert rc == 0
-    assert (tmp_path / "Tidewater_take2.html").read_bytes() == (checked / "Tidewater_take2.html").read_bytes()
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["Tidewater_take2.html"]
+    assert (tmp_path / "Brelloway_take2.html").read_bytes() == (checked / "Brelloway_take2.html").read_bytes()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["Brelloway_take2.html"]
     assert "FAIL" in capsys.readouterr().out
 
 
@@ -66,18 +66,18 @@ def test_json_that_is_not_a_result_is_exit_2(tmp_path, capsys, content, words):
 
 
 def test_bad_format_is_exit_2_and_nothing_written(checked, tmp_path, capsys):
-    assert main(["report", str(checked / "Tidewater_take2.json"), "--out", str(tmp_path), "--format", "html,docx"]) == 2
+    assert main(["report", str(checked / "Brelloway_take2.json"), "--out", str(tmp_path), "--format", "html,docx"]) == 2
     assert "unknown report format docx" in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == []
 
 
 def test_one_bad_name_stops_before_any_file_is_written(checked, tmp_path):
-    rc = main(["report", str(checked / "Tidewater_take2.json"), str(tmp_path / "typo.json"),
+    rc = main(["report", str(checked / "Brelloway_take2.json"), str(tmp_path / "typo.json"),
                "--out", str(tmp_path / "o"), "--format", "html"])
     assert rc == 2
     assert not (tmp_path / "o").exists()
 
 
 def test_saved_result_is_valid_json_for_the_renderer(checked):
-    result = json.loads((checked / "Tidewater_take2.json").read_text())
-    assert result["outputs"] == {"html": "Tidewater_take2.html", "json": "Tidewater_take2.json"}
+    result = json.loads((checked / "Brelloway_take2.json").read_text())
+    assert result["outputs"] == {"html": "Brelloway_take2.html", "json": "Brelloway_take2.json"}

@@ -40,7 +40,7 @@ def test_a4_pages_with_running_heads_and_numbers(a4, judged):
         w, h = float(page.mediabox.width), float(page.mediabox.height)
         assert w == pytest.approx(A4_PT[0], abs=0.5) and h == pytest.approx(A4_PT[1], abs=0.5)
     for i, text in enumerate(_pages_text(reader), start=1):
-        assert "Quayside_Lights_master.wav" in text, i  # file name on every page
+        assert "Trevarrow_Glass_master.wav" in text, i  # file name on every page
         assert "verdict: FAIL (2 fails)" in text, i  # and the verdict
         assert f"page {i} of {n}" in text, i
         assert "receiving party's own spec and QC govern acceptance" in text, i

@@ -238,8 +238,8 @@ def test_diamond_extends_is_not_a_cycle(tmp_path):
 # ------------------------------------------------------------------ the demo specs and the schema
 
 def test_demo_specs_load_and_short_form_extends_house():
-    house = load_spec(SPECS / "harbourlight-house.yaml").spec
-    short = load_spec(SPECS / "harbourlight-shortform.yaml").spec
+    house = load_spec(SPECS / "ostravel-house.yaml").spec
+    short = load_spec(SPECS / "ostravel-shortform.yaml").spec
     assert short.format == house.format and short.peaks == house.peaks
     assert short.loudness.range is None and short.loudness.max_short_term.max_lufs == -18.0
     assert len(list(SPECS.glob("*.yaml"))) >= 4

@@ -6,11 +6,11 @@ a *spec map*: a small YAML file a house keeps for its nightly run::
     masterqc_spec_map: 1
     specs:                         # first matching rule wins
       - match: "podcasts/**"       # glob on the path below the folder argument
-        spec: lantern-lane-spoken.yaml
+        spec: wrenmoor-spoken.yaml
       - match: "albums/*/**"
-        spec: copperfield-album.yaml
+        spec: quillfen-album.yaml
       - match: "**"                # everything else
-        spec: harbourlight-house.yaml
+        spec: ostravel-house.yaml
     releases: folder               # optional: folder | root | depth:N | none
 
 A rule may name ``spec_in_folder: FILE`` instead of ``spec:``: the spec is then the
@@ -20,7 +20,7 @@ given on the command line), so each album or season can carry its own spec::
       - match: "albums/**"
         spec_in_folder: delivery-spec.yaml   # albums/<name>/delivery-spec.yaml
       - match: "**"
-        spec: harbourlight-house.yaml
+        spec: ostravel-house.yaml
 
 A master under such a rule with no such file is judged by the next matching rule;
 a folder spec that does not validate makes error rows of the masters it governs
