@@ -141,8 +141,8 @@ def main(argv=None) -> int:
         print(f"  target integrity / core analyzers <= 1.0x:      {r_core:6.2f}x  {verdict(r_core <= 1.0)}")
         print(f"  target integrity / pyebur128 <= 0.5x:           {r_eb:6.2f}x  {verdict(r_eb <= 0.5)}")
         print(f"  integrity / decode-only:                        {r_dec:6.2f}x")
-        print(f"  measured: clipped runs {m['clipped_runs']}, dropouts {m['dropout_count']}, "
-              f"effective bits {m['effective_bit_depth']}, phase correlation min {m['phase_correlation_min']:.2f}")
+        print(f"  measured: clipped runs {m['clipped_run_count']}, dropouts {m['dropout_count']}, "
+              f"effective bits {m['effective_bit_depth_bits']}, phase correlation min {m['phase_correlation_min']:.2f}")
         ok = ok and r_core <= 1.0 and r_eb <= 0.5
     print(f"\nbench_integrity_cost done in {time.perf_counter() - t0:.1f} s")
     return 1 if (args.strict and not ok) else 0

@@ -29,6 +29,20 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(EXIT_USAGE)
 
 
+class _Deprecated(argparse.Action):
+    """Stores the value; an old spelling of the option (``old=``) also prints a deprecation note."""
+
+    def __init__(self, *args, old: str = "", **kwargs):
+        self.old = old
+        super().__init__(*args, **kwargs)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        if option_string == self.old:
+            sys.stderr.write(f"masterqc: note: {self.old} is deprecated; use {self.option_strings[0]} "
+                             "(see CHANGELOG.md)\n")
+        setattr(namespace, self.dest, values)
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="masterqc", description="Prove that an audio master meets its delivery spec.")
     p.add_argument("--version", action="version", version=f"masterqc {__version__}")
@@ -38,7 +52,8 @@ def build_parser() -> argparse.ArgumentParser:
     m = sub.add_parser("measure", help="measure one master and print a table or the JSON result")
     m.add_argument("file")
     m.add_argument("--json", action="store_true", help="print the JSON result object")
-    m.add_argument("--true-peak-oversample", type=int, choices=(4, 8, 16), default=4,
+    m.add_argument("--true-peak-oversampling", "--true-peak-oversample", type=int, choices=(4, 8, 16), default=4,
+                   action=_Deprecated, old="--true-peak-oversample",
                    help="true-peak oversampling factor (default 4; never below ITU-R BS.1770 Annex 2's "
                         "minimum for the file's rate)")
     m.add_argument("--true-peak-filter", choices=("kaiser", "annex2"), default="kaiser",
@@ -64,15 +79,15 @@ def cmd_measure(args) -> int:
     from masterqc.progress import Progress
     from masterqc.report.text import measurement_table
 
-    if args.true_peak_filter == "annex2" and args.true_peak_oversample != 4:
+    if args.true_peak_filter == "annex2" and args.true_peak_oversampling != 4:
         raise UsageError("--true-peak-filter annex2 is defined for 4x only; "
-                         "use --true-peak-oversample 4 or the kaiser filter")
+                         "use --true-peak-oversampling 4 or the kaiser filter")
     if args.threads is not None and args.threads < 1:
         raise UsageError("--threads must be at least 1")
     layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
     extra = {"threads": args.threads} if args.threads else {}
     options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
-                             true_peak_oversample=args.true_peak_oversample,
+                             true_peak_oversampling=args.true_peak_oversampling,
                              true_peak_filter=args.true_peak_filter)
     progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)
     try:

@@ -24,6 +24,7 @@ import json
 import os
 
 from masterqc import __version__
+from masterqc.contract import RESULT_FORMAT_VERSION
 from masterqc.errors import AudioReadError
 from masterqc.fileio import write_atomic  # noqa: F401  (part of this module's interface)
 from masterqc.jsonutil import jsonable
@@ -99,6 +100,7 @@ def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts
     finding = Finding(check="file.read", status="error",
                       message=f"{os.fspath(path)}: cannot be checked: {cause}{where}")
     return {
+        "result_format": RESULT_FORMAT_VERSION,
         "tool": {"name": "masterqc", "version": __version__},
         "file": dict(facts) if facts else {"path": os.fspath(path)},
         "spec": loaded_spec.info(),

@@ -9,3 +9,41 @@ import pytest
 @pytest.fixture
 def rng():
     return np.random.default_rng(20261201)
+
+
+def _saved_results(root):
+    """Every result object saved as JSON below ``root`` (measure/check results, not summaries)."""
+    import json
+    import os
+    for folder, _dirs, files in os.walk(root):
+        for name in files:
+            if not name.endswith(".json"):
+                continue
+            path = os.path.join(folder, name)
+            try:
+                with open(path, encoding="utf-8") as f:
+                    data = json.load(f)
+            except (OSError, ValueError):
+                continue
+            if isinstance(data, dict) and isinstance(data.get("tool"), dict) and isinstance(data.get("file"), dict) \
+                    and ("measurements" in data or "findings" in data):
+                yield path, data
+
+
+@pytest.fixture(autouse=True)
+def _every_saved_result_fits_the_schema(request):
+    """House rule of the result contract: every result a test saves validates against the
+    schema ``masterqc schema result`` prints (generated from masterqc.contract's models)."""
+    root = request.getfixturevalue("tmp_path") if "tmp_path" in request.fixturenames else None
+    yield
+    if root is None:
+        return
+    import jsonschema
+    from masterqc.contract import RESULT_FORMAT_VERSION
+    from masterqc.schema import result_schema
+    validator = jsonschema.Draft202012Validator(result_schema())
+    for path, data in _saved_results(root):
+        if data.get("result_format") != RESULT_FORMAT_VERSION:
+            continue  # an older saved result written on purpose (upgrade tests)
+        errors = sorted(validator.iter_errors(data), key=lambda e: list(e.path))
+        assert not errors, f"{path}: {errors[0].message} at {'/'.join(map(str, errors[0].path))}"

@@ -143,7 +143,7 @@ def test_result_schema_command(capsys):
 def test_annex2_filter_only_at_4x(tmp_path, capsys):
     path = tmp_path / "a.wav"
     sf.write(path, np.c_[_sine(1.0, 1000, 0.5)], RATE_HZ, subtype="PCM_16")
-    code, out, err = _run(["measure", str(path), "--true-peak-filter", "annex2", "--true-peak-oversample", "8"], capsys)
+    code, out, err = _run(["measure", str(path), "--true-peak-filter", "annex2", "--true-peak-oversampling", "8"], capsys)
     assert code == 2 and "4x only" in err
     code, out, err = _run(["measure", str(path), "--json", "--true-peak-filter", "annex2"], capsys)
     assert code == 0

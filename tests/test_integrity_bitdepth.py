@@ -53,8 +53,8 @@ def test_16_bit_padded_into_24_reads_16(tmp_path, rng):
     back, _ = sf.read(path, dtype="int32")
     assert np.array_equal(back >> 16, codes16)  # int32 view: 16-bit code in the top bits
     m = measure_file(path)["measurements"]
-    assert m["effective_bit_depth"] == 16
-    assert m["effective_bit_depth_per_channel"] == [16, 16]
+    assert m["effective_bit_depth_bits"] == 16
+    assert m["effective_bit_depth_bits_per_channel"] == [16, 16]
 
 
 def test_true_24_bit_reads_24_and_mixed_channels(tmp_path, rng):
@@ -62,8 +62,8 @@ def test_true_24_bit_reads_24_and_mixed_channels(tmp_path, rng):
     codes[:, 1] = (codes[:, 1] >> 4) << 4  # R padded to 20 bits
     path = write_pcm(tmp_path / "mixed.wav", codes, FS, 24)
     m = measure_file(path)["measurements"]
-    assert m["effective_bit_depth_per_channel"] == [24, 20]
-    assert m["effective_bit_depth"] == 24
+    assert m["effective_bit_depth_bits_per_channel"] == [24, 20]
+    assert m["effective_bit_depth_bits"] == 24
 
 
 def test_24_in_32_and_silent_channel(rng):
@@ -71,8 +71,8 @@ def test_24_in_32_and_silent_channel(rng):
     codes[:, 1] = 0
     x = pcm(codes, 32)
     m = feed(BitDepthAnalyzer, x, info_for(x, bits=32), block=5000).measurements
-    assert m["effective_bit_depth_per_channel"] == [24, None]
-    assert m["effective_bit_depth"] == 24
+    assert m["effective_bit_depth_bits_per_channel"] == [24, None]
+    assert m["effective_bit_depth_bits"] == 24
 
 
 @pytest.mark.parametrize("grid", [16, 24])
@@ -81,17 +81,17 @@ def test_float_file_carrying_integers(tmp_path, rng, grid):
     path = tmp_path / f"f{grid}.wav"
     sf.write(path, (codes / 2.0 ** (grid - 1)).astype(np.float32), FS, subtype="FLOAT")
     m = measure_file(path)["measurements"]
-    assert m["effective_bit_depth_per_channel"] == [grid, grid]
+    assert m["effective_bit_depth_bits_per_channel"] == [grid, grid]
 
 
 def test_genuine_float_reads_container_depth(tmp_path, rng):
     x = rng.normal(0, 0.1, (48000, 2)).astype(np.float32)
     path = tmp_path / "float.wav"
     sf.write(path, x, FS, subtype="FLOAT")
-    assert measure_file(path)["measurements"]["effective_bit_depth"] == 32
+    assert measure_file(path)["measurements"]["effective_bit_depth_bits"] == 32
 
 
 def test_all_zero_file_has_no_depth():
     x = np.zeros((1000, 2))
     m = feed(BitDepthAnalyzer, x, info_for(x, bits=24)).measurements
-    assert m["effective_bit_depth"] is None and m["effective_bit_depth_per_channel"] == [None, None]
+    assert m["effective_bit_depth_bits"] is None and m["effective_bit_depth_bits_per_channel"] == [None, None]

@@ -56,7 +56,7 @@ def test_exact_inversion(rng):
     assert m["inverted_polarity_pairs"] == [["L", "R"]]
     assert m["channel_correlation_per_pair"][0] == pytest.approx(-1.0, abs=1e-12)
     assert m["phase_correlation_min"] == pytest.approx(-1.0, abs=1e-12)
-    assert m["phase_correlation_below_share"] == 1.0
+    assert m["phase_correlation_below_percent"] == 100.0
     assert m["dual_mono"] is False
     assert m["level_balance_lu"] == pytest.approx(0.0, abs=1e-9)
 
@@ -83,7 +83,7 @@ def test_phase_correlation_over_time(block):
     res = feed(ChannelRelationAnalyzer, x, info_for(x, bits=64, is_float=True), block=block)
     m = res.measurements
     assert m["phase_correlation_min"] == pytest.approx(-1.0, abs=1e-9)
-    assert m["phase_correlation_below_share"] == pytest.approx(5 / 30, abs=1e-12)
+    assert m["phase_correlation_below_percent"] == pytest.approx(100 * 5 / 30, abs=1e-10)
     assert m["phase_correlation_below_s"] == pytest.approx(0.5, abs=1e-12)
     assert m["phase_correlation_below_where_s"] == [[1.0, 1.5]]
     assert m["channel_correlation_per_pair"][0] == pytest.approx(2 / 3, abs=1e-3)
@@ -102,7 +102,7 @@ def test_silent_windows_carry_no_correlation():
     x[:24000, 1] = 0.0  # R silent for the first half
     m = feed(ChannelRelationAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
     assert m["phase_correlation_min"] == pytest.approx(1.0, abs=1e-9)
-    assert m["phase_correlation_below_share"] == 0.0
+    assert m["phase_correlation_below_percent"] == 0.0
 
 
 def test_long_file_series_stays_bounded():

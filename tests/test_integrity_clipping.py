@@ -89,9 +89,9 @@ def test_clipped_runs_counts_lengths_and_times(block):
     codes = _clipped_codes()
     x = pcm(codes, 24)
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), block=block).measurements
-    assert m["clipped_runs"] == 5
-    assert m["clipped_runs_per_channel"] == [2, 3]
-    assert m["clipped_samples_per_channel"] == [15, 11]
+    assert m["clipped_run_count"] == 5
+    assert m["clipped_run_count_per_channel"] == [2, 3]
+    assert m["clipped_sample_count_per_channel"] == [15, 11]
     assert m["clipped_run_longest_samples"] == 10
     ev = [(e["channel"], e["start_s"], e["end_s"], e["samples"], e["polarity"]) for e in m["clipped_run_events"]]
     assert ev == [("L", 10000 / FS, 10005 / FS, 5, "positive"),
@@ -109,16 +109,16 @@ def test_min_run_and_threshold_options():
     codes = _clipped_codes()
     x = pcm(codes, 24)
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_min_run_samples=2).measurements
-    assert m["clipped_runs"] == 6  # the run of 2 now counts
+    assert m["clipped_run_count"] == 6  # the run of 2 now counts
     # a plateau 0.05 dB below full scale: clipped only once the threshold reaches it
     level = int(np.floor((2 ** 23 - 1) * 10 ** (-0.05 / 20)))
     codes = np.zeros((5000, 1), np.int64)
     codes[100:200, 0] = level
     x = pcm(codes, 24)
-    assert feed(ClippingAnalyzer, x, info_for(x, bits=24)).measurements["clipped_runs"] == 0
-    assert feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_threshold_db=0.04).measurements["clipped_runs"] == 0
+    assert feed(ClippingAnalyzer, x, info_for(x, bits=24)).measurements["clipped_run_count"] == 0
+    assert feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_threshold_db=0.04).measurements["clipped_run_count"] == 0
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_threshold_db=0.06).measurements
-    assert m["clipped_runs"] == 1 and m["clipped_samples_per_channel"] == [100]
+    assert m["clipped_run_count"] == 1 and m["clipped_sample_count_per_channel"] == [100]
 
 
 def test_padded_16_bit_full_scale_needs_a_threshold(tmp_path):
@@ -130,9 +130,9 @@ def test_padded_16_bit_full_scale_needs_a_threshold(tmp_path):
     import soundfile as sf
     sf.write(path, codes.astype(np.int16), FS, subtype="PCM_24")  # libsndfile pads: code << 8
     r = measure_file(path)
-    assert r["measurements"]["clipped_runs"] == 1  # only -32768<<8 == -2**23 is 24-bit full scale
+    assert r["measurements"]["clipped_run_count"] == 1  # only -32768<<8 == -2**23 is 24-bit full scale
     r = measure_file(path, MeasureOptions(clip_threshold_db=0.001))
-    assert r["measurements"]["clipped_runs_per_channel"] == [1, 2]
+    assert r["measurements"]["clipped_run_count_per_channel"] == [1, 2]
 
 
 def test_float_file_overs_and_runs(tmp_path):
@@ -145,8 +145,8 @@ def test_float_file_overs_and_runs(tmp_path):
     sf.write(path, x.astype(np.float32), FS, subtype="FLOAT")
     m = measure_file(path)["measurements"]
     assert m["over_full_scale_sample_count"] == 4
-    assert m["over_full_scale_samples_per_channel"] == [1, 3]
-    assert m["clipped_runs_per_channel"] == [1, 1]
+    assert m["over_full_scale_sample_count_per_channel"] == [1, 3]
+    assert m["clipped_run_count_per_channel"] == [1, 1]
     assert m["clipped_run_where_s"] == [[100 / FS, 110 / FS], [500 / FS, 503 / FS]]
 
 
@@ -154,7 +154,7 @@ def test_file_round_trip_matches_in_memory(tmp_path):
     codes = _clipped_codes()
     path = write_pcm(tmp_path / "c.wav", codes, FS, 24)
     m = measure_file(path, MeasureOptions(block_frames=3001))["measurements"]
-    assert m["clipped_runs"] == 5 and m["clipped_runs_per_channel"] == [2, 3]
+    assert m["clipped_run_count"] == 5 and m["clipped_run_count_per_channel"] == [2, 3]
 
 
 def test_merge_ranges():

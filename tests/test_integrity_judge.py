@@ -178,5 +178,5 @@ def test_results_of_awkward_files_fit_the_result_schema(tmp_path):
         r = measure_file(tmp_path / name)
         jsonschema.validate(r, schema)
     m = measure_file(tmp_path / "silent.wav")["measurements"]
-    assert m["effective_bit_depth"] is None and m["dual_mono"] is None
+    assert m["effective_bit_depth_bits"] is None and m["dual_mono"] is None
     assert m["head_digital_silence_s"] == 0.5 and m["dc_offset_dbfs"] is None

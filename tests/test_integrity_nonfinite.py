@@ -34,7 +34,7 @@ def test_counts_and_first_positions(tmp_path):
     r = measure_file(path, MeasureOptions(block_frames=4096))
     m = r["measurements"]
     assert m["nonfinite_sample_count"] == 13
-    assert m["nonfinite_samples_per_channel"] == [2, 11]
+    assert m["nonfinite_sample_count_per_channel"] == [2, 11]
     assert m["nan_sample_count"] == 11 and m["inf_sample_count"] == 2
     first = [(p["channel"], p["frame"], p["kind"]) for p in m["nonfinite_first_positions"]]
     assert first[:4] == [("L", 1000, "nan"), ("R", 2000, "+inf"), ("L", 3000, "-inf"), ("R", 70000, "nan")]
@@ -44,7 +44,7 @@ def test_counts_and_first_positions(tmp_path):
     # the rest of the measurement completes: loudness and peaks exist and are finite
     assert isinstance(m["integrated_lufs"], float)
     assert m["sample_peak_dbfs"] is not None and m["sample_peak_dbfs"] < -19.9
-    assert m["effective_bit_depth"] == 32  # genuine float content
+    assert m["effective_bit_depth_bits"] == 32  # genuine float content
 
 
 def test_positions_kept_are_bounded_but_counts_exact():

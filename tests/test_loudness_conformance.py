@@ -283,7 +283,7 @@ def test_digital_silence_gives_nulls():
     for key in ("integrated_lufs", "relative_gate_lufs", "loudness_range_lu", "loudness_range_low_lufs",
                 "loudness_range_high_lufs", "max_momentary_lufs", "max_short_term_lufs"):
         assert m[key] is None, key
-    assert m["gating_block_count"] == 47 and m["gated_block_count"] == 0
+    assert m["loudness_block_count"] == 47 and m["loudness_block_above_gates_count"] == 0
     assert m["max_momentary_end_s"] is None and m["max_short_term_end_s"] is None
     assert all(v is None for v in s["momentary_lufs"])
     assert s["gating_block_histogram"]["bin"] == []
@@ -301,7 +301,7 @@ def test_shorter_than_one_gating_block():
     fs = 48000
     m, s, _ = analyse(tone_steps(fs, [(0.39, -20)]), fs)
     assert m["integrated_lufs"] is None and m["max_momentary_lufs"] is None
-    assert m["gating_block_count"] == 0 and m["max_short_term_lufs"] is None
+    assert m["loudness_block_count"] == 0 and m["max_short_term_lufs"] is None
     assert s["momentary_lufs"] == [None, None, None]
     assert s["loudness_time_s"] == pytest.approx([0.1, 0.2, 0.3])
 
@@ -312,7 +312,7 @@ def test_shorter_than_short_term_window():
     assert m["integrated_lufs"] == pytest.approx(analytic_tone_lufs(-20, fs), abs=0.001)
     assert m["loudness_range_lu"] is None and m["max_short_term_lufs"] is None
     assert all(v is None for v in s["short_term_lufs"])
-    assert m["gating_block_count"] == 26
+    assert m["loudness_block_count"] == 26
 
 
 def test_incomplete_final_block_not_used():
@@ -476,7 +476,7 @@ def test_pooled_equals_file_value_for_one_file():
     m, s, _ = analyse(tone_steps(fs, [(10, -36), (20, -23), (10, -30)]), fs)
     pooled = ld.pooled_integrated_lufs([s["gating_block_histogram"]])
     assert pooled == pytest.approx(m["integrated_lufs"], abs=0.001)
-    assert sum(s["gating_block_histogram"]["count"]) == m["gating_block_count"]
+    assert sum(s["gating_block_histogram"]["count"]) == m["loudness_block_count"]
 
 
 # ---------------------------------------------------------------- properties

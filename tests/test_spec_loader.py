@@ -284,7 +284,7 @@ def test_published_schema_is_valid_and_matches_the_models(tmp_path, capsys):
 def test_measure_options_follow_the_spec():
     loaded = load_spec_text(GOOD.replace("-1.0, warn", "-2.0, warn") + "  true_peak_oversampling: 8\n")
     opts = measure_options_for(loaded.spec)
-    assert opts.true_peak_ceiling_dbtp == -2.0 and opts.true_peak_oversample == 8
+    assert opts.true_peak_ceiling_dbtp == -2.0 and opts.true_peak_oversampling == 8
 
 
 def test_normalisation_defaults_from_the_loudness_target():

@@ -345,8 +345,8 @@ def test_higher_factors_read_the_tech3341_cases(tmp_path, factor):
         assert expected - 0.4 <= tp <= expected + 0.2
         assert abs(tp - db(amp)) < 0.02
     m, _, settings = measure_array(tmp_path, faded_sine(6, 0.5, 60.0, seconds=0.3),
-                                   options=MeasureOptions(true_peak_oversample=factor))
-    assert m["true_peak_oversample_factor"] == factor
+                                   options=MeasureOptions(true_peak_oversampling=factor))
+    assert m["true_peak_oversampling_factor"] == factor
     assert settings["true_peak"]["oversampled_rate_hz"] == FS * factor
     assert m["true_peak_underread_max_db"] < ov.analytic_underread_db(4, 0.45)
 
@@ -355,8 +355,8 @@ def test_high_rate_file_uses_2x_when_asked(tmp_path):
     # 96 kHz: 2x reaches 192 kHz (Annex 2); 1/4-rate sine at 45 deg still reads its peak
     fs = 96000
     x = faded_sine(4, 0.5, 45.0, seconds=0.3, fs=fs)
-    m, _, _ = measure_array(tmp_path, x, fs=fs, options=MeasureOptions(true_peak_oversample=2))
-    assert m["true_peak_oversample_factor"] == 2
+    m, _, _ = measure_array(tmp_path, x, fs=fs, options=MeasureOptions(true_peak_oversampling=2))
+    assert m["true_peak_oversampling_factor"] == 2
     assert m["true_peak_dbtp"] == pytest.approx(db(0.5), abs=0.05)
 
 

@@ -38,52 +38,12 @@ line in :data:`masterqc.judge.JUDGES`.  For each requirement it calls
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 from decimal import ROUND_HALF_DOWN, ROUND_HALF_UP, Decimal
-from typing import Any
 
+from masterqc.contract import STATUSES, Finding  # noqa: F401  (the typed finding of the result contract)
 from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
 
-STATUSES = ("pass", "warn", "fail", "skipped", "error")
 MAX_DECIMALS = 6
-
-
-@dataclass
-class Finding:
-    """One judged requirement (see the module docstring for the fields' rules)."""
-
-    check: str
-    status: str
-    message: str
-    measured: Any = None
-    limit: str | None = None
-    miss: float | None = None
-    unit: str | None = None
-    severity: str | None = None
-    where_s: list = field(default_factory=list)
-    measured_raw: Any = None
-    #: decimals the value was judged and is shown at (None for non-numeric checks)
-    decimals: int | None = None
-    #: the measured value exactly as judged, with its unit ("-0.9 dBTP"); show this text
-    measured_text: str | None = None
-    #: the numeric limits in the finding's unit (None for an open side or a non-numeric check);
-    #: a target with tolerance gives target - tolerance and target + tolerance
-    limit_low: float | None = None
-    limit_high: float | None = None
-
-    def __post_init__(self):
-        if self.status not in STATUSES:
-            raise ValueError(f"unknown finding status {self.status!r}")
-
-    def to_dict(self) -> dict:
-        """Plain JSON-ready dict (the ``findings`` items of the result contract)."""
-        return {"check": self.check, "status": self.status, "severity": self.severity,
-                "measured": self.measured, "measured_raw": self.measured_raw,
-                "measured_text": self.measured_text, "decimals": self.decimals,
-                "limit": self.limit, "limit_low": self.limit_low, "limit_high": self.limit_high,
-                "miss": self.miss, "unit": self.unit,
-                "message": self.message,
-                "where_s": [[float(a), float(b)] for a, b in self.where_s]}
 
 
 def verdict(findings) -> str:
@@ -170,6 +130,12 @@ def limit_text(req: Requirement, decimals: int | None = None) -> str:
 
 # ---------------------------------------------------------------- checks
 
+def _target(req: Requirement) -> float | None:
+    """The target of a target-with-tolerance requirement, else None."""
+    t = getattr(req, f"target_{req.unit}", None)
+    return float(t) if t is not None else None
+
+
 def skipped(check: str, message: str, limit: str | None = None, unit: str | None = None,
             severity: str | None = None) -> Finding:
     """A requirement that could not be judged (the message says why)."""
@@ -196,7 +162,10 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     sp, dsp = (" " if u else ""), (" " if du else "")
     if value is None:
         reason = missing_reason or "the measurement does not exist for this file"
-        return skipped(check, f"{what}: not judged, {reason}", limit=limit, unit=u, severity=req.severity)
+        f = skipped(check, f"{what}: not judged, {reason}", limit=limit, unit=u, severity=req.severity)
+        f.limit_low, f.limit_high = req.limits()
+        f.target, f.decimals, f.miss_unit = _target(req), dec, du
+        return f
     lo, hi = req.limits()
     # ties go towards the limit the value is nearer to (the one it could miss)
     if hi is not None and (lo is None or value >= (lo + hi) / 2.0):
@@ -207,7 +176,7 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     s = _dec(shown)
     base = dict(check=check, measured=shown, measured_raw=float(value), limit=limit, unit=u,
                 severity=req.severity, decimals=dec, measured_text=f"{fmt(shown, dec)}{sp}{u}",
-                limit_low=lo, limit_high=hi)
+                limit_low=lo, limit_high=hi, target=_target(req), miss_unit=du)
     missed_status = "fail" if req.severity == "fail" else "warn"
     note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
     where = [list(w) for w in (where_s or [])]
@@ -248,7 +217,7 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
     lo, hi = req.limits()
     base = dict(check=check, measured=None, measured_raw=None, limit=limit, unit=u,
                 severity=req.severity, decimals=dec, measured_text="below measurable range",
-                limit_low=lo, limit_high=hi)
+                limit_low=lo, limit_high=hi, target=_target(req), miss_unit=unit_label(difference_unit(req.unit)))
     if lo is not None:
         status = "fail" if req.severity == "fail" else "warn"
         note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"

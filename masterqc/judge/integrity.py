@@ -59,7 +59,7 @@ def _nonfinite(section, result: dict, m: dict) -> list[Finding]:
                     limit="none", measured_text=str(count),
                     where_s=[list(w) for w in (m.get("nonfinite_where_s") or [])],
                     message=f"{count} non-finite sample(s) (NaN {m.get('nan_sample_count', '?')}, "
-                            f"infinite {m.get('inf_sample_count', '?')}){_per_channel(result, m.get('nonfinite_samples_per_channel'))}"
+                            f"infinite {m.get('inf_sample_count', '?')}){_per_channel(result, m.get('nonfinite_sample_count_per_channel'))}"
                             f": first {shown}{more}; they were read as 0.0 for every other measurement")]
 
 
@@ -86,7 +86,7 @@ def _worst_balance(m: dict):
 
 
 def _lowest_depth(result: dict, m: dict):
-    per = m.get("effective_bit_depth_per_channel") or []
+    per = m.get("effective_bit_depth_bits_per_channel") or []
     labels = (result.get("format") or {}).get("channel_layout") or [f"ch{i + 1}" for i in range(len(per))]
     known = [(v, lab) for v, lab in zip(per, labels) if v is not None]
     return min(known) if known else None
@@ -99,11 +99,11 @@ def judge(section, result: dict) -> list[Finding]:
     if s.nonfinite_samples:
         out += _nonfinite(s, result, m)
     if s.clipped_runs is not None:
-        f = check_limits("integrity.clipped_runs", "clipped runs", m.get("clipped_runs"), s.clipped_runs,
+        f = check_limits("integrity.clipped_runs", "clipped runs", m.get("clipped_run_count"), s.clipped_runs,
                          where_s=m.get("clipped_run_where_s") or [],
-                         missing_reason=_MISSING.format(key="clipped_runs"))
+                         missing_reason=_MISSING.format(key="clipped_run_count"))
         if f.status in ("warn", "fail"):
-            _add_detail(f, _per_channel(result, m.get("clipped_runs_per_channel"))
+            _add_detail(f, _per_channel(result, m.get("clipped_run_count_per_channel"))
                         + f"; longest run {m.get('clipped_run_longest_samples')} samples")
         out.append(f)
     if s.over_full_scale_samples is not None:
@@ -146,7 +146,7 @@ def judge(section, result: dict) -> list[Finding]:
     if s.effective_bit_depth is not None:
         low = _lowest_depth(result, m)
         what = f"effective bit depth (lowest channel, {low[1]})" if low else "effective bit depth"
-        reason = _why(m, "effective_bit_depth_per_channel", "every channel is digital silence")
+        reason = _why(m, "effective_bit_depth_bits_per_channel", "every channel is digital silence")
         out.append(check_limits("integrity.effective_bit_depth", what, low[0] if low else None,
                                 s.effective_bit_depth, missing_reason=reason))
     mono = ((result.get("format") or {}).get("channels") or 0) < 2
@@ -169,11 +169,10 @@ def judge(section, result: dict) -> list[Finding]:
                                 missing_reason=_why(m, "phase_correlation_min",
                                                     "no channel pair, or no window above the level floor")))
     if s.phase_correlation_below is not None:
-        share = m.get("phase_correlation_below_share")
         out.append(check_limits("integrity.phase_correlation_below", "share of time below the phase threshold",
-                                None if share is None else 100.0 * share, s.phase_correlation_below,
+                                m.get("phase_correlation_below_percent"), s.phase_correlation_below,
                                 where_s=m.get("phase_correlation_below_where_s") or [],
-                                missing_reason=_why(m, "phase_correlation_below_share",
+                                missing_reason=_why(m, "phase_correlation_below_percent",
                                                     "no channel pair, or no window above the level floor")))
     if s.level_balance is not None:
         worst = _worst_balance(m)

@@ -2,10 +2,8 @@
 
 from __future__ import annotations
 
+from masterqc.contract import SHORT_PROGRAMME_S
 from masterqc.judge.core import Finding, check_below_measurable, check_limits
-
-#: below this duration a loudness-range figure is shown with a caution (EBU R 128)
-SHORT_PROGRAMME_S = 60.0
 
 _SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
 

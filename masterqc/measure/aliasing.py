@@ -41,6 +41,7 @@ import math
 
 import numpy as np
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import BOOLEAN, BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult
 from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundamental, refine_peaks
 
@@ -291,37 +292,41 @@ class AliasingAnalyzer(Analyzer):
 
     name = "aliasing"
     measurement_schema = {
-        "aliasing_detected": BOOLEAN_OR_NULL,
-        "aliasing_score": {
+        "aliasing_detected": measured(BOOLEAN_OR_NULL, NO_UNIT,
+            'folded (aliased) partials found; null when not assessable'),
+        "aliasing_score": measured({
             **NUMBER_OR_NULL,
             "description": ("alias-to-harmonic energy ratio, dB: power of the alias lines found at the "
-                            "predicted fold frequencies |k*f0 - m*fs| over the harmonic power, on the tonal "
-                            "frames where alias lines were found; null when no alias line was found above "
-                            "the floor (then aliasing_detail.score_upper_bound_db gives the floor-limited "
-                            "upper bound) or nothing was assessable"),
-        },
-        "aliasing_assessable": BOOLEAN,
-        "aliasing_detail": {
+            "predicted fold frequencies |k*f0 - m*fs| over the harmonic power, on the tonal "
+            "frames where alias lines were found; null when no alias line was found above "
+            "the floor (then aliasing_detail.score_upper_bound_db gives the floor-limited "
+            "upper bound) or nothing was assessable"),
+            }, 'db',
+            'alias-to-harmonic energy ratio on tonal frames with alias lines; null when none found or not assessable'),
+        "aliasing_assessable": measured(BOOLEAN, NO_UNIT,
+            'the material had tonal frames on which aliasing could be assessed'),
+        "aliasing_detail": measured({
             "type": "object",
             "properties": {
-                "reason": {"type": ["string", "null"]},
-                "tonal_frames": {"type": "integer"},
-                "assessable_frames": {"type": "integer"},
-                "frames_with_alias_lines": {"type": "integer"},
-                "median_f0_hz": NUMBER_OR_NULL,
-                "alias_lines_found": {"type": "integer"},
-                "fold_positions_tested": {"type": "integer"},
-                "score_upper_bound_db": {
-                    **NUMBER_OR_NULL,
-                    "description": ("when aliasing_score is null on assessable material: the highest "
-                                    "alias-to-harmonic ratio, dB, that alias lines escaping detection at "
-                                    "every fold position tested could reach (floor-limited)"),
-                },
-                "folded_partials": {"type": "integer"},
-                "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
-                "fold_examples": {"type": "array", "items": {"type": "object"}},
+            "reason": {"type": ["string", "null"]},
+            "tonal_frames": {"type": "integer"},
+            "assessable_frames": {"type": "integer"},
+            "frames_with_alias_lines": {"type": "integer"},
+            "median_f0_hz": NUMBER_OR_NULL,
+            "alias_lines_found": {"type": "integer"},
+            "fold_positions_tested": {"type": "integer"},
+            "score_upper_bound_db": {
+            **NUMBER_OR_NULL,
+            "description": ("when aliasing_score is null on assessable material: the highest "
+            "alias-to-harmonic ratio, dB, that alias lines escaping detection at "
+            "every fold position tested could reach (floor-limited)"),
             },
-        },
+            "folded_partials": {"type": "integer"},
+            "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
+            "fold_examples": {"type": "array", "items": {"type": "object"}},
+            },
+            }, NO_UNIT,
+            'the aliasing assessment in detail'),
     }
 
     def __init__(self, info, options):

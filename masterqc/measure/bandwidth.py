@@ -64,6 +64,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, TIME_RANGES, array_of
 
 #: standard rates a master may have been made at (Hz)
@@ -148,21 +149,32 @@ MAX_CANDIDATES = 6
 SEGMENT_MIN_FRAMES = 10
 
 MEASUREMENT_SCHEMA = {
-    "effective_bandwidth_hz": NUMBER_OR_NULL,
-    "bandwidth_edge": {"enum": ["cliff", "rolloff", None]},
-    "bandwidth_edge_depth_db": NUMBER_OR_NULL,
-    "bandwidth_edge_slope_db_per_khz": NUMBER_OR_NULL,
-    "upsampled_from_hz": {"type": ["integer", "null"]},
-    "upsampled_confidence": NUMBER_OR_NULL,
-    "band_limit_hz": NUMBER_OR_NULL,
-    "untestable_source_rates_hz": array_of({"type": "integer"}),
-    "bandwidth_note": STRING_OR_NULL,
-    "bandwidth_segments": array_of({"type": "object", "required": ["start_s", "end_s", "upsampled_from_hz"],
-                                    "properties": {"start_s": {"type": "number"}, "end_s": {"type": "number"},
-                                                   "upsampled_from_hz": {"type": ["integer", "null"]},
-                                                   "upsampled_confidence": NUMBER_OR_NULL,
-                                                   "effective_bandwidth_hz": NUMBER_OR_NULL}}),
-    "upsampled_where_s": TIME_RANGES,
+    "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
+        'highest frequency with content clearly above the floor (at a cliff, its -6 dB point)'),
+    "bandwidth_edge": measured({"enum": ["cliff", "rolloff", None]}, NO_UNIT,
+        'shape of the top edge of the content: cliff (converter filter) or rolloff'),
+    "bandwidth_edge_depth_db": measured(NUMBER_OR_NULL, 'db',
+        'depth of the edge below the content under it'),
+    "bandwidth_edge_slope_db_per_khz": measured(NUMBER_OR_NULL, 'db',
+        'steepness of the edge, dB per kHz'),
+    "upsampled_from_hz": measured({"type": ["integer", "null"]}, 'hz',
+        'standard rate whose Nyquist frequency a converter cliff sits at; null when none'),
+    "upsampled_confidence": measured(NUMBER_OR_NULL, 'fraction',
+        'confidence of the upsampling verdict, 0..1'),
+    "band_limit_hz": measured(NUMBER_OR_NULL, 'hz',
+        'frequency of a steep low-pass no standard rate explains; null when none'),
+    "untestable_source_rates_hz": measured(array_of({"type": "integer"}), 'hz',
+        'standard rates whose Nyquist cannot be tested on this material'),
+    "bandwidth_note": measured(STRING_OR_NULL, NO_UNIT,
+        'what the bandwidth figures counted, in words'),
+    "bandwidth_segments": measured(array_of({"type": "object", "required": ["start_s", "end_s", "upsampled_from_hz"],
+        "properties": {"start_s": {"type": "number"}, "end_s": {"type": "number"},
+        "upsampled_from_hz": {"type": ["integer", "null"]},
+        "upsampled_confidence": NUMBER_OR_NULL,
+        "effective_bandwidth_hz": NUMBER_OR_NULL}}), NO_UNIT,
+        'the bandwidth assessment per stretch of the file'),
+    "upsampled_where_s": measured(TIME_RANGES, 's',
+        'time ranges where upsampling was found'),
 }
 
 

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from masterqc.contract import measured
 from masterqc.measure.base import INTEGER_OR_NULL, Analyzer, AnalyzerResult, array_of
 
 #: a float file whose grid is finer than this reads its container depth
@@ -43,8 +44,10 @@ class BitDepthAnalyzer(Analyzer):
 
     name = "bit_depth"
     measurement_schema = {
-        "effective_bit_depth": INTEGER_OR_NULL,
-        "effective_bit_depth_per_channel": array_of(INTEGER_OR_NULL),
+        "effective_bit_depth_bits": measured(INTEGER_OR_NULL, 'bits',
+            'bits of resolution the highest non-silent channel uses; null when all silent'),
+        "effective_bit_depth_bits_per_channel": measured(array_of(INTEGER_OR_NULL), 'bits',
+            'bits of resolution each channel uses; null for a silent channel'),
     }
 
     def __init__(self, info, options):
@@ -83,7 +86,7 @@ class BitDepthAnalyzer(Analyzer):
     def finish(self):
         per = [self._channel_depth(c) for c in range(self.info.channels)]
         known = [x for x in per if x is not None]
-        m = {"effective_bit_depth": max(known) if known else None,
-             "effective_bit_depth_per_channel": per}
+        m = {"effective_bit_depth_bits": max(known) if known else None,
+             "effective_bit_depth_bits_per_channel": per}
         return AnalyzerResult(measurements=m, settings={"method": "float grid (frexp)" if self.info.is_float
                                                         else "OR of integer codes"})

@@ -30,6 +30,7 @@ import math
 import numpy as np
 from scipy import signal
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
 from masterqc.measure.kweight import kweighting_sos
@@ -75,20 +76,34 @@ class ChannelRelationAnalyzer(Analyzer):
 
     name = "channels"
     measurement_schema = {
-        "dual_mono": BOOLEAN_OR_NULL,
-        "identical_channel_pairs": STRING_PAIRS,
-        "inverted_polarity": BOOLEAN_OR_NULL,
-        "inverted_polarity_pairs": STRING_PAIRS,
-        "channel_pairs": STRING_PAIRS,
-        "channel_correlation_per_pair": array_of(NUMBER_OR_NULL),
-        "phase_correlation_min": NUMBER_OR_NULL,
-        "phase_correlation_min_per_pair": array_of(NUMBER_OR_NULL),
-        "phase_correlation_below_share": NUMBER_OR_NULL,
-        "phase_correlation_below_s": NUMBER_OR_NULL,
-        "phase_correlation_below_share_per_pair": array_of(NUMBER_OR_NULL),
-        "phase_correlation_below_where_s": TIME_RANGES,
-        "level_balance_lu": NUMBER_OR_NULL,
-        "level_balance_lu_per_pair": array_of(NUMBER_OR_NULL),
+        "dual_mono": measured(BOOLEAN_OR_NULL, NO_UNIT,
+            'the first channel pair is sample-identical; null for one channel or silence'),
+        "identical_channel_pairs": measured(STRING_PAIRS, NO_UNIT,
+            'channel pairs that are sample-identical'),
+        "inverted_polarity": measured(BOOLEAN_OR_NULL, NO_UNIT,
+            "a channel pair's whole-file correlation is at or below inverted_polarity_correlation"),
+        "inverted_polarity_pairs": measured(STRING_PAIRS, NO_UNIT,
+            'the channel pairs in inverted polarity'),
+        "channel_pairs": measured(STRING_PAIRS, NO_UNIT,
+            'the channel pairs compared (L/R, Ls/Rs, ...)'),
+        "channel_correlation_per_pair": measured(array_of(NUMBER_OR_NULL), 'corr',
+            'whole-file correlation of each pair'),
+        "phase_correlation_min": measured(NUMBER_OR_NULL, 'corr',
+            'lowest phase correlation in any 100 ms window of any pair'),
+        "phase_correlation_min_per_pair": measured(array_of(NUMBER_OR_NULL), 'corr',
+            'lowest phase correlation of each pair'),
+        "phase_correlation_below_percent": measured(NUMBER_OR_NULL, 'percent',
+            'share of time of the first pair below phase_correlation_threshold'),
+        "phase_correlation_below_s": measured(NUMBER_OR_NULL, 's',
+            'time of the first pair below phase_correlation_threshold'),
+        "phase_correlation_below_percent_per_pair": measured(array_of(NUMBER_OR_NULL), 'percent',
+            'share of time below the threshold, each pair'),
+        "phase_correlation_below_where_s": measured(TIME_RANGES, 's',
+            'time ranges of the first pair below the threshold'),
+        "level_balance_lu": measured(NUMBER_OR_NULL, 'lu',
+            'K-weighted level difference of the most unbalanced pair (first minus second)'),
+        "level_balance_lu_per_pair": measured(array_of(NUMBER_OR_NULL), 'lu',
+            'K-weighted level difference of each pair'),
     }
     series_schema = {
         "phase_correlation": {"type": "object", "required": ["pair", "hop_s", "values"],
@@ -266,6 +281,7 @@ class ChannelRelationAnalyzer(Analyzer):
             dual = bool(first in identical) if self.nonzero[first[0]] or self.nonzero[first[1]] else None
         else:
             dual = None
+        pct_per = [None if v is None else 100.0 * v for v in share_per]
         m = {
             "dual_mono": dual,
             "identical_channel_pairs": [self._name(p) for p in identical],
@@ -275,10 +291,10 @@ class ChannelRelationAnalyzer(Analyzer):
             "channel_correlation_per_pair": whole,
             "phase_correlation_min": min(known_min) if known_min else None,
             "phase_correlation_min_per_pair": min_per,
-            "phase_correlation_below_share": share_per[0] if share_per else None,
+            "phase_correlation_below_percent": pct_per[0] if pct_per else None,
             "phase_correlation_below_s": (float(self.below_frames[0]) / fs
                                           if self.pairs and self.valid[0] else None),
-            "phase_correlation_below_share_per_pair": share_per,
+            "phase_correlation_below_percent_per_pair": pct_per,
             "phase_correlation_below_where_s": [[a / fs, b / fs] for a, b in self.below_where],
             "level_balance_lu": max(known_bal, key=abs) if known_bal else None,
             "level_balance_lu_per_pair": balance,

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (INTEGER, INTEGER_LIST, INTEGER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
 from masterqc.measure.runs import MAX_EVENTS, RunTracker, merge_ranges
@@ -66,14 +67,22 @@ class ClippingAnalyzer(Analyzer):
 
     name = "clipping"
     measurement_schema = {
-        "clipped_runs": INTEGER,
-        "clipped_runs_per_channel": INTEGER_LIST,
-        "clipped_samples_per_channel": INTEGER_LIST,
-        "clipped_run_longest_samples": INTEGER,
-        "clipped_run_where_s": TIME_RANGES,
-        "clipped_run_events": array_of(RUN_EVENT),
-        "over_full_scale_sample_count": INTEGER_OR_NULL,
-        "over_full_scale_samples_per_channel": {"type": ["array", "null"], "items": {"type": "integer"}},
+        "clipped_run_count": measured(INTEGER, 'count',
+            'runs of consecutive full-scale samples at least clip_min_run_samples long, all channels'),
+        "clipped_run_count_per_channel": measured(INTEGER_LIST, 'count',
+            'clipped runs in each channel'),
+        "clipped_sample_count_per_channel": measured(INTEGER_LIST, 'count',
+            'samples inside clipped runs in each channel'),
+        "clipped_run_longest_samples": measured(INTEGER, 'samples',
+            'length of the longest clipped run'),
+        "clipped_run_where_s": measured(TIME_RANGES, 's',
+            'time ranges of the clipped runs'),
+        "clipped_run_events": measured(array_of(RUN_EVENT), NO_UNIT,
+            'the clipped runs, one record each (channel, start, length, polarity)'),
+        "over_full_scale_sample_count": measured(INTEGER_OR_NULL, 'count',
+            'float files: samples beyond +-1.0; null for integer PCM'),
+        "over_full_scale_sample_count_per_channel": measured({"type": ["array", "null"], "items": {"type": "integer"}}, 'count',
+            'samples beyond full scale in each channel; null for integer PCM'),
     }
 
     def __init__(self, info, options):
@@ -126,14 +135,14 @@ class ClippingAnalyzer(Analyzer):
         self.events.sort(key=lambda e: (e["start_s"], e["channel"]))
         where = merge_ranges([(e["start_s"], e["end_s"]) for e in self.events])
         m = {
-            "clipped_runs": int(self.runs.sum()),
-            "clipped_runs_per_channel": self.runs.tolist(),
-            "clipped_samples_per_channel": self.samples.tolist(),
+            "clipped_run_count": int(self.runs.sum()),
+            "clipped_run_count_per_channel": self.runs.tolist(),
+            "clipped_sample_count_per_channel": self.samples.tolist(),
             "clipped_run_longest_samples": self.longest,
             "clipped_run_where_s": where,
             "clipped_run_events": self.events,
             "over_full_scale_sample_count": int(self.overs.sum()) if self.info.is_float else None,
-            "over_full_scale_samples_per_channel": self.overs.tolist() if self.info.is_float else None,
+            "over_full_scale_sample_count_per_channel": self.overs.tolist() if self.info.is_float else None,
         }
         settings = {"min_run_samples": self.min_run, "threshold_below_full_scale_db": self.threshold_db,
                     "upper_level": self.upper, "lower_level": self.lower,

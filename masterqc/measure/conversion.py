@@ -29,6 +29,7 @@ import numpy as np
 from scipy.ndimage import uniform_filter1d
 from scipy.signal import firwin, upfirdn
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import array_of
 from masterqc.measure.oversample import TruePeakMeter, choose_factor
@@ -59,7 +60,10 @@ _ENTRY = {
     },
 }
 
-MEASUREMENT_SCHEMA = {"conversions": array_of(_ENTRY)}
+MEASUREMENT_SCHEMA = {
+    "conversions": measured(array_of(_ENTRY), NO_UNIT,
+        'per target rate: energy above its Nyquist, fold frequencies, true peak after conversion'),
+}
 
 
 
@@ -197,7 +201,7 @@ class ConversionTracker:
         for t in targets:
             frac = Fraction(t, self.fs)
             rs = StreamingResampler(frac.numerator, frac.denominator, self.channels)
-            factor = choose_factor(t, getattr(options, "true_peak_oversample", 4))
+            factor = choose_factor(t, getattr(options, "true_peak_oversampling", 4))
             design = self.design if (self.design != "annex2" or factor == 4) else "kaiser"
             meter = TruePeakMeter(t, self.channels, factor, design)
             self.stages.append((t, rs, meter))

@@ -21,6 +21,7 @@ import math
 import numpy as np
 from scipy import signal
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import amplitude_db, power_ratio_db
 from masterqc.measure.base import (INTEGER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST, Analyzer,
                                    AnalyzerResult)
@@ -109,11 +110,16 @@ class DcOffsetAnalyzer(Analyzer):
 
     name = "dc_offset"
     measurement_schema = {
-        "dc_offset_dbfs": NUMBER_OR_NULL,
-        "dc_offset_dbfs_per_channel": NUMBER_OR_NULL_LIST,
-        "dc_offset_sign_per_channel": INTEGER_LIST,
-        "subsonic_energy_db": NUMBER_OR_NULL,
-        "subsonic_energy_db_per_channel": NUMBER_OR_NULL_LIST,
+        "dc_offset_dbfs": measured(NUMBER_OR_NULL, 'dbfs',
+            'mean level (DC) of the worst channel; null when every mean is exactly zero'),
+        "dc_offset_dbfs_per_channel": measured(NUMBER_OR_NULL_LIST, 'dbfs',
+            'mean level of each channel'),
+        "dc_offset_sign_per_channel": measured(INTEGER_LIST, NO_UNIT,
+            "sign of each channel's mean (-1, 0, +1)"),
+        "subsonic_energy_db": measured(NUMBER_OR_NULL, 'db',
+            "energy below 20 Hz relative to the channel's total, worst channel"),
+        "subsonic_energy_db_per_channel": measured(NUMBER_OR_NULL_LIST, 'db',
+            'energy below 20 Hz relative to the total, each channel'),
     }
 
     def __init__(self, info, options):

@@ -16,6 +16,7 @@ import time
 import numpy as np
 
 from masterqc import __version__
+from masterqc.contract import RESULT_FORMAT_VERSION
 from masterqc.audio.container import timecode_metadata
 from masterqc.audio.reader import open_stream
 from masterqc.errors import AudioReadError
@@ -344,6 +345,7 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     metadata["problems"] = container.problems
     metadata.update(timecode_metadata(container, fmt["sample_rate_hz"], options.timecode_fps))
     result = {
+        "result_format": RESULT_FORMAT_VERSION,
         "tool": {"name": "masterqc", "version": __version__},
         "file": facts,
         "format": fmt,

@@ -62,6 +62,7 @@ import math
 
 import numpy as np
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult, array_of)
 
@@ -398,20 +399,22 @@ class ImagingAnalyzer(Analyzer):
 
     name = "imaging"
     measurement_schema = {
-        "imaging_detected": BOOLEAN_OR_NULL,
-        "imaging": array_of({
+        "imaging_detected": measured(BOOLEAN_OR_NULL, NO_UNIT,
+            'mirror images of an unfiltered upsampler found; null when untestable'),
+        "imaging": measured(array_of({
             "type": "object",
             "properties": {
-                "source_rate_hz": {"type": "number"},
-                "coherence": NUMBER_OR_NULL,
-                "image_level_db": NUMBER_OR_NULL,
-                "z_score": NUMBER_OR_NULL,
-                "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
-                "reason": {"type": ["string", "null"]},
-                "channel": {"type": ["string", "null"]},
+            "source_rate_hz": {"type": "number"},
+            "coherence": NUMBER_OR_NULL,
+            "image_level_db": NUMBER_OR_NULL,
+            "z_score": NUMBER_OR_NULL,
+            "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
+            "reason": {"type": ["string", "null"]},
+            "channel": {"type": ["string", "null"]},
             },
             "required": ["source_rate_hz", "coherence", "image_level_db", "verdict"],
-        }),
+            }), NO_UNIT,
+            'the imaging test per candidate source rate'),
     }
 
     def __init__(self, info, options):

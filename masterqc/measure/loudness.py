@@ -44,6 +44,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import sosfilt
 
+from masterqc.contract import measured
 from masterqc.measure.base import (INTEGER, NUMBER_OR_NULL, Analyzer,
                                    AnalyzerResult)
 from masterqc.measure.kweight import MAX_RATE_HZ as KW_MAX_RATE_HZ
@@ -505,20 +506,34 @@ class LoudnessAnalyzer(Analyzer):
 
     name = "loudness"
     measurement_schema = {
-        "integrated_lufs": NUMBER_OR_NULL,
-        "relative_gate_lufs": NUMBER_OR_NULL,
-        "gating_block_count": INTEGER,
-        "gated_block_count": INTEGER,
-        "loudness_range_lu": NUMBER_OR_NULL,
-        "loudness_range_low_lufs": NUMBER_OR_NULL,
-        "loudness_range_high_lufs": NUMBER_OR_NULL,
-        "loudness_range_gate_lufs": NUMBER_OR_NULL,
-        "loudness_range_value_count": INTEGER,
-        "max_momentary_lufs": NUMBER_OR_NULL,
-        "max_momentary_end_s": NUMBER_OR_NULL,
-        "max_short_term_lufs": NUMBER_OR_NULL,
-        "max_short_term_end_s": NUMBER_OR_NULL,
-        "loudness_analysed_s": NUMBER_OR_NULL,
+        "integrated_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            'integrated (programme) loudness, ITU-R BS.1770 gated; null for silence or below the -70 LUFS gate'),
+        "relative_gate_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            'relative gate of the integrated loudness (-10 LU below the absolute-gated loudness)'),
+        "loudness_block_count": measured(INTEGER, 'count',
+            '400 ms gating blocks in the programme, before any gate'),
+        "loudness_block_above_gates_count": measured(INTEGER, 'count',
+            'gating blocks above both the absolute and the relative gate (those the integrated loudness averages)'),
+        "loudness_range_lu": measured(NUMBER_OR_NULL, 'lu',
+            'loudness range, EBU Tech 3342'),
+        "loudness_range_low_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            '10th percentile of the gated short-term loudness (low end of the range)'),
+        "loudness_range_high_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            '95th percentile of the gated short-term loudness (high end of the range)'),
+        "loudness_range_gate_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            'relative gate of the loudness range (-20 LU)'),
+        "loudness_range_value_count": measured(INTEGER, 'count',
+            'short-term values above both range gates'),
+        "max_momentary_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            'highest momentary (400 ms) loudness, windows stepped every 1 ms'),
+        "max_momentary_end_s": measured(NUMBER_OR_NULL, 's',
+            'end time of the loudest momentary window'),
+        "max_short_term_lufs": measured(NUMBER_OR_NULL, 'lufs',
+            'highest short-term (3 s) loudness, windows stepped every 1 ms'),
+        "max_short_term_end_s": measured(NUMBER_OR_NULL, 's',
+            'end time of the loudest short-term window'),
+        "loudness_analysed_s": measured(NUMBER_OR_NULL, 's',
+            'duration the loudness meter analysed'),
     }
     series_schema = {
         "loudness_time_s": {"type": "array", "items": {"type": "number"}},
@@ -552,7 +567,7 @@ class LoudnessAnalyzer(Analyzer):
     def finish(self) -> AnalyzerResult:
         if self.meter is None:
             measurements = {key: None for key in self.measurement_schema}
-            measurements.update(gating_block_count=0, gated_block_count=0, loudness_range_value_count=0)
+            measurements.update(loudness_block_count=0, loudness_block_above_gates_count=0, loudness_range_value_count=0)
             series = {"loudness_time_s": [], "momentary_lufs": [], "short_term_lufs": [],
                       "gating_block_histogram": gating_block_histogram([])}
             return AnalyzerResult(measurements, series, {"standards": STANDARDS, "not_measured": self.unsupported})
@@ -562,8 +577,8 @@ class LoudnessAnalyzer(Analyzer):
         measurements = {
             "integrated_lufs": g.integrated_lufs,
             "relative_gate_lufs": g.relative_gate_lufs,
-            "gating_block_count": g.blocks_total,
-            "gated_block_count": g.blocks_gated,
+            "loudness_block_count": g.blocks_total,
+            "loudness_block_above_gates_count": g.blocks_gated,
             "loudness_range_lu": lra.range_lu,
             "loudness_range_low_lufs": lra.low_lufs,
             "loudness_range_high_lufs": lra.high_lufs,

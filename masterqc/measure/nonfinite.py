@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import INTEGER, INTEGER_LIST, TIME_RANGES, Analyzer, AnalyzerResult, array_of
 from masterqc.measure.runs import merge_ranges
 
@@ -31,12 +32,18 @@ class NonFiniteAnalyzer(Analyzer):
     name = "nonfinite"
     raw_input = True
     measurement_schema = {
-        "nonfinite_sample_count": INTEGER,
-        "nonfinite_samples_per_channel": INTEGER_LIST,
-        "nan_sample_count": INTEGER,
-        "inf_sample_count": INTEGER,
-        "nonfinite_first_positions": array_of(POSITION),
-        "nonfinite_where_s": TIME_RANGES,
+        "nonfinite_sample_count": measured(INTEGER, 'count',
+            'NaN and infinite samples, all channels'),
+        "nonfinite_sample_count_per_channel": measured(INTEGER_LIST, 'count',
+            'non-finite samples in each channel'),
+        "nan_sample_count": measured(INTEGER, 'count',
+            'NaN samples'),
+        "inf_sample_count": measured(INTEGER, 'count',
+            'infinite samples'),
+        "nonfinite_first_positions": measured(array_of(POSITION), NO_UNIT,
+            'the first non-finite samples (kind, channel, frame, time)'),
+        "nonfinite_where_s": measured(TIME_RANGES, 's',
+            'time ranges holding non-finite samples'),
     }
 
     def __init__(self, info, options):
@@ -72,7 +79,7 @@ class NonFiniteAnalyzer(Analyzer):
         fs = self.info.sample_rate_hz
         m = {
             "nonfinite_sample_count": int(self.per_channel.sum()),
-            "nonfinite_samples_per_channel": self.per_channel.tolist(),
+            "nonfinite_sample_count_per_channel": self.per_channel.tolist(),
             "nan_sample_count": self.nan,
             "inf_sample_count": self.inf,
             "nonfinite_first_positions": self.first,

@@ -27,7 +27,7 @@ class MeasureOptions:
     #: override of the channel labels, e.g. ("L", "R", "C", "LFE", "Ls", "Rs")
     channel_layout: tuple | None = None
     #: true-peak oversampling factor: 4, 8 or 16 (ITU-R BS.1770-5 Annex 2 asks for at least 4x at 48 kHz)
-    true_peak_oversample: int = 4
+    true_peak_oversampling: int = 4
     #: ceiling against which the times of true-peak overs are reported
     true_peak_ceiling_dbtp: float = -1.0
     #: target rates whose conversion safety is assessed (issue: sampling integrity)

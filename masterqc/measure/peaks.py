@@ -18,6 +18,7 @@ import math
 
 import numpy as np
 
+from masterqc.contract import measured
 from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import (INTEGER, NUMBER, NUMBER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST,
                                    TIME_RANGES, Analyzer, AnalyzerResult)
@@ -69,9 +70,12 @@ class SamplePeakAnalyzer(Analyzer):
 
     name = "sample_peak"
     measurement_schema = {
-        "sample_peak_dbfs": NUMBER_OR_NULL,
-        "sample_peak_dbfs_per_channel": NUMBER_OR_NULL_LIST,
-        "sample_peak_linear_per_channel": NUMBER_LIST,
+        "sample_peak_dbfs": measured(NUMBER_OR_NULL, 'dbfs',
+            'highest absolute sample value of any channel'),
+        "sample_peak_dbfs_per_channel": measured(NUMBER_OR_NULL_LIST, 'dbfs',
+            'sample peak of each channel'),
+        "sample_peak_linear_per_channel": measured(NUMBER_LIST, 'ratio',
+            'sample peak of each channel as a linear amplitude (1.0 = full scale)'),
     }
 
     def __init__(self, info, options):
@@ -93,14 +97,14 @@ class SamplePeakAnalyzer(Analyzer):
 class TruePeakAnalyzer(Analyzer):
     """True peak per channel (dBTP), overs against the ceiling, display envelope.
 
-    Options used: ``true_peak_oversample`` (requested factor; the factor used is
+    Options used: ``true_peak_oversampling`` (requested factor; the factor used is
     never below BS.1770-5 Annex 2's minimum for the rate: 4x up to 48 kHz, 2x up
     to 96 kHz, 1x above), ``true_peak_ceiling_dbtp`` and ``true_peak_filter``
     ("kaiser", default, or "annex2" for the standard's example filter, 4x).
 
     Keys: ``true_peak_dbtp`` (highest channel) and ``..._per_channel`` (None for
     an all-zero channel); ``true_peak_linear_per_channel``;
-    ``true_peak_oversample_factor``; ``true_peak_underread_max_db``, the worst
+    ``true_peak_oversampling_factor``; ``true_peak_underread_max_db``, the worst
     under-read of a single sine peak up to 0.45*fs at any sub-sample position,
     computed from the filter actually used (grid loss and passband loss);
     ``true_peak_ceiling_dbtp`` (the ceiling the overs refer to);
@@ -116,15 +120,24 @@ class TruePeakAnalyzer(Analyzer):
 
     name = "true_peak"
     measurement_schema = {
-        "true_peak_dbtp": NUMBER_OR_NULL,
-        "true_peak_dbtp_per_channel": NUMBER_OR_NULL_LIST,
-        "true_peak_linear_per_channel": NUMBER_LIST,
-        "true_peak_oversample_factor": INTEGER,
-        "true_peak_underread_max_db": NUMBER,
-        "true_peak_ceiling_dbtp": NUMBER,
-        "true_peak_over_count": INTEGER,
-        "true_peak_over_range_count": INTEGER,
-        "true_peak_over_ranges_s": TIME_RANGES,
+        "true_peak_dbtp": measured(NUMBER_OR_NULL, 'dbtp',
+            'true peak of the highest channel, band-limited oversampling (ITU-R BS.1770 Annex 2)'),
+        "true_peak_dbtp_per_channel": measured(NUMBER_OR_NULL_LIST, 'dbtp',
+            'true peak of each channel'),
+        "true_peak_linear_per_channel": measured(NUMBER_LIST, 'ratio',
+            'true peak of each channel as a linear amplitude'),
+        "true_peak_oversampling_factor": measured(INTEGER, 'factor',
+            'oversampling factor used for the true peak'),
+        "true_peak_underread_max_db": measured(NUMBER, 'db',
+            'worst-case under-read of the interpolation filter at this factor'),
+        "true_peak_ceiling_dbtp": measured(NUMBER, 'dbtp',
+            'level above which overs are located'),
+        "true_peak_over_count": measured(INTEGER, 'count',
+            'oversampled samples above the ceiling'),
+        "true_peak_over_range_count": measured(INTEGER, 'count',
+            'time ranges holding overs'),
+        "true_peak_over_ranges_s": measured(TIME_RANGES, 's',
+            'time ranges [start, end] holding overs'),
     }
     series_schema = {
         "true_peak_envelope_dbtp": NUMBER_OR_NULL_LIST,
@@ -134,7 +147,7 @@ class TruePeakAnalyzer(Analyzer):
     def __init__(self, info, options):
         super().__init__(info, options)
         self.rate = float(info.sample_rate_hz)
-        self.factor = choose_factor(self.rate, getattr(options, "true_peak_oversample", 4))
+        self.factor = choose_factor(self.rate, getattr(options, "true_peak_oversampling", 4))
         self.design = getattr(options, "true_peak_filter", "kaiser")
         if self.design == "annex2" and self.factor != 4:
             self.design = "kaiser"
@@ -204,7 +217,7 @@ class TruePeakAnalyzer(Analyzer):
             "true_peak_dbtp": linear_to_db(peak.max()) if peak.size else None,
             "true_peak_dbtp_per_channel": [linear_to_db(v) for v in peak],
             "true_peak_linear_per_channel": [float(v) for v in peak],
-            "true_peak_oversample_factor": int(self.factor),
+            "true_peak_oversampling_factor": int(self.factor),
             "true_peak_underread_max_db": round(underread, 4),
             "true_peak_ceiling_dbtp": self.ceiling_dbtp,
             "true_peak_over_count": int(self.over_count),

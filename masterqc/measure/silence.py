@@ -22,6 +22,7 @@ import math
 
 import numpy as np
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (INTEGER, INTEGER_LIST, NUMBER, NUMBER_OR_NULL, TIME_RANGES,
                                    Analyzer, AnalyzerResult, array_of)
 from masterqc.measure.clipping import clip_levels
@@ -62,15 +63,24 @@ class SilenceAnalyzer(Analyzer):
 
     name = "silence"
     measurement_schema = {
-        "head_silence_s": NUMBER,
-        "tail_silence_s": NUMBER,
-        "head_digital_silence_s": NUMBER,
-        "tail_digital_silence_s": NUMBER,
-        "dropout_count": INTEGER,
-        "dropout_count_per_channel": INTEGER_LIST,
-        "dropout_longest_s": NUMBER_OR_NULL,
-        "dropout_where_s": TIME_RANGES,
-        "dropout_events": array_of(DROPOUT_EVENT),
+        "head_silence_s": measured(NUMBER, 's',
+            'near-silence at the start (every channel at or below silence_threshold_dbfs)'),
+        "tail_silence_s": measured(NUMBER, 's',
+            'near-silence at the end'),
+        "head_digital_silence_s": measured(NUMBER, 's',
+            'digital silence (exact zeros) at the start'),
+        "tail_digital_silence_s": measured(NUMBER, 's',
+            'digital silence (exact zeros) at the end'),
+        "dropout_count": measured(INTEGER, 'count',
+            'mid-file runs of digital silence or of a frozen value, counted per channel'),
+        "dropout_count_per_channel": measured(INTEGER_LIST, 'count',
+            'dropouts in each channel'),
+        "dropout_longest_s": measured(NUMBER_OR_NULL, 's',
+            'longest dropout; null when there is none'),
+        "dropout_where_s": measured(TIME_RANGES, 's',
+            'time ranges of the dropouts'),
+        "dropout_events": measured(array_of(DROPOUT_EVENT), NO_UNIT,
+            'the dropouts, one record each (channel, start, end, kind)'),
     }
 
     def __init__(self, info, options):

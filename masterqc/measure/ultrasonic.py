@@ -39,6 +39,7 @@ import math
 import numpy as np
 from scipy.ndimage import median_filter
 
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import NUMBER_OR_NULL, TIME_RANGES, array_of
 from masterqc.measure.kweight import kweighting_gain_db
@@ -64,15 +65,21 @@ ABSOLUTE_GATE_LUFS = -70.0
 RELATIVE_GATE_LU = -10.0
 
 MEASUREMENT_SCHEMA = {
-    "ultrasonic_energy_db": NUMBER_OR_NULL,
-    "ultrasonic_energy_max_3s_db": NUMBER_OR_NULL,
-    "ultrasonic_energy_max_3s_where_s": TIME_RANGES,
-    "ultrasonic_from_hz": NUMBER_OR_NULL,
-    "ultrasonic_tones": array_of({"type": "object", "required": ["frequency_hz", "level_dbfs"],
-                                  "properties": {"frequency_hz": {"type": "number"},
-                                                 "level_dbfs": {"type": "number"},
-                                                 "channel": {"type": "integer"}}}),
-    "ultrasonic_loudness_change_lu": NUMBER_OR_NULL,
+    "ultrasonic_energy_db": measured(NUMBER_OR_NULL, 'db',
+        'energy from ultrasonic_from_hz to Nyquist relative to the audible band, whole file; null at 48 kHz and below'),
+    "ultrasonic_energy_max_3s_db": measured(NUMBER_OR_NULL, 'db',
+        'the same in the worst 3 s window'),
+    "ultrasonic_energy_max_3s_where_s": measured(TIME_RANGES, 's',
+        'time range of that worst window'),
+    "ultrasonic_from_hz": measured(NUMBER_OR_NULL, 'hz',
+        'lower edge of the ultrasonic band'),
+    "ultrasonic_tones": measured(array_of({"type": "object", "required": ["frequency_hz", "level_dbfs"],
+        "properties": {"frequency_hz": {"type": "number"},
+        "level_dbfs": {"type": "number"},
+        "channel": {"type": "integer"}}}), NO_UNIT,
+        'stationary tones above the ultrasonic edge (frequency, peak level, channel)'),
+    "ultrasonic_loudness_change_lu": measured(NUMBER_OR_NULL, 'lu',
+        'change of integrated loudness that removing the ultrasonic band would cause'),
 }
 
 

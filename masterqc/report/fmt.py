@@ -11,30 +11,15 @@ from __future__ import annotations
 import math
 import re
 
-#: key suffix -> (unit shown, decimals)
-UNIT_SUFFIXES = [
-    ("_lufs", "LUFS", 1),
-    ("_lkfs", "LKFS", 1),
-    ("_lu", "LU", 1),
-    ("_dbtp", "dBTP", 1),
-    ("_dbfs", "dBFS", 1),
-    ("_db", "dB", 1),
-    ("_khz", "kHz", 2),
-    ("_hz", "Hz", 0),
-    ("_ms", "ms", 1),
-    ("_s", "s", 3),
-    ("_bytes", "bytes", 0),
-    ("_bits", "bits", 0),
-    ("_samples", "samples", 0),
-    ("_frames", "frames", 0),
-    ("_percent", "%", 2),
-    ("_pct", "%", 2),
-    ("_ratio", "", 3),
-    ("_count", "", 0),
-]
+from masterqc.contract import UNITS
 
-#: unit -> decimals used where only the unit is known (e.g. a finding's ``unit``)
-UNIT_DECIMALS = {u: d for _s, u, d in UNIT_SUFFIXES if u}
+#: key suffix -> (unit shown, decimals), from the one unit table (:data:`masterqc.contract.UNITS`),
+#: longest suffix first so ``_dbtp`` is tried before ``_db``
+UNIT_SUFFIXES = [(f"_{u.code}", u.label, u.decimals)
+                 for u in sorted(UNITS.values(), key=lambda u: len(u.code), reverse=True)]
+
+#: unit shown -> decimals, where only the unit is known (e.g. a finding's ``unit``)
+UNIT_DECIMALS = {u.label: u.decimals for u in UNITS.values() if u.label}
 
 #: key words rendered in the trade's spelling when a key is turned into a label
 _WORDS = {

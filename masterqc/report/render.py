@@ -204,4 +204,8 @@ def load_result(path) -> dict:
             raise UsageError(f"{p}: not a masterqc result (key {key!r} is missing or not an object)")
     if not isinstance(result.get("findings", []), list):
         raise UsageError(f"{p}: key 'findings' must be a list")
-    return result
+    from masterqc.contract import ResultFormatError, upgrade_result
+    try:
+        return upgrade_result(result, str(p))  # an older saved result is upgraded, a newer one refused
+    except ResultFormatError as exc:
+        raise UsageError(str(exc)) from None

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from masterqc.contract import unit_of_key
+
 
 def _fmt(value, unit="", digits=1):
     if value is None:
@@ -11,15 +13,17 @@ def _fmt(value, unit="", digits=1):
     return f"{value}{(' ' + unit) if unit else ''}"
 
 
-# (key, label, unit, digits) shown by ``masterqc measure`` in this order when present
-TABLE_ROWS = [
-    ("integrated_lufs", "Integrated loudness", "LUFS", 1),
-    ("loudness_range_lu", "Loudness range", "LU", 1),
-    ("max_momentary_lufs", "Max momentary loudness", "LUFS", 1),
-    ("max_short_term_lufs", "Max short-term loudness", "LUFS", 1),
-    ("true_peak_dbtp", "True peak", "dBTP", 1),
-    ("sample_peak_dbfs", "Sample peak", "dBFS", 1),
+# (key, label) shown by ``masterqc measure`` in this order when present; unit and decimals
+# come from the key through the one unit table (masterqc.contract.UNITS)
+TABLE_KEYS = [
+    ("integrated_lufs", "Integrated loudness"),
+    ("loudness_range_lu", "Loudness range"),
+    ("max_momentary_lufs", "Max momentary loudness"),
+    ("max_short_term_lufs", "Max short-term loudness"),
+    ("true_peak_dbtp", "True peak"),
+    ("sample_peak_dbfs", "Sample peak"),
 ]
+TABLE_ROWS = [(key, label, unit_of_key(key).label, unit_of_key(key).decimals) for key, label in TABLE_KEYS]
 
 
 def measurement_table(result: dict) -> str:
@@ -43,7 +47,8 @@ def measurement_table(result: dict) -> str:
     if per:
         labels = fmt["channel_layout"]
         lines.append(f"{'True peak per channel':<{width}}  " +
-                     ", ".join(f"{lab} {_fmt(v, '', 1)}" for lab, v in zip(labels, per)) + " dBTP")
+                     ", ".join(f"{lab} {_fmt(v, '', unit_of_key('true_peak_dbtp').decimals)}"
+                               for lab, v in zip(labels, per)) + " dBTP")
     return "\n".join(lines) + "\n"
 
 

@@ -47,36 +47,9 @@ from pydantic import BaseModel, ConfigDict, Field, create_model, model_validator
 
 Severity = Literal["fail", "warn"]
 
-#: unit suffix -> (label shown to people, difference-unit suffix, decimals shown)
-UNITS: dict[str, tuple[str, str, int]] = {
-    "lufs": ("LUFS", "lu", 1),
-    "lu": ("LU", "lu", 1),
-    "dbtp": ("dBTP", "db", 1),
-    "dbfs": ("dBFS", "db", 1),
-    "db": ("dB", "db", 1),
-    "s": ("s", "s", 3),
-    "ms": ("ms", "ms", 1),
-    "hz": ("Hz", "hz", 0),
-    "percent": ("%", "percent", 1),
-    "count": ("", "count", 0),
-    "bits": ("bits", "bits", 0),
-    "corr": ("", "corr", 2),  # a correlation coefficient, -1 .. +1
-}
-
-
-def unit_label(unit: str) -> str:
-    """People's spelling of a unit suffix: ``"dbtp"`` -> ``"dBTP"``."""
-    return UNITS[unit][0] if unit in UNITS else unit
-
-
-def difference_unit(unit: str) -> str:
-    """Suffix of a difference of ``unit``: ``"lufs"`` -> ``"lu"``, ``"dbtp"`` -> ``"db"``."""
-    return UNITS[unit][1]
-
-
-def unit_decimals(unit: str) -> int:
-    """Decimal places a value in ``unit`` is shown with (and judged at)."""
-    return UNITS[unit][2] if unit in UNITS else 3
+# The one unit table (label, difference unit, decimals) lives in the neutral contract module;
+# the judge, the terminal table and the report read the same one.
+from masterqc.contract import UNITS, difference_unit, unit_decimals, unit_label  # noqa: E402,F401
 
 
 class SpecModel(BaseModel):

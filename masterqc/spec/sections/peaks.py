@@ -33,5 +33,5 @@ def measure_options(section: Section) -> dict:
     if section.true_peak is not None:
         out["true_peak_ceiling_dbtp"] = section.true_peak.max_dbtp
     if section.true_peak_oversampling is not None:
-        out["true_peak_oversample"] = section.true_peak_oversampling
+        out["true_peak_oversampling"] = section.true_peak_oversampling
     return out
