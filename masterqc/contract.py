@@ -208,6 +208,60 @@ class Finding(_Model):
         return out
 
 
+class Spectrogram(_Model):
+    """Channel-summed levels: ``db[i][j]`` at ``time_s[i]`` and ``frequency_hz[j]``."""
+
+    time_s: list[float]
+    frequency_hz: list[float]
+    db: list[list[float | None]]
+    note: str | None = None
+
+
+class PhaseCorrelationSeries(_Model):
+    pair: str
+    hop_s: float
+    window_s: float | None = None
+    values: list[float | None]
+
+
+class GatingBlockHistogram(_Model):
+    lower_lufs: float
+    bin_lu: float
+    bin: list[int]
+    count: list[int]
+    energy: list[float]
+
+
+class Series(BaseModel):
+    """Display series: each value list with the time (or frequency) axis it belongs to named.
+
+    ``momentary_lufs`` and ``short_term_lufs`` are at ``loudness_time_s``;
+    ``true_peak_envelope_dbtp`` at ``true_peak_envelope_time_s``;
+    ``ltas_db_per_channel[c][j]`` at ``ltas_hz[j]``.  Other series may be present.
+    """
+
+    model_config = ConfigDict(extra="allow")
+
+    loudness_time_s: list[float] | None = None
+    momentary_lufs: list[float | None] | None = None
+    short_term_lufs: list[float | None] | None = None
+    gating_block_histogram: GatingBlockHistogram | None = None
+    true_peak_envelope_time_s: list[float] | None = None
+    true_peak_envelope_dbtp: list[float | None] | None = None
+    ltas_hz: list[float] | None = None
+    ltas_db_per_channel: list[list[float | None]] | None = None
+    ltas_floor_db: list[float | None] | None = None
+    spectrogram: Spectrogram | None = None
+    phase_correlation: PhaseCorrelationSeries | None = None
+
+    def pair(self, values: str, axis: str):
+        """``(axis values, values)`` when both are present and of one length, else None."""
+        v, t = getattr(self, values), getattr(self, axis)
+        if not v or t is None or len(t) != len(v):
+            return None
+        return list(t), list(v)
+
+
 class ReadError(_Model):
     cause: str
     offset: int | None = None
@@ -234,7 +288,7 @@ class Result(_Model):
     format: Format | None = None
     metadata: dict | None = None
     measurements: dict | None = None
-    series: dict | None = None
+    series: Series | None = None
     settings: dict | None = None
     analysis: Analysis | None = None
     spec: SpecInfo | None = None
@@ -257,7 +311,10 @@ def result_json_schema(measurement_fields: dict, metadata_schema: dict, series_f
     props["metadata"] = metadata_schema
     props["measurements"] = {"type": "object", "properties": dict(measurement_fields),
                              "required": sorted(measurement_fields)}
-    props["series"] = {"type": "object", "properties": dict(series_fields)}
+    # the series model's fields, plus any further series an analyzer declares
+    series = schema["$defs"]["Series"]
+    for key, frag in series_fields.items():
+        series["properties"].setdefault(key, frag)
     # a master that could not be read carries only tool, file, spec, findings, verdict and error
     schema["if"] = {"required": ["verdict"], "properties": {"verdict": {"const": "error"}}}
     schema["then"] = {"required": ["spec", "findings", "verdict"]}
@@ -343,6 +400,14 @@ def parse_result(data: dict, source: str = "result") -> Result:
         first = exc.errors()[0]
         where = ".".join(str(p) for p in first.get("loc", ())) or "(top level)"
         raise ResultFormatError(f"{source}: not a valid masterqc result at {where}: {first.get('msg')}") from None
+
+
+def parse_series(data) -> Series:
+    """The typed :class:`Series` of a result's ``series`` (empty when absent or not series)."""
+    try:
+        return Series.model_validate(data or {})
+    except ValidationError:
+        return Series()
 
 
 def parse_finding(data) -> Finding | None:

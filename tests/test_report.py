@@ -307,3 +307,34 @@ def test_thinning_keeps_every_bucket_extreme():
     assert yy.max() == 3.5 and yy.min() == -90.0
     assert tt[int(np.argmax(yy))] == t[54_321]
     assert np.all(np.diff(tt) > 0)
+
+
+def test_view_reads_numbers_from_finding_attributes_never_from_text(judged):
+    """The plot band comes from limit_low/limit_high; the limit text is for people only (house rule)."""
+    result = copy.deepcopy(judged[2])
+    f = next(f for f in result["findings"] if f["check"] == "loudness.integrated")
+    f["limit"] = "-99.0 LUFS \u00b1 9.0 LU"  # text that disagrees with the numbers
+    f["limit_low"], f["limit_high"] = -21.5, -18.5
+    view = build_view(result)
+    assert "-21.5 to -18.5 LUFS" in view["loudness"]["note"]
+    assert "-99" not in view["loudness"]["note"]
+
+
+def test_view_adopts_no_unnamed_time_axis(judged):
+    """A series is drawn only against the axis its contract names (loudness_time_s), never a look-alike."""
+    result = copy.deepcopy(judged[2])
+    series = result["series"]
+    series["other_time_s"] = series.pop("loudness_time_s")  # same length, other name
+    view = build_view(result)
+    assert view["loudness"]["svg"] is None and "Not measured" in view["loudness"]["note"]
+
+
+def test_view_source_has_no_key_guessing():
+    """report/view.py reads the contract: no alias lists, no limit-text parsing, no substring search of checks."""
+    import inspect
+
+    from masterqc.report import view
+    src = inspect.getsource(view)
+    for banned in ("_first(", "_parse_band", "_finding_for", "normalization", "ltas_freq_hz", "leading_silence_s",
+                   "re.match(", "in check"):
+        assert banned not in src, banned

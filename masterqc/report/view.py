@@ -8,8 +8,12 @@ Rules:
 
 * Nothing is measured or judged here.  Numbers are formatted, series are
   handed to :mod:`masterqc.report.plots` as they arrive.
-* Every section renders from whatever keys are present; a section whose data
-  is absent says "not measured" (with the keys it looked for), never raises.
+* Every value is read from the typed result contract (:mod:`masterqc.contract`):
+  findings as :class:`~masterqc.contract.Finding` (numeric limits, target and
+  units as attributes), series as :class:`~masterqc.contract.Series` (each value
+  list with its named axis), measurements by their one key.  No key is guessed,
+  no text is parsed back into numbers.  A section whose data is absent says
+  "not measured" (naming the keys), never raises.
 * Strings from the file (metadata) are passed as plain text and escaped by the
   template; control characters are made visible (:func:`fmt.clean_text`).
 * Deterministic: the same result gives the same view (no clock is read).
@@ -20,8 +24,13 @@ from __future__ import annotations
 import os
 import re
 
+from masterqc.contract import SHORT_PROGRAMME_S, Finding, Normalisation, parse_finding, parse_series
 from masterqc.report import fmt
 from masterqc.report import plots
+
+#: the check ids whose limits the plots draw (exact ids the judge writes)
+CHECK_INTEGRATED = "loudness.integrated"
+CHECK_TRUE_PEAK = "peaks.true_peak"
 
 #: status -> (word shown, shape name used by the template's icon)
 STATUS_WORDS = {
@@ -69,16 +78,6 @@ def _get(d, *path, default=None):
     return d
 
 
-def _first(d: dict, keys, default=None):
-    """Value of the first of ``keys`` present (and not None) in ``d``."""
-    if not isinstance(d, dict):
-        return default
-    for k in keys:
-        if d.get(k) is not None:
-            return d[k]
-    return default
-
-
 def _is_number(v) -> bool:
     return isinstance(v, (int, float)) and not isinstance(v, bool)
 
@@ -90,10 +89,6 @@ def _is_ranges(v) -> bool:
 
 def _numbers(v) -> bool:
     return isinstance(v, list) and len(v) > 0 and all(x is None or _is_number(x) for x in v)
-
-
-def _nested_numbers(v) -> bool:
-    return isinstance(v, list) and len(v) > 0 and all(_numbers(x) for x in v)
 
 
 class TimeLabels:
@@ -192,40 +187,23 @@ def _check_label(check: str) -> str:
     return " \u00b7 ".join(fixed)
 
 
-def _measured_text(f: dict) -> str:
-    if f.get("measured_text"):
+def _measured_text(f: Finding) -> str:
+    if f.measured_text:
         # exactly the value the judge compared; value and unit kept on one line
-        return fmt.clean_text(f["measured_text"]).replace(" ", "\u00a0")
-    value = f.get("measured")
-    unit = f.get("unit") or ""
-    if value is None:
+        return fmt.clean_text(f.measured_text).replace(" ", "\u00a0")
+    if f.measured is None:
         return "n/a"
-    if _is_number(value) and not isinstance(value, int):
-        try:
-            from masterqc.judge.core import decimals_of
-            dec = max(fmt.UNIT_DECIMALS.get(unit, 1), decimals_of(value))
-        except ImportError:  # pragma: no cover - the judge ships with the package
-            dec = fmt.UNIT_DECIMALS.get(unit, 1)
-        return fmt.with_unit(float(value), unit, dec)
-    if isinstance(value, list):
-        return ", ".join(fmt.clean_text(v) for v in value) or "none"
-    return fmt.with_unit(value, unit) if _is_number(value) else fmt.clean_text(value)
+    if isinstance(f.measured, list):
+        return ", ".join(fmt.clean_text(v) for v in f.measured) or "none"
+    if _is_number(f.measured):
+        return fmt.with_unit(f.measured, f.unit or "", f.decimals)
+    return fmt.clean_text(f.measured)
 
 
-def _miss_text(f: dict) -> str:
-    miss = f.get("miss")
-    if not _is_number(miss):
+def _miss_text(f: Finding) -> str:
+    if not _is_number(f.miss):
         return ""
-    unit = f.get("unit") or ""
-    diff_unit = {"LUFS": "LU", "dBTP": "dB", "dBFS": "dB"}.get(unit, unit)
-    try:
-        from masterqc.judge.core import decimals_of
-        dec = max(fmt.UNIT_DECIMALS.get(unit, 1), decimals_of(miss))
-    except ImportError:  # pragma: no cover
-        dec = 1
-    if isinstance(f.get("decimals"), int):
-        dec = f["decimals"]  # the precision the judge compared at
-    return fmt.with_unit(float(miss), diff_unit, dec)
+    return fmt.with_unit(float(f.miss), f.miss_unit or "", f.decimals)
 
 
 def limit_display(limit) -> str:
@@ -236,27 +214,41 @@ def limit_display(limit) -> str:
     return text.replace("<=", "\u2264").replace(">=", "\u2265").replace(" .. ", " to ")
 
 
+def _findings(result: dict) -> list[Finding]:
+    """The result's findings as :class:`Finding`; an item that is not a finding becomes an error finding."""
+    out = []
+    for item in result.get("findings") or []:
+        f = parse_finding(item)
+        if f is None:
+            f = Finding(check=str(item.get("check", "")) if isinstance(item, dict) else "",
+                        status="error", message=f"not a valid finding in the result: {fmt.clean_text(item)[:200]}")
+        out.append(f)
+    return out
+
+
+def _finding(result: dict, check: str) -> Finding | None:
+    """The finding with this exact check id, or None."""
+    return next((f for f in _findings(result) if f.check == check), None)
+
+
 def findings_view(result: dict, labels: TimeLabels) -> list[dict]:
     """Rows of the findings table, worst first (stable within a status)."""
     rows = []
-    for i, f in enumerate(result.get("findings") or []):
-        if not isinstance(f, dict):
-            continue
-        status = f.get("status") if f.get("status") in STATUS_ORDER else "error"
-        word, shape = STATUS_WORDS[status]
-        where, n_where = where_text(f.get("where_s") or [], labels)
+    for i, f in enumerate(_findings(result)):
+        word, shape = STATUS_WORDS[f.status]
+        where, n_where = where_text(f.where_s, labels)
         rows.append({
-            "order": (STATUS_ORDER[status], i),
-            "status": status, "word": word, "shape": shape,
-            "check": fmt.clean_text(f.get("check", "")),
-            "label": _check_label(f.get("check", "")),
+            "order": (STATUS_ORDER[f.status], i),
+            "status": f.status, "word": word, "shape": shape,
+            "check": fmt.clean_text(f.check),
+            "label": _check_label(f.check),
             "measured": _measured_text(f),
-            "limit": limit_display(f.get("limit")),
+            "limit": limit_display(f.limit),
             "miss": _miss_text(f) or "\u2014",
             "where": where or "\u2014",
             "where_count": n_where,
-            "message": fmt.clean_text(f.get("message", "")),
-            "severity": f.get("severity") or "",
+            "message": fmt.clean_text(f.message),
+            "severity": f.severity or "",
         })
     rows.sort(key=lambda r: r["order"])
     return rows
@@ -394,127 +386,11 @@ def metadata_view(result: dict) -> dict:
     return {"rows": rows, "chunks": chunks, "problems": problems, "absent": ", ".join(absent)}
 
 
-# ----------------------------------------------------------------- series access
-
-_TIME_KEYS = ("time_s", "times_s", "t_s", "start_s_list")
-_HOP_KEYS = ("hop_s", "step_s", "interval_s", "resolution_s")
-
-
-def _stem(name: str) -> str:
-    for unit in ("_lufs", "_dbtp", "_dbfs", "_db"):
-        if name.endswith(unit):
-            return name[: -len(unit)]
-    return name
-
-
-def series_xy(result: dict, name: str, duration_s: float):
-    """``(times_s, values)`` of a display series, or None when absent.
-
-    Accepts the shapes analyzers use: a dict with a time list (``time_s``) or a
-    hop (``hop_s``, optional ``start_s``) and a value list; or a plain list
-    beside ``<stem>_time_s`` / ``<stem>_hop_s`` keys.  ``values`` may be a list
-    of numbers or a list of per-channel lists.  Without any time information the
-    values are spread evenly over the file's duration.
-    """
-    series = result.get("series") or {}
-    raw = series.get(name)
-    if raw is None:
-        raw = (result.get("measurements") or {}).get(name)
-        if not isinstance(raw, (list, dict)):
-            return None
-    times = hop = start = None
-    values = raw
-    if isinstance(raw, dict):
-        times = _first(raw, _TIME_KEYS)
-        hop = _first(raw, _HOP_KEYS)
-        start = _first(raw, ("start_s", "first_s", "offset_s"))
-        values = _first(raw, ("values", "value", "lufs", "dbtp", "db", "levels", "per_channel",
-                              name, _stem(name)))
-        if values is None:
-            n_expected = len(times) if isinstance(times, list) else None
-            for k, v in raw.items():
-                if k in _TIME_KEYS:
-                    continue
-                if (_numbers(v) or _nested_numbers(v)) and (n_expected is None or len(v) == n_expected
-                                                            or (_nested_numbers(v) and len(v[0]) == n_expected)):
-                    values = v
-                    break
-    else:
-        stem = _stem(name)
-        times = _first(series, (f"{stem}_time_s", f"{name}_time_s", f"{stem}_times_s"))
-        hop = _first(series, (f"{stem}_hop_s", f"{name}_hop_s"))
-        start = _first(series, (f"{stem}_start_s",))
-    if not (_numbers(values) or _nested_numbers(values)):
-        return None
-    n = len(values[0]) if _nested_numbers(values) else len(values)
-    if times is None and hop is None and not isinstance(raw, dict):
-        # a shared time axis (e.g. ``loudness_time_s`` for momentary and short-term): a key
-        # ending in ``_time_s`` whose first word matches the series', else any of the same length
-        first_word = name.split("_")[0]
-        candidates = sorted(k for k in series if k.endswith("_time_s") and _numbers(series[k])
-                            and len(series[k]) == n)
-        preferred = [k for k in candidates if k.split("_")[0] == first_word] + \
-                    [k for k in candidates if k.startswith("loudness_") and name.endswith("_lufs")]
-        chosen = (preferred or candidates or [None])[0]
-        times = series.get(chosen) if chosen else None
-    if _numbers(times) and len(times) == n:
-        t = [float(x) for x in times]
-    elif _is_number(hop) and hop > 0:
-        s0 = float(start) if _is_number(start) else 0.0
-        t = [s0 + i * float(hop) for i in range(n)]
-    else:
-        t = [duration_s * (i + 0.5) / n for i in range(n)] if n else []
-    return t, values
-
-
 # ----------------------------------------------------------------- plot sections
 
 def _not_measured(keys) -> str:
     """The sentence shown where a section's data is absent, naming the keys looked for."""
     return "Not measured: the result holds no " + " or ".join(f"\u201c{k}\u201d" for k in keys) + "."
-
-
-def _finding_band(f: dict):
-    """``(low, high, target)`` of a finding: its numeric ``limit_low``/``limit_high`` where the
-    result carries them, else parsed from the limit text (results written before those keys)."""
-    lo, hi = f.get("limit_low"), f.get("limit_high")
-    if _is_number(lo) or _is_number(hi):
-        lo = float(lo) if _is_number(lo) else None
-        hi = float(hi) if _is_number(hi) else None
-        target = (lo + hi) / 2.0 if lo is not None and hi is not None and "\u00b1" in str(f.get("limit")) else None
-        return (lo, hi, target)
-    return _parse_band(f.get("limit"))
-
-
-def _parse_band(limit: str | None):
-    """``(low, high, target)`` from a limit text of :func:`masterqc.judge.core.limit_text`."""
-    if not limit:
-        return None
-    num = r"([+\-\u2212]?\d+(?:\.\d+)?)"
-    text = str(limit).replace("\u2212", "-")
-    m = re.match(rf"^\s*{num}\s*\w*\s*(?:\u00b1|\+-|\+/-)\s*{num}", text)
-    if m:
-        t, tol = float(m.group(1)), float(m.group(2))
-        return (t - tol, t + tol, t)
-    m = re.match(rf"^\s*{num}\s*\.\.\s*{num}", text)
-    if m:
-        lo, hi = float(m.group(1)), float(m.group(2))
-        return (lo, hi, None)
-    m = re.match(rf"^\s*<=\s*{num}", text)
-    if m:
-        return (None, float(m.group(1)), None)
-    m = re.match(rf"^\s*>=\s*{num}", text)
-    if m:
-        return (float(m.group(1)), None, None)
-    return None
-
-
-def _finding_for(result: dict, words) -> dict | None:
-    for f in result.get("findings") or []:
-        check = str(f.get("check", "")).lower() if isinstance(f, dict) else ""
-        if all(w in check for w in words):
-            return f
-    return None
 
 
 def _rows_for(m: dict, keys) -> list[tuple[str, str]]:
@@ -523,19 +399,18 @@ def _rows_for(m: dict, keys) -> list[tuple[str, str]]:
 
 def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     m = result.get("measurements") or {}
-    mom = series_xy(result, "momentary_lufs", duration_s)
-    st = series_xy(result, "short_term_lufs", duration_s)
+    series = parse_series(result.get("series"))
+    mom = series.pair("momentary_lufs", "loudness_time_s")
+    st = series.pair("short_term_lufs", "loudness_time_s")
     rows = _rows_for(m, ["integrated_lufs", "loudness_range_lu", "max_momentary_lufs",
                          "max_short_term_lufs", "loudness_range_low_lufs", "loudness_range_high_lufs"])
     band = None
-    f = _finding_for(result, ["integrated"])
+    f = _finding(result, CHECK_INTEGRATED)
     note = ""
-    if f is not None:
-        parsed = _finding_band(f)
-        if parsed and (parsed[0] is not None or parsed[1] is not None):
-            band = (parsed[0], parsed[1])
+    if f is not None and (f.limit_low is not None or f.limit_high is not None):
+        band = (f.limit_low, f.limit_high)
     duration = _get(result, "format", "duration_s")
-    if _is_number(duration) and duration < 60.0 and _is_number(m.get("loudness_range_lu")):
+    if _is_number(duration) and duration < SHORT_PROGRAMME_S and _is_number(m.get("loudness_range_lu")):
         note = ("Loudness range is of little meaning for a programme under one minute "
                 "(EBU Tech 3342: not recommended under one minute). ")
     if mom is None and st is None:
@@ -555,11 +430,9 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
 
 
 def _ceiling(result: dict):
-    f = _finding_for(result, ["true_peak"]) or _finding_for(result, ["true", "peak"])
-    if f is not None:
-        parsed = _finding_band(f)
-        if parsed and parsed[1] is not None:
-            return parsed[1], "spec"
+    f = _finding(result, CHECK_TRUE_PEAK)
+    if f is not None and f.limit_high is not None:
+        return f.limit_high, "spec"
     v = (result.get("measurements") or {}).get("true_peak_ceiling_dbtp")
     if _is_number(v):
         return float(v), "measurement"
@@ -567,22 +440,8 @@ def _ceiling(result: dict):
 
 
 def _ranges_of(value) -> list:
-    """Time ranges from ``[[a, b], ...]`` or a list of dicts with ``start_s``/``end_s`` (or ``duration_s``)."""
-    if _is_ranges(value):
-        return [(float(a), float(b)) for a, b in value]
-    out = []
-    if isinstance(value, list):
-        for item in value:
-            if isinstance(item, dict) and _is_number(item.get("start_s")):
-                a = float(item["start_s"])
-                if _is_number(item.get("end_s")):
-                    b = float(item["end_s"])
-                elif _is_number(item.get("duration_s")):
-                    b = a + float(item["duration_s"])
-                else:
-                    b = a
-                out.append((a, b))
-    return out
+    """Time ranges ``[[start_s, end_s], ...]`` as tuples (empty when not ranges)."""
+    return [(float(a), float(b)) for a, b in value] if _is_ranges(value) else []
 
 
 def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
@@ -594,31 +453,20 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
         per = m.get(key)
         if _numbers(per):
             rows.append((fmt.label_of_key(key), ", ".join(
-                f"{fmt.clean_text(lab)} {fmt.number(v, 1)}" for lab, v in zip(ch or [f"ch{i + 1}" for i in range(len(per))], per))
+                f"{fmt.clean_text(lab)} {fmt.number(v, fmt.UNIT_DECIMALS[unit])}"
+                for lab, v in zip(ch or [f"ch{i + 1}" for i in range(len(per))], per))
                 + f"\u00a0{unit}"))
-    overs = _ranges_of(_first(m, ("true_peak_over_ranges_s", "true_peak_over_where_s"))
-                       or _first(result.get("series") or {}, ("true_peak_over_ranges_s",)) or [])
+    overs = _ranges_of(m.get("true_peak_over_ranges_s"))
     ceiling, source = _ceiling(result)
     if overs or "true_peak_over_ranges_s" in m:
         rows.append(("Overs above the ceiling", f"{len(overs)}" + (
             f" at or above {fmt.number(ceiling, 1)} dBTP" if ceiling is not None else "")))
-    env = series_xy(result, "true_peak_envelope_dbtp", duration_s)
+    env = parse_series(result.get("series")).pair("true_peak_envelope_dbtp", "true_peak_envelope_time_s")
     if env is None:
         return {"svg": None, "rows": rows, "present": bool(rows),
                 "note": _not_measured(["true_peak_envelope_dbtp"])}
-    t, values = env
-    if _nested_numbers(values):
-        # per channel when the outer list has one entry per channel, else per time step
-        if len(values) == len(ch) and len(values) != len(t):
-            envelopes = [(t, v) for v in values]
-            names = [fmt.clean_text(x) for x in ch]
-        else:
-            envelopes = [(t, [row[i] if i < len(row) else None for row in values]) for i in range(len(values[0]))]
-            names = [fmt.clean_text(x) for x in ch] if len(ch) == len(values[0]) else [
-                f"ch{i + 1}" for i in range(len(values[0]))]
-    else:
-        envelopes = [(t, values)]
-        names = ["all channels (max)"]
+    envelopes = [env]
+    names = ["all channels (max)"]
     svg = plots.true_peak_plot(duration_s, labels.axis(), envelopes, names, ceiling_dbtp=ceiling,
                                over_ranges=overs)
     note = ""
@@ -630,22 +478,7 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
 
 
 def _conversion_targets(result: dict) -> list[float]:
-    conv = _conversions_raw(result)
-    targets = []
-    for item in conv:
-        if isinstance(item, dict):
-            v = _first(item, ("target_hz", "target_rate_hz", "rate_hz", "sample_rate_hz"))
-            if _is_number(v):
-                targets.append(float(v))
-    def visit(block, depth):
-        if isinstance(block, dict) and depth < 3:
-            v = block.get("conversion_targets_hz", block.get("targets_hz"))
-            if _numbers(v):
-                targets.extend(float(x) for x in v)
-            for sub in block.values():
-                visit(sub, depth + 1)
-    visit(result.get("settings") or {}, 0)
-    return sorted(set(targets))
+    return sorted({float(c["target_rate_hz"]) for c in _conversions_raw(result) if _is_number(c.get("target_rate_hz"))})
 
 
 #: measurement keys shown beside the long-term spectrum, in this order of prefixes
@@ -663,15 +496,12 @@ def _spectral_order(key: str):
 def spectrum_view(result: dict) -> dict:
     fmt_ = result.get("format") or {}
     rate = int(fmt_.get("sample_rate_hz") or 0)
-    series = result.get("series") or {}
+    series = parse_series(result.get("series"))
     m = result.get("measurements") or {}
-    freqs = _first(series, ("ltas_hz", "ltas_freq_hz")) or _first(m, ("ltas_hz",))
-    per = _first(series, ("ltas_db_per_channel",)) or _first(m, ("ltas_db_per_channel",))
-    if isinstance(per, dict):
-        per = _first(per, ("values", "db"))
+    freqs, per = series.ltas_hz, series.ltas_db_per_channel
     rows = _rows_for(m, [k for k in sorted(m, key=_spectral_order) if k.startswith(_SPECTRAL_PREFIXES)
                          and not isinstance(m[k], (list, dict))])
-    if not (_numbers(freqs) and _nested_numbers(per)) or rate <= 0:
+    if not freqs or not per or any(len(row) != len(freqs) for row in per) or rate <= 0:
         return {"svg": None, "rows": rows, "present": bool(rows),
                 "note": _not_measured(["ltas_hz", "ltas_db_per_channel"])}
     ch = [fmt.clean_text(x) for x in (fmt_.get("channel_layout") or [])]
@@ -719,44 +549,23 @@ def _reference_lines(result: dict, rate: int) -> list[tuple[float, str]]:
 def spectrogram_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     fmt_ = result.get("format") or {}
     rate = int(fmt_.get("sample_rate_hz") or 0)
-    raw = (result.get("series") or {}).get("spectrogram")
-    if not isinstance(raw, dict) or rate <= 0:
+    sg = parse_series(result.get("series")).spectrogram
+    if sg is None or rate <= 0 or not sg.time_s or not sg.frequency_hz:
         return {"svg": None, "present": False, "note": _not_measured(["spectrogram"])}
-    times = _first(raw, _TIME_KEYS)
-    freqs = _first(raw, ("freq_hz", "freqs_hz", "frequency_hz", "frequencies_hz", "bin_hz", "bins_hz"))
-    values = _first(raw, ("db", "level_db", "power_db", "values_db", "magnitude_db", "values", "db_rows"))
-    note = ""
-    if isinstance(values, list) and values and _nested_numbers(values[0]):
-        # per channel: show the loudest channel in each cell (display choice, said below)
-        n_t, n_f = len(values[0]), len(values[0][0])
-        merged = []
-        for i in range(n_t):
-            row = []
-            for j in range(n_f):
-                cell = [c[i][j] for c in values if c[i][j] is not None]
-                row.append(max(cell) if cell else None)
-            merged.append(row)
-        values = merged
-        note = "Each cell shows the highest level of any channel. "
-    if not (_numbers(times) and _numbers(freqs) and _nested_numbers(values)):
-        return {"svg": None, "present": False, "note": _not_measured(["spectrogram"])}
-    if len(values) != len(times) and len(values) == len(freqs):
-        values = [list(col) for col in zip(*values)]
-    if len(values) != len(times) or any(len(r) != len(freqs) for r in values):
+    if len(sg.db) != len(sg.time_s) or any(len(r) != len(sg.frequency_hz) for r in sg.db):
         return {"svg": None, "present": False,
                 "note": "Spectrogram present but its axes do not match its values; not drawn."}
     lines = [(f, t) for f, t in _reference_lines(result, rate) if f < rate / 2.0]
-    svg = plots.spectrogram_plot(times, freqs, values, labels.axis(), duration_s, rate, lines)
-    if isinstance(raw.get("note"), str):
-        note += fmt.clean_text(raw["note"]).rstrip(".") + ". "
+    svg = plots.spectrogram_plot(sg.time_s, sg.frequency_hz, sg.db, labels.axis(), duration_s, rate, lines)
+    note = fmt.clean_text(sg.note).rstrip(".") + ". " if sg.note else ""
     return {"svg": svg, "present": True, "note": note + "Colour: dark is quiet, light is loud (cividis map); "
             "dashed lines at 20 kHz and each conversion target's Nyquist frequency."}
 
 
 # ----------------------------------------------------------------- events
 
-_SILENCE_HEAD = ("head_silence_s", "leading_silence_s", "silence_head_s")
-_SILENCE_TAIL = ("tail_silence_s", "trailing_silence_s", "silence_tail_s")
+#: located-event keys drawn in the "quiet" colour (silence and dropouts)
+_QUIET_EVENT_KEYS = {"dropout_where_s"}
 
 
 def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
@@ -768,12 +577,12 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
             ranges = _ranges_of(m[key])
             stem = key.rsplit("_where_s", 1)[0] if key.endswith("_where_s") else key.rsplit("_ranges_s", 1)[0]
             label = fmt.label_of_key(stem)
-            kind = "quiet" if "silence" in key or "dropout" in key else "info"
+            kind = "quiet" if key in _QUIET_EVENT_KEYS else "info"
             lanes.append((label, ranges, kind))
             table.append({"label": label, "count": str(len(ranges)),
                           "where": where_text([list(r) for r in ranges], labels)[0] or "none"})
-    head = _first(m, _SILENCE_HEAD)
-    tail = _first(m, _SILENCE_TAIL)
+    head = m.get("head_silence_s")
+    tail = m.get("tail_silence_s")
     if _is_number(head) or _is_number(tail):
         ranges = []
         if _is_number(head) and head > 0:
@@ -823,50 +632,9 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
 
 # ----------------------------------------------------------------- tables
 
-def _conversions_raw(result: dict) -> list:
-    conv = _first(result.get("measurements") or {}, ("conversions",))
-    if conv is None:
-        conv = result.get("conversions")
-    if isinstance(conv, dict):
-        items = []
-        for k in sorted(conv, key=str):
-            v = conv[k]
-            if isinstance(v, dict):
-                items.append({"target": k, **v})
-        return items
-    return conv if isinstance(conv, list) else []
-
-
-def records_table(records: list, first_keys=()) -> dict | None:
-    """A table (columns, rows of cells) from a list of flat dicts; units come from the keys."""
-    records = [r for r in records if isinstance(r, dict)]
-    if not records:
-        return None
-    keys = [k for k in first_keys if any(k in r for r in records)]
-    for r in records:
-        for k in r:
-            if k not in keys:
-                keys.append(k)
-    header = [fmt.label_of_key(k, with_unit_text=True) for k in keys]
-    rows = []
-    for r in records:
-        row = []
-        for k in keys:
-            v = r.get(k)
-            if isinstance(v, (dict,)) or (isinstance(v, list) and v and isinstance(v[0], dict)):
-                cell = fmt.clean_text(", ".join(f"{a}={b}" for a, b in (v.items() if isinstance(v, dict) else [])))\
-                    if isinstance(v, dict) else f"{len(v)} entries"
-            elif _is_ranges(v):
-                cell = f"{len(v)} ranges"
-            elif isinstance(v, bool):
-                cell = "yes" if v else "no"
-            elif v is None:
-                cell = "\u2014"
-            else:
-                cell = fmt.value_for_key(k, v)
-            row.append(cell)
-        rows.append(row)
-    return {"columns": header, "rows": rows}
+def _conversions_raw(result: dict) -> list[dict]:
+    conv = (result.get("measurements") or {}).get("conversions")
+    return [c for c in conv if isinstance(c, dict)] if isinstance(conv, list) else []
 
 
 def _khz_ranges(ranges, most: int = 4) -> str:
@@ -925,22 +693,21 @@ def conversions_view(result: dict) -> dict:
     note = ("n/a: the quantity does not exist for that target (e.g. no content above the target's "
             "Nyquist frequency, or a target above the file's own rate).")
     # the spec's true-peak ceiling of each deliverable, as judged, beside the measured value
-    judged = {f.get("check"): f for f in (result.get("findings") or []) if isinstance(f, dict)}
+    judged = {f.check: f for f in _findings(result)}
     verdicts = []
     for c in conv:
         t = c.get("target_rate_hz")
         f = judged.get(f"sampling.conversion_{int(t)}.true_peak") if _is_number(t) else None
-        if not f or f.get("status") not in ("pass", "warn", "fail"):
+        if f is None or f.status not in ("pass", "warn", "fail"):
             verdicts.append("not judged")
             continue
-        limit = fmt.clean_text(str(f.get("limit") or "")).replace("<=", "\u2264")
-        if f["status"] == "pass":
+        limit = limit_display(f.limit)
+        if f.status == "pass":
             verdicts.append(f"pass ({limit})")
-        elif _is_number(f.get("miss")):
-            verdicts.append(f"{f['status'].upper()}: {fmt.number(float(f['miss']), f.get('decimals') or 1)} dB "
-                            f"over ({limit})")
+        elif _is_number(f.miss):
+            verdicts.append(f"{f.status.upper()}: {_miss_text(f)} over ({limit})")
         else:
-            verdicts.append(f"{f['status'].upper()} ({limit})")
+            verdicts.append(f"{f.status.upper()} ({limit})")
     if any(v != "not judged" for v in verdicts) and "true_peak_after_dbtp" in known:
         at = known.index("true_peak_after_dbtp") + 1
         columns.insert(at, "Spec ceiling")
@@ -977,36 +744,23 @@ def headroom_sentence(norm: dict) -> str:
 
 
 def normalisation_view(result: dict) -> dict:
-    norm = result.get("normalisation")
-    if norm is None:
-        norm = result.get("normalization")
-    if isinstance(norm, dict) and any(k in norm for k, _l in _HEADROOM_ROWS):
-        rows = []
-        for key, label in _HEADROOM_ROWS:
-            if key in norm:
-                v = norm[key]
-                text = fmt.signed(v, 1) + "\u00a0dB" if key == "gain_db" and _is_number(v) else \
-                    fmt.value_for_key(key, v)
-                src = norm.get(key.replace("_lufs", "_source").replace("_dbtp", "_source"))
-                if key in ("target_lufs", "ceiling_dbtp") and src:
-                    text += f" (from {fmt.clean_text(src)})"
-                rows.append((label, text))
-        note = fmt.clean_text(norm["note"]) if norm.get("note") else ""
-        return {"table": None, "rows": rows, "sentence": headroom_sentence(norm), "note": note}
-    if isinstance(norm, dict):
-        items = norm.get("targets") if isinstance(norm.get("targets"), list) else None
-        if items is None:
-            scalar = {k: v for k, v in norm.items() if not isinstance(v, (dict, list))}
-            nested = [{"target": k, **v} for k, v in sorted(norm.items(), key=lambda kv: str(kv[0]))
-                      if isinstance(v, dict)]
-            items = nested or ([scalar] if scalar else [])
-        norm = items
-    table = records_table(norm if isinstance(norm, list) else [], ("target", "name", "target_lufs"))
-    if table is None:
+    try:
+        norm = Normalisation.model_validate(result.get("normalisation"))
+    except Exception:  # absent or not the headroom figures
         return {"table": None, "rows": [], "sentence": "",
                 "note": "Not computed: the result holds no \u201cnormalisation\u201d block "
                 "(masterqc check adds it from the spec's loudness target and true-peak ceiling)."}
-    return {"table": table, "rows": [], "sentence": "", "note": ""}
+    figures = norm.model_dump()
+    rows = []
+    for key, label in _HEADROOM_ROWS:
+        v = figures[key]
+        text = fmt.signed(v, 1) + "\u00a0dB" if key == "gain_db" and _is_number(v) else fmt.value_for_key(key, v)
+        src = {"target_lufs": norm.target_source, "ceiling_dbtp": norm.ceiling_source}.get(key)
+        if src:
+            text += f" (from {fmt.clean_text(src)})"
+        rows.append((label, text))
+    note = fmt.clean_text(norm.note) if norm.note else ""
+    return {"table": None, "rows": rows, "sentence": headroom_sentence(figures), "note": note}
 
 
 def provenance_view(result: dict) -> dict:
