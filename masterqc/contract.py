@@ -112,6 +112,33 @@ def measured(schema: dict, unit: str, meaning: str) -> dict:
     return {"description": meaning, **schema, "x-unit": unit}
 
 
+# ---------------------------------------------------------------- checks
+
+@dataclass(frozen=True)
+class Check:
+    """One numeric requirement a spec section declares, judged by :func:`masterqc.judge.core.judge_checks`.
+
+    ``spec_key``: the requirement's key in its section (``integrated``).
+    ``check``: the finding's check id (``loudness.integrated``).
+    ``measurement``: the measured field, a key of ``measurements`` or ``format.<key>``.
+    ``unit``: unit code of the measured field (must match the requirement's unit).
+    ``what``: the quantity in words, for messages.
+    ``null_means``: why the measured value can be null (the skipped finding says it).
+    ``where``: a measurement key of time ranges attached to a missed finding, or None.
+    ``below_gate_after_s``: for loudness values, a programme at least this long whose value
+        is null lies below the -70 LUFS gate (judged as below the measurable range, not skipped).
+    """
+
+    spec_key: str
+    check: str
+    measurement: str
+    unit: str
+    what: str
+    null_means: str
+    where: str | None = None
+    below_gate_after_s: float | None = None
+
+
 # ---------------------------------------------------------------- models
 
 Status = Literal["pass", "warn", "fail", "skipped", "error"]
@@ -155,9 +182,11 @@ class SpecFile(_Model):
 
 
 class SpecInfo(_Model):
-    name: str
-    path: str
-    sha256: str
+    """The spec a result was judged against; all null when no spec applied (a file no spec-map rule matches)."""
+
+    name: str | None
+    path: str | None
+    sha256: str | None
     files: list[SpecFile] | None = None
 
 

@@ -2,14 +2,11 @@
 
 from __future__ import annotations
 
-import sys
-import types
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from masterqc import judge as judge_pkg
 from masterqc.judge import judge
 from masterqc.judge.core import check_limits
 from masterqc.spec.loader import load_spec_text
@@ -137,14 +134,12 @@ def test_unknown_layout_is_not_judged(spec):
 
 
 def test_a_broken_section_judge_gives_an_error_finding(spec, monkeypatch):
-    broken = types.ModuleType("masterqc.judge._broken_for_test")
-
     def bad(section, result):
         raise KeyError("surprise")
 
-    broken.judge = bad
-    monkeypatch.setitem(sys.modules, broken.__name__, broken)
-    monkeypatch.setattr(judge_pkg, "JUDGES", [("peaks", broken.__name__)] + judge_pkg.JUDGES)
+    from masterqc import registry
+    monkeypatch.setattr(registry, "SECTIONS", [registry.SectionEntry("peaks", registry.peaks, bad)]
+                        + registry.SECTIONS)
     findings, verdict = judge(spec, result())
     assert verdict == "error"
     err = [f for f in findings if f.status == "error"]

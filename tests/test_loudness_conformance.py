@@ -345,7 +345,7 @@ def test_sample_rate_outside_kweighting_range_gives_nulls():
 # ---------------------------------------------------------------- streaming guarantees
 
 def test_block_size_independence(rng):
-    # design.md: results never depend on the block size (1 .. 65536 frames)
+    # house choice: results never depend on the block size (1 .. 65536 frames)
     fs = 8000
     x = rng.standard_normal((int(3.4 * fs), 2)) * np.linspace(0.01, 0.3, int(3.4 * fs))[:, None]
     ref, ref_s, _ = analyse(x, fs, block_frames=65536)

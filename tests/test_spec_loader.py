@@ -302,7 +302,7 @@ def test_a_new_section_plugs_in_with_one_registry_line(monkeypatch):
     import sys
     import types
 
-    from masterqc.spec import sections
+    from masterqc import registry
     from masterqc.spec.model import spec_model
     from masterqc.spec.types import SpecModel, ceiling
 
@@ -314,7 +314,7 @@ def test_a_new_section_plugs_in_with_one_registry_line(monkeypatch):
     mod.Section = Section
     mod.measure_options = lambda section: {"extra": {"hiss": section.hiss.max_db}}
     monkeypatch.setitem(sys.modules, mod.__name__, mod)
-    monkeypatch.setattr(sections, "SECTIONS", sections.SECTIONS + [("example", mod.__name__)])
+    monkeypatch.setattr(registry, "SECTIONS", registry.SECTIONS + [registry.SectionEntry("example", mod, None)])
     spec_model.cache_clear()
     try:
         s = load_spec_text(GOOD + "example:\n  hiss: {max_db: -60.0}\n").spec

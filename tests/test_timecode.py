@@ -1,4 +1,4 @@
-"""Timecode arithmetic (masterqc.audio.timecode) against analytic values.
+"""Timecode arithmetic (masterqc.timecode) against analytic values.
 
 Drop-frame rule (SMPTE ST 12-1, from memory): at 30000/1001 frames per second,
 frame labels 00 and 01 are skipped at the start of every minute except minutes
@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from masterqc.audio import timecode as tc
+from masterqc import timecode as tc
 
 RATES = list(tc.FRAME_RATES)
 

@@ -36,7 +36,7 @@ from dataclasses import dataclass, field
 
 from masterqc.audio import bext as _bext
 from masterqc.audio import isrc as _isrc
-from masterqc.audio import timecode as _tc
+from masterqc import timecode as _tc
 
 #: most bytes read from one text-like chunk (bext coding history, iXML, INFO, id3, Vorbis comments, AIFF text)
 MAX_TEXT_BYTES = 1 << 20

@@ -30,7 +30,7 @@ Writing a section judge
 A module ``masterqc/judge/<section>.py`` defines
 ``judge(section, result) -> list[Finding]`` (``section`` is the validated
 section model, ``result`` the measure result dict) and is registered with one
-line in :data:`masterqc.judge.JUDGES`.  For each requirement it calls
+line in :data:`masterqc.registry.SECTIONS`.  For each requirement it calls
 :func:`check_limits` (numeric requirements of :mod:`masterqc.spec.types`) or
 :func:`check_allowed` (allowed-values lists); a measured ``None`` gives
 ``skipped`` with the reason.  Judges are pure: no I/O, no printing.
@@ -40,7 +40,7 @@ from __future__ import annotations
 
 from decimal import ROUND_HALF_DOWN, ROUND_HALF_UP, Decimal
 
-from masterqc.contract import STATUSES, Finding  # noqa: F401  (the typed finding of the result contract)
+from masterqc.contract import STATUSES, Check, Finding  # noqa: F401  (the typed finding of the result contract)
 from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
 
 MAX_DECIMALS = 6
@@ -243,3 +243,45 @@ def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
     note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
     return Finding(status=status, message=f"{what} {show(value)} is not allowed (allowed: "
                                           f"{', '.join(show(v) for v in req.allowed)}){note}", **base)
+
+
+# ---------------------------------------------------------------- declared checks
+
+_NO_GATED_LOUDNESS = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
+
+
+def measured_field(result: dict, field: str) -> tuple[bool, object]:
+    """``(present, value)`` of a declared measurement field (``integrated_lufs`` or ``format.duration_s``)."""
+    if field.startswith("format."):
+        src, key = result.get("format") or {}, field[len("format."):]
+    else:
+        src, key = result.get("measurements") or {}, field
+    return key in src, src.get(key)
+
+
+def judge_checks(section, result: dict, checks) -> list[Finding]:
+    """Judge every declared :class:`Check` whose requirement the section sets, in order.
+
+    A field missing from the result is skipped naming it; a null value is skipped with the
+    check's ``null_means`` (or judged below the measurable range, see ``below_gate_after_s``).
+    """
+    out = []
+    duration = (result.get("format") or {}).get("duration_s")
+    for c in checks:
+        req = getattr(section, c.spec_key, None)
+        if req is None:
+            continue
+        if req.unit != c.unit:
+            raise ValueError(f"check {c.check}: requirement unit {req.unit!r} is not the measurement's {c.unit!r}")
+        present, value = measured_field(result, c.measurement)
+        if not present:
+            out.append(check_limits(c.check, c.what, None, req,
+                                    missing_reason=f"the measurement {c.measurement} is missing from the result"))
+            continue
+        if value is None and c.below_gate_after_s is not None and duration is not None \
+                and duration >= c.below_gate_after_s:
+            out.append(check_below_measurable(c.check, c.what, req, _NO_GATED_LOUDNESS))
+            continue
+        where = measured_field(result, c.where)[1] if c.where else None
+        out.append(check_limits(c.check, c.what, value, req, where_s=where or [], missing_reason=c.null_means))
+    return out

@@ -1,13 +1,10 @@
-"""Judge of the ``duration:`` section against ``result["format"]["duration_s"]``."""
+"""Judge of the ``duration:`` section against ``result["format"]["duration_s"]`` (checks declared by the section)."""
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_limits
+from masterqc.judge.core import Finding, judge_checks
+from masterqc.spec.sections.duration import CHECKS
 
 
 def judge(section, result: dict) -> list[Finding]:
-    out = []
-    if section.total is not None:
-        value = (result.get("format") or {}).get("duration_s")
-        out.append(check_limits("duration.total", "duration", value, section.total))
-    return out
+    return judge_checks(section, result, CHECKS)

@@ -10,9 +10,9 @@ offset in the message), ``metadata.bext``, ``metadata.bext_loudness.<field>``
 
 from __future__ import annotations
 
-from masterqc.audio import timecode as _tc
+from masterqc import timecode as _tc
 from masterqc.judge.core import Finding, check_limits, fmt, skipped
-from masterqc.spec.types import target
+from masterqc.spec.types import target, unit_label
 
 #: bext v2 field -> (check suffix, Tech 3285 name, measurement key, unit suffix, what is measured)
 BEXT_LOUDNESS = (
@@ -24,7 +24,6 @@ BEXT_LOUDNESS = (
     ("max_short_term_loudness_lufs", "max_short_term_loudness", "MaxShortTermLoudness", "max_short_term_lufs",
      "lufs", "max short-term loudness"),
 )
-_LABEL = {"lufs": "LUFS", "lu": "LU", "dbtp": "dBTP"}
 
 
 def _missed(severity: str) -> str:
@@ -127,7 +126,7 @@ def _bext_loudness(rule, meta, measurements) -> list[Finding]:
             else f"the measurement {mkey} is missing from the result"
         f = check_limits(check, f"bext {tech_name} against the measured {what}", measured, req,
                          missing_reason=why)
-        label = _LABEL[unit]
+        label = unit_label(unit)
         if f.status != "skipped":
             dec = f.decimals or 2
             diff = f.measured - stored

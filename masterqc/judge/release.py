@@ -1,6 +1,6 @@
 """Judge of the ``release:`` section against a release result.
 
-Not registered in :data:`masterqc.judge.JUDGES`: that list judges one file's
+Registered without a per-file judge in :data:`masterqc.registry.SECTIONS`: those judge one file's
 result, while this judges the figures of a whole release
 (:func:`masterqc.batch.releases.release_measurements`), once per release.
 ``release`` is the ``measurements`` dict of a release result:

@@ -105,7 +105,7 @@ class TimeLabels:
         self._tc = None
         if self.has_start:
             try:
-                from masterqc.audio import timecode as _tc
+                from masterqc import timecode as _tc
                 self._tc = _tc
                 self.fps_name = str(self.fps or _tc.DEFAULT_FPS)
                 _tc.frame_rate(self.fps_name)

@@ -2,7 +2,7 @@
 
 ``Spec`` has the document keys (``spec_version``, ``name``, ``description``,
 ``extends``) and one optional field per registered section
-(:data:`masterqc.spec.sections.SECTIONS`).  :func:`build_spec` validates a
+(:data:`masterqc.registry.SECTIONS`).  :func:`build_spec` validates a
 plain mapping (already merged over its ``extends:`` bases) and runs each
 section's ``resolve`` hook.
 """

@@ -8,7 +8,14 @@ from __future__ import annotations
 
 from pydantic import Field
 
+from masterqc.contract import Check
 from masterqc.spec.types import SpecModel, bounds
+
+#: the numeric checks of this section (judged by masterqc.judge.core.judge_checks)
+CHECKS = (
+    Check("total", "duration.total", "format.duration_s", "s", "duration",
+          "the measurement does not exist for this file"),
+)
 
 
 class Section(SpecModel):

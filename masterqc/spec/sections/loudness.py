@@ -11,7 +11,23 @@ from __future__ import annotations
 
 from pydantic import Field
 
+from masterqc.contract import Check
 from masterqc.spec.types import SpecModel, bounds, ceiling, target
+
+_SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
+
+#: the numeric checks of this section (judged by masterqc.judge.core.judge_checks)
+CHECKS = (
+    Check("integrated", "loudness.integrated", "integrated_lufs", "lufs", "integrated loudness", _SILENT,
+          below_gate_after_s=0.4),
+    Check("range", "loudness.range", "loudness_range_lu", "lu", "loudness range",
+          "too little gated short-term loudness to compute a range (programme shorter than 3 s or silent)"),
+    Check("max_momentary", "loudness.max_momentary", "max_momentary_lufs", "lufs", "maximum momentary loudness",
+          "the programme is shorter than one 400 ms block or silent", below_gate_after_s=0.4),
+    Check("max_short_term", "loudness.max_short_term", "max_short_term_lufs", "lufs",
+          "maximum short-term loudness", "the programme is shorter than one 3 s window or silent",
+          below_gate_after_s=3.0),
+)
 
 
 class Section(SpecModel):

@@ -26,7 +26,7 @@ from typing import Any, Literal
 
 from pydantic import Field, field_validator, model_validator
 
-from masterqc.audio import timecode as _tc
+from masterqc import timecode as _tc
 from masterqc.spec.types import Severity, SpecModel
 
 ALWAYS = True

@@ -15,7 +15,17 @@ from typing import Literal
 
 from pydantic import Field
 
+from masterqc.contract import Check
 from masterqc.spec.types import SpecModel, ceiling
+
+_SILENT = "the file is digital silence (no peak level exists)"
+
+#: the numeric checks of this section (judged by masterqc.judge.core.judge_checks)
+CHECKS = (
+    Check("true_peak", "peaks.true_peak", "true_peak_dbtp", "dbtp", "true peak", _SILENT,
+          where="true_peak_over_ranges_s"),
+    Check("sample_peak", "peaks.sample_peak", "sample_peak_dbfs", "dbfs", "sample peak", _SILENT),
+)
 
 
 class Section(SpecModel):
