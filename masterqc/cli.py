@@ -66,8 +66,10 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("--quiet", action="store_true", help="no progress display")
     m.set_defaults(func=cmd_measure)
 
-    s = sub.add_parser("schema", help="print the JSON Schema of the result object")
-    s.set_defaults(func=cmd_result_schema)
+    s = sub.add_parser("schema", help="print a JSON Schema: result (default), spec or runs (summary.json)")
+    s.add_argument("what", nargs="?", choices=SCHEMAS, default="result",
+                   help="result: the result object; spec: the delivery-spec format; runs: a run's summary.json")
+    s.set_defaults(func=cmd_schema)
 
     from masterqc import commands  # each later command adds its own sub-parser there
     commands.add_parsers(sub)
@@ -102,11 +104,30 @@ def cmd_measure(args) -> int:
     return EXIT_PASS
 
 
-def cmd_result_schema(args) -> int:
+#: the schema family of ``masterqc schema WHAT``
+SCHEMAS = ("result", "spec", "runs")
+
+
+def schema_for(what: str) -> dict:
+    """The JSON Schema ``masterqc schema WHAT`` prints."""
+    if what == "spec":
+        from masterqc.spec import spec_schema
+        return spec_schema()
+    if what == "runs":
+        from masterqc.batch.summary_schema import summary_schema
+        return summary_schema()
     from masterqc.schema import result_schema
-    json.dump(result_schema(), sys.stdout, indent=2)
+    return result_schema()
+
+
+def cmd_schema(args) -> int:
+    json.dump(schema_for(getattr(args, "what", "result")), sys.stdout, indent=2)
     sys.stdout.write("\n")
     return EXIT_PASS
+
+
+def cmd_result_schema(args) -> int:  # kept for callers of the old name
+    return cmd_schema(args)
 
 
 def main(argv=None) -> int:

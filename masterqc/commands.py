@@ -115,7 +115,7 @@ def _add_spec(sub) -> None:
     v.add_argument("--print", dest="print_resolved", action="store_true",
                    help="print each spec as resolved (bases merged, defaults filled) in JSON")
     v.set_defaults(func=cmd_spec_validate)
-    sc = ssub.add_parser("schema", help="print the JSON Schema of the delivery-spec format")
+    sc = ssub.add_parser("schema", help="deprecated spelling of 'masterqc schema spec'")
     sc.set_defaults(func=cmd_spec_schema)
 
 
@@ -152,8 +152,10 @@ def _count_requirements(spec) -> int:
 
 
 def cmd_spec_schema(args) -> int:
-    from masterqc.spec import spec_schema
-    json.dump(spec_schema(), sys.stdout, indent=2)
+    sys.stderr.write("masterqc: note: 'masterqc spec schema' is deprecated; use 'masterqc schema spec' "
+                     "(see CHANGELOG.md)\n")
+    from masterqc.cli import schema_for
+    json.dump(schema_for("spec"), sys.stdout, indent=2)
     sys.stdout.write("\n")
     return 0
 

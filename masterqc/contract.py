@@ -410,11 +410,6 @@ def upgrade_result(data: dict, source: str = "result") -> dict:
         for old, new in FRACTION_TO_PERCENT_1_TO_2.items():
             if old in m and new not in m:
                 m[new] = _percent(m.pop(old))
-    settings = out.get("settings")
-    if isinstance(settings, dict):
-        for block in settings.values():
-            if isinstance(block, dict) and "oversample_factor" in block:
-                block.setdefault("oversampling_factor", block.pop("oversample_factor"))
     out = {"result_format": RESULT_FORMAT_VERSION, **{k: v for k, v in out.items() if k != "result_format"}}
     return out
 

@@ -149,3 +149,19 @@ def test_annex2_filter_only_at_4x(tmp_path, capsys):
     assert code == 0
     # Tech 3341 tolerance for a 1 kHz sine: true peak within +0.2/-0.4 dB of the 0.5 peak (-6.02 dBFS).
     assert json.loads(out)["measurements"]["true_peak_dbtp"] == pytest.approx(-6.02, abs=0.2)
+
+
+def test_schema_family_and_old_spellings_with_a_note(capsys):
+    """House choice: one command family ``masterqc schema result|spec|runs``; the old spellings still print
+    the same schema, with a deprecation note on standard error."""
+    from masterqc.cli import main
+    outs = {}
+    for what in ("result", "spec", "runs"):
+        assert main(["schema", what]) == 0
+        outs[what] = json.loads(capsys.readouterr().out)
+    assert outs["result"]["title"] == "masterqc result" and outs["spec"]["title"] == "masterqc delivery spec"
+    for old, what in ((["spec", "schema"], "spec"), (["runs", "schema"], "runs")):
+        assert main(old) == 0
+        captured = capsys.readouterr()
+        assert json.loads(captured.out) == outs[what] and "deprecated" in captured.err
+    assert main(["schema"]) == 0 and json.loads(capsys.readouterr().out) == outs["result"]

@@ -94,11 +94,12 @@ def add_runs_parser(sub) -> None:
                                               "its first 8 or more hex digits)"))
     hi.add_argument("file")
     hi.set_defaults(func=cmd_runs_history)
-    sc = rs.add_parser("schema", help="print the JSON Schema of summary.json")
+    sc = rs.add_parser("schema", help="deprecated spelling of 'masterqc schema runs'")
     sc.set_defaults(func=cmd_runs_schema)
 
 
 def cmd_runs_schema(args) -> int:
+    sys.stderr.write("masterqc: note: 'masterqc runs schema' is deprecated; use 'masterqc schema runs'\n")
     from masterqc.batch.summary_schema import summary_schema
     json.dump(summary_schema(), sys.stdout, indent=2)
     sys.stdout.write("\n")
