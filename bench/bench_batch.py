@@ -101,7 +101,7 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
 
     from masterqc.batch.runner import BatchConfig
-    from masterqc.pipeline import parse_formats
+    from masterqc.formats import parse_formats
 
     if OUT.exists():
         shutil.rmtree(OUT)

@@ -86,7 +86,8 @@ def cmd_measure(args) -> int:
                          "use --true-peak-oversampling 4 or the kaiser filter")
     if args.threads is not None and args.threads < 1:
         raise UsageError("--threads must be at least 1")
-    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
+    from masterqc.commands import layout_option
+    layout = layout_option(args.layout)
     extra = {"threads": args.threads} if args.threads else {}
     options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
                              true_peak_oversampling=args.true_peak_oversampling,

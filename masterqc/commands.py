@@ -11,8 +11,9 @@ import sys
 
 
 def add_parsers(sub) -> None:
-    """Add the sub-parsers of check, spec, report, demo and runs."""
+    """Add the sub-parsers of check, judge, spec, report, demo and runs."""
     _add_check(sub)
+    _add_judge(sub)
     _add_spec(sub)
     _add_report(sub)
     _add_demo(sub)
@@ -22,7 +23,7 @@ def add_parsers(sub) -> None:
 # ---------------------------------------------------------------- check
 
 def _add_check(sub) -> None:
-    from masterqc.pipeline import ALL_FORMATS, DEFAULT_FORMATS
+    from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS
     c = sub.add_parser("check", help="check masters against a delivery spec and write a result per file")
     c.add_argument("paths", nargs="+", metavar="PATH",
                    help="master files, checked in the order given, or folders (searched recursively; see below)")
@@ -39,33 +40,18 @@ def _add_check(sub) -> None:
 
 
 def cmd_check(args) -> int:
-    from masterqc.errors import UsageError
+    from masterqc.formats import formats_for
     from masterqc.measure.options import MeasureOptions
-    from masterqc.pipeline import (check_file, default_formats, exit_code_for, parse_formats, reports_available,
-                                   unique_stems)
+    from masterqc.pipeline import check_file, exit_code_for, unique_stems
     from masterqc.progress import Progress
     from masterqc.spec.loader import load_spec
 
-    if args.formats is None:
-        formats = default_formats()
-        if "html" not in formats:
-            sys.stderr.write(f"masterqc: note: HTML/PDF reports unavailable ({reports_available()}); writing JSON only\n")
-    else:
-        try:
-            formats = parse_formats(args.formats)
-        except ValueError as exc:
-            raise UsageError(f"--format: {exc}") from None
-        if any(f in ("html", "pdf") for f in formats):
-            why = reports_available()
-            if why is not None:
-                raise UsageError(f"--format {args.formats}: HTML/PDF reports cannot be rendered here ({why}); "
-                                 "use --format json")
+    formats = formats_for(args.formats, warn=lambda text: sys.stderr.write(f"masterqc: note: {text}\n"))
     from masterqc.batch.cli import cmd_check_batch, wants_batch
     if wants_batch(args):
         return cmd_check_batch(args, formats)
     loaded = load_spec(args.spec)  # SpecError -> exit 2 (before any file is touched)
-    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
-    base = MeasureOptions(channel_layout=layout)
+    base = MeasureOptions(channel_layout=layout_option(args.layout))
     outcomes = []
     for path, stem in zip(args.paths, unique_stems(args.paths)):
         progress = Progress(f"checking {path}", enabled=False if args.quiet else None)
@@ -79,6 +65,19 @@ def cmd_check(args) -> int:
             sys.stdout.write(_summary_line(path, result, args.out) + "\n")
             sys.stdout.flush()
     return exit_code_for(outcomes)
+
+
+def layout_option(text: str | None) -> tuple | None:
+    """``--layout L,R,...`` as labels (validated by :func:`masterqc.audio.layout.parse_layout`; the
+    channel count is checked against each file when it is read); :class:`UsageError` when malformed."""
+    if not text:
+        return None
+    from masterqc.audio.layout import parse_layout
+    from masterqc.errors import UsageError
+    try:
+        return parse_layout(text)
+    except ValueError as exc:
+        raise UsageError(f"--layout: {exc}") from None
 
 
 def _summary_line(path, result: dict, out_dir: str) -> str:
@@ -102,6 +101,44 @@ def _summary_line(path, result: dict, out_dir: str) -> str:
         if n.get("limiting_needed_db") is not None:
             line += f", peak limiting needed {n['limiting_needed_db']:.1f} dB (ceiling {n['ceiling_dbtp']:.1f} dBTP)"
     return line
+
+
+# ---------------------------------------------------------------- judge
+
+def _add_judge(sub) -> None:
+    from masterqc.formats import ALL_FORMATS
+    j = sub.add_parser("judge", help="judge saved results against a spec again, from their stored measurements "
+                                     "(no audio is read)")
+    j.add_argument("results", nargs="+", metavar="RESULT.json", help="results written by check or measure --json")
+    j.add_argument("--spec", required=True, help="delivery spec (YAML) to judge against")
+    j.add_argument("--out", default=".", help="folder for the new results (default: the current folder)")
+    j.add_argument("--format", dest="formats", default="json",
+                   help=f"comma-separated outputs from {','.join(ALL_FORMATS)} (default: json)")
+    j.add_argument("--quiet", action="store_true", help="no per-file lines")
+    j.set_defaults(func=cmd_judge)
+
+
+def cmd_judge(args) -> int:
+    """Re-judge every named result; exit 2 before anything is written when a result file is missing,
+    invalid, or needs other measurement settings than the spec asks for."""
+    from pathlib import Path
+
+    from masterqc.formats import formats_for
+    from masterqc.pipeline import exit_code_for, rejudge, unique_stems, write_outputs
+    from masterqc.report.render import load_result
+    from masterqc.spec.loader import load_spec
+
+    formats = formats_for(args.formats)
+    loaded = load_spec(args.spec)  # SpecError -> exit 2
+    judged = [rejudge(load_result(p), loaded, source=str(p)) for p in args.results]  # UsageError -> exit 2
+    stems = unique_stems([Path(p).name for p in args.results])
+    outcomes = []
+    for path, stem, result in zip(args.results, stems, judged):
+        result = write_outputs(result, args.out, stem, formats)
+        outcomes.append({k: result[k] for k in ("verdict", "error") if k in result})
+        if not args.quiet:
+            sys.stdout.write(_summary_line(path, result, args.out) + "\n")
+    return exit_code_for(outcomes)
 
 
 # ---------------------------------------------------------------- spec

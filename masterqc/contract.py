@@ -299,13 +299,16 @@ class ReadError(_Model):
 class Analysis(_Model):
     elapsed_s: float | None = None
     block_frames: int | None = None
+    measurement_settings: dict | None = Field(
+        None, description="the measurement options that can change a number (MeasureOptions.measurement_settings)")
 
 
 class Provenance(_Model):
     """How the findings of this result came about: measured now, or re-judged from stored measurements."""
 
     how: Literal["measured", "rejudged"]
-    measured_with: str | None = Field(None, description="measurement key (settings that affect the numbers)")
+    measured_with: str | None = Field(None, description="measurement key: SHA-256 of the settings that can change "
+                                                        "a number and the masterqc version")
 
 
 class Result(_Model):

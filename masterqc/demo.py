@@ -494,19 +494,11 @@ def run_demo(out_dir="demo-output", formats: str | None = None, stream=None, job
     processes (default: up to 2, the cores of a small machine; 1 runs inline).
     """
     from masterqc.errors import UsageError
-    from masterqc.pipeline import default_formats, parse_formats, reports_available
+    from masterqc.formats import formats_for
 
     out = stream or sys.stdout
     started = time.perf_counter()
-    if formats is None:
-        fmts = default_formats()
-    else:
-        try:
-            fmts = parse_formats(formats)
-        except ValueError as exc:
-            raise UsageError(f"--format: {exc}") from None
-        if any(f in ("html", "pdf") for f in fmts) and reports_available() is not None:
-            raise UsageError(f"HTML/PDF reports cannot be rendered here ({reports_available()}); use --format json")
+    fmts = formats_for(formats)
     if jobs is None:
         jobs = max(1, min(2, os.cpu_count() or 1))
     if jobs < 1:

@@ -1,9 +1,17 @@
-"""The per-file pipeline of ``masterqc check``: measure -> judge -> write.
+"""The per-file pipeline: measure (or reuse stored measurements) -> judge -> render -> write.
 
-:func:`check_file` is what the CLI's check loop and the batch runner call for
-each master.  It never raises for a bad master: a file that cannot be read
-gives an *error result* (``verdict: "error"``, one finding with status
-``error`` naming the cause), which is written like any other result.
+:func:`check_file` is the one per-file step; ``masterqc check FILE`` and the
+batch runner both call it.  It never raises for a bad master: a file that
+cannot be read gives an *error result* (``verdict: "error"``, one finding with
+status ``error`` naming the cause), which is written like any other result.
+
+Measure once, judge many: a result records the key of the measurement settings
+it was measured with (``provenance.measured_with``,
+:meth:`masterqc.measure.options.MeasureOptions.measurement_key`).  When a spec
+asks for the same settings, :func:`rejudge` judges the stored measurements
+against it without reading any audio (``provenance.how: "rejudged"``); when it
+asks for others (true-peak oversampling, conversion targets, thresholds, the
+true-peak ceiling that locates overs, a layout override), the file is measured again.
 
 Result object written (the contract of the design, plus):
 
@@ -24,46 +32,13 @@ import json
 import os
 
 from masterqc import __version__
-from masterqc.contract import RESULT_FORMAT_VERSION
-from masterqc.errors import AudioReadError
+from masterqc.contract import RESULT_FORMAT_VERSION, upgrade_result
+from masterqc.errors import AudioReadError, UsageError
 from masterqc.fileio import write_atomic  # noqa: F401  (part of this module's interface)
 from masterqc.jsonutil import jsonable
 
-#: every output format ``check`` can write
-ALL_FORMATS = ("json", "html", "pdf")
-#: what ``check`` writes when ``--format`` is not given (json only while the
-#: report renderer cannot be imported; see :func:`default_formats`)
-DEFAULT_FORMATS = ("json", "html", "pdf")
-
-
-def reports_available() -> str | None:
-    """None when HTML/PDF rendering can be imported, else the reason it cannot."""
-    try:
-        from masterqc.report.render import write_reports  # noqa: F401
-    except Exception as exc:  # ImportError or a broken renderer
-        return f"{type(exc).__name__}: {exc}"
-    return None
-
-
-def default_formats() -> tuple[str, ...]:
-    """:data:`DEFAULT_FORMATS`, or json only when the renderer is unavailable."""
-    return DEFAULT_FORMATS if reports_available() is None else ("json",)
-
-
-def parse_formats(text: str) -> tuple[str, ...]:
-    """``"json,html"`` -> ``("json", "html")``; ValueError naming an unknown format."""
-    out = []
-    for part in text.split(","):
-        f = part.strip().lower()
-        if not f:
-            continue
-        if f not in ALL_FORMATS:
-            raise ValueError(f"unknown output format {f!r} (choose from {', '.join(ALL_FORMATS)})")
-        if f not in out:
-            out.append(f)
-    if not out:
-        raise ValueError("no output format given")
-    return tuple(out)
+# the output formats live in one module (parsing, defaults, whether reports can be rendered)
+from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
 
 
 def write_json(result: dict, path) -> None:
@@ -125,23 +100,108 @@ def judge_result(result: dict, loaded_spec) -> dict:
     return jsonable(out)
 
 
-def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
-               base_options=None, progress=None) -> dict:
-    """Measure ``path``, judge it against ``loaded_spec`` and write ``<stem>.<format>`` into ``out_dir``.
+#: the keys a judgement adds to a measured result (dropped before judging it again)
+JUDGED_KEYS = ("spec", "normalisation", "findings", "verdict", "outputs")
 
-    ``loaded_spec`` is a :class:`masterqc.spec.loader.LoadedSpec`; ``formats`` any of
-    :data:`ALL_FORMATS`; ``stem`` defaults to the file name without extension;
-    ``base_options`` (:class:`MeasureOptions`) are overridden by what the spec derives.
-    Returns the result object (also written as JSON when "json" is in ``formats``).
-    An unreadable master gives an error result, never an exception; a failing
-    renderer adds an ``error`` finding (``report.render``) and the JSON is still written.
-    """
-    from masterqc.measure.engine import measure_file
+
+class NeedsMeasuring(UsageError):
+    """A saved result cannot be judged against a spec: the spec asks for other measurement settings."""
+
+
+def options_for(loaded_spec, base_options=None):
+    """The :class:`MeasureOptions` a spec asks for (over ``base_options``)."""
     from masterqc.spec.model import measure_options_for
+    return measure_options_for(loaded_spec.spec, base_options)
 
-    stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
+
+def _settings_difference(result: dict, options) -> str:
+    had = ((result.get("analysis") or {}).get("measurement_settings")) or {}
+    want = options.measurement_settings()
+    diff = [f"{k} {had.get(k)!r} -> {want[k]!r}" for k in sorted(want) if had.get(k) != want[k]]
+    if not had:
+        return "the result does not record its measurement settings (written by an older masterqc)"
+    if not diff:
+        return "it was measured by another masterqc version"
+    return "the spec asks for other measurement settings: " + "; ".join(diff)
+
+
+def can_rejudge(result: dict, options) -> bool:
+    """True when ``result`` holds measurements made with exactly ``options``' measurement settings."""
+    return ("measurements" in result and
+            (result.get("provenance") or {}).get("measured_with") == options.measurement_key())
+
+
+def rejudge(result: dict, loaded_spec, base_options=None, source: str = "result") -> dict:
+    """Judge a saved result's measurements against ``loaded_spec`` (pure; no audio is read).
+
+    The file's layout override, when it had one, is kept.  Raises :class:`NeedsMeasuring`
+    naming ``source`` when the spec needs other measurement settings.  An error result
+    (the master could not be read) stays an error result, under the new spec.
+    """
+    from dataclasses import replace
+
+    from masterqc.measure.options import MeasureOptions
+    result = upgrade_result(result, source)
+    if "measurements" not in result:
+        err = result.get("error") or {}
+        out = error_result((result.get("file") or {}).get("path", source), loaded_spec,
+                           err.get("cause", "it could not be read"), err.get("offset"), result.get("file"))
+        out["provenance"] = {"how": "rejudged", "measured_with": None}
+        return out
+    fmt = result.get("format") or {}
+    layout = tuple(fmt["channel_layout"]) if fmt.get("channel_layout_source") == "override" else None
+    options = options_for(loaded_spec, replace(base_options or MeasureOptions(), channel_layout=layout))
+    if not can_rejudge(result, options):
+        raise NeedsMeasuring(f"{source}: cannot be judged again without measuring: {_settings_difference(result, options)}"
+                             " (run masterqc check on the master)")
+    measured = {k: v for k, v in result.items() if k not in JUDGED_KEYS}
+    out = judge_result(measured, loaded_spec)
+    out["provenance"] = {"how": "rejudged", "measured_with": options.measurement_key()}
+    return out
+
+
+def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=()) -> dict:
+    """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``; return it with ``outputs``.
+
+    ``keep``: rendered formats already on disk and fresh (not written again).  A failing
+    renderer adds an ``error`` finding (``report.render``) and the JSON is still written;
+    error results get their reports too (the page says why the file was not judged).
+    """
+    result = dict(result)
     os.makedirs(out_dir, exist_ok=True)
-    options = measure_options_for(loaded_spec.spec, base_options)
+    outputs = {f: f"{stem}.{f}" for f in formats if f in keep and f != "json"}
+    todo = [f for f in formats if f in ("html", "pdf") and f not in keep]
+    if todo:
+        try:
+            from masterqc.report.render import write_reports
+            for p in write_reports(result, out_dir, stem, todo) or []:
+                outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
+        except Exception as exc:  # a renderer bug must not lose the judged result
+            from masterqc.judge.core import Finding, verdict
+            result["findings"] = list(result.get("findings") or []) + [Finding(
+                check="report.render", status="error",
+                message=f"the {'/'.join(todo)} report could not be written: {type(exc).__name__}: {exc}"
+            ).to_dict()]
+            result["verdict"] = verdict(result["findings"])
+    if "json" in formats:
+        outputs["json"] = f"{stem}.json"
+    result["outputs"] = outputs
+    if "json" in formats:
+        write_json(result, os.path.join(out_dir, f"{stem}.json"))
+    return result
+
+
+def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, stored: dict | None = None) -> dict:
+    """The judged result of one master: from ``stored`` measurements when they were made with the
+    settings the spec asks for (no audio read), else measured now.  Never raises for a bad master."""
+    from masterqc.measure.engine import measure_file
+
+    options = options_for(loaded_spec, base_options)
+    if stored is not None and can_rejudge(stored, options):
+        measured = {k: v for k, v in stored.items() if k not in JUDGED_KEYS}
+        out = judge_result(measured, loaded_spec)
+        out["provenance"] = {"how": "rejudged", "measured_with": options.measurement_key()}
+        return out
     try:
         measured = measure_file(path, options, progress=progress)
     except AudioReadError as exc:
@@ -150,31 +210,24 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
             facts = file_facts(path)
         except AudioReadError:
             facts = None
-        result = error_result(path, loaded_spec, exc.cause, exc.offset, facts)
-    else:
-        result = judge_result(measured, loaded_spec)
+        return error_result(path, loaded_spec, exc.cause, exc.offset, facts)
+    return judge_result(measured, loaded_spec)
 
-    outputs = {}
-    rendered = [f for f in formats if f in ("html", "pdf")]
-    if rendered:  # error results get their reports too: the page says why the file was not judged
-        try:
-            from masterqc.report.render import write_reports
-            paths = write_reports(result, out_dir, stem, rendered)
-            for p in paths or []:
-                outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
-        except Exception as exc:  # a renderer bug must not lose the judged result
-            from masterqc.judge.core import Finding, verdict
-            result["findings"].append(Finding(
-                check="report.render", status="error",
-                message=f"the {'/'.join(rendered)} report could not be written: {type(exc).__name__}: {exc}"
-            ).to_dict())
-            result["verdict"] = verdict(result["findings"])
-    if "json" in formats:
-        outputs["json"] = f"{stem}.json"
-    result["outputs"] = outputs
-    if "json" in formats:
-        write_json(result, os.path.join(out_dir, f"{stem}.json"))
-    return result
+
+def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
+               base_options=None, progress=None, stored: dict | None = None, keep=()) -> dict:
+    """The per-file step: measure ``path`` (or judge ``stored`` measurements again, see
+    :func:`measure_and_judge`), judge it against ``loaded_spec`` and write ``<stem>.<format>``
+    into ``out_dir`` (:func:`write_outputs`; ``keep``: fresh reports not written again).
+
+    ``loaded_spec`` is a :class:`masterqc.spec.loader.LoadedSpec`; ``formats`` any of
+    :data:`ALL_FORMATS`; ``stem`` defaults to the file name without extension;
+    ``base_options`` (:class:`MeasureOptions`) are overridden by what the spec derives.
+    Returns the result object (also written as JSON when "json" is in ``formats``).
+    """
+    stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
+    result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored)
+    return write_outputs(result, out_dir, stem, formats, keep=keep)
 
 
 def unique_stems(paths) -> list[str]:

@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 import soundfile as sf
 
+from masterqc import formats as formats_module
 from masterqc import pipeline
 from masterqc.cli import main
 from masterqc.judge.normalisation import headroom
@@ -147,7 +148,8 @@ def test_wrong_sample_rate_and_silence(tmp_path, spec):
 
 
 def test_html_asked_without_renderer_is_exit_2(tmp_path, spec, monkeypatch, capsys):
-    monkeypatch.setattr(pipeline, "reports_available", lambda: "ImportError: no renderer")
+    from masterqc import formats
+    monkeypatch.setattr(formats, "reports_available", lambda: "ImportError: no renderer")
     wav = tone(tmp_path / "a.wav", -23.0)
     assert main(["check", str(wav), "--spec", str(spec), "--out", str(tmp_path / "o"),
                  "--format", "json,html"]) == 2
@@ -164,7 +166,7 @@ def test_unknown_format_is_exit_2(tmp_path, spec, capsys):
     assert "docx" in capsys.readouterr().err
 
 
-@pytest.mark.skipif(pipeline.reports_available() is not None, reason="report renderer not importable")
+@pytest.mark.skipif(formats_module.reports_available() is not None, reason="report renderer not importable")
 def test_html_report_written_beside_the_json(tmp_path, spec):
     wav = tone(tmp_path / "a.wav", -23.0, seconds=4.0)
     assert main(["check", str(wav), "--spec", str(spec), "--out", str(tmp_path / "o"),
@@ -246,7 +248,7 @@ def test_limiting_requirement_end_to_end(tmp_path):
     assert valid(r)
 
 
-@pytest.mark.skipif(pipeline.reports_available() is not None, reason="report renderer not importable")
+@pytest.mark.skipif(formats_module.reports_available() is not None, reason="report renderer not importable")
 def test_unreadable_file_gets_an_html_report_too(tmp_path, spec):
     broken = tmp_path / "broken.wav"
     broken.write_bytes(b"not audio at all")

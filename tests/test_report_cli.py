@@ -67,7 +67,7 @@ def test_json_that_is_not_a_result_is_exit_2(tmp_path, capsys, content, words):
 
 def test_bad_format_is_exit_2_and_nothing_written(checked, tmp_path, capsys):
     assert main(["report", str(checked / "Brelloway_take2.json"), "--out", str(tmp_path), "--format", "html,docx"]) == 2
-    assert "unknown report format docx" in capsys.readouterr().err
+    assert "unknown format docx" in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == []
 
 

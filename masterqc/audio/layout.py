@@ -98,9 +98,21 @@ def bs1770_weight(label: str) -> float:
     return 1.0
 
 
-def parse_layout(text: str, channels: int) -> list[str]:
-    """Parse a user-given layout such as ``"L,R,C,LFE,Ls,Rs"``; raise ValueError if it does not fit."""
-    labels = [x.strip() for x in text.split(",") if x.strip()]
-    if len(labels) != channels:
-        raise ValueError(f"layout {text!r} names {len(labels)} channels, the file has {channels}")
+def parse_layout(text, channels: int | None = None) -> tuple[str, ...]:
+    """A user-given layout (``"L,R,C,LFE,Ls,Rs"`` or a sequence of labels) as a tuple of labels.
+
+    ValueError for an empty label, a label given twice, or (when ``channels`` is
+    given) a count that is not the file's.  The one parser of ``--layout`` and of
+    the reader's override.
+    """
+    raw = text.split(",") if isinstance(text, str) else [str(x) for x in text]
+    labels = tuple(x.strip() for x in raw)
+    shown = ",".join(labels)
+    if not labels or any(not x for x in labels):
+        raise ValueError(f"channel layout {shown!r} has an empty channel label")
+    twice = sorted({x for x in labels if labels.count(x) > 1})
+    if twice:
+        raise ValueError(f"channel layout {shown} names {', '.join(twice)} more than once")
+    if channels is not None and len(labels) != channels:
+        raise ValueError(f"channel layout {shown} names {len(labels)} channels, the file has {channels}")
     return labels

@@ -88,11 +88,7 @@ class StreamInfo:
 
 def _resolve_layout(channels: int, mask: int | None, override, container: str = "") -> tuple[list[str], str]:
     if override:
-        labels = list(override)
-        if len(labels) != channels:
-            raise ValueError(f"channel layout {','.join(labels)} names {len(labels)} channels, "
-                             f"the file has {channels}")
-        return labels, "override"
+        return list(_layout.parse_layout(override, channels)), "override"
     if mask:
         labels = _layout.labels_from_mask(mask, channels)
         if labels is not None:

@@ -353,6 +353,8 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         "series": series,
         "settings": settings,
         "analysis": {"elapsed_s": time.perf_counter() - started,
-                     "block_frames": options.block_frames},
+                     "block_frames": options.block_frames,
+                     "measurement_settings": options.measurement_settings()},
+        "provenance": {"how": "measured", "measured_with": options.measurement_key()},
     }
     return jsonable(result)

@@ -7,8 +7,14 @@ Each analyzer reads only the fields it needs.
 
 from __future__ import annotations
 
+import hashlib
+import json
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
+
+#: MeasureOptions fields that never change a measured number (tests/test_block_size.py,
+#: tests/test_engine_threads.py): left out of the measurement key
+NOT_MEASUREMENT_SETTINGS = ("block_frames", "threads")
 
 
 def default_thread_count() -> int:
@@ -55,3 +61,20 @@ class MeasureOptions:
     #: threads of one measurement (analyzers in parallel, decoding ahead); 1 runs everything in
     #: the calling thread (batch runs with several jobs pass 1); results never depend on it
     threads: int = field(default_factory=default_thread_count)
+
+    def measurement_settings(self) -> dict:
+        """Every option that can change a measured number, as plain JSON values (sorted keys)."""
+        def plain(v):
+            if isinstance(v, (tuple, list)):
+                return [plain(x) for x in v]
+            if isinstance(v, dict):
+                return {str(k): plain(v[k]) for k in sorted(v, key=str)}
+            return v
+        return {f.name: plain(getattr(self, f.name)) for f in fields(self) if f.name not in NOT_MEASUREMENT_SETTINGS}
+
+    def measurement_key(self) -> str:
+        """SHA-256 of :meth:`measurement_settings` and the masterqc version: two runs with the same key
+        measure a file to the same numbers, so stored measurements can be judged again."""
+        from masterqc import __version__
+        text = json.dumps({"tool_version": __version__, "settings": self.measurement_settings()}, sort_keys=True)
+        return hashlib.sha256(text.encode("utf-8")).hexdigest()

@@ -15,6 +15,9 @@ def add_parser(sub) -> None:
     r.add_argument("--format", dest="formats", default="html,pdf",
                    help="comma-separated report formats from html,pdf (default: html,pdf)")
     r.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size (default: a4)")
+    r.add_argument("--spec", default=None,
+                   help="judge the stored measurements against this spec first (no audio is read; "
+                        "see masterqc judge)")
     r.set_defaults(func=cmd_report)
 
 
@@ -24,10 +27,16 @@ def cmd_report(args) -> int:
     Every file is validated before anything is written, so a typo in the
     second name does not leave the first re-rendered alone and unnoticed.
     """
-    from masterqc.report.render import RENDER_FORMATS, load_result, parse_formats, write_reports
+    from masterqc.formats import RENDER_FORMATS, parse_formats
+    from masterqc.report.render import load_result, write_reports
 
     formats = parse_formats(args.formats, allowed=RENDER_FORMATS)
     loaded = [(Path(p), load_result(p)) for p in args.results]  # UsageError -> exit 2
+    if args.spec:
+        from masterqc.pipeline import rejudge
+        from masterqc.spec.loader import load_spec
+        spec = load_spec(args.spec)  # SpecError -> exit 2
+        loaded = [(path, rejudge(result, spec, source=str(path))) for path, result in loaded]
     for path, result in loaded:
         out_dir = Path(args.out) if args.out else (path.parent if str(path.parent) else Path("."))
         stem = path.stem

@@ -24,11 +24,8 @@ from markupsafe import Markup
 from masterqc.errors import UsageError
 from masterqc.fileio import write_atomic
 
-#: report formats this module writes (``json`` is written by the caller)
-RENDER_FORMATS = ("html", "pdf")
-#: every format ``masterqc check --format`` accepts, and its default
-ALL_FORMATS = ("html", "pdf", "json")
-DEFAULT_FORMATS = ALL_FORMATS
+from masterqc.formats import ALL_FORMATS, RENDER_FORMATS, parse_formats  # noqa: E402,F401  (one formats module)
+
 PAPERS = ("a4", "letter")
 
 _ENV: jinja2.Environment | None = None
@@ -54,25 +51,6 @@ def _env() -> jinja2.Environment:
                 raise RuntimeError(f"report.css must not contain {ch!r} (it is embedded in well-formed XML)")
         _CSS = css
     return _ENV
-
-
-def parse_formats(text, allowed=ALL_FORMATS) -> tuple[str, ...]:
-    """``"html,pdf"`` -> ``("html", "pdf")``; raises :class:`UsageError` naming an unknown format.
-
-    Order follows ``allowed``; duplicates collapse; an empty list is refused.
-    """
-    if isinstance(text, (list, tuple)):
-        items = [str(x) for x in text]
-    else:
-        items = str(text or "").split(",")
-    wanted = {x.strip().lower() for x in items if x.strip()}
-    unknown = sorted(wanted - set(allowed))
-    if unknown:
-        raise UsageError(f"unknown report format {', '.join(unknown)!s}; use a comma-separated list of "
-                         f"{', '.join(allowed)}")
-    if not wanted:
-        raise UsageError(f"no report format given; use a comma-separated list of {', '.join(allowed)}")
-    return tuple(f for f in allowed if f in wanted)
 
 
 def render_html(result: dict, paper: str = "a4") -> str:

@@ -778,6 +778,10 @@ def provenance_view(result: dict) -> dict:
         rows.append(("Spec SHA-256", fmt.clean_text(spec.get("sha256", "n/a"))))
     else:
         rows.append(("Spec", "none (measured only)"))
+    how = (result.get("provenance") or {}).get("how")
+    if how:
+        rows.append(("Findings", "judged again from stored measurements (no audio read)" if how == "rejudged"
+                     else "judged on a fresh measurement"))
     for key in sorted(analysis, key=str):
         v = analysis[key]
         if isinstance(v, (dict, list)):
