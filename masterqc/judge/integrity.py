@@ -7,7 +7,15 @@ the first positions whatever else the spec asks.
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_allowed, check_limits, limit_text, skipped
+from masterqc.judge.core import Finding, check_allowed, check_limits, judge_checks, limit_text, skipped
+from masterqc.spec.sections.integrity import CHECKS
+
+_DECLARED = {c.spec_key: c for c in CHECKS}
+
+
+def _declared(section, result: dict, key: str) -> list[Finding]:
+    """The finding of the section's declared check ``key`` (empty when the spec does not set it)."""
+    return judge_checks(section, result, [_DECLARED[key]])
 
 _MISSING = "the measurement {key} is missing from the result"
 
@@ -98,26 +106,15 @@ def judge(section, result: dict) -> list[Finding]:
     s = section
     if s.nonfinite_samples:
         out += _nonfinite(s, result, m)
-    if s.clipped_runs is not None:
-        f = check_limits("integrity.clipped_runs", "clipped runs", m.get("clipped_run_count"), s.clipped_runs,
-                         where_s=m.get("clipped_run_where_s") or [],
-                         missing_reason=_MISSING.format(key="clipped_run_count"))
+    for f in _declared(s, result, "clipped_runs"):
         if f.status in ("warn", "fail"):
             _add_detail(f, _per_channel(result, m.get("clipped_run_count_per_channel"))
                         + f"; longest run {m.get('clipped_run_longest_samples')} samples")
         out.append(f)
-    if s.over_full_scale_samples is not None:
-        out.append(check_limits(
-            "integrity.over_full_scale_samples", "samples beyond full scale", m.get("over_full_scale_sample_count"),
-            s.over_full_scale_samples,
-            missing_reason=_why(m, "over_full_scale_sample_count",
-                                "integer PCM cannot exceed full scale (only float files are judged)")))
+    out += _declared(s, result, "over_full_scale_samples")
     if s.dc_offset is not None:
         out.append(_dc(s, m))
-    if s.subsonic_energy is not None:
-        out.append(check_limits("integrity.subsonic_energy", "energy below 20 Hz (worst channel)",
-                                m.get("subsonic_energy_db"), s.subsonic_energy,
-                                missing_reason=_why(m, "subsonic_energy_db", "every channel is digital silence")))
+    out += _declared(s, result, "subsonic_energy")
     for key, what, where in (("head_silence", "silence at the head", "head"),
                              ("tail_silence", "silence at the tail", "tail"),
                              ("head_digital_silence", "digital silence at the head", "head"),
@@ -134,9 +131,7 @@ def judge(section, result: dict) -> list[Finding]:
             elif dur is not None and value > 0:
                 f.where_s = [[float(dur) - float(value), float(dur)]]
         out.append(f)
-    if s.dropouts is not None:
-        f = check_limits("integrity.dropouts", "dropouts", m.get("dropout_count"), s.dropouts,
-                         where_s=m.get("dropout_where_s") or [], missing_reason=_MISSING.format(key="dropout_count"))
+    for f in _declared(s, result, "dropouts"):
         if f.status in ("warn", "fail"):
             events = m.get("dropout_events") or []
             kinds = sorted({e.get("kind") for e in events} & set(_KINDS))
@@ -163,17 +158,8 @@ def judge(section, result: dict) -> list[Finding]:
         if f.status in ("warn", "fail") and pairs:
             _add_detail(f, " (" + ", ".join("/".join(p) for p in pairs) + ")")
         out.append(f)
-    if s.phase_correlation is not None:
-        out.append(check_limits("integrity.phase_correlation", "lowest phase correlation (100 ms windows)",
-                                m.get("phase_correlation_min"), s.phase_correlation,
-                                missing_reason=_why(m, "phase_correlation_min",
-                                                    "no channel pair, or no window above the level floor")))
-    if s.phase_correlation_below is not None:
-        out.append(check_limits("integrity.phase_correlation_below", "share of time below the phase threshold",
-                                m.get("phase_correlation_below_percent"), s.phase_correlation_below,
-                                where_s=m.get("phase_correlation_below_where_s") or [],
-                                missing_reason=_why(m, "phase_correlation_below_percent",
-                                                    "no channel pair, or no window above the level floor")))
+    out += _declared(s, result, "phase_correlation")
+    out += _declared(s, result, "phase_correlation_below")
     if s.level_balance is not None:
         worst = _worst_balance(m)
         what = f"level balance {worst[0]} (magnitude)" if worst else "level balance"

@@ -38,7 +38,28 @@ from __future__ import annotations
 
 from pydantic import Field
 
+from masterqc.contract import Check
 from masterqc.spec.types import SpecModel, allowed, bounds, ceiling, floor
+
+_NO_PAIR = "no channel pair, or no window above the level floor"
+
+#: the numeric checks judged from one measurement each (masterqc.judge.core.judge_checks); the
+#: section's other checks (DC, silence ranges, bit depth, balance, pairs, non-finite) need more
+#: than one field and are judged in masterqc.judge.integrity
+CHECKS = (
+    Check("clipped_runs", "integrity.clipped_runs", "clipped_run_count", "count", "clipped runs",
+          "the measurement does not exist for this file", where="clipped_run_where_s"),
+    Check("over_full_scale_samples", "integrity.over_full_scale_samples", "over_full_scale_sample_count", "count",
+          "samples beyond full scale", "integer PCM cannot exceed full scale (only float files are judged)"),
+    Check("subsonic_energy", "integrity.subsonic_energy", "subsonic_energy_db", "db",
+          "energy below 20 Hz (worst channel)", "every channel is digital silence"),
+    Check("dropouts", "integrity.dropouts", "dropout_count", "count", "dropouts",
+          "the measurement does not exist for this file", where="dropout_where_s"),
+    Check("phase_correlation", "integrity.phase_correlation", "phase_correlation_min", "corr",
+          "lowest phase correlation (100 ms windows)", _NO_PAIR),
+    Check("phase_correlation_below", "integrity.phase_correlation_below", "phase_correlation_below_percent",
+          "percent", "share of time below the phase threshold", _NO_PAIR, where="phase_correlation_below_where_s"),
+)
 
 ALWAYS = True
 
