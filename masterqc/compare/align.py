@@ -77,13 +77,26 @@ def envelope_class(hop: int):
 ENVELOPE_DETREND_S = 0.25
 
 
+#: hops more than this far below the median envelope count as silent and are left out (house choice):
+#: a stretch of digital silence would otherwise dominate the correlation of a steady programme
+ENVELOPE_SILENT_DB = 40.0
+
+
 def _log_env(env: np.ndarray, hop_s: float) -> np.ndarray:
-    floor = max(float(np.max(env)) * 1e-9, 1e-20) if env.size else 1e-20
-    e = np.log10(env + floor)
+    if env.size == 0:
+        return env
+    med = float(np.median(env))
+    if med <= 0:
+        med = float(np.mean(env)) or 1e-20
+    silent = env < med * 10 ** (-ENVELOPE_SILENT_DB / 10)
+    e = np.log10(np.maximum(env, med * 10 ** (-ENVELOPE_SILENT_DB / 10)))
+    if (~silent).any():
+        e[silent] = np.median(e[~silent])
     n = max(3, int(round(ENVELOPE_DETREND_S / hop_s)) | 1)
     if e.size > n:
         pad = np.pad(e, n // 2, mode="edge")
         e = e - np.convolve(pad, np.ones(n) / n, mode="valid")
+    e[silent] = 0.0
     return e
 
 

@@ -420,14 +420,17 @@ def _band(f, lo, hi):
 
 
 def _display_series(f, values, points=DISPLAY_POINTS, mode="mean"):
-    """Log-spaced buckets from 20 Hz (mean of each bucket's finite values)."""
+    """Buckets log-spaced from 20 Hz to 1 kHz, then linear to the top (so a converter's transition
+    band keeps its detail); the mean of each bucket's finite values."""
     f = np.asarray(f)
     v = np.asarray(values, float)
     lo = max(20.0, f[1] if f.size > 1 else 20.0)
-    edges = np.geomspace(lo, f[-1], points + 1)
+    knee = min(1000.0, f[-1] / 2)
+    edges = np.unique(np.concatenate([np.geomspace(lo, knee, points // 6 + 1),
+                                      np.linspace(knee, f[-1] * (1 + 1e-9), points - points // 6 + 1)]))
     idx = np.searchsorted(edges, f, side="right") - 1
     out_f, out_v = [], []
-    for b in range(points):
+    for b in range(edges.size - 1):
         sel = (idx == b) & np.isfinite(v)
         if not sel.any():
             continue
