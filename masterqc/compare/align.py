@@ -237,6 +237,30 @@ class FineAligner:
             tau += step
         return tau, peak
 
+    def refine(self, Xd: np.ndarray, Xm: np.ndarray, tau0: float):
+        """Newton steps on the phase slope from ``tau0`` (no search): ``(delta_s, peak)`` as
+        :meth:`estimate`, for a frame whose offset is close to a neighbour's (within a fraction of the
+        period of the band's top frequency)."""
+        D, count = self.pair_spectra(Xd, Xm)
+        cnt = np.maximum(count, 1)
+        w2 = 2 * np.pi * self.f
+        e0 = np.exp(1j * w2 * tau0)[:, None, None]
+        vals = (D * e0).real.sum(axis=0) / cnt
+        signs = np.sign(vals)
+        W = (D * signs[None]).sum(axis=(1, 2))
+        tau = tau0
+        limit = 0.25 / (self.f[self.band][-1] if self.band.any() else self.f[-1])
+        for _ in range(3):
+            e = W * np.exp(1j * w2 * tau)
+            d1 = float(np.sum(-w2 * e.imag))
+            d2 = float(np.sum(-(w2 ** 2) * e.real))
+            if d2 >= 0:
+                break
+            step = float(np.clip(-d1 / d2, -limit, limit))
+            tau += step
+        vals = (D * np.exp(1j * w2 * tau)[:, None, None]).real.sum(axis=0) / cnt
+        return tau, float(np.max(np.abs(vals)))
+
     def lag_values(self, Xd: np.ndarray, Xm: np.ndarray, taus) -> np.ndarray:
         """Sum over channel pairs of |plain cross-correlation| at each lag in ``taus`` (s); plain (energy
         weighted), so a frame holding two offsets shows each in proportion to its share."""

@@ -114,8 +114,8 @@ def _dither(rq: dict, same: bool, not_same: str) -> Finding:
         return skipped(check, f"dither: not judged, {not_same}", limit="dithered")
     v = rq.get("verdict")
     if v == "unknown":
-        return skipped(check, "dither: not judged, the programme has too few quiet passages to tell a dithered "
-                              "requantisation from an undithered one", limit="dithered")
+        return skipped(check, f"dither: not judged, {rq.get('verdict_reason') or 'the requantisation cannot be assessed'}",
+                       limit="dithered")
     level = rq.get("residual_power_dbfs")
     lvl = f"{level:.1f} dBFS" if level is not None else "n/a"
     if v == "signal_correlated":

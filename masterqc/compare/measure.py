@@ -70,8 +70,13 @@ QUIET_WITHIN_DB = 30.0
 QUIET_MIN_FRAMES = 8
 CORRELATED_MIN_ABS_CORRELATION = 0.5
 CORRELATED_MIN_ABS_CHANGE_DB = 2.0
+#: requantisation is assessed only when the residual lies within this many dB of the dither level
+#: expected for the deliverable's word length (house choice); above it other errors dominate
+REQUANT_DOMINATES_DB = 10.0
 #: folded residue counts as found this many dB above its detection floor
 FOLDED_FOUND_ABOVE_FLOOR_DB = 6.0
+#: the fine offset of every n-th frame is searched afresh; the others start from the last confident one
+FULL_SEARCH_EVERY = 8
 #: display resolution
 DISPLAY_POINTS = 600
 OFFSET_POINTS = 1500
@@ -183,6 +188,7 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
     n = _frame_count(grid, info_m.frames)
     offsets = np.full(n, np.nan)
     peaks = np.zeros(n)
+    last = None
     with open_stream(path_m) as sm, open_stream(path_d) as sd:
         cm, cd = Cursor(sm, block_frames), Cursor(sd, block_frames)
         for k in range(n):
@@ -195,10 +201,15 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
             xd = cd.get(s_d, grid.n_d)
             Xm = np.fft.rfft(xm * w_m[:, None], axis=0)[:K]
             Xd = np.fft.rfft(xd * w_d[:, None], axis=0)[:K]
-            delta, peak = aligner.estimate(Xd, Xm)
+            delta, peak = None, 0.0
+            if last is not None and k % FULL_SEARCH_EVERY:
+                # next to a confident frame: start from its offset (no search), check the peak
+                delta, peak = aligner.refine(Xd, Xm, s_d / grid.rate_d_hz - t - last)
+            if peak < align.FINE_MIN_PEAK:
+                delta, peak = aligner.estimate(Xd, Xm)
             peaks[k] = peak
             if peak >= align.FINE_MIN_PEAK:
-                offsets[k] = s_d / grid.rate_d_hz - (t + delta)
+                offsets[k] = last = s_d / grid.rate_d_hz - (t + delta)
     return offsets, peaks
 
 
@@ -682,7 +693,14 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
     corr_sig = change = None
     n_quiet = 0
     verdict_rq = "unknown"
-    if r_t.size >= 4 and np.any(s_t > 0):
+    reason = "too few quiet passages (within 30 dB of the residual) to tell dither from truncation"
+    dominated = expected is not None and res_power > expected * 10 ** (REQUANT_DOMINATES_DB / 10)
+    if dominated:
+        reason = (f"the residual lies {10 * math.log10(res_power / expected):.1f} dB above the dither level of "
+                  f"{info_d.bit_depth} bits: other errors (the converter, processing) hide the requantisation")
+    elif info_d.is_float:
+        reason = "the deliverable is floating point: no word length was cut"
+    elif r_t.size >= 4 and np.any(s_t > 0):
         loud = s_t >= np.percentile(s_t, 75)
         n_ref = float(np.median(r_t[loud])) if loud.any() else 0.0
         if n_ref > 0:
@@ -698,11 +716,12 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
                 correlated = abs(corr_sig) >= CORRELATED_MIN_ABS_CORRELATION or \
                     abs(change) >= CORRELATED_MIN_ABS_CHANGE_DB
                 verdict_rq = "signal_correlated" if correlated else "dithered"
+                reason = ""
     requant = Requantisation(
         residual_power_dbfs=_db(res_power), expected_tpdf_power_dbfs=_db(expected) if expected else None,
         residual_re_tpdf_db=(_db(res_power) - _db(expected)) if expected and res_power > 0 else None,
         effective_bits=eff_bits, spectrum_spread_db=spread, spectrum_shape=shape, signal_correlation=corr_sig,
-        quiet_residual_change_db=change, quiet_frames=n_quiet, verdict=verdict_rq)
+        quiet_residual_change_db=change, quiet_frames=n_quiet, verdict=verdict_rq, verdict_reason=reason)
 
     # ---- alignment figures (jump times from the frames measured around each edit)
     jump_models = []

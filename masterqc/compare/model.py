@@ -134,6 +134,7 @@ class Requantisation(_Model):
                                                                "level in loud frames")
     quiet_frames: int
     verdict: Literal["dithered", "signal_correlated", "unknown"]
+    verdict_reason: str = Field("", description="why the verdict is unknown, when it is")
 
 
 class Over(_Model):

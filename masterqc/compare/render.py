@@ -115,7 +115,7 @@ def summary_sentences(r: dict) -> list[str]:
                  "signal_correlated": f"; it follows the signal in quiet passages "
                                       f"({_signed(q.get('quiet_residual_change_db'), 1)}): requantised without "
                                       "dither (truncation distortion)",
-                 "unknown": "; too few quiet passages to tell dither from truncation"}[q["verdict"]]
+                 "unknown": f"; dither not assessed: {q.get('verdict_reason', '')}"}[q["verdict"]]
         out.append(text + ".")
     pl = r["peaks_loudness"]
     text = (f"True peak {_f(pl['master_true_peak_dbtp'])} -> {_f(pl['deliverable_true_peak_dbtp'])} dBTP "
