@@ -326,3 +326,25 @@ def test_spec_section_refuses_unknown_identity_words(tmp_path):
     with pytest.raises(SpecError) as err:
         load_spec(p)
     assert "derivation" in str(err.value)
+
+
+def test_demo_deliverables_get_the_verdicts_they_were_built_for(tmp_path):
+    # masterqc/compare/demo.py builds each deliverable with one known fault (or none): a careful
+    # conversion with TPDF dither passes; the same without dither fails on dither only; linear
+    # interpolation without anti-alias filter fails on folding and droop (analytic: the content put
+    # above 22.05 kHz folds down, and linear interpolation's sinc^2 response droops at 20 kHz)
+    import io
+
+    from masterqc.compare.demo import run_compare_demo
+    buf = io.StringIO()
+    run_compare_demo(tmp_path, ("json",), buf)
+    res = {}
+    for p in (tmp_path / "derivation").glob("*.json"):
+        r = json.loads(p.read_text())
+        res[p.name.split(".from.")[0].split("_44k16_")[1]] = r
+    failed = {k: {f["check"] for f in r["findings"] if f["status"] == "fail"} for k, r in res.items()}
+    assert res["careful"]["verdict"] == "pass"
+    assert failed["truncated"] == {"derivation.dither_required"}
+    assert {"derivation.folded_residue", "derivation.level_at_20khz"} <= failed["cheap-converter"]
+    assert "derivation.dither_required" not in failed["cheap-converter"]
+    assert "PASS  tide-clock_44k16_careful.wav" in buf.getvalue()

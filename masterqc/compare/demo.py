@@ -22,7 +22,7 @@ from scipy import signal
 
 MASTER_RATE_HZ = 96000
 DELIVERABLE_RATE_HZ = 44100
-DURATION_S = 8.0
+DURATION_S = 6.0
 SPEC_NAME = "derivation-cd.yaml"
 
 

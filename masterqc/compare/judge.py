@@ -121,9 +121,9 @@ def _dither(rq: dict, same: bool, not_same: str) -> Finding:
     if v == "signal_correlated":
         return Finding(check=check, status="fail", severity="fail", measured="signal-correlated",
                        measured_text="signal-correlated", limit="dithered",
-                       message=(f"the requantisation error follows the signal in quiet passages (its level changes "
-                                f"{rq['quiet_residual_change_db']:+.1f} dB there, correlation "
-                                f"{rq['signal_correlation']:+.2f}): the word length was cut without dither"))
+                       message=(f"the requantisation error follows the signal: where the signal falls below it, its "
+                                f"level changes by {rq['quiet_residual_change_db']:+.1f} dB (TPDF dither keeps it "
+                                "level): the word length was cut without dither"))
     return Finding(check=check, status="pass", severity="fail", measured="dithered", measured_text="dithered",
                    limit="dithered",
                    message=(f"the requantisation error ({lvl}) stays level through quiet passages: dithered"))

@@ -65,11 +65,15 @@ RESIDUAL_TOP_FRACTION = 0.95
 #: residual spectrum: bands for the flatness figure, and the spread allowed for "flat"
 SHAPE_BANDS = 10
 FLAT_MAX_SPREAD_DB = 3.0
-#: signal-correlated residual: frames within this many dB above the residual count as quiet
-QUIET_WITHIN_DB = 30.0
+#: signal-correlated residual: frames whose signal lies below the residual level (plus this many dB)
+#: are the quiet ones.  With TPDF dither the error's power does not depend on the signal (0 dB
+#: change); truncated without dither, a signal well below the step leaves an error that is a square
+#: wave following the signal's sign, about Delta^2/4 against Delta^2/12 on loud passages (+4.8 dB),
+#: and nothing in digital silence; rounded without dither the error is the signal itself (its level
+#: falls with it).  A change of 1.5 dB either way is taken as signal-correlated (house choice).
+QUIET_WITHIN_DB = 0.0
 QUIET_MIN_FRAMES = 8
-CORRELATED_MIN_ABS_CORRELATION = 0.5
-CORRELATED_MIN_ABS_CHANGE_DB = 2.0
+CORRELATED_MIN_ABS_CHANGE_DB = 1.5
 #: requantisation is assessed only when the residual lies within this many dB of the dither level
 #: expected for the deliverable's word length (house choice); above it other errors dominate
 REQUANT_DOMINATES_DB = 10.0
@@ -693,7 +697,7 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
     corr_sig = change = None
     n_quiet = 0
     verdict_rq = "unknown"
-    reason = "too few quiet passages (within 30 dB of the residual) to tell dither from truncation"
+    reason = "too few quiet passages (signal below the residual) to tell dither from truncation"
     dominated = expected is not None and res_power > expected * 10 ** (REQUANT_DOMINATES_DB / 10)
     if dominated:
         reason = (f"the residual lies {10 * math.log10(res_power / expected):.1f} dB above the dither level of "
@@ -713,8 +717,7 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
                 else:
                     corr_sig = 0.0
                 change = float(10 * math.log10(np.median(r_t[quiet]) / n_ref))
-                correlated = abs(corr_sig) >= CORRELATED_MIN_ABS_CORRELATION or \
-                    abs(change) >= CORRELATED_MIN_ABS_CHANGE_DB
+                correlated = abs(change) >= CORRELATED_MIN_ABS_CHANGE_DB
                 verdict_rq = "signal_correlated" if correlated else "dithered"
                 reason = ""
     requant = Requantisation(

@@ -129,9 +129,9 @@ class Requantisation(_Model):
                                                          "residual spectrum")
     spectrum_shape: Literal["flat", "shaped", "unknown"]
     signal_correlation: float | None = Field(description="correlation of per-frame residual level with signal "
-                                                         "level over frames quieter than 30 dB above the residual")
-    quiet_residual_change_db: float | None = Field(description="median residual level in those quiet frames re the "
-                                                               "level in loud frames")
+                                                         "level over the quiet frames (signal below the residual)")
+    quiet_residual_change_db: float | None = Field(description="median residual level in the quiet frames re the "
+                                                               "level in loud frames (decides the verdict)")
     quiet_frames: int
     verdict: Literal["dithered", "signal_correlated", "unknown"]
     verdict_reason: str = Field("", description="why the verdict is unknown, when it is")
