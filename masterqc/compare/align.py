@@ -18,6 +18,7 @@ Offsets are ``deliverable time - master time`` of the same content, in seconds.
 from __future__ import annotations
 
 import numpy as np
+from scipy import fft as sp_fft
 from scipy import signal
 
 from masterqc.measure.base import Analyzer, AnalyzerResult
@@ -206,7 +207,7 @@ class FineAligner:
         cnt = np.maximum(count, 1)
         Cd, Cm = D.shape[1], D.shape[2]
         flat = D.reshape(self.K, Cd * Cm)
-        r = np.fft.irfft(flat, self.L, axis=0) * self.L / (2.0 * cnt.reshape(-1))  # ~ Re sum D e^{+j2pi f tau}/cnt
+        r = sp_fft.irfft(flat, self.L, axis=0) * self.L / (2.0 * cnt.reshape(-1))  # ~ Re sum D e^{+j2pi f tau}/cnt
         quarter = self.L // 4
         idx = np.r_[0:quarter, self.L - quarter:self.L]
         score = np.abs(r[idx]).sum(axis=1)

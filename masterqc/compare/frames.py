@@ -104,9 +104,12 @@ class Cursor:
             self._buf = np.concatenate([self._buf, block]) if self._buf.size else block
         if lo < self._start and lo < hi:
             raise RuntimeError(f"cursor asked for frame {lo}, already released (kept from {self._start})")
-        out = np.zeros((n, self.channels))
-        if lo < hi:
-            out[lo - start:hi - start] = self._buf[lo - self._start:hi - self._start]
+        if lo == start and hi == end:   # wholly inside the file: a view of the buffer (callers never write)
+            out = self._buf[lo - self._start:hi - self._start]
+        else:
+            out = np.zeros((n, self.channels))
+            if lo < hi:
+                out[lo - start:hi - start] = self._buf[lo - self._start:hi - self._start]
         drop = max(0, start - self._keep) - self._start
         if drop > 0:
             self._buf = self._buf[drop:]

@@ -25,6 +25,7 @@ import math
 import time
 
 import numpy as np
+from scipy import fft as sp_fft
 
 from masterqc import __version__
 from masterqc.audio.reader import open_stream
@@ -57,6 +58,10 @@ RIPPLE_TOP_FRACTION = 0.9
 RIPPLE_MIN_COHERENCE = 0.5
 #: a jump is a step of the offset track larger than this (ms) that lasts
 JUMP_MIN_MS = 0.1
+#: frames around an edit are measured at this many positions per hop
+JUMP_SUBFRAMES = 5
+#: a frame places an edit only when both offsets' shares stand this far above the correlation floor
+JUMP_MIN_SHARE_RE_FLOOR = 3.0
 #: frames on each side used to measure a jump
 JUMP_CONTEXT_FRAMES = 10
 #: residual band: from 20 Hz to this fraction of the common band's top
@@ -79,8 +84,14 @@ CORRELATED_MIN_ABS_CHANGE_DB = 1.5
 REQUANT_DOMINATES_DB = 10.0
 #: folded residue counts as found this many dB above its detection floor
 FOLDED_FOUND_ABOVE_FLOOR_DB = 6.0
+#: the offset is measured on every n-th analysis frame (2: frames that touch but do not overlap);
+#: the frames between take the track's value
+OFFSET_FRAME_STEP = 2
 #: the fine offset of every n-th frame is searched afresh; the others start from the last confident one
 FULL_SEARCH_EVERY = 8
+#: a master frame closer than this (samples) to the master's grid is read without interpolation; the
+#: window misalignment it leaves (a thousandth of a sample) leaks far below any 24-bit residual
+FD_SNAP_SAMPLES = 1e-3
 #: display resolution
 DISPLAY_POINTS = 600
 OFFSET_POINTS = 1500
@@ -122,8 +133,8 @@ class _Plan:
 
     def spectra(self, xm: np.ndarray, xd: np.ndarray):
         """(Xd (K, Cd), U (K, Q)): normalised spectra (a sine of amplitude A reads A/2 in both)."""
-        Xm = np.fft.rfft(xm * self.w_m[:, None], axis=0) / (self.grid.n_m / 2)
-        Xd = np.fft.rfft(xd * self.w_d[:, None], axis=0) / (self.grid.n_d / 2)
+        Xm = sp_fft.rfft(xm * self.w_m[:, None], axis=0) / (self.grid.n_m / 2)
+        Xd = sp_fft.rfft(xd * self.w_d[:, None], axis=0) / (self.grid.n_d / 2)
         parts = [Xm[:self.K]]
         for idx, valid, conj in self.families:
             z = Xm[idx]
@@ -159,7 +170,7 @@ def _master_at(cursor: Cursor, pos: float, n: int, taps_cache: dict) -> np.ndarr
     """``n`` master samples starting at fractional index ``pos`` (band-limited interpolation)."""
     p0 = math.floor(pos)
     mu = pos - p0
-    if mu < 1e-6 or mu > 1 - 1e-6:
+    if mu < FD_SNAP_SAMPLES or mu > 1 - FD_SNAP_SAMPLES:
         return cursor.get(int(round(pos)), n)
     key = round(mu, 9)
     taps = taps_cache.get(key)
@@ -169,8 +180,8 @@ def _master_at(cursor: Cursor, pos: float, n: int, taps_cache: dict) -> np.ndarr
         taps = taps_cache[key] = fractional_delay_taps(mu)
     L = taps.size
     seg = cursor.get(p0 - (L // 2 - 1), n + L - 1)
-    from scipy.signal import oaconvolve
-    return oaconvolve(seg, taps[::-1, None], mode="valid", axes=0)
+    rev = taps[::-1]
+    return np.stack([np.convolve(seg[:, c], rev, mode="valid") for c in range(seg.shape[1])], axis=1)
 
 
 # ---------------------------------------------------------------- pass 1
@@ -195,7 +206,7 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
     last = None
     with open_stream(path_m) as sm, open_stream(path_d) as sd:
         cm, cd = Cursor(sm, block_frames), Cursor(sd, block_frames)
-        for k in range(n):
+        for k in range(0, n, OFFSET_FRAME_STEP):
             s_m = k * grid.hop_m
             t = s_m / grid.rate_m_hz
             s_d = k * grid.hop_d + int(round(align.track_at(track_t, track_o, t + grid.frame_s / 2) * grid.rate_d_hz))
@@ -203,8 +214,8 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
             if not _deliverable_inside(s_d, grid, info_d.frames):
                 continue
             xd = cd.get(s_d, grid.n_d)
-            Xm = np.fft.rfft(xm * w_m[:, None], axis=0)[:K]
-            Xd = np.fft.rfft(xd * w_d[:, None], axis=0)[:K]
+            Xm = sp_fft.rfft(xm * w_m[:, None], axis=0)[:K]
+            Xd = sp_fft.rfft(xd * w_d[:, None], axis=0)[:K]
             delta, peak = None, 0.0
             if last is not None and k % FULL_SEARCH_EVERY:
                 # next to a confident frame: start from its offset (no search), check the peak
@@ -290,12 +301,13 @@ def _segment(offsets: np.ndarray, grid: FrameGrid):
 
 # ---------------------------------------------------------------- pass 3 and 4
 
-def _frame_pair(k, grid, plan, track, cm, cd, info_d, taps_cache, offset_override=None):
+def _frame_pair(k, grid, plan, track, cm, cd, info_d, taps_cache, offset_override=None, extra_d=0):
     """(xm, xd) for frame ``k``: the deliverable frame on its grid at the track's offset, the master
-    read at the same instant; None when the deliverable frame is not wholly inside its file."""
+    read at the same instant; None when the deliverable frame is not wholly inside its file.
+    ``extra_d`` moves the frame by that many deliverable samples (sub-frames around an edit)."""
     d = track[k] if offset_override is None else offset_override
     t = k * grid.hop_s
-    s_d = k * grid.hop_d + int(round(d * grid.rate_d_hz))
+    s_d = k * grid.hop_d + int(round(d * grid.rate_d_hz)) + extra_d
     if not _deliverable_inside(s_d, grid, info_d.frames):
         return None
     pos = (s_d / grid.rate_d_hz - d) * grid.rate_m_hz
@@ -317,6 +329,8 @@ def _spectral_stats(path_m, path_d, grid, plan, track, skip, info_d, block_frame
     jump_fracs = {j: [] for j in range(len(jumps))}
     taps_cache: dict = {}
     n = track.size
+    batch_u: list = []
+    batch_d: list = []
     with open_stream(path_m) as sm, open_stream(path_d) as sd:
         cm, cd = Cursor(sm, block_frames), Cursor(sd, block_frames)
         for k in range(n):
@@ -325,14 +339,20 @@ def _spectral_stats(path_m, path_d, grid, plan, track, skip, info_d, block_frame
                 ji = jump_frames[k]
                 _, _, d1, d2 = jumps[ji]
                 mid = 0.5 * (d1 + d2)
-                pair = _frame_pair(k, grid, plan, track, cm, cd, info_d, taps_cache, offset_override=mid)
-                if pair is not None:
+                for sub in range(JUMP_SUBFRAMES):
+                    pair = _frame_pair(k, grid, plan, track, cm, cd, info_d, taps_cache, offset_override=mid,
+                                       extra_d=sub * grid.hop_d // JUMP_SUBFRAMES)
+                    if pair is None:
+                        continue
                     xm, xd, s_d = pair
                     Xd_all, Xd, U = plan.spectra(xm, xd)
                     t_m = (s_d / grid.rate_d_hz - mid)
                     # master frame starts at deliverable-frame start minus mid; lags relative to it
-                    a = aligner.lag_values(Xd, U[:, :plan.cm], [mid - d1, mid - d2])
-                    jump_fracs[ji].append((k, s_d, t_m, a))
+                    lags = [mid - d1, mid - d2]
+                    span = max(abs(d2 - d1), 0.002)
+                    lags += [mid + span * (1.5 + 0.37 * i) * (-1) ** i for i in range(12)]   # unrelated lags
+                    a = aligner.lag_values(Xd, U[:, :plan.cm], lags)
+                    jump_fracs[ji].append((k, s_d, t_m, a, np.einsum("nc,nc->n", xd, xd)))
                 continue
             if skip[k]:
                 continue
@@ -341,13 +361,33 @@ def _spectral_stats(path_m, path_d, grid, plan, track, skip, info_d, block_frame
                 continue
             xm, xd, _ = pair
             Xd_all, Xd, U = plan.spectra(xm, xd)
-            Suu += U[:, :, None] * np.conj(U[:, None, :])
-            Sdu += Xd[:, :, None] * np.conj(U[:, None, :])
-            Sdd += (Xd * np.conj(Xd)).real
+            batch_u.append(U)
+            batch_d.append(Xd)
+            if len(batch_u) == ACCUMULATE_FRAMES:
+                _accumulate(batch_u, batch_d, Suu, Sdu, Sdd)
             if Xd_all.shape[0] > K + 1:
                 above += float(np.sum(np.abs(Xd_all[K + 1:]) ** 2))
             m += 1
+        _accumulate(batch_u, batch_d, Suu, Sdu, Sdd)
     return Suu, Sdu, Sdd, above, m, jump_fracs
+
+
+#: frames whose cross-spectra are summed in one batched product
+ACCUMULATE_FRAMES = 32
+
+
+def _accumulate(batch_u: list, batch_d: list, Suu, Sdu, Sdd) -> None:
+    """Add the frames' auto- and cross-spectra (one matrix product per bin for the whole batch)."""
+    if not batch_u:
+        return
+    U = np.stack(batch_u, axis=1)          # (K, F, Q)
+    D = np.stack(batch_d, axis=1)          # (K, F, Cd)
+    Uc = np.conj(U)
+    Suu += np.matmul(np.transpose(U, (0, 2, 1)), Uc)
+    Sdu += np.matmul(np.transpose(D, (0, 2, 1)), Uc)
+    Sdd += np.einsum("kfc,kfc->kc", D, np.conj(D)).real
+    batch_u.clear()
+    batch_d.clear()
 
 
 def _solve(Suu, Sdu, q=None):
@@ -406,23 +446,28 @@ def _jump_time(samples, grid: FrameGrid, d1: float, d2: float):
         x = np.clip(t / T, 0.0, 1.0)
         return np.where((t >= 0) & (t < T), 0.5 - 0.5 * np.cos(2 * np.pi * x), 0.0)
 
-    # content at deliverable time u (frame-relative) came from master time u + (s_d/fs - d) - t_m
-    a1w = (w_d * w_d) * w_m(t_rel + (mid - d1))      # before the edit: offset d1
-    a2w = (w_d * w_d) * w_m(t_rel + (mid - d2))
-    c1 = np.concatenate([[0.0], np.cumsum(a1w)])     # share of d1 if the edit is at sample j: c1[j]
-    c2 = np.concatenate([[0.0], np.cumsum(a2w[::-1])])[::-1]
-    for k, s_d, t_m, a in samples:
-        tot = a[0] + a[1]
-        if tot <= 0:
-            continue
-        phi = a[1] / tot
-        if not 0.05 < phi < 0.95:
-            continue
+    # content at deliverable time u (frame-relative) came from master time u + (s_d/fs - d) - t_m; each
+    # part's cross-correlation is the sum of the two windows times the deliverable's own power there
+    w1 = w_d * w_m(t_rel + (mid - d1))      # before the edit: offset d1
+    w2 = w_d * w_m(t_rel + (mid - d2))
+    for k, s_d, t_m, a, power in samples:
+        c1 = np.concatenate([[0.0], np.cumsum(w1 * power)])     # share of d1 if the edit is at sample j
+        c2 = np.concatenate([[0.0], np.cumsum((w2 * power)[::-1])])[::-1]
+        # the cross-correlation of two stretches of programme is not zero at unrelated lags: take the
+        # floor measured at such lags out of both values before sharing them out
+        floor2 = float(np.mean(np.square(a[2:]))) if len(a) > 2 else 0.0
+        v1 = math.sqrt(max(a[0] ** 2 - floor2, 0.0))
+        v2 = math.sqrt(max(a[1] ** 2 - floor2, 0.0))
+        tot = v1 + v2
+        noise = math.sqrt(floor2) if floor2 > 0 else 0.0
+        if tot <= 0 or min(v1, v2) < JUMP_MIN_SHARE_RE_FLOOR * noise:
+            continue   # one side is lost in the floor: this frame cannot place the edit
+        phi = v2 / tot
         model = c2 / np.maximum(c1 + c2, 1e-30)
         j = int(np.argmin(np.abs(model - phi)))
         u_d = s_d / grid.rate_d_hz + j / grid.rate_d_hz     # deliverable time of the edit
         estimates.append(u_d)
-        weights.append(min(phi, 1 - phi))
+        weights.append(min(v1, v2) / noise if noise > 0 else min(phi, 1 - phi))
     if not estimates:
         return None
     return float(np.average(estimates, weights=weights))
