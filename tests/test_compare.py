@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -348,3 +349,25 @@ def test_demo_deliverables_get_the_verdicts_they_were_built_for(tmp_path):
     assert {"derivation.folded_residue", "derivation.level_at_20khz"} <= failed["cheap-converter"]
     assert "derivation.dither_required" not in failed["cheap-converter"]
     assert "PASS  tide-clock_44k16_careful.wav" in buf.getvalue()
+
+
+def test_pairing_by_pattern_in_folders(tmp_path):
+    # house rule: '*_44k16.wav=*_96k24.wav' pairs files in the same folder with the same '*' part
+    from masterqc.cli import main
+    from masterqc.compare.pairs import find_pairs, parse_rule
+    album = tmp_path / "in" / "album"
+    album.mkdir(parents=True)
+    x = programme(48000, 3.0, seed=71)
+    sf.write(album / "one_96k24.wav", x, 48000, subtype="FLOAT")
+    sf.write(album / "one_44k16.wav", x, 48000, subtype="FLOAT")
+    sf.write(album / "two_44k16.wav", x, 48000, subtype="FLOAT")      # its master is missing
+    pairs, unpaired = find_pairs(tmp_path / "in", parse_rule("*_44k16.wav=*_96k24.wav"))
+    assert [(m.name, d.name) for m, d in pairs] == [("one_96k24.wav", "one_44k16.wav")]
+    assert [d.name for d in unpaired] == ["two_44k16.wav"]
+    code = main(["compare", str(tmp_path / "in"), "--pair", "*_44k16.wav=*_96k24.wav", "--out",
+                 str(tmp_path / "out"), "--format", "json", "--quiet"])
+    assert code == 1                                                  # the unpaired deliverable
+    index = json.loads((tmp_path / "out" / "pairs.json").read_text())
+    assert [(r["verdict"], Path(r["deliverable"]).name) for r in index["pairs"]] == \
+        [("measured", "one_44k16.wav"), ("unpaired", "two_44k16.wav")]
+    assert "one_44k16.wav" in (tmp_path / "out" / "index.html").read_text()

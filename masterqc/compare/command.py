@@ -13,8 +13,12 @@ FORMATS = ("json", "html", "pdf")
 
 def add_parser(sub) -> None:
     c = sub.add_parser("compare", help="measure a deliverable against the master it was made from")
-    c.add_argument("master", metavar="MASTER", help="the master the deliverable was made from")
-    c.add_argument("deliverable", metavar="DELIVERABLE", help="the deliverable (any rate and bit depth)")
+    c.add_argument("paths", nargs="+", metavar="MASTER DELIVERABLE",
+                   help="the master and the deliverable made from it (any rates and bit depths); with --pair, "
+                        "folders to search for pairs")
+    c.add_argument("--pair", metavar="DELIVERABLE_GLOB=MASTER_GLOB", default=None,
+                   help="pair files below the folders by name, e.g. '*_44k16.wav=*_96k24.wav' (same folder, "
+                        "same '*' part); writes every pair's reports and index.html")
     c.add_argument("--spec", default=None,
                    help="delivery spec whose derivation: section is judged (without it: measured only)")
     c.add_argument("--out", default=".", help="folder for the result and reports (default: the current folder)")
@@ -91,6 +95,13 @@ def cmd_compare(args) -> int:
         if unknown or not wanted:
             raise UsageError(f"--format {args.formats}: use a comma-separated list of {', '.join(FORMATS)}")
         formats = tuple(f for f in FORMATS if f in wanted)
+    if args.pair is not None:
+        from masterqc.compare.pairs import run_pairs
+        return run_pairs(args.paths, args.pair, args.spec, args.out, formats, args.quiet, sys.stdout)
+    if len(args.paths) != 2:
+        raise UsageError(f"compare takes MASTER DELIVERABLE (two files), got {len(args.paths)} path(s); "
+                         "to pair files in folders, use --pair")
+    args.master, args.deliverable = args.paths
     progress = None
     if not args.quiet and sys.stderr.isatty():
         def progress(step):

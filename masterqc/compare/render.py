@@ -147,9 +147,22 @@ def transfer_plot(r: dict) -> str | None:
     c = np.array([np.nan if v is None else v for v in s["coherence"]], float)
     t = r["transfer"]
     with matplotlib.rc_context(plots.STYLE):
-        fig = plots._figure(4.0)
-        ax = fig.add_axes((0.085, 0.44, 0.89, 0.47))
-        ax2 = fig.add_axes((0.085, 0.1, 0.89, 0.24), sharex=ax)
+        fig = plots._figure(5.6)
+        ax = fig.add_axes((0.085, 0.62, 0.89, 0.31))
+        ax2 = fig.add_axes((0.085, 0.07, 0.89, 0.14), sharex=ax)
+        ax3 = fig.add_axes((0.085, 0.3, 0.89, 0.23))
+        # the pass band at a scale that shows the ripple, on a linear axis up to the new Nyquist frequency
+        lo_r, hi_r = t["ripple_band_hz"]
+        band = (f >= lo_r) & (f <= hi_r) & np.isfinite(h)
+        span = max(0.02, 1.5 * float(np.max(np.abs(h[band])))) if band.any() else 1.0
+        ax3.plot(f, h, color=plots.BLUE, lw=1.0)
+        ax3.axvspan(lo_r, hi_r, color=plots.GREY, alpha=0.07, lw=0)
+        ax3.axvline(t["nyquist_new_hz"], color=plots.BLACK, lw=0.9, ls=(0, (1, 1.2)))
+        ax3.set_xlim(0.0, min(t["nyquist_new_hz"], f[-1]) * 1.01)
+        ax3.set_ylim(-span, span)
+        ax3.set_ylabel("pass band (dB)")
+        ax3.set_xlabel("frequency (Hz), linear; shaded: the ripple band")
+        ax3.xaxis.set_major_formatter(FuncFormatter(_hz))
         ax.plot(f, h, color=plots.BLUE, lw=1.0, label="|H(f)| re the broadband gain")
         ax.axhline(-3.0, color=plots.GREY, lw=0.8, ls=(0, (4, 2)), label="-3 dB")
         ax.axvline(t["nyquist_new_hz"], color=plots.BLACK, lw=0.9, ls=(0, (1, 1.2)), label="new Nyquist")
