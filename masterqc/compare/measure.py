@@ -269,7 +269,9 @@ def _segment(offsets: np.ndarray, grid: FrameGrid):
         seg_vals = vals[a:b]
         seg_idx = idx[a:b]
         level = float(np.median(seg_vals))
-        track[idx[a]:(idx[b - 1] + 1)] = level
+        # the track follows the smoothed offsets inside a segment (clock drift), constant across none of it
+        span = np.arange(idx[a], idx[b - 1] + 1)
+        track[span] = np.interp(span, seg_idx, smooth[a:b]) if b - a >= 5 else level
         if b - a >= 10:
             t = seg_idx * grid.hop_s
             p = np.polyfit(t, seg_vals, 1)
@@ -660,7 +662,8 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
     ripple_top = min(20000.0, RIPPLE_TOP_FRACTION * nyq_new, common_top)
     rb = _band(f, RIPPLE_LOW_HZ, ripple_top) & (coh >= RIPPLE_MIN_COHERENCE) & np.isfinite(Hdb)
     ripple = float(np.max(Hdb[rb]) - np.min(Hdb[rb])) if rb.sum() >= 3 else None
-    mean_coh = float(np.nanmean(coh[_band(f, RIPPLE_LOW_HZ, ripple_top)])) if K else None
+    cband = coh[_band(f, RIPPLE_LOW_HZ, ripple_top)]
+    mean_coh = float(np.mean(cband[np.isfinite(cband)])) if np.isfinite(cband).any() else None
     at20k = None
     if 20000.0 < common_top:
         k20 = int(round(20000.0 * grid.frame_s))
@@ -675,7 +678,7 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
         sdb = 10 * np.log10(np.maximum(smooth, 1e-300)) - 20 * np.log10(g_lin)
     start = int(np.searchsorted(f, 1000.0))
     below = np.flatnonzero(sdb[start:K - 1] < -3.0)
-    if below.size:
+    if below.size and below[0] > 0:   # (a response already 3 dB down at 1 kHz has no such point)
         kk = start + int(below[0])
         if kk > 0:
             y0, y1 = sdb[kk - 1], sdb[kk]
