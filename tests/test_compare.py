@@ -248,6 +248,36 @@ def test_constant_offset_to_a_fraction_of_a_sample(tmp_path):
     assert r["alignment"]["jumps"] == []
 
 
+def test_clock_drift_measured_in_ppm(tmp_path):
+    # a deliverable resampled by the ratio 1 + 50e-6 (soxr VHQ) and labelled with the master's rate
+    # runs 50 ppm slow: its offset grows by 50 us per second (analytic)
+    fs = 44100
+    x = programme(fs, 5.0, seed=19)
+    y = soxr.resample(x, fs, fs * (1 + 50e-6), "VHQ")
+    r = run(tmp_path, "drift", x, fs, y, fs)
+    assert r["alignment"]["drift_ppm"] == pytest.approx(50.0, abs=1.0)
+    assert r["alignment"]["jumps"] == []
+
+
+def test_upsampled_deliverable_images_above_the_master_band(tmp_path):
+    # 44.1 kHz -> 96 kHz: soxr HQ leaves nothing above 22.05 kHz at the level of its stop band
+    # (libsoxr's HQ recipe: about 20-bit, so under -100 dB re the signal -- from memory); zero-order
+    # hold upsampling (each sample repeated) leaves images whose power re the signal follows from
+    # its sinc response (computed here from the hold's own response)
+    fs_m, fs_d = 48000, 96000
+    x = programme(fs_m, 3.0, seed=20, pole=0.3)
+    good = run(tmp_path, "up_good", x, fs_m, soxr.resample(x, fs_m, fs_d, "HQ"), fs_d)
+    assert good["residue"]["above_master_band_re_signal_db"] < -100.0
+    hold = run(tmp_path, "up_hold", x, fs_m, np.repeat(x, 2, axis=0), fs_d)
+    # hold of 2: H(f) = cos(pi f / fs_d); image at fs_m - f has gain sin(pi f / fs_d) for master content
+    # at f, so images re passed power = int |X|^2 sin^2 / int |X|^2 cos^2 over the master band
+    f = np.linspace(20.0, 0.95 * fs_m / 2, 4001)
+    g2 = np.abs(signal.freqz([1.0], [1.0, -0.3], worN=f, fs=fs_m)[1]) ** 2
+    analytic_db = 10 * np.log10(np.trapezoid(g2 * np.sin(np.pi * f / fs_d) ** 2, f)
+                                / np.trapezoid(g2 * np.cos(np.pi * f / fs_d) ** 2, f))
+    assert hold["residue"]["above_master_band_re_signal_db"] == pytest.approx(analytic_db, abs=1.0)
+
+
 # ---------------------------------------------------------------- identity
 # Thresholds (house choice): same >= correlation of a residual 30 dB down, different mix >= 0.5.
 # Tuning set: stem rebalanced (noise stems, seeds 21-22); held-back validation: a reverb changed
