@@ -119,8 +119,8 @@ def _dither(rq: dict, same: bool, not_same: str) -> Finding:
     level = rq.get("residual_power_dbfs")
     lvl = f"{level:.1f} dBFS" if level is not None else "n/a"
     if v == "signal_correlated":
-        return Finding(check=check, status="fail", severity="fail", measured="signal-correlated",
-                       measured_text="signal-correlated", limit="dithered",
+        return Finding(check=check, status="fail", severity="fail", measured="undithered",
+                       measured_text="undithered", limit="dithered",
                        message=(f"the requantisation error follows the signal: where the signal falls below it, its "
                                 f"level changes by {rq['quiet_residual_change_db']:+.1f} dB (TPDF dither keeps it "
                                 "level): the word length was cut without dither"))
