@@ -37,6 +37,7 @@ SECTIONS: list[tuple[str, str]] = [
     ("integrity", "masterqc.spec.sections.integrity"),
     ("sampling", "masterqc.spec.sections.sampling"),
     ("release", "masterqc.spec.sections.release"),
+    ("derivation", "masterqc.spec.sections.derivation"),
 ]
 
 
