@@ -11,13 +11,15 @@ import sys
 
 
 def add_parsers(sub) -> None:
-    """Add the sub-parsers of check, judge, spec, report, demo and runs."""
+    """Add the sub-parsers of check, judge, spec, report, demo, runs and compare."""
     _add_check(sub)
     _add_judge(sub)
     _add_spec(sub)
     _add_report(sub)
     _add_demo(sub)
     _add_runs(sub)
+    from masterqc.compare.command import add_parser as _add_compare
+    _add_compare(sub)
 
 
 # ---------------------------------------------------------------- check

@@ -537,6 +537,8 @@ def run_demo(out_dir="demo-output", formats: str | None = None, stream=None, job
     finally:
         if pool is not None:
             pool.shutdown()
+    from masterqc.compare.demo import run_compare_demo
+    run_compare_demo(out_dir, fmts, out)  # one master and three deliverables made from it
     elapsed = time.perf_counter() - started
     out.write(f"\nReports ({', '.join(fmts)}) are in {out_dir}/<spec>/<master>.*; the masters in {masters_dir}/.\n")
     out.write(f"Done in {elapsed:.1f} s. The faults are deliberate: see masterqc/demo.py for how each master was made.\n")

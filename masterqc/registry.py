@@ -34,8 +34,8 @@ from masterqc.judge import peaks as judge_peaks
 from masterqc.judge import release as judge_release
 from masterqc.judge import sampling as judge_sampling
 from masterqc.judge.core import judge_checks
-from masterqc.spec.sections import duration, format, integrity, loudness, metadata, normalisation, peaks, release, \
-    sampling
+from masterqc.spec.sections import derivation, duration, format, integrity, loudness, metadata, normalisation, peaks, \
+    release, sampling
 
 
 @dataclass(frozen=True)
@@ -73,6 +73,7 @@ SECTIONS: list[SectionEntry] = [
     SectionEntry("integrity", integrity, judge_integrity.judge),
     SectionEntry("sampling", sampling, judge_sampling.judge),
     SectionEntry("release", release, None),  # judged once per release: judge_release.judge
+    SectionEntry("derivation", derivation, None),  # judged by masterqc compare (a deliverable against its master)
 ]
 
 #: the judge of the ``release:`` section (one release result at a time, see masterqc.batch.releases)
