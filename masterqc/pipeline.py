@@ -197,6 +197,11 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
     from masterqc.measure.engine import measure_file
 
     options = options_for(loaded_spec, base_options)
+    if stored is not None and "measurements" not in stored and "error" in stored:
+        # the stored outcome of an earlier read under the same settings: the file could not be read
+        err = stored["error"]
+        return error_result(path, loaded_spec, err.get("cause", "it could not be read"), err.get("offset"),
+                            stored.get("file"))
     if stored is not None and can_rejudge(stored, options):
         measured = {k: v for k, v in stored.items() if k not in JUDGED_KEYS}
         out = judge_result(measured, loaded_spec)

@@ -143,7 +143,7 @@ def test_first_run_verdicts_and_exit_code(catalogue, first_run):
     for rel, verdict in exp.items():
         assert files[rel]["verdict"] == verdict, (rel, files[rel]["first_problem"])
     assert s["counts"] == {"pass": 18, "warn": 0, "fail": 3, "error": 3, "files": 24, "analysed": 19, "reused": 5,
-                           "releases": 6, "releases_failed": 2}
+                           "measured": 19, "rejudged": 0, "releases": 6, "releases_failed": 2}
     # files of identical content (and spec) are analysed once; each still gets its own result
     assert sorted(r for r, f in files.items() if not f["analysed"]) == [
         "episodes/s01/e02.wav", "episodes/s01/e03.wav", "episodes/s01/e04.wav",
@@ -260,6 +260,30 @@ def test_index_html(first_run):
     assert '"DejaVu Sans"' in style and "&#34;" not in style  # CSS inlined verbatim, not HTML-escaped
 
 
+def test_a_spec_change_that_moves_only_limits_reads_no_audio(catalogue, first_run, tmp_path, monkeypatch):
+    """Measure once, judge many (house choice): the ledger keys measurements by content and measurement
+    settings, not by spec, so a spec that moves only a limit re-judges every file from the ledger."""
+    base, root, spec, exp = catalogue
+    _, out, _ = first_run
+    import masterqc.measure.engine as engine
+    monkeypatch.setattr(engine, "open_stream", lambda *a, **k: pytest.fail(f"audio was read: {a}"))
+    strict = tmp_path / "strict.yaml"  # -14 +- 1 LUFS becomes -14 +- 0.2 LUFS: only a limit moves
+    strict.write_text(SPEC.replace("integrated: {target_lufs: -14.0, tolerance_lu: 1.0}",
+                                   "integrated: {target_lufs: -14.0, tolerance_lu: 0.2}"))
+    import sqlite3
+    ledger = tmp_path / "ledger.sqlite"  # a copy of the first run's ledger (the other tests count its runs)
+    with sqlite3.connect(out / "masterqc-ledger.sqlite") as src, sqlite3.connect(ledger) as dst:
+        src.backup(dst)
+    o = run_batch(BatchConfig(roots=[str(root)], spec_path=str(strict), out_dir=str(tmp_path / "out"),
+                              ledger_path=str(ledger), formats=("json",), jobs=1, quiet=True))
+    c = o.summary["counts"]
+    assert (c["measured"], c["rejudged"]) == (0, 24)  # identical files and unreadable ones too: stored outcomes
+    files = by_rel(o.summary)
+    assert {f["how"] for f in files.values()} <= {"rejudged", "identical", None}
+    html = (tmp_path / "out" / "index.html").read_text(encoding="utf-8")
+    assert "0 measured, 24 re-judged from stored measurements" in html
+
+
 def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_path):
     base, root, spec, exp = catalogue
     _, out, _ = first_run
@@ -267,7 +291,7 @@ def test_second_run_analyses_nothing_then_one_change(catalogue, first_run, tmp_p
     second = run_batch(BatchConfig(**cfg))
     assert second.exit_code == 3
     c = second.summary["counts"]
-    assert (c["analysed"], c["reused"]) == (0, 24)
+    assert (c["analysed"], c["reused"], c["rejudged"]) == (0, 24, 24)  # the stored measurements judged again
     assert second.summary["changes"] == {"new": [], "fixed": [], "newly_failing": [], "gone": []}
     # fix the too-loud track: exactly that file is analysed again, and it counts as fixed
     tone(os.path.join(root, "album_b", "02.wav"), -14.3)

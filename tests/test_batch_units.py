@@ -224,7 +224,9 @@ def test_spec_map_errors_name_file_and_key(tmp_path):
     assert "missing.yaml" in text and "extra" in text
 
 
-def test_editing_an_extends_base_rechecks_its_files(tmp_path, rng):
+def test_editing_an_extends_base_rejudges_its_files(tmp_path, rng):
+    """A base spec edit that moves a limit re-judges the stored measurements (no re-analysis) and the
+    verdict follows the new limit (house choice: measurements keyed by content and measurement settings)."""
     base = spec_file(tmp_path, SPEC, "base.yaml")
     child = spec_file(tmp_path, "spec_version: 1\nname: Child\nextends: base.yaml\n", "child.yaml")
     root = tmp_path / "in"
@@ -235,8 +237,8 @@ def test_editing_an_extends_base_rechecks_its_files(tmp_path, rng):
     assert run_batch(cfg).summary["counts"]["analysed"] == 0
     base.write_text(SPEC.replace("max_lufs: -5.0", "max_lufs: -25.0"))  # only the base changes
     third = run_batch(cfg)
-    assert third.summary["counts"]["analysed"] == 1
-    assert third.summary["files"][0]["verdict"] == "fail"
+    assert (third.summary["counts"]["analysed"], third.summary["counts"]["rejudged"]) == (0, 1)
+    assert third.summary["files"][0]["verdict"] == "fail" and third.summary["files"][0]["how"] == "rejudged"
     assert third.summary["changes"]["newly_failing"] == ["in/a.wav"]
 
 
@@ -267,7 +269,7 @@ def test_ledger_is_wal_and_overlapping_runs_both_complete(tmp_path, rng):
     assert {k: o.summary["counts"]["analysed"] for k, o in outcomes.items()} == {"one": 3, "two": 3}
     with sqlite3.connect(ledger) as db:
         assert db.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
-        assert db.execute("SELECT COUNT(*) FROM results").fetchone()[0] == 6
+        assert db.execute("SELECT COUNT(*) FROM measurements").fetchone()[0] == 6
         assert [r[0] for r in db.execute("SELECT status FROM runs ORDER BY run_id")] == ["complete", "complete"]
     with Ledger(ledger) as led:
         assert len(led.runs()) == 2
@@ -421,7 +423,7 @@ def test_killed_run_resumes(tmp_path, rng, signame):
         if ledger.exists():
             try:
                 with sqlite3.connect(ledger, timeout=5) as db:
-                    done = db.execute("SELECT COUNT(*) FROM results").fetchone()[0]
+                    done = db.execute("SELECT COUNT(*) FROM measurements").fetchone()[0]
             except sqlite3.OperationalError:
                 done = 0
             if done >= 2:

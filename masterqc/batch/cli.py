@@ -44,7 +44,8 @@ def cmd_check_batch(args, formats) -> int:
             parse_release_mode(args.releases)
         except ValueError as exc:
             raise UsageError(f"--releases: {exc}") from None
-    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
+    from masterqc.commands import layout_option
+    layout = layout_option(args.layout)
     from masterqc.batch.ledger import LedgerError
     try:
         outcome = run_batch(BatchConfig(roots=list(args.paths), spec_path=args.spec, out_dir=args.out,
@@ -59,7 +60,7 @@ def cmd_check_batch(args, formats) -> int:
         ch = s["changes"]
         sys.stdout.write(
             f"{c['files']} files: {c['fail']} fail, {c['error']} error, {c['warn']} warn, {c['pass']} pass "
-            f"({c['analysed']} analysed, {c['reused']} reused); "
+            f"({c['measured']} measured, {c['rejudged']} re-judged from stored measurements); "
             f"{c['releases']} releases, {c['releases_failed']} failing\n")
         if s["previous_run"] is not None:
             sys.stdout.write(f"since run {s['previous_run']['run_id']}: {len(ch['newly_failing'])} newly failing, "

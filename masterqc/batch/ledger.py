@@ -2,9 +2,13 @@
 
 Tables
 ------
-``results``    one judged result per (file content SHA-256, spec key, tool version):
-               the result JSON (zlib-compressed) -- a file whose bytes, spec and masterqc
-               version are unchanged is never analysed again.
+``measurements`` one measured result per (file content SHA-256, measurement key): the
+               result JSON (zlib-compressed).  The measurement key
+               (:meth:`masterqc.measure.options.MeasureOptions.measurement_key`) covers the
+               settings that can change a number and the masterqc version, not the spec's
+               limits -- a file whose bytes and measurement settings are unchanged is never
+               measured again; a spec that moves only limits re-judges the stored measurements.
+``results``    (unused since result format 2: judged results keyed by spec hash)
 ``runs``       one row per run: start/finish time (UTC, ISO 8601), status
                (``running``, ``complete``, ``interrupted``, ``failed``), folders, output folder, counts.
 ``run_files``  one row per file per run: path, release, content hash, spec key,
@@ -41,6 +45,13 @@ CREATE TABLE IF NOT EXISTS results (
     result_z BLOB NOT NULL,
     created_utc TEXT NOT NULL,
     PRIMARY KEY (content_sha256, spec_key, tool_version)
+);
+CREATE TABLE IF NOT EXISTS measurements (
+    content_sha256 TEXT NOT NULL,
+    measure_key TEXT NOT NULL,
+    result_z BLOB NOT NULL,
+    created_utc TEXT NOT NULL,
+    PRIMARY KEY (content_sha256, measure_key)
 );
 CREATE TABLE IF NOT EXISTS runs (
     run_id INTEGER PRIMARY KEY AUTOINCREMENT,
@@ -160,6 +171,23 @@ class Ledger:
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO results VALUES (?,?,?,?,?,?)",
                             (content_sha256, spec_key, tool_version, result.get("verdict", "error"), blob, utc_now()))
+
+    def get_measurements(self, content_sha256: str, measure_key: str) -> dict | None:
+        """The stored measured result of this content under these measurement settings, or None."""
+        row = self.db.execute("SELECT result_z FROM measurements WHERE content_sha256=? AND measure_key=?",
+                              (content_sha256, measure_key)).fetchone()
+        if row is None:
+            return None
+        try:
+            return json.loads(zlib.decompress(row[0]).decode("utf-8"))
+        except (zlib.error, ValueError):
+            return None  # a damaged row is treated as absent: the file is measured again
+
+    def put_measurements(self, content_sha256: str, measure_key: str, result: dict) -> None:
+        blob = zlib.compress(json.dumps(result, separators=(",", ":"), allow_nan=False).encode("utf-8"), 6)
+        with self._tx():
+            self.db.execute("INSERT OR REPLACE INTO measurements VALUES (?,?,?,?)",
+                            (content_sha256, measure_key, blob, utc_now()))
 
     # -------------------------------------------------------------- file stat cache
 

@@ -159,7 +159,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <p class="run-file">{{ run.roots|join(", ") }}</p>
 <div class="verdict st-{{ overall }}" role="status">
 <div class="verdict-word">{{ icon(overall) }}<span class="run-verdict">{{ WORD[overall] }}</span></div>
-<p class="verdict-summary">{{ headline }}. {{ counts.analysed }} analysed, {{ counts.reused }} not analysed again (unchanged since an earlier check, or identical to another file); {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
+<p class="verdict-summary">{{ headline }}. {{ counts.measured }} measured, {{ counts.rejudged }} re-judged from stored measurements (no audio read), {{ counts.reused - counts.rejudged }} not checked again (identical to another file, or not checkable); {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
 </div>
 <ul class="index-counts">
 {%- for v in ["fail", "error", "warn", "pass"] %}
@@ -227,7 +227,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <td class="num" data-sort="{{ sortnum(f.integrated_lufs) }}">{{ fmt(f.integrated_lufs, "LUFS") }}</td>
 <td class="num" data-sort="{{ sortnum(f.true_peak_dbtp) }}">{{ fmt(f.true_peak_dbtp, "dBTP") }}</td>
 <td class="num">{{ fmt(f.duration_s, "s") }}</td>
-<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if not f.analysed %}<span class="first-problem">not analysed again</span>{% endif %}</td>
+<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="first-problem">re-judged, not re-measured</span>{% elif f.how == "measured" %}<span class="first-problem">measured</span>{% elif not f.analysed %}<span class="first-problem">not analysed again</span>{% endif %}</td>
 <td class="links">{% for kind, href in f.outputs.items() %}<a href="{{ href }}">{{ kind }}</a>{% endfor %}</td>
 </tr>
 {%- endfor %}

@@ -6,8 +6,10 @@
 2. discover the masters (:mod:`masterqc.batch.discover`);
 3. hash every file (content SHA-256; skipped for a file whose size, mtime, ctime and inode
    the ledger has seen with a hash);
-4. for each file, reuse the ledger's result for (content hash, spec key, tool version) or
-   run :func:`masterqc.pipeline.check_file` through the backend (inline, process pool or dask);
+4. for each file, judge the ledger's stored measurements for (content hash, measurement key:
+   the settings that can change a number and the tool version) again, reading no audio
+   (:func:`masterqc.pipeline.measure_and_judge`), or run :func:`masterqc.pipeline.check_file`
+   through the backend (inline, process pool or dask) and store its measurements;
    files with identical content and spec are checked once;
 5. record every file in the ledger the moment it is done (an interrupted run keeps them);
 6. judge each release folder (:mod:`masterqc.batch.releases`);
@@ -80,6 +82,8 @@ class Item:
     elapsed_s: float = 0.0
     cpu_s: float = 0.0
     rule_error: str | None = None  #: the folder spec governing this master does not validate
+    measure_key: str | None = None  #: key of the measurement settings the file's spec asks for
+    how: str | None = None  #: "measured", "rejudged" (stored measurements), "identical" (another file's result)
     hash_error: str | None = None
 
 
@@ -309,9 +313,13 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 finish(it, place(it, _error_result(it, _NoSpec(), f"no rule of the spec map {specmap.path} matches "
                                                                    f"{it.found.rel!r}"), False), False)
                 continue
-            cached = ledger.get_result(it.sha256, it.rule.key, __version__) if cfg.reuse else None
-            if cached is not None:
-                finish(it, place(it, cached, False), False)
+            from masterqc.pipeline import measure_and_judge, options_for
+            it.measure_key = options_for(it.rule.loaded, base).measurement_key()
+            stored = ledger.get_measurements(it.sha256, it.measure_key) if cfg.reuse else None
+            if stored is not None:  # measure once, judge many: no audio is read
+                it.how = "rejudged"
+                finish(it, place(it, measure_and_judge(it.path, it.rule.loaded, base_options=base, stored=stored),
+                                 False), False)
                 continue
             groups.setdefault((it.sha256, it.rule.key), []).append(it)
 
@@ -352,10 +360,12 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 wrote = True
             internal = bool((result.get("error") or {}).get("internal"))
             got_hash = (result.get("file") or {}).get("sha256")
-            if not internal and got_hash == lead.sha256:
-                ledger.put_result(lead.sha256, lead.rule.key, __version__, result)
+            if not internal and got_hash == lead.sha256:  # measurements, or why the file cannot be read
+                ledger.put_measurements(lead.sha256, lead.measure_key, result)
+            lead.how = "measured"
             finish(lead, place(lead, result, wrote), True)
             for other in group[1:]:
+                other.how = "identical"
                 finish(other, place(other, result, False), False)
         progress.close()
 
@@ -416,6 +426,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
         outcomes.append({k: r[k] for k in ("verdict", "error") if k in r})
         files.append({
             "path": it.path, "rel": it.rel, "release": it.release, "verdict": v, "analysed": it.analysed,
+            "how": it.how,
             "elapsed_s": it.elapsed_s, "cpu_s": it.cpu_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
             "sha256": it.sha256, "size_bytes": it.size_bytes,
             "spec": (r.get("spec") or {}).get("name"), "spec_key": it.rule.key if it.rule else None,
@@ -445,6 +456,8 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
     counts = {v: sum(1 for f in files if f["verdict"] == v) for v in ("pass", "warn", "fail", "error")}
     counts.update(files=len(files), analysed=sum(1 for f in files if f["analysed"]),
                   reused=sum(1 for f in files if not f["analysed"]),
+                  measured=sum(1 for f in files if f["how"] == "measured"),
+                  rejudged=sum(1 for f in files if f["how"] == "rejudged"),
                   releases=len(releases),
                   releases_failed=sum(1 for r in releases if r["verdict"] in ("fail", "error")))
     now = {it.path for it in items}

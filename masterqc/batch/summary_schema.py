@@ -23,6 +23,10 @@ _FILE = {
         "release": _STR_OR_NULL,
         "verdict": _VERDICT,
         "analysed": {"type": "boolean", "description": "false: the result came from the ledger or an identical file"},
+        "how": {"enum": ["measured", "rejudged", "identical", None],
+                "description": "measured: the audio was read and measured in this run; rejudged: the stored "
+                               "measurements (same content, same measurement settings) were judged again, no audio "
+                               "read; identical: the result of an identical file in this run; null: not checked"},
         "elapsed_s": {"type": "number", "minimum": 0},
         "cpu_s": {"type": "number", "minimum": 0},
         "change": {"enum": ["new", "fixed", "newly_failing", "changed", "unchanged"]},
@@ -89,7 +93,8 @@ def summary_schema() -> dict:
             "exit_code": {"enum": [0, 1, 3]},
             "counts": {"type": "object", "additionalProperties": False,
                        "properties": {k: _INT for k in ("pass", "warn", "fail", "error", "files", "analysed",
-                                                        "reused", "releases", "releases_failed")}},
+                                                        "reused", "measured", "rejudged", "releases",
+                                                        "releases_failed")}},
             "previous_run": {"anyOf": [{"type": "null"},
                                        {"type": "object", "required": ["run_id", "started_utc"]}]},
             "changes": {"type": "object", "additionalProperties": False,
