@@ -41,8 +41,13 @@ Reading grid (``kaiser``): a scan, then a 32x read where it matters
     no fine-grid value above ``X``: with ``X`` the channel's peak so far, such
     a frame cannot change the true peak; with ``X`` the caller's floor (the
     over ceiling, the envelope bucket's maximum so far) it cannot change the
-    overs or the envelope.  Results equal a full 32x evaluation and do not
-    depend on the block size (scan segments sit at fixed frame positions).
+    overs or the envelope.  The bound is proven at the signal's largest value;
+    at a smaller local maximum it holds as long as no larger value lies within
+    about a sample (the curvature there is bounded by the larger value), so the
+    overs and the envelope are checked against a full 32x evaluation on
+    near-Nyquist signals in the tests.  Results equal a full 32x evaluation and
+    do not depend on the block size (scan segments sit at fixed frame
+    positions).
 
 Filter (``annex2`` design)
     The example 48-tap, 4-phase filter printed in BS.1770-5 Annex 2 (4x only,
