@@ -76,7 +76,7 @@ from functools import lru_cache
 
 import numpy as np
 import scipy.fft as sfft
-from numpy.lib.stride_tricks import as_strided, sliding_window_view
+from numpy.lib.stride_tricks import as_strided
 
 #: the example interpolation filter of ITU-R BS.1770-5 Annex 2 (phases 0 and 1;
 #: phase 2 is phase 1 reversed, phase 3 is phase 0 reversed)
@@ -600,7 +600,7 @@ class TruePeakMeter:
             if not cand.size:
                 continue
             self.refined_frames += int(cand.size)
-            windows = sliding_window_view(seg32[c], T)                  # window of frame i starts at i - lead
+            windows = as_strided(seg32[c], shape=(seg32.shape[1] - T + 1, T), strides=(4, 4))  # frame i: from i - lead
             for j in range(0, cand.size, self.REFINE_CHUNK):
                 idx = cand[j:j + self.REFINE_CHUNK]
                 v = np.abs(windows[idx] @ self._fine).max(axis=1)
