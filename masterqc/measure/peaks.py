@@ -110,12 +110,14 @@ class TruePeakAnalyzer(Analyzer):
     loss);
     ``true_peak_ceiling_dbtp`` (the ceiling the overs refer to);
     ``true_peak_over_count``, the number of frames (sample periods) in which an
-    interpolated value of any channel exceeds the ceiling;
+    interpolated value (on the same grid as the true peak) of any channel
+    exceeds the ceiling, so a true peak above the ceiling always has an over;
     ``true_peak_over_ranges_s``, those frames merged into [start, end] ranges
     (frames closer than 10 ms join one range; the first 100 ranges are listed)
     and ``true_peak_over_range_count``, the number of all ranges.  Series:
-    ``true_peak_envelope_dbtp`` (maximum over channels per bucket of at most
-    1/2000 of the file, None where silent) with ``true_peak_envelope_time_s``
+    ``true_peak_envelope_dbtp`` (maximum over channels and the reading grid
+    per bucket of at most 1/2000 of the file, None where silent) with
+    ``true_peak_envelope_time_s``
     (bucket start times).
     """
 
