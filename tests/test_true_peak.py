@@ -123,7 +123,8 @@ def test_sine_at_quarter_rate_sampled_at_45_degrees_reads_3_01_db_over_its_sampl
 
 # --- under-read of the oversampling grid (BS.1770-5 Annex 2) ---------------------------------
 # ITU-R BS.1770-5 Annex 2 gives the worst-case under-read of an n-times oversampled peak
-# of a sine at f as 20*log10(cos(pi*f/(n*fs))).  Derivation: the peak of cos(2*pi*f*t)
+# of a sine at f as 20*log10(cos(pi*f/(n*fs))) (where it is stated: from memory; the
+# derivation below is the check).  Derivation: the peak of cos(2*pi*f*t)
 # lies at most half a grid step 1/(2*n*fs) from the nearest grid instant, where the
 # phase is pi*f/(n*fs) off, so the largest grid value is cos(pi*f/(n*fs)).
 ANALYTIC_TABLE = {4: (0.554, 0.688), 8: (0.136, 0.169), 16: (0.034, 0.042), 32: (0.008, 0.010)}
@@ -195,7 +196,8 @@ def test_annex2_example_filter_computed_properties():
     assert ov.magnitude_db(flt, [21600 / FS])[0] == pytest.approx(-1.26, abs=0.02)
     assert ov.magnitude_db(flt, [0.5])[0] == pytest.approx(-6.2, abs=0.05)
     # taps are as printed in Annex 2 (phase 0 and phase 1 listed there; a few
-    # coefficients checked by value): phase 2 is phase 1 reversed, phase 3 is
+    # coefficients checked by value, values from memory of the printed table): the
+    # re-indexing keeps the printed order; phase 2 is phase 1 reversed, phase 3 is
     # phase 0 reversed
     assert flt.taps[::-1, 0][6] == 0.97216796875 and flt.taps[::-1, 0][0] == 0.001708984375
     assert flt.taps[::-1, 1][6] == 0.77978515625 and flt.taps[::-1, 1][11] == -0.0189208984375
