@@ -44,10 +44,12 @@ def cmd_check_batch(args, formats) -> int:
             parse_release_mode(args.releases)
         except ValueError as exc:
             raise UsageError(f"--releases: {exc}") from None
-    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
+    from masterqc.cli import parse_layout
+    layout = parse_layout(args.layout)
     from masterqc.batch.ledger import LedgerError
     try:
         outcome = run_batch(BatchConfig(roots=list(args.paths), spec_path=args.spec, out_dir=args.out,
+                                        spec_libraries=tuple(getattr(args, "spec_library", None) or ()),
                                         formats=tuple(formats), jobs=args.jobs, scheduler=args.scheduler,
                                         ledger_path=args.ledger, releases=args.releases, layout=layout,
                                         quiet=args.quiet, reuse=not args.recheck))
