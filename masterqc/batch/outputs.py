@@ -297,7 +297,11 @@ def _report_css() -> str:
 
 def index_html(summary: dict) -> str:
     """The index page of a run (autoescaped; every value from ``summary``)."""
-    env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+    from masterqc.fileio import shown
+    # every value shown is escaped for HTML, and control characters in names (newlines, terminal
+    # escape codes) are shown as \n, \x1b ...; the packaged CSS (Markup) passes as it is
+    env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True,
+                             finalize=lambda v: v if isinstance(v, Markup) or not isinstance(v, str) else shown(v))
     tpl = env.from_string(INDEX_TEMPLATE)
     counts = summary["counts"]
     overall = "pass"
