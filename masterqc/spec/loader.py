@@ -335,7 +335,9 @@ def _read(path: str) -> tuple[str, bytes]:
     try:
         return raw.decode("utf-8-sig"), raw
     except UnicodeDecodeError as exc:
-        raise SpecError([(path, "", None, None,
+        line = raw.count(b"\n", 0, exc.start) + 1
+        col = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise SpecError([(path, "", line, col,
                           f"the spec file is not UTF-8 text (byte offset {exc.start})")]) from None
 
 
