@@ -74,7 +74,8 @@ def cmd_measure(args) -> int:
     options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
                              true_peak_oversample=args.true_peak_oversample,
                              true_peak_filter=args.true_peak_filter)
-    progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)
+    from masterqc.fileio import shown
+    progress = Progress(f"measuring {shown(args.file)}", enabled=False if args.quiet else None)
     try:
         result = measure_file(args.file, options, progress=progress.update)
     finally:

@@ -72,7 +72,8 @@ def cmd_check(args) -> int:
     base = MeasureOptions(channel_layout=layout)
     outcomes = []
     for path, stem in zip(args.paths, unique_stems(args.paths)):
-        progress = Progress(f"checking {path}", enabled=False if args.quiet else None)
+        from masterqc.fileio import shown
+        progress = Progress(f"checking {shown(path)}", enabled=False if args.quiet else None)
         try:
             result = check_file(path, loaded, args.out, formats, stem=stem, base_options=base,
                                 progress=progress.update)

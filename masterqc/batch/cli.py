@@ -126,6 +126,8 @@ def _print(args, rows, columns) -> None:
         json.dump(rows, sys.stdout, indent=2)
         sys.stdout.write("\n")
         return
+    from masterqc.fileio import shown
+    rows = [{k: shown(v) if isinstance(v, str) else v for k, v in r.items()} for r in rows]  # names escaped
     widths = [max(len(c), *(len(str(r.get(c, "") if r.get(c) is not None else "")) for r in rows)) if rows else len(c)
               for c in columns]
     sys.stdout.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")
