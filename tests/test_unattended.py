@@ -288,7 +288,7 @@ def test_kill_9_of_a_batch_leaves_no_worker_and_the_next_run_resumes(tmp_path):
     root = tmp_path / "in"
     root.mkdir()
     for i in range(6):
-        tone(root / f"{i:02d}.wav", seconds=5.0, seed=i)
+        tone(root / f"{i:02d}.wav", seconds=3.0, seed=i)
     spec = spec_file(tmp_path)
     out = tmp_path / "out"
     argv = MASTERQC + ["check", os.fspath(root), "--spec", os.fspath(spec), "--out", os.fspath(out),
