@@ -131,6 +131,30 @@ def test_a_spec_map_delivery_spec_cannot_copy_host_files_into_the_reports(host, 
     assert row["verdict"] == "error" and "delivery-spec.yaml" in row["first_problem"]
 
 
+def test_a_delivery_spec_that_links_out_of_the_delivery_is_not_read(host, capsys):
+    root, secret, plain, lib, delivery = host
+    album = delivery / "album"
+    album.mkdir()
+    tone_wav(album / "01.wav")
+    os.symlink(plain, album / "delivery-spec.yaml")  # the "spec" is the host's account file
+    write(root, "qc/house.yaml", GOOD)
+    smap = write(root, "qc/map.yaml", """\
+        masterqc_spec_map: 1
+        specs:
+          - {match: "**", spec_in_folder: delivery-spec.yaml}
+          - {match: "**", spec: house.yaml}
+        """)
+    out = root / "out"
+    code, o, err = run_cli(["check", delivery, "--spec", smap, "--out", out, "--format", "json",
+                            "--jobs", "1", "--quiet"], capsys)
+    assert code == 0, err  # the link is not followed: the next rule, the house spec, judges the album
+    for p in out.rglob("*"):
+        if p.is_file():
+            assert b"qcservice" not in p.read_bytes() and b"secret-token" not in p.read_bytes(), p
+    (row,) = json.loads((out / "summary.json").read_text())["files"]
+    assert row["spec"] == "Invented house spec" and row["spec_from_delivery_folder"] is False
+
+
 def test_a_spec_from_the_delivery_folder_is_marked(tmp_path, capsys):
     album = tmp_path / "in" / "album"
     album.mkdir(parents=True)

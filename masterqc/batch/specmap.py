@@ -149,9 +149,14 @@ class SpecMap:
         if root is None:
             return None
         parts = rel.split("/")[:-1]
+        top = os.path.realpath(root)
         for n in range(len(parts), -1, -1):
             candidate = os.path.join(root, *parts[:n], name)
-            if os.path.isfile(candidate):
+            if os.path.lexists(candidate) and not os.path.isdir(candidate):
+                real = os.path.realpath(candidate)
+                # a delivery's spec is taken only from inside the delivery: a link out of it is not followed
+                if real != top and not real.startswith(top.rstrip(os.sep) + os.sep):
+                    continue
                 return os.path.abspath(candidate)
         return None
 

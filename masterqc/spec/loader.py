@@ -308,7 +308,7 @@ def parse_yaml(text: str, file: str):
     finally:
         loader.dispose()
     if not isinstance(data, dict):
-        kind = "a list" if isinstance(data, list) else f"the value {excerpt(data)}"
+        kind = "a list" if isinstance(data, list) else "a single value"  # never quoted: it may not be a spec at all
         problems.append((file, "", pos.value[()][1], pos.value[()][2],
                          f"a spec must be a mapping of keys (spec_version, name, sections), not {kind}"))
         return None, pos, problems
