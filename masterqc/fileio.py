@@ -68,7 +68,11 @@ def write_atomic(path, data: bytes) -> None:
     folder = os.path.dirname(os.path.abspath(path))
     fd, tmp = tempfile.mkstemp(prefix=".masterqc-", suffix=".tmp", dir=folder)
     try:
-        os.fchmod(fd, 0o666 & ~current_umask())
+        mode = 0o666 & ~current_umask()
+        if hasattr(os, "fchmod"):
+            os.fchmod(fd, mode)
+        else:  # pragma: no cover - systems without fchmod
+            os.chmod(tmp, mode)
         with os.fdopen(fd, "wb") as f:
             f.write(data)
             f.flush()

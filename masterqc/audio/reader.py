@@ -216,7 +216,12 @@ class _Bw64AsRf64:
     def open_if_bw64(cls, fd: int):
         """A shim owning ``fd`` when the file is BW64, else None (``fd`` left open, at its start)."""
         try:
-            head = os.pread(fd, 12, 0)
+            if hasattr(os, "pread"):
+                head = os.pread(fd, 12, 0)
+            else:  # pragma: no cover - systems without pread
+                os.lseek(fd, 0, os.SEEK_SET)
+                head = os.read(fd, 12)
+                os.lseek(fd, 0, os.SEEK_SET)
         except OSError:
             return None
         if head[:4] == b"BW64" and head[8:12] == b"WAVE":
