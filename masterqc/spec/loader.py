@@ -156,7 +156,6 @@ def _prescan(text: str, file: str) -> list:
                                           "(control characters and NUL bytes cannot be YAML text)")]
     indents = [0]
     flow = 0
-    offset = 0
     for n, raw in enumerate(text.split("\n"), start=1):
         line = raw.rstrip("\r")
         body = line.lstrip(" ")
@@ -190,7 +189,6 @@ def _prescan(text: str, file: str) -> list:
                 flow = max(0, flow - 1)
         if len(indents) + inline + flow > MAX_DEPTH:
             return [(file, "", n, 1, f"nesting is too deep (more than {MAX_DEPTH} levels)")]
-        offset += len(raw) + 1
     return []
 
 class _TooLarge(Exception):
