@@ -69,12 +69,13 @@ def cmd_measure(args) -> int:
                          "use --true-peak-oversample 4 or the kaiser filter")
     if args.threads is not None and args.threads < 1:
         raise UsageError("--threads must be at least 1")
-    layout = tuple(x.strip() for x in args.layout.split(",")) if args.layout else None
+    layout = parse_layout(args.layout)
     extra = {"threads": args.threads} if args.threads else {}
     options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
                              true_peak_oversample=args.true_peak_oversample,
                              true_peak_filter=args.true_peak_filter)
-    progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)
+    from masterqc.fileio import shown
+    progress = Progress(f"measuring {shown(args.file)}", enabled=False if args.quiet else None)
     try:
         result = measure_file(args.file, options, progress=progress.update)
     finally:
@@ -87,11 +88,28 @@ def cmd_measure(args) -> int:
     return EXIT_PASS
 
 
+def parse_layout(text):
+    """``--layout L,R,C`` -> ``("L", "R", "C")``; None when not given; UsageError for an empty label."""
+    if not text:
+        return None
+    labels = tuple(x.strip() for x in text.split(","))
+    for i, label in enumerate(labels, start=1):
+        if not label:
+            raise UsageError(f"--layout {text!r}: channel label {i} is empty (give one label per channel)")
+    return labels
+
+
 def cmd_result_schema(args) -> int:
     from masterqc.schema import result_schema
     json.dump(result_schema(), sys.stdout, indent=2)
     sys.stdout.write("\n")
     return EXIT_PASS
+
+
+def _printable(exc) -> str:
+    """An error message line by line with control sequences escaped: nothing raw reaches the terminal."""
+    from masterqc.fileio import shown
+    return "\n".join(shown(line) for line in str(exc).split("\n"))
 
 
 def main(argv=None) -> int:
@@ -100,13 +118,13 @@ def main(argv=None) -> int:
     try:
         return int(args.func(args) or 0)
     except AudioReadError as exc:
-        sys.stderr.write(f"masterqc: {exc}\n")
+        sys.stderr.write(f"masterqc: {_printable(exc)}\n")
         return EXIT_UNREADABLE
     except SpecError as exc:
-        sys.stderr.write(f"masterqc: invalid spec\n{exc}\n")
+        sys.stderr.write(f"masterqc: invalid spec\n{_printable(exc)}\n")
         return EXIT_USAGE
     except UsageError as exc:
-        sys.stderr.write(f"masterqc: {exc}\n")
+        sys.stderr.write(f"masterqc: {_printable(exc)}\n")
         return EXIT_USAGE
     except KeyboardInterrupt:
         sys.stderr.write("masterqc: interrupted\n")

@@ -31,14 +31,17 @@ def file_facts(path) -> dict:
     """``{"path", "size_bytes", "sha256"}`` of a file, read in 1 MiB chunks."""
     digest = hashlib.sha256()
     size = 0
+    from masterqc.fileio import NotRegularFile, open_regular_file
     try:
-        with open(path, "rb") as f:
+        with open_regular_file(path) as f:  # a FIFO or device is refused at once, never waited on
             while True:
                 chunk = f.read(HASH_CHUNK_BYTES)
                 if not chunk:
                     break
                 size += len(chunk)
                 digest.update(chunk)
+    except NotRegularFile as exc:
+        raise AudioReadError(path, str(exc)) from None
     except OSError as exc:
         raise AudioReadError(path, f"cannot read file ({exc.strerror or exc})") from None
     return {"path": os.fspath(path), "size_bytes": size, "sha256": digest.hexdigest()}

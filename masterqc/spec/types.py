@@ -64,6 +64,11 @@ UNITS: dict[str, tuple[str, str, int]] = {
 }
 
 
+#: units of quantities that cannot be negative -> what they measure (for the message)
+NON_NEGATIVE_UNITS = {"s": "a duration", "ms": "a duration", "hz": "a frequency", "count": "a count",
+                      "bits": "a bit depth", "percent": "a share of time"}
+
+
 def unit_label(unit: str) -> str:
     """People's spelling of a unit suffix: ``"dbtp"`` -> ``"dBTP"``."""
     return UNITS[unit][0] if unit in UNITS else unit
@@ -102,6 +107,17 @@ class Requirement(SpecModel):
 
     def _get(self, stem: str):
         return getattr(self, f"{stem}_{self.unit}", None)
+
+    @model_validator(mode="after")
+    def _check_possible(self):
+        """A duration, count, rate, bit depth or share below zero is a value no delivery can mean."""
+        if self.unit in NON_NEGATIVE_UNITS:
+            for stem in ("min", "max", "target"):
+                v = self._get(stem)
+                if v is not None and v < 0:
+                    what = NON_NEGATIVE_UNITS[self.unit]
+                    raise ValueError(f"{stem}_{self.unit} is {v:g}: {what} cannot be negative")
+        return self
 
 
 class Ceiling(Requirement):
@@ -240,8 +256,9 @@ class Allowed(SpecModel):
             return {"allowed": data}
         if isinstance(data, dict):
             return data
+        from masterqc.spec.loader import excerpt
         raise ValueError(f"expected a list of allowed values (e.g. [{_example(cls)}]) "
-                         f"or {{allowed: [...], severity: warn}}, got {type(data).__name__} {data!r}")
+                         f"or {{allowed: [...], severity: warn}}, got {type(data).__name__} {excerpt(data)}")
 
     @classmethod
     def __get_pydantic_json_schema__(cls, core_schema, handler):
