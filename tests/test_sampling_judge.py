@@ -90,7 +90,7 @@ def test_min_confidence_can_waive_a_verdict(tmp_path):
     x = sps.resample_poly(0.1 * rng.standard_normal(48000 * 2), 2, 1)
     p = write(tmp_path, "from48k.wav", x, 96000)
     found, _v, result = findings_for(p, spec(upsampled=[False], upsampled_min_confidence=1.0))
-    conf = result["measurements"]["upsampled_confidence"]
+    conf = result["measurements"]["upsampled_confidence_fraction"]
     assert conf is not None and conf < 1.0
     assert found["sampling.upsampled"].status == "pass"
     assert "not counted" in found["sampling.upsampled"].message
@@ -180,10 +180,10 @@ def test_imaging_and_aliasing_findings_from_their_keys():
 
 def test_partly_upsampled_master_fails_with_its_time_range():
     sp = spec(upsampled=[False])
-    m = {"upsampled_from_hz": None, "upsampled_confidence": None, "effective_bandwidth_hz": 48000.0,
-         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.8},
-                                {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.7},
-                                {"start_s": 10.0, "end_s": 15.0, "upsampled_from_hz": None, "upsampled_confidence": None}]}
+    m = {"upsampled_from_hz": None, "upsampled_confidence_fraction": None, "effective_bandwidth_hz": 48000.0,
+         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.8},
+                                {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.7},
+                                {"start_s": 10.0, "end_s": 15.0, "upsampled_from_hz": None, "upsampled_confidence_fraction": None}]}
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
     f = found[0]
     assert f.status == "fail" and f.where_s == [[0.0, 10.0]]
