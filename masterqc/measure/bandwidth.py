@@ -32,9 +32,16 @@ Method (:func:`assess`):
    with its last partial as the effective bandwidth and no verdict.
 3. The edge frequency is the -6 dB point relative to the pass level measured
    2-5 kHz below the edge (a windowed-sinc converter is -6 dB at its cutoff).
-   A cliff whose edge lies within [0.88, 1.03] of a standard rate's Nyquist
-   (:data:`CANDIDATE_RATES_HZ`), and that is at least :data:`UPSAMPLED_MIN_DEPTH_DB`
-   deep, reads as upsampling from that rate; any other cliff is a band limit.
+   A cliff whose edge lies within :data:`EDGE_RATIO_RANGE` of a standard rate's
+   Nyquist (:data:`CANDIDATE_RATES_HZ`, 8 kHz and up), that is at least
+   :data:`UPSAMPLED_MIN_DEPTH_DB` deep and that falls the way a converter's
+   filter falls (from -6 dB to its bottom within :data:`CONVERTER_MAX_FALL_RATIO`
+   of the source Nyquist, faster in dB as it goes: :data:`CONVERTER_MAX_SHAPE_RATIO`;
+   no brick wall but at a standard Nyquist: :data:`BRICK_WALL_RATIO_TOLERANCE`)
+   reads as upsampling from that rate; any other cliff is a band limit.  Sources
+   of 16 and 22.05 kHz are searched at twice, 8 and 11.025 kHz at four times the
+   frequency scale (:func:`scale_for`): a resampler's transition scales with its
+   source rate, so the same windows and slopes apply.
 4. Without a cliff, the effective bandwidth is the highest frequency where
    ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
    no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
@@ -119,17 +126,19 @@ ABOVE_FLOOR_DB = 10.0
 #: 1.0; high-quality converters end their pass band at 0.91-0.97 and reach their stop band by 1.0, so their
 #: -6 dB point lies at 0.93-0.99; low-quality converters pass 80 % of the band (at -3 dB) and cross -6 dB near 0.83;
 #: 1.03 leaves room for the 10 Hz bins and the closing of the envelope)
-EDGE_RATIO_RANGE = (0.82, 1.03)
+EDGE_RATIO_RANGE = (0.80, 1.03)
 #: most likely edge position relative to the source Nyquist (own reasoning: high-quality converters and FFT
 #: resamplers, the commonest, put it at 0.95-1.0); where two candidates both explain an edge, the one whose
 #: ratio lies nearer this wins
 EDGE_RATIO_TYPICAL = 0.97
 #: a converter's transition is a windowed sinc's: its amplitude falls roughly linearly through the cutoff, so
 #: in dB the fall accelerates, and it takes less span from -20 dB to -40 dB than from -6 dB to -20 dB (ratio
-#: about 0.2-0.8); a Butterworth low-pass falls at most a constant number of dB per octave, and even warped by
-#: the bilinear transform next to the file's Nyquist it needs at least as much span for the second step as for
-#: the first (ratio 1.0-1.7).  Cliffs at or above this ratio are low-passes, not conversions (own reasoning).
-CONVERTER_MAX_SHAPE_RATIO = 0.92
+#: 0.6-0.8 as read on the envelope for windowed-sinc converters whose fall is wide enough to read); a Butterworth
+#: low-pass falls at most a constant number of dB per octave, and even warped by the bilinear transform next to
+#: the file's Nyquist it needs about as much span for the second step as for the first (1.04 analytically for
+#: 8th order at 20 kHz in a 48 kHz file; 0.90-0.99 as read on the envelope of music).  Cliffs at or above this
+#: ratio are low-passes, not conversions (own reasoning).
+CONVERTER_MAX_SHAPE_RATIO = 0.85
 #: ... read only where the fall from -6 to -40 dB spans at least this much (on the search's scale), Hz: the
 #: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning)
 SHAPE_MIN_SPAN_HZ = 1300.0
@@ -702,16 +711,16 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     top = min(len(env), _bins(0.99 * nyq, bin_hz))
     cliff, rate, pos, tonal = _judge_cliff(env, total, bin_hz, top, floor, nyq,
                                            [r for r in testable if scale_for(r) == 1], 1)
-    if rate is None:
-        for scale in (2, 4):
-            low = [r for r in testable if scale_for(r) == scale]
-            if not low:
-                continue
-            top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
-            c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
-            if r2 is not None and not t2:
-                cliff, rate, pos, tonal = c2, r2, p2, t2
-                break
+    for scale in (2, 4):
+        # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
+        # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins
+        low = [r for r in testable if scale_for(r) == scale]
+        if not low:
+            continue
+        top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
+        c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
+        if r2 is not None and not t2 and (rate is None or p2 > pos):
+            cliff, rate, pos, tonal = c2, r2, p2, t2
     if cliff is not None and tonal:
         edge = round(cliff["edge_hz"] / 10.0) * 10.0
         out.effective_bandwidth_hz = edge
