@@ -192,3 +192,29 @@ def test_partly_upsampled_master_fails_with_its_time_range():
     found, _v = judge(spec(upsampled=[False], upsampled_min_confidence=0.9),
                       {"format": {"sample_rate_hz": 96000}, "measurements": m})
     assert found[0].status == "pass"
+
+
+def test_upsampling_findings_read_as_plain_sentences():
+    # wording of the upsampling finding (house choice): what was found, where, and what to do
+    sp = spec(upsampled=[False])
+    m = {"upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.93, "effective_bandwidth_hz": 21000.0,
+         "upsampled_edge_ratio": 0.952, "bandwidth_edge_depth_db": 110.0, "upsampled_evidence": "cliff",
+         "upsampled_channels": ["R"], "upsampled_where_s": [[0.0, 12.0]], "untestable_source_rates_hz": []}
+    found, _v = judge(sp, {"measurements": m})
+    msg = next(f for f in found if f.check == "sampling.upsampled").message
+    assert "Converted up from 44.1 kHz: the spectrum ends in a converter's cliff at 21.0 kHz (0.95 of 22.05 kHz)" in msg
+    assert "Channel converted: R." in msg
+    assert "Reconvert from the original 44.1 kHz master rather than delivering an upsampled file" in msg
+    # a gentle low-pass is a band limit, in words
+    m = {"upsampled_from_hz": None, "upsampled_confidence_fraction": None, "effective_bandwidth_hz": 19800.0,
+         "bandwidth_edge": "rolloff", "upsampled_channels": [], "band_limit_hz": None}
+    found, _v = judge(sp, {"measurements": m})
+    f = next(f for f in found if f.check == "sampling.upsampled")
+    assert f.status == "pass"
+    assert "rolls off gently by 19.8 kHz" in f.message and "not a rate conversion" in f.message
+    # images, no cliff: named as an upsampler without a proper filter
+    m = {"upsampled_from_hz": 48000, "upsampled_confidence_fraction": 0.9, "upsampled_evidence": "images",
+         "upsampled_channels": ["L", "R"]}
+    found, _v = judge(sp, {"measurements": m})
+    msg = next(f for f in found if f.check == "sampling.upsampled").message
+    assert "Converted up from 48 kHz without a proper interpolation filter" in msg and "Channels converted: L, R." in msg

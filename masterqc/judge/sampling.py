@@ -139,7 +139,8 @@ def _upsampling(section, m: dict) -> list[Finding]:
             f.where_s = [list(w) for w in (m.get("upsampled_where_s") or [])]
     untestable = m.get("untestable_source_rates_hz") or []
     if untestable:
-        f.message += " Cannot be tested for a " + ", ".join(f"{r / 1000:g}" for r in untestable) + " kHz source."
+        f.message += (" Cannot be tested for a source at " + ", ".join(f"{r / 1000:g}" for r in untestable)
+                      + " kHz (no content just below its Nyquist frequency, or no room above it).")
     return [f]
 
 
@@ -172,8 +173,8 @@ def _not_upsampled_sentence(m: dict) -> str:
     """A plain sentence on why the file does not read as upsampled."""
     limit, edge = m.get("band_limit_hz"), m.get("effective_bandwidth_hz")
     if limit is not None:
-        return (f"Band-limited at {limit / 1000:.1f} kHz by a low-pass no converter explains; "
-                "not a rate conversion.")
+        return (f"Band-limited at {limit / 1000:.1f} kHz by a low-pass whose position or slope no rate "
+                "converter explains; not a rate conversion.")
     if m.get("bandwidth_edge") == "cliff" and edge is not None:
         return f"Band-limited at {edge / 1000:.1f} kHz; not a rate conversion."
     if m.get("bandwidth_edge") == "rolloff" and edge is not None:
