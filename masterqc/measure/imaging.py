@@ -66,7 +66,7 @@ from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult, array_of)
 
 #: standard source rates that are tested when they are below the file's rate
-CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400)
+CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400)
 #: analysis bin spacing; fs/20 samples per frame puts every candidate's mirror on a bin
 BIN_HZ = 20.0
 #: at most this many frames per file are analysed (cost bound, independent of length)
