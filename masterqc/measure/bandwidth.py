@@ -269,6 +269,7 @@ def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_d
     """
     nyq = sample_rate_hz / 2.0
     testable, untestable = [], []
+    main = None
     for r in CANDIDATE_RATES_HZ:
         if r >= sample_rate_hz:
             continue
@@ -276,7 +277,8 @@ def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_d
         if ok and env_db is not None:
             a, b = _bins(0.84 * r / 2.0, bin_hz), _bins(0.88 * r / 2.0, bin_hz)
             near = float(np.median(env_db[a:b + 1]))
-            main = float(np.median(env_db[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+            if main is None:
+                main = float(np.median(env_db[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
             ok = near >= floor_db + TESTABLE_MIN_CONTENT_DB and near >= main - TESTABLE_MAX_BELOW_MAIN_DB
         (testable if ok else untestable).append(r)
     return testable, untestable
@@ -522,12 +524,26 @@ def assess(fe, info) -> BandwidthResult:
     n_ch = int(fe.ltas.shape[0])
     if len(labels) != n_ch:
         labels = [f"ch{i + 1}" for i in range(n_ch)]
-    per_channel = []
+    per_channel = [out]
     if n_ch > 1 and fe.frames:
-        per_channel = [assess_power(fe.ltas[c], fe.bin_hz, fs, fe.frame_length, info, frames=fe.frames)
-                       for c in range(n_ch)]
-    else:
-        per_channel = [out]
+        # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        per_channel = []
+        for c in range(n_ch):
+            if drops_somewhere(fe.ltas[c], fe.bin_hz, fs, floor):
+                per_channel.append(assess_power(fe.ltas[c], fe.bin_hz, fs, fe.frame_length, info, frames=fe.frames))
+            else:
+                quiet = BandwidthResult()
+                quiet.settings = {"testable_hz": out.settings.get("testable_hz")}
+                per_channel.append(quiet)
+
+    def shows(c, rate):
+        """Channel ``c`` has content just below ``rate``'s Nyquist (where a cliff could show)."""
+        if n_ch == 1:
+            return True
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        env = envelope_db(fe.ltas[c], fe.bin_hz)
+        return rate in testable_candidates(fs, env, fe.bin_hz, floor)[0]
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
     if out.upsampled_from_hz is None and up_ch:
@@ -542,7 +558,7 @@ def assess(fe, info) -> BandwidthResult:
         out.note = f"{', '.join(up_ch)}: " + (best.note or "")
     if out.upsampled_from_hz is not None and n_ch > 1 and not up_ch:
         # the sum shows the cliff, no channel alone does (each too quiet): every channel with content
-        up_ch = [labels[c] for c, r in enumerate(per_channel) if r.effective_bandwidth_hz is not None]
+        up_ch = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
     out.channels = up_ch if (testable_any or up_ch) else None
     segs = getattr(fe, "segment_ltas", None)
     if out.upsampled_from_hz is not None:
@@ -566,8 +582,7 @@ def assess(fe, info) -> BandwidthResult:
             out.note = (f"every time segment ends in a converter cliff consistent with a "
                         f"{rate / 1000:g} kHz source")
             if out.channels is not None and not out.channels:
-                out.channels = [lab for c, lab in enumerate(labels)
-                                if per_channel[min(c, len(per_channel) - 1)].effective_bandwidth_hz is not None]
+                out.channels = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
     return out
 
 
@@ -588,27 +603,36 @@ def assess_segments(fe, info) -> list:
         out.append(row)
         if n < SEGMENT_MIN_FRAMES or not np.any(power > 0):
             continue
-        env = envelope_db(power, fe.bin_hz)
-        testable, _u = testable_candidates(fs, env, fe.bin_hz, floor)
-        top = min(len(env), _bins(0.99 * fs / 2.0, fe.bin_hz))
-        hit = False
-        for r in testable:
-            nyq_r = r / 2.0
-            gap = min(POST_WINDOW_HZ[0], 0.25 * nyq_r)
-            k0, k1 = _bins(0.70 * nyq_r, fe.bin_hz), _bins(0.84 * nyq_r, fe.bin_hz)
-            k2 = _bins(nyq_r + gap, fe.bin_hz)
-            k3 = min(top, _bins(nyq_r + gap + min(POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0], 0.5 * nyq_r), fe.bin_hz))
-            if k3 - k2 < 10 or k1 <= k0:
-                continue
-            if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
-                hit = True
-                break
-        if not hit:
+        if not drops_somewhere(power, fe.bin_hz, fs, floor):
             continue
         res = assess_power(power, fe.bin_hz, fs, fe.frame_length, info, frames=n)
         row.update(upsampled_from_hz=res.upsampled_from_hz, upsampled_confidence_fraction=res.confidence,
                    effective_bandwidth_hz=res.effective_bandwidth_hz)
     return out
+
+
+def drops_somewhere(power, bin_hz: float, fs: float, floor_db: float) -> bool:
+    """A quick look before the full analysis: does the spectrum fall by at least :data:`CLIFF_MIN_DROP_DB`
+    across some testable candidate's Nyquist (median of 0.70-0.84 of it against the 90th percentile of a
+    window above it)?  No converter cliff can be found where this is False."""
+    env = envelope_db(power, bin_hz)
+    testable, _u = testable_candidates(fs, env, bin_hz, floor_db)
+    return _drop_at(env, bin_hz, min(len(env), _bins(0.99 * fs / 2.0, bin_hz)), testable)
+
+
+def _drop_at(env, bin_hz: float, top: int, rates) -> bool:
+    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``."""
+    for r in rates:
+        nyq_r = r / 2.0
+        gap = min(POST_WINDOW_HZ[0], 0.25 * nyq_r)
+        k0, k1 = _bins(0.70 * nyq_r, bin_hz), _bins(0.84 * nyq_r, bin_hz)
+        k2 = _bins(nyq_r + gap, bin_hz)
+        k3 = min(top, _bins(nyq_r + gap + min(POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0], 0.5 * nyq_r), bin_hz))
+        if k3 - k2 < 10 or k1 <= k0:
+            continue
+        if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
+            return True
+    return False
 
 
 def upsampled_ranges(segments) -> list:
@@ -715,7 +739,7 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
         # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins
         low = [r for r in testable if scale_for(r) == scale]
-        if not low:
+        if not low or not _drop_at(env, bin_hz, top, low):
             continue
         top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
         c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
