@@ -409,6 +409,7 @@ class ImagingAnalyzer(Analyzer):
                 "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
                 "reason": {"type": ["string", "null"]},
                 "channel": {"type": ["string", "null"]},
+                "channels": {"type": "array", "items": {"type": "string"}},
             },
             "required": ["source_rate_hz", "coherence", "image_level_db", "verdict"],
         }),
@@ -654,11 +655,15 @@ class ImagingAnalyzer(Analyzer):
                for ch in range(self.info.channels)]
         for cand in self.cands:
             best = None
+            defects = []
             for ch in range(self.info.channels):
                 a = self._assess(cand, ch, f0s[ch])
+                if a["verdict"] == "defect":
+                    defects.append(a["channel"])
                 key = (rank[a["verdict"]], a["z_score"] if a["z_score"] is not None else -1e9)
                 if best is None or key > best[0]:
                     best = (key, a)
+            best[1]["channels"] = defects
             out.append(best[1])
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
