@@ -86,13 +86,13 @@ def cmd_measure(args) -> int:
                          "use --true-peak-oversampling 4 or the kaiser filter")
     if args.threads is not None and args.threads < 1:
         raise UsageError("--threads must be at least 1")
-    from masterqc.commands import layout_option
-    layout = layout_option(args.layout)
+    layout = parse_layout(args.layout)
     extra = {"threads": args.threads} if args.threads else {}
     options = MeasureOptions(**extra, block_frames=args.block_frames, channel_layout=layout,
                              true_peak_oversampling=args.true_peak_oversampling,
                              true_peak_filter=args.true_peak_filter)
-    progress = Progress(f"measuring {args.file}", enabled=False if args.quiet else None)
+    from masterqc.fileio import shown
+    progress = Progress(f"measuring {shown(args.file)}", enabled=False if args.quiet else None)
     try:
         result = measure_file(args.file, options, progress=progress.update)
     finally:
@@ -103,6 +103,21 @@ def cmd_measure(args) -> int:
     else:
         sys.stdout.write(measurement_table(result))
     return EXIT_PASS
+
+
+def parse_layout(text):
+    """``--layout L,R,C`` -> ``("L", "R", "C")``; None when not given; UsageError naming the problem.
+
+    The labels are validated by the one layout parser, :func:`masterqc.audio.layout.parse_layout`
+    (the channel count is checked against each file when it is read).
+    """
+    if not text:
+        return None
+    from masterqc.audio.layout import parse_layout as _parse
+    try:
+        return _parse(text)
+    except ValueError as exc:
+        raise UsageError(f"--layout {text!r}: {exc}") from None
 
 
 #: the schema family of ``masterqc schema WHAT``
@@ -131,19 +146,25 @@ def cmd_result_schema(args) -> int:  # kept for callers of the old name
     return cmd_schema(args)
 
 
+def _printable(exc) -> str:
+    """An error message line by line with control sequences escaped: nothing raw reaches the terminal."""
+    from masterqc.fileio import shown
+    return "\n".join(shown(line) for line in str(exc).split("\n"))
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
         return int(args.func(args) or 0)
     except AudioReadError as exc:
-        sys.stderr.write(f"masterqc: {exc}\n")
+        sys.stderr.write(f"masterqc: {_printable(exc)}\n")
         return EXIT_UNREADABLE
     except SpecError as exc:
-        sys.stderr.write(f"masterqc: invalid spec\n{exc}\n")
+        sys.stderr.write(f"masterqc: invalid spec\n{_printable(exc)}\n")
         return EXIT_USAGE
     except UsageError as exc:
-        sys.stderr.write(f"masterqc: {exc}\n")
+        sys.stderr.write(f"masterqc: {_printable(exc)}\n")
         return EXIT_USAGE
     except KeyboardInterrupt:
         sys.stderr.write("masterqc: interrupted\n")

@@ -30,6 +30,8 @@ def _add_check(sub) -> None:
     c.add_argument("paths", nargs="+", metavar="PATH",
                    help="master files, checked in the order given, or folders (searched recursively; see below)")
     c.add_argument("--spec", required=True, help="delivery spec (YAML); with folders also a spec map")
+    c.add_argument("--spec-library", action="append", metavar="DIR",
+                   help="a folder whose specs extends: may name besides the spec's own folder (repeatable)")
     c.add_argument("--out", default=".", help="folder for the results (default: the current folder)")
     c.add_argument("--format", dest="formats", default=None,
                    help=f"comma-separated outputs from {','.join(ALL_FORMATS)} "
@@ -52,11 +54,15 @@ def cmd_check(args) -> int:
     from masterqc.batch.cli import cmd_check_batch, wants_batch
     if wants_batch(args):
         return cmd_check_batch(args, formats)
-    loaded = load_spec(args.spec)  # SpecError -> exit 2 (before any file is touched)
-    base = MeasureOptions(channel_layout=layout_option(args.layout))
+    loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
+    _print_spec_warnings(loaded, quiet=args.quiet)
+    from masterqc.cli import parse_layout
+    layout = parse_layout(args.layout)
+    base = MeasureOptions(channel_layout=layout)
     outcomes = []
     for path, stem in zip(args.paths, unique_stems(args.paths)):
-        progress = Progress(f"checking {path}", enabled=False if args.quiet else None)
+        from masterqc.fileio import shown
+        progress = Progress(f"checking {shown(path)}", enabled=False if args.quiet else None)
         try:
             result = check_file(path, loaded, args.out, formats, stem=stem, base_options=base,
                                 progress=progress.update)
@@ -69,19 +75,6 @@ def cmd_check(args) -> int:
     return exit_code_for(outcomes)
 
 
-def layout_option(text: str | None) -> tuple | None:
-    """``--layout L,R,...`` as labels (validated by :func:`masterqc.audio.layout.parse_layout`; the
-    channel count is checked against each file when it is read); :class:`UsageError` when malformed."""
-    if not text:
-        return None
-    from masterqc.audio.layout import parse_layout
-    from masterqc.errors import UsageError
-    try:
-        return parse_layout(text)
-    except ValueError as exc:
-        raise UsageError(f"--layout: {exc}") from None
-
-
 def _summary_line(path, result: dict, out_dir: str) -> str:
     import os
     counts = {}
@@ -90,11 +83,12 @@ def _summary_line(path, result: dict, out_dir: str) -> str:
     parts = [f"{n} {s}" for s, n in counts.items() if s != "pass"]
     detail = f" ({', '.join(parts)})" if parts else ""
     outs = ", ".join(os.path.join(out_dir, v) for v in result.get("outputs", {}).values())
-    line = f"{result['verdict'].upper():5s} {path}{detail}"
+    from masterqc.fileio import shown
+    line = f"{result['verdict'].upper():5s} {shown(path)}{detail}"
     if result["verdict"] in ("fail", "error"):
         first = next(f for f in result["findings"] if f["status"] in ("fail", "error"))
-        line += f": {first['message']}"
-    line += f" -> {outs}" if outs else ""
+        line += f": {shown(first['message'])}"
+    line += f" -> {shown(outs)}" if outs else ""
     n = result.get("normalisation") or {}
     if n.get("gain_db") is not None:
         line += f"\n      normalised to {n['target_lufs']:.1f} LUFS: gain {n['gain_db']:+.1f} dB"
@@ -151,6 +145,8 @@ def _add_spec(sub) -> None:
     ssub.required = True
     v = ssub.add_parser("validate", help="validate spec files (with their extends: bases)")
     v.add_argument("specs", nargs="+", metavar="SPEC")
+    v.add_argument("--spec-library", action="append", metavar="DIR",
+                   help="a folder whose specs extends: may name besides the spec's own folder (repeatable)")
     v.add_argument("--print", dest="print_resolved", action="store_true",
                    help="print each spec as resolved (bases merged, defaults filled) in JSON")
     v.set_defaults(func=cmd_spec_validate)
@@ -165,19 +161,29 @@ def cmd_spec_validate(args) -> int:
     problems = []
     for path in args.specs:
         try:
-            loaded = load_spec(path)
+            loaded = load_spec(path, libraries=args.spec_library or ())
         except SpecError as exc:
             problems.extend(exc.problems)
             continue
+        _print_spec_warnings(loaded)
         n = _count_requirements(loaded.spec)
         bases = f", extends {', '.join(f['path'] for f in loaded.files[1:])}" if len(loaded.files) > 1 else ""
-        sys.stdout.write(f"ok  {path}: {loaded.name!r}, {n} requirement{'s' if n != 1 else ''}{bases}\n")
+        from masterqc.fileio import shown
+        sys.stdout.write(shown(f"ok  {path}: {loaded.name!r}, {n} requirement{'s' if n != 1 else ''}{bases}") + "\n")
         if args.print_resolved:
             json.dump(loaded.spec.model_dump(mode="json", exclude_none=True), sys.stdout, indent=2)
             sys.stdout.write("\n")
     if problems:
         raise SpecError(problems)
     return 0
+
+
+def _print_spec_warnings(loaded, quiet: bool = False) -> None:
+    """Likely typos in a spec (a positive LUFS target, a ceiling above 0 dBTP), one line each on standard error."""
+    from masterqc.errors import SpecError
+    if loaded.warnings and not quiet:
+        for line in str(SpecError(loaded.warnings)).splitlines():
+            sys.stderr.write(f"masterqc: warning: {line}\n")
 
 
 def _count_requirements(spec) -> int:

@@ -188,6 +188,8 @@ class SpecInfo(_Model):
     path: str | None
     sha256: str | None
     files: list[SpecFile] | None = None
+    from_delivery_folder: bool | None = Field(None, description="true: the spec came with the masters "
+                                                                "(a spec map's spec_in_folder), not from the operator")
 
 
 class Normalisation(_Model):
@@ -373,6 +375,7 @@ RENAMED_MEASUREMENTS_1_TO_2 = {
     "nonfinite_samples_per_channel": "nonfinite_sample_count_per_channel",
     "effective_bit_depth": "effective_bit_depth_bits",
     "effective_bit_depth_per_channel": "effective_bit_depth_bits_per_channel",
+    "upsampled_confidence": "upsampled_confidence_fraction",
 }
 #: fractions (0..1) in format 1 that format 2 gives as percent (0..100): old key -> new key
 FRACTION_TO_PERCENT_1_TO_2 = {

@@ -20,11 +20,12 @@ class AudioReadError(MasterqcError):
     """
 
     def __init__(self, path, cause: str, offset: int | None = None):
+        from masterqc.fileio import shown
         self.path = str(path)
         self.cause = cause
         self.offset = offset
         where = f" (at byte {offset})" if offset is not None else ""
-        super().__init__(f"{self.path}: {cause}{where}")
+        super().__init__(f"{shown(self.path)}: {cause}{where}")
 
 
 class SpecError(MasterqcError):
@@ -36,13 +37,14 @@ class SpecError(MasterqcError):
 
     def __init__(self, problems):
         self.problems = list(problems)
+        from masterqc.fileio import shown
         lines = []
         for path, key_path, line, column, message in self.problems:
-            where = str(path)
+            where = shown(path)
             if line is not None:
                 where += f":{line}:{column}"
-            key = f" {key_path}:" if key_path else ""
-            lines.append(f"{where}:{key} {message}")
+            key = f" {shown(key_path)}:" if key_path else ""
+            lines.append(f"{where}:{key} {shown(message)}")
         super().__init__("\n".join(lines))
 
 

@@ -2,6 +2,8 @@
 
 numpy scalars and arrays become Python numbers and lists; a float that cannot
 exist (NaN, +-Inf) becomes ``None`` (JSON null), never a sentinel number.
+Text holding bytes that are not valid UTF-8 (a file name, kept by Python as
+surrogate escapes) shows them as ``\\xNN``, so every result encodes as UTF-8.
 """
 
 from __future__ import annotations
@@ -10,11 +12,15 @@ import math
 
 import numpy as np
 
+from masterqc.fileio import text_safe
+
 
 def jsonable(value):
     """Return ``value`` with numpy types converted and non-finite floats as None."""
+    if isinstance(value, str):
+        return text_safe(value)
     if isinstance(value, dict):
-        return {str(k): jsonable(v) for k, v in value.items()}
+        return {text_safe(str(k)): jsonable(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [jsonable(v) for v in value]
     if isinstance(value, np.ndarray):

@@ -74,7 +74,7 @@ def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts
     from masterqc.judge.core import Finding
     finding = Finding(check="file.read", status="error",
                       message=f"{os.fspath(path)}: cannot be checked: {cause}{where}")
-    return {
+    return jsonable({
         "result_format": RESULT_FORMAT_VERSION,
         "tool": {"name": "masterqc", "version": __version__},
         "file": dict(facts) if facts else {"path": os.fspath(path)},
@@ -82,7 +82,7 @@ def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts
         "findings": [finding.to_dict()],
         "verdict": "error",
         "error": {"cause": cause, "offset": offset},
-    }
+    })
 
 
 def judge_result(result: dict, loaded_spec) -> dict:
@@ -241,6 +241,8 @@ def unique_stems(paths) -> list[str]:
     out = []
     for p in paths:
         stem = os.path.splitext(os.path.basename(os.fspath(p)))[0] or "master"
+        # a name's bytes that are not UTF-8, and control characters, become "_" in the output name
+        stem = "".join("_" if (0xDC80 <= ord(c) <= 0xDCFF or not c.isprintable()) else c for c in stem)
         candidate, n = stem, 1
         while candidate.lower() in used:  # case-insensitive: file systems that fold case
             n += 1

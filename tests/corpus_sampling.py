@@ -359,9 +359,10 @@ def _builders():
                                                                  "upsampled_from_hz": None}
             add(f"saw_{f0:g}Hz_{fs}_16bit_shaped_dither", "dither", build)
 
-    # 7. codec-like shelf: steep low-pass at a corner no standard rate explains
+    # 7. codec-like shelf: steep low-pass at a corner no standard rate explains (a brick wall at exactly a
+    #    standard Nyquist, 16 kHz for 32 kHz, is what an FFT resampler leaves, so it is not used here)
     for fs in (44100, 48000):
-        for corner in (16000.0, 15000.0):
+        for corner in (17000.0, 15000.0):
             def build(rng, fs=fs, corner=corner):
                 x = lowpass(pink(fs, SECONDS, rng, 0.1), fs, corner)
                 return fs, _mono(x), 24, {"band_limit_hz": corner, "upsampled_from_hz": None,
@@ -518,7 +519,7 @@ def _bandwidth_builders(add):
 
     Native speech, soft acoustic music and dull recordings roll off gently into the
     floor: never upsampled, never band-limited.  The same material with a true
-    16 kHz band limit (:func:`lowpass`) must read as band-limited at 16 kHz, and
+    17 kHz band limit (:func:`lowpass`) must read as band-limited at 17 kHz, and
     material made at 32 or 44.1 kHz and converted up with :func:`good_resample` must
     read as upsampled, except the voice-chain speech, which holds nothing near the
     old Nyquist frequency (60 dB and more below its main band there): it is scored
@@ -530,9 +531,9 @@ def _bandwidth_builders(add):
                 lambda rng, fs=fs, gen=gen: (fs, _mono(faded(gen(fs, SECONDS, rng), fs)), 24,
                                              {"upsampled_from_hz": None, "band_limit_hz": None}))
             if material != "bright_speech":
-                add(f"{material}_{fs}_lowpass_16000", "programme_bandwidth",
-                    lambda rng, fs=fs, gen=gen: (fs, _mono(faded(lowpass(gen(fs, SECONDS, rng), fs, 16000.0), fs)),
-                                                 24, {"band_limit_hz": 16000.0, "upsampled_from_hz": None}))
+                add(f"{material}_{fs}_lowpass_17000", "programme_bandwidth",
+                    lambda rng, fs=fs, gen=gen: (fs, _mono(faded(lowpass(gen(fs, SECONDS, rng), fs, 17000.0), fs)),
+                                                 24, {"band_limit_hz": 17000.0, "upsampled_from_hz": None}))
             for r in (32000, 44100):
                 if r >= fs:
                     continue
@@ -543,14 +544,23 @@ def _bandwidth_builders(add):
                         fs, _mono(faded(good_resample(gen(r, SECONDS, rng), r, fs), fs)), 24, dict(lab)))
 
 
-def corpus_names() -> list[str]:
-    return [name for name, _g, _f in _builders()]
+def corpus_names(step: int = 1) -> list[str]:
+    return [name for i, (name, _g, _f) in enumerate(_builders()) if i % step == 0]
 
 
-def corpus(seed: int = 20261201, groups=None):
-    """Yield every :class:`CorpusSignal` (deterministic for a given ``seed``)."""
+#: the representative slice the unit tests run (tests/test_sampling_corpus.py): every SLICE_STEP-th signal in
+#: building order, which takes signals of every group and rate; the full corpus runs in
+#: bench/bench_sampling_detection.py
+SLICE_STEP = 3
+
+
+def corpus(seed: int = 20261201, groups=None, step: int = 1):
+    """Yield every :class:`CorpusSignal` (deterministic for a given ``seed``); with ``step`` > 1 only
+    every ``step``-th signal (the same signals, with the same noise, as in the full corpus)."""
     for i, (name, group, fn) in enumerate(_builders()):
         if groups is not None and group not in groups:
+            continue
+        if i % step:
             continue
         rng = np.random.default_rng([seed, i])
         fs, data, bits, labels = fn(rng)
@@ -706,7 +716,19 @@ def sampling_classes():
     return [c for c in analyzer_classes() if c.__name__ in names]
 
 
-def score_corpus(seed: int = 20261201, classes=None, progress=None):
+_SCORED: dict = {}
+
+
+def score_corpus_cached(seed: int = 20261201, step: int = 1):
+    """:func:`score_corpus` with the registered sampling analyzers, computed once per process (test session)
+    for each ``(seed, step)``."""
+    key = (seed, step)
+    if key not in _SCORED:
+        _SCORED[key] = score_corpus(seed, step=step)
+    return _SCORED[key]
+
+
+def score_corpus(seed: int = 20261201, classes=None, progress=None, step: int = 1):
     """Run ``classes`` (default :func:`sampling_classes`) over the whole corpus.
 
     Returns ``(rates, outcomes)``: ``rates[detector] = {"detected", "positives",
@@ -716,7 +738,7 @@ def score_corpus(seed: int = 20261201, classes=None, progress=None):
     """
     classes = sampling_classes() if classes is None else classes
     outcomes = []
-    for sig in corpus(seed):
+    for sig in corpus(seed, step=step):
         m = analyse(sig.data, sig.fs, classes, sig.bits)
         res = judge_signal(sig, m)
         facts = {"labels": sig.labels, "fs": sig.fs, **{k: m.get(k) for k in KEPT_KEYS}}

@@ -22,9 +22,10 @@ from masterqc.measure import bandwidth as bw
 from masterqc.measure.spectral import SpectralFrontEnd
 
 
-def info_for(fs, ch=1, frames=1, bits=24, is_float=False):
+def info_for(fs, ch=1, frames=1, bits=24, is_float=False, labels=None):
     return StreamInfo(path="<memory>", container="wav", encoding="pcm_24", sample_rate_hz=fs, bit_depth=bits,
-                      is_float=is_float, channels=ch, frames=frames, channel_layout=("M",) * ch,
+                      is_float=is_float, channels=ch, frames=frames,
+                      channel_layout=tuple(labels) if labels else ("M",) * ch,
                       layout_source="conventional", channel_weights=(1.0,) * ch)
 
 
@@ -33,13 +34,13 @@ def quantise24(x, rng):
     return np.round(x * q + rng.random(x.shape) - rng.random(x.shape)) / q
 
 
-def assess(x, fs, bits=24, is_float=False):
+def assess(x, fs, bits=24, is_float=False, labels=None):
     x = np.asarray(x, dtype=float)
     if x.ndim == 1:
         x = x[:, None]
     fe = SpectralFrontEnd(fs, x.shape[1], x.shape[0])
     fe.process(x)
-    return bw.assess(fe.finish(), info_for(fs, x.shape[1], x.shape[0], bits, is_float))
+    return bw.assess(fe.finish(), info_for(fs, x.shape[1], x.shape[0], bits, is_float, labels))
 
 
 def upsampled_noise(src, dst, seconds=1.5, seed=0, kind="white"):
@@ -81,7 +82,7 @@ def test_wideband_native_noise_is_not_upsampled():
     assert 88200 not in r.untestable_hz      # content reaches 88.2 kHz's Nyquist: testable
 
 
-@pytest.mark.parametrize("corner", [16000.0, 15000.0, 17500.0])
+@pytest.mark.parametrize("corner", [15000.0, 17000.0, 17500.0])
 def test_steep_low_pass_at_no_standard_rate_is_a_band_limit(corner):
     # a codec-like brick wall: elliptic, order 10, 0.1 dB ripple, 90 dB stop band, zero phase
     rng = np.random.default_rng(2)
@@ -92,7 +93,7 @@ def test_steep_low_pass_at_no_standard_rate_is_a_band_limit(corner):
     assert r.upsampled_from_hz is None
     assert r.edge == "cliff"
     assert r.band_limit_hz == pytest.approx(corner, abs=150.0)
-    assert "low-passed" in r.note
+    assert "band-limited" in r.note
 
 
 def test_shallow_shelf_at_16k_is_a_band_limit_not_upsampling():
@@ -135,16 +136,17 @@ def test_harmonic_series_that_ends_is_tonal_not_upsampled():
 def test_digital_silence_gives_nulls():
     r = assess(np.zeros(48000), 48000)
     assert r.effective_bandwidth_hz is None and r.edge is None and r.upsampled_from_hz is None
-    assert r.measurements()["upsampled_confidence"] is None
+    assert r.measurements()["upsampled_confidence_fraction"] is None
 
 
 def test_candidates_and_untestable_rates():
+    low = [8000, 11025, 16000, 22050, 24000, 32000]
     testable, untestable = bw.testable_candidates(96000)
-    assert testable == [32000, 44100, 48000, 88200] and untestable == []
+    assert testable == low + [44100, 48000, 88200] and untestable == []
     testable, untestable = bw.testable_candidates(48000)
-    assert testable == [32000, 44100] and untestable == []
+    assert testable == low + [44100] and untestable == []
     testable, untestable = bw.testable_candidates(44100)
-    assert testable == [32000]
+    assert testable == low
     # 88.2 kHz inside 96 kHz content that rolls off from 10 kHz (8th order, 48 dB/octave: about
     # -90 dB at 37 kHz): nothing near 44.1 kHz could show a cliff
     rng = np.random.default_rng(6)
@@ -160,7 +162,9 @@ def test_match_rate_ranges():
     assert bw.match_rate(22050.0, [32000, 44100, 48000])[0] == 44100
     assert bw.match_rate(21000.0, [32000, 44100, 48000])[0] == 44100
     assert bw.match_rate(23400.0, [32000, 44100, 48000])[0] == 48000
-    assert bw.match_rate(18000.0, [32000, 44100, 48000])[0] is None
+    assert bw.match_rate(17000.0, [32000, 44100, 48000])[0] is None      # 0.77 of 22.05 kHz, 1.06 of 16 kHz
+    assert bw.match_rate(10800.0, [22050, 24000])[0] == 22050            # 0.98 of 11.025 kHz, 0.90 of 12 kHz
+    assert bw.match_rate(3900.0, [8000, 11025])[0] == 8000
 
 
 def test_format_floor_figures():
@@ -262,13 +266,15 @@ def test_demo_speech_masters_roll_off(stem):
 @pytest.mark.parametrize("fs", [44100, 48000])
 def test_band_limit_on_a_sloping_pass_band_is_found_at_its_corner(fs):
     # a dull recording (analogue 3rd-order roll-off from 3 kHz, about 4 dB/kHz at 12 kHz) through a
-    # codec-like 16 kHz brick wall: the edge is read on the pass band tilted flat, at the corner
+    # codec-like 17 kHz brick wall: the edge is read on the pass band tilted flat, at the corner.  (17 kHz lies
+    # outside 0.82-1.03 of every standard Nyquist; a brick wall at exactly 16 kHz is 32 kHz's Nyquist, where a
+    # codec's low-pass and an FFT resampler from 32 kHz look the same)
     from corpus_sampling import analog_lowpass, faded, lowpass
     rng = np.random.default_rng(14)
-    x = faded(lowpass(analog_lowpass(_pink(fs, 1.0, rng), fs, 3000.0, 3), fs, 16000.0), fs)
+    x = faded(lowpass(analog_lowpass(_pink(fs, 1.0, rng), fs, 3000.0, 3), fs, 17000.0), fs)
     r = assess(quantise24(0.3 * x / np.max(np.abs(x)), rng), fs)
     assert r.upsampled_from_hz is None
-    assert r.band_limit_hz == pytest.approx(16000.0, abs=200.0)
+    assert r.band_limit_hz == pytest.approx(17000.0, abs=200.0)
     assert r.edge == "cliff"
 
 
@@ -307,3 +313,175 @@ def test_suffix_percentile_matches_numpy():
     starts = np.array([0, 3, 3, 350, 698, 699])
     want = [np.percentile(v[s:], 90) for s in starts]
     assert np.allclose(bw._suffix_percentile_90(v, starts), want, rtol=0, atol=1e-12)
+
+
+# ---------------------------------------------------------------- converters' own designs (issue 11)
+
+def _resample_poly_default_taps(up, down):
+    """The filter scipy.signal.resample_poly designs by default (its documented construction): a
+    Kaiser-windowed (beta 5.0) sinc of 2 * 10 * max(up, down) + 1 taps with its cutoff at
+    1 / max(up, down) of the working rate's Nyquist, i.e. at the source's Nyquist when converting up."""
+    max_rate = max(up, down)
+    half_len = 10 * max_rate
+    return sps.firwin(2 * half_len + 1, 1.0 / max_rate, window=("kaiser", 5.0)) * up
+
+
+def _minus6_hz(h, work_rate_hz, up):
+    """The -6 dB point of taps ``h`` (DC gain ``up``) at ``work_rate_hz``, from their exact frequency response."""
+    f, H = sps.freqz(h / up, worN=1 << 18, fs=work_rate_hz)
+    db = 20 * np.log10(np.maximum(np.abs(H), 1e-300))
+    k = int(np.nonzero(db < -6.0)[0][0])
+    return float(np.interp(-6.0, [db[k], db[k - 1]], [f[k], f[k - 1]]))
+
+
+@pytest.mark.parametrize("src,dst", [(44100, 96000), (48000, 96000), (22050, 48000), (16000, 44100),
+                                     (11025, 48000), (8000, 44100)])
+def test_resample_poly_edge_is_where_its_design_puts_it(src, dst):
+    # Analytic: the default design's -6 dB point, from its taps (a windowed sinc is -6 dB at its cutoff, here
+    # the source's Nyquist, to within the window's ripple).  The detector reads the -6 dB point of the closed
+    # and smoothed envelope, so it must land within 2 % of the design's (the smoothing and closing widths move
+    # it by a few hundred hertz), and the rate must be the source's, 22.05, 16, 11.025 and 8 kHz included.
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    f6 = _minus6_hz(_resample_poly_default_taps(up, down), src * up, up)
+    assert f6 == pytest.approx(src / 2.0, rel=0.01)          # the design itself: cutoff at the old Nyquist
+    rng = np.random.default_rng([21, src, dst])
+    x = 0.1 * rng.standard_normal(int(src * 1.5))
+    r = assess(quantise24(sps.resample_poly(x, up, down), rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    m = r.measurements()
+    assert m["upsampled_edge_ratio"] == pytest.approx(f6 / (src / 2.0), abs=0.02)
+    assert m["upsampled_channels"] == ["M"]
+    assert m["upsampled_evidence"] == "cliff"
+    assert r.band_limit_hz is None
+
+
+# libsamplerate's documented bandwidths (from memory): SRC_SINC_BEST_QUALITY 97 %, SRC_SINC_MEDIUM_QUALITY 90 %,
+# SRC_SINC_FASTEST 80 % of the Nyquist frequency; the -6 dB point lies at or a little above the documented
+# bandwidth (the pass band ends there) and below the old Nyquist.
+LSR_BANDWIDTH = {"sinc_best": 0.97, "sinc_medium": 0.90, "sinc_fastest": 0.80}
+
+
+@pytest.mark.parametrize("converter", sorted(LSR_BANDWIDTH))
+@pytest.mark.parametrize("src,dst", [(44100, 96000), (22050, 48000)])
+def test_libsamplerate_converters_are_found_at_their_documented_bandwidth(converter, src, dst):
+    samplerate = pytest.importorskip("samplerate")
+    rng = np.random.default_rng([22, src, dst])
+    x = 0.1 * rng.standard_normal(int(src * 1.5))
+    y = np.asarray(samplerate.resample(x, dst / src, converter), dtype=float)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    ratio = r.measurements()["upsampled_edge_ratio"]
+    assert LSR_BANDWIDTH[converter] - 0.02 <= ratio <= 1.0
+
+
+@pytest.mark.parametrize("fs", [96000, 48000])
+def test_butterworth_mastering_low_pass_is_not_a_conversion(fs):
+    # The false alarm of issue 11: wide-band material through an 8th-order Butterworth low-pass at 20 kHz.
+    # Analytic: |H|^2 = 1 / (1 + (f / 20 kHz)^16) is -6 dB at 21.4 kHz, -13 dB at 24 kHz and -40 dB only at
+    # 35.6 kHz (0.64 of 22.05 kHz from the -6 dB point; a converter needs at most 0.3).  In a 48 kHz file the
+    # bilinear transform makes the same design steep next to Nyquist, but its fall in dB does not accelerate
+    # the way a windowed sinc's does (shape ratio above CONVERTER_MAX_SHAPE_RATIO).
+    rng = np.random.default_rng([23, fs])
+    x = 0.1 * rng.standard_normal(int(fs * 1.5))
+    y = sps.sosfilt(sps.butter(8, 20000.0, fs=fs, output="sos"), x)
+    r = assess(quantise24(y, rng), fs)
+    assert r.upsampled_from_hz is None, r.note
+    assert r.measurements()["upsampled_channels"] == []
+
+
+def test_one_channel_converted_up_is_found_and_named():
+    # L: native 96 kHz wide-band noise; R: noise made at 44.1 kHz and converted up with resample_poly.
+    # The channel sum has no cliff (L fills the band); R's own spectrum has one.
+    rng = np.random.default_rng(24)
+    fs = 96000
+    right = upsampled_noise(44100, fs, seconds=1.5, seed=25)
+    left = quantise24(0.1 * rng.standard_normal(right.size), rng)
+    r = assess(np.stack([left, right], axis=1), fs, labels=("L", "R"))
+    m = r.measurements()
+    assert m["upsampled_from_hz"] == 44100
+    assert m["upsampled_channels"] == ["R"]
+    assert "R" in m["bandwidth_note"]
+    # and both channels native: none named
+    both = assess(np.stack([left, quantise24(0.1 * rng.standard_normal(right.size), rng)], axis=1), fs,
+                  labels=("L", "R")).measurements()
+    assert both["upsampled_from_hz"] is None and both["upsampled_channels"] == []
+
+
+def test_untestable_file_gives_null_channels():
+    # an 8 kHz file has no lower standard rate to test: upsampled_channels is null, not an empty list
+    rng = np.random.default_rng(26)
+    m = assess(quantise24(0.1 * rng.standard_normal(12000), rng), 8000).measurements()
+    assert m["upsampled_channels"] is None and m["upsampled_from_hz"] is None
+
+
+def test_file_and_segment_verdicts_agree_on_a_file_converted_throughout():
+    # Issue 11's inconsistent answer: 12 s converted up from 44.1 kHz; the file-level verdict names the
+    # rate, and no segment says anything else
+    x = upsampled_noise(44100, 96000, seconds=12.0, seed=27, kind="pink")[:, None]
+    fe = SpectralFrontEnd(96000, 1, x.shape[0])
+    fe.process(x)
+    res = fe.finish()
+    m = bw.assess(res, info_for(96000, 1, x.shape[0])).measurements()
+    assert m["upsampled_from_hz"] == 44100
+    rows = bw.assess_segments(res, info_for(96000, 1, x.shape[0]))
+    assert rows and {row["upsampled_from_hz"] for row in rows} == {44100}
+
+
+def test_segments_that_all_agree_set_the_file_verdict():
+    # the rule itself, on a front end whose whole-file spectrum shows nothing (zeroed) while every
+    # segment holds a conversion from 44.1 kHz
+    x = upsampled_noise(44100, 96000, seconds=12.0, seed=28)[:, None]
+    fe = SpectralFrontEnd(96000, 1, x.shape[0])
+    fe.process(x)
+    res = fe.finish()
+    res.ltas = np.zeros_like(res.ltas)
+    m = bw.assess(res, info_for(96000, 1, x.shape[0])).measurements()
+    assert m["upsampled_from_hz"] == 44100
+    assert m["upsampled_evidence"] == "segments"
+    assert m["upsampled_where_s"] == [[0.0, pytest.approx(12.0, abs=0.01)]]
+
+
+def test_images_name_the_source_rate_when_there_is_no_cliff():
+    # a sample-hold upsampler leaves mirror images, no cliff: the imaging analyzer names the rate and the
+    # engine's post-step puts it into upsampled_from_hz (full engine path)
+    from corpus_sampling import analyse, hold_upsample, sampling_classes
+    rng = np.random.default_rng(29)
+    src, fs = 48000, 96000
+    x = 0.1 * rng.standard_normal(int(src * 2.0))
+    y = quantise24(hold_upsample(x, src, fs), rng)
+    m = analyse(y, fs, sampling_classes())
+    assert m["imaging_detected"] is True
+    assert m["upsampled_from_hz"] == 48000
+    assert m["upsampled_evidence"] == "images"
+    assert m["upsampled_channels"] == ["M"]
+
+
+def test_tuning_corpus_slice_meets_the_targets():
+    # a quick slice of the tuning corpus (bench/corpus_tuning_upsampling.py; the whole set runs in
+    # bench/score_upsampling.py): found >= 95 %, source rate right >= 95 % of found, false alarms <= 1 %
+    # (issue 11's targets; every 4th case of the quick slice, ambiguous low-passes not scored).  Held to the
+    # targets here: the converters that leave a cliff (scipy resample_poly, libsamplerate's sinc types) and every
+    # negative; the unfiltered upsamplers, named through the imaging analyzer, are scored in the bench.
+    import sys
+    from pathlib import Path
+    bench = str(Path(__file__).resolve().parent.parent / "bench")
+    if bench not in sys.path:
+        sys.path.insert(0, bench)
+    pytest.importorskip("samplerate")
+    import corpus_tuning_upsampling as corpus
+    from score_upsampling import measure_case, score_case, tally
+    rows = []
+    for case in corpus.cases(1000, quick=True, step=4):
+        if case.group == "ambiguous-lowpass":
+            continue
+        if case.family in ("hold", "linear", "zero-stuff", "libsamplerate-linear",
+                           "libsamplerate-zero_order_hold"):
+            continue
+        rows.append({"name": case.name, "outcome": score_case(case, measure_case(case))})
+    t = tally(rows)
+    bad = [r for r in rows if any(o in ("miss", "wrong_rate", "false_alarm") for o in r["outcome"].values())]
+    assert t["pos"] >= 8 and t["neg"] >= 3, t
+    assert t["found"] >= 0.95 * t["pos"], bad
+    assert t["right"] >= 0.95 * t["found"], bad
+    assert t["fa"] <= 0.01 * t["neg"], bad

@@ -198,7 +198,7 @@ def test_demo_command(tmp_path):
         return lines[i + 1].strip()
     assert reason("ilvenbrook_hires") == "meets every requirement"
     assert reason("yarrowgate_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
-    assert "converter cliff" in reason("yarrowgate_fake_hires") and "44.1 kHz source" in reason("yarrowgate_fake_hires")
+    assert "converter's cliff" in reason("yarrowgate_fake_hires") and "Converted up from 44.1 kHz" in reason("yarrowgate_fake_hires")
     assert "alias" in reason("drimble_synth_lead") and "440.0 Hz" in reason("drimble_synth_lead")
     assert "ultrasonic" in reason("maunsel_pilot") and "sampling.ultrasonic_tones" in reason("maunsel_pilot")
     assert reason("corrowin_bells").startswith("true peak after conversion to 48 kHz")
@@ -271,7 +271,7 @@ def test_hires_master_upsampling_verdict_names_the_source_rate(hires_results, m)
     assert meas["upsampled_from_hz"] == m.source_rate_hz  # 44100 by construction, else made at 96 kHz
     if m.source_rate_hz:
         assert f["status"] == "fail"
-        assert "44.1 kHz source" in f["message"]
+        assert "Converted up from 44.1 kHz" in f["message"]
         # the converter's -6 dB point is 21 kHz (demo.good_upsample); the edge is read below 22.05 kHz
         assert 20000.0 <= meas["effective_bandwidth_hz"] <= 22050.0
         assert meas["bandwidth_edge"] == "cliff"

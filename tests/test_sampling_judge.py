@@ -90,7 +90,7 @@ def test_min_confidence_can_waive_a_verdict(tmp_path):
     x = sps.resample_poly(0.1 * rng.standard_normal(48000 * 2), 2, 1)
     p = write(tmp_path, "from48k.wav", x, 96000)
     found, _v, result = findings_for(p, spec(upsampled=[False], upsampled_min_confidence=1.0))
-    conf = result["measurements"]["upsampled_confidence"]
+    conf = result["measurements"]["upsampled_confidence_fraction"]
     assert conf is not None and conf < 1.0
     assert found["sampling.upsampled"].status == "pass"
     assert "not counted" in found["sampling.upsampled"].message
@@ -180,10 +180,10 @@ def test_imaging_and_aliasing_findings_from_their_keys():
 
 def test_partly_upsampled_master_fails_with_its_time_range():
     sp = spec(upsampled=[False])
-    m = {"upsampled_from_hz": None, "upsampled_confidence": None, "effective_bandwidth_hz": 48000.0,
-         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.8},
-                                {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 44100, "upsampled_confidence": 0.7},
-                                {"start_s": 10.0, "end_s": 15.0, "upsampled_from_hz": None, "upsampled_confidence": None}]}
+    m = {"upsampled_from_hz": None, "upsampled_confidence_fraction": None, "effective_bandwidth_hz": 48000.0,
+         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.8},
+                                {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.7},
+                                {"start_s": 10.0, "end_s": 15.0, "upsampled_from_hz": None, "upsampled_confidence_fraction": None}]}
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
     f = found[0]
     assert f.status == "fail" and f.where_s == [[0.0, 10.0]]
@@ -192,3 +192,29 @@ def test_partly_upsampled_master_fails_with_its_time_range():
     found, _v = judge(spec(upsampled=[False], upsampled_min_confidence=0.9),
                       {"format": {"sample_rate_hz": 96000}, "measurements": m})
     assert found[0].status == "pass"
+
+
+def test_upsampling_findings_read_as_plain_sentences():
+    # wording of the upsampling finding (house choice): what was found, where, and what to do
+    sp = spec(upsampled=[False])
+    m = {"upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.93, "effective_bandwidth_hz": 21000.0,
+         "upsampled_edge_ratio": 0.952, "bandwidth_edge_depth_db": 110.0, "upsampled_evidence": "cliff",
+         "upsampled_channels": ["R"], "upsampled_where_s": [[0.0, 12.0]], "untestable_source_rates_hz": []}
+    found, _v = judge(sp, {"measurements": m})
+    msg = next(f for f in found if f.check == "sampling.upsampled").message
+    assert "Converted up from 44.1 kHz: the spectrum ends in a converter's cliff at 21.0 kHz (0.95 of 22.05 kHz)" in msg
+    assert "Channel converted: R." in msg
+    assert "Reconvert from the original 44.1 kHz master rather than delivering an upsampled file" in msg
+    # a gentle low-pass is a band limit, in words
+    m = {"upsampled_from_hz": None, "upsampled_confidence_fraction": None, "effective_bandwidth_hz": 19800.0,
+         "bandwidth_edge": "rolloff", "upsampled_channels": [], "band_limit_hz": None}
+    found, _v = judge(sp, {"measurements": m})
+    f = next(f for f in found if f.check == "sampling.upsampled")
+    assert f.status == "pass"
+    assert "rolls off gently by 19.8 kHz" in f.message and "not a rate conversion" in f.message
+    # images, no cliff: named as an upsampler without a proper filter
+    m = {"upsampled_from_hz": 48000, "upsampled_confidence_fraction": 0.9, "upsampled_evidence": "images",
+         "upsampled_channels": ["L", "R"]}
+    found, _v = judge(sp, {"measurements": m})
+    msg = next(f for f in found if f.check == "sampling.upsampled").message
+    assert "Converted up from 48 kHz without a proper interpolation filter" in msg and "Channels converted: L, R." in msg

@@ -179,7 +179,9 @@ def test_extends_merges_overrides_and_removes(tmp_path):
     cwd = os.getcwd()
     os.chdir(tmp_path.parent)  # extends is relative to the file, not the working folder
     try:
-        loaded = load_spec(child)
+        # '..' leaves the spec's own folder: allowed only because the operator names that folder
+        # as a spec library (house choice: extends is confined to the spec's folder and libraries)
+        loaded = load_spec(child, libraries=[tmp_path])
     finally:
         os.chdir(cwd)
     s = loaded.spec

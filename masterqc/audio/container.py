@@ -70,7 +70,8 @@ INFO_TAGS = {"INAM": "title", "IART": "artist", "ICMT": "comment", "ICOP": "copy
 class ContainerInfo:
     """What the container walker found.
 
-    ``kind``: "riff", "rf64", "bw64", "rifx", "aiff", "aifc", "flac" or None when unrecognised.
+    ``kind``: "riff", "rf64", "bw64", "rifx", "aiff", "aifc", "flac", "caf", "w64" (the last two
+    recognised but not walked) or None when unrecognised.
     ``chunks``: list of dicts ``{"id", "offset", "size"}`` in file order (FLAC:
     metadata blocks by name); ``size`` is the declared body size.
     ``channel_mask``: dwChannelMask of WAVE_FORMAT_EXTENSIBLE (or the FLAC
@@ -102,7 +103,8 @@ def walk(path) -> ContainerInfo:
     """
     info = ContainerInfo(metadata=_empty_metadata())
     try:
-        with open(path, "rb") as f:
+        from masterqc.fileio import open_regular_file
+        with open_regular_file(path) as f:  # never blocks on a FIFO or device: those are refused
             size = os.fstat(f.fileno()).st_size
             w = _Walker(f, size, info)
             head = w.read(0, 12)
@@ -112,6 +114,9 @@ def walk(path) -> ContainerInfo:
                 w.aiff(head)
             elif head[:4] == b"fLaC" or head[:3] == b"ID3":
                 w.flac()
+            elif head[:4] == b"caff" or w.read(0, 16) == bytes.fromhex("726966662e91cf11a5d628db04c10000"):
+                # Apple CAF and Sony Wave64: read by libsndfile; their chunks are not walked here
+                info.kind = "caf" if head[:4] == b"caff" else "w64"
             else:
                 info.problems.append({"offset": 0, "message": "no RIFF/RF64 WAVE, AIFF or FLAC header "
                                       f"(first bytes {head[:12]!r}, file is {size} bytes)"})
@@ -164,6 +169,7 @@ class _Walker:
         self.ds64 = None
         self.ixml_offset = None
         self.endian = "<"
+        self.form_cut_bytes = 0  #: bytes the RIFF/FORM header declares beyond the end of the file
 
     # -- helpers -------------------------------------------------------------
     def read(self, offset: int, n: int) -> bytes:
@@ -272,6 +278,7 @@ class _Walker:
         if form_end > self.size:
             self.problem(4, f"{magic} header declares {form_end - 8} bytes after the size field; the file "
                             f"holds {self.size - 8} (truncated by {form_end - self.size} bytes)")
+            self.form_cut_bytes = form_end - self.size
             form_end = self.size
         elif form_end < self.size:
             extra = self.size - form_end
@@ -282,6 +289,9 @@ class _Walker:
                     "id3 ": self.id3_chunk, "ID3 ": self.id3_chunk, "ds64": self.misplaced_ds64,
                     "cue ": self.riff_cue}
         self.chunk_loop(start, form_end, endian, handlers, magic)
+        if self.fmt:
+            self.missing_audio(self.fmt.get("block_align") or 0, self.fmt.get("sample_rate_hz"),
+                               unknown_size=0xFFFFFFFF if self.info.kind == "riff" else None)
         if "fmt " not in self.seen:
             self.problem(12, "no fmt chunk: the audio format is not declared")
         if "data" not in self.seen:
@@ -380,7 +390,30 @@ class _Walker:
         self.seen["data"] = pos
         if "fmt " not in self.seen:
             self.problem(pos, "data chunk comes before the fmt chunk (RIFF WAVE requires fmt first)")
-        self.meta["audio_data"] = {"offset": body, "size_bytes": size}
+        declared = self.info.chunks[-1]["size"] if self.info.chunks else size
+        self.meta["audio_data"] = {"offset": body, "size_bytes": size, "declared_size_bytes": declared}
+
+    def missing_audio(self, frame_bytes: int, rate_hz, unknown_size=None) -> None:
+        """Record the audio a cut file lacks: the data chunk declares more than the file holds *and*
+        the form header also reaches past the end of the file (a file cut short, not one wrong size field).
+
+        Adds ``missing_bytes``, ``missing_frames`` and ``missing_s`` (None when the rate is unknown)
+        to ``audio_data``.
+        """
+        data = self.meta.get("audio_data")
+        if not data or not self.form_cut_bytes:
+            return
+        declared = data.get("declared_size_bytes")
+        if declared is None or declared == unknown_size:  # 0xFFFFFFFF: a recorder that never wrote the size
+            return
+        missing = declared - data["size_bytes"]
+        if missing <= 0:
+            return
+        data["missing_bytes"] = int(missing)
+        frames = declared // frame_bytes - data["size_bytes"] // frame_bytes if frame_bytes > 0 else None
+        data["missing_frames"] = frames
+        rate = float(rate_hz) if rate_hz else 0.0
+        data["missing_s"] = frames / rate if frames is not None and rate > 0 else None
 
     def check_data_frames(self):
         data = self.meta.get("audio_data")
@@ -545,6 +578,7 @@ class _Walker:
         if form_end > self.size:
             self.problem(4, f"FORM header declares {declared} bytes after the size field; the file "
                             f"holds {self.size - 8} (truncated by {form_end - self.size} bytes)")
+            self.form_cut_bytes = form_end - self.size
             form_end = self.size
         elif form_end < self.size:
             extra = self.size - form_end
@@ -558,6 +592,9 @@ class _Walker:
             self.problem(12, "no COMM chunk: the audio format is not declared")
         if "SSND" not in self.seen and not (self.fmt and self.fmt.get("frames") == 0):
             self.problem(12, "no SSND chunk: the file holds no audio")
+        if self.fmt and self.fmt.get("bits_per_sample") and self.info.kind == "aiff" and self.fmt["channels"] > 0:
+            self.missing_audio(self.fmt["channels"] * ((self.fmt["bits_per_sample"] + 7) // 8),
+                               self.fmt.get("sample_rate_hz"))
         data = self.meta.get("audio_data")
         if data and self.fmt and self.fmt.get("bits_per_sample") and self.info.kind == "aiff":
             frame_bytes = self.fmt["channels"] * ((self.fmt["bits_per_sample"] + 7) // 8)
@@ -611,7 +648,9 @@ class _Walker:
         if offset > size - 8:
             self.problem(pos + 8, f"SSND offset {offset} points past the end of the chunk")
             offset = size - 8
-        self.meta["audio_data"] = {"offset": body + 8 + offset, "size_bytes": size - 8 - offset}
+        declared = self.info.chunks[-1]["size"] if self.info.chunks else size
+        self.meta["audio_data"] = {"offset": body + 8 + offset, "size_bytes": size - 8 - offset,
+                                   "declared_size_bytes": max(declared - 8 - offset, 0)}
 
     def aiff_text(self, cid, pos, body, size):
         raw = self.capped(body, size, MAX_TEXT_BYTES, f"'{cid}' chunk")

@@ -108,8 +108,9 @@ def parse_layout(text, channels: int | None = None) -> tuple[str, ...]:
     raw = text.split(",") if isinstance(text, str) else [str(x) for x in text]
     labels = tuple(x.strip() for x in raw)
     shown = ",".join(labels)
-    if not labels or any(not x for x in labels):
-        raise ValueError(f"channel layout {shown!r} has an empty channel label")
+    for i, label in enumerate(labels, start=1):
+        if not label:
+            raise ValueError(f"channel label {i} is empty (give one label per channel)")
     twice = sorted({x for x in labels if labels.count(x) > 1})
     if twice:
         raise ValueError(f"channel layout {shown} names {', '.join(twice)} more than once")

@@ -105,13 +105,13 @@ class AudioStream:
 
     def __init__(self, path, channel_layout=None):
         self.path = os.fspath(path)
-        if not os.path.exists(self.path):
-            raise AudioReadError(self.path, "no such file")
-        if os.path.isdir(self.path):
-            raise AudioReadError(self.path, "is a directory, not an audio file")
-        self._source = _Bw64AsRf64.open_if_bw64(self.path)
+        # opened here, by descriptor: never blocks on a FIFO or device (refused with a reason),
+        # and libsndfile's own limit on path length (about 1 KiB) and on name encoding never applies
+        fd = _open_master(self.path)
+        self._source = _Bw64AsRf64.open_if_bw64(fd)
+        self._fd = fd if self._source is None else None  # closed by close(), never by libsndfile
         try:
-            self._sf = sf.SoundFile(self._source or self.path)
+            self._sf = sf.SoundFile(self._source if self._source is not None else fd, closefd=False)
         except sf.LibsndfileError as exc:
             self._close_source()
             raise _unreadable(self.path, _clean(exc)) from None
@@ -186,6 +186,9 @@ class AudioStream:
         if self._source is not None:
             self._source.close()
             self._source = None
+        if self._fd is not None:
+            fd, self._fd = self._fd, None
+            os.close(fd)
 
     def __enter__(self):
         return self
@@ -202,18 +205,23 @@ class _Bw64AsRf64:
     file object replaces the magic on the fly and passes every other byte through.
     """
 
-    def __init__(self, path):
-        self._f = open(path, "rb")
+    def __init__(self, fd: int):
+        self._f = os.fdopen(fd, "rb")
 
     @classmethod
-    def open_if_bw64(cls, path):
+    def open_if_bw64(cls, fd: int):
+        """A shim owning ``fd`` when the file is BW64, else None (``fd`` left open, at its start)."""
         try:
-            with open(path, "rb") as f:
-                head = f.read(12)
+            if hasattr(os, "pread"):
+                head = os.pread(fd, 12, 0)
+            else:  # pragma: no cover - systems without pread
+                os.lseek(fd, 0, os.SEEK_SET)
+                head = os.read(fd, 12)
+                os.lseek(fd, 0, os.SEEK_SET)
         except OSError:
             return None
         if head[:4] == b"BW64" and head[8:12] == b"WAVE":
-            return cls(path)
+            return cls(fd)
         return None
 
     def read(self, n=-1):
@@ -238,6 +246,21 @@ class _Bw64AsRf64:
 
     def close(self):
         self._f.close()
+
+
+def _open_master(path: str) -> int:
+    """A read descriptor of the master at ``path``; AudioReadError naming why it cannot be opened."""
+    from masterqc.fileio import NotRegularFile, open_regular
+    try:
+        return open_regular(path)
+    except FileNotFoundError:
+        raise AudioReadError(path, "no such file") from None
+    except NotRegularFile as exc:
+        if exc.kind == "a directory":
+            raise AudioReadError(path, "is a directory, not an audio file") from None
+        raise AudioReadError(path, str(exc)) from None
+    except OSError as exc:
+        raise AudioReadError(path, f"cannot be opened ({exc.strerror or exc})") from None
 
 
 def _unreadable(path, cause: str) -> AudioReadError:

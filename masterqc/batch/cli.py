@@ -44,11 +44,12 @@ def cmd_check_batch(args, formats) -> int:
             parse_release_mode(args.releases)
         except ValueError as exc:
             raise UsageError(f"--releases: {exc}") from None
-    from masterqc.commands import layout_option
-    layout = layout_option(args.layout)
+    from masterqc.cli import parse_layout
+    layout = parse_layout(args.layout)
     from masterqc.batch.ledger import LedgerError
     try:
         outcome = run_batch(BatchConfig(roots=list(args.paths), spec_path=args.spec, out_dir=args.out,
+                                        spec_libraries=tuple(getattr(args, "spec_library", None) or ()),
                                         formats=tuple(formats), jobs=args.jobs, scheduler=args.scheduler,
                                         ledger_path=args.ledger, releases=args.releases, layout=layout,
                                         quiet=args.quiet, reuse=not args.recheck))
@@ -126,6 +127,8 @@ def _print(args, rows, columns) -> None:
         json.dump(rows, sys.stdout, indent=2)
         sys.stdout.write("\n")
         return
+    from masterqc.fileio import shown
+    rows = [{k: shown(v) if isinstance(v, str) else v for k, v in r.items()} for r in rows]  # names escaped
     widths = [max(len(c), *(len(str(r.get(c, "") if r.get(c) is not None else "")) for r in rows)) if rows else len(c)
               for c in columns]
     sys.stdout.write("  ".join(c.ljust(w) for c, w in zip(columns, widths)).rstrip() + "\n")

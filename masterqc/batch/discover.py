@@ -2,7 +2,7 @@
 
 :func:`discover` walks folders recursively and returns every file that holds
 audio masterqc reads, judged by its first bytes (RIFF/RIFX/RF64/BW64 WAVE,
-FORM AIFF/AIFC, fLaC, and fLaC behind an ID3v2 tag), plus files whose name
+Sony Wave64, FORM AIFF/AIFC, Apple CAF, fLaC, and fLaC behind an ID3v2 tag), plus files whose name
 ends in an audio extension even when their bytes do not look like audio (so
 a damaged ``.wav`` becomes an error row instead of vanishing).
 
@@ -11,7 +11,9 @@ files (``~`` suffix, ``~$`` prefix, ``.tmp``, ``.part``, ``.partial``,
 ``.crdownload``, ``.swp``), and the output folder of the run.  Symbolic links
 are followed, but each real folder is entered once (keyed by device and
 inode), so a link loop ends; a file reached twice is listed once.  A folder or
-file that cannot be read is reported as a :class:`Problem`, and the walk goes on.
+file that cannot be read is reported as a :class:`Problem`, and the walk goes on;
+so is anything that is not a regular file (a FIFO, socket or device, also
+behind a link): it is never opened, so a FIFO cannot stall the run.
 """
 
 from __future__ import annotations
@@ -21,7 +23,10 @@ import stat
 from dataclasses import dataclass, field
 
 #: extensions that make a file a candidate even when its bytes do not look like audio
-AUDIO_EXTENSIONS = frozenset({".wav", ".wave", ".bwf", ".rf64", ".w64", ".aif", ".aiff", ".aifc", ".flac"})
+AUDIO_EXTENSIONS = frozenset({".wav", ".wave", ".bwf", ".rf64", ".w64", ".aif", ".aiff", ".aifc", ".flac",
+                              ".caf"})
+#: the first 16 bytes of a Sony Wave64 file: the 'riff' GUID (the Wave64 format description)
+W64_RIFF_GUID = bytes.fromhex("72696666" "2e91cf11" "a5d628db" "04c10000")
 #: name endings of temporary or partial files (lower case)
 TEMP_SUFFIXES = (".tmp", ".temp", ".part", ".partial", ".crdownload", ".swp", ".bak", "~")
 TEMP_PREFIXES = ("~$", "#")
@@ -66,6 +71,10 @@ def sniff_audio(head: bytes) -> str | None:
         return "aiff"
     if head[:4] == b"fLaC":
         return "flac"
+    if head[:4] == b"caff" and head[4:6] == b"\x00\x01":  # Apple CAF, file version 1
+        return "caf"
+    if head[:16] == W64_RIFF_GUID:
+        return "w64"
     return None
 
 
@@ -79,8 +88,10 @@ def _id3_size(head: bytes) -> int | None:
 
 
 def sniff_file(path) -> str | None:
-    """The container of the file at ``path`` from its content, or None (OSError when unreadable)."""
-    with open(path, "rb") as f:
+    """The container of the file at ``path`` from its content, or None (OSError when unreadable,
+    :class:`masterqc.fileio.NotRegularFile` for a FIFO, socket or device, never waiting on one)."""
+    from masterqc.fileio import open_regular_file
+    with open_regular_file(path) as f:
         head = f.read(SNIFF_BYTES)
         kind = sniff_audio(head)
         if kind is None:
@@ -138,7 +149,7 @@ def discover(roots, exclude=()) -> Discovery:
         if kind is None and not by_ext:
             if explicit:
                 out.problems.append(Problem(path, "is not an audio file masterqc reads "
-                                                  "(no WAV, RF64, AIFF or FLAC header)"))
+                                                  "(no WAV, RF64, Wave64, AIFF, CAF or FLAC header)"))
             return
         seen_files.add(real)
         out.files.append(Found(path, real, root, _rel(root, path), kind is not None))
@@ -180,8 +191,17 @@ def discover(roots, exclude=()) -> Discovery:
                     subdirs.append(e.path)
                 elif is_file:
                     consider(e.path, root, False)
-                elif e.is_symlink():
-                    out.problems.append(Problem(e.path, "broken symbolic link"))
+                else:
+                    try:
+                        st_e = os.stat(e.path)  # never opened: a FIFO or device would block or never end
+                    except OSError:
+                        if e.is_symlink():
+                            out.problems.append(Problem(e.path, "broken symbolic link"))
+                        continue
+                    from masterqc.fileio import file_kind
+                    via = " (through a symbolic link)" if e.is_symlink() else ""
+                    out.problems.append(Problem(e.path, f"is {file_kind(st_e.st_mode)}{via}, not a regular file: "
+                                                        "not checked"))
             stack.extend(reversed(subdirs))
 
     for r in roots:

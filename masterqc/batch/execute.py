@@ -9,7 +9,8 @@ top-level function of :mod:`masterqc.batch.work` (picklable by name).
 * ``jobs > 1`` uses a :class:`concurrent.futures.ProcessPoolExecutor` with the
   ``spawn`` start method (safe with threads, identical on every platform);
   the workers ignore Ctrl-C, and :meth:`close` with ``cancel=True`` drops queued
-  tasks and stops running ones.
+  tasks and stops running ones; a worker ends itself when this process dies, even
+  by ``kill -9`` (:func:`masterqc.batch.work.worker_init`).
 * ``scheduler`` connects a :class:`distributed.Client` to an existing cluster
   (``pip install masterqc[cluster]``); masters and the output folder must be at the
   same paths on every worker.
@@ -83,9 +84,10 @@ class PoolBackend:
             import multiprocessing
             from concurrent.futures import ProcessPoolExecutor
 
-            from masterqc.batch.work import ignore_sigint
+            from masterqc.batch.work import worker_init
+            # each worker ends itself when this process dies, even by kill -9 (see worker_init)
             self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=multiprocessing.get_context("spawn"),
-                                             initializer=ignore_sigint)
+                                             initializer=worker_init, initargs=(os.getpid(),))
         return self._pool
 
     def map_unordered(self, fn, items):

@@ -10,7 +10,10 @@ Tables
                measured again; a spec that moves only limits re-judges the stored measurements.
 ``results``    (unused since result format 2: judged results keyed by spec hash)
 ``runs``       one row per run: start/finish time (UTC, ISO 8601), status
-               (``running``, ``complete``, ``interrupted``, ``failed``), folders, output folder, counts.
+               (``running``, ``complete``, ``interrupted``, ``failed``, ``abandoned``), folders,
+               output folder, counts, and the host and process id that ran it.  A run whose
+               process died without closing it (``kill -9``, a power cut) is marked
+               ``abandoned`` by the next run on the same host; its finished files are reused.
 ``run_files``  one row per file per run: path, release, content hash, spec key,
                verdict, whether it was analysed or reused, first failing message.
 ``file_stat``  size, mtime and inode last seen for a path with its content hash, so an
@@ -97,9 +100,54 @@ CREATE TABLE IF NOT EXISTS file_stat (
 """
 
 
+def _t(text):
+    """A path or message as SQLite can store it: bytes of a name that are not UTF-8 shown as ``\\xNN``."""
+    from masterqc.fileio import text_safe
+    return text_safe(text) if isinstance(text, str) else text
+
+
 def utc_now() -> str:
     """Current UTC time, ISO 8601 with seconds and a ``Z``."""
     return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _host() -> str:
+    import socket
+    return socket.gethostname()
+
+
+def _proc_start(pid: int) -> str | None:
+    """When process ``pid`` started (clock ticks since boot, Linux /proc), to tell a reused pid apart."""
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as f:
+            raw = f.read()
+        return raw[raw.rindex(b")") + 2:].split()[19].decode("ascii")
+    except (OSError, ValueError, IndexError):
+        return None
+
+
+def _alive(pid: int, start: str | None) -> bool:
+    """True while process ``pid`` runs and is the one that started the run (same start time where known)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        pass  # alive, another user's
+    except OSError:
+        return False
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as f:
+            raw = f.read()
+        if raw[raw.rindex(b")") + 2:][:1] in (b"Z", b"X"):  # a zombie: dead, not yet reaped
+            return False
+    except (OSError, ValueError):
+        pass
+    if start is not None:
+        now = _proc_start(pid)
+        if now is not None and now != start:
+            return False
+    return True
 
 
 class LedgerError(Exception):
@@ -123,6 +171,10 @@ class Ledger:
                 for stmt in _SCHEMA.split(";"):
                     if stmt.strip():
                         self.db.execute(stmt)
+                have = {r[1] for r in self.db.execute("PRAGMA table_info(runs)").fetchall()}
+                for col, kind in (("host", "TEXT"), ("pid", "INTEGER"), ("proc_start", "TEXT")):
+                    if col not in have:  # ledgers written before these columns existed
+                        self.db.execute(f"ALTER TABLE runs ADD COLUMN {col} {kind}")
                 row = self.db.execute("SELECT value FROM meta WHERE key='schema_version'").fetchone()
                 if row is None:
                     self.db.execute("INSERT INTO meta(key, value) VALUES ('schema_version', ?)", (str(SCHEMA_VERSION),))
@@ -194,7 +246,7 @@ class Ledger:
     def known_hash(self, path: str, st: os.stat_result) -> str | None:
         """The content hash recorded for ``path`` if its size, mtime, ctime and inode are unchanged."""
         row = self.db.execute("SELECT size_bytes, mtime_ns, ctime_ns, inode, content_sha256 FROM file_stat WHERE path=?",
-                              (path,)).fetchone()
+                              (_t(path),)).fetchone()
         if row and tuple(row[:4]) == (st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino):
             return row[4]
         return None
@@ -202,23 +254,36 @@ class Ledger:
     def remember_hash(self, path: str, st: os.stat_result, content_sha256: str) -> None:
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO file_stat VALUES (?,?,?,?,?,?)",
-                            (path, st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino, content_sha256))
+                            (_t(path), st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino, content_sha256))
 
     # -------------------------------------------------------------- runs
 
     def start_run(self, roots, out_dir: str, spec_path: str, tool_version: str) -> int:
+        """Open a run (first marking runs of this host whose process is gone as ``abandoned``)."""
+        self.mark_abandoned()
         with self._tx():
             cur = self.db.execute(
-                "INSERT INTO runs(started_utc, status, tool_version, roots_json, out_dir, spec_path) VALUES (?,?,?,?,?,?)",
-                (utc_now(), "running", tool_version, json.dumps([os.fspath(r) for r in roots]), out_dir, spec_path))
+                "INSERT INTO runs(started_utc, status, tool_version, roots_json, out_dir, spec_path, host, pid, "
+                "proc_start) VALUES (?,?,?,?,?,?,?,?,?)",
+                (utc_now(), "running", tool_version, json.dumps([_t(os.fspath(r)) for r in roots]), _t(out_dir),
+                 _t(spec_path), _host(), os.getpid(), _proc_start(os.getpid())))
             return int(cur.lastrowid)
+
+    def mark_abandoned(self) -> list[int]:
+        """Mark ``abandoned`` every ``running`` run of this host whose process no longer runs; return their ids."""
+        rows = self.db.execute("SELECT run_id, pid, proc_start FROM runs WHERE status='running' AND host=?",
+                               (_host(),)).fetchall()
+        dead = [run_id for run_id, pid, start in rows if pid is not None and not _alive(pid, start)]
+        for run_id in dead:
+            self.finish_run(run_id, "abandoned", None)
+        return dead
 
     def record_file(self, run_id: int, *, path: str, rel: str, release: str | None, content_sha256: str | None,
                     spec_key: str | None, verdict: str, analysed: bool, message: str | None, out_stem: str | None) -> None:
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO run_files VALUES (?,?,?,?,?,?,?,?,?,?)",
-                            (run_id, path, rel, release, content_sha256, spec_key, verdict, int(analysed),
-                             message, out_stem))
+                            (run_id, _t(path), _t(rel), _t(release), content_sha256, spec_key, verdict,
+                             int(analysed), _t(message), _t(out_stem)))
 
     def finish_run(self, run_id: int, status: str, elapsed_s: float) -> dict:
         """Close a run with its counts (computed from its ``run_files``); returns the run row."""
@@ -252,7 +317,7 @@ class Ledger:
     def previous_run(self, run_id: int, out_dir: str) -> dict | None:
         """The latest complete run before ``run_id`` that wrote to the same output folder."""
         row = self.db.execute("SELECT run_id FROM runs WHERE run_id<? AND status='complete' AND out_dir=? "
-                              "ORDER BY run_id DESC LIMIT 1", (run_id, out_dir)).fetchone()
+                              "ORDER BY run_id DESC LIMIT 1", (run_id, _t(out_dir))).fetchone()
         return self.run(row[0]) if row else None
 
     def run_files(self, run_id: int) -> list[dict]:
@@ -264,7 +329,7 @@ class Ledger:
         """Every recorded check of ``path`` (absolute), oldest first, with the run's start time."""
         cur = self.db.execute(
             "SELECT f.*, r.started_utc, r.status AS run_status FROM run_files f JOIN runs r USING(run_id) "
-            "WHERE f.path=? ORDER BY f.run_id", (path,))
+            "WHERE f.path=? ORDER BY f.run_id", (_t(path),))
         names = [d[0] for d in cur.description]
         return [dict(zip(names, r)) for r in cur.fetchall()]
 

@@ -159,7 +159,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <p class="run-file">{{ run.roots|join(", ") }}</p>
 <div class="verdict st-{{ overall }}" role="status">
 <div class="verdict-word">{{ icon(overall) }}<span class="run-verdict">{{ WORD[overall] }}</span></div>
-<p class="verdict-summary">{{ headline }}. {{ counts.measured }} measured, {{ counts.rejudged }} re-judged from stored measurements (no audio read), {{ counts.reused - counts.rejudged }} not checked again (identical to another file, or not checkable); {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
+<p class="verdict-summary">{{ headline }}. {{ counts.measured }} measured, {{ counts.rejudged }} re-judged from stored measurements (no audio read), {{ counts.reused - counts.rejudged }} reused (identical to another file){% if counts.not_analysed %}, {{ counts.not_analysed }} not analysed (see their rows){% endif %}; {{ "%.1f"|format(run.elapsed_s) }} s on {{ run.backend }}.</p>
 </div>
 <ul class="index-counts">
 {%- for v in ["fail", "error", "warn", "pass"] %}
@@ -223,11 +223,11 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 {%- for f in files %}
 <tr class="row-{{ f.verdict }}">
 <td class="status st-{{ f.verdict }}" data-sort="{{ RANK[f.verdict] }}">{{ icon(f.verdict) }}{{ WORD[f.verdict] }}</td>
-<td class="file" data-sort="{{ f.rel }}">{{ f.rel }}{% if f.first_problem %}<span class="first-problem">{{ f.first_problem }}</span>{% endif %}</td>
+<td class="file" data-sort="{{ f.rel }}">{{ f.rel }}{% if f.first_problem %}<span class="first-problem">{{ f.first_problem }}</span>{% endif %}{% if f.missing_audio %}<span class="first-problem">truncated: {{ f.missing_audio.missing_text }}</span>{% endif %}{% if f.spec_from_delivery_folder %}<span class="first-problem">judged by a spec from the delivery folder</span>{% endif %}</td>
 <td class="num" data-sort="{{ sortnum(f.integrated_lufs) }}">{{ fmt(f.integrated_lufs, "LUFS") }}</td>
 <td class="num" data-sort="{{ sortnum(f.true_peak_dbtp) }}">{{ fmt(f.true_peak_dbtp, "dBTP") }}</td>
 <td class="num">{{ fmt(f.duration_s, "s") }}</td>
-<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="first-problem">re-judged, not re-measured</span>{% elif f.how == "measured" %}<span class="first-problem">measured</span>{% elif not f.analysed %}<span class="first-problem">not analysed again</span>{% endif %}</td>
+<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="first-problem">re-judged, not re-measured</span>{% elif f.how == "measured" %}<span class="first-problem">measured</span>{% elif f.reused %}<span class="first-problem">not analysed again</span>{% endif %}</td>
 <td class="links">{% for kind, href in f.outputs.items() %}<a href="{{ href }}">{{ kind }}</a>{% endfor %}</td>
 </tr>
 {%- endfor %}
@@ -297,7 +297,11 @@ def _report_css() -> str:
 
 def index_html(summary: dict) -> str:
     """The index page of a run (autoescaped; every value from ``summary``)."""
-    env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+    from masterqc.fileio import shown
+    # every value shown is escaped for HTML, and control characters in names (newlines, terminal
+    # escape codes) are shown as \n, \x1b ...; the packaged CSS (Markup) passes as it is
+    env = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True,
+                             finalize=lambda v: v if isinstance(v, Markup) or not isinstance(v, str) else shown(v))
     tpl = env.from_string(INDEX_TEMPLATE)
     counts = summary["counts"]
     overall = "pass"
@@ -332,6 +336,7 @@ def index_html(summary: dict) -> str:
 def write_run_outputs(summary: dict, out_dir: str) -> dict:
     """Write ``summary.json``, ``junit.xml`` and ``index.html`` into ``out_dir``; returns their names."""
     import os
+    summary = jsonable(summary)  # names that are not valid UTF-8 shown as \xNN in every output
     write_summary_json(summary, os.path.join(out_dir, "summary.json"))
     write_atomic(os.path.join(out_dir, "junit.xml"), junit_xml(summary))
     write_atomic(os.path.join(out_dir, "index.html"), index_html(summary).encode("utf-8"))

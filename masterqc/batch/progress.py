@@ -13,6 +13,8 @@ import sys
 import threading
 import time
 
+from masterqc.fileio import shown
+
 
 def _clock(seconds: float) -> str:
     s = int(round(seconds))
@@ -66,11 +68,13 @@ class BatchProgress:
         return (f"{st['files_done']}/{self.total_files} files  {st['audio_hours']:.2f} h audio analysed  "
                 f"{rtf}  elapsed {_clock(st['elapsed_s'])}  ETA {eta}")
 
-    def file_done(self, rel: str, verdict: str, audio_s: float, size_bytes: int, analysed: bool) -> None:
+    def file_done(self, rel: str, verdict: str, audio_s: float, size_bytes: int, analysed: bool,
+                  how: str | None = None) -> None:
+        """One finished file; ``how`` says what happened to it ("checked", "reused", "not analysed")."""
         with self._lock:
-            self._file_done(rel, verdict, audio_s, size_bytes, analysed)
+            self._file_done(rel, verdict, audio_s, size_bytes, analysed, how)
 
-    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed) -> None:
+    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed, how=None) -> None:
         self.done_files += 1
         self.done_bytes += max(0, size_bytes)
         if analysed:
@@ -81,8 +85,8 @@ class BatchProgress:
             self.stream.write(f"\r{self.line()}\033[K")
             self._shown = True
         else:
-            how = "checked" if analysed else "reused"
-            self.stream.write(f"[{self.done_files}/{self.total_files}] {verdict.upper():5s} {rel} ({how})\n")
+            how = how or ("checked" if analysed else "reused")
+            self.stream.write(f"[{self.done_files}/{self.total_files}] {verdict.upper():5s} {shown(rel)} ({how})\n")
         self.stream.flush()
 
     def note(self, text: str) -> None:
@@ -91,7 +95,7 @@ class BatchProgress:
         with self._lock:
             if self._shown:
                 self.stream.write("\r\033[K")
-            self.stream.write(text + "\n")
+            self.stream.write(shown(text) + "\n")
             self.stream.flush()
 
     def close(self) -> None:

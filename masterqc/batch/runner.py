@@ -42,6 +42,7 @@ from masterqc.batch.releases import judge_release, parse_release_mode, release_o
 from masterqc.batch.specmap import Unusable, load_spec_map
 from masterqc.pipeline import exit_code_for
 from masterqc.batch.work import check_task, hash_task
+from masterqc.fileio import shown, text_safe
 
 LEDGER_NAME = "masterqc-ledger.sqlite"
 FILES_DIR = "files"
@@ -62,6 +63,7 @@ class BatchConfig:
     reuse: bool = True  #: False: analyse every file again (results still recorded)
     progress_stream: object = None
     live_progress: bool | None = None
+    spec_libraries: tuple = ()  #: folders besides a spec's own that ``extends:`` may reach
 
 
 @dataclass
@@ -79,6 +81,7 @@ class Item:
     sha256: str | None = None
     result: dict | None = None
     analysed: bool = False
+    reused: bool = False  #: the result came from the ledger or from an identical file (never for error rows)
     elapsed_s: float = 0.0
     cpu_s: float = 0.0
     rule_error: str | None = None  #: the folder spec governing this master does not validate
@@ -154,6 +157,9 @@ def _slim(result: dict) -> dict:
     """What the run outputs and release checks need of a result (drops the display series)."""
     keep = {k: result[k] for k in ("file", "format", "measurements", "spec", "findings", "verdict", "outputs", "error")
             if k in result}
+    audio_data = (result.get("metadata") or {}).get("audio_data")
+    if audio_data:
+        keep["metadata"] = {"audio_data": audio_data}
     hist = (result.get("series") or {}).get("gating_block_histogram")
     if hist is not None:
         keep["series"] = {"gating_block_histogram": hist}
@@ -174,7 +180,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
 
     t0 = time.perf_counter()
     base = MeasureOptions(channel_layout=cfg.layout)
-    specmap = load_spec_map(cfg.spec_path, base)
+    specmap = load_spec_map(cfg.spec_path, base, cfg.spec_libraries)
     mode = parse_release_mode(cfg.releases or specmap.releases or "folder")
     out_dir = os.path.abspath(cfg.out_dir)
     os.makedirs(out_dir, exist_ok=True)
@@ -190,8 +196,13 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         except ValueError:  # not the main thread (e.g. called from a test thread)
             old_term = None
         backend = make_backend(cfg.jobs, cfg.scheduler)
-        run_id = ledger.start_run(cfg.roots, out_dir, os.path.abspath(cfg.spec_path), __version__)
         disc = discover(cfg.roots, exclude=[out_dir])
+        if not disc.files:  # a gate that checked nothing must not pass
+            from masterqc.errors import UsageError
+            where = ", ".join(shown(os.fspath(r)) for r in cfg.roots)
+            why = "".join(f"\n  not checked: {shown(p.path)}: {p.message}" for p in disc.problems[:20])
+            raise UsageError(f"nothing to check: no audio master found in {where}{why}")
+        run_id = ledger.start_run(cfg.roots, out_dir, os.path.abspath(cfg.spec_path), __version__)
         labels = _root_labels(cfg.roots)
         names = NameAllocator()
         items: list[Item] = []
@@ -238,26 +249,29 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         progress = BatchProgress(len(items), sum(it.size_bytes for it in items), stream=cfg.progress_stream,
                                  quiet=cfg.quiet, live=cfg.live_progress)
         for p in disc.problems:
-            progress.note(f"masterqc: skipped {p.path}: {p.message}")
+            progress.note(f"masterqc: not checked: {shown(p.path)}: {p.message}")
 
         # previous outputs of this output folder: re-render only what is missing or stale
         prev_run = ledger.previous_run(run_id, out_dir)
         prev_rows = {r["path"]: r for r in ledger.run_files(prev_run["run_id"])} if prev_run else {}
 
-        def finish(it: Item, result: dict, analysed: bool) -> None:
+        def finish(it: Item, result: dict, analysed: bool, reused: bool = False) -> None:
             it.result = _slim(result)  # a catalogue's results are not all kept whole in memory
             it.analysed = analysed
+            it.reused = reused and not analysed
             verdict = result.get("verdict", "error")
             ledger.record_file(run_id, path=it.path, rel=it.rel, release=it.release, content_sha256=it.sha256,
                                spec_key=it.rule.key if it.rule else None, verdict=verdict, analysed=analysed,
                                message=_first_problem(result), out_stem=f"{it.out_rel}/{it.stem}")
             audio_s = float((result.get("format") or {}).get("duration_s") or 0.0)
-            progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed)
+            progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed,
+                               how="checked" if analysed else ("re-judged" if it.how == "rejudged" else
+                                                               "reused" if it.reused else "not analysed"))
 
         def place(it: Item, result: dict, wrote: bool) -> dict:
             """Write ``result`` as ``it``'s outputs (JSON always; HTML/PDF when missing or stale)."""
             result = dict(result)
-            result["file"] = dict(result.get("file") or {}, path=it.found.path)
+            result["file"] = dict(result.get("file") or {}, path=text_safe(it.found.path))
             outputs = {}
             if not _safe_folder(out_dir, it.out_folder):
                 from masterqc.judge.core import Finding, verdict
@@ -270,7 +284,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 return result
             if not wrote:
                 rendered = [f for f in cfg.formats if f in ("html", "pdf")]
-                prev = prev_rows.get(it.path)
+                prev = prev_rows.get(text_safe(it.path))
                 fresh = (prev is not None and prev.get("content_sha256") == it.sha256 and it.rule is not None
                          and prev.get("spec_key") == it.rule.key and prev.get("out_stem") == f"{it.out_rel}/{it.stem}")
                 todo = []
@@ -319,7 +333,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             if stored is not None:  # measure once, judge many: no audio is read
                 it.how = "rejudged"
                 finish(it, place(it, measure_and_judge(it.path, it.rule.loaded, base_options=base, stored=stored),
-                                 False), False)
+                                 False), False, reused=True)
                 continue
             groups.setdefault((it.sha256, it.rule.key), []).append(it)
 
@@ -343,6 +357,8 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             tasks.append({"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
                           "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(cfg.formats),
                           "layout": list(cfg.layout) if cfg.layout else None,
+                          "spec_libraries": list(specmap.libraries),
+                          "spec_from_delivery_folder": bool(lead.rule.loaded.from_delivery_folder),
                           # several files at once: each measurement on one thread (no oversubscription)
                           "threads": 1 if backend.workers > 1 else None})
         for i, value, exc in backend.map_unordered(check_task, tasks):
@@ -366,7 +382,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             finish(lead, place(lead, result, wrote), True)
             for other in group[1:]:
                 other.how = "identical"
-                finish(other, place(other, result, False), False)
+                finish(other, place(other, result, False), False, reused=exc is None)
         progress.close()
 
         # ---- 3. releases, changes, outputs
@@ -404,6 +420,17 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         ledger.close()
 
 
+def _missing_audio(result: dict) -> dict | None:
+    """What a truncated master lacks, for its index row (None when it is whole or unread)."""
+    data = (result.get("metadata") or {}).get("audio_data") or {}
+    if not data.get("missing_bytes"):
+        return None
+    from masterqc.judge.integrity import clock_text
+    return {"missing_bytes": int(data["missing_bytes"]), "missing_s": float(data.get("missing_s") or 0.0),
+            "missing_text": f"{clock_text(float(data.get('missing_s') or 0.0))} ({int(data['missing_bytes']):,} bytes) "
+                            "of audio missing"}
+
+
 def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, backend, prev_run, prev_rows, t0) -> dict:
     files = []
     outcomes = []  # verdict and error marker of every file, for the exit code
@@ -411,7 +438,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
         r = it.result or {}
         m = r.get("measurements") or {}
         fmt = r.get("format") or {}
-        prev = prev_rows.get(it.path)
+        prev = prev_rows.get(text_safe(it.path))
         v = r.get("verdict", "error")
         if prev_run is None or prev is None:
             change = "new"
@@ -427,6 +454,9 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
         files.append({
             "path": it.path, "rel": it.rel, "release": it.release, "verdict": v, "analysed": it.analysed,
             "how": it.how,
+            "reused": it.reused,
+            "spec_from_delivery_folder": bool((r.get("spec") or {}).get("from_delivery_folder")),
+            "missing_audio": _missing_audio(r),
             "elapsed_s": it.elapsed_s, "cpu_s": it.cpu_s, "change": change, "previous_verdict": prev["verdict"] if prev else None,
             "sha256": it.sha256, "size_bytes": it.size_bytes,
             "spec": (r.get("spec") or {}).get("name"), "spec_key": it.rule.key if it.rule else None,
@@ -455,12 +485,13 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
         releases.append(rel)
     counts = {v: sum(1 for f in files if f["verdict"] == v) for v in ("pass", "warn", "fail", "error")}
     counts.update(files=len(files), analysed=sum(1 for f in files if f["analysed"]),
-                  reused=sum(1 for f in files if not f["analysed"]),
+                  reused=sum(1 for it in items if it.reused),
+                  not_analysed=sum(1 for it in items if not it.analysed and not it.reused),
                   measured=sum(1 for f in files if f["how"] == "measured"),
                   rejudged=sum(1 for f in files if f["how"] == "rejudged"),
                   releases=len(releases),
                   releases_failed=sum(1 for r in releases if r["verdict"] in ("fail", "error")))
-    now = {it.path for it in items}
+    now = {text_safe(it.path) for it in items}
     changes = {"new": [f["rel"] for f in files if f["change"] == "new" and prev_run is not None],
                "fixed": [f["rel"] for f in files if f["change"] == "fixed"],
                "newly_failing": [f["rel"] for f in files if f["change"] == "newly_failing"],

@@ -22,6 +22,12 @@ given on the command line), so each album or season can carry its own spec::
       - match: "**"
         spec: ostravel-house.yaml
 
+A spec found this way came with the masters, not from the operator: its
+``extends:`` reaches only its own folder and the map's spec libraries, and every
+result it judges is marked ``spec.from_delivery_folder: true`` (shown in the
+reports and the index).  ``spec_libraries: [folder, ...]`` (relative to the map)
+names the folders whose specs ``extends:`` may use besides the spec's own folder.
+
 A master under such a rule with no such file is judged by the next matching rule;
 a folder spec that does not validate makes error rows of the masters it governs
 (with the spec's problems), and the rest of the run goes on.
@@ -45,8 +51,6 @@ import json
 import os
 import re
 from dataclasses import dataclass
-
-import yaml
 
 from masterqc.errors import SpecError
 
@@ -85,7 +89,8 @@ def glob_regex(pattern: str) -> re.Pattern:
         else:
             out.append(re.escape(c))
             i += 1
-    return re.compile("".join(out) + r"\Z")
+    # DOTALL: a name may hold a newline, and "*" / "**" must match it like any other character
+    return re.compile("".join(out) + r"\Z", re.DOTALL)
 
 
 def spec_key(loaded, base_options=None) -> str:
@@ -118,7 +123,8 @@ class SpecMap:
     """The rules of a run: ``lookup(rel) -> Rule | None``; ``releases`` from the map (or None)."""
 
     def __init__(self, rules: list[Rule], path: str, is_map: bool, releases: str | None = None,
-                 base_options=None):
+                 base_options=None, libraries=()):
+        self.libraries = tuple(libraries)
         self.rules = rules
         self.path = path
         self.is_map = is_map
@@ -143,9 +149,14 @@ class SpecMap:
         if root is None:
             return None
         parts = rel.split("/")[:-1]
+        top = os.path.realpath(root)
         for n in range(len(parts), -1, -1):
             candidate = os.path.join(root, *parts[:n], name)
-            if os.path.isfile(candidate):
+            if os.path.lexists(candidate) and not os.path.isdir(candidate):
+                real = os.path.realpath(candidate)
+                # a delivery's spec is taken only from inside the delivery: a link out of it is not followed
+                if real != top and not real.startswith(top.rstrip(os.sep) + os.sep):
+                    continue
                 return os.path.abspath(candidate)
         return None
 
@@ -153,9 +164,12 @@ class SpecMap:
         from masterqc.spec.loader import load_spec
         if path not in self._folder_specs:
             try:
-                loaded = load_spec(path)
+                loaded = load_spec(path, libraries=self.libraries, from_delivery_folder=True)
             except SpecError as exc:
                 self._folder_specs[path] = Unusable(path, f"its folder spec {path} is invalid: {exc}")
+            except Exception as exc:  # never lose the catalogue to one album's spec
+                self._folder_specs[path] = Unusable(path, f"its folder spec {path} cannot be read "
+                                                          f"({type(exc).__name__})")
             else:
                 self._folder_specs[path] = Rule(r.match, r.regex, path, loaded,
                                                 spec_key(loaded, self.base_options), r.folder_spec)
@@ -163,30 +177,30 @@ class SpecMap:
 
 
 def _is_map_file(path: str) -> bool:
+    from masterqc.spec.loader import parse_yaml, _read
     try:
-        with open(path, "rb") as f:
-            text = f.read(1 << 20).decode("utf-8-sig", errors="replace")
-    except OSError:
+        text, _ = _read(path)
+    except SpecError:
         return False  # load_spec names the problem
-    try:
-        data = yaml.safe_load(text)
-    except yaml.YAMLError:
-        return False
-    return isinstance(data, dict) and MAP_KEY in data
+    data, _pos, problems = parse_yaml(text, path)
+    return not problems and isinstance(data, dict) and MAP_KEY in data
 
 
-def load_spec_map(path, base_options=None) -> SpecMap:
-    """Load ``--spec``: a single delivery spec or a spec map; SpecError names the file, key and line."""
-    from masterqc.spec.loader import load_spec
+def load_spec_map(path, base_options=None, libraries=()) -> SpecMap:
+    """Load ``--spec``: a single delivery spec or a spec map; SpecError names the file, key and line.
+
+    ``libraries``: spec library folders named on the command line (``--spec-library``);
+    a map adds its own ``spec_libraries``.
+    """
+    from masterqc.spec.loader import _read, load_spec, parse_yaml
 
     path = os.fspath(path)
+    libraries = tuple(os.path.abspath(os.fspath(x)) for x in libraries)
     if not _is_map_file(path):
-        loaded = load_spec(path)
+        loaded = load_spec(path, libraries=libraries)
         return SpecMap([Rule("**", glob_regex("**"), path, loaded, spec_key(loaded, base_options))], path, False,
-                       base_options=base_options)
-    from masterqc.spec.loader import parse_yaml
-    with open(path, "rb") as f:
-        text = f.read().decode("utf-8-sig")
+                       base_options=base_options, libraries=libraries)
+    text, _ = _read(path)
     data, pos, problems = parse_yaml(text, path)
     if problems:
         raise SpecError(problems)
@@ -199,9 +213,25 @@ def load_spec_map(path, base_options=None) -> SpecMap:
     version = data.get(MAP_KEY)
     if version not in MAP_VERSIONS:
         errs.append((path, MAP_KEY, *where((MAP_KEY,)), f"{MAP_KEY} must be one of {list(MAP_VERSIONS)}, not {version!r}"))
-    unknown = sorted(set(data) - {MAP_KEY, "specs", "releases", "description"})
+    from masterqc.spec.loader import excerpt
+    unknown = sorted(set(data) - {MAP_KEY, "specs", "releases", "description", "spec_libraries"})
     for k in unknown:
-        errs.append((path, k, *where((k,)), f"unknown key {k!r} in a spec map (keys: {MAP_KEY}, specs, releases, description)"))
+        errs.append((path, k, *where((k,)), f"unknown key {excerpt(k)} in a spec map "
+                                            f"(keys: {MAP_KEY}, specs, releases, spec_libraries, description)"))
+    here = os.path.dirname(os.path.abspath(path))
+    libs = data.get("spec_libraries")
+    if libs is not None:
+        if not isinstance(libs, list) or not all(isinstance(x, str) and x for x in libs):
+            errs.append((path, "spec_libraries", *where(("spec_libraries",)),
+                         "spec_libraries must be a list of folders (relative to the map)"))
+        else:
+            for i, lib in enumerate(libs):
+                full = lib if os.path.isabs(lib) else os.path.join(here, lib)
+                if not os.path.isdir(full):
+                    errs.append((path, f"spec_libraries[{i}]", *where(("spec_libraries", i)),
+                                 f"spec library folder {excerpt(lib)} does not exist"))
+                else:
+                    libraries += (os.path.abspath(full),)
     releases = data.get("releases")
     if releases is not None:
         from masterqc.batch.releases import parse_release_mode
@@ -213,7 +243,6 @@ def load_spec_map(path, base_options=None) -> SpecMap:
     if not isinstance(items, list) or not items:
         errs.append((path, "specs", *where(("specs",)), "specs must be a non-empty list of {match, spec} rules"))
         items = []
-    here = os.path.dirname(os.path.abspath(path))
     rules, cache = [], {}
     for i, item in enumerate(items):
         kp = ("specs", i)
@@ -229,14 +258,14 @@ def load_spec_map(path, base_options=None) -> SpecMap:
             name = item["spec_in_folder"]
             if not name or "/" in name or os.sep in name or name in (".", ".."):
                 errs.append((path, f"specs[{i}].spec_in_folder", *where(kp + ("spec_in_folder",)),
-                             f"spec_in_folder must be a plain file name, not {name!r}"))
+                             f"spec_in_folder must be a plain file name, not {excerpt(name)}"))
                 continue
             rules.append(Rule(item["match"], glob_regex(item["match"]), None, None, None, name))
             continue
         sp = item["spec"] if os.path.isabs(item["spec"]) else os.path.join(here, item["spec"])
         if sp not in cache:
             try:
-                cache[sp] = load_spec(sp)
+                cache[sp] = load_spec(sp, libraries=libraries)
             except SpecError as exc:
                 errs.extend(exc.problems)
                 continue
@@ -244,4 +273,4 @@ def load_spec_map(path, base_options=None) -> SpecMap:
         rules.append(Rule(item["match"], glob_regex(item["match"]), sp, loaded, spec_key(loaded, base_options)))
     if errs:
         raise SpecError(errs)
-    return SpecMap(rules, path, True, releases, base_options)
+    return SpecMap(rules, path, True, releases, base_options, libraries)

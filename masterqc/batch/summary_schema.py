@@ -22,7 +22,17 @@ _FILE = {
         "rel": {"type": "string", "description": "folder label / path below the folder argument"},
         "release": _STR_OR_NULL,
         "verdict": _VERDICT,
-        "analysed": {"type": "boolean", "description": "false: the result came from the ledger or an identical file"},
+        "analysed": {"type": "boolean", "description": "true: this file was analysed in this run"},
+        "reused": {"type": "boolean", "description": "true: the result came from the ledger or an identical file "
+                                                      "(false for a file that was neither analysed nor reused: "
+                                                      "an error row)"},
+        "spec_from_delivery_folder": {"type": "boolean",
+                                      "description": "true: the spec came with the masters (spec_in_folder)"},
+        "missing_audio": {"anyOf": [{"type": "null"}, {
+            "type": "object", "required": ["missing_bytes", "missing_s", "missing_text"],
+            "description": "a truncated master: audio its header declares that the file does not hold",
+            "properties": {"missing_bytes": _INT, "missing_s": {"type": "number"},
+                           "missing_text": {"type": "string"}}}]},
         "how": {"enum": ["measured", "rejudged", "identical", None],
                 "description": "measured: the audio was read and measured in this run; rejudged: the stored "
                                "measurements (same content, same measurement settings) were judged again, no audio "
@@ -93,7 +103,8 @@ def summary_schema() -> dict:
             "exit_code": {"enum": [0, 1, 3]},
             "counts": {"type": "object", "additionalProperties": False,
                        "properties": {k: _INT for k in ("pass", "warn", "fail", "error", "files", "analysed",
-                                                        "reused", "measured", "rejudged", "releases",
+                                                        "reused", "not_analysed", "measured", "rejudged",
+                                                        "releases",
                                                         "releases_failed")}},
             "previous_run": {"anyOf": [{"type": "null"},
                                        {"type": "object", "required": ["run_id", "started_utc"]}]},

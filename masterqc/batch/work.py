@@ -30,6 +30,49 @@ def ignore_sigint() -> None:
     import masterqc.pipeline  # noqa: F401
 
 
+#: seconds between two looks of a worker at its parent (the watch that backs up the parent-death signal)
+PARENT_WATCH_S = 0.5
+
+
+def _set_parent_death_signal() -> bool:
+    """Linux: ask the kernel to SIGKILL this process when its parent dies (prctl PR_SET_PDEATHSIG)."""
+    import sys
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        import ctypes
+        libc = ctypes.CDLL(None, use_errno=True)
+        PR_SET_PDEATHSIG = 1
+        return libc.prctl(PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0) == 0
+    except (OSError, AttributeError):
+        return False
+
+
+def _watch_parent(parent_pid: int) -> None:
+    """End this process as soon as its parent is gone (re-parented: ``getppid`` changes)."""
+    while True:
+        if os.getppid() != parent_pid:
+            os._exit(70)
+        time.sleep(PARENT_WATCH_S)
+
+
+def worker_init(parent_pid: int | None = None) -> None:
+    """Pool-worker initializer: never outlive the batch that started it, and leave Ctrl-C to the parent.
+
+    A ``kill -9`` of the batch gives it no chance to stop its workers, so each worker
+    arranges its own end: the parent-death signal on Linux, and everywhere a daemon
+    thread that exits the process when the parent is gone.  Both are set before any
+    work is taken, and a parent that died before they were set is caught at once.
+    """
+    if parent_pid is not None:
+        _set_parent_death_signal()
+        if os.getppid() != parent_pid:  # the parent died before the signal was armed
+            os._exit(70)
+        threading.Thread(target=_watch_parent, args=(parent_pid,), name="masterqc-parent-watch",
+                         daemon=True).start()
+    ignore_sigint()
+
+
 def warm(_=None) -> int:
     """A no-op task that makes a pool start its workers now; returns the worker's process id."""
     return os.getpid()
@@ -48,14 +91,14 @@ def hash_task(path: str) -> dict:
     return {"path": path, "sha256": facts["sha256"], "size_bytes": facts["size_bytes"]}
 
 
-def _spec(spec_path: str, key: str, layout):
+def _spec(spec_path: str, key: str, layout, libraries=(), from_delivery_folder=False):
     from masterqc.batch.specmap import spec_key
     from masterqc.measure.options import MeasureOptions
     from masterqc.spec.loader import load_spec
     with _LOCK:
         loaded = _SPECS.get((spec_path, key))
         if loaded is None:
-            loaded = load_spec(spec_path)
+            loaded = load_spec(spec_path, libraries=libraries, from_delivery_folder=from_delivery_folder)
             got = spec_key(loaded, MeasureOptions(channel_layout=layout))
             if got != key:
                 raise RuntimeError(f"{spec_path}: the spec changed while the batch was running "
@@ -86,7 +129,8 @@ def check_task(task: dict) -> dict:
     t0 = time.perf_counter()
     c0 = time.process_time()
     layout = tuple(task["layout"]) if task.get("layout") else None
-    loaded = _spec(task["spec_path"], task["spec_key"], layout)
+    loaded = _spec(task["spec_path"], task["spec_key"], layout, tuple(task.get("spec_libraries") or ()),
+                   bool(task.get("spec_from_delivery_folder")))
     try:
         result = check_file(task["path"], loaded, task["out_dir"], tuple(task["formats"]), stem=task["stem"],
                             base_options=_options(layout, task.get("threads")))

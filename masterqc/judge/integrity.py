@@ -100,10 +100,45 @@ def _lowest_depth(result: dict, m: dict):
     return min(known) if known else None
 
 
+def clock_text(seconds: float) -> str:
+    """``h:mm:ss.sss``, e.g. 143.75 -> ``"0:02:23.750"``."""
+    ms = int(round(max(0.0, seconds) * 1000))
+    h, rest = divmod(ms, 3_600_000)
+    m, rest = divmod(rest, 60_000)
+    return f"{h}:{m:02d}:{rest // 1000:02d}.{rest % 1000:03d}"
+
+
+def _truncation(section, result: dict) -> list[Finding]:
+    """A file cut short: the container's data chunk declares more audio than the file holds."""
+    data = (result.get("metadata") or {}).get("audio_data") or {}
+    missing = data.get("missing_bytes")
+    if not missing:
+        return []
+    missing_s = data.get("missing_s")
+    held = data.get("size_bytes") or 0
+    declared = data.get("declared_size_bytes") or (held + missing)
+    dur = (result.get("format") or {}).get("duration_s")
+    time = f"{clock_text(missing_s)} of audio" if missing_s is not None else "audio of unknown length"
+    message = (f"The file is cut short: its header declares {declared:,} bytes of audio but the file holds "
+               f"{held:,}, so the last {missing:,} bytes ({time}) are missing"
+               + (f"; only the first {clock_text(dur)} can be checked" if dur is not None else ""))
+    mode = section.truncated_audio
+    status = {"fail": "fail", "warn": "warn", "allow": "pass"}[mode]
+    if mode != "fail":
+        message += f" (integrity.truncated_audio: {mode})"
+    return [Finding(check="integrity.truncated_audio", status=status, severity=mode if mode != "allow" else None,
+                    measured=missing_s, measured_raw=missing, unit="s", limit="nothing missing",
+                    measured_text=f"{clock_text(missing_s)} missing ({missing:,} bytes)" if missing_s is not None
+                    else f"{missing:,} bytes missing",
+                    where_s=[[dur, dur + missing_s]] if dur is not None and missing_s is not None else [],
+                    message=message)]
+
+
 def judge(section, result: dict) -> list[Finding]:
     m = result.get("measurements") or {}
     out: list[Finding] = []
     s = section
+    out += _truncation(s, result)
     if s.nonfinite_samples:
         out += _nonfinite(s, result, m)
     for f in _declared(s, result, "clipped_runs"):

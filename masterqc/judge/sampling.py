@@ -111,42 +111,77 @@ def _upsampling(section, m: dict) -> list[Finding]:
     if key not in m:
         return [check_allowed("sampling.upsampled", "upsampled from a lower rate", None, section.upsampled,
                               show=_bool_str, missing_reason=_missing(m, key, ""))]
-    src, conf = m.get(key), m.get("upsampled_confidence")
+    src, conf = m.get(key), m.get("upsampled_confidence_fraction")
     need = section.upsampled_min_confidence or 0.0
     counted = src is not None and (conf is None or conf >= need)
     # parts of the file (time segments) read as upsampled, when the whole file is not
     parts = [p for p in (m.get("bandwidth_segments") or [])
              if p.get("upsampled_from_hz") is not None
-             and (p.get("upsampled_confidence") is None or p["upsampled_confidence"] >= need)]
+             and (p.get("upsampled_confidence_fraction") is None or p["upsampled_confidence_fraction"] >= need)]
     partial = src is None and bool(parts)
     f = _yes_no(check_allowed("sampling.upsampled", "upsampled from a lower rate", counted or partial,
                               section.upsampled, show=_bool_str), "upsampled from a lower rate")
-    edge = m.get("effective_bandwidth_hz")
     if partial:
         rates = sorted({p["upsampled_from_hz"] for p in parts})
         ranges = _merge([[p["start_s"], p["end_s"]] for p in parts])
-        f.message += (": part of the file ends in a converter cliff consistent with "
+        f.message += (". Part of the file ends in a converter's cliff, as if converted up from "
                       + " or ".join(f"{r / 1000:g} kHz" for r in rates) + " ("
                       + ", ".join(f"{a:.1f}-{b:.1f} s" for a, b in ranges) + ")")
         if f.status in ("warn", "fail"):
             f.where_s = ranges
     elif src is None:
-        f.message = ("no converter cliff at a lower standard rate's Nyquist frequency"
-                     + (f" ({m['bandwidth_note']})" if m.get("bandwidth_note") else "")
-                     + f": {f.message}")
+        f.message += ". " + _not_upsampled_sentence(m)
     if src is not None:
-        detail = (f": content ends in a converter cliff at {_khz(edge)}"
-                  f" ({m.get('bandwidth_edge_depth_db')} dB deep), consistent with a {src / 1000:g} kHz source"
-                  f" (confidence {conf:.2f})")
+        f.message += ". " + _upsampled_sentence(m, src, conf)
         if not counted:
-            detail += f"; below the spec's minimum confidence {need:.2f}, so not counted"
-        f.message += detail
+            f.message += f" Below the spec's minimum confidence of {need:.2f}, so not counted."
         if f.status in ("warn", "fail"):
             f.where_s = [list(w) for w in (m.get("upsampled_where_s") or [])]
     untestable = m.get("untestable_source_rates_hz") or []
     if untestable:
-        f.message += "; cannot be tested for " + ", ".join(f"{r / 1000:g} kHz" for r in untestable)
+        f.message += (" Cannot be tested for a source at " + ", ".join(f"{r / 1000:g}" for r in untestable)
+                      + " kHz (no content just below its Nyquist frequency, or no room above it).")
     return [f]
+
+
+def _upsampled_sentence(m: dict, src: int, conf) -> str:
+    """A plain sentence on why the file reads as converted up from ``src`` Hz, and what to do."""
+    src_khz = f"{src / 1000:g} kHz"
+    chans = m.get("upsampled_channels")
+    evidence = m.get("upsampled_evidence") or "cliff"
+    edge, ratio = m.get("effective_bandwidth_hz"), m.get("upsampled_edge_ratio")
+    if evidence == "images":
+        body = (f"Converted up from {src_khz} without a proper interpolation filter: the spectrum above "
+                f"{src / 2000:g} kHz holds mirror images of the content below it.")
+    elif evidence == "segments":
+        body = (f"Converted up from {src_khz}: every part of the file ends in a converter's cliff below "
+                f"{src / 2000:g} kHz.")
+    elif edge is not None and ratio is not None:
+        body = (f"Converted up from {src_khz}: the spectrum ends in a converter's cliff at {edge / 1000:.1f} kHz "
+                f"({ratio:.2f} of {src / 2000:g} kHz)"
+                + (f", {m['bandwidth_edge_depth_db']:.0f} dB deep" if m.get("bandwidth_edge_depth_db") else "") + ".")
+    else:
+        body = f"Converted up from {src_khz}: the spectrum ends in a converter's cliff."
+    if chans:
+        body += f" Channel{'s' if len(chans) > 1 else ''} converted: {', '.join(chans)}."
+    body += (f" Reconvert from the original {src_khz} master rather than delivering an upsampled file"
+             + (f" (confidence {conf:.2f})." if conf is not None else "."))
+    return body
+
+
+def _not_upsampled_sentence(m: dict) -> str:
+    """A plain sentence on why the file does not read as upsampled."""
+    limit, edge = m.get("band_limit_hz"), m.get("effective_bandwidth_hz")
+    if limit is not None:
+        return (f"Band-limited at {limit / 1000:.1f} kHz by a low-pass whose position or slope no rate "
+                "converter explains; not a rate conversion.")
+    if m.get("bandwidth_edge") == "cliff" and edge is not None:
+        return f"Band-limited at {edge / 1000:.1f} kHz; not a rate conversion."
+    if m.get("bandwidth_edge") == "rolloff" and edge is not None:
+        return f"The spectrum rolls off gently by {edge / 1000:.1f} kHz (no converter's cliff); not a rate conversion."
+    if m.get("bandwidth_note"):
+        return f"No converter's cliff below a lower standard rate's Nyquist frequency ({m['bandwidth_note']})."
+    return "No converter's cliff below a lower standard rate's Nyquist frequency."
 
 
 def _imaging_detail(m: dict) -> str:

@@ -32,9 +32,16 @@ Method (:func:`assess`):
    with its last partial as the effective bandwidth and no verdict.
 3. The edge frequency is the -6 dB point relative to the pass level measured
    2-5 kHz below the edge (a windowed-sinc converter is -6 dB at its cutoff).
-   A cliff whose edge lies within [0.88, 1.03] of a standard rate's Nyquist
-   (:data:`CANDIDATE_RATES_HZ`), and that is at least :data:`UPSAMPLED_MIN_DEPTH_DB`
-   deep, reads as upsampling from that rate; any other cliff is a band limit.
+   A cliff whose edge lies within :data:`EDGE_RATIO_RANGE` of a standard rate's
+   Nyquist (:data:`CANDIDATE_RATES_HZ`, 8 kHz and up), that is at least
+   :data:`UPSAMPLED_MIN_DEPTH_DB` deep and that falls the way a converter's
+   filter falls (from -6 dB to its bottom within :data:`CONVERTER_MAX_FALL_RATIO`
+   of the source Nyquist, faster in dB as it goes: :data:`CONVERTER_MAX_SHAPE_RATIO`;
+   no brick wall but at a standard Nyquist: :data:`BRICK_WALL_RATIO_TOLERANCE`)
+   reads as upsampling from that rate; any other cliff is a band limit.  Sources
+   of 16 and 22.05 kHz are searched at twice, 8 and 11.025 kHz at four times the
+   frequency scale (:func:`scale_for`): a resampler's transition scales with its
+   source rate, so the same windows and slopes apply.
 4. Without a cliff, the effective bandwidth is the highest frequency where
    ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
    no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
@@ -68,7 +75,7 @@ from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, TIME_RANGES, array_of
 
 #: standard rates a master may have been made at (Hz)
-CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400, 192000)
+CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400, 192000)
 #: closing width of the envelope (own reasoning: fills the gaps of tones with f0 up to ~1 kHz)
 CLOSING_HZ = 1010.0
 #: smoothing of the envelope
@@ -115,16 +122,46 @@ PASS_FLATNESS_DB = 12.0
 BROADBAND_GAP_DB = 10.0
 #: "clearly above the floor", dB (own reasoning)
 ABOVE_FLOOR_DB = 10.0
-#: the edge of a standard rate must lie within this fraction of its Nyquist (own reasoning, from windowed-sinc and half-band converter designs)
-EDGE_RATIO_RANGE = (0.88, 1.03)
-#: most likely edge position relative to the source Nyquist
-EDGE_RATIO_TYPICAL = 0.975
+#: the edge (-6 dB point) of a standard rate's converter lies within this fraction of its Nyquist (own reasoning
+#: from resampler designs: windowed-sinc filters centred on the old Nyquist (scipy's resample_poly) are -6 dB at
+#: 1.0; high-quality converters end their pass band at 0.91-0.97 and reach their stop band by 1.0, so their
+#: -6 dB point lies at 0.93-0.99; low-quality converters pass 80 % of the band (at -3 dB) and cross -6 dB near 0.83;
+#: 1.03 leaves room for the 10 Hz bins and the closing of the envelope)
+EDGE_RATIO_RANGE = (0.80, 1.03)
+#: most likely edge position relative to the source Nyquist (own reasoning: high-quality converters and FFT
+#: resamplers, the commonest, put it at 0.95-1.0); where two candidates both explain an edge, the one whose
+#: ratio lies nearer this wins
+EDGE_RATIO_TYPICAL = 0.97
+#: a converter's transition is a windowed sinc's: its amplitude falls roughly linearly through the cutoff, so
+#: in dB the fall accelerates, and it takes less span from -20 dB to -40 dB than from -6 dB to -20 dB (ratio
+#: 0.6-0.8 as read on the envelope for windowed-sinc converters whose fall is wide enough to read); a Butterworth
+#: low-pass falls at most a constant number of dB per octave, and even warped by the bilinear transform next to
+#: the file's Nyquist it needs about as much span for the second step as for the first (1.04 analytically for
+#: 8th order at 20 kHz in a 48 kHz file; 0.90-0.99 as read on the envelope of music).  Cliffs at or above this
+#: ratio are low-passes, not conversions (own reasoning).
+CONVERTER_MAX_SHAPE_RATIO = 0.85
+#: ... read only where the fall from -6 to -40 dB spans at least this much (on the search's scale), Hz: the
+#: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning)
+SHAPE_MIN_SPAN_HZ = 1300.0
+#: a brick wall (narrower than CONVERTER_MIN_WIDTH_RATIO) counts as a converter only this close to a standard
+#: Nyquist: an FFT resampler zeroes every bin above the old Nyquist exactly, while codec and filter brick walls sit
+#: anywhere (own reasoning)
+BRICK_WALL_RATIO_TOLERANCE = 0.015
+#: a converter falls from its -6 dB point to its bottom (at most 40 dB further down) within this fraction of the
+#: source Nyquist.  Own reasoning from resampler physics: a windowed-sinc converter's transition is the width of
+#: its window's main lobe, which practical lengths keep within 5-25 % of the old Nyquist (scipy's default Kaiser
+#: design falls from -6 to -40 dB in about 12 %); a Butterworth low-pass falls 6n dB per octave, so an 8th-order
+#: one at 20 kHz needs 14 kHz (0.64 of 22.05 kHz) for the same 34 dB, and even a 12th-order one 0.4
+CONVERTER_MAX_FALL_RATIO = 0.3
+#: a low candidate's pass (scale 2 or 4) searches up to this multiple of its highest Nyquist (own reasoning:
+#: room for the stop window above the cliff without reaching the content of a native wide band)
+LOW_PASS_TOP_RATIO = 2.6
 #: a candidate whose Nyquist is above this fraction of the file's Nyquist is untestable (own reasoning: the stop band must be visible below the file's own anti-alias filter)
 TESTABLE_MAX_RATIO = 0.93
 #: a cliff whose edge is above this fraction of the file's Nyquist is the file's own anti-alias filter (own reasoning; converters commonly pass to 0.45 fs = 0.9 x Nyquist, common practice, no source)
 OWN_FILTER_RATIO = 0.9
-#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent; the steeper brick walls of codec low-passes and IIR shelves are band limits)
-CONVERTER_MIN_WIDTH_RATIO = 0.028
+#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent (the steepest sinc converters fall from -3 to -30 dB in 2-2.5 % of the old Nyquist, as read on the envelope); the brick walls of codec low-passes, which zero whole bands, are narrower and are band limits unless they sit at a standard Nyquist, see BRICK_WALL_RATIO_TOLERANCE)
+CONVERTER_MIN_WIDTH_RATIO = 0.02
 #: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the format's floor for the candidate to be testable, dB (own reasoning: a cliff must be able to fall UPSAMPLED_MIN_DEPTH_DB + ABOVE_FLOOR_DB)
 TESTABLE_MIN_CONTENT_DB = 50.0
 #: ... and lie no further than this below the programme's main band (median of 1-10 kHz), dB (own reasoning: content that far down sits at a real master's noise floor, where no cliff can show)
@@ -133,7 +170,7 @@ TESTABLE_MAX_BELOW_MAIN_DB = 60.0
 #: main band (median of 1-10 kHz), dB: the same reasoning as TESTABLE_MAX_BELOW_MAIN_DB (own reasoning: the
 #: filtered tail of a voice 100 dB down is far above a 24-bit format's floor but carries nothing)
 CONTENT_MAX_BELOW_MAIN_DB = TESTABLE_MAX_BELOW_MAIN_DB
-#: the cliff search starts this high, Hz
+#: the cliff search starts this high, Hz (on the scale of the search, see assess_power)
 SEARCH_LOW_HZ = 6000.0
 #: windows of the cliff search, Hz (relative to the edge position)
 PRE_WINDOW_HZ = (-1500.0, -500.0)
@@ -158,9 +195,15 @@ MEASUREMENT_SCHEMA = {
     "bandwidth_edge_slope_db_per_khz": measured(NUMBER_OR_NULL, 'db',
         'steepness of the edge, dB per kHz'),
     "upsampled_from_hz": measured({"type": ["integer", "null"]}, 'hz',
-        'standard rate whose Nyquist frequency a converter cliff sits at; null when none'),
-    "upsampled_confidence": measured(NUMBER_OR_NULL, 'fraction',
+        'standard rate the master was converted up from; null when none'),
+    "upsampled_confidence_fraction": measured(NUMBER_OR_NULL, 'fraction',
         'confidence of the upsampling verdict, 0..1'),
+    "upsampled_channels": measured({"type": ["array", "null"], "items": {"type": "string"}}, NO_UNIT,
+        'the channels the upsampling was found in'),
+    "upsampled_edge_ratio": measured(NUMBER_OR_NULL, 'ratio',
+        'the content edge over the source rate\'s Nyquist frequency'),
+    "upsampled_evidence": measured({"enum": ["cliff", "images", "segments", None]}, NO_UNIT,
+        'what showed the upsampling: a converter cliff, images, or stretches of the file'),
     "band_limit_hz": measured(NUMBER_OR_NULL, 'hz',
         'frequency of a steep low-pass no standard rate explains; null when none'),
     "untestable_source_rates_hz": measured(array_of({"type": "integer"}), 'hz',
@@ -168,10 +211,10 @@ MEASUREMENT_SCHEMA = {
     "bandwidth_note": measured(STRING_OR_NULL, NO_UNIT,
         'what the bandwidth figures counted, in words'),
     "bandwidth_segments": measured(array_of({"type": "object", "required": ["start_s", "end_s", "upsampled_from_hz"],
-        "properties": {"start_s": {"type": "number"}, "end_s": {"type": "number"},
-        "upsampled_from_hz": {"type": ["integer", "null"]},
-        "upsampled_confidence": NUMBER_OR_NULL,
-        "effective_bandwidth_hz": NUMBER_OR_NULL}}), NO_UNIT,
+                                             "properties": {"start_s": {"type": "number"}, "end_s": {"type": "number"},
+                                                            "upsampled_from_hz": {"type": ["integer", "null"]},
+                                                            "upsampled_confidence_fraction": NUMBER_OR_NULL,
+                                                            "effective_bandwidth_hz": NUMBER_OR_NULL}}), NO_UNIT,
         'the bandwidth assessment per stretch of the file'),
     "upsampled_where_s": measured(TIME_RANGES, 's',
         'time ranges where upsampling was found'),
@@ -192,6 +235,9 @@ class BandwidthResult:
     settings: dict = field(default_factory=dict)
     segments: list = field(default_factory=list)
     where_s: list = field(default_factory=list)
+    channels: list | None = None
+    edge_ratio: float | None = None
+    evidence: str | None = None
 
     def measurements(self) -> dict:
         return {
@@ -200,7 +246,10 @@ class BandwidthResult:
             "bandwidth_edge_depth_db": self.depth_db,
             "bandwidth_edge_slope_db_per_khz": self.slope_db_per_khz,
             "upsampled_from_hz": self.upsampled_from_hz,
-            "upsampled_confidence": self.confidence,
+            "upsampled_confidence_fraction": self.confidence,
+            "upsampled_channels": None if self.channels is None else list(self.channels),
+            "upsampled_edge_ratio": self.edge_ratio if self.upsampled_from_hz is not None else None,
+            "upsampled_evidence": (self.evidence or "cliff") if self.upsampled_from_hz is not None else None,
             "band_limit_hz": self.band_limit_hz,
             "untestable_source_rates_hz": list(self.untestable_hz),
             "bandwidth_note": self.note,
@@ -235,6 +284,7 @@ def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_d
     """
     nyq = sample_rate_hz / 2.0
     testable, untestable = [], []
+    main = None
     for r in CANDIDATE_RATES_HZ:
         if r >= sample_rate_hz:
             continue
@@ -242,7 +292,8 @@ def testable_candidates(sample_rate_hz: float, env_db=None, bin_hz=None, floor_d
         if ok and env_db is not None:
             a, b = _bins(0.84 * r / 2.0, bin_hz), _bins(0.88 * r / 2.0, bin_hz)
             near = float(np.median(env_db[a:b + 1]))
-            main = float(np.median(env_db[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+            if main is None:
+                main = float(np.median(env_db[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
             ok = near >= floor_db + TESTABLE_MIN_CONTENT_DB and near >= main - TESTABLE_MAX_BELOW_MAIN_DB
         (testable if ok else untestable).append(r)
     return testable, untestable
@@ -361,6 +412,10 @@ def _cliff_at(env_db, bin_hz, top_bin, e, post):
     low = min(30.0, depth - 3.0)          # the "-30 dB" point of a shallower cliff is 3 dB above its bottom
     pts = {d: _crossing(work, start, top_bin, pass_db - (low if d == 30.0 else d), bin_hz)
            for d in (1.0, 3.0, 6.0, 30.0)}
+    # -20 dB and -40 dB points (or 3 dB above the bottom of a shallower cliff) for the shape of the fall
+    d20, d40 = min(20.0, depth - 3.0), min(40.0, depth - 3.0)
+    f20 = _crossing(work, start, top_bin, pass_db - d20, bin_hz) if d20 > 6.0 else None
+    f40 = _crossing(work, start, top_bin, pass_db - d40, bin_hz) if d40 > d20 else None
     bottom = pass_db - min(depth - 3.0, 40.0)
     fb = _crossing(env_db, start, top_bin, bottom, bin_hz)
     f6 = pts[6.0]
@@ -385,7 +440,7 @@ def _cliff_at(env_db, bin_hz, top_bin, e, post):
     after = -float(np.polyfit(np.arange(ka, kz) * bin_hz / 1000.0, env_db[ka:kz], 1)[0]) if kz - ka >= 10 else 0.0
     return {"edge_bin": e, "pass_db": pass_db, "stop_db": post, "drop_db": depth,
             "edge_hz": f6, "slope_db_per_khz": slope, "f1_hz": pts[1.0], "f3_hz": pts[3.0],
-            "f30_hz": pts[30.0], "slope_below_db_per_khz": below, "steepest_db_per_khz": steepest,
+            "f30_hz": pts[30.0], "fb_hz": fb, "f20_hz": f20, "f40_hz": f40, "slope_below_db_per_khz": below, "steepest_db_per_khz": steepest,
             "tilt_db_per_khz": tilt, "slope_after_db_per_khz": after}
 
 
@@ -457,7 +512,7 @@ def match_rate(edge_hz: float, candidates) -> tuple[int | None, float]:
     for r in candidates:
         ratio = edge_hz / (r / 2.0)
         if EDGE_RATIO_RANGE[0] <= ratio <= EDGE_RATIO_RANGE[1]:
-            s = 1.0 - abs(ratio - EDGE_RATIO_TYPICAL) / 0.095
+            s = 1.0 - abs(ratio - EDGE_RATIO_TYPICAL) / 0.15
             if best is None or s > score:
                 best, score = r, max(0.0, s)
     return best, score
@@ -466,14 +521,60 @@ def match_rate(edge_hz: float, candidates) -> tuple[int | None, float]:
 def assess(fe, info) -> BandwidthResult:
     """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`.
 
-    When the whole file does not read as upsampled, also judges the front end's
-    time segments (:func:`assess_segments`), so an upsampled part of a file (a
-    spliced intro) is found even where the whole file's spectrum hides it;
-    ``upsampled_where_s`` is then those segments' time ranges (the whole file
-    when the whole file reads as upsampled; ``bandwidth_segments`` is then empty).
+    The channel-summed spectrum is judged first; with more than one channel each
+    channel is judged on its own too (:func:`assess_power` on its own long-term
+    spectrum), so a master with one channel converted up and the others native is
+    found: ``upsampled_channels`` lists the channels that read as upsampled, and the
+    file-level verdict takes their rate when the sum hides it.
+
+    When the whole file does not read as upsampled, its time segments are judged
+    (:func:`assess_segments`), so an upsampled part of a file (a spliced intro) is
+    found even where the whole file's spectrum hides it; ``upsampled_where_s`` is then
+    those segments' time ranges.  When every judged segment reads as upsampled from
+    one rate, so does the file (the file-level and per-segment verdicts agree).
     """
-    out = assess_power(fe.ltas_total, fe.bin_hz, float(fe.sample_rate_hz), fe.frame_length, info,
-                       frames=fe.frames)
+    fs = float(fe.sample_rate_hz)
+    out = assess_power(fe.ltas_total, fe.bin_hz, fs, fe.frame_length, info, frames=fe.frames)
+    labels = list(getattr(info, "channel_layout", None) or [])
+    n_ch = int(fe.ltas.shape[0])
+    if len(labels) != n_ch:
+        labels = [f"ch{i + 1}" for i in range(n_ch)]
+    per_channel = [out]
+    if n_ch > 1 and fe.frames:
+        # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        per_channel = []
+        for c in range(n_ch):
+            if drops_somewhere(fe.ltas[c], fe.bin_hz, fs, floor):
+                per_channel.append(assess_power(fe.ltas[c], fe.bin_hz, fs, fe.frame_length, info, frames=fe.frames))
+            else:
+                quiet = BandwidthResult()
+                quiet.settings = {"testable_hz": out.settings.get("testable_hz")}
+                per_channel.append(quiet)
+
+    def shows(c, rate):
+        """Channel ``c`` has content just below ``rate``'s Nyquist (where a cliff could show)."""
+        if n_ch == 1:
+            return True
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        env = envelope_db(fe.ltas[c], fe.bin_hz)
+        return rate in testable_candidates(fs, env, fe.bin_hz, floor)[0]
+    up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
+    testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
+    if out.upsampled_from_hz is None and up_ch:
+        # the sum hides it (a native channel fills the band): the channels that show a cliff decide
+        hits = [r for r in per_channel if r.upsampled_from_hz is not None]
+        rates = [r.upsampled_from_hz for r in hits]
+        rate = max(set(rates), key=rates.count)
+        best = max((r for r in hits if r.upsampled_from_hz == rate), key=lambda r: r.confidence or 0.0)
+        out.upsampled_from_hz, out.confidence = rate, best.confidence
+        out.edge, out.depth_db, out.slope_db_per_khz = best.edge, best.depth_db, best.slope_db_per_khz
+        out.band_limit_hz = None
+        out.note = f"{', '.join(up_ch)}: " + (best.note or "")
+    if out.upsampled_from_hz is not None and n_ch > 1 and not up_ch:
+        # the sum shows the cliff, no channel alone does (each too quiet): every channel with content
+        up_ch = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
+    out.channels = up_ch if (testable_any or up_ch) else None
     segs = getattr(fe, "segment_ltas", None)
     if out.upsampled_from_hz is not None:
         # the whole file reads as upsampled: that is where
@@ -483,6 +584,20 @@ def assess(fe, info) -> BandwidthResult:
         out.segments = assess_segments(fe, info)
         out.where_s = upsampled_ranges(out.segments)
         out.settings["segments"] = len(segs)
+        judged = [s for s, n in zip(out.segments, fe.segment_frames) if n >= SEGMENT_MIN_FRAMES]
+        rates = {s["upsampled_from_hz"] for s in judged}
+        if judged and len(rates) == 1 and None not in rates:
+            # every segment says the same source rate: so does the file
+            rate = rates.pop()
+            out.upsampled_from_hz = int(rate)
+            out.confidence = min(s["upsampled_confidence_fraction"] for s in judged)
+            out.band_limit_hz = None
+            out.edge = "cliff"
+            out.evidence = "segments"
+            out.note = (f"every time segment ends in a converter cliff consistent with a "
+                        f"{rate / 1000:g} kHz source")
+            if out.channels is not None and not out.channels:
+                out.channels = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
     return out
 
 
@@ -492,38 +607,47 @@ def assess_segments(fe, info) -> list:
     Only segments whose spectrum drops by at least :data:`CLIFF_MIN_DROP_DB` across
     some testable candidate's Nyquist (a quick check of two percentiles per
     candidate) get the full analysis.  Returns one dict per segment: ``start_s``, ``end_s``,
-    ``upsampled_from_hz``, ``upsampled_confidence``, ``effective_bandwidth_hz``.
+    ``upsampled_from_hz``, ``upsampled_confidence_fraction``, ``effective_bandwidth_hz``.
     """
     fs = float(fe.sample_rate_hz)
     floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
     out = []
     for (a, b), power, n in zip(fe.segment_bounds_s, fe.segment_ltas, fe.segment_frames):
         row = {"start_s": round(a, 3), "end_s": round(b, 3), "upsampled_from_hz": None,
-               "upsampled_confidence": None, "effective_bandwidth_hz": None}
+               "upsampled_confidence_fraction": None, "effective_bandwidth_hz": None}
         out.append(row)
         if n < SEGMENT_MIN_FRAMES or not np.any(power > 0):
             continue
-        env = envelope_db(power, fe.bin_hz)
-        testable, _u = testable_candidates(fs, env, fe.bin_hz, floor)
-        top = min(len(env), _bins(0.99 * fs / 2.0, fe.bin_hz))
-        hit = False
-        top_hz = top * fe.bin_hz
-        for r in testable:
-            gap = min(POST_WINDOW_HZ[0], max(300.0, top_hz - r / 2.0 - 500.0))
-            k0, k1 = _bins(0.86 * r / 2.0, fe.bin_hz), _bins(0.93 * r / 2.0, fe.bin_hz)
-            k2 = _bins(r / 2.0 + gap, fe.bin_hz)
-            k3 = min(top, _bins(r / 2.0 + POST_WINDOW_HZ[1], fe.bin_hz))
-            if k3 - k2 < 10:
-                continue
-            if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
-                hit = True
-                break
-        if not hit:
+        if not drops_somewhere(power, fe.bin_hz, fs, floor):
             continue
         res = assess_power(power, fe.bin_hz, fs, fe.frame_length, info, frames=n)
-        row.update(upsampled_from_hz=res.upsampled_from_hz, upsampled_confidence=res.confidence,
+        row.update(upsampled_from_hz=res.upsampled_from_hz, upsampled_confidence_fraction=res.confidence,
                    effective_bandwidth_hz=res.effective_bandwidth_hz)
     return out
+
+
+def drops_somewhere(power, bin_hz: float, fs: float, floor_db: float) -> bool:
+    """A quick look before the full analysis: does the spectrum fall by at least :data:`CLIFF_MIN_DROP_DB`
+    across some testable candidate's Nyquist (median of 0.70-0.84 of it against the 90th percentile of a
+    window above it)?  No converter cliff can be found where this is False."""
+    env = envelope_db(power, bin_hz)
+    testable, _u = testable_candidates(fs, env, bin_hz, floor_db)
+    return _drop_at(env, bin_hz, min(len(env), _bins(0.99 * fs / 2.0, bin_hz)), testable)
+
+
+def _drop_at(env, bin_hz: float, top: int, rates) -> bool:
+    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``."""
+    for r in rates:
+        nyq_r = r / 2.0
+        gap = min(POST_WINDOW_HZ[0], 0.25 * nyq_r)
+        k0, k1 = _bins(0.70 * nyq_r, bin_hz), _bins(0.84 * nyq_r, bin_hz)
+        k2 = _bins(nyq_r + gap, bin_hz)
+        k3 = min(top, _bins(nyq_r + gap + min(POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0], 0.5 * nyq_r), bin_hz))
+        if k3 - k2 < 10 or k1 <= k0:
+            continue
+        if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
+            return True
+    return False
 
 
 def upsampled_ranges(segments) -> list:
@@ -539,8 +663,72 @@ def upsampled_ranges(segments) -> list:
     return ranges
 
 
+def shape_ratio(cliff: dict) -> float:
+    """Span of a cliff's fall from -20 to -40 dB over its span from -6 to -20 dB (0 when unreadable);
+    see :data:`CONVERTER_MAX_SHAPE_RATIO`.  Spans shorter than one 10 Hz bin count as one bin; a fall
+    narrower than :data:`SHAPE_MIN_SPAN_HZ` is not read (0)."""
+    f6, f20, f40 = cliff.get("edge_hz"), cliff.get("f20_hz"), cliff.get("f40_hz")
+    if f6 is None or f20 is None or f40 is None or f40 - f6 < SHAPE_MIN_SPAN_HZ:
+        return 0.0
+    return max(f40 - f20, 10.0) / max(f20 - f6, 10.0)
+
+
+def scale_for(rate_hz: float) -> int:
+    """Frequency scale at which a candidate's cliff is searched (see :func:`assess_power`): 1 for
+    sources of 24 kHz and up, 2 for 16 and 22.05 kHz, 4 for 8 and 11.025 kHz."""
+    nyq = rate_hz / 2.0
+    return 1 if nyq >= 11500.0 else 2 if nyq >= 7500.0 else 4
+
+
+def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
+    """One cliff search at frequency scale ``scale``: ``(cliff, rate, position score, tonal)``.
+
+    At scale ``s`` the envelope is read as if its bins were ``s`` times wider, so every window
+    and slope of the search (set for the cliffs of 22-48 kHz sources) applies, in proportion,
+    to a source ``s`` times lower: a resampler's transition band scales with its source rate.
+    Frequencies in the returned cliff are real (divided back by ``s``).
+    """
+    b = bin_hz * scale
+    cands = [r * scale for r in testable]
+    cliff = find_cliff(env, b, top,
+                       accept=lambda c: (c["slope_db_per_khz"] >= CLIFF_MIN_SLOPE_DB_PER_KHZ
+                                         and c["pass_db"] >= floor + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB
+                                         and steep_relative(c)))
+    if cliff is None:
+        return None, None, 0.0, False
+    a, z = max(0, cliff["edge_bin"] + _bins(PASS_WINDOW_HZ[0], b)), cliff["edge_bin"] + _bins(PRE_WINDOW_HZ[1], b)
+    gap = _db(total[a:z]) - env[a:z]
+    tonal = float(np.median(gap)) < -BROADBAND_GAP_DB if z > a else False
+    rate, pos = match_rate(cliff["edge_hz"], cands)
+    if rate is not None:
+        ratio = cliff["edge_hz"] / (rate / 2.0)
+        width = transition_width_hz(cliff)
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
+        fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
+        if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
+                and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
+                and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
+                and (brick or shape_ratio(cliff) < CONVERTER_MAX_SHAPE_RATIO)):
+            rate = None
+    real = dict(cliff)
+    for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz"):
+        if real.get(k) is not None:
+            real[k] = real[k] / scale
+    for k in ("slope_db_per_khz", "slope_below_db_per_khz", "steepest_db_per_khz", "tilt_db_per_khz",
+              "slope_after_db_per_khz"):
+        if k in real:
+            real[k] = real[k] * scale
+    return real, (None if rate is None else int(round(rate / scale))), pos, tonal
+
+
 def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frames: int = 1) -> BandwidthResult:
-    """Effective bandwidth and upsampling verdict of a channel-summed power spectrum (10 Hz bins)."""
+    """Effective bandwidth and upsampling verdict of a long-term power spectrum (10 Hz bins).
+
+    Candidates of 24 kHz and up are searched on the spectrum as it is; 16 and 22.05 kHz
+    sources at twice, 8 and 11.025 kHz at four times the frequency scale (see
+    :func:`_judge_cliff`), each pass over the band up to :data:`LOW_PASS_TOP_RATIO` times the
+    highest candidate's Nyquist it serves.
+    """
     testable, untestable = testable_candidates(fs)
     out = BandwidthResult(untestable_hz=untestable)
     floor = format_floor_db(info.bit_depth, info.is_float, frame_length)
@@ -549,6 +737,7 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         "format_floor_db_per_bin": round(floor, 2), "closing_hz": CLOSING_HZ,
         "cliff_min_drop_db": CLIFF_MIN_DROP_DB, "cliff_min_slope_db_per_khz": CLIFF_MIN_SLOPE_DB_PER_KHZ,
         "upsampled_min_depth_db": UPSAMPLED_MIN_DEPTH_DB, "above_floor_db": ABOVE_FLOOR_DB,
+        "edge_ratio_range": list(EDGE_RATIO_RANGE), "converter_max_fall_ratio": CONVERTER_MAX_FALL_RATIO,
     }
     if frames == 0 or not np.any(total > 0):
         out.note = "no signal: digital silence"
@@ -559,46 +748,45 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     out.settings["testable_hz"] = testable
     nyq = fs / 2.0
     top = min(len(env), _bins(0.99 * nyq, bin_hz))
-    cliff = find_cliff(env, bin_hz, top,
-                       accept=lambda c: (c["slope_db_per_khz"] >= CLIFF_MIN_SLOPE_DB_PER_KHZ
-                                         and c["pass_db"] >= floor + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB
-                                         and steep_relative(c)))
-    rate = pos = None
-    tonal = False
-    if cliff is not None:
-        a, b = max(0, cliff["edge_bin"] + _bins(PASS_WINDOW_HZ[0], bin_hz)), cliff["edge_bin"] + _bins(PRE_WINDOW_HZ[1], bin_hz)
-        gap = _db(total[a:b]) - env[a:b]
-        tonal = float(np.median(gap)) < -BROADBAND_GAP_DB
+    cliff, rate, pos, tonal = _judge_cliff(env, total, bin_hz, top, floor, nyq,
+                                           [r for r in testable if scale_for(r) == 1], 1)
+    for scale in (2, 4):
+        # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
+        # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins
+        low = [r for r in testable if scale_for(r) == scale]
+        if not low or not _drop_at(env, bin_hz, top, low):
+            continue
+        top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
+        c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
+        if r2 is not None and not t2 and (rate is None or p2 > pos):
+            cliff, rate, pos, tonal = c2, r2, p2, t2
     if cliff is not None and tonal:
         edge = round(cliff["edge_hz"] / 10.0) * 10.0
         out.effective_bandwidth_hz = edge
         out.note = (f"tonal material: its highest partials end at {edge / 1000:.2f} kHz; "
                     "a converter cliff cannot be told from the end of a harmonic series")
         return out
-    if cliff is not None:
-        rate, pos = match_rate(cliff["edge_hz"], testable)
-        width = transition_width_hz(cliff)
-        if rate is not None and not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
-                                     and width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0):
-            rate = None
-        if rate is None and cliff["edge_hz"] > OWN_FILTER_RATIO * nyq:
-            cliff = None
+    if cliff is not None and rate is None and cliff["edge_hz"] > OWN_FILTER_RATIO * nyq:
+        cliff = None
     if cliff is not None:
         edge = round(cliff["edge_hz"] / 10.0) * 10.0
         out.effective_bandwidth_hz = edge
         out.edge = "cliff"
         out.depth_db = round(cliff["drop_db"], 1)
         out.slope_db_per_khz = round(cliff["slope_db_per_khz"], 1)
+        out.edge_ratio = round(cliff["edge_hz"] / (rate / 2.0), 3) if rate is not None else None
         if rate is not None:
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
             out.upsampled_from_hz = int(rate)
             out.confidence = round(0.4 + 0.6 * (c_depth + pos + c_slope) / 3.0, 2)
-            out.note = (f"content ends in a converter cliff at {edge / 1000:.2f} kHz "
-                        f"({out.depth_db:.0f} dB deep): upsampled from {rate / 1000:g} kHz?")
+            out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
+                        f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
+                        f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
         else:
             out.band_limit_hz = edge
-            out.note = f"low-passed at {edge / 1000:.1f} kHz: lossy or filtered source?"
+            out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass that no standard rate's converter "
+                        "explains (a lossy or filtered source?)")
         return out
     main = float(np.median(env[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
     above = np.nonzero(env[:top] >= max(floor + ABOVE_FLOOR_DB, main - CONTENT_MAX_BELOW_MAIN_DB))[0]
@@ -612,8 +800,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     else:
         out.effective_bandwidth_hz = bw
         out.edge = "rolloff"
-        out.note = (f"content rolls off gently (no converter cliff): nothing within "
+        out.note = (f"rolls off gently, no converter cliff: nothing within "
                     f"{CONTENT_MAX_BELOW_MAIN_DB:g} dB of the main band above {bw / 1000:.1f} kHz"
                     if main - CONTENT_MAX_BELOW_MAIN_DB > floor + ABOVE_FLOOR_DB else
-                    f"content rolls off into the noise floor by {bw / 1000:.1f} kHz")
+                    f"rolls off into the noise floor by {bw / 1000:.1f} kHz, no converter cliff")
     return out

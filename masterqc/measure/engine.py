@@ -22,7 +22,7 @@ from masterqc.errors import AudioReadError
 from masterqc.jsonutil import jsonable
 from masterqc.measure.options import MeasureOptions
 from masterqc.measure.oversample import single_thread_blas
-from masterqc.measure.registry import analyzer_classes
+from masterqc.measure.registry import analyzer_classes, post_steps
 
 HASH_CHUNK_BYTES = 1 << 20
 
@@ -31,14 +31,17 @@ def file_facts(path) -> dict:
     """``{"path", "size_bytes", "sha256"}`` of a file, read in 1 MiB chunks."""
     digest = hashlib.sha256()
     size = 0
+    from masterqc.fileio import NotRegularFile, open_regular_file
     try:
-        with open(path, "rb") as f:
+        with open_regular_file(path) as f:  # a FIFO or device is refused at once, never waited on
             while True:
                 chunk = f.read(HASH_CHUNK_BYTES)
                 if not chunk:
                     break
                 size += len(chunk)
                 digest.update(chunk)
+    except NotRegularFile as exc:
+        raise AudioReadError(path, str(exc)) from None
     except OSError as exc:
         raise AudioReadError(path, f"cannot read file ({exc.strerror or exc})") from None
     return {"path": os.fspath(path), "size_bytes": size, "sha256": digest.hexdigest()}
@@ -80,7 +83,8 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
 
     ``progress(frames_done, frames_total)`` is called after each block when given
     (always from the calling thread).  Returns ``(measurements, series, settings)``
-    dicts.
+    dicts.  After every analyzer has finished, the registry's post-steps
+    (:func:`masterqc.measure.registry.post_steps`) combine evidence across analyzers.
 
     With ``options.threads`` > 1 the stream is decoded in a reader thread up to
     :data:`READ_AHEAD_BLOCKS` blocks ahead, and the analyzers run on that many
@@ -103,7 +107,10 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None):
             _run_sequential(stream, info, options, analyzers, progress)
         else:
             _BlockScheduler(stream, info, options, analyzers, threads, progress).run()
-        return _collect(analyzers)
+        measurements, series, settings = _collect(analyzers)
+    for step in post_steps():
+        measurements = step(measurements)
+    return measurements, series, settings
 
 
 def _run_sequential(stream, info, options, analyzers, progress) -> None:

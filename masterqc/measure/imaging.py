@@ -404,13 +404,14 @@ class ImagingAnalyzer(Analyzer):
         "imaging": measured(array_of({
             "type": "object",
             "properties": {
-            "source_rate_hz": {"type": "number"},
-            "coherence": NUMBER_OR_NULL,
-            "image_level_db": NUMBER_OR_NULL,
-            "z_score": NUMBER_OR_NULL,
-            "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
-            "reason": {"type": ["string", "null"]},
-            "channel": {"type": ["string", "null"]},
+                "source_rate_hz": {"type": "number"},
+                "coherence": NUMBER_OR_NULL,
+                "image_level_db": NUMBER_OR_NULL,
+                "z_score": NUMBER_OR_NULL,
+                "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
+                "reason": {"type": ["string", "null"]},
+                "channel": {"type": ["string", "null"]},
+                "channels": {"type": "array", "items": {"type": "string"}},
             },
             "required": ["source_rate_hz", "coherence", "image_level_db", "verdict"],
             }), NO_UNIT,
@@ -657,11 +658,15 @@ class ImagingAnalyzer(Analyzer):
                for ch in range(self.info.channels)]
         for cand in self.cands:
             best = None
+            defects = []
             for ch in range(self.info.channels):
                 a = self._assess(cand, ch, f0s[ch])
+                if a["verdict"] == "defect":
+                    defects.append(a["channel"])
                 key = (rank[a["verdict"]], a["z_score"] if a["z_score"] is not None else -1e9)
                 if best is None or key > best[0]:
                     best = (key, a)
+            best[1]["channels"] = defects
             out.append(best[1])
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)

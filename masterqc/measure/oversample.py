@@ -1,4 +1,4 @@
-"""Polyphase interpolation for true-peak metering (ITU-R BS.1770-5, Annex 2).
+"""Band-limited interpolation for true-peak metering (ITU-R BS.1770-5, Annex 2).
 
 The interpolator estimates the band-limited signal between the samples: for an
 oversampling factor ``L`` it computes, for every input frame ``i``, the values at
@@ -10,33 +10,63 @@ true peak can never be below the sample peak.
 Filter (``kaiser`` design, the default)
     ``h_p[d] = sinc(p/L - d) * kaiser(p/L - d; beta) / sum_d(...)`` for the input
     offsets ``d = -(T/2 - 1) .. T/2`` (``T`` taps per phase), each phase scaled to
-    unit gain at 0 Hz.  With ``T = 32``, ``beta = 5.0`` (the defaults) the response
-    is half amplitude at fs/2 (a Nyquist filter), ripple within 0.011 dB up to
-    0.375*fs, -0.015 dB at 0.45*fs, images of content up to 0.4*fs at least
-    58 dB down and the image of 0.45*fs 54 dB down; the worst-case under-read of
-    a sine up to 0.45*fs is 0.58 dB at 4x (grid-only figure of Annex 2: 0.554),
-    0.17 dB at 8x (0.136) and 0.07 dB at 16x (0.034) (figures computed by :func:`filter_properties` and :func:`underread_db`;
-    checked in ``tests/test_true_peak.py``).
+    unit gain at 0 Hz.  The defaults, ``T = 192``, ``beta = 5.5`` (house choice),
+    make a narrow transition centred on fs/2 (half amplitude there, a Nyquist
+    filter): every phase reproduces a sine up to 0.49*fs within 0.0021 of its
+    amplitude and phase (0.018 dB) and the prototype is at least 60 dB down from 0.51*fs
+    (so the image of a 0.49*fs component is too).  Figures computed by
+    :func:`filter_properties` and checked in ``tests/test_true_peak.py``.
+
+Reading grid (``kaiser``): a scan, then a 32x read where it matters
+    The meter reads every peak on a 32x grid (``READ_FACTOR``).  The grid loss
+    of BS.1770-5 Annex 2, ``-20*log10(cos(pi*f/(L*fs)))``, is then 0.010 dB at
+    0.49*fs; with the filter's own error the worst-case under-read of a sine is
+    0.012 dB up to 0.45*fs and 0.023 dB up to 0.49*fs (:func:`meter_underread_db`).
+    Evaluating 32 phases everywhere would cost 8x a 4x meter, so the meter first
+    scans a coarse grid (4x by default, the phases 0, 8, 16 and 24 of the same
+    32-phase filter, computed by FFT), and reads the other 28 phases only in the
+    frames where the scan leaves open that a value could matter.
+
+    Why the scan cannot miss a peak (analytic): for a real signal band-limited
+    to ``B`` Hz, ``|f| <= M``, Bernstein's inequality in Szegő's form
+    ``f'^2 + (2*pi*B)^2 f^2 <= (2*pi*B)^2 M^2`` gives ``f(t* + s) >= M
+    cos(2*pi*B*s)`` around a maximum ``f(t*) = M``.  Every instant lies within
+    half a scan step ``1/(2*L*fs)`` of a scan instant, so the scan value nearest
+    a peak of height ``M`` is at least ``M*cos(pi*B/(L*fs))``; the same bound is
+    Annex 2's grid-loss formula, here for any band-limited signal, not only a
+    sine.  The interpolant's band ends where the filter's stopband starts
+    (0.51*fs; ``B = 0.52*fs`` is used, with a further 0.5 % margin for the
+    stopband's leakage and float32 rounding of the scan).  A frame whose scan
+    values (and the next sample) are all below ``threshold * X`` therefore holds
+    no fine-grid value above ``X``: with ``X`` the channel's peak so far, such
+    a frame cannot change the true peak; with ``X`` the caller's floor (the
+    over ceiling, the envelope bucket's maximum so far) it cannot change the
+    overs or the envelope.  The bound is proven at the signal's largest value;
+    at a smaller local maximum it holds as long as no larger value lies within
+    about a sample (the curvature there is bounded by the larger value), so the
+    overs and the envelope are checked against a full 32x evaluation on
+    near-Nyquist signals in the tests.  Results equal a full 32x evaluation and
+    do not depend on the block size (scan segments sit at fixed frame
+    positions).
 
 Filter (``annex2`` design)
-    The example 48-tap, 4-phase filter printed in BS.1770-5 Annex 2 (4x only).
-    Its phases are not an exact identity at phase 0, so the meter still takes the
-    maximum with the sample peak.
+    The example 48-tap, 4-phase filter printed in BS.1770-5 Annex 2 (4x only,
+    read on its own 4x grid, no refinement).  Its phases are not an exact
+    identity at phase 0, so the meter still takes the maximum with the sample
+    peak.
 
-Streaming: :class:`TruePeakMeter` keeps only the last ``T`` input frames per
-channel between blocks, so results do not depend on the block size.  The
-signal is taken as zero before the first and after the last sample; only the
-instants inside the file ``[0, frames)`` are evaluated.
+Streaming: :class:`TruePeakMeter` evaluates fixed FFT segments of ``S`` frames
+(overlap-save, ``N = 16384``, ``S = N - T + 1`` rounded down to a multiple of
+64: 16128) at fixed positions in the file and keeps the unevaluated input
+between blocks.  The signal is taken as zero
+before the first and after the last sample; only the instants inside the file
+``[0, frames)`` are evaluated.
 
-Speed: the output of ``B = T/2`` consecutive frames depends on three contiguous
-``B``-frame segments of the input, so the whole block is computed as three
-matrix products of non-overlapping reshaped views (BLAS, no window copies), in
-float32.  float32 is safe here: 24-bit codes are exact in float32 and the
-rounding error of a 32-term dot product is below 1e-6 of full scale
-(< 0.0001 dB at any level above -100 dBFS); the phase-0 values and the sample
-peak are taken in float64.  The products are small, so BLAS runs them on one
-thread (threadpoolctl): on a loaded machine, multi-threaded OpenBLAS workers
-spin and made the meter over 100x slower in the benchmark.
+Precision: the scan and the fine read run in float32 (24-bit codes are exact
+in float32; the FFT's rounding is about 1e-7 of the segment's level, far inside
+the 0.5 % margin above, and a 192-term float32 dot product is within about
+1e-6 of the local level, < 0.0001 dB); the sample peak is float64.  Tested
+against a float64 full-grid evaluation.
 """
 
 from __future__ import annotations
@@ -47,6 +77,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
+import scipy.fft as sfft
 from numpy.lib.stride_tricks import as_strided
 
 #: the example interpolation filter of ITU-R BS.1770-5 Annex 2 (phases 0 and 1;
@@ -58,10 +89,21 @@ ANNEX2_PHASE1 = (-0.0291748046875, 0.0292968750000, -0.0517578125000, 0.08911132
                  -0.1665039062500, 0.4650878906250, 0.7797851562500, -0.2003173828125,
                  0.1015625000000, -0.0582275390625, 0.0330810546875, -0.0189208984375)
 
-DEFAULT_TAPS_PER_PHASE = 32
-DEFAULT_KAISER_BETA = 5.0
-#: accepted oversampling factors
+DEFAULT_TAPS_PER_PHASE = 192
+DEFAULT_KAISER_BETA = 5.5
+#: accepted (requested) oversampling factors
 FACTORS = (1, 2, 4, 8, 16)
+#: the grid every peak is read on (kaiser design), house choice
+READ_FACTOR = 32
+#: coarsest scan grid (the scan factor is at least this, and at least the request)
+SCAN_FACTOR_MIN = 4
+#: band assumed for the interpolant in the scan bound, as a fraction of fs (the
+#: filter's stopband starts at 0.51*fs)
+SCAN_BAND_FS = 0.52
+#: further factor on the scan threshold (stopband leakage, float32 scan)
+SCAN_MARGIN = 0.995
+#: FFT length of the scan (overlap-save)
+SCAN_FFT_SIZE = 16384
 
 
 def automatic_factor(sample_rate_hz: float) -> int:
@@ -78,14 +120,22 @@ def automatic_factor(sample_rate_hz: float) -> int:
 
 
 def choose_factor(sample_rate_hz: float, requested: int | None) -> int:
-    """Factor used: the requested one, but never below :func:`automatic_factor`."""
-    auto = automatic_factor(sample_rate_hz)
+    """Scan factor used: the requested one, but never below 4 (``SCAN_FACTOR_MIN``,
+    which is also at least :func:`automatic_factor` at every rate)."""
+    floor = max(SCAN_FACTOR_MIN, automatic_factor(sample_rate_hz))
     if requested is None:
-        return auto
+        return floor
     if int(requested) not in FACTORS:
         raise ValueError(f"true-peak oversampling factor {requested} is not one of "
                          f"{', '.join(map(str, FACTORS))}")
-    return max(auto, int(requested))
+    return max(floor, int(requested))
+
+
+def scan_threshold(scan_factor: int) -> float:
+    """Scan values below ``threshold * X`` prove that no fine-grid value within
+    half a scan step exceeds ``X`` (module docstring): ``cos(pi*B/(L*fs))`` with
+    ``B = 0.52*fs``, times the 0.5 % margin."""
+    return math.cos(math.pi * SCAN_BAND_FS / scan_factor) * SCAN_MARGIN
 
 
 @dataclass(frozen=True)
@@ -164,7 +214,9 @@ def annex2_filter() -> PolyphaseFilter:
 
 
 def get_filter(factor: int, design: str = "kaiser") -> PolyphaseFilter:
-    """Filter for ``factor`` in the named design ("kaiser" or "annex2")."""
+    """Filter for ``factor`` in the named design ("kaiser" or "annex2"); the
+    kaiser filters of every factor are the same prototype (phase ``p`` of factor
+    ``L`` is phase ``p*32/L`` of the 32-phase filter)."""
     if design == "kaiser":
         return kaiser_filter(int(factor))
     if design == "annex2":
@@ -218,17 +270,20 @@ def image_rejection_db(flt: PolyphaseFilter, freqs_norm) -> np.ndarray:
     return 20 * np.log10(np.maximum(images, 1e-300) / wanted)
 
 
-def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int = 256) -> np.ndarray:
+def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int | None = None) -> np.ndarray:
     """Worst-case under-read (dB, >= 0) of a single sine peak at each frequency.
 
     A full-scale sine ``cos(2*pi*f*(t - t0))`` is sampled; the meter's reading
     of the peak at ``t0`` is the largest interpolated value at the instants
-    within half a period of ``t0``.  The under-read is the worst over ``t0``
-    (``offsets`` positions in one sample period), and includes both the grid
-    spacing (the analytic ``-20*log10(cos(pi*f/(L*fs)))``) and the filter's
-    passband droop and phase error.
+    near ``t0`` (within half a period and one sample).  The under-read is the
+    worst over ``t0`` (``offsets`` positions in one sample period, by default
+    ``max(64, 2*L)``: they include the half-way points between instants), and
+    includes both the grid spacing (the analytic
+    ``-20*log10(cos(pi*f/(L*fs)))``) and the filter's passband droop and phase
+    error.
     """
     T, L = flt.taps.shape
+    offsets = max(64, 2 * L) if offsets is None else int(offsets)
     freqs = np.atleast_1d(np.asarray(freqs_norm, dtype=float))
     g = phase_responses(flt, freqs)                               # (F, L)
     out = np.empty(freqs.shape[0])
@@ -237,7 +292,7 @@ def underread_db(flt: PolyphaseFilter, freqs_norm, offsets: int = 256) -> np.nda
     t0 = np.arange(offsets) / offsets
     for j, f in enumerate(freqs):
         w = 2 * np.pi * f
-        half = 0.5 / f
+        half = min(0.5 / f, 1.0)
         n = np.arange(math.floor(-half) - 1, math.ceil(1 + half) + 2)
         inst = n[:, None] + np.arange(L)[None, :] / L + flt.instant_offset  # (N, L) instants
         # reading at instant n + p/L of cos(w (t - t0)): Re(g_p e^{i w (inst - t0)})
@@ -256,21 +311,54 @@ def analytic_underread_db(factor: int, freq_norm: float) -> float:
 
 @lru_cache(maxsize=32)
 def worst_underread_db(factor: int, design: str = "kaiser", up_to: float = 0.45) -> float:
-    """Largest :func:`underread_db` for sines from 0.005*fs to ``up_to``*fs."""
+    """Largest :func:`underread_db` for sines from 0.005*fs to ``up_to``*fs
+    (90 frequencies, denser in the top 10 % of the band where it is largest)."""
     flt = get_filter(factor, design)
-    freqs = np.linspace(0.005, up_to, 90)
+    freqs = np.unique(np.concatenate([np.linspace(0.005, up_to, 60),
+                                      np.linspace(0.9 * up_to, up_to, 30)]))
     return float(underread_db(flt, freqs).max())
+
+
+def reading_factor(design: str = "kaiser") -> int:
+    """Factor of the grid the meter reads peaks on: ``READ_FACTOR`` (kaiser), 4 (annex2)."""
+    return READ_FACTOR if design == "kaiser" else 4
+
+
+def meter_underread_db(design: str = "kaiser", up_to: float = 0.45) -> float:
+    """The meter's worst-case under-read of a sine up to ``up_to``*fs (dB): that
+    of its reading grid and filter (the scan only skips frames that cannot hold
+    the peak, see the module docstring)."""
+    return worst_underread_db(reading_factor(design), design, up_to)
+
+
+def reading_filter(design: str = "kaiser") -> PolyphaseFilter:
+    """The filter whose grid the meter reads peaks on."""
+    return get_filter(reading_factor(design), design)
+
+
+@lru_cache(maxsize=4)
+def reading_filter_properties(design: str = "kaiser") -> dict:
+    """:func:`filter_properties` of :func:`reading_filter` (computed once)."""
+    return filter_properties(reading_filter(design))
 
 
 def filter_properties(flt: PolyphaseFilter) -> dict:
     """Computed properties of a filter, for settings and tests (dB)."""
     f_pass = np.linspace(0.0, 0.375, 151)
+    f_top = np.linspace(0.0, 0.49, 491)
+    f_stop = np.linspace(0.51, 3.0, 2491)
+    g_top = phase_responses(flt, f_top)
     return {
         "passband_ripple_db_to_0_375fs": float(np.abs(magnitude_db(flt, f_pass)).max()),
+        "passband_ripple_db_to_0_49fs": float(np.abs(magnitude_db(flt, f_top)).max()),
+        "phase_error_max_to_0_49fs": float(np.abs(g_top - 1).max()),
         "gain_db_at_0_417fs": float(magnitude_db(flt, [20000 / 48000])[0]),
         "gain_db_at_0_45fs": float(magnitude_db(flt, [0.45])[0]),
+        "gain_db_at_0_49fs": float(magnitude_db(flt, [0.49])[0]),
         "gain_db_at_0_5fs": float(magnitude_db(flt, [0.5])[0]),
+        "stopband_gain_db_from_0_51fs": float(magnitude_db(flt, f_stop).max()),
         "image_rejection_db_to_0_4fs": float(image_rejection_db(flt, np.linspace(0.001, 0.4, 200)).max()),
+        "image_rejection_db_to_0_49fs": float(image_rejection_db(flt, np.linspace(0.001, 0.49, 491)).max()),
         "max_gain": flt.max_gain,
     }
 
@@ -298,60 +386,83 @@ def single_thread_blas():
 class TruePeakMeter:
     """Streaming true-peak meter for ``channels`` channels.
 
+    ``factor`` is the scan factor (:func:`choose_factor`; at least 4 and a
+    divisor of ``READ_FACTOR`` for the kaiser design); the peaks are read on the
+    ``READ_FACTOR`` grid (``self.factor``).  ``design="annex2"`` reads on the
+    Annex 2 filter's own 4x grid.
+
     ``process(block)`` takes float arrays of shape (frames, channels) in order.
     After :meth:`flush` (or at any time for the frames seen so far, minus the
-    filter's look-ahead of ``T/2`` frames):
+    look-ahead):
 
-    - ``peak_linear``: per-channel maximum of ``|x|`` over every interpolated
-      instant (phase 0 included, so never below the sample peak), shape (C,);
-    - ``frames_done``: input frames evaluated so far.
+    - ``peak_linear``: per-channel maximum of ``|x|`` over every instant of the
+      reading grid (phase 0 included, so never below the sample peak), shape (C,);
+    - ``envelope_linear``: with ``bucket_frames``, the maximum over channels and
+      instants in each bucket of that many frames (``buckets`` of them; frames
+      past the last bucket count in it);
+    - ``frames_done``: input frames evaluated so far;
+    - ``refined_frames``: channel-frames read on the fine grid (cost figure; it
+      depends on the block size, the results do not).
 
     ``on_frames(start_frame, frame_peak)`` is called, when given, with the
-    per-frame maximum over channels and instants (float32 array, phase 0
-    included) for every run of evaluated frames, in order, so callers can build
-    envelopes and find overs.  Frame ``i`` covers the instants ``[i, i+1)``.
+    per-frame maximum over channels and instants (float32 array) for every run
+    of evaluated frames, in order.  Frame ``i`` covers the instants ``[i, i+1)``.
+    A frame's value is exact wherever it can reach ``ceiling_linear`` (when
+    given) or its bucket's maximum; elsewhere it is the scan's value, below
+    both.  Without ``ceiling_linear`` and ``bucket_frames`` every frame value
+    passed to ``on_frames`` is exact.
     """
 
-    #: frames per internal run (multiple of T/2).  Longer runs mean fewer, larger products
-    #: (32768 frames: 17 % less time than 8192 in the benchmark).  The float32 rounding of a
-    #: product can depend on the BLAS kernel chosen for its shape, so the run length may move
-    #: an interpolated value in its last float32 bits (seen: 3e-6 dB on display envelope
-    #: points, none on the reported peaks), far inside the 0.0001 dB argued above.
-    RUN_FRAMES = 32768
+    #: FFT segments evaluated per run
+    SEGMENTS_PER_RUN = 8
+    #: frames per group of the candidate pre-screen
+    GROUP = 64
+    #: candidate frames read per matrix product
+    REFINE_CHUNK = 4096
 
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
-                 design: str = "kaiser", on_frames=None):
+                 design: str = "kaiser", on_frames=None, ceiling_linear: float | None = None,
+                 bucket_frames: int | None = None, buckets: int = 1):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
-        self.filter = get_filter(factor, design)
-        self.factor = self.filter.factor
+        if design == "kaiser":
+            scan = max(SCAN_FACTOR_MIN, int(factor))
+            if READ_FACTOR % scan:
+                raise ValueError(f"true-peak scan factor {scan} does not divide {READ_FACTOR}")
+            self.filter = kaiser_filter(READ_FACTOR)
+            step = READ_FACTOR // scan
+            scan_phases = list(range(step, READ_FACTOR, step))
+            fine_phases = [p for p in range(1, READ_FACTOR) if p % step]
+            self.threshold = scan_threshold(scan)
+        else:
+            self.filter = get_filter(factor, design)          # annex2: 4x only
+            scan = self.filter.factor
+            scan_phases = list(range(scan))
+            fine_phases = []
+            self.threshold = None
+        self.scan_factor = scan
+        self.factor = self.filter.factor if fine_phases else scan
+        self.design = design
         T = self.filter.taps_per_phase
-        self._T = T
-        self._B = T // 2
-        self._lead = self.filter.lead
+        self._T, self._lead = T, self.filter.lead
+        self._N = max(SCAN_FFT_SIZE, 1 << int(math.ceil(math.log2(4 * T))))
+        G = self.GROUP
+        self._S = (self._N - T + 1) // G * G                 # hop: a whole number of groups
+        g = np.zeros((len(scan_phases), self._N))
+        g[:, :T] = self.filter.taps[::-1, scan_phases].T     # correlation as convolution
+        self._H = sfft.rfft(g, axis=1).astype(np.complex64)[:, None, :]
+        self._fine = np.ascontiguousarray(self.filter.taps[:, fine_phases], dtype=np.float32)
         self._on_frames = on_frames
+        self.ceiling_linear = None if ceiling_linear is None else float(ceiling_linear)
+        self.bucket_frames = None if bucket_frames is None else max(1, int(bucket_frames))
+        self.envelope_linear = np.zeros(max(1, int(buckets)) if bucket_frames else 0)
         self.peak_linear = np.zeros(self.channels)
         self.frames_done = 0
+        self.refined_frames = 0
         self._received = 0
         self._flushed = False
         # buffer holds input from frame (frames_done - lead) onwards, (C, n)
         self._buf = np.zeros((self.channels, self._lead))
-        self._mat = self._block_matrix()
-
-    def _block_matrix(self):
-        """(3B, P*B) float32 matrix: the P interpolated phases of the B frames of
-        output block b are ``[S_b, S_b+1, S_b+2] @ M``, where S_s is the s-th
-        B-frame segment of the buffer; column ``p*B + j`` is phase p of frame j.
-        P = L-1 when phase 0 is the sample itself (it is then not computed)."""
-        T, B = self._T, self._B
-        taps = self.filter.taps[:, 1:] if self.filter.phase0_identity else self.filter.taps
-        P = taps.shape[1]
-        mat = np.zeros((3 * B, P * B))
-        for j in range(B):                 # output frame within the block
-            for k in range(T):             # tap: input j + k of the 3B-frame window
-                mat[j + k, np.arange(P) * B + j] = taps[k]
-        self._P = P
-        return mat.astype(np.float32)
 
     def process(self, block) -> None:
         """Feed a (frames, channels) block."""
@@ -366,61 +477,139 @@ class TruePeakMeter:
             return
         self._received += block.shape[0]
         self._buf = np.concatenate([self._buf, block.T], axis=1)
-        self._run(final=False)
+        if self._buf.shape[1] >= self._N:
+            self._run(final=False)
 
     def flush(self) -> None:
         """Evaluate the remaining frames (the signal is zero after the end)."""
         if self._flushed:
             return
-        pad = self._T + self._B
-        self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad))], axis=1)
-        self._run(final=True)
+        rem = self._received - self.frames_done
+        if rem > 0:
+            k = -(-rem // self._S)
+            need = (k - 1) * self._S + self._N
+            pad = max(0, need - self._buf.shape[1])
+            self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad))], axis=1)
+            self._run(final=True)
         self._flushed = True
         self._buf = np.zeros((self.channels, 0))
 
     def _run(self, final: bool) -> None:
-        if self._buf.shape[1] - self._lead < self._T + self._B and not final:
-            return                                       # not enough look-ahead yet
         with single_thread_blas():
-            self._run_blocks(final)
+            N, S = self._N, self._S
+            while True:
+                rem = self._received - self.frames_done
+                avail = self._buf.shape[1]
+                if rem <= 0 or avail < N:
+                    break
+                k = (avail - N) // S + 1                 # segments whose input is buffered
+                k = min(k, -(-rem // S) if final else rem // S, self.SEGMENTS_PER_RUN)
+                if k <= 0:
+                    break
+                m = min(k * S, rem)
+                self._evaluate(k, m)
+                self._buf = self._buf[:, m:]
 
-    def _run_blocks(self, final: bool) -> None:
-        B = self._B
-        while True:
-            todo = self._received - self.frames_done     # frames still to evaluate
-            cap = (self._buf.shape[1] // B - 2) * B      # frames whose look-ahead is buffered
-            m = min(todo, cap, self.RUN_FRAMES)
-            if not final:
-                m -= m % B
-            if m <= 0:
-                break
-            self._evaluate(m)
-            self._buf = self._buf[:, m:]
-
-    def _evaluate(self, m: int) -> None:
-        """Evaluate ``m`` frames from the buffer start (m <= available)."""
-        B, lead, C, P = self._B, self._lead, self.channels, self._P
+    def _evaluate(self, k: int, m: int) -> None:
+        """Evaluate ``m`` frames (``k`` segments) from the buffer start."""
+        N, S, T, lead, C = self._N, self._S, self._T, self._lead, self.channels
         xb = self._buf
         start = self.frames_done
-        sample_peak = np.abs(xb[:, lead:lead + m]).max(axis=1)     # float64, per channel
-        mb = -(-m // B)                                  # output blocks (last may be partial)
-        seg = xb[:, :(mb + 2) * B].astype(np.float32)
-        frame_peak = np.empty((C, mb * B), dtype=np.float32)
+        own = xb[:, lead:lead + m]
+        sample_peak = np.maximum(own.max(axis=1), -own.min(axis=1))     # float64
+        seg32 = xb[:, :(k - 1) * S + N].astype(np.float32)
+        scan = np.zeros((C, k * S), dtype=np.float32)
         for c in range(C):
-            s = seg[c]
-            win = as_strided(s, shape=(mb, 3 * B), strides=(B * s.itemsize, s.itemsize))
-            y = np.ascontiguousarray(win) @ self._mat                 # (mb, P*B)
+            s = seg32[c]
+            segs = as_strided(s, shape=(k, N), strides=(S * s.itemsize, s.itemsize))
+            y = sfft.irfft(sfft.rfft(segs, axis=1)[None] * self._H, n=N, axis=2)[:, :, T - 1:T - 1 + S]
             np.abs(y, out=y)
-            fp = frame_peak[c].reshape(mb, B)
-            np.abs(s[lead:lead + mb * B].reshape(mb, B), out=fp)      # phase 0: the samples
-            for p in range(P):
-                np.maximum(fp, y[:, p * B:(p + 1) * B], out=fp)
-        frame_peak = frame_peak[:, :m]
+            sc = scan[c].reshape(k, S)
+            np.abs(s[lead:lead + k * S].reshape(k, S), out=sc)       # phase 0: the samples
+            np.maximum(sc, y.max(axis=0), out=sc)
+        scan[:, m:] = 0.0                                             # past the end of the file
+        if self._fine.shape[1]:
+            fp = self._refine(scan, seg32, start, m)
+        else:
+            fp = scan.max(axis=0)
+            self._bucket_update(start, fp[:m])
         np.maximum(self.peak_linear, sample_peak, out=self.peak_linear)
-        np.maximum(self.peak_linear, frame_peak.max(axis=1), out=self.peak_linear)
+        np.maximum(self.peak_linear, scan.max(axis=1), out=self.peak_linear)
         self.frames_done += m
         if self._on_frames is not None:
-            self._on_frames(start, frame_peak.max(axis=0))
+            self._on_frames(start, fp[:m])
+
+    def _buckets_of(self, start: int, m: int):
+        """(first bucket, per-frame cut offsets, frames per piece) of the run."""
+        bf = self.bucket_frames
+        last = self.envelope_linear.shape[0] - 1
+        b0, b1 = min(start // bf, last), min((start + m - 1) // bf, last)
+        cuts = np.maximum(np.arange(b0, b1 + 1) * bf - start, 0)
+        cuts[0] = 0
+        return b0, cuts
+
+    def _bucket_update(self, start: int, fp: np.ndarray) -> None:
+        if self.bucket_frames is None:
+            return
+        b0, cuts = self._buckets_of(start, fp.shape[0])
+        env = self.envelope_linear[b0:b0 + cuts.shape[0]]
+        np.maximum(env, np.maximum.reduceat(fp, cuts), out=env)
+
+    def _refine(self, scan: np.ndarray, seg32: np.ndarray, start: int, m: int) -> np.ndarray:
+        """Read the fine phases, in place, in the frames where the scan cannot rule
+        out a value at or above the channel's peak, the ceiling or the bucket's
+        maximum; returns the per-frame maximum over channels (length k*S)."""
+        G, T, lead, C = self.GROUP, self._T, self._lead, self.channels
+        thr = self.threshold
+        n = scan.shape[1]
+        ng = n // G
+        fp = scan.max(axis=0)
+        # per-frame floor below which a frame's exact value is not needed, as pieces
+        # (cut offsets into the run, one level per piece), and per group
+        if self.bucket_frames is not None:
+            b0, cuts = self._buckets_of(start, m)
+            known = np.maximum(self.envelope_linear[b0:b0 + cuts.shape[0]], np.maximum.reduceat(fp[:m], cuts))
+            levels = known if self.ceiling_linear is None else np.minimum(known, self.ceiling_linear)
+        elif self.ceiling_linear is not None:
+            cuts, levels = np.array([0]), np.array([self.ceiling_linear])
+        elif self._on_frames is not None:
+            cuts, levels = np.array([0]), np.array([0.0])
+        else:
+            cuts, levels = np.array([0]), np.array([np.inf])
+        # a group's floor: the lowest level of the pieces it overlaps
+        if cuts.shape[0] > 1 and self.bucket_frames < G:      # many pieces per group: per frame
+            per_frame = np.full(n, levels[-1])
+            per_frame[:m] = np.repeat(levels, np.diff(np.append(cuts, m)))
+            gfloor = per_frame.reshape(ng, G).min(axis=1)
+        else:                                                  # at most two pieces per group
+            gstart = np.arange(ng) * G
+            p_first = np.searchsorted(cuts, gstart, side="right") - 1
+            p_last = np.searchsorted(cuts, gstart + G - 1, side="right") - 1
+            gfloor = np.minimum(levels[p_first], levels[p_last])
+        nxt = np.abs(seg32[:, lead + G:lead + n + 1:G])                # sample after each group
+        gmax = np.maximum(scan.reshape(C, ng, G).max(axis=2), nxt)
+        lane = np.arange(G)
+        for c in range(C):
+            peak_c = max(float(self.peak_linear[c]), float(gmax[c].max()))
+            groups = np.flatnonzero(gmax[c] >= thr * np.minimum(gfloor, peak_c))
+            if not groups.size:
+                continue
+            frames = (groups[:, None] * G + lane[None, :]).ravel()
+            frames = frames[frames < m]
+            ext = np.maximum(scan[c, frames], np.abs(seg32[c, lead + 1 + frames]))  # + the next sample
+            piece = np.searchsorted(cuts, frames, side="right") - 1
+            cand = frames[ext >= thr * np.minimum(levels[piece], peak_c)]
+            if not cand.size:
+                continue
+            self.refined_frames += int(cand.size)
+            windows = as_strided(seg32[c], shape=(seg32.shape[1] - T + 1, T), strides=(4, 4))  # frame i: from i - lead
+            for j in range(0, cand.size, self.REFINE_CHUNK):
+                idx = cand[j:j + self.REFINE_CHUNK]
+                v = np.abs(windows[idx] @ self._fine).max(axis=1)
+                scan[c, idx] = np.maximum(scan[c, idx], v)
+                fp[idx] = np.maximum(fp[idx], v)
+        self._bucket_update(start, fp[:m])
+        return fp
 
 
 def true_peak_linear(x, sample_rate_hz: float, factor: int = 4, design: str = "kaiser") -> np.ndarray:

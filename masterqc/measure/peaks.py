@@ -2,8 +2,8 @@
 
 :class:`SamplePeakAnalyzer` reports the largest ``|x|`` per channel in dBFS.
 :class:`TruePeakAnalyzer` reports the true peak per channel in dBTP from the
-polyphase interpolator of :mod:`masterqc.measure.oversample`, the worst-case
-under-read of the factor used, the time ranges where the true peak exceeds
+band-limited interpolator of :mod:`masterqc.measure.oversample`, its worst-case
+under-read up to 0.45*fs and 0.49*fs, the time ranges where the true peak exceeds
 ``MeasureOptions.true_peak_ceiling_dbtp`` and a display envelope.
 
 A level that cannot exist (the peak of an all-zero channel, -inf dB) is None.
@@ -22,8 +22,8 @@ from masterqc.contract import measured
 from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import (INTEGER, NUMBER, NUMBER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST,
                                    TIME_RANGES, Analyzer, AnalyzerResult)
-from masterqc.measure.oversample import (TruePeakMeter, choose_factor, filter_properties, get_filter,
-                                         worst_underread_db)
+from masterqc.measure.oversample import (SCAN_BAND_FS, TruePeakMeter, choose_factor, meter_underread_db,
+                                         reading_filter_properties)
 
 #: display envelopes hold at most this many buckets
 ENVELOPE_BUCKETS = 2000
@@ -97,24 +97,31 @@ class SamplePeakAnalyzer(Analyzer):
 class TruePeakAnalyzer(Analyzer):
     """True peak per channel (dBTP), overs against the ceiling, display envelope.
 
-    Options used: ``true_peak_oversampling`` (requested factor; the factor used is
-    never below BS.1770-5 Annex 2's minimum for the rate: 4x up to 48 kHz, 2x up
-    to 96 kHz, 1x above), ``true_peak_ceiling_dbtp`` and ``true_peak_filter``
-    ("kaiser", default, or "annex2" for the standard's example filter, 4x).
+    Options used: ``true_peak_oversampling`` (the scan factor of the kaiser
+    design, at least 4 at every rate, which is at least BS.1770-5 Annex 2's
+    minimum; peaks are read on a 32x grid whatever the scan, so the factor only
+    moves the cost), ``true_peak_ceiling_dbtp`` and ``true_peak_filter``
+    ("kaiser", default, or "annex2" for the standard's example filter, 4x, read
+    on its own 4x grid).
 
     Keys: ``true_peak_dbtp`` (highest channel) and ``..._per_channel`` (None for
     an all-zero channel); ``true_peak_linear_per_channel``;
-    ``true_peak_oversampling_factor``; ``true_peak_underread_max_db``, the worst
-    under-read of a single sine peak up to 0.45*fs at any sub-sample position,
-    computed from the filter actually used (grid loss and passband loss);
+    ``true_peak_oversampling_factor``, the factor of the grid the peaks are read
+    on (32 for kaiser, 4 for annex2); ``true_peak_underread_max_db_to_0_45fs``
+    and ``true_peak_underread_max_db_to_0_49fs``, the worst under-read of a
+    single sine peak up to 0.45*fs and 0.49*fs at any sub-sample position,
+    computed from the filter and grid actually used (grid loss and passband
+    loss);
     ``true_peak_ceiling_dbtp`` (the ceiling the overs refer to);
     ``true_peak_over_count``, the number of frames (sample periods) in which an
-    interpolated value of any channel exceeds the ceiling;
+    interpolated value (on the same grid as the true peak) of any channel
+    exceeds the ceiling, so a true peak above the ceiling always has an over;
     ``true_peak_over_ranges_s``, those frames merged into [start, end] ranges
     (frames closer than 10 ms join one range; the first 100 ranges are listed)
     and ``true_peak_over_range_count``, the number of all ranges.  Series:
-    ``true_peak_envelope_dbtp`` (maximum over channels per bucket of at most
-    1/2000 of the file, None where silent) with ``true_peak_envelope_time_s``
+    ``true_peak_envelope_dbtp`` (maximum over channels and the reading grid
+    per bucket of at most 1/2000 of the file, None where silent) with
+    ``true_peak_envelope_time_s``
     (bucket start times).
     """
 
@@ -127,9 +134,11 @@ class TruePeakAnalyzer(Analyzer):
         "true_peak_linear_per_channel": measured(NUMBER_LIST, 'ratio',
             'true peak of each channel as a linear amplitude'),
         "true_peak_oversampling_factor": measured(INTEGER, 'factor',
-            'oversampling factor used for the true peak'),
-        "true_peak_underread_max_db": measured(NUMBER, 'db',
-            'worst-case under-read of the interpolation filter at this factor'),
+            'factor of the grid the true peaks are read on (32 for kaiser, 4 for annex2)'),
+        "true_peak_underread_max_db_to_0_45fs": measured(NUMBER, 'db',
+            'worst-case under-read of a single sine peak up to 0.45 fs at any sub-sample position'),
+        "true_peak_underread_max_db_to_0_49fs": measured(NUMBER, 'db',
+            'worst-case under-read of a single sine peak up to 0.49 fs at any sub-sample position'),
         "true_peak_ceiling_dbtp": measured(NUMBER, 'dbtp',
             'level above which overs are located'),
         "true_peak_over_count": measured(INTEGER, 'count',
@@ -154,29 +163,18 @@ class TruePeakAnalyzer(Analyzer):
         self.ceiling_dbtp = float(options.true_peak_ceiling_dbtp)
         self.ceiling_linear = 10.0 ** (self.ceiling_dbtp / 20.0)
         self.bucket_frames = bucket_frames_for(max(info.frames, 1))
-        self.envelope = np.zeros(-(-max(info.frames, 1) // self.bucket_frames))
+        self.envelope = np.zeros(-(-max(info.frames, 1) // self.bucket_frames))   # filled by the meter
         self.over_count = 0
         self.ranges: list[list[int]] = []     # [first_frame, last_frame] of closed ranges (capped)
         self.range_count = 0                  # all closed ranges
         self.open_range: list[int] | None = None
         self.merge_gap = max(1, int(round(OVER_MERGE_GAP_S * self.rate)))
         self.meter = TruePeakMeter(self.rate, info.channels, self.factor, self.design,
-                                   on_frames=self._frames)
+                                   on_frames=self._frames, ceiling_linear=self.ceiling_linear,
+                                   bucket_frames=self.bucket_frames, buckets=self.envelope.shape[0])
 
     # -- per-frame bookkeeping -------------------------------------------------
     def _frames(self, start: int, fp) -> None:
-        m = fp.shape[0]
-        bf = self.bucket_frames
-        last = self.envelope.shape[0] - 1
-        b0, b1 = start // bf, (start + m - 1) // bf
-        if b0 > last:
-            b0 = b1 = last
-            cuts = np.array([0])
-        else:
-            b1 = min(b1, last)
-            cuts = np.maximum(np.arange(b0, b1 + 1) * bf - start, 0)
-        vals = np.maximum.reduceat(fp, cuts)
-        np.maximum(self.envelope[b0:b1 + 1], vals, out=self.envelope[b0:b1 + 1])
         over = np.flatnonzero(fp > self.ceiling_linear)
         if over.size:
             self._add_overs(over + start)
@@ -208,17 +206,20 @@ class TruePeakAnalyzer(Analyzer):
     def finish(self) -> AnalyzerResult:
         self.meter.flush()
         self._close_range()
+        self.envelope = self.meter.envelope_linear
         peak = self.meter.peak_linear
         rate = self.rate
-        flt = get_filter(self.factor, self.design)
-        underread = worst_underread_db(self.factor, self.design)
+        flt = self.meter.filter
+        underread_45 = meter_underread_db(self.design, 0.45)
+        underread_49 = meter_underread_db(self.design, 0.49)
         times = (np.arange(self.envelope.shape[0]) * self.bucket_frames) / rate
         measurements = {
             "true_peak_dbtp": linear_to_db(peak.max()) if peak.size else None,
             "true_peak_dbtp_per_channel": [linear_to_db(v) for v in peak],
             "true_peak_linear_per_channel": [float(v) for v in peak],
-            "true_peak_oversampling_factor": int(self.factor),
-            "true_peak_underread_max_db": round(underread, 4),
+            "true_peak_oversampling_factor": int(self.meter.factor),
+            "true_peak_underread_max_db_to_0_45fs": round(underread_45, 4),
+            "true_peak_underread_max_db_to_0_49fs": round(underread_49, 4),
             "true_peak_ceiling_dbtp": self.ceiling_dbtp,
             "true_peak_over_count": int(self.over_count),
             "true_peak_over_range_count": int(self.range_count),
@@ -228,13 +229,20 @@ class TruePeakAnalyzer(Analyzer):
             "true_peak_envelope_dbtp": [linear_to_db(v) for v in self.envelope],
             "true_peak_envelope_time_s": times.tolist(),
         }
-        props = filter_properties(flt)
+        props = reading_filter_properties(self.design)
         settings = dict(flt.settings())
         settings.update({
-            "oversampled_rate_hz": rate * self.factor,
-            "underread_band": "sines up to 0.45*fs, worst sub-sample position",
+            "oversampled_rate_hz": rate * self.meter.factor,
+            "scan_factor": int(self.meter.scan_factor),
+            "scan": ("kaiser: a scan grid of scan_factor per sample finds the frames that can hold "
+                     "a peak, an over or an envelope maximum (bound cos(pi*B/(L*fs)), B = "
+                     f"{SCAN_BAND_FS}*fs); those are read on the full grid" if self.design == "kaiser"
+                     else "annex2: read on its own 4x grid"),
+            "underread_band": "sines up to 0.45*fs and 0.49*fs, worst sub-sample position",
             "passband_ripple_db_to_0_375fs": round(props["passband_ripple_db_to_0_375fs"], 4),
+            "passband_ripple_db_to_0_49fs": round(props["passband_ripple_db_to_0_49fs"], 4),
             "gain_db_at_0_45fs": round(props["gain_db_at_0_45fs"], 4),
+            "stopband_gain_db_from_0_51fs": round(props["stopband_gain_db_from_0_51fs"], 2),
             "over_merge_gap_s": OVER_MERGE_GAP_S,
             "over_ranges_listed_max": OVER_RANGES_MAX,
             "envelope_bucket_s": self.bucket_frames / rate,

@@ -16,3 +16,10 @@ def analyzer_classes():
     from masterqc.measure import aliasing, imaging
     classes += [imaging.ImagingAnalyzer, aliasing.AliasingAnalyzer]
     return classes
+
+
+def post_steps():
+    """Pure functions ``measurements -> measurements`` run after every analyzer has finished,
+    in order: they combine evidence that more than one analyzer holds."""
+    from masterqc.measure import provenance
+    return [provenance.combine]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from masterqc.contract import unit_of_key
+from masterqc.fileio import shown
 
 
 def _fmt(value, unit="", digits=1):
@@ -31,7 +32,7 @@ def measurement_table(result: dict) -> str:
     fmt = result["format"]
     m = result["measurements"]
     lines = [
-        f"File          {result['file']['path']}",
+        f"File          {shown(result['file']['path'])}",
         f"Format        {fmt['container']} {fmt['encoding']}, {fmt['sample_rate_hz']} Hz, "
         f"{fmt['channels']} ch ({' '.join(fmt['channel_layout'])}"
         f"{', layout unknown: weights 1.0' if fmt.get('channel_layout_source') == 'unknown' else ''})",

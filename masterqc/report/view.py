@@ -776,6 +776,8 @@ def provenance_view(result: dict) -> dict:
         rows.append(("Spec", fmt.clean_text(spec.get("name", "")) + (f" ({fmt.clean_text(spec['path'])})"
                                                                     if spec.get("path") else "")))
         rows.append(("Spec SHA-256", fmt.clean_text(spec.get("sha256", "n/a"))))
+        if spec.get("from_delivery_folder"):
+            rows.append(("Spec source", "from the delivery folder (it came with the masters, not from the operator)"))
     else:
         rows.append(("Spec", "none (measured only)"))
     how = (result.get("provenance") or {}).get("how")

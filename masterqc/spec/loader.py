@@ -6,7 +6,17 @@ the line and column of every key and value are kept, so each validation
 problem names the file, the key path, the line and the column.
 
 ``extends:`` names one base spec (or a list, applied in order), relative to
-the file that says it.  The file's own keys override the base's: mappings
+the file that says it.  A base must lie inside the folder of the spec that
+names it or inside a spec library folder the operator names (``--spec-library``
+on the command line, ``spec_libraries:`` in a spec map): never an absolute path,
+never ``..`` out of those folders (links are resolved before the check), and
+only files ending in ``.yaml`` or ``.yml``.
+
+Hostile specs are refused before parsing: a spec file is at most
+:data:`MAX_SPEC_BYTES`, holds no control characters, nests at most
+:data:`MAX_DEPTH` levels and writes no number longer than
+:data:`MAX_NUMBER_CHARS` characters.  Messages quote at most a short,
+sanitised excerpt of a value (:func:`excerpt`).  The file's own keys override the base's: mappings
 merge key by key, lists and scalars are replaced, and a key set to ``null``
 removes the base's requirement.  A cycle is refused.
 
@@ -39,6 +49,8 @@ class LoadedSpec:
     path: str  #: the file named by the user
     sha256: str  #: SHA-256 of that file's bytes
     files: list = field(default_factory=list)  #: every file read, ``{"path", "sha256"}``, the named file first
+    from_delivery_folder: bool = False  #: the spec came with the masters (``spec_in_folder``), not from the operator
+    warnings: list = field(default_factory=list)  #: likely typos, ``(file, key_path, line, column, message)``
 
     @property
     def name(self) -> str:
@@ -46,8 +58,11 @@ class LoadedSpec:
 
     def info(self) -> dict:
         """The ``spec`` object of a check result."""
-        return {"name": self.spec.name, "path": self.path, "sha256": self.sha256,
-                "files": [dict(f) for f in self.files]}
+        out = {"name": self.spec.name, "path": self.path, "sha256": self.sha256,
+               "files": [dict(f) for f in self.files]}
+        if self.from_delivery_folder:
+            out["from_delivery_folder"] = True
+        return out
 
 
 # ------------------------------------------------------------------ YAML with positions
@@ -96,7 +111,85 @@ def _mark(file: str, node) -> tuple:
 
 #: most values a spec may expand to (aliases included): a guard against alias bombs
 MAX_VALUES = 100_000
+#: largest spec (or spec map) file read, bytes (house choice: real specs are a few KiB)
+MAX_SPEC_BYTES = 1 << 20
+#: deepest nesting of mappings and lists (house choice; a spec needs about 5)
+MAX_DEPTH = 64
+#: longest number literal accepted, characters (house choice; Python refuses int() of over 4300 digits)
+MAX_NUMBER_CHARS = 100
+#: longest excerpt of a value quoted in a message, characters
+EXCERPT_CHARS = 40
 
+
+def excerpt(value, limit: int = EXCERPT_CHARS) -> str:
+    """A short, printable, quoted excerpt of ``value`` for a message (never the whole of a long text)."""
+    from masterqc.fileio import shown
+    text = value if isinstance(value, str) else repr(value)
+    cut = len(text) > limit
+    text = shown(text[:limit])
+    return f"'{text}{'...' if cut else ''}'" if isinstance(value, str) else text + ("..." if cut else "")
+
+
+def _line_col(text: str, index: int) -> tuple[int, int]:
+    line = text.count("\n", 0, index) + 1
+    return line, index - (text.rfind("\n", 0, index) + 1) + 1
+
+
+def _allowed_char(o: int) -> bool:
+    """The characters a YAML 1.1 stream may hold (PyYAML's printable set), BOM excepted."""
+    return (o in (0x09, 0x0A, 0x0D, 0x85) or 0x20 <= o <= 0x7E or 0xA0 <= o <= 0xD7FF
+            or 0xE000 <= o <= 0xFFFD or 0x10000 <= o <= 0x10FFFF)
+
+
+def _prescan(text: str, file: str) -> list:
+    """Problems found before the YAML parser runs: forbidden characters and nesting depth.
+
+    The depth counted is flow brackets (``[`` ``{``) plus block indentation levels
+    plus inline ``- `` markers, outside quotes and comments: never less than the
+    parser's own nesting, so a deep document is refused before it can exhaust
+    the parser's recursion.
+    """
+    for i, c in enumerate(text):
+        if not _allowed_char(ord(c)):
+            line, col = _line_col(text, i)
+            return [(file, "", line, col, f"the character U+{ord(c):04X} is not allowed in a spec "
+                                          "(control characters and NUL bytes cannot be YAML text)")]
+    indents = [0]
+    flow = 0
+    for n, raw in enumerate(text.split("\n"), start=1):
+        line = raw.rstrip("\r")
+        body = line.lstrip(" ")
+        if body and not body.startswith("#") and flow == 0:
+            ind = len(line) - len(body)
+            while indents and ind < indents[-1]:
+                indents.pop()
+            if not indents or ind > indents[-1]:
+                indents.append(ind)
+        inline = 0
+        quote = None
+        j = len(line) - len(body)
+        if flow == 0:
+            while body[inline * 2:inline * 2 + 2] in ("- ", "? "):
+                inline += 1
+        for k in range(j, len(line)):
+            c = line[k]
+            if quote:
+                if c == quote:
+                    quote = None
+                continue
+            if c in "'\"" and (k == 0 or line[k - 1] in " [{,:-?"):
+                quote = c
+            elif c == "#" and (k == 0 or line[k - 1] in " \t"):
+                break
+            elif c in "[{":
+                flow += 1
+                if flow + len(indents) + inline > MAX_DEPTH:
+                    return [(file, "", n, k + 1, f"nesting is too deep (more than {MAX_DEPTH} levels)")]
+            elif c in "]}":
+                flow = max(0, flow - 1)
+        if len(indents) + inline + flow > MAX_DEPTH:
+            return [(file, "", n, 1, f"nesting is too deep (more than {MAX_DEPTH} levels)")]
+    return []
 
 class _TooLarge(Exception):
     pass
@@ -108,9 +201,9 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
     budget[0] -= 1
     if budget[0] < 0:
         raise _TooLarge(node)
-    if depth > 64:
+    if depth > MAX_DEPTH:
         problems.append((file, _dotted(path), node.start_mark.line + 1, node.start_mark.column + 1,
-                         "nesting is too deep (more than 64 levels)"))
+                         f"nesting is too deep (more than {MAX_DEPTH} levels)"))
         return None
     pos.value[path] = _mark(file, node)
     if node.tag not in _PLAIN_TAGS:
@@ -127,12 +220,12 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
                 problems.append((file, _dotted(path), knode.start_mark.line + 1, knode.start_mark.column + 1,
                                  "a key must be a plain word, not a list or mapping"))
                 continue
-            key = loader.construct_object(knode)
+            key = _scalar(loader, knode, path, file, problems)
             if not isinstance(key, str):
                 key = str(key) if key is not None else "null"
             if key in out:
                 problems.append((file, _dotted(path + (key,)), knode.start_mark.line + 1,
-                                 knode.start_mark.column + 1, f"key {key!r} is given twice"))
+                                 knode.start_mark.column + 1, f"key {excerpt(key)} is given twice"))
                 continue
             pos.key[path + (key,)] = _mark(file, knode)
             out[key] = _to_plain(loader, vnode, path + (key,), pos, file, problems, depth + 1, budget)
@@ -140,14 +233,36 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
     if isinstance(node, yaml.SequenceNode):
         return [_to_plain(loader, v, path + (i,), pos, file, problems, depth + 1, budget)
                 for i, v in enumerate(node.value)]
-    return loader.construct_object(node)
+    return _scalar(loader, node, path, file, problems)
+
+
+def _scalar(loader, node, path, file, problems):
+    """A scalar's value; an over-long number or one Python cannot build is a problem at its position."""
+    where = (file, _dotted(path), node.start_mark.line + 1, node.start_mark.column + 1)
+    if node.tag in ("tag:yaml.org,2002:int", "tag:yaml.org,2002:float") and len(node.value) > MAX_NUMBER_CHARS:
+        problems.append(where + (f"a number of {len(node.value)} characters is too long "
+                                 f"(at most {MAX_NUMBER_CHARS})",))
+        return None
+    try:
+        return loader.construct_object(node)
+    except (ValueError, OverflowError, TypeError) as exc:
+        problems.append(where + (f"this value cannot be read ({type(exc).__name__})",))
+        return None
 
 
 def parse_yaml(text: str, file: str):
     """``(data, positions, problems)`` of one YAML document (safe loading only)."""
-    problems: list = []
+    problems: list = _prescan(text, file)
     pos = _Positions()
-    loader = yaml.SafeLoader(text)
+    if problems:
+        return None, pos, problems
+    try:
+        loader = yaml.SafeLoader(text)
+    except yaml.YAMLError as exc:  # the reader's own character check (the prescan should have caught it)
+        mark = getattr(exc, "problem_mark", None)
+        problems.append((file, "", mark.line + 1 if mark else 1, mark.column + 1 if mark else 1,
+                         "not valid YAML: the text holds a character YAML does not allow"))
+        return None, pos, problems
     try:
         try:
             node = loader.get_single_node()
@@ -155,10 +270,17 @@ def parse_yaml(text: str, file: str):
             mark = exc.problem_mark or exc.context_mark
             line, col = (mark.line + 1, mark.column + 1) if mark else (None, None)
             msg = " ".join(x for x in (exc.context, exc.problem) if x)
+            if len(msg) > 160:
+                msg = msg[:160] + "..."
             problems.append((file, "", line, col, f"not valid YAML: {msg}"))
             return None, pos, problems
         except yaml.YAMLError as exc:
-            problems.append((file, "", None, None, f"not valid YAML: {exc}"))
+            mark = getattr(exc, "problem_mark", None)
+            problems.append((file, "", mark.line + 1 if mark else 1, mark.column + 1 if mark else 1,
+                             f"not valid YAML ({type(exc).__name__})"))
+            return None, pos, problems
+        except RecursionError:
+            problems.append((file, "", 1, 1, f"nesting is too deep (more than {MAX_DEPTH} levels)"))
             return None, pos, problems
         if node is None:
             problems.append((file, "", 1, 1, "the spec file is empty"))
@@ -172,13 +294,19 @@ def parse_yaml(text: str, file: str):
             return None, pos, problems
         except yaml.MarkedYAMLError as exc:
             mark = exc.problem_mark or exc.context_mark
-            problems.append((file, "", mark.line + 1 if mark else None, mark.column + 1 if mark else None,
+            problems.append((file, "", mark.line + 1 if mark else 1, mark.column + 1 if mark else 1,
                              f"not valid YAML: {exc.problem}"))
+            return None, pos, problems
+        except yaml.YAMLError as exc:
+            problems.append((file, "", 1, 1, f"not valid YAML ({type(exc).__name__})"))
+            return None, pos, problems
+        except RecursionError:
+            problems.append((file, "", 1, 1, f"nesting is too deep (more than {MAX_DEPTH} levels)"))
             return None, pos, problems
     finally:
         loader.dispose()
     if not isinstance(data, dict):
-        kind = "a list" if isinstance(data, list) else f"the value {data!r}"
+        kind = "a list" if isinstance(data, list) else "a single value"  # never quoted: it may not be a spec at all
         problems.append((file, "", pos.value[()][1], pos.value[()][2],
                          f"a spec must be a mapping of keys (spec_version, name, sections), not {kind}"))
         return None, pos, problems
@@ -189,16 +317,47 @@ def parse_yaml(text: str, file: str):
 
 
 def _read(path: str) -> tuple[str, bytes]:
+    """The text and bytes of a spec file: a regular file of at most :data:`MAX_SPEC_BYTES`, UTF-8."""
+    from masterqc.fileio import open_regular_file
     try:
-        with open(path, "rb") as f:
-            raw = f.read()
+        with open_regular_file(path) as f:
+            size = os.fstat(f.fileno()).st_size
+            if size > MAX_SPEC_BYTES:
+                raise SpecError([(path, "", None, None, f"the spec file is {size} bytes; a spec may be at most "
+                                                        f"{MAX_SPEC_BYTES} bytes (1 MiB)")])
+            raw = f.read(MAX_SPEC_BYTES + 1)
     except OSError as exc:
         raise SpecError([(path, "", None, None, f"cannot read the spec file ({exc.strerror or exc})")]) from None
+    if len(raw) > MAX_SPEC_BYTES:  # grew while being read
+        raise SpecError([(path, "", None, None, f"the spec file is larger than {MAX_SPEC_BYTES} bytes (1 MiB)")])
     try:
         return raw.decode("utf-8-sig"), raw
     except UnicodeDecodeError as exc:
-        raise SpecError([(path, "", None, None,
+        line = raw.count(b"\n", 0, exc.start) + 1
+        col = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise SpecError([(path, "", line, col,
                           f"the spec file is not UTF-8 text (byte offset {exc.start})")]) from None
+
+
+def _inside(folder_real: str, path_real: str) -> bool:
+    return path_real == folder_real or path_real.startswith(folder_real.rstrip(os.sep) + os.sep)
+
+
+def resolve_base(rel: str, here: str, libraries=()) -> str | None:
+    """The file ``extends: rel`` names from a spec in folder ``here``, or None when it is not allowed or absent.
+
+    Looked for relative to ``here``, then relative to each library folder; taken only
+    when its real path (links resolved) lies inside ``here`` or a library folder.
+    """
+    if os.path.isabs(rel) or not rel.lower().endswith((".yaml", ".yml")):
+        return None
+    roots = [os.path.realpath(here)] + [os.path.realpath(lib) for lib in libraries]
+    for base in [here, *libraries]:
+        candidate = os.path.join(base, rel)
+        real = os.path.realpath(candidate)
+        if any(_inside(r, real) for r in roots) and os.path.isfile(real):
+            return candidate
+    return None
 
 
 def _merge(base: dict, over: dict, bpos: _Positions, opos: _Positions, path: tuple = ()) -> dict:
@@ -216,7 +375,7 @@ def _merge(base: dict, over: dict, bpos: _Positions, opos: _Positions, path: tup
     return out
 
 
-def _load_tree(path: str, stack: tuple, files: list, ext_pos=None):
+def _load_tree(path: str, stack: tuple, files: list, ext_pos=None, libraries=()):
     """Read ``path`` and its bases; return (merged data, positions, problems)."""
     real = os.path.realpath(path)
     if real in stack:
@@ -229,11 +388,14 @@ def _load_tree(path: str, stack: tuple, files: list, ext_pos=None):
     if data is None:
         return None, pos, problems
     version = data.get("spec_version")
-    if "spec_version" in data and version not in SPEC_VERSIONS:
+    if "spec_version" in data and (version not in SPEC_VERSIONS or isinstance(version, bool)):
         f, line, col = pos.value[("spec_version",)]
-        problems.append((f, "spec_version", line, col,
-                         f"spec_version {version!r} is not one this masterqc reads "
-                         f"(supported: {', '.join(map(str, SPEC_VERSIONS))})"))
+        if isinstance(version, str) and version.strip() in {str(v) for v in SPEC_VERSIONS}:
+            msg = f"spec_version is written as text; write the number {version.strip()} without quotes"
+        else:
+            msg = (f"spec_version {excerpt(version)} is not one this masterqc reads "
+                   f"(supported: {', '.join(map(str, SPEC_VERSIONS))})")
+        problems.append((f, "spec_version", line, col, msg))
         return None, pos, problems
     ext = data.get("extends")
     if ext is None:
@@ -251,12 +413,23 @@ def _load_tree(path: str, stack: tuple, files: list, ext_pos=None):
     here = os.path.dirname(os.path.abspath(path))
     for rel, p in bases:
         where = pos.value[p]
-        bpath = rel if os.path.isabs(rel) else os.path.join(here, rel)
-        if not os.path.isfile(bpath):
+        if os.path.isabs(rel):
             problems.append((where[0], _dotted(p), where[1], where[2],
-                             f"base spec {rel!r} not found (looked for {bpath})"))
+                             f"extends {excerpt(rel)} is an absolute path; name a base spec relative to this "
+                             "spec's folder or to a spec library folder"))
             continue
-        bdata, bpos, bprob = _load_tree(bpath, stack + (real,), files, where)
+        if not rel.lower().endswith((".yaml", ".yml")):
+            problems.append((where[0], _dotted(p), where[1], where[2],
+                             f"extends {excerpt(rel)} is not a spec file name (base specs end in .yaml or .yml)"))
+            continue
+        bpath = resolve_base(rel, here, libraries)
+        if bpath is None:
+            libs = " or the spec library folders" if libraries else ""
+            problems.append((where[0], _dotted(p), where[1], where[2],
+                             f"base spec {excerpt(rel)} not found in this spec's folder{libs} "
+                             "(extends may not leave them: no '..' out of them, no links out of them)"))
+            continue
+        bdata, bpos, bprob = _load_tree(bpath, stack + (real,), files, where, libraries)
         problems.extend(bprob)
         if bdata is None:
             continue
@@ -350,9 +523,9 @@ def _describe(value) -> str:
     if isinstance(value, bool):
         return f"{str(value).lower()} (a yes/no value)"
     if isinstance(value, str):
-        return f"the text {value!r}"
+        return f"the text {excerpt(value)}"
     if isinstance(value, (int, float)):
-        return f"the number {value!r}"
+        return f"the number {excerpt(value)}"
     if isinstance(value, list):
         return "a list"
     if isinstance(value, dict):
@@ -367,7 +540,7 @@ def _message(err: dict, path: tuple, data) -> str:
     if t == "extra_forbidden":
         model = _model_at(path[:-1])
         valid = list(model.model_fields) if model else []
-        return f"unknown key {key!r}{_suggest(str(key), valid)}"
+        return f"unknown key {excerpt(str(key))}{_suggest(str(key), valid)}"
     if t == "missing":
         return f"missing required key {key!r}"
     if t in ("float_type", "float_parsing", "int_type", "int_parsing", "int_from_float"):
@@ -422,28 +595,72 @@ def problems_from_validation(exc: ValidationError, data: dict, pos: _Positions, 
 # ------------------------------------------------------------------ entry points
 
 
-def load_spec(path) -> LoadedSpec:
+def load_spec(path, libraries=(), from_delivery_folder: bool = False) -> LoadedSpec:
     """Read, merge and validate the spec at ``path``.
 
+    ``libraries`` are the folders (besides the spec's own) that ``extends:`` may
+    reach; ``from_delivery_folder`` marks a spec that came with the masters.
     Raises :class:`masterqc.errors.SpecError` listing every problem with file,
     key path, line and column.
     """
     path = os.fspath(path)
+    libraries = tuple(os.path.abspath(os.fspath(x)) for x in libraries)
     files: list = []
-    data, pos, problems = _load_tree(path, (), files)
+    try:
+        data, pos, problems = _load_tree(path, (), files, None, libraries)
+    except RecursionError:  # a chain of bases too long to follow
+        raise SpecError([(path, "extends", None, None, "the chain of extends: bases is too long")]) from None
     if problems:
         raise SpecError(problems)
     try:
         spec = build_spec(data)
     except ValidationError as exc:
         raise SpecError(problems_from_validation(exc, data, pos, path)) from None
+    except RecursionError:
+        raise SpecError([(path, "", 1, 1, f"nesting is too deep (more than {MAX_DEPTH} levels)")]) from None
     unique, seen = [], set()
     for f in files:  # a base reached twice (two variants of one house spec) is listed once
         key = os.path.realpath(f["path"])
         if key not in seen:
             seen.add(key)
             unique.append(f)
-    return LoadedSpec(spec=spec, path=path, sha256=files[0]["sha256"], files=unique)
+    return LoadedSpec(spec=spec, path=path, sha256=files[0]["sha256"], files=unique,
+                      from_delivery_folder=from_delivery_folder, warnings=plausibility_warnings(data, pos, path))
+
+
+def plausibility_warnings(data: dict, pos: _Positions, default_file: str) -> list:
+    """Values a spec may hold but that are almost surely typos, as ``(file, key_path, line, column, message)``.
+
+    * a loudness in LUFS above 0 (``target_lufs: 14``): programme loudness is negative
+      on the LUFS scale (ITU-R BS.1770: 0 LUFS is a full-scale 997 Hz sine in one
+      channel), so a positive value is a forgotten minus sign;
+    * a true-peak ceiling above 0 dBTP (``max_dbtp: 1``): a ceiling is meant to
+      keep the peaks below full scale.
+    """
+    out = []
+
+    def visit(value, path):
+        if isinstance(value, dict):
+            for k, v in value.items():
+                visit(v, path + (k,))
+        elif isinstance(value, list):
+            for i, v in enumerate(value):
+                visit(v, path + (i,))
+        elif isinstance(value, (int, float)) and not isinstance(value, bool) and path:
+            key = str(path[-1])
+            msg = None
+            if key.endswith("_lufs") and value > 0:
+                msg = (f"{key}: {value:g} LUFS is above 0; programme loudness is negative in LUFS "
+                       f"(a missing minus sign? -{value:g})")
+            elif key in ("max_dbtp", "ceiling_dbtp") and value > 0:
+                msg = (f"{key}: {value:g} dBTP is above full scale; a true-peak ceiling is normally at or "
+                       f"below 0 dBTP (a missing minus sign? -{value:g})")
+            if msg:
+                where = pos.find(path) or (default_file, None, None)
+                out.append((where[0], _dotted(path), where[1], where[2], msg))
+
+    visit(data, ())
+    return out
 
 
 def load_spec_text(text: str, name: str = "<spec>") -> LoadedSpec:

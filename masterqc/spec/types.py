@@ -52,6 +52,13 @@ Severity = Literal["fail", "warn"]
 from masterqc.contract import UNITS, difference_unit, unit_decimals, unit_label  # noqa: E402,F401
 
 
+#: units of quantities that cannot be negative -> what they measure (for the message)
+NON_NEGATIVE_UNITS = {"s": "a duration", "ms": "a duration", "hz": "a frequency", "count": "a count",
+                      "bits": "a bit depth", "percent": "a share of time"}
+
+
+
+
 class SpecModel(BaseModel):
     """Base of every spec model: unknown keys refused, no silent type coercion, no NaN or infinity."""
 
@@ -75,6 +82,17 @@ class Requirement(SpecModel):
 
     def _get(self, stem: str):
         return getattr(self, f"{stem}_{self.unit}", None)
+
+    @model_validator(mode="after")
+    def _check_possible(self):
+        """A duration, count, rate, bit depth or share below zero is a value no delivery can mean."""
+        if self.unit in NON_NEGATIVE_UNITS:
+            for stem in ("min", "max", "target"):
+                v = self._get(stem)
+                if v is not None and v < 0:
+                    what = NON_NEGATIVE_UNITS[self.unit]
+                    raise ValueError(f"{stem}_{self.unit} is {v:g}: {what} cannot be negative")
+        return self
 
 
 class Ceiling(Requirement):
@@ -213,8 +231,9 @@ class Allowed(SpecModel):
             return {"allowed": data}
         if isinstance(data, dict):
             return data
+        from masterqc.spec.loader import excerpt
         raise ValueError(f"expected a list of allowed values (e.g. [{_example(cls)}]) "
-                         f"or {{allowed: [...], severity: warn}}, got {type(data).__name__} {data!r}")
+                         f"or {{allowed: [...], severity: warn}}, got {type(data).__name__} {excerpt(data)}")
 
     @classmethod
     def __get_pydantic_json_schema__(cls, core_schema, handler):

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 from typing import Literal
 
-from pydantic import Field
+from pydantic import Field, field_validator
 
 from masterqc.spec.types import SpecModel, allowed
 
@@ -36,3 +36,26 @@ class Section(SpecModel):
     channel_counts: allowed(int, "2") | None = Field(None, description="allowed numbers of channels")
     channel_layouts: allowed(list[str], "[L, R]") | None = Field(
         None, description="allowed channel layouts, each a list of labels in file order, e.g. [L, R, C, LFE, Ls, Rs]")
+
+    @field_validator("sample_rates_hz", "bit_depths", "channel_counts")
+    @classmethod
+    def _positive(cls, value, info):
+        """A rate, depth or channel count of zero or less is a value no delivery can mean."""
+        if value is not None:
+            for i, v in enumerate(value.allowed):
+                if v <= 0:
+                    raise ValueError(f"{info.field_name}[{i}] is {v}: it must be 1 or more")
+        return value
+
+    @field_validator("channel_layouts")
+    @classmethod
+    def _labels(cls, value):
+        """Every channel label names a channel: an empty or blank label is refused, as is an empty layout."""
+        if value is not None:
+            for i, layout in enumerate(value.allowed):
+                if not layout:
+                    raise ValueError(f"channel_layouts[{i}] is empty: list one label per channel")
+                for j, label in enumerate(layout):
+                    if not label.strip():
+                        raise ValueError(f"channel_layouts[{i}][{j}] is an empty channel label")
+        return value

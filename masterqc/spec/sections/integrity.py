@@ -19,6 +19,7 @@
       phase_correlation_below: {max_percent: 5.0}  # share of time below the threshold
       phase_correlation_threshold: 0.0
       level_balance: {max_lu: 1.5}               # |balance| of the worst channel pair, K-weighted
+      truncated_audio: fail                      # default; warn or allow to accept a cut file
 
 The section always exists: non-finite samples (NaN, +-Inf) in a float file
 give an ``error`` finding with their first positions even when a spec leaves
@@ -35,6 +36,8 @@ runs count only with ``clip_threshold_db`` of at least 0.001 (the
 """
 
 from __future__ import annotations
+
+from typing import Literal
 
 from pydantic import Field
 
@@ -115,6 +118,9 @@ class Section(SpecModel):
     phase_correlation_threshold: float | None = Field(
         None, ge=-1.0, le=1.0, description="correlation below which time is counted for phase_correlation_below "
                                            "(default 0.0)")
+    truncated_audio: Literal["fail", "warn", "allow"] = Field(
+        "fail", description="a master whose audio data ends before its header says (a cut file): "
+                            "'fail' (default), 'warn', or 'allow' (reported as a pass with what is missing)")
     level_balance: ceiling("lu") | None = Field(
         None, description="largest level difference between the channels of a pair (L/R, Ls/Rs, ...), "
                           "K-weighted, LU")

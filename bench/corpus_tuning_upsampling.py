@@ -1,0 +1,339 @@
+"""Tuning corpus of the upsampling (bandwidth) detector: files converted up by general-purpose
+resamplers, and the genuine material they must not be confused with.
+
+Follows the shared case format of the sampling-detector corpora (``cases(seed, quick)``
+yields :class:`Case` objects one at a time; ``expect`` holds only the labels a case
+speaks to).  Set "tuning", seeds 1000-1999.  Tool families:
+
+- ``scipy-resample_poly-<window>``: :func:`scipy.signal.resample_poly` with its default
+  Kaiser (beta 5) window and with Hann, Hamming and Blackman-Harris windows;
+- ``libsamplerate-<type>``: the ``samplerate`` package, every converter type (sinc_best,
+  sinc_medium, sinc_fastest, linear, zero_order_hold);
+- ``hold``, ``linear``, ``zero-stuff``: upsamplers written here with numpy.
+
+Source rates 8 ... 96 kHz go up to a higher standard rate up to 192 kHz; each case draws
+its target from the higher rates (the seed decides), so every source meets several targets
+over a few seeds without listing every pair.  Source material fills its band up to near its
+own Nyquist frequency (a converter can only leave a cliff where there was content).
+
+Negatives: native wideband material at each rate; Butterworth low-passes of orders 2-12 at
+16-21 kHz (mastering low-passes: slopes no resampler makes); codec-like shelves (a steep
+shelf that keeps some content 25-45 dB down, at corners no standard Nyquist explains).
+Steep elliptic and linear-phase FIR low-passes whose cliff lies within 0.85-1.0 of a lower
+standard Nyquist are physically the same thing as a conversion: group "ambiguous-lowpass",
+with no ``upsampled_from_hz`` expectation (reported apart, not scored).
+
+Listening caution: test material at up to -6 dBFS RMS with full-band noise; turn the
+monitoring level down before playing any of it.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Iterator
+
+import numpy as np
+from scipy import signal as sps
+
+STANDARD_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400, 192000)
+SOURCE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000)
+SECONDS = 2.0
+SCIPY_WINDOWS = (("kaiser", 5.0), "hann", "hamming", "blackmanharris")
+LSR_TYPES = ("sinc_best", "sinc_medium", "sinc_fastest", "linear", "zero_order_hold")
+MATERIALS = ("music", "speech", "sparse", "noise")
+
+
+@dataclass
+class Case:
+    name: str
+    set: str
+    family: str
+    group: str
+    rate_hz: int
+    audio: np.ndarray
+    expect: dict
+    channel_labels: list | None = None
+
+
+def default_labels(channels: int) -> list:
+    return {1: ["M"], 2: ["L", "R"], 6: ["L", "R", "C", "LFE", "Ls", "Rs"]}.get(
+        channels, [f"ch{i + 1}" for i in range(channels)])
+
+
+# ---------------------------------------------------------------- material (fills its band)
+def _pink(n: int, rng) -> np.ndarray:
+    spec = np.fft.rfft(rng.standard_normal(n))
+    f = np.fft.rfftfreq(n)
+    spec[1:] /= np.sqrt(f[1:] / f[1])
+    spec[0] = 0.0
+    x = np.fft.irfft(spec, n)
+    return x / np.std(x)
+
+
+def _tilted_noise(n: int, fs: int, rng, slope_db_per_oct: float) -> np.ndarray:
+    spec = np.fft.rfft(rng.standard_normal(n))
+    f = np.maximum(np.fft.rfftfreq(n, 1.0 / fs), 50.0)
+    spec *= (f / 1000.0) ** (slope_db_per_oct / (20.0 * math.log10(2.0)))
+    x = np.fft.irfft(spec, n)
+    return x / np.std(x)
+
+
+def _harmonic_notes(n: int, fs: int, rng, notes: int) -> np.ndarray:
+    t = np.arange(n) / fs
+    out = np.zeros(n)
+    for _ in range(notes):
+        f0 = 110.0 * 2 ** (rng.integers(0, 36) / 12.0)
+        start = rng.uniform(0, 0.6) * n / fs
+        env = np.clip((t - start) / 0.01, 0, 1) * np.exp(-np.maximum(t - start, 0) * rng.uniform(0.5, 3.0))
+        k = np.arange(1, min(40, int(0.48 * fs / f0)) + 1)      # the noise bed fills the band above
+        amp = k ** -rng.uniform(0.8, 1.4)
+        ph = rng.uniform(0, 2 * np.pi, k.size)
+        vib = 1.0 + 0.002 * np.sin(2 * np.pi * rng.uniform(4, 6) * t)
+        phase = 2 * np.pi * f0 * np.cumsum(vib) / fs
+        note = np.zeros(n)
+        for kk, a, p in zip(k, amp, ph):
+            note += a * np.sin(kk * phase + p)
+        out += env * note
+    return out / max(np.std(out), 1e-12)
+
+
+def material(kind: str, fs: int, seconds: float, rng) -> np.ndarray:
+    """Mono material at ``fs`` whose spectrum reaches close to ``fs/2``, unit RMS."""
+    n = int(round(fs * seconds))
+    if kind == "noise":
+        x = _tilted_noise(n, fs, rng, rng.uniform(-4.0, 0.0))
+    elif kind == "music":
+        # harmonic notes up to 0.48 fs, a noise bed (cymbal-like air) to Nyquist, percussive bursts
+        notes = _harmonic_notes(n, fs, rng, int(rng.integers(3, 7)))
+        bed = _tilted_noise(n, fs, rng, rng.uniform(-3.0, -1.0))
+        hits = np.zeros(n)
+        for s in rng.integers(0, max(1, n - int(0.2 * fs)), 4):
+            m = int(0.15 * fs)
+            hits[s:s + m] += _pink(m, rng) * np.exp(-np.arange(m) / (0.03 * fs))
+        x = notes + 0.5 * bed + 0.7 * hits
+    elif kind == "speech":
+        # voiced syllables (harmonic source through formant resonators) with breath and sibilant noise
+        t = np.arange(n) / fs
+        f0 = rng.uniform(90, 220)
+        ph = 2 * np.pi * np.cumsum(f0 * (1 + 0.05 * np.sin(2 * np.pi * 3 * t))) / fs
+        src = sum((1.0 / k) * np.sin(k * ph) for k in range(1, min(30, int(0.48 * fs / f0)) + 1))
+        voiced = np.zeros(n)
+        for fc in (rng.uniform(300, 800), rng.uniform(900, 2300), rng.uniform(2300, 3200)):
+            b, a = sps.iirpeak(min(fc, 0.4 * fs), 5.0, fs=fs)
+            voiced += sps.lfilter(b, a, src)
+        gate = (np.sin(2 * np.pi * rng.uniform(2.5, 4.5) * t + rng.uniform(0, 6)) > -0.3).astype(float)
+        gate = sps.fftconvolve(gate, np.hanning(int(0.02 * fs) + 1) / (0.01 * fs + 0.5), mode="same")
+        hiss = _tilted_noise(n, fs, rng, 0.0) * (1.0 - gate) * 0.5
+        x = voiced / max(np.std(voiced), 1e-12) * gate + hiss + 0.05 * _tilted_noise(n, fs, rng, -1.0)
+    elif kind == "sparse":
+        # short bright bursts (clicks, shakers) separated by near-silence
+        x = 1e-3 * _tilted_noise(n, fs, rng, -1.0)
+        for s in rng.integers(0, max(1, n - int(0.1 * fs)), 6):
+            m = int(rng.uniform(0.02, 0.08) * fs)
+            x[s:s + m] += _tilted_noise(m, fs, rng, rng.uniform(-2.0, 0.0)) * np.hanning(m)
+    else:
+        raise ValueError(f"unknown material {kind!r}")
+    x = x - np.mean(x)
+    return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+
+
+def multichannel(kind: str, fs: int, channels: int, seconds: float, rng) -> np.ndarray:
+    """(frames, channels) material; a 5.1 LFE channel carries only content below 120 Hz."""
+    cols = []
+    for c in range(channels):
+        x = material(kind, fs, seconds, rng)
+        if channels == 6 and c == 3:
+            x = sps.sosfilt(sps.butter(4, 120.0, fs=fs, output="sos"), x)
+        cols.append(x)
+    return np.stack(cols, axis=1)
+
+
+def set_rms(x: np.ndarray, rms_dbfs: float) -> np.ndarray:
+    """Scale to ``rms_dbfs`` (over all channels), then keep the peak at or below -0.5 dBFS."""
+    r = math.sqrt(float(np.mean(x ** 2)))
+    y = x * (10 ** (rms_dbfs / 20.0) / max(r, 1e-12))
+    peak = float(np.max(np.abs(y)))
+    return y * min(1.0, 10 ** (-0.5 / 20.0) / max(peak, 1e-12))
+
+
+def quantise24(x: np.ndarray, rng) -> np.ndarray:
+    q = 2.0 ** 23
+    return np.clip(np.round(x * q + rng.random(x.shape) - rng.random(x.shape)), -q, q - 1) / q
+
+
+# ---------------------------------------------------------------- upsamplers
+def upsample(x: np.ndarray, src: int, dst: int, family: str) -> np.ndarray:
+    """Convert one channel from ``src`` to ``dst`` with the named tool family."""
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    if family.startswith("scipy-resample_poly"):
+        name = family[len("scipy-resample_poly-"):]
+        window = {"kaiser5": ("kaiser", 5.0)}.get(name, name)
+        return sps.resample_poly(x, up, down, window=window)
+    if family.startswith("libsamplerate-"):
+        import samplerate
+        return np.asarray(samplerate.resample(x, dst / src, family[len("libsamplerate-"):]), dtype=float)
+    n_out = len(x) * dst // src
+    pos = np.arange(n_out) * (src / dst)
+    if family == "hold":
+        return x[np.minimum(np.floor(pos + 1e-9).astype(np.int64), len(x) - 1)]
+    if family == "linear":
+        return np.interp(pos, np.arange(len(x)), x)
+    if family == "zero-stuff":
+        if down != 1:
+            raise ValueError("zero stuffing needs an integer factor")
+        y = np.zeros(len(x) * up)
+        y[::up] = x * up
+        return y
+    raise ValueError(f"unknown family {family!r}")
+
+
+def scipy_families():
+    return [f"scipy-resample_poly-{'kaiser5' if isinstance(w, tuple) else w}" for w in SCIPY_WINDOWS]
+
+
+UP_FAMILIES = tuple(scipy_families()) + tuple(f"libsamplerate-{t}" for t in LSR_TYPES) + ("hold", "linear",
+                                                                                          "zero-stuff")
+
+
+def _targets(src: int, family: str) -> list:
+    out = [r for r in STANDARD_RATES_HZ if r > src]
+    if family == "zero-stuff":
+        out = [r for r in out if r % src == 0]
+    return out
+
+
+# ---------------------------------------------------------------- cases
+def _case_rng(seed: int, i: int):
+    return np.random.default_rng([int(seed), i])
+
+
+def _plan(seed: int, quick: bool):
+    """(name, family, group, builder) for every case, in a fixed order."""
+    plan = []
+    rng = np.random.default_rng(seed)
+    mats = list(MATERIALS)
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    # upsampled: every family from every source rate, one drawn target (two for the full set)
+    for fi, family in enumerate(UP_FAMILIES):
+        # the quick slice takes every third source rate per family (a different third per family)
+        sources = SOURCE_RATES_HZ if not quick else SOURCE_RATES_HZ[fi % 3::3]
+        for src in sources:
+            targets = _targets(src, family)
+            if not targets:
+                continue
+            draws = 1 if quick else 2
+            chosen = list(dict.fromkeys(pick(targets) for _ in range(draws)))
+            for dst in chosen:
+                mat = pick(mats)
+                ch = pick([1, 1, 2, 2, 6])
+                level = float(rng.uniform(-30.0, -6.0))
+                plan.append((f"up_{family}_{src}_to_{dst}_{mat}_{ch}ch", family, "upsampled",
+                             ("up", src, dst, family, mat, ch, level)))
+    # one channel converted up, the other native
+    for family in ("scipy-resample_poly-kaiser5", "libsamplerate-sinc_best", "libsamplerate-sinc_medium",
+                   "scipy-resample_poly-hann"):
+        pairs = ((44100, 96000), (48000, 96000), (22050, 48000), (32000, 44100), (44100, 88200))
+        for src, dst in (pairs if not quick else pairs[:2]):
+            mat = pick(["music", "noise"])
+            side = pick(["L", "R"])
+            plan.append((f"onech_{family}_{src}_to_{dst}_{side}", family, "upsampled-one-channel",
+                         ("onech", src, dst, family, mat, side, float(rng.uniform(-24.0, -8.0)))))
+    # native wideband at every rate
+    for fs in STANDARD_RATES_HZ[1:]:
+        for mat in (mats if not quick else [pick(mats)]):
+            ch = pick([1, 2, 6])
+            plan.append((f"native_{fs}_{mat}_{ch}ch", "native", "native",
+                         ("native", fs, mat, ch, float(rng.uniform(-30.0, -6.0)))))
+    # Butterworth mastering low-passes, orders 2-12 at 16-21 kHz
+    orders = (2, 4, 6, 8, 10, 12)
+    for fs in (44100, 48000, 88200, 96000, 192000):
+        for order in (orders if not quick else (pick(orders),)):
+            corner = float(pick([16000.0, 17000.0, 18000.0, 19000.0, 20000.0, 21000.0]))
+            if fs == 96000 and order == 8:
+                corner = 20000.0
+            plan.append((f"butter{order}_{corner / 1000:g}k_{fs}", f"butter{order}-{corner / 1000:g}k", "lowpass",
+                         ("butter", fs, order, corner, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    # codec-like shelves at corners no standard Nyquist explains (16.6-18.6 kHz, 12.5-13.5 kHz)
+    for fs in (44100, 48000, 96000):
+        for corner in ((17000.0, 18000.0, 12800.0) if not quick else (17500.0,)):
+            plan.append((f"shelf_{corner / 1000:g}k_{fs}", "codec-shelf", "codec-shelf",
+                         ("shelf", fs, corner, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    # steep low-passes whose cliff sits at 0.85-1.0 of a lower standard Nyquist: ambiguous
+    for fs, corner, kind in ((48000, 20000.0, "ellip"), (96000, 21000.0, "fir"), (48000, 16000.0, "ellip"),
+                             (96000, 22000.0, "ellip"))[:(2 if quick else 4)]:
+        plan.append((f"ambiguous_{kind}_{corner / 1000:g}k_{fs}", f"{kind}-{corner / 1000:g}k", "ambiguous-lowpass",
+                     ("ambig", fs, corner, kind, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    return plan
+
+
+def _build(spec, rng, seconds):
+    kind = spec[0]
+    if kind == "up":
+        _k, src, dst, family, mat, ch, level = spec
+        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+        y = np.stack([upsample(x[:, c], src, dst, family) for c in range(ch)], axis=1)
+        return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+    if kind == "onech":
+        _k, src, dst, family, mat, side, level = spec
+        up = upsample(set_rms(material(mat, src, seconds, rng), level), src, dst, family)
+        nat = set_rms(material(mat, dst, seconds, rng), level)
+        n = min(len(up), len(nat))
+        cols = [nat[:n], up[:n]] if side == "R" else [up[:n], nat[:n]]
+        return dst, np.stack(cols, axis=1), {"upsampled_from_hz": src, "upsampled_channels": [side]}, ["L", "R"]
+    if kind == "native":
+        _k, fs, mat, ch, level = spec
+        return fs, set_rms(multichannel(mat, fs, ch, seconds, rng), level), \
+            {"upsampled_from_hz": None, "upsampled_channels": []}, default_labels(ch)
+    if kind == "butter":
+        _k, fs, order, corner, mat, level = spec
+        sos = sps.butter(order, corner, fs=fs, output="sos")
+        x = sps.sosfilt(sos, multichannel(mat, fs, 2, seconds, rng), axis=0)
+        return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+    if kind == "shelf":
+        # a steep low-pass whose stop band keeps the content 25-45 dB down (a coarse coder's top band)
+        _k, fs, corner, mat, level = spec
+        x = multichannel(mat, fs, 2, seconds, rng)
+        sos = sps.ellip(8, 0.1, 80.0, corner, fs=fs, output="sos")
+        low = sps.sosfiltfilt(sos, x, axis=0)
+        keep = 10 ** (-rng.uniform(25.0, 45.0) / 20.0)
+        return fs, set_rms(low + keep * (x - low), level), {"upsampled_from_hz": None, "upsampled_channels": []}, \
+            ["L", "R"]
+    if kind == "ambig":
+        _k, fs, corner, how, mat, level = spec
+        x = multichannel(mat, fs, 2, seconds, rng)
+        if how == "ellip":
+            y = sps.sosfiltfilt(sps.ellip(10, 0.1, 100.0, corner, fs=fs, output="sos"), x, axis=0)
+        else:
+            h = sps.firwin(801, corner, window=("kaiser", 10.0), fs=fs)
+            y = sps.lfilter(h, 1.0, x, axis=0)
+        return fs, set_rms(y, level), {}, ["L", "R"]
+    raise ValueError(kind)
+
+
+def cases(seed: int, quick: bool = False, step: int = 1) -> Iterator[Case]:
+    """Every case of the tuning set for ``seed`` (1000-1999); ``quick`` gives a small slice; ``step`` > 1
+    builds only every ``step``-th case (the same cases, with the same noise, as with ``step`` 1)."""
+    if not 1000 <= int(seed) <= 1999:
+        raise ValueError(f"tuning seeds are 1000-1999, got {seed}")
+    plan = _plan(seed, quick)
+    for i, (name, family, group, spec) in enumerate(plan):
+        if i % step:
+            continue
+        rng = _case_rng(seed, i)
+        fs, y, expect, labels = _build(spec, rng, SECONDS if not quick else 1.5)
+        y = np.asarray(y, dtype=float)
+        if y.ndim == 1:
+            y = y[:, None]
+        peak = float(np.max(np.abs(y)))
+        if peak > 0.99:
+            y = y * (0.99 / peak)
+        y = quantise24(y, rng)
+        safe = name.lower().replace(".", "p")
+        yield Case(name=f"{safe}_s{seed}", set="tuning", family=family, group=group, rate_hz=int(fs), audio=y,
+                   expect=expect, channel_labels=labels)

@@ -1,0 +1,53 @@
+"""Upsampling provenance from every analyzer's evidence (a post-step of the engine).
+
+The bandwidth analysis (:mod:`masterqc.measure.bandwidth`) names a source rate from a
+converter's cliff; an upsampler without a proper filter (sample hold, linear
+interpolation, zero stuffing) leaves no cliff but mirror images, which the imaging
+analyzer (:mod:`masterqc.measure.imaging`) finds and attributes to a source rate.  A
+file with such images *is* upsampled, so :func:`combine` lets ``upsampled_from_hz``
+say so too, after every analyzer has finished.  Pure: measurements in, measurements out.
+"""
+
+from __future__ import annotations
+
+#: a defect's coherence this far below the strongest defect's still counts as "as strong"
+#: when choosing among several candidate rates (own reasoning: the cycle frequencies of a
+#: source rate r are also those of its multiples' and submultiples' candidates)
+COHERENCE_TIE = 0.0
+
+
+def image_source(imaging) -> dict | None:
+    """The imaging candidate that names the source rate: among the "defect" verdicts, the
+    most coherent one (ties within :data:`COHERENCE_TIE`: the one with the louder images), or None."""
+    defects = [c for c in (imaging or []) if isinstance(c, dict) and c.get("verdict") == "defect"
+               and c.get("source_rate_hz")]
+    if not defects:
+        return None
+    top = max(float(c.get("coherence") or 0.0) for c in defects)
+    near = [c for c in defects if float(c.get("coherence") or 0.0) >= top - COHERENCE_TIE]
+    return max(near, key=lambda c: (float(c.get("coherence") or 0.0) >= top - 1e-9,
+                                    float(c.get("image_level_db") if c.get("image_level_db") is not None else -999.0)))
+
+
+def combine(m: dict) -> dict:
+    """``m`` with ``upsampled_from_hz`` (and its confidence, channels, evidence, note) taken
+    from the imaging verdict when the bandwidth analysis found no converter cliff."""
+    if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:
+        return m
+    src = image_source(m.get("imaging"))
+    if src is None:
+        return m
+    rate = int(round(float(src["source_rate_hz"])))
+    coh = float(src.get("coherence") or 0.0)
+    level = src.get("image_level_db")
+    m["upsampled_from_hz"] = rate
+    m["upsampled_confidence_fraction"] = round(min(1.0, 0.5 + 0.5 * coh), 2)
+    m["upsampled_evidence"] = "images"
+    m["upsampled_edge_ratio"] = None
+    chans = src.get("channels") or ([src["channel"]] if src.get("channel") else [])
+    m["upsampled_channels"] = list(chans)
+    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz without a proper filter: mirror images of "
+                           f"the content below {rate / 2000:g} kHz"
+                           + (f" at {float(level):.0f} dB" if level is not None else "") + ", no converter cliff")
+    m["band_limit_hz"] = None
+    return m
