@@ -41,10 +41,31 @@ from masterqc.jsonutil import jsonable
 from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
 
 
+def result_json_text(result: dict) -> str:
+    """The result as JSON text: one top-level key per line and one finding per line, the rest compact.
+
+    (Fully indented JSON goes through Python's pure encoder and costs more than judging; this layout
+    keeps the C encoder and stays readable where people look: the verdict and the findings.)
+    """
+    def dumps(v):
+        return json.dumps(v, ensure_ascii=False, allow_nan=False)
+    lines = []
+    for key, value in result.items():
+        if key == "findings" and isinstance(value, list) and value:
+            body = "[\n" + ",\n".join(f"    {dumps(f)}" for f in value) + "\n  ]"
+        else:
+            body = dumps(value)
+        lines.append(f"  {dumps(key)}: {body}")
+    return "{\n" + ",\n".join(lines) + "\n}\n"
+
+
 def write_json(result: dict, path) -> None:
-    """The result as indented JSON (non-finite floats already turned into null), atomically."""
-    text = json.dumps(jsonable(result), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
-    write_atomic(path, text.encode("utf-8"))
+    """The result as JSON (:func:`result_json_text`; non-finite floats as null), atomically."""
+    try:  # fast path: a result that is already plain JSON (measured results are)
+        data = result_json_text(result).encode("utf-8")
+    except (TypeError, ValueError, UnicodeEncodeError):
+        data = result_json_text(jsonable(result)).encode("utf-8")
+    write_atomic(path, data)
 
 
 def was_unreadable(result: dict) -> bool:
@@ -91,13 +112,13 @@ def judge_result(result: dict, loaded_spec) -> dict:
     from masterqc.judge.normalisation import figures_for
 
     spec = loaded_spec.spec
-    out = dict(result)
-    out["spec"] = loaded_spec.info()
+    out = dict(result)  # measured results are plain JSON already (measure_file, or read from a file)
+    out["spec"] = jsonable(loaded_spec.info())
     out["normalisation"] = jsonable(figures_for(spec.normalisation, out))
     findings, verdict = judge(spec, out)
-    out["findings"] = [f.to_dict() for f in findings]
+    out["findings"] = jsonable([f.to_dict() for f in findings])
     out["verdict"] = verdict
-    return jsonable(out)
+    return out
 
 
 #: the keys a judgement adds to a measured result (dropped before judging it again)
