@@ -176,7 +176,6 @@ class _NoSpec:
 def run_batch(cfg: BatchConfig) -> BatchOutcome:
     """Run a batch (see the module docstring); raises SpecError/UsageError before touching any file."""
     from masterqc.measure.options import MeasureOptions
-    from masterqc.pipeline import write_json
 
     t0 = time.perf_counter()
     base = MeasureOptions(channel_layout=cfg.layout)
@@ -282,35 +281,14 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
                 result["verdict"] = verdict(result["findings"])
                 result["outputs"] = {}
                 return result
-            if not wrote:
-                rendered = [f for f in cfg.formats if f in ("html", "pdf")]
+            if not wrote:  # the per-file step's writer (pipeline.write_outputs); fresh reports are kept
+                from masterqc.pipeline import write_outputs
                 prev = prev_rows.get(text_safe(it.path))
                 fresh = (prev is not None and prev.get("content_sha256") == it.sha256 and it.rule is not None
                          and prev.get("spec_key") == it.rule.key and prev.get("out_stem") == f"{it.out_rel}/{it.stem}")
-                todo = []
-                for fmt in rendered:
-                    target = os.path.join(it.out_folder, f"{it.stem}.{fmt}")
-                    if fresh and os.path.exists(target):
-                        outputs[fmt] = f"{it.stem}.{fmt}"
-                    else:
-                        todo.append(fmt)
-                if todo:  # error results get their reports too, as check_file writes them
-                    try:
-                        from masterqc.report.render import write_reports
-                        for p in write_reports(result, it.out_folder, it.stem, todo) or []:
-                            outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
-                    except Exception as exc:
-                        from masterqc.judge.core import Finding, verdict
-                        result["findings"] = list(result.get("findings", [])) + [Finding(
-                            check="report.render", status="error",
-                            message=f"the {'/'.join(todo)} report could not be written: {type(exc).__name__}: {exc}"
-                        ).to_dict()]
-                        result["verdict"] = verdict(result["findings"])
-                if "json" in cfg.formats:
-                    outputs["json"] = f"{it.stem}.json"
-                result["outputs"] = outputs
-                if "json" in cfg.formats:
-                    write_json(result, os.path.join(it.out_folder, f"{it.stem}.json"))
+                keep = [f for f in cfg.formats if f in ("html", "pdf") and fresh
+                        and os.path.exists(os.path.join(it.out_folder, f"{it.stem}.{f}"))]
+                result = write_outputs(result, it.out_folder, it.stem, cfg.formats, keep=keep)
             return result
 
         # ---- 2. reuse or schedule
