@@ -42,10 +42,12 @@ import math
 import numpy as np
 
 from masterqc.measure.base import BOOLEAN, BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult
-from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundamental, refine_peaks
+from masterqc.measure.frames import (  # noqa: F401  (re-exported: the steady-tone fold test and its constants)
+    ALIAS_LINE_DB, ALIAS_SCORE_MIN_DB, CLEAR_BINS, LINE_DB, LOBE_BINS, MIN_CLEAR_FOLDS, MIN_F0_HZ,
+    MIN_FOUND_FRACTION, MIN_TONAL_FRACTION, TONAL_BIN_HZ, UNDETECTED_LINE_POWER_FACTOR, FramePicker,
+    analyse_tonal_frame, blackman_harris, find_lines, fold_frequency, fold_plan, frame_starts, local_floor,
+    lobe_power, refine_peaks)
 
-#: long frames: 5 Hz bins (fs/5 samples)
-TONAL_BIN_HZ = 5.0
 #: at most this many long frames per file (cost bound)
 MAX_TONAL_FRAMES = 32
 #: short frame pairs for partial tracks: fs/50 samples (50 Hz bins), second frame fs/800 later
@@ -57,46 +59,12 @@ MAX_TRACK_PAIRS = 160
 #: bins (own reasoning).  A coarser second resolution (200 Hz bins) was tried for the fast
 #: high partials of moving naive waveforms at 96 kHz and found nothing more in the corpus.
 TRACK_RESOLUTIONS = ((TRACK_BIN_HZ, TRACK_HOP_DIVISOR, 5000.0, 150.0),)
-#: a spectral line stands this far above the local floor (median of +-25 bins).
-#: Own reasoning: 20 dB is far outside the spread of a noise periodogram (an exponential
-#: variable exceeds its median by 20 dB with probability 2**-100).
-LINE_DB = 20.0
 #: peaks used for partial tracks stand this far above the local floor; lower than
 #: :data:`LINE_DB` because a chance peak cannot pass the reflection test, which asks for a
 #: mirrored position and slope, seen twice (own reasoning)
 TRACK_LINE_DB = 12.0
 #: a reflected continuation must be seen in at least this many later frame pairs
 MIN_REFLECTION_SIGHTINGS = 2
-#: a predicted fold frequency counts as found when a peak stands this far above the local
-#: floor within +-1 bin of it (own reasoning: 10 dB keeps chance peaks of the floor out,
-#: since the test is made only at predicted places)
-ALIAS_LINE_DB = 10.0
-#: predicted folds closer than this to a harmonic (or to DC/Nyquist) cannot be told apart
-#: from it: +-5 bins covers the Blackman-Harris main lobe (4 bins) plus the f0 uncertainty
-CLEAR_BINS = 5
-#: half-width of the window's main lobe in bins (power of a line is summed over it)
-LOBE_BINS = 4
-#: at least this many clear fold positions per frame, or the frame is not assessable
-MIN_CLEAR_FOLDS = 3
-#: alias lines found in at least this fraction of the clear fold positions of a frame make
-#: the frame's aliasing evident (own reasoning)
-MIN_FOUND_FRACTION = 0.25
-#: alias-to-harmonic ratio at or above which found alias lines count as a defect.
-#: Own reasoning: a proper anti-alias or interpolation filter (stop band 90 dB or more)
-#: leaves folds below about -90 dB of the harmonics; a naive sawtooth folds at -15 to -35 dB
-#: (see tests: from its Fourier series); -70 dB flags any converter worse than a short
-#: windowed-sinc kernel while leaving margin above good ones.
-ALIAS_SCORE_MIN_DB = -70.0
-#: power of a line whose highest bin within +-1 bin of a fold position is just below the
-#: detection level (:data:`ALIAS_LINE_DB` over the floor), in units of that level: the
-#: Blackman-Harris 4-term window's noise-equivalent bandwidth (2.00 bins) times its worst
-#: scalloping loss (0.83 dB at half a bin), 2.43 (own reasoning from the window's standard
-#: figures, quoted from memory)
-UNDETECTED_LINE_POWER_FACTOR = 2.43
-#: fundamentals below this cannot be resolved at 5 Hz bins with clear fold positions
-MIN_F0_HZ = 60.0
-#: a tonal frame holds at least this fraction of its power in line main lobes (own reasoning)
-MIN_TONAL_FRACTION = 0.5
 #: reflected partial: slope match (relative) and position match (Hz) of the mirrored track
 REFLECT_SLOPE_TOLERANCE = 0.25
 REFLECT_POSITION_TOLERANCE_HZ = 150.0
@@ -106,118 +74,6 @@ REFLECT_POSITION_TOLERANCE_HZ = 150.0
 MIN_TRACK_SLOPE_HZ_PER_S = 5000.0
 #: look for the reflected continuation at most this long after the rising partial
 REFLECT_MAX_GAP_S = 0.25
-
-
-def blackman_harris(n: int) -> np.ndarray:
-    """4-term Blackman-Harris window (side lobes -92 dB), symmetric, ``n`` points."""
-    from scipy.signal import windows
-    return windows.blackmanharris(n, sym=True)
-
-
-def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:
-    """Local floor of a power spectrum: running median over ``2*halfwidth+1`` bins."""
-    from scipy.ndimage import median_filter
-    return median_filter(power, size=2 * halfwidth + 1, mode="nearest")
-
-
-def block_floor(power: np.ndarray, block: int = 25) -> np.ndarray:
-    """Cheap local floor: medians of consecutive ``block``-bin blocks, interpolated linearly
-    between block centres (about as robust as the running median, far cheaper)."""
-    n = power.size
-    nb = max(1, n // block)
-    med = np.median(power[:nb * block].reshape(nb, block), axis=1)
-    centres = (np.arange(nb) + 0.5) * block
-    return np.interp(np.arange(n), centres, med)
-
-
-def find_lines(power: np.ndarray, floor: np.ndarray, db: float):
-    """Indices of local maxima standing ``db`` above ``floor``."""
-    thr = floor * 10 ** (db / 10)
-    p = power
-    ok = (p[1:-1] >= p[:-2]) & (p[1:-1] > p[2:]) & (p[1:-1] >= thr[1:-1]) & (p[1:-1] > 0)
-    return np.nonzero(ok)[0] + 1
-
-
-def fold_frequency(f_hz, fs: float):
-    """Where a component at ``f_hz`` (any frequency) lands after sampling at ``fs``:
-    ``|f - m*fs|`` for the nearest whole m, in [0, fs/2]."""
-    f = np.asarray(f_hz, dtype=float)
-    return np.abs(f - fs * np.round(f / fs))
-
-
-def fold_plan(f0: float, fs: float, bin_hz: float, max_ratio: float = 1.5):
-    """Harmonics below Nyquist and clear fold positions of the partials above it.
-
-    Returns ``(harmonic_hz, fold_hz, fold_order)``: harmonics ``k*f0 < fs/2``; for
-    ``fs/2 < k*f0 < max_ratio*fs`` the fold frequencies that lie at least
-    :data:`CLEAR_BINS` bins from every harmonic and from DC and Nyquist, and their
-    orders k.
-    """
-    kh = int(math.floor((fs / 2.0) / f0))
-    if kh * f0 >= fs / 2.0:
-        kh -= 1
-    harmonics = f0 * np.arange(1, kh + 1)
-    k = np.arange(kh + 1, int(math.floor(max_ratio * fs / f0)) + 1)
-    folds = fold_frequency(k * f0, fs)
-    clear = CLEAR_BINS * bin_hz
-    ok = (folds > clear) & (folds < fs / 2.0 - clear)
-    if harmonics.size:
-        nearest = np.abs(np.round(folds / f0) * f0 - folds)
-        ok &= nearest > clear
-    return harmonics, folds[ok], k[ok]
-
-
-def lobe_power(power: np.ndarray, f_hz, bin_hz: float, half: int = LOBE_BINS) -> np.ndarray:
-    """Power in +-``half`` bins around each frequency (the window's main lobe)."""
-    idx = np.round(np.asarray(f_hz) / bin_hz).astype(int)
-    out = np.zeros(idx.size)
-    n = power.size
-    for j in range(-half, half + 1):
-        ii = np.clip(idx + j, 0, n - 1)
-        out += power[ii]
-    return out
-
-
-def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
-    """Alias analysis of one frame's power spectrum (one-sided, ``bin_hz`` spacing).
-
-    Returns None when the frame is not tonal, else a dict with ``f0_hz``,
-    ``assessable``, ``harmonic_power``, ``alias_power`` (excess over the floor at
-    the clear fold positions), ``clear`` (number of clear positions) and ``found``
-    (alias lines found there).
-    """
-    floor = local_floor(power)
-    lines = find_lines(power, floor, LINE_DB)
-    if lines.size < 3:
-        return None
-    lobe = np.zeros(power.size, dtype=bool)
-    for k in lines:
-        lobe[max(0, k - LOBE_BINS):k + LOBE_BINS + 1] = True
-    total = float(power.sum())
-    if not total > 0 or power[lobe].sum() < MIN_TONAL_FRACTION * total:
-        return None
-    freqs = refine_peaks(power, lines) * bin_hz
-    f0 = harmonic_fundamental(freqs, power[lines], min_f0_hz=MIN_F0_HZ, tolerance_hz=0.3 * bin_hz)
-    if f0 is None:
-        return None
-    harmonics, folds, _orders = fold_plan(f0, fs, bin_hz)
-    h_pow = float(lobe_power(power, harmonics, bin_hz).sum())
-    out = {"f0_hz": f0, "assessable": folds.size >= MIN_CLEAR_FOLDS, "harmonic_power": h_pow,
-           "alias_power": 0.0, "clear": int(folds.size), "found": 0, "bound_power": 0.0}
-    if not out["assessable"] or not h_pow > 0:
-        out["assessable"] = False
-        return out
-    a_pow = lobe_power(power, folds, bin_hz)
-    f_pow = lobe_power(floor, folds, bin_hz)
-    out["alias_power"] = float(np.maximum(a_pow - f_pow, 0.0).sum())
-    idx = np.round(folds / bin_hz).astype(int)
-    n = power.size
-    best = np.max(np.stack([power[np.clip(idx + j, 1, n - 2)] for j in (-1, 0, 1)]), axis=0)
-    level = floor[np.clip(idx, 0, n - 1)] * 10 ** (ALIAS_LINE_DB / 10)
-    out["found"] = int(np.sum(best >= level))
-    # the most power undetected alias lines could hold at these positions
-    out["bound_power"] = float(np.sum(level) * UNDETECTED_LINE_POWER_FACTOR)
-    return out
 
 
 def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: float):
