@@ -78,7 +78,7 @@ def test_noise_like_material_is_never_judged_for_aliasing(scored):
 
 
 def test_clean_material_never_carries_an_alias_score(scored):
-    """aliasing_score is the alias-to-harmonic ratio where alias lines were found: on every
+    """alias_to_harmonic_ratio_db is the alias-to-harmonic ratio where alias lines were found: on every
     signal that holds no folds (band-limited synthesis, proper conversion, native programme)
     it is null or below the detector's own threshold, so a spec ceiling such as -40 dB never
     fails clean material."""
@@ -87,4 +87,4 @@ def test_clean_material_never_carries_an_alias_score(scored):
     clean = [(n, f) for n, _res, f in outcomes if f["labels"].get("aliasing") is False]
     assert len(clean) >= 40
     for name, f in clean:
-        assert f["aliasing_score"] is None or f["aliasing_score"] < ALIAS_SCORE_MIN_DB, (name, f)
+        assert f["alias_to_harmonic_ratio_db"] is None or f["alias_to_harmonic_ratio_db"] < ALIAS_SCORE_MIN_DB, (name, f)

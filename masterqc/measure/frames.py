@@ -240,7 +240,7 @@ def fold_frequency(f_hz, fs: float):
     return np.abs(f - fs * np.round(f / fs))
 
 
-def fold_plan(f0: float, fs: float, bin_hz: float, max_ratio: float = 1.5):
+def fold_plan(f0: float, fs: float, bin_hz: float, max_ratio: float = 1.5, max_fold_hz: float | None = None):
     """Harmonics below Nyquist and clear fold positions of the partials above it.
 
     Returns ``(harmonic_hz, fold_hz, fold_order)``: harmonics ``k*f0 < fs/2``; for
@@ -256,6 +256,8 @@ def fold_plan(f0: float, fs: float, bin_hz: float, max_ratio: float = 1.5):
     folds = fold_frequency(k * f0, fs)
     clear = CLEAR_BINS * bin_hz
     ok = (folds > clear) & (folds < fs / 2.0 - clear)
+    if max_fold_hz is not None:
+        ok &= folds < max_fold_hz
     if harmonics.size:
         nearest = np.abs(np.round(folds / f0) * f0 - folds)
         ok &= nearest > clear
@@ -273,7 +275,7 @@ def lobe_power(power: np.ndarray, f_hz, bin_hz: float, half: int = LOBE_BINS) ->
     return out
 
 
-def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
+def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float, max_fold_hz: float | None = None):
     """Alias analysis of one frame's power spectrum (one-sided, ``bin_hz`` spacing).
 
     Returns None when the frame is not tonal, else a dict with ``f0_hz``,
@@ -295,7 +297,7 @@ def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
     f0 = harmonic_fundamental(freqs, power[lines], min_f0_hz=MIN_F0_HZ, tolerance_hz=0.3 * bin_hz)
     if f0 is None:
         return None
-    harmonics, folds, _orders = fold_plan(f0, fs, bin_hz)
+    harmonics, folds, _orders = fold_plan(f0, fs, bin_hz, max_fold_hz=max_fold_hz)
     h_pow = float(lobe_power(power, harmonics, bin_hz).sum())
     out = {"f0_hz": f0, "assessable": folds.size >= MIN_CLEAR_FOLDS, "harmonic_power": h_pow,
            "alias_power": 0.0, "clear": int(folds.size), "found": 0, "bound_power": 0.0}
