@@ -344,3 +344,20 @@ def test_tuning_slice_finds_folded_content(tuning_slice):
     # and nothing it misses is called clean for want of assessable material: every positive
     # is assessable (None would mean "noise-like")
     assert all(m["aliasing_detected"] is not None for _c, m in pos)
+
+
+def test_aliasing_finding_reads_as_plain_sentences_with_advice():
+    """The finding says where (m:ss), what (harmonics above the file's Nyquist frequency fold
+    back) and what to do (anti-aliasing on, a higher internal rate, or a proper resampler).
+    House wording."""
+    from masterqc.judge import judge
+    from masterqc.spec import build_spec
+    m = _run(naive_wave("saw", 1204.9, 48000, seconds=2.0), 48000)
+    sp = build_spec({"spec_version": 1, "name": "invented sampling spec", "sampling": {"aliasing": [False]}})
+    found, _verdict = judge(sp, {"format": {"sample_rate_hz": 48000}, "measurements": m})
+    f = next(f for f in found if f.check == "sampling.aliasing")
+    assert f.status == "fail"
+    assert f.message.startswith("Folded (aliased) partials found from 0:0")
+    assert "above 24 kHz" in f.message and "1204.9 Hz" in f.message
+    assert "anti-aliasing on" in f.message and "higher internal rate" in f.message
+    assert f.message.endswith("The spec does not allow folded content.")

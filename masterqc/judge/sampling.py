@@ -272,11 +272,9 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
     tonal = bool(detail.get("polyphonic_instances_with_folds") or detail.get("frames_with_alias_lines"))
     f0 = detail.get("median_f0_hz")
     if tonal:
-        s = (f"Folded partials found {span}: notes here have harmonics above {nyq} that fold back into "
-             "the audible band (at |k·f0 − m·fs|, between the true harmonics)")
-        if f0:
-            s += f"; a fundamental of about {float(f0):.0f} Hz is one of them"
-        sentences.append(s + ".")
+        who = f"notes here (fundamental about {float(f0):.1f} Hz)" if f0 else "notes here"
+        sentences.append(f"Folded (aliased) partials found {span}: {who} have harmonics above {nyq} that fold "
+                         "back into the audible band, between the true harmonics.")
     ex = detail.get("fold_examples") or []
     if detail.get("folded_partials"):
         s = (f"{'Also, a' if tonal else f'Folded content found {span}: a'} partial rising towards {nyq} "
