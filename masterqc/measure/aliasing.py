@@ -5,26 +5,26 @@ Three complementary tests, each on a bounded number of frames spread over the fi
 1. **Polyphonic fold test** (frames of fs/20 samples, 20 Hz bins, Hann window;
    :func:`polyphonic_fold_frame`).  The notes of each frame are estimated by an
    iterative harmonic sieve (up to :data:`MAX_NOTES`).  Every note at f0 predicts
-   where its partials above Nyquist land once sampled: ``|k*f0 - m*fs|``.  Peaks
-   that are no harmonic of any note are looked for at those places, with a
-   tolerance that grows with k (the f0 error, and a slight vibrato, move fold k by
-   k times as much), and only at a level the note's own spectrum continued to
-   order k could give.  The same test at control places (the predictions shifted
-   by fixed fractions of f0) gives the rate of chance hits: other notes' partials
-   and noise peaks land on the true and the control places alike.  Folding is
-   found when the hits exceed the chance rate by far (:func:`fold_evidence`) in at
-   least :data:`MIN_EVIDENT_FRAMES` frames.  This covers naive oscillators (saw,
-   square, pulse, hard sync) in chords, with envelopes and vibrato, and tonal
-   music decimated without a filter.  Folds landing in the top 10 % of the band
-   are not tested (a proper decimation filter's transition band may reach there).
+   where its partials above Nyquist land once sampled: ``|k*f0 - m*fs|``, a comb
+   with spacing f0 offset from the note's harmonic grid.  The level over the local
+   floor along that comb (with a tolerance that grows with k: the f0 error moves fold
+   k by k times as much) is compared with the same comb moved to other offsets
+   (control combs): other notes' partials and noise land on the true and the control
+   combs alike.  A note instance whose comb stands above every control is evidence;
+   folding is found when enough instances, and a large enough share of them, show it
+   (:func:`fold_evidence`).  This covers naive oscillators (saw, square, pulse, hard
+   sync) in chords and tonal music decimated without a filter; a vibrato smears the
+   high fold orders within a frame and weakens the evidence.  Folds landing in the top
+   10 % of the band are not tested (a proper decimation filter's transition band may
+   reach there).
 
 2. **Alias-to-harmonic ratio on steady tones** (frames of fs/5 samples, 5 Hz
    bins, 4-term Blackman-Harris window; :func:`masterqc.measure.frames.analyse_tonal_frame`).
    In a frame whose lines form one harmonic series, the power at the predicted fold
    frequencies of the partials above Nyquist is compared with the harmonic power.
    It gives the ratio for steady notes; as a finding it counts only where the
-   polyphonic test also sees more hits than chance (one series per frame is an
-   assumption chords break).
+   polyphonic test also sees more evident note instances than chance, or has no
+   testable instance (one series per frame is an assumption chords break).
 
 3. **Reflection at Nyquist** (short frame pairs, fs/50 samples, 1.25 ms apart):
    partial tracks and their slopes.  A partial rising towards Nyquist whose
@@ -41,7 +41,7 @@ positions.
 alias-to-harmonic energy ratio in dB, quoted only when folded content was found:
 from the steady-tone frames whose fold positions show alias lines when they are at
 least half of the assessable ones, else from the polyphonic frames with evident
-hits.  Otherwise it is None, and ``aliasing_detail.score_upper_bound_db`` states the
+note instances.  Otherwise it is None, and ``aliasing_detail.score_upper_bound_db`` states the
 floor-limited upper bound on steady material.  ``aliasing_detected`` is None when
 nothing could be assessed.
 """
@@ -128,23 +128,13 @@ POLY_MAX_RATIO = 2.5
 #: transition band may straddle Nyquist (scipy's resample_poly centres it there), so folds
 #: landing in the top 10 % of the band are no evidence of a missing filter (own reasoning)
 POLY_TOP_FRACTION = 0.45
-#: a fold zone whose positions sit within this fraction of f0 of the harmonic grid, or of
-#: its half-grid, is not tested: octave-related notes put their harmonics there (own reasoning)
+#: a fold zone whose positions sit within this fraction of f0 of the harmonic grid is not
+#: tested: there folds cannot be told from the harmonics' skirts (own reasoning)
 ZONE_GRID_GUARD = 0.12
-ZONE_HALF_GUARD = 0.0
-#: a peak at a predicted fold position counts only if it is no stronger than the note's
-#: upper harmonics continued with a 1/k amplitude law, plus this margin: a fold of order k
-#: continues the note's spectrum, while another note's strong low harmonic that happens to
-#: sit there does not (own reasoning: naive saw, square and pulse spectra fall as 1/k; music
-#: falls faster, which only lowers the prediction's upper bound)
-FOLD_LEVEL_MARGIN_DB = 12.0
-#: ... and no weaker than that continuation minus this margin: folds of music whose spectrum
-#: falls faster than 1/k sit below the 1/k continuation, but weak chance peaks of the floor
-#: far below it are no evidence (own reasoning)
-FOLD_LEVEL_FLOOR_DB = 20.0
-#: a fold position is tested only where the note's spectrum continued with 1/k predicts a
-#: partial at least this far above the local floor (own reasoning: weaker folds, smeared by
-#: vibrato, would rarely be seen, and only dilute the evidence with chance hits)
+#: a fold position is tested only where the note's upper harmonics continued with a 1/k
+#: amplitude law (naive saw, square and pulse spectra fall so; music falls faster) predict a
+#: partial at least this far above the local floor.  Own reasoning; 20 dB was tried and kept
+#: almost nothing in dense naive chords, whose own folds raise the floor, so 0 dB
 POLY_PREDICTED_DB = 0.0
 #: control combs: the predicted fold positions shifted by these fractions of f0 (those that
 #: would land within CONTROL_GUARD of the harmonic grid or of another fold zone's offset are
@@ -240,16 +230,19 @@ def estimate_notes(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, max_
 def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
     """The polyphonic fold test on one frame's power spectrum.
 
-    Peaks are found; notes are estimated (:func:`estimate_notes`); every peak that is no
-    harmonic of any note is a candidate alias line.  For each note and each order k with
-    ``fs/2 < k*f0 <= POLY_MAX_RATIO*fs`` the predicted fold position ``|k*f0 - m*fs|`` is
-    tested: a hit is a candidate line within ``0.6 bin + 3*k*sigma_f0`` of it, no stronger
-    than the note's spectrum continued to order k (:data:`FOLD_LEVEL_MARGIN_DB`).  The same
-    test at control positions (:data:`CONTROL_SHIFTS`) gives the chance rate.
+    Peaks are found and notes estimated (:func:`estimate_notes`).  For each note and each order
+    k with ``fs/2 < k*f0 <= POLY_MAX_RATIO*fs`` the predicted fold position ``|k*f0 - m*fs|`` is
+    read as the level over the local floor (dB, the highest within ``0.6 bin + 3*k*sigma_f0``,
+    at most 2 bins), away from every harmonic of every note.  The mean level over the note's
+    fold comb is compared with the same comb moved to other offsets from the harmonic grid
+    (:data:`CONTROL_SHIFTS`): the note instance is evidence of folding when its comb stands
+    above every control comb, by :data:`FOLD_LEVEL_EXCESS_DB` over their median.
 
     Returns None when no note was found (noise-like or silent frame), else a dict with
-    ``tested`` (fold positions tested), ``hits``, ``chance`` (mean control hits),
-    ``alias_power`` (power of the hit peaks), ``harmonic_power`` and ``f0_hz`` (notes).
+    ``tested`` (fold positions tested), ``instances`` (notes with enough positions and
+    controls), ``evident`` (those showing folds), ``chance`` (their expected number under no
+    folding, sum of 1/(controls + 1)), ``alias_power`` (power at the evident folds),
+    ``harmonic_power``, ``f0_hz`` and ``evident_f0_hz``.
     """
     floor = block_floor(power)
     peaks = find_lines(power, floor, POLY_LINE_DB)
@@ -272,10 +265,6 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
     unc_all = np.concatenate([3.0 * n["sigma_hz"] * j for n, j in zip(notes, orders)])
     order_h = np.argsort(harm_all)
     harm, harm_unc = harm_all[order_h], unc_all[order_h]
-    d_h, _ = _nearest_distance(harm, fr)
-    free = d_h > (POLY_GUARD_BINS - 0.5) * bin_hz
-    order = np.argsort(fr[free])
-    ff, fp = fr[free][order], pw[free][order]
     # level over the local floor, dB, and its running maxima over +-1..2 bins
     level = 10.0 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
     from scipy.ndimage import maximum_filter1d
