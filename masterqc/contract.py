@@ -376,6 +376,7 @@ RENAMED_MEASUREMENTS_1_TO_2 = {
     "effective_bit_depth": "effective_bit_depth_bits",
     "effective_bit_depth_per_channel": "effective_bit_depth_bits_per_channel",
     "upsampled_confidence": "upsampled_confidence_fraction",
+    "aliasing_score": "alias_to_harmonic_ratio_db",
 }
 #: fractions (0..1) in format 1 that format 2 gives as percent (0..100): old key -> new key
 FRACTION_TO_PERCENT_1_TO_2 = {

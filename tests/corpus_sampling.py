@@ -612,7 +612,7 @@ TONE_MATCH_HZ = 50.0
 BAND_LIMIT_MATCH = 0.05
 
 #: measurements kept per signal by :func:`score_corpus`
-KEPT_KEYS = ("imaging_detected", "aliasing_detected", "aliasing_assessable", "aliasing_score",
+KEPT_KEYS = ("imaging_detected", "aliasing_detected", "aliasing_assessable", "alias_to_harmonic_ratio_db",
              "upsampled_from_hz", "band_limit_hz", "ultrasonic_energy_db")
 
 DETECTORS = ("imaging", "aliasing", "upsampled_from", "ultrasonic_tones", "ultrasonic_energy", "band_limit")

@@ -32,10 +32,6 @@ def test_one_unit_table_read_by_judge_text_and_report():
         assert (unit, digits) == (unit_of_key(key).label, unit_of_key(key).decimals)
 
 
-#: keys whose renaming belongs to the sampling-analyzer work (not yet unit-named)
-_PENDING_RENAME = {"aliasing_score"}
-
-
 def test_every_measurement_declares_unit_and_meaning():
     props = measurement_properties()
     assert len(props) > 80
@@ -48,8 +44,7 @@ def test_every_measurement_declares_unit_and_meaning():
             named = UNITS[unit]
         if named is not None and unit != "none" and key not in ("bandwidth_edge_slope_db_per_khz",):
             assert named.code == unit, f"{key}: key names {named.code}, declared {unit}"
-        if frag.get("type") in ("number", ["number", "null"], "integer", ["integer", "null"]) \
-                and key not in _PENDING_RENAME:
+        if frag.get("type") in ("number", ["number", "null"], "integer", ["integer", "null"]) :
             assert named is not None or unit in ("corr", "fraction"), f"{key}: a number without a unit in its key"
 
 

@@ -73,11 +73,11 @@ def test_detectors_on_the_corpus_slice():
     for name, f in noise:
         assert f["aliasing_detected"] is None and f["aliasing_assessable"] is False, name
 
-    # aliasing_score is the alias-to-harmonic ratio where alias lines were found: on every signal that
-    # holds no folds (band-limited synthesis, proper conversion, native programme) it is null or below the
-    # detector's own threshold, so a spec ceiling such as -40 dB never fails clean material
+    # alias_to_harmonic_ratio_db is the alias-to-harmonic ratio where alias lines were found: on every
+    # signal that holds no folds (band-limited synthesis, proper conversion, native programme) it is null
+    # or below the detector's own threshold, so a spec ceiling such as -40 dB never fails clean material
     from masterqc.measure.aliasing import ALIAS_SCORE_MIN_DB
     clean = [(n, f) for n, _res, f in outcomes if f["labels"].get("aliasing") is False]
     assert len(clean) >= 12
     for name, f in clean:
-        assert f["aliasing_score"] is None or f["aliasing_score"] < ALIAS_SCORE_MIN_DB, (name, f)
+        assert f["alias_to_harmonic_ratio_db"] is None or f["alias_to_harmonic_ratio_db"] < ALIAS_SCORE_MIN_DB, (name, f)

@@ -153,7 +153,7 @@ def test_conversion_true_peak_and_fold(tmp_path):
 
 
 def test_missing_measurements_are_skipped_not_errors():
-    sp = spec(imaging=[False], aliasing=[False], aliasing_score={"max_db": -40.0}, upsampled=[False])
+    sp = spec(imaging=[False], aliasing=[False], alias_to_harmonic_ratio={"max_db": -40.0}, upsampled=[False])
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 48000}, "measurements": {}})
     assert {f.status for f in found} == {"skipped"}
     assert verdict == "pass"
@@ -161,18 +161,18 @@ def test_missing_measurements_are_skipped_not_errors():
 
 
 def test_imaging_and_aliasing_findings_from_their_keys():
-    sp = spec(imaging=[False], aliasing=[False], aliasing_score={"max_db": -40.0})
+    sp = spec(imaging=[False], aliasing=[False], alias_to_harmonic_ratio={"max_db": -40.0})
     m = {"imaging_detected": True,
          "imaging": [{"source_rate_hz": 48000, "coherence": 0.97, "image_level_db": -3.0, "verdict": "defect"},
                      {"source_rate_hz": 88200, "coherence": None, "image_level_db": None, "verdict": "untestable"}],
-         "aliasing_detected": True, "aliasing_score": -21.5, "aliasing_assessable": True,
+         "aliasing_detected": True, "alias_to_harmonic_ratio_db": -21.5, "aliasing_assessable": True,
          "aliasing_detail": {"reason": None, "where_s": [[1.0, 2.5]]}}
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
     by = {f.check: f for f in found}
     assert by["sampling.imaging"].status == "fail" and "48 kHz source: defect" in by["sampling.imaging"].message
     assert by["sampling.aliasing"].status == "fail" and by["sampling.aliasing"].where_s == [[1.0, 2.5]]
-    assert by["sampling.aliasing_score"].status == "fail" and by["sampling.aliasing_score"].miss == pytest.approx(18.5)
-    m["aliasing_detected"], m["aliasing_score"] = None, None
+    assert by["sampling.alias_to_harmonic_ratio"].status == "fail" and by["sampling.alias_to_harmonic_ratio"].miss == pytest.approx(18.5)
+    m["aliasing_detected"], m["alias_to_harmonic_ratio_db"] = None, None
     m["aliasing_detail"] = {"reason": "fs is a whole multiple of f0: aliases land on harmonics"}
     by = {f.check: f for f in judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})[0]}
     assert by["sampling.aliasing"].status == "skipped" and "whole multiple" in by["sampling.aliasing"].message

@@ -45,7 +45,7 @@ def _aliasing_score(m: dict, detail: dict, req, where) -> Finding:
     floor-limited upper bound): the ratio lies below what can be measured there, which meets a
     ceiling.  It is skipped where nothing was assessable, or where folded partial tracks were
     found without alias lines (the aliasing check reports those)."""
-    key = "aliasing_score"
+    key = "alias_to_harmonic_ratio_db"
     value = m.get(key)
     what = "alias-to-harmonic ratio"
     if value is None and key in m and m.get("aliasing_assessable") is True \
@@ -56,8 +56,8 @@ def _aliasing_score(m: dict, detail: dict, req, where) -> Finding:
         reason = f"no alias lines found above the floor at the {tested} fold positions tested"
         if bound is not None:
             reason += f" (at most {float(bound):.0f} dB if every one held a line just below the detection level)"
-        return check_below_measurable("sampling.aliasing_score", what, req, reason)
-    return check_limits("sampling.aliasing_score", what, value, req, where_s=where,
+        return check_below_measurable("sampling.alias_to_harmonic_ratio", what, req, reason)
+    return check_limits("sampling.alias_to_harmonic_ratio", what, value, req, where_s=where,
                         missing_reason=_missing(m, key, detail.get("reason") or "not assessable on this material"))
 
 
@@ -256,18 +256,10 @@ def judge(section, result: dict) -> list[Finding]:
                     "folded (aliased) content")
         if f.status in ("warn", "fail"):
             f.where_s = where
-            if detail.get("reason"):
-                f.message += f": {detail['reason']}"
-            elif m.get("aliasing_score") is not None:
-                f.message += f" (alias-to-harmonic ratio {m['aliasing_score']:.1f} dB)"
-            if detail.get("median_f0_hz"):
-                f.message += f"; fundamental about {detail['median_f0_hz']:.1f} Hz"
-            ex = detail.get("fold_examples") or []
-            if ex:
-                f.message += "; e.g. " + ", ".join(_fold_example(e) for e in ex[:3])
+            f.message = _aliasing_message(result, m, detail, where, f.status)
         out.append(f)
-    if s.aliasing_score is not None:
-        out.append(_aliasing_score(m, detail, s.aliasing_score, where))
+    if s.alias_to_harmonic_ratio is not None:
+        out.append(_aliasing_score(m, detail, s.alias_to_harmonic_ratio, where))
 
     if s.ultrasonic_energy is not None:
         out.append(check_limits("sampling.ultrasonic_energy", f"ultrasonic energy ({_ultra_band(result, m)}) "
@@ -295,9 +287,49 @@ def judge(section, result: dict) -> list[Finding]:
     return out
 
 
-def _fold_example(e: dict) -> str:
-    items = [f"{k} {v}" for k, v in e.items() if isinstance(v, (int, float, str))][:3]
-    return "(" + ", ".join(items) + ")"
+def _clock(t_s: float) -> str:
+    """A time in the file as m:ss (h:mm:ss from an hour)."""
+    t = int(max(0.0, float(t_s)))
+    h, rest = divmod(t, 3600)
+    return f"{h}:{rest // 60:02d}:{rest % 60:02d}" if h else f"{rest // 60}:{rest % 60:02d}"
+
+
+def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: str) -> str:
+    """Plain sentences for folded content that the spec does not allow: where, what it is, what to do."""
+    rate = (result.get("format") or {}).get("sample_rate_hz")
+    nyq = f"{float(rate) / 2000.0:g} kHz" if rate else "the Nyquist frequency"
+    if where:
+        lo, hi = min(a for a, _ in where), max(b for _, b in where)
+        span = f"from {_clock(lo)} to {_clock(hi)}" if _clock(lo) != _clock(hi) else f"at {_clock(lo)}"
+    else:
+        span = "in this file"
+    sentences = []
+    tonal = bool(detail.get("polyphonic_instances_with_folds") or detail.get("frames_with_alias_lines"))
+    f0 = detail.get("median_f0_hz")
+    if tonal:
+        who = f"notes here (fundamental about {float(f0):.1f} Hz)" if f0 else "notes here"
+        sentences.append(f"Folded (aliased) partials found {span}: {who} have harmonics above {nyq} that fold "
+                         "back into the audible band, between the true harmonics.")
+    ex = detail.get("fold_examples") or []
+    if detail.get("folded_partials"):
+        s = (f"{'Also, a' if tonal else f'Folded content found {span}: a'} partial rising towards {nyq} "
+             "comes back falling at the mirrored frequency")
+        if ex:
+            e = ex[0]
+            s += (f" (e.g. {float(e['rising_hz']) / 1000:.2f} kHz at {float(e['at_s']):.2f} s, back at "
+                  f"{float(e['folded_hz']) / 1000:.2f} kHz at {float(e['folded_at_s']):.2f} s)")
+        sentences.append(s + ".")
+    if not sentences:
+        sentences.append(f"Folded content found {span}.")
+    ratio = m.get("alias_to_harmonic_ratio_db")
+    if ratio is not None:
+        sentences.append(f"The folded partials are {float(ratio):.1f} dB relative to the harmonics.")
+    sentences.append("A synthesiser voice generated without band limiting does this, and so does a rate "
+                     "conversion that dropped samples without an anti-alias filter. Re-render the voice with its "
+                     "oscillators' anti-aliasing on, or at a higher internal rate; or redo the conversion from the "
+                     "original with a proper resampler.")
+    sentences.append("The spec does not allow folded content" + (" (warning)." if status == "warn" else "."))
+    return " ".join(sentences)
 
 
 def _tones(s, result, m) -> Finding:

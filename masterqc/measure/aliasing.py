@@ -1,38 +1,49 @@
 """Folded content (aliasing): partials that a sampling process reflected below Nyquist.
 
-Two complementary tests, each on a bounded number of frames spread over the file:
+Three complementary tests, each on a bounded number of frames spread over the file:
 
-1. **Alias-to-harmonic ratio on tonal frames** (frames of fs/5 samples, 5 Hz
-   bins, 4-term Blackman-Harris window: its -92 dB side lobes keep the skirts of
-   strong harmonics from passing for alias lines).  In a frame whose spectral lines form a harmonic series, the
-   fundamental f0 is estimated from all matched harmonics (least squares), and
-   the power at the predicted fold frequencies ``|k*f0 - m*fs|`` of the partials
-   above Nyquist (first two fold zones, ``k*f0 < 1.5*fs``) is compared with the
-   harmonic power.  A frame is *not assessable* where the predicted folds land on
-   the harmonics (fs a whole multiple of f0, or too close to one for the
-   frequency resolution), and frames that are not tonal are not used at all:
-   noise-like material carries no evidence of its own folding, so it is never
-   flagged.  Alias lines must be found as spectral peaks at the predicted places,
-   not just as energy.
+1. **Polyphonic fold test** (frames of fs/20 samples, 20 Hz bins, Hann window;
+   :func:`polyphonic_fold_frame`).  The notes of each frame are estimated by an
+   iterative harmonic sieve (up to :data:`MAX_NOTES`).  Every note at f0 predicts
+   where its partials above Nyquist land once sampled: ``|k*f0 - m*fs|``, a comb
+   with spacing f0 offset from the note's harmonic grid.  The level over the local
+   floor along that comb (with a tolerance that grows with k: the f0 error moves fold
+   k by k times as much) is compared with the same comb moved to other offsets
+   (control combs): other notes' partials and noise land on the true and the control
+   combs alike.  A note instance whose comb stands above every control is evidence;
+   folding is found when enough instances, and a large enough share of them, show it
+   (:func:`fold_evidence`).  This covers naive oscillators (saw, square, pulse, hard
+   sync) in chords and tonal music decimated without a filter; a vibrato smears the
+   high fold orders within a frame and weakens the evidence.  Folds landing in the top
+   10 % of the band are not tested (a proper decimation filter's transition band may
+   reach there).
 
-2. **Reflection at Nyquist** (short frame pairs, fs/50 samples, 1.25 ms apart):
+2. **Alias-to-harmonic ratio on steady tones** (frames of fs/5 samples, 5 Hz
+   bins, 4-term Blackman-Harris window; :func:`masterqc.measure.frames.analyse_tonal_frame`).
+   In a frame whose lines form one harmonic series, the power at the predicted fold
+   frequencies of the partials above Nyquist is compared with the harmonic power.
+   It gives the ratio for steady notes; as a finding it counts only where the
+   polyphonic test also sees more evident note instances than chance, or has no
+   testable instance (one series per frame is an assumption chords break).
+
+3. **Reflection at Nyquist** (short frame pairs, fs/50 samples, 1.25 ms apart):
    partial tracks and their slopes.  A partial rising towards Nyquist whose
    continuation reappears *falling* at the mirrored place ``fs - (f + s*dt)``
    with the mirrored slope ``-s`` is a partial folded by the sampling (a sweep
-   generated past Nyquist, or the harmonics of a naively generated moving tone,
-   which fall while their fundamental rises).
+   generated past Nyquist, or the harmonics of a naively generated moving tone).
 
-``aliasing_score`` is the alias-to-harmonic energy ratio in dB, measured only
-where alias lines were found: over the tonal frames whose predicted fold positions
-show alias lines (at least :data:`MIN_FOUND_FRACTION` of them), when such frames
-are at least half of the assessable ones.  Otherwise it is None: on clean material
-the power at the fold positions is the floor and other notes' partials, not
-aliases, and quoting it as a ratio would read as aliasing.  In that case
-``aliasing_detail.score_upper_bound_db`` states the floor-limited upper bound: an
-alias line strong enough to escape detection at every fold position tested would
-give at most that ratio.  ``aliasing_detected`` is True when alias lines were
-found with a ratio of at least :data:`ALIAS_SCORE_MIN_DB`, or when folded partial
-tracks were found; None when nothing could be assessed.
+Frames with no note are not assessable: noise-like material carries no evidence of
+its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
+share of the polyphonic frames in which at least one note had testable fold
+positions.
+
+``alias_to_harmonic_ratio_db`` (called ``aliasing_score`` up to 0.1.0) is the
+alias-to-harmonic energy ratio in dB, quoted only when folded content was found:
+from the steady-tone frames whose fold positions show alias lines when they are at
+least half of the assessable ones, else from the polyphonic frames with evident
+note instances.  Otherwise it is None, and ``aliasing_detail.score_upper_bound_db`` states the
+floor-limited upper bound on steady material.  ``aliasing_detected`` is None when
+nothing could be assessed.
 """
 
 from __future__ import annotations
@@ -43,12 +54,14 @@ import numpy as np
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import BOOLEAN, BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult
-from masterqc.measure.imaging import FramePicker, frame_starts, harmonic_fundamental, refine_peaks
+from masterqc.measure.frames import (  # noqa: F401  (re-exported: the steady-tone fold test and its constants)
+    ALIAS_LINE_DB, ALIAS_SCORE_MIN_DB, CLEAR_BINS, LINE_DB, LOBE_BINS, MIN_CLEAR_FOLDS, MIN_F0_HZ,
+    MIN_FOUND_FRACTION, MIN_TONAL_FRACTION, TONAL_BIN_HZ, UNDETECTED_LINE_POWER_FACTOR, FramePicker,
+    analyse_tonal_frame, blackman_harris, block_floor, find_lines, fold_frequency, fold_plan, frame_starts, local_floor,
+    lobe_power, refine_peaks)
 
-#: long frames: 5 Hz bins (fs/5 samples)
-TONAL_BIN_HZ = 5.0
 #: at most this many long frames per file (cost bound)
-MAX_TONAL_FRAMES = 32
+MAX_TONAL_FRAMES = 12
 #: short frame pairs for partial tracks: fs/50 samples (50 Hz bins), second frame fs/800 later
 TRACK_BIN_HZ = 50.0
 TRACK_HOP_DIVISOR = 16
@@ -58,46 +71,12 @@ MAX_TRACK_PAIRS = 160
 #: bins (own reasoning).  A coarser second resolution (200 Hz bins) was tried for the fast
 #: high partials of moving naive waveforms at 96 kHz and found nothing more in the corpus.
 TRACK_RESOLUTIONS = ((TRACK_BIN_HZ, TRACK_HOP_DIVISOR, 5000.0, 150.0),)
-#: a spectral line stands this far above the local floor (median of +-25 bins).
-#: Own reasoning: 20 dB is far outside the spread of a noise periodogram (an exponential
-#: variable exceeds its median by 20 dB with probability 2**-100).
-LINE_DB = 20.0
 #: peaks used for partial tracks stand this far above the local floor; lower than
 #: :data:`LINE_DB` because a chance peak cannot pass the reflection test, which asks for a
 #: mirrored position and slope, seen twice (own reasoning)
 TRACK_LINE_DB = 12.0
 #: a reflected continuation must be seen in at least this many later frame pairs
 MIN_REFLECTION_SIGHTINGS = 2
-#: a predicted fold frequency counts as found when a peak stands this far above the local
-#: floor within +-1 bin of it (own reasoning: 10 dB keeps chance peaks of the floor out,
-#: since the test is made only at predicted places)
-ALIAS_LINE_DB = 10.0
-#: predicted folds closer than this to a harmonic (or to DC/Nyquist) cannot be told apart
-#: from it: +-5 bins covers the Blackman-Harris main lobe (4 bins) plus the f0 uncertainty
-CLEAR_BINS = 5
-#: half-width of the window's main lobe in bins (power of a line is summed over it)
-LOBE_BINS = 4
-#: at least this many clear fold positions per frame, or the frame is not assessable
-MIN_CLEAR_FOLDS = 3
-#: alias lines found in at least this fraction of the clear fold positions of a frame make
-#: the frame's aliasing evident (own reasoning)
-MIN_FOUND_FRACTION = 0.25
-#: alias-to-harmonic ratio at or above which found alias lines count as a defect.
-#: Own reasoning: a proper anti-alias or interpolation filter (stop band 90 dB or more)
-#: leaves folds below about -90 dB of the harmonics; a naive sawtooth folds at -15 to -35 dB
-#: (see tests: from its Fourier series); -70 dB flags any converter worse than a short
-#: windowed-sinc kernel while leaving margin above good ones.
-ALIAS_SCORE_MIN_DB = -70.0
-#: power of a line whose highest bin within +-1 bin of a fold position is just below the
-#: detection level (:data:`ALIAS_LINE_DB` over the floor), in units of that level: the
-#: Blackman-Harris 4-term window's noise-equivalent bandwidth (2.00 bins) times its worst
-#: scalloping loss (0.83 dB at half a bin), 2.43 (own reasoning from the window's standard
-#: figures, quoted from memory)
-UNDETECTED_LINE_POWER_FACTOR = 2.43
-#: fundamentals below this cannot be resolved at 5 Hz bins with clear fold positions
-MIN_F0_HZ = 60.0
-#: a tonal frame holds at least this fraction of its power in line main lobes (own reasoning)
-MIN_TONAL_FRACTION = 0.5
 #: reflected partial: slope match (relative) and position match (Hz) of the mirrored track
 REFLECT_SLOPE_TOLERANCE = 0.25
 REFLECT_POSITION_TOLERANCE_HZ = 150.0
@@ -109,116 +88,261 @@ MIN_TRACK_SLOPE_HZ_PER_S = 5000.0
 REFLECT_MAX_GAP_S = 0.25
 
 
-def blackman_harris(n: int) -> np.ndarray:
-    """4-term Blackman-Harris window (side lobes -92 dB), symmetric, ``n`` points."""
-    from scipy.signal import windows
-    return windows.blackmanharris(n, sym=True)
+# ---------------------------------------------------------------- polyphonic fold test
+#: frames of the polyphonic fold test: fs/20 samples (50 ms, 20 Hz bins), Hann window.
+#: Short enough that a slight vibrato moves a note's low-order folds by little more than a
+#: bin within a frame, long enough to resolve the harmonics of notes down to about 100 Hz
+#: (own reasoning)
+POLY_BIN_HZ = 20.0
+#: fold positions (and candidate alias lines) this close to a note's harmonic, in bins, are
+#: not used: the window's leakage from the harmonic raises the level there, which would
+#: favour whichever positions lie nearer the harmonic grid
+POLY_GUARD_BINS = 2.5
+#: at most this many polyphonic frames per file, spread over it (cost bound)
+MAX_POLY_FRAMES = 32
+#: spectral peaks used by the polyphonic test stand this far above the local floor and
+#: within 90 dB of the frame's strongest bin (own reasoning: 10 dB as for alias lines at
+#: predicted places; 90 dB keeps quantisation and dither floors out)
+POLY_LINE_DB = 10.0
+POLY_RANGE_DB = 90.0
+#: at most this many notes per frame (multi-pitch estimation by an iterative harmonic sieve)
+MAX_NOTES = 5
+#: a note is a harmonic series of at least 4 matched peaks, with at least 3 of its first 8
+#: harmonics present, explaining at least 1 % of the frame's peak power (own reasoning)
+NOTE_MIN_PEAKS = 4
+#: candidate fundamentals: the NOTE_SEEDS strongest remaining peaks below NOTE_SEED_MAX_HZ,
+#: divided by 1..5 (cost bound; own reasoning)
+NOTE_SEEDS = 6
+NOTE_SEED_MAX_HZ = 5000.0
+NOTE_MIN_SHARE = 0.01
+#: a peak matches harmonic k of f0 within 0.3 bin plus 0.05 % of its frequency (within a frame a
+#: slight vibrato smears each harmonic, but its centre stays at k times the frame's mean f0);
+#: the matched harmonics' power-weighted RMS residual must stay within NOTE_MAX_RESIDUAL_BINS
+#: (two notes close to an octave apart must not merge into one series; own reasoning)
+NOTE_TOLERANCE_BINS = 0.3
+NOTE_TOLERANCE_REL = 5e-4
+NOTE_MAX_RESIDUAL_BINS = 0.2
+#: fold orders tested: partials up to this multiple of fs (1.5: the first two fold zones, as
+#: in the steady-tone test; it covers decimation by 3 without a filter)
+POLY_MAX_RATIO = 2.5
+#: fold positions are tested only below this fraction of fs: a proper decimation filter's
+#: transition band may straddle Nyquist (scipy's resample_poly centres it there), so folds
+#: landing in the top 10 % of the band are no evidence of a missing filter (own reasoning)
+POLY_TOP_FRACTION = 0.45
+#: a fold zone whose positions sit within this fraction of f0 of the harmonic grid is not
+#: tested: there folds cannot be told from the harmonics' skirts (own reasoning)
+ZONE_GRID_GUARD = 0.12
+#: a fold position is tested only where the note's upper harmonics continued with a 1/k
+#: amplitude law (naive saw, square and pulse spectra fall so; music falls faster) predict a
+#: partial at least this far above the local floor.  Own reasoning; 20 dB was tried and kept
+#: almost nothing in dense naive chords, whose own folds raise the floor, so 0 dB
+POLY_PREDICTED_DB = 0.0
+#: control combs: the predicted fold positions shifted by these fractions of f0 (those that
+#: would land within CONTROL_GUARD of the harmonic grid or of another fold zone's offset are
+#: skipped).  Under no folding, other notes' partials and noise peaks land on the true and the
+#: control combs alike, and a dense set of controls also catches an unexplained comb of
+#: another note at any offset; a note instance is evidence of folding only when its predicted
+#: comb stands above every control, by FOLD_LEVEL_EXCESS_DB over their median (own reasoning)
+CONTROL_SHIFTS = tuple(np.round(np.arange(0.10, 0.91, 0.05), 2))
+CONTROL_GUARD = 0.06
+MIN_CONTROLS = 3
+FOLD_LEVEL_EXCESS_DB = 2.0
+#: steady-tone alias lines with no testable polyphonic instance count only from this many
+#: frames on (own reasoning)
+MIN_LINE_ONLY_FRAMES = 3
+#: the file shows folded partials when at least this many note instances (a note in one
+#: frame) show their fold comb above every control, and at least this share of the instances
+#: tested (own reasoning, checked on the tuning corpus: native mixes reach up to about 0.4 of
+#: their instances by chance coincidences with other notes' partials and drums when few
+#: instances are testable; naive synthesis about half to all of them)
+MIN_EVIDENT_INSTANCES = 5
+MIN_EVIDENT_SHARE = 0.45
+#: ... and at least this many times the count expected by chance, plus 1 (own reasoning: the
+#: chance count assumes independent positions; native mixes reach up to about 2 times it)
+CHANCE_FACTOR = 2.0
 
 
-def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:
-    """Local floor of a power spectrum: running median over ``2*halfwidth+1`` bins."""
-    from scipy.ndimage import median_filter
-    return median_filter(power, size=2 * halfwidth + 1, mode="nearest")
+def _nearest_distance(sorted_hz: np.ndarray, f_hz: np.ndarray):
+    """Distance from each of ``f_hz`` to the nearest of ``sorted_hz``, and that element's index."""
+    j = np.searchsorted(sorted_hz, f_hz)
+    lo = np.clip(j - 1, 0, sorted_hz.size - 1)
+    hi = np.clip(j, 0, sorted_hz.size - 1)
+    dlo, dhi = np.abs(sorted_hz[lo] - f_hz), np.abs(sorted_hz[hi] - f_hz)
+    return np.minimum(dlo, dhi), np.where(dlo <= dhi, lo, hi)
 
 
-def block_floor(power: np.ndarray, block: int = 25) -> np.ndarray:
-    """Cheap local floor: medians of consecutive ``block``-bin blocks, interpolated linearly
-    between block centres (about as robust as the running median, far cheaper)."""
-    n = power.size
-    nb = max(1, n // block)
-    med = np.median(power[:nb * block].reshape(nb, block), axis=1)
-    centres = (np.arange(nb) + 0.5) * block
-    return np.interp(np.arange(n), centres, med)
+def estimate_notes(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, max_notes: int = MAX_NOTES):
+    """Multi-pitch estimate by an iterative harmonic sieve.
 
-
-def find_lines(power: np.ndarray, floor: np.ndarray, db: float):
-    """Indices of local maxima standing ``db`` above ``floor``."""
-    thr = floor * 10 ** (db / 10)
-    p = power
-    ok = (p[1:-1] >= p[:-2]) & (p[1:-1] > p[2:]) & (p[1:-1] >= thr[1:-1]) & (p[1:-1] > 0)
-    return np.nonzero(ok)[0] + 1
-
-
-def fold_frequency(f_hz, fs: float):
-    """Where a component at ``f_hz`` (any frequency) lands after sampling at ``fs``:
-    ``|f - m*fs|`` for the nearest whole m, in [0, fs/2]."""
-    f = np.asarray(f_hz, dtype=float)
-    return np.abs(f - fs * np.round(f / fs))
-
-
-def fold_plan(f0: float, fs: float, bin_hz: float, max_ratio: float = 1.5):
-    """Harmonics below Nyquist and clear fold positions of the partials above it.
-
-    Returns ``(harmonic_hz, fold_hz, fold_order)``: harmonics ``k*f0 < fs/2``; for
-    ``fs/2 < k*f0 < max_ratio*fs`` the fold frequencies that lie at least
-    :data:`CLEAR_BINS` bins from every harmonic and from DC and Nyquist, and their
-    orders k.
+    Each round takes the fundamental (one of the 6 strongest remaining peaks below 5 kHz divided by
+    1..5, at least :data:`MIN_F0_HZ`) whose matched harmonics carry the most power, prefers
+    the higher of two candidates within 5 % of each other (against octave errors), refines it
+    by weighted least squares, and removes its harmonics.  Returns a list of dicts: ``f0_hz``,
+    ``sigma_hz`` (standard error of f0 from the residuals), ``power`` (matched harmonic power),
+    ``top_power`` and ``top_order`` (median power and order of the upper third of the matched
+    harmonics).
     """
-    kh = int(math.floor((fs / 2.0) / f0))
-    if kh * f0 >= fs / 2.0:
-        kh -= 1
-    harmonics = f0 * np.arange(1, kh + 1)
-    k = np.arange(kh + 1, int(math.floor(max_ratio * fs / f0)) + 1)
-    folds = fold_frequency(k * f0, fs)
-    clear = CLEAR_BINS * bin_hz
-    ok = (folds > clear) & (folds < fs / 2.0 - clear)
-    if harmonics.size:
-        nearest = np.abs(np.round(folds / f0) * f0 - folds)
-        ok &= nearest > clear
-    return harmonics, folds[ok], k[ok]
+    f, p = freqs_hz, powers
+    alive = np.ones(f.size, dtype=bool)
+    total = float(p.sum())
+    notes = []
+    for _round in range(max_notes):
+        idx = np.nonzero(alive)[0]
+        if idx.size < NOTE_MIN_PEAKS:
+            break
+        fi, pi = f[idx], p[idx]
+        tol = NOTE_TOLERANCE_BINS * bin_hz + NOTE_TOLERANCE_REL * fi
+        best = None
+        seeds = np.nonzero(fi <= NOTE_SEED_MAX_HZ)[0]
+        for i in seeds[np.argsort(pi[seeds])[::-1][:NOTE_SEEDS]]:
+            for n in range(1, 6):
+                f0 = fi[i] / n
+                if f0 < MIN_F0_HZ:
+                    break
+                h = np.round(fi / f0)
+                ok = (h >= 1) & (np.abs(fi - h * f0) <= tol)
+                if ok.sum() < NOTE_MIN_PEAKS:
+                    continue
+                hk = h[ok]
+                h_min, h_max = float(hk.min()), float(hk.max())
+                n_low = len(set(hk[hk <= 8].tolist()))
+                if h_min > 2 or n_low < min(3, ok.sum()) or n_low < 0.45 * min(8.0, h_max):
+                    continue
+                w = pi[ok]
+                f0_ls = float(np.sum(w * fi[ok] * h[ok]) / np.sum(w * h[ok] ** 2))
+                res = fi[ok] - h[ok] * f0_ls
+                if float(np.sum(w * res ** 2) / np.sum(w)) > (NOTE_MAX_RESIDUAL_BINS * bin_hz) ** 2:
+                    continue
+                score = float(w.sum())
+                if best is None or score > 1.05 * best[0] or (score > 0.95 * best[0] and f0_ls > 1.01 * best[1]):
+                    best = (score, f0_ls, idx[ok], h[ok])
+        if best is None or best[0] < NOTE_MIN_SHARE * total:
+            break
+        score, f0, mi, hh = best
+        res = f[mi] - hh * f0
+        sigma = math.sqrt(float(np.sum(res ** 2)) / max(1, mi.size - 1) / float(np.sum(hh ** 2)))
+        top = hh >= max(1.0, 0.6 * hh.max())
+        low = hh[hh <= 12]
+        odd_only = bool(low.size >= 3 and np.all(low % 2 == 1))
+        notes.append({"f0_hz": f0, "sigma_hz": sigma, "power": score, "odd_only": odd_only,
+                      "top_power": float(np.median(p[mi][top])), "top_order": float(np.median(hh[top]))})
+        h = np.round(f / f0)
+        alive &= ~((h >= 1) & (np.abs(f - h * f0) <= NOTE_TOLERANCE_BINS * bin_hz + NOTE_TOLERANCE_REL * f))
+    return notes
 
 
-def lobe_power(power: np.ndarray, f_hz, bin_hz: float, half: int = LOBE_BINS) -> np.ndarray:
-    """Power in +-``half`` bins around each frequency (the window's main lobe)."""
-    idx = np.round(np.asarray(f_hz) / bin_hz).astype(int)
-    out = np.zeros(idx.size)
-    n = power.size
-    for j in range(-half, half + 1):
-        ii = np.clip(idx + j, 0, n - 1)
-        out += power[ii]
+def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
+    """The polyphonic fold test on one frame's power spectrum.
+
+    Peaks are found and notes estimated (:func:`estimate_notes`).  For each note and each order
+    k with ``fs/2 < k*f0 <= POLY_MAX_RATIO*fs`` the predicted fold position ``|k*f0 - m*fs|`` is
+    read as the level over the local floor (dB, the highest within ``0.6 bin + 3*k*sigma_f0``,
+    at most 2 bins), away from every harmonic of every note.  The mean level over the note's
+    fold comb is compared with the same comb moved to other offsets from the harmonic grid
+    (:data:`CONTROL_SHIFTS`): the note instance is evidence of folding when its comb stands
+    above every control comb, by :data:`FOLD_LEVEL_EXCESS_DB` over their median.
+
+    Returns None when no note was found (noise-like or silent frame), else a dict with
+    ``tested`` (fold positions tested), ``instances`` (notes with enough positions and
+    controls), ``evident`` (those showing folds), ``chance`` (their expected number under no
+    folding, sum of 1/(controls + 1)), ``alias_power`` (power at the evident folds),
+    ``harmonic_power``, ``f0_hz`` and ``evident_f0_hz``.
+    """
+    floor = block_floor(power)
+    peaks = find_lines(power, floor, POLY_LINE_DB)
+    if peaks.size < NOTE_MIN_PEAKS:
+        return None
+    peaks = peaks[power[peaks] >= float(power.max()) * 10 ** (-POLY_RANGE_DB / 10)]
+    if peaks.size < NOTE_MIN_PEAKS:
+        return None
+    fr = refine_peaks(power, peaks) * bin_hz
+    pw = power[peaks]
+    notes = estimate_notes(fr, pw, bin_hz)
+    if not notes:
+        return None
+    nyq = fs / 2.0
+    # every note's harmonics, each with its own uncertainty (3 sigma of f0 times the order, plus
+    # the smear of a vibrato within the frame that the residuals show): fold and control
+    # positions keep clear of a harmonic by that much more than the main lobe
+    orders = [np.arange(1, int(nyq / n["f0_hz"]) + 1) for n in notes]
+    harm_all = np.concatenate([n["f0_hz"] * j for n, j in zip(notes, orders)])
+    unc_all = np.concatenate([3.0 * n["sigma_hz"] * j for n, j in zip(notes, orders)])
+    order_h = np.argsort(harm_all)
+    harm, harm_unc = harm_all[order_h], unc_all[order_h]
+    # level over the local floor, dB, and its running maxima over +-1..2 bins
+    level = 10.0 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
+    from scipy.ndimage import maximum_filter1d
+    level_max = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
+    out = {"tested": 0, "instances": 0, "evident": 0, "chance": 0.0, "alias_power": 0.0,
+           "harmonic_power": float(sum(n["power"] for n in notes)), "f0_hz": [n["f0_hz"] for n in notes],
+           "evident_f0_hz": []}
+
+    def mean_level(pos, tol, ok):
+        half = np.clip(np.ceil(tol[ok] / bin_hz - 0.5).astype(np.int64), 0, 2)
+        ib = np.clip(np.round(pos[ok] / bin_hz).astype(np.int64), 0, level.size - 1)
+        return np.clip(np.choose(half, [lm[ib] for lm in level_max]), 0.0, 40.0), ib
+
+    for note in notes:
+        f0 = note["f0_hz"]
+        k = np.arange(int(nyq // f0) + 1, int(POLY_MAX_RATIO * fs / f0) + 1)
+        if k.size == 0:
+            continue
+        base = fold_frequency(k * f0, fs)
+        tol = 0.6 * bin_hz + 3.0 * k * note["sigma_hz"]
+        frac = np.mod(base / f0, 1.0)
+        rho = np.minimum(frac, 1.0 - frac)
+        zone_ok = (rho > ZONE_GRID_GUARD) & (tol < 0.2 * f0)
+        predicted = note["top_power"] * (note["top_order"] / k) ** 2
+        # only folds the note's spectrum makes strong enough to stand out are tested; a note
+        # with odd harmonics only (square-like) has no even-order partials to fold
+        fl = floor[np.clip(np.round(base / bin_hz).astype(np.int64), 0, floor.size - 1)]
+        zone_ok &= predicted >= fl * 10 ** (POLY_PREDICTED_DB / 10)
+        if note["odd_only"]:
+            zone_ok &= (k % 2) == 1
+        d_pos, jh = _nearest_distance(harm, base)
+        ok = zone_ok & (base > 3 * bin_hz) & (base < POLY_TOP_FRACTION * fs) & \
+            (d_pos > POLY_GUARD_BINS * bin_hz + tol + harm_unc[jh])
+        if int(ok.sum()) < MIN_CLEAR_FOLDS:
+            continue
+        lv_true, ib = mean_level(base, tol, ok)
+        # controls: the fold comb moved to other offsets from the harmonic grid, away from the
+        # grid and from every offset a fold zone of this note occupies
+        offsets = np.unique(np.round(frac[ok], 3))
+        # a control comb stays clear of the true combs and the grid by the search window
+        # (tolerance, counted up to 1 bin) plus the window's main lobe (2 bins)
+        guard = max(CONTROL_GUARD, (min(float(np.median(tol[ok])), bin_hz) + 2.0 * bin_hz) / f0)
+        controls = []
+        for shift in CONTROL_SHIFTS:
+            moved = np.mod(offsets + shift, 1.0)
+            dist = np.abs(moved[:, None] - np.concatenate([offsets, [0.0, 1.0]])[None, :])
+            if np.any(np.minimum(dist, 1.0 - dist) < guard):
+                continue
+            pos = base + shift * f0
+            d_c, jc = _nearest_distance(harm, pos)
+            okc = zone_ok & (pos > 3 * bin_hz) & (pos < POLY_TOP_FRACTION * fs) & \
+                (d_c > POLY_GUARD_BINS * bin_hz + tol + harm_unc[jc])
+            if int(okc.sum()) >= MIN_CLEAR_FOLDS:
+                controls.append(float(np.mean(mean_level(pos, tol, okc)[0])))
+        if len(controls) < MIN_CONTROLS:
+            continue
+        out["tested"] += int(ok.sum())
+        out["instances"] += 1
+        out["chance"] += 1.0 / (len(controls) + 1)
+        l_true = float(np.mean(lv_true))
+        if l_true > max(controls) and l_true - float(np.median(controls)) >= FOLD_LEVEL_EXCESS_DB:
+            out["evident"] += 1
+            out["evident_f0_hz"].append(f0)
+            out["alias_power"] += float(np.sum(power[ib[lv_true >= POLY_LINE_DB]]))
     return out
 
 
-def analyse_tonal_frame(power: np.ndarray, bin_hz: float, fs: float):
-    """Alias analysis of one frame's power spectrum (one-sided, ``bin_hz`` spacing).
-
-    Returns None when the frame is not tonal, else a dict with ``f0_hz``,
-    ``assessable``, ``harmonic_power``, ``alias_power`` (excess over the floor at
-    the clear fold positions), ``clear`` (number of clear positions) and ``found``
-    (alias lines found there).
-    """
-    floor = local_floor(power)
-    lines = find_lines(power, floor, LINE_DB)
-    if lines.size < 3:
-        return None
-    lobe = np.zeros(power.size, dtype=bool)
-    for k in lines:
-        lobe[max(0, k - LOBE_BINS):k + LOBE_BINS + 1] = True
-    total = float(power.sum())
-    if not total > 0 or power[lobe].sum() < MIN_TONAL_FRACTION * total:
-        return None
-    freqs = refine_peaks(power, lines) * bin_hz
-    f0 = harmonic_fundamental(freqs, power[lines], min_f0_hz=MIN_F0_HZ, tolerance_hz=0.3 * bin_hz)
-    if f0 is None:
-        return None
-    harmonics, folds, _orders = fold_plan(f0, fs, bin_hz)
-    h_pow = float(lobe_power(power, harmonics, bin_hz).sum())
-    out = {"f0_hz": f0, "assessable": folds.size >= MIN_CLEAR_FOLDS, "harmonic_power": h_pow,
-           "alias_power": 0.0, "clear": int(folds.size), "found": 0, "bound_power": 0.0}
-    if not out["assessable"] or not h_pow > 0:
-        out["assessable"] = False
-        return out
-    a_pow = lobe_power(power, folds, bin_hz)
-    f_pow = lobe_power(floor, folds, bin_hz)
-    out["alias_power"] = float(np.maximum(a_pow - f_pow, 0.0).sum())
-    idx = np.round(folds / bin_hz).astype(int)
-    n = power.size
-    best = np.max(np.stack([power[np.clip(idx + j, 1, n - 2)] for j in (-1, 0, 1)]), axis=0)
-    level = floor[np.clip(idx, 0, n - 1)] * 10 ** (ALIAS_LINE_DB / 10)
-    out["found"] = int(np.sum(best >= level))
-    # the most power undetected alias lines could hold at these positions
-    out["bound_power"] = float(np.sum(level) * UNDETECTED_LINE_POWER_FACTOR)
-    return out
+def fold_evidence(evident: int, instances: int, chance: float) -> bool:
+    """Folding is evident when enough note instances show their predicted fold comb above every
+    control: at least :data:`MIN_EVIDENT_INSTANCES`, at least :data:`MIN_EVIDENT_SHARE` of the
+    instances tested, and well beyond the number expected by chance (each instance beats all
+    of its c controls with probability 1/(c+1) under no folding)."""
+    return (evident >= MIN_EVIDENT_INSTANCES and evident >= MIN_EVIDENT_SHARE * instances
+            and evident >= CHANCE_FACTOR * chance + 1.0)
 
 
 def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: float):
@@ -294,39 +418,48 @@ class AliasingAnalyzer(Analyzer):
     measurement_schema = {
         "aliasing_detected": measured(BOOLEAN_OR_NULL, NO_UNIT,
             'folded (aliased) partials found; null when not assessable'),
-        "aliasing_score": measured({
+        "alias_to_harmonic_ratio_db": measured({
             **NUMBER_OR_NULL,
             "description": ("alias-to-harmonic energy ratio, dB: power of the alias lines found at the "
-            "predicted fold frequencies |k*f0 - m*fs| over the harmonic power, on the tonal "
-            "frames where alias lines were found; null when no alias line was found above "
-            "the floor (then aliasing_detail.score_upper_bound_db gives the floor-limited "
-            "upper bound) or nothing was assessable"),
-            }, 'db',
-            'alias-to-harmonic energy ratio on tonal frames with alias lines; null when none found or not assessable'),
+                            "predicted fold frequencies |k*f0 - m*fs| over the harmonic power, on the "
+                            "frames where alias lines were found; null unless folded content was found "
+                            "(on assessable clean material aliasing_detail.score_upper_bound_db gives the "
+                            "floor-limited upper bound).  Called aliasing_score up to 0.1.0"),
+            }, 'db', 'alias-to-harmonic energy ratio where folded content was found; null otherwise'),
         "aliasing_assessable": measured(BOOLEAN, NO_UNIT,
             'the material had tonal frames on which aliasing could be assessed'),
+        "aliasing_assessable_fraction": measured({
+            **NUMBER_OR_NULL,
+            "description": ("share of the analysed frames (spread over the file) in which at least one note "
+                            "was found with fold positions that can be tested, 0..1; null for an empty file"),
+            }, 'fraction', 'share of analysed frames in which folding could be tested'),
         "aliasing_detail": measured({
             "type": "object",
             "properties": {
-            "reason": {"type": ["string", "null"]},
-            "tonal_frames": {"type": "integer"},
-            "assessable_frames": {"type": "integer"},
-            "frames_with_alias_lines": {"type": "integer"},
-            "median_f0_hz": NUMBER_OR_NULL,
-            "alias_lines_found": {"type": "integer"},
-            "fold_positions_tested": {"type": "integer"},
-            "score_upper_bound_db": {
-            **NUMBER_OR_NULL,
-            "description": ("when aliasing_score is null on assessable material: the highest "
-            "alias-to-harmonic ratio, dB, that alias lines escaping detection at "
-            "every fold position tested could reach (floor-limited)"),
+                "reason": {"type": ["string", "null"]},
+                "tonal_frames": {"type": "integer"},
+                "assessable_frames": {"type": "integer"},
+                "frames_with_alias_lines": {"type": "integer"},
+                "median_f0_hz": NUMBER_OR_NULL,
+                "alias_lines_found": {"type": "integer"},
+                "fold_positions_tested": {"type": "integer"},
+                "score_upper_bound_db": {
+                    **NUMBER_OR_NULL,
+                    "description": ("when alias_to_harmonic_ratio_db is null on assessable material: the highest "
+                                    "alias-to-harmonic ratio, dB, that alias lines escaping detection at "
+                                    "every fold position tested could reach (floor-limited)"),
+                },
+                "polyphonic_frames": {"type": "integer"},
+                "polyphonic_assessable_frames": {"type": "integer"},
+                "polyphonic_fold_positions_tested": {"type": "integer"},
+                "polyphonic_note_instances": {"type": "integer"},
+                "polyphonic_instances_with_folds": {"type": "integer"},
+                "polyphonic_instances_expected_by_chance": {"type": "number"},
+                "folded_partials": {"type": "integer"},
+                "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
+                "fold_examples": {"type": "array", "items": {"type": "object"}},
             },
-            "folded_partials": {"type": "integer"},
-            "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
-            "fold_examples": {"type": "array", "items": {"type": "object"}},
-            },
-            }, NO_UNIT,
-            'the aliasing assessment in detail'),
+            }, NO_UNIT, 'the aliasing assessment in detail'),
     }
 
     def __init__(self, info, options):
@@ -352,14 +485,27 @@ class AliasingAnalyzer(Analyzer):
                                   "tolerance_hz": tol, "window": np.hanning(n + 2)[1:-1],
                                   "picker": FramePicker(starts, n + hop, ch), "tracks": []})
         self.frames = []   # per tonal long frame: (start, result dict)
+        # polyphonic fold test frames
+        self.n_poly = int(round(self.fs / POLY_BIN_HZ))
+        self.win_poly = np.hanning(self.n_poly + 2)[1:-1]
+        starts = frame_starts(int(info.frames), self.n_poly, int(extra.get("max_poly_frames", MAX_POLY_FRAMES)),
+                              self.n_poly // 2, seed=4)
+        self.pick_poly = FramePicker(starts, self.n_poly, ch)
+        self.poly = []     # per polyphonic frame: (start, result dict or None, has signal)
 
     def process(self, block) -> None:
         for start, frame in self.pick_long.feed(block):
             spec = np.fft.rfft(frame.T * self.win_long, axis=-1)
             power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
-            r = analyse_tonal_frame(power, self.bin_long, self.fs)
+            r = analyse_tonal_frame(power, self.bin_long, self.fs, max_fold_hz=POLY_TOP_FRACTION * self.fs)
             if r is not None:
                 self.frames.append((int(start), r))
+        for start, frame in self.pick_poly.feed(block):
+            spec = np.fft.rfft(frame.T * self.win_poly, axis=-1)
+            power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
+            has_signal = bool(np.any(frame))
+            r = polyphonic_fold_frame(power, self.fs / self.n_poly, self.fs) if has_signal else None
+            self.poly.append((int(start), r, has_signal))
         for tr in self.trackers:
             n, hop, win = tr["n"], tr["hop"], tr["window"]
             for start, frame in tr["picker"].feed(block):
@@ -374,15 +520,27 @@ class AliasingAnalyzer(Analyzer):
         tonal = [r for _s, r in self.frames]
         assess = [(s, r) for s, r in self.frames if r["assessable"]]
         h = sum(r["harmonic_power"] for _s, r in assess)
-        a = sum(r["alias_power"] for _s, r in assess)
         evident = [(s, r) for s, r in assess if r["found"] >= max(MIN_CLEAR_FOLDS, MIN_FOUND_FRACTION * r["clear"])]
-        # the ratio is quoted only where alias lines were found, in enough of the frames
+        # the steady-tone ratio is quoted only where alias lines were found, in enough of the frames
         enough = bool(evident) and len(evident) >= max(1, 0.5 * len(assess))
         score = None
         if enough:
             h_e = sum(r["harmonic_power"] for _s, r in evident)
             a_e = sum(r["alias_power"] for _s, r in evident)
             score = 10.0 * math.log10(a_e / h_e) if a_e > 0 and h_e > 0 else None
+        line_hit = enough and score is not None and score >= ALIAS_SCORE_MIN_DB
+        # the polyphonic test: note instances whose fold comb stands above every control comb
+        poly_signal = [(s, r) for s, r, sig in self.poly if sig]
+        poly_assess = [(s, r) for s, r in poly_signal if r is not None and r["instances"] > 0]
+        instances = sum(r["instances"] for _s, r in poly_assess)
+        evident_n = sum(r["evident"] for _s, r in poly_assess)
+        chance = sum(r["chance"] for _s, r in poly_assess)
+        poly_hit = fold_evidence(evident_n, instances, chance)
+        poly_frames = [(s, r) for s, r in poly_assess if r["evident"] > 0]
+        if score is None and poly_hit and poly_frames:
+            h_p = sum(r["harmonic_power"] for _s, r in poly_frames)
+            a_p = sum(r["alias_power"] for _s, r in poly_frames)
+            score = 10.0 * math.log10(a_p / h_p) if a_p > 0 and h_p > 0 else None
         bound = None
         if score is None and assess and h > 0:
             b = sum(r["bound_power"] for _s, r in assess)
@@ -390,35 +548,53 @@ class AliasingAnalyzer(Analyzer):
         reflections = []
         for tr in self.trackers:
             reflections += find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"])
+        f0s = [r["f0_hz"] for r in tonal] or [f for _s, r in poly_assess for f in r["f0_hz"][:1]]
+        n_poly = len(self.poly)
+        fraction = (len(poly_assess) / n_poly) if n_poly else None
         detail = {
             "reason": None,
             "tonal_frames": len(tonal),
             "assessable_frames": len(assess),
             "frames_with_alias_lines": len(evident),
-            "median_f0_hz": round(float(np.median([r["f0_hz"] for r in tonal])), 3) if tonal else None,
+            "median_f0_hz": round(float(np.median(f0s)), 3) if f0s else None,
             "alias_lines_found": int(sum(r["found"] for _s, r in assess)),
             "fold_positions_tested": int(sum(r["clear"] for _s, r in assess)),
             "score_upper_bound_db": None if bound is None else round(bound, 2),
+            "polyphonic_frames": n_poly,
+            "polyphonic_assessable_frames": len(poly_assess),
+            "polyphonic_fold_positions_tested": int(sum(r["tested"] for _s, r in poly_assess)),
+            "polyphonic_note_instances": int(instances),
+            "polyphonic_instances_with_folds": int(evident_n),
+            "polyphonic_instances_expected_by_chance": round(float(chance), 2),
             "folded_partials": len(reflections),
             "where_s": [],
             "fold_examples": [],
         }
-        line_hit = enough and score is not None and score >= ALIAS_SCORE_MIN_DB
-        detected = line_hit or bool(reflections)
-        assessable = bool(assess) or bool(reflections)
+        # the steady-tone test assumes one harmonic series per frame: in polyphonic material other
+        # notes' partials can sit at its fold positions, so its lines count only where the
+        # polyphonic test also sees more hits than chance would give
+        # (with no testable instance, the steady-tone lines alone must show in at least
+        # MIN_LINE_ONLY_FRAMES frames: a syllable or two of speech can look like one series)
+        line_hit = line_hit and ((instances == 0 and len(evident) >= MIN_LINE_ONLY_FRAMES)
+                                 or (instances > 0 and evident_n >= chance + 2.0 and evident_n >= 0.25 * instances))
+        detected = line_hit or poly_hit or bool(reflections)
+        assessable = bool(assess) or bool(poly_assess) or bool(reflections)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
+        if poly_hit:
+            dur = self.n_poly / self.fs
+            detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in poly_frames]
         if reflections:
             detail["where_s"] = list(detail["where_s"]) + [(t1, t2) for t1, _f1, t2, _f2 in reflections]
             detail["fold_examples"] = [{"rising_hz": round(f1, 1), "at_s": round(t1, 3),
                                         "folded_hz": round(f2, 1), "folded_at_s": round(t2, 3)}
                                        for t1, f1, t2, f2 in reflections[:5]]
         if not assessable:
-            if self.pick_long.starts.size == 0:
+            if self.pick_long.starts.size == 0 and self.pick_poly.starts.size == 0:
                 detail["reason"] = (f"not assessable: shorter than one analysis frame "
-                                    f"({self.n_long / self.fs:.2f} s)")
-            elif not tonal:
+                                    f"({self.n_poly / self.fs:.2f} s)")
+            elif not tonal and not any(r is not None for _s, r in poly_signal):
                 detail["reason"] = "not assessable: no tonal passage (noise-like material is never judged)"
             else:
                 detail["reason"] = ("not assessable: the fold frequencies land on the harmonics (the "
@@ -429,12 +605,18 @@ class AliasingAnalyzer(Analyzer):
             if line_hit:
                 parts.append(f"alias lines at the predicted fold frequencies of partials above Nyquist, "
                              f"{score:.1f} dB relative to the harmonics")
+            if poly_hit:
+                parts.append(f"in {evident_n} of {instances} note instances the partials at the predicted fold "
+                             f"positions stand above every control position (about {chance:.0f} expected by chance)")
             if reflections:
                 parts.append(f"{len(reflections)} partial track(s) reflected at Nyquist (falling while "
                              "rising partials approach it)")
             detail["reason"] = "; ".join(parts)
         else:
-            if score is not None:
+            if score is not None and score >= ALIAS_SCORE_MIN_DB:
+                detail["reason"] = (f"alias lines at the fold frequencies in {len(evident)} steady-tone frame(s), "
+                                    "not confirmed by the polyphonic test: too few to call the material aliased")
+            elif score is not None:
                 detail["reason"] = f"no alias lines above {ALIAS_SCORE_MIN_DB:.0f} dB at the fold frequencies"
             elif evident:
                 detail["reason"] = (f"alias lines in only {len(evident)} of {len(assess)} assessable tonal "
@@ -444,20 +626,24 @@ class AliasingAnalyzer(Analyzer):
                                     f"fold positions tested (alias-to-harmonic ratio below about {bound:.0f} dB, "
                                     "floor-limited)")
             else:
-                detail["reason"] = "no folded partials found"
+                detail["reason"] = (f"no folded partials found: in {evident_n} of {instances} note instances "
+                                    f"the predicted fold positions stand out, about {chance:.0f} expected by chance")
         detail["where_s"] = _merge(detail["where_s"])
+        if not detected:
+            score = None
         measurements = {
             "aliasing_detected": detected,
-            "aliasing_score": None if score is None else round(score, 2),
+            "alias_to_harmonic_ratio_db": None if score is None else round(score, 2),
             "aliasing_assessable": assessable,
+            "aliasing_assessable_fraction": None if fraction is None else round(fraction, 3),
             "aliasing_detail": detail,
         }
         settings = {"tonal_frame_samples": self.n_long, "tonal_frames_max": self.pick_long.starts.size,
+                    "polyphonic_frame_samples": self.n_poly, "polyphonic_frames": int(self.pick_poly.starts.size),
                     "track_frame_samples": [tr["n"] for tr in self.trackers],
                     "track_hop_samples": [tr["hop"] for tr in self.trackers],
                     "track_pairs": [int(tr["picker"].starts.size) for tr in self.trackers],
-                    "alias_score_min_db": ALIAS_SCORE_MIN_DB,
-                    "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
+                    "alias_score_min_db": ALIAS_SCORE_MIN_DB, "min_evident_share": MIN_EVIDENT_SHARE, "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
         return AnalyzerResult(measurements=measurements, settings=settings)
 
 

@@ -65,6 +65,7 @@ import numpy as np
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import power_ratio_db
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, AnalyzerResult, array_of)
+from masterqc.measure.frames import FramePicker, frame_starts, harmonic_fundamental, refine_peak, refine_peaks
 
 #: standard source rates that are tested when they are below the file's rate
 CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400)
@@ -132,27 +133,6 @@ FOLD_CHECK_FRAMES = 8
 LINE_PROMINENCE_DB = 20.0
 
 
-
-def frame_starts(total_frames: int, frame_len: int, max_frames: int, min_hop: int, seed: int = 0) -> np.ndarray:
-    """Start positions of at most ``max_frames`` frames of ``frame_len`` samples spread over
-    ``total_frames`` samples: one frame at a pseudo-random place inside each of ``count``
-    equal strata (stratified jitter, fixed ``seed``, so results are reproducible).
-
-    Irregular spacing matters: with frames on a regular grid of hop H, two unrelated
-    components whose frequencies sum to alpha + k/H (any integer k) would look phase-locked.
-    Strata are at least ``min_hop`` samples wide.  Integers, ascending.
-    """
-    if total_frames < frame_len:
-        return np.zeros(0, dtype=np.int64)
-    span = total_frames - frame_len
-    count = int(min(max_frames, span // max(1, min_hop) + 1))
-    if count <= 1:
-        return np.zeros(1, dtype=np.int64)
-    u = np.random.default_rng(seed).random(count)
-    starts = np.floor((np.arange(count) + u) * (span + 1) / count).astype(np.int64)
-    return np.clip(starts, 0, span)
-
-
 def null_coherence_bias(starts, window) -> float:
     """Expected squared coherence of two independent noises over frames at ``starts``.
 
@@ -173,64 +153,6 @@ def null_coherence_bias(starts, window) -> float:
     d = np.abs(s[:, None] - s[None, :])
     rho = np.where(d < n, ac[np.minimum(d, n - 1)], 0.0)
     return float(np.sum(rho ** 2)) / (m * m)
-
-
-class FramePicker:
-    """Cut frames at fixed absolute sample positions out of a stream of blocks.
-
-    Results never depend on the block size: frames are taken at the positions
-    given up front, whatever blocks they straddle.  Only the samples a pending
-    frame needs are kept between blocks (as a list of pieces, joined once when a
-    frame completes), so blocks with no frame cost nothing and tiny blocks cost
-    no repeated copying.
-    """
-
-    def __init__(self, starts, frame_len: int, channels: int):
-        self.starts = np.asarray(starts, dtype=np.int64)
-        self.frame_len = int(frame_len)
-        self.channels = channels
-        self.next = 0
-        self.pos = 0          # absolute index of the next block's first sample
-        self.pieces = []      # consecutive samples from buf_start up to pos
-        self.buf_start = 0
-
-    def _joined(self):
-        if len(self.pieces) != 1:
-            self.pieces = [np.concatenate(self.pieces) if self.pieces else np.zeros((0, self.channels))]
-        return self.pieces[0]
-
-    def feed(self, block):
-        """Yield ``(start, frame)`` for every frame that ``block`` completes."""
-        blk_start = self.pos
-        blk_end = blk_start + block.shape[0]
-        self.pos = blk_end
-        n = self.frame_len
-        if self.next >= len(self.starts):
-            return
-        s = int(self.starts[self.next])
-        if s >= blk_end:                      # nothing of this block is needed
-            self.pieces, self.buf_start = [], blk_end
-            return
-        if not self.pieces:
-            self.buf_start = max(s, blk_start)
-        self.pieces.append(block[max(0, self.buf_start - blk_start):])
-        while self.next < len(self.starts):
-            s = int(self.starts[self.next])
-            if s + n > blk_end:
-                break
-            buf = self._joined()
-            yield s, buf[s - self.buf_start:s - self.buf_start + n]
-            self.next += 1
-        if self.next >= len(self.starts):
-            self.pieces = []
-            return
-        s = int(self.starts[self.next])
-        if s >= blk_end:
-            self.pieces, self.buf_start = [], blk_end
-        elif s > self.buf_start:
-            buf = self._joined()
-            self.pieces = [np.array(buf[s - self.buf_start:])]
-            self.buf_start = s
 
 
 def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None):
@@ -293,74 +215,6 @@ def spectral_lines(power: np.ndarray, prominence_db: float = LINE_PROMINENCE_DB,
     ratio = p / np.maximum(floor, tiny)
     peak = (p[1:-1] >= p[:-2]) & (p[1:-1] >= p[2:]) & (ratio[1:-1] >= 10 ** (prominence_db / 10))
     return np.nonzero(peak)[0] + 1
-
-
-def refine_peak(power: np.ndarray, k: int) -> float:
-    """Fractional bin of the peak at ``k`` (parabola through the log powers of k-1, k, k+1)."""
-    if k <= 0 or k >= len(power) - 1:
-        return float(k)
-    a, b, c = (math.log(max(float(v), 1e-300)) for v in power[k - 1:k + 2])
-    den = a - 2 * b + c
-    if den >= 0:
-        return float(k)
-    return k + 0.5 * (a - c) / den
-
-
-def refine_peaks(power: np.ndarray, ks) -> np.ndarray:
-    """Vectorised :func:`refine_peak` for an array of peak bins."""
-    k = np.asarray(ks, dtype=np.int64)
-    out = k.astype(float)
-    inner = (k > 0) & (k < len(power) - 1)
-    if not inner.any():
-        return out
-    ki = k[inner]
-    a = np.log(np.maximum(power[ki - 1], 1e-300))
-    b = np.log(np.maximum(power[ki], 1e-300))
-    c = np.log(np.maximum(power[ki + 1], 1e-300))
-    den = a - 2 * b + c
-    shift = np.where(den < 0, 0.5 * (a - c) / np.where(den < 0, den, -1.0), 0.0)
-    out[inner] = ki + shift
-    return out
-
-
-def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz: float = 3.0,
-                         min_harmonics: int = 3, min_explained: float = 0.8, min_density: float = 0.3):
-    """The fundamental of a harmonic series that explains the given spectral lines, or None.
-
-    ``freqs_hz``/``powers``: line frequencies and powers.  A candidate fundamental
-    (a line frequency divided by 1..8, at least ``min_f0_hz``) is accepted when the
-    lines within ``tolerance_hz + 1e-4*f`` of its multiples carry
-    at least ``min_explained`` of the line power, at least ``min_harmonics`` lines match
-    and the matched harmonic numbers fill at least ``min_density`` of 1..highest match
-    (a real series is dense; two unrelated lines always share some tiny common divisor).
-    The largest accepted fundamental is returned, refined by least squares over the
-    matched lines.
-    """
-    f = np.asarray(freqs_hz, dtype=float)
-    p = np.asarray(powers, dtype=float)
-    if f.size < min_harmonics:
-        return None
-    order = np.argsort(p)[::-1][:12]
-    total = p.sum()
-    best = None
-    for i in order:
-        for n in range(1, 9):
-            f0 = f[i] / n
-            if f0 < min_f0_hz:
-                break
-            h = np.round(f / f0)
-            ok = (h >= 1) & (np.abs(f - h * f0) <= tolerance_hz + 1e-4 * f)
-            if ok.sum() < min_harmonics:
-                continue
-            if p[ok].sum() < min_explained * total:
-                continue
-            hs = np.unique(h[ok])
-            if len(hs) < min_density * hs.max():
-                continue
-            f0_ls = float(np.sum(f[ok] * h[ok]) / np.sum(h[ok] ** 2))
-            if best is None or f0_ls > best * 1.01:
-                best = f0_ls
-    return best
 
 
 def locked_order(f0: float, rate: float, fs: float, tolerance_hz: float, max_order: int | None = None):
@@ -436,7 +290,7 @@ class ImagingAnalyzer(Analyzer):
         nb = self.n_fft // 2 + 1
         self.power = np.zeros((info.channels, nb))
         # a few long Blackman-Harris frames to recognise periodic material with folded partials
-        from masterqc.measure import aliasing as _al
+        from masterqc.measure import frames as _al
         self._al = _al
         self.n_tonal = int(round(self.fs / _al.TONAL_BIN_HZ))
         self.win_tonal = _al.blackman_harris(self.n_tonal)

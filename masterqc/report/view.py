@@ -483,7 +483,7 @@ def _conversion_targets(result: dict) -> list[float]:
 
 #: measurement keys shown beside the long-term spectrum, in this order of prefixes
 _SPECTRAL_PREFIXES = ("bandwidth_note", "effective_bandwidth", "bandwidth", "band_limit", "upsampled",
-                      "imaging", "imaged", "aliasing", "aliased", "ultrasonic")
+                      "imaging", "imaged", "aliasing", "alias_to_harmonic", "aliased", "ultrasonic")
 
 
 def _spectral_order(key: str):

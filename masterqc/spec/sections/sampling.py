@@ -7,7 +7,7 @@
       band_limited: {allowed: [false], severity: warn}       # no steep low-pass at another frequency
       imaging: [false]                    # no mirror images left by an unfiltered upsampler
       aliasing: [false]                   # no folded partials
-      aliasing_score: {max_db: -40.0}     # alias-to-harmonic ratio where assessable
+      alias_to_harmonic_ratio: {max_db: -40.0}   # alias-to-harmonic ratio where assessable
       ultrasonic_from_hz: 20000           # lower edge of the ultrasonic band
       ultrasonic_energy: {max_db: -30.0, severity: warn}     # whole file, relative to the audible band
       ultrasonic_energy_3s: {max_db: -20.0, severity: warn}  # worst 3 s window
@@ -63,7 +63,7 @@ class Section(SpecModel):
         None, description="allowed values of 'mirror images of an unfiltered upsampler found', e.g. [false]")
     aliasing: allowed(bool, "false") | None = Field(
         None, description="allowed values of 'folded (aliased) content found', e.g. [false]")
-    aliasing_score: ceiling("db") | None = Field(
+    alias_to_harmonic_ratio: ceiling("db") | None = Field(
         None, description="highest alias-to-harmonic ratio allowed on tonal passages, dB")
     ultrasonic_from_hz: float | None = Field(
         None, ge=10000.0, le=96000.0, description="lower edge of the ultrasonic band, Hz (default 20000)")

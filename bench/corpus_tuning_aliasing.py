@@ -1,0 +1,398 @@
+"""Tuning corpus for the folded-content (aliasing) detector, in the shared case format.
+
+Set "tuning", seeds 1000-1999.  Everything here is synthesised by this module's own code
+(naive oscillators, additive twins, unfiltered decimation) except the filtered negatives,
+which use scipy's ``resample_poly``.  Rates 44.1, 48 and 96 kHz; 8-12 s per case.
+
+Groups and what they expect (``expect["aliasing_detected"]``):
+
+- ``naive-synth`` (True): 2-4 overlapping voices of naively sampled oscillators (the
+  discontinuous waveform evaluated at the sample instants), each note with an ADSR
+  envelope and a slight vibrato; families ``naive-saw``, ``naive-square``, ``naive-pulse``,
+  ``naive-hardsync``, and ``naive-saw-melody`` (one voice, f0 1-2 kHz, slight vibrato).
+- ``decimation`` (True): band-limited tonal music made at 2x or 3x the target rate, mixed
+  with noise, then decimated by keeping every 2nd/3rd sample (families ``drop-2``,
+  ``drop-3``) or by nearest-sample picking at a non-integer ratio (``drop-nearest``).
+- ``band-limited-synth`` (False): the additive twin of every naive-synth case: the same
+  notes, envelopes and vibrato, every partial below 0.95 of Nyquist at its highest pitch.
+- ``filtered-decimation`` (False): the decimation material through ``resample_poly``.
+- ``native`` (False): music-like mixes made at the file's own rate (harmonic notes with
+  vibrato, stretched (piano-like) partials, drums, noise bed), family ``native-mix``.
+- ``speech`` (False): voiced syllables by additive synthesis (formant envelope, pitch
+  contour) with fricative noise, family ``speech-additive``.
+- ``noise-like`` (False): noise beds, raw and dropped 2:1 (never judged: they carry no
+  evidence of their own folding; counted as a false alarm only if called aliased).
+
+Caution: several cases are bright full-band synthesis near full scale; turn monitors
+down before listening to any of them.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Iterator
+
+import numpy as np
+from scipy import signal as sps
+
+SET = "tuning"
+RATES_HZ = (44100, 48000, 96000)
+
+
+@dataclass
+class Case:
+    name: str
+    set: str
+    family: str
+    group: str
+    rate_hz: int
+    audio: np.ndarray
+    expect: dict
+    channel_labels: list | None = field(default=None)
+
+
+# ---------------------------------------------------------------- notes, envelopes, vibrato
+def adsr(n: int, fs: int, rng) -> np.ndarray:
+    """Attack-decay-sustain-release envelope over ``n`` samples (random stage times)."""
+    a = int(rng.uniform(0.005, 0.06) * fs)
+    d = int(rng.uniform(0.05, 0.3) * fs)
+    r = int(rng.uniform(0.05, 0.4) * fs)
+    s = rng.uniform(0.4, 0.9)
+    env = np.full(n, s)
+    a, d, r = min(a, n // 4), min(d, n // 4), min(r, n // 3)
+    env[:a] = np.linspace(0.0, 1.0, a, endpoint=False)
+    env[a:a + d] = np.linspace(1.0, s, d, endpoint=False)
+    if r:
+        env[n - r:] *= np.linspace(1.0, 0.0, r)
+    return env
+
+
+def pitch_track(f0: float, n: int, fs: int, rng, depth: float | None = None) -> np.ndarray:
+    """Instantaneous frequency of one note: ``f0`` with a slight vibrato (rate 4.5-6.5 Hz,
+    depth 0.15-0.8 % unless given, fading in over the first 0.1-0.4 s)."""
+    t = np.arange(n) / fs
+    rate = rng.uniform(4.5, 6.5)
+    dep = rng.uniform(0.0015, 0.008) if depth is None else depth
+    fade = np.clip(t / rng.uniform(0.1, 0.4), 0.0, 1.0)
+    return f0 * (1.0 + dep * fade * np.sin(2 * math.pi * rate * t + rng.uniform(0, 2 * math.pi)))
+
+
+def voices(seconds: float, fs: int, rng, n_voices: int, f_lo: float, f_hi: float):
+    """Note list ``(start, length, f0)`` for ``n_voices`` voices playing back to back over the
+    file: notes of 0.6-2.5 s with short gaps, pitches on an equal-tempered scale."""
+    n_total = int(seconds * fs)
+    notes = []
+    lo, hi = 12 * math.log2(f_lo / 440.0), 12 * math.log2(f_hi / 440.0)
+    for _v in range(n_voices):
+        pos = int(rng.uniform(0.0, 0.4) * fs)
+        while pos < n_total - int(0.3 * fs):
+            length = min(int(rng.uniform(0.6, 2.5) * fs), n_total - pos)
+            f0 = 440.0 * 2 ** (round(rng.uniform(lo, hi)) / 12.0) * (1 + rng.uniform(-0.002, 0.002))
+            notes.append((pos, length, f0))
+            pos += length + int(rng.uniform(0.0, 0.15) * fs)
+    return notes
+
+
+# ---------------------------------------------------------------- oscillators
+def naive_shape(kind: str, ph: np.ndarray, duty: float, sync: float) -> np.ndarray:
+    """The discontinuous waveform at phase ``ph`` (cycles, in [0, 1))."""
+    if kind == "saw":
+        return 2.0 * ph - 1.0
+    if kind == "square":
+        return np.where(ph < 0.5, 1.0, -1.0)
+    if kind == "pulse":
+        return np.where(ph < duty, 1.0, -1.0) - (2.0 * duty - 1.0)
+    if kind == "hardsync":   # a slave sawtooth at sync*f0, reset at every master cycle
+        return 2.0 * np.mod(ph * sync, 1.0) - 1.0
+    raise ValueError(kind)
+
+
+def naive_note(kind: str, f_inst: np.ndarray, fs: int, phase0: float, duty: float, sync: float) -> np.ndarray:
+    ph = np.mod(phase0 + np.cumsum(f_inst) / fs, 1.0)
+    return naive_shape(kind, ph, duty, sync)
+
+
+def shape_coefficients(kind: str, duty: float, sync: float, count: int) -> np.ndarray:
+    """Complex Fourier coefficients c_1..c_count of one period of the waveform (from a
+    finely sampled period; the shape's own series, so the additive twin is exact up to
+    the truncation)."""
+    m = 1 << 16
+    ph = (np.arange(m) + 0.5) / m
+    c = np.fft.rfft(naive_shape(kind, ph, duty, sync)) / m * 2.0
+    return c[1:count + 1]
+
+
+def additive_note(kind: str, f_inst: np.ndarray, fs: int, phase0: float, duty: float, sync: float,
+                  top_hz: float) -> np.ndarray:
+    """Band-limited twin: the waveform's harmonics whose highest instantaneous frequency stays
+    below ``top_hz``, summed by complex recurrence (z**k) over the integrated phase."""
+    kmax = int(top_hz // float(np.max(f_inst)))
+    if kmax < 1:
+        return np.zeros(f_inst.size)
+    coef = shape_coefficients(kind, duty, sync, kmax)
+    theta = 2 * math.pi * (phase0 + np.cumsum(f_inst) / fs)
+    out = np.zeros(f_inst.size)
+    step = 1 << 16
+    for i in range(0, f_inst.size, step):
+        z = np.exp(1j * theta[i:i + step])
+        zk = z.copy()
+        acc = np.zeros(z.size, dtype=complex)
+        for k in range(kmax):
+            acc += coef[k] * zk
+            zk *= z
+        # the rfft of a real period holds c_k for exp(-j 2 pi k n/m); the waveform is Re(sum c_k conj(z^k))
+        out[i:i + step] = np.real(np.conj(acc))
+    return out
+
+
+def synth(notes, kind_of, seconds: float, fs: int, rng, naive: bool, depth=None):
+    """Sum of notes; ``kind_of(i)`` gives (kind, duty, sync) per note.  Same rng draws for the
+    naive and additive versions (the caller passes equal seeds)."""
+    n_total = int(seconds * fs)
+    out = np.zeros(n_total)
+    for i, (pos, length, f0) in enumerate(notes):
+        kind, duty, sync = kind_of(i)
+        f_inst = pitch_track(f0, length, fs, rng, depth)
+        env = adsr(length, fs, rng)
+        phase0 = rng.uniform(0, 1)
+        gain = rng.uniform(0.5, 1.0)
+        if naive:
+            v = naive_note(kind, f_inst, fs, phase0, duty, sync)
+        else:
+            v = additive_note(kind, f_inst, fs, phase0, duty, sync, 0.95 * fs / 2.0)
+        out[pos:pos + length] += gain * env * v
+    return out
+
+
+def normalise(x: np.ndarray, peak: float) -> np.ndarray:
+    m = float(np.max(np.abs(x)))
+    return x if m == 0 else x * (peak / m)
+
+
+# ---------------------------------------------------------------- programme material
+def pink(n: int, rng) -> np.ndarray:
+    spec = np.fft.rfft(rng.standard_normal(n))
+    f = np.arange(spec.size) / n
+    shape = 1.0 / np.sqrt(np.maximum(f, 1e-4))
+    x = np.fft.irfft(spec * shape, n)
+    return x / np.sqrt(np.mean(x ** 2))
+
+
+def tonal_music(seconds: float, fs: int, rng, top_hz: float, vibrato: bool = True, stretch: float = 0.0,
+                tilt: float = 1.0) -> np.ndarray:
+    """Band-limited polyphonic music at rate ``fs``: 2-4 voices of harmonic notes (partials
+    ``k*f0*sqrt(1 + stretch*k^2)`` with amplitudes 1/k**tilt up to ``top_hz``), ADSR envelopes,
+    optional vibrato, a bass line."""
+    n_total = int(seconds * fs)
+    out = np.zeros(n_total)
+    notes = voices(seconds, fs, rng, int(rng.integers(2, 5)), 150.0, 900.0)
+    bass = [(p, l, f / 4.0) for p, l, f in voices(seconds, fs, rng, 1, 160.0, 320.0)]
+    for pos, length, f0 in notes + bass:
+        top = top_hz if f0 >= 100.0 else min(top_hz, 6000.0)
+        f_inst = pitch_track(f0, length, fs, rng, None if vibrato else 0.0)
+        env = adsr(length, fs, rng)
+        theta = 2 * math.pi * np.cumsum(f_inst) / fs
+        v = np.zeros(length)
+        fmax = float(np.max(f_inst))
+        if stretch == 0.0:   # harmonic: complex recurrence z**k, one random phase per partial
+            kmax = int(top // fmax)
+            z = np.exp(1j * theta)
+            zk = z.copy()
+            acc = np.zeros(length, dtype=complex)
+            for k in range(1, kmax + 1):
+                acc += zk * (np.exp(1j * rng.uniform(0, 2 * math.pi)) / k ** tilt)
+                zk *= z
+            v = acc.imag
+        else:
+            k = 1
+            while True:
+                ratio = k * math.sqrt(1.0 + stretch * k * k)
+                if ratio * fmax >= top:
+                    break
+                v += np.sin(ratio * theta + rng.uniform(0, 2 * math.pi)) / k ** tilt
+                k += 1
+        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
+    return out
+
+
+def drums(seconds: float, fs: int, rng) -> np.ndarray:
+    n_total = int(seconds * fs)
+    out = np.zeros(n_total)
+    beat = rng.uniform(0.25, 0.5)
+    t = 0.1
+    while t < seconds - 0.3:
+        pos = int(t * fs)
+        m = min(int(0.25 * fs), n_total - pos)
+        tt = np.arange(m) / fs
+        if rng.random() < 0.5:   # kick: a falling sine
+            v = np.sin(2 * math.pi * (50 * tt + 80 * (1 - np.exp(-tt * 30)) / 30)) * np.exp(-tt * 12)
+        else:                    # snare/hat: noise burst
+            v = rng.standard_normal(m) * np.exp(-tt * rng.uniform(20, 60)) * 0.5
+        out[pos:pos + m] += v
+        t += beat
+    return out
+
+
+def music_mix(seconds: float, fs: int, rng, top_hz: float, noise_db: float) -> np.ndarray:
+    """Tonal music with drums and a pink noise bed ``noise_db`` below the music's RMS."""
+    x = tonal_music(seconds, fs, rng, top_hz, vibrato=rng.random() < 0.7, tilt=rng.uniform(0.8, 1.4))
+    x = x / (np.sqrt(np.mean(x ** 2)) + 1e-30)
+    if rng.random() < 0.6:
+        d = drums(seconds, fs, rng)
+        x = x + 0.5 * d / (np.sqrt(np.mean(d ** 2)) + 1e-30)
+    x = x + 10 ** (noise_db / 20) * pink(x.size, rng)
+    return x
+
+
+def speech(seconds: float, fs: int, rng) -> np.ndarray:
+    """Voiced syllables by additive synthesis: harmonics of a gliding f0 (90-260 Hz) under a
+    three-formant envelope, every harmonic below 0.9 of Nyquist; fricatives as filtered noise."""
+    n_total = int(seconds * fs)
+    out = np.zeros(n_total)
+    base = rng.uniform(90, 240)
+    pos = int(0.05 * fs)
+    formant_sets = ((730, 1090, 2440), (270, 2290, 3010), (530, 1840, 2480), (570, 840, 2410), (300, 870, 2240))
+    while pos < n_total:
+        m = min(int(rng.uniform(0.12, 0.35) * fs), n_total - pos)
+        t = np.arange(m) / fs
+        f0 = base * (1 + 0.12 * np.sin(2 * math.pi * rng.uniform(0.8, 2.5) * t + rng.uniform(0, 6))) \
+            * rng.uniform(0.85, 1.2)
+        theta = 2 * math.pi * np.cumsum(f0) / fs
+        fm = rng.permutation(np.array(formant_sets[rng.integers(len(formant_sets))], dtype=float))
+        fm = np.sort(fm)
+        v = np.zeros(m)
+        kmax = int(0.9 * fs / 2 / float(np.max(f0)))
+        for k in range(1, kmax + 1):
+            fk = k * float(np.mean(f0))
+            amp = sum(1.0 / (1.0 + ((fk - c) / (60 + 0.06 * c)) ** 2) for c in fm) / (1 + fk / 3000.0)
+            v += amp * np.sin(k * theta)
+        if rng.random() < 0.45:
+            fr = min(int(0.08 * fs), m)
+            v[:fr] += 0.3 * sps.sosfilt(sps.butter(2, [3500, min(9000, 0.45 * fs)], "band", fs=fs, output="sos"),
+                                        rng.standard_normal(fr))
+        out[pos:pos + m] += v * np.hanning(m)
+        pos += m + int(rng.uniform(0.03, 0.25) * fs)
+    out += 0.002 * pink(n_total, rng)
+    return out
+
+
+# ---------------------------------------------------------------- decimation
+def nearest_pick(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
+    """Rate change by keeping the nearest earlier input sample for each output instant
+    (sample dropping at a non-integer ratio, no filter)."""
+    n_out = int(x.size * fs_out / fs_in)
+    idx = np.floor(np.arange(n_out) * (fs_in / fs_out)).astype(np.int64)
+    return x[idx]
+
+
+# ---------------------------------------------------------------- cases
+NAIVE_KINDS = ("saw", "square", "pulse", "hardsync")
+
+
+def _kind_params(kind: str, rng):
+    if kind == "pulse":
+        d = rng.uniform(0.1, 0.35)
+        return lambda i: ("pulse", d, 1.0)
+    if kind == "hardsync":
+        s = rng.uniform(1.3, 3.2)
+        return lambda i: ("hardsync", 0.5, s)
+    return lambda i: (kind, 0.5, 1.0)
+
+
+def _case(name, family, group, fs, x, expect, peak=None, rng=None):
+    x = np.asarray(x, dtype=float)
+    if peak is not None:
+        x = normalise(x, peak)
+    return Case(name=name, set=SET, family=family, group=group, rate_hz=int(fs),
+                audio=np.clip(x, -1.0, 1.0).reshape(-1, 1), expect=expect)
+
+
+def cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """Every case of the tuning set for ``seed`` (1000-1999); ``quick``: a small slice (one or two
+    cases per family, short)."""
+    if not 1000 <= seed <= 1999:
+        raise ValueError(f"tuning seeds are 1000-1999, got {seed}")
+    seconds = 8.0 if quick else 10.0
+    reps = 1 if quick else 2
+    idx = 0
+
+    def rng_for(i):
+        return np.random.default_rng([seed, i])
+
+    # naive synthesis and its band-limited twins
+    for kind in NAIVE_KINDS + ("saw-melody",):
+        for fs in (RATES_HZ if not quick else (44100, 48000)):
+            for r in range(reps if kind != "saw-melody" else reps):
+                if quick and fs == 48000 and kind in ("square", "hardsync"):
+                    continue
+                idx += 1
+                sub = rng_for(idx)
+                peak = sub.uniform(0.3, 0.9)
+                if kind == "saw-melody":
+                    notes = voices(seconds, fs, sub, 1, 1000.0, 2000.0)
+                    kinds = _kind_params("saw", sub)
+                    fam = "naive-saw-melody"
+                else:
+                    notes = voices(seconds, fs, sub, int(sub.integers(2, 5)), 110.0, 880.0)
+                    kinds = _kind_params(kind, sub)
+                    fam = f"naive-{kind}"
+                state = sub.integers(1 << 62)
+                x = synth(notes, kinds, seconds, fs, np.random.default_rng(state), naive=True)
+                y = synth(notes, kinds, seconds, fs, np.random.default_rng(state), naive=False)
+                stem = f"{fam}-{fs // 100}-{seed}-{r}"
+                yield _case(stem, fam, "naive-synth", fs, x, {"aliasing_detected": True}, peak)
+                yield _case(f"additive-twin-{stem}", f"additive-{fam[6:]}", "band-limited-synth", fs, y,
+                            {"aliasing_detected": False}, peak)
+
+    # decimation of tonal music mixed with noise, and its properly filtered twin
+    plans = ((2, 48000), (2, 44100), (3, 48000), (3, 44100), (2, 96000))
+    if quick:
+        plans = ((2, 48000), (3, 44100))
+    for factor, fs in plans:
+        idx += 1
+        sub = rng_for(idx)
+        fs_in = factor * fs
+        src = music_mix(seconds, fs_in, sub, 0.45 * fs_in, sub.uniform(-45, -25))
+        peak = sub.uniform(0.3, 0.9)
+        stem = f"drop-{factor}-{fs // 100}-{seed}"
+        yield _case(stem, f"drop-{factor}", "decimation", fs, src[::factor], {"aliasing_detected": True}, peak)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(src, 1, factor), {"aliasing_detected": False}, peak)
+    for fs_in, fs in (((96000, 44100),) if quick else ((96000, 44100), (88200, 48000), (144000, 96000))):
+        idx += 1
+        sub = rng_for(idx)
+        src = music_mix(seconds, fs_in, sub, 0.45 * fs_in, sub.uniform(-45, -25))
+        peak = sub.uniform(0.3, 0.9)
+        stem = f"drop-nearest-{fs_in // 100}-{fs // 100}-{seed}-{idx}"
+        yield _case(stem, "drop-nearest", "decimation", fs, nearest_pick(src, fs_in, fs),
+                    {"aliasing_detected": True}, peak)
+        g = math.gcd(fs_in, fs)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(src, fs // g, fs_in // g), {"aliasing_detected": False}, peak)
+
+    # native material, speech, noise
+    for fs in (RATES_HZ if not quick else (44100, 48000)):
+        for r in range(reps):
+            idx += 1
+            sub = rng_for(idx)
+            x = music_mix(seconds, fs, sub, 0.45 * fs, sub.uniform(-50, -25))
+            yield _case(f"native-mix-{fs // 100}-{seed}-{r}", "native-mix", "native", fs, x,
+                        {"aliasing_detected": False}, sub.uniform(0.3, 0.9))
+            idx += 1
+            sub = rng_for(idx)
+            x = tonal_music(seconds, fs, sub, 0.45 * fs, vibrato=True, stretch=sub.uniform(1e-4, 6e-4))
+            x = x / np.sqrt(np.mean(x ** 2)) + 10 ** (sub.uniform(-60, -35) / 20) * pink(x.size, sub)
+            yield _case(f"native-stretched-{fs // 100}-{seed}-{r}", "native-stretched", "native", fs, x,
+                        {"aliasing_detected": False}, sub.uniform(0.3, 0.9))
+            idx += 1
+            sub = rng_for(idx)
+            yield _case(f"speech-{fs // 100}-{seed}-{r}", "speech-additive", "speech", fs,
+                        speech(seconds, fs, sub), {"aliasing_detected": False}, sub.uniform(0.2, 0.7))
+            if quick and r:
+                break
+        idx += 1
+        sub = rng_for(idx)
+        nz = pink(int(seconds * fs) * 2, sub)
+        yield _case(f"noise-dropped-{fs // 100}-{seed}", "drop-2", "noise-like", fs, nz[::2],
+                    {"aliasing_detected": False}, 0.5)
