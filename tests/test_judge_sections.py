@@ -81,13 +81,15 @@ def test_each_requirement_reads_its_own_measurement(spec):
         assert verdict == "fail"
 
 
-def test_short_programme_range_carries_the_caution(spec):
-    f = by_check(judge(spec, result(duration_s=30.0))[0])["loudness.range"]
-    assert "under one minute" in f.message
-    r = result(duration_s=30.0)
-    r["format"]["duration_s"] = 75.0
-    f = by_check(judge(spec, r)[0])["loudness.range"]
-    assert "under one minute" not in f.message
+@pytest.mark.parametrize("duration_s, caution", [(30.0, True), (59.9, True), (60.0, False), (75.0, False)])
+def test_short_programme_range_carries_the_caution(spec, duration_s, caution):
+    # The one-minute boundary: the EBU R 128 s1 supplement (short-form content) finds LRA not
+    # meaningful for short programmes (too few 3 s short-term values for its statistics), and
+    # EBU Tech 3341 (2016 revision) has meters signal that LRA is not stable within the first
+    # 60 s.  Both as reported in EBU's own publication notes; clause numbers from memory.
+    f = by_check(judge(spec, result(duration_s=duration_s))[0])["loudness.range"]
+    assert ("loudness range is not recommended for programmes under one minute" in f.message) is caution
+    assert f.status == "pass"
 
 
 def test_severity_warn_section(spec):

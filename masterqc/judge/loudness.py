@@ -4,7 +4,10 @@ from __future__ import annotations
 
 from masterqc.judge.core import Finding, check_below_measurable, check_limits
 
-#: below this duration a loudness-range figure is shown with a caution (EBU R 128)
+#: below this duration a loudness-range figure is shown with a caution: the EBU R 128 s1
+#: supplement (short-form content) finds LRA not meaningful for short programmes, and
+#: EBU Tech 3341 (2016 revision) has meters signal that LRA is not stable in a
+#: programme's first 60 s
 SHORT_PROGRAMME_S = 60.0
 
 _SILENT = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
