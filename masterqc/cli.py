@@ -1,6 +1,6 @@
 """Command line: argument parsing, exit codes and progress display only.
 
-Exit codes (../shared/design.md): 0 every file passed (warnings allowed),
+Exit codes (house choice, listed in the README): 0 every file passed (warnings allowed),
 1 at least one file failed, 2 bad invocation or invalid spec, 3 at least one
 file could not be read (the rest are still judged and reported).  A file that
 was read but ends in verdict ``error`` (e.g. NaN samples) counts as failed (1);

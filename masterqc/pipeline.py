@@ -82,7 +82,7 @@ def was_unreadable(result: dict) -> bool:
 
 
 def exit_code_for(results) -> int:
-    """Exit code of a run over ``results`` (../shared/design.md): 3 if any master could not be
+    """Exit code of a run over ``results`` (house choice, listed in the README): 3 if any master could not be
     read, else 1 if any failed or ended in error, else 0 (warnings allowed)."""
     results = list(results)
     if any(was_unreadable(r) for r in results):

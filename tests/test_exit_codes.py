@@ -1,4 +1,4 @@
-"""Exit codes of ``check`` (../shared/design.md): 0 pass (warnings allowed), 1 a file failed,
+"""Exit codes of ``check`` (house choice, the README's table): 0 pass (warnings allowed), 1 a file failed,
 2 bad invocation or spec, 3 a file could not be read.  A master that was read but carries an
 error finding (NaN samples) is not "unreadable": it is a failure (1)."""
 

@@ -1,7 +1,7 @@
 """The engine: read the file once, feed every analyzer, assemble the result object.
 
-:func:`measure_file` returns the result object of the contract in
-``../shared/design.md`` without ``spec``, ``findings`` and ``verdict`` (the judge
+:func:`measure_file` returns the result object (the contract printed by
+``masterqc schema``, see :mod:`masterqc.schema`) without ``spec``, ``findings`` and ``verdict`` (the judge
 adds those).  Extra top-level keys: ``series`` (display series for the report)
 and ``settings`` (choices made where the standards leave room).
 """
