@@ -36,7 +36,7 @@ demo: $(BASE_STAMP)
 	$(VENV)/bin/masterqc demo --out demo-output
 
 test: $(STAMP)
-	$(PY) -m pytest -q -n $(JOBS) tests
+	$(PY) -m pytest -q -n $(JOBS) --dist loadgroup tests
 
 bench: $(STAMP)
 	$(PY) bench/run_all.py

@@ -39,13 +39,14 @@ line in :data:`masterqc.judge.JUDGES`.  For each requirement it calls
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from decimal import ROUND_HALF_DOWN, ROUND_HALF_UP, Decimal
+from decimal import ROUND_CEILING, ROUND_FLOOR, Decimal
 from typing import Any
 
 from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
 
 STATUSES = ("pass", "warn", "fail", "skipped", "error")
 MAX_DECIMALS = 6
+_HALF = Decimal("0.5")
 
 
 @dataclass
@@ -119,15 +120,14 @@ def quantize(value: float, decimals: int, ties: str = "up") -> float:
     towards -infinity (``quantize(-0.95, 1, "up") == -0.9``,
     ``quantize(-0.95, 1, "down") == -1.0``).
     """
-    d = _dec(value)
-    step = Decimal(1).scaleb(-decimals)
-    if ties == "up":
-        mode = ROUND_HALF_UP if d >= 0 else ROUND_HALF_DOWN
-    elif ties == "down":
-        mode = ROUND_HALF_DOWN if d >= 0 else ROUND_HALF_UP
+    steps = _dec(value).scaleb(decimals)  # the value counted in display steps (exact)
+    if ties == "up":  # nearest step, a half-way value goes to the larger step
+        n = (steps + _HALF).to_integral_value(rounding=ROUND_FLOOR)
+    elif ties == "down":  # nearest step, a half-way value goes to the smaller step
+        n = (steps - _HALF).to_integral_value(rounding=ROUND_CEILING)
     else:
         raise ValueError(f"ties must be 'up' or 'down', not {ties!r}")
-    return float(d.quantize(step, rounding=mode))
+    return float(n.scaleb(-decimals))
 
 
 def fmt(value: float | None, decimals: int) -> str:
