@@ -42,14 +42,22 @@ def main(argv: list[str]) -> int:
     if not rows:
         print("no mutmut records under mutants/: run `make mutation` first", file=sys.stderr)
         return 2
-    print(f"{'module':32s} {'mutants':>8s} {'killed':>7s} {'survived':>9s} {'no test':>8s} {'not run':>8s} {'score':>7s}")
-    for group, prefixes in GROUPS.items():
+    if "--pending" not in argv:
+        print(f"{'module':32s} {'mutants':>8s} {'killed':>7s} {'survived':>9s} {'no test':>8s} {'not run':>8s} {'score':>7s}")
+    for group, prefixes in ([] if "--pending" in argv else GROUPS.items()):
         c = Counter(st for rel, _n, st in rows
                     if rel.startswith(prefixes) and rel != EXCLUDE.get(group))
         judged = c["killed"] + c["survived"] + c["no tests"] + c["timeout"] + c["suspicious"]
-        score = f"{100.0 * c['killed'] / judged:6.1f}%" if judged else "    -"
+        score = f"{100.0 * (c['killed'] + c['timeout']) / judged:6.1f}%" if judged else "    -"
         print(f"{group:32s} {sum(c.values()):8d} {c['killed']:7d} {c['survived']:9d} {c['no tests']:8d} "
               f"{c['not run']:8d} {score}")
+    if "--pending" in argv:
+        # names of the mutants of one module prefix not (yet) killed, to re-run only those:
+        # .venv/bin/mutmut run $(python tools/mutation_scores.py --pending masterqc.judge.core)
+        prefix = argv[argv.index("--pending") + 1]
+        print(" ".join(name for _rel, name, st in rows
+                       if name.startswith(prefix + ".") and st != "killed"))
+        return 0
     if "--survivors" in argv:
         for rel, name, st in rows:
             if st in ("survived", "no tests", "suspicious"):
