@@ -183,3 +183,86 @@ def test_bounds_with_margin_are_consistent(value, lo, width, margin):
         assert f.status == "warn" and f.miss is None
     else:
         assert f.status == "pass"
+
+
+# ---------------------------------------------------------------- the release section (pure)
+
+RELEASE_SPEC = """\
+spec_version: 1
+name: release
+release:
+  pooled_loudness: {target_lufs: -14.0, tolerance_lu: 1.0}
+  track_loudness_spread: {max_lu: 4.0, severity: warn}
+  consistent_format: {sample_rate: true, bit_depth: true, channels: true}
+  track_count: {min_count: 8}
+"""
+
+
+def release_findings(text=RELEASE_SPEC, **m):
+    from masterqc.judge.release import judge as judge_release
+    base = {"pooled_integrated_lufs": -14.2, "track_loudness_spread_lu": 2.0, "sample_rates_hz": [44100],
+            "sample_formats": ["pcm_24"], "channel_counts": [2], "track_count": 10, "unreadable_count": 0}
+    base.update(m)
+    return {f.check: f for f in judge_release(load_spec_text(text).spec.release, base)}
+
+
+def test_release_that_meets_everything():
+    f = release_findings()
+    assert [x.status for x in f.values()] == ["pass"] * 6
+    assert list(f) == ["release.track_count", "release.pooled_loudness", "release.track_loudness_spread",
+                       "release.sample_rate", "release.bit_depth", "release.channels"]
+    assert f["release.sample_rate"].message == "every file has sample rate 44100 Hz"
+    assert (f["release.sample_rate"].measured, f["release.sample_rate"].limit) == ("44100 Hz", "one value")
+    assert f["release.bit_depth"].message == "every file has sample format pcm_24"
+    assert f["release.channels"].message == "every file has channel count 2"
+    assert f["release.pooled_loudness"].message == "pooled integrated loudness -14.2 LUFS meets -14.0 LUFS \u00b1 1.0 LU"
+
+
+def test_release_misses_and_mixed_formats():
+    f = release_findings(pooled_integrated_lufs=-16.0, track_loudness_spread_lu=5.5, sample_rates_hz=[44100, 48000],
+                         sample_formats=["pcm_16", "pcm_24"], channel_counts=[1, 2], track_count=6)
+    assert f["release.track_count"].message == "track count 6 is below the limit 8 by 2"
+    assert f["release.pooled_loudness"].message == \
+        "pooled integrated loudness -16.0 LUFS is below the limit -15.0 LUFS by 1.0 LU"
+    s = f["release.track_loudness_spread"]
+    assert s.status == "warn" and s.message == \
+        "track loudness spread 5.5 LU is above the limit 4.0 LU by 1.5 LU (severity warn: reported as a warning)"
+    r = f["release.sample_rate"]
+    assert (r.status, r.measured, r.measured_text, r.severity) == ("fail", "44100 Hz, 48000 Hz", "44100 Hz, 48000 Hz",
+                                                                   "fail")
+    assert r.message == "the release mixes sample rates: 44100 Hz, 48000 Hz"
+    assert f["release.bit_depth"].message == "the release mixes sample formats: pcm_16, pcm_24"
+    assert f["release.channels"].message == "the release mixes channel counts: 1, 2"
+    w = release_findings(RELEASE_SPEC.replace("channels: true}", "channels: true, severity: warn}"),
+                         channel_counts=[1, 2])["release.channels"]
+    assert (w.status, w.severity) == ("warn", "warn")
+    assert w.message == "the release mixes channel counts: 1, 2 (severity warn: reported as a warning)"
+
+
+def test_release_without_readable_files_or_loudness():
+    f = release_findings(pooled_integrated_lufs=None, track_loudness_spread_lu=None, sample_rates_hz=[],
+                         sample_formats=None, channel_counts=[], unreadable_count=3, track_count=3)
+    e = f["release.files"]
+    assert e.status == "error"
+    assert e.message == "3 of 3 files could not be read; the release figures cover the others only"
+    assert f["release.pooled_loudness"].message == ("pooled integrated loudness: not judged, no gating block of "
+                                                    "any track is above the -70 LUFS absolute gate")
+    assert f["release.track_loudness_spread"].message == \
+        "track loudness spread: not judged, no track has an integrated loudness"
+    for key, what in (("release.sample_rate", "sample rate"), ("release.bit_depth", "sample format"),
+                      ("release.channels", "channel count")):
+        x = f[key]
+        assert (x.status, x.limit, x.severity) == ("skipped", "one value", "fail")
+        assert x.message == f"{what}: not judged, no file of the release could be read"
+
+
+def test_release_checks_only_what_the_spec_names():
+    # each consistency fact is on unless turned off (house choice, spec/sections/release.py)
+    text = "spec_version: 1\nname: r\nrelease:\n  consistent_format: {bit_depth: false, channels: false}\n"
+    assert list(release_findings(text, sample_rates_hz=[44100, 48000])) == ["release.sample_rate"]
+    text = "spec_version: 1\nname: r\nrelease:\n  consistent_format: {sample_rate: false, channels: false}\n"
+    assert list(release_findings(text)) == ["release.bit_depth"]
+    text = "spec_version: 1\nname: r\nrelease:\n  consistent_format: {sample_rate: false, bit_depth: false}\n"
+    assert list(release_findings(text)) == ["release.channels"]
+    assert list(release_findings("spec_version: 1\nname: r\nrelease:\n  track_count: {max_count: 20}\n")) == \
+        ["release.track_count"]
