@@ -266,3 +266,49 @@ def test_release_checks_only_what_the_spec_names():
     assert list(release_findings(text)) == ["release.channels"]
     assert list(release_findings("spec_version: 1\nname: r\nrelease:\n  track_count: {max_count: 20}\n")) == \
         ["release.track_count"]
+
+
+# ---------------------------------------------------------------- normalisation headroom (pure arithmetic)
+
+def test_headroom_figures_are_the_arithmetic():
+    from masterqc.judge.normalisation import headroom
+    # -20 LUFS turned to -14 LUFS: +6 dB; a -3 dBTP peak lands at +3 dBTP; 4 dB over a -1 dBTP ceiling
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.0}, -14.0, -1.0, "normalisation", "peaks")
+    assert h == {"target_lufs": -14.0, "target_source": "normalisation", "ceiling_dbtp": -1.0,
+                 "ceiling_source": "peaks", "gain_db": 6.0, "true_peak_after_gain_dbtp": 3.0,
+                 "limiting_needed_db": 4.0, "note": None}
+    # turned down: no limiting (never negative)
+    h = headroom({"integrated_lufs": -10.0, "true_peak_dbtp": -0.5}, -14.0, -1.0)
+    assert (h["gain_db"], h["true_peak_after_gain_dbtp"], h["limiting_needed_db"]) == (-4.0, -4.5, 0.0)
+    # float noise is dropped at 1e-9 dB: -23.1 - (-23.2) is 0.1000000000000014 in binary
+    assert headroom({"integrated_lufs": -23.2, "true_peak_dbtp": -1.1}, -23.1, -1.0)["gain_db"] == 0.1
+    assert headroom({"integrated_lufs": -23.2, "true_peak_dbtp": -1.1}, -23.1, -1.0)["limiting_needed_db"] == 0.0
+
+
+def test_headroom_notes_say_which_figure_is_missing():
+    from masterqc.judge.normalisation import headroom
+    none = {"gain_db": None, "true_peak_after_gain_dbtp": None, "limiting_needed_db": None}
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.0}, None, -1.0)
+    assert {k: h[k] for k in none} == none
+    assert h["note"] == "no loudness target in the spec (set normalisation.target_lufs or loudness.integrated)"
+    h = headroom({"integrated_lufs": None, "true_peak_dbtp": -3.0}, -14.0, -1.0)
+    assert h["note"] == "integrated loudness does not exist for this file (silent or below the gate)"
+    assert h["gain_db"] is None
+    h = headroom({"integrated_lufs": -20.0}, -14.0, -1.0)
+    assert (h["gain_db"], h["true_peak_after_gain_dbtp"], h["note"]) == (6.0, None, "true peak was not measured")
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.0}, -14.0, None)
+    assert (h["true_peak_after_gain_dbtp"], h["limiting_needed_db"]) == (3.0, None)
+    assert h["note"] == "no true-peak ceiling in the spec (set normalisation.ceiling_dbtp or peaks.true_peak)"
+
+
+def test_a_judge_that_raises_becomes_one_error_finding(spec, monkeypatch):
+    from masterqc.judge import loudness
+    def boom(section, result):
+        raise KeyError("integrated_lufs")
+    monkeypatch.setattr(loudness, "judge", boom)
+    findings, verdict = judge(spec, result())
+    errors = [f for f in findings if f.status == "error"]
+    assert verdict == "error" and len(errors) == 1
+    assert (errors[0].check, errors[0].message) == \
+        ("loudness", "the loudness requirements could not be judged: KeyError: 'integrated_lufs'")
+    assert any(f.check == "peaks.true_peak" for f in findings)  # the other sections are still judged
