@@ -262,7 +262,9 @@ def test_limit_text_of_each_shape():
 
 
 def test_judging_decimals_follow_target_and_margin():
-    req = target("lufs").model_validate({"target_lufs": -23.25, "tolerance_lu": 1.0})
+    # the target's own decimals count even when the limits need fewer (-23.5 .. -23.0)
+    req = target("lufs").model_validate({"target_lufs": -23.25, "tolerance_lu": 0.25})
+    assert req.limits() == (-23.5, -23.0)
     assert judging_decimals(req) == 2
     assert judging_decimals(tp(-1.0, warn_margin_db=0.25)) == 2
     assert judging_decimals(tp(-1.0)) == 1
@@ -350,3 +352,19 @@ def test_quantize_table(value, decimals, up, down):
 def test_quantize_refuses_an_unknown_tie_rule():
     with pytest.raises(ValueError, match="ties must be 'up' or 'down', not 'even'"):
         quantize(1.0, 1, "even")
+
+
+def test_fmt_shows_fixed_decimals_and_no_negative_zero():
+    from masterqc.judge.core import fmt
+    assert fmt(None, 1) == "n/a"
+    assert fmt(-1.0, 1) == "-1.0" and fmt(1.0, 0) == "1" and fmt(-0.95, 2) == "-0.95"
+    assert fmt(-0.0, 1) == "0.0" and fmt(-0.04, 1) == "0.0" and fmt(-0.06, 1) == "-0.1"
+
+
+def test_limit_text_of_unitless_quantities():
+    # counts and correlations have no unit word: no trailing space, no unit after the tolerance
+    assert limit_text(ceiling("count").model_validate({"max_count": 0})) == "<= 0"
+    assert limit_text(floor("corr").model_validate({"min_corr": -0.3})) == ">= -0.30"
+    assert limit_text(target("corr").model_validate({"target_corr": 0.5, "tolerance_corr": 0.1})) == "0.50 \u00b1 0.10"
+    f = check_limits("c", "clipped runs", 2, ceiling("count").model_validate({"max_count": 0}))
+    assert f.message == "clipped runs 2 is above the limit 0 by 2" and f.measured_text == "2" and f.unit == ""
