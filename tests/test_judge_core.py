@@ -368,3 +368,18 @@ def test_limit_text_of_unitless_quantities():
     assert limit_text(target("corr").model_validate({"target_corr": 0.5, "tolerance_corr": 0.1})) == "0.50 \u00b1 0.10"
     f = check_limits("c", "clipped runs", 2, ceiling("count").model_validate({"max_count": 0}))
     assert f.message == "clipped runs 2 is above the limit 0 by 2" and f.measured_text == "2" and f.unit == ""
+
+
+def test_a_tie_at_the_middle_of_bounds_goes_up():
+    # bounds 10.0 .. 20.1 (middle 15.05) judged at 0.1: a value exactly in the middle is equally near
+    # both limits; the rule sends it towards the upper one (house choice, judge/core.py)
+    req = bounds("lu").model_validate({"min_lu": 10.0, "max_lu": 20.1})
+    assert check_limits("b", "range", 15.05, req).measured == 15.1
+    assert check_limits("b", "range", 15.049, req).measured == 15.0
+
+
+def test_below_measurable_of_a_unitless_floor_has_no_trailing_space():
+    from masterqc.judge.core import check_below_measurable
+    f = check_below_measurable("c", "count", floor("count").model_validate({"min_count": 1}), "nothing to count")
+    assert f.message == "count: nothing to count, so it is below the limit 1"
+    assert (f.measured, f.measured_raw, f.miss) == (None, None, None)

@@ -190,7 +190,7 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     A ``value`` of None gives ``skipped`` with ``missing_reason``.
     """
     dec = judging_decimals(req)
-    limit = limit_text(req, dec)
+    limit = limit_text(req)  # at judging_decimals(req), the same step as the value
     u = unit_label(req.unit)
     du = unit_label(difference_unit(req.unit))
     sp, dsp = (" " if u else ""), (" " if du else "")
@@ -222,7 +222,7 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
                        message=f"{what} {fmt(shown, dec)}{sp}{u} is below the limit {fmt(lo, dec)}{sp}{u} "
                                f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
     m = req.warn_margin
-    if m is not None and m > 0:
+    if m:  # a margin of None or 0 never warns
         dm = _dec(m)
         if hi is not None and s > _dec(hi) - dm:
             return Finding(status="warn", miss=None, where_s=where,
@@ -243,19 +243,19 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
     skipped; it equally cannot exceed a ceiling.
     """
     dec = judging_decimals(req)
-    limit = limit_text(req, dec)
+    limit = limit_text(req)  # at judging_decimals(req), the same step as the value
     u = unit_label(req.unit)
     lo, hi = req.limits()
-    base = dict(check=check, measured=None, measured_raw=None, limit=limit, unit=u,
-                severity=req.severity, decimals=dec, measured_text="below measurable range",
-                limit_low=lo, limit_high=hi)
+    # measured, measured_raw and miss stay None: there is no number to show
+    base = dict(check=check, limit=limit, unit=u, severity=req.severity, decimals=dec,
+                measured_text="below measurable range", limit_low=lo, limit_high=hi)
     if lo is not None:
         status = "fail" if req.severity == "fail" else "warn"
         note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
-        return Finding(status=status, miss=None,
+        return Finding(status=status,
                        message=f"{what}: {reason}, so it is below the limit {fmt(lo, dec)} {u}{note}".rstrip(),
                        **base)
-    return Finding(status="pass", miss=None, message=f"{what}: {reason}; meets {limit}", **base)
+    return Finding(status="pass", message=f"{what}: {reason}; meets {limit}", **base)
 
 
 def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
