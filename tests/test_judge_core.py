@@ -138,7 +138,7 @@ def test_verdict_order():
     assert verdict([mk("pass"), mk("warn")]) == "warn"
     assert verdict([mk("warn"), mk("fail")]) == "fail"
     assert verdict([mk("fail"), mk("error")]) == "error"
-    with pytest.raises(ValueError):
+    with pytest.raises(ValueError, match="^unknown finding status 'ok'$"):
         mk("ok")
 
 
