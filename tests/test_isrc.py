@@ -106,3 +106,7 @@ def test_find_in_text_edges():
     assert find_in_text("") == [] and find_in_text(None) == []
     assert find_in_text("ISRC:XXQ7Z2600042") == ["XXQ7Z2600042"]
     assert find_in_text("ISRC XX-Q7Z-26-00042X") == []  # followed by a letter: not a whole code
+
+
+def test_a_non_ascii_registrant_is_the_registrant_s_problem():
+    assert check_isrc("XX\u00c47Z2600042")["problem"] == "registrant code '\u00c47Z' must be three letters or digits"

@@ -135,3 +135,17 @@ def test_allowed_schema_is_a_list_or_the_mapping():
     assert first == {"type": "array", "items": {"type": "integer"}, "minItems": 1}
     assert second["properties"]["allowed"]["description"] == "accepted values"
     assert second["properties"]["severity"]["description"] == "'fail' (default) or 'warn'"
+
+
+def test_margin_field_and_an_absent_side():
+    # the factories are cached and built at import, so the field recipe is checked directly
+    from masterqc.spec.types import _margin_field
+    annotation, field = _margin_field("db")
+    assert annotation == (float | None)
+    assert field.default is None
+    assert field.description == "warn when a pass lies within this many dB of a limit"
+    assert [m.ge for m in field.metadata] == [0.0]
+    assert _margin_field("lu")[1].description == "warn when a pass lies within this many LU of a limit"
+    # a requirement without a side answers None for it
+    c = ceiling("dbtp").model_validate({"max_dbtp": -1.0})
+    assert c._get("min") is None and c._get("max") == -1.0

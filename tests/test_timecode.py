@@ -209,3 +209,28 @@ def test_timecode_for_edges():
                                               ("25", "DF", None), ("23.98", None, "23.976"), ("23.9", None, None)])
 def test_fps_from_ixml_edges(rate, flag, name):
     assert tc.fps_from_ixml(rate, flag) == name
+
+
+def test_any_positive_sample_rate_is_arithmetic():
+    # 1 Hz is odd but not wrong: 48 samples are 48 s, 1152 frames at 24 fps
+    assert tc.samples_to_frames(48, 1, "24") == 48 * 24
+    assert tc.frames_to_samples(48 * 24, 1, "24") == 48
+    assert tc.timecode_for(2.0, {"format": {"sample_rate_hz": 1}}) == "00:00:02:00"
+
+
+def test_timecode_for_takes_the_rate_from_the_result_and_counts_from_its_start():
+    r = {"format": {"sample_rate_hz": 48000}, "metadata": {"timecode_fps": "30", "time_reference_samples": 49600}}
+    # 49600 samples = 1 s + 1600 samples: one 30 fps frame (1600 samples) past 00:00:01
+    assert tc.start_timecode(r) == "00:00:01:01"
+    assert tc.start_timecode(r, "25") == "00:00:01:00"  # 1600 < 1920 samples: still frame 0 of the second
+    assert tc.timecode_for(0.0, r, "25") == "00:00:01:00"
+    no_ref = {"format": {"sample_rate_hz": 48000}, "metadata": {}}
+    assert tc.timecode_for(1919 / 48000, no_ref) == "00:00:00:00"  # last sample of frame 0 at 25 fps
+    one_short = {"format": {"sample_rate_hz": 48000}, "metadata": {"time_reference_samples": 1919}}
+    assert tc.start_timecode(one_short) == "00:00:00:00"
+
+
+def test_ixml_rate_tolerance_is_strictly_below_a_two_hundredth():
+    assert tc.fps_from_ixml("24.0049", None) == "24"
+    assert tc.fps_from_ixml("24.005", None) is None  # exactly 1/200 fps away
+    assert tc.fps_from_ixml("30000/1001", "df") == "29.97df"
