@@ -231,6 +231,6 @@ def test_timecode_for_takes_the_rate_from_the_result_and_counts_from_its_start()
 
 
 def test_ixml_rate_tolerance_is_strictly_below_a_two_hundredth():
-    assert tc.fps_from_ixml("24.0049", None) == "24"
+    assert tc.fps_from_ixml("24.00499", None) == "24"  # just inside 1/200 = 0.005 fps
     assert tc.fps_from_ixml("24.005", None) is None  # exactly 1/200 fps away
     assert tc.fps_from_ixml("30000/1001", "df") == "29.97df"

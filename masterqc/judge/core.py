@@ -225,14 +225,14 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     if m:  # a margin of None or 0 never warns
         dm = _dec(m)
         if hi is not None and s > _dec(hi) - dm:
-            return Finding(status="warn", miss=None, where_s=where,
+            return Finding(status="warn", where_s=where,
                            message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
                                    f"of the limit {fmt(hi, dec)}{sp}{u}", **base)
         if lo is not None and s < _dec(lo) + dm:
-            return Finding(status="warn", miss=None, where_s=where,
+            return Finding(status="warn", where_s=where,
                            message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
                                    f"of the limit {fmt(lo, dec)}{sp}{u}", **base)
-    return Finding(status="pass", miss=None, message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
+    return Finding(status="pass", message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
 
 
 def check_below_measurable(check: str, what: str, req: Requirement, reason: str) -> Finding:
