@@ -144,6 +144,9 @@ def test_isrc_found_agreeing_and_notes():
     f = by(judge(s, result({"isrc": [e1, e2]})))
     p = f["metadata.isrc.present"]
     assert (p.status, p.measured, p.message) == ("pass", 2, "ISRC found in bext description, LIST/INFO ISRC")
+    assert (p.limit, p.severity) == ("ISRC present", "fail")
+    nameless = {k: v for k, v in e1.items() if k != "source"}
+    assert by(judge(s, result({"isrc": [nameless]})))["metadata.isrc.present"].message == "ISRC found in ?"
     y = f["metadata.isrc.syntax"]
     assert (y.status, y.measured, y.measured_text) == ("pass", "XX-Q7Z-26-00042", "XX-Q7Z-26-00042")
     assert y.message == ("ISRC XX-Q7Z-26-00042 is well-formed (ISO 3901); LIST/INFO ISRC: written in lower case")
@@ -173,7 +176,7 @@ def test_isrc_malformed_and_missing():
     assert by(judge(s, result({"isrc": [no_offset]})))["metadata.isrc.syntax"].message == \
         "ISRC 'XX-Q7Z-26' in bext description is malformed: too short"
     m = by(judge(s, result({})))["metadata.isrc.present"]
-    assert (m.status, m.limit) == ("warn", "ISRC present")
+    assert (m.status, m.limit, m.severity) == ("warn", "ISRC present", "warn")
     assert m.message == ("no ISRC found (bext text, LIST/INFO ISRC, id3 TSRC, Vorbis ISRC, FLAC cue sheet, iXML)")
     opt = section("  isrc: {required: false}\n")
     m = by(judge(opt, result({})))["metadata.isrc.present"]
@@ -192,14 +195,26 @@ def test_time_reference():
     t = by(judge(s, result({"time_reference_samples": TEN_HOURS + 5})))["metadata.time_reference"]
     assert t.message == ("starts at 10:00:00:00 (25 fps) but not on a frame boundary; the spec requires "
                          "10:00:00:00")
+    assert t.severity == "fail"
     t = by(judge(s, result({})))["metadata.time_reference"]
     assert (t.status, t.message) == ("fail", "the file declares no time reference (no bext TimeReference, no iXML "
                                              "timestamp)")
+    assert (t.limit, t.severity) == ("starts at 10:00:00:00", "fail")
     t = by(judge(s, result({"time_reference_samples": 0}, rate=0)))["metadata.time_reference"]
     assert (t.status, t.message) == ("skipped", "time reference: not judged, the sample rate is unknown")
-    any_start = section("  time_reference: {required: true}\n")
-    t = by(judge(any_start, result({"time_reference_samples": TEN_HOURS})))["metadata.time_reference"]
-    assert (t.status, t.limit) == ("pass", "time reference present")
+    assert (t.limit, t.severity) == ("starts at 10:00:00:00", "fail")
+    # a required start time asks for a time reference even when `required` is off
+    start_only = section("  time_reference: {required: false, start_timecode: '10:00:00:00', severity: warn}\n")
+    t = by(judge(start_only, result({})))["metadata.time_reference"]
+    assert (t.status, t.severity) == ("warn", "warn")
+    any_start = section("  timecode_fps: '30'\n  time_reference: {required: true}\n")
+    # 10 h + 1600 samples: one 30 fps frame past 10:00:00:00
+    t = by(judge(any_start, result({"time_reference_samples": TEN_HOURS + 1600,
+                                    "time_reference_source": "iXML"})))["metadata.time_reference"]
+    assert (t.status, t.limit, t.measured) == ("pass", "time reference present", "10:00:00:01")
+    assert t.message == "starts at 10:00:00:01 (30 fps; 1728001600 samples since midnight, from iXML)"
+    t = by(judge(section("  time_reference: {required: true}\n"),
+                 result({"time_reference_samples": TEN_HOURS})))["metadata.time_reference"]
     assert t.message == "starts at 10:00:00:00 (25 fps; 1728000000 samples since midnight, from bext)"
     optional = section("  time_reference: {required: false}\n")
     assert by(judge(optional, result({})))["metadata.time_reference"].status == "skipped"
@@ -215,6 +230,9 @@ def test_timecode_rate_against_the_file():
     f = by(judge(s, result({})))["metadata.timecode_fps"]
     assert (f.status, f.message) == ("skipped", "timecode rate: not compared, the file declares none (no iXML "
                                                 "TIMECODE_RATE)")
+    assert (f.limit, f.severity) == ("25 fps", "warn")
+    f = by(judge(s, result({"declared_timecode_fps": "24"})))["metadata.timecode_fps"]
+    assert f.measured == "24"
     # no rate in the spec: the file's own (recorded as timecode_fps), else 25
     d = section("  timecode_fps_matches_file: true\n")
     assert by(judge(d, result({"declared_timecode_fps": "24", "timecode_fps": "24"})))["metadata.timecode_fps"] \

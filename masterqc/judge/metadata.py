@@ -11,6 +11,7 @@ offset in the message), ``metadata.bext``, ``metadata.bext_loudness.<field>``
 from __future__ import annotations
 
 from masterqc.audio import timecode as _tc
+from masterqc.audio.isrc import format_isrc
 from masterqc.judge.core import Finding, check_limits, fmt, skipped
 from masterqc.spec.types import target
 
@@ -186,7 +187,7 @@ def _isrc(rule, meta) -> list[Finding]:
 
 
 def _fmt_code(code: str) -> str:
-    return f"{code[0:2]}-{code[2:5]}-{code[5:7]}-{code[7:12]}"
+    return format_isrc(code)
 
 
 def _time_reference(rule, result, fps) -> Finding:
@@ -215,7 +216,7 @@ def _time_reference(rule, result, fps) -> Finding:
     if want == have and exact:
         return Finding(status="pass", message=f"starts at {shown} ({fps} fps) as required", **base)
     off = "" if want != have else " but not on a frame boundary"
-    return Finding(status=_missed(sev), miss=None,
+    return Finding(status=_missed(sev),
                    message=f"starts at {shown} ({fps} fps){off}; the spec requires {rule.start_timecode}", **base)
 
 
