@@ -238,3 +238,62 @@ def test_timecode_rate_against_the_file():
     assert by(judge(d, result({"declared_timecode_fps": "24", "timecode_fps": "24"})))["metadata.timecode_fps"] \
         .status == "pass"
     assert by(judge(d, result({"declared_timecode_fps": "24"})))["metadata.timecode_fps"].limit == "25 fps"
+
+
+def _fields(f):
+    return (f.check, f.status, f.severity, f.measured, f.measured_text, f.limit)
+
+
+def test_finding_fields_of_every_metadata_check():
+    # the fields renderers read (check, status, severity, measured, measured_text, limit)
+    s = section("  bext: {required: true, min_version: 2, fields_required: [originator], severity: warn}\n"
+                "  bext_loudness: {required: true}\n  isrc: {required: true}\n")
+    e1 = {"source": "bext description", "raw": "XX-Q7Z-26-00042", "code": "XXQ7Z2600042",
+          "display": "XX-Q7Z-26-00042", "valid": True}
+    e2 = dict(e1, source="id3 TSRC", code="XXQ7Z2600043", display="XX-Q7Z-26-00043")
+    bad = {"source": "LIST/INFO ISRC", "raw": "XX-1", "valid": False, "problem": "too short"}
+    f = by(judge(s, result({"bext": {"version": 2, "originator": "Desk"}, "isrc": [e1, e2, bad]})))
+    assert _fields(f["metadata.bext"]) == ("metadata.bext", "pass", "warn", 2, "version 2", "bext chunk present")
+    assert _fields(f["metadata.bext.version"]) == ("metadata.bext.version", "pass", "warn", 2, "version 2",
+                                                  ">= version 2")
+    assert _fields(f["metadata.bext.originator"]) == ("metadata.bext.originator", "pass", "warn", "Desk", None,
+                                                     "non-empty")
+    lv = f["metadata.bext_loudness.loudness_value"]
+    assert _fields(lv) == ("metadata.bext_loudness.loudness_value", "fail", "fail", None, None, "LoudnessValue present")
+    assert lv.message == "integrated loudness: bext LoudnessValue is not filled in (0x7FFF or cut short)"
+    assert _fields(f["metadata.isrc.present"]) == ("metadata.isrc.present", "pass", "fail", 3, None, "ISRC present")
+    assert _fields(f["metadata.isrc.syntax"]) == ("metadata.isrc.syntax", "fail", "fail", "XX-1", "XX-1",
+                                                 "ISO 3901: CC-XXX-YY-NNNNN")
+    assert _fields(f["metadata.isrc.consistent"]) == ("metadata.isrc.consistent", "fail", "fail", 2, None,
+                                                     "one ISRC per file")
+    one = by(judge(s, result({"bext": {"version": 0}, "isrc": [e1, dict(e1, source="iXML")]})))
+    assert _fields(one["metadata.isrc.consistent"]) == ("metadata.isrc.consistent", "pass", "fail", 1, None,
+                                                       "one ISRC per file")
+    assert _fields(one["metadata.isrc.syntax"]) == ("metadata.isrc.syntax", "pass", "fail", "XX-Q7Z-26-00042",
+                                                   "XX-Q7Z-26-00042", "ISO 3901: CC-XXX-YY-NNNNN")
+    assert one["metadata.bext.version"].status == "warn"
+    assert one["metadata.bext_loudness.loudness_range"].message == \
+        "loudness range: bext version 0 has no loudness fields (they arrived in version 2)"
+    missing = by(judge(s, result({"container_kind": "bw64"})))["metadata.bext"]
+    assert _fields(missing) == ("metadata.bext", "warn", "warn", None, None, "bext chunk present")
+    assert missing.message == "no bext chunk"
+    assert by(judge(s, result({"container_kind": "rifx"})))["metadata.bext"].message == "no bext chunk"
+    assert by(judge(s, result({"bext": {"version": 1, "originator": 0}})))["metadata.bext.originator"].status == "warn"
+    opt = section("  bext_loudness: {required: false, severity: warn}\n")
+    sk = by(judge(opt, result({})))["metadata.bext_loudness.loudness_value"]
+    assert (sk.status, sk.severity) == ("skipped", "warn")
+    nov = by(judge(opt, result({"bext": {}})))["metadata.bext_loudness.loudness_value"]
+    assert nov.message == "integrated loudness: not compared, bext version None has no loudness fields " \
+                          "(they arrived in version 2)"
+    req = section("  bext_loudness: {required: true, severity: warn}\n")
+    r = by(judge(req, result({})))["metadata.bext_loudness.max_true_peak_level"]
+    assert _fields(r) == ("metadata.bext_loudness.max_true_peak_level", "warn", "warn", None, None,
+                          "MaxTruePeakLevel present")
+
+
+def test_bext_loudness_inside_the_tolerance():
+    s = section("  bext_loudness: {tolerance_lu: 1.0, true_peak_tolerance_db: 0.5}\n")
+    # a stored value 0.5 LU off with a 1.0 LU tolerance passes; the stored figure is shown with two decimals
+    f = by(judge(s, result({"bext": dict(BX2, loudness_value_lufs=-23.5)})))["metadata.bext_loudness.loudness_value"]
+    assert f.message == ("bext LoudnessValue -23.50 LUFS agrees with the measured integrated loudness -23.0 LUFS "
+                         "(difference 0.5 LU, tolerance 1.0 LU)")
