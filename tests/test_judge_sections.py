@@ -283,6 +283,13 @@ def test_headroom_figures_are_the_arithmetic():
     # float noise is dropped at 1e-9 dB: -23.1 - (-23.2) is 0.1000000000000014 in binary
     assert headroom({"integrated_lufs": -23.2, "true_peak_dbtp": -1.1}, -23.1, -1.0)["gain_db"] == 0.1
     assert headroom({"integrated_lufs": -23.2, "true_peak_dbtp": -1.1}, -23.1, -1.0)["limiting_needed_db"] == 0.0
+    # figures are kept to 1e-9 dB (house choice): 4e-11 dB of difference is dropped, 2e-9 dB is kept
+    assert headroom({"integrated_lufs": -20.00000000004, "true_peak_dbtp": -3.0}, -14.0, -1.0)["gain_db"] == 6.0
+    assert headroom({"integrated_lufs": -20.000000002, "true_peak_dbtp": -3.0}, -14.0, -1.0)["gain_db"] == 6.000000002
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.5}, -14.0, -1.0)
+    assert (h["true_peak_after_gain_dbtp"], h["limiting_needed_db"]) == (2.5, 3.5)
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.00000000004}, -14.0, -1.0)
+    assert (h["true_peak_after_gain_dbtp"], h["limiting_needed_db"]) == (3.0, 4.0)
 
 
 def test_headroom_notes_say_which_figure_is_missing():

@@ -136,8 +136,6 @@ def _bext_loudness(rule, meta, measurements) -> list[Finding]:
             f.message = (f"bext {tech_name} {fmt(stored, 2)} {label} {agree} the measured {what} "
                          f"{fmt(f.measured, dec)} {label} (difference {fmt(abs(diff), dec)} {tol_unit}, "
                          f"tolerance {fmt(tol, dec)} {tol_unit})")
-            if f.status == "warn" and f.miss is None:
-                f.message += "; within the warning margin"
         out.append(f)
     return out
 
