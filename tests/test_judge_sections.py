@@ -212,7 +212,8 @@ def test_release_that_meets_everything():
     assert list(f) == ["release.track_count", "release.pooled_loudness", "release.track_loudness_spread",
                        "release.sample_rate", "release.bit_depth", "release.channels"]
     assert f["release.sample_rate"].message == "every file has sample rate 44100 Hz"
-    assert (f["release.sample_rate"].measured, f["release.sample_rate"].limit) == ("44100 Hz", "one value")
+    r = f["release.sample_rate"]
+    assert (r.measured, r.measured_text, r.limit, r.severity) == ("44100 Hz", "44100 Hz", "one value", "fail")
     assert f["release.bit_depth"].message == "every file has sample format pcm_24"
     assert f["release.channels"].message == "every file has channel count 2"
     assert f["release.pooled_loudness"].message == "pooled integrated loudness -14.2 LUFS meets -14.0 LUFS \u00b1 1.0 LU"
@@ -231,6 +232,7 @@ def test_release_misses_and_mixed_formats():
     assert (r.status, r.measured, r.measured_text, r.severity) == ("fail", "44100 Hz, 48000 Hz", "44100 Hz, 48000 Hz",
                                                                    "fail")
     assert r.message == "the release mixes sample rates: 44100 Hz, 48000 Hz"
+    assert r.limit == "one value"
     assert f["release.bit_depth"].message == "the release mixes sample formats: pcm_16, pcm_24"
     assert f["release.channels"].message == "the release mixes channel counts: 1, 2"
     w = release_findings(RELEASE_SPEC.replace("channels: true}", "channels: true, severity: warn}"),
