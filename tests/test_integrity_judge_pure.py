@@ -262,3 +262,52 @@ def test_nonfinite_samples_are_an_error_with_positions(spec):
     missing = findings(s, nonfinite_sample_count=None)[0]["integrity.nonfinite_samples"]
     assert missing.status == "skipped" and missing.message == (
         "non-finite samples: not judged, the measurement nonfinite_sample_count is missing from the result")
+
+
+def test_warnings_carry_the_same_detail_as_failures():
+    warn = SPEC.replace("dropouts: {max_count: 0}", "dropouts: {max_count: 0, severity: warn}") \
+        .replace("inverted_polarity: [false]", "inverted_polarity: {allowed: [false], severity: warn}") \
+        .replace("level_balance: {max_lu: 1.5}", "level_balance: {max_lu: 1.5, severity: warn}") \
+        .replace("tail_silence: {min_s: 1.0}", "tail_silence: {min_s: 1.0, severity: warn}") \
+        .replace("head_silence: {min_s: 0.5, max_s: 2.0}", "head_silence: {min_s: 0.5, max_s: 2.0, severity: warn}")
+    s = load_spec_text(warn).spec
+    f, verdict = findings(s, dropout_count=1, dropout_count_per_channel=[0, 1], dropout_events=[{"kind": "frozen"}],
+                          inverted_polarity=True, inverted_polarity_pairs=[["L", "R"]],
+                          level_balance_lu_per_pair=[-2.0], tail_silence_s=0.25, head_silence_s=3.0)
+    assert verdict == "warn"
+    assert f["integrity.dropouts"].message == ("dropouts 1 is above the limit 0 by 1 (L: 0, R: 1); a frozen sample "
+                                               "value (severity warn: reported as a warning)")
+    assert f["integrity.inverted_polarity"].message == ("channel pair in inverted polarity true is not allowed "
+                                                        "(allowed: false) (L/R) (severity warn: reported as a warning)")
+    assert f["integrity.level_balance"].message == ("level balance L/R (magnitude) 2.0 LU is above the limit 1.5 LU "
+                                                    "by 0.5 LU; R is louder (severity warn: reported as a warning)")
+    assert f["integrity.tail_silence"].where_s == [[29.75, 30.0]]
+    assert f["integrity.head_silence"].where_s == [[0.0, 3.0]]
+    # a tail of zero length gives no time range
+    g, _ = findings(s, tail_silence_s=0.0)
+    assert g["integrity.tail_silence"].status == "warn" and g["integrity.tail_silence"].where_s == []
+
+
+def test_silence_messages_name_head_tail_and_kind(spec):
+    f, _ = findings(spec, head_digital_silence_s=0.3, tail_digital_silence_s=0.25)
+    assert f["integrity.head_digital_silence"].message == \
+        "digital silence at the head 0.300 s is above the limit 0.100 s by 0.200 s"
+    assert f["integrity.tail_digital_silence"].message == \
+        "digital silence at the tail 0.250 s is above the limit 0.200 s by 0.050 s"
+
+
+@pytest.mark.parametrize("count, shown, more", [(5, 5, ""), (6, 6, " and 1 more"), (7, 5, " and 2 more")])
+def test_nonfinite_lists_at_most_five_positions(spec, count, shown, more):
+    first = [{"kind": "NaN", "channel": "L", "frame": k, "time_s": k / 48000} for k in range(shown)]
+    f, _ = findings(spec, nonfinite_sample_count=count, nonfinite_first_positions=first)
+    n = f["integrity.nonfinite_samples"]
+    listed = ", ".join(f"NaN in L at frame {k} ({k / 48000:.6f} s)" for k in range(min(shown, 5)))
+    assert n.message == (f"{count} non-finite sample(s) (NaN ?, infinite ?): first {listed}{more}; they were read "
+                         "as 0.0 for every other measurement")
+    assert (n.measured, n.measured_raw, n.measured_text, n.limit) == (count, count, str(count), "none")
+
+
+def test_nonfinite_pass_fields(spec):
+    s = load_spec_text(SPEC + "  nonfinite_samples: true\n").spec
+    p = findings(s)[0]["integrity.nonfinite_samples"]
+    assert (p.measured, p.measured_raw, p.measured_text, p.limit, p.status) == (0, 0, "0", "none", "pass")
