@@ -26,8 +26,11 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError
 #: version of the result format written by this code (``result_format`` in every result)
 RESULT_FORMAT_VERSION = 2
 
-#: below this duration a loudness-range figure carries a caution (EBU Tech 3342: not for programmes
-#: under one minute); the judge's message and the report's note both use it
+#: below this duration a loudness-range figure is shown with a caution (the judge's message and the
+#: report's note both use it): the EBU R 128 s1
+#: supplement (short-form content) finds LRA not meaningful for short programmes, and
+#: EBU Tech 3341 (2016 revision) has meters signal that LRA is not stable in a
+#: programme's first 60 s
 SHORT_PROGRAMME_S = 60.0
 
 

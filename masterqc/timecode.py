@@ -105,8 +105,8 @@ def frames_to_timecode(frames: int, fps) -> str:
     if fr.drop_frame:
         tens, rem = divmod(frames, _DF_FRAMES_PER_10MIN)
         frames += 18 * tens
-        if rem >= 2:
-            frames += 2 * ((rem - 2) // _DF_FRAMES_PER_MIN)
+        # minutes 1..9 of the ten-minute block each skip two labels; minute 0 keeps all 1800
+        frames += 2 * max(0, (rem - 2) // _DF_FRAMES_PER_MIN)
     n = fr.nominal
     ff = frames % n
     total_s = frames // n
@@ -182,13 +182,12 @@ def fps_from_ixml(rate_text: str | None, flag_text: str | None) -> str | None:
     if not rate_text:
         return None
     try:
-        text = rate_text.strip()
-        value = float(Fraction(text))
+        value = Fraction(rate_text.strip())
     except (ValueError, ZeroDivisionError):
         return None
-    drop = (flag_text or "").strip().upper() == "DF"
+    drop = flag_text is not None and flag_text.strip().upper() == "DF"
     for name, fr in FRAME_RATES.items():
         # "29.97" and "30000/1001" both name the same rate; 0.005 fps separates every supported rate
-        if abs(float(fr.rate) - value) < 0.005 and fr.drop_frame == drop:
+        if abs(fr.rate - value) < Fraction(1, 200) and fr.drop_frame == drop:
             return name
     return None

@@ -6,9 +6,8 @@ against the format, not against itself:
 
 * RIFF WAVE and ``fmt `` / WAVE_FORMAT_EXTENSIBLE: Microsoft RIFF and
   WAVEFORMATEXTENSIBLE definitions (from memory).
-* ``bext``: EBU Tech 3285 v2 offsets as collected in
-  /work/shared/reference/standards-figures.md (the loudness field layout there
-  was read in a quotation of the v2 text; 0x7FFF = unused is from memory).
+* ``bext``: EBU Tech 3285 v2 field offsets (the loudness fields of v2 and
+  0x7FFF = unused included), from memory of the v2 text.
 * ``ds64``: EBU Tech 3306 (RF64), from memory.
 * AIFF / AIFF-C: Apple AIFF 1.3 / AIFF-C (big-endian; 80-bit extended rate), from memory.
 * ID3v2.3 / 2.4 frame layout, from memory.

@@ -146,14 +146,17 @@ def test_fixed_extremes(files, reference, block_frames, which):
     assert differences(reference[which], got) == []
 
 
-@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+# A representative slice of block sizes per run (each example measures the 6 s file with every
+# analyzer); the fixed extremes above always run, hypothesis draws new sizes on every run and
+# bench/bench_block_size.py sweeps many more.
+@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(block_frames=st.integers(min_value=256, max_value=65536))
 def test_any_block_size_gives_the_same_results(files, reference, block_frames):
     got = measure(files["long"], block_frames)
     assert differences(reference["long"], got) == []
 
 
-@settings(max_examples=4, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@settings(max_examples=2, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(block_frames=st.integers(min_value=2, max_value=255))
 def test_small_block_sizes_give_the_same_results(files, reference, block_frames):
     got = measure(files["short"], block_frames)

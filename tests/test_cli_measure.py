@@ -1,7 +1,8 @@
 """`masterqc measure` through the CLI: the JSON contract, the table, bad input.
 
 Expected loudness values come from ITU-R BS.1770-5 (a 997 Hz sine at 0 dBFS in
-one front channel reads -3.01 LKFS, standards-figures.md) and pyloudnorm with
+one front channel reads -3.01 LKFS: the mean square of a sine is 1/2, the K-filter gain at
+997 Hz cancels the -0.691 offset of the Annex 1 loudness equation, so 10*log10(1/2) = -3.01) and pyloudnorm with
 its exact BS.1770 filter (filter_class="DeMan") as an outside reference.
 """
 

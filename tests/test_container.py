@@ -1,9 +1,8 @@
 """Container walker on files built byte by byte (tests/containerbytes.py), read back exactly.
 
 Layout sources are named in tests/containerbytes.py; the bext layout is EBU
-Tech 3285 v2 (offsets from /work/shared/reference/standards-figures.md, where
-the loudness fields were read in a quotation of the v2 text; 0x7FFF = unused
-is from memory).
+Tech 3285 v2 (the field offsets, loudness fields included, and 0x7FFF = unused are
+written from memory of the v2 text).
 """
 
 from __future__ import annotations

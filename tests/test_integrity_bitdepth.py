@@ -85,6 +85,12 @@ def test_float_file_carrying_integers(tmp_path, rng, grid):
 
 
 def test_genuine_float_reads_container_depth(tmp_path, rng):
+    # 32 is the container's word size: subtype FLOAT is IEEE 754 binary32, wBitsPerSample 32
+    # (WAVE_FORMAT_IEEE_FLOAT).  Analytic: binary32 has a 24-bit significand, so a sample with
+    # |x| < 2**-9 has its lowest possible bit at 2**-33 or below, finer than the 2**-31 step
+    # of a 32-bit integer grid; with sigma 0.1, erf(2**-9 / (0.1 * sqrt 2)) = 1.6 % of the
+    # 48000 samples per channel lie there and about half of them have that bit set.  A float file whose grid is finer
+    # than 32 bits reads its container depth (house choice, FLOAT_GRID_MAX_BITS).
     x = rng.normal(0, 0.1, (48000, 2)).astype(np.float32)
     path = tmp_path / "float.wav"
     sf.write(path, x, FS, subtype="FLOAT")

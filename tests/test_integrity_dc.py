@@ -3,8 +3,14 @@
 Analytic truth: the mean of a sine over whole periods is 0, so a constant
 offset c reads 20*log10(|c|) dBFS; the mean square of a sum of sines of
 distinct frequencies is the sum of a**2/2, and of a constant c is c**2.  The
-20 Hz low-pass passes 5 Hz with |H|**2 = 1/(1 + (5/20)**8) (Butterworth
-magnitude, order 4) and stops 1 kHz by more than 200 dB.
+sub-sonic filter is an order-8 Butterworth low-pass at 20 Hz (house choice,
+``SUBSONIC_ORDER`` in masterqc/measure/dcoffset.py).  The Butterworth power
+response of order N is |H(f)|**2 = 1 / (1 + (f/fc)**(2N)), so order 8 gives
+1 / (1 + (f/20)**16): 5 Hz passes with (1/4)**16 = 2.3e-10 of loss (nil), 40 Hz
+is -48.2 dB, 1 kHz far below -200 dB.  The filter is digital (scipy.signal.butter:
+bilinear transform with the 20 Hz edge pre-warped) at the decimated rate r (1000 Hz
+for 48 kHz input), so f/fc becomes tan(pi f/r) / tan(pi fc/r) exactly; at 55 Hz that
+is 0.87 % above f/20 and reads 0.60 dB lower than the analogue formula.
 """
 
 from __future__ import annotations
@@ -60,7 +66,7 @@ def test_rumble_share_below_20_hz(tmp_path):
     path = tmp_path / "rumble.wav"
     sf.write(path, x[:, None], FS, subtype="DOUBLE")
     m = measure_file(path)["measurements"]
-    gain = 1.0 / (1.0 + (5.0 / 20.0) ** 8)
+    gain = 1.0 / (1.0 + (5.0 / 20.0) ** 16)  # order-8 Butterworth power response at 5 Hz (docstring)
     expected = 10 * math.log10(gain * 0.1 ** 2 / 2 / (0.1 ** 2 / 2 + 0.5 ** 2 / 2))
     assert m["subsonic_energy_db_per_channel"][0] == pytest.approx(expected, abs=0.05)
     assert m["dc_offset_dbfs"] < -100  # a sine has no DC (float rounding only)
@@ -89,11 +95,13 @@ def _faded(f, seconds=4, fs=FS):
 
 @pytest.mark.parametrize("f", [30.0, 40.0, 55.0])
 def test_bass_above_20_hz_follows_the_butterworth_response(f):
-    # |H(f)|**2 = 1 / (1 + (f / 20)**16) for the order-8 Butterworth low-pass at 20 Hz
-    # (analytic); the fades and the decimating FIR move it by a few tenths of a dB at most.
+    # |H(f)|**2 = 1 / (1 + (tan(pi f/r) / tan(pi 20/r))**(2*8)) for the digital order-8
+    # Butterworth low-pass at 20 Hz, r = 1000 Hz the decimated rate (analytic, see the module
+    # docstring); the fades and the decimating FIR move it by a few hundredths of a dB.
     x = _faded(f)
     m = feed(DcOffsetAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
-    assert m["subsonic_energy_db"] == pytest.approx(10 * math.log10(1 / (1 + (f / 20) ** 16)), abs=0.7)
+    ratio = math.tan(math.pi * f / 1000.0) / math.tan(math.pi * 20.0 / 1000.0)
+    assert m["subsonic_energy_db"] == pytest.approx(10 * math.log10(1 / (1 + ratio ** 16)), abs=0.1)
 
 
 @pytest.mark.parametrize("f, fs", [(997.0, 48000), (1000.0, 48000), (2000.0, 48000),

@@ -3,6 +3,12 @@
 Every signal is built with silence, low-level noise, frozen values and
 dropouts at known frames, so expected durations and times follow by
 arithmetic (frames / 48000).
+
+The defaults the tests rely on are house choices (MeasureOptions): near-silence is a
+sample peak at or below -60 dBFS in every channel, and a dropout is a run of at least
+5 ms (240 frames at 48 kHz) of digital silence or one frozen value in a channel.
+-80 dBFS is 1e-4 of full scale (20*log10(1e-4) = -80), i.e. round(1e-4 * 2**23) = 839
+codes at 24 bits.
 """
 
 from __future__ import annotations
@@ -37,7 +43,7 @@ def test_head_and_tail_silence(block):
     x = pcm(_programme(), 24)
     m = feed(SilenceAnalyzer, x, info_for(x), block=block).measurements
     assert m["head_digital_silence_s"] == 12000 / FS
-    assert m["head_silence_s"] == 14400 / FS   # -80 dBFS is below the default -60 dBFS threshold
+    assert m["head_silence_s"] == 14400 / FS   # -80 dBFS is below the -60 dBFS default (house choice)
     assert m["tail_silence_s"] == 24000 / FS
     assert m["tail_digital_silence_s"] == 24000 / FS
     assert m["dropout_count"] == 0
@@ -59,8 +65,8 @@ def test_all_silent_file_is_silent_from_both_ends():
 
 def _dropouts():
     codes = _programme()
-    codes[50000:50240, 0] = 0          # 240 samples = 5.0 ms of silence in L: a dropout
-    codes[60000:60239, 0] = 0          # 239 samples: shorter than 5 ms, not reported
+    codes[50000:50240, 0] = 0          # 240 samples = 5.0 ms of silence in L: a dropout (5 ms: house choice)
+    codes[60000:60239, 0] = 0          # 239 samples: shorter than the 5 ms default, not reported
     codes[65500:66500, 1] = 12345      # 1000 frames frozen in R, across the 65536 boundary
     codes[90000:90480, :] = 0          # both channels silent for 10 ms
     return codes

@@ -70,3 +70,43 @@ def test_never_raises(text):
     assert isinstance(r["valid"], bool)
     if r["valid"]:
         assert len(r["code"]) == 12
+
+
+# exact results (the messages are what a report prints; ISO 3901 element names)
+@pytest.mark.parametrize("text, problem", [
+    ("", "empty ISRC"),
+    (None, "empty ISRC"),
+    ("ISRC:  ", "empty ISRC"),
+    ("XXQ7Z260004", "'XXQ7Z260004' has 11 characters, an ISRC has 12"),
+    ("XX-Q7Z2-6-00042", "'XX-Q7Z2-6-00042' is not CC-XXX-YY-NNNNN: hyphens must separate 2, 3, 2 and 5 characters"),
+    ("X1Q7Z2600042", "country code 'X1' must be two letters"),
+    ("\u00c4XQ7Z2600042", "country code '\u00c4X' must be two letters"),
+    ("XXQ_Z2600042", "registrant code 'Q_Z' must be three letters or digits"),
+    ("XXQ7Z2A00042", "year '2A' must be two digits"),
+    ("XXQ7Z260004X", "designation code '0004X' must be five digits"),
+])
+def test_problem_messages(text, problem):
+    r = check_isrc(text)
+    assert r == {"raw": "" if text is None else text, "code": None, "display": None, "valid": False,
+                 "problem": problem, "note": None}
+
+
+def test_valid_result_in_full():
+    assert check_isrc(" ISRC: XX-Q7Z-26-00042 ") == {
+        "raw": " ISRC: XX-Q7Z-26-00042 ", "code": "XXQ7Z2600042", "display": "XX-Q7Z-26-00042",
+        "valid": True, "problem": None, "note": None}
+    r = check_isrc("isrc=xxq7z2600042")
+    assert (r["code"], r["note"]) == ("XXQ7Z2600042", "written in lower case; ISO 3901 uses capital letters")
+    assert check_isrc("XXQ7Z2600042")["note"] is None
+    assert format_isrc("XXA1B2600001") == "XX-A1B-26-00001"
+    assert is_valid_isrc("XX-A1B-26-00001") is True and is_valid_isrc("XX-A1B-26-0000") is False
+
+
+def test_find_in_text_edges():
+    assert find_in_text("") == [] and find_in_text(None) == []
+    assert find_in_text("ISRC:XXQ7Z2600042") == ["XXQ7Z2600042"]
+    assert find_in_text("ISRC XX-Q7Z-26-00042X") == []  # followed by a letter: not a whole code
+
+
+def test_a_non_ascii_registrant_is_the_registrant_s_problem():
+    assert check_isrc("XX\u00c47Z2600042")["problem"] == "registrant code '\u00c47Z' must be three letters or digits"

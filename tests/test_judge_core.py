@@ -138,7 +138,7 @@ def test_verdict_order():
     assert verdict([mk("pass"), mk("warn")]) == "warn"
     assert verdict([mk("warn"), mk("fail")]) == "fail"
     assert verdict([mk("fail"), mk("error")]) == "error"
-    with pytest.raises(ValueError):
+    with pytest.raises(ValueError, match="status"):  # the contract model refuses an unknown status
         mk("ok")
 
 
@@ -194,3 +194,193 @@ def test_numeric_limits_travel_with_the_finding():
     assert (d["limit_low"], d["limit_high"]) == (-24.0, -22.0)
     d = check_limits("peaks.true_peak", "true peak", -3.0, tp()).to_dict()
     assert (d["limit_low"], d["limit_high"]) == (None, -1.0)
+
+
+# ------------------------------------------------------------------ the finding as other tools read it
+
+def test_failing_finding_dict_is_the_contract():
+    # every key of the result contract's ``findings`` items, with the values the rule gives
+    f = check_limits("peaks.true_peak", "true peak", -0.94, tp(), where_s=[(1.5, 1.52)])
+    assert f.to_dict() == {
+        "check": "peaks.true_peak", "status": "fail", "severity": "fail",
+        "measured": -0.9, "measured_raw": -0.94, "measured_text": "-0.9 dBTP", "decimals": 1,
+        "limit": "<= -1.0 dBTP", "limit_low": None, "limit_high": -1.0,
+        "miss": pytest.approx(0.1), "unit": "dBTP",
+        "message": "true peak -0.9 dBTP is above the limit -1.0 dBTP by 0.1 dB",
+        "where_s": [[1.5, 1.52]], "target": None, "miss_unit": "dB"}
+
+
+def test_floor_miss_message_and_warn_severity_note():
+    fl = floor("lufs").model_validate({"min_lufs": -20.0, "severity": "warn"})
+    f = check_limits("x", "level", -20.26, fl, where_s=[[0.0, 1.0]])
+    assert f.status == "warn" and f.miss == pytest.approx(0.3) and f.where_s == [[0.0, 1.0]]
+    assert f.message == ("level -20.3 LUFS is below the limit -20.0 LUFS by 0.3 LU "
+                         "(severity warn: reported as a warning)")
+    assert (f.limit_low, f.limit_high, f.severity) == (-20.0, None, "warn")
+
+
+def test_pass_and_margin_messages():
+    req = tp(-1.0, warn_margin_db=0.3)
+    p = check_limits("p", "true peak", -3.0, req, where_s=[[1.0, 2.0]])
+    # time ranges travel only with a warning or a failure (check_limits' docstring)
+    assert p.message == "true peak -3.0 dBTP meets <= -1.0 dBTP" and p.where_s == []
+    w = check_limits("p", "true peak", -1.1, req, where_s=[(1.0, 2.0)])
+    assert w.where_s == [[1.0, 2.0]]
+    assert w.message == "true peak -1.1 dBTP passes but lies within 0.3 dB of the limit -1.0 dBTP"
+    assert w.miss is None
+    lo = floor("lufs").model_validate({"min_lufs": -20.0, "warn_margin_lu": 0.5})
+    w2 = check_limits("l", "level", -19.6, lo, where_s=[[3.0, 4.0]])
+    assert w2.status == "warn" and w2.where_s == [[3.0, 4.0]]
+    assert w2.message == "level -19.6 LUFS passes but lies within 0.5 LU of the limit -20.0 LUFS"
+    assert check_limits("l", "level", -19.5, lo).status == "pass"  # exactly 0.5 above: outside the margin
+
+
+def test_a_zero_margin_never_warns():
+    req = tp(-1.0, warn_margin_db=0.0)
+    assert check_limits("p", "true peak", -1.0, req).status == "pass"
+
+
+def test_ties_in_bounds_go_towards_the_nearer_limit():
+    # bounds 10 .. 20: a tie above the middle (15) rounds up (towards 20), below it rounds down
+    req = bounds("lu").model_validate({"min_lu": 10.0, "max_lu": 20.0})
+    assert check_limits("b", "range", 20.05, req).measured == 20.1
+    assert check_limits("b", "range", 15.05, req).measured == 15.1
+    assert check_limits("b", "range", 14.95, req).measured == 14.9
+    assert check_limits("b", "range", 9.95, req).measured == 9.9
+    assert check_limits("b", "range", 9.95, req).status == "fail"
+    f = check_limits("b", "range", 12.0, req)
+    assert f.limit == "10.0 .. 20.0 LU" and (f.limit_low, f.limit_high) == (10.0, 20.0)
+
+
+def test_limit_text_of_each_shape():
+    assert limit_text(floor("lufs").model_validate({"min_lufs": -20.0})) == ">= -20.0 LUFS"
+    assert limit_text(bounds("s").model_validate({"min_s": 10.0, "max_s": 60.0})) == "10.000 .. 60.000 s"
+    assert limit_text(tp(-1.0), 2) == "<= -1.00 dBTP"
+    # a target in a unit-less quantity has no unit word on either side
+    assert limit_text(target("db").model_validate({"target_db": -3.0, "tolerance_db": 0.5})) == \
+        "-3.0 dB \u00b1 0.5 dB"
+
+
+def test_judging_decimals_follow_target_and_margin():
+    # the target's own decimals count even when the limits need fewer (-23.5 .. -23.0)
+    req = target("lufs").model_validate({"target_lufs": -23.25, "tolerance_lu": 0.25})
+    assert req.limits() == (-23.5, -23.0)
+    assert judging_decimals(req) == 2
+    assert judging_decimals(tp(-1.0, warn_margin_db=0.25)) == 2
+    assert judging_decimals(tp(-1.0)) == 1
+    assert decimals_of(None) == 0 and decimals_of(1e-9) == 6  # at most MAX_DECIMALS
+
+
+def test_skipped_carries_limit_unit_and_severity():
+    req = tp(-1.0, severity="warn")
+    f = check_limits("peaks.true_peak", "true peak", None, req)
+    assert f.to_dict() == {
+        "check": "peaks.true_peak", "status": "skipped", "severity": "warn", "measured": None,
+        "measured_raw": None, "measured_text": None, "decimals": 1, "limit": "<= -1.0 dBTP",
+        "limit_low": None, "limit_high": -1.0, "miss": None, "unit": "dBTP",
+        "message": "true peak: not judged, the measurement does not exist for this file", "where_s": [],
+        "target": None, "miss_unit": "dB"}
+
+
+def test_below_measurable_fails_a_floor_and_meets_a_ceiling():
+    from masterqc.judge.core import check_below_measurable
+    why = "the programme has no gated loudness"
+    tgt = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    f = check_below_measurable("loudness.integrated", "integrated loudness", tgt, why)
+    assert f.to_dict() == {
+        "check": "loudness.integrated", "status": "fail", "severity": "fail", "measured": None,
+        "measured_raw": None, "measured_text": "below measurable range", "decimals": 1,
+        "limit": "-23.0 LUFS \u00b1 1.0 LU", "limit_low": -24.0, "limit_high": -22.0, "miss": None,
+        "unit": "LUFS",
+        "message": "integrated loudness: the programme has no gated loudness, so it is below the limit -24.0 LUFS",
+        "where_s": [], "target": -23.0, "miss_unit": "LU"}
+    w = check_below_measurable("l", "level", floor("lufs").model_validate({"min_lufs": -30.0, "severity": "warn"}),
+                               why)
+    assert w.status == "warn"
+    assert w.message == ("level: the programme has no gated loudness, so it is below the limit -30.0 LUFS "
+                         "(severity warn: reported as a warning)")
+    c = check_below_measurable("m", "maximum", ceiling("lufs").model_validate({"max_lufs": -10.0}), why)
+    assert (c.status, c.miss, c.measured_text, c.limit_low, c.limit_high) == \
+        ("pass", None, "below measurable range", None, -10.0)
+    assert c.message == "maximum: the programme has no gated loudness; meets <= -10.0 LUFS"
+    assert (c.check, c.limit, c.unit, c.severity, c.decimals) == ("m", "<= -10.0 LUFS", "LUFS", "fail", 1)
+
+
+def test_allowed_values_finding_fields_and_messages():
+    req = allowed(int, "48000").model_validate([48000, 96000])
+    show = lambda v: f"{v} Hz"  # noqa: E731
+    p = check_allowed("format.sample_rate", "sample rate", 48000, req, show=show, unit="Hz")
+    assert p.to_dict() == {
+        "check": "format.sample_rate", "status": "pass", "severity": "fail", "measured": 48000,
+        "measured_raw": 48000, "measured_text": "48000 Hz", "decimals": None,
+        "limit": "one of 48000 Hz, 96000 Hz", "limit_low": None, "limit_high": None, "miss": None,
+        "unit": "Hz", "message": "sample rate 48000 Hz is allowed", "where_s": [], "target": None, "miss_unit": None}
+    f = check_allowed("format.sample_rate", "sample rate", 44100, req, show=show, unit="Hz")
+    assert (f.status, f.measured, f.measured_raw, f.measured_text, f.unit, f.severity) == \
+        ("fail", 44100, 44100, "44100 Hz", "Hz", "fail")
+    assert f.message == "sample rate 44100 Hz is not allowed (allowed: 48000 Hz, 96000 Hz)"
+    w = check_allowed("format.bit_depth", "bit depth", 16,
+                      allowed(int).model_validate({"allowed": [24], "severity": "warn"}))
+    assert w.message == "bit depth 16 is not allowed (allowed: 24) (severity warn: reported as a warning)"
+    assert w.severity == "warn"
+    s = check_allowed("format.sample_rate", "sample rate", None, req, show=show, unit="Hz")
+    assert (s.status, s.limit, s.unit, s.severity) == ("skipped", "one of 48000 Hz, 96000 Hz", "Hz", "fail")
+    assert s.message == "sample rate: not judged, the value is unknown for this file"
+    s2 = check_allowed("c", "layout", None, req, missing_reason="no channel mask")
+    assert s2.message == "layout: not judged, no channel mask"
+
+
+def test_error_finding():
+    from masterqc.judge.core import error
+    e = error("report", "the PDF could not be written")
+    assert (e.check, e.status, e.message, e.severity, e.limit) == \
+        ("report", "error", "the PDF could not be written", None, None)
+    assert verdict([e.to_dict(), Finding(check="c", status="fail", message="m")]) == "error"
+
+
+@pytest.mark.parametrize("value, decimals, up, down", [
+    (-0.95, 1, -0.9, -1.0), (0.95, 1, 1.0, 0.9), (0.05, 1, 0.1, 0.0), (-0.05, 1, 0.0, -0.1),
+    (0.0, 1, 0.0, 0.0), (1.04, 1, 1.0, 1.0), (1.06, 1, 1.1, 1.1), (-1.06, 1, -1.1, -1.1),
+    (2.5, 0, 3.0, 2.0), (-2.5, 0, -2.0, -3.0), (0.125, 2, 0.13, 0.12), (123.4565, 3, 123.457, 123.456),
+    (48000.0, 0, 48000.0, 48000.0), (-23.45, 1, -23.4, -23.5)])
+def test_quantize_table(value, decimals, up, down):
+    # a tie (exactly half a step in the shortest decimal spelling) goes up or down as asked;
+    # anything else goes to the nearest step either way
+    assert quantize(value, decimals, "up") == up
+    assert quantize(value, decimals, "down") == down
+
+
+def test_quantize_refuses_an_unknown_tie_rule():
+    with pytest.raises(ValueError, match="ties must be 'up' or 'down', not 'even'"):
+        quantize(1.0, 1, "even")
+
+
+def test_fmt_shows_fixed_decimals_and_no_negative_zero():
+    from masterqc.judge.core import fmt
+    assert fmt(None, 1) == "n/a"
+    assert fmt(-1.0, 1) == "-1.0" and fmt(1.0, 0) == "1" and fmt(-0.95, 2) == "-0.95"
+    assert fmt(-0.0, 1) == "0.0" and fmt(-0.04, 1) == "0.0" and fmt(-0.06, 1) == "-0.1"
+
+
+def test_limit_text_of_unitless_quantities():
+    # counts and correlations have no unit word: no trailing space, no unit after the tolerance
+    assert limit_text(ceiling("count").model_validate({"max_count": 0})) == "<= 0"
+    assert limit_text(floor("corr").model_validate({"min_corr": -0.3})) == ">= -0.30"
+    assert limit_text(target("corr").model_validate({"target_corr": 0.5, "tolerance_corr": 0.1})) == "0.50 \u00b1 0.10"
+    f = check_limits("c", "clipped runs", 2, ceiling("count").model_validate({"max_count": 0}))
+    assert f.message == "clipped runs 2 is above the limit 0 by 2" and f.measured_text == "2" and f.unit == ""
+
+
+def test_a_tie_at_the_middle_of_bounds_goes_up():
+    # bounds 10.0 .. 20.1 (middle 15.05) judged at 0.1: a value exactly in the middle is equally near
+    # both limits; the rule sends it towards the upper one (house choice, judge/core.py)
+    req = bounds("lu").model_validate({"min_lu": 10.0, "max_lu": 20.1})
+    assert check_limits("b", "range", 15.05, req).measured == 15.1
+    assert check_limits("b", "range", 15.049, req).measured == 15.0
+
+
+def test_below_measurable_of_a_unitless_floor_has_no_trailing_space():
+    from masterqc.judge.core import check_below_measurable
+    f = check_below_measurable("c", "count", floor("count").model_validate({"min_count": 1}), "nothing to count")
+    assert f.message == "count: nothing to count, so it is below the limit 1"
+    assert (f.measured, f.measured_raw, f.miss) == (None, None, None)

@@ -31,7 +31,8 @@ def test_48k_coefficients_match_bs1770_table():
 
 def test_gain_at_997_and_1000_hz_48k():
     # BS.1770-5: a 997 Hz tone is read with the -0.691 dB offset cancelling the filter
-    # gain (0.691 dB); at 1000 Hz the gain is 0.698 dB (computed, standards-figures.md)
+    # gain (0.691 dB, the offset of the Annex 1 loudness equation); at 1000 Hz the gain is 0.698 dB
+    # (analytic: |H(e^jw)| of the two Annex 1 biquads at 48 kHz evaluated at w = 2*pi*1000/48000)
     assert kw.kweighting_gain_db(997.0, 48000) == pytest.approx(0.691, abs=0.0005)
     assert kw.kweighting_gain_db(1000.0, 48000) == pytest.approx(0.698, abs=0.0005)
 

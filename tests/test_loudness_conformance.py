@@ -2,7 +2,8 @@
 ITU-R BS.1770-5 figures, analytic results, and the analyzer's own guarantees
 (block-size independence, nulls where a value cannot exist, pooled gating).
 
-Signals are synthesised from the case descriptions (standards-figures.md): 1 kHz sines,
+Signals are synthesised from the case descriptions (the test-signal tables of
+EBU Tech 3341 and EBU Tech 3342, from memory): 1 kHz sines,
 in phase on both channels, levels are per-channel peak in dBFS.  Caution: the signals
 here are never played; a full-scale test tone is loud, so if you listen to such files,
 start with the monitoring level turned down.

@@ -2,8 +2,8 @@
 
 Sources: WAVE_FORMAT_EXTENSIBLE speaker-position bits (Microsoft's published
 WAVEFORMATEXTENSIBLE definition, from memory: FL=0x1, FR=0x2, FC=0x4, LFE=0x8,
-BL=0x10, BR=0x20, SL=0x200, SR=0x400); BS.1770-5 channel weights (section 2.4
-and Annex 3, figures in standards-figures.md).
+BL=0x10, BR=0x20, SL=0x200, SR=0x400); ITU-R BS.1770-5 channel weights (section 2.4
+and Annex 3: 1.0 for L, R, C; 1.41 for the surrounds; LFE excluded).
 """
 
 from __future__ import annotations

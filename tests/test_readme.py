@@ -26,3 +26,17 @@ def test_ci_calls_the_readme_test_command():
     assert "make demo" in README and "make test" in README
     ci = (ROOT / ".ci" / "run").read_text()
     assert re.search(r"^make test\s*$", ci, flags=re.M)
+
+
+def test_make_demo_installs_masterqc_without_the_test_extras():
+    # the README promises a lean demo install: the demo's stamp installs `-e .` with no extras,
+    # and only the test stamp adds [test,...] (house choice; sizes measured in the README)
+    make = (ROOT / "Makefile").read_text()
+    demo_deps = re.search(r"^demo:(.*)$", make, flags=re.M).group(1).split()
+    assert demo_deps == ["$(BASE_STAMP)"]
+    base_recipe = re.search(r"^\$\(BASE_STAMP\):.*\n((?:\t.*\n)+)", make, flags=re.M).group(1)
+    installs = [ln for ln in base_recipe.splitlines() if "pip install" in ln]
+    assert installs == ["\t$(PY) -m pip install --quiet -e ."]
+    test_deps = re.search(r"^test:(.*)$", make, flags=re.M).group(1).split()
+    test_recipe = re.search(r"^\$\(STAMP\):.*\n((?:\t.*\n)+)", make, flags=re.M).group(1)
+    assert test_deps == ["$(STAMP)"] and "'.[test,cluster]'" in test_recipe

@@ -50,7 +50,8 @@ def test_json_syntax_error_names_line_and_column(tmp_path, capsys):
     bad.write_text('{\n  "tool": {"name": "masterqc"},\n  "file": {"path": "x.wav",}\n}\n')
     assert main(["report", str(bad)]) == 2
     err = capsys.readouterr().err
-    assert f"{bad}: invalid JSON at line 3, column 28"  # the "}" after the trailing comma in err
+    # line 3 is '  "file": {"path": "x.wav",}': the "}" after the trailing comma is character 28
+    assert f"{bad}: invalid JSON at line 3, column 28" in err
 
 
 @pytest.mark.parametrize("content, words", [

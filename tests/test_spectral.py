@@ -2,7 +2,10 @@
 
 References: Parseval's theorem and the constant-overlap-add property of the
 periodic Hann window at 50 % overlap (analytic); the level of a sine in dBFS
-(AES17 convention: a full-scale sine reads 0 dBFS; common practice, no source).
+(AES17, "AES standard method for digital audio engineering - Measurement of digital
+audio equipment", clause 3 definitions: full-scale amplitude is that of a sine whose
+positive peak reaches digital full scale, and dB FS is relative to it, so a full-scale
+sine reads 0 dBFS; clause number from memory).
 """
 
 from __future__ import annotations

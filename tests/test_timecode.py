@@ -111,3 +111,126 @@ def test_timecode_for_a_result():
                                             ("24/1", "NDF", "24"), ("50", "NDF", None), ("x", None, None)])
 def test_fps_from_ixml(rate, flag, name):
     assert tc.fps_from_ixml(rate, flag) == name
+
+
+# ---------------------------------------------------------------- edges and exact messages
+
+def test_frames_per_day():
+    # 24 h of labels: 86400 s x nominal fps; drop frame: 144 ten-minute cycles of 17982 frames
+    assert [tc.frame_rate(f).frames_per_day for f in ("23.976", "25", "30", "29.97ndf", "29.97df")] == \
+        [24 * 86400, 25 * 86400, 30 * 86400, 30 * 86400, 144 * 17982]
+    assert tc.frames_to_timecode(144 * 17982, "29.97df") == "00:00:00;00"  # wraps at 24 h
+    assert tc.frames_to_timecode(144 * 17982 - 1, "29.97df") == "23:59:59;29"
+    assert tc.frames_to_timecode(25 * 86400 - 1, "25") == "23:59:59:24"
+
+
+@pytest.mark.parametrize("frame, label", [(0, "00:00:00;00"), (1, "00:00:00;01"), (2, "00:00:00;02"),
+                                          (1799, "00:00:59;29"), (1800, "00:01:00;02"),
+                                          (1801, "00:01:00;03"), (3597, "00:01:59;29"),
+                                          (3598, "00:02:00;02"), (17981, "00:09:59;29"),
+                                          (17982, "00:10:00;00"), (17983, "00:10:00;01"),
+                                          (17984, "00:10:00;02"), (19782, "00:11:00;02")])
+def test_drop_frame_labels_around_the_minutes(frame, label):
+    # minute m > 0 not divisible by 10 starts at label ;02 (SMPTE ST 12-1 drop-frame rule, from memory)
+    assert tc.frames_to_timecode(frame, "29.97df") == label
+    assert tc.timecode_to_frames(label, "29.97df") == frame
+
+
+def test_rate_lookup_and_messages():
+    fr = tc.frame_rate(" 29.97DF ")
+    assert fr is tc.FRAME_RATES["29.97df"] and tc.frame_rate(fr) is fr
+    assert (fr.name, fr.nominal, fr.drop_frame) == ("29.97df", 30, True)
+    assert tc.DEFAULT_FPS == "25"
+    with pytest.raises(ValueError) as e:
+        tc.frame_rate("29.97")
+    assert str(e.value) == "unknown timecode rate '29.97'; use one of 23.976, 24, 25, 29.97df, 29.97ndf, 30"
+    for fn in (tc.samples_to_frames, tc.frames_to_samples):
+        with pytest.raises(ValueError) as e:
+            fn(10, 0, "25")
+        assert str(e.value) == "sample rate must be positive, got 0"
+        with pytest.raises(ValueError, match="got -48000"):
+            fn(10, -48000, "25")
+
+
+@pytest.mark.parametrize("label, message", [
+    ("1:2:3", "timecode '1:2:3' is not HH:MM:SS:FF"),
+    ("00:00:00:25", "timecode '00:00:00:25' has a field out of range at 25 fps"),
+    ("24:00:00:00", "timecode '24:00:00:00' has a field out of range at 25 fps"),
+    ("00:60:00:00", "timecode '00:60:00:00' has a field out of range at 25 fps"),
+    ("00:00:60:00", "timecode '00:00:60:00' has a field out of range at 25 fps"),
+])
+def test_bad_label_messages(label, message):
+    with pytest.raises(ValueError) as e:
+        tc.timecode_to_frames(label, "25")
+    assert str(e.value) == message
+
+
+def test_dropped_label_message_and_accepted_spellings():
+    with pytest.raises(ValueError) as e:
+        tc.timecode_to_frames("00:01:00;01", "29.97df")
+    assert str(e.value) == ("timecode '00:01:00;01' does not exist in drop-frame count "
+                            "(frames 00 and 01 are skipped in this minute)")
+    # the same label is fine without drop frame, and ;02 exists with it
+    assert tc.timecode_to_frames("00:01:00:01", "29.97ndf") == 1801
+    assert tc.timecode_to_frames("00:01:00;02", "29.97df") == 1800
+    # separators ':' '.' before the seconds, ':' ';' '.' ',' before the frames; spaces around
+    assert tc.timecode_to_frames(" 1.02.03.04 ", "25") == ((1 * 60 + 2) * 60 + 3) * 25 + 4
+    assert tc.timecode_to_frames("01:02:03,04", "25") == ((1 * 60 + 2) * 60 + 3) * 25 + 4
+    assert tc.timecode_to_frames("23:59:59:24", "25") == 25 * 86400 - 1
+
+
+def test_frames_to_samples_is_a_ceiling():
+    # 29.97 fps at 48 kHz: a frame is 1601.6 samples, frame 1 starts at ceil(1601.6) = 1602
+    assert tc.frames_to_samples(1, 48000, "29.97ndf") == 1602
+    assert tc.frames_to_samples(5, 48000, "29.97ndf") == 8008
+    assert tc.frames_to_samples(3, 48000, "25") == 5760
+    assert tc.samples_to_frames(1601, 48000, "29.97ndf") == 0 and tc.samples_to_frames(1602, 48000, "29.97ndf") == 1
+    assert tc.timecode_to_samples("00:00:01:00", 48000) == 48000  # default 25 fps
+    assert tc.samples_to_timecode(48000 + 1920, 48000) == "00:00:01:01"
+
+
+def test_timecode_for_edges():
+    r = {"format": {"sample_rate_hz": 48000}, "metadata": {"time_reference_samples": 48000}}
+    assert tc.timecode_for(-5.0, r) == "00:00:01:00"      # before the start: the first sample
+    assert tc.timecode_for(0.02, r) == "00:00:01:00"      # 960 samples: still frame 25 at 25 fps
+    assert tc.timecode_for(0.0399, r) == "00:00:01:00"    # 1915 samples
+    assert tc.timecode_for(0.04, r) == "00:00:01:01"      # 1920 samples: the next frame
+    assert tc.timecode_for(1.0, r, "30") == "00:00:02:00"
+    assert tc.timecode_for(1.0, {"format": {"sample_rate_hz": 48000}}) == "00:00:01:00"  # no metadata key
+    for bad in ({"format": {}}, {"format": {"sample_rate_hz": 0}}, {}):
+        with pytest.raises(ValueError) as e:
+            tc.timecode_for(1.0, bad)
+        assert str(e.value) == "result has no sample rate; cannot place a timecode"
+
+
+@pytest.mark.parametrize("rate, flag, name", [("30", "NDF", "30"), ("30", None, "30"), ("30000/1001", "", "29.97ndf"),
+                                              (" 30000/1001 ", " df ", "29.97df"), ("29.97", "DF", "29.97df"),
+                                              ("", "DF", None), (None, None, None), ("1/0", None, None),
+                                              ("25", "DF", None), ("23.98", None, "23.976"), ("23.9", None, None)])
+def test_fps_from_ixml_edges(rate, flag, name):
+    assert tc.fps_from_ixml(rate, flag) == name
+
+
+def test_any_positive_sample_rate_is_arithmetic():
+    # 1 Hz is odd but not wrong: 48 samples are 48 s, 1152 frames at 24 fps
+    assert tc.samples_to_frames(48, 1, "24") == 48 * 24
+    assert tc.frames_to_samples(48 * 24, 1, "24") == 48
+    assert tc.timecode_for(2.0, {"format": {"sample_rate_hz": 1}}) == "00:00:02:00"
+
+
+def test_timecode_for_takes_the_rate_from_the_result_and_counts_from_its_start():
+    r = {"format": {"sample_rate_hz": 48000}, "metadata": {"timecode_fps": "30", "time_reference_samples": 49600}}
+    # 49600 samples = 1 s + 1600 samples: one 30 fps frame (1600 samples) past 00:00:01
+    assert tc.start_timecode(r) == "00:00:01:01"
+    assert tc.start_timecode(r, "25") == "00:00:01:00"  # 1600 < 1920 samples: still frame 0 of the second
+    assert tc.timecode_for(0.0, r, "25") == "00:00:01:00"
+    no_ref = {"format": {"sample_rate_hz": 48000}, "metadata": {}}
+    assert tc.timecode_for(1919 / 48000, no_ref) == "00:00:00:00"  # last sample of frame 0 at 25 fps
+    one_short = {"format": {"sample_rate_hz": 48000}, "metadata": {"time_reference_samples": 1919}}
+    assert tc.start_timecode(one_short) == "00:00:00:00"
+
+
+def test_ixml_rate_tolerance_is_strictly_below_a_two_hundredth():
+    assert tc.fps_from_ixml("24.00499", None) == "24"  # just inside 1/200 = 0.005 fps
+    assert tc.fps_from_ixml("24.005", None) is None  # exactly 1/200 fps away
+    assert tc.fps_from_ixml("30000/1001", "df") == "29.97df"

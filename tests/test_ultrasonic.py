@@ -1,7 +1,9 @@
 """Ultrasonic content (masterqc.measure.ultrasonic).
 
 References: analytic energy ratios of sines (mean square A^2/2); the level of
-a sine in dBFS (a full-scale sine reads 0 dBFS; common practice, no source);
+a sine in dBFS (AES17 clause 3 definitions, clause number from memory: a sine whose positive
+peak reaches full scale reads 0 dBFS, so a sine of peak amplitude A reads 20*log10(A) dBFS
+and A = 0.01 reads -40 dBFS);
 pyloudnorm ``Meter(rate, filter_class="DeMan")`` (ITU-R BS.1770-5 K-weighting
 and gating) as the reference for the loudness change of a 20 kHz low-pass,
 the low-pass done exactly by zeroing FFT bins.
@@ -50,7 +52,7 @@ def band_noise(fs, seconds, lo, hi, rms, rng):
 def test_tone_at_30_khz_is_found_with_its_level():
     fs = 96000
     rng = np.random.default_rng(1)
-    x = band_noise(fs, 2.0, 20.0, 18000.0, 0.05, rng) + sine(fs, 2.0, 30000.0, 0.01)
+    x = band_noise(fs, 2.0, 20.0, 18000.0, 0.05, rng) + sine(fs, 2.0, 30000.0, 0.01)  # 20*log10(0.01) = -40 dBFS
     m = measure(x, fs)
     tones = m["ultrasonic_tones"]
     assert len(tones) == 1

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import re
 
-_BARE = re.compile(r"^[A-Z]{2}[A-Z0-9]{3}[0-9]{2}[0-9]{5}$")
 _HYPHENATED = re.compile(r"^([A-Za-z0-9]{2})-([A-Za-z0-9]{3})-([A-Za-z0-9]{2})-([A-Za-z0-9]{5})$")
 _PREFIX = re.compile(r"^ISRC[\s:=]*", re.IGNORECASE)
 #: finds an ISRC written inside free text such as "ISRC: XX-A1B-26-00001" (common practice, no source)
@@ -26,15 +25,15 @@ IN_TEXT = re.compile(r"ISRC[\s:=]*([A-Za-z]{2}-?[A-Za-z0-9]{3}-?[0-9]{2}-?[0-9]{
 
 
 def _element_problem(code: str) -> str | None:
-    """Say which element of a 12-character candidate breaks ISO 3901 syntax (None when none)."""
+    """Say which element of a 12-character upper-case candidate breaks ISO 3901 syntax (None when none)."""
     if not code[:2].isascii() or not code[:2].isalpha():
         return f"country code {code[:2]!r} must be two letters"
     if not re.fullmatch(r"[A-Z0-9]{3}", code[2:5]):
         return f"registrant code {code[2:5]!r} must be three letters or digits"
     if not re.fullmatch(r"[0-9]{2}", code[5:7]):
         return f"year {code[5:7]!r} must be two digits"
-    if not re.fullmatch(r"[0-9]{5}", code[7:12]):
-        return f"designation code {code[7:12]!r} must be five digits"
+    if not re.fullmatch(r"[0-9]{5}", code[7:]):
+        return f"designation code {code[7:]!r} must be five digits"
     return None
 
 
@@ -64,9 +63,9 @@ def check_isrc(text) -> dict:
         out["problem"] = f"{raw!r} has {len(s)} characters, an ISRC has 12"
         return out
     upper = s.upper()
-    problem = _element_problem(upper)
-    if problem or not _BARE.match(upper):
-        out["problem"] = problem or f"{raw!r} is not a valid ISRC"
+    problem = _element_problem(upper)  # every element checked: no problem means ISO 3901 syntax holds
+    if problem:
+        out["problem"] = problem
         return out
     out.update(code=upper, display=format_isrc(upper), valid=True)
     if upper != s:
@@ -82,7 +81,7 @@ def is_valid_isrc(text) -> bool:
 def format_isrc(code: str) -> str:
     """``"XXA1B2600001"`` -> ``"XX-A1B-26-00001"`` (the printed form)."""
     c = str(code)
-    return f"{c[0:2]}-{c[2:5]}-{c[5:7]}-{c[7:12]}"
+    return f"{c[0:2]}-{c[2:5]}-{c[5:7]}-{c[7:]}"
 
 
 def find_in_text(text: str) -> list[str]:

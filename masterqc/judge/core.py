@@ -38,12 +38,13 @@ line in :data:`masterqc.registry.SECTIONS`.  For each requirement it calls
 
 from __future__ import annotations
 
-from decimal import ROUND_HALF_DOWN, ROUND_HALF_UP, Decimal
+from decimal import ROUND_CEILING, ROUND_FLOOR, Decimal
 
 from masterqc.contract import STATUSES, Check, Finding  # noqa: F401  (the typed finding of the result contract)
 from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
 
 MAX_DECIMALS = 6
+_HALF = Decimal("0.5")
 
 
 def verdict(findings) -> str:
@@ -79,15 +80,14 @@ def quantize(value: float, decimals: int, ties: str = "up") -> float:
     towards -infinity (``quantize(-0.95, 1, "up") == -0.9``,
     ``quantize(-0.95, 1, "down") == -1.0``).
     """
-    d = _dec(value)
-    step = Decimal(1).scaleb(-decimals)
-    if ties == "up":
-        mode = ROUND_HALF_UP if d >= 0 else ROUND_HALF_DOWN
-    elif ties == "down":
-        mode = ROUND_HALF_DOWN if d >= 0 else ROUND_HALF_UP
+    steps = _dec(value).scaleb(decimals)  # the value counted in display steps (exact)
+    if ties == "up":  # nearest step, a half-way value goes to the larger step
+        n = (steps + _HALF).to_integral_value(rounding=ROUND_FLOOR)
+    elif ties == "down":  # nearest step, a half-way value goes to the smaller step
+        n = (steps - _HALF).to_integral_value(rounding=ROUND_CEILING)
     else:
         raise ValueError(f"ties must be 'up' or 'down', not {ties!r}")
-    return float(d.quantize(step, rounding=mode))
+    return float(n.scaleb(-decimals))
 
 
 def fmt(value: float | None, decimals: int) -> str:
@@ -156,7 +156,7 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
     A ``value`` of None gives ``skipped`` with ``missing_reason``.
     """
     dec = judging_decimals(req)
-    limit = limit_text(req, dec)
+    limit = limit_text(req)  # at judging_decimals(req), the same step as the value
     u = unit_label(req.unit)
     du = unit_label(difference_unit(req.unit))
     sp, dsp = (" " if u else ""), (" " if du else "")
@@ -191,17 +191,17 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
                        message=f"{what} {fmt(shown, dec)}{sp}{u} is below the limit {fmt(lo, dec)}{sp}{u} "
                                f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
     m = req.warn_margin
-    if m is not None and m > 0:
+    if m:  # a margin of None or 0 never warns
         dm = _dec(m)
         if hi is not None and s > _dec(hi) - dm:
-            return Finding(status="warn", miss=None, where_s=where,
+            return Finding(status="warn", where_s=where,
                            message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
                                    f"of the limit {fmt(hi, dec)}{sp}{u}", **base)
         if lo is not None and s < _dec(lo) + dm:
-            return Finding(status="warn", miss=None, where_s=where,
+            return Finding(status="warn", where_s=where,
                            message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
                                    f"of the limit {fmt(lo, dec)}{sp}{u}", **base)
-    return Finding(status="pass", miss=None, message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
+    return Finding(status="pass", message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
 
 
 def check_below_measurable(check: str, what: str, req: Requirement, reason: str) -> Finding:
@@ -212,7 +212,7 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
     skipped; it equally cannot exceed a ceiling.
     """
     dec = judging_decimals(req)
-    limit = limit_text(req, dec)
+    limit = limit_text(req)  # at judging_decimals(req), the same step as the value
     u = unit_label(req.unit)
     lo, hi = req.limits()
     base = dict(check=check, measured=None, measured_raw=None, limit=limit, unit=u,
@@ -221,10 +221,10 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
     if lo is not None:
         status = "fail" if req.severity == "fail" else "warn"
         note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
-        return Finding(status=status, miss=None,
+        return Finding(status=status,
                        message=f"{what}: {reason}, so it is below the limit {fmt(lo, dec)} {u}{note}".rstrip(),
                        **base)
-    return Finding(status="pass", miss=None, message=f"{what}: {reason}; meets {limit}", **base)
+    return Finding(status="pass", message=f"{what}: {reason}; meets {limit}", **base)
 
 
 def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,

@@ -134,8 +134,6 @@ def _bext_loudness(rule, meta, measurements) -> list[Finding]:
             f.message = (f"bext {tech_name} {fmt(stored, 2)} {label} {agree} the measured {what} "
                          f"{fmt(f.measured, dec)} {label} (difference {fmt(abs(diff), dec)} {tol_unit}, "
                          f"tolerance {fmt(tol, dec)} {tol_unit})")
-            if f.status == "warn" and f.miss is None:
-                f.message += "; within the warning margin"
         out.append(f)
     return out
 
@@ -214,7 +212,7 @@ def _time_reference(rule, result, fps) -> Finding:
     if want == have and exact:
         return Finding(status="pass", message=f"starts at {shown} ({fps} fps) as required", **base)
     off = "" if want != have else " but not on a frame boundary"
-    return Finding(status=_missed(sev), miss=None,
+    return Finding(status=_missed(sev),
                    message=f"starts at {shown} ({fps} fps){off}; the spec requires {rule.start_timecode}", **base)
 
 

@@ -23,4 +23,5 @@ def power_ratio_db(power: float, reference: float = 1.0) -> float | None:
     power, reference = float(power), float(reference)
     if not (power > 0.0 and reference > 0.0) or not (math.isfinite(power) and math.isfinite(reference)):
         return None
-    return 10.0 * math.log10(power / reference)
+    # difference of logs, not log of the quotient: power / reference may overflow or underflow
+    return 10.0 * (math.log10(power) - math.log10(reference))

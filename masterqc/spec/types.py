@@ -223,6 +223,7 @@ class Allowed(SpecModel):
     """Base of allowed-values lists; ``allowed`` holds the accepted values."""
 
     severity: Severity = Field("fail", description="'fail' (default) or 'warn'")
+    example: ClassVar[str] = "..."
 
     @model_validator(mode="before")
     @classmethod
@@ -240,7 +241,7 @@ class Allowed(SpecModel):
         """Published as: a plain list of values, or the ``{allowed, severity}`` mapping."""
         ref = handler(core_schema)
         obj = handler.resolve_ref_schema(ref)
-        items = obj["properties"]["allowed"].get("items", {})
+        items = obj["properties"]["allowed"]["items"]  # list[...] always has an items schema
         obj.setdefault("description", "a list of allowed values, or {allowed: [...], severity: warn}")
         return {"anyOf": [{"type": "array", "items": items, "minItems": 1}, dict(obj)],
                 "description": obj["description"]}
@@ -250,7 +251,7 @@ class Allowed(SpecModel):
 
 
 def _example(cls) -> str:
-    return getattr(cls, "example", "...")
+    return cls.example
 
 
 @functools.cache
