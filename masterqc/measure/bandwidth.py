@@ -193,7 +193,7 @@ MEASUREMENT_SCHEMA = {
     "upsampled_confidence_fraction": NUMBER_OR_NULL,
     "upsampled_channels": {"type": ["array", "null"], "items": {"type": "string"}},
     "upsampled_edge_ratio": NUMBER_OR_NULL,
-    "upsampled_evidence": {"enum": ["cliff", "images", "segments", None]},
+    "upsampled_evidence": {"enum": ["cliff", "images", "segments", "samples", None]},
     "band_limit_hz": NUMBER_OR_NULL,
     "untestable_source_rates_hz": array_of({"type": "integer"}),
     "bandwidth_note": STRING_OR_NULL,
