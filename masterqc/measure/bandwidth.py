@@ -733,8 +733,12 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     out.settings["testable_hz"] = testable
     nyq = fs / 2.0
     top = min(len(env), _bins(0.99 * nyq, bin_hz))
+    # 22.05 kHz joins the full-scale pass as well: its Nyquist lies within 0.92 of 24 kHz's, so a
+    # cliff read there can sit nearer the typical ratio of either, and only a pass that offers both
+    # can choose (the scale-2 pass reads the same cliff over a wider pass window, where a slow
+    # windowed-sinc transition already falls)
     cliff, rate, pos, tonal = _judge_cliff(env, total, bin_hz, top, floor, nyq,
-                                           [r for r in testable if scale_for(r) == 1], 1)
+                                           [r for r in testable if scale_for(r) == 1 or r == 22050], 1)
     for scale in (2, 4):
         # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
         # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins

@@ -44,9 +44,9 @@ from masterqc.measure.imaging import FramePicker, frame_starts
 
 #: standard source rates that are tested when below the file's rate
 CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400)
-#: frames analysed per file, and their length (own reasoning: some 400 000 samples per
-#: channel give every phase of the longest period (7680 at 192 kHz) 50 samples and more)
-MAX_FRAMES = 48
+#: frames analysed per file, and their length (own reasoning: some 260 000 samples per
+#: channel give every phase of the longest period (7680 at 192 kHz) 34 samples and more)
+MAX_FRAMES = 32
 FRAME_SAMPLES = 8192
 #: minimum contrast, dB, between the strongest phases and the others (own reasoning: natural
 #: audio and interpolating resamplers spread difference power evenly over the phases, within
@@ -206,15 +206,27 @@ class InterpolationTraceAnalyzer(Analyzer):
         for start, frame in self.picker.feed(block):
             self.frames += 1
             x = np.asarray(frame, dtype=float)
-            pos = (int(start) + np.arange(x.shape[0], dtype=np.int64)) % M
-            diffs = (x, x[1:] - x[:-1], x[2:] - 2.0 * x[1:-1] + x[:-2])
-            offs = (pos, pos[1:], pos[1:-1])
-            for o, (d, ph) in enumerate(zip(diffs, offs)):
-                idx = (ph[None, :] + (np.arange(C) * M)[:, None]).ravel()
-                sq = (d.T * d.T).ravel()
+            n = x.shape[0]
+            pos = (int(start) + np.arange(n, dtype=np.int64)) % M
+            full = np.bincount(pos, minlength=M)
+            idx0 = (pos[None, :] + (np.arange(C, dtype=np.int64) * M)[:, None])
+            xt = x.T
+            d1 = xt[:, 1:] - xt[:, :-1]
+            diffs = (xt, d1, d1[:, 1:] - d1[:, :-1])
+            for o, d in enumerate(diffs):
+                # difference o covers samples 1..n-1 (o = 1) or 1..n-2 (o = 2), indexed by its middle sample
+                idx = idx0[:, 1:n - 1] if o == 2 else idx0[:, 1:] if o == 1 else idx0
+                sq = d * d
+                idx = idx.ravel()
+                sq = sq.ravel()
                 self.energy[o] += np.bincount(idx, weights=sq, minlength=C * M).reshape(C, M)
                 self.hits[o] += np.bincount(idx[sq > self.hit_min], minlength=C * M).reshape(C, M)
-                self.counts[o] += np.bincount(ph, minlength=M)
+                c = full.astype(float)
+                if o >= 1:
+                    c[pos[0]] -= 1
+                if o == 2:
+                    c[pos[-1]] -= 1
+                self.counts[o] += c
 
     def finish(self) -> AnalyzerResult:
         labels = list(getattr(self.info, "channel_layout", None) or [])
