@@ -175,6 +175,11 @@ def test_provenance_prefers_the_sample_pattern_over_images():
     assert out["upsampled_from_hz"] == 8000
     assert out["upsampled_evidence"] == "samples"
     assert out["upsampled_channels"] == ["M"]
+    # with time segments, the whole file is where it was converted up (file and segments agree)
+    segs = [{"start_s": 0.0, "end_s": 6.0, "upsampled_from_hz": None},
+            {"start_s": 6.0, "end_s": 12.0, "upsampled_from_hz": None}]
+    out = provenance.combine(dict(m, bandwidth_segments=segs, upsampled_where_s=[]))
+    assert out["upsampled_where_s"] == [[0.0, 12.0]]
     m["interpolation_source_rate_hz"] = None
     out = provenance.combine(dict(m))
     assert out["upsampled_from_hz"] == 32000 and out["upsampled_evidence"] == "images"

@@ -57,6 +57,11 @@ def from_pattern(m: dict) -> dict:
     m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz {how}: the samples repeat that "
                            f"pattern at the source rate exactly (contrast {float(con or 0.0):.0f} dB)")
     m["band_limit_hz"] = None
+    segs = [g for g in (m.get("bandwidth_segments") or []) if isinstance(g, dict)]
+    if segs:
+        # the pattern holds over the frames spread through the whole file (a part converted up
+        # would dilute it below the contrast needed): the file-level verdict covers the file
+        m["upsampled_where_s"] = [[float(segs[0]["start_s"]), float(segs[-1]["end_s"])]]
     return m
 
 
