@@ -183,3 +183,25 @@ def test_provenance_prefers_the_sample_pattern_over_images():
     m["interpolation_source_rate_hz"] = None
     out = provenance.combine(dict(m))
     assert out["upsampled_from_hz"] == 32000 and out["upsampled_evidence"] == "images"
+
+
+def test_zero_stuffing_by_8_is_not_read_as_a_nearby_rate_with_fewer_phases():
+    # Analytic: zero stuffing 24 kHz -> 192 kHz (L = 8) keeps 160 of every 1280 phases; 22.05 kHz
+    # (192000 / 22050 = 1280 / 147) would take 147 of them, leaving 13 busy phases among its others,
+    # which a true 22.05 kHz pattern never has: the source read is 24 kHz.
+    rng = np.random.default_rng(9)
+    x = _noise(6000, 24000, rng, 11000.0)
+    y = np.zeros(len(x) * 8)
+    y[::8] = x
+    m = _run(_q24(y, rng), 192000)
+    assert m["interpolation_source_rate_hz"] == 24000
+
+
+def test_sparse_bursts_over_a_quiet_bed_name_nothing():
+    # natural material moves at every phase (its quiet bed included), however the bursts fall
+    rng = np.random.default_rng(10)
+    n = 32000 * 2
+    y = 1e-3 * rng.standard_normal(n)
+    for s in rng.integers(0, n - 3000, 6):
+        y[s:s + 2000] += 0.3 * rng.standard_normal(2000) * np.hanning(2000)
+    assert _run(_q24(y, rng), 32000)["interpolation_source_rate_hz"] is None

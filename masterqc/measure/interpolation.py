@@ -74,6 +74,11 @@ HIT_MIN_LSB2 = 64.0
 #: source sample brings a new value; a naive square wave whose transitions land on a few phases
 #: moves there only once per half period)
 BUSY_MIN_FRACTION = 0.5
+#: ... while at each of the other phases at most this fraction of the samples moves (own reasoning: with
+#: 24-bit TPDF dither the rounding error stays within 1.5 LSB, so zeroth, first and second differences of a
+#: held, straight or zero run stay within 6 LSB, below HIT_MIN_LSB2; natural audio moves at every phase,
+#: and a pattern with more active phases than m leaves busy phases among the others)
+REST_BUSY_MAX_FRACTION = 0.25
 #: sub-rates checked by the guard
 GUARD_DIVISORS = (2, 3)
 #: difference orders and the upsampler each one exposes
@@ -161,10 +166,12 @@ def lowest_source(fs: int, rates, energy: np.ndarray, counts: np.ndarray, active
             if float(np.mean(np.sort(means)[::-1][:m])) < active_min:
                 continue
             if hits is not None:
-                # most samples at the active phases move (every source sample brings a new value)
-                top = np.argsort(means)[::-1][:m]
-                busy = phase_means(hits, counts, p)[top]
-                if float(np.median(busy)) < BUSY_MIN_FRACTION:
+                # most samples at the active phases move (every source sample brings a new value), and
+                # at every other phase hardly any does (only the format's noise is left there)
+                order = np.argsort(means)[::-1]
+                busy = phase_means(hits, counts, p)
+                if float(np.median(busy[order[:m]])) < BUSY_MIN_FRACTION \
+                        or float(np.max(busy[order[m:]])) > REST_BUSY_MAX_FRACTION:
                     continue
             coarser = False
             for k in GUARD_DIVISORS:
