@@ -688,7 +688,9 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
-        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
+        # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
+        # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)

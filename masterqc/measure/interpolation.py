@@ -79,6 +79,9 @@ BUSY_MIN_FRACTION = 0.5
 #: held, straight or zero run stay within 6 LSB, below HIT_MIN_LSB2; natural audio moves at every phase,
 #: and a pattern with more active phases than m leaves busy phases among the others)
 REST_BUSY_MAX_FRACTION = 0.25
+#: ... except for this fraction of the other phases (plus one): the weak member of a linear pair whose knot
+#: lies within a few per cent of an output sample can rank among the others (own reasoning)
+REST_BUSY_SPARE = 0.005
 #: sub-rates checked by the guard
 GUARD_DIVISORS = (2, 3)
 #: difference orders and the upsampler each one exposes
@@ -170,8 +173,9 @@ def lowest_source(fs: int, rates, energy: np.ndarray, counts: np.ndarray, active
                 # at every other phase hardly any does (only the format's noise is left there)
                 order = np.argsort(means)[::-1]
                 busy = phase_means(hits, counts, p)
+                rest = busy[order[m:]]
                 if float(np.median(busy[order[:m]])) < BUSY_MIN_FRACTION \
-                        or float(np.max(busy[order[m:]])) > REST_BUSY_MAX_FRACTION:
+                        or int(np.count_nonzero(rest > REST_BUSY_MAX_FRACTION)) > REST_BUSY_SPARE * rest.size + 1:
                     continue
             coarser = False
             for k in GUARD_DIVISORS:
