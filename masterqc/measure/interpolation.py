@@ -150,41 +150,49 @@ def paired(means: np.ndarray, m: int) -> bool:
     return float(np.mean(nb)) >= PAIRED_MIN_FRACTION
 
 
+def pattern_holds(fs: int, rate, mult: int, energy, counts, hits, active_min: float):
+    """The contrast (dB) when ``m = mult * Q`` phases of ``rate``'s period carry the pattern (contrast,
+    activity, busy active phases, still other phases, pairs for ``mult`` 2), else None."""
+    p, q = period(fs, rate)
+    m = mult * q
+    if m >= p:
+        return None
+    means = phase_means(energy, counts, p)
+    if mult == 2 and not paired(means, m):
+        return None
+    c = contrast_db(means, m)
+    if c is None or c < CONTRAST_MIN_DB:
+        return None
+    order = np.argsort(means)[::-1]
+    if float(np.mean(means[order[:m]])) < active_min:
+        return None
+    if hits is not None:
+        # most samples at the active phases move (every source sample brings a new value), and
+        # at the other phases hardly any does (only the format's noise is left there)
+        busy = phase_means(hits, counts, p)
+        rest = busy[order[m:]]
+        if float(np.median(busy[order[:m]])) < BUSY_MIN_FRACTION \
+                or int(np.count_nonzero(rest > REST_BUSY_MAX_FRACTION)) > REST_BUSY_SPARE * rest.size + 1:
+            return None
+    return c
+
+
 def lowest_source(fs: int, rates, energy: np.ndarray, counts: np.ndarray, active_min: float, hits=None,
                   pairs: bool = False):
-    """``(rate, contrast_db)`` of the lowest candidate whose phase pattern passes (with its guard),
-    from per-phase power sums ``energy`` and ``counts`` kept modulo the common period; else (None, None).
-    ``pairs``: also try ``2 Q`` strongest phases that come in neighbouring pairs (second differences
-    of linear interpolation by a ratio whose knots fall between output samples)."""
+    """``(rate, contrast_db)`` of the lowest candidate whose phase pattern holds (:func:`pattern_holds`)
+    while no coarser one (``rate / k`` for k in :data:`GUARD_DIVISORS`) does, from per-phase power sums
+    ``energy``, move counts ``hits`` and ``counts`` kept modulo the common period; else (None, None).
+    ``pairs``: also try ``2 Q`` phases in neighbouring pairs (second differences of linear interpolation
+    by a ratio whose knots fall between output samples)."""
     for r in sorted(rates):
-        p, q = period(fs, r)
-        means = phase_means(energy, counts, p)
         for mult in ((1, 2) if pairs else (1,)):
-            m = mult * q
-            if mult == 2 and (m >= p or not paired(means, m)):
+            c = pattern_holds(fs, r, mult, energy, counts, hits, active_min)
+            if c is None:
                 continue
-            c = contrast_db(means, m)
-            if c is None or c < CONTRAST_MIN_DB:
+            if any(pattern_holds(fs, Fraction(r) / k, mult, energy, counts, hits, active_min) is not None
+                   for k in GUARD_DIVISORS):
                 continue
-            if float(np.mean(np.sort(means)[::-1][:m])) < active_min:
-                continue
-            if hits is not None:
-                # most samples at the active phases move (every source sample brings a new value), and
-                # at every other phase hardly any does (only the format's noise is left there)
-                order = np.argsort(means)[::-1]
-                busy = phase_means(hits, counts, p)
-                rest = busy[order[m:]]
-                if float(np.median(busy[order[:m]])) < BUSY_MIN_FRACTION \
-                        or int(np.count_nonzero(rest > REST_BUSY_MAX_FRACTION)) > REST_BUSY_SPARE * rest.size + 1:
-                    continue
-            coarser = False
-            for k in GUARD_DIVISORS:
-                pk, qk = period(fs, Fraction(r) / k)
-                ck = contrast_db(phase_means(energy, counts, pk), mult * qk)
-                if ck is not None and ck >= CONTRAST_MIN_DB:
-                    coarser = True
-            if not coarser:
-                return int(r), c
+            return int(r), c
     return None, None
 
 
