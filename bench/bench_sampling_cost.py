@@ -49,7 +49,7 @@ import bench_core  # noqa: E402  (same folder: the shared programme)
 BLOCK = bench_core.BLOCK
 CORE = ("LoudnessAnalyzer", "SamplePeakAnalyzer", "TruePeakAnalyzer")
 SPECTRUM = "SamplingSpectrumAnalyzer"
-FOLDING = ("ImagingAnalyzer", "AliasingAnalyzer")
+FOLDING = ("ImagingAnalyzer", "AliasingAnalyzer", "InterpolationTraceAnalyzer")
 
 
 def _loop_96k() -> np.ndarray:

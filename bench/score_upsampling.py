@@ -60,7 +60,7 @@ class CaseStream:
 
 def sampling_classes(with_aliasing: bool = False):
     from masterqc.measure.registry import analyzer_classes
-    names = {"ImagingAnalyzer", "SamplingSpectrumAnalyzer"} | ({"AliasingAnalyzer"} if with_aliasing else set())
+    names = {"ImagingAnalyzer", "SamplingSpectrumAnalyzer", "InterpolationTraceAnalyzer"} | ({"AliasingAnalyzer"} if with_aliasing else set())
     return [c for c in analyzer_classes() if c.__name__ in names]
 
 
@@ -161,7 +161,8 @@ def run(corpus: str, seeds, quick: bool, only: str | None = None, progress=True,
                          "outcome": score_case(case, m), "elapsed_s": time.perf_counter() - t0,
                          "got": {k: m.get(k) for k in ("upsampled_from_hz", "upsampled_channels",
                                                        "upsampled_confidence_fraction", "effective_bandwidth_hz",
-                                                       "bandwidth_note", "imaging_detected")}})
+                                                       "bandwidth_note", "imaging_detected",
+                                                       "interpolation_source_rate_hz", "interpolation_kind")}})
             if progress:
                 print(".", end="", flush=True, file=sys.stderr)
     if progress:

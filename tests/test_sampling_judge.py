@@ -218,3 +218,15 @@ def test_upsampling_findings_read_as_plain_sentences():
     found, _v = judge(sp, {"measurements": m})
     msg = next(f for f in found if f.check == "sampling.upsampled").message
     assert "Converted up from 48 kHz without a proper interpolation filter" in msg and "Channels converted: L, R." in msg
+
+
+def test_upsampling_from_a_sample_pattern_reads_as_a_plain_sentence():
+    # wording (house choice): a hold / straight-line / zero-stuffed pattern names the source rate itself
+    sp = spec(upsampled=[False])
+    m = {"upsampled_from_hz": 8000, "upsampled_confidence_fraction": 1.0, "upsampled_evidence": "samples",
+         "upsampled_channels": ["M"], "interpolation_kind": "hold"}
+    found, _v = judge(sp, {"measurements": m})
+    f = next(f for f in found if f.check == "sampling.upsampled")
+    assert f.status == "fail"
+    assert "Converted up from 8 kHz without an interpolation filter" in f.message
+    assert "at 8 kHz exactly" in f.message and "Channel converted: M." in f.message

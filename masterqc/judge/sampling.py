@@ -153,6 +153,9 @@ def _upsampled_sentence(m: dict, src: int, conf) -> str:
     if evidence == "images":
         body = (f"Converted up from {src_khz} without a proper interpolation filter: the spectrum above "
                 f"{src / 2000:g} kHz holds mirror images of the content below it.")
+    elif evidence == "samples":
+        body = (f"Converted up from {src_khz} without an interpolation filter: the samples repeat a "
+                f"held, straight-line or zero-stuffed pattern at {src_khz} exactly.")
     elif evidence == "segments":
         body = (f"Converted up from {src_khz}: every part of the file ends in a converter's cliff below "
                 f"{src / 2000:g} kHz.")

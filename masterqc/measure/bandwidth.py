@@ -202,8 +202,8 @@ MEASUREMENT_SCHEMA = {
         'the channels the upsampling was found in'),
     "upsampled_edge_ratio": measured(NUMBER_OR_NULL, 'ratio',
         'the content edge over the source rate\'s Nyquist frequency'),
-    "upsampled_evidence": measured({"enum": ["cliff", "images", "segments", None]}, NO_UNIT,
-        'what showed the upsampling: a converter cliff, images, or stretches of the file'),
+    "upsampled_evidence": measured({"enum": ["cliff", "images", "segments", "samples", None]}, NO_UNIT,
+        'what showed the upsampling: a converter cliff, images, stretches of the file, or the sample pattern of an interpolating upsampler'),
     "band_limit_hz": measured(NUMBER_OR_NULL, 'hz',
         'frequency of a steep low-pass no standard rate explains; null when none'),
     "untestable_source_rates_hz": measured(array_of({"type": "integer"}), 'hz',
@@ -703,7 +703,9 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
-        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
+        # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
+        # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
@@ -748,8 +750,12 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
     out.settings["testable_hz"] = testable
     nyq = fs / 2.0
     top = min(len(env), _bins(0.99 * nyq, bin_hz))
+    # 22.05 kHz joins the full-scale pass as well: its Nyquist lies within 0.92 of 24 kHz's, so a
+    # cliff read there can sit nearer the typical ratio of either, and only a pass that offers both
+    # can choose (the scale-2 pass reads the same cliff over a wider pass window, where a slow
+    # windowed-sinc transition already falls)
     cliff, rate, pos, tonal = _judge_cliff(env, total, bin_hz, top, floor, nyq,
-                                           [r for r in testable if scale_for(r) == 1], 1)
+                                           [r for r in testable if scale_for(r) == 1 or r == 22050], 1)
     for scale in (2, 4):
         # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
         # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins

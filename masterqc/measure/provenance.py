@@ -5,7 +5,11 @@ converter's cliff; an upsampler without a proper filter (sample hold, linear
 interpolation, zero stuffing) leaves no cliff but mirror images, which the imaging
 analyzer (:mod:`masterqc.measure.imaging`) finds and attributes to a source rate.  A
 file with such images *is* upsampled, so :func:`combine` lets ``upsampled_from_hz``
-say so too, after every analyzer has finished.  Pure: measurements in, measurements out.
+say so too, after every analyzer has finished.  The imaging analyzer tests source rates of
+32 kHz and up only, so for a lower source it names a multiple of the rate; the sample
+patterns of :mod:`masterqc.measure.interpolation` (runs of held samples, straight lines,
+stuffed zeros) name the rate itself and take precedence over images and cliffs: they are
+exact, not statistical.  Pure: measurements in, measurements out.
 """
 
 from __future__ import annotations
@@ -30,6 +34,38 @@ def image_source(imaging) -> dict | None:
 
 
 def combine(m: dict) -> dict:
+    """Both steps below: the sample pattern first, then the images."""
+    return from_images(from_pattern(m))
+
+
+def from_pattern(m: dict) -> dict:
+    """``m`` with ``upsampled_from_hz`` (and its confidence, channels, evidence, note) taken from
+    the sample pattern of an unfiltered upsampler, when there is one."""
+    rate = m.get("interpolation_source_rate_hz")
+    if "upsampled_from_hz" not in m or rate is None:
+        return m
+    rate = int(rate)
+    kind = m.get("interpolation_kind") or "hold"
+    con = m.get("interpolation_contrast_db")
+    m["upsampled_from_hz"] = rate
+    m["upsampled_confidence_fraction"] = round(min(1.0, 0.5 + (float(con or 0.0)) / 120.0), 2)
+    m["upsampled_evidence"] = "samples"
+    m["upsampled_edge_ratio"] = None
+    m["upsampled_channels"] = list(m.get("interpolation_channels") or [])
+    how = {"hold": "by holding each sample", "linear": "by straight lines between samples",
+           "zero-stuff": "by inserting zeros"}.get(kind, "without a filter")
+    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz {how}: the samples repeat that "
+                           f"pattern at the source rate exactly (contrast {float(con or 0.0):.0f} dB)")
+    m["band_limit_hz"] = None
+    segs = [g for g in (m.get("bandwidth_segments") or []) if isinstance(g, dict)]
+    if segs:
+        # the pattern holds over the frames spread through the whole file (a part converted up
+        # would dilute it below the contrast needed): the file-level verdict covers the file
+        m["upsampled_where_s"] = [[float(segs[0]["start_s"]), float(segs[-1]["end_s"])]]
+    return m
+
+
+def from_images(m: dict) -> dict:
     """``m`` with ``upsampled_from_hz`` (and its confidence, channels, evidence, note) taken
     from the imaging verdict when the bandwidth analysis found no converter cliff."""
     if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:

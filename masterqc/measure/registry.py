@@ -15,6 +15,8 @@ def analyzer_classes():
     classes += [spectral.SamplingSpectrumAnalyzer]
     from masterqc.measure import aliasing, imaging
     classes += [imaging.ImagingAnalyzer, aliasing.AliasingAnalyzer]
+    from masterqc.measure import interpolation
+    classes += [interpolation.InterpolationTraceAnalyzer]
     return classes
 
 
