@@ -35,6 +35,7 @@ import importlib.util
 import json
 import os
 import re
+import resource
 import subprocess
 import sys
 import time
@@ -174,6 +175,8 @@ def run_corpus(module, seed: int, quick: bool = False, workers: int = 2, reuse: 
         return kept, err, wall
 
     futures = []
+    cpu0_self = resource.getrusage(resource.RUSAGE_SELF)
+    cpu0_children = resource.getrusage(resource.RUSAGE_CHILDREN)
     with ThreadPoolExecutor(max_workers=workers) as pool:
         it = iter(module.cases(seed, quick=quick))
         while True:
@@ -205,8 +208,13 @@ def run_corpus(module, seed: int, quick: bool = False, workers: int = 2, reuse: 
                 print(f"  [{i + 1}/{len(futures)}] {rec['name']}: {rec['outcome']}"
                       + (f" ERROR {err}" if err else ""), file=sys.stderr, flush=True)
     total_s = time.perf_counter() - t_start
-    return {"corpus": tag, "seed": seed, "quick": quick, "cases": records, "generation_s": round(gen_s, 1),
-            "total_s": round(total_s, 1), "measure_cpu_wall_s": round(sum(r["measure_wall_s"] for r in records), 1),
+    cpu1_self = resource.getrusage(resource.RUSAGE_SELF)
+    cpu1_children = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu_self = (cpu1_self.ru_utime + cpu1_self.ru_stime) - (cpu0_self.ru_utime + cpu0_self.ru_stime)
+    cpu_children = (cpu1_children.ru_utime + cpu1_children.ru_stime) - (cpu0_children.ru_utime + cpu0_children.ru_stime)
+    return {"cpu_generation_s": round(cpu_self, 1), "cpu_children_s": round(cpu_children, 1),
+            "load_average": [round(v, 1) for v in os.getloadavg()],"corpus": tag, "seed": seed, "quick": quick, "cases": records, "generation_s": round(gen_s, 1),
+            "total_s": round(total_s, 1), "measure_wall_sum_s": round(sum(r["measure_wall_s"] for r in records), 1),
             "skipped_families": list(getattr(module, "SKIPPED_FAMILIES", []))}
 
 
@@ -301,7 +309,9 @@ def format_tables(runs: list[dict]) -> str:
             for k in sorted(groups):
                 lines.append(f"{k:<{wn}}{len(groups[k]):>4}  " + "".join(f"{v:>11}" for v in brief(tally(groups[k]))))
         lines.append(f"{r['corpus']}: generation {r['generation_s']:.0f} s, wall {r['total_s']:.0f} s "
-                     f"(sum of measure wall times {r['measure_cpu_wall_s']:.0f} s)"
+                     f"(sum of measure wall times {r['measure_wall_sum_s']:.0f} s); CPU: generation "
+                     f"{r.get('cpu_generation_s', 0):.0f} s, masterqc + sox + ffmpeg {r.get('cpu_children_s', 0):.0f} s "
+                     f"(load average at the end {r.get('load_average')})"
                      + (f"; skipped families: {', '.join(r['skipped_families'])}" if r["skipped_families"] else ""))
     return "\n".join(lines)
 
