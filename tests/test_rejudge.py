@@ -86,3 +86,29 @@ def test_check_with_stored_measurements_reads_no_audio(checked, monkeypatch):
     r = pipeline.check_file(wav, load_spec(tmp_path / "b.yaml"), tmp_path / "o", ("json",),
                             stored=json.loads(saved.read_text()))
     assert r["verdict"] == "fail" and r["provenance"]["how"] == "rejudged"
+
+
+def test_judge_and_report_take_spec_libraries_as_check_does(checked, capsys):
+    """A spec whose extends: names a base in a library folder: refused without --spec-library
+    (exit 2, naming the base), judged with it; report --spec the same (house choice: confined extends:)."""
+    tmp_path, _wav, saved = checked
+    lib = tmp_path / "library"
+    lib.mkdir()
+    (lib / "house-b.yaml").write_text(SPEC_23)
+    child = tmp_path / "client" / "child.yaml"
+    child.parent.mkdir()
+    child.write_text("spec_version: 1\nname: client child (invented)\nextends: house-b.yaml\n")
+    out = tmp_path / "j"
+    assert main(["judge", str(saved), "--spec", str(child), "--out", str(out), "--quiet"]) == 2
+    assert "house-b.yaml" in capsys.readouterr().err and not out.exists()
+    assert main(["judge", str(saved), "--spec", str(child), "--spec-library", str(lib), "--out", str(out),
+                 "--quiet"]) == 1  # -20 LUFS misses the base's -23 +- 1 target
+    result = json.loads((out / "sine.json").read_text())
+    assert result["spec"]["name"] == "client child (invented)" and _integrated(result)["miss"] == 2.0
+    rep = tmp_path / "rep"
+    assert main(["report", str(saved), "--spec", str(child), "--out", str(rep), "--format", "html"]) == 2
+    assert main(["report", str(saved), "--spec", str(child), "--spec-library", str(lib), "--out", str(rep),
+                 "--format", "html"]) == 0
+    assert "client child (invented)" in (rep / "sine.html").read_text()
+    assert main(["report", str(saved), "--spec-library", str(lib), "--out", str(rep), "--format", "html"]) == 2
+    assert "--spec-library is used with --spec" in capsys.readouterr().err
