@@ -251,6 +251,19 @@ class Ledger:
             return row[4]
         return None
 
+    def known_hashes(self, paths) -> dict:
+        """``{path: (size_bytes, mtime_ns, ctime_ns, inode, content_sha256)}`` of the ``paths`` the cache
+        holds, in one query (compare the stat yourself, as :meth:`known_hash` does)."""
+        wanted = {_t(p): p for p in paths}
+        keys = list(wanted)
+        out = {}
+        for i in range(0, len(keys), 500):
+            chunk = keys[i:i + 500]
+            for row in self.db.execute("SELECT path, size_bytes, mtime_ns, ctime_ns, inode, content_sha256 FROM "
+                                       f"file_stat WHERE path IN ({','.join('?' * len(chunk))})", chunk):
+                out[wanted[row[0]]] = tuple(row[1:])
+        return out
+
     def remember_hash(self, path: str, st: os.stat_result, content_sha256: str) -> None:
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO file_stat VALUES (?,?,?,?,?,?)",
