@@ -41,17 +41,22 @@ from masterqc.jsonutil import jsonable
 from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
 
 
-def result_json_text(result: dict) -> str:
+def result_json_text(result: dict, encoded: dict | None = None) -> str:
     """The result as JSON text: one top-level key per line and one finding per line, the rest compact.
 
     (Fully indented JSON goes through Python's pure encoder and costs more than judging; this layout
     keeps the C encoder and stays readable where people look: the verdict and the findings.)
+    ``encoded``: ``{key: (value, text)}`` of values already encoded (:func:`parse_result_text`); a
+    key's text is used as it is while the result holds that very value object.
     """
     def dumps(v):
         return json.dumps(v, ensure_ascii=False, allow_nan=False)
     lines = []
     for key, value in result.items():
-        if key == "findings" and isinstance(value, list) and value:
+        hit = encoded.get(key) if encoded else None
+        if hit is not None and hit[0] is value:
+            body = hit[1]
+        elif key == "findings" and isinstance(value, list) and value:
             body = "[\n" + ",\n".join(f"    {dumps(f)}" for f in value) + "\n  ]"
         else:
             body = dumps(value)
@@ -59,11 +64,41 @@ def result_json_text(result: dict) -> str:
     return "{\n" + ",\n".join(lines) + "\n}\n"
 
 
-def write_json(result: dict, path, durable: bool = True) -> None:
+def parse_result_text(text: str) -> tuple[dict, dict]:
+    """``(result, encoded)`` of JSON text: ``encoded`` maps each top-level key written on a line of
+    its own (the layout of :func:`result_json_text`) to ``(value, its text)``, so writing the value
+    again costs no encoding; text in another layout gives an empty ``encoded``."""
+    result = json.loads(text)
+    encoded = {}
+    lines = text.split("\n")
+    if not isinstance(result, dict) or lines[0] != "{":
+        return result, encoded
+    decoder = json.JSONDecoder()
+    for i, line in enumerate(lines[1:-1], start=1):
+        if not line.startswith('  "'):
+            continue  # a finding's line, or the end of the findings list
+        try:
+            key, end = decoder.raw_decode(line, 2)
+        except ValueError:
+            return result, {}
+        if not isinstance(key, str) or not line.startswith(": ", end) or key not in result:
+            return result, {}
+        body = line[end + 2:]
+        if body == "[":  # the findings list spans lines: encoded afresh
+            continue
+        if lines[i + 1] != "}":  # every key's line but the last ends with the separating comma
+            if not body.endswith(","):
+                return result, {}
+            body = body[:-1]
+        encoded[key] = (result[key], body)
+    return result, encoded
+
+
+def write_json(result: dict, path, durable: bool = True, encoded: dict | None = None) -> None:
     """The result as JSON (:func:`result_json_text`; non-finite floats as null), atomically
-    (``durable``: see :func:`masterqc.fileio.write_atomic`)."""
+    (``durable``: see :func:`masterqc.fileio.write_atomic`; ``encoded``: see :func:`result_json_text`)."""
     try:  # fast path: a result that is already plain JSON (measured results are)
-        data = result_json_text(result).encode("utf-8")
+        data = result_json_text(result, encoded).encode("utf-8")
     except (TypeError, ValueError, UnicodeEncodeError):
         data = result_json_text(jsonable(result)).encode("utf-8")
     write_atomic(path, data, durable=durable)
@@ -187,14 +222,15 @@ def judge_stored(stored: dict, loaded_spec, measurement_key: str) -> dict:
     return out
 
 
-def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable: bool = True) -> dict:
+def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable: bool = True,
+                  encoded: dict | None = None) -> dict:
     """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``; return it with ``outputs``.
 
     ``keep``: rendered formats already on disk and fresh (not written again).  A failing
     renderer adds an ``error`` finding (``report.render``) and the JSON is still written;
     error results get their reports too (the page says why the file was not judged).
     ``durable``: the JSON is flushed to disk before it replaces the old one
-    (:func:`masterqc.fileio.write_atomic`).
+    (:func:`masterqc.fileio.write_atomic`); ``encoded``: values already encoded (:func:`result_json_text`).
     """
     result = dict(result)
     os.makedirs(out_dir, exist_ok=True)
@@ -216,7 +252,7 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable
         outputs["json"] = f"{stem}.json"
     result["outputs"] = outputs
     if "json" in formats:
-        write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable)
+        write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable, encoded=encoded)
     return result
 
 
@@ -253,7 +289,7 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
 
 def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
                base_options=None, progress=None, stored: dict | None = None, keep=(), options=None,
-               durable: bool = True) -> dict:
+               durable: bool = True, encoded: dict | None = None) -> dict:
     """The per-file step: measure ``path`` (or judge ``stored`` measurements again, see
     :func:`measure_and_judge`), judge it against ``loaded_spec`` and write ``<stem>.<format>``
     into ``out_dir`` (:func:`write_outputs`; ``keep``: fresh reports not written again).
@@ -262,13 +298,13 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
     :data:`ALL_FORMATS`; ``stem`` defaults to the file name without extension;
     ``base_options`` (:class:`MeasureOptions`) are overridden by what the spec derives.
     ``options``: the spec's :class:`MeasureOptions` when the caller has them already;
-    ``durable``: see :func:`write_outputs`.
+    ``durable``, ``encoded`` (the stored result's values already encoded): see :func:`write_outputs`.
     Returns the result object (also written as JSON when "json" is in ``formats``).
     """
     stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
     result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored,
                                options=options)
-    return write_outputs(result, out_dir, stem, formats, keep=keep, durable=durable)
+    return write_outputs(result, out_dir, stem, formats, keep=keep, durable=durable, encoded=encoded)
 
 
 def unique_stems(paths) -> list[str]:

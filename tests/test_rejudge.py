@@ -112,3 +112,22 @@ def test_judge_and_report_take_spec_libraries_as_check_does(checked, capsys):
     assert "client child (invented)" in (rep / "sine.html").read_text()
     assert main(["report", str(saved), "--spec-library", str(lib), "--out", str(rep), "--format", "html"]) == 2
     assert "--spec-library is used with --spec" in capsys.readouterr().err
+
+
+def test_stored_text_is_written_again_as_it_was_and_a_changed_value_afresh(checked):
+    """Re-judging writes the stored values' JSON text as stored (no encoding); a value the new
+    judgement replaced is encoded afresh.  Checked against a full encoding of the same result."""
+    from masterqc.pipeline import judge_stored, parse_result_text, result_json_text
+    tmp_path, _wav, saved = checked
+    text = saved.read_text()
+    result, encoded = parse_result_text(text)
+    assert result == json.loads(text) and result_json_text(result) == text  # the layout it was written in
+    assert {"measurements", "series", "format", "findings"} <= set(result)
+    assert "series" in encoded and "findings" not in encoded  # findings span lines: never reused
+    assert encoded["measurements"][1] == json.dumps(result["measurements"], ensure_ascii=False)
+    again = judge_stored(result, load_spec(tmp_path / "b.yaml"), result["provenance"]["measured_with"])
+    assert again["series"] is result["series"] and again["findings"] != result["findings"]
+    assert result_json_text(again, encoded) == result_json_text(again)
+    again["measurements"] = dict(again["measurements"], integrated_lufs=-99.0)  # a new object: encoded afresh
+    assert '"integrated_lufs": -99.0' in result_json_text(again, encoded)
+    assert parse_result_text(json.dumps(result))[1] == {}  # another layout: nothing reused

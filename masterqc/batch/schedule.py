@@ -187,13 +187,15 @@ class Scheduler:
                                                                        f"matches {it.found.rel!r}"), False), False)
                 continue
             opts, it.measure_key = self.options(it.rule)
-            stored = self.ledger.get_measurements(it.sha256, it.measure_key) if self.reuse else None
+            got = self.ledger.get_measurements(it.sha256, it.measure_key, with_encoded=True) if self.reuse else None
+            stored, encoded = got if got is not None else (None, None)
             if stored is not None:  # measure once, judge many: no audio is read
                 # (stored is the measurements, or the stored outcome of an earlier read: it cannot be read)
                 it.how = "rejudged"
                 if self.safe_folder(it.out_folder):  # the per-file step, from stored measurements
                     result = check_file(it.found.path, it.rule.loaded, it.out_folder, self.formats, stem=it.stem,
-                                        stored=stored, options=opts, keep=self.fresh_reports(it), durable=False)
+                                        stored=stored, options=opts, keep=self.fresh_reports(it), durable=False,
+                                        encoded=encoded)
                 else:  # judged, written nowhere (place() adds why)
                     result = measure_and_judge(it.found.path, it.rule.loaded, stored=stored, options=opts)
                 self.finish(it, self.place(it, result, True), False, reused=True)
