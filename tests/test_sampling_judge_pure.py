@@ -600,3 +600,62 @@ def test_no_requirement_no_finding():
     found, verdict = judge(spec(), {"format": {"sample_rate_hz": 96000},
                                     "measurements": {"upsampled_from_hz": 44100, "aliasing_detected": True}})
     assert [f for f in found if f.check.startswith("sampling.")] == [] and verdict == "pass"
+
+
+# ------------------------------------------------------------------ edges of each rule
+
+def test_edges_of_merging_and_clock():
+    # ranges within 1e-6 s of each other merge, that edge included
+    assert sj._merge([[0.0, 1.0], [1.0 + 1e-6, 2.0]]) == [[0.0, 2.0]]
+    # a whole minute: 60 s is 1:00, 3660 s is 1:01:00
+    assert sj._clock(60.0) == "1:00"
+    assert sj._clock(3660.0) == "1:01:00"
+
+
+def test_khz_sentences_at_a_tenth_of_a_kilohertz():
+    # 22060 Hz is 22.1 kHz at one decimal (22.06 rounds up)
+    sp = spec(upsampled=[False])
+    by, _v = run(sp, {"upsampled_from_hz": None, "band_limit_hz": 22060.0})
+    assert "Band-limited at 22.1 kHz by a low-pass" in by["sampling.upsampled"].message
+    by, _v = run(sp, {"upsampled_from_hz": None, "bandwidth_edge": "cliff", "effective_bandwidth_hz": 22060.0})
+    assert "Band-limited at 22.1 kHz; not a rate conversion." in by["sampling.upsampled"].message
+    by, _v = run(sp, {"upsampled_from_hz": None, "bandwidth_edge": "rolloff", "effective_bandwidth_hz": 22060.0})
+    assert "rolls off gently by 22.1 kHz" in by["sampling.upsampled"].message
+    by, _v = run(sp, {"upsampled_from_hz": 48000, "effective_bandwidth_hz": 22060.0, "upsampled_edge_ratio": 0.919})
+    assert "cliff at 22.1 kHz (0.92 of 24 kHz)" in by["sampling.upsampled"].message
+
+
+def test_bandwidth_and_upsampling_findings_are_both_kept():
+    by, verdict = run(spec(effective_bandwidth={"min_hz": 20000.0}, upsampled=[False]),
+                      {"effective_bandwidth_hz": 21000.0, "upsampled_from_hz": None})
+    assert sorted(by) == ["sampling.effective_bandwidth", "sampling.upsampled"] and verdict == "pass"
+
+
+def test_partly_upsampled_at_severity_warn_carries_its_times():
+    m = {"upsampled_from_hz": None,
+         "bandwidth_segments": [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100,
+                                 "upsampled_confidence_fraction": 0.9}]}
+    by, verdict = run(spec(upsampled={"allowed": [False], "severity": "warn"}), m)
+    f = by["sampling.upsampled"]
+    assert (f.status, verdict, f.where_s) == ("warn", "warn", [[0.0, 5.0]])
+
+
+def test_a_rate_just_above_48k_is_judged_for_ultrasonic_content():
+    # the rule is "above 48 kHz": 48001 Hz is above it, so the reason is not the rate
+    by, _v = run(spec(ultrasonic_energy={"max_db": -30.0}), {"ultrasonic_energy_db": None}, rate=48001)
+    assert by["sampling.ultrasonic_energy"].message.endswith("the audible band holds no energy (digital silence)")
+
+
+def test_conversion_misses_at_severity_warn_and_fail_name_converter_and_folds():
+    conv = {"conversions": [{"target_rate_hz": 48000, "true_peak": {"max_dbtp": -1.0, "severity": "warn"},
+                             "energy_above_nyquist": {"max_db": -40.0}}]}
+    folds = [{"from_hz": 24000.0, "to_hz": 30000.0, "fold_to_hz": [[18000.0, 24000.0]]}]
+    m = {"conversions": [{"target_rate_hz": 48000, "true_peak_after_dbtp": -0.5, "filter": "polyphase",
+                          "energy_above_target_nyquist_db": -20.0, "folds": folds}]}
+    by, verdict = run(spec(**conv), m)
+    f = by["sampling.conversion_48000.true_peak"]
+    assert f.status == "warn" and f.message.endswith("(severity warn: reported as a warning) (converter: polyphase)")
+    f = by["sampling.conversion_48000.energy_above_nyquist"]
+    assert (f.status, f.miss, verdict) == ("fail", 20.0, "fail")
+    assert f.message.endswith("by 20.0 dB; a converter without an anti-alias filter would fold 24.00-30.00 kHz to "
+                              "18.00-24.00 kHz")
