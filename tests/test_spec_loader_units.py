@@ -498,3 +498,41 @@ def test_plausibility_warnings_leave_plausible_values_alone():
                                                          ("d.yaml", "lst[0].max_dbtp", None, None)]
     assert L.plausibility_warnings({"target_lufs": 0.01}, pos, "d")[0][4].startswith("target_lufs: 0.01 LUFS is above 0")
     assert L.plausibility_warnings(5, pos, "d") == []
+
+
+# ------------------------------------------------------------------ edges of the helpers
+
+def test_line_col_of_a_text_that_opens_with_a_newline():
+    assert L._line_col("\nab", 2) == (2, 2)
+    assert L._line_col("\n\nab", 1) == (2, 1)
+
+
+def test_describe_names_each_kind_of_value():
+    assert [L._describe(v) for v in (None, False, "ab", 3, 2.5, [1], {"a": 1}, ("a",))] == [
+        "null", "false (a yes/no value)", "the text 'ab'", "the number 3", "the number 2.5", "a list", "a mapping",
+        "('a',)"]
+
+
+@pytest.mark.parametrize("text, item", [
+    # two underscores: the stem drops the last word only
+    ("sampling: {ultrasonic_energy_5s: {max_db: -20.0}}\n",
+     ("t.yaml", "sampling.ultrasonic_energy_5s", 3, 12,
+      "unknown key 'ultrasonic_energy_5s'; wrong unit? here it is written 'ultrasonic_energy_3s'")),
+    # no key with the same stem: the closest key by difflib's ratio (at least 0.5: 2*3/(3+9) for 'tru')
+    ("peaks: {truepeak_x: {max_dbtp: -1.0}}\n",
+     ("t.yaml", "peaks.truepeak_x", 3, 9, "unknown key 'truepeak_x'; did you mean 'true_peak'?")),
+    ("peaks: {tru: {max_dbtp: -1.0}}\n",
+     ("t.yaml", "peaks.tru", 3, 9, "unknown key 'tru'; did you mean 'true_peak'?")),
+    # inside the mapping form of an allowed-values list
+    ("sampling: {upsampled: {allowed: [false], bogus: 1}}\n",
+     ("t.yaml", "sampling.upsampled.bogus", 3, 42, "unknown key 'bogus'; valid keys here: allowed, severity")),
+])
+def test_unknown_key_suggestions(text, item):
+    assert item in msgs(text)
+
+
+def test_the_package_entry_point_loads_a_file(tmp_path):
+    from masterqc.spec import load_spec
+    p = write(tmp_path, "s.yaml", GOOD)
+    assert load_spec(p).spec.name == "invented house spec"
+    assert load_spec(str(p)).path == str(p)
