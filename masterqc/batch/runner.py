@@ -38,7 +38,8 @@ from masterqc.batch.execute import make_backend
 from masterqc.batch.ledger import Ledger, utc_now
 from masterqc.batch.names import NameAllocator, inside, safe_component
 from masterqc.batch.progress import BatchProgress
-from masterqc.batch.releases import judge_release, parse_release_mode, release_of
+from masterqc.batch.releases import (DEFAULT_RELEASE_MODE, audio_folders, judge_release, parse_release_mode,
+                                     release_of)
 from masterqc.batch.specmap import Unusable, load_spec_map
 from masterqc.pipeline import exit_code_for
 from masterqc.batch.work import check_task, hash_task
@@ -123,8 +124,8 @@ def _root_labels(roots) -> dict:
 
 
 def _problems(result: dict) -> list[dict]:
-    return [{"check": f["check"], "status": f["status"], "message": f["message"]}
-            for f in result.get("findings", []) if f["status"] in ("fail", "error", "warn")]
+    from masterqc.problems import ranked_problems
+    return ranked_problems(result.get("findings", []))   # every problem, worst first
 
 
 def _first_problem(result: dict) -> str | None:
@@ -180,7 +181,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
     t0 = time.perf_counter()
     base = MeasureOptions(channel_layout=cfg.layout)
     specmap = load_spec_map(cfg.spec_path, base, cfg.spec_libraries)
-    mode = parse_release_mode(cfg.releases or specmap.releases or "folder")
+    mode = parse_release_mode(cfg.releases or specmap.releases or DEFAULT_RELEASE_MODE)
     out_dir = os.path.abspath(cfg.out_dir)
     os.makedirs(out_dir, exist_ok=True)
     ledger_path = os.path.abspath(cfg.ledger_path) if cfg.ledger_path else os.path.join(out_dir, LEDGER_NAME)
@@ -205,6 +206,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         labels = _root_labels(cfg.roots)
         names = NameAllocator()
         items: list[Item] = []
+        with_audio = {}   # root -> the folders below it that directly hold audio (release grouping)
+        for fnd in disc.files:
+            with_audio.setdefault(fnd.root, set()).update(audio_folders([fnd.rel]))
         for fnd in disc.files:
             label = labels.get(fnd.root) or safe_component(os.path.basename(os.path.abspath(fnd.root)))
             rel_in_root = fnd.rel
@@ -214,7 +218,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             out_folder = os.path.join(out_dir, FILES_DIR, *folder_rel.split("/"))
             rule = specmap.lookup(rel_in_root, fnd.root)
             items.append(Item(found=fnd, path=os.path.abspath(fnd.path), rel=f"{label}/{rel_in_root}",
-                              release=release_of(label, rel_in_root, mode),
+                              release=release_of(label, rel_in_root, mode, with_audio.get(fnd.root)),
                               rule=None if isinstance(rule, Unusable) else rule,
                               rule_error=rule.message if isinstance(rule, Unusable) else None,
                               out_folder=out_folder, out_rel=f"{FILES_DIR}/{folder_rel}", stem=stem))
@@ -265,7 +269,8 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             audio_s = float((result.get("format") or {}).get("duration_s") or 0.0)
             progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed,
                                how="checked" if analysed else ("re-judged" if it.how == "rejudged" else
-                                                               "reused" if it.reused else "not analysed"))
+                                                               "reused" if it.reused else "not analysed"),
+                               problems=result.get("findings"))
 
         def place(it: Item, result: dict, wrote: bool) -> dict:
             """Write ``result`` as ``it``'s outputs (JSON always; HTML/PDF when missing or stale)."""
@@ -482,7 +487,7 @@ def _summary(cfg, items, disc, specmap, ledger, run_id, out_dir, ledger_path, ba
                 "elapsed_s": time.perf_counter() - t0, "roots": [os.fspath(r) for r in cfg.roots],
                 "out_dir": out_dir, "ledger": ledger_path, "spec": os.fspath(cfg.spec_path),
                 "spec_map": specmap.is_map, "backend": backend.description, "formats": list(cfg.formats),
-                "releases_mode": cfg.releases or specmap.releases or "folder"},
+                "releases_mode": cfg.releases or specmap.releases or DEFAULT_RELEASE_MODE},
         "exit_code": code,
         "counts": counts,
         "previous_run": ({"run_id": prev_run["run_id"], "started_utc": prev_run["started_utc"]} if prev_run else None),
