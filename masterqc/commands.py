@@ -88,7 +88,7 @@ def _summary_line(path, result: dict, out_dir: str) -> str:
     outs = ", ".join(os.path.join(out_dir, v) for v in result.get("outputs", {}).values())
     line = f"{result['verdict'].upper():5s} {shown(path)}{detail}"
     line += f" -> {shown(outs)}" if outs else ""
-    for text in problem_lines(ranked_problems(result["findings"])):
+    for text in problem_lines(ranked_problems(result["findings"]), path=str(path)):
         line += "\n" + shown(text)
     n = result.get("normalisation") or {}
     if n.get("gain_db") is not None:

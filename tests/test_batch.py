@@ -415,7 +415,7 @@ def test_index_rows_list_every_failure_worst_first(first_run):
     fails = [p for p in loud["problems"] if p["status"] == "fail"]
     assert {p["check"] for p in fails} >= {"peaks.true_peak", "loudness.integrated"}
     html = snap["index"]
-    row = next(r for r in html.split("<tr class=\"row-")[1:] if "loud.<wbr>wav" in r)
+    row = next(r for r in html.split("<tr class=\"row-")[1:] if "misc/<wbr>loud.wav" in r)
     for p in fails:
         assert p["message"].split(" ")[0] in row
         assert row.count('<span class="word">FAIL</span>') == len(fails)
@@ -425,7 +425,7 @@ def test_index_rows_list_every_failure_worst_first(first_run):
     for p in fails:
         assert p["message"] in msg
     # error rows: a readable summary, never a Python bytes dump
-    noise = next(r for r in html.split("<tr class=\"row-")[1:] if "noise.<wbr>wav" in r)
+    noise = next(r for r in html.split("<tr class=\"row-")[1:] if "misc/<wbr>noise.wav" in r)
     assert "b&#39;" not in noise and "\\x" not in noise and "first bytes" not in noise
 
 

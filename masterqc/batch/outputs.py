@@ -20,7 +20,7 @@ from markupsafe import Markup
 from masterqc.exports import clock_text, index_csv
 from masterqc.jsonutil import jsonable
 from masterqc.pipeline import write_atomic
-from masterqc.problems import problems_text, ranked_problems
+from masterqc.problems import problems_text, ranked_problems, readable_message
 
 VERDICT_RANK = {"error": 0, "fail": 1, "warn": 2, "pass": 3}
 #: the state words (one set everywhere: pass, warn, fail, error, not checked)
@@ -116,18 +116,18 @@ body { max-width: none; width: 100%; padding: 20px 2.5vw 32px; }
 .index-counts li { border: 2px solid currentColor; padding: 4px 10px; font-weight: bold; }
 .index-counts .n { font-size: 20px; margin-right: 4px; }
 table.index { width: 100%; border-collapse: collapse; margin-top: 6px; }
-table.index th { text-align: left; font-size: 12px; border-bottom: 2px solid var(--ink); padding: 4px 6px; white-space: nowrap; }
+table.index th { text-align: left; font-size: 12px; border-bottom: 2px solid var(--ink); padding: 4px 6px; vertical-align: bottom; }
 table.index th.num { text-align: right; }
 table.index th button { font: inherit; font-weight: bold; text-transform: inherit; letter-spacing: inherit; background: none; border: 0; padding: 0; cursor: pointer; color: inherit; }
 table.index th[aria-sort="ascending"] button::after { content: " \\25B2"; }
 table.index th[aria-sort="descending"] button::after { content: " \\25BC"; }
 table.index td { border-bottom: 1px solid var(--rule); padding: 4px 6px; vertical-align: top; font-size: 12.5px; }
-table.index td.file { overflow-wrap: break-word; word-break: normal; min-width: 14em; }
+table.index td.file { overflow-wrap: break-word; word-break: normal; min-width: 10em; }
 table.index td.num { white-space: nowrap; text-align: right; }
-table.index td.problems { min-width: 22em; }
+table.index td.problems { min-width: 18em; }
 ul.problems { list-style: none; margin: 0; padding: 0; }
-ul.problems li { margin: 0 0 2px; padding-left: 4.6em; text-indent: -4.6em; }
-ul.problems .word { display: inline-block; width: 4.4em; text-indent: 0; font-weight: bold; font-size: 11px; }
+ul.problems li { margin: 0 0 2px; display: grid; grid-template-columns: 4.2em 1fr; column-gap: 0.4em; }
+ul.problems .word { font-weight: bold; font-size: 0.85em; padding-top: 0.1em; }
 details.more-problems summary { cursor: pointer; color: var(--muted); font-size: 12px; }
 details.more-problems[open] summary { margin-bottom: 2px; }
 .how { display: block; color: var(--muted); font-size: 11.5px; }
@@ -160,15 +160,15 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 {%- endif -%}
 </svg>
 {%- endmacro %}
-{%- macro problem_item(p) -%}
-<li class="st-{{ p.status }}"><span class="word">{{ WORD[p.status] }}</span>{{ readable(p.message) }}</li>
+{%- macro problem_item(p, path) -%}
+<li class="st-{{ p.status }}"><span class="word">{{ WORD[p.status] }}</span><span>{{ readable(p.message, path) }}</span></li>
 {%- endmacro %}
-{%- macro problem_list(problems) -%}
+{%- macro problem_list(problems, path="") -%}
 {%- set cut = problems|length > ROW_SHOWN -%}
 {%- set head = problems[:ROW_SHOWN - 1] if cut else problems -%}
-<ul class="problems">{% for p in head %}{{ problem_item(p) }}{% endfor %}</ul>
+<ul class="problems">{% for p in head %}{{ problem_item(p, path) }}{% endfor %}</ul>
 {%- if cut %}{% set rest = problems[ROW_SHOWN - 1:] %}
-<details class="more-problems"><summary>{{ rest|length }} more ({{ tally(rest) }})</summary><ul class="problems">{% for p in rest %}{{ problem_item(p) }}{% endfor %}</ul></details>
+<details class="more-problems"><summary>{{ rest|length }} more ({{ tally(rest) }})</summary><ul class="problems">{% for p in rest %}{{ problem_item(p, path) }}{% endfor %}</ul></details>
 {%- endif %}
 {%- endmacro %}
 <html lang="en">
@@ -254,7 +254,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <td class="num" data-sort="{{ sortnum(f.integrated_lufs) }}">{{ fmt(f.integrated_lufs, "LUFS") }}</td>
 <td class="num" data-sort="{{ sortnum(f.true_peak_dbtp) }}">{{ fmt(f.true_peak_dbtp, "dBTP") }}</td>
 <td class="num" data-sort="{{ sortnum(f.duration_s) }}">{{ clock(f.duration_s) }}</td>
-<td class="problems">{% set fp = ranked(f.problems) %}{% if fp %}{{ problem_list(fp) }}{% else %}<span class="how">no problems</span>{% endif %}</td>
+<td class="problems">{% set fp = ranked(f.problems) %}{% if fp %}{{ problem_list(fp, f.path) }}{% else %}<span class="how">no problems</span>{% endif %}</td>
 <td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="how">re-judged</span>{% elif f.how == "measured" %}<span class="how">measured</span>{% elif f.reused %}<span class="how">reused</span>{% endif %}</td>
 <td class="links">{% for kind, href in f.outputs.items() %}<a href="{{ href }}">{{ kind }}</a>{% endfor %}</td>
 </tr>
@@ -312,8 +312,7 @@ def _fmt(value, unit: str) -> str:
     return f"{text} {unit}"
 
 
-_SEPARATORS = re.compile(r"([/\\_\-.]+)")
-_BYTES_LITERAL = re.compile(r"""\bb(['"])(?:\\.|(?!\1).)*\1""")
+_SEPARATORS = re.compile(r"([/\\_\-]+)")
 
 
 def _wrapname(text) -> Markup:
@@ -328,16 +327,6 @@ def _wrapname(text) -> Markup:
         if i % 2 == 1:
             out.append("<wbr>")
     return Markup("".join(out))
-
-
-def readable_message(text) -> str:
-    """A finding's message for a table row: Python byte-string dumps (``b'Jn)0\\xe4...'``)
-    left out, the rest kept; at most 400 characters."""
-    s = str(text or "")
-    s = re.sub(r"first bytes " + _BYTES_LITERAL.pattern + r",?\s*", "", s)
-    s = _BYTES_LITERAL.sub("(binary data)", s)
-    s = re.sub(r"\(\s*\)", "", s).strip()
-    return s if len(s) <= 400 else s[:399].rstrip() + "\u2026"
 
 
 def _tally(problems) -> str:

@@ -72,21 +72,22 @@ class BatchProgress:
                 f"{rtf}  elapsed {_clock(st['elapsed_s'])}  ETA {eta}")
 
     def file_done(self, rel: str, verdict: str, audio_s: float, size_bytes: int, analysed: bool,
-                  how: str | None = None, problems=None) -> None:
+                  how: str | None = None, problems=None, path: str = "") -> None:
         """One finished file; ``how`` says what happened to it ("checked", "reused", "not analysed");
         ``problems`` its findings (or ``{check, status, message}`` records) -- every one that is
-        not a pass is shown, worst first."""
+        not a pass is shown, worst first (``path``, the file's path as the messages spell it, is
+        left out of them: the line names the file)."""
         with self._lock:
-            self._file_done(rel, verdict, audio_s, size_bytes, analysed, how, problems)
+            self._file_done(rel, verdict, audio_s, size_bytes, analysed, how, problems, path)
 
-    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed, how=None, problems=None) -> None:
+    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed, how=None, problems=None, path="") -> None:
         self.done_files += 1
         self.done_bytes += max(0, size_bytes)
         if analysed:
             self.audio_s += max(0.0, audio_s or 0.0)
         if self.quiet:
             return
-        lines = [shown(t) for t in problem_lines(ranked_problems(problems or []))]
+        lines = [shown(t) for t in problem_lines(ranked_problems(problems or []), path=path)]
         if self.live:
             if verdict in ("fail", "error"):
                 self.stream.write("\r\033[K" + f"{verdict.upper():5s} {shown(rel)}\n"

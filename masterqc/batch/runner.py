@@ -270,7 +270,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed,
                                how="checked" if analysed else ("re-judged" if it.how == "rejudged" else
                                                                "reused" if it.reused else "not analysed"),
-                               problems=result.get("findings"))
+                               problems=result.get("findings"), path=it.path)
 
         def place(it: Item, result: dict, wrote: bool) -> dict:
             """Write ``result`` as ``it``'s outputs (JSON always; HTML/PDF when missing or stale)."""
