@@ -317,7 +317,7 @@ _SEPARATORS = re.compile(r"([/\\_\-]+)")
 
 def _wrapname(text) -> Markup:
     """A file or release name, escaped, with a break opportunity after every separator
-    (``/ \\ _ - .``; spaces break anyway), so a narrow column wraps it there, not mid-word."""
+    (``/ \\ _ -``; spaces break anyway; never before an extension), so a narrow column wraps it there, not mid-word."""
     from markupsafe import escape
     from masterqc.fileio import shown
     parts = _SEPARATORS.split(shown(str(text)))
