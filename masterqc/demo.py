@@ -539,14 +539,13 @@ def run_demo(out_dir="demo-output", formats: str | None = None, stream=None, job
         out.flush()
         work = [(str(paths[m.stem]), str(spec_files[s]), str(out_dir / s), tuple(fmts), m.stem) for m, s in jobs_list]
         results = pool.map(_check_one, work) if pool is not None else map(_check_one, work)
+        from masterqc.problems import problem_lines, ranked_problems
         for (m, s), r in zip(jobs_list, results):
-            missed = [f for f in r["findings"] if f["status"] in ("error", "fail")] or \
-                [f for f in r["findings"] if f["status"] == "warn"]
-            reason = missed[0]["message"] if missed else "meets every requirement"
-            if len(missed) > 1:
-                reason += f" (and {', '.join(f['check'] for f in missed[1:])})"
+            # every problem, worst first, one line each (as `check` prints them)
+            lines = problem_lines(ranked_problems(r["findings"]), indent="        ") or \
+                ["        meets every requirement"]
             out.write(f"  {r['verdict'].upper():5s} {m.stem:22s} vs {r['spec_name']}\n"
-                      f"        {reason}\n")
+                      + "".join(line + "\n" for line in lines))
             out.flush()
     finally:
         if pool is not None:

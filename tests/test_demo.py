@@ -197,17 +197,44 @@ def test_demo_command(tmp_path):
                 assert json.load(f)["verdict"] == want, (m.stem, spec_id)
             assert f"{want.upper():5s} {m.stem}" in text
     assert (tmp_path / "demo" / "masters" / "brelloway_theme.wav").exists()
-    # the summary line under each high-resolution master names the fault built into it
+    # the lines under each high-resolution master name the fault built into it: every problem,
+    # worst first, one line each
     lines = text.splitlines()
 
-    def reason(stem):
+    def problems(stem):
         i = next(k for k, line in enumerate(lines) if f" {stem} " in line and "high-resolution" in line)
-        return lines[i + 1].strip()
-    assert reason("ilvenbrook_hires") == "meets every requirement"
+        out = []
+        for line in lines[i + 1:]:
+            if not line.startswith("        "):
+                break
+            out.append(line.strip())
+        return out
+
+    def reason(stem):
+        first = problems(stem)[0]
+        return first.split(" ", 1)[1].strip() if first.split(" ", 1)[0] in ("FAIL", "WARN", "ERROR") else first
+    assert problems("ilvenbrook_hires") == ["meets every requirement"]
     assert reason("yarrowgate_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
     assert "converter's cliff" in reason("yarrowgate_fake_hires") and "Converted up from 44.1 kHz" in reason("yarrowgate_fake_hires")
     assert "alias" in reason("drimble_synth_lead") and "440.0 Hz" in reason("drimble_synth_lead")
-    assert "ultrasonic" in reason("maunsel_pilot") and "sampling.ultrasonic_tones" in reason("maunsel_pilot")
+    assert "ultrasonic" in reason("maunsel_pilot")
+    maunsel = problems("maunsel_pilot")
+    assert len(maunsel) >= 2 and all(p.startswith("WARN ") for p in maunsel)   # every warning listed
+    assert any("tone" in p for p in maunsel[1:])
+    # every master's block lists exactly its problems (errors, failures, warnings) from its JSON
+    for m in MASTERS:
+        for spec_id in m.demo_specs:
+            with open(tmp_path / "demo" / spec_id / f"{m.stem}.json") as f:
+                r = json.load(f)
+            head = f"{r['verdict'].upper():5s} {m.stem:22s} vs {r['spec']['name']}"
+            i = next(k for k, line in enumerate(lines) if line.strip() == head.strip())
+            block = []
+            for line in lines[i + 1:]:
+                if not line.startswith("        "):
+                    break
+                block.append(line.strip())
+            n = sum(f["status"] in ("error", "fail", "warn") for f in r["findings"])
+            assert len(block) == max(n, 1), (m.stem, spec_id, block)
     assert reason("corrowin_bells").startswith("true peak after conversion to 48 kHz")
 
 

@@ -432,6 +432,15 @@ def test_hot_master_reports_every_over_range():
     # the highest true peak inside a burst: the burst's level, -0.5 dBTP (a 1 kHz sine read on the
     # 32x grid is within a few thousandths of a dB of its peak)
     assert ev[5]["peak_dbtp"] == pytest.approx(-0.5, abs=0.01)
+    # the judged finding carries every one of them (what the report and events.csv are made from)
+    from masterqc.exports import event_records
+    from masterqc.judge import judge
+    from masterqc.spec.loader import load_spec_text
+    spec = load_spec_text("spec_version: 1\nname: t\npeaks:\n  true_peak: {max_dbtp: -1.0}\n").spec
+    findings, _ = judge(spec, {"format": {"sample_rate_hz": FS, "duration_s": 180.0}, "measurements": m})
+    f = next(f for f in findings if f.check == "peaks.true_peak")
+    assert f.status == "fail" and len(f.where_s) == 1430
+    assert sum(r["kind"] == "true_peak_over" for r in event_records({"measurements": m})) == 1430
 
 
 def test_over_ranges_of_clicks_all_listed(tmp_path):
