@@ -76,19 +76,20 @@ def cmd_check(args) -> int:
 
 
 def _summary_line(path, result: dict, out_dir: str) -> str:
+    """``VERDICT path (n fail, n warn) -> outputs``, then one indented line per problem, worst first."""
     import os
+    from masterqc.fileio import shown
+    from masterqc.problems import problem_lines, ranked_problems
     counts = {}
     for f in result["findings"]:
         counts[f["status"]] = counts.get(f["status"], 0) + 1
-    parts = [f"{n} {s}" for s, n in counts.items() if s != "pass"]
+    parts = [f"{counts[s]} {s}" for s in ("error", "fail", "warn") if counts.get(s)]
     detail = f" ({', '.join(parts)})" if parts else ""
     outs = ", ".join(os.path.join(out_dir, v) for v in result.get("outputs", {}).values())
-    from masterqc.fileio import shown
     line = f"{result['verdict'].upper():5s} {shown(path)}{detail}"
-    if result["verdict"] in ("fail", "error"):
-        first = next(f for f in result["findings"] if f["status"] in ("fail", "error"))
-        line += f": {shown(first['message'])}"
     line += f" -> {shown(outs)}" if outs else ""
+    for text in problem_lines(ranked_problems(result["findings"]), path=str(path)):
+        line += "\n" + shown(text)
     n = result.get("normalisation") or {}
     if n.get("gain_db") is not None:
         line += f"\n      normalised to {n['target_lufs']:.1f} LUFS: gain {n['gain_db']:+.1f} dB"

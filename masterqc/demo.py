@@ -82,43 +82,53 @@ def _pink(n: int, rng) -> np.ndarray:
 
 
 def music(duration_s: float, sr: int, rng, tempo_bpm: float = 112.0, key_midi: int = 57) -> np.ndarray:
-    """A stereo music-like bed: chords, bass, kick, snare, hats and a noise bed (frames, 2)."""
+    """A stereo music-like bed: chords, bass, kick, snare, hats and a noise bed (frames, 2).
+
+    The pitched parts and the kick repeat exactly every cycle of the chord progression, so one
+    cycle is made and tiled (a 2-minute master costs little more than a 10-second one); the
+    snare, hats and noise bed are fresh noise throughout."""
     n = int(round(duration_s * sr))
-    out = np.zeros((n, 2))
     beat = int(round(60.0 / tempo_bpm * sr))
     bar = 4 * beat
     progression = [(0, 4, 7, 11), (5, 9, 12, 16), (7, 11, 14, 17), (9, 12, 16, 19)]  # I, IV, V, vi-ish
+    nc = min(n, len(progression) * bar)     # one cycle of the progression
+    cycle = np.zeros((nc, 2))
     # chords: one per bar, slight detune and pan per voice
-    for i, start in enumerate(range(0, n, bar)):
-        m = min(bar, n - start)
+    for i, start in enumerate(range(0, nc, bar)):
+        m = min(bar, nc - start)
         chord = progression[i % len(progression)]
         env = _env(m, sr, 0.03, 0.4)
         for j, step in enumerate(chord):
             f = _note_hz(key_midi + step) * (1 + 0.001 * (j - 1.5))
             v = _tone(f, m, sr, harmonics=5, bright=0.6) * env * 0.12
             pan = 0.25 + 0.5 * (j / (len(chord) - 1))
-            out[start:start + m, 0] += v * np.cos(pan * np.pi / 2)
-            out[start:start + m, 1] += v * np.sin(pan * np.pi / 2)
+            cycle[start:start + m, 0] += v * np.cos(pan * np.pi / 2)
+            cycle[start:start + m, 1] += v * np.sin(pan * np.pi / 2)
     # bass: root on every beat, an octave below the chords
-    for i, start in enumerate(range(0, n, beat)):
-        m = min(beat, n - start)
+    for i, start in enumerate(range(0, nc, beat)):
+        m = min(beat, nc - start)
         root = progression[(i // 4) % len(progression)][0]
         f = _note_hz(key_midi - 24 + root)
         v = _tone(f, m, sr, harmonics=3, bright=0.5) * _env(m, sr, 0.005, 0.25) * 0.35
-        out[start:start + m] += v[:, None]
-    # kick on beats 1 and 3, snare on 2 and 4, hats on eighths
-    for i, start in enumerate(range(0, n, beat)):
+        cycle[start:start + m] += v[:, None]
+    # kick on beats 1 and 3
+    for i, start in enumerate(range(0, nc, beat)):
         if i % 2 == 0:
-            m = min(int(0.18 * sr), n - start)
+            m = min(int(0.18 * sr), nc - start)
             t = np.arange(m) / sr
             sweep = 2 * np.pi * np.cumsum(50 + 90 * np.exp(-t / 0.03)) / sr
             v = np.sin(sweep) * np.exp(-t / 0.06) * 0.5
-            out[start:start + m] += v[:, None]
-        else:
+            cycle[start:start + m] += v[:, None]
+    out = np.empty((n, 2))
+    for k in range(0, n, nc):
+        out[k:k + nc] = cycle[:min(nc, n - k)]
+    # snare on 2 and 4, hats on eighths
+    snare_b, snare_a = signal.butter(2, [900 / (sr / 2), 5000 / (sr / 2)], "band")
+    for i, start in enumerate(range(0, n, beat)):
+        if i % 2 == 1:
             m = min(int(0.14 * sr), n - start)
             t = np.arange(m) / sr
-            v = signal.lfilter(*signal.butter(2, [900 / (sr / 2), 5000 / (sr / 2)], "band"),
-                               rng.standard_normal(m)) * np.exp(-t / 0.04) * 0.35
+            v = signal.lfilter(snare_b, snare_a, rng.standard_normal(m)) * np.exp(-t / 0.04) * 0.35
             out[start:start + m, 0] += v * 0.9
             out[start:start + m, 1] += v
     hat_b, hat_a = signal.butter(2, 7000 / (sr / 2), "high")
@@ -138,6 +148,8 @@ def speech(duration_s: float, sr: int, rng, f0_hz: float = 140.0) -> np.ndarray:
     n = int(round(duration_s * sr))
     out = np.zeros(n)
     vowels = [(730, 1090, 2440), (270, 2290, 3010), (300, 870, 2240), (530, 1840, 2480), (570, 840, 2410)]
+    formants = [[signal.iirpeak(fc / (sr / 2), fc / (80 + 40 * k)) for k, fc in enumerate(v)] for v in vowels]
+    fric_b, fric_a = signal.butter(2, 3500 / (sr / 2), "high")
     pos = int(0.2 * sr)
     while pos < n:
         phrase_end = pos + int(rng.uniform(1.2, 2.6) * sr)
@@ -148,14 +160,11 @@ def speech(duration_s: float, sr: int, rng, f0_hz: float = 140.0) -> np.ndarray:
             phase = 2 * np.pi * np.cumsum(f0) / sr
             src = np.sign(np.sin(phase)) * 0.5 + 0.5 * np.sin(phase)  # buzzy glottal-like source
             v = np.zeros(m)
-            for k, fc in enumerate(vowels[rng.integers(len(vowels))]):
-                bw = 80 + 40 * k
-                b, a = signal.iirpeak(fc / (sr / 2), fc / bw)
+            for k, (b, a) in enumerate(formants[rng.integers(len(vowels))]):
                 v += signal.lfilter(b, a, src) / (k + 1)
             if rng.random() < 0.3:  # fricative onset
                 fr = min(int(0.05 * sr), m)
-                hb, ha = signal.butter(2, 3500 / (sr / 2), "high")
-                v[:fr] += signal.lfilter(hb, ha, rng.standard_normal(fr)) * 0.3
+                v[:fr] += signal.lfilter(fric_b, fric_a, rng.standard_normal(fr)) * 0.3
             out[pos:pos + m] += v * np.hanning(m)
             pos += m + int(rng.uniform(0.02, 0.08) * sr)
         pos += int(rng.uniform(0.3, 0.8) * sr)
@@ -283,22 +292,27 @@ class DemoMaster:
     bell_peak_dbtp: float | None = None
 
 
+#: length of the masters made for the long-form programme spec (ostravel-house): loudness range
+#: and the short-term figures need well over a minute of programme to mean anything
+LONG_FORM_S = 120.0
+
 MASTERS: list[DemoMaster] = [
-    DemoMaster("brelloway_theme", "Brelloway (main theme)", "music", 48000, 24, 2, 30.0, -23.0,
+    DemoMaster("brelloway_theme", "Brelloway (main theme)", "music", 48000, 24, 2, LONG_FORM_S, -23.0,
                true_peak_dbtp_max=-8.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-19.0,
                demo_specs=("ostravel-house", "quillfen-album")),
     DemoMaster("quorrin_ad_hot", "Quorrin Street Bakery - 30 s spot", "music", 48000, 24, 2, 30.0, -15.0,
                true_peak_dbtp_max=-2.0, loudness_range_lu_max=5.0, max_short_term_lufs_max=-11.0,
                fault="too loud for broadcast (-15 LUFS)", demo_specs=("ostravel-shortform",)),
-    DemoMaster("gullwick_overs", "Gullwick Glass (radio edit)", "music+bursts", 48000, 24, 2, 30.0, -23.0,
+    DemoMaster("gullwick_overs", "Gullwick Glass (radio edit)", "music+bursts", 48000, 24, 2, LONG_FORM_S, -23.0,
                true_peak_dbtp_max=0.3, true_peak_dbtp_min=-0.4, sample_peak_dbfs_max=-2.9,
                fault="inter-sample overs: 12 kHz bursts peak at 0 dBTP while samples stay at -3 dBFS",
                demo_specs=("ostravel-house",)),
-    DemoMaster("ostmere_suite_wide", "Ostmere Suite, mvt. II", "music+dynamics", 48000, 24, 2, 30.0, -23.0,
+    DemoMaster("ostmere_suite_wide", "Ostmere Suite, mvt. II", "music+dynamics", 48000, 24, 2, LONG_FORM_S, -23.0,
                true_peak_dbtp_max=-9.0, loudness_range_lu_min=19.0, max_short_term_lufs_max=-19.0,
                fault="too much loudness range (quiet and loud passages 22 dB apart)",
                demo_specs=("ostravel-house",)),
-    DemoMaster("pellany_interview_44k", "Pellany Talks, ep. 4 (interview)", "speech", 44100, 24, 2, 15.0, -23.0,
+    DemoMaster("pellany_interview_44k", "Pellany Talks, ep. 4 (interview)", "speech", 44100, 24, 2, LONG_FORM_S,
+               -23.0,
                true_peak_dbtp_max=-8.0, fault="wrong sample rate for broadcast (44.1 kHz)",
                demo_specs=("ostravel-house",)),
     DemoMaster("trevarrow_clipped", "Trevarrow (club mix)", "music+clip", 48000, 24, 2, 20.0, -9.5,
@@ -402,7 +416,7 @@ def synthesize(master: DemoMaster, seed: int = SEED) -> np.ndarray:
     elif master.build == "music+bursts":
         bed = music(dur, sr, rng)
         burst_n = int(0.004 * sr)  # short, so the bursts barely add loudness
-        starts = [int(s * sr) for s in (7.0, 15.5, 24.25)]
+        starts = [int(s * sr) for s in (7.0, 15.5, 24.25, 48.0, 77.5, 103.25) if s < dur - 1.0]
         gap = np.ones(n)
         for s in starts:  # the music ducks by 26 dB around each burst (20 ms either side), never to silence
             pad = int(0.02 * sr)
@@ -525,14 +539,13 @@ def run_demo(out_dir="demo-output", formats: str | None = None, stream=None, job
         out.flush()
         work = [(str(paths[m.stem]), str(spec_files[s]), str(out_dir / s), tuple(fmts), m.stem) for m, s in jobs_list]
         results = pool.map(_check_one, work) if pool is not None else map(_check_one, work)
+        from masterqc.problems import problem_lines, ranked_problems
         for (m, s), r in zip(jobs_list, results):
-            missed = [f for f in r["findings"] if f["status"] in ("error", "fail")] or \
-                [f for f in r["findings"] if f["status"] == "warn"]
-            reason = missed[0]["message"] if missed else "meets every requirement"
-            if len(missed) > 1:
-                reason += f" (and {', '.join(f['check'] for f in missed[1:])})"
+            # every problem, worst first, one line each (as `check` prints them)
+            lines = problem_lines(ranked_problems(r["findings"]), indent="        ") or \
+                ["        meets every requirement"]
             out.write(f"  {r['verdict'].upper():5s} {m.stem:22s} vs {r['spec_name']}\n"
-                      f"        {reason}\n")
+                      + "".join(line + "\n" for line in lines))
             out.flush()
     finally:
         if pool is not None:

@@ -224,7 +224,8 @@ def judge_stored(stored: dict, loaded_spec, measurement_key: str) -> dict:
 
 def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable: bool = True,
                   encoded: dict | None = None) -> dict:
-    """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``; return it with ``outputs``.
+    """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``, and its events as
+    ``<stem>.events.csv``; return it with ``outputs``.
 
     ``keep``: rendered formats already on disk and fresh (not written again).  A failing
     renderer adds an ``error`` finding (``report.render``) and the JSON is still written;
@@ -250,6 +251,11 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable
             result["verdict"] = verdict(result["findings"])
     if "json" in formats:
         outputs["json"] = f"{stem}.json"
+    # every located event as CSV beside the reports (a header alone when there is none or the
+    # file could not be read, so an old list never outlives a new check)
+    from masterqc.exports import events_csv
+    write_atomic(os.path.join(out_dir, f"{stem}.events.csv"), events_csv(result), durable=durable)
+    outputs["events"] = f"{stem}.events.csv"
     result["outputs"] = outputs
     if "json" in formats:
         write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable, encoded=encoded)

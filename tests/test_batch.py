@@ -38,6 +38,9 @@ release:
   consistent_format: {}
 """
 HOSTILE = "<img src=x onerror=y> \x07bell"
+#: album_b (loudness spread, mixed rates) and misc (unreadable files); episodes/s01 holds 24-bit
+#: episodes and 16-bit extras, and consistent_format checks bit depth by default
+RELEASES_FAILED = 3
 
 
 def tone(path, peak_dbfs, seconds=1.0, sr=SR, subtype="PCM_16", fmt=None):
@@ -143,7 +146,7 @@ def test_first_run_verdicts_and_exit_code(catalogue, first_run):
     for rel, verdict in exp.items():
         assert files[rel]["verdict"] == verdict, (rel, files[rel]["first_problem"])
     assert s["counts"] == {"pass": 18, "warn": 0, "fail": 3, "error": 3, "files": 24, "analysed": 19, "reused": 5,
-                           "not_analysed": 0, "measured": 19, "rejudged": 0, "releases": 6, "releases_failed": 2}
+                           "not_analysed": 0, "measured": 19, "rejudged": 0, "releases": 4, "releases_failed": RELEASES_FAILED}
     # files of identical content (and spec) are analysed once; each still gets its own result
     assert sorted(r for r, f in files.items() if not f["analysed"]) == [
         "episodes/s01/e02.wav", "episodes/s01/e03.wav", "episodes/s01/e04.wav",
@@ -199,7 +202,11 @@ def test_error_rows_name_the_cause(first_run):
 def test_release_checks(first_run):
     _, out, snap = first_run
     rel = {r["id"].split("/", 1)[1]: r for r in snap["summary"]["releases"]}
-    assert set(rel) == {"album_a", "album_b", "album_b/bonus", "episodes/s01", "episodes/s01/extras", "misc"}
+    # the default grouping (house choice): the top folder holding audio, its sub-folders counted in
+    assert set(rel) == {"album_a", "album_b", "episodes/s01", "misc"}
+    assert "catalogue/album_b/bonus/01.flac" in rel["album_b"]["files"]
+    assert rel["album_b"]["measurements"]["track_count"] == 7
+    assert rel["episodes/s01"]["measurements"]["track_count"] == 6
     a, b = rel["album_a"], rel["album_b"]
     assert a["verdict"] == "pass"
     assert a["measurements"]["track_count"] == 6
@@ -238,7 +245,7 @@ def test_junit_xml(first_run):
     hostile = [n for n in by_name if "onerror" in n]
     assert len(hostile) == 1 and "\\x07" in hostile[0]  # a control character is spelled out, not written raw
     rel = suites["masterqc.releases"]
-    assert {c.get("name").split("/", 1)[1] for c in rel.findall("testcase") if c.find("failure") is not None} == {"album_b"}
+    assert {c.get("name").split("/", 1)[1] for c in rel.findall("testcase") if c.find("failure") is not None} == {"album_b", "episodes/s01"}  # s01 mixes 24- and 16-bit files
 
 
 def test_index_html(first_run):
@@ -397,3 +404,54 @@ def test_interrupted_run_resumes(tmp_path, monkeypatch):
     from masterqc.batch.ledger import Ledger
     with Ledger(again.ledger_path) as led:
         assert [r["status"] for r in led.runs()] == ["complete", "interrupted"]
+
+
+def test_index_rows_list_every_failure_worst_first(first_run):
+    """misc/loud.wav fails loudness AND true peak: its index row, its junit message and its
+    index.csv row name both, not the first alone."""
+    _, out, snap = first_run
+    files = by_rel(snap["summary"])
+    loud = files["misc/loud.wav"]
+    fails = [p for p in loud["problems"] if p["status"] == "fail"]
+    assert {p["check"] for p in fails} >= {"peaks.true_peak", "loudness.integrated"}
+    html = snap["index"]
+    row = next(r for r in html.split("<tr class=\"row-")[1:] if "misc/<wbr>loud.wav" in r)
+    for p in fails:
+        assert p["message"].split(" ")[0] in row
+        assert row.count('<span class="word">FAIL</span>') == len(fails)
+    top = ET.fromstring(snap["junit"])
+    case = next(c for c in top.iter("testcase") if c.get("name").endswith("misc/loud.wav"))
+    msg = case.find("failure").get("message")
+    for p in fails:
+        assert p["message"] in msg
+    # error rows: a readable summary, never a Python bytes dump
+    noise = next(r for r in html.split("<tr class=\"row-")[1:] if "misc/<wbr>noise.wav" in r)
+    assert "b&#39;" not in noise and "\\x" not in noise and "first bytes" not in noise
+
+
+def test_index_csv_matches_summary_json(first_run):
+    import csv
+    _, out, snap = first_run
+    with open(out / "index.csv", encoding="utf-8", newline="") as f:
+        rows = list(csv.DictReader(f))
+    summary = load(out / "summary.json")
+    files = {f["rel"]: f for f in summary["files"]}
+    assert len(rows) == len(files) == 24
+    order = [r["verdict"] for r in rows]
+    assert order == sorted(order, key=["error", "fail", "warn", "pass"].index)   # worst first
+    for r in rows:
+        f = files[r["file"]]
+        assert r["verdict"] == f["verdict"] and r["release"] == (f["release"] or "")
+        assert int(r["fail_count"]) == sum(p["status"] == "fail" for p in f["problems"])
+        assert int(r["error_count"]) == sum(p["status"] == "error" for p in f["problems"])
+        if f["integrated_lufs"] is None:
+            assert r["integrated_lufs"] == ""
+        else:
+            assert float(r["integrated_lufs"]) == pytest.approx(f["integrated_lufs"], abs=0.05)
+        if f["duration_s"] is not None:
+            assert float(r["duration_s"]) == pytest.approx(f["duration_s"], abs=5e-4)
+        for p in f["problems"]:
+            assert p["message"] in r["problems"]
+    loud = next(r for r in rows if r["file"].endswith("misc/loud.wav"))
+    assert loud["problems"].startswith("FAIL ") and loud["problems"].count("FAIL ") >= 2
+    assert next(r for r in rows if r["file"].endswith("album_a/01.wav"))["duration"] == "0:01"

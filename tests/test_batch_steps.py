@@ -167,7 +167,8 @@ def test_file_row_counts_findings_and_lists_problems(tmp_path):
     it.result["metadata"]["audio_data"] = {"missing_bytes": 96000, "missing_s": 0.5}
     row = file_row(it, {"verdict": "pass"}, True)
     assert row["counts"] == {"pass": 1, "warn": 1, "fail": 2, "skipped": 1, "error": 0}
-    assert [p["check"] for p in problems(it.result)] == ["c1", "c2", "c4"]
+    # worst first (fails before warns), spec order kept within a state
+    assert [p["check"] for p in problems(it.result)] == ["c1", "c4", "c2"]
     assert row["change"] == "newly_failing" and row["previous_verdict"] == "pass"
     assert row["integrated_lufs"] == -14.2 and row["outputs"] == {"json": f"{it.out_rel}/a.json"}
     assert row["missing_audio"] == missing_audio(it.result)

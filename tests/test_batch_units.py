@@ -297,6 +297,27 @@ def test_release_grouping_modes():
     assert release_of("in", rel, ("none", 0)) is None
 
 
+def test_sub_folder_joins_its_parents_release_by_default():
+    """House choice: the top folder holding audio is the release; bonus/ and alternates/ below it
+    count into it; a folder with no audio of its own (label/) leaves its album folders apart."""
+    from masterqc.batch.releases import DEFAULT_RELEASE_MODE, audio_folders
+    rels = ["label/album_a/01.wav", "label/album_a/02.wav", "label/album_a/bonus/03.wav",
+            "label/album_a/alternates/takes/04.wav", "label/album_b/01.wav", "label/album_b/extra/02.wav"]
+    have = audio_folders(rels)
+    mode = parse_release_mode(DEFAULT_RELEASE_MODE)
+    assert mode == ("top", 0)
+    got = {r: release_of("in", r, mode, have) for r in rels}
+    assert got == {"label/album_a/01.wav": "in/label/album_a", "label/album_a/02.wav": "in/label/album_a",
+                   "label/album_a/bonus/03.wav": "in/label/album_a",
+                   "label/album_a/alternates/takes/04.wav": "in/label/album_a",
+                   "label/album_b/01.wav": "in/label/album_b", "label/album_b/extra/02.wav": "in/label/album_b"}
+    # folder mode keeps the old grouping: bonus/ is a release of its own
+    assert release_of("in", "label/album_a/bonus/03.wav", ("folder", 0), have) == "in/label/album_a/bonus"
+    # audio in the folder argument itself: everything below joins it (depth:1 splits it again)
+    assert release_of("in", "album_c/01.wav", mode, audio_folders(["x.wav", "album_c/01.wav"])) == "in"
+    assert release_of("in", "album_c/01.wav", ("depth", 1)) == "in/album_c"
+
+
 def test_release_judge_analytic():
     from masterqc.judge.release import judge
     from masterqc.spec.sections.release import Section
@@ -344,6 +365,25 @@ def test_progress_plain_and_live_lines():
     quiet = io.StringIO()
     BatchProgress(1, 1, stream=quiet, quiet=True).file_done("x", "pass", 1.0, 1, True)
     assert quiet.getvalue() == ""
+
+
+def test_progress_lines_give_every_reason_worst_first():
+    findings = [{"check": "a", "status": "pass", "message": "fine"},
+                {"check": "b", "status": "warn", "message": "loudness range 21 LU is above 20 LU"},
+                {"check": "c", "status": "fail", "message": "integrated -8.0 LUFS is 5.0 LU too loud"},
+                {"check": "d", "status": "fail", "message": "true peak +0.4 dBTP is above -1.0 dBTP"}]
+    buf = io.StringIO()
+    BatchProgress(1, 100, stream=buf, live=False).file_done("in/b.wav", "fail", 10.0, 100, True, problems=findings)
+    assert buf.getvalue().splitlines() == ["[1/1] FAIL  in/b.wav (checked)",
+                                           "      FAIL  integrated -8.0 LUFS is 5.0 LU too loud",
+                                           "      FAIL  true peak +0.4 dBTP is above -1.0 dBTP",
+                                           "      WARN  loudness range 21 LU is above 20 LU"]
+    live = io.StringIO()
+    q = BatchProgress(2, 200, stream=live, live=True)
+    q.file_done("in/b.wav", "fail", 10.0, 100, True, problems=findings)
+    q.close()
+    text = live.getvalue()
+    assert "FAIL  in/b.wav\n" in text and "true peak +0.4 dBTP" in text   # printed above the live line
 
 
 def test_cli_errors_before_any_file_is_touched(tmp_path, rng, capsys):

@@ -157,7 +157,7 @@ def test_html_asked_without_renderer_is_exit_2(tmp_path, spec, monkeypatch, caps
     assert not (tmp_path / "o").exists()
     # the default falls back to JSON only, with a note
     assert main(["check", str(wav), "--spec", str(spec), "--out", str(tmp_path / "o"), "--quiet"]) == 0
-    assert os.listdir(tmp_path / "o") == ["a.json"]
+    assert sorted(os.listdir(tmp_path / "o")) == ["a.events.csv", "a.json"]  # events.csv is always written
     assert "JSON only" in capsys.readouterr().err
 
 
@@ -172,7 +172,7 @@ def test_html_report_written_beside_the_json(tmp_path, spec):
     assert main(["check", str(wav), "--spec", str(spec), "--out", str(tmp_path / "o"),
                  "--format", "json,html", "--quiet"]) == 0
     r = load(tmp_path / "o" / "a.json")
-    assert r["outputs"] == {"html": "a.html", "json": "a.json"}
+    assert r["outputs"] == {"html": "a.html", "json": "a.json", "events": "a.events.csv"}
     assert (tmp_path / "o" / "a.html").stat().st_size > 0
 
 

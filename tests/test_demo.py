@@ -47,18 +47,18 @@ HIRES = [m for m in MASTERS if "quillfen-hires" in m.demo_specs]
 # and atsc on its rate, and passes album: -18 LUFS <= -14, TP <= -3 (+2 dB to -16 LUFS keeps it
 # <= -1 dBTP) -- the album spec has no sampling section, so it cannot see their faults.
 EXPECTED = {
-    # -23 LUFS, TP <= -8, LRA <= 5, short-term <= -19, 30 s: meets all but the podcast's -18 +-2;
-    # album: +7 dB to -16 LUFS leaves the peak <= -1 dBTP, no limiting
-    "brelloway_theme": ("pass", "pass", "pass", "fail", "pass", "fail"),
+    # -23 LUFS, TP <= -8, LRA <= 5, short-term <= -19, 120 s (a long-form programme): meets all but
+    # the podcast's -18 +-2 and the 30 s spot's length; album: +7 dB to -16 LUFS leaves the peak
+    # <= -1 dBTP, no limiting
+    "brelloway_theme": ("pass", "fail", "pass", "fail", "pass", "fail"),
     # -15 LUFS: above -22 (house, short), above -16 (podcast), above -22 (atsc); album: <= -14, TP <= -2,
     # -1 dB to -16 LUFS needs no limiting
     "quorrin_ad_hot": ("fail", "fail", "pass", "fail", "fail", "fail"),
     # true peak about 0 dBTP: over every ceiling
     "gullwick_overs": ("fail", "fail", "fail", "fail", "fail", "fail"),
-    # LRA >= 19 > 18 (a warning only in the house spec); the 30 s spot spec asks no LRA and the
-    # short-term maximum is <= -19: pass; album and atsc pass (-23 LUFS, TP <= -9: +7 dB keeps
-    # it <= -2 dBTP); podcast: -23 is below -20
-    "ostmere_suite_wide": ("warn", "pass", "pass", "fail", "pass", "fail"),
+    # LRA >= 19 > 18 (a warning only in the house spec); 120 s is not the 30 s spot's length;
+    # album and atsc pass (-23 LUFS, TP <= -9: +7 dB keeps it <= -2 dBTP); podcast: -23 is below -20
+    "ostmere_suite_wide": ("warn", "fail", "pass", "fail", "pass", "fail"),
     # 44.1 kHz: refused by house, short and atsc; allowed by album (TP <= -8: +7 dB keeps it <= -1);
     # podcast: -23 LUFS is below -20
     "pellany_interview_44k": ("fail", "fail", "pass", "fail", "fail", "fail"),
@@ -152,6 +152,13 @@ def test_master_has_its_designed_properties(masters, m):
         assert 20 * np.log10(np.max(np.abs(x))) <= m.sample_peak_dbfs_max + 1e-6
 
 
+def test_long_form_masters_are_long_enough():
+    """The long-form programme spec's masters run at least 2 minutes (house choice: loudness range
+    is not meaningful under one minute, EBU Tech 3342 measures it over a whole programme)."""
+    house = [m for m in MASTERS if "ostravel-house" in m.demo_specs]
+    assert house and all(m.duration_s >= 120.0 for m in house)
+
+
 def test_overs_master_samples_stay_low_while_true_peak_is_over():
     # the fault of gullwick_overs by construction (EBU Tech 3341 case 16 shape at full scale)
     from masterqc.demo import quarter_rate_burst
@@ -190,17 +197,44 @@ def test_demo_command(tmp_path):
                 assert json.load(f)["verdict"] == want, (m.stem, spec_id)
             assert f"{want.upper():5s} {m.stem}" in text
     assert (tmp_path / "demo" / "masters" / "brelloway_theme.wav").exists()
-    # the summary line under each high-resolution master names the fault built into it
+    # the lines under each high-resolution master name the fault built into it: every problem,
+    # worst first, one line each
     lines = text.splitlines()
 
-    def reason(stem):
+    def problems(stem):
         i = next(k for k, line in enumerate(lines) if f" {stem} " in line and "high-resolution" in line)
-        return lines[i + 1].strip()
-    assert reason("ilvenbrook_hires") == "meets every requirement"
+        out = []
+        for line in lines[i + 1:]:
+            if not line.startswith("        "):
+                break
+            out.append(line.strip())
+        return out
+
+    def reason(stem):
+        first = problems(stem)[0]
+        return first.split(" ", 1)[1].strip() if first.split(" ", 1)[0] in ("FAIL", "WARN", "ERROR") else first
+    assert problems("ilvenbrook_hires") == ["meets every requirement"]
     assert reason("yarrowgate_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
     assert "converter's cliff" in reason("yarrowgate_fake_hires") and "Converted up from 44.1 kHz" in reason("yarrowgate_fake_hires")
     assert "alias" in reason("drimble_synth_lead") and "440.0 Hz" in reason("drimble_synth_lead")
-    assert "ultrasonic" in reason("maunsel_pilot") and "sampling.ultrasonic_tones" in reason("maunsel_pilot")
+    assert "ultrasonic" in reason("maunsel_pilot")
+    maunsel = problems("maunsel_pilot")
+    assert len(maunsel) >= 2 and all(p.startswith("WARN ") for p in maunsel)   # every warning listed
+    assert any("tone" in p for p in maunsel[1:])
+    # every master's block lists exactly its problems (errors, failures, warnings) from its JSON
+    for m in MASTERS:
+        for spec_id in m.demo_specs:
+            with open(tmp_path / "demo" / spec_id / f"{m.stem}.json") as f:
+                r = json.load(f)
+            head = f"{r['verdict'].upper():5s} {m.stem:22s} vs {r['spec']['name']}"
+            i = next(k for k, line in enumerate(lines) if line.strip() == head.strip())
+            block = []
+            for line in lines[i + 1:]:
+                if not line.startswith("        "):
+                    break
+                block.append(line.strip())
+            n = sum(f["status"] in ("error", "fail", "warn") for f in r["findings"])
+            assert len(block) == max(n, 1), (m.stem, spec_id, block)
     assert reason("corrowin_bells").startswith("true peak after conversion to 48 kHz")
 
 

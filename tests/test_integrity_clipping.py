@@ -89,16 +89,19 @@ def test_clipped_runs_counts_lengths_and_times(block):
     codes = _clipped_codes()
     x = pcm(codes, 24)
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), block=block).measurements
-    assert m["clipped_run_count"] == 5
+    # five runs; the two touching runs in R at 80000 form one event (house choice: runs that
+    # overlap or touch in time, in any channels, are one event)
+    assert m["clipped_run_count"] == 4
+    assert m["clipped_run_channel_run_count"] == 5
     assert m["clipped_run_count_per_channel"] == [2, 3]
     assert m["clipped_sample_count_per_channel"] == [15, 11]
     assert m["clipped_run_longest_samples"] == 10
-    ev = [(e["channel"], e["start_s"], e["end_s"], e["samples"], e["polarity"]) for e in m["clipped_run_events"]]
-    assert ev == [("L", 10000 / FS, 10005 / FS, 5, "positive"),
-                  ("R", 20000 / FS, 20003 / FS, 3, "negative"),
-                  ("L", 65530 / FS, 65540 / FS, 10, "negative"),
-                  ("R", 80000 / FS, 80004 / FS, 4, "positive"),
-                  ("R", 80004 / FS, 80008 / FS, 4, "negative")]
+    ev = [(e["channel"], e["start_s"], e["end_s"], e["samples"], e["runs"], e["polarity"])
+          for e in m["clipped_run_events"]]
+    assert ev == [("L", 10000 / FS, 10005 / FS, 5, 1, "positive"),
+                  ("R", 20000 / FS, 20003 / FS, 3, 1, "negative"),
+                  ("L", 65530 / FS, 65540 / FS, 10, 1, "negative"),
+                  ("R", 80000 / FS, 80008 / FS, 8, 2, "both")]
     # touching ranges merge into one located problem
     assert m["clipped_run_where_s"] == [[10000 / FS, 10005 / FS], [20000 / FS, 20003 / FS],
                                         [65530 / FS, 65540 / FS], [80000 / FS, 80008 / FS]]
@@ -109,7 +112,7 @@ def test_min_run_and_threshold_options():
     codes = _clipped_codes()
     x = pcm(codes, 24)
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_min_run_samples=2).measurements
-    assert m["clipped_run_count"] == 6  # the run of 2 now counts
+    assert m["clipped_run_count"] == 5  # the run of 2 now counts (4 events before, one more)
     # a plateau 0.05 dB below full scale: clipped only once the threshold reaches it
     level = int(np.floor((2 ** 23 - 1) * 10 ** (-0.05 / 20)))
     codes = np.zeros((5000, 1), np.int64)
@@ -119,6 +122,19 @@ def test_min_run_and_threshold_options():
     assert feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_threshold_db=0.04).measurements["clipped_run_count"] == 0
     m = feed(ClippingAnalyzer, x, info_for(x, bits=24), clip_threshold_db=0.06).measurements
     assert m["clipped_run_count"] == 1 and m["clipped_sample_count_per_channel"] == [100]
+
+
+def test_stereo_clip_at_one_time_is_one_event():
+    """Both channels clipped over the same frames: one event naming L and R, two channel runs."""
+    codes = np.zeros((20000, 2), np.int64)
+    codes[5000:5006, :] = 2 ** 23 - 1          # 6 frames at positive full scale in L and R
+    codes[5003:5010, 1] = 2 ** 23 - 1          # R's run continues to 5010: one run of 10 in R
+    x = pcm(codes, 24)
+    m = feed(ClippingAnalyzer, x, info_for(x, bits=24)).measurements
+    assert m["clipped_run_count"] == 1 and m["clipped_run_count_per_channel"] == [1, 1]
+    e = m["clipped_run_events"][0]
+    assert (e["channels"], e["start_s"], e["end_s"], e["samples"], e["runs"]) == (["L", "R"], 5000 / FS,
+                                                                                  5010 / FS, 10, 2)
 
 
 def test_padded_16_bit_full_scale_needs_a_threshold(tmp_path):
@@ -154,7 +170,7 @@ def test_file_round_trip_matches_in_memory(tmp_path):
     codes = _clipped_codes()
     path = write_pcm(tmp_path / "c.wav", codes, FS, 24)
     m = measure_file(path, MeasureOptions(block_frames=3001))["measurements"]
-    assert m["clipped_run_count"] == 5 and m["clipped_run_count_per_channel"] == [2, 3]
+    assert m["clipped_run_count"] == 4 and m["clipped_run_count_per_channel"] == [2, 3]
 
 
 def test_merge_ranges():

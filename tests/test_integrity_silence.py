@@ -76,13 +76,15 @@ def _dropouts():
 def test_dropouts_silence_and_frozen_values(block):
     x = pcm(_dropouts(), 24)
     m = feed(SilenceAnalyzer, x, info_for(x), block=block).measurements
-    assert m["dropout_count"] == 4
+    # the mute at 90000 is on both channels at one time: one dropout naming L and R (events are
+    # one per time span across channels, house choice); the per-channel runs keep their own keys
+    assert m["dropout_count"] == 3
     assert m["dropout_count_per_channel"] == [2, 2]
-    got = [(e["channel"], e["start_s"], e["end_s"], e["kind"]) for e in m["dropout_events"]]
-    assert got == [("L", 50000 / FS, 50240 / FS, "silence"),
-                   ("R", 65500 / FS, 66500 / FS, "frozen"),
-                   ("L", 90000 / FS, 90480 / FS, "silence"),
-                   ("R", 90000 / FS, 90480 / FS, "silence")]
+    assert m["dropout_channel_run_count"] == 4
+    got = [(e["channel"], e["channels"], e["start_s"], e["end_s"], e["kind"]) for e in m["dropout_events"]]
+    assert got == [("L", ["L"], 50000 / FS, 50240 / FS, "silence"),
+                   ("R", ["R"], 65500 / FS, 66500 / FS, "frozen"),
+                   ("L+R", ["L", "R"], 90000 / FS, 90480 / FS, "silence")]
     assert m["dropout_events"][1]["value"] == 12345 / 2 ** 23
     assert m["dropout_longest_s"] == 1000 / FS
     assert m["dropout_where_s"] == [[50000 / FS, 50240 / FS], [65500 / FS, 66500 / FS], [90000 / FS, 90480 / FS]]
@@ -106,4 +108,23 @@ def test_measure_file_silence_keys(tmp_path):
     path = write_pcm(tmp_path / "s.wav", _dropouts(), FS, 24)
     m = measure_file(path, MeasureOptions(block_frames=10000))["measurements"]
     assert m["head_digital_silence_s"] == 0.25 and m["tail_silence_s"] == 0.5
-    assert m["dropout_count"] == 4
+    assert m["dropout_count"] == 3 and m["dropout_channel_run_count"] == 4
+
+
+def test_stereo_mute_at_one_time_is_one_dropout():
+    """A 50 ms mute on both channels of a stereo file at one time is ONE dropout naming both
+    channels; each channel's run is still counted in the per-channel key."""
+    t = np.arange(2 * FS) / FS
+    tone = np.round(0.25 * np.sin(2 * np.pi * 997 * t) * 2 ** 23).astype(np.int64)
+    codes = np.stack([tone, tone], axis=1)
+    codes[FS:FS + 2400] = 0                 # 2400 frames = 50 ms at 48 kHz, both channels
+    x = pcm(codes, 24)
+    m = feed(SilenceAnalyzer, x, info_for(x)).measurements
+    assert m["dropout_count"] == 1
+    assert m["dropout_count_per_channel"] == [1, 1]
+    ev = m["dropout_events"]
+    assert len(ev) == 1 and ev[0]["channels"] == ["L", "R"] and ev[0]["kind"] == "silence"
+    # the neighbours of the mute are tone samples far from 0 (sin(2 pi 997 t) just before t = 1 s
+    # and at t = 1.05 s, sin(2 pi 0.85), round to large codes), so the run is exactly the mute
+    assert (ev[0]["start_s"], ev[0]["end_s"]) == (FS / FS, (FS + 2400) / FS)
+    assert m["dropout_longest_s"] == 2400 / FS

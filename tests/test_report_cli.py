@@ -81,4 +81,5 @@ def test_one_bad_name_stops_before_any_file_is_written(checked, tmp_path):
 
 def test_saved_result_is_valid_json_for_the_renderer(checked):
     result = json.loads((checked / "Brelloway_take2.json").read_text())
-    assert result["outputs"] == {"html": "Brelloway_take2.html", "json": "Brelloway_take2.json"}
+    assert result["outputs"] == {"html": "Brelloway_take2.html", "json": "Brelloway_take2.json",
+                                 "events": "Brelloway_take2.events.csv"}

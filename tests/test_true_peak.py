@@ -24,6 +24,7 @@ from masterqc.measure import oversample as ov
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.options import MeasureOptions
 from masterqc.measure.peaks import SamplePeakAnalyzer, TruePeakAnalyzer
+from integrity_support import feed, info_for
 
 FS = 48000
 PEAK_CLASSES = [SamplePeakAnalyzer, TruePeakAnalyzer]
@@ -390,15 +391,68 @@ def test_over_ranges_at_known_times(tmp_path):
     assert m2["true_peak_over_ranges_s"] == [] and m2["true_peak_over_count"] == 0
 
 
-def test_over_ranges_are_capped_but_all_counted(tmp_path):
+def hot_master_bursts(n_bursts=1430, every_s=0.12, first_s=0.5, seconds=180.0):
+    """A 3-minute stereo master: a 1 kHz tone at 0.1 with ``n_bursts`` 5 ms bursts at -0.5 dBFS
+    every 0.12 s; every 10th burst is in R only, the others in L and R.  Bursts start on zero
+    crossings (0.12 s and 0.5 s are whole numbers of 1 kHz periods at 48 kHz)."""
+    n = int(seconds * FS)
+    tone = np.sin(2 * np.pi * 1000 * np.arange(n) / FS)
+    x = np.stack([0.1 * tone, 0.1 * tone], axis=1)
+    hot = 10 ** (-0.5 / 20)
+    length = int(0.005 * FS)
+    starts = (int(first_s * FS) + np.arange(n_bursts) * int(every_s * FS))
+    idx = (starts[:, None] + np.arange(length)[None, :]).ravel()
+    x[idx, 1] = hot * tone[idx]
+    both = (starts[np.arange(n_bursts) % 10 != 0][:, None] + np.arange(length)[None, :]).ravel()
+    x[both, 0] = hot * tone[both]
+    return x.astype(np.float32), hot, starts
+
+
+def test_hot_master_reports_every_over_range():
+    """1,430 separate over ranges in 3 minutes: all 1,430 counted AND listed (no cap), with the
+    channels named.  Analytic: each 5 ms burst of hot*sin exceeds the -1 dBTP ceiling where
+    |sin| > r = 10**(-1/20)/hot, first at phase asin(r) of the burst's first half-cycle and last at
+    pi - asin(r) of its last; bursts are 115 ms apart (far more than the 10 ms merge gap, house
+    choice) and the 0.1 tone between them never reaches the ceiling."""
+    from masterqc.measure.peaks import TruePeakAnalyzer
+    x, hot, starts = hot_master_bursts()
+    m = feed(TruePeakAnalyzer, x, info_for(x, is_float=True, bits=32), true_peak_ceiling_dbtp=-1.0).measurements
+    assert m["true_peak_over_range_count"] == 1430
+    assert len(m["true_peak_over_ranges_s"]) == 1430 and len(m["true_peak_over_events"]) == 1430
+    a = math.asin(10 ** (-1 / 20) / hot) / (2 * math.pi) / 1000       # seconds into a 1 kHz cycle
+    tol = 1.5 / FS
+    first, last = m["true_peak_over_ranges_s"][0], m["true_peak_over_ranges_s"][-1]
+    assert first[0] == pytest.approx(starts[0] / FS + a, abs=tol)
+    assert last[1] == pytest.approx(starts[-1] / FS + 0.005 - a, abs=tol)
+    assert last[1] > 171.9                 # the last over is near the end, not in the intro
+    ev = m["true_peak_over_events"]
+    assert [e["channels"] for e in ev[:3]] == [["R"], ["L", "R"], ["L", "R"]]
+    assert sum(e["channels"] == ["R"] for e in ev) == 143
+    assert m["true_peak_over_range_count_per_channel"] == [1287, 1430]
+    # the highest true peak inside a burst: the burst's level, -0.5 dBTP (a 1 kHz sine read on the
+    # 32x grid is within a few thousandths of a dB of its peak)
+    assert ev[5]["peak_dbtp"] == pytest.approx(-0.5, abs=0.01)
+    # the judged finding carries every one of them (what the report and events.csv are made from)
+    from masterqc.exports import event_records
+    from masterqc.judge import judge
+    from masterqc.spec.loader import load_spec_text
+    spec = load_spec_text("spec_version: 1\nname: t\npeaks:\n  true_peak: {max_dbtp: -1.0}\n").spec
+    findings, _ = judge(spec, {"format": {"sample_rate_hz": FS, "duration_s": 180.0}, "measurements": m})
+    f = next(f for f in findings if f.check == "peaks.true_peak")
+    assert f.status == "fail" and len(f.where_s) == 1430
+    assert sum(r["kind"] == "true_peak_over" for r in event_records({"measurements": m})) == 1430
+
+
+def test_over_ranges_of_clicks_all_listed(tmp_path):
     # 150 clicks 30 ms apart (further apart than the 10 ms merge gap)
     x = np.zeros((int(150 * 0.03 * FS) + FS, 1))
     pos = (np.arange(150) * 0.03 * FS).astype(int) + 100
     x[pos, 0] = 0.99
     m, _, _ = measure_array(tmp_path, x)
     assert m["true_peak_over_range_count"] == 150
-    assert len(m["true_peak_over_ranges_s"]) == 100
+    assert len(m["true_peak_over_ranges_s"]) == 150
     assert m["true_peak_over_ranges_s"][0][0] <= 100 / FS < m["true_peak_over_ranges_s"][0][1]
+    assert m["true_peak_over_ranges_s"][-1][0] <= pos[-1] / FS < m["true_peak_over_ranges_s"][-1][1]
 
 
 # --- sample peak, envelope, factor ------------------------------------------------------------

@@ -18,7 +18,8 @@ def add_batch_arguments(c) -> None:
     g.add_argument("--ledger", metavar="PATH",
                    help="SQLite run ledger to share across runs (default: OUT/masterqc-ledger.sqlite)")
     g.add_argument("--releases", metavar="MODE",
-                   help="which folders form a release: folder (default: each folder holding audio), "
+                   help="which folders form a release: top (default: the top folder holding audio, "
+                        "its sub-folders such as bonus/ counted in), folder (each folder holding audio), "
                         "root, depth:N, none")
     g.add_argument("--recheck", action="store_true",
                    help="analyse every file again even when the ledger holds its result")

@@ -1,6 +1,6 @@
-"""The run-level outputs: ``summary.json``, ``junit.xml`` and ``index.html``.
+"""The run-level outputs: ``summary.json``, ``junit.xml``, ``index.html`` and ``index.csv``.
 
-All three are built from the *summary* dict (:func:`masterqc.batch.runner.run_batch`
+All four are built from the *summary* dict (:func:`masterqc.batch.runner.run_batch`
 assembles it) and written atomically.  ``index.html`` is one self-contained
 page (the per-file report's CSS inlined, no network), autoescaped, readable
 without JavaScript (rows come worst first) and sortable by verdict, file,
@@ -17,11 +17,16 @@ import xml.etree.ElementTree as ET
 import jinja2
 from markupsafe import Markup
 
+from masterqc.exports import clock_text, index_csv
 from masterqc.jsonutil import jsonable
 from masterqc.pipeline import write_atomic
+from masterqc.problems import problems_text, ranked_problems, readable_message
 
 VERDICT_RANK = {"error": 0, "fail": 1, "warn": 2, "pass": 3}
-WORD = {"pass": "PASS", "warn": "WARN", "fail": "FAIL", "error": "ERROR", "skipped": "SKIPPED"}
+#: the state words (one set everywhere: pass, warn, fail, error, not checked)
+WORD = {"pass": "PASS", "warn": "WARN", "fail": "FAIL", "error": "ERROR", "skipped": "NOT CHECKED"}
+#: problems shown in a row before the rest fold into an expandable list
+ROW_PROBLEMS_SHOWN = 3
 SHAPE = {"pass": "circle", "warn": "triangle", "fail": "square", "error": "diamond", "skipped": "dash"}
 CHANGE_TEXT = {"new": "new", "fixed": "fixed", "newly_failing": "newly failing", "changed": "changed",
                "unchanged": ""}
@@ -50,9 +55,10 @@ def _problems_text(problems: list[dict]) -> str:
 def junit_xml(summary: dict) -> bytes:
     """JUnit XML: suite ``masterqc.files`` (one testcase per file) and ``masterqc.releases``.
 
-    A failing file has a ``<failure>`` whose message is its first failing finding and
-    whose text lists every failing finding; an unreadable file an ``<error>``;
-    warnings go to ``<system-out>`` (the testcase passes).
+    A failing file has a ``<failure>`` whose message holds every failing finding,
+    worst first, on one line (``"FAIL a; FAIL b"``) and whose text lists them one
+    per line; an unreadable file an ``<error>`` likewise; warnings go to
+    ``<system-out>`` (the testcase passes).
     """
     files = summary["files"]
     releases = [r for r in summary.get("releases", []) if r.get("judged")]
@@ -67,16 +73,15 @@ def junit_xml(summary: dict) -> bytes:
         for classname, case_name, verdict, problems, secs in cases:
             tc = ET.SubElement(s, "testcase", classname=xml_text(classname), name=xml_text(case_name),
                                time=f"{secs:.3f}")
+            problems = ranked_problems(problems)
             bad = [p for p in problems if p["status"] in ("fail", "error")]
             if verdict == "error":
                 n_err += 1
-                first = next((p for p in problems if p["status"] == "error"), bad[0] if bad else None)
-                e = ET.SubElement(tc, "error", message=xml_text(first["message"] if first else "error"), type="error")
+                e = ET.SubElement(tc, "error", message=xml_text(problems_text(bad) or "error"), type="error")
                 e.text = _problems_text(bad)
             elif verdict == "fail":
                 n_fail += 1
-                first = next(p for p in problems if p["status"] == "fail")
-                e = ET.SubElement(tc, "failure", message=xml_text(first["message"]), type="fail")
+                e = ET.SubElement(tc, "failure", message=xml_text(problems_text(bad) or "fail"), type="fail")
                 e.text = _problems_text(bad)
             warns = [p for p in problems if p["status"] == "warn"]
             if warns:
@@ -106,17 +111,26 @@ def junit_xml(summary: dict) -> bytes:
 # ------------------------------------------------------------------ index.html
 
 INDEX_CSS = """
+body { max-width: none; width: 100%; padding: 20px 2.5vw 32px; }
 .index-counts { display: flex; gap: 10px; flex-wrap: wrap; margin: 10px 0 4px; padding: 0; list-style: none; }
 .index-counts li { border: 2px solid currentColor; padding: 4px 10px; font-weight: bold; }
 .index-counts .n { font-size: 20px; margin-right: 4px; }
 table.index { width: 100%; border-collapse: collapse; margin-top: 6px; }
-table.index th { text-align: left; font-size: 12px; border-bottom: 2px solid var(--ink); padding: 4px 6px; white-space: nowrap; }
+table.index th { text-align: left; font-size: 12px; border-bottom: 2px solid var(--ink); padding: 4px 6px; vertical-align: bottom; }
 table.index th.num { text-align: right; }
 table.index th button { font: inherit; font-weight: bold; text-transform: inherit; letter-spacing: inherit; background: none; border: 0; padding: 0; cursor: pointer; color: inherit; }
 table.index th[aria-sort="ascending"] button::after { content: " \\25B2"; }
 table.index th[aria-sort="descending"] button::after { content: " \\25BC"; }
 table.index td { border-bottom: 1px solid var(--rule); padding: 4px 6px; vertical-align: top; font-size: 12.5px; }
-table.index td.file { overflow-wrap: anywhere; }
+table.index td.file { overflow-wrap: break-word; word-break: normal; min-width: 10em; }
+table.index td.num { white-space: nowrap; text-align: right; }
+table.index td.problems { min-width: 18em; }
+ul.problems { list-style: none; margin: 0; padding: 0; }
+ul.problems li { margin: 0 0 2px; display: grid; grid-template-columns: 4.2em 1fr; column-gap: 0.4em; }
+ul.problems .word { font-weight: bold; font-size: 0.85em; padding-top: 0.1em; }
+details.more-problems summary { cursor: pointer; color: var(--muted); font-size: 12px; }
+details.more-problems[open] summary { margin-bottom: 2px; }
+.how { display: block; color: var(--muted); font-size: 11.5px; }
 table.index td.status { white-space: nowrap; font-weight: bold; }
 table.index .icon { vertical-align: -3px; margin-right: 4px; }
 .first-problem { display: block; color: var(--muted); font-size: 11.5px; }
@@ -146,6 +160,17 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 {%- endif -%}
 </svg>
 {%- endmacro %}
+{%- macro problem_item(p, path) -%}
+<li class="st-{{ p.status }}"><span class="word">{{ WORD[p.status] }}</span><span>{{ readable(p.message, path) }}</span></li>
+{%- endmacro %}
+{%- macro problem_list(problems, path="") -%}
+{%- set cut = problems|length > ROW_SHOWN -%}
+{%- set head = problems[:ROW_SHOWN - 1] if cut else problems -%}
+<ul class="problems">{% for p in head %}{{ problem_item(p, path) }}{% endfor %}</ul>
+{%- if cut %}{% set rest = problems[ROW_SHOWN - 1:] %}
+<details class="more-problems"><summary>{{ rest|length }} more ({{ tally(rest) }})</summary><ul class="problems">{% for p in rest %}{{ problem_item(p, path) }}{% endfor %}</ul></details>
+{%- endif %}
+{%- endmacro %}
 <html lang="en">
 <head>
 <meta charset="utf-8"/>
@@ -172,18 +197,19 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <section id="releases">
 <h2>Releases</h2>
 <table class="index grid" id="release-table">
-<thead><tr><th scope="col">Verdict</th><th scope="col">Release</th><th scope="col" class="num">Tracks</th><th scope="col" class="num">Pooled loudness</th><th scope="col" class="num">Loudness spread</th><th scope="col">Format</th><th scope="col">Findings</th></tr></thead>
+<thead><tr><th scope="col">Verdict</th><th scope="col">Release</th><th scope="col" class="num">Tracks</th><th scope="col" class="num">Duration</th><th scope="col" class="num">Pooled loudness</th><th scope="col" class="num">Loudness spread</th><th scope="col">Format</th><th scope="col">Problems, worst first</th></tr></thead>
 <tbody>
 {%- for r in releases %}
 {%- set st = r.verdict or "skipped" %}
 <tr class="row-{{ st }}">
-<td class="status st-{{ st }}">{{ icon(st) }}{{ WORD[st] if r.verdict else "NOT JUDGED" }}</td>
-<td class="file">{{ r.id }}<span class="first-problem">spec {{ r.spec or "none" }}{% if r.mixed_specs %} (its files use several specs; the release is judged with this one, its first file's){% endif %}</span></td>
+<td class="status st-{{ st }}">{{ icon(st) }}{{ WORD[st] }}</td>
+<td class="file">{{ wrapname(r.id) }}<span class="first-problem">spec {{ r.spec or "none" }}{% if r.mixed_specs %} (its files use several specs; the release is judged with this one, its first file's){% endif %}</span></td>
 <td class="num">{{ r.measurements.track_count }}{% if r.measurements.unreadable_count %} ({{ r.measurements.unreadable_count }} unreadable){% endif %}</td>
+<td class="num">{{ clock(r.measurements.total_duration_s) }}</td>
 <td class="num">{{ fmt(r.measurements.pooled_integrated_lufs, "LUFS") }}</td>
 <td class="num">{{ fmt(r.measurements.track_loudness_spread_lu, "LU") }}</td>
 <td>{{ r.format_text }}</td>
-<td>{% for p in r.findings if p.status != "pass" %}<span class="first-problem st-{{ p.status }}">{{ WORD[p.status] }} {{ p.message }}</span>{% else %}{% if r.verdict %}all release requirements met{% else %}the spec has no release section{% endif %}{% endfor %}</td>
+<td class="problems">{% set rp = ranked(r.findings) %}{% if rp %}{{ problem_list(rp) }}{% elif r.verdict %}all release requirements met{% else %}not checked: the spec has no release section{% endif %}</td>
 </tr>
 {%- endfor %}
 </tbody>
@@ -215,7 +241,8 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <th scope="col" data-key="file"><button type="button">File</button></th>
 <th scope="col" class="num" data-key="loudness"><button type="button">Integrated loudness</button></th>
 <th scope="col" class="num" data-key="peak"><button type="button">True peak</button></th>
-<th scope="col" class="num">Duration</th>
+<th scope="col" class="num" data-key="duration"><button type="button">Duration</button></th>
+<th scope="col">Problems, worst first</th>
 <th scope="col">Change</th>
 <th scope="col">Reports</th>
 </tr></thead>
@@ -223,22 +250,23 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 {%- for f in files %}
 <tr class="row-{{ f.verdict }}">
 <td class="status st-{{ f.verdict }}" data-sort="{{ RANK[f.verdict] }}">{{ icon(f.verdict) }}{{ WORD[f.verdict] }}</td>
-<td class="file" data-sort="{{ f.rel }}">{{ f.rel }}{% if f.first_problem %}<span class="first-problem">{{ f.first_problem }}</span>{% endif %}{% if f.missing_audio %}<span class="first-problem">truncated: {{ f.missing_audio.missing_text }}</span>{% endif %}{% if f.spec_from_delivery_folder %}<span class="first-problem">judged by a spec from the delivery folder</span>{% endif %}</td>
+<td class="file" data-sort="{{ f.rel }}">{{ wrapname(f.rel) }}{% if f.missing_audio %}<span class="first-problem">truncated: {{ f.missing_audio.missing_text }}</span>{% endif %}{% if f.spec_from_delivery_folder %}<span class="first-problem">judged by a spec from the delivery folder</span>{% endif %}</td>
 <td class="num" data-sort="{{ sortnum(f.integrated_lufs) }}">{{ fmt(f.integrated_lufs, "LUFS") }}</td>
 <td class="num" data-sort="{{ sortnum(f.true_peak_dbtp) }}">{{ fmt(f.true_peak_dbtp, "dBTP") }}</td>
-<td class="num">{{ fmt(f.duration_s, "s") }}</td>
-<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="first-problem">re-judged, not re-measured</span>{% elif f.how == "measured" %}<span class="first-problem">measured</span>{% elif f.reused %}<span class="first-problem">not analysed again</span>{% endif %}</td>
+<td class="num" data-sort="{{ sortnum(f.duration_s) }}">{{ clock(f.duration_s) }}</td>
+<td class="problems">{% set fp = ranked(f.problems) %}{% if fp %}{{ problem_list(fp, f.path) }}{% else %}<span class="how">no problems</span>{% endif %}</td>
+<td><span class="change change-{{ f.change }}">{{ CHANGE_TEXT[f.change] }}</span>{% if f.how == "rejudged" %}<span class="how">re-judged</span>{% elif f.how == "measured" %}<span class="how">measured</span>{% elif f.reused %}<span class="how">reused</span>{% endif %}</td>
 <td class="links">{% for kind, href in f.outputs.items() %}<a href="{{ href }}">{{ kind }}</a>{% endfor %}</td>
 </tr>
 {%- endfor %}
 </tbody>
 </table>
-<p class="note">Worst first. Levels are shown to 0.1; the per-file reports hold every finding.</p>
+<p class="note">Worst first. Levels are shown to 0.1; durations as m:ss or h:mm:ss; the per-file reports hold every finding and <code>events.csv</code> every located event. The same rows as a spreadsheet: <a href="index.csv">index.csv</a>.</p>
 </section>
 
 {%- if skipped_paths %}
 <section id="skipped">
-<h2>Not checked</h2>
+<h2>Not checked ({{ skipped_paths|length }})</h2>
 <ul class="skipped-paths">
 {%- for p in skipped_paths %}<li><code>{{ p.path }}</code>: {{ p.message }}</li>{% endfor %}
 </ul>
@@ -282,6 +310,34 @@ def _fmt(value, unit: str) -> str:
     if text.startswith("-") and float(text) == 0:
         text = text[1:]
     return f"{text} {unit}"
+
+
+_SEPARATORS = re.compile(r"([/\\_\-]+)")
+
+
+def _wrapname(text) -> Markup:
+    """A file or release name, escaped, with a break opportunity after every separator
+    (``/ \\ _ -``; spaces break anyway; never before an extension), so a narrow column wraps it there, not mid-word."""
+    from markupsafe import escape
+    from masterqc.fileio import shown
+    parts = _SEPARATORS.split(shown(str(text)))
+    out = []
+    for i, part in enumerate(parts):
+        out.append(str(escape(part)))
+        if i % 2 == 1:
+            out.append("<wbr>")
+    return Markup("".join(out))
+
+
+def _tally(problems) -> str:
+    n = {}
+    for p in problems:
+        n[p["status"]] = n.get(p["status"], 0) + 1
+    return ", ".join(f"{n[st]} {WORD[st].lower()}" for st in ("error", "fail", "warn") if st in n)
+
+
+def _ranked(findings) -> list[dict]:
+    return ranked_problems(findings or [])
 
 
 def _sortnum(value) -> str:
@@ -330,14 +386,17 @@ def index_html(summary: dict) -> str:
                       headline=headline, files=files, releases=releases, changes=summary["changes"],
                       previous_run=summary.get("previous_run"), skipped_paths=summary.get("skipped_paths", []),
                       spec_names=spec_names, WORD=WORD, SHAPE=SHAPE, RANK=VERDICT_RANK, CHANGE_TEXT=CHANGE_TEXT,
-                      fmt=_fmt, sortnum=_sortnum)
+                      fmt=_fmt, sortnum=_sortnum, clock=lambda v: clock_text(v) or "n/a",
+                      wrapname=_wrapname, readable=readable_message, tally=_tally, ranked=_ranked,
+                      ROW_SHOWN=ROW_PROBLEMS_SHOWN)
 
 
 def write_run_outputs(summary: dict, out_dir: str) -> dict:
-    """Write ``summary.json``, ``junit.xml`` and ``index.html`` into ``out_dir``; returns their names."""
+    """Write ``summary.json``, ``junit.xml``, ``index.html`` and ``index.csv`` into ``out_dir``; returns their names."""
     import os
     summary = jsonable(summary)  # names that are not valid UTF-8 shown as \xNN in every output
     write_summary_json(summary, os.path.join(out_dir, "summary.json"))
     write_atomic(os.path.join(out_dir, "junit.xml"), junit_xml(summary))
     write_atomic(os.path.join(out_dir, "index.html"), index_html(summary).encode("utf-8"))
-    return {"summary": "summary.json", "junit": "junit.xml", "index": "index.html"}
+    write_atomic(os.path.join(out_dir, "index.csv"), index_csv(summary))
+    return {"summary": "summary.json", "junit": "junit.xml", "index": "index.html", "index_csv": "index.csv"}

@@ -12,7 +12,7 @@ import posixpath
 from dataclasses import dataclass
 
 from masterqc.batch.names import NameAllocator, safe_component
-from masterqc.batch.releases import release_of
+from masterqc.batch.releases import audio_folders, release_of
 from masterqc.batch.specmap import Unusable
 
 FILES_DIR = "files"
@@ -71,6 +71,9 @@ def plan_items(found_files, roots, specmap, release_mode, out_dir: str) -> list[
     labels = root_labels(roots)
     names = NameAllocator()
     items: list[Item] = []
+    with_audio = {}   # root -> the folders below it that directly hold audio (release grouping)
+    for fnd in found_files:
+        with_audio.setdefault(fnd.root, set()).update(audio_folders([fnd.rel]))
     for fnd in found_files:
         label = labels.get(fnd.root) or safe_component(os.path.basename(os.path.abspath(fnd.root)))
         rel_in_root = fnd.rel
@@ -79,7 +82,7 @@ def plan_items(found_files, roots, specmap, release_mode, out_dir: str) -> list[
         folder_rel, stem = names.allocate(parts, stem)
         rule = specmap.lookup(rel_in_root, fnd.root)
         items.append(Item(found=fnd, path=os.path.abspath(fnd.path), rel=f"{label}/{rel_in_root}",
-                          release=release_of(label, rel_in_root, release_mode),
+                          release=release_of(label, rel_in_root, release_mode, with_audio.get(fnd.root)),
                           rule=None if isinstance(rule, Unusable) else rule,
                           rule_error=rule.message if isinstance(rule, Unusable) else None,
                           out_folder=os.path.join(out_dir, FILES_DIR, *folder_rel.split("/")),

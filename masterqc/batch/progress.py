@@ -3,8 +3,10 @@
 On a terminal: one live line -- files done of total, audio hours analysed,
 real-time factor (audio seconds analysed per second of wall time), elapsed
 time and ETA -- redrawn every second while long files are still running.
-Not on a terminal (a log, cron mail, CI): one plain line per finished file.
-``quiet``: nothing.
+Not on a terminal (a log, cron mail, CI): one plain line per finished file,
+then one indented line per problem of that file (errors, failures, warnings,
+worst first).  On a terminal, the problems of a file that fails or cannot be
+checked are printed above the live line.  ``quiet``: nothing.
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ import threading
 import time
 
 from masterqc.fileio import shown
+from masterqc.problems import problem_lines, ranked_problems
 
 
 def _clock(seconds: float) -> str:
@@ -69,24 +72,32 @@ class BatchProgress:
                 f"{rtf}  elapsed {_clock(st['elapsed_s'])}  ETA {eta}")
 
     def file_done(self, rel: str, verdict: str, audio_s: float, size_bytes: int, analysed: bool,
-                  how: str | None = None) -> None:
-        """One finished file; ``how`` says what happened to it ("checked", "reused", "not analysed")."""
+                  how: str | None = None, problems=None, path: str = "") -> None:
+        """One finished file; ``how`` says what happened to it ("checked", "reused", "not analysed");
+        ``problems`` its findings (or ``{check, status, message}`` records) -- every one that is
+        not a pass is shown, worst first (``path``, the file's path as the messages spell it, is
+        left out of them: the line names the file)."""
         with self._lock:
-            self._file_done(rel, verdict, audio_s, size_bytes, analysed, how)
+            self._file_done(rel, verdict, audio_s, size_bytes, analysed, how, problems, path)
 
-    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed, how=None) -> None:
+    def _file_done(self, rel, verdict, audio_s, size_bytes, analysed, how=None, problems=None, path="") -> None:
         self.done_files += 1
         self.done_bytes += max(0, size_bytes)
         if analysed:
             self.audio_s += max(0.0, audio_s or 0.0)
         if self.quiet:
             return
+        lines = [shown(t) for t in problem_lines(ranked_problems(problems or []), path=path)]
         if self.live:
+            if verdict in ("fail", "error"):
+                self.stream.write("\r\033[K" + f"{verdict.upper():5s} {shown(rel)}\n"
+                                  + "".join(t + "\n" for t in lines))
             self.stream.write(f"\r{self.line()}\033[K")
             self._shown = True
         else:
             how = how or ("checked" if analysed else "reused")
-            self.stream.write(f"[{self.done_files}/{self.total_files}] {verdict.upper():5s} {shown(rel)} ({how})\n")
+            self.stream.write(f"[{self.done_files}/{self.total_files}] {verdict.upper():5s} {shown(rel)} ({how})\n"
+                              + "".join(t + "\n" for t in lines))
         self.stream.flush()
 
     def note(self, text: str) -> None:

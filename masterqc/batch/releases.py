@@ -2,7 +2,11 @@
 
 Grouping modes (``--releases`` or ``releases:`` in a spec map):
 
-``folder`` (default)  each folder that directly holds audio is one release
+``top`` (default)     the top folder that holds audio is one release, and every
+                      folder below it joins it (``album/bonus/``, ``album/alternates/``
+                      count into ``album``); a folder that holds no audio itself
+                      leaves each of its sub-folders that does a release of its own
+``folder``            each folder that directly holds audio is one release
 ``root``              each folder named on the command line is one release
 ``depth:N``           the folder N levels below each named folder holds one release
                       (files less deep form a release of their own folder)
@@ -21,14 +25,16 @@ import posixpath
 
 from masterqc.measure.loudness import pooled_integrated_error_bound_lu, pooled_integrated_lufs
 
-RELEASE_MODES = ("folder", "root", "depth:N", "none")
+RELEASE_MODES = ("top", "folder", "root", "depth:N", "none")
+#: the grouping used when neither ``--releases`` nor the spec map names one
+DEFAULT_RELEASE_MODE = "top"
 
 
 def parse_release_mode(text) -> tuple[str, int]:
     """``"folder"`` -> ``("folder", 0)``, ``"depth:2"`` -> ``("depth", 2)``; ValueError naming the choices."""
     if isinstance(text, str):
         t = text.strip().lower()
-        if t in ("folder", "root", "none"):
+        if t in ("top", "folder", "root", "none"):
             return t, 0
         if t.startswith("depth:"):
             try:
@@ -40,13 +46,28 @@ def parse_release_mode(text) -> tuple[str, int]:
     raise ValueError(f"release grouping {text!r} is not one of {', '.join(RELEASE_MODES)} (N a whole number >= 0)")
 
 
-def release_of(root_label: str, rel: str, mode: tuple[str, int]) -> str | None:
-    """Release id (``root label/folder below it``) of the file at ``rel`` below its root, or None."""
+def audio_folders(rels) -> set[str]:
+    """The folders (``""`` for the root) that directly hold one of the files at ``rels`` below one root."""
+    return {posixpath.dirname(r) for r in rels}
+
+
+def release_of(root_label: str, rel: str, mode: tuple[str, int], folders_with_audio=None) -> str | None:
+    """Release id (``root label/folder below it``) of the file at ``rel`` below its root, or None.
+
+    ``folders_with_audio`` (:func:`audio_folders` of every file below the same root) is used by
+    the ``top`` mode; without it ``top`` takes the file's own folder, as ``folder`` does."""
     kind, n = mode
     folder = posixpath.dirname(rel)
     if kind == "none":
         return None
-    if kind == "root":
+    if kind == "top" and folders_with_audio is not None:
+        parts = folder.split("/") if folder else []
+        for depth in range(len(parts) + 1):       # the shallowest folder on the path holding audio
+            candidate = "/".join(parts[:depth])
+            if candidate in folders_with_audio:
+                folder = candidate
+                break
+    elif kind == "root":
         folder = ""
     elif kind == "depth":
         parts = folder.split("/") if folder else []

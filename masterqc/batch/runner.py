@@ -38,7 +38,7 @@ from masterqc.batch.hashing import hash_items
 from masterqc.batch.ledger import Ledger
 from masterqc.batch.plan import FILES_DIR, Item, plan_items  # noqa: F401  (FILES_DIR, Item: part of the interface)
 from masterqc.batch.progress import BatchProgress
-from masterqc.batch.releases import parse_release_mode
+from masterqc.batch.releases import DEFAULT_RELEASE_MODE, parse_release_mode
 from masterqc.batch.schedule import Scheduler
 from masterqc.batch.specmap import load_spec_map
 from masterqc.batch.summarise import summarise
@@ -57,7 +57,7 @@ class BatchConfig:
     jobs: int | None = None
     scheduler: str | None = None
     ledger_path: str | None = None
-    releases: str | None = None  #: grouping mode; None: the spec map's, else "folder"
+    releases: str | None = None  #: grouping mode; None: the spec map's, else the default (top)
     layout: tuple | None = None
     quiet: bool = False
     reuse: bool = True  #: False: analyse every file again (results still recorded)
@@ -90,7 +90,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
     t0 = time.perf_counter()
     base = MeasureOptions(channel_layout=cfg.layout)
     specmap = load_spec_map(cfg.spec_path, base, cfg.spec_libraries)
-    mode = parse_release_mode(cfg.releases or specmap.releases or "folder")
+    mode = parse_release_mode(cfg.releases or specmap.releases or DEFAULT_RELEASE_MODE)
     out_dir = os.path.abspath(cfg.out_dir)
     os.makedirs(out_dir, exist_ok=True)
     ledger_path = os.path.abspath(cfg.ledger_path) if cfg.ledger_path else os.path.join(out_dir, LEDGER_NAME)

@@ -133,7 +133,8 @@ class Scheduler:
                                 spec_key=it.rule.key if it.rule else None, verdict=verdict, analysed=analysed,
                                 message=first_problem(result), out_stem=it.out_stem)
         audio_s = float((result.get("format") or {}).get("duration_s") or 0.0)
-        self.progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed, how=how_shown(it))
+        self.progress.file_done(it.rel, verdict, audio_s, it.size_bytes, analysed, how=how_shown(it),
+                                problems=result.get("findings"), path=it.path)
 
     def outside(self, it, result: dict) -> dict:
         """``result`` with an error finding: ``it``'s output folder resolves outside the output folder."""

@@ -13,7 +13,7 @@ import time
 
 from masterqc import __version__
 from masterqc.batch.ledger import utc_now
-from masterqc.batch.releases import judge_release
+from masterqc.batch.releases import DEFAULT_RELEASE_MODE, judge_release
 from masterqc.batch.schedule import first_problem
 from masterqc.fileio import text_safe
 from masterqc.pipeline import exit_code_for
@@ -23,9 +23,9 @@ COUNTED = ("pass", "warn", "fail", "skipped", "error")
 
 
 def problems(result: dict) -> list[dict]:
-    """The error, fail and warn findings of a result (check, status, message)."""
-    return [{"check": f["check"], "status": f["status"], "message": f["message"]}
-            for f in result.get("findings", []) if f["status"] in ("fail", "error", "warn")]
+    """The error, fail and warn findings of a result (check, status, message), worst first."""
+    from masterqc.problems import ranked_problems
+    return ranked_problems(result.get("findings", []))
 
 
 def missing_audio(result: dict) -> dict | None:
@@ -122,7 +122,7 @@ def summarise(cfg, items, disc, specmap, started_utc: str, run_id: int, out_dir:
                 "elapsed_s": time.perf_counter() - t0, "roots": [os.fspath(r) for r in cfg.roots],
                 "out_dir": out_dir, "ledger": ledger_path, "spec": os.fspath(cfg.spec_path),
                 "spec_map": specmap.is_map, "backend": backend_description, "formats": list(cfg.formats),
-                "releases_mode": cfg.releases or specmap.releases or "folder"},
+                "releases_mode": cfg.releases or specmap.releases or DEFAULT_RELEASE_MODE},
         "exit_code": code,
         "counts": counts,
         "previous_run": ({"run_id": prev_run["run_id"], "started_utc": prev_run["started_utc"]} if prev_run else None),

@@ -51,7 +51,9 @@ _FILE = {
         "counts": {"type": "object", "additionalProperties": False,
                    "properties": {s: _INT for s in ("pass", "warn", "fail", "skipped", "error")}},
         "first_problem": _STR_OR_NULL,
-        "problems": {"type": "array", "items": _PROBLEM},
+        "problems": {"type": "array", "items": _PROBLEM,
+                     "description": "every error, failure and warning of the file, worst first "
+                                    "(errors, failures, warnings; the spec's order within one state)"},
         "outputs": {"type": "object", "description": "format -> path relative to the output folder",
                     "additionalProperties": {"type": "string", "pattern": "^files/"}},
     },
@@ -99,7 +101,9 @@ def summary_schema() -> dict:
                                    "elapsed_s": {"type": "number"}, "roots": names, "out_dir": {"type": "string"},
                                    "ledger": {"type": "string"}, "spec": {"type": "string"},
                                    "spec_map": {"type": "boolean"}, "backend": {"type": "string"},
-                                   "formats": names, "releases_mode": {"type": "string"}}},
+                                   "formats": names, "releases_mode": {"type": "string",
+                                                                     "description": "release grouping: top "
+                                                                     "(default), folder, root, depth:N or none"}}},
             "exit_code": {"enum": [0, 1, 3]},
             "counts": {"type": "object", "additionalProperties": False,
                        "properties": {k: _INT for k in ("pass", "warn", "fail", "error", "files", "analysed",

@@ -35,7 +35,7 @@ from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES,
                                    AnalyzerResult, array_of)
 from masterqc.measure.kweight import kweighting_sos
 from masterqc.measure.peaks import column_abs_max
-from masterqc.measure.runs import MAX_WHERE, column_sum
+from masterqc.measure.runs import column_sum
 
 #: left/right label pairs, in the order they are reported (the first present one is primary)
 PAIR_LABELS = [("L", "R"), ("Ls", "Rs"), ("Lrs", "Rrs"), ("Lss", "Rss"), ("Lc", "Rc"),
@@ -188,17 +188,15 @@ class ChannelRelationAnalyzer(Analyzer):
             idx = np.minimum(idx, len(self.series) - 1)
             np.minimum.at(self.series, idx, prim)
         low_any = np.flatnonzero(low.any(axis=1))
-        if low_any.size and len(self.below_where) <= MAX_WHERE:
+        if low_any.size:
             w = self.window
-            for i in low_any.tolist():
+            for i in low_any.tolist():      # every range is kept (one per window at most)
                 start = (self.window_index + i) * w
                 end = start + int(frames[i])
                 if self.below_where and self.below_where[-1][1] == start:
                     self.below_where[-1][1] = end
-                elif len(self.below_where) < MAX_WHERE:
-                    self.below_where.append([start, end])
                 else:
-                    break
+                    self.below_where.append([start, end])
         self.window_index += len(frames)
 
     def process(self, block):

@@ -9,7 +9,11 @@ A sample counts as clipped when it lies at or within ``clip_threshold_db`` dB
 below full scale on its side.  A *clipped run* is at least
 ``clip_min_run_samples`` consecutive clipped samples of one polarity in one
 channel (default 3: common practice, no source).  Runs are counted per
-channel and located in time (seconds from the file start).
+channel (``clipped_run_count_per_channel``); ``clipped_run_count`` counts
+*events*: runs of any channels that overlap or touch in time are one event
+(a clip on both channels of a stereo file at one moment is one event, with
+both channels named).  Every event is listed and located in time (seconds
+from the file start); nothing is capped.
 """
 
 from __future__ import annotations
@@ -19,14 +23,16 @@ import numpy as np
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (INTEGER, INTEGER_LIST, INTEGER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
-from masterqc.measure.runs import MAX_EVENTS, RunTracker, merge_ranges
+from masterqc.measure.runs import ChannelRuns, RunTracker, channel_names, join_across_channels
 
 RUN_EVENT = {
     "type": "object",
-    "required": ["channel", "start_s", "end_s", "samples", "polarity"],
-    "properties": {"channel": {"type": "string"}, "start_s": {"type": "number"},
-                   "end_s": {"type": "number"}, "samples": {"type": "integer"},
-                   "polarity": {"enum": ["positive", "negative"]}},
+    "required": ["channel", "channels", "start_s", "end_s", "samples", "runs", "polarity"],
+    "properties": {"channel": {"type": "string"},
+                   "channels": {"type": "array", "items": {"type": "string"}},
+                   "start_s": {"type": "number"}, "end_s": {"type": "number"},
+                   "samples": {"type": "integer"}, "runs": {"type": "integer"},
+                   "polarity": {"enum": ["positive", "negative", "both"]}},
 }
 
 
@@ -68,17 +74,21 @@ class ClippingAnalyzer(Analyzer):
     name = "clipping"
     measurement_schema = {
         "clipped_run_count": measured(INTEGER, 'count',
-            'runs of consecutive full-scale samples at least clip_min_run_samples long, all channels'),
+            'clipping events: runs of consecutive full-scale samples at least clip_min_run_samples long, '
+            'runs of several channels that overlap in time counted once'),
         "clipped_run_count_per_channel": measured(INTEGER_LIST, 'count',
             'clipped runs in each channel'),
         "clipped_sample_count_per_channel": measured(INTEGER_LIST, 'count',
             'samples inside clipped runs in each channel'),
         "clipped_run_longest_samples": measured(INTEGER, 'samples',
             'length of the longest clipped run'),
+        "clipped_run_channel_run_count": measured(INTEGER, 'count',
+            'clipped runs summed over the channels (a run on two channels at one time counts 2)'),
         "clipped_run_where_s": measured(TIME_RANGES, 's',
-            'time ranges of the clipped runs'),
+            'time ranges of every clipping event'),
         "clipped_run_events": measured(array_of(RUN_EVENT), NO_UNIT,
-            'the clipped runs, one record each (channel, start, length, polarity)'),
+            'every clipping event, one record each: channels named ("L+R"), start, end, '
+            'frames spanned, runs joined, polarity'),
         "over_full_scale_sample_count": measured(INTEGER_OR_NULL, 'count',
             'float files: samples beyond +-1.0; null for integer PCM'),
         "over_full_scale_sample_count_per_channel": measured({"type": ["array", "null"], "items": {"type": "integer"}}, 'count',
@@ -95,7 +105,7 @@ class ClippingAnalyzer(Analyzer):
         self.runs = np.zeros(ch, np.int64)
         self.samples = np.zeros(ch, np.int64)
         self.longest = 0
-        self.events = []
+        self.all_runs = ChannelRuns()
         self.overs = np.zeros(ch, np.int64)
 
     def _collect(self, c, starts, lengths, labels):
@@ -104,13 +114,27 @@ class ClippingAnalyzer(Analyzer):
         self.runs[c] += starts.size
         self.samples[c] += int(lengths.sum())
         self.longest = max(self.longest, int(lengths.max()))
-        room = MAX_EVENTS - len(self.events)
-        if room > 0:
-            fs = self.info.sample_rate_hz
-            label = self.info.channel_layout[c]
-            for s, n, lab in zip(starts[:room].tolist(), lengths[:room].tolist(), labels[:room].tolist()):
-                self.events.append({"channel": label, "start_s": s / fs, "end_s": (s + n) / fs,
-                                    "samples": n, "polarity": "positive" if lab > 0 else "negative"})
+        self.all_runs.add(c, starts, lengths, labels)
+
+    def _events(self) -> list[dict]:
+        fs = self.info.sample_rate_hz
+        st, ln, ch, lb = self.all_runs.arrays()
+        group, first, ev_s, ev_e, mask = join_across_channels(st, ln, ch, self.info.channels)
+        n_ev = first.size
+        pos = np.zeros(n_ev, bool)
+        neg = np.zeros(n_ev, bool)
+        pos[group[lb > 0]] = True
+        neg[group[lb < 0]] = True
+        runs = np.bincount(group, minlength=n_ev) if n_ev else np.zeros(0, np.int64)
+        layout = self.info.channel_layout
+        out = []
+        for i in range(n_ev):
+            names = channel_names(mask[i], layout)
+            s, e = int(ev_s[i]), int(ev_e[i])
+            out.append({"channel": "+".join(names), "channels": names, "start_s": s / fs, "end_s": e / fs,
+                        "samples": e - s, "runs": int(runs[i]),
+                        "polarity": "both" if pos[i] and neg[i] else ("positive" if pos[i] else "negative")})
+        return out
 
     def process(self, block):
         pos = block >= self.upper
@@ -132,19 +156,20 @@ class ClippingAnalyzer(Analyzer):
     def finish(self):
         for c, tr in enumerate(self.trackers):
             self._collect(c, *tr.close())
-        self.events.sort(key=lambda e: (e["start_s"], e["channel"]))
-        where = merge_ranges([(e["start_s"], e["end_s"]) for e in self.events])
+        events = self._events()
         m = {
-            "clipped_run_count": int(self.runs.sum()),
+            "clipped_run_count": len(events),
+            "clipped_run_channel_run_count": int(self.runs.sum()),
             "clipped_run_count_per_channel": self.runs.tolist(),
             "clipped_sample_count_per_channel": self.samples.tolist(),
             "clipped_run_longest_samples": self.longest,
-            "clipped_run_where_s": where,
-            "clipped_run_events": self.events,
+            "clipped_run_where_s": [[e["start_s"], e["end_s"]] for e in events],
+            "clipped_run_events": events,
             "over_full_scale_sample_count": int(self.overs.sum()) if self.info.is_float else None,
             "over_full_scale_sample_count_per_channel": self.overs.tolist() if self.info.is_float else None,
         }
         settings = {"min_run_samples": self.min_run, "threshold_below_full_scale_db": self.threshold_db,
                     "upper_level": self.upper, "lower_level": self.lower,
-                    "events_kept": MAX_EVENTS}
+                    "events_listed": "all (no cap)",
+                    "event_rule": "runs of any channels that overlap or touch in time form one event"}
         return AnalyzerResult(measurements=m, settings=settings)

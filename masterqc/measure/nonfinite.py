@@ -13,7 +13,7 @@ import numpy as np
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import INTEGER, INTEGER_LIST, TIME_RANGES, Analyzer, AnalyzerResult, array_of
-from masterqc.measure.runs import merge_ranges
+from masterqc.measure.runs import FrameRanges
 
 #: how many positions are kept for the report (the counts stay exact)
 FIRST_POSITIONS = 20
@@ -43,7 +43,7 @@ class NonFiniteAnalyzer(Analyzer):
         "nonfinite_first_positions": measured(array_of(POSITION), NO_UNIT,
             'the first non-finite samples (kind, channel, frame, time)'),
         "nonfinite_where_s": measured(TIME_RANGES, 's',
-            'time ranges holding non-finite samples'),
+            'every time range holding non-finite samples (any channel; consecutive frames join)'),
     }
 
     def __init__(self, info, options):
@@ -53,6 +53,7 @@ class NonFiniteAnalyzer(Analyzer):
         self.nan = 0
         self.inf = 0
         self.first = []
+        self.where = FrameRanges(1)
         self.pos = 0
 
     def process(self, block):
@@ -60,6 +61,7 @@ class NonFiniteAnalyzer(Analyzer):
             bad = ~np.isfinite(block)
             if bad.any():
                 self.per_channel += bad.sum(axis=0)
+                self.where.add(np.flatnonzero(bad.any(axis=1)) + self.pos)
                 isnan = np.isnan(block)
                 self.nan += int(isnan.sum())
                 self.inf += int(bad.sum()) - int(isnan.sum())
@@ -83,6 +85,6 @@ class NonFiniteAnalyzer(Analyzer):
             "nan_sample_count": self.nan,
             "inf_sample_count": self.inf,
             "nonfinite_first_positions": self.first,
-            "nonfinite_where_s": merge_ranges([(p["time_s"], p["time_s"] + 1.0 / fs) for p in self.first]),
+            "nonfinite_where_s": [[int(a) / fs, (int(b) + 1) / fs] for a, b in zip(*self.where.finish()[:2])],
         }
         return AnalyzerResult(measurements=m, settings={"positions_kept": FIRST_POSITIONS})

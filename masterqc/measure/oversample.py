@@ -411,6 +411,12 @@ class TruePeakMeter:
     given) or its bucket's maximum; elsewhere it is the scan's value, below
     both.  Without ``ceiling_linear`` and ``bucket_frames`` every frame value
     passed to ``on_frames`` is exact.
+
+    ``on_channel_frames(start_frame, channel_peak)``, when given, is called
+    likewise with the per-channel values, a (channels, frames) float32 array
+    whose maximum over channels is ``frame_peak``; a channel's value is exact
+    wherever that channel can reach ``ceiling_linear``, so overs can be
+    attributed to the channels that hold them.
     """
 
     #: FFT segments evaluated per run
@@ -422,7 +428,7 @@ class TruePeakMeter:
 
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
                  design: str = "kaiser", on_frames=None, ceiling_linear: float | None = None,
-                 bucket_frames: int | None = None, buckets: int = 1):
+                 bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
         if design == "kaiser":
@@ -453,6 +459,7 @@ class TruePeakMeter:
         self._H = sfft.rfft(g, axis=1).astype(np.complex64)[:, None, :]
         self._fine = np.ascontiguousarray(self.filter.taps[:, fine_phases], dtype=np.float32)
         self._on_frames = on_frames
+        self._on_channel_frames = on_channel_frames
         self.ceiling_linear = None if ceiling_linear is None else float(ceiling_linear)
         self.bucket_frames = None if bucket_frames is None else max(1, int(bucket_frames))
         self.envelope_linear = np.zeros(max(1, int(buckets)) if bucket_frames else 0)
@@ -538,6 +545,8 @@ class TruePeakMeter:
         self.frames_done += m
         if self._on_frames is not None:
             self._on_frames(start, fp[:m])
+        if self._on_channel_frames is not None:
+            self._on_channel_frames(start, scan[:, :m])
 
     def _buckets_of(self, start: int, m: int):
         """(first bucket, per-frame cut offsets, frames per piece) of the run."""
@@ -572,7 +581,7 @@ class TruePeakMeter:
             levels = known if self.ceiling_linear is None else np.minimum(known, self.ceiling_linear)
         elif self.ceiling_linear is not None:
             cuts, levels = np.array([0]), np.array([self.ceiling_linear])
-        elif self._on_frames is not None:
+        elif self._on_frames is not None or self._on_channel_frames is not None:
             cuts, levels = np.array([0]), np.array([0.0])
         else:
             cuts, levels = np.array([0]), np.array([np.inf])

@@ -18,10 +18,11 @@ import math
 
 import numpy as np
 
-from masterqc.contract import measured
+from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import amplitude_db
-from masterqc.measure.base import (INTEGER, NUMBER, NUMBER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST,
-                                   TIME_RANGES, Analyzer, AnalyzerResult)
+from masterqc.measure.base import (INTEGER, INTEGER_LIST, NUMBER, NUMBER_LIST, NUMBER_OR_NULL,
+                                   NUMBER_OR_NULL_LIST, TIME_RANGES, Analyzer, AnalyzerResult, array_of)
+from masterqc.measure.runs import FrameRanges, channel_names
 from masterqc.measure.oversample import (SCAN_BAND_FS, TruePeakMeter, choose_factor, meter_underread_db,
                                          reading_filter_properties)
 
@@ -29,8 +30,15 @@ from masterqc.measure.oversample import (SCAN_BAND_FS, TruePeakMeter, choose_fac
 ENVELOPE_BUCKETS = 2000
 #: over-ceiling frames closer than this are merged into one time range
 OVER_MERGE_GAP_S = 0.010
-#: at most this many over-ceiling ranges are listed (all are counted)
-OVER_RANGES_MAX = 100
+
+OVER_EVENT = {
+    "type": "object",
+    "required": ["channel", "channels", "start_s", "end_s", "peak_dbtp"],
+    "properties": {"channel": {"type": "string"},
+                   "channels": {"type": "array", "items": {"type": "string"}},
+                   "start_s": {"type": "number"}, "end_s": {"type": "number"},
+                   "peak_dbtp": {"type": "number"}},
+}
 
 
 #: ``20*log10(value)``; None for 0 (or below), since -inf cannot exist in JSON
@@ -117,8 +125,13 @@ class TruePeakAnalyzer(Analyzer):
     interpolated value (on the same grid as the true peak) of any channel
     exceeds the ceiling, so a true peak above the ceiling always has an over;
     ``true_peak_over_ranges_s``, those frames merged into [start, end] ranges
-    (frames closer than 10 ms join one range; the first 100 ranges are listed)
-    and ``true_peak_over_range_count``, the number of all ranges.  Series:
+    (frames closer than 10 ms join one range, whatever channels hold them;
+    every range is listed, no cap), ``true_peak_over_range_count``, their
+    number, ``true_peak_over_events`` (each range with the channels that hold
+    overs in it and its highest true peak), and per channel
+    ``true_peak_over_count_per_channel`` and
+    ``true_peak_over_range_count_per_channel`` (each channel's overs merged
+    alone).  Series:
     ``true_peak_envelope_dbtp`` (maximum over channels and the reading grid
     per bucket of at most 1/2000 of the file, None where silent) with
     ``true_peak_envelope_time_s``
@@ -146,7 +159,14 @@ class TruePeakAnalyzer(Analyzer):
         "true_peak_over_range_count": measured(INTEGER, 'count',
             'time ranges holding overs'),
         "true_peak_over_ranges_s": measured(TIME_RANGES, 's',
-            'time ranges [start, end] holding overs'),
+            'every time range [start, end] holding overs (any channel)'),
+        "true_peak_over_events": measured(array_of(OVER_EVENT), NO_UNIT,
+            'every over range, one record each: channels holding overs in it ("L+R"), start, end, '
+            'highest true peak in it (dBTP)'),
+        "true_peak_over_count_per_channel": measured(INTEGER_LIST, 'count',
+            'frames in which each channel exceeds the ceiling'),
+        "true_peak_over_range_count_per_channel": measured(INTEGER_LIST, 'count',
+            'over ranges of each channel taken alone'),
     }
     series_schema = {
         "true_peak_envelope_dbtp": NUMBER_OR_NULL_LIST,
@@ -164,40 +184,23 @@ class TruePeakAnalyzer(Analyzer):
         self.ceiling_linear = 10.0 ** (self.ceiling_dbtp / 20.0)
         self.bucket_frames = bucket_frames_for(max(info.frames, 1))
         self.envelope = np.zeros(-(-max(info.frames, 1) // self.bucket_frames))   # filled by the meter
-        self.over_count = 0
-        self.ranges: list[list[int]] = []     # [first_frame, last_frame] of closed ranges (capped)
-        self.range_count = 0                  # all closed ranges
-        self.open_range: list[int] | None = None
         self.merge_gap = max(1, int(round(OVER_MERGE_GAP_S * self.rate)))
+        self.overs = FrameRanges(self.merge_gap, info.channels)           # any channel
+        self.channel_overs = [FrameRanges(self.merge_gap) for _ in range(info.channels)]
         self.meter = TruePeakMeter(self.rate, info.channels, self.factor, self.design,
-                                   on_frames=self._frames, ceiling_linear=self.ceiling_linear,
+                                   on_channel_frames=self._frames, ceiling_linear=self.ceiling_linear,
                                    bucket_frames=self.bucket_frames, buckets=self.envelope.shape[0])
 
     # -- per-frame bookkeeping -------------------------------------------------
-    def _frames(self, start: int, fp) -> None:
-        over = np.flatnonzero(fp > self.ceiling_linear)
-        if over.size:
-            self._add_overs(over + start)
-
-    def _add_overs(self, idx: np.ndarray) -> None:
-        self.over_count += int(idx.size)
-        breaks = np.flatnonzero(np.diff(idx) > self.merge_gap)
-        starts = np.concatenate([[idx[0]], idx[breaks + 1]])
-        ends = np.concatenate([idx[breaks], [idx[-1]]])
-        for s, e in zip(starts.tolist(), ends.tolist()):
-            if self.open_range is not None and s - self.open_range[1] <= self.merge_gap:
-                self.open_range[1] = e
-                continue
-            self._close_range()
-            self.open_range = [s, e]
-
-    def _close_range(self) -> None:
-        if self.open_range is None:
+    def _frames(self, start: int, cp) -> None:
+        """``cp``: (channels, frames) per-channel frame peaks from ``start``."""
+        over = cp > self.ceiling_linear
+        idx = np.flatnonzero(over.any(axis=0))
+        if not idx.size:
             return
-        self.range_count += 1
-        if len(self.ranges) < OVER_RANGES_MAX:
-            self.ranges.append(self.open_range)
-        self.open_range = None
+        self.overs.add(idx + start, cp[:, idx].max(axis=0), over[:, idx])
+        for c, fr in enumerate(self.channel_overs):
+            fr.add(np.flatnonzero(over[c]) + start)
 
     # -- analyzer interface ----------------------------------------------------
     def process(self, block) -> None:
@@ -205,7 +208,15 @@ class TruePeakAnalyzer(Analyzer):
 
     def finish(self) -> AnalyzerResult:
         self.meter.flush()
-        self._close_range()
+        r_start, r_end, r_peak, r_mask = self.overs.finish()
+        for fr in self.channel_overs:
+            fr.finish()
+        layout = self.info.channel_layout
+        over_events = []
+        for s, e, p, mk in zip(r_start.tolist(), r_end.tolist(), r_peak.tolist(), r_mask):
+            names = channel_names(mk, layout)
+            over_events.append({"channel": "+".join(names), "channels": names, "start_s": s / self.rate,
+                                "end_s": (e + 1) / self.rate, "peak_dbtp": linear_to_db(p)})
         self.envelope = self.meter.envelope_linear
         peak = self.meter.peak_linear
         rate = self.rate
@@ -221,9 +232,12 @@ class TruePeakAnalyzer(Analyzer):
             "true_peak_underread_max_db_to_0_45fs": round(underread_45, 4),
             "true_peak_underread_max_db_to_0_49fs": round(underread_49, 4),
             "true_peak_ceiling_dbtp": self.ceiling_dbtp,
-            "true_peak_over_count": int(self.over_count),
-            "true_peak_over_range_count": int(self.range_count),
-            "true_peak_over_ranges_s": [[s / rate, (e + 1) / rate] for s, e in self.ranges],
+            "true_peak_over_count": int(self.overs.count),
+            "true_peak_over_range_count": len(over_events),
+            "true_peak_over_ranges_s": [[e["start_s"], e["end_s"]] for e in over_events],
+            "true_peak_over_events": over_events,
+            "true_peak_over_count_per_channel": [int(fr.count) for fr in self.channel_overs],
+            "true_peak_over_range_count_per_channel": [int(fr.finish()[0].size) for fr in self.channel_overs],
         }
         series = {
             "true_peak_envelope_dbtp": [linear_to_db(v) for v in self.envelope],
@@ -244,7 +258,7 @@ class TruePeakAnalyzer(Analyzer):
             "gain_db_at_0_45fs": round(props["gain_db_at_0_45fs"], 4),
             "stopband_gain_db_from_0_51fs": round(props["stopband_gain_db_from_0_51fs"], 2),
             "over_merge_gap_s": OVER_MERGE_GAP_S,
-            "over_ranges_listed_max": OVER_RANGES_MAX,
+            "over_ranges_listed": "all (no cap)",
             "envelope_bucket_s": self.bucket_frames / rate,
             "outside_file": "signal taken as zero before the first and after the last sample; "
                             "only instants inside the file are evaluated",

@@ -12,10 +12,6 @@ from __future__ import annotations
 
 import numpy as np
 
-#: how many events (runs, positions) an analyzer keeps for the report; counts stay exact
-MAX_EVENTS = 200
-#: how many time ranges a measurement carries in its ``..._where_s`` key
-MAX_WHERE = 100
 
 
 def column_sum(a: np.ndarray) -> np.ndarray:
@@ -126,12 +122,124 @@ class RunTracker:
         return np.array([start], np.int64), np.array([length], np.int64), np.array([label])
 
 
-def merge_ranges(ranges, limit: int = MAX_WHERE) -> list:
-    """Sort ``[(start_s, end_s), ...]`` and merge overlapping or touching ranges; keep the first ``limit``."""
+def merge_ranges(ranges, limit: int | None = None) -> list:
+    """Sort ``[(start_s, end_s), ...]`` and merge overlapping or touching ranges.
+
+    Every merged range is returned unless ``limit`` (a count) is given."""
     out = []
     for a, b in sorted(ranges):
         if out and a <= out[-1][1]:
             out[-1][1] = max(out[-1][1], b)
         else:
             out.append([a, b])
-    return out[:limit]
+    return out if limit is None else out[:limit]
+
+
+class ChannelRuns:
+    """Every run of every channel, kept as arrays (start frame, length, channel, label).
+
+    Nothing is dropped: a file with a million runs keeps a million (a few
+    dozen bytes each)."""
+
+    def __init__(self):
+        self._parts: list[tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]] = []
+
+    def add(self, channel: int, starts, lengths, labels) -> None:
+        if len(starts):
+            self._parts.append((np.asarray(starts, np.int64), np.asarray(lengths, np.int64),
+                                np.full(len(starts), int(channel), np.int64), np.asarray(labels, np.float64)))
+
+    def arrays(self):
+        """``(starts, lengths, channels, labels)`` sorted by start, then channel."""
+        if not self._parts:
+            z = np.zeros(0, np.int64)
+            return z, z, z, np.zeros(0)
+        st, ln, ch, lb = (np.concatenate(a) for a in zip(*self._parts))
+        order = np.lexsort((ch, st))
+        return st[order], ln[order], ch[order], lb[order]
+
+
+def join_across_channels(starts, lengths, channels, n_channels: int):
+    """Group per-channel runs into events: one per time span, across channels.
+
+    Runs (sorted by start) that overlap or touch (the next starts at or before
+    the running end, end exclusive) join one event.  Returns ``(group, first,
+    ev_start, ev_end, ev_mask)``: the event index of every run, the index of
+    each event's first run, event start and end frames (end exclusive) and a
+    (events, channels) boolean array of the channels each event touches.
+    """
+    k = len(starts)
+    if k == 0:
+        z = np.zeros(0, np.int64)
+        return z, z, z, z, np.zeros((0, n_channels), bool)
+    ends = starts + lengths
+    reach = np.maximum.accumulate(ends)
+    new = np.ones(k, bool)
+    new[1:] = starts[1:] > reach[:-1]
+    first = np.flatnonzero(new)
+    group = np.cumsum(new) - 1
+    ev_start = starts[first]
+    ev_end = np.maximum.reduceat(ends, first)
+    mask = np.zeros((first.size, n_channels), bool)
+    mask[group, channels] = True
+    return group, first, ev_start, ev_end, mask
+
+
+def channel_names(mask_row, layout) -> list[str]:
+    """Channel labels of the True entries of one row of an event mask."""
+    return [str(layout[c]) if c < len(layout) else f"ch{c + 1}" for c in np.flatnonzero(mask_row).tolist()]
+
+
+class FrameRanges:
+    """Frame indices (increasing, fed in pieces) merged into ranges: indices no more than
+    ``gap`` frames apart join one range.  Keeps every range, its peak value and, when
+    a channel mask is fed, the channels that took part."""
+
+    def __init__(self, gap: int, channels: int = 0):
+        self.gap = int(gap)
+        self.channels = int(channels)
+        self.count = 0              # indices fed
+        self._closed: list[tuple] = []
+        self._open = None           # [start, end, peak, mask]
+
+    def add(self, idx: np.ndarray, values: np.ndarray | None = None, mask: np.ndarray | None = None) -> None:
+        """``idx`` increasing frame indices after every earlier one; ``values`` one per index;
+        ``mask`` (channels, len(idx)) booleans."""
+        if idx.size == 0:
+            return
+        self.count += int(idx.size)
+        breaks = np.flatnonzero(np.diff(idx) > self.gap)
+        seg = np.concatenate(([0], breaks + 1))
+        s = idx[seg].astype(np.int64)
+        e = idx[np.append(breaks, idx.size - 1)].astype(np.int64)
+        pk = np.maximum.reduceat(values, seg).astype(np.float64) if values is not None else np.zeros(s.size)
+        mk = (np.logical_or.reduceat(mask, seg, axis=1).T if mask is not None
+              else np.zeros((s.size, self.channels), bool))
+        i0 = 0
+        if self._open is not None and s[0] - self._open[1] <= self.gap:
+            o = self._open
+            o[1] = int(e[0])
+            o[2] = max(o[2], float(pk[0]))
+            o[3] = o[3] | mk[0]
+            i0 = 1
+        if i0 < s.size:
+            self._close()
+            if s.size - 1 > i0:
+                self._closed.append((s[i0:-1], e[i0:-1], pk[i0:-1], mk[i0:-1]))
+            self._open = [int(s[-1]), int(e[-1]), float(pk[-1]), mk[-1].copy()]
+
+    def _close(self) -> None:
+        if self._open is not None:
+            o = self._open
+            self._closed.append((np.array([o[0]]), np.array([o[1]]), np.array([o[2]]), o[3][None, :]))
+            self._open = None
+
+    def finish(self):
+        """``(starts, ends, peaks, masks)`` of every range (ends inclusive frame indices)."""
+        self._close()
+        if not self._closed:
+            z = np.zeros(0, np.int64)
+            return z, z, np.zeros(0), np.zeros((0, self.channels), bool)
+        st, en, pk, mk = (np.concatenate(a) for a in zip(*self._closed))
+        self._closed = [(st, en, pk, mk)]
+        return st, en, pk, mk

@@ -12,8 +12,11 @@ exact zeros.
 A *dropout* is a run, in one channel, of at least ``dropout_min_s`` of one
 repeated sample value that neither touches the file start nor the file end:
 digital silence (the value 0) or a frozen value.  Runs at the clipping
-levels are clipping, not dropouts, and are left out.  Dropouts are counted per
-channel.
+levels are clipping, not dropouts, and are left out.  Runs are counted per
+channel (``dropout_count_per_channel``); ``dropout_count`` counts *events*:
+runs of any channels that overlap or touch in time are one dropout, with the
+channels named (a 50 ms mute on both channels of a stereo file is one
+dropout on L+R).  Every event is listed; nothing is capped.
 """
 
 from __future__ import annotations
@@ -26,13 +29,15 @@ from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (INTEGER, INTEGER_LIST, NUMBER, NUMBER_OR_NULL, TIME_RANGES,
                                    Analyzer, AnalyzerResult, array_of)
 from masterqc.measure.clipping import clip_levels
-from masterqc.measure.runs import MAX_EVENTS, RunTracker, merge_ranges
+from masterqc.measure.runs import ChannelRuns, RunTracker, channel_names, join_across_channels
 
 DROPOUT_EVENT = {
     "type": "object",
-    "required": ["channel", "start_s", "end_s", "kind", "value"],
-    "properties": {"channel": {"type": "string"}, "start_s": {"type": "number"},
-                   "end_s": {"type": "number"}, "kind": {"enum": ["silence", "frozen"]},
+    "required": ["channel", "channels", "start_s", "end_s", "kind", "value"],
+    "properties": {"channel": {"type": "string"},
+                   "channels": {"type": "array", "items": {"type": "string"}},
+                   "start_s": {"type": "number"},
+                   "end_s": {"type": "number"}, "kind": {"enum": ["silence", "frozen", "mixed"]},
                    "value": {"type": "number"}},
 }
 
@@ -72,15 +77,19 @@ class SilenceAnalyzer(Analyzer):
         "tail_digital_silence_s": measured(NUMBER, 's',
             'digital silence (exact zeros) at the end'),
         "dropout_count": measured(INTEGER, 'count',
-            'mid-file runs of digital silence or of a frozen value, counted per channel'),
+            'dropouts: mid-file runs of digital silence or of a frozen value, runs of several channels '
+            'that overlap in time counted once'),
         "dropout_count_per_channel": measured(INTEGER_LIST, 'count',
-            'dropouts in each channel'),
+            'dropout runs in each channel'),
+        "dropout_channel_run_count": measured(INTEGER, 'count',
+            'dropout runs summed over the channels (a mute on two channels at one time counts 2)'),
         "dropout_longest_s": measured(NUMBER_OR_NULL, 's',
-            'longest dropout; null when there is none'),
+            'longest dropout (its span across channels); null when there is none'),
         "dropout_where_s": measured(TIME_RANGES, 's',
-            'time ranges of the dropouts'),
+            'time ranges of every dropout'),
         "dropout_events": measured(array_of(DROPOUT_EVENT), NO_UNIT,
-            'the dropouts, one record each (channel, start, end, kind)'),
+            'every dropout, one record each: channels named ("L+R"), start, end, kind '
+            '(silence, frozen, or mixed when its channels differ), value of its first run'),
     }
 
     def __init__(self, info, options):
@@ -103,8 +112,8 @@ class SilenceAnalyzer(Analyzer):
         self.trackers = [RunTracker(self.min_len) for _ in range(ch)]
         self.prev = np.full(ch, np.nan)  # last sample of the previous block, per channel
         self.counts = np.zeros(ch, np.int64)
-        self.longest = 0
-        self.events = []
+        self.all_runs = ChannelRuns()
+        self.longest = 0                 # frames of the longest event
 
     def _collect(self, c, starts, lengths, values):
         if starts.size == 0:
@@ -114,13 +123,25 @@ class SilenceAnalyzer(Analyzer):
         if starts.size == 0:
             return
         self.counts[c] += starts.size
-        self.longest = max(self.longest, int(lengths.max()))
-        room = MAX_EVENTS - len(self.events)
-        if room > 0:
-            label = self.info.channel_layout[c]
-            for s, n, v in zip(starts[:room].tolist(), lengths[:room].tolist(), values[:room].tolist()):
-                self.events.append({"channel": label, "start_s": s / self.fs, "end_s": (s + n) / self.fs,
-                                    "kind": "silence" if v == 0.0 else "frozen", "value": v + 0.0})
+        self.all_runs.add(c, starts, lengths, values)
+
+    def _events(self) -> list[dict]:
+        st, ln, ch, val = self.all_runs.arrays()
+        group, first, ev_s, ev_e, mask = join_across_channels(st, ln, ch, self.info.channels)
+        n_ev = first.size
+        silent = np.zeros(n_ev, bool)
+        frozen = np.zeros(n_ev, bool)
+        silent[group[val == 0.0]] = True
+        frozen[group[val != 0.0]] = True
+        layout = self.info.channel_layout
+        out = []
+        for i in range(n_ev):
+            names = channel_names(mask[i], layout)
+            kind = "mixed" if silent[i] and frozen[i] else ("silence" if silent[i] else "frozen")
+            self.longest = max(self.longest, int(ev_e[i] - ev_s[i]))
+            out.append({"channel": "+".join(names), "channels": names, "start_s": int(ev_s[i]) / self.fs,
+                        "end_s": int(ev_e[i]) / self.fs, "kind": kind, "value": float(val[first[i]]) + 0.0})
+        return out
 
     def _extent(self, block, level, what):
         """Update the first/last frame index where ``|x| > level`` in any channel.
@@ -166,19 +187,22 @@ class SilenceAnalyzer(Analyzer):
             tr.close()
         head, tail = self._span(self.first_loud, self.last_loud)
         dhead, dtail = self._span(self.first_nonzero, self.last_nonzero)
-        self.events.sort(key=lambda e: (e["start_s"], e["channel"]))
+        events = self._events()
+        longest = self.longest / self.fs if events else None
         m = {
             "head_silence_s": head,
             "tail_silence_s": tail,
             "head_digital_silence_s": dhead,
             "tail_digital_silence_s": dtail,
-            "dropout_count": int(self.counts.sum()),
+            "dropout_count": len(events),
             "dropout_count_per_channel": self.counts.tolist(),
-            "dropout_longest_s": self.longest / self.fs if self.counts.sum() else None,
-            "dropout_where_s": merge_ranges([(e["start_s"], e["end_s"]) for e in self.events]),
-            "dropout_events": self.events,
+            "dropout_channel_run_count": int(self.counts.sum()),
+            "dropout_longest_s": longest,
+            "dropout_where_s": [[e["start_s"], e["end_s"]] for e in events],
+            "dropout_events": events,
         }
         settings = {"silence_threshold_dbfs": self.threshold_dbfs, "silence_criterion": "sample peak, all channels",
                     "dropout_min_s": self.dropout_min_s, "dropout_min_samples": self.min_len,
-                    "events_kept": MAX_EVENTS}
+                    "events_listed": "all (no cap)",
+                    "event_rule": "runs of any channels that overlap or touch in time form one dropout"}
         return AnalyzerResult(measurements=m, settings=settings)
