@@ -536,3 +536,35 @@ def test_the_package_entry_point_loads_a_file(tmp_path):
     p = write(tmp_path, "s.yaml", GOOD)
     assert load_spec(p).spec.name == "invented house spec"
     assert load_spec(str(p)).path == str(p)
+
+
+def test_find_walks_up_one_level_at_a_time():
+    pos = L._Positions()
+    pos.value[("a",)] = ("f", 1, 4)
+    pos.value[("a", "b")] = ("f", 2, 6)
+    assert pos.find(("a", "b", "z")) == ("f", 2, 6)
+
+
+def test_inside_a_folder_written_with_a_trailing_separator():
+    assert L._inside("/a/b/", "/a/b/c") and not L._inside("/a/b/", "/a/bc")
+
+
+def test_merge_drops_the_positions_of_a_nested_key_it_removes():
+    bpos = L._Positions()
+    bpos.value[("a", "b")] = ("base", 3, 5)
+    bpos.value[("a", "b", "x")] = ("base", 3, 9)
+    bpos.value[("a", "c")] = ("base", 4, 5)
+    out = L._merge({"a": {"b": {"x": 1}, "c": 2}}, {"a": {"b": None}}, bpos, L._Positions())
+    assert out == {"a": {"c": 2}}
+    assert ("a", "b") not in bpos.value and ("a", "b", "x") not in bpos.value and ("a", "c") in bpos.value
+    bpos.value[("a", "c")] = ("base", 4, 5)
+    L._merge({"a": {"c": 2}}, {"a": {"c": 3}}, bpos, L._Positions())
+    assert ("a", "c") not in bpos.value  # replaced: the new file's position will be used
+
+
+def test_a_cycle_names_the_chain_of_files(tmp_path):
+    write(tmp_path, "a.yaml", GOOD + "extends: b.yaml\n")
+    b = write(tmp_path, "b.yaml", "extends: [a.yaml]\n")
+    with pytest.raises(SpecError) as e:
+        L.load_spec(tmp_path / "a.yaml")
+    assert problems(e) == [(str(b), "extends", 1, 11, "extends makes a cycle: a.yaml -> b.yaml -> a.yaml")]
