@@ -568,3 +568,10 @@ def test_a_cycle_names_the_chain_of_files(tmp_path):
     with pytest.raises(SpecError) as e:
         L.load_spec(tmp_path / "a.yaml")
     assert problems(e) == [(str(b), "extends", 1, 11, "extends makes a cycle: a.yaml -> b.yaml -> a.yaml")]
+
+
+def test_problems_on_one_line_are_in_column_order():
+    # pydantic reports true_peak before sample_peak (the model's order); the problems follow the text
+    got = msgs("peaks: {sample_peak: {max_dbfs: x}, true_peak: {max_dbtp: y}}\n")
+    assert [(p[1], p[2], p[3]) for p in got] == [("peaks.sample_peak.max_dbfs", 3, 33),
+                                                 ("peaks.true_peak.max_dbtp", 3, 59)]
