@@ -12,7 +12,7 @@ JOBS   ?= 2
 # one module group at a time (mutmut name patterns); scores: tools/mutation_scores.py
 MUTATION_MODULES ?= masterqc.measure.levels masterqc.audio.isrc masterqc.timecode masterqc.spec masterqc.judge
 
-.PHONY: demo test bench mutation clean
+.PHONY: demo test test-heavy bench mutation clean
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -37,6 +37,10 @@ demo: $(BASE_STAMP)
 
 test: $(STAMP)
 	$(PY) -m pytest -q -n $(JOBS) --dist loadgroup tests
+
+# `make test` plus the bench-like tests marked heavy (tests/conftest.py: HEAVY_PARAMS)
+test-heavy: $(STAMP)
+	$(PY) -m pytest -q -n $(JOBS) --dist loadgroup --run-heavy tests
 
 bench: $(STAMP)
 	$(PY) bench/run_all.py

@@ -284,6 +284,8 @@ def test_digital_silence_gives_nulls():
     for key in ("integrated_lufs", "relative_gate_lufs", "loudness_range_lu", "loudness_range_low_lufs",
                 "loudness_range_high_lufs", "max_momentary_lufs", "max_short_term_lufs"):
         assert m[key] is None, key
+    # ITU-R BS.1770-5 Annex 1: 400 ms blocks every 100 ms (75 % overlap), so 5 s holds
+    # floor((5.0 - 0.4) / 0.1) + 1 = 47 blocks; silence reaches neither gate
     assert m["loudness_block_count"] == 47 and m["loudness_block_above_gates_count"] == 0
     assert m["max_momentary_end_s"] is None and m["max_short_term_end_s"] is None
     assert all(v is None for v in s["momentary_lufs"])
@@ -293,6 +295,8 @@ def test_digital_silence_gives_nulls():
 def test_below_absolute_gate_gives_null_integrated_but_a_momentary_max():
     fs = 48000
     m, _s, _ = analyse(tone_steps(fs, [(4, -80)]), fs)
+    # about -80 LUFS is below BS.1770-5's absolute gate (-70 LKFS): no block is gated in, while
+    # the momentary maximum (EBU Tech 3341: 400 ms window, ungated) still reads the tone
     assert m["integrated_lufs"] is None and m["loudness_range_lu"] is None
     assert m["max_momentary_lufs"] == pytest.approx(analytic_tone_lufs(-80, fs), abs=0.001)
 
@@ -309,6 +313,8 @@ def test_shorter_than_one_gating_block():
 
 def test_shorter_than_short_term_window():
     fs = 48000
+    # 2.95 s is shorter than the 3 s short-term window (EBU Tech 3341) and than LRA's 3 s blocks
+    # (EBU Tech 3342); it holds floor((2.95 - 0.4) / 0.1) + 1 = 26 gating blocks (BS.1770-5 Annex 1)
     m, s, _ = analyse(tone_steps(fs, [(2.95, -20)]), fs)
     assert m["integrated_lufs"] == pytest.approx(analytic_tone_lufs(-20, fs), abs=0.001)
     assert m["loudness_range_lu"] is None and m["max_short_term_lufs"] is None
@@ -318,6 +324,7 @@ def test_shorter_than_short_term_window():
 
 def test_incomplete_final_block_not_used():
     # a loud tail shorter than 100 ms after the last sub-block boundary is ignored entirely
+    # (BS.1770-5 Annex 1: only whole 400 ms blocks, stepped by 100 ms, are measured)
     fs = 48000
     x = tone_steps(fs, [(2.0, -30), (0.09, -3)])
     m, _s, _ = analyse(x, fs)

@@ -536,3 +536,42 @@ def test_the_package_entry_point_loads_a_file(tmp_path):
     p = write(tmp_path, "s.yaml", GOOD)
     assert load_spec(p).spec.name == "invented house spec"
     assert load_spec(str(p)).path == str(p)
+
+
+def test_find_walks_up_one_level_at_a_time():
+    pos = L._Positions()
+    pos.value[("a",)] = ("f", 1, 4)
+    pos.value[("a", "b")] = ("f", 2, 6)
+    assert pos.find(("a", "b", "z")) == ("f", 2, 6)
+
+
+def test_inside_a_folder_written_with_a_trailing_separator():
+    assert L._inside("/a/b/", "/a/b/c") and not L._inside("/a/b/", "/a/bc")
+
+
+def test_merge_drops_the_positions_of_a_nested_key_it_removes():
+    bpos = L._Positions()
+    bpos.value[("a", "b")] = ("base", 3, 5)
+    bpos.value[("a", "b", "x")] = ("base", 3, 9)
+    bpos.value[("a", "c")] = ("base", 4, 5)
+    out = L._merge({"a": {"b": {"x": 1}, "c": 2}}, {"a": {"b": None}}, bpos, L._Positions())
+    assert out == {"a": {"c": 2}}
+    assert ("a", "b") not in bpos.value and ("a", "b", "x") not in bpos.value and ("a", "c") in bpos.value
+    bpos.value[("a", "c")] = ("base", 4, 5)
+    L._merge({"a": {"c": 2}}, {"a": {"c": 3}}, bpos, L._Positions())
+    assert ("a", "c") not in bpos.value  # replaced: the new file's position will be used
+
+
+def test_a_cycle_names_the_chain_of_files(tmp_path):
+    write(tmp_path, "a.yaml", GOOD + "extends: b.yaml\n")
+    b = write(tmp_path, "b.yaml", "extends: [a.yaml]\n")
+    with pytest.raises(SpecError) as e:
+        L.load_spec(tmp_path / "a.yaml")
+    assert problems(e) == [(str(b), "extends", 1, 11, "extends makes a cycle: a.yaml -> b.yaml -> a.yaml")]
+
+
+def test_problems_on_one_line_are_in_column_order():
+    # pydantic reports true_peak before sample_peak (the model's order); the problems follow the text
+    got = msgs("peaks: {sample_peak: {max_dbfs: x}, true_peak: {max_dbtp: y}}\n")
+    assert [(p[1], p[2], p[3]) for p in got] == [("peaks.sample_peak.max_dbfs", 3, 33),
+                                                 ("peaks.true_peak.max_dbtp", 3, 59)]
