@@ -847,8 +847,8 @@ def compare_files(master, deliverable, *, true_peak_ceiling_dbtp: float = 0.0, b
     reason = "too few quiet passages (signal below the residual) to tell dither from truncation"
     dominated = expected is not None and res_power > expected * 10 ** (REQUANT_DOMINATES_DB / 10)
     if dominated:
-        reason = (f"the residual lies {10 * math.log10(res_power / expected):.1f} dB above the dither level of "
-                  f"{info_d.bit_depth} bits: other errors (the converter, processing) hide the requantisation")
+        reason = (f"the residual lies {10 * math.log10(res_power / expected):.1f} dB above the {info_d.bit_depth}-bit "
+                  "dither level, so other errors (the converter, processing) hide the requantisation")
     elif info_d.is_float:
         reason = "the deliverable is floating point: no word length was cut"
     elif r_t.size >= 4 and np.any(s_t > 0):
