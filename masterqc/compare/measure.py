@@ -90,6 +90,10 @@ FOLDED_FOUND_ABOVE_FLOOR_DB = 6.0
 OFFSET_FRAME_STEP = 2
 #: the fine offset of every n-th frame is searched afresh; the others start from the last confident one
 FULL_SEARCH_EVERY = 8
+#: a frame refined with its batch from the offset confident at the batch's start keeps that result while
+#: the confident offset has moved less than this (deliverable samples) since; else it is refined alone
+#: (Newton steps from a start this close end at the same optimum)
+REFINE_SHARED_START_SAMPLES = 0.05
 #: a master frame closer than this (samples) to the master's grid is read without interpolation; the
 #: window misalignment it leaves (a thousandth of a sample) leaks far below any 24-bit residual
 FD_SNAP_SAMPLES = 1e-3
@@ -227,12 +231,16 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
     peaks = np.zeros(n)
     last = None
 
-    def _offset_of(k, t, s_d, Xm, Xd):
+    def _offset_of(k, t, s_d, Xm, Xd, refined=None):
         nonlocal last
         delta, peak = None, 0.0
         if last is not None and k % FULL_SEARCH_EVERY:
-            # next to a confident frame: start from its offset (no search), check the peak
-            delta, peak = aligner.refine(Xd, Xm, s_d / grid.rate_d_hz - t - last)
+            # next to a confident frame: start from its offset (no search), check the peak; ``refined`` is
+            # the same, done for the whole batch from the offset confident at its start
+            if refined is not None and abs(refined[0] - last) <= REFINE_SHARED_START_SAMPLES / grid.rate_d_hz:
+                delta, peak = refined[1], refined[2]
+            else:
+                delta, peak = aligner.refine(Xd, Xm, s_d / grid.rate_d_hz - t - last)
         if peak < align.FINE_MIN_PEAK:
             delta, peak = aligner.estimate(Xd, Xm)
         peaks[k] = peak
@@ -254,10 +262,16 @@ def _offsets(path_m, path_d, grid: FrameGrid, info_m, info_d, track_t, track_o, 
             m_lo, d_lo = int(s_ms[sl][0]), int(s_ds[sl].min())
             xm = _frames_of(cm.get(m_lo, int(s_ms[sl][-1]) + grid.n_m - m_lo), s_ms[sl] - m_lo, grid.n_m)
             xd = _frames_of(cd.get(d_lo, int(s_ds[sl].max()) + grid.n_d - d_lo), s_ds[sl] - d_lo, grid.n_d)
-            XM = sp_fft.rfft(np.transpose(xm, (0, 2, 1)) * w_m, axis=-1)[:, :, :K]
-            XD = sp_fft.rfft(np.transpose(xd, (0, 2, 1)) * w_d, axis=-1)[:, :, :K]
+            XM = np.transpose(sp_fft.rfft(np.transpose(xm, (0, 2, 1)) * w_m, axis=-1)[:, :, :K], (0, 2, 1))
+            XD = np.transpose(sp_fft.rfft(np.transpose(xd, (0, 2, 1)) * w_d, axis=-1)[:, :, :K], (0, 2, 1))
+            refined = [None] * XM.shape[0]
+            if last is not None:
+                start = last
+                tau0 = s_ds[sl] / grid.rate_d_hz - ts[sl] - start
+                taus, pk = aligner.refine_many(XD, XM, tau0)
+                refined = [(start, float(a), float(p)) for a, p in zip(taus, pk)]
             for j in range(XM.shape[0]):
-                _offset_of(ks[b + j], ts[b + j], s_ds[b + j], XM[j].T, XD[j].T)
+                _offset_of(ks[b + j], ts[b + j], s_ds[b + j], XM[j], XD[j], refined[j])
     return offsets, peaks
 
 

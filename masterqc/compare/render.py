@@ -23,6 +23,8 @@ from masterqc.report.view import (CAUTIONS, STATUS_COLOURS, TimeLabels, findings
 def _f(v, digits=1, unit=""):
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
         return "n/a"
+    if round(v, digits) == 0:
+        v = 0.0     # never "-0.000"
     return f"{v:.{digits}f}{(' ' + unit) if unit else ''}"
 
 
