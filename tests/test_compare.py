@@ -234,6 +234,17 @@ def test_ten_ms_removed_mid_programme_found_at_the_right_time(tmp_path, base48):
     assert jumps[0]["size_ms"] == pytest.approx(-10.0, abs=0.05)
     assert jumps[0]["at_master_s"] == pytest.approx(2.3, abs=0.010)
     assert r["identity"]["verdict"] == "same"
+    # the edit in words, in the finding and the summary (house wording; the time as judged, to the ms)
+    from masterqc.compare.judge import judge
+    from masterqc.compare.render import summary_sentences
+    from masterqc.spec.sections.derivation import Section
+    findings, verdict = judge(Section.model_validate({"jumps": {"max_count": 0}}), r)
+    assert verdict == "fail"
+    import re
+    said = re.fullmatch(r"The offset jumps once: 10\.0 ms of the master missing at 0:00:(\d\d\.\d\d\d) \(master "
+                        r"time\)\. The spec allows none\.", findings[0].message)
+    assert said and float(said.group(1)) == pytest.approx(2.3, abs=0.010)
+    assert ", but the offset jumps once (edits): 10.0 ms of the master missing at " in summary_sentences(r)[1]
 
 
 def test_constant_offset_to_a_fraction_of_a_sample(tmp_path):

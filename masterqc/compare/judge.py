@@ -9,7 +9,7 @@ deliverable.
 from __future__ import annotations
 
 from masterqc.judge.core import Finding, check_allowed, check_limits, fmt, quantize, skipped, verdict
-from masterqc.report.fmt import clock
+from masterqc.judge.integrity import clock_text
 
 def judge(section, comparison: dict) -> tuple[list[Finding], str]:
     """``(findings, verdict)`` of ``comparison`` (a :class:`~masterqc.compare.model.Comparison` dumped to a
@@ -153,7 +153,7 @@ def judge(section, comparison: dict) -> tuple[list[Finding], str]:
         f.message = ("The conversion added no clipped runs and no true-peak overs." if not n else
                      f"The conversion added {n} clipped run{'s' if n != 1 else ''} or true-peak "
                      f"over{'s' if n != 1 else ''} the master does not have, the first at "
-                     f"{clock(overs[0]['start_s'], 3)}.") + _limit_words(f, "")
+                     f"{clock_text(overs[0]['start_s'])}.") + _limit_words(f, "")
         out.append(f)
     if section.jumps is not None:
         jumps = c["alignment"].get("jumps") or []
@@ -273,7 +273,7 @@ def _order_words(ch: dict) -> str:
 def _jump_words(j: dict) -> str:
     size = j["size_ms"]
     what = "missing" if size < 0 else "repeated or inserted"
-    return f"{abs(size):.1f} ms of the master {what} at {clock(j['at_master_s'], 3)} (master time)"
+    return f"{abs(size):.1f} ms of the master {what} at {clock_text(j['at_master_s'])} (master time)"
 
 
 def _dither(rq: dict, same: bool, not_same: str, deliverable: dict) -> Finding:
