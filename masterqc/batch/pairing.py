@@ -114,10 +114,21 @@ def find_batch_pairs(items, rules) -> list[tuple]:
     return out
 
 
+def _safe_folder(out_dir: str, folder: str) -> bool:
+    """Create ``folder`` and say whether it really lies inside ``out_dir`` (links followed)."""
+    from masterqc.batch.names import inside
+    if not inside(out_dir, folder):
+        return False
+    try:
+        os.makedirs(folder, exist_ok=True)
+    except OSError:
+        return False
+    return inside(out_dir, folder)
+
+
 def compare_pairs(items, rules, formats, out_dir, stream=None) -> tuple[list[dict], int]:
     """Compare every pair among ``items`` (the run's :class:`~masterqc.batch.runner.Item` rows): one row each,
     and how many pairs could not be read.  Reports go only into folders that really lie inside ``out_dir``."""
-    from masterqc.batch.runner import _safe_folder
     from masterqc.compare.command import output_stem, run_compare
     from masterqc.errors import AudioReadError, UsageError
     from masterqc.fileio import shown
