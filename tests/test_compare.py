@@ -234,6 +234,17 @@ def test_ten_ms_removed_mid_programme_found_at_the_right_time(tmp_path, base48):
     assert jumps[0]["size_ms"] == pytest.approx(-10.0, abs=0.05)
     assert jumps[0]["at_master_s"] == pytest.approx(2.3, abs=0.010)
     assert r["identity"]["verdict"] == "same"
+    # the edit in words, in the finding and the summary (house wording; the time as judged, to the ms)
+    from masterqc.compare.judge import judge
+    from masterqc.compare.render import summary_sentences
+    from masterqc.spec.sections.derivation import Section
+    findings, verdict = judge(Section.model_validate({"jumps": {"max_count": 0}}), r)
+    assert verdict == "fail"
+    import re
+    said = re.fullmatch(r"The offset jumps once: 10\.0 ms of the master missing at 0:00:(\d\d\.\d\d\d) \(master "
+                        r"time\)\. The spec allows none\.", findings[0].message)
+    assert said and float(said.group(1)) == pytest.approx(2.3, abs=0.010)
+    assert ", but the offset jumps once (edits): 10.0 ms of the master missing at " in summary_sentences(r)[1]
 
 
 def test_constant_offset_to_a_fraction_of_a_sample(tmp_path):
@@ -344,6 +355,19 @@ def test_command_writes_json_html_pdf_and_fails_a_truncated_deliverable(tmp_path
     assert result["verdict"] == "fail"
     failed = {f["check"] for f in result["findings"] if f["status"] == "fail"}
     assert failed == {"derivation.dither_required"}
+    # floor() without dither: where the fade falls below the step the error is a square wave following the
+    # signal's sign, about Delta^2/4 against Delta^2/12 on loud passages (derivation in measure.py beside
+    # QUIET_WITHIN_DB): it rises, so the finding names truncation and the remedy (house wording)
+    dither = next(f for f in result["findings"] if f["check"] == "derivation.dither_required")
+    assert result["requantisation"]["quiet_residual_change_db"] > 1.5
+    assert dither["message"].startswith("Truncated to 16 bits without dither: the error follows the signal in "
+                                        "the fades (it rises by ")
+    assert dither["message"].endswith("Requantise from the master with TPDF dither.")
+    from masterqc.compare.render import summary_sentences
+    said = " ".join(summary_sentences(result))
+    assert "Truncated to 16 bits without dither: the error follows the signal in the fades. Requantise with " \
+           "TPDF dither." in said
+    assert "->" not in said and "_" not in said       # sentences, not key dumps (house choice)
     html = (out / "song_cd.from.song_master.html").read_text()
     assert "What the comparison shows" in html and "<svg" in html
     assert (out / "song_cd.from.song_master.pdf").read_bytes()[:5] == b"%PDF-"
@@ -401,3 +425,17 @@ def test_pairing_by_pattern_in_folders(tmp_path):
     assert [(r["verdict"], Path(r["deliverable"]).name) for r in index["pairs"]] == \
         [("measured", "one_44k16.wav"), ("unpaired", "two_44k16.wav")]
     assert "one_44k16.wav" in (tmp_path / "out" / "index.html").read_text()
+
+
+def test_pair_rules_may_name_one_master_for_many_deliverables(tmp_path):
+    # house rule: a master pattern without '*' is one fixed name in each folder
+    from masterqc.compare.pairs import find_pairs, parse_rule
+    from masterqc.errors import UsageError
+    for name in ("song_96k24.wav", "song_44k16_a.wav", "song_44k16_b.wav", "other_44k16_a.wav"):
+        (tmp_path / name).write_bytes(b"")
+    pairs, unpaired = find_pairs(tmp_path, parse_rule("song_44k16_*.wav=song_96k24.wav"))
+    assert [(m.name, d.name) for m, d in pairs] == [("song_96k24.wav", "song_44k16_a.wav"),
+                                                    ("song_96k24.wav", "song_44k16_b.wav")]
+    assert unpaired == []
+    with pytest.raises(UsageError, match="exactly one"):
+        parse_rule("*_44k16_*.wav=*_96k24.wav")

@@ -217,7 +217,7 @@ INDEX_TEMPLATE = r"""<!DOCTYPE html>
 <p class="note">Pooled loudness: the gating blocks of every track gated together (ITU-R BS.1770-5 integrated loudness of the release as one programme). Spread: loudest minus quietest track.</p>
 </section>
 {%- endif %}
-
+{{ pairs_section }}
 <section id="changes">
 <h2>Since the previous run</h2>
 {%- if previous_run is none %}
@@ -361,8 +361,10 @@ def index_html(summary: dict) -> str:
     tpl = env.from_string(INDEX_TEMPLATE)
     counts = summary["counts"]
     overall = "pass"
+    from masterqc.batch.pairing import worst_verdict
     for v in ("error", "fail", "warn"):
-        if counts.get(v) or any(r.get("verdict") == v for r in summary.get("releases", [])):
+        if (counts.get(v) or any(r.get("verdict") == v for r in summary.get("releases", []))
+                or worst_verdict(summary) == v):
             overall = v
             break
     parts = [f"{counts[v]} {v}" for v in ("fail", "error", "warn", "pass") if counts.get(v)]
@@ -388,7 +390,12 @@ def index_html(summary: dict) -> str:
                       spec_names=spec_names, WORD=WORD, SHAPE=SHAPE, RANK=VERDICT_RANK, CHANGE_TEXT=CHANGE_TEXT,
                       fmt=_fmt, sortnum=_sortnum, clock=lambda v: clock_text(v) or "n/a",
                       wrapname=_wrapname, readable=readable_message, tally=_tally, ranked=_ranked,
-                      ROW_SHOWN=ROW_PROBLEMS_SHOWN)
+                      ROW_SHOWN=ROW_PROBLEMS_SHOWN, pairs_section=_pairs_section(summary))
+
+
+def _pairs_section(summary: dict):
+    from masterqc.batch.pairing import index_section
+    return index_section(summary)
 
 
 def write_run_outputs(summary: dict, out_dir: str) -> dict:

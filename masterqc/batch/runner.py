@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import os
 import signal
+import sys
 import time
 from dataclasses import dataclass, field
 
@@ -129,6 +130,8 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
 
         summary = summarise(cfg, items, disc, specmap, ledger.run(run_id)["started_utc"], run_id, out_dir,
                             ledger_path, backend.description, prev_run, prev_rows, t0)
+        from masterqc.batch.pairing import add_pairs  # deliverables against their masters (spec map pairs:)
+        add_pairs(summary, items, specmap, cfg.formats, None if cfg.quiet else (cfg.progress_stream or sys.stderr))
         from masterqc.batch.outputs import write_run_outputs
         outputs = write_run_outputs(summary, out_dir)
         row = ledger.finish_run(run_id, "complete", time.perf_counter() - t0)

@@ -12,6 +12,10 @@ a *spec map*: a small YAML file a house keeps for its nightly run::
       - match: "**"                # everything else
         spec: ostravel-house.yaml
     releases: folder               # optional: folder | root | depth:N | none
+    pairs:                         # optional: deliverables compared with their masters
+      - deliverable: "*_44k16.wav"
+        master: "*_96k24.wav"
+        spec: derivation-cd.yaml   # optional (see masterqc.batch.pairing)
 
 A rule may name ``spec_in_folder: FILE`` instead of ``spec:``: the spec is then the
 nearest file of that name in the master's folder or above it (up to the folder
@@ -122,6 +126,9 @@ class Unusable:
 class SpecMap:
     """The rules of a run: ``lookup(rel) -> Rule | None``; ``releases`` from the map (or None)."""
 
+    #: pairing rules (:mod:`masterqc.batch.pairing`), from the map's ``pairs:``
+    pairs: tuple = ()
+
     def __init__(self, rules: list[Rule], path: str, is_map: bool, releases: str | None = None,
                  base_options=None, libraries=()):
         self.libraries = tuple(libraries)
@@ -214,10 +221,10 @@ def load_spec_map(path, base_options=None, libraries=()) -> SpecMap:
     if version not in MAP_VERSIONS:
         errs.append((path, MAP_KEY, *where((MAP_KEY,)), f"{MAP_KEY} must be one of {list(MAP_VERSIONS)}, not {version!r}"))
     from masterqc.spec.loader import excerpt
-    unknown = sorted(set(data) - {MAP_KEY, "specs", "releases", "description", "spec_libraries"})
+    unknown = sorted(set(data) - {MAP_KEY, "specs", "releases", "description", "spec_libraries", "pairs"})
     for k in unknown:
         errs.append((path, k, *where((k,)), f"unknown key {excerpt(k)} in a spec map "
-                                            f"(keys: {MAP_KEY}, specs, releases, spec_libraries, description)"))
+                                            f"(keys: {MAP_KEY}, specs, releases, spec_libraries, pairs, description)"))
     here = os.path.dirname(os.path.abspath(path))
     libs = data.get("spec_libraries")
     if libs is not None:
@@ -271,6 +278,13 @@ def load_spec_map(path, base_options=None, libraries=()) -> SpecMap:
                 continue
         loaded = cache[sp]
         rules.append(Rule(item["match"], glob_regex(item["match"]), sp, loaded, spec_key(loaded, base_options)))
+    pairs = []
+    if "pairs" in data:
+        from masterqc.batch.pairing import parse_pairs
+        pairs, pair_errs = parse_pairs(data["pairs"], path, where, libraries)
+        errs.extend(pair_errs)
     if errs:
         raise SpecError(errs)
-    return SpecMap(rules, path, True, releases, base_options, libraries)
+    specmap = SpecMap(rules, path, True, releases, base_options, libraries)
+    specmap.pairs = tuple(pairs)
+    return specmap

@@ -84,6 +84,26 @@ _RELEASE = {
 }
 
 
+_PAIR = {
+    "type": "object", "additionalProperties": False,
+    "required": ["deliverable", "master", "rule", "verdict", "outputs"],
+    "description": "a deliverable compared with its master (spec map pairs:, see masterqc.batch.pairing)",
+    "properties": {
+        "deliverable": {"type": "string", "description": "folder label / path of the deliverable"},
+        "master": {"type": ["string", "null"], "description": "the master it was compared with; null: none found"},
+        "rule": {"type": "string", "description": "the pairing rule, DELIVERABLE_GLOB=MASTER_GLOB"},
+        "spec": _STR_OR_NULL,
+        "verdict": {"enum": ["pass", "warn", "fail", "error", "measured", "unpaired"],
+                    "description": "the derivation: section's verdict; measured: the spec has none; unpaired: "
+                                   "no master in the deliverable's folder"},
+        "identity": {"enum": ["same", "different_mix", "different_programme", None]},
+        "summary": _STR_OR_NULL, "first_problem": _STR_OR_NULL,
+        "outputs": {"type": "object", "description": "format -> comparison report, relative to the output folder",
+                    "additionalProperties": {"type": "string", "pattern": "^files/"}},
+    },
+}
+
+
 def summary_schema() -> dict:
     """The schema of ``summary.json``."""
     names = {"type": "array", "items": {"type": "string"}}
@@ -109,7 +129,7 @@ def summary_schema() -> dict:
                        "properties": {k: _INT for k in ("pass", "warn", "fail", "error", "files", "analysed",
                                                         "reused", "not_analysed", "measured", "rejudged",
                                                         "releases",
-                                                        "releases_failed")}},
+                                                        "releases_failed", "pairs", "pairs_failed")}},
             "previous_run": {"anyOf": [{"type": "null"},
                                        {"type": "object", "required": ["run_id", "started_utc"]}]},
             "changes": {"type": "object", "additionalProperties": False,
@@ -117,6 +137,7 @@ def summary_schema() -> dict:
                         "properties": {k: names for k in ("new", "fixed", "newly_failing", "gone")}},
             "releases": {"type": "array", "items": _RELEASE},
             "files": {"type": "array", "items": _FILE},
+            "pairs": {"type": "array", "items": _PAIR},
             "skipped_paths": {"type": "array", "items": {"type": "object", "required": ["path", "message"]}},
         },
     }

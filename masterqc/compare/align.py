@@ -204,24 +204,31 @@ class FineAligner:
 
     def estimate(self, Xd: np.ndarray, Xm: np.ndarray):
         D, count = self.pair_spectra(Xd, Xm)
-        cnt = np.maximum(count, 1)
+        cnt = np.maximum(count, 1).reshape(-1)
         Cd, Cm = D.shape[1], D.shape[2]
         flat = D.reshape(self.K, Cd * Cm)
-        r = sp_fft.irfft(flat, self.L, axis=0) * self.L / (2.0 * cnt.reshape(-1))  # ~ Re sum D e^{+j2pi f tau}/cnt
-        quarter = self.L // 4
-        idx = np.r_[0:quarter, self.L - quarter:self.L]
-        score = np.abs(r[idx]).sum(axis=1)
-        i = int(np.argmax(score))
-        n = idx[i]
-        pair_vals = r[n]
+        # coarse to fine: the whole search on the bins' own grid (one inverse transform of 2K points),
+        # then the GCC_OVERSAMPLE-times finer grid only next to the coarse peak, summed directly
+        L1 = 2 * self.K
+        r1 = sp_fft.irfft(flat, L1, axis=0) * L1 / (2.0 * cnt)        # ~ Re sum D e^{+j2pi f tau}/cnt
+        quarter = L1 // 4
+        idx = np.r_[0:quarter, L1 - quarter:L1]
+        n1 = int(idx[int(np.argmax(np.abs(r1[idx]).sum(axis=1)))])
+        lag1 = n1 if n1 < L1 // 2 else n1 - L1
+        G = self.L // L1
+        cand = lag1 * G + np.arange(-G - 1, G + 2)                      # fine-grid lags, one spare each side
+        e = np.exp(1j * 2 * np.pi * np.outer(cand * (self.T / self.L), self.f))
+        r = (e @ flat).real / cnt                                        # (candidates, pairs)
+        inner = np.abs(r[1:-1]).sum(axis=1)
+        i = 1 + int(np.argmax(inner))
+        pair_vals = r[i]
         peak = float(np.max(np.abs(pair_vals)))
         signs = np.sign(pair_vals)
         # parabolic refinement on the summed, sign-corrected score
-        s = lambda m: float((r[m % self.L] * signs).sum())  # noqa: E731
-        y0, y1, y2 = s(n - 1), s(n), s(n + 1)
+        y0, y1, y2 = (float((r[j] * signs).sum()) for j in (i - 1, i, i + 1))
         den = y0 - 2 * y1 + y2
         frac = 0.5 * (y0 - y2) / den if den < 0 else 0.0
-        lag = (n if n < self.L // 2 else n - self.L) + float(np.clip(frac, -0.5, 0.5))
+        lag = int(cand[i]) + float(np.clip(frac, -0.5, 0.5))
         tau = lag * self.T / self.L
         # Newton steps on J(tau) = sum_pairs sign * Re sum_k D e^{j 2 pi f tau}
         W = (D * signs.reshape(1, Cd, Cm)).sum(axis=(1, 2))
@@ -261,6 +268,38 @@ class FineAligner:
             tau += step
         vals = (D * np.exp(1j * w2 * tau)[:, None, None]).real.sum(axis=0) / cnt
         return tau, float(np.max(np.abs(vals)))
+
+    def refine_many(self, Xd: np.ndarray, Xm: np.ndarray, tau0: np.ndarray):
+        """:meth:`refine` of ``F`` frames at once: Xd (F, K, Cd), Xm (F, K, Cm), tau0 (F,) -> (taus (F,),
+        peaks (F,)), the same steps frame by frame (a frame whose step turns uphill stops there)."""
+        C = np.conj(Xd[:, :, :, None] * np.conj(Xm[:, :, None, :]))          # (F, K, Cd, Cm)
+        mag = np.abs(C)
+        ok = (mag > 1e-30) & self.band[None, :, None, None]
+        D = np.where(ok, C / np.where(ok, mag, 1.0), 0.0)
+        F = D.shape[0]
+        D = D.reshape(F, self.K, -1)                                           # (F, K, P)
+        cnt = np.maximum(ok.reshape(F, self.K, -1).sum(axis=1), 1)             # (F, P)
+        w2 = 2 * np.pi * self.f
+        tau = np.asarray(tau0, float).copy()
+
+        def values(t):
+            e = np.exp(1j * np.outer(t, w2))                                    # (F, K)
+            return np.einsum("fkp,fk->fp", D, e).real / cnt
+
+        signs = np.sign(values(tau))
+        W = np.einsum("fkp,fp->fk", D, signs)
+        limit = 0.25 / (self.f[self.band][-1] if self.band.any() else self.f[-1])
+        going = np.ones(F, bool)
+        for _ in range(3):
+            e = W * np.exp(1j * np.outer(tau, w2))
+            d1 = np.sum(-w2 * e.imag, axis=1)
+            d2 = np.sum(-(w2 ** 2) * e.real, axis=1)
+            going &= d2 < 0
+            if not going.any():
+                break
+            step = np.clip(-d1 / np.where(going, d2, -1.0), -limit, limit)
+            tau = np.where(going, tau + step, tau)
+        return tau, np.max(np.abs(values(tau)), axis=1)
 
     def lag_values(self, Xd: np.ndarray, Xm: np.ndarray, taus) -> np.ndarray:
         """Sum over channel pairs of |plain cross-correlation| at each lag in ``taus`` (s); plain (energy

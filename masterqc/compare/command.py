@@ -35,17 +35,20 @@ def output_stem(master, deliverable) -> str:
     return safe_component(f"{Path(deliverable).stem}.from.{Path(master).stem}")
 
 
-def run_compare(master, deliverable, spec_path=None, out_dir=".", formats=FORMATS, progress=None) -> dict:
-    """Measure, judge (when a spec is given) and write; returns the result dict (with ``outputs``)."""
+def run_compare(master, deliverable, spec_path=None, out_dir=".", formats=FORMATS, progress=None,
+                loaded=None) -> dict:
+    """Measure, judge (when a spec is given: its path, or ``loaded``, a spec loaded already) and write;
+    returns the result dict (with ``outputs``)."""
     from masterqc.compare.measure import compare_files
     from masterqc.fileio import write_atomic
     from masterqc.jsonutil import jsonable
 
-    loaded = None
     section = None
-    if spec_path is not None:
+    if loaded is None and spec_path is not None:
         from masterqc.spec.loader import load_spec
         loaded = load_spec(spec_path)  # SpecError -> exit 2, before any audio is read
+    if loaded is not None:
+        spec_path = getattr(loaded, "path", None) or spec_path
         section = getattr(loaded.spec, "derivation", None)
     ceiling = 0.0
     if section is not None and section.true_peak_after is not None:
@@ -53,7 +56,7 @@ def run_compare(master, deliverable, spec_path=None, out_dir=".", formats=FORMAT
     comparison = compare_files(master, deliverable, true_peak_ceiling_dbtp=ceiling, progress=progress)
     result = jsonable(comparison.model_dump(mode="json"))
     if loaded is not None:
-        result["spec"] = {"name": loaded.name, "path": os.fspath(spec_path),
+        result["spec"] = {"name": loaded.name, "path": os.fspath(spec_path) if spec_path is not None else None,
                           "files": [dict(f) for f in loaded.files]}
         if section is None:
             result["findings"], result["verdict"] = [], None

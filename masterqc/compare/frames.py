@@ -85,34 +85,55 @@ class Cursor:
         self.frames = stream.info.frames
         self.channels = stream.info.channels
         self._gen = stream.blocks(block_frames)
-        self._buf = np.zeros((0, self.channels))
+        # samples [self._start, self._start + self._len) live in self._arr[self._off:self._off + self._len];
+        # blocks are copied into free room at the end, and the kept stretch moves to the front only when
+        # the room runs out (each sample is copied a bounded number of times)
+        self._arr = np.zeros((0, self.channels))
+        self._off = 0
+        self._len = 0
         self._start = 0
         self._eof = False
         self._keep = int(CURSOR_KEEP_S * stream.info.sample_rate_hz)
+
+    def _append(self, block: np.ndarray) -> None:
+        n = block.shape[0]
+        if self._off + self._len + n > self._arr.shape[0]:
+            need = self._len + n
+            if need <= self._arr.shape[0] // 2:
+                self._arr[:self._len] = self._arr[self._off:self._off + self._len]
+            else:
+                grown = np.empty((max(2 * need, 4 * n), self.channels))
+                grown[:self._len] = self._arr[self._off:self._off + self._len]
+                self._arr = grown
+            self._off = 0
+        self._arr[self._off + self._len:self._off + self._len + n] = block
+        self._len += n
 
     def get(self, start: int, n: int) -> np.ndarray:
         start, n = int(start), int(n)
         end = start + n
         lo = max(start, 0)
         hi = min(end, self.frames)
-        while not self._eof and self._start + self._buf.shape[0] < hi:
+        while not self._eof and self._start + self._len < hi:
             try:
                 block = next(self._gen)
             except StopIteration:
                 self._eof = True
                 break
-            self._buf = np.concatenate([self._buf, block]) if self._buf.size else block
+            self._append(block)
         if lo < self._start and lo < hi:
             raise RuntimeError(f"cursor asked for frame {lo}, already released (kept from {self._start})")
+        base = self._off - self._start
         if lo == start and hi == end:   # wholly inside the file: a view of the buffer (callers never write)
-            out = self._buf[lo - self._start:hi - self._start]
+            out = self._arr[base + lo:base + hi]
         else:
             out = np.zeros((n, self.channels))
             if lo < hi:
-                out[lo - start:hi - start] = self._buf[lo - self._start:hi - self._start]
-        drop = max(0, start - self._keep) - self._start
+                out[lo - start:hi - start] = self._arr[base + lo:base + hi]
+        drop = min(max(0, start - self._keep) - self._start, self._len)
         if drop > 0:
-            self._buf = self._buf[drop:]
+            self._off += drop
+            self._len -= drop
             self._start += drop
         return out
 

@@ -1,9 +1,11 @@
 """Pairing deliverables with their masters by name pattern, for ``masterqc compare FOLDER --pair``.
 
-A rule ``DELIVERABLE_GLOB=MASTER_GLOB`` (each with one ``*``) pairs every file
-below the folder whose name matches the first pattern with the file in the
+A rule ``DELIVERABLE_GLOB=MASTER_GLOB`` (the first with one ``*``) pairs every
+file below the folder whose name matches the first pattern with the file in the
 same folder whose name is the second pattern with the same ``*`` part:
 ``*_44k16.wav=*_96k24.wav`` pairs ``song_44k16.wav`` with ``song_96k24.wav``.
+A master pattern without ``*`` names one master for every match in a folder:
+``song_44k16_*.wav=song_96k24.wav``.
 A deliverable whose master is missing is listed as unpaired, never guessed.
 """
 
@@ -22,9 +24,10 @@ def parse_rule(text: str) -> tuple[str, str]:
     if "=" not in text:
         raise UsageError(f"--pair {text!r}: write DELIVERABLE_GLOB=MASTER_GLOB, e.g. '*_44k16.wav=*_96k24.wav'")
     d, m = (x.strip() for x in text.split("=", 1))
-    for name, pat in (("deliverable", d), ("master", m)):
-        if pat.count("*") != 1 or "/" in pat or os.sep in pat:
-            raise UsageError(f"--pair {text!r}: the {name} pattern needs exactly one '*' and no folder part")
+    for name, pat, stars in (("deliverable", d, (1,)), ("master", m, (0, 1))):
+        if pat.count("*") not in stars or "/" in pat or os.sep in pat or not pat:
+            need = "exactly one '*'" if stars == (1,) else "at most one '*' (none: one master for every match)"
+            raise UsageError(f"--pair {text!r}: the {name} pattern needs {need} and no folder part")
     return d, m
 
 
