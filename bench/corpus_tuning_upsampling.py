@@ -269,11 +269,14 @@ def _plan(seed: int, quick: bool):
                              (96000, 22000.0, "ellip"))[:(2 if quick else 4)]:
         plan.append((f"ambiguous_{kind}_{corner / 1000:g}k_{fs}", f"{kind}-{corner / 1000:g}k", "ambiguous-lowpass",
                      ("ambig", fs, corner, kind, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    plan += imaging_plan(seed, quick)
     return plan
 
 
 def _build(spec, rng, seconds):
     kind = spec[0]
+    if kind in ("img", "leaky"):
+        return build_imaging(spec, rng, seconds)
     if kind == "up":
         _k, src, dst, family, mat, ch, level = spec
         x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
@@ -337,3 +340,93 @@ def cases(seed: int, quick: bool = False, step: int = 1) -> Iterator[Case]:
         safe = name.lower().replace(".", "p")
         yield Case(name=f"{safe}_s{seed}", set="tuning", family=family, group=group, rate_hz=int(fs), audio=y,
                    expect=expect, channel_labels=labels)
+
+
+# ================================================================ imaging cases (own section)
+# Upsamplers without a proper interpolation filter (positives: imaging_detected True) and resamplers whose
+# short filter leaks a narrow band of images just above the source Nyquist frequency through its transition
+# band (negatives: imaging_detected False; the file is still upsampled).  Tool families: numpy hold /
+# linear / zero-stuff written here, libsamplerate's zero_order_hold and linear converters, and
+# scipy resample_poly with a short windowed-sinc filter of cutoff 0.97-1.0 of the source Nyquist frequency.
+IMAGING_SOURCES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200)
+IMAGING_FAMILIES = ("hold", "linear", "zero-stuff", "libsamplerate-zero_order_hold", "libsamplerate-linear")
+IMAGING_MATERIALS = ("music", "speech", "sparse", "noise", "dull", "tonal")
+#: short windowed-sinc upsampling filters: (taps per phase, -6 dB cutoff re the source Nyquist, Kaiser beta)
+LEAKY_FILTERS = ((16, 1.0, 6.0), (24, 0.97, 8.0), (32, 1.0, 9.0), (32, 0.97, 9.0), (12, 1.0, 5.0), (48, 1.0, 10.0))
+
+
+def imaging_material(kind: str, fs: int, seconds: float, rng) -> np.ndarray:
+    """Material for the imaging cases: :func:`material` plus ``dull`` (music whose spectrum falls
+    12 dB/octave from a fifth of the Nyquist frequency: most power far below the images) and ``tonal``
+    (sustained harmonic notes without a noise bed)."""
+    if kind == "dull":
+        x = material("music", fs, seconds, rng)
+        x = sps.sosfilt(sps.butter(2, 0.1 * fs, fs=fs, output="sos"), x)
+        return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+    if kind == "tonal":
+        n = int(round(fs * seconds))
+        x = _harmonic_notes(n, fs, rng, int(rng.integers(2, 5))) + 1e-3 * _tilted_noise(n, fs, rng, -2.0)
+        return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+    return material(kind, fs, seconds, rng)
+
+
+def leaky_upsample(x: np.ndarray, src: int, dst: int, taps_per_phase: int, cutoff: float, beta: float) -> np.ndarray:
+    """scipy resample_poly with a short Kaiser-windowed sinc whose -6 dB point is ``cutoff`` of the source
+    Nyquist frequency: its transition band straddles the source Nyquist, so images of the top of the band
+    leak through, while images of content well inside the band are stopped."""
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    numtaps = taps_per_phase * up + 1
+    h = sps.firwin(numtaps, cutoff * src / 2.0, window=("kaiser", beta), fs=float(src * up))
+    return sps.resample_poly(x, up, down, window=h)
+
+
+def _imaging_upsample(x: np.ndarray, src: int, dst: int, family: str) -> np.ndarray:
+    if family == "zero-stuff" and dst % src:
+        raise ValueError("zero stuffing needs an integer factor")
+    return upsample(x, src, dst, family)
+
+
+def imaging_plan(seed: int, quick: bool):
+    """(name, family, group, spec) of the imaging cases, drawn from their own generator (the other
+    cases' draws are not disturbed)."""
+    rng = np.random.default_rng([int(seed), 11])
+    plan = []
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    for fi, family in enumerate(IMAGING_FAMILIES):
+        sources = IMAGING_SOURCES_HZ if not quick else IMAGING_SOURCES_HZ[fi % 4::4]
+        for src in sources:
+            targets = [r for r in STANDARD_RATES_HZ if r > src and r <= 12 * src]
+            if family == "zero-stuff":
+                targets = [r for r in targets if r % src == 0]
+            if not targets:
+                continue
+            dst = pick(targets)
+            mat = pick(IMAGING_MATERIALS)
+            ch = pick([1, 2, 2])
+            level = float(rng.uniform(-40.0, -6.0))
+            plan.append((f"img_{family}_{src}_to_{dst}_{mat}_{ch}ch", family, "imaging",
+                         ("img", src, dst, family, mat, ch, level)))
+    for i, (taps, cut, beta) in enumerate(LEAKY_FILTERS if not quick else LEAKY_FILTERS[:3]):
+        for src in ((44100, 48000, 22050) if not quick else (pick((44100, 48000)),)):
+            dst = pick([r for r in STANDARD_RATES_HZ if r > src and r <= 8 * src])
+            mat = pick(("music", "speech", "noise", "sparse", "tonal"))
+            level = float(rng.uniform(-30.0, -6.0))
+            fam = f"scipy-resample_poly-leaky{taps}-c{int(round(cut * 100))}"
+            plan.append((f"leaky_{taps}t_c{int(round(cut * 100))}_{src}_to_{dst}_{mat}", fam, "leaky-resampler",
+                         ("leaky", src, dst, (taps, cut, beta), mat, pick([1, 2]), level)))
+    return plan
+
+
+def build_imaging(spec, rng, seconds):
+    """Audio and labels of one imaging case (see :func:`imaging_plan`)."""
+    kind, src, dst, how, mat, ch, level = spec
+    x = set_rms(np.stack([imaging_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+    if kind == "img":
+        y = np.stack([_imaging_upsample(x[:, c], src, dst, how) for c in range(ch)], axis=1)
+        return dst, y, {"upsampled_from_hz": src, "imaging_detected": True}, default_labels(ch)
+    y = np.stack([leaky_upsample(x[:, c], src, dst, *how) for c in range(ch)], axis=1)
+    return dst, y, {"upsampled_from_hz": src, "imaging_detected": False}, default_labels(ch)

@@ -9,6 +9,12 @@ Analytic references used here (derived in the docstrings, no outside values):
 * Linear interpolation by 2 is h = [1/2, 1, 1/2]: H(f) = 1 + cos(2 pi f / 2R) =
   2 cos^2(pi f / 2R), so the image level is 40*log10|tan(pi f / 2R)|.
 * Zero stuffing by 2 (gain 2) leaves the image at the level of the tone: 0 dB.
+* Sample hold by any whole factor L from R to L*R is the box h = [1]*L after zero stuffing:
+  |H(f)| = |sin(pi f L / fs) / (L sin(pi f / fs))| with fs = L*R.  At the first image R - f the
+  numerator is sin(pi - pi f L / fs) = sin(pi f L / fs), the same as at f, so the image lies below
+  the tone by |sin(pi f / fs) / sin(pi (R - f) / fs)| (the ratio of the denominators), in dB
+  20*log10 of it.  For L = 2 this is |sin(pi f / 2R) / cos(pi f / 2R)| = |tan(pi f / 2R)|.
+  Linear interpolation is the triangle, the box convolved with itself: twice the hold's dB.
 """
 
 from __future__ import annotations
@@ -18,7 +24,7 @@ import math
 import numpy as np
 import pytest
 
-from corpus_sampling import (analyse, good_resample, hold_upsample, linear_upsample, naive_wave, quantise, white,
+from corpus_sampling import (analyse, good_resample, hold_upsample, linear_upsample, naive_wave, pink, quantise, white,
                              zero_stuff)
 from masterqc.measure import imaging as im
 from masterqc.measure.imaging import ImagingAnalyzer
@@ -39,7 +45,7 @@ def _run(x, fs, bits=24, options=None):
     return analyse(np.asarray(x).reshape(len(x), -1), fs, [ImagingAnalyzer], bits, options)
 
 
-@pytest.mark.parametrize("f", [1000.0, 3000.0, 6000.0, 12000.0, 18000.0])
+@pytest.mark.parametrize("f", [1000.0, 3000.0, 6000.0, 12000.0, 16000.0])
 def test_hold_by_two_image_level_is_tan(f):
     """Analytic: 20*log10|tan(pi f / 2R)| (see module docstring)."""
     m = _run(hold_upsample(_tone(f), R, 2 * R), 2 * R)
@@ -125,9 +131,14 @@ def test_short_file_is_untestable():
     assert all("too short" in c["reason"] for c in m["imaging"])
 
 
-def test_no_candidate_below_32k():
-    m = _run(_tone(1000.0, fs=32000), 32000)
+def test_no_candidate_at_or_below_8k():
+    m = _run(_tone(1000.0, fs=8000), 8000)
     assert m["imaging"] == [] and m["imaging_detected"] is None
+
+
+def test_candidates_are_every_standard_rate_below_the_file_rate():
+    m = _run(_tone(1000.0, fs=32000), 32000)
+    assert [c["source_rate_hz"] for c in m["imaging"]] == [8000.0, 11025.0, 16000.0, 22050.0, 24000.0]
 
 
 def test_periodic_material_locked_to_a_candidate_is_untestable():
@@ -224,3 +235,171 @@ def test_proper_44k1_to_96k_music_is_at_most_a_trace(rng):
     assert c["verdict"] in ("none", "trace"), c
     assert c["image_level_db"] is None or c["image_level_db"] < -90.0
     assert m["imaging_detected"] is False
+
+
+def _hold_by(x, factor):
+    return np.repeat(np.asarray(x, dtype=float), factor)
+
+
+def _linear_by(x, factor):
+    n = len(x) * factor
+    return np.interp(np.arange(n) / factor, np.arange(len(x)), x)
+
+
+@pytest.mark.parametrize("src,factor,f", [(8000, 12, 2300.0), (16000, 3, 4100.0), (22050, 4, 5500.0),
+                                          (24000, 8, 6100.0), (11025, 4, 2600.0)])
+def test_hold_by_l_first_image_is_the_box_response(src, factor, f):
+    """Analytic (module docstring): sample hold by L leaves its first image at R - f at
+    20*log10|sin(pi f / fs) / sin(pi (R - f) / fs)| below the tone, fs = L*R.  Tones inside the
+    inner band (0.3-0.7 of the source Nyquist frequency), sources below 32 kHz included."""
+    fs = src * factor
+    m = _run(_hold_by(_tone(f, fs=src), factor), fs)
+    c = _candidate(m, float(src))
+    expected = 20 * math.log10(math.sin(math.pi * f / fs) / math.sin(math.pi * (src - f) / fs))
+    assert c["image_level_db"] == pytest.approx(expected, abs=0.1)
+    assert c["verdict"] == "defect" and m["imaging_detected"] is True
+    assert im.image_response_ratio("hold", src, fs, f) == pytest.approx(10 ** (expected / 10), rel=1e-9)
+
+
+@pytest.mark.parametrize("src,factor,f", [(16000, 3, 4100.0), (44100, 4, 10000.0), (8000, 6, 2300.0)])
+def test_linear_by_l_first_image_is_the_triangle_response(src, factor, f):
+    """Analytic: the triangle is the box convolved with itself, so the image lies twice the hold's dB
+    below the tone: 40*log10|sin(pi f / fs) / sin(pi (R - f) / fs)|."""
+    fs = src * factor
+    m = _run(_linear_by(_tone(f, fs=src), factor), fs)
+    c = _candidate(m, float(src))
+    expected = 40 * math.log10(math.sin(math.pi * f / fs) / math.sin(math.pi * (src - f) / fs))
+    assert c["image_level_db"] == pytest.approx(expected, abs=0.15)
+    assert c["verdict"] == "defect"
+    assert im.image_response_ratio("linear", src, fs, f) == pytest.approx(10 ** (expected / 10), rel=1e-9)
+
+
+@pytest.mark.parametrize("factor", [3, 5, 12])
+def test_zero_stuffing_by_l_leaves_images_at_the_content_level(rng, factor):
+    """Analytic: inserting L-1 zeros replicates the spectrum unchanged around every multiple of the
+    source rate, so the first image is as strong as the content: 0 dB."""
+    src = 8000 if factor == 12 else 16000
+    x = white(src, 1.5, rng, 0.1)
+    y = np.zeros(len(x) * factor)
+    y[::factor] = x * factor
+    m = _run(y, src * factor)
+    c = _candidate(m, float(src))
+    assert c["image_level_db"] == pytest.approx(0.0, abs=0.5)
+    assert c["verdict"] == "defect"
+    assert im.image_response_ratio("zero-stuff", src, src * factor, [1000.0, 3000.0]).tolist() == [1.0, 1.0]
+
+
+def _short_sinc(src, up, taps_per_phase, cutoff, beta):
+    """A short Kaiser-windowed sinc interpolation filter at src*up, -6 dB at ``cutoff`` of the source
+    Nyquist frequency (scipy.signal.firwin: the cutoff is the -6 dB point of the windowed sinc)."""
+    from scipy import signal as sps
+    return sps.firwin(taps_per_phase * up + 1, cutoff * src / 2.0, window=("kaiser", beta), fs=float(src * up))
+
+
+@pytest.mark.parametrize("taps,cutoff,beta", [(12, 1.0, 5.0), (16, 1.0, 6.0), (32, 0.97, 9.0)])
+def test_short_filters_stop_the_inner_band_images_and_leak_the_top(taps, cutoff, beta):
+    """The physics behind INNER_BAND and DEFECT_IMAGE_LEVEL_DB, from scipy's filter design: a short
+    windowed-sinc interpolation filter whose transition band straddles the source Nyquist frequency
+    passes the images of the band's top (content at 0.9 of the Nyquist frequency: image at 1.1) within
+    40 dB, but stops the images of content at or below 0.7 of it (images at 1.3 and beyond) by more
+    than 10 dB below the defect level; hold and linear interpolation leave those at -15 / -30 dB at
+    most (image_response_ratio, derived above)."""
+    from scipy import signal as sps
+    src, up = 48000, 4
+    w, h = sps.freqz(_short_sinc(src, up, taps, cutoff, beta), worN=1 << 16, fs=src * up)
+    a = np.abs(h)
+
+    def ratio_db(frac):
+        f = frac * src / 2
+        return 20 * math.log10(np.interp(src - f, w, a) / np.interp(f, w, a))
+
+    assert ratio_db(0.9) > -40.0
+    assert max(ratio_db(fr) for fr in np.linspace(0.05, im.INNER_BAND[1], 30)) < im.DEFECT_IMAGE_LEVEL_DB - 10.0
+    worst_hold = 10 * math.log10(im.image_response_ratio("hold", src, src * up, im.INNER_BAND[0] * src / 2))
+    worst_linear = 10 * math.log10(im.image_response_ratio("linear", src, src * up, im.INNER_BAND[0] * src / 2))
+    assert worst_hold > -16.0 and worst_linear > -31.0 > im.DEFECT_IMAGE_LEVEL_DB + 10.0
+
+
+@pytest.mark.parametrize("src,dst", [(44100, 96000), (48000, 192000), (22050, 48000)])
+def test_leaky_short_resampler_is_a_trace_not_imaging(rng, src, dst):
+    """scipy resample_poly with a 16-tap-per-phase Kaiser (beta 6) sinc, -6 dB at the source Nyquist
+    frequency: coherent images exist (its transition band leaks the top of the band), but those of the
+    inner band's content are deep, so the file is not imaged.  The same noise held is."""
+    from fractions import Fraction
+    from scipy import signal as sps
+    fr = Fraction(dst, src)
+    x = pink(src, 2.0, rng, 0.1)
+    y = sps.resample_poly(x, fr.numerator, fr.denominator, window=_short_sinc(src, fr.numerator, 16, 1.0, 6.0))
+    m = _run(quantise(y[:, None], 24, rng)[:, 0], dst)
+    c = _candidate(m, float(src))
+    assert m["imaging_detected"] is False
+    assert c["verdict"] == "trace" and c["image_level_db"] < im.DEFECT_IMAGE_LEVEL_DB - 10.0
+    held = hold_upsample(x, src, dst)
+    m2 = _run(quantise(held[:, None], 24, rng)[:, 0], dst)
+    assert m2["imaging_detected"] is True and _candidate(m2, float(src))["verdict"] == "defect"
+
+
+def test_images_of_the_band_top_alone_are_not_judged_from_the_spectrum():
+    """A hold by 2 of a tone at 0.8 of the source Nyquist frequency: its image (analytically
+    20*log10 tan(0.4 pi) ... -1.9 dB) lies where a short resampler's transition band leaks too, so
+    the spectral test does not call it a defect; the sample pattern does (next test)."""
+    m = _run(hold_upsample(_tone(19200.0), R, 2 * R), 2 * R)
+    c = _candidate(m, R)
+    assert c["verdict"] == "trace" and m["imaging_detected"] is False
+
+
+def test_sample_pattern_makes_the_images_a_defect_with_their_predicted_level():
+    """Harmonics 1..16 of 1 kHz (amplitude 1/k) held from 48 to 96 kHz: 48 x 1 kHz = 48 kHz, so the
+    material's own periodicity meets the candidate's cycle frequency and the spectral test cannot tell
+    (untestable).  With the interpolation analyzer in the run the file is imaged all the same: the
+    pattern proves a hold upsampler from 48 kHz, whose first image of a partial at f lies
+    tan^2(pi f / 96000) below it in power (box response, module docstring).  The level is taken over
+    the inner band's partials (k = 8..16, 7.2-16.8 kHz) as they are in the file, i.e. after the hold's
+    own response cos^2(pi f / 96000): sum k^-2 sin^2(pi k / 96) / sum k^-2 cos^2(pi k / 96)."""
+    from masterqc.measure.interpolation import InterpolationTraceAnalyzer
+    t = np.arange(R) / R
+    x = sum(np.sin(2 * np.pi * 1000.0 * k * t + 0.1 * k) / k for k in range(1, 17))
+    x = quantise(hold_upsample(0.3 * x / np.max(np.abs(x)), R, 2 * R)[:, None], 24, np.random.default_rng(4))
+    alone = _candidate(_run(x[:, 0], 2 * R), R)
+    assert alone["verdict"] == "untestable" and "periodic" in alone["reason"]
+    m = analyse(x, 2 * R, [ImagingAnalyzer, InterpolationTraceAnalyzer])
+    assert m["interpolation_source_rate_hz"] == R and m["interpolation_kind"] == "hold"
+    c = _candidate(m, R)
+    assert c["verdict"] == "defect" and c["evidence"] == "samples" and m["imaging_detected"] is True
+    k = np.arange(8, 17)
+    expected = 10 * math.log10(np.sum(k ** -2.0 * np.sin(np.pi * k / 96) ** 2) / np.sum(k ** -2.0 * np.cos(np.pi * k / 96) ** 2))
+    assert c["image_level_db"] == pytest.approx(expected, abs=0.05)
+
+
+def test_sparse_held_material_found_through_its_sample_pattern(rng):
+    """Three short bursts in 2 s of near-silence, held from 11.025 to 44.1 kHz: few frames carry the
+    images, yet the file is imaged (the pattern names the source), at the hold's level."""
+    from masterqc.measure.interpolation import InterpolationTraceAnalyzer
+    src, fs = 11025, 44100
+    x = 1e-4 * rng.standard_normal(2 * src)
+    for s0 in (3000, 9000, 16000):
+        x[s0:s0 + 400] += 0.3 * rng.standard_normal(400) * np.hanning(400)
+    y = quantise(np.repeat(x, 4)[:, None], 24, rng)
+    m = analyse(y, fs, [ImagingAnalyzer, InterpolationTraceAnalyzer])
+    c = _candidate(m, float(src))
+    assert m["imaging_detected"] is True and c["verdict"] == "defect"
+    assert -16.0 < c["image_level_db"] < -1.0
+
+
+def test_a_trace_names_the_source_only_when_nothing_else_did():
+    """House rule (post-step after the provenance step): the lowest rate with a resampler's trace
+    names the source when no cliff, pattern or defect did; an existing verdict is never replaced."""
+    imaging = [{"source_rate_hz": 88200.0, "verdict": "trace", "image_level_db": -84.0, "channel": "L",
+                "channels": ["L", "R"]},
+               {"source_rate_hz": 44100.0, "verdict": "trace", "image_level_db": -77.0, "channel": "L",
+                "channels": ["L", "R"]},
+               {"source_rate_hz": 22050.0, "verdict": "none", "image_level_db": None, "channel": "L",
+                "channels": []}]
+    m = im.source_from_traces({"upsampled_from_hz": None, "imaging": imaging})
+    assert m["upsampled_from_hz"] == 44100 and m["upsampled_evidence"] == "images"
+    assert m["upsampled_channels"] == ["L", "R"] and "-77 dB" in m["bandwidth_note"]
+    kept = im.source_from_traces({"upsampled_from_hz": 48000, "imaging": imaging})
+    assert kept["upsampled_from_hz"] == 48000 and "upsampled_evidence" not in kept
+    none = im.source_from_traces({"upsampled_from_hz": None, "imaging": imaging[2:]})
+    assert none["upsampled_from_hz"] is None
+    assert im.source_from_traces({"imaging": imaging}) == {"imaging": imaging}   # no bandwidth analysis run

@@ -178,6 +178,21 @@ def test_imaging_and_aliasing_findings_from_their_keys():
     assert by["sampling.aliasing"].status == "skipped" and "whole multiple" in by["sampling.aliasing"].message
 
 
+def test_imaging_finding_names_the_level_and_the_sample_pattern_evidence():
+    sp = spec(imaging=[False])
+    m = {"imaging_detected": True,
+         "imaging": [{"source_rate_hz": 22050, "coherence": None, "image_level_db": -9.1, "verdict": "defect",
+                      "evidence": "samples", "channel": "L"},
+                     {"source_rate_hz": 44100, "coherence": 0.02, "image_level_db": -77.0, "verdict": "trace",
+                      "evidence": "spectrum", "channel": "L"}]}
+    found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
+    msg = {f.check: f for f in found}["sampling.imaging"].message
+    assert verdict == "fail"
+    assert ("22.05 kHz source: defect, first mirror image -9.1 dB re the content it mirrors, from the sample "
+            "pattern (L)") in msg
+    assert "44.1 kHz source: trace, coherence 0.02, first mirror image -77.0 dB re the content it mirrors (L)" in msg
+
+
 def test_partly_upsampled_master_fails_with_its_time_range():
     sp = spec(upsampled=[False])
     m = {"upsampled_from_hz": None, "upsampled_confidence_fraction": None, "effective_bandwidth_hz": 48000.0,

@@ -67,9 +67,6 @@ def slice_tally(request, tmp_path_factory):
 KNOWN_MISSES = {
     ("upsampling_false_alarms", "corpus_validation"):
         "an 8th-order Butterworth low-pass at 20 kHz in a 48 kHz file is read as converted up from 44.1 kHz",
-    ("imaging", "corpus_validation"):
-        "ffmpeg's default resampler leaks a narrow band of images just above the source Nyquist, which is "
-        "labelled clean but found as imaging",
     ("folded", "corpus_validation"): "polyphonic naive pulse voices and unfiltered decimation are missed",
     ("folded", "corpus_tuning_aliasing"): "naive pulse voices and sample dropping are missed",
 }

@@ -197,7 +197,9 @@ def _imaging_detail(m: dict) -> str:
             if coh is not None:
                 txt += f", coherence {coh:.2f}"
             if lvl is not None:
-                txt += f", mirror image {lvl:.1f} dB re baseband"
+                txt += f", first mirror image {lvl:.1f} dB re the content it mirrors"
+            if c.get("evidence") == "samples":
+                txt += ", from the sample pattern"
             if c.get("channel"):
                 txt += f" ({c['channel']})"
             parts.append(txt)

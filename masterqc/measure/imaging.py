@@ -17,10 +17,10 @@ frequencies, so the measure is a clean test:
 with ``X_m`` the Hann-windowed DFT of the frame starting at sample ``n_m``.
 Frequencies are taken modulo ``fs`` on the two-sided DFT, so images folded at
 the file's Nyquist are paired with their source automatically.  The frame
-length is ``fs/20`` samples (20 Hz bins): every standard rate is a whole number
-of 20 Hz, so ``q*r - f`` falls on a bin, and 20 Hz bins give twice as many
-frames as 10 Hz bins for the same audio, which is what the coherence estimate
-needs.  Frames are placed at irregular (stratified pseudo-random) positions:
+length is ``fs/25`` samples (25 Hz bins): every standard rate from 8 kHz up
+(11.025 and 22.05 kHz included) is a whole number of 25 Hz, so ``q*r - f`` falls
+on a bin, and short frames give many frames for the same audio, which is what the
+coherence estimate needs.  Frames are placed at irregular (stratified pseudo-random) positions:
 on a regular grid two unrelated components could look phase-locked.
 
 The estimator's bias under the null (no image) is not ``1/M`` for programme
@@ -45,11 +45,27 @@ For each candidate source rate below the file's rate the analyzer reports
 * ``coherence``: the fraction of the power in the weaker member of each
   (f, alpha - f) pair that the other member explains, power-weighted over all
   pairs, corrected for the estimator's bias, in [0, 1];
-* ``image_level_db``: the coherent (image) power relative to the baseband power
-  below ``r/2``, in dB (None when no coherent image was found);
-* ``verdict``: "defect" (significant coherence with an image at or above
-  :data:`DEFECT_IMAGE_LEVEL_DB`), "trace" (significant coherence with a deeper
-  image: a resampler's trace), "none", or "untestable" (with a reason).
+* ``image_level_db``: the image rejection, as a level: the coherent power of the
+  first image (at ``r - f``) of the content between 0.3 and 0.7 of ``r/2``
+  (:data:`INNER_BAND`), relative to that content, in dB (None when no coherent
+  image was found).  Only content well inside the source band counts: its images
+  lie beyond 1.3 of the source Nyquist frequency, past the transition band of any
+  interpolating resampler, however short, which stops them by 55 dB and more;
+  images of the band's top (just above the Nyquist frequency) leak through such a
+  transition band and say nothing about the kind of upsampler.  Hold, linear and
+  zero-stuffing upsamplers leave the inner band's images within 15, 30 and 0 dB
+  of it (:func:`image_response_ratio`);
+* ``verdict``: "defect" (significant coherence, at the rate itself as well as its
+  multiples, with an image at or above :data:`DEFECT_IMAGE_LEVEL_DB`), "trace"
+  (significant coherence with a deeper image: a resampler's trace), "none", or
+  "untestable" (with a reason);
+* ``evidence``: "spectrum"; or "samples" when the run's interpolation analyzer
+  (:mod:`masterqc.measure.interpolation`) found the exact sample pattern of a hold,
+  linear or zero-stuffing upsampler from this rate, which makes the candidate a
+  defect whatever the spectral test could tell (too few loud frames, periodic
+  material), with the level predicted from the upsampler's response and the
+  measured spectrum (:func:`predicted_image_level_db`); "spectrum+samples" when
+  both found it.
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/20`` samples per frame and channel, and one product per candidate pair) plus
@@ -68,9 +84,10 @@ from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, Analyzer, An
 from masterqc.measure.frames import FramePicker, frame_starts, harmonic_fundamental, refine_peak, refine_peaks
 
 #: standard source rates that are tested when they are below the file's rate
-CANDIDATE_RATES_HZ = (32000, 44100, 48000, 88200, 96000, 176400)
-#: analysis bin spacing; fs/20 samples per frame puts every candidate's mirror on a bin
-BIN_HZ = 20.0
+CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400)
+#: analysis bin spacing: every standard rate is a whole number of 25 Hz (8000 = 320 x 25,
+#: 11025 = 441 x 25), so fs/25 samples per frame puts every candidate's mirror on a bin
+BIN_HZ = 25.0
 #: at most this many frames per file are analysed (cost bound, independent of length)
 MAX_FRAMES = 128
 #: fewer frames than this and the coherence estimate is meaningless
@@ -111,11 +128,25 @@ HALVES_AGREEMENT = 0.25
 #: (own reasoning: the squared coherence between neighbouring Hann bins of white noise is
 #: 0.25, which gives a factor of about 1.5; 2 is taken for margin)
 NULL_VARIANCE_INFLATION = 2.0
-#: images at or above this level relative to the baseband are a defect.  Own reasoning: a
-#: sample-hold upsampler leaves images at about -15 to -30 dB of bright programme, a linear
-#: interpolator about -25 to -45 dB, while purpose-built interpolation filters (even short
-#: windowed-sinc kernels) keep them below about -50 dB; -45 dB separates the two groups.
-DEFECT_IMAGE_LEVEL_DB = -45.0
+#: the image level is measured on the images of source content well inside the candidate's band:
+#: between these fractions of its Nyquist frequency.  Own reasoning from the filters' responses:
+#: every interpolating resampler, even a short windowed sinc whose -6 dB point sits at the source
+#: Nyquist frequency (12 taps per phase, Kaiser beta 5), stops the images of content below 0.7 of
+#: the source Nyquist by 55 dB and more (they lie beyond 1.3 of it, past the transition band),
+#: while its transition band lets through images of the top of the band (content at 0.9 of the
+#: Nyquist: images at 1.1 of it, only 12-40 dB down).  A hold, linear or zero-stuffing upsampler
+#: leaves the images of content between 0.3 and 0.7 of the source Nyquist at most 15 dB (hold),
+#: 30 dB (linear) or 0 dB (zero stuffing) below it, at any ratio (tests derive both).
+INNER_BAND = (0.3, 0.7)
+#: images of the inner band's content at or above this level relative to that content are a
+#: defect (own reasoning: midway, in dB, between linear interpolation's worst, -30 dB, and the
+#: leakiest short interpolation filter's best, -55 dB)
+DEFECT_IMAGE_LEVEL_DB = -42.0
+#: source content is within this much of the mean bin power of the candidate's band; a weaker
+#: pair is measured against that floor (own reasoning: the inner band of real material, even a
+#: dull recording falling 12 dB per octave, lies within 25 dB of the band's mean bin power, while
+#: a short filter's stop-band residue lies 50 dB and more below it)
+CONTENT_FLOOR_DB = -30.0
 #: control cycle frequencies, in bins from each candidate's: an upsampler's images are
 #: coherent only at the exact cycle frequency, while material that is cyclostationary at
 #: almost every cycle frequency (periodic material whose folded partials fill a dense comb)
@@ -248,6 +279,50 @@ def periodic_fundamental(power: np.ndarray, bin_hz: float):
     return harmonic_fundamental(freqs, power[lines])
 
 
+def _inner_khz(rate: float) -> str:
+    return f"{INNER_BAND[0] * rate / 2000:.1f}-{INNER_BAND[1] * rate / 2000:.1f} kHz"
+
+
+def image_response_ratio(kind: str, rate: float, fs: float, f_hz):
+    """Power of the first image (at ``rate - f``) over the power of the content at ``f`` that an
+    upsampler from ``rate`` to ``fs`` without an interpolation filter leaves.
+
+    Zero stuffing replicates the spectrum unchanged: 1.  Holding each sample is a box filter: for a
+    whole factor ``L = fs / rate`` its response is ``sin(pi f L / fs) / (L sin(pi f / fs))``, and
+    since ``sin(pi (rate - f) L / fs) = sin(pi - pi f L / fs)`` the numerators cancel:
+    ``(sin(pi f / fs) / sin(pi (rate - f) / fs))**2``.  For a fractional factor the hold is that of
+    the continuous-time box of width ``1/rate``, ``sinc(f / rate)``, and the ratio is
+    ``(f / (rate - f))**2``.  Linear interpolation is the box convolved with itself (the triangle):
+    the hold's ratio squared.
+    """
+    f = np.asarray(f_hz, dtype=float)
+    if kind == "zero-stuff":
+        return np.ones_like(f)
+    ratio = fs / rate
+    if abs(ratio - round(ratio)) < 1e-9:
+        hold = (np.sin(np.pi * f / fs) / np.sin(np.pi * (rate - f) / fs)) ** 2
+    else:
+        hold = (f / (rate - f)) ** 2
+    return hold ** 2 if kind == "linear" else hold
+
+
+def predicted_image_level_db(kind: str, rate: float, fs: float, power, bin_hz: float):
+    """Level (dB) of the images of the inner band's content (:data:`INNER_BAND` of ``rate``'s
+    Nyquist frequency) relative to that content, for an upsampler ``kind`` from ``rate``, from the
+    measured power spectrum ``power`` (bins ``bin_hz`` apart); None without content there."""
+    p = np.asarray(power, dtype=float)
+    lo = int(math.ceil(INNER_BAND[0] * rate / 2.0 / bin_hz))
+    hi = min(p.size - 1, int(math.floor(INNER_BAND[1] * rate / 2.0 / bin_hz)))
+    if hi < lo:
+        return None
+    band = p[lo:hi + 1]
+    total = float(band.sum())
+    if not total > 0.0:
+        return None
+    r = image_response_ratio(kind, rate, fs, np.arange(lo, hi + 1) * bin_hz)
+    return power_ratio_db(float(np.sum(band * r)) / total)
+
+
 class ImagingAnalyzer(Analyzer):
     """Spectral correlation at the cycle frequencies of every candidate source rate."""
 
@@ -266,6 +341,7 @@ class ImagingAnalyzer(Analyzer):
                 "reason": {"type": ["string", "null"]},
                 "channel": {"type": ["string", "null"]},
                 "channels": {"type": "array", "items": {"type": "string"}},
+                "evidence": {"enum": ["spectrum", "samples", "spectrum+samples"]},
             },
             "required": ["source_rate_hz", "coherence", "image_level_db", "verdict"],
             }), NO_UNIT,
@@ -306,13 +382,28 @@ class ImagingAnalyzer(Analyzer):
             cand = {"rate": r, "cycles": []}
             for off in (0,) + tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)):
                 ka, kb, al = mirror_pairs(self.fs, r + off * self.bin_hz, self.n_fft, rate_for_band=r)
-                cand["cycles"].append({"offset": off, "ka": ka, "kb": kb, "alpha": al,
+                if off:
+                    # a control needs only the first order (see :meth:`_assess`)
+                    sel = al == int(round((r + off * self.bin_hz) / self.bin_hz)) % self.n_fft
+                    ka, kb, al = ka[sel], kb[sel], al[sel]
+                # the baseband member's frequency as a fraction of the candidate's Nyquist frequency
+                frac = np.minimum(ka, self.n_fft - ka) * self.bin_hz / (r / 2.0)
+                first = al == int(round((r + off * self.bin_hz) / self.bin_hz)) % self.n_fft
+                cand["cycles"].append({"offset": off, "ka": ka, "kb": kb, "alpha": al, "frac": frac, "first": first,
                                        "slice": slice(pos, pos + ka.size)})
                 parts.append((ka, kb, al))
                 pos += ka.size
             self.cands.append(cand)
         cat = (lambda i: np.concatenate([p[i] for p in parts]) if parts else np.zeros(0, dtype=np.int64))
-        self.all_ka, self.all_kb, self.all_alpha = cat(0), cat(1), cat(2)
+        all_ka, all_kb = cat(0), cat(1)
+        # the cycle frequencies of a rate are those of its multiples too (q * 8 kHz includes 16, 24,
+        # 32 ... kHz): each distinct bin pair is multiplied once per frame, and every candidate's
+        # pairs index into the distinct ones
+        n = self.n_fft
+        key = np.minimum(all_ka, all_kb) * n + np.maximum(all_ka, all_kb)
+        uniq, self.pair_index = np.unique(key, return_inverse=True)
+        self.all_ka, self.all_kb = uniq // n, uniq % n
+        self.pairs_distinct = int(uniq.size)
         self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
         # per pair, sum over frames of |X_m(a)|^2 |X_m(b)|^2: with it the null bias of each
         # pair's coherence follows the material's own frame-to-frame power changes
@@ -374,37 +465,45 @@ class ImagingAnalyzer(Analyzer):
         self._lines[ch] = out
         return out
 
-    def _stats(self, c, ch: int):
+    def _stats(self, c, ch: int, mean_bin_power: float = 0.0, use_inner: bool = True, drop_alpha=()):
         """Pooled statistics of one cycle frequency on one channel:
         ``(z_weighted, z_unweighted, coherent_power, coherence)``, or None without pairs."""
         if c["ka"].size == 0:
             return None
         pw = self.power[ch]
         ka, kb = c["ka"], c["kb"]
+        idx = self.pair_index[c["slice"]]
         ia, ib = np.minimum(ka, self.n_fft - ka), np.minimum(kb, self.n_fft - kb)
         p1, p2 = pw[ia], pw[ib]
-        g2 = np.minimum(np.abs(self.S[ch, c["slice"]]) ** 2 / np.maximum(p1 * p2, 1e-300), 1.0)
+        s_all = self.S[ch, idx]
+        g2 = np.minimum(np.abs(s_all) ** 2 / np.maximum(p1 * p2, 1e-300), 1.0)
         w = np.minimum(p1, p2)
         lines = self._line_map(ch)
         la = np.where(ka > self.n_fft // 2, -lines[ia], lines[ia])
         lb = np.where(kb > self.n_fft // 2, -lines[ib], lines[ib])
         delta = np.mod(la + lb - c["alpha"] * self.bin_hz + self.fs / 2.0, self.fs) - self.fs / 2.0
         keep = ~(np.abs(delta) > LINE_PAIR_TOLERANCE_HZ)  # NaN (not two lines) is kept
+        if len(drop_alpha):
+            keep &= ~np.isin(c["alpha"], np.asarray(drop_alpha, dtype=np.int64))
+        first = c["first"]
+        # the first image of positive-frequency content: the pair (f, rate - f)
+        lower = first & (ka <= self.n_fft // 2)
         # cross-half coherence Re(gamma_first * conj(gamma_second)): unbiased for gamma^2, and
         # near zero or negative for two components whose phase drifts over the file
         pf = self.power_first[ch]
         ps = pw - pf
-        s_all = self.S[ch, c["slice"]]
-        s_first = self.S_first[ch, c["slice"]]
+        s_first = self.S_first[ch, idx]
         den = np.sqrt(np.maximum(pf[ia] * pf[ib], 1e-300) * np.maximum(ps[ia] * ps[ib], 1e-300))
         cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
         # null bias of each pair: sum_m P_m(a) P_m(b) / (sum_m P_m(a) sum_m P_m(b)), which is 1/M
         # for steady material and larger where a few loud frames (drum hits) carry the power;
         # scaled by the window-overlap inflation of :func:`null_coherence_bias`
         overlap = max(1.0, self.null_bias * self.frames)
-        bias = np.clip(overlap * self.Q[ch, c["slice"]] / np.maximum(p1 * p2, 1e-300), self.null_bias, 0.999)
+        bias = np.clip(overlap * self.Q[ch, idx] / np.maximum(p1 * p2, 1e-300), self.null_bias, 0.999)
+        frac = c["frac"]
         if not keep.all():
-            g2, w, p1, p2, cross, bias = g2[keep], w[keep], p1[keep], p2[keep], cross[keep], bias[keep]
+            g2, w, p1, p2, cross, bias, frac, first, lower = (g2[keep], w[keep], p1[keep], p2[keep], cross[keep],
+                                                              bias[keep], frac[keep], first[keep], lower[keep])
             if g2.size == 0:
                 return None
         wsum = float(w.sum())
@@ -420,6 +519,18 @@ class ImagingAnalyzer(Analyzer):
         z_w = t / sd if sd > 0 else 0.0
         z_u = float(np.sum(g2 - bias)) / math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0)))
         coh = float(np.sum((g2 - bias) / (1.0 - bias) * w)) / wsum
+        # the first image order alone (cycle frequency = the rate itself): a source at this rate always
+        # leaves its strongest images there, while a source at a multiple of the rate shares only the
+        # higher orders' cycle frequencies with it
+        if np.any(first):
+            wf = w[first]
+            sd_f = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[first] * wf * wf)))
+            z_fw = float(np.sum((g2[first] - bias[first]) * wf)) / sd_f if sd_f > 0 else 0.0
+            z_fu = float(np.sum(g2[first] - bias[first])) / math.sqrt(NULL_VARIANCE_INFLATION
+                                                                      * float(np.sum(v0[first])))
+            z_first = max(z_fw, z_fu)
+        else:
+            z_first = 0.0
         # where images fall on programme content, the pairs with two strong members carry most
         # of the weight and most of the noise; the pairs whose weaker member is at least
         # ASYMMETRY_DB below the stronger one carry the image itself
@@ -437,8 +548,46 @@ class ImagingAnalyzer(Analyzer):
         x_all = float(np.sum(cross * w))
         x_asym = float(np.sum(cross[asym] * wa))
         x_sig = float(np.sum(cross[sig] * w[sig])) if int(sig.sum()) >= MIN_SIGNIFICANT_PAIRS else 0.0
+        # the reference: the stronger member, but never less than CONTENT_FLOOR_DB below the mean bin
+        # power of the candidate's band (a pair of two deep images of one component, above a lower
+        # source's Nyquist frequency, is coherent whatever the filter: it is not source content)
+        strong = np.maximum(np.maximum(p1, p2), mean_bin_power * 10 ** (CONTENT_FLOOR_DB / 10))
+
+        def rejection(band):
+            """Coherent power of the weaker members over the stronger members' power, for the pairs
+            (f, rate - f) whose baseband member f lies in ``band`` (fractions of the candidate's
+            Nyquist frequency): the first image relative to the content it mirrors;
+            the larger of the three estimates (all pairs, asymmetric pairs, significant pairs), each
+            over its own pairs and bounded by its cross-half twin; None without a usable estimate."""
+            inb = (frac >= band[0]) & (frac <= band[1]) & lower
+            best = None
+            for sub, need_z in ((inb, True), (inb & asym, True), (inb & sig, False)):
+                ws = w[sub]
+                den = float(np.sum(strong[sub]))
+                if ws.size == 0 or not den > 0.0:
+                    continue
+                if need_z:
+                    num = float(np.sum((g2[sub] - bias[sub]) * ws))
+                    sd_s = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[sub] * ws * ws)))
+                    if not (sd_s > 0 and num / sd_s >= Z_LEVEL):
+                        continue
+                else:
+                    if int(sub.sum()) < MIN_SIGNIFICANT_PAIRS:
+                        continue
+                    num = float(np.sum(g2[sub] * ws))
+                val = min(num, float(np.sum(cross[sub] * ws))) / den
+                if val > 0 and (best is None or val > best):
+                    best = val
+            return best
+
+        # without content there (at most CONTENT_FLOOR_DB of the band's power) or a usable estimate
+        # (too few frames), the images of all the content below the inner band's top: still clear
+        # of any resampler's transition band
+        inner = rejection(INNER_BAND) if use_inner else None
+        if inner is None:
+            inner = rejection((0.0, INNER_BAND[1]))
         return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "t_a": t_a, "z_a": z_a,
-                "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig}
+                "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig, "inner": inner, "z_first": z_first}
 
     def _assess(self, cand, ch: int, f0):
         m = self.frames
@@ -466,7 +615,18 @@ class ImagingAnalyzer(Analyzer):
                                   f"meets {rate:.0f} Hz modulo the sampling rate: its partials pair up "
                                   "like images")
                 return base
-        main = self._stats(cand["cycles"][0], ch)
+        in_lo = int(math.ceil(INNER_BAND[0] * rate / 2.0 / self.bin_hz))
+        in_hi = int(math.floor(INNER_BAND[1] * rate / 2.0 / self.bin_hz))
+        inner_power = float(pw[in_lo:in_hi + 1].sum())
+        # higher image orders whose cycle frequency periodic material meets are left out
+        drop = []
+        if f0 is not None:
+            tol = max(0.05, 1.0 / max(self.span_s, 1e-9))
+            for al in np.unique(cand["cycles"][0]["alpha"]):
+                if locked_order(f0, float(al) * self.bin_hz, self.fs, tolerance_hz=tol) is not None:
+                    drop.append(int(al))
+        main = self._stats(cand["cycles"][0], ch, base_power / max(1, hi + 1 - lo),
+                           use_inner=inner_power >= base_power * 10 ** (CONTENT_FLOOR_DB / 10), drop_alpha=drop)
         if main is None:
             base["reason"] = "no signal at the mirror frequencies"
             return base
@@ -474,12 +634,18 @@ class ImagingAnalyzer(Analyzer):
         z = max(z_w, z_u)
         base["coherence"] = round(coh, 4)
         base["z_score"] = round(z, 2)
-        controls = [self._stats(c, ch) for c in cand["cycles"][1:]]
-        z_ctrl = max([max(c["z_w"], c["z_u"]) for c in controls if c is not None], default=0.0)
         if z < Z_SIGNIFICANT:
             base["verdict"] = "none"
             return base
-        if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * z):
+        if main["z_first"] < Z_SIGNIFICANT:
+            base["verdict"] = "none"
+            base["reason"] = ("coherent only at multiples of the rate, not at the rate itself: images of a "
+                              "higher source rate")
+            return base
+        # the controls are first-order cycle frequencies a few bins off: compared with the first order
+        controls = [self._stats(c, ch) for c in cand["cycles"][1:]]
+        z_ctrl = max([max(c["z_w"], c["z_u"]) for c in controls if c is not None], default=0.0)
+        if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * main["z_first"]):
             base["reason"] = ("the material is coherent at neighbouring cycle frequencies too (z "
                               f"{z_ctrl:.0f} against {z:.0f}): periodic or strongly modulated content, "
                               "not an upsampler's images")
@@ -493,17 +659,58 @@ class ImagingAnalyzer(Analyzer):
             base["reason"] = ("coherence not kept between the two halves of the file: a chance "
                               "alignment of unrelated components, not an image")
             return base
-        level = power_ratio_db(min(max(full), max(halves)) / base_power)
+        # the level that decides: images of the content well inside the candidate's band, relative
+        # to that content (the images of the top of the band may be a resampler's transition band)
+        level = None if main["inner"] is None else power_ratio_db(main["inner"])
         base["image_level_db"] = None if level is None else round(level, 2)
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
             base["verdict"] = "defect"
-            base["reason"] = (f"mirror images of the content below {rate / 2000:.2f} kHz at "
-                              f"{level:.1f} dB: upsampled from {rate / 1000:g} kHz without a proper filter")
+            base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} at {level:.1f} dB relative to "
+                              f"it: upsampled from {rate / 1000:g} kHz without a proper filter")
         else:
             base["verdict"] = "trace"
             base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
                               f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
         return base
+
+    def bind(self, peers) -> None:
+        """Take the sample-pattern verdict of the run's interpolation analyzer
+        (:class:`masterqc.measure.interpolation.InterpolationTraceAnalyzer`) at :meth:`finish`: a hold,
+        linear or zero-stuffing upsampler found from the samples themselves leaves images whose level
+        follows from its response (:func:`predicted_image_level_db`), however few frames the
+        spectral test could use."""
+        from masterqc.measure.interpolation import InterpolationTraceAnalyzer
+        self._pattern_peer = next((p for p in peers if isinstance(p, InterpolationTraceAnalyzer)), None)
+
+    def _with_pattern(self, out: list) -> list:
+        """``out`` with the candidate named by the sample pattern (if any) made a defect."""
+        peer = getattr(self, "_pattern_peer", None)
+        pat = peer.pattern() if peer is not None else None
+        if not pat or pat.get("interpolation_source_rate_hz") is None:
+            return out
+        rate = float(pat["interpolation_source_rate_hz"])
+        kind = pat.get("interpolation_kind") or "hold"
+        labels = list(self.info.channel_layout)
+        chans = [c for c in (pat.get("interpolation_channels") or []) if c in labels] or labels
+        power = sum(self.power[labels.index(c)] for c in chans)
+        level = predicted_image_level_db(kind, rate, self.fs, power, self.bin_hz)
+        entry = next((a for a in out if a["source_rate_hz"] == rate), None)
+        if entry is None:
+            entry = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
+                     "verdict": "untestable", "reason": None, "channel": chans[0], "channels": []}
+            out.append(entry)
+        if entry["verdict"] == "defect":
+            entry["evidence"] = "spectrum+samples"
+            return out
+        was = entry["verdict"] if entry["verdict"] != "untestable" else f"untestable ({entry['reason']})"
+        what = {"hold": "held", "linear": "joined by straight lines", "zero-stuff": "zero-stuffed"}.get(kind, kind)
+        entry.update(verdict="defect", evidence="samples", channels=chans, channel=chans[0],
+                     image_level_db=None if level is None else round(level, 2),
+                     reason=(f"samples {what} at {rate / 1000:g} kHz: such an upsampler leaves mirror images of "
+                             f"the content at {_inner_khz(rate)}"
+                             + ("" if level is None else f" at {level:.1f} dB relative to it (from its response)")
+                             + f"; the spectral test alone: {was}"))
+        return out
 
     def finish(self) -> AnalyzerResult:
         rank = {"defect": 3, "trace": 2, "none": 1, "untestable": 0}
@@ -512,21 +719,60 @@ class ImagingAnalyzer(Analyzer):
                for ch in range(self.info.channels)]
         for cand in self.cands:
             best = None
-            defects = []
+            defects, traces = [], []
             for ch in range(self.info.channels):
                 a = self._assess(cand, ch, f0s[ch])
                 if a["verdict"] == "defect":
                     defects.append(a["channel"])
+                elif a["verdict"] == "trace":
+                    traces.append(a["channel"])
                 key = (rank[a["verdict"]], a["z_score"] if a["z_score"] is not None else -1e9)
                 if best is None or key > best[0]:
                     best = (key, a)
-            best[1]["channels"] = defects
+            # the channels that carry the reported verdict (defect or trace)
+            best[1]["channels"] = defects if best[1]["verdict"] == "defect" else \
+                traces if best[1]["verdict"] == "trace" else []
+            best[1]["evidence"] = "spectrum"
             out.append(best[1])
+        out = self._with_pattern(out)
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
         settings = {"frame_samples": self.n_fft, "bin_hz": self.bin_hz, "frames_analysed": self.frames,
                     "max_frames": self.max_frames, "window": "hann",
                     "null_coherence_bias": round(self.null_bias, 5),
-                    "z_significant": Z_SIGNIFICANT, "defect_image_level_db": DEFECT_IMAGE_LEVEL_DB}
+                    "z_significant": Z_SIGNIFICANT, "defect_image_level_db": DEFECT_IMAGE_LEVEL_DB,
+                    "inner_band_fraction": list(INNER_BAND), "pairs_distinct": self.pairs_distinct}
         return AnalyzerResult(measurements={"imaging_detected": detected, "imaging": out}, settings=settings)
 
+
+
+def source_from_traces(m: dict) -> dict:
+    """Post-step (after :func:`masterqc.measure.provenance.combine`): a resampler's trace names the
+    source rate when nothing else did.
+
+    A "trace" is significant coherence at the candidate rate itself (its first image order), not at
+    the controls a few bins off, kept over both halves of the file: images of content converted up
+    from that rate, only too deep to be a defect.  Natural audio shows none at any rate.  So when
+    neither a converter cliff, nor the sample pattern, nor a defect named the source, the lowest rate
+    with a trace does (its multiples share its cycle frequencies), with ``upsampled_evidence``
+    "images".  Pure: measurements in, measurements out.
+    """
+    if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:
+        return m
+    traces = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("verdict") == "trace"
+              and c.get("source_rate_hz")]
+    if not traces:
+        return m
+    src = min(traces, key=lambda c: float(c["source_rate_hz"]))
+    rate = int(round(float(src["source_rate_hz"])))
+    level = src.get("image_level_db")
+    m["upsampled_from_hz"] = rate
+    m["upsampled_confidence_fraction"] = 0.6
+    m["upsampled_evidence"] = "images"
+    m["upsampled_edge_ratio"] = None
+    m["upsampled_channels"] = list(src.get("channels") or ([src["channel"]] if src.get("channel") else []))
+    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz: the content below {rate / 2000:g} kHz has "
+                           "coherent mirror images, a resampler's trace"
+                           + (f" ({float(level):.0f} dB)" if level is not None else "") + ", no converter cliff")
+    m["band_limit_hz"] = None
+    return m

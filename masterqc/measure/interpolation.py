@@ -253,6 +253,18 @@ class InterpolationTraceAnalyzer(Analyzer):
                 self.counts[o] += c
 
     def finish(self) -> AnalyzerResult:
+        settings = {"frames_analysed": self.frames, "frame_samples": FRAME_SAMPLES, "common_period_samples": self.M,
+                    "contrast_min_db": CONTRAST_MIN_DB, "candidates_hz": list(self.rates)}
+        return AnalyzerResult(measurements=dict(self.pattern()), settings=settings)
+
+    def pattern(self) -> dict:
+        """The measurements (see :data:`MEASUREMENT_SCHEMA`), computed once after the last block; the
+        imaging analyzer takes them too (:meth:`ImagingAnalyzer.bind`)."""
+        if getattr(self, "_pattern", None) is None:
+            self._pattern = self._find_pattern()
+        return self._pattern
+
+    def _find_pattern(self) -> dict:
         labels = list(getattr(self.info, "channel_layout", None) or [])
         if len(labels) != self.channels:
             labels = [f"ch{i + 1}" for i in range(self.channels)]
@@ -287,6 +299,4 @@ class InterpolationTraceAnalyzer(Analyzer):
                                            f"{'first' if kind == 'hold' else 'second' if kind == 'linear' else 'zeroth'}"
                                            f" difference repeats the same pattern of {q} active phase"
                                            f"{'s' if q > 1 else ''}, {min(con, 200.0):.0f} dB above the others"))
-        settings = {"frames_analysed": self.frames, "frame_samples": FRAME_SAMPLES, "common_period_samples": self.M,
-                    "contrast_min_db": CONTRAST_MIN_DB, "candidates_hz": list(self.rates)}
-        return AnalyzerResult(measurements=out, settings=settings)
+        return out
