@@ -642,12 +642,15 @@ def mirror_correlations(power, bin_hz: float, fs: float, floor_db: float) -> dic
     ``|Y(2h - f)| = |H(2h - f)| |X(f)|``: the same fine structure, so a correlation near 1;
     independent content above and below ``h`` gives about 0.  ``broadband``: the median bin below
     ``h`` lies within :data:`BROADBAND_GAP_DB` of the closed envelope.  Candidates with less than a
-    fifth of a band to compare, or whose bands lie at the format's floor, are left out.
+    fifth of a band to compare, whose bands lie at the format's floor, or whose band below ``h`` lies more
+    than :data:`TESTABLE_MAX_BELOW_MAIN_DB` under the programme's main band (median of 1-10 kHz), are
+    left out.
     """
     level = _db(power)
     fine = fine_structure_db(power, bin_hz)
     limit = min(level.size, _bins(0.99 * fs / 2.0, bin_hz))
     env = None
+    main = None
     out = {}
     for r in CANDIDATE_RATES_HZ:
         if r >= fs:
@@ -658,6 +661,12 @@ def mirror_correlations(power, bin_hz: float, fs: float, floor_db: float) -> dic
         c, k, m0, frac = got
         up_level = level[m0] * (1.0 - frac) + level[m0 + 1] * frac
         if float(np.median(up_level)) < floor_db + ABOVE_FLOOR_DB or float(np.median(level[k])) < floor_db + ABOVE_FLOOR_DB:
+            continue
+        if main is None:
+            main = float(np.median(level[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+        if float(np.median(level[k])) < main - TESTABLE_MAX_BELOW_MAIN_DB:
+            # only programme content counts: a multi-stage converter's last stage mirrors the floor left by
+            # the stages before it (a 16 kHz source made 192 kHz by way of 96 kHz mirrors its floor about 48 kHz)
             continue
         if env is None:
             env = envelope_db(power, bin_hz)
