@@ -9,7 +9,9 @@ speaks to).  Set "tuning", seeds 1000-1999.  Tool families:
   Kaiser (beta 5) window and with Hann, Hamming and Blackman-Harris windows;
 - ``libsamplerate-<type>``: the ``samplerate`` package, every converter type (sinc_best,
   sinc_medium, sinc_fastest, linear, zero_order_hold);
-- ``hold``, ``linear``, ``zero-stuff``: upsamplers written here with numpy.
+- ``scipy-resample_poly-short`` / ``-long``: resample_poly with its own Kaiser (beta 5) design of 3 or 40 zero
+  crossings either side (a leaky and a steep one);
+- ``hold``, ``linear``, ``zero-stuff``, ``cubic`` (Catmull-Rom): upsamplers written here with numpy.
 
 Source rates 8 ... 96 kHz go up to a higher standard rate up to 192 kHz; each case draws
 its target from the higher rates (the seed decides), so every source meets several targets
@@ -168,6 +170,12 @@ def upsample(x: np.ndarray, src: int, dst: int, family: str) -> np.ndarray:
     """Convert one channel from ``src`` to ``dst`` with the named tool family."""
     fr = Fraction(dst, src)
     up, down = fr.numerator, fr.denominator
+    if family in ("scipy-resample_poly-short", "scipy-resample_poly-long"):
+        # resample_poly with its own Kaiser (beta 5) design, 3 or 40 zero crossings either side instead of 10
+        half = 3 if family.endswith("short") else 40
+        m = max(up, down)
+        h = sps.firwin(2 * half * m + 1, 1.0 / m, window=("kaiser", 5.0))
+        return sps.resample_poly(x, up, down, window=h)
     if family.startswith("scipy-resample_poly"):
         name = family[len("scipy-resample_poly-"):]
         window = {"kaiser5": ("kaiser", 5.0)}.get(name, name)
@@ -177,6 +185,13 @@ def upsample(x: np.ndarray, src: int, dst: int, family: str) -> np.ndarray:
         return np.asarray(samplerate.resample(x, dst / src, family[len("libsamplerate-"):]), dtype=float)
     n_out = len(x) * dst // src
     pos = np.arange(n_out) * (src / dst)
+    if family == "cubic":
+        # Catmull-Rom (4-point cubic Hermite) interpolation, written here
+        i = np.floor(pos + 1e-9).astype(np.int64)
+        t = pos - i
+        xp = np.concatenate([x[:1], x, x[-1:], x[-1:]])
+        a, b, c, d = xp[i], xp[i + 1], xp[i + 2], xp[i + 3]
+        return b + 0.5 * t * (c - a + t * (2 * a - 5 * b + 4 * c - d + t * (3 * (b - c) + d - a)))
     if family == "hold":
         return x[np.minimum(np.floor(pos + 1e-9).astype(np.int64), len(x) - 1)]
     if family == "linear":
@@ -270,6 +285,45 @@ def _plan(seed: int, quick: bool):
         plan.append((f"ambiguous_{kind}_{corner / 1000:g}k_{fs}", f"{kind}-{corner / 1000:g}k", "ambiguous-lowpass",
                      ("ambig", fs, corner, kind, pick(mats), float(rng.uniform(-24.0, -8.0)))))
     plan += imaging_plan(seed, quick)
+    plan.extend(_plan_filters(seed, quick))
+    return plan
+
+
+#: converters with a wide or leaky transition and interpolators that let images through (issue 11: the quick
+#: converters' -6 dB point lies well below the old Nyquist, leaky designs' stop band well above it)
+EXTRA_UP_FAMILIES = ("cubic", "scipy-resample_poly-short", "scipy-resample_poly-long")
+
+
+def _plan_filters(seed: int, quick: bool):
+    """Cheap and leaky converters, interpolators that leave images, and the mastering low-passes whose fall
+    looks most like a converter's: Butterworth orders 6-12 near 20 kHz in 48 kHz files, elliptic low-passes
+    with a modest stop band at 16-19.5 kHz.  Drawn from their own generator so the cases above keep their noise."""
+    rng = np.random.default_rng([int(seed), 7])
+    mats = list(MATERIALS)
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    for fi, family in enumerate(EXTRA_UP_FAMILIES):
+        sources = SOURCE_RATES_HZ if not quick else SOURCE_RATES_HZ[fi % 4::4]
+        for src in sources:
+            targets = _targets(src, family)
+            if not targets:
+                continue
+            dst = pick(targets)
+            mat = pick(mats)
+            ch = pick([1, 1, 2, 2, 6])
+            plan.append((f"up_{family}_{src}_to_{dst}_{mat}_{ch}ch", family, "upsampled",
+                         ("up", src, dst, family, mat, ch, float(rng.uniform(-30.0, -6.0)))))
+    for order, corner in ((6, 20000.0), (8, 20000.0), (10, 20000.0), (12, 20000.0), (12, 21000.0), (8, 16000.0))[
+            :(2 if quick else 6)]:
+        plan.append((f"butter{order}_{corner / 1000:g}k_48000_x", f"butter{order}-{corner / 1000:g}k", "lowpass",
+                     ("butter", 48000, order, corner, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    for fs, order, corner, stop_db in ((48000, 7, 17500.0, 60.0), (44100, 7, 17500.0, 70.0), (48000, 6, 18000.0, 50.0),
+                                       (96000, 8, 17000.0, 80.0), (48000, 5, 16000.0, 60.0))[:(2 if quick else 5)]:
+        plan.append((f"ellip{order}_{corner / 1000:g}k_{stop_db:g}db_{fs}", f"ellip{order}-{corner / 1000:g}k", "lowpass",
+                     ("ellip", fs, order, corner, stop_db, pick(mats), float(rng.uniform(-24.0, -8.0)))))
     return plan
 
 
@@ -296,6 +350,12 @@ def _build(spec, rng, seconds):
     if kind == "butter":
         _k, fs, order, corner, mat, level = spec
         sos = sps.butter(order, corner, fs=fs, output="sos")
+        x = sps.sosfilt(sos, multichannel(mat, fs, 2, seconds, rng), axis=0)
+        return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+    if kind == "ellip":
+        # a mastering elliptic low-pass (0.1 dB ripple) with a modest stop band
+        _k, fs, order, corner, stop_db, mat, level = spec
+        sos = sps.ellip(order, 0.1, stop_db, corner, fs=fs, output="sos")
         x = sps.sosfilt(sos, multichannel(mat, fs, 2, seconds, rng), axis=0)
         return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
     if kind == "shelf":

@@ -162,7 +162,7 @@ def test_match_rate_ranges():
     assert bw.match_rate(22050.0, [32000, 44100, 48000])[0] == 44100
     assert bw.match_rate(21000.0, [32000, 44100, 48000])[0] == 44100
     assert bw.match_rate(23400.0, [32000, 44100, 48000])[0] == 48000
-    assert bw.match_rate(17000.0, [32000, 44100, 48000])[0] is None      # 0.77 of 22.05 kHz, 1.06 of 16 kHz
+    assert bw.match_rate(16400.0, [44100, 48000])[0] is None             # 0.74 of 22.05 kHz, 0.68 of 24 kHz
     assert bw.match_rate(10800.0, [22050, 24000])[0] == 22050            # 0.98 of 11.025 kHz, 0.90 of 12 kHz
     assert bw.match_rate(3900.0, [8000, 11025])[0] == 8000
 
@@ -485,3 +485,132 @@ def test_tuning_corpus_slice_meets_the_targets():
     assert t["found"] >= 0.95 * t["pos"], bad
     assert t["right"] >= 0.95 * t["found"], bad
     assert t["fa"] <= 0.01 * t["neg"], bad
+
+
+def test_match_rate_reads_where_the_stop_band_begins():
+    # Arithmetic of the rule (house choice, see STOP_RATIO_RANGE and LEAKY_*): a converter's stop band begins at
+    # the old Nyquist whatever its pass band, so the start of the stop band names the rate.
+    cands = [32000, 44100, 48000]
+    # a 48 kHz source through a medium converter: -6 dB at 21.9 kHz is 0.91 of 24 kHz but 0.99 of 22.05 kHz;
+    # its stop band from 23.6 kHz is 0.983 of 24 kHz and 1.070 of 22.05 kHz (too late for a converter from
+    # 44.1 kHz that rejects its images, too early for a leaky one)
+    assert bw.match_rate(21900.0, cands)[0] == 44100                       # the -6 dB point alone misleads
+    assert bw.match_rate(21900.0, cands, 23600.0, leaks=lambda r: False)[0] == 48000
+    # a quick converter from 44.1 kHz: -6 dB at only 0.81 of 22.05 kHz, stop band from 0.96 of it
+    assert bw.match_rate(17900.0, cands, 21200.0)[0] == 44100
+    # a leaky design centred on the old Nyquist (scipy's default): -6 dB at 1.0, stop band from 1.16 of it
+    assert bw.match_rate(22050.0, cands, 25590.0)[0] == 44100
+    # ... but only where images confirm the leak
+    assert bw.match_rate(22050.0, cands, 25590.0, leaks=lambda r: False)[0] is None
+    # a long design centred on the old Nyquist: -6 dB at 0.995, stop band from 1.034 of it, images under the floor
+    assert bw.match_rate(21940.0, cands, 22800.0, leaks=lambda r: False)[0] == 44100
+    # an elliptic low-pass at 17.5 kHz: -6 dB at 0.81 of 22.05 kHz, stop band from 0.857 of it (analytic, below)
+    assert bw.match_rate(17825.0, cands, 18905.0)[0] is None
+
+
+def test_resample_poly_default_design_is_a_leaky_fall():
+    # Analytic, from the taps of scipy's documented default design (Kaiser beta 5, 10 zero crossings either
+    # side, cutoff at the old Nyquist): -6 dB at 1.00 of the old Nyquist, -40 dB at 1.145, -54 dB (its first
+    # side lobes) at 1.16 -- the leaky fall of LEAKY_MIN_EDGE_RATIO and LEAKY_STOP_RATIO_RANGE, whatever the
+    # ratio of rates.
+    for src, dst in ((44100, 96000), (44100, 48000), (22050, 48000)):
+        fr = Fraction(dst, src)
+        up, down = fr.numerator, fr.denominator
+        h = _resample_poly_default_taps(up, down)
+        f, H = sps.freqz(h / up, worN=1 << 19, fs=src * up)
+        db = 20 * np.log10(np.maximum(np.abs(H), 1e-300))
+        nyq = src / 2.0
+        f6 = f[np.nonzero(db < -6.0)[0][0]] / nyq
+        f50 = f[np.nonzero((db < -50.0) & (f > nyq))[0][0]] / nyq
+        assert f6 == pytest.approx(1.0, abs=0.005)
+        assert f50 == pytest.approx(1.157, abs=0.005)
+        assert bw.LEAKY_MIN_EDGE_RATIO <= f6 and bw.LEAKY_STOP_RATIO_RANGE[0] <= f50 <= bw.LEAKY_STOP_RATIO_RANGE[1]
+
+
+def _butterworth_db(f, n, fc, fs):
+    """|H|^2 of scipy's digital Butterworth design in dB (analytic): the bilinear transform of the analog
+    prototype 1 / (1 + (w / wc)^(2n)) with prewarping, so w / wc = tan(pi f / fs) / tan(pi fc / fs)."""
+    x = np.tan(np.pi * np.asarray(f) / fs) / np.tan(np.pi * fc / fs)
+    return -10.0 * np.log10(1.0 + x ** (2 * n))
+
+
+@pytest.mark.parametrize("order,corner", [(8, 16000.0), (8, 20000.0), (10, 20000.0), (12, 20000.0), (6, 20000.0)])
+def test_butterworth_in_a_48k_file_is_not_a_conversion(order, corner):
+    # The false alarms of issue 11's validation set were Butterworth low-passes in 48 kHz files.  Analytic:
+    # the design's level (checked against scipy's response) puts its -6 dB point at 1.01-1.03 of the corner,
+    # and its fall continues to the file's Nyquist; an 8th-order one at 16 kHz is -6 dB at 16.44 kHz (1.03
+    # of 32 kHz's Nyquist) but -60 dB only at 20.35 kHz, 1.27 of it: a leaky fall without images.
+    fs = 48000
+    sos = sps.butter(order, corner, fs=fs, output="sos")
+    f, H = sps.sosfreqz(sos, worN=1 << 14, fs=fs)
+    ok = f < 23000.0
+    assert np.max(np.abs(20 * np.log10(np.abs(H[ok])) - _butterworth_db(f[ok], order, corner, fs))) < 1e-6
+    if (order, corner) == (8, 16000.0):
+        f60 = f[np.nonzero(_butterworth_db(f, order, corner, fs) < -60.0)[0][0]]
+        assert f60 == pytest.approx(20351.0, abs=5.0)
+    for seed in (31, 32):
+        rng = np.random.default_rng([seed, order, int(corner)])
+        x = 0.1 * rng.standard_normal(int(fs * 1.5))
+        if seed == 32:      # pink-ish material, less energy near the corner
+            x = sps.lfilter([1.0], [1.0, -0.9], x) * 0.3
+        r = assess(quantise24(sps.sosfilt(sos, x), rng), fs)
+        assert r.upsampled_from_hz is None, r.note
+
+
+def test_elliptic_mastering_low_pass_is_a_band_limit():
+    # A 7th-order elliptic low-pass (0.1 dB ripple, 60 dB stop band) at 17.5 kHz in a 48 kHz file: analytic
+    # from its design, -6 dB at 17.8 kHz (0.81 of 22.05 kHz, inside the -6 dB range of a quick converter) but
+    # its stop band begins at 18.9 kHz, 0.857 of 22.05 kHz: no converter from 44.1 kHz stops that early.
+    fs = 48000
+    sos = sps.ellip(7, 0.1, 60.0, 17500.0, fs=fs, output="sos")
+    f, H = sps.sosfreqz(sos, worN=1 << 14, fs=fs)
+    db = 20 * np.log10(np.maximum(np.abs(H), 1e-300))
+    stop = f[np.nonzero(db < -59.9)[0][0]] / 22050.0
+    assert stop == pytest.approx(0.857, abs=0.003) and stop < bw.STOP_RATIO_RANGE[0]
+    rng = np.random.default_rng(33)
+    r = assess(quantise24(sps.sosfilt(sos, 0.1 * rng.standard_normal(int(fs * 1.5))), rng), fs)
+    assert r.upsampled_from_hz is None, r.note
+    assert r.band_limit_hz == pytest.approx(17800.0, abs=250.0)
+
+
+def _catmull_rom(x, src, dst):
+    """Cubic (Catmull-Rom) interpolation from ``src`` to ``dst`` Hz: a 4-point interpolator with no
+    anti-imaging filter beyond its own kernel."""
+    pos = np.arange(len(x) * dst // src) * (src / dst)
+    i = np.floor(pos + 1e-9).astype(np.int64)
+    t = pos - i
+    xp = np.concatenate([x[:1], x, x[-1:], x[-1:]])
+    a, b, c, d = xp[i], xp[i + 1], xp[i + 2], xp[i + 3]
+    return b + 0.5 * t * (c - a + t * (2 * a - 5 * b + 4 * c - d + t * (3 * (b - c) + d - a)))
+
+
+@pytest.mark.parametrize("src,dst", [(8000, 48000), (16000, 48000), (22050, 96000), (24000, 48000)])
+def test_cubic_interpolation_is_found_by_its_mirror(src, dst):
+    # Analytic: an interpolator with kernel spectrum K leaves Y(f) = K(f) X(f) below the old Nyquist and the
+    # image K(src - f) X(f) at src - f, so the fine structure of the spectrum repeats, bin for bin, mirrored
+    # about src / 2 (and about every multiple of it): the mirror test correlates near 1 at the source rate
+    # (lowest such rate) and near 0 on native noise.
+    rng = np.random.default_rng([34, src])
+    y = _catmull_rom(0.1 * rng.standard_normal(int(src * 1.5)), src, dst)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    m = r.measurements()
+    assert m["upsampled_evidence"] == "images" and m["upsampled_mirror_rate_hz"] == src
+    native = quantise24(0.1 * rng.standard_normal(int(dst * 1.5)), rng)
+    fe = SpectralFrontEnd(dst, 1, native.size)
+    fe.process(native[:, None])
+    corr = bw.mirror_correlations(fe.finish().ltas_total, 10.0, dst, bw.format_floor_db(24, False, dst // 10))
+    assert corr and max(abs(c) for c, _b in corr.values()) < 0.3
+    assert assess(native, dst).upsampled_from_hz is None
+
+
+def test_images_at_a_multiple_name_the_mirrored_divisor():
+    # Pure: the imaging analyzer tests 32 kHz and up, so a 16 kHz source shows as images "from 32 kHz";
+    # the spectrum's mirror about 8 kHz names 16 kHz, a divisor of it.  A mirror rate that does not divide
+    # the images' rate changes nothing.
+    from masterqc.measure import provenance
+    imaging = [{"verdict": "defect", "source_rate_hz": 32000, "coherence": 0.9, "image_level_db": -20.0}]
+    m = provenance.from_images({"upsampled_from_hz": None, "upsampled_mirror_rate_hz": 16000, "imaging": imaging})
+    assert m["upsampled_from_hz"] == 16000 and m["upsampled_evidence"] == "images"
+    m = provenance.from_images({"upsampled_from_hz": None, "upsampled_mirror_rate_hz": 24000, "imaging": imaging})
+    assert m["upsampled_from_hz"] == 32000

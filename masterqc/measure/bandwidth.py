@@ -38,11 +38,19 @@ Method (:func:`assess`):
    filter falls (from -6 dB to its bottom within :data:`CONVERTER_MAX_FALL_RATIO`
    of the source Nyquist, faster in dB as it goes: :data:`CONVERTER_MAX_SHAPE_RATIO`;
    no brick wall but at a standard Nyquist: :data:`BRICK_WALL_RATIO_TOLERANCE`)
-   reads as upsampling from that rate; any other cliff is a band limit.  Sources
+   reads as upsampling from that rate; any other cliff is a band limit.  Which rate: where the fall
+   reaches its stop band (within 6 dB of the stop level) names it (:data:`STOP_RATIO_RANGE`: a
+   converter that rejects its images begins its stop band at the old Nyquist, however early its pass
+   band ends), or, for a leaky design centred on the old Nyquist, the -6 dB point does, provided the
+   fall past it is made of images (:data:`LEAKY_STOP_RATIO_RANGE`, :func:`mirror_correlation`).  Sources
    of 16 and 22.05 kHz are searched at twice, 8 and 11.025 kHz at four times the
    frequency scale (:func:`scale_for`): a resampler's transition scales with its
    source rate, so the same windows and slopes apply.
-4. Without a cliff, the effective bandwidth is the highest frequency where
+4. Mirror test (:func:`mirror_correlations`, in :func:`assess`): an upsampler whose filter lets images
+   through (cubic and other short interpolators) copies the spectrum's fine structure, bin for bin, to
+   the mirror frequencies about the old Nyquist; where it does over broadband content
+   (:data:`MIRROR_ALONE_CORRELATION`) the lowest such rate is the source, whatever a cliff says.
+5. Without a cliff, the effective bandwidth is the highest frequency where
    ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
    no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
    (median of ``C`` over 1-10 kHz);
@@ -127,22 +135,57 @@ ABOVE_FLOOR_DB = 10.0
 #: 1.0; high-quality converters end their pass band at 0.91-0.97 and reach their stop band by 1.0, so their
 #: -6 dB point lies at 0.93-0.99; low-quality converters pass 80 % of the band (at -3 dB) and cross -6 dB near 0.83;
 #: 1.03 leaves room for the 10 Hz bins and the closing of the envelope)
-EDGE_RATIO_RANGE = (0.80, 1.03)
+EDGE_RATIO_RANGE = (0.75, 1.04)
 #: most likely edge position relative to the source Nyquist (own reasoning: high-quality converters and FFT
 #: resamplers, the commonest, put it at 0.95-1.0); where two candidates both explain an edge, the one whose
 #: ratio lies nearer this wins
 EDGE_RATIO_TYPICAL = 0.97
+#: where a converter's stop band begins, relative to the source Nyquist (the point where the fall first comes
+#: within 6 dB of the stop level): a converter that rejects its images puts the start of its stop band at the old
+#: Nyquist frequency whatever its pass band (0.8-0.97) or its length, so this point is the best estimator of the
+#: source rate.  Own reasoning from the designs: libsamplerate's converters reach it at 0.94-1.01 of the old Nyquist
+#: as read on the envelope (the -6 dB point of its fastest converter lies at only 0.82); an elliptic low-pass whose
+#: -6 dB point happens to sit at 0.8-0.9 of a standard Nyquist reaches its stop band at 0.85-0.92.
+STOP_RATIO_RANGE = (0.92, 1.06)
+#: most likely position of the start of the stop band (own reasoning, see STOP_RATIO_RANGE)
+STOP_RATIO_TYPICAL = 0.96
+#: the stop band "begins" where the fall first comes within this many dB of the stop level (own reasoning: on
+#: speech and sparse material the floor above a cliff is uneven by several dB, and a closer reading wanders
+#: 5-10 % of the old Nyquist above where the converter's stop band begins)
+STOP_TOLERANCE_DB = 15.0
+#: a short windowed-sinc design centred on the old Nyquist (scipy's resample_poly default, a short Kaiser or Hann
+#: window) lets its transition run past it: -6 dB at 0.92-1.04 of the old Nyquist and the stop band reached only at
+#: 1.02-1.35 of it.  Such a "leaky" fall explains a rate when its -6 dB point lies at or above LEAKY_MIN_EDGE_RATIO
+#: and its stop band begins within LEAKY_STOP_RATIO_RANGE (own reasoning: scipy's default design is -6 dB at the old
+#: Nyquist exactly and falls to its -54 dB side lobes 15-18 % higher, see tests/test_bandwidth.py)
+LEAKY_MIN_EDGE_RATIO = 0.92
+LEAKY_STOP_RATIO_RANGE = (1.02, 1.35)
+#: a leaky fall is made of images: just above the old Nyquist (LEAKY_MIRROR_BAND_RATIO of it, mirrored) the
+#: spectrum's fine structure repeats the content just below it, correlation at least LEAKY_MIN_MIRROR_CORRELATION
+#: (own reasoning: a Butterworth or elliptic low-pass whose slow fall reaches its floor 1.1-1.3 times above a
+#: standard Nyquist has independent content on either side of it, correlation about 0)
+LEAKY_MIRROR_BAND_RATIO = (0.86, 0.98)
+#: a design centred on the old Nyquist with a long window (-6 dB within CENTRED_EDGE_TOLERANCE of 1.0, stop band
+#: by CENTRED_MAX_STOP_RATIO) leaks too little to show images above the floor, and needs none to be read as leaky
+#: (own reasoning: resample_poly with a 40-zero-crossing Kaiser design reads -6 dB at 0.995 and its stop band
+#: from 1.034 of the old Nyquist; libsamplerate's medium converter from 48 kHz, whose -6 dB point falls at 0.99
+#: of 22.05 kHz, reaches its stop band only at 1.053-1.062 of it)
+CENTRED_EDGE_TOLERANCE = 0.02
+CENTRED_MAX_STOP_RATIO = 1.045
+LEAKY_MIN_MIRROR_CORRELATION = 0.4
 #: a converter's transition is a windowed sinc's: its amplitude falls roughly linearly through the cutoff, so
 #: in dB the fall accelerates, and it takes less span from -20 dB to -40 dB than from -6 dB to -20 dB (ratio
 #: 0.6-0.8 as read on the envelope for windowed-sinc converters whose fall is wide enough to read); a Butterworth
 #: low-pass falls at most a constant number of dB per octave, and even warped by the bilinear transform next to
 #: the file's Nyquist it needs about as much span for the second step as for the first (1.04 analytically for
 #: 8th order at 20 kHz in a 48 kHz file; 0.90-0.99 as read on the envelope of music).  Cliffs at or above this
-#: ratio are low-passes, not conversions (own reasoning).
-CONVERTER_MAX_SHAPE_RATIO = 0.85
+#: ratio are low-passes, not conversions (own reasoning; libsamplerate's medium converter reads 0.57-0.86).
+CONVERTER_MAX_SHAPE_RATIO = 0.9
 #: ... read only where the fall from -6 to -40 dB spans at least this much (on the search's scale), Hz: the
-#: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning)
-SHAPE_MIN_SPAN_HZ = 1300.0
+#: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning:
+#: Butterworth low-passes of order 10-12 at 20-21 kHz in a 48 kHz file fall from -6 to -40 dB within 0.88-1.3 kHz
+#: and must be read (analytic shape ratio of the 12th-order one at 20 kHz: 1.14); narrower falls are not resolved)
+SHAPE_MIN_SPAN_HZ = 850.0
 #: a brick wall (narrower than CONVERTER_MIN_WIDTH_RATIO) counts as a converter only this close to a standard
 #: Nyquist: an FFT resampler zeroes every bin above the old Nyquist exactly, while codec and filter brick walls sit
 #: anywhere (own reasoning)
@@ -184,6 +227,22 @@ CANDIDATE_SPACING_HZ = 250.0
 MAX_CANDIDATES = 6
 #: a time segment needs this many analysed frames to be judged on its own
 SEGMENT_MIN_FRAMES = 10
+#: mirror test (:func:`mirror_correlations`): the fine structure of the spectrum over this band of a candidate's
+#: Nyquist is compared with its mirror image about that Nyquist (own reasoning: an upsampler whose filter lets
+#: images through -- cubic or other short interpolators, short windowed sincs -- copies the spectrum below the old
+#: Nyquist, bin for bin, to the mirror frequencies above it; the upper 5 % is left out, where a converter's
+#: transition mixes the two)
+MIRROR_BAND_RATIO = (0.55, 0.95)
+#: fine structure: the level in dB less its running mean over this width, Hz (own reasoning: wider than the
+#: 10 Hz bins' noise, narrower than any spectral envelope)
+MIRROR_DETREND_HZ = 310.0
+#: correlation of the fine structure with its mirror that names a source rate together with images or a cliff
+#: (own reasoning: a copied spectrum correlates 0.9-1.0 with its mirror; native music, speech and noise stay
+#: within +-0.3, a harmonic voice whose partials happen to fall symmetric about a Nyquist up to about 0.55)
+MIRROR_MIN_CORRELATION = 0.8
+#: ... and on its own, where the content below the old Nyquist is broadband (median bin within
+#: BROADBAND_GAP_DB of the envelope: a harmonic series symmetric about a Nyquist cannot make it), house choice
+MIRROR_ALONE_CORRELATION = 0.9
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
@@ -216,6 +275,9 @@ MEASUREMENT_SCHEMA = {
                                                             "upsampled_confidence_fraction": NUMBER_OR_NULL,
                                                             "effective_bandwidth_hz": NUMBER_OR_NULL}}), NO_UNIT,
         'the bandwidth assessment per stretch of the file'),
+    "upsampled_mirror_rate_hz": measured({"type": ["integer", "null"]}, 'hz',
+        'lowest standard rate whose Nyquist the spectrum is mirrored about, bin for bin (images of an upsampler '
+        'without a proper filter); null when none'),
     "upsampled_where_s": measured(TIME_RANGES, 's',
         'time ranges where upsampling was found'),
 }
@@ -238,6 +300,7 @@ class BandwidthResult:
     channels: list | None = None
     edge_ratio: float | None = None
     evidence: str | None = None
+    mirror_rate_hz: int | None = None
 
     def measurements(self) -> dict:
         return {
@@ -254,6 +317,7 @@ class BandwidthResult:
             "untestable_source_rates_hz": list(self.untestable_hz),
             "bandwidth_note": self.note,
             "bandwidth_segments": list(self.segments),
+            "upsampled_mirror_rate_hz": self.mirror_rate_hz,
             "upsampled_where_s": [list(w) for w in self.where_s],
         }
 
@@ -441,7 +505,8 @@ def _cliff_at(env_db, bin_hz, top_bin, e, post):
     return {"edge_bin": e, "pass_db": pass_db, "stop_db": post, "drop_db": depth,
             "edge_hz": f6, "slope_db_per_khz": slope, "f1_hz": pts[1.0], "f3_hz": pts[3.0],
             "f30_hz": pts[30.0], "fb_hz": fb, "f20_hz": f20, "f40_hz": f40, "slope_below_db_per_khz": below, "steepest_db_per_khz": steepest,
-            "tilt_db_per_khz": tilt, "slope_after_db_per_khz": after}
+            "tilt_db_per_khz": tilt, "slope_after_db_per_khz": after,
+            "stop_start_hz": _crossing(env_db, start, top_bin, post + STOP_TOLERANCE_DB, bin_hz) or fb}
 
 
 def transition_width_hz(cliff: dict) -> float:
@@ -506,16 +571,115 @@ def _crossing(env_db, start, stop, level, bin_hz):
     return (k - 1 + float(np.clip(frac, 0.0, 1.0))) * bin_hz
 
 
-def match_rate(edge_hz: float, candidates) -> tuple[int | None, float]:
-    """The candidate rate whose Nyquist best explains an edge, and the position score (0..1)."""
+def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
+               leaks=None) -> tuple[int | None, float]:
+    """The candidate rate whose Nyquist best explains an edge, and the fit score (0..1).
+
+    Without ``stop_start_hz`` only the -6 dB point is read (:data:`EDGE_RATIO_RANGE`, nearest
+    :data:`EDGE_RATIO_TYPICAL` wins).  With it (where the fall reaches the stop band, see
+    :data:`STOP_RATIO_RANGE`) a candidate must explain both: either its stop band begins at the old
+    Nyquist (any pass band), the fit being how near :data:`STOP_RATIO_TYPICAL`; and/or the fall is a leaky
+    design's centred on the old Nyquist (:data:`LEAKY_MIN_EDGE_RATIO`, :data:`LEAKY_STOP_RATIO_RANGE`),
+    the fit being how near 1.0 its -6 dB point lies, and ``leaks(rate)`` (when given) confirms images
+    just above the old Nyquist; the better fit counts.
+    """
     best, score = None, 0.0
     for r in candidates:
         ratio = edge_hz / (r / 2.0)
-        if EDGE_RATIO_RANGE[0] <= ratio <= EDGE_RATIO_RANGE[1]:
-            s = 1.0 - abs(ratio - EDGE_RATIO_TYPICAL) / 0.15
-            if best is None or s > score:
-                best, score = r, max(0.0, s)
+        if not EDGE_RATIO_RANGE[0] <= ratio <= EDGE_RATIO_RANGE[1]:
+            continue
+        if stop_start_hz is None:
+            s = max(0.0, 1.0 - abs(ratio - EDGE_RATIO_TYPICAL) / 0.15)
+        else:
+            stop = stop_start_hz / (r / 2.0)
+            fits = []
+            if STOP_RATIO_RANGE[0] <= stop <= STOP_RATIO_RANGE[1]:
+                fits.append(1.0 - abs(stop - STOP_RATIO_TYPICAL) / 0.1)
+            if (ratio >= LEAKY_MIN_EDGE_RATIO and LEAKY_STOP_RATIO_RANGE[0] <= stop <= LEAKY_STOP_RATIO_RANGE[1]
+                    and ((abs(ratio - 1.0) <= CENTRED_EDGE_TOLERANCE and stop <= CENTRED_MAX_STOP_RATIO)
+                         or leaks is None or leaks(r))):
+                fits.append(1.0 - abs(ratio - 1.0) / 0.1)
+            if not fits:
+                continue
+            s = max(0.05, max(fits))
+        if best is None or s > score:
+            best, score = r, s
     return best, score
+
+
+def fine_structure_db(power, bin_hz: float) -> np.ndarray:
+    """The level in dB less its running mean over :data:`MIRROR_DETREND_HZ` (the spectrum's fine structure)."""
+    level = _db(power)
+    return level - uniform_filter1d(level, max(3, int(round(MIRROR_DETREND_HZ / bin_hz)) | 1), mode="nearest")
+
+
+def mirror_correlation(fine, bin_hz: float, rate_hz: float, band, limit_bin: int):
+    """Correlation of ``fine`` over ``f`` in ``band`` (fractions of ``rate_hz / 2``) with ``fine(rate_hz - f)``
+    (linear interpolation between bins), the mirrored bins kept below ``limit_bin``; ``(correlation, k, m0, frac)``
+    or None when fewer than 20 bins remain."""
+    h = rate_hz / 2.0
+    lo = max(band[0] * h, rate_hz - (limit_bin - 2) * bin_hz)
+    k = np.arange(int(math.ceil(lo / bin_hz)), int(band[1] * h / bin_hz))
+    if k.size < 20:
+        return None
+    m = (rate_hz - k * bin_hz) / bin_hz
+    m0 = np.floor(m).astype(np.int64)
+    frac = m - m0
+    a = fine[k]
+    b = fine[m0] * (1.0 - frac) + fine[m0 + 1] * frac
+    sa, sb = float(np.std(a)), float(np.std(b))
+    if sa <= 0.0 or sb <= 0.0:
+        return None
+    return float(np.mean((a - a.mean()) * (b - b.mean())) / (sa * sb)), k, m0, frac
+
+
+def mirror_correlations(power, bin_hz: float, fs: float, floor_db: float) -> dict:
+    """``{rate: (correlation, broadband)}`` of the mirror test for every standard rate below ``fs``.
+
+    The fine structure ``d`` of the spectrum (:func:`fine_structure_db`) over ``f`` in
+    :data:`MIRROR_BAND_RATIO` of a candidate's Nyquist ``h`` (and below the file's Nyquist once
+    mirrored) is correlated with ``d(2h - f)``.  An upsampler that lets images through leaves
+    ``|Y(2h - f)| = |H(2h - f)| |X(f)|``: the same fine structure, so a correlation near 1;
+    independent content above and below ``h`` gives about 0.  ``broadband``: the median bin below
+    ``h`` lies within :data:`BROADBAND_GAP_DB` of the closed envelope.  Candidates with less than a
+    fifth of a band to compare, whose bands lie at the format's floor, or whose band below ``h`` lies more
+    than :data:`TESTABLE_MAX_BELOW_MAIN_DB` under the programme's main band (median of 1-10 kHz), are
+    left out.
+    """
+    level = _db(power)
+    fine = fine_structure_db(power, bin_hz)
+    limit = min(level.size, _bins(0.99 * fs / 2.0, bin_hz))
+    env = None
+    main = None
+    out = {}
+    for r in CANDIDATE_RATES_HZ:
+        if r >= fs:
+            continue
+        got = mirror_correlation(fine, bin_hz, r, MIRROR_BAND_RATIO, limit)
+        if got is None or got[1].size < 0.2 * (r / 2.0) / bin_hz:
+            continue
+        c, k, m0, frac = got
+        up_level = level[m0] * (1.0 - frac) + level[m0 + 1] * frac
+        if float(np.median(up_level)) < floor_db + ABOVE_FLOOR_DB or float(np.median(level[k])) < floor_db + ABOVE_FLOOR_DB:
+            continue
+        if main is None:
+            main = float(np.median(level[_bins(1000.0, bin_hz):_bins(10000.0, bin_hz) + 1]))
+        if float(np.median(level[k])) < main - TESTABLE_MAX_BELOW_MAIN_DB:
+            # only programme content counts: a multi-stage converter's last stage mirrors the floor left by
+            # the stages before it (a 16 kHz source made 192 kHz by way of 96 kHz mirrors its floor about 48 kHz)
+            continue
+        if env is None:
+            env = envelope_db(power, bin_hz)
+        broadband = float(np.median(level[k] - env[k])) >= -BROADBAND_GAP_DB
+        out[r] = (round(c, 3), broadband)
+    return out
+
+
+def mirror_rate(corr: dict, threshold: float, broadband_only: bool = False):
+    """The lowest rate of :func:`mirror_correlations` whose correlation reaches ``threshold`` (images
+    copy the spectrum about every multiple of the old Nyquist, so the lowest such rate is the source)."""
+    ok = [r for r, (c, bb) in corr.items() if c >= threshold and (bb or not broadband_only)]
+    return min(ok) if ok else None
 
 
 def assess(fe, info) -> BandwidthResult:
@@ -539,6 +703,20 @@ def assess(fe, info) -> BandwidthResult:
     n_ch = int(fe.ltas.shape[0])
     if len(labels) != n_ch:
         labels = [f"ch{i + 1}" for i in range(n_ch)]
+    mirrored = None
+    if fe.frames and np.any(fe.ltas_total > 0):
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        corr = mirror_correlations(fe.ltas_total, fe.bin_hz, fs, floor)
+        out.mirror_rate_hz = mirror_rate(corr, MIRROR_MIN_CORRELATION)
+        alone = mirror_rate(corr, MIRROR_ALONE_CORRELATION, broadband_only=True)
+        if alone is not None and out.upsampled_from_hz != alone:
+            # images copy the spectrum bin for bin about the old Nyquist: exact where a cliff is a reading
+            mirrored = alone
+            c = corr[alone][0]
+            out.upsampled_from_hz, out.confidence, out.evidence = int(alone), round(min(1.0, 0.5 + 0.5 * c), 2), "images"
+            out.edge_ratio, out.band_limit_hz = None, None
+            out.note = (f"converted up from {alone / 1000:g} kHz without a proper filter: the spectrum above "
+                        f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -559,6 +737,12 @@ def assess(fe, info) -> BandwidthResult:
         floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
         env = envelope_db(fe.ltas[c], fe.bin_hz)
         return rate in testable_candidates(fs, env, fe.bin_hz, floor)[0]
+    if mirrored is not None and n_ch > 1:
+        # the channels that carry the mirror themselves
+        floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+        for c in range(n_ch):
+            cc = mirror_correlations(fe.ltas[c], fe.bin_hz, fs, floor).get(mirrored)
+            per_channel[c].upsampled_from_hz = mirrored if cc and cc[0] >= MIRROR_MIN_CORRELATION else None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
     if out.upsampled_from_hz is None and up_ch:
@@ -699,7 +883,15 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     a, z = max(0, cliff["edge_bin"] + _bins(PASS_WINDOW_HZ[0], b)), cliff["edge_bin"] + _bins(PRE_WINDOW_HZ[1], b)
     gap = _db(total[a:z]) - env[a:z]
     tonal = float(np.median(gap)) < -BROADBAND_GAP_DB if z > a else False
-    rate, pos = match_rate(cliff["edge_hz"], cands)
+    fine = None
+
+    def leaks(r_scaled):
+        nonlocal fine
+        if fine is None:
+            fine = fine_structure_db(total, bin_hz)
+        got = mirror_correlation(fine, bin_hz, r_scaled / scale, LEAKY_MIRROR_BAND_RATIO, min(len(fine), top))
+        return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
+    rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
@@ -713,7 +905,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
                 and (brick or shape_ratio(cliff) < CONVERTER_MAX_SHAPE_RATIO)):
             rate = None
     real = dict(cliff)
-    for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz"):
+    for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz", "stop_start_hz"):
         if real.get(k) is not None:
             real[k] = real[k] / scale
     for k in ("slope_db_per_khz", "slope_below_db_per_khz", "steepest_db_per_khz", "tilt_db_per_khz",

@@ -6,7 +6,9 @@ interpolation, zero stuffing) leaves no cliff but mirror images, which the imagi
 analyzer (:mod:`masterqc.measure.imaging`) finds and attributes to a source rate.  A
 file with such images *is* upsampled, so :func:`combine` lets ``upsampled_from_hz``
 say so too, after every analyzer has finished.  The imaging analyzer tests source rates of
-32 kHz and up only, so for a lower source it names a multiple of the rate; the sample
+32 kHz and up only, so for a lower source it names a multiple of the rate; where the bandwidth
+analysis sees the spectrum mirrored about a divisor's Nyquist (``upsampled_mirror_rate_hz``), that
+divisor is the source rate.  The sample
 patterns of :mod:`masterqc.measure.interpolation` (runs of held samples, straight lines,
 stuffed zeros) name the rate itself and take precedence over images and cliffs: they are
 exact, not statistical.  Pure: measurements in, measurements out.
@@ -74,6 +76,11 @@ def from_images(m: dict) -> dict:
     if src is None:
         return m
     rate = int(round(float(src["source_rate_hz"])))
+    mirror = m.get("upsampled_mirror_rate_hz")
+    if mirror and int(mirror) < rate and rate % int(mirror) == 0:
+        # images mirror the spectrum about every multiple of the old Nyquist: the imaging analyzer, which
+        # tests 32 kHz and up, names a multiple of a lower source rate whose own mirror the spectrum shows
+        rate = int(mirror)
     coh = float(src.get("coherence") or 0.0)
     level = src.get("image_level_db")
     m["upsampled_from_hz"] = rate
