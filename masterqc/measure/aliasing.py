@@ -345,6 +345,156 @@ def fold_evidence(evident: int, instances: int, chance: float) -> bool:
             and evident >= CHANCE_FACTOR * chance + 1.0)
 
 
+# ---------------------------------------------------------------- sample-sharp steps
+# A waveform with a jump (sawtooth wrap, square or pulse edge, hard-sync reset) that is evaluated
+# at the sample instants without band-limiting ("naive" synthesis, digital hard clipping of a
+# square-like wave) keeps its spectrum falling as 1/k past Nyquist, and all of it folds.  In the
+# samples this shows as a jump between two neighbouring samples with nothing around it: the
+# samples on either side lie on smooth curves.  A band-limited jump cannot do that: its samples
+# ring around the jump (a sampled ideal low-pass step overshoots by 9 % of the jump at some
+# sample near it, whatever its position between samples), and so does every minimum-phase or
+# oversampled-and-filtered variant.  The test fits each large jump's neighbourhood with a smooth
+# curve plus an ideal step between two samples, and counts the jumps that fit to a small fraction
+# of their size.
+#: frames of fs/10 samples (100 ms), at most this many spread over the file (cost bound)
+STEP_FRAME_DIVISOR = 10
+MAX_STEP_FRAMES = 48
+#: neighbourhood of a jump: this many samples either side, fitted by a quadratic plus a step
+#: between the two middle samples (own reasoning: long enough to hold the ringing of a
+#: band-limited step that decays as 1/(pi*n), short enough to rarely hold a second jump of a
+#: voice up to about 3.5 kHz)
+STEP_HALF_WINDOW = 6
+#: a jump is sample-sharp when the fit's RMS residual is below this fraction of the jump.  House
+#: choice, checked on the tuning corpus: band-limited twins of every naive waveform never go
+#: below about 0.027 (their ringing), naive voices sit below 0.002 even with pink noise 30 dB
+#: under them
+STEP_MAX_RESIDUAL = 0.01
+#: jumps considered are at least this fraction of the frame's RMS (house choice: a naive voice's
+#: jump is 2-4 times its RMS; a small floor keeps quantisation steps of a low-level passage out)
+STEP_MIN_JUMP_REL = 0.15
+#: at most this many of a frame's largest jumps are fitted per channel (cost bound)
+STEP_MAX_CANDIDATES = 1500
+#: folded content from sample-sharp jumps: at least this many, in at least STEP_MIN_FRAMES
+#: frames, and at least this share of the jumps fitted (house choice: the tuning corpus' native
+#: material, speech and band-limited synthesis show none at all; naive voices show hundreds)
+MIN_SHARP_STEPS = 40
+STEP_MIN_FRAMES = 3
+MIN_SHARP_SHARE = 0.05
+#: standard sampling rates whose sample grid a held (sample-and-hold) upsampling would put its
+#: jumps on; when the sharp jumps line up on one of these grids (phase concentration above
+#: STEP_GRID_CONCENTRATION) they come from holding each source sample, not from folding
+HOLD_SOURCE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000)
+STEP_GRID_CONCENTRATION = 0.8
+
+
+def _step_design(half: int = STEP_HALF_WINDOW):
+    n = np.arange(-half, half + 1, dtype=float)
+    a = np.stack([np.ones_like(n), n / half, (n / half) ** 2, (n > 0).astype(float)], axis=1)
+    return a, np.linalg.pinv(a)
+
+
+_STEP_A, _STEP_PINV = _step_design()
+
+
+def sharp_steps(x: np.ndarray, half: int = STEP_HALF_WINDOW, max_candidates: int = STEP_MAX_CANDIDATES):
+    """The jumps of one channel's frame ``x`` and how sharp they are.
+
+    Candidates are local maxima of ``|x[i+1] - x[i]|`` at least :data:`STEP_MIN_JUMP_REL` of the
+    frame's RMS, the largest ``max_candidates`` of them.  Each neighbourhood ``x[i-half .. i+half+1]``
+    is fitted (least squares) by ``a + b*n + c*n^2 + J*[n > 0]`` (the jump between samples i and
+    i+1).  Returns ``(index, jump, residual)`` arrays: the sample before each jump, the fitted jump
+    J, and the fit's RMS residual over |J|.
+    """
+    x = np.asarray(x, dtype=float)
+    if x.size < 2 * half + 4:
+        return np.zeros(0, dtype=np.int64), np.zeros(0), np.zeros(0)
+    rms = math.sqrt(float(np.mean(x * x)))
+    a = np.abs(np.diff(x))
+    if rms == 0.0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0), np.zeros(0)
+    inner = a[1:-1]
+    cand = np.nonzero((inner > a[:-2]) & (inner >= a[2:]) & (inner >= STEP_MIN_JUMP_REL * rms))[0] + 1
+    cand = cand[(cand >= half) & (cand < x.size - half - 1)]
+    if cand.size > max_candidates:
+        cand = np.sort(cand[np.argsort(a[cand])[::-1][:max_candidates]])
+    if cand.size == 0:
+        return cand, np.zeros(0), np.zeros(0)
+    seg = x[cand[:, None] + np.arange(-half, half + 1)[None, :]]
+    coef = seg @ _STEP_PINV.T
+    res = seg - coef @ _STEP_A.T
+    jump = coef[:, 3]
+    resid = np.sqrt(np.mean(res * res, axis=1)) / np.maximum(np.abs(jump), 1e-300)
+    keep = np.abs(jump) >= STEP_MIN_JUMP_REL * rms
+    return cand[keep], jump[keep], resid[keep]
+
+
+def sharp_step_frame(frame: np.ndarray) -> dict:
+    """:func:`sharp_steps` on every channel of a ``(samples, channels)`` frame: ``fitted`` (jumps
+    fitted), ``sharp`` (those with residual below :data:`STEP_MAX_RESIDUAL`), ``sharp_jump_sq`` (sum of
+    their squared jumps), ``power`` (sum over channels of the mean square), ``positions`` (frame
+    indices of the sharp jumps)."""
+    out = {"fitted": 0, "sharp": 0, "sharp_jump_sq": 0.0, "power": 0.0, "positions": []}
+    for c in range(frame.shape[1]):
+        x = frame[:, c]
+        out["power"] += float(np.mean(x * x))
+        idx, jump, resid = sharp_steps(x)
+        ok = resid < STEP_MAX_RESIDUAL
+        out["fitted"] += int(idx.size)
+        out["sharp"] += int(ok.sum())
+        out["sharp_jump_sq"] += float(np.sum(jump[ok] ** 2))
+        out["positions"].append(idx[ok])
+    out["positions"] = np.concatenate(out["positions"]) if out["positions"] else np.zeros(0, dtype=np.int64)
+    return out
+
+
+def step_grid(positions_abs: np.ndarray, fs: float):
+    """Whether the sharp jumps at absolute sample ``positions_abs`` sit on a fixed sample grid, which
+    makes them no evidence of folding: ``("hold", rate_hz)`` when they line up on the sample grid
+    of a standard source rate (a held upsampling from that rate; only rates at least
+    2*:data:`STEP_HALF_WINDOW` + 2 samples apart are considered, the fit needs one jump per
+    neighbourhood), ``("period", samples)`` when they repeat every whole number of samples (a
+    waveform whose period is a whole number of samples is an exactly periodic sequence: whatever
+    folded lands on its own harmonics), else None.  "Line up" means a phase concentration above
+    :data:`STEP_GRID_CONCENTRATION`."""
+    if positions_abs.size < MIN_SHARP_STEPS:
+        return None
+    # the jump sits between samples i and i+1: a held source sample began at i+1
+    p = np.sort(positions_abs.astype(np.int64)) + 1
+    for r in HOLD_SOURCE_RATES_HZ:
+        if fs / r < 2 * STEP_HALF_WINDOW + 2:
+            continue
+        z = np.exp(2j * math.pi * np.mod(p * r, int(fs)) / fs)
+        if abs(complex(np.mean(z))) > STEP_GRID_CONCENTRATION:
+            return ("hold", int(r))
+    gaps = np.diff(p)
+    gaps = gaps[gaps >= 2]
+    if gaps.size:
+        period = int(np.bincount(gaps).argmax())
+        z = np.exp(2j * math.pi * np.mod(p, period) / period)
+        if abs(complex(np.mean(z))) > STEP_GRID_CONCENTRATION:
+            return ("period", period)
+    return None
+
+
+def step_evidence(sharp: int, fitted: int, frames_with_sharp: int) -> bool:
+    """Folded content from sample-sharp jumps: enough of them, spread over enough frames, and a
+    share of the jumps fitted that chance coincidences cannot give."""
+    return (sharp >= MIN_SHARP_STEPS and frames_with_sharp >= STEP_MIN_FRAMES
+            and sharp >= MIN_SHARP_SHARE * fitted)
+
+
+def step_alias_ratio_db(jump_sq: float, samples: float, power: float):
+    """Alias-to-signal power ratio, dB, that sample-sharp jumps imply.  A jump J at a random place
+    between samples has the spectrum ``J/(j*2*pi*f)``; a train of them at r jumps per second has
+    the one-sided power density ``r*J^2/(2*pi^2*f^2)``, whose integral above Nyquist,
+    ``r*J^2/(pi^2*fs)``, all folds.  Over N samples (r*T jumps) that is ``sum(J^2)/(pi^2*N)``,
+    compared with the mean square of the same frames (``power``).  A lower bound: jumps that
+    collide with others are not counted."""
+    if jump_sq <= 0 or power <= 0 or samples <= 0:
+        return None
+    return 10.0 * math.log10(jump_sq / (math.pi ** 2 * samples) / power)
+
+
 def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: float):
     """Partials of two short frames ``dt_s`` apart in the upper half of the band (where a
     fold at Nyquist shows): ``(freq_hz, slope_hz_per_s, power)`` arrays for every peak of
@@ -456,6 +606,20 @@ class AliasingAnalyzer(Analyzer):
                 "polyphonic_instances_with_folds": {"type": "integer"},
                 "polyphonic_instances_expected_by_chance": {"type": "number"},
                 "folded_partials": {"type": "integer"},
+                "step_frames": {"type": "integer"},
+                "step_frames_with_sharp_steps": {"type": "integer"},
+                "sharp_steps": {"type": "integer", "description": (
+                    "jumps between two neighbouring samples with no band-limited transition around them "
+                    "(a smooth curve plus an ideal step fits the samples either side to within "
+                    "1 % of the jump)")},
+                "steps_fitted": {"type": "integer"},
+                "sharp_steps_on_hold_grid_hz": {**NUMBER_OR_NULL, "description": (
+                    "the source rate whose sample grid the sharp jumps line up on (a held upsampling, "
+                    "not folding); null otherwise")},
+                "sharp_steps_period_samples": {"type": ["integer", "null"], "description": (
+                    "the whole number of samples the sharp jumps repeat at, when they do (the waveform is "
+                    "then exactly periodic at the sampling rate and its folds land on its harmonics); "
+                    "null otherwise")},
                 "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
                 "fold_examples": {"type": "array", "items": {"type": "object"}},
             },
@@ -492,6 +656,12 @@ class AliasingAnalyzer(Analyzer):
                               self.n_poly // 2, seed=4)
         self.pick_poly = FramePicker(starts, self.n_poly, ch)
         self.poly = []     # per polyphonic frame: (start, result dict or None, has signal)
+        # sample-sharp step test frames
+        self.n_step = max(4 * STEP_HALF_WINDOW, int(round(self.fs / STEP_FRAME_DIVISOR)))
+        starts = frame_starts(int(info.frames), self.n_step, int(extra.get("max_step_frames", MAX_STEP_FRAMES)),
+                              self.n_step, seed=5)
+        self.pick_step = FramePicker(starts, self.n_step, ch)
+        self.steps = []    # per step frame: (start, result dict)
 
     def process(self, block) -> None:
         for start, frame in self.pick_long.feed(block):
@@ -506,6 +676,9 @@ class AliasingAnalyzer(Analyzer):
             has_signal = bool(np.any(frame))
             r = polyphonic_fold_frame(power, self.fs / self.n_poly, self.fs) if has_signal else None
             self.poly.append((int(start), r, has_signal))
+        for start, frame in self.pick_step.feed(block):
+            if np.any(frame):
+                self.steps.append((int(start), sharp_step_frame(np.asarray(frame, dtype=np.float64))))
         for tr in self.trackers:
             n, hop, win = tr["n"], tr["hop"], tr["window"]
             for start, frame in tr["picker"].feed(block):
@@ -541,6 +714,18 @@ class AliasingAnalyzer(Analyzer):
             h_p = sum(r["harmonic_power"] for _s, r in poly_frames)
             a_p = sum(r["alias_power"] for _s, r in poly_frames)
             score = 10.0 * math.log10(a_p / h_p) if a_p > 0 and h_p > 0 else None
+        # sample-sharp jumps
+        step_frames = [(s, r) for s, r in self.steps if r["sharp"] > 0]
+        step_sharp = sum(r["sharp"] for _s, r in self.steps)
+        step_fitted = sum(r["fitted"] for _s, r in self.steps)
+        pos_abs = (np.concatenate([s + r["positions"] for s, r in step_frames]) if step_frames
+                   else np.zeros(0, dtype=np.int64))
+        grid = step_grid(pos_abs, self.fs)
+        step_hit = grid is None and step_evidence(step_sharp, step_fitted, len(step_frames))
+        if score is None and step_hit:
+            score = step_alias_ratio_db(sum(r["sharp_jump_sq"] for _s, r in step_frames),
+                                        float(self.n_step * len(step_frames)),
+                                        sum(r["power"] for _s, r in step_frames))
         bound = None
         if score is None and assess and h > 0:
             b = sum(r["bound_power"] for _s, r in assess)
@@ -551,6 +736,9 @@ class AliasingAnalyzer(Analyzer):
         f0s = [r["f0_hz"] for r in tonal] or [f for _s, r in poly_assess for f in r["f0_hz"][:1]]
         n_poly = len(self.poly)
         fraction = (len(poly_assess) / n_poly) if n_poly else None
+        n_step = int(self.pick_step.starts.size)
+        if n_step and step_frames and grid is None:
+            fraction = max(fraction or 0.0, len(step_frames) / n_step)
         detail = {
             "reason": None,
             "tonal_frames": len(tonal),
@@ -567,6 +755,12 @@ class AliasingAnalyzer(Analyzer):
             "polyphonic_instances_with_folds": int(evident_n),
             "polyphonic_instances_expected_by_chance": round(float(chance), 2),
             "folded_partials": len(reflections),
+            "step_frames": n_step,
+            "step_frames_with_sharp_steps": len(step_frames),
+            "sharp_steps": int(step_sharp),
+            "steps_fitted": int(step_fitted),
+            "sharp_steps_on_hold_grid_hz": grid[1] if grid and grid[0] == "hold" else None,
+            "sharp_steps_period_samples": grid[1] if grid and grid[0] == "period" else None,
             "where_s": [],
             "fold_examples": [],
         }
@@ -577,14 +771,17 @@ class AliasingAnalyzer(Analyzer):
         # MIN_LINE_ONLY_FRAMES frames: a syllable or two of speech can look like one series)
         line_hit = line_hit and ((instances == 0 and len(evident) >= MIN_LINE_ONLY_FRAMES)
                                  or (instances > 0 and evident_n >= chance + 2.0 and evident_n >= 0.25 * instances))
-        detected = line_hit or poly_hit or bool(reflections)
-        assessable = bool(assess) or bool(poly_assess) or bool(reflections)
+        detected = line_hit or poly_hit or bool(reflections) or step_hit
+        assessable = bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
         if poly_hit:
             dur = self.n_poly / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in poly_frames]
+        if step_hit:
+            dur = self.n_step / self.fs
+            detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in step_frames]
         if reflections:
             detail["where_s"] = list(detail["where_s"]) + [(t1, t2) for t1, _f1, t2, _f2 in reflections]
             detail["fold_examples"] = [{"rising_hz": round(f1, 1), "at_s": round(t1, 3),
@@ -611,6 +808,10 @@ class AliasingAnalyzer(Analyzer):
             if reflections:
                 parts.append(f"{len(reflections)} partial track(s) reflected at Nyquist (falling while "
                              "rising partials approach it)")
+            if step_hit:
+                parts.append(f"{step_sharp} of {step_fitted} jumps in the waveform are sample-sharp (no band-limited "
+                             "transition around them): a waveform evaluated at the sample instants without "
+                             "band-limiting, whose partials above Nyquist all fold")
             detail["reason"] = "; ".join(parts)
         else:
             if score is not None and score >= ALIAS_SCORE_MIN_DB:
@@ -643,6 +844,8 @@ class AliasingAnalyzer(Analyzer):
                     "track_frame_samples": [tr["n"] for tr in self.trackers],
                     "track_hop_samples": [tr["hop"] for tr in self.trackers],
                     "track_pairs": [int(tr["picker"].starts.size) for tr in self.trackers],
+                    "step_frame_samples": self.n_step, "step_frames": int(self.pick_step.starts.size),
+                    "step_max_residual": STEP_MAX_RESIDUAL,
                     "alias_score_min_db": ALIAS_SCORE_MIN_DB, "min_evident_share": MIN_EVIDENT_SHARE, "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
         return AnalyzerResult(measurements=measurements, settings=settings)
 
