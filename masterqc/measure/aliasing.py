@@ -334,18 +334,25 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
         # a control comb stays clear of the true combs and the grid by the search window
         # (tolerance, counted up to 1 bin) plus the window's main lobe (2 bins)
         guard = max(CONTROL_GUARD, (min(float(np.median(tol[ok])), bin_hz) + 2.0 * bin_hz) / f0)
+        # every control shift at once (rows): shifts landing near the grid or a fold zone's offset
+        # are dropped, then each row's positions are checked and read as for the true comb
+        shifts = np.asarray(CONTROL_SHIFTS, dtype=float)
+        moved = np.mod(offsets[None, :] + shifts[:, None], 1.0)
+        refs = np.concatenate([offsets, [0.0, 1.0]])
+        dist = np.abs(moved[:, :, None] - refs[None, None, :])
+        shifts = shifts[~np.any(np.minimum(dist, 1.0 - dist) < guard, axis=(1, 2))]
         controls = []
-        for shift in CONTROL_SHIFTS:
-            moved = np.mod(offsets + shift, 1.0)
-            dist = np.abs(moved[:, None] - np.concatenate([offsets, [0.0, 1.0]])[None, :])
-            if np.any(np.minimum(dist, 1.0 - dist) < guard):
-                continue
-            pos = base + shift * f0
-            d_c, jc = _nearest_distance(harm, pos)
-            okc = zone_ok & (pos > 3 * bin_hz) & (pos < POLY_TOP_FRACTION * fs) & \
-                (d_c > POLY_GUARD_BINS * bin_hz + tol + harm_unc[jc])
-            if int(okc.sum()) >= MIN_CLEAR_FOLDS:
-                controls.append(float(np.mean(mean_level(pos, tol, okc)[0])))
+        if shifts.size:
+            pos = base[None, :] + shifts[:, None] * f0
+            d_c, jc = _nearest_distance(harm, pos.ravel())
+            okc = zone_ok[None, :] & (pos > 3 * bin_hz) & (pos < POLY_TOP_FRACTION * fs) & \
+                (d_c.reshape(pos.shape) > POLY_GUARD_BINS * bin_hz + tol[None, :] + harm_unc[jc].reshape(pos.shape))
+            half = np.clip(np.ceil(tol / bin_hz - 0.5).astype(np.int64), 0, 2)
+            ibc = np.clip(np.round(pos / bin_hz).astype(np.int64), 0, level.size - 1)
+            lv = np.clip(np.choose(np.broadcast_to(half, pos.shape), [lm[ibc] for lm in level_max]), 0.0, 40.0)
+            cnt = okc.sum(axis=1)
+            means = np.where(okc, lv, 0.0).sum(axis=1) / np.maximum(cnt, 1)
+            controls = [float(v) for v in means[cnt >= MIN_CLEAR_FOLDS]]
         if len(controls) < MIN_CONTROLS:
             continue
         out["tested"] += int(ok.sum())
