@@ -70,7 +70,6 @@ KNOWN_MISSES = {
     ("imaging", "corpus_validation"):
         "ffmpeg's default resampler leaks a narrow band of images just above the source Nyquist, which is "
         "labelled clean but found as imaging",
-    ("folded", "corpus_validation"): "polyphonic naive pulse voices and unfiltered decimation are missed",
     ("folded", "corpus_tuning_aliasing"): "sample dropping (one sample in every 12) and a 2:1 decimation of "
                                           "music with a vibrato are missed (13 of 15 found)",
 }
