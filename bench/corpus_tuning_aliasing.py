@@ -23,6 +23,20 @@ Groups and what they expect (``expect["aliasing_detected"]``):
 - ``noise-like`` (False): noise beds, raw and dropped 2:1 (never judged: they carry no
   evidence of their own folding; counted as a false alarm only if called aliased).
 
+Added cases (after the ones above, so that those keep their content), each set to an RMS level
+drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
+
+- ``naive-synth`` (True): 2-3 voices per kind with a deeper vibrato (0.8-1.5 %) and a
+  noise bed 30-50 dB under the voices (families ``naive-<kind>-deep``).
+- ``band-limited-synth`` (False): their twins made by naive synthesis at 16 times the rate,
+  brought down by ``resample_poly`` (an oversampled oscillator with a proper decimation
+  filter; family ``oversampled-<kind>``).
+- ``decimation`` (True): tonal music mixed with noise, rendered at 2x/3x and dropped 2:1 or
+  3:1, with a steeper harmonic roll-off (1/k^1.2..1/k^1.8) and the noise 20-35 dB under the
+  music (``drop-2``, ``drop-3``), and sample dropping that deletes one sample in every N
+  (N = 12 or 20, ``drop-every-n``).
+- ``filtered-decimation`` (False): the same sources through ``resample_poly``.
+
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
 """
@@ -300,9 +314,27 @@ def _kind_params(kind: str, rng):
     return lambda i: (kind, 0.5, 1.0)
 
 
-def _case(name, family, group, fs, x, expect, peak=None, rng=None):
+def set_rms(x: np.ndarray, rms_dbfs: float, max_peak: float = 0.989) -> np.ndarray:
+    """``x`` scaled to an RMS of ``rms_dbfs`` dBFS, or lower where its peak would pass ``max_peak``."""
+    r = float(np.sqrt(np.mean(x ** 2)))
+    if r == 0.0:
+        return x
+    g = 10 ** (rms_dbfs / 20) / r
+    return x * min(g, max_peak / float(np.max(np.abs(x))))
+
+
+def drop_every(x: np.ndarray, n: int) -> np.ndarray:
+    """Sample dropping: delete one sample in every ``n`` (a rate change by (n-1)/n, no filter)."""
+    keep = np.ones(x.size, dtype=bool)
+    keep[n - 1::n] = False
+    return x[keep]
+
+
+def _case(name, family, group, fs, x, expect, peak=None, rng=None, rms_dbfs=None):
     x = np.asarray(x, dtype=float)
-    if peak is not None:
+    if rms_dbfs is not None:
+        x = set_rms(x, rms_dbfs)
+    elif peak is not None:
         x = normalise(x, peak)
     return Case(name=name, set=SET, family=family, group=group, rate_hz=int(fs),
                 audio=np.clip(x, -1.0, 1.0).reshape(-1, 1), expect=expect)
@@ -396,3 +428,53 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         nz = pink(int(seconds * fs) * 2, sub)
         yield _case(f"noise-dropped-{fs // 100}-{seed}", "drop-2", "noise-like", fs, nz[::2],
                     {"aliasing_detected": False}, 0.5)
+
+    # added cases: deeper vibrato with a noise bed, oversampled-and-filtered twins, steeper music
+    # for decimation, sample dropping one in N; RMS levels -30..-6 dBFS
+    for kind in NAIVE_KINDS:
+        for fs in ((44100, 48000) if not quick else (48000,)):
+            if quick and kind in ("square", "hardsync"):
+                continue
+            idx += 1
+            sub = rng_for(idx)
+            notes = voices(seconds, fs, sub, int(sub.integers(2, 4)), 110.0, 1000.0)
+            kinds = _kind_params(kind, sub)
+            depth = sub.uniform(0.008, 0.015)
+            state = sub.integers(1 << 62)
+            x = synth(notes, kinds, seconds, fs, np.random.default_rng(state), naive=True, depth=depth)
+            over = 16
+            notes_o = [(p * over, n * over, f) for p, n, f in notes]
+            y = synth(notes_o, kinds, seconds, fs * over, np.random.default_rng(state), naive=True, depth=depth)
+            y = sps.resample_poly(y, 1, over)[:x.size]
+            bed = 10 ** (-sub.uniform(30, 50) / 20) * float(np.sqrt(np.mean(x ** 2))) * pink(x.size, sub)
+            level = sub.uniform(-30, -6)
+            stem = f"naive-{kind}-deep-{fs // 100}-{seed}"
+            yield _case(stem, f"naive-{kind}-deep", "naive-synth", fs, x + bed, {"aliasing_detected": True},
+                        rms_dbfs=level)
+            yield _case(f"oversampled-{stem}", f"oversampled-{kind}", "band-limited-synth", fs, y + bed,
+                        {"aliasing_detected": False}, rms_dbfs=level)
+    plans = ((2, 44100), (3, 48000), (2, 48000)) if not quick else ((2, 44100),)
+    for factor, fs in plans:
+        idx += 1
+        sub = rng_for(idx)
+        fs_in = factor * fs
+        x = tonal_music(seconds, fs_in, sub, 0.45 * fs_in, vibrato=True, tilt=sub.uniform(1.2, 1.8))
+        x = x / (np.sqrt(np.mean(x ** 2)) + 1e-30) + 10 ** (-sub.uniform(20, 35) / 20) * pink(x.size, sub)
+        level = sub.uniform(-30, -6)
+        stem = f"drop-{factor}-steep-{fs // 100}-{seed}"
+        yield _case(stem, f"drop-{factor}", "decimation", fs, x[::factor], {"aliasing_detected": True},
+                    rms_dbfs=level)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(x, 1, factor), {"aliasing_detected": False}, rms_dbfs=level)
+    for n_drop, fs in (((12, 48000), (20, 44100)) if not quick else ((12, 48000),)):
+        idx += 1
+        sub = rng_for(idx)
+        fs_in = int(round(fs * n_drop / (n_drop - 1)))
+        x = music_mix(seconds, fs_in, sub, 0.45 * fs_in, sub.uniform(-40, -25))
+        level = sub.uniform(-30, -6)
+        stem = f"drop-every-{n_drop}-{fs // 100}-{seed}"
+        yield _case(stem, "drop-every-n", "decimation", fs, drop_every(x, n_drop), {"aliasing_detected": True},
+                    rms_dbfs=level)
+        g = math.gcd(fs_in, fs)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(x, fs // g, fs_in // g), {"aliasing_detected": False}, rms_dbfs=level)

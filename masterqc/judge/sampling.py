@@ -324,6 +324,12 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
             s += (f" (e.g. {float(e['rising_hz']) / 1000:.2f} kHz at {float(e['at_s']):.2f} s, back at "
                   f"{float(e['folded_hz']) / 1000:.2f} kHz at {float(e['folded_at_s']):.2f} s)")
         sentences.append(s + ".")
+    sharp = detail.get("sharp_steps")
+    if sharp and not detail.get("sharp_steps_on_hold_grid_hz") and not detail.get("sharp_steps_period_samples") \
+            and "sample-sharp" in str(detail.get("reason") or ""):
+        sentences.append(f"{'Also, the' if sentences else f'Folded content found {span}: the'} waveform jumps "
+                         f"between two samples with no band-limited transition ({sharp} such jumps): its "
+                         f"partials above {nyq} keep their strength and all fold back.")
     if not sentences:
         sentences.append(f"Folded content found {span}.")
     ratio = m.get("alias_to_harmonic_ratio_db")
