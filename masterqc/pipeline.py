@@ -181,12 +181,13 @@ def rejudge(result: dict, loaded_spec, base_options=None, source: str = "result"
     return out
 
 
-def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=()) -> dict:
+def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), pages: str = "all") -> dict:
     """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``; return it with ``outputs``.
 
     ``keep``: rendered formats already on disk and fresh (not written again).  A failing
     renderer adds an ``error`` finding (``report.render``) and the JSON is still written;
     error results get their reports too (the page says why the file was not judged).
+    ``pages``: "all" (certificate and appendix) or "summary" (the certificate alone).
     """
     result = dict(result)
     os.makedirs(out_dir, exist_ok=True)
@@ -195,7 +196,7 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=()) -> dict
     if todo:
         try:
             from masterqc.report.render import write_reports
-            for p in write_reports(result, out_dir, stem, todo) or []:
+            for p in write_reports(result, out_dir, stem, todo, pages=pages) or []:
                 outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
         except Exception as exc:  # a renderer bug must not lose the judged result
             from masterqc.judge.core import Finding, verdict
@@ -241,7 +242,7 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
 
 
 def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
-               base_options=None, progress=None, stored: dict | None = None, keep=()) -> dict:
+               base_options=None, progress=None, stored: dict | None = None, keep=(), pages: str = "all") -> dict:
     """The per-file step: measure ``path`` (or judge ``stored`` measurements again, see
     :func:`measure_and_judge`), judge it against ``loaded_spec`` and write ``<stem>.<format>``
     into ``out_dir`` (:func:`write_outputs`; ``keep``: fresh reports not written again).
@@ -253,7 +254,7 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
     """
     stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
     result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored)
-    return write_outputs(result, out_dir, stem, formats, keep=keep)
+    return write_outputs(result, out_dir, stem, formats, keep=keep, pages=pages)
 
 
 def unique_stems(paths) -> list[str]:

@@ -12,7 +12,7 @@ _CHECKS = [
     ("bit_depths", "format.bit_depth", "bit depth", "bit_depth", lambda v: f"{v}-bit", "bits"),
     ("channel_counts", "format.channels", "channel count", "channels", str, None),
     ("channel_layouts", "format.channel_layout", "channel layout", "channel_layout",
-     lambda v: "[" + ", ".join(v) + "]", None),
+     lambda v: " ".join(v), None),
 ]
 
 
