@@ -274,7 +274,7 @@ def judge(section, result: dict) -> list[Finding]:
     if s.ultrasonic_loudness_change is not None:
         change = m.get("ultrasonic_loudness_change_lu")
         f = check_limits("sampling.ultrasonic_loudness_change",
-                         "loudness change a low-pass at the ultrasonic band edge would cause (magnitude)",
+                         "loudness change from a low-pass at the ultrasonic band edge (magnitude)",
                          None if change is None else abs(change), s.ultrasonic_loudness_change,
                          missing_reason=_ultra_reason(result, m, "ultrasonic_loudness_change_lu"))
         out.append(f)

@@ -219,6 +219,9 @@ def _aliasing(f: Finding, m: dict, result: dict) -> str | None:
 
 def _ultrasonic(f: Finding, m: dict, result: dict) -> str | None:
     over = _over(f)
+    if f.check == "sampling.ultrasonic_loudness_change":
+        return ("Low-pass the master at about 20 kHz: the ultrasonic content alone changes its loudness by "
+                f"{_n(f.measured)} LU" + (f", {_n(over)} LU more than the spec allows." if over is not None else "."))
     amount = f" by at least {_n(over)} dB" if over is not None else ""
     return f"Low-pass the master at about 20 kHz to reduce the ultrasonic content{amount}."
 

@@ -207,7 +207,8 @@ def _check_label(check: str) -> str:
     fixed = []
     for w in words:
         for low, spelled in (("lufs", "LUFS"), ("dbtp", "dBTP"), ("isrc", "ISRC"), ("bext", "bext"),
-                             ("lra", "LRA"), ("dc", "DC"), ("lfe", "LFE"), ("db", "dB")):
+                             ("lra", "LRA"), ("dc", "DC"), ("lfe", "LFE"), ("db", "dB"),
+                             ("nyquist", "Nyquist")):
             w = re.sub(rf"\b{low}\b", spelled, w, flags=re.I)
         fixed.append(w)
     return " \u00b7 ".join(fixed)
@@ -567,8 +568,8 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     overs = _ranges_of(m.get("true_peak_over_ranges_s"))
     ceiling, source = _ceiling(result)
     if overs or "true_peak_over_ranges_s" in m:
-        rows.append(("Overs above the ceiling", f"{len(overs)}" + (
-            f" at or above {fmt.number(ceiling, 1)} dBTP" if ceiling is not None else "")))
+        rows.append(("Overs above the ceiling", (f"{len(overs):,}" if overs else "none") + (
+            f" (ceiling {fmt.number(ceiling, 1)} dBTP)" if ceiling is not None else "")))
     env = parse_series(result.get("series")).pair("true_peak_envelope_dbtp", "true_peak_envelope_time_s")
     if env is None:
         return {"svg": None, "rows": rows, "present": bool(rows),
