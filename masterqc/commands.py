@@ -117,6 +117,8 @@ def _add_judge(sub) -> None:
                                      "(no audio is read)")
     j.add_argument("results", nargs="+", metavar="RESULT.json", help="results written by check or measure --json")
     j.add_argument("--spec", required=True, help="delivery spec (YAML) to judge against")
+    j.add_argument("--spec-library", action="append", metavar="DIR",
+                   help="a folder whose specs extends: may name besides the spec's own folder (repeatable)")
     j.add_argument("--out", default=".", help="folder for the new results (default: the current folder)")
     j.add_argument("--format", dest="formats", default="json",
                    help=f"comma-separated outputs from {','.join(ALL_FORMATS)} (default: json)")
@@ -135,7 +137,7 @@ def cmd_judge(args) -> int:
     from masterqc.spec.loader import load_spec
 
     formats = formats_for(args.formats)
-    loaded = load_spec(args.spec)  # SpecError -> exit 2
+    loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2
     judged = [rejudge(load_result(p), loaded, source=str(p)) for p in args.results]  # UsageError -> exit 2
     stems = unique_stems([Path(p).name for p in args.results])
     outcomes = []

@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import copy
 from dataclasses import dataclass
-from typing import Any, Literal
+from typing import Any, Callable, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
@@ -130,6 +130,14 @@ class Check:
     ``where``: a measurement key of time ranges attached to a missed finding, or None.
     ``below_gate_after_s``: for loudness values, a programme at least this long whose value
         is null lies below the -70 LUFS gate (judged as below the measurable range, not skipped).
+    ``kind``: how it is judged -- ``"limits"`` (a numeric requirement, :func:`check_limits`),
+        ``"allowed"`` (an allowed-values list, :func:`check_allowed`), both by
+        :func:`masterqc.judge.core.judge_checks`; or ``"section"``: judged by the section's own
+        judge (the declaration still names the spec key, field, unit and null meaning, and
+        ``check`` may end in ``*`` for a family of finding ids such as one per bext field).
+    ``show``: for ``"allowed"``, how a value is written in the message (default ``str``).
+    ``null_when``: ``(field, value)``: the measured value counts as null when that other field
+        has that value (a channel layout guessed from nothing is not a layout).
     """
 
     spec_key: str
@@ -140,6 +148,15 @@ class Check:
     null_means: str
     where: str | None = None
     below_gate_after_s: float | None = None
+    kind: Literal["limits", "allowed", "section"] = "limits"
+    show: Callable[[Any], str] | None = None
+    null_when: tuple[str, Any] | None = None
+
+    def covers(self, finding_check: str) -> bool:
+        """True when a finding with check id ``finding_check`` is one of this declaration's."""
+        if self.check.endswith("*"):
+            return finding_check.startswith(self.check[:-1])
+        return finding_check == self.check or finding_check.startswith(self.check + ".")
 
 
 # ---------------------------------------------------------------- models

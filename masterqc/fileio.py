@@ -56,13 +56,19 @@ def current_umask() -> int:
     return old
 
 
-def write_atomic(path, data: bytes) -> None:
+def write_atomic(path, data: bytes, durable: bool = True) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder, then ``os.replace``.
 
     A reader sees the old file or the whole new one, never a partial one; on any
     error (including KeyboardInterrupt) the temporary file is removed and the
     error propagates.  The file gets mode ``0666 & ~umask`` (0644 under the usual
     022), like any file the user creates, not the 0600 of a temporary file.
+
+    ``durable``: the data reaches the disk (``fsync``) before the rename, so a power
+    cut leaves the old file or the new one.  ``False`` keeps the rename atomic for
+    readers but leaves flushing to the system: for files a later run writes again
+    anyway (a batch's per-file results, whose record of truth is the run ledger),
+    where one ``fsync`` per file costs more than judging the file.
     """
     path = os.fspath(path)
     folder = os.path.dirname(os.path.abspath(path))
@@ -75,8 +81,9 @@ def write_atomic(path, data: bytes) -> None:
             os.chmod(tmp, mode)
         with os.fdopen(fd, "wb") as f:
             f.write(data)
-            f.flush()
-            os.fsync(f.fileno())
+            if durable:
+                f.flush()
+                os.fsync(f.fileno())
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -163,7 +170,12 @@ def text_safe(text: str) -> str:
     Other characters, newlines included, are kept: the formats that take the
     text escape them their own way.
     """
-    if not any(0xD800 <= ord(c) <= 0xDFFF for c in text):
+    if text.isascii():
         return text
+    try:
+        text.encode("utf-8")  # fails exactly when the text holds a surrogate (U+D800..U+DFFF)
+        return text
+    except UnicodeEncodeError:
+        pass
     return "".join(f"\\x{ord(c) - 0xDC00:02x}" if 0xDC80 <= ord(c) <= 0xDCFF
                    else (f"\\u{ord(c):04x}" if 0xD800 <= ord(c) <= 0xDFFF else c) for c in text)

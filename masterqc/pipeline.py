@@ -41,17 +41,22 @@ from masterqc.jsonutil import jsonable
 from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
 
 
-def result_json_text(result: dict) -> str:
+def result_json_text(result: dict, encoded: dict | None = None) -> str:
     """The result as JSON text: one top-level key per line and one finding per line, the rest compact.
 
     (Fully indented JSON goes through Python's pure encoder and costs more than judging; this layout
     keeps the C encoder and stays readable where people look: the verdict and the findings.)
+    ``encoded``: ``{key: (value, text)}`` of values already encoded (:func:`parse_result_text`); a
+    key's text is used as it is while the result holds that very value object.
     """
     def dumps(v):
         return json.dumps(v, ensure_ascii=False, allow_nan=False)
     lines = []
     for key, value in result.items():
-        if key == "findings" and isinstance(value, list) and value:
+        hit = encoded.get(key) if encoded else None
+        if hit is not None and hit[0] is value:
+            body = hit[1]
+        elif key == "findings" and isinstance(value, list) and value:
             body = "[\n" + ",\n".join(f"    {dumps(f)}" for f in value) + "\n  ]"
         else:
             body = dumps(value)
@@ -59,13 +64,44 @@ def result_json_text(result: dict) -> str:
     return "{\n" + ",\n".join(lines) + "\n}\n"
 
 
-def write_json(result: dict, path) -> None:
-    """The result as JSON (:func:`result_json_text`; non-finite floats as null), atomically."""
+def parse_result_text(text: str) -> tuple[dict, dict]:
+    """``(result, encoded)`` of JSON text: ``encoded`` maps each top-level key written on a line of
+    its own (the layout of :func:`result_json_text`) to ``(value, its text)``, so writing the value
+    again costs no encoding; text in another layout gives an empty ``encoded``."""
+    result = json.loads(text)
+    encoded = {}
+    lines = text.split("\n")
+    if not isinstance(result, dict) or lines[0] != "{":
+        return result, encoded
+    decoder = json.JSONDecoder()
+    for i, line in enumerate(lines[1:-1], start=1):
+        if not line.startswith('  "'):
+            continue  # a finding's line, or the end of the findings list
+        try:
+            key, end = decoder.raw_decode(line, 2)
+        except ValueError:
+            return result, {}
+        if not isinstance(key, str) or not line.startswith(": ", end) or key not in result:
+            return result, {}
+        body = line[end + 2:]
+        if body == "[":  # the findings list spans lines: encoded afresh
+            continue
+        if lines[i + 1] != "}":  # every key's line but the last ends with the separating comma
+            if not body.endswith(","):
+                return result, {}
+            body = body[:-1]
+        encoded[key] = (result[key], body)
+    return result, encoded
+
+
+def write_json(result: dict, path, durable: bool = True, encoded: dict | None = None) -> None:
+    """The result as JSON (:func:`result_json_text`; non-finite floats as null), atomically
+    (``durable``: see :func:`masterqc.fileio.write_atomic`; ``encoded``: see :func:`result_json_text`)."""
     try:  # fast path: a result that is already plain JSON (measured results are)
-        data = result_json_text(result).encode("utf-8")
+        data = result_json_text(result, encoded).encode("utf-8")
     except (TypeError, ValueError, UnicodeEncodeError):
         data = result_json_text(jsonable(result)).encode("utf-8")
-    write_atomic(path, data)
+    write_atomic(path, data, durable=durable)
 
 
 def was_unreadable(result: dict) -> bool:
@@ -175,18 +211,26 @@ def rejudge(result: dict, loaded_spec, base_options=None, source: str = "result"
     if not can_rejudge(result, options):
         raise NeedsMeasuring(f"{source}: cannot be judged again without measuring: {_settings_difference(result, options)}"
                              " (run masterqc check on the master)")
-    measured = {k: v for k, v in result.items() if k not in JUDGED_KEYS}
+    return judge_stored(result, loaded_spec, options.measurement_key())
+
+
+def judge_stored(stored: dict, loaded_spec, measurement_key: str) -> dict:
+    """Stored measurements (made under ``measurement_key``) judged against ``loaded_spec`` (pure)."""
+    measured = {k: v for k, v in stored.items() if k not in JUDGED_KEYS}
     out = judge_result(measured, loaded_spec)
-    out["provenance"] = {"how": "rejudged", "measured_with": options.measurement_key()}
+    out["provenance"] = {"how": "rejudged", "measured_with": measurement_key}
     return out
 
 
-def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), pages: str = "all") -> dict:
+def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable: bool = True,
+                  encoded: dict | None = None, pages: str = "all") -> dict:
     """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``; return it with ``outputs``.
 
     ``keep``: rendered formats already on disk and fresh (not written again).  A failing
     renderer adds an ``error`` finding (``report.render``) and the JSON is still written;
     error results get their reports too (the page says why the file was not judged).
+    ``durable``: the JSON is flushed to disk before it replaces the old one
+    (:func:`masterqc.fileio.write_atomic`); ``encoded``: values already encoded (:func:`result_json_text`).
     ``pages``: "all" (certificate and appendix) or "summary" (the certificate alone).
     """
     result = dict(result)
@@ -209,26 +253,29 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), pages: 
         outputs["json"] = f"{stem}.json"
     result["outputs"] = outputs
     if "json" in formats:
-        write_json(result, os.path.join(out_dir, f"{stem}.json"))
+        write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable, encoded=encoded)
     return result
 
 
-def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, stored: dict | None = None) -> dict:
+def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, stored: dict | None = None,
+                      options=None) -> dict:
     """The judged result of one master: from ``stored`` measurements when they were made with the
-    settings the spec asks for (no audio read), else measured now.  Never raises for a bad master."""
-    from masterqc.measure.engine import measure_file
-
-    options = options_for(loaded_spec, base_options)
+    settings the spec asks for (no audio read; ``file.path`` becomes ``path``), else measured now.
+    ``options``: the :class:`MeasureOptions` the spec asks for, when the caller has them already
+    (:func:`options_for`).  Never raises for a bad master."""
+    options = options if options is not None else options_for(loaded_spec, base_options)
     if stored is not None and "measurements" not in stored and "error" in stored:
         # the stored outcome of an earlier read under the same settings: the file could not be read
         err = stored["error"]
         return error_result(path, loaded_spec, err.get("cause", "it could not be read"), err.get("offset"),
                             stored.get("file"))
-    if stored is not None and can_rejudge(stored, options):
-        measured = {k: v for k, v in stored.items() if k not in JUDGED_KEYS}
-        out = judge_result(measured, loaded_spec)
-        out["provenance"] = {"how": "rejudged", "measured_with": options.measurement_key()}
-        return out
+    if stored is not None and "measurements" in stored:
+        key = options.measurement_key()
+        if (stored.get("provenance") or {}).get("measured_with") == key:  # can_rejudge
+            out = judge_stored(stored, loaded_spec, key)
+            out["file"] = dict(out.get("file") or {}, path=os.fspath(path))  # the same bytes, maybe another name
+            return out
+    from masterqc.measure.engine import measure_file
     try:
         measured = measure_file(path, options, progress=progress)
     except AudioReadError as exc:
@@ -242,7 +289,8 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
 
 
 def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
-               base_options=None, progress=None, stored: dict | None = None, keep=(), pages: str = "all") -> dict:
+               base_options=None, progress=None, stored: dict | None = None, keep=(), options=None,
+               durable: bool = True, encoded: dict | None = None, pages: str = "all") -> dict:
     """The per-file step: measure ``path`` (or judge ``stored`` measurements again, see
     :func:`measure_and_judge`), judge it against ``loaded_spec`` and write ``<stem>.<format>``
     into ``out_dir`` (:func:`write_outputs`; ``keep``: fresh reports not written again).
@@ -250,11 +298,14 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
     ``loaded_spec`` is a :class:`masterqc.spec.loader.LoadedSpec`; ``formats`` any of
     :data:`ALL_FORMATS`; ``stem`` defaults to the file name without extension;
     ``base_options`` (:class:`MeasureOptions`) are overridden by what the spec derives.
+    ``options``: the spec's :class:`MeasureOptions` when the caller has them already;
+    ``durable``, ``encoded`` (the stored result's values already encoded): see :func:`write_outputs`.
     Returns the result object (also written as JSON when "json" is in ``formats``).
     """
     stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
-    result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored)
-    return write_outputs(result, out_dir, stem, formats, keep=keep, pages=pages)
+    result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored,
+                               options=options)
+    return write_outputs(result, out_dir, stem, formats, keep=keep, durable=durable, encoded=encoded, pages=pages)
 
 
 def unique_stems(paths) -> list[str]:

@@ -24,13 +24,10 @@ from dataclasses import dataclass
 from types import ModuleType
 from typing import Callable
 
-from masterqc.judge import duration as judge_duration
-from masterqc.judge import format as judge_format
 from masterqc.judge import integrity as judge_integrity
 from masterqc.judge import loudness as judge_loudness
 from masterqc.judge import metadata as judge_metadata
 from masterqc.judge import normalisation as judge_normalisation
-from masterqc.judge import peaks as judge_peaks
 from masterqc.judge import release as judge_release
 from masterqc.judge import sampling as judge_sampling
 from masterqc.judge.core import judge_checks
@@ -50,12 +47,18 @@ class SectionEntry:
 
     @property
     def checks(self) -> tuple:
-        """The section's declared numeric checks (``CHECKS``; empty when it declares none)."""
+        """The section's declared checks (``CHECKS``: spec key, measurement field, unit, what a null
+        means, and whether :func:`judge_checks` or the section's own judge judges it)."""
         return tuple(getattr(self.spec, "CHECKS", ()))
+
+    @property
+    def settings(self) -> tuple:
+        """The section's keys that set how something is measured or shown, not requirements (``SETTINGS``)."""
+        return tuple(getattr(self.spec, "SETTINGS", ()))
 
 
 def declared_judge(spec_module: ModuleType) -> Callable:
-    """A judge that judges exactly the section's declared ``CHECKS``."""
+    """A judge that judges exactly the section's declared ``CHECKS`` (numeric limits and allowed-values lists)."""
     def judge(section, result: dict):
         return judge_checks(section, result, spec_module.CHECKS)
     judge.__doc__ = f"Judge of the declared checks of {spec_module.__name__}."
@@ -64,10 +67,10 @@ def declared_judge(spec_module: ModuleType) -> Callable:
 
 #: every section, in the order sections are shown and findings are listed
 SECTIONS: list[SectionEntry] = [
-    SectionEntry("format", format, judge_format.judge),
-    SectionEntry("duration", duration, judge_duration.judge),
+    SectionEntry("format", format, declared_judge(format)),
+    SectionEntry("duration", duration, declared_judge(duration)),
     SectionEntry("loudness", loudness, judge_loudness.judge),
-    SectionEntry("peaks", peaks, judge_peaks.judge),
+    SectionEntry("peaks", peaks, declared_judge(peaks)),
     SectionEntry("normalisation", normalisation, judge_normalisation.judge),
     SectionEntry("metadata", metadata, judge_metadata.judge),
     SectionEntry("integrity", integrity, judge_integrity.judge),

@@ -42,6 +42,30 @@ def _saved_results(root):
                 yield path, data
 
 
+def _schema_errors(root) -> list[str]:
+    import jsonschema
+    from masterqc.contract import RESULT_FORMAT_VERSION
+    from masterqc.schema import result_schema
+    validator = jsonschema.Draft202012Validator(result_schema())
+    out = []
+    for path, data in _saved_results(root):
+        if data.get("result_format") != RESULT_FORMAT_VERSION:
+            continue  # an older saved result written on purpose (upgrade tests)
+        errors = sorted(validator.iter_errors(data), key=lambda e: list(e.path))
+        if errors:
+            out.append(f"{path}: {errors[0].message} at {'/'.join(map(str, errors[0].path))}")
+    return out
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _every_result_saved_by_a_module_fixture_fits_the_schema(tmp_path_factory):
+    """The same for results written into module- and session-scoped folders (generated corpora,
+    batch runs shared by a module's tests): checked once, when the session ends."""
+    yield
+    root = tmp_path_factory.getbasetemp()
+    assert _schema_errors(root) == []
+
+
 @pytest.fixture(autouse=True)
 def _every_saved_result_fits_the_schema(request):
     """House rule of the result contract: every result a test saves validates against the
@@ -50,12 +74,5 @@ def _every_saved_result_fits_the_schema(request):
     yield
     if root is None:
         return
-    import jsonschema
-    from masterqc.contract import RESULT_FORMAT_VERSION
-    from masterqc.schema import result_schema
-    validator = jsonschema.Draft202012Validator(result_schema())
-    for path, data in _saved_results(root):
-        if data.get("result_format") != RESULT_FORMAT_VERSION:
-            continue  # an older saved result written on purpose (upgrade tests)
-        errors = sorted(validator.iter_errors(data), key=lambda e: list(e.path))
-        assert not errors, f"{path}: {errors[0].message} at {'/'.join(map(str, errors[0].path))}"
+    errors = _schema_errors(root)
+    assert not errors, errors[0]

@@ -332,7 +332,7 @@ def test_every_section_message_in_full(spec):
         ("format.sample_rate", "fail", "Hz",
          "Sample rate is 44100 Hz, which the spec does not allow (allowed: 48000 Hz)."),
         ("format.channel_layout", "fail", None,
-         "Channel layout is L R C, which the spec does not allow (allowed: L R)."),
+         "Channel layout is [L, R, C], which the spec does not allow (allowed: [L, R])."),
         ("duration.total", "fail", "s", "Duration is 75.000 s, 15.000 s above the limit of 60.000 s."),
         ("loudness.integrated", "fail", "LUFS",
          "Integrated loudness is -20.0 LUFS, 2.0 LU above the limit of -22.0 LUFS (target -23.0 LUFS \u00b1 1.0 LU)."),

@@ -86,3 +86,48 @@ def test_check_with_stored_measurements_reads_no_audio(checked, monkeypatch):
     r = pipeline.check_file(wav, load_spec(tmp_path / "b.yaml"), tmp_path / "o", ("json",),
                             stored=json.loads(saved.read_text()))
     assert r["verdict"] == "fail" and r["provenance"]["how"] == "rejudged"
+
+
+def test_judge_and_report_take_spec_libraries_as_check_does(checked, capsys):
+    """A spec whose extends: names a base in a library folder: refused without --spec-library
+    (exit 2, naming the base), judged with it; report --spec the same (house choice: confined extends:)."""
+    tmp_path, _wav, saved = checked
+    lib = tmp_path / "library"
+    lib.mkdir()
+    (lib / "house-b.yaml").write_text(SPEC_23)
+    child = tmp_path / "client" / "child.yaml"
+    child.parent.mkdir()
+    child.write_text("spec_version: 1\nname: client child (invented)\nextends: house-b.yaml\n")
+    out = tmp_path / "j"
+    assert main(["judge", str(saved), "--spec", str(child), "--out", str(out), "--quiet"]) == 2
+    assert "house-b.yaml" in capsys.readouterr().err and not out.exists()
+    assert main(["judge", str(saved), "--spec", str(child), "--spec-library", str(lib), "--out", str(out),
+                 "--quiet"]) == 1  # -20 LUFS misses the base's -23 +- 1 target
+    result = json.loads((out / "sine.json").read_text())
+    assert result["spec"]["name"] == "client child (invented)" and _integrated(result)["miss"] == 2.0
+    rep = tmp_path / "rep"
+    assert main(["report", str(saved), "--spec", str(child), "--out", str(rep), "--format", "html"]) == 2
+    assert main(["report", str(saved), "--spec", str(child), "--spec-library", str(lib), "--out", str(rep),
+                 "--format", "html"]) == 0
+    assert "client child (invented)" in (rep / "sine.html").read_text()
+    assert main(["report", str(saved), "--spec-library", str(lib), "--out", str(rep), "--format", "html"]) == 2
+    assert "--spec-library is used with --spec" in capsys.readouterr().err
+
+
+def test_stored_text_is_written_again_as_it_was_and_a_changed_value_afresh(checked):
+    """Re-judging writes the stored values' JSON text as stored (no encoding); a value the new
+    judgement replaced is encoded afresh.  Checked against a full encoding of the same result."""
+    from masterqc.pipeline import judge_stored, parse_result_text, result_json_text
+    tmp_path, _wav, saved = checked
+    text = saved.read_text()
+    result, encoded = parse_result_text(text)
+    assert result == json.loads(text) and result_json_text(result) == text  # the layout it was written in
+    assert {"measurements", "series", "format", "findings"} <= set(result)
+    assert "series" in encoded and "findings" not in encoded  # findings span lines: never reused
+    assert encoded["measurements"][1] == json.dumps(result["measurements"], ensure_ascii=False)
+    again = judge_stored(result, load_spec(tmp_path / "b.yaml"), result["provenance"]["measured_with"])
+    assert again["series"] is result["series"] and again["findings"] != result["findings"]
+    assert result_json_text(again, encoded) == result_json_text(again)
+    again["measurements"] = dict(again["measurements"], integrated_lufs=-99.0)  # a new object: encoded afresh
+    assert '"integrated_lufs": -99.0' in result_json_text(again, encoded)
+    assert parse_result_text(json.dumps(result))[1] == {}  # another layout: nothing reused

@@ -7,5 +7,9 @@
 * :mod:`masterqc.batch.ledger` -- the SQLite run ledger.
 * :mod:`masterqc.batch.releases` -- release grouping and release-level figures.
 * :mod:`masterqc.batch.outputs` -- ``summary.json``, ``junit.xml``, ``index.html``.
+* :mod:`masterqc.batch.plan`, :mod:`~masterqc.batch.hashing`, :mod:`~masterqc.batch.schedule`,
+  :mod:`~masterqc.batch.summarise` -- the steps of a run: plan the items, hash the files,
+  put each through :func:`masterqc.pipeline.check_file` (from stored measurements or
+  measured), summarise.
 * :mod:`masterqc.batch.runner` -- :func:`run_batch`, one run end to end.
 """

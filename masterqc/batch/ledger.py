@@ -224,19 +224,34 @@ class Ledger:
             self.db.execute("INSERT OR REPLACE INTO results VALUES (?,?,?,?,?,?)",
                             (content_sha256, spec_key, tool_version, result.get("verdict", "error"), blob, utc_now()))
 
-    def get_measurements(self, content_sha256: str, measure_key: str) -> dict | None:
-        """The stored measured result of this content under these measurement settings, or None."""
+    def get_measurements(self, content_sha256: str, measure_key: str, with_encoded: bool = False):
+        """The stored measured result of this content under these measurement settings, or None.
+
+        ``with_encoded``: ``(result, encoded)`` instead, ``encoded`` being the values' JSON text as
+        stored (:func:`masterqc.pipeline.parse_result_text`), so writing them again costs no encoding.
+        """
+        from masterqc.pipeline import parse_result_text
         row = self.db.execute("SELECT result_z FROM measurements WHERE content_sha256=? AND measure_key=?",
                               (content_sha256, measure_key)).fetchone()
         if row is None:
             return None
         try:
-            return json.loads(zlib.decompress(row[0]).decode("utf-8"))
+            result, encoded = parse_result_text(zlib.decompress(row[0]).decode("utf-8"))
         except (zlib.error, ValueError):
             return None  # a damaged row is treated as absent: the file is measured again
+        if not isinstance(result, dict):
+            return None
+        return (result, encoded) if with_encoded else result
 
     def put_measurements(self, content_sha256: str, measure_key: str, result: dict) -> None:
-        blob = zlib.compress(json.dumps(result, separators=(",", ":"), allow_nan=False).encode("utf-8"), 6)
+        """Store a measured result (in the layout of :func:`masterqc.pipeline.result_json_text`)."""
+        from masterqc.jsonutil import jsonable
+        from masterqc.pipeline import result_json_text
+        try:
+            data = result_json_text(result).encode("utf-8")
+        except (TypeError, ValueError, UnicodeEncodeError):  # (a name's bytes that are not UTF-8: as \xNN)
+            data = result_json_text(jsonable(result)).encode("utf-8")
+        blob = zlib.compress(data, 6)
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO measurements VALUES (?,?,?,?)",
                             (content_sha256, measure_key, blob, utc_now()))
@@ -250,6 +265,19 @@ class Ledger:
         if row and tuple(row[:4]) == (st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino):
             return row[4]
         return None
+
+    def known_hashes(self, paths) -> dict:
+        """``{path: (size_bytes, mtime_ns, ctime_ns, inode, content_sha256)}`` of the ``paths`` the cache
+        holds, in one query (compare the stat yourself, as :meth:`known_hash` does)."""
+        wanted = {_t(p): p for p in paths}
+        keys = list(wanted)
+        out = {}
+        for i in range(0, len(keys), 500):
+            chunk = keys[i:i + 500]
+            for row in self.db.execute("SELECT path, size_bytes, mtime_ns, ctime_ns, inode, content_sha256 FROM "
+                                       f"file_stat WHERE path IN ({','.join('?' * len(chunk))})", chunk):
+                out[wanted[row[0]]] = tuple(row[1:])
+        return out
 
     def remember_hash(self, path: str, st: os.stat_result, content_sha256: str) -> None:
         with self._tx():

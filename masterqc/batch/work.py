@@ -118,7 +118,8 @@ def check_task(task: dict) -> dict:
     """Run :func:`masterqc.pipeline.check_file` for one master.
 
     ``task``: ``path``, ``spec_path``, ``spec_key``, ``out_dir``, ``stem``, ``formats``,
-    ``layout`` (list or None), ``threads`` (threads per measurement, None for the default).  Returns ``{"result": <result dict>, "elapsed_s": float,
+    ``layout`` (list or None), ``threads`` (threads per measurement, None for the default),
+    ``durable`` (fsync the outputs, default true; :func:`masterqc.fileio.write_atomic`).  Returns ``{"result": <result dict>, "elapsed_s": float,
     "cpu_s": float, "worker_pid": int}``.  A failure outside reading the master (an internal bug)
     still returns a result: an error result whose ``error.internal`` is true, so the
     batch records it and goes on.
@@ -133,7 +134,8 @@ def check_task(task: dict) -> dict:
                    bool(task.get("spec_from_delivery_folder")))
     try:
         result = check_file(task["path"], loaded, task["out_dir"], tuple(task["formats"]), stem=task["stem"],
-                            base_options=_options(layout, task.get("threads")))
+                            base_options=_options(layout, task.get("threads")),
+                            durable=bool(task.get("durable", True)))
     except Exception as exc:  # never lose the batch to one file
         result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
         result["error"]["internal"] = True

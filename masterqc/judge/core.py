@@ -40,7 +40,7 @@ from __future__ import annotations
 
 from decimal import ROUND_CEILING, ROUND_FLOOR, Decimal
 
-from masterqc.contract import STATUSES, Check, Finding  # noqa: F401  (the typed finding of the result contract)
+from masterqc.contract import NO_UNIT, STATUSES, Check, Finding  # noqa: F401  (the typed finding of the result contract)
 from masterqc.spec.types import Allowed, Requirement, difference_unit, unit_decimals, unit_label
 
 MAX_DECIMALS = 6
@@ -361,10 +361,16 @@ def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
 _NO_GATED_LOUDNESS = "the programme has no gated loudness (digital silence or below the -70 LUFS gate)"
 
 
+#: result parts a declared field may name as ``<part>.<key>``; a bare key is in ``measurements``
+FIELD_PARTS = ("format", "metadata", "normalisation")
+
+
 def measured_field(result: dict, field: str) -> tuple[bool, object]:
-    """``(present, value)`` of a declared measurement field (``integrated_lufs`` or ``format.duration_s``)."""
-    if field.startswith("format."):
-        src, key = result.get("format") or {}, field[len("format."):]
+    """``(present, value)`` of a declared measurement field (``integrated_lufs``, ``format.duration_s``,
+    ``metadata.bext``, ``normalisation.limiting_needed_db``)."""
+    part, dot, key = field.partition(".")
+    if dot and part in FIELD_PARTS:
+        src = result.get(part) or {}
     else:
         src, key = result.get("measurements") or {}, field
     return key in src, src.get(key)
@@ -379,8 +385,13 @@ def judge_checks(section, result: dict, checks) -> list[Finding]:
     out = []
     duration = (result.get("format") or {}).get("duration_s")
     for c in checks:
+        if c.kind == "section":  # judged by the section's own judge
+            continue
         req = getattr(section, c.spec_key, None)
         if req is None:
+            continue
+        if c.kind == "allowed":
+            out.append(_judge_allowed(c, req, result))
             continue
         if req.unit != c.unit:
             raise ValueError(f"check {c.check}: requirement unit {req.unit!r} is not the measurement's {c.unit!r}")
@@ -396,3 +407,15 @@ def judge_checks(section, result: dict, checks) -> list[Finding]:
         where = measured_field(result, c.where)[1] if c.where else None
         out.append(check_limits(c.check, c.what, value, req, where_s=where or [], missing_reason=c.null_means))
     return out
+
+
+def _judge_allowed(c: Check, req: Allowed, result: dict) -> Finding:
+    """One declared allowed-values check (a list value is compared as a list)."""
+    show = c.show or str
+    unit = None if c.unit == NO_UNIT else unit_label(c.unit)
+    value = measured_field(result, c.measurement)[1]  # a missing field is null
+    if isinstance(value, tuple):
+        value = list(value)
+    if c.null_when is not None and value is not None and measured_field(result, c.null_when[0])[1] == c.null_when[1]:
+        value = None
+    return check_allowed(c.check, c.what, value, req, show=show, unit=unit, missing_reason=c.null_means)

@@ -19,6 +19,9 @@ def add_parser(sub) -> None:
     r.add_argument("--spec", default=None,
                    help="judge the stored measurements against this spec first (no audio is read; "
                         "see masterqc judge)")
+    r.add_argument("--spec-library", action="append", metavar="DIR",
+                   help="with --spec: a folder whose specs extends: may name besides the spec's own folder "
+                        "(repeatable)")
     r.set_defaults(func=cmd_report)
 
 
@@ -45,10 +48,13 @@ def cmd_report(args) -> int:
     fields = parse_fields(getattr(args, "fields", None))
     formats = parse_formats(args.formats, allowed=RENDER_FORMATS)
     loaded = [(Path(p), load_result(p)) for p in args.results]  # UsageError -> exit 2
+    if args.spec_library and not args.spec:
+        from masterqc.errors import UsageError
+        raise UsageError("--spec-library is used with --spec (the spec whose extends: it lets reach)")
     if args.spec:
         from masterqc.pipeline import rejudge
         from masterqc.spec.loader import load_spec
-        spec = load_spec(args.spec)  # SpecError -> exit 2
+        spec = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2
         loaded = [(path, rejudge(result, spec, source=str(path))) for path, result in loaded]
     for path, result in loaded:
         out_dir = Path(args.out) if args.out else (path.parent if str(path.parent) else Path("."))

@@ -126,6 +126,8 @@ MAX_SPEC_BYTES = 1 << 20
 MAX_DEPTH = 64
 #: longest number literal accepted, characters (house choice; Python refuses int() of over 4300 digits)
 MAX_NUMBER_CHARS = 100
+#: longest chain of ``extends:`` bases followed, files (house choice; a house spec needs two or three)
+MAX_EXTENDS_CHAIN = 32
 #: longest excerpt of a value quoted in a message, characters
 EXCERPT_CHARS = 40
 
@@ -222,8 +224,10 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
     if node.tag == _TIMESTAMP:
         return node.value  # a date stays the text it was written as
     if isinstance(node, yaml.MappingNode):
-        loader.flatten_mapping(node)  # YAML merge keys (<<)
+        own = {id(k) for k, _v in node.value}
+        loader.flatten_mapping(node)  # YAML merge keys (<<): the merged pairs come first
         out = {}
+        written = set()  # keys this mapping writes itself (a merged key may be overridden, not repeated)
         for knode, vnode in node.value:
             if not isinstance(knode, yaml.ScalarNode):
                 problems.append((file, _dotted(path), knode.start_mark.line + 1, knode.start_mark.column + 1,
@@ -232,10 +236,14 @@ def _to_plain(loader, node, path: tuple, pos: _Positions, file: str, problems: l
             key = _scalar(loader, knode, path, file, problems)
             if not isinstance(key, str):
                 key = str(key) if key is not None else "null"
-            if key in out:
+            if key in written:
                 problems.append((file, _dotted(path + (key,)), knode.start_mark.line + 1,
                                  knode.start_mark.column + 1, f"key {excerpt(key)} is given twice"))
                 continue
+            if id(knode) in own:
+                written.add(key)
+            if key in out:  # a merged value this mapping overrides
+                pos.drop(path + (key,))
             pos.key[path + (key,)] = _mark(file, knode)
             out[key] = _to_plain(loader, vnode, path + (key,), pos, file, problems, depth + 1, budget)
         return out
@@ -391,6 +399,10 @@ def _load_tree(path: str, stack: tuple, files: list, ext_pos=None, libraries=())
         chain = " -> ".join(os.path.basename(p) for p in stack + (real,))
         file, line, col = ext_pos if ext_pos else (path, None, None)
         raise SpecError([(file, "extends", line, col, f"extends makes a cycle: {chain}")])
+    if len(stack) >= MAX_EXTENDS_CHAIN:
+        file, line, col = ext_pos if ext_pos else (path, None, None)
+        raise SpecError([(file, "extends", line, col, "the chain of extends: bases is too long "
+                                                      f"(more than {MAX_EXTENDS_CHAIN} files)")])
     text, raw = _read(path)
     files.append({"path": os.fspath(path), "sha256": hashlib.sha256(raw).hexdigest()})
     data, pos, problems = parse_yaml(text, os.fspath(path))

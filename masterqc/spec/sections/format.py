@@ -18,7 +18,26 @@ from typing import Literal
 
 from pydantic import Field, field_validator
 
+from masterqc.contract import NO_UNIT, Check
 from masterqc.spec.types import SpecModel, allowed
+
+_UNKNOWN = "the value is unknown for this file"
+
+#: the allowed-values checks of this section (judged by masterqc.judge.core.judge_checks)
+CHECKS = (
+    Check("containers", "format.container", "format.container", NO_UNIT, "container", _UNKNOWN, kind="allowed"),
+    Check("encodings", "format.encoding", "format.encoding", NO_UNIT, "encoding", _UNKNOWN, kind="allowed"),
+    Check("sample_rates_hz", "format.sample_rate", "format.sample_rate_hz", "hz", "sample rate", _UNKNOWN,
+          kind="allowed", show=lambda v: f"{v} Hz"),
+    Check("bit_depths", "format.bit_depth", "format.bit_depth", "bits", "bit depth", _UNKNOWN, kind="allowed",
+          show=lambda v: f"{v}-bit"),
+    Check("channel_counts", "format.channels", "format.channels", NO_UNIT, "channel count", _UNKNOWN,
+          kind="allowed"),
+    Check("channel_layouts", "format.channel_layout", "format.channel_layout", NO_UNIT, "channel layout",
+          "the file does not say which channel is which (no channel mask, no usual order for this count)",
+          kind="allowed", show=lambda v: "[" + ", ".join(v) + "]",
+          null_when=("format.channel_layout_source", "unknown")),
+)
 
 Container = Literal["wav", "rf64", "w64", "aiff", "flac", "caf"]
 Encoding = Literal["pcm_8", "pcm_16", "pcm_24", "pcm_32", "float_32", "float_64"]

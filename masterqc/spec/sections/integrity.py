@@ -41,7 +41,7 @@ from typing import Literal
 
 from pydantic import Field
 
-from masterqc.contract import Check
+from masterqc.contract import NO_UNIT, Check
 from masterqc.spec.types import SpecModel, allowed, bounds, ceiling, floor
 
 _NO_PAIR = "no channel pair, or no window above the level floor"
@@ -62,7 +62,36 @@ CHECKS = (
           "lowest phase correlation (100 ms windows)", _NO_PAIR),
     Check("phase_correlation_below", "integrity.phase_correlation_below", "phase_correlation_below_percent",
           "percent", "share of time below the phase threshold", _NO_PAIR, where="phase_correlation_below_where_s"),
+    # judged by masterqc.judge.integrity itself
+    Check("dc_offset", "integrity.dc_offset", "dc_offset_dbfs", "dbfs", "DC offset (worst channel)",
+          "every channel is digital silence", kind="section"),
+    Check("head_silence", "integrity.head_silence", "head_silence_s", "s", "silence at the head",
+          "the measurement does not exist for this file", kind="section"),
+    Check("tail_silence", "integrity.tail_silence", "tail_silence_s", "s", "silence at the tail",
+          "the measurement does not exist for this file", kind="section"),
+    Check("head_digital_silence", "integrity.head_digital_silence", "head_digital_silence_s", "s",
+          "digital silence at the head", "the measurement does not exist for this file", kind="section"),
+    Check("tail_digital_silence", "integrity.tail_digital_silence", "tail_digital_silence_s", "s",
+          "digital silence at the tail", "the measurement does not exist for this file", kind="section"),
+    Check("nonfinite_samples", "integrity.nonfinite_samples", "nonfinite_sample_count", "count",
+          "non-finite samples (NaN, +-Inf)", "integer PCM holds no non-finite values", kind="section"),
+    Check("effective_bit_depth", "integrity.effective_bit_depth", "effective_bit_depth_bits_per_channel", "bits",
+          "effective bit depth (lowest channel)", "every channel is digital silence", kind="section"),
+    Check("dual_mono", "integrity.dual_mono", "dual_mono", NO_UNIT, "first channel pair identical (dual mono)",
+          "the file has one channel, or the channels are digital silence", kind="section"),
+    Check("inverted_polarity", "integrity.inverted_polarity", "inverted_polarity", NO_UNIT,
+          "channel pair in inverted polarity", "the file has one channel, or the channels are digital silence",
+          kind="section"),
+    Check("level_balance", "integrity.level_balance", "level_balance_lu_per_pair", "lu",
+          "level difference of the worst channel pair, K-weighted", _NO_PAIR, kind="section"),
+    Check("truncated_audio", "integrity.truncated_audio", "metadata.audio_data", NO_UNIT,
+          "audio data cut short (missing bytes)", "never null: a whole file records no missing bytes",
+          kind="section"),
 )
+
+#: keys that set how a measurement is made, not requirements
+SETTINGS = ("clip_min_run_samples", "clip_threshold_db", "silence_threshold_dbfs", "dropout_min_s",
+            "phase_correlation_threshold", "inverted_polarity_correlation")
 
 ALWAYS = True
 

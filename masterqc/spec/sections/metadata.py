@@ -27,9 +27,44 @@ from typing import Any, Literal
 from pydantic import Field, field_validator, model_validator
 
 from masterqc import timecode as _tc
+from masterqc.contract import NO_UNIT, Check
 from masterqc.spec.types import Severity, SpecModel
 
 ALWAYS = True
+
+_BEXT_LOUDNESS_NULL = "no bext chunk, a bext version below 2, or the field not filled in (0x7FFF)"
+
+#: the section's checks, judged by masterqc.judge.metadata (each needs more than one field);
+#: ``check`` ending in ``*`` covers a family of findings
+CHECKS = (
+    Check("chunk_problems", "metadata.chunk_problems", "metadata.problems", NO_UNIT,
+          "malformed chunks (one finding per problem, at its byte offset)",
+          "never null: an empty list means no malformed chunk", kind="section"),
+    Check("bext", "metadata.bext", "metadata.bext", NO_UNIT, "bext chunk and its fields",
+          "the file has no bext chunk", kind="section"),
+    Check("bext_loudness", "metadata.bext_loudness.loudness_value", "integrated_lufs", "lufs",
+          "bext LoudnessValue against the measured integrated loudness", _BEXT_LOUDNESS_NULL, kind="section"),
+    Check("bext_loudness", "metadata.bext_loudness.loudness_range", "loudness_range_lu", "lu",
+          "bext LoudnessRange against the measured loudness range", _BEXT_LOUDNESS_NULL, kind="section"),
+    Check("bext_loudness", "metadata.bext_loudness.max_true_peak_level", "true_peak_dbtp", "dbtp",
+          "bext MaxTruePeakLevel against the measured true peak", _BEXT_LOUDNESS_NULL, kind="section"),
+    Check("bext_loudness", "metadata.bext_loudness.max_momentary_loudness", "max_momentary_lufs", "lufs",
+          "bext MaxMomentaryLoudness against the measured max momentary loudness", _BEXT_LOUDNESS_NULL,
+          kind="section"),
+    Check("bext_loudness", "metadata.bext_loudness.max_short_term_loudness", "max_short_term_lufs", "lufs",
+          "bext MaxShortTermLoudness against the measured max short-term loudness", _BEXT_LOUDNESS_NULL,
+          kind="section"),
+    Check("isrc", "metadata.isrc", "metadata.isrc", NO_UNIT, "ISRC presence, ISO 3901 syntax and agreement",
+          "an empty list: no ISRC in any place that can carry one", kind="section"),
+    Check("time_reference", "metadata.time_reference", "metadata.time_reference_samples", "samples",
+          "start time (samples since midnight, shown as timecode)",
+          "the file declares no time reference (no bext TimeReference, no iXML timestamp)", kind="section"),
+    Check("timecode_fps_matches_file", "metadata.timecode_fps", "metadata.declared_timecode_fps", NO_UNIT,
+          "timecode rate the file declares", "the file declares none (no iXML TIMECODE_RATE)", kind="section"),
+)
+
+#: keys that set how findings are shown, not requirements
+SETTINGS = ("timecode_fps",)
 
 FrameRateName = Literal["23.976", "24", "25", "29.97df", "29.97ndf", "30"]
 BextField = Literal["description", "originator", "originator_reference", "origination_date",

@@ -14,9 +14,21 @@ from __future__ import annotations
 
 from pydantic import Field, PrivateAttr
 
+from masterqc.contract import Check
 from masterqc.spec.types import SpecModel, ceiling
 
 ALWAYS = True
+
+#: the section's check, judged by masterqc.judge.normalisation (its message adds the gain and peaks)
+CHECKS = (
+    Check("limiting", "normalisation.limiting", "normalisation.limiting_needed_db", "db",
+          "limiting needed to reach the target",
+          "no loudness target, no true-peak ceiling, or no integrated loudness or true peak for this file "
+          "(normalisation.note says which)", kind="section"),
+)
+
+#: keys that set what the figures are computed against, not requirements
+SETTINGS = ("target_lufs", "ceiling_dbtp")
 
 
 class Section(SpecModel):

@@ -27,6 +27,9 @@ CHECKS = (
     Check("sample_peak", "peaks.sample_peak", "sample_peak_dbfs", "dbfs", "sample peak", _SILENT),
 )
 
+#: keys that set how a measurement is made, not requirements
+SETTINGS = ("true_peak_oversampling",)
+
 
 class Section(SpecModel):
     """Peak requirements (``true_peak_dbtp``, ``sample_peak_dbfs``)."""

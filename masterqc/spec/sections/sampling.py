@@ -31,7 +31,46 @@ from __future__ import annotations
 
 from pydantic import Field
 
+from masterqc.contract import NO_UNIT, Check
 from masterqc.spec.types import SpecModel, allowed, ceiling, floor
+
+_ULTRA_NULL = ("the master is at 48 kHz or below, its Nyquist frequency is not above the band edge, or the "
+               "audible band holds no energy")
+
+#: the section's checks, judged by masterqc.judge.sampling (their messages say where in frequency
+#: the problem lies and add the analyzers' detail); ``check`` ending in ``*`` covers a family
+CHECKS = (
+    Check("effective_bandwidth", "sampling.effective_bandwidth", "effective_bandwidth_hz", "hz",
+          "effective bandwidth", "no content above the noise floor (bandwidth_note says why)", kind="section"),
+    Check("upsampled", "sampling.upsampled", "upsampled_from_hz", "hz", "upsampled from a lower rate",
+          "no converter cliff or sample pattern of a lower standard rate: not upsampled", kind="section"),
+    Check("band_limited", "sampling.band_limited", "band_limit_hz", "hz",
+          "low-passed at a frequency no standard rate explains", "no such low-pass", kind="section"),
+    Check("imaging", "sampling.imaging", "imaging_detected", NO_UNIT, "mirror images of an unfiltered upsampler",
+          "no candidate source rate could be tested", kind="section"),
+    Check("aliasing", "sampling.aliasing", "aliasing_detected", NO_UNIT, "folded (aliased) content",
+          "not assessable on this material (aliasing_detail.reason says why)", kind="section"),
+    Check("alias_to_harmonic_ratio", "sampling.alias_to_harmonic_ratio", "alias_to_harmonic_ratio_db", "db",
+          "alias-to-harmonic ratio",
+          "no alias line above the floor on assessable material (below the measurable range, meets a "
+          "ceiling), or nothing assessable", kind="section"),
+    Check("ultrasonic_energy", "sampling.ultrasonic_energy", "ultrasonic_energy_db", "db",
+          "ultrasonic energy relative to the audible band", _ULTRA_NULL, kind="section"),
+    Check("ultrasonic_energy_3s", "sampling.ultrasonic_energy_3s", "ultrasonic_energy_max_3s_db", "db",
+          "ultrasonic energy relative to the audible band, worst 3 s", _ULTRA_NULL,
+          where="ultrasonic_energy_max_3s_where_s", kind="section"),
+    Check("ultrasonic_tones", "sampling.ultrasonic_tones", "ultrasonic_tones", NO_UNIT,
+          "loudest ultrasonic tone (each tone's peak level in dBFS)", _ULTRA_NULL, kind="section"),
+    Check("ultrasonic_loudness_change", "sampling.ultrasonic_loudness_change", "ultrasonic_loudness_change_lu",
+          "lu", "loudness change a low-pass at the ultrasonic band edge would cause (magnitude)", _ULTRA_NULL,
+          kind="section"),
+    Check("conversions", "sampling.conversion_*", "conversions", NO_UNIT,
+          "true peak after conversion and energy above the target's Nyquist, per target rate",
+          "the conversion was not measured (the spec named no such target rate)", kind="section"),
+)
+
+#: keys that set how a measurement is counted or made, not requirements
+SETTINGS = ("upsampled_min_confidence", "ultrasonic_from_hz")
 
 
 class ConversionTarget(SpecModel):
