@@ -38,6 +38,8 @@ def _add_check(sub) -> None:
                         f"(default: {','.join(DEFAULT_FORMATS)}; json only while reports cannot be rendered)")
     c.add_argument("--layout", help="channel labels overriding the files', e.g. L,R,C,LFE,Ls,Rs")
     c.add_argument("--quiet", action="store_true", help="no progress display and no per-file lines")
+    from masterqc.report.command import add_report_arguments
+    add_report_arguments(c)
     from masterqc.batch.cli import add_batch_arguments
     add_batch_arguments(c)
     c.set_defaults(func=cmd_check)
@@ -52,9 +54,17 @@ def cmd_check(args) -> int:
 
     formats = formats_for(args.formats, warn=lambda text: sys.stderr.write(f"masterqc: note: {text}\n"))
     from masterqc.batch.cli import cmd_check_batch, wants_batch
+    from masterqc.report.fields import parse_fields
+    fields = parse_fields(getattr(args, "fields", None))  # UsageError -> exit 2
+    pages = getattr(args, "pages", "all")
     if wants_batch(args):
+        if fields or pages != "all":
+            from masterqc.errors import UsageError
+            raise UsageError("--field and --pages apply to single files; for a folder, set the certificate's "
+                             "fields in the spec's report: section, and re-render with masterqc report --pages")
         return cmd_check_batch(args, formats)
     loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
+    loaded.report_fields.update(fields)
     _print_spec_warnings(loaded, quiet=args.quiet)
     from masterqc.cli import parse_layout
     layout = parse_layout(args.layout)
@@ -65,7 +75,7 @@ def cmd_check(args) -> int:
         progress = Progress(f"checking {shown(path)}", enabled=False if args.quiet else None)
         try:
             result = check_file(path, loaded, args.out, formats, stem=stem, base_options=base,
-                                progress=progress.update)
+                                progress=progress.update, pages=pages)
         finally:
             progress.close()
         outcomes.append({k: result[k] for k in ("verdict", "error") if k in result})

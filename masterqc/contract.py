@@ -210,6 +210,10 @@ class SpecInfo(_Model):
     files: list[SpecFile] | None = None
     from_delivery_folder: bool | None = Field(None, description="true: the spec came with the masters "
                                                                 "(a spec map's spec_in_folder), not from the operator")
+    version: str | None = Field(None, description="the spec's own version (its version: key), printed on the "
+                                                 "certificate")
+    report: dict[str, str] | None = Field(None, description="the certificate's fields: client, job, operator, date "
+                                                            "(the spec's report: section, then --field)")
 
 
 class Normalisation(_Model):

@@ -223,7 +223,7 @@ def judge_stored(stored: dict, loaded_spec, measurement_key: str) -> dict:
 
 
 def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable: bool = True,
-                  encoded: dict | None = None) -> dict:
+                  encoded: dict | None = None, pages: str = "all") -> dict:
     """Render and write ``result`` as ``<stem>.<format>`` in ``out_dir``, and its events as
     ``<stem>.events.csv``; return it with ``outputs``.
 
@@ -232,6 +232,7 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable
     error results get their reports too (the page says why the file was not judged).
     ``durable``: the JSON is flushed to disk before it replaces the old one
     (:func:`masterqc.fileio.write_atomic`); ``encoded``: values already encoded (:func:`result_json_text`).
+    ``pages``: "all" (certificate and appendix) or "summary" (the certificate alone).
     """
     result = dict(result)
     os.makedirs(out_dir, exist_ok=True)
@@ -240,7 +241,7 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable
     if todo:
         try:
             from masterqc.report.render import write_reports
-            for p in write_reports(result, out_dir, stem, todo) or []:
+            for p in write_reports(result, out_dir, stem, todo, pages=pages) or []:
                 outputs[os.path.splitext(os.fspath(p))[1].lstrip(".")] = os.path.basename(os.fspath(p))
         except Exception as exc:  # a renderer bug must not lose the judged result
             from masterqc.judge.core import Finding, verdict
@@ -295,7 +296,7 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
 
 def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | None = None,
                base_options=None, progress=None, stored: dict | None = None, keep=(), options=None,
-               durable: bool = True, encoded: dict | None = None) -> dict:
+               durable: bool = True, encoded: dict | None = None, pages: str = "all") -> dict:
     """The per-file step: measure ``path`` (or judge ``stored`` measurements again, see
     :func:`measure_and_judge`), judge it against ``loaded_spec`` and write ``<stem>.<format>``
     into ``out_dir`` (:func:`write_outputs`; ``keep``: fresh reports not written again).
@@ -310,7 +311,7 @@ def check_file(path, loaded_spec, out_dir, formats=("json",), *, stem: str | Non
     stem = stem or os.path.splitext(os.path.basename(os.fspath(path)))[0]
     result = measure_and_judge(path, loaded_spec, base_options=base_options, progress=progress, stored=stored,
                                options=options)
-    return write_outputs(result, out_dir, stem, formats, keep=keep, durable=durable, encoded=encoded)
+    return write_outputs(result, out_dir, stem, formats, keep=keep, durable=durable, encoded=encoded, pages=pages)
 
 
 def unique_stems(paths) -> list[str]:

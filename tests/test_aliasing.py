@@ -364,10 +364,11 @@ def test_aliasing_finding_reads_as_plain_sentences_with_advice():
     found, _verdict = judge(sp, {"format": {"sample_rate_hz": 48000}, "measurements": m})
     f = next(f for f in found if f.check == "sampling.aliasing")
     assert f.status == "fail"
-    assert f.message.startswith("Folded (aliased) partials found from 0:0")
+    assert f.message.startswith("Aliasing: folded (aliased) content found from 0:0")
+    assert "; the spec does not allow this. " in f.message
     assert "above 24 kHz" in f.message and "1204.9 Hz" in f.message
     assert "anti-aliasing on" in f.message and "higher internal rate" in f.message
-    assert f.message.endswith("The spec does not allow folded content.")
+    assert f.message.endswith("or redo the conversion from the original with a proper resampler.")
 
 
 # ---------------------------------------------------------------- sample-sharp steps

@@ -181,7 +181,7 @@ def test_broken_renderer_keeps_the_json_and_says_so(tmp_path, spec, monkeypatch)
     import types
     fake = types.ModuleType("masterqc.report.render")
 
-    def write_reports(result, out_dir, stem, formats):
+    def write_reports(result, out_dir, stem, formats, **options):
         raise RuntimeError("template exploded")
 
     fake.write_reports = write_reports

@@ -140,7 +140,7 @@ def test_chunk_problems_are_findings_with_offsets(tmp_path):
     _by, found, verdict, result = _run(tmp_path, chunks, {"chunk_problems": {"severity": "fail"}})
     probs = [f for f in found if f.check == "metadata.chunk_problems"]
     assert len(probs) == 1 and probs[0].status == "fail"
-    assert probs[0].message.startswith("at byte 36: bext chunk is 400 bytes")
+    assert probs[0].message.startswith("At byte 36: bext chunk is 400 bytes")
     assert verdict == "fail"
     # the audio was still measured
     assert result["measurements"]["integrated_lufs"] == pytest.approx(-23.0, abs=0.1)

@@ -214,7 +214,8 @@ def test_demo_command(tmp_path):
         first = problems(stem)[0]
         return first.split(" ", 1)[1].strip() if first.split(" ", 1)[0] in ("FAIL", "WARN", "ERROR") else first
     assert problems("ilvenbrook_hires") == ["meets every requirement"]
-    assert reason("yarrowgate_fake_hires").startswith("upsampled from a lower rate: yes, which the spec does not allow")
+    assert reason("yarrowgate_fake_hires").startswith("Upsampling: the file was converted up from 44.1 kHz; the spec "
+                                                      "does not allow this.")
     assert "converter's cliff" in reason("yarrowgate_fake_hires") and "Converted up from 44.1 kHz" in reason("yarrowgate_fake_hires")
     assert "alias" in reason("drimble_synth_lead") and "440.0 Hz" in reason("drimble_synth_lead")
     assert "ultrasonic" in reason("maunsel_pilot")
@@ -235,7 +236,7 @@ def test_demo_command(tmp_path):
                 block.append(line.strip())
             n = sum(f["status"] in ("error", "fail", "warn") for f in r["findings"])
             assert len(block) == max(n, 1), (m.stem, spec_id, block)
-    assert reason("corrowin_bells").startswith("true peak after conversion to 48 kHz")
+    assert reason("corrowin_bells").startswith("True peak after conversion to 48 kHz")
 
 
 def test_demo_command_with_two_workers_writes_the_same_verdicts(tmp_path):
@@ -409,7 +410,7 @@ def test_hires_report_shows_the_upper_band_and_points_at_the_tone(hires_results)
 
 def test_hires_report_conversion_table_says_which_deliverable_breaks_the_ceiling(hires_results):
     from masterqc.report.view import conversions_view
-    for stem, word in (("corrowin_bells", "FAIL: "), ("ilvenbrook_hires", "pass (")):
+    for stem, word in (("corrowin_bells", "FAIL: "), ("ilvenbrook_hires", "PASS (")):
         table = conversions_view(hires_results[stem])["table"]
         col = table["columns"].index("Spec ceiling")
         cells = [row[col] for row in table["rows"]]

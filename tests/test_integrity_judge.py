@@ -63,7 +63,7 @@ def test_findings_on_a_defective_file(tmp_path):
     assert f["integrity.clipped_runs"].status == "fail"
     assert f["integrity.clipped_runs"].measured == 1
     assert f["integrity.clipped_runs"].where_s == [[2.0, 96010 / FS]]
-    assert "(L: 1, R: 0)" in f["integrity.clipped_runs"].message
+    assert "per channel: L 1, R 0" in f["integrity.clipped_runs"].message
     assert f["integrity.head_silence"].status == "fail"
     assert f["integrity.head_silence"].measured == 0.5
     # the tone starts at frame 24000 with sin(0) = 0: the first sample above -60 dBFS is frame 24001
@@ -72,7 +72,7 @@ def test_findings_on_a_defective_file(tmp_path):
     assert f["integrity.tail_silence"].where_s == [[3.75, 4.0]]
     assert f["integrity.dropouts"].status == "fail"
     assert f["integrity.dropouts"].where_s == [[120010 / FS, 120490 / FS]]
-    assert "; digital silence" in f["integrity.dropouts"].message
+    assert "; found: digital silence" in f["integrity.dropouts"].message
     bits = f["integrity.effective_bit_depth"]
     assert bits.status == "fail" and bits.measured == 16 and "R" in bits.message
     assert f["integrity.dual_mono"].status == "pass"
@@ -135,7 +135,7 @@ def test_inverted_and_unbalanced_pair(tmp_path):
     assert f["integrity.phase_correlation_below"].measured == 100.0
     assert f["integrity.phase_correlation_below"].where_s == [[0.0, 2.0]]
     bal = f["integrity.level_balance"]
-    assert bal.status == "fail" and bal.measured == 6.0 and "L is louder" in bal.message
+    assert bal.status == "fail" and bal.measured == 6.0 and "L is the louder" in bal.message
     assert f["integrity.over_full_scale_samples"].status == "pass"
     assert f["integrity.subsonic_energy"].status == "pass"
 

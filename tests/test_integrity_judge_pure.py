@@ -71,9 +71,9 @@ def test_a_clean_file_passes_every_check(spec):
         "tail_silence", "head_digital_silence", "tail_digital_silence", "dropouts", "effective_bit_depth",
         "dual_mono", "inverted_polarity", "phase_correlation", "phase_correlation_below", "level_balance"))
     assert all(x.status == "pass" for x in f.values()), {k: x.message for k, x in f.items() if x.status != "pass"}
-    assert f["integrity.level_balance"].message == "level balance L/R (magnitude) 0.3 LU meets <= 1.5 LU"
+    assert f["integrity.level_balance"].message == 'Level difference L/R is 0.3 LU (limit: at most 1.5 LU).'
     assert f["integrity.effective_bit_depth"].message == \
-        "effective bit depth (lowest channel, L) 24 bits meets >= 24 bits"
+        'Effective bit depth (lowest channel, L) is 24 bits (limit: at least 24 bits).'
     assert f["integrity.phase_correlation_below"].measured == 1.0  # 0.01 of the time = 1.0 %
 
 
@@ -82,20 +82,19 @@ def test_clipped_runs_name_channels_longest_run_and_times(spec):
                           clipped_run_where_s=[[1.0, 1.001], [2.0, 2.001]])
     c = f["integrity.clipped_runs"]
     assert verdict == "fail" and c.status == "fail"
-    assert c.message == "clipped runs 3 is above the limit 0 by 3 (L: 2, R: 1); longest run 7 samples"
+    assert c.message == '3 clipped runs where the spec allows none; per channel: L 2, R 1; the longest run is 7 samples.'
     assert c.where_s == [[1.0, 1.001], [2.0, 2.001]]
 
 
 def test_warn_detail_goes_before_the_severity_note(spec):
     s = load_spec_text(SPEC.replace("clipped_runs: {max_count: 0}", "clipped_runs: {max_count: 0, severity: warn}")).spec
     f, _ = findings(s, clipped_run_count=1, clipped_run_count_per_channel=[1, 0], clipped_run_longest_samples=4)
-    assert f["integrity.clipped_runs"].message == ("clipped runs 1 is above the limit 0 by 1 (L: 1, R: 0); "
-                                                   "longest run 4 samples (severity warn: reported as a warning)")
+    assert f["integrity.clipped_runs"].message == ('1 clipped run where the spec allows none; per channel: L 1, R 0; the longest run is 4 samples (the spec counts this as a warning).')
 
 
 def test_per_channel_detail_needs_one_value_per_label(spec):
     f, _ = findings(spec, clipped_run_count=1, clipped_run_count_per_channel=[1], clipped_run_longest_samples=3)
-    assert f["integrity.clipped_runs"].message == "clipped runs 1 is above the limit 0 by 1; longest run 3 samples"
+    assert f["integrity.clipped_runs"].message == '1 clipped run where the spec allows none; the longest run is 3 samples.'
 
 
 def test_missing_measurements_are_skipped_with_the_key(spec):
@@ -106,29 +105,30 @@ def test_missing_measurements_are_skipped_with_the_key(spec):
         del r["measurements"][key]
     out = {x.check: x for x in judge(spec, r)[0]}
     expect = {
-        "integrity.clipped_runs": "clipped runs: not judged, the measurement clipped_run_count is missing from the result",
-        "integrity.over_full_scale_samples": "samples beyond full scale: not judged, the measurement "
+        "integrity.clipped_runs": "clipped runs: not judged; the measurement clipped_run_count is missing from the result",
+        "integrity.over_full_scale_samples": "samples beyond full scale: not judged; the measurement "
                                              "over_full_scale_sample_count is missing from the result",
-        "integrity.dc_offset": "DC offset (worst channel): not judged, the measurement dc_offset_dbfs is missing "
+        "integrity.dc_offset": "DC offset (worst channel): not judged; the measurement dc_offset_dbfs is missing "
                                "from the result",
-        "integrity.subsonic_energy": "energy below 20 Hz (worst channel): not judged, the measurement "
+        "integrity.subsonic_energy": "energy below 20 Hz (worst channel): not judged; the measurement "
                                      "subsonic_energy_db is missing from the result",
-        "integrity.dropouts": "dropouts: not judged, the measurement dropout_count is missing from the result",
-        "integrity.head_silence": "silence at the head: not judged, the measurement head_silence_s is missing "
+        "integrity.dropouts": "dropouts: not judged; the measurement dropout_count is missing from the result",
+        "integrity.head_silence": "silence at the head: not judged; the measurement head_silence_s is missing "
                                   "from the result",
-        "integrity.phase_correlation": "lowest phase correlation (100 ms windows): not judged, the measurement "
+        "integrity.phase_correlation": "lowest phase correlation (100 ms windows): not judged; the measurement "
                                        "phase_correlation_min is missing from the result",
-        "integrity.phase_correlation_below": "share of time below the phase threshold: not judged, the "
+        "integrity.phase_correlation_below": "share of time below the phase threshold: not judged; the "
                                              "measurement phase_correlation_below_percent is missing from the result",
-        "integrity.dual_mono": "first channel pair identical (dual mono): not judged, the measurement dual_mono "
+        "integrity.dual_mono": "dual mono: not judged; the measurement dual_mono "
                                "is missing from the result",
-        "integrity.level_balance": "level balance: not judged, the measurement level_balance_lu_per_pair is "
+        "integrity.level_balance": "level difference between the channels: not judged; the measurement level_balance_lu_per_pair is "
                                    "missing from the result",
-        "integrity.effective_bit_depth": "effective bit depth: not judged, the measurement "
+        "integrity.effective_bit_depth": "effective bit depth: not judged; the measurement "
                                          "effective_bit_depth_bits_per_channel is missing from the result",
     }
     for check, message in expect.items():
-        assert (out[check].status, out[check].message) == ("skipped", message), check
+        # each message is a sentence: a capital first, a full stop last
+        assert (out[check].status, out[check].message) == ("skipped", message[0].upper() + message[1:] + "."), check
 
 
 def test_values_that_cannot_exist_say_why(spec):
@@ -137,36 +137,33 @@ def test_values_that_cannot_exist_say_why(spec):
                           level_balance_lu_per_pair=[None], effective_bit_depth_bits_per_channel=[None, None],
                           channels=1)
     assert verdict == "pass"
-    assert f["integrity.over_full_scale_samples"].message == ("samples beyond full scale: not judged, integer PCM "
-                                                              "cannot exceed full scale (only float files are judged)")
+    assert f["integrity.over_full_scale_samples"].message == ('Samples beyond full scale: not judged; integer PCM cannot exceed full scale (only float files are judged).')
     assert f["integrity.subsonic_energy"].message == \
-        "energy below 20 Hz (worst channel): not judged, every channel is digital silence"
+        'Energy below 20 Hz (worst channel): not judged; every channel is digital silence.'
     assert f["integrity.dual_mono"].message == \
-        "first channel pair identical (dual mono): not judged, the file has one channel"
+        'Dual mono: not judged; the file has one channel.'
     assert f["integrity.inverted_polarity"].message == \
-        "channel pair in inverted polarity: not judged, the file has one channel"
-    assert f["integrity.phase_correlation"].message == ("lowest phase correlation (100 ms windows): not judged, "
-                                                        "no channel pair, or no window above the level floor")
-    assert f["integrity.phase_correlation_below"].message == ("share of time below the phase threshold: not "
-                                                              "judged, no channel pair, or no window above the "
-                                                              "level floor")
+        'Polarity: not judged; the file has one channel.'
+    assert f["integrity.phase_correlation"].message == ('Lowest phase correlation (100 ms windows): not judged; no channel pair, or no window above the level floor.')
+    assert f["integrity.phase_correlation_below"].message == ('Share of time below the phase threshold: not judged; no channel pair, or no window above the level floor.')
     assert f["integrity.level_balance"].message == \
-        "level balance: not judged, no channel pair with signal in both channels"
+        'Level difference between the channels: not judged; no channel pair with signal in both channels.'
     assert f["integrity.effective_bit_depth"].message == \
-        "effective bit depth: not judged, every channel is digital silence"
+        'Effective bit depth: not judged; every channel is digital silence.'
     g, _ = findings(spec, dual_mono=None)
     assert g["integrity.dual_mono"].message == \
-        "first channel pair identical (dual mono): not judged, the channels are digital silence"
+        'Dual mono: not judged; the channels are digital silence.'
 
 
 def test_dc_offset_of_exact_zero_means_passes(spec):
     f, _ = findings(spec, dc_offset_dbfs=None, dc_offset_dbfs_per_channel=[None, None])
     d = f["integrity.dc_offset"]
     assert (d.status, d.message, d.limit, d.unit, d.severity) == \
-        ("pass", "DC offset: every channel's mean is exactly zero", "<= -60.0 dBFS", "dBFS", "fail")
+        ("pass", "No DC offset: every channel's mean is exactly zero (limit: at most -60.0 dBFS).", "<= -60.0 dBFS",
+         "dBFS", "fail")
     f, _ = findings(spec, dc_offset_dbfs=-40.0)
     assert f["integrity.dc_offset"].message == \
-        "DC offset (worst channel) -40.0 dBFS is above the limit -60.0 dBFS by 20.0 dB"
+        'DC offset (worst channel) is -40.0 dBFS, 20.0 dB above the limit of -60.0 dBFS.'
     f, _ = findings(spec, dc_offset_dbfs=None, dc_offset_dbfs_per_channel=[None, -70.0])
     assert f["integrity.dc_offset"].status == "skipped"
 
@@ -175,9 +172,9 @@ def test_silence_times_head_and_tail(spec):
     f, _ = findings(spec, head_silence_s=2.5, tail_silence_s=0.5, head_digital_silence_s=0.3,
                     tail_digital_silence_s=0.25, duration_s=30.0)
     h, t = f["integrity.head_silence"], f["integrity.tail_silence"]
-    assert h.message == "silence at the head 2.500 s is above the limit 2.000 s by 0.500 s"
+    assert h.message == 'Silence at the head is 2.500 s, 0.500 s above the limit of 2.000 s.'
     assert h.where_s == [[0.0, 2.5]]
-    assert t.message == "silence at the tail 0.500 s is below the limit 1.000 s by 0.500 s"
+    assert t.message == 'Silence at the tail is 0.500 s, 0.500 s below the limit of 1.000 s.'
     assert t.where_s == [[29.5, 30.0]]
     assert f["integrity.head_digital_silence"].where_s == [[0.0, 0.3]]
     assert f["integrity.tail_digital_silence"].where_s == [[29.75, 30.0]]
@@ -192,19 +189,18 @@ def test_dropouts_name_channels_and_kinds(spec):
     f, _ = findings(spec, dropout_count=3, dropout_count_per_channel=[1, 2], dropout_events=events,
                     dropout_where_s=[[1.0, 1.01]])
     d = f["integrity.dropouts"]
-    assert d.message == ("dropouts 3 is above the limit 0 by 3 (L: 1, R: 2); a frozen sample value and "
-                         "digital silence")
+    assert d.message == ('3 dropouts where the spec allows none; per channel: L 1, R 2; found: a frozen sample value and digital silence.')
     assert d.where_s == [[1.0, 1.01]]
     f, _ = findings(spec, dropout_count=1, dropout_count_per_channel=[1, 0], dropout_events=[])
-    assert f["integrity.dropouts"].message == "dropouts 1 is above the limit 0 by 1 (L: 1, R: 0)"
+    assert f["integrity.dropouts"].message == '1 dropout where the spec allows none; per channel: L 1, R 0.'
 
 
 def test_bit_depth_names_the_lowest_channel(spec):
     f, _ = findings(spec, effective_bit_depth_bits_per_channel=[24, 16])
     b = f["integrity.effective_bit_depth"]
-    assert b.message == "effective bit depth (lowest channel, R) 16 bits is below the limit 24 bits by 8 bits"
+    assert b.message == 'Effective bit depth (lowest channel, R) is 16 bits, 8 bits below the limit of 24 bits.'
     f, _ = findings(spec, effective_bit_depth_bits_per_channel=[None, 20], channel_layout=[])
-    assert f["integrity.effective_bit_depth"].message.startswith("effective bit depth (lowest channel, ch2) 20 bits")
+    assert f["integrity.effective_bit_depth"].message.startswith("Effective bit depth (lowest channel, ch2) is 20 bits")
 
 
 def test_channel_pairs(spec):
@@ -213,18 +209,17 @@ def test_channel_pairs(spec):
                           phase_correlation_below_where_s=[[3.0, 4.0]])
     assert verdict == "fail"
     assert f["integrity.dual_mono"].message == \
-        "first channel pair identical (dual mono) true is not allowed (allowed: false)"
+        'Dual mono: the first two channels are identical; the spec does not allow this.'
     assert f["integrity.inverted_polarity"].message == \
-        "channel pair in inverted polarity true is not allowed (allowed: false) (L/R)"
+        'Polarity: the channels (L/R) are inverted; the spec does not allow this.'
     p = f["integrity.phase_correlation"]
     assert (p.status, p.measured) == ("warn", -0.95)
-    assert p.message == ("lowest phase correlation (100 ms windows) -0.95 is below the limit -0.30 by 0.65 "
-                         "(severity warn: reported as a warning)")
+    assert p.message == ('Lowest phase correlation (100 ms windows) is -0.95, 0.65 below the limit of -0.30 (the spec counts this as a warning).')
     b = f["integrity.phase_correlation_below"]
     assert (b.status, b.measured, b.where_s) == ("fail", 12.5, [[3.0, 4.0]])
     f, _ = findings(spec, inverted_polarity=True, inverted_polarity_pairs=[])
     assert f["integrity.inverted_polarity"].message == \
-        "channel pair in inverted polarity true is not allowed (allowed: false)"
+        'Polarity: the channels are inverted; the spec does not allow this.'
 
 
 @pytest.mark.parametrize("balance, side", [(2.0, "L"), (-2.0, "R")])
@@ -232,12 +227,12 @@ def test_level_balance_names_the_louder_side(spec, balance, side):
     f, _ = findings(spec, channel_pairs=[["L", "R"], ["Ls", "Rs"]], level_balance_lu_per_pair=[0.5, balance])
     b = f["integrity.level_balance"]
     assert b.measured == 2.0
-    assert b.message == f"level balance Ls/Rs (magnitude) 2.0 LU is above the limit 1.5 LU by 0.5 LU; {side}s is louder"
+    assert b.message == f"Level difference Ls/Rs is 2.0 LU, 0.5 LU above the limit of 1.5 LU; {side}s is the louder."
     # the worst pair is the largest magnitude; a pair without a value is passed over
     f, _ = findings(spec, channel_pairs=[["L", "R"], ["Ls", "Rs"]], level_balance_lu_per_pair=[-1.2, None])
-    assert f["integrity.level_balance"].message == "level balance L/R (magnitude) 1.2 LU meets <= 1.5 LU"
+    assert f["integrity.level_balance"].message == 'Level difference L/R is 1.2 LU (limit: at most 1.5 LU).'
     f, _ = findings(spec, channel_pairs=[["L", "R"], ["Ls", "Rs"]], level_balance_lu_per_pair=[-1.2, 1.2])
-    assert f["integrity.level_balance"].message.startswith("level balance L/R ")  # a tie keeps the first
+    assert f["integrity.level_balance"].message.startswith("Level difference L/R ")  # a tie keeps the first
 
 
 def test_nonfinite_samples_are_an_error_with_positions(spec):
@@ -248,20 +243,18 @@ def test_nonfinite_samples_are_an_error_with_positions(spec):
                           nonfinite_where_s=[[0.0002, 0.0005]])
     n = f["integrity.nonfinite_samples"]
     assert verdict == "error" and n.status == "error" and n.measured == 7 and n.where_s == [[0.0002, 0.0005]]
-    assert n.message == ("7 non-finite sample(s) (NaN 6, infinite 1) (L: 5, R: 2): first NaN in L at frame 10 "
-                         "(0.000208 s), +Inf in R at frame 20 (0.000417 s) and 5 more; they were read as 0.0 for "
-                         "every other measurement")
+    assert n.message == ('7 non-finite samples (NaN 6, infinite 1); per channel: L 5, R 2; first NaN in L at frame 10 (0.000208 s), +Inf in R at frame 20 (0.000417 s) and 5 more; they were read as 0.0 for every other measurement.')
     # none: no finding unless the spec names the key; the key written gives a pass
     assert "integrity.nonfinite_samples" not in findings(spec)[0]
     s = load_spec_text(SPEC + "  nonfinite_samples: true\n").spec
     p = findings(s)[0]["integrity.nonfinite_samples"]
-    assert (p.status, p.message, p.measured_text, p.limit) == ("pass", "no non-finite samples (NaN, +-Inf)", "0",
+    assert (p.status, p.message, p.measured_text, p.limit) == ("pass", "No non-finite samples (NaN or infinite values).", "0",
                                                                "none")
     off = load_spec_text(SPEC + "  nonfinite_samples: false\n").spec
     assert "integrity.nonfinite_samples" not in findings(off, nonfinite_sample_count=3)[0]
     missing = findings(s, nonfinite_sample_count=None)[0]["integrity.nonfinite_samples"]
     assert missing.status == "skipped" and missing.message == (
-        "non-finite samples: not judged, the measurement nonfinite_sample_count is missing from the result")
+        'Non-finite samples: not judged; the measurement nonfinite_sample_count is missing from the result.')
 
 
 def test_warnings_carry_the_same_detail_as_failures():
@@ -275,12 +268,9 @@ def test_warnings_carry_the_same_detail_as_failures():
                           inverted_polarity=True, inverted_polarity_pairs=[["L", "R"]],
                           level_balance_lu_per_pair=[-2.0], tail_silence_s=0.25, head_silence_s=3.0)
     assert verdict == "warn"
-    assert f["integrity.dropouts"].message == ("dropouts 1 is above the limit 0 by 1 (L: 0, R: 1); a frozen sample "
-                                               "value (severity warn: reported as a warning)")
-    assert f["integrity.inverted_polarity"].message == ("channel pair in inverted polarity true is not allowed "
-                                                        "(allowed: false) (L/R) (severity warn: reported as a warning)")
-    assert f["integrity.level_balance"].message == ("level balance L/R (magnitude) 2.0 LU is above the limit 1.5 LU "
-                                                    "by 0.5 LU; R is louder (severity warn: reported as a warning)")
+    assert f["integrity.dropouts"].message == ('1 dropout where the spec allows none; per channel: L 0, R 1; found: a frozen sample value (the spec counts this as a warning).')
+    assert f["integrity.inverted_polarity"].message == ('Polarity: the channels (L/R) are inverted; the spec does not allow this (the spec counts this as a warning).')
+    assert f["integrity.level_balance"].message == ('Level difference L/R is 2.0 LU, 0.5 LU above the limit of 1.5 LU; R is the louder (the spec counts this as a warning).')
     assert f["integrity.tail_silence"].where_s == [[29.75, 30.0]]
     assert f["integrity.head_silence"].where_s == [[0.0, 3.0]]
     # a tail of zero length gives no time range
@@ -291,9 +281,9 @@ def test_warnings_carry_the_same_detail_as_failures():
 def test_silence_messages_name_head_tail_and_kind(spec):
     f, _ = findings(spec, head_digital_silence_s=0.3, tail_digital_silence_s=0.25)
     assert f["integrity.head_digital_silence"].message == \
-        "digital silence at the head 0.300 s is above the limit 0.100 s by 0.200 s"
+        'Digital silence at the head is 0.300 s, 0.200 s above the limit of 0.100 s.'
     assert f["integrity.tail_digital_silence"].message == \
-        "digital silence at the tail 0.250 s is above the limit 0.200 s by 0.050 s"
+        'Digital silence at the tail is 0.250 s, 0.050 s above the limit of 0.200 s.'
 
 
 @pytest.mark.parametrize("count, shown, more", [(5, 5, ""), (6, 6, " and 1 more"), (7, 5, " and 2 more")])
@@ -302,8 +292,8 @@ def test_nonfinite_lists_at_most_five_positions(spec, count, shown, more):
     f, _ = findings(spec, nonfinite_sample_count=count, nonfinite_first_positions=first)
     n = f["integrity.nonfinite_samples"]
     listed = ", ".join(f"NaN in L at frame {k} ({k / 48000:.6f} s)" for k in range(min(shown, 5)))
-    assert n.message == (f"{count} non-finite sample(s) (NaN ?, infinite ?): first {listed}{more}; they were read "
-                         "as 0.0 for every other measurement")
+    assert n.message == (f"{count} non-finite samples (NaN ?, infinite ?); first {listed}{more}; they were read "
+                         "as 0.0 for every other measurement.")
     assert (n.measured, n.measured_raw, n.measured_text, n.limit) == (count, count, str(count), "none")
 
 

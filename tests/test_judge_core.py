@@ -48,7 +48,7 @@ def test_0_06_db_over_fails_and_is_shown_over():
     assert f.status == "fail"
     assert f.measured_text == "-0.9 dBTP"
     assert f.miss == pytest.approx(0.1)
-    assert "above the limit -1.0 dBTP by 0.1 dB" in f.message
+    assert "0.1 dB above the limit of -1.0 dBTP" in f.message
 
 
 def test_half_way_tie_goes_to_the_failing_side():
@@ -102,7 +102,7 @@ def test_warning_margin_edges():
     assert check_limits("p", "true peak", -1.34, req).status == "pass"   # shown -1.3
     assert check_limits("p", "true peak", -1.26, req).status == "pass"   # shown -1.3
     w = check_limits("p", "true peak", -1.2, req)
-    assert w.status == "warn" and "within 0.3 dB" in w.message
+    assert w.status == "warn" and "less than the 0.3 dB margin" in w.message
     assert check_limits("p", "true peak", -0.96, req).status == "warn"   # shown -1.0: on the ceiling
     assert check_limits("p", "true peak", -0.94, req).status == "fail"
 
@@ -110,7 +110,7 @@ def test_warning_margin_edges():
 def test_severity_warn_turns_a_miss_into_a_warning():
     req = bounds("lu").model_validate({"max_lu": 18.0, "severity": "warn"})
     f = check_limits("loudness.range", "loudness range", 22.4, req)
-    assert f.status == "warn" and f.miss == pytest.approx(4.4) and "severity warn" in f.message
+    assert f.status == "warn" and f.miss == pytest.approx(4.4) and "the spec counts this as a warning" in f.message
     assert verdict([f]) == "warn"
 
 
@@ -126,7 +126,7 @@ def test_allowed_values():
     req = allowed(int, "48000").model_validate([48000, 96000])
     assert check_allowed("format.sample_rate", "sample rate", 48000, req).status == "pass"
     f = check_allowed("format.sample_rate", "sample rate", 44100, req, show=lambda v: f"{v} Hz")
-    assert f.status == "fail" and "44100 Hz" in f.message and f.limit == "one of 48000 Hz, 96000 Hz"
+    assert f.status == "fail" and "44100 Hz" in f.message and f.limit == "48000 Hz or 96000 Hz"
     w = allowed(int).model_validate({"allowed": [24], "severity": "warn"})
     assert check_allowed("format.bit_depth", "bit depth", 16, w).status == "warn"
 
@@ -206,7 +206,7 @@ def test_failing_finding_dict_is_the_contract():
         "measured": -0.9, "measured_raw": -0.94, "measured_text": "-0.9 dBTP", "decimals": 1,
         "limit": "<= -1.0 dBTP", "limit_low": None, "limit_high": -1.0,
         "miss": pytest.approx(0.1), "unit": "dBTP",
-        "message": "true peak -0.9 dBTP is above the limit -1.0 dBTP by 0.1 dB",
+        "message": "True peak is -0.9 dBTP, 0.1 dB above the limit of -1.0 dBTP.",
         "where_s": [[1.5, 1.52]], "target": None, "miss_unit": "dB"}
 
 
@@ -214,8 +214,8 @@ def test_floor_miss_message_and_warn_severity_note():
     fl = floor("lufs").model_validate({"min_lufs": -20.0, "severity": "warn"})
     f = check_limits("x", "level", -20.26, fl, where_s=[[0.0, 1.0]])
     assert f.status == "warn" and f.miss == pytest.approx(0.3) and f.where_s == [[0.0, 1.0]]
-    assert f.message == ("level -20.3 LUFS is below the limit -20.0 LUFS by 0.3 LU "
-                         "(severity warn: reported as a warning)")
+    assert f.message == ("Level is -20.3 LUFS, 0.3 LU below the limit of -20.0 LUFS "
+                         "(the spec counts this as a warning).")
     assert (f.limit_low, f.limit_high, f.severity) == (-20.0, None, "warn")
 
 
@@ -223,15 +223,15 @@ def test_pass_and_margin_messages():
     req = tp(-1.0, warn_margin_db=0.3)
     p = check_limits("p", "true peak", -3.0, req, where_s=[[1.0, 2.0]])
     # time ranges travel only with a warning or a failure (check_limits' docstring)
-    assert p.message == "true peak -3.0 dBTP meets <= -1.0 dBTP" and p.where_s == []
+    assert p.message == "True peak is -3.0 dBTP (limit: at most -1.0 dBTP)." and p.where_s == []
     w = check_limits("p", "true peak", -1.1, req, where_s=[(1.0, 2.0)])
     assert w.where_s == [[1.0, 2.0]]
-    assert w.message == "true peak -1.1 dBTP passes but lies within 0.3 dB of the limit -1.0 dBTP"
+    assert w.message == "True peak is -1.1 dBTP: within the limit of -1.0 dBTP, but less than the 0.3 dB margin from it."
     assert w.miss is None
     lo = floor("lufs").model_validate({"min_lufs": -20.0, "warn_margin_lu": 0.5})
     w2 = check_limits("l", "level", -19.6, lo, where_s=[[3.0, 4.0]])
     assert w2.status == "warn" and w2.where_s == [[3.0, 4.0]]
-    assert w2.message == "level -19.6 LUFS passes but lies within 0.5 LU of the limit -20.0 LUFS"
+    assert w2.message == "Level is -19.6 LUFS: within the limit of -20.0 LUFS, but less than the 0.5 LU margin from it."
     assert check_limits("l", "level", -19.5, lo).status == "pass"  # exactly 0.5 above: outside the margin
 
 
@@ -278,7 +278,7 @@ def test_skipped_carries_limit_unit_and_severity():
         "check": "peaks.true_peak", "status": "skipped", "severity": "warn", "measured": None,
         "measured_raw": None, "measured_text": None, "decimals": 1, "limit": "<= -1.0 dBTP",
         "limit_low": None, "limit_high": -1.0, "miss": None, "unit": "dBTP",
-        "message": "true peak: not judged, the measurement does not exist for this file", "where_s": [],
+        "message": "True peak: not judged; the measurement does not exist for this file.", "where_s": [],
         "target": None, "miss_unit": "dB"}
 
 
@@ -292,17 +292,17 @@ def test_below_measurable_fails_a_floor_and_meets_a_ceiling():
         "measured_raw": None, "measured_text": "below measurable range", "decimals": 1,
         "limit": "-23.0 LUFS \u00b1 1.0 LU", "limit_low": -24.0, "limit_high": -22.0, "miss": None,
         "unit": "LUFS",
-        "message": "integrated loudness: the programme has no gated loudness, so it is below the limit -24.0 LUFS",
+        "message": "Integrated loudness: the programme has no gated loudness, so it is below the limit of -24.0 LUFS.",
         "where_s": [], "target": -23.0, "miss_unit": "LU"}
     w = check_below_measurable("l", "level", floor("lufs").model_validate({"min_lufs": -30.0, "severity": "warn"}),
                                why)
     assert w.status == "warn"
-    assert w.message == ("level: the programme has no gated loudness, so it is below the limit -30.0 LUFS "
-                         "(severity warn: reported as a warning)")
+    assert w.message == ("Level: the programme has no gated loudness, so it is below the limit of -30.0 LUFS "
+                         "(the spec counts this as a warning).")
     c = check_below_measurable("m", "maximum", ceiling("lufs").model_validate({"max_lufs": -10.0}), why)
     assert (c.status, c.miss, c.measured_text, c.limit_low, c.limit_high) == \
         ("pass", None, "below measurable range", None, -10.0)
-    assert c.message == "maximum: the programme has no gated loudness; meets <= -10.0 LUFS"
+    assert c.message == "Maximum: the programme has no gated loudness (limit: at most -10.0 LUFS)."
     assert (c.check, c.limit, c.unit, c.severity, c.decimals) == ("m", "<= -10.0 LUFS", "LUFS", "fail", 1)
 
 
@@ -313,28 +313,28 @@ def test_allowed_values_finding_fields_and_messages():
     assert p.to_dict() == {
         "check": "format.sample_rate", "status": "pass", "severity": "fail", "measured": 48000,
         "measured_raw": 48000, "measured_text": "48000 Hz", "decimals": None,
-        "limit": "one of 48000 Hz, 96000 Hz", "limit_low": None, "limit_high": None, "miss": None,
-        "unit": "Hz", "message": "sample rate 48000 Hz is allowed", "where_s": [], "target": None, "miss_unit": None}
+        "limit": "48000 Hz or 96000 Hz", "limit_low": None, "limit_high": None, "miss": None,
+        "unit": "Hz", "message": "Sample rate is 48000 Hz (allowed: 48000 Hz or 96000 Hz).", "where_s": [], "target": None, "miss_unit": None}
     f = check_allowed("format.sample_rate", "sample rate", 44100, req, show=show, unit="Hz")
     assert (f.status, f.measured, f.measured_raw, f.measured_text, f.unit, f.severity) == \
         ("fail", 44100, 44100, "44100 Hz", "Hz", "fail")
-    assert f.message == "sample rate 44100 Hz is not allowed (allowed: 48000 Hz, 96000 Hz)"
+    assert f.message == "Sample rate is 44100 Hz, which the spec does not allow (allowed: 48000 Hz or 96000 Hz)."
     w = check_allowed("format.bit_depth", "bit depth", 16,
                       allowed(int).model_validate({"allowed": [24], "severity": "warn"}))
-    assert w.message == "bit depth 16 is not allowed (allowed: 24) (severity warn: reported as a warning)"
+    assert w.message == "Bit depth is 16, which the spec does not allow (allowed: 24) (the spec counts this as a warning)."
     assert w.severity == "warn"
     s = check_allowed("format.sample_rate", "sample rate", None, req, show=show, unit="Hz")
-    assert (s.status, s.limit, s.unit, s.severity) == ("skipped", "one of 48000 Hz, 96000 Hz", "Hz", "fail")
-    assert s.message == "sample rate: not judged, the value is unknown for this file"
+    assert (s.status, s.limit, s.unit, s.severity) == ("skipped", "48000 Hz or 96000 Hz", "Hz", "fail")
+    assert s.message == "Sample rate: not judged; the value is unknown for this file."
     s2 = check_allowed("c", "layout", None, req, missing_reason="no channel mask")
-    assert s2.message == "layout: not judged, no channel mask"
+    assert s2.message == "Layout: not judged; no channel mask."
 
 
 def test_error_finding():
     from masterqc.judge.core import error
     e = error("report", "the PDF could not be written")
     assert (e.check, e.status, e.message, e.severity, e.limit) == \
-        ("report", "error", "the PDF could not be written", None, None)
+        ("report", "error", "The PDF could not be written.", None, None)
     assert verdict([e.to_dict(), Finding(check="c", status="fail", message="m")]) == "error"
 
 
@@ -368,7 +368,7 @@ def test_limit_text_of_unitless_quantities():
     assert limit_text(floor("corr").model_validate({"min_corr": -0.3})) == ">= -0.30"
     assert limit_text(target("corr").model_validate({"target_corr": 0.5, "tolerance_corr": 0.1})) == "0.50 \u00b1 0.10"
     f = check_limits("c", "clipped runs", 2, ceiling("count").model_validate({"max_count": 0}))
-    assert f.message == "clipped runs 2 is above the limit 0 by 2" and f.measured_text == "2" and f.unit == ""
+    assert f.message == "2 clipped runs where the spec allows none." and f.measured_text == "2" and f.unit == ""
 
 
 def test_a_tie_at_the_middle_of_bounds_goes_up():
@@ -382,5 +382,5 @@ def test_a_tie_at_the_middle_of_bounds_goes_up():
 def test_below_measurable_of_a_unitless_floor_has_no_trailing_space():
     from masterqc.judge.core import check_below_measurable
     f = check_below_measurable("c", "count", floor("count").model_validate({"min_count": 1}), "nothing to count")
-    assert f.message == "count: nothing to count, so it is below the limit 1"
+    assert f.message == "Count: nothing to count, so it is below the limit of 1."
     assert (f.measured, f.measured_raw, f.miss) == (None, None, None)

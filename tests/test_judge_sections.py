@@ -85,7 +85,7 @@ def test_short_programme_range_carries_the_caution(spec, duration_s, caution):
     # EBU Tech 3341 (2016 revision) has meters signal that LRA is not stable within the first
     # 60 s.  Both as reported in EBU's own publication notes; clause numbers from memory.
     f = by_check(judge(spec, result(duration_s=duration_s))[0])["loudness.range"]
-    assert ("loudness range is not recommended for programmes under one minute" in f.message) is caution
+    assert ("Loudness range means little for a programme under one minute" in f.message) is caution
     assert f.status == "pass"
 
 
@@ -206,34 +206,34 @@ def test_release_that_meets_everything():
     assert [x.status for x in f.values()] == ["pass"] * 6
     assert list(f) == ["release.track_count", "release.pooled_loudness", "release.track_loudness_spread",
                        "release.sample_rate", "release.bit_depth", "release.channels"]
-    assert f["release.sample_rate"].message == "every file has sample rate 44100 Hz"
+    assert f["release.sample_rate"].message == 'Every file has the sample rate 44100 Hz.'
     r = f["release.sample_rate"]
     assert (r.measured, r.measured_text, r.limit, r.severity) == ("44100 Hz", "44100 Hz", "one value", "fail")
-    assert f["release.bit_depth"].message == "every file has sample format pcm_24"
-    assert f["release.channels"].message == "every file has channel count 2"
-    assert f["release.pooled_loudness"].message == "pooled integrated loudness -14.2 LUFS meets -14.0 LUFS \u00b1 1.0 LU"
+    assert f["release.bit_depth"].message == 'Every file has the sample format pcm_24.'
+    assert f["release.channels"].message == 'Every file has the channel count 2.'
+    assert f["release.pooled_loudness"].message == 'Pooled integrated loudness is -14.2 LUFS (limit: -14.0 LUFS ± 1.0 LU).'
 
 
 def test_release_misses_and_mixed_formats():
     f = release_findings(pooled_integrated_lufs=-16.0, track_loudness_spread_lu=5.5, sample_rates_hz=[44100, 48000],
                          sample_formats=["pcm_16", "pcm_24"], channel_counts=[1, 2], track_count=6)
-    assert f["release.track_count"].message == "track count 6 is below the limit 8 by 2"
+    assert f["release.track_count"].message == 'Track count is 6, 2 below the limit of 8.'
     assert f["release.pooled_loudness"].message == \
-        "pooled integrated loudness -16.0 LUFS is below the limit -15.0 LUFS by 1.0 LU"
+        'Pooled integrated loudness is -16.0 LUFS, 1.0 LU below the limit of -15.0 LUFS (target -14.0 LUFS ± 1.0 LU).'
     s = f["release.track_loudness_spread"]
     assert s.status == "warn" and s.message == \
-        "track loudness spread 5.5 LU is above the limit 4.0 LU by 1.5 LU (severity warn: reported as a warning)"
+        'Track loudness spread is 5.5 LU, 1.5 LU above the limit of 4.0 LU (the spec counts this as a warning).'
     r = f["release.sample_rate"]
     assert (r.status, r.measured, r.measured_text, r.severity) == ("fail", "44100 Hz, 48000 Hz", "44100 Hz, 48000 Hz",
                                                                    "fail")
-    assert r.message == "the release mixes sample rates: 44100 Hz, 48000 Hz"
+    assert r.message == 'The release mixes sample rates: 44100 Hz, 48000 Hz.'
     assert r.limit == "one value"
-    assert f["release.bit_depth"].message == "the release mixes sample formats: pcm_16, pcm_24"
-    assert f["release.channels"].message == "the release mixes channel counts: 1, 2"
+    assert f["release.bit_depth"].message == 'The release mixes sample formats: pcm_16, pcm_24.'
+    assert f["release.channels"].message == 'The release mixes channel counts: 1, 2.'
     w = release_findings(RELEASE_SPEC.replace("channels: true}", "channels: true, severity: warn}"),
                          channel_counts=[1, 2])["release.channels"]
     assert (w.status, w.severity) == ("warn", "warn")
-    assert w.message == "the release mixes channel counts: 1, 2 (severity warn: reported as a warning)"
+    assert w.message == 'The release mixes channel counts: 1, 2 (the spec counts this as a warning).'
 
 
 def test_release_without_readable_files_or_loudness():
@@ -241,16 +241,15 @@ def test_release_without_readable_files_or_loudness():
                          sample_formats=None, channel_counts=[], unreadable_count=3, track_count=3)
     e = f["release.files"]
     assert e.status == "error"
-    assert e.message == "3 of 3 files could not be read; the release figures cover the others only"
-    assert f["release.pooled_loudness"].message == ("pooled integrated loudness: not judged, no gating block of "
-                                                    "any track is above the -70 LUFS absolute gate")
+    assert e.message == '3 of 3 files could not be read; the release figures cover the others only.'
+    assert f["release.pooled_loudness"].message == ('Pooled integrated loudness: not judged; no gating block of any track is above the -70 LUFS absolute gate.')
     assert f["release.track_loudness_spread"].message == \
-        "track loudness spread: not judged, no track has an integrated loudness"
+        'Track loudness spread: not judged; no track has an integrated loudness.'
     for key, what in (("release.sample_rate", "sample rate"), ("release.bit_depth", "sample format"),
                       ("release.channels", "channel count")):
         x = f[key]
         assert (x.status, x.limit, x.severity) == ("skipped", "one value", "fail")
-        assert x.message == f"{what}: not judged, no file of the release could be read"
+        assert x.message == f"{what[0].upper()}{what[1:]}: not judged; no file of the release could be read."
 
 
 def test_release_checks_only_what_the_spec_names():
@@ -317,7 +316,7 @@ def test_a_judge_that_raises_becomes_one_error_finding(spec, monkeypatch):
     errors = [f for f in findings if f.status == "error"]
     assert verdict == "error" and len(errors) == 1
     assert (errors[0].check, errors[0].message) == \
-        ("loudness", "the loudness requirements could not be judged: KeyError: 'integrated_lufs'")
+        ("loudness", "The loudness requirements could not be judged: KeyError: 'integrated_lufs'.")
     assert any(f.check == "peaks.true_peak" for f in findings)  # the other sections are still judged
 
 
@@ -329,26 +328,28 @@ def test_every_section_message_in_full(spec):
                true_peak_dbtp=None, sample_peak_dbfs=-0.2)
     got = [(f.check, f.status, f.unit, f.message) for f in judge(spec, r)[0]]
     assert got == [
-        ("format.container", "fail", None, "container aiff is not allowed (allowed: wav)"),
-        ("format.sample_rate", "fail", "Hz", "sample rate 44100 Hz is not allowed (allowed: 48000 Hz)"),
-        ("format.channel_layout", "fail", None, "channel layout [L, R, C] is not allowed (allowed: [L, R])"),
-        ("duration.total", "fail", "s", "duration 75.000 s is above the limit 60.000 s by 15.000 s"),
+        ("format.container", "fail", None, "Container is aiff, which the spec does not allow (allowed: wav)."),
+        ("format.sample_rate", "fail", "Hz",
+         "Sample rate is 44100 Hz, which the spec does not allow (allowed: 48000 Hz)."),
+        ("format.channel_layout", "fail", None,
+         "Channel layout is [L, R, C], which the spec does not allow (allowed: [L, R])."),
+        ("duration.total", "fail", "s", "Duration is 75.000 s, 15.000 s above the limit of 60.000 s."),
         ("loudness.integrated", "fail", "LUFS",
-         "integrated loudness -20.0 LUFS is above the limit -22.0 LUFS by 2.0 LU"),
-        ("loudness.range", "skipped", "LU", "loudness range: not judged, too little gated short-term loudness to "
-                                            "compute a range (programme shorter than 3 s or silent)"),
+         "Integrated loudness is -20.0 LUFS, 2.0 LU above the limit of -22.0 LUFS (target -23.0 LUFS \u00b1 1.0 LU)."),
+        ("loudness.range", "skipped", "LU", "Loudness range: not judged; too little gated short-term loudness to "
+                                            "compute a range (programme shorter than 3 s or silent)."),
         ("loudness.max_momentary", "pass", "LUFS",
-         "maximum momentary loudness: the programme has no gated loudness (digital silence or below the -70 LUFS "
-         "gate); meets <= -10.0 LUFS"),
-        ("loudness.max_short_term", "warn", "LUFS", "maximum short-term loudness -17.0 LUFS is above the limit "
-                                                    "-18.0 LUFS by 1.0 LU (severity warn: reported as a warning)"),
+         "Maximum momentary loudness: the programme has no gated loudness (digital silence or below the -70 LUFS "
+         "gate) (limit: at most -10.0 LUFS)."),
+        ("loudness.max_short_term", "warn", "LUFS", "Maximum short-term loudness is -17.0 LUFS, 1.0 LU above the "
+                                                    "limit of -18.0 LUFS (the spec counts this as a warning)."),
         ("peaks.true_peak", "skipped", "dBTP",
-         "true peak: not judged, the file is digital silence (no peak level exists)"),
-        ("peaks.sample_peak", "fail", "dBFS", "sample peak -0.2 dBFS is above the limit -0.5 dBFS by 0.3 dB"),
+         "True peak: not judged; the file is digital silence (no peak level exists)."),
+        ("peaks.sample_peak", "fail", "dBFS", "Sample peak is -0.2 dBFS, 0.3 dB above the limit of -0.5 dBFS."),
     ]
     u = {f.check: f for f in judge(spec, result(channel_layout_source="unknown"))[0]}["format.channel_layout"]
-    assert (u.status, u.message) == ("skipped", "channel layout: not judged, the file does not say which channel "
-                                                "is which (no channel mask, no usual order for this count)")
+    assert (u.status, u.message) == ("skipped", "Channel layout: not judged; the file does not say which channel "
+                                                "is which (no channel mask, no usual order for this count).")
     # a layout that is known is judged and the checks after it still run
     assert [f.check for f in judge(spec, result(channel_layout_source="unknown"))[0]][:3] == \
         ["format.container", "format.sample_rate", "format.channel_layout"]

@@ -161,7 +161,7 @@ def test_declared_allowed_checks_judge_the_format(judged):
     """The format section is judged from its declarations alone: the 96 kHz file meets [96000]."""
     by = {f["check"]: f for f in judged["findings"]}
     assert by["format.sample_rate"]["status"] == "pass" and by["format.sample_rate"]["measured"] == 96000
-    assert by["format.sample_rate"]["message"] == "sample rate 96000 Hz is allowed"
+    assert by["format.sample_rate"]["message"] == 'Sample rate is 96000 Hz (allowed: 96000 Hz).'
     assert by["format.bit_depth"]["measured_text"] == "24-bit" and by["format.bit_depth"]["unit"] == "bits"
     assert by["format.channel_layout"]["measured_text"] == "[L, R]"
 
@@ -173,4 +173,4 @@ def test_a_layout_guessed_from_nothing_is_judged_as_unknown():
     result = {"format": {"channel_layout": ["ch1", "ch2"], "channel_layout_source": "unknown", "channels": 3}}
     layout, count = judge_checks(section, result, fmt_section.CHECKS)[::-1]
     assert layout.status == "skipped" and "does not say which channel is which" in layout.message
-    assert count.status == "fail" and count.message == "channel count 3 is not allowed (allowed: 2)"
+    assert count.status == "fail" and count.message == 'Channel count is 3, which the spec does not allow (allowed: 2).'

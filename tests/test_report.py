@@ -84,24 +84,31 @@ def test_render_is_deterministic_and_survives_a_json_round_trip(judged, html):
     assert render_html(again) == html
 
 
-def test_verdict_comes_first_then_what_to_fix(tree, judged):
+def test_certificate_comes_first_then_what_to_fix(tree, judged):
     body = tree.find("body")
-    masthead = body.find("header")
-    assert masthead is body[0]
-    verdict = [el for el in masthead.iter() if el.get("class", "").startswith("verdict ")][0]
+    certificate = body[0]
+    assert certificate.get("id") == "certificate"
+    verdict = [el for el in certificate.iter() if el.get("class", "").startswith("verdict ")][0]
     text = _text(verdict)
     assert text.startswith("FAIL Does not meet the spec")
     assert "2 checks failed" in text  # true peak, and true peak after conversion to 44.1 kHz
-    fixes = _text([el for el in masthead.iter() if el.get("class") == "fixes"][0])
-    # the true-peak failure, its miss (-20.0 against -25.0: 5.0 dB) and where, in the file's timecode
-    assert "true peak -20.0 dBTP is above the limit -25.0 dBTP by 5.0 dB" in fixes
-    assert "01:00:00:00" in fixes
+    problems = _text([el for el in certificate.iter() if el.get("class") == "problems"][0])
+    # the true-peak failure with its value, limit and miss (-20.0 against -25.0: 5.0 dB), in one sentence
+    assert "FAIL True peak is -20.0 dBTP, 5.0 dB above the limit of -25.0 dBTP." in problems
+    # what to fix: advice with the amount, the first section after the certificate
+    fixes = body.find("main")[0]
+    assert fixes.get("id") == "fixes"
+    assert ("Put a true-peak limiter at or below -25.0 dBTP (the peaks now reach -20.0 dBTP), or lower the gain "
+            "by 5.0 dB.") in _text(fixes)
+    # where, in the file's timecode, with the finding in the appendix
+    findings = _text([s for s in tree.iter("section") if s.get("id") == "findings"][0])
+    assert "Where: 01:00:00:00" in findings
 
 
 def test_sections_in_the_issue_order(tree):
     ids = [s.get("id") for s in tree.iter("section")]
-    assert ids == ["findings", "format", "loudness", "true-peak", "spectrum", "spectrogram", "events",
-                   "conversions", "normalisation", "provenance", "cautions"]
+    assert ids == ["certificate", "fixes", "findings", "format", "loudness", "true-peak", "spectrum", "spectrogram",
+                   "events", "conversions", "normalisation", "provenance"]
 
 
 def test_findings_rows_carry_word_shape_and_numbers(tree):
@@ -109,14 +116,13 @@ def test_findings_rows_carry_word_shape_and_numbers(tree):
     by_check = {}
     for tr in rows:
         cells = tr.findall("td")
-        check_id = [s for s in cells[1] if s.get("class") == "check-id"][0].text
-        by_check[check_id.split(" ")[0]] = (tr.get("class"), cells)
+        by_check[cells[1].get("title")] = (tr.get("class"), cells)
     cls, cells = by_check["peaks.true_peak"]
     assert cls == "row-fail"
     assert _text(cells[0]) == "FAIL"
     icon = cells[0].find(f"{SVG}svg")
     assert icon is not None and icon.find(f"{SVG}rect") is not None  # fail: a square
-    assert [_text(c) for c in cells[2:5]] == ["-20.0\u00a0dBTP", "\u2264 -25.0 dBTP", "5.0\u00a0dB"]
+    assert _text(cells[2]).startswith("True peak is -20.0 dBTP, 5.0 dB above the limit of -25.0 dBTP.")
     cls, cells = by_check["loudness.integrated"]
     assert cls == "row-pass" and _text(cells[0]) == "PASS"
     assert cells[0].find(f"{SVG}svg").find(f"{SVG}circle") is not None  # pass: a disc
@@ -136,7 +142,7 @@ def test_key_numbers_match_an_outside_meter(judged, html):
     reference = pyloudnorm.Meter(rate, filter_class="DeMan").integrated_loudness(data)
     shown = f"{reference:.1f}"
     assert shown == "-20.0"
-    assert f"<td>{shown}\u00a0LUFS</td>" in html  # the loudness table row
+    assert f"<dt>Integrated</dt><dd>{shown}\u00a0LUFS</dd>" in html  # the certificate's key figures
     assert f"integrated -{shown[1:]} LUFS" in html  # the plot's legend
 
 
@@ -208,7 +214,7 @@ def test_render_survives_missing_or_odd_keys(judged):
     nulls = copy.deepcopy(base)
     nulls["measurements"] = {k: None for k in nulls["measurements"]}
     page = render_html(nulls)
-    assert "<tr><th scope=\"row\">Integrated loudness</th><td>n/a</td></tr>" in page  # null shown as n/a
+    assert "<dt>Integrated</dt><dd>n/a</dd>" in page  # null shown as n/a
     odd = copy.deepcopy(base)
     odd["series"] = {k: "not a series" for k in odd["series"]}
     odd["settings"] = {"loudness": [1, 2, 3]}
@@ -229,15 +235,15 @@ def test_error_result_of_an_unreadable_master_renders(tmp_path):
     result = check_file(bad, load_spec(spec), tmp_path, ("json",))
     page = render_html(result)
     tree = ET.fromstring(page.split("\n", 1)[1])
-    assert _text(tree.find("body").find("header")).startswith("masterqc delivery report")
-    assert "ERROR Could not be checked: the master could not be read" in _text(tree.find("body").find("header"))
+    assert _text(tree.find("body")[0]).startswith("masterqc delivery QC certificate")
+    assert "ERROR Could not be checked: the master could not be read" in _text(tree.find("body")[0])
     assert "cannot be checked" in page
 
 
 def test_measure_only_result_is_marked_not_judged(judged):
     result = {k: v for k, v in judged[2].items() if k not in ("spec", "findings", "verdict", "normalisation")}
     view = build_view(result)
-    assert view["verdict"]["word"] == "NOT JUDGED"
+    assert view["verdict"]["word"] == "MEASURED ONLY"
     assert view["findings"] == []
 
 

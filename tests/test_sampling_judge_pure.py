@@ -60,25 +60,23 @@ def test_effective_bandwidth_floor_and_note():
     f = by["sampling.effective_bandwidth"]
     # 19000 Hz < 20000 Hz: missed by 1000 Hz (Hz are shown whole)
     assert (f.status, f.miss, verdict) == ("fail", 1000.0, "fail")
-    assert f.message == ("effective bandwidth 19000 Hz is below the limit 20000 Hz by 1000 Hz "
-                         "(noise-like top octave)")
+    assert f.message == ('Effective bandwidth is 19000 Hz, 1000 Hz below the limit of 20000 Hz (noise-like top octave).')
     by, verdict = run(sp, {"effective_bandwidth_hz": 20000.0, "bandwidth_note": "noise-like top octave"})
     f = by["sampling.effective_bandwidth"]
     assert (f.status, verdict) == ("pass", "pass")
-    assert f.message == "effective bandwidth 20000 Hz meets >= 20000 Hz"  # the note only with a miss
+    assert f.message == 'Effective bandwidth is 20000 Hz (limit: at least 20000 Hz).'  # the note only with a miss
     by, _v = run(sp, {"effective_bandwidth_hz": 19000.0})
-    assert by["sampling.effective_bandwidth"].message.endswith("by 1000 Hz")
+    assert by["sampling.effective_bandwidth"].message.endswith("1000 Hz below the limit of 20000 Hz.")
     # missing key, and present but null (with and without a note)
     by, verdict = run(sp, {})
     assert by["sampling.effective_bandwidth"].status == "skipped" and verdict == "pass"
     assert by["sampling.effective_bandwidth"].message == (
-        "effective bandwidth: not judged, the measurement effective_bandwidth_hz is missing from the result "
-        "(its analyzer did not run)")
+        'Effective bandwidth: not judged; the measurement effective_bandwidth_hz is missing from the result (its analyzer did not run).')
     by, _v = run(sp, {"effective_bandwidth_hz": None})
     assert by["sampling.effective_bandwidth"].message == (
-        "effective bandwidth: not judged, no content above the noise floor")
+        'Effective bandwidth: not judged; no content above the noise floor.')
     by, _v = run(sp, {"effective_bandwidth_hz": None, "bandwidth_note": "digital silence"})
-    assert by["sampling.effective_bandwidth"].message == "effective bandwidth: not judged, digital silence"
+    assert by["sampling.effective_bandwidth"].message == 'Effective bandwidth: not judged; digital silence.'
 
 
 def test_effective_bandwidth_at_severity_warn():
@@ -86,7 +84,7 @@ def test_effective_bandwidth_at_severity_warn():
     by, verdict = run(sp, {"effective_bandwidth_hz": 15000.0, "bandwidth_note": "lossy source?"})
     f = by["sampling.effective_bandwidth"]
     assert (f.status, f.miss, verdict) == ("warn", 5000.0, "warn")
-    assert f.message.endswith("(severity warn: reported as a warning) (lossy source?)")
+    assert f.message.endswith("(lossy source?) (the spec counts this as a warning).")
 
 
 # ------------------------------------------------------------------ upsampling
@@ -96,14 +94,12 @@ def test_upsampling_missing_and_not_upsampled():
     by, verdict = run(sp, {})
     f = by["sampling.upsampled"]
     assert f.status == "skipped" and verdict == "pass"
-    assert f.message == ("upsampled from a lower rate: not judged, the measurement upsampled_from_hz is missing "
-                         "from the result (its analyzer did not run)")
-    assert f.limit == "one of false"
+    assert f.message == ('Upsampling: not judged; the measurement upsampled_from_hz is missing from the result (its analyzer did not run).')
+    assert f.limit == 'no'
     by, verdict = run(sp, {"upsampled_from_hz": None})
     f = by["sampling.upsampled"]
     assert (f.status, f.measured, verdict) == ("pass", False, "pass")
-    assert f.message == ("upsampled from a lower rate: no, which the spec allows. "
-                         "No converter's cliff below a lower standard rate's Nyquist frequency.")
+    assert f.message == ("Upsampling: the file was not converted up from a lower rate. No converter's cliff below a lower standard rate's Nyquist frequency.")
     assert f.where_s == []
 
 
@@ -124,7 +120,7 @@ def test_upsampling_missing_and_not_upsampled():
 ])
 def test_not_upsampled_sentences(m, sentence):
     by, _v = run(spec(upsampled=[False]), {"upsampled_from_hz": None, **m})
-    assert by["sampling.upsampled"].message == "upsampled from a lower rate: no, which the spec allows. " + sentence
+    assert by["sampling.upsampled"].message == "Upsampling: the file was not converted up from a lower rate. " + sentence
 
 
 def test_upsampled_cliff_fails_with_where_and_confidence():
@@ -139,11 +135,7 @@ def test_upsampled_cliff_fails_with_where_and_confidence():
     assert (f.status, f.measured, verdict) == ("fail", True, "fail")
     assert f.where_s == [[0.0, 30.0]]
     assert f.message == (
-        "upsampled from a lower rate: yes, which the spec does not allow. "
-        "Converted up from 44.1 kHz: the spectrum ends in a converter's cliff at 21.0 kHz (0.95 of 22.05 kHz), "
-        "96 dB deep. Channels converted: L, R. Reconvert from the original 44.1 kHz master rather than delivering "
-        "an upsampled file (confidence 0.50). Cannot be tested for a source at 88.2, 48 kHz (no content just "
-        "below its Nyquist frequency, or no room above it).")
+        "Upsampling: the file was converted up from 44.1 kHz; the spec does not allow this. Converted up from 44.1 kHz: the spectrum ends in a converter's cliff at 21.0 kHz (0.95 of 22.05 kHz), 96 dB deep. Channels converted: L, R. Reconvert from the original 44.1 kHz master rather than delivering an upsampled file (confidence 0.50). Cannot be tested for a source at 88.2, 48 kHz (no content just below its Nyquist frequency, or no room above it).")
 
 
 def test_upsampled_below_the_minimum_confidence_is_not_counted():
@@ -154,9 +146,7 @@ def test_upsampled_below_the_minimum_confidence_is_not_counted():
     assert (f.status, f.measured, verdict) == ("pass", False, "pass")
     assert f.where_s == []  # no time ranges on a pass
     assert f.message == (
-        "upsampled from a lower rate: no, which the spec allows. Converted up from 48 kHz: the spectrum ends in "
-        "a converter's cliff. Reconvert from the original 48 kHz master rather than delivering an upsampled file "
-        "(confidence 0.59). Below the spec's minimum confidence of 0.60, so not counted.")
+        "Upsampling: the file was converted up from 48 kHz. Converted up from 48 kHz: the spectrum ends in a converter's cliff. Reconvert from the original 48 kHz master rather than delivering an upsampled file (confidence 0.59). Below the spec's minimum confidence of 0.60, so not counted.")
     # without a minimum every verdict counts; no confidence at all counts too
     by, _v = run(spec(upsampled=[False]), dict(m, upsampled_confidence_fraction=0.01))
     assert by["sampling.upsampled"].status == "fail"
@@ -171,13 +161,13 @@ def test_upsampled_allowed_by_the_spec_and_severity_warn():
     by, verdict = run(spec(upsampled=[True, False]), m)
     f = by["sampling.upsampled"]
     assert (f.status, verdict, f.where_s) == ("pass", "pass", [])
-    assert f.message.startswith("upsampled from a lower rate: yes, which the spec allows. Converted up from 44.1 kHz")
-    assert f.limit == "one of true, false"
+    assert f.message.startswith("Upsampling: the file was converted up from 44.1 kHz. Converted up from 44.1 kHz")
+    assert f.limit == 'yes or no'
     by, verdict = run(spec(upsampled={"allowed": [False], "severity": "warn"}), m)
     f = by["sampling.upsampled"]
     assert (f.status, verdict, f.where_s) == ("warn", "warn", [[1.0, 2.0]])
-    assert f.message.startswith("upsampled from a lower rate: yes, which the spec does not allow "
-                                "(severity warn: reported as a warning). Converted up")
+    assert f.message.startswith("Upsampling: the file was converted up from 44.1 kHz; the spec does not allow this "
+                                "(the spec counts this as a warning). Converted up")
 
 
 @pytest.mark.parametrize("evidence, body", [
@@ -193,7 +183,7 @@ def test_upsampled_sentence_per_evidence(evidence, body):
          "upsampled_channels": ["M"]}
     by, _v = run(spec(upsampled=[False]), m)
     assert by["sampling.upsampled"].message == (
-        "upsampled from a lower rate: yes, which the spec does not allow. " + body
+        "Upsampling: the file was converted up from 44.1 kHz; the spec does not allow this. " + body
         + " Channel converted: M. Reconvert from the original 44.1 kHz master rather than delivering an "
           "upsampled file (confidence 1.00).")
 
@@ -226,8 +216,7 @@ def test_partly_upsampled_names_rates_and_merged_times():
     # 0.3 < 0.8 drops the 88.2 kHz segment; 0.8 counts (at or above); None counts
     assert (f.status, f.measured, verdict) == ("fail", True, "fail")
     assert f.where_s == [[0.0, 20.0], [30.0, 40.0]]
-    assert f.message == ("upsampled from a lower rate: yes, which the spec does not allow. Part of the file ends "
-                         "in a converter's cliff, as if converted up from 44.1 kHz or 48 kHz (0.0-20.0 s, 30.0-40.0 s)")
+    assert f.message == ("Upsampling: part of the file was converted up from 44.1 kHz or 48 kHz; the spec does not allow this. Part of the file ends in a converter's cliff, as if converted up from 44.1 kHz or 48 kHz (0.0-20.0 s, 30.0-40.0 s).")
     # allowed by the spec: the parts are still named, without time ranges on the finding
     by, _v = run(spec(upsampled=[True, False], upsampled_min_confidence=0.8), m)
     f = by["sampling.upsampled"]
@@ -249,20 +238,18 @@ def test_band_limited():
     by, verdict = run(sp, {"band_limit_hz": 15500.0, "bandwidth_edge_depth_db": 60})
     f = by["sampling.band_limited"]
     assert (f.status, f.measured, verdict) == ("fail", True, "fail")
-    assert f.message == ("low-passed at a frequency no standard rate explains: yes, which the spec does not allow: "
-                         "content ends in a cliff at 15.50 kHz (60 dB deep): lossy or filtered source?")
+    assert f.message == ('Band limit: the content ends in a cliff at 15.50 kHz, a frequency no standard rate explains; the spec does not allow this. The cliff is 60 dB deep (a lossy or low-passed source?).')
     by, verdict = run(sp, {"band_limit_hz": None, "bandwidth_note": "rolls off"})
     f = by["sampling.band_limited"]
     assert (f.status, f.measured, verdict) == ("pass", False, "pass")
-    assert f.message == "low-passed at a frequency no standard rate explains: no, which the spec allows (rolls off)"
+    assert f.message == 'Band limit: no low-pass at a frequency that no standard rate explains (rolls off).'
     by, _v = run(sp, {"band_limit_hz": None})
     assert by["sampling.band_limited"].message == \
-        "low-passed at a frequency no standard rate explains: no, which the spec allows"
+        'Band limit: no low-pass at a frequency that no standard rate explains.'
     by, _v = run(sp, {})
     f = by["sampling.band_limited"]
     assert f.status == "skipped" and f.message == (
-        "low-passed at a frequency no standard rate explains: not judged, the measurement band_limit_hz is missing "
-        "from the result (its analyzer did not run)")
+        'Band limit: not judged; the measurement band_limit_hz is missing from the result (its analyzer did not run).')
 
 
 # ------------------------------------------------------------------ imaging
@@ -277,12 +264,10 @@ def test_imaging_detail_and_untestable_reason():
     by, verdict = run(sp, m)
     f = by["sampling.imaging"]
     assert (f.status, verdict) == ("fail", "fail")
-    assert f.message == ("mirror images of an unfiltered upsampler: yes, which the spec does not allow; "
-                         "44.1 kHz source: defect, coherence 0.91, mirror image -12.3 dB re baseband (L); "
-                         "48 kHz source: trace")
+    assert f.message == ('Imaging: the spectrum holds mirror images left by an unfiltered upsampler; the spec does not allow this. 44.1 kHz source: defect, coherence 0.91, mirror image -12.3 dB re baseband (L); 48 kHz source: trace.')
     by, _v = run(sp, {"imaging_detected": False, "imaging": m["imaging"][2:]})
     f = by["sampling.imaging"]
-    assert f.status == "pass" and f.message == "mirror images of an unfiltered upsampler: no, which the spec allows"
+    assert f.status == "pass" and f.message == 'Imaging: no mirror images of an unfiltered upsampler.'
     # not testable: the first untestable candidate with a reason and a rate says why
     cands = [{"source_rate_hz": 22050, "verdict": "untestable", "reason": ""},
              {"source_rate_hz": None, "verdict": "untestable", "reason": "no rate"},
@@ -292,11 +277,10 @@ def test_imaging_detail_and_untestable_reason():
     by, verdict = run(sp, {"imaging_detected": None, "imaging": cands})
     f = by["sampling.imaging"]
     assert (f.status, verdict) == ("skipped", "pass")
-    assert f.message == ("mirror images of an unfiltered upsampler: not judged, no candidate source rate could be "
-                         "tested (e.g. 44.1 kHz: no content below 22 kHz)")
+    assert f.message == ('Imaging: not judged; no candidate source rate could be tested (e.g. 44.1 kHz: no content below 22 kHz).')
     by, _v = run(sp, {"imaging_detected": None})
     assert by["sampling.imaging"].message == (
-        "mirror images of an unfiltered upsampler: not judged, no candidate source rate could be tested")
+        'Imaging: not judged; no candidate source rate could be tested.')
     by, _v = run(sp, {})
     assert "the measurement imaging_detected is missing" in by["sampling.imaging"].message
 
@@ -314,15 +298,15 @@ def test_aliasing_message_tonal_with_examples_and_ratio():
     assert (f.status, verdict) == ("fail", "fail")
     assert f.where_s == [[65.0, 70.0], [3.0, 5.5]]
     assert f.message == (
-        "Folded (aliased) partials found from 0:03 to 1:10: notes here (fundamental about 440.0 Hz) have "
+        "Aliasing: folded (aliased) content found from 0:03 to 1:10; the spec does not allow this. "
+        "The notes here (fundamental about 440.0 Hz) have "
         "harmonics above 24 kHz that fold back into the audible band, between the true harmonics. "
         "Also, a partial rising towards 24 kHz comes back falling at the mirrored frequency "
         "(e.g. 23.50 kHz at 3.25 s, back at 24.50 kHz at 3.50 s). "
         "The folded partials are -31.3 dB relative to the harmonics. "
         "A synthesiser voice generated without band limiting does this, and so does a rate conversion that "
         "dropped samples without an anti-alias filter. Re-render the voice with its oscillators' anti-aliasing "
-        "on, or at a higher internal rate; or redo the conversion from the original with a proper resampler. "
-        "The spec does not allow folded content.")
+        "on, or at a higher internal rate; or redo the conversion from the original with a proper resampler.")
 
 
 def test_aliasing_message_partials_only_and_warn():
@@ -332,9 +316,9 @@ def test_aliasing_message_partials_only_and_warn():
     f = by["sampling.aliasing"]
     assert (f.status, verdict, f.where_s) == ("warn", "warn", [[3.2, 3.9]])
     assert f.message.startswith(
-        "Folded content found at 0:03: a partial rising towards the Nyquist frequency comes back falling at the "
+        "Aliasing: folded (aliased) content found at 0:03; the spec does not allow this (the spec counts this as "
+        "a warning). A partial rising towards the Nyquist frequency comes back falling at the "
         "mirrored frequency. A synthesiser voice")
-    assert f.message.endswith("The spec does not allow folded content (warning).")
     assert "relative to the harmonics" not in f.message
 
 
@@ -343,10 +327,11 @@ def test_aliasing_message_without_times_or_kind():
     by, _v = run(sp, {"aliasing_detected": True, "aliasing_detail": {"polyphonic_instances_with_folds": 2}})
     f = by["sampling.aliasing"]
     assert f.where_s == []
-    assert f.message.startswith("Folded (aliased) partials found in this file: notes here have harmonics above "
-                                "48 kHz that fold back")
+    assert f.message.startswith("Aliasing: folded (aliased) content found in this file; the spec does not allow "
+                                "this. The notes here have harmonics above 48 kHz that fold back")
     by, _v = run(sp, {"aliasing_detected": True})
-    assert by["sampling.aliasing"].message.startswith("Folded content found in this file. A synthesiser voice")
+    assert by["sampling.aliasing"].message.startswith("Aliasing: folded (aliased) content found in this file; the spec does not allow this. "
+                                                      "A synthesiser voice")
 
 
 def test_aliasing_pass_and_not_assessable():
@@ -354,14 +339,14 @@ def test_aliasing_pass_and_not_assessable():
     by, verdict = run(sp, {"aliasing_detected": False, "aliasing_detail": {"where_s": [[1.0, 2.0]]}})
     f = by["sampling.aliasing"]
     assert (f.status, verdict, f.where_s) == ("pass", "pass", [])
-    assert f.message == "folded (aliased) content: no, which the spec allows"
+    assert f.message == 'Aliasing: no folded (aliased) content.'
     by, _v = run(sp, {"aliasing_detected": None})
-    assert by["sampling.aliasing"].message == "folded (aliased) content: not judged, not assessable on this material"
+    assert by["sampling.aliasing"].message == 'Aliasing: not judged; not assessable on this material.'
     by, _v = run(sp, {"aliasing_detected": None, "aliasing_detail": {"reason": "no tonal passage"}})
-    assert by["sampling.aliasing"].message == "folded (aliased) content: not judged, no tonal passage"
+    assert by["sampling.aliasing"].message == 'Aliasing: not judged; no tonal passage.'
     by, _v = run(sp, {})
     assert by["sampling.aliasing"].message.startswith(
-        "folded (aliased) content: not judged, the measurement aliasing_detected is missing")
+        "Aliasing: not judged; the measurement aliasing_detected is missing")
 
 
 def test_alias_ratio_against_its_ceiling():
@@ -371,7 +356,7 @@ def test_alias_ratio_against_its_ceiling():
     f = by["sampling.alias_to_harmonic_ratio"]
     # -35.04 is shown as -35.0 (0.1 dB step), above -40.0 by 5.0 dB
     assert (f.status, f.miss, verdict, f.where_s) == ("fail", 5.0, "fail", [[1.0, 2.0]])
-    assert f.message == "alias-to-harmonic ratio -35.0 dB is above the limit -40.0 dB by 5.0 dB"
+    assert f.message == 'Alias-to-harmonic ratio is -35.0 dB, 5.0 dB above the limit of -40.0 dB.'
     by, verdict = run(sp, {"alias_to_harmonic_ratio_db": -40.04, "aliasing_detail": detail})
     assert (by["sampling.alias_to_harmonic_ratio"].status, verdict) == ("pass", "pass")
 
@@ -383,13 +368,10 @@ def test_alias_ratio_below_the_floor_meets_the_ceiling():
     by, verdict = run(sp, m)
     f = by["sampling.alias_to_harmonic_ratio"]
     assert (f.status, verdict, f.measured) == ("pass", "pass", None)
-    assert f.message == ("alias-to-harmonic ratio: no alias lines found above the floor at the 30 fold positions "
-                         "tested (at most -52 dB if every one held a line just below the detection level); "
-                         "meets <= -40.0 dB")
+    assert f.message == ('Alias-to-harmonic ratio: no alias lines found above the floor at the 30 fold positions tested (at most -52 dB if every one held a line just below the detection level) (limit: at most -40.0 dB).')
     by, _v = run(sp, dict(m, aliasing_detail={"assessable_frames": 1}))
     assert by["sampling.alias_to_harmonic_ratio"].message == (
-        "alias-to-harmonic ratio: no alias lines found above the floor at the 0 fold positions tested; "
-        "meets <= -40.0 dB")
+        'Alias-to-harmonic ratio: no alias lines found above the floor at the 0 fold positions tested (limit: at most -40.0 dB).')
     # each condition withheld: skipped instead, with the detail's reason or the default
     for change in ({"aliasing_assessable": None}, {"aliasing_assessable": 1},
                    {"aliasing_detail": dict(detail, assessable_frames=0)},
@@ -399,13 +381,13 @@ def test_alias_ratio_below_the_floor_meets_the_ceiling():
         by, _v = run(sp, dict(m, **change))
         f = by["sampling.alias_to_harmonic_ratio"]
         assert f.status == "skipped", change
-        assert f.message == "alias-to-harmonic ratio: not judged, not assessable on this material", change
+        assert f.message == 'Alias-to-harmonic ratio: not judged; not assessable on this material.', change
     by, _v = run(sp, dict(m, aliasing_detail=dict(detail, folded_partials=3, reason="folds without lines")))
     assert by["sampling.alias_to_harmonic_ratio"].message == (
-        "alias-to-harmonic ratio: not judged, folds without lines")
+        'Alias-to-harmonic ratio: not judged; folds without lines.')
     by, _v = run(sp, {"aliasing_assessable": True, "aliasing_detail": detail})
     assert by["sampling.alias_to_harmonic_ratio"].message.startswith(
-        "alias-to-harmonic ratio: not judged, the measurement alias_to_harmonic_ratio_db is missing")
+        "Alias-to-harmonic ratio: not judged; the measurement alias_to_harmonic_ratio_db is missing")
 
 
 # ------------------------------------------------------------------ ultrasonic content
@@ -424,23 +406,20 @@ def test_ultrasonic_energy_tones_and_loudness_change():
     assert verdict == "fail"
     f = by["sampling.ultrasonic_energy"]
     assert (f.status, f.miss) == ("fail", 5.0)
-    assert f.message == ("ultrasonic energy (20.00-48.00 kHz) relative to the audible band -25.0 dB is above the "
-                         "limit -30.0 dB by 5.0 dB")
+    assert f.message == ('Ultrasonic energy (20.00-48.00 kHz) relative to the audible band is -25.0 dB, 5.0 dB above the limit of -30.0 dB.')
     f = by["sampling.ultrasonic_energy_3s"]
     # -12.36 is shown as -12.4, above -20.0 by 7.6 dB; severity warn
     assert (f.status, f.miss, f.where_s) == ("warn", pytest.approx(7.6), [[6.0, 9.0]])
-    assert f.message.startswith("ultrasonic energy (20.00-48.00 kHz) relative to the audible band, worst 3 s "
-                                "-12.4 dB is above")
+    assert f.message.startswith("Ultrasonic energy (20.00-48.00 kHz) relative to the audible band, worst 3 s "
+                                "is -12.4 dB, 7.6 dB above")
     f = by["sampling.ultrasonic_tones"]
     # the loudest tone (-55.04 dBFS, shown -55.0) is above -60.0 dBFS by 5.0 dB
     assert (f.status, f.miss) == ("fail", 5.0)
-    assert f.message == ("loudest ultrasonic tone (25.00 kHz) -55.0 dBFS is above the limit -60.0 dBFS by 5.0 dB; "
-                         "tones: 25.00 kHz at -55.0 dBFS, 30.00 kHz at -70.0 dBFS, 40.00 kHz at -80.0 dBFS")
+    assert f.message == ('Loudest ultrasonic tone (25.00 kHz) is -55.0 dBFS, 5.0 dB above the limit of -60.0 dBFS. Tones: 25.00 kHz at -55.0 dBFS, 30.00 kHz at -70.0 dBFS, 40.00 kHz at -80.0 dBFS.')
     f = by["sampling.ultrasonic_loudness_change"]
     # judged on the magnitude: |-0.25| is shown as 0.3 (a tie at a ceiling goes up), above 0.2 by 0.1 LU
     assert (f.status, f.measured, f.miss) == ("fail", 0.3, pytest.approx(0.1))
-    assert f.message == ("loudness change a low-pass at the ultrasonic band edge would cause (magnitude) 0.3 LU "
-                         "is above the limit 0.2 LU by 0.1 LU")
+    assert f.message == ('Loudness change from a low-pass at the ultrasonic band edge (magnitude) is 0.3 LU, 0.1 LU above the limit of 0.2 LU.')
 
 
 def test_ultrasonic_tones_at_most_five_listed_and_none_found():
@@ -449,18 +428,16 @@ def test_ultrasonic_tones_at_most_five_listed_and_none_found():
                                  "ultrasonic_from_hz": 21000.0})
     f = by["sampling.ultrasonic_tones"]
     assert f.status == "pass"
-    assert f.message == ("loudest ultrasonic tone (27.00 kHz) -94.0 dBFS meets <= -60.0 dBFS; tones: "
-                         "27.00 kHz at -94.0 dBFS, 26.00 kHz at -95.0 dBFS, 25.00 kHz at -96.0 dBFS, "
-                         "24.00 kHz at -97.0 dBFS, 23.00 kHz at -98.0 dBFS")
+    assert f.message == ('Loudest ultrasonic tone (27.00 kHz) is -94.0 dBFS (limit: at most -60.0 dBFS). Tones: 27.00 kHz at -94.0 dBFS, 26.00 kHz at -95.0 dBFS, 25.00 kHz at -96.0 dBFS, 24.00 kHz at -97.0 dBFS, 23.00 kHz at -98.0 dBFS.')
     by, _v = run(spec(**ULTRA), {"ultrasonic_energy_db": -50.0, "ultrasonic_tones": [],
                                  "ultrasonic_from_hz": 24000.0})
     f = by["sampling.ultrasonic_tones"]
     assert (f.status, f.limit, f.unit, f.severity) == ("pass", "<= -60.0 dBFS", "dBFS", "fail")
-    assert f.message == "no stationary tone above 24.00 kHz; meets <= -60.0 dBFS"
+    assert f.message == 'No stationary tone above 24.00 kHz (limit: at most -60.0 dBFS).'
     by, _v = run(spec(ultrasonic_tones={"max_dbfs": -60.0, "severity": "warn"}),
                  {"ultrasonic_energy_db": -50.0, "ultrasonic_tones": None})
     f = by["sampling.ultrasonic_tones"]
-    assert (f.severity, f.message) == ("warn", "no stationary tone above 20.00 kHz; meets <= -60.0 dBFS")
+    assert (f.severity, f.message) == ("warn", 'No stationary tone above 20.00 kHz (limit: at most -60.0 dBFS).')
 
 
 def test_ultrasonic_not_judged_reasons():
@@ -469,36 +446,35 @@ def test_ultrasonic_not_judged_reasons():
     by, verdict = run(sp, {"ultrasonic_energy_db": None, "ultrasonic_energy_max_3s_db": None,
                            "ultrasonic_tones": [], "ultrasonic_loudness_change_lu": None}, rate=48000)
     assert verdict == "pass" and {f.status for f in by.values()} == {"skipped"}
-    why = "not judged, the master is at 48 kHz; ultrasonic content is judged for masters above 48 kHz"
+    why = "not judged; the master is at 48 kHz; ultrasonic content is judged for masters above 48 kHz"
     assert by["sampling.ultrasonic_energy"].message == (
-        "ultrasonic energy (20.00-24.00 kHz) relative to the audible band: " + why)
-    assert by["sampling.ultrasonic_tones"].message == "loudest ultrasonic tone: " + why
-    assert by["sampling.ultrasonic_loudness_change"].message.endswith(why)
+        "Ultrasonic energy (20.00-24.00 kHz) relative to the audible band: " + why + ".")
+    assert by["sampling.ultrasonic_tones"].message == "Loudest ultrasonic tone: " + why + "."
+    assert by["sampling.ultrasonic_loudness_change"].message.endswith(why + ".")
     by, _v = run(sp, {"ultrasonic_energy_db": None}, rate=44100)
     assert by["sampling.ultrasonic_energy"].message.endswith("the master is at 44.1 kHz; ultrasonic content is "
-                                                             "judged for masters above 48 kHz")
+                                                             "judged for masters above 48 kHz.")
     # the band edge at or above Nyquist
     by, _v = run(sp, {"ultrasonic_energy_db": None, "ultrasonic_from_hz": 48000.0}, rate=96000)
     assert by["sampling.ultrasonic_energy"].message.endswith(
-        "not judged, the Nyquist frequency (48.00 kHz) is not above the ultrasonic band edge (48.00 kHz)")
+        "not judged; the Nyquist frequency (48.00 kHz) is not above the ultrasonic band edge (48.00 kHz).")
     by, _v = run(sp, {"ultrasonic_energy_db": None, "ultrasonic_from_hz": 47000.0}, rate=96000)
-    assert by["sampling.ultrasonic_energy"].message.endswith("not judged, the audible band holds no energy "
-                                                             "(digital silence)")
+    assert by["sampling.ultrasonic_energy"].message.endswith("not judged; the audible band holds no energy "
+                                                             "(digital silence).")
     by, _v = run(sp, {"ultrasonic_energy_db": None}, rate=96000)
-    assert by["sampling.ultrasonic_energy"].message.endswith("(digital silence)")
+    assert by["sampling.ultrasonic_energy"].message.endswith("(digital silence).")
     # unknown rate: the band is written from its edge only
     by, _v = run(sp, {"ultrasonic_energy_db": None, "ultrasonic_from_hz": 30000.0}, rate=None)
     assert by["sampling.ultrasonic_energy"].message == (
-        "ultrasonic energy (above 30.00 kHz) relative to the audible band: not judged, the audible band holds no "
-        "energy (digital silence)")
+        'Ultrasonic energy (above 30.00 kHz) relative to the audible band: not judged; the audible band holds no energy (digital silence).')
     # missing measurements
     by, _v = run(sp, {}, rate=96000)
     assert by["sampling.ultrasonic_energy_3s"].message.endswith(
-        "the measurement ultrasonic_energy_max_3s_db is missing from the result (its analyzer did not run)")
+        "the measurement ultrasonic_energy_max_3s_db is missing from the result (its analyzer did not run).")
     assert by["sampling.ultrasonic_tones"].message.endswith(
-        "the measurement ultrasonic_energy_db is missing from the result (its analyzer did not run)")
+        "the measurement ultrasonic_energy_db is missing from the result (its analyzer did not run).")
     assert by["sampling.ultrasonic_loudness_change"].message.endswith(
-        "the measurement ultrasonic_loudness_change_lu is missing from the result (its analyzer did not run)")
+        "the measurement ultrasonic_loudness_change_lu is missing from the result (its analyzer did not run).")
     # energy measured but the tone list missing: not judged
     by, _v = run(sp, {"ultrasonic_energy_db": -40.0})
     assert by["sampling.ultrasonic_tones"].status == "skipped"
@@ -530,18 +506,14 @@ def test_conversion_true_peak_and_folds():
     f = by["sampling.conversion_48000.true_peak"]
     # -0.54 is shown as -0.5 dBTP, above -1.0 by 0.5 dB
     assert (f.status, f.miss) == ("fail", 0.5)
-    assert f.message == ("true peak after conversion to 48 kHz -0.5 dBTP is above the limit -1.0 dBTP by 0.5 dB "
-                         "(converter: soxr VHQ)")
+    assert f.message == ('True peak after conversion to 48 kHz is -0.5 dBTP, 0.5 dB above the limit of -1.0 dBTP. Converter used for this estimate: soxr VHQ.')
     f = by["sampling.conversion_48000.energy_above_nyquist"]
     assert (f.status, f.miss) == ("warn", 5.0)
     assert f.message == (
-        "energy above 24.00 kHz (Nyquist of 48 kHz) relative to the band below -35.0 dB is above the limit "
-        "-40.0 dB by 5.0 dB (severity warn: reported as a warning); a converter without an anti-alias filter "
-        "would fold 24.00-30.00 kHz to 18.00-24.00 kHz, 30.00-48.00 kHz to 0.00-18.00 kHz and 1.00-2.00 kHz, "
-        "0.00-0.00 kHz to 0.00-0.00 kHz, 0.00-0.00 kHz to 0.00-0.00 kHz")  # at most four listed
+        'Energy above 24.00 kHz (Nyquist of 48 kHz) relative to the band below is -35.0 dB, 5.0 dB above the limit of -40.0 dB (the spec counts this as a warning). A converter without an anti-alias filter would fold 24.00-30.00 kHz to 18.00-24.00 kHz, 30.00-48.00 kHz to 0.00-18.00 kHz and 1.00-2.00 kHz, 0.00-0.00 kHz to 0.00-0.00 kHz, 0.00-0.00 kHz to 0.00-0.00 kHz.')  # at most four listed
     f = by["sampling.conversion_44100.true_peak"]
     assert f.status == "pass"
-    assert f.message == "true peak after conversion to 44.1 kHz -2.5 dBTP meets <= -2.0 dBTP"
+    assert f.message == 'True peak after conversion to 44.1 kHz is -2.5 dBTP (limit: at most -2.0 dBTP).'
     assert "sampling.conversion_44100.energy_above_nyquist" not in by  # not asked for
 
 
@@ -554,23 +526,23 @@ def test_conversion_pass_has_no_fold_list_and_silence_is_skipped():
     assert f.status == "pass" and "fold" not in f.message
     f = by["sampling.conversion_48000.true_peak"]
     assert f.status == "skipped"
-    assert f.message == "true peak after conversion to 48 kHz: not judged, the converted signal is digital silence"
+    assert f.message == 'True peak after conversion to 48 kHz: not judged; the converted signal is digital silence.'
     m["conversions"][0]["energy_above_target_nyquist_db"] = None
     by, _v = run(spec(**CONV), m)
     assert by["sampling.conversion_48000.energy_above_nyquist"].message.endswith(
-        "not judged, no content above the target's Nyquist")
+        "not judged; no content above the target's Nyquist.")
     by, _v = run(spec(**CONV), m, rate=48000)
     assert by["sampling.conversion_48000.energy_above_nyquist"].message.endswith(
-        "not judged, the target rate is not below the master's (48000 Hz): nothing can fold")
+        "not judged; the target rate is not below the master's (48000 Hz): nothing can fold.")
     by, _v = run(spec(**CONV), m, rate=None)
     assert by["sampling.conversion_48000.energy_above_nyquist"].message.endswith(
-        "not judged, no content above the target's Nyquist")
+        "not judged; no content above the target's Nyquist.")
     # a pass or warn of the true peak: the converter is named only with a miss
     m["conversions"][0]["true_peak_after_dbtp"] = -3.0
     m["conversions"][0]["filter"] = "soxr VHQ"
     by, _v = run(spec(**CONV), m)
     assert by["sampling.conversion_48000.true_peak"].message == \
-        "true peak after conversion to 48 kHz -3.0 dBTP meets <= -1.0 dBTP"
+        'True peak after conversion to 48 kHz is -3.0 dBTP (limit: at most -1.0 dBTP).'
 
 
 def test_conversion_not_measured_or_already_at_the_rate():
@@ -578,19 +550,17 @@ def test_conversion_not_measured_or_already_at_the_rate():
     assert verdict == "pass"
     f = by["sampling.conversion_48000.true_peak"]
     assert (f.status, f.severity) == ("skipped", "fail")
-    assert f.message == ("true peak after conversion to 48 kHz: not judged, no conversion to 48000 Hz was measured "
-                         "(the measurement was made without this spec's targets)")
+    assert f.message == ("True peak after conversion to 48 kHz: not judged; no conversion to 48000 Hz was measured (the measurement was made without this spec's targets).")
     f = by["sampling.conversion_48000.energy_above_nyquist"]
     assert (f.status, f.severity) == ("skipped", "warn")
-    assert f.message == ("energy above 24.00 kHz (Nyquist of 48 kHz): not judged, no conversion to 48000 Hz was "
-                         "measured (the measurement was made without this spec's targets)")
+    assert f.message == ("Energy above 24.00 kHz (Nyquist of 48 kHz): not judged; no conversion to 48000 Hz was measured (the measurement was made without this spec's targets).")
     assert "sampling.conversion_44100.energy_above_nyquist" not in by
     by, _v = run(spec(**CONV), {}, rate=48000)
     assert by["sampling.conversion_48000.true_peak"].message == (
-        "true peak after conversion to 48 kHz: not judged, the master is already at 48 kHz")
+        'True peak after conversion to 48 kHz: not judged; the master is already at 48 kHz.')
     assert by["sampling.conversion_44100.true_peak"].message.endswith("no conversion to 44100 Hz was measured "
                                                                       "(the measurement was made without this "
-                                                                      "spec's targets)")
+                                                                      "spec's targets).")
     # a target with neither requirement gives no finding
     by, _v = run(spec(conversions=[{"target_rate_hz": 48000}]), {})
     assert not [c for c in by if c.startswith("sampling.conversion")]
@@ -643,7 +613,7 @@ def test_partly_upsampled_at_severity_warn_carries_its_times():
 def test_a_rate_just_above_48k_is_judged_for_ultrasonic_content():
     # the rule is "above 48 kHz": 48001 Hz is above it, so the reason is not the rate
     by, _v = run(spec(ultrasonic_energy={"max_db": -30.0}), {"ultrasonic_energy_db": None}, rate=48001)
-    assert by["sampling.ultrasonic_energy"].message.endswith("the audible band holds no energy (digital silence)")
+    assert by["sampling.ultrasonic_energy"].message.endswith("the audible band holds no energy (digital silence).")
 
 
 def test_conversion_misses_at_severity_warn_and_fail_name_converter_and_folds():
@@ -654,8 +624,8 @@ def test_conversion_misses_at_severity_warn_and_fail_name_converter_and_folds():
                           "energy_above_target_nyquist_db": -20.0, "folds": folds}]}
     by, verdict = run(spec(**conv), m)
     f = by["sampling.conversion_48000.true_peak"]
-    assert f.status == "warn" and f.message.endswith("(severity warn: reported as a warning) (converter: polyphase)")
+    assert f.status == "warn" and f.message.endswith("(the spec counts this as a warning). Converter used for this estimate: polyphase.")
     f = by["sampling.conversion_48000.energy_above_nyquist"]
     assert (f.status, f.miss, verdict) == ("fail", 20.0, "fail")
-    assert f.message.endswith("by 20.0 dB; a converter without an anti-alias filter would fold 24.00-30.00 kHz to "
-                              "18.00-24.00 kHz")
+    assert f.message.endswith("20.0 dB above the limit of -40.0 dB. A converter without an anti-alias filter would fold 24.00-30.00 kHz to "
+                              "18.00-24.00 kHz.")

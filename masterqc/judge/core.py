@@ -139,30 +139,109 @@ def _target(req: Requirement) -> float | None:
 def skipped(check: str, message: str, limit: str | None = None, unit: str | None = None,
             severity: str | None = None) -> Finding:
     """A requirement that could not be judged (the message says why)."""
-    return Finding(check=check, status="skipped", message=message, limit=limit, unit=unit, severity=severity)
+    return Finding(check=check, status="skipped", message=sentence(message), limit=limit, unit=unit,
+                   severity=severity)
 
 
 def error(check: str, message: str) -> Finding:
     """A requirement whose judgement failed for a reason outside the master's content."""
-    return Finding(check=check, status="error", message=message)
+    return Finding(check=check, status="error", message=sentence(message))
+
+
+#: appended to a missed requirement whose severity is ``warn``
+WARN_NOTE = " (the spec counts this as a warning)"
+
+#: singular of the plural nouns that count things in messages ("1 clipped run")
+_SINGULAR = {"clipped runs": "clipped run", "dropouts": "dropout",
+             "samples beyond full scale": "sample beyond full scale"}
+
+#: first words kept in their own case when a message is made a sentence
+_KEEP_CASE = ("bext", "iXML", "dBTP", "dBFS")
+
+
+def sentence(text: str) -> str:
+    """``text`` as a sentence: its first letter a capital (unless it opens with a lower-case term of the
+    trade, e.g. "bext"), ending with a full stop."""
+    text = text.strip()
+    if not text:
+        return text
+    first = text.split(" ", 1)[0]
+    if not any(first.startswith(k) for k in _KEEP_CASE):
+        text = text[0].upper() + text[1:]
+    return text if text.endswith((".", "!", "?")) else text + "."
+
+
+def add_detail(f: Finding, text: str) -> None:
+    """Add ``text`` to the finding's message, inside its last sentence: before the closing full stop and
+    before the warning note.  A ``text`` that opens a new sentence (starts with a capital after ". ")
+    is added as one."""
+    msg = f.message
+    tail = ""
+    if msg.endswith("."):
+        msg = msg[:-1]
+    if msg.endswith(WARN_NOTE):
+        msg, tail = msg[: -len(WARN_NOTE)], WARN_NOTE
+    if text.startswith(". "):
+        f.message = sentence(msg + tail) + " " + sentence(text[2:])
+    else:
+        f.message = sentence(msg + text + tail)
+
+
+def count_words(n, what: str) -> str:
+    """``"no clipped runs"``, ``"1 clipped run"``, ``"3 clipped runs"``."""
+    if n == 0:
+        return f"no {what}"
+    if n == 1 and what in _SINGULAR:
+        return f"1 {_SINGULAR[what]}"
+    return f"{n:g} {what}" if isinstance(n, float) else f"{n} {what}"
+
+
+def limit_words(req: Requirement, decimals: int | None = None) -> str:
+    """The limit in words: ``"at most -1.0 dBTP"``, ``"-23.0 LUFS \u00b1 1.0 LU"``,
+    ``"10.000 to 60.000 s"``, ``"at least 24 bits"``; a count ceiling of 0 is ``"none"``."""
+    dec = judging_decimals(req) if decimals is None else decimals
+    u = unit_label(req.unit)
+    sp = " " if u else ""
+    if _target(req) is not None:
+        return limit_text(req, dec)
+    lo, hi = req.limits()
+    if lo is not None and hi is not None:
+        return f"{fmt(lo, dec)} to {fmt(hi, dec)}{sp}{u}"
+    if hi is not None:
+        if req.unit == "count" and hi == 0:
+            return "none"
+        return f"at most {fmt(hi, dec)}{sp}{u}"
+    return f"at least {fmt(lo, dec)}{sp}{u}"
+
+
+def _is_noun_count(req: Requirement, what: str) -> bool:
+    """A count whose ``what`` is a plural noun ("clipped runs"), phrased "3 clipped runs" in messages."""
+    return req.unit == "count" and not what.endswith("count")
 
 
 def check_limits(check: str, what: str, value: float | None, req: Requirement, *,
                  where_s=None, missing_reason: str | None = None) -> Finding:
     """Judge ``value`` (in ``req.unit``) against a ceiling, floor, bounds or target requirement.
 
-    ``what`` names the quantity for the message ("true peak"); ``where_s`` lists
-    ``[start_s, end_s]`` ranges attached when the status is warn or fail.
-    A ``value`` of None gives ``skipped`` with ``missing_reason``.
+    ``what`` names the quantity for the message ("true peak"; for a count, its plural noun:
+    "clipped runs"); ``where_s`` lists ``[start_s, end_s]`` ranges attached when the status is
+    warn or fail.  A ``value`` of None gives ``skipped`` with ``missing_reason``.
+
+    Messages are sentences a person would write, with the value, the limit and by how much:
+    "True peak is -0.4 dBTP, 0.6 dB above the limit of -1.0 dBTP.",
+    "No clipped runs (limit: none).", "3 clipped runs where the spec allows none."
     """
     dec = judging_decimals(req)
     limit = limit_text(req)  # at judging_decimals(req), the same step as the value
+    words = limit_words(req, dec)
     u = unit_label(req.unit)
     du = unit_label(difference_unit(req.unit))
     sp, dsp = (" " if u else ""), (" " if du else "")
+    noun = _is_noun_count(req, what)
     if value is None:
         reason = missing_reason or "the measurement does not exist for this file"
-        f = skipped(check, f"{what}: not judged, {reason}", limit=limit, unit=u, severity=req.severity)
+        f = skipped(check, f"{what}: not judged; {reason}", limit=limit, unit=u,
+                    severity=req.severity)
         f.limit_low, f.limit_high = req.limits()
         f.target, f.decimals, f.miss_unit = _target(req), dec, du
         return f
@@ -178,30 +257,39 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
                 severity=req.severity, decimals=dec, measured_text=f"{fmt(shown, dec)}{sp}{u}",
                 limit_low=lo, limit_high=hi, target=_target(req), miss_unit=du)
     missed_status = "fail" if req.severity == "fail" else "warn"
-    note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
+    note = "" if req.severity == "fail" else WARN_NOTE
     where = [list(w) for w in (where_s or [])]
+    value_words = count_words(int(shown) if dec == 0 else shown, what) if noun else \
+        f"{what} is {fmt(shown, dec)}{sp}{u}"
+    t = _target(req)
+    target_words = f" (target {limit_text(req, dec)})" if t is not None else ""
     if hi is not None and s > _dec(hi):
         miss = float(s - _dec(hi))
-        return Finding(status=missed_status, miss=miss, where_s=where,
-                       message=f"{what} {fmt(shown, dec)}{sp}{u} is above the limit {fmt(hi, dec)}{sp}{u} "
-                               f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
+        if noun and hi == 0:
+            text = f"{value_words} where the spec allows none"
+        elif noun:
+            text = f"{value_words}, {fmt(miss, dec)} more than the limit of {fmt(hi, dec)}"
+        else:
+            text = (f"{value_words}, {fmt(miss, dec)}{dsp}{du} above the limit of "
+                    f"{fmt(hi, dec)}{sp}{u}{target_words}")
+        return Finding(status=missed_status, miss=miss, where_s=where, message=sentence(text + note), **base)
     if lo is not None and s < _dec(lo):
         miss = float(_dec(lo) - s)
-        return Finding(status=missed_status, miss=miss, where_s=where,
-                       message=f"{what} {fmt(shown, dec)}{sp}{u} is below the limit {fmt(lo, dec)}{sp}{u} "
-                               f"by {fmt(miss, dec)}{dsp}{du}{note}", **base)
+        if noun:
+            text = f"{value_words}, {fmt(miss, dec)} fewer than the limit of {fmt(lo, dec)}"
+        else:
+            text = (f"{value_words}, {fmt(miss, dec)}{dsp}{du} below the limit of "
+                    f"{fmt(lo, dec)}{sp}{u}{target_words}")
+        return Finding(status=missed_status, miss=miss, where_s=where, message=sentence(text + note), **base)
     m = req.warn_margin
     if m:  # a margin of None or 0 never warns
         dm = _dec(m)
-        if hi is not None and s > _dec(hi) - dm:
-            return Finding(status="warn", where_s=where,
-                           message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
-                                   f"of the limit {fmt(hi, dec)}{sp}{u}", **base)
-        if lo is not None and s < _dec(lo) + dm:
-            return Finding(status="warn", where_s=where,
-                           message=f"{what} {fmt(shown, dec)}{sp}{u} passes but lies within {fmt(m, dec)}{dsp}{du} "
-                                   f"of the limit {fmt(lo, dec)}{sp}{u}", **base)
-    return Finding(status="pass", message=f"{what} {fmt(shown, dec)}{sp}{u} meets {limit}", **base)
+        for edge, near in ((hi, hi is not None and s > _dec(hi) - dm), (lo, lo is not None and s < _dec(lo) + dm)):
+            if near:
+                return Finding(status="warn", where_s=where,
+                               message=sentence(f"{value_words}: within the limit of {fmt(edge, dec)}{sp}{u}, but "
+                                                f"less than the {fmt(m, dec)}{dsp}{du} margin from it"), **base)
+    return Finding(status="pass", message=sentence(f"{value_words} (limit: {words})"), **base)
 
 
 def check_below_measurable(check: str, what: str, req: Requirement, reason: str) -> Finding:
@@ -220,29 +308,52 @@ def check_below_measurable(check: str, what: str, req: Requirement, reason: str)
                 limit_low=lo, limit_high=hi, target=_target(req), miss_unit=unit_label(difference_unit(req.unit)))
     if lo is not None:
         status = "fail" if req.severity == "fail" else "warn"
-        note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
+        note = "" if req.severity == "fail" else WARN_NOTE
         return Finding(status=status,
-                       message=f"{what}: {reason}, so it is below the limit {fmt(lo, dec)} {u}{note}".rstrip(),
+                       message=sentence(f"{what}: {reason}, so it is below the limit of {fmt(lo, dec)} {u}".rstrip()
+                                        + note),
                        **base)
-    return Finding(status="pass", message=f"{what}: {reason}; meets {limit}", **base)
+    return Finding(status="pass", message=sentence(f"{what}: {reason} (limit: {limit_words(req, dec)})"), **base)
+
+
+def _allowed_words(values: list[str]) -> str:
+    """``"48000 Hz"``, ``"48000 Hz or 96000 Hz"``, ``"wav, aiff or flac"``."""
+    if len(values) == 1:
+        return values[0]
+    return ", ".join(values[:-1]) + " or " + values[-1]
 
 
 def check_allowed(check: str, what: str, value, req: Allowed, *, show=str,
-                  missing_reason: str | None = None, unit: str | None = None) -> Finding:
+                  missing_reason: str | None = None, unit: str | None = None, says=None) -> Finding:
     """Judge whether ``value`` is one of ``req.allowed``; ``show`` formats values for the message,
-    ``unit`` (e.g. "Hz") is recorded for renderers."""
-    limit = "one of " + ", ".join(show(v) for v in req.allowed)
+    ``unit`` (e.g. "Hz") is recorded for renderers.
+
+    ``says``: for a yes/no measurement, ``(sentence if true, sentence if false)`` in plain words
+    ("Polarity: the channels are inverted", "Polarity: the channels are not inverted"); the
+    message is that sentence, with "the spec does not allow this" when it misses.  The limit of
+    a yes/no requirement reads "yes" or "no" (or "yes or no").
+    """
+    is_bool = all(isinstance(v, bool) for v in req.allowed)
+    shown_allowed = [("yes" if v else "no") if is_bool else show(v) for v in req.allowed]
+    limit = _allowed_words(shown_allowed)
     if value is None:
-        return skipped(check, f"{what}: not judged, {missing_reason or 'the value is unknown for this file'}",
+        return skipped(check, f"{what}: not judged; {missing_reason or 'the value is unknown for this file'}",
                        limit=limit, severity=req.severity, unit=unit)
+    shown = ("yes" if value else "no") if isinstance(value, bool) and is_bool else show(value)
     base = dict(check=check, measured=value, measured_raw=value, limit=limit, severity=req.severity,
-                measured_text=show(value), unit=unit)
-    if req.accepts(value):
-        return Finding(status="pass", message=f"{what} {show(value)} is allowed", **base)
-    status = "fail" if req.severity == "fail" else "warn"
-    note = "" if req.severity == "fail" else " (severity warn: reported as a warning)"
-    return Finding(status=status, message=f"{what} {show(value)} is not allowed (allowed: "
-                                          f"{', '.join(show(v) for v in req.allowed)}){note}", **base)
+                measured_text=shown, unit=unit)
+    ok = req.accepts(value)
+    status = "pass" if ok else ("fail" if req.severity == "fail" else "warn")
+    note = "" if req.severity == "fail" or ok else WARN_NOTE
+    if isinstance(value, bool) and says is not None:
+        text = says[0] if value else says[1]
+        if not ok:
+            text += "; the spec does not allow this"
+        return Finding(status=status, message=sentence(text + note), **base)
+    if ok:
+        return Finding(status="pass", message=sentence(f"{what} is {shown} (allowed: {limit})"), **base)
+    return Finding(status=status, message=sentence(f"{what} is {shown}, which the spec does not allow "
+                                                   f"(allowed: {limit}){note}"), **base)
 
 
 # ---------------------------------------------------------------- declared checks

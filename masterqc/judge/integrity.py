@@ -7,7 +7,8 @@ the first positions whatever else the spec asks.
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_allowed, check_limits, judge_checks, limit_text, skipped
+from masterqc.judge.core import (Finding, add_detail, check_allowed, check_limits, judge_checks, limit_text,
+                                 limit_words, sentence, skipped)
 from masterqc.spec.sections.integrity import CHECKS
 
 _DECLARED = {c.spec_key: c for c in CHECKS}
@@ -21,22 +22,14 @@ _MISSING = "the measurement {key} is missing from the result"
 
 
 def _per_channel(result: dict, values) -> str:
-    """``" (L: 2, R: 0)"`` for per-channel values, or ``""``."""
+    """``"; per channel: L 2, R 0"`` for per-channel values, or ``""``."""
     labels = (result.get("format") or {}).get("channel_layout") or []
     if not values or len(values) != len(labels):
         return ""
-    return " (" + ", ".join(f"{lab}: {v}" for lab, v in zip(labels, values)) + ")"
+    return "; per channel: " + ", ".join(f"{lab} {v}" for lab, v in zip(labels, values))
 
 
-_WARN_NOTE = " (severity warn: reported as a warning)"
-
-
-def _add_detail(f: Finding, text: str) -> None:
-    """Append ``text`` to the finding's message, before the severity note when there is one."""
-    if f.message.endswith(_WARN_NOTE):
-        f.message = f.message[: -len(_WARN_NOTE)] + text + _WARN_NOTE
-    else:
-        f.message += text
+_add_detail = add_detail
 
 
 _KINDS = {"silence": "digital silence", "frozen": "a frozen sample value"}
@@ -50,14 +43,14 @@ def _nonfinite(section, result: dict, m: dict) -> list[Finding]:
     count = m.get("nonfinite_sample_count")
     if count is None:
         if "nonfinite_samples" in section.model_fields_set:
-            return [skipped("integrity.nonfinite_samples", "non-finite samples: not judged, "
+            return [skipped("integrity.nonfinite_samples", "non-finite samples: not judged; "
                             + _MISSING.format(key="nonfinite_sample_count"))]
         return []
     if count == 0:
         if "nonfinite_samples" in section.model_fields_set:
             return [Finding(check="integrity.nonfinite_samples", status="pass", measured=0, measured_raw=0,
                             limit="none", measured_text="0",
-                            message="no non-finite samples (NaN, +-Inf)")]
+                            message="No non-finite samples (NaN or infinite values).")]
         return []
     first = m.get("nonfinite_first_positions") or []
     shown = ", ".join(f"{p['kind']} in {p['channel']} at frame {p['frame']} ({p['time_s']:.6f} s)"
@@ -66,9 +59,11 @@ def _nonfinite(section, result: dict, m: dict) -> list[Finding]:
     return [Finding(check="integrity.nonfinite_samples", status="error", measured=count, measured_raw=count,
                     limit="none", measured_text=str(count),
                     where_s=[list(w) for w in (m.get("nonfinite_where_s") or [])],
-                    message=f"{count} non-finite sample(s) (NaN {m.get('nan_sample_count', '?')}, "
-                            f"infinite {m.get('inf_sample_count', '?')}){_per_channel(result, m.get('nonfinite_sample_count_per_channel'))}"
-                            f": first {shown}{more}; they were read as 0.0 for every other measurement")]
+                    message=sentence(
+                        f"{count} non-finite sample{'' if count == 1 else 's'} (NaN {m.get('nan_sample_count', '?')}, "
+                        f"infinite {m.get('inf_sample_count', '?')})"
+                        f"{_per_channel(result, m.get('nonfinite_sample_count_per_channel'))}"
+                        f"; first {shown}{more}; they were read as 0.0 for every other measurement"))]
 
 
 def _dc(section, m: dict) -> Finding:
@@ -78,7 +73,8 @@ def _dc(section, m: dict) -> Finding:
         # every channel has a mean of exactly zero: no DC at all, which meets any ceiling
         return Finding(check="integrity.dc_offset", status="pass", severity=section.dc_offset.severity,
                        limit=limit_text(section.dc_offset), unit="dBFS",
-                       message="DC offset: every channel's mean is exactly zero")
+                       message=f"No DC offset: every channel's mean is exactly zero "
+                               f"(limit: {limit_words(section.dc_offset)}).")
     return check_limits("integrity.dc_offset", "DC offset (worst channel)", value, section.dc_offset,
                         missing_reason=_MISSING.format(key="dc_offset_dbfs"))
 
@@ -125,7 +121,8 @@ def _truncation(section, result: dict) -> list[Finding]:
     mode = section.truncated_audio
     status = {"fail": "fail", "warn": "warn", "allow": "pass"}[mode]
     if mode != "fail":
-        message += f" (integrity.truncated_audio: {mode})"
+        message += f" (the spec's integrity.truncated_audio is {mode})"
+    message = sentence(message)
     return [Finding(check="integrity.truncated_audio", status=status, severity=mode if mode != "allow" else None,
                     measured=missing_s, measured_raw=missing, unit="s", limit="nothing missing",
                     measured_text=f"{clock_text(missing_s)} missing ({missing:,} bytes)" if missing_s is not None
@@ -144,7 +141,7 @@ def judge(section, result: dict) -> list[Finding]:
     for f in _declared(s, result, "clipped_runs"):
         if f.status in ("warn", "fail"):
             _add_detail(f, _per_channel(result, m.get("clipped_run_count_per_channel"))
-                        + f"; longest run {m.get('clipped_run_longest_samples')} samples")
+                        + f"; the longest run is {m.get('clipped_run_longest_samples')} samples")
         out.append(f)
     out += _declared(s, result, "over_full_scale_samples")
     if s.dc_offset is not None:
@@ -171,7 +168,7 @@ def judge(section, result: dict) -> list[Finding]:
             events = m.get("dropout_events") or []
             kinds = sorted({e.get("kind") for e in events} & set(_KINDS))
             _add_detail(f, _per_channel(result, m.get("dropout_count_per_channel"))
-                        + ("; " + " and ".join(_KINDS[k] for k in kinds) if kinds else ""))
+                        + ("; found: " + " and ".join(_KINDS[k] for k in kinds) if kinds else ""))
         out.append(f)
     if s.effective_bit_depth is not None:
         low = _lowest_depth(result, m)
@@ -182,27 +179,30 @@ def judge(section, result: dict) -> list[Finding]:
     mono = ((result.get("format") or {}).get("channels") or 0) < 2
     mono_reason = "the file has one channel" if mono else "the channels are digital silence"
     if s.dual_mono is not None:
-        out.append(check_allowed("integrity.dual_mono", "first channel pair identical (dual mono)",
+        out.append(check_allowed("integrity.dual_mono", "dual mono",
                                  m.get("dual_mono"), s.dual_mono, show=lambda v: str(v).lower(),
-                                 missing_reason=_why(m, "dual_mono", mono_reason)))
+                                 missing_reason=_why(m, "dual_mono", mono_reason),
+                                 says=("Dual mono: the first two channels are identical",
+                                       "Dual mono: the first two channels differ")))
     if s.inverted_polarity is not None:
-        f = check_allowed("integrity.inverted_polarity", "channel pair in inverted polarity",
-                          m.get("inverted_polarity"), s.inverted_polarity, show=lambda v: str(v).lower(),
-                          missing_reason=_why(m, "inverted_polarity", mono_reason))
         pairs = m.get("inverted_polarity_pairs") or []
-        if f.status in ("warn", "fail") and pairs:
-            _add_detail(f, " (" + ", ".join("/".join(p) for p in pairs) + ")")
+        which = (" (" + ", ".join("/".join(p) for p in pairs) + ")") if pairs else ""
+        f = check_allowed("integrity.inverted_polarity", "polarity",
+                          m.get("inverted_polarity"), s.inverted_polarity, show=lambda v: str(v).lower(),
+                          missing_reason=_why(m, "inverted_polarity", mono_reason),
+                          says=(f"Polarity: the channels{which} are inverted",
+                                "Polarity: the channels are not inverted"))
         out.append(f)
     out += _declared(s, result, "phase_correlation")
     out += _declared(s, result, "phase_correlation_below")
     if s.level_balance is not None:
         worst = _worst_balance(m)
-        what = f"level balance {worst[0]} (magnitude)" if worst else "level balance"
+        what = f"level difference {worst[0]}" if worst else "level difference between the channels"
         f = check_limits("integrity.level_balance", what, abs(worst[1]) if worst else None, s.level_balance,
                          missing_reason=_why(m, "level_balance_lu_per_pair",
                                              "no channel pair with signal in both channels"))
         if worst and f.status in ("warn", "fail"):
             side = worst[0].split("/")[0 if worst[1] > 0 else 1]
-            _add_detail(f, f"; {side} is louder")
+            _add_detail(f, f"; {side} is the louder")
         out.append(f)
     return out

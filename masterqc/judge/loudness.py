@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from masterqc.contract import SHORT_PROGRAMME_S
-from masterqc.judge.core import Finding, judge_checks
+from masterqc.judge.core import Finding, add_detail, judge_checks
 from masterqc.spec.sections.loudness import CHECKS
 
 
@@ -13,5 +13,6 @@ def judge(section, result: dict) -> list[Finding]:
     for f in out:
         if f.check == "loudness.range" and f.status != "skipped" and duration is not None \
                 and duration < SHORT_PROGRAMME_S:
-            f.message += " (loudness range is not recommended for programmes under one minute, EBU R 128)"
+            add_detail(f, ". Loudness range means little for a programme under one minute (EBU R 128 does not "
+                          "recommend it there)")
     return out

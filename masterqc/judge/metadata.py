@@ -11,7 +11,7 @@ offset in the message), ``metadata.bext``, ``metadata.bext_loudness.<field>``
 from __future__ import annotations
 
 from masterqc import timecode as _tc
-from masterqc.judge.core import Finding, check_limits, fmt, skipped
+from masterqc.judge.core import Finding, check_limits, fmt, sentence, skipped
 from masterqc.spec.types import target, unit_label
 
 #: bext v2 field -> (check suffix, Tech 3285 name, measurement key, unit suffix, what is measured)
@@ -46,6 +46,8 @@ def judge(section, result: dict) -> list[Finding]:
         out.append(_time_reference(section.time_reference, result, fps))
     if section.timecode_fps_matches_file:
         out.append(_fps_match(section, meta, fps))
+    for f in out:
+        f.message = sentence(f.message)
     return out
 
 
@@ -85,15 +87,15 @@ def _bext(rule, meta) -> list[Finding]:
         v = bx.get("version")
         ok = v is not None and v >= rule.min_version
         out.append(Finding(check="metadata.bext.version", status="pass" if ok else _missed(sev), severity=sev,
-                           measured=v, measured_text=f"version {v}", limit=f">= version {rule.min_version}",
-                           message=f"bext version {v} " + ("meets" if ok else "is below") +
-                                   f" the required version {rule.min_version}"))
+                           measured=v, measured_text=f"version {v}", limit=f"version {rule.min_version} or later",
+                           message=f"bext version {v} " + ("(required: version " if ok else "is older than the required "
+                                                          "version ") + f"{rule.min_version}" + (")" if ok else "")))
     for name in rule.fields_required:
         value = bx.get(name)
         present = value not in (None, "", 0) if name != "time_reference_samples" else value is not None
         out.append(Finding(check=f"metadata.bext.{name}", status="pass" if present else _missed(sev),
                            severity=sev, measured=value, limit="non-empty",
-                           message=f"bext {name} " + (f"is {value!r}" if present else "is empty")))
+                           message=f"bext {name} " + (f"is {value!r}" if present else "is empty, which the spec does not allow")))
     return out
 
 
@@ -197,7 +199,7 @@ def _time_reference(rule, result, fps) -> Finding:
                        message="the file declares no time reference (no bext TimeReference, no iXML timestamp)")
     rate = (result.get("format") or {}).get("sample_rate_hz")
     if not rate:
-        return skipped("metadata.time_reference", "time reference: not judged, the sample rate is unknown",
+        return skipped("metadata.time_reference", "time reference: not judged; the sample rate is unknown",
                        limit=limit, severity=sev)
     shown = _tc.samples_to_timecode(ref, rate, fps)
     src = meta.get("time_reference_source") or "bext"

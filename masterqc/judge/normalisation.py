@@ -15,7 +15,7 @@ Figures (all dB-valued keys name their unit):
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_limits, skipped
+from masterqc.judge.core import Finding, add_detail, check_limits, skipped
 
 
 def headroom(measurements: dict, target_lufs: float | None, ceiling_dbtp: float | None,
@@ -60,10 +60,13 @@ def judge(section, result: dict) -> list[Finding]:
         return []
     fig = result.get("normalisation") or figures_for(section, result)
     if fig["limiting_needed_db"] is None:
-        return [skipped("normalisation.limiting", f"limiting needed to reach the target: not judged, {fig['note']}",
+        return [skipped("normalisation.limiting", f"limiting needed to reach the target: not judged; {fig['note']}",
                         severity=section.limiting.severity)]
     f = check_limits("normalisation.limiting", "limiting needed to reach the target",
                      fig["limiting_needed_db"], section.limiting)
-    f.message += (f" (gain {fig['gain_db']:+.1f} dB to {fig['target_lufs']:.1f} LUFS puts the true peak at "
-                  f"{fig['true_peak_after_gain_dbtp']:.1f} dBTP against {fig['ceiling_dbtp']:.1f} dBTP)")
+    gain = fig["gain_db"]
+    change = "no gain change" if round(gain, 1) == 0 else \
+        f"{'raising' if gain > 0 else 'lowering'} the gain by {abs(gain):.1f} dB"
+    add_detail(f, f". Turned to {fig['target_lufs']:.1f} LUFS ({change}), the true peak would be at "
+                  f"{fig['true_peak_after_gain_dbtp']:.1f} dBTP against a ceiling of {fig['ceiling_dbtp']:.1f} dBTP")
     return [f]

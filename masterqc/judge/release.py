@@ -13,21 +13,21 @@ result, while this judges the figures of a whole release
 
 from __future__ import annotations
 
-from masterqc.judge.core import Finding, check_limits
+from masterqc.judge.core import WARN_NOTE, Finding, check_limits, sentence
 
 
 def _consistency(check: str, what: str, values: list, severity: str, show) -> Finding:
     if not values:
-        return Finding(check=check, status="skipped", message=f"{what}: not judged, no file of the release could be read",
+        return Finding(check=check, status="skipped", message=sentence(f"{what}: not judged; no file of the release could be read"),
                        limit="one value", severity=severity)
     text = ", ".join(show(v) for v in values)
     if len(values) == 1:
-        return Finding(check=check, status="pass", message=f"every file has {what} {text}",
+        return Finding(check=check, status="pass", message=sentence(f"every file has the {what} {text}"),
                        measured=text, measured_text=text, limit="one value", severity=severity)
     status = "fail" if severity == "fail" else "warn"
-    note = "" if severity == "fail" else " (severity warn: reported as a warning)"
+    note = "" if severity == "fail" else WARN_NOTE
     return Finding(check=check, status=status, measured=text, measured_text=text, limit="one value",
-                   severity=severity, message=f"the release mixes {what}s: {text}{note}")
+                   severity=severity, message=sentence(f"the release mixes {what}s: {text}{note}"))
 
 
 def judge(section, release: dict) -> list[Finding]:
@@ -36,8 +36,8 @@ def judge(section, release: dict) -> list[Finding]:
     m = release
     if m.get("unreadable_count"):
         out.append(Finding(check="release.files", status="error",
-                           message=f"{m['unreadable_count']} of {m['track_count']} files could not be read; "
-                                   "the release figures cover the others only"))
+                           message=sentence(f"{m['unreadable_count']} of {m['track_count']} files could not be read; "
+                                            "the release figures cover the others only")))
     if section.track_count is not None:
         out.append(check_limits("release.track_count", "track count", m.get("track_count"), section.track_count))
     if section.pooled_loudness is not None:

@@ -9,8 +9,8 @@ the time ranges (``where_s``).
 
 from __future__ import annotations
 
-from masterqc.judge.core import (Finding, check_allowed, check_below_measurable, check_limits, limit_text,
-                                 skipped)
+from masterqc.judge.core import (Finding, add_detail, check_allowed, check_below_measurable, check_limits,
+                                 limit_words, sentence, skipped)
 
 _LOW = "ultrasonic content is judged for masters above 48 kHz"
 
@@ -65,24 +65,6 @@ def _bool_str(v) -> str:
     return str(v).lower()
 
 
-def _yes_no(f: Finding, what: str) -> Finding:
-    """``f`` (from :func:`check_allowed` on a yes/no measurement) with its opening in words:
-    "<what>: yes, which the spec does not allow" instead of "<what> true is not allowed
-    (allowed: false)"; the rest of the message is kept."""
-    v = f.measured
-    if f.status == "skipped" or not isinstance(v, bool):
-        return f
-    word = "yes" if v else "no"
-    ok = f"{what} {_bool_str(v)} is allowed"
-    bad = f"{what} {_bool_str(v)} is not allowed (allowed: "
-    if f.message.startswith(ok):
-        f.message = f"{what}: {word}, which the spec allows" + f.message[len(ok):]
-    elif f.message.startswith(bad) and ")" in f.message[len(bad):]:
-        rest = f.message[len(bad):]
-        f.message = f"{what}: {word}, which the spec does not allow" + rest[rest.index(")") + 1:]
-    return f
-
-
 def _rate(result: dict):
     return (result.get("format") or {}).get("sample_rate_hz")
 
@@ -109,7 +91,7 @@ def _ultra_reason(result: dict, m: dict, key: str) -> str:
 def _upsampling(section, m: dict) -> list[Finding]:
     key = "upsampled_from_hz"
     if key not in m:
-        return [check_allowed("sampling.upsampled", "upsampled from a lower rate", None, section.upsampled,
+        return [check_allowed("sampling.upsampled", "upsampling", None, section.upsampled,
                               show=_bool_str, missing_reason=_missing(m, key, ""))]
     src, conf = m.get(key), m.get("upsampled_confidence_fraction")
     need = section.upsampled_min_confidence or 0.0
@@ -119,20 +101,26 @@ def _upsampling(section, m: dict) -> list[Finding]:
              if p.get("upsampled_from_hz") is not None
              and (p.get("upsampled_confidence_fraction") is None or p["upsampled_confidence_fraction"] >= need)]
     partial = src is None and bool(parts)
-    f = _yes_no(check_allowed("sampling.upsampled", "upsampled from a lower rate", counted or partial,
-                              section.upsampled, show=_bool_str), "upsampled from a lower rate")
     if partial:
         rates = sorted({p["upsampled_from_hz"] for p in parts})
+        from_words = " or ".join(f"{r / 1000:g} kHz" for r in rates)
+        says = f"Upsampling: part of the file was converted up from {from_words}"
+    elif src is not None:
+        says = f"Upsampling: the file was converted up from {src / 1000:g} kHz"
+    else:
+        says = "Upsampling: the file was not converted up from a lower rate"
+    f = check_allowed("sampling.upsampled", "upsampling", counted or partial, section.upsampled, show=_bool_str,
+                      says=(says, says))
+    if partial:
         ranges = _merge([[p["start_s"], p["end_s"]] for p in parts])
-        f.message += (". Part of the file ends in a converter's cliff, as if converted up from "
-                      + " or ".join(f"{r / 1000:g} kHz" for r in rates) + " ("
-                      + ", ".join(f"{a:.1f}-{b:.1f} s" for a, b in ranges) + ")")
+        add_detail(f, ". Part of the file ends in a converter's cliff, as if converted up from "
+                   + from_words + " (" + ", ".join(f"{a:.1f}-{b:.1f} s" for a, b in ranges) + ")")
         if f.status in ("warn", "fail"):
             f.where_s = ranges
     elif src is None:
-        f.message += ". " + _not_upsampled_sentence(m)
+        add_detail(f, ". " + _not_upsampled_sentence(m))
     if src is not None:
-        f.message += ". " + _upsampled_sentence(m, src, conf)
+        add_detail(f, ". " + _upsampled_sentence(m, src, conf))
         if not counted:
             f.message += f" Below the spec's minimum confidence of {need:.2f}, so not counted."
         if f.status in ("warn", "fail"):
@@ -217,7 +205,7 @@ def judge(section, result: dict) -> list[Finding]:
                          missing_reason=_missing(m, "effective_bandwidth_hz",
                                                  m.get("bandwidth_note") or "no content above the noise floor"))
         if f.status in ("warn", "fail") and m.get("bandwidth_note"):
-            f.message += f" ({m['bandwidth_note']})"
+            add_detail(f, f" ({m['bandwidth_note']})")
         out.append(f)
 
     if s.upsampled is not None:
@@ -226,39 +214,45 @@ def judge(section, result: dict) -> list[Finding]:
     if s.band_limited is not None:
         key = "band_limit_hz"
         value = (m.get(key) is not None) if key in m else None
-        what = "low-passed at a frequency no standard rate explains"
-        f = _yes_no(check_allowed("sampling.band_limited", what, value, s.band_limited, show=_bool_str,
-                                  missing_reason=_missing(m, key, "")), what)
+        what = "band limit"
+        cut = (f"Band limit: the content ends in a cliff at {_khz(m[key])}, a frequency no standard rate explains"
+               if value else "")
+        f = check_allowed("sampling.band_limited", what, value, s.band_limited, show=_bool_str,
+                          missing_reason=_missing(m, key, ""),
+                          says=(cut, "Band limit: no low-pass at a frequency that no standard rate explains"))
         if value:
-            f.message += (f": content ends in a cliff at {_khz(m[key])} ({m.get('bandwidth_edge_depth_db')} dB deep)"
-                          ": lossy or filtered source?")
+            depth = m.get("bandwidth_edge_depth_db")
+            add_detail(f, (f". The cliff is {float(depth):.0f} dB deep" if depth is not None else ". The cliff")
+                       + " (a lossy or low-passed source?)")
         elif value is False and m.get("bandwidth_note"):
-            f.message += f" ({m['bandwidth_note']})"
+            add_detail(f, f" ({m['bandwidth_note']})")
         out.append(f)
 
     if s.imaging is not None:
         key = "imaging_detected"
-        what = "mirror images of an unfiltered upsampler"
+        what = "imaging"
         why = "no candidate source rate could be tested"
         untestable = [c for c in (m.get("imaging") or []) if isinstance(c, dict)
                       and c.get("verdict") == "untestable" and c.get("reason") and c.get("source_rate_hz")]
         if untestable:  # the first candidate's reason says why (they are usually the same)
             c = untestable[0]
             why += f" (e.g. {float(c['source_rate_hz']) / 1000:g} kHz: {c['reason']})"
-        f = _yes_no(check_allowed("sampling.imaging", what, m.get(key), s.imaging, show=_bool_str,
-                                  missing_reason=_missing(m, key, why)), what)
-        if f.status != "skipped":
-            f.message += _imaging_detail(m)
+        f = check_allowed("sampling.imaging", what, m.get(key), s.imaging, show=_bool_str,
+                          missing_reason=_missing(m, key, why),
+                          says=("Imaging: the spectrum holds mirror images left by an unfiltered upsampler",
+                                "Imaging: no mirror images of an unfiltered upsampler"))
+        if f.status != "skipped" and _imaging_detail(m):
+            add_detail(f, ". " + _imaging_detail(m)[2:])
         out.append(f)
 
     detail = m.get("aliasing_detail") or {}
     where = [list(w) for w in (detail.get("where_s") or [])]
     if s.aliasing is not None:
         key = "aliasing_detected"
-        f = _yes_no(check_allowed("sampling.aliasing", "folded (aliased) content", m.get(key), s.aliasing,
-                                  show=_bool_str, missing_reason=_missing(m, key, detail.get("reason")
-                                                                          or "not assessable on this material")),
-                    "folded (aliased) content")
+        f = check_allowed("sampling.aliasing", "aliasing", m.get(key), s.aliasing,
+                          show=_bool_str, missing_reason=_missing(m, key, detail.get("reason")
+                                                                  or "not assessable on this material"),
+                          says=("Aliasing: folded (aliased) content found", "Aliasing: no folded (aliased) content"))
         if f.status in ("warn", "fail"):
             f.where_s = where
             f.message = _aliasing_message(result, m, detail, where, f.status)
@@ -282,7 +276,7 @@ def judge(section, result: dict) -> list[Finding]:
     if s.ultrasonic_loudness_change is not None:
         change = m.get("ultrasonic_loudness_change_lu")
         f = check_limits("sampling.ultrasonic_loudness_change",
-                         "loudness change a low-pass at the ultrasonic band edge would cause (magnitude)",
+                         "loudness change from a low-pass at the ultrasonic band edge (magnitude)",
                          None if change is None else abs(change), s.ultrasonic_loudness_change,
                          missing_reason=_ultra_reason(result, m, "ultrasonic_loudness_change_lu"))
         out.append(f)
@@ -308,16 +302,17 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
         span = f"from {_clock(lo)} to {_clock(hi)}" if _clock(lo) != _clock(hi) else f"at {_clock(lo)}"
     else:
         span = "in this file"
-    sentences = []
+    sentences = [f"Aliasing: folded (aliased) content found {span}; the spec does not allow this"
+                 + (" (the spec counts this as a warning)." if status == "warn" else ".")]
     tonal = bool(detail.get("polyphonic_instances_with_folds") or detail.get("frames_with_alias_lines"))
     f0 = detail.get("median_f0_hz")
     if tonal:
         who = f"notes here (fundamental about {float(f0):.1f} Hz)" if f0 else "notes here"
-        sentences.append(f"Folded (aliased) partials found {span}: {who} have harmonics above {nyq} that fold "
-                         "back into the audible band, between the true harmonics.")
+        sentences.append(f"The {who} have harmonics above {nyq} that fold back into the audible band, between "
+                         "the true harmonics.")
     ex = detail.get("fold_examples") or []
     if detail.get("folded_partials"):
-        s = (f"{'Also, a' if tonal else f'Folded content found {span}: a'} partial rising towards {nyq} "
+        s = (f"{'Also, a' if tonal else 'A'} partial rising towards {nyq} "
              "comes back falling at the mirrored frequency")
         if ex:
             e = ex[0]
@@ -327,11 +322,10 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
     sharp = detail.get("sharp_steps")
     if sharp and not detail.get("sharp_steps_on_hold_grid_hz") and not detail.get("sharp_steps_period_samples") \
             and "sample-sharp" in str(detail.get("reason") or ""):
-        sentences.append(f"{'Also, the' if sentences else f'Folded content found {span}: the'} waveform jumps "
+        earlier = tonal or bool(detail.get("folded_partials"))
+        sentences.append(f"{'Also, the' if earlier else 'The'} waveform jumps "
                          f"between two samples with no band-limited transition ({sharp} such jumps): its "
                          f"partials above {nyq} keep their strength and all fold back.")
-    if not sentences:
-        sentences.append(f"Folded content found {span}.")
     ratio = m.get("alias_to_harmonic_ratio_db")
     if ratio is not None:
         sentences.append(f"The folded partials are {float(ratio):.1f} dB relative to the harmonics.")
@@ -339,7 +333,6 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
                      "conversion that dropped samples without an anti-alias filter. Re-render the voice with its "
                      "oscillators' anti-aliasing on, or at a higher internal rate; or redo the conversion from the "
                      "original with a proper resampler.")
-    sentences.append("The spec does not allow folded content" + (" (warning)." if status == "warn" else "."))
     return " ".join(sentences)
 
 
@@ -351,15 +344,17 @@ def _tones(s, result, m) -> Finding:
                             missing_reason=_ultra_reason(result, m, "ultrasonic_energy_db"))
     tones = m.get(key) or []
     if not tones:
+        from masterqc.judge.core import limit_text
         limit = limit_text(req)
         return Finding(check="sampling.ultrasonic_tones", status="pass",
-                       message=f"no stationary tone above {_khz(m.get('ultrasonic_from_hz') or 20000)}; meets {limit}",
+                       message=f"No stationary tone above {_khz(m.get('ultrasonic_from_hz') or 20000)} "
+                               f"(limit: {limit_words(req)}).",
                        limit=limit, unit="dBFS", severity=req.severity)
     loudest = max(tones, key=lambda t: t["level_dbfs"])
     f = check_limits("sampling.ultrasonic_tones", f"loudest ultrasonic tone ({_khz(loudest['frequency_hz'])})",
                      loudest["level_dbfs"], req)
     listed = sorted(tones, key=lambda t: -t["level_dbfs"])[:5]
-    f.message += "; tones: " + ", ".join(f"{_khz(t['frequency_hz'])} at {t['level_dbfs']:.1f} dBFS" for t in listed)
+    add_detail(f, ". Tones: " + ", ".join(f"{_khz(t['frequency_hz'])} at {t['level_dbfs']:.1f} dBFS" for t in listed))
     return f
 
 
@@ -374,11 +369,11 @@ def _conversion(target, result, m) -> list[Finding]:
         why = (f"the master is already at {t / 1000:g} kHz" if fs == t
                else f"no conversion to {t} Hz was measured (the measurement was made without this spec's targets)")
         if target.true_peak is not None:
-            out.append(skipped(f"{base}.true_peak", f"true peak after conversion to {t / 1000:g} kHz: not judged, {why}",
+            out.append(skipped(f"{base}.true_peak", f"true peak after conversion to {t / 1000:g} kHz: not judged; {why}",
                                severity=target.true_peak.severity))
         if target.energy_above_nyquist is not None:
             out.append(skipped(f"{base}.energy_above_nyquist",
-                               f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz): not judged, {why}",
+                               f"energy above {_khz(t / 2)} (Nyquist of {t / 1000:g} kHz): not judged; {why}",
                                severity=target.energy_above_nyquist.severity))
         return out
     if target.true_peak is not None:
@@ -386,7 +381,7 @@ def _conversion(target, result, m) -> list[Finding]:
                          c.get("true_peak_after_dbtp"), target.true_peak,
                          missing_reason="the converted signal is digital silence")
         if f.status in ("warn", "fail"):
-            f.message += f" (converter: {c.get('filter')})"
+            add_detail(f, f". Converter used for this estimate: {c.get('filter')}")
         out.append(f)
     if target.energy_above_nyquist is not None:
         f = check_limits(f"{base}.energy_above_nyquist",
@@ -396,9 +391,9 @@ def _conversion(target, result, m) -> list[Finding]:
                                          if fs is not None and t >= fs else "no content above the target's Nyquist"))
         folds = c.get("folds") or []
         if f.status in ("warn", "fail") and folds:
-            f.message += "; a converter without an anti-alias filter would fold " + ", ".join(
+            add_detail(f, ". A converter without an anti-alias filter would fold " + ", ".join(
                 f"{_khz_range(d['from_hz'], d['to_hz'])} to "
                 + " and ".join(_khz_range(a, b) for a, b in d["fold_to_hz"])
-                for d in folds[:4])
+                for d in folds[:4]))
         out.append(f)
     return out

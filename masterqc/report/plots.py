@@ -167,6 +167,12 @@ def merge_for_display(ranges, min_gap_s: float) -> list[tuple[float, float]]:
     return [(a, b) for a, b in out]
 
 
+def over_spans(ranges, duration_s: float) -> list[tuple[float, float]]:
+    """The shaded spans of a true-peak plot: every over range from the result (none dropped), merged
+    where they touch or lie closer than one pixel of the plot (1/800 of its length)."""
+    return merge_for_display(ranges, max(duration_s, 1e-3) / 800.0)
+
+
 def _figure(height_in: float) -> Figure:
     fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=72)
     FigureCanvasSVG(fig)
@@ -214,7 +220,7 @@ def loudness_plot(duration_s: float, axis: TimeAxis, momentary=None, short_term=
     as one dotted limit line when a side is ``None``.
     """
     with matplotlib.rc_context(STYLE):
-        fig = _figure(2.5)
+        fig = _figure(2.2)
         ax = fig.add_axes((TIME_LEFT, 0.19, TIME_WIDTH, 0.66))
         values = []
         if target_band is not None and None not in target_band:
@@ -276,7 +282,7 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
     for all channels, label ``"all"``); ``over_ranges``: ``[(start_s, end_s)]``.
     """
     with matplotlib.rc_context(STYLE):
-        fig = _figure(2.3)
+        fig = _figure(2.1)
         ax = fig.add_axes((TIME_LEFT, 0.2, TIME_WIDTH, 0.65))
         values = []
         for i, ((t, y), label) in enumerate(zip(envelopes, labels)):
@@ -294,19 +300,24 @@ def true_peak_plot(duration_s: float, axis: TimeAxis, envelopes, labels, ceiling
         if over_ranges:
             count = len(over_ranges)
             min_w = max(duration_s, 1e-3) / 800.0
-            over_ranges = merge_for_display(over_ranges, min_w)
-            alpha = 0.45 if len(over_ranges) <= 20 else 0.22
-            for a, b in over_ranges:
+            spans = over_spans(over_ranges, duration_s)
+            alpha = 0.45 if len(spans) <= 20 else 0.3
+            for a, b in spans:  # every over range, merged where they touch or lie closer than a pixel
                 ax.axvspan(a, max(b, a + min_w), color=VERMILION, alpha=alpha, lw=0)
-            mids = [0.5 * (a + b) for a, b in over_ranges]
+            mids = [0.5 * (a + b) for a, b in spans]
             ax.plot(mids, [top - 0.45] * len(mids), ls="none", marker="v", ms=5.5, color=VERMILION,
-                    markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({count})")
+                    markeredgecolor=BLACK, markeredgewidth=0.5, label=f"over the ceiling ({count:,} ranges)")
         ax.yaxis.set_major_locator(MaxNLocator(nbins=6, steps=[1, 2, 3, 5, 10]))
         ax.set_ylabel("true peak (dBTP)")
         _time_axis(ax, axis, duration_s)
         _legend(ax)
         return _to_svg(fig, "truepeak", "True peak over time")
 
+
+#: the spectrum's level axis: power per 10 Hz analysis bin relative to full scale
+SPECTRUM_LEVEL_LABEL = "level per 10 Hz bin (dBFS)"
+#: the spectrogram's colour bar: channel-summed power per band relative to full scale
+SPECTROGRAM_LEVEL_LABEL = "dBFS per band"
 
 #: files whose Nyquist frequency is above this get a second, linear panel of the upper band
 UPPER_PANEL_MIN_NYQUIST_HZ = 24000.0
@@ -329,7 +340,7 @@ def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(
     nyq = sample_rate_hz / 2.0
     upper = nyq > UPPER_PANEL_MIN_NYQUIST_HZ
     with matplotlib.rc_context(STYLE):
-        fig = _figure(4.9 if upper else 2.7)
+        fig = _figure(3.7 if upper else 2.4)
         if upper:
             ax = fig.add_axes((0.075, 0.585, 0.905, 0.32))
             ax2 = fig.add_axes((0.075, 0.1, 0.905, 0.37))
@@ -361,7 +372,7 @@ def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(
             if ax2 is not None and freq >= UPPER_PANEL_FROM_HZ:
                 ax2.axvline(freq, **style)
         ax.set_xlabel("frequency (Hz), logarithmic")
-        ax.set_ylabel("level (dB)")
+        ax.set_ylabel(SPECTRUM_LEVEL_LABEL)
         ax.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
         _legend(ax, ncol=3)
         if ax2 is not None:
@@ -369,7 +380,7 @@ def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(
             if values:
                 ax2.set_ylim(*ylim)
             ax2.set_xlabel(f"frequency (Hz), linear: the upper band, {UPPER_PANEL_FROM_HZ / 1000:g} kHz to Nyquist")
-            ax2.set_ylabel("level (dB)")
+            ax2.set_ylabel(SPECTRUM_LEVEL_LABEL)
             ax2.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
             ax2.axvspan(20000.0, nyq, color=GREY, alpha=0.08, lw=0)
             for freq, text in marks:
@@ -401,7 +412,7 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
     ``lines``: horizontal reference lines ``[(freq_hz, label)]``.
     """
     with matplotlib.rc_context(STYLE):
-        fig = _figure(2.6)
+        fig = _figure(2.3)
         ax = fig.add_axes((TIME_LEFT, 0.2, TIME_WIDTH, 0.74))
         z = np.array([[np.nan if v is None else float(v) for v in row] for row in db_rows], dtype=float)
         t = np.asarray(times_s, float)
@@ -436,10 +447,11 @@ def spectrogram_plot(times_s, freqs_hz, db_rows, axis: TimeAxis, duration_s: flo
         ax.grid(False)
         _time_axis(ax, axis, duration_s)
         ax.set_xlim(0.0, max(duration_s, extent[1] if len(t) else 0.0, 1e-3))
-        cax = fig.add_axes((TIME_LEFT + TIME_WIDTH + 0.015, 0.2, 0.013, 0.74))
+        cax = fig.add_axes((TIME_LEFT + TIME_WIDTH + 0.012, 0.2, 0.013, 0.74))
         bar = fig.colorbar(img, cax=cax)
-        bar.set_label("level (dB)", fontsize=6.5)
-        bar.ax.tick_params(labelsize=6)
+        bar.ax.tick_params(labelsize=6, pad=1.5)
+        # the label above the bar, inside the figure (a rotated label at the right edge is cut off)
+        cax.set_title(SPECTROGRAM_LEVEL_LABEL, fontsize=6.3, loc="left", pad=3)
         return _to_svg(fig, "spectrogram", "Spectrogram", raster_dpi=110)
 
 

@@ -27,6 +27,8 @@ from masterqc.fileio import write_atomic
 from masterqc.formats import ALL_FORMATS, RENDER_FORMATS, parse_formats  # noqa: E402,F401  (one formats module)
 
 PAPERS = ("a4", "letter")
+#: what a report holds: the certificate and its appendix, or the certificate alone
+PAGES = ("all", "summary")
 
 _ENV: jinja2.Environment | None = None
 _CSS: str | None = None
@@ -53,15 +55,18 @@ def _env() -> jinja2.Environment:
     return _ENV
 
 
-def render_html(result: dict, paper: str = "a4") -> str:
+def render_html(result: dict, paper: str = "a4", pages: str = "all") -> str:
     """The report of ``result`` as one self-contained HTML document (deterministic).
 
-    ``paper`` ("a4" or "letter") only sets the page size used when printing.
+    ``paper`` ("a4" or "letter") only sets the page size used when printing; ``pages``:
+    ``"all"`` (the certificate, then the appendix) or ``"summary"`` (the certificate alone).
     """
     from masterqc.report.view import build_view
 
     if paper not in PAPERS:
         raise UsageError(f"unknown paper size {paper!r}; use a4 or letter")
+    if pages not in PAGES:
+        raise UsageError(f"unknown --pages {pages!r}; use all or summary")
     view = build_view(result, paper=paper)
     for key in ("loudness", "true_peak", "spectrum", "spectrogram", "events"):
         if view[key].get("svg"):
@@ -70,7 +75,8 @@ def render_html(result: dict, paper: str = "a4") -> str:
     template = env.get_template("report.html.j2")
     version = str((result.get("tool") or {}).get("version", ""))
     from masterqc.report.view import STATUS_COLOURS
-    return template.render(v=view, css=Markup(_CSS), tool_version=version, colours=STATUS_COLOURS)
+    return template.render(v=view, css=Markup(_CSS), tool_version=version, colours=STATUS_COLOURS,
+                           summary_only=pages == "summary")
 
 
 class ExternalFetchRefused(ValueError):
@@ -105,7 +111,8 @@ def inline_only_fetcher(fetch_log: list | None = None):
     return fetch
 
 
-def render_pdf(result: dict, paper: str = "a4", html: str | None = None, fetch_log: list | None = None) -> bytes:
+def render_pdf(result: dict, paper: str = "a4", html: str | None = None, fetch_log: list | None = None,
+               pages: str = "all") -> bytes:
     """The PDF of the same document (:func:`render_html`) printed by weasyprint.
 
     ``fetch_log``: a list that receives every URL weasyprint asks for (only
@@ -114,12 +121,19 @@ def render_pdf(result: dict, paper: str = "a4", html: str | None = None, fetch_l
     import weasyprint
 
     if html is None:
-        html = render_html(result, paper=paper)
+        html = render_html(result, paper=paper, pages=pages)
     doc = weasyprint.HTML(string=html, base_url=None, url_fetcher=inline_only_fetcher(fetch_log))
     return doc.write_pdf()
 
 
-def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, paper: str = "a4") -> list[Path]:
+def pdf_page_count(html: str) -> int:
+    """How many pages weasyprint lays ``html`` out on (for tests and checks)."""
+    import weasyprint
+    return len(weasyprint.HTML(string=html, base_url=None, url_fetcher=inline_only_fetcher()).render().pages)
+
+
+def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, paper: str = "a4",
+                  pages: str = "all") -> list[Path]:
     """Write ``<stem>.html`` and/or ``<stem>.pdf`` for ``result`` into ``out_dir``; return the paths.
 
     ``formats`` may include ``"json"`` (ignored here: the caller writes the
@@ -131,12 +145,12 @@ def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, pape
     out.mkdir(parents=True, exist_ok=True)
     if not stem or os.sep in stem or (os.altsep and os.altsep in stem):
         raise UsageError(f"report name {stem!r} must be a plain file name stem")
-    html = render_html(result, paper=paper) if ("html" in fmts or "pdf" in fmts) else None
+    html = render_html(result, paper=paper, pages=pages) if ("html" in fmts or "pdf" in fmts) else None
     payloads: list[tuple[Path, bytes]] = []
     if "html" in fmts:
         payloads.append((out / f"{stem}.html", html.encode("utf-8")))
     if "pdf" in fmts:
-        payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html)))
+        payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html, pages=pages)))
     written = []
     for path, data in payloads:
         write_atomic(path, data)
@@ -187,3 +201,4 @@ def load_result(path) -> dict:
         return upgrade_result(result, str(p))  # an older saved result is upgraded, a newer one refused
     except ResultFormatError as exc:
         raise UsageError(str(exc)) from None
+

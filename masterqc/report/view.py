@@ -27,20 +27,33 @@ import re
 from masterqc.contract import SHORT_PROGRAMME_S, Finding, Normalisation, parse_finding, parse_series
 from masterqc.report import fmt
 from masterqc.report import plots
+from masterqc.report.advice import advice_for
 
 #: the check ids whose limits the plots draw (exact ids the judge writes)
 CHECK_INTEGRATED = "loudness.integrated"
 CHECK_TRUE_PEAK = "peaks.true_peak"
 
-#: status -> (word shown, shape name used by the template's icon)
+#: status -> (word shown, shape name used by the template's icon): the one set of state words
+#: (documented in DEVELOPERS.md, "State words"); no other word is used for a state
 STATUS_WORDS = {
     "pass": ("PASS", "circle"),
     "warn": ("WARN", "triangle"),
     "fail": ("FAIL", "square"),
     "skipped": ("SKIPPED", "dash"),
     "error": ("ERROR", "diamond"),
-    "unjudged": ("NOT JUDGED", "ring"),
+    "unjudged": ("MEASURED ONLY", "ring"),
 }
+
+#: what each state word means (shown in the report's appendix and in DEVELOPERS.md)
+STATUS_MEANINGS = [
+    ("pass", "the requirement is met."),
+    ("warn", "met, but close to the limit; or missed where the spec counts a miss as a warning."),
+    ("fail", "the requirement is missed."),
+    ("error", "the check could not be completed (unreadable file, or a fault in masterqc)."),
+    ("skipped", "the quantity cannot be measured for this file (e.g. a loudness range of a 2 s file); "
+                "it does not change the verdict."),
+    ("unjudged", "no delivery spec was applied: the file was measured, not judged."),
+]
 
 #: status -> colour of its icon (the CSS uses the same values for the words; icons carry the
 #: colour as an attribute because not every renderer resolves ``currentColor`` inside inline SVG)
@@ -55,16 +68,29 @@ STATUS_ORDER = {"error": 0, "fail": 1, "warn": 2, "skipped": 3, "pass": 4}
 #: how many time ranges a finding lists in full before it summarises them
 MAX_WHERE = 4
 #: how many individual events (clipped runs, dropouts...) the events table lists
-MAX_EVENT_ROWS = 24
+MAX_EVENT_ROWS = 12
 
 CAUTIONS = [
     "masterqc is a measurement aid. The receiving party's own delivery spec and QC govern "
     "acceptance; a PASS here is not an acceptance by anyone.",
-    "Loud test content: masters that fail often hold full-scale peaks, clipping or inter-sample "
+    "Loud content: masters that fail often hold full-scale peaks, clipping or inter-sample "
     "overs. Set your monitoring level low before you play the file, and raise it slowly.",
-    "Measurements follow the methods and settings listed under Provenance; another meter set "
+    "Measurements follow the methods and settings in the appendix; another meter set "
     "differently (true-peak oversampling, gating, spectrum resolution) may read slightly differently.",
 ]
+
+#: the certificate's fields, in order: key -> label (set by the spec's ``report:`` section or ``--field``)
+CERTIFICATE_FIELDS = [("client", "Client"), ("job", "Job / order no."), ("operator", "Operator")]
+
+_SENTENCE_END = re.compile(r"(?<=[a-z0-9)\]%])\. (?=[A-Z])")
+
+
+def headline(message: str) -> str:
+    """The first sentence of a finding's message: what the certificate shows on one line."""
+    text = str(message or "").strip()
+    parts = _SENTENCE_END.split(text, maxsplit=1)
+    first = parts[0]
+    return first if first.endswith((".", "!", "?")) else first + "."
 
 
 # ----------------------------------------------------------------- small helpers
@@ -167,8 +193,8 @@ def where_text(ranges, labels: TimeLabels) -> tuple[str, int]:
     first = [labels.span(float(a), float(b)) for a, b in ranges[:MAX_WHERE - 1]]
     start = min(float(a) for a, _b in ranges)
     end = max(float(b) for _a, b in ranges)
-    text = (f"{len(ranges)} places from {labels.at(start)} to {labels.at(end)}; first: " + "; ".join(first)
-            + " \u2026")
+    text = (f"{len(ranges):,} places from {labels.at(start)} to {labels.at(end)}; the first {len(first)} listed: "
+            + "; ".join(first))
     return text, len(ranges)
 
 
@@ -181,7 +207,8 @@ def _check_label(check: str) -> str:
     fixed = []
     for w in words:
         for low, spelled in (("lufs", "LUFS"), ("dbtp", "dBTP"), ("isrc", "ISRC"), ("bext", "bext"),
-                             ("lra", "LRA"), ("dc", "DC"), ("lfe", "LFE"), ("db", "dB")):
+                             ("lra", "LRA"), ("dc", "DC"), ("lfe", "LFE"), ("db", "dB"),
+                             ("nyquist", "Nyquist")):
             w = re.sub(rf"\b{low}\b", spelled, w, flags=re.I)
         fixed.append(w)
     return " \u00b7 ".join(fixed)
@@ -248,6 +275,8 @@ def findings_view(result: dict, labels: TimeLabels) -> list[dict]:
             "where": where or "\u2014",
             "where_count": n_where,
             "message": fmt.clean_text(f.message),
+            "headline": fmt.clean_text(headline(f.message)),
+            "advice": fmt.clean_text(advice_for(f, result)) if f.status in ("fail", "warn", "error") else "",
             "severity": f.severity or "",
         })
     rows.sort(key=lambda r: r["order"])
@@ -265,7 +294,7 @@ def verdict_view(result: dict, findings: list[dict]) -> dict:
     spec_name = fmt.clean_text(_get(result, "spec", "name", default="") or "")
     spec_ref = f"the spec \u201c{spec_name}\u201d" if spec_name else "the spec"
     if not judged:
-        summary = "Measured only: no delivery spec was applied, so nothing was judged."
+        summary = "Measured only: no delivery spec was applied, so nothing was judged"
     elif status == "pass":
         summary = f"Meets {spec_ref}: all {counts['pass']} judged checks passed"
     elif status == "warn":
@@ -281,20 +310,105 @@ def verdict_view(result: dict, findings: list[dict]) -> dict:
                    "ended in an error" + (f", {counts['fail']} failed" if counts["fail"] else ""))
     if judged and counts["skipped"]:
         summary += f" ({counts['skipped']} skipped: not measurable for this file)"
-    if judged:
-        summary += "."
-    fixes = [f for f in findings if f["status"] in ("error", "fail", "warn")]
+    summary += "."
+    fixes, seen = [], set()
+    for f in findings:
+        if f["status"] in ("error", "fail", "warn") and f["advice"] and f["advice"] not in seen:
+            seen.add(f["advice"])  # one line per piece of advice (two conversion targets, one limiter setting)
+            fixes.append(f)
     fixes_title = "What to fix" if any(f["status"] in ("error", "fail") for f in fixes) else "What to look at"
     # printed in every PDF page's head; built from fixed words only (it goes into CSS)
     page_mark = f"verdict: {word}" + (f" ({_plural(counts['fail'], 'fail')})" if status == "fail" else "")
     return {"status": status, "word": word, "shape": shape, "summary": summary, "page_mark": page_mark,
             "fixes_title": fixes_title,
-            "fixes": fixes[:8], "more_fixes": max(len(fixes) - 8, 0), "counts": counts,
+            "fixes": fixes, "more_fixes": 0, "counts": counts,
             "judged": judged}
 
 
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}" + ("" if n == 1 else "s")
+
+
+# ----------------------------------------------------------------- the certificate (page one)
+
+def format_words(f: dict) -> str:
+    """``"WAV, PCM 24-bit, 48 kHz"`` from the result's ``format``."""
+    parts = []
+    if f.get("container"):
+        parts.append(fmt.clean_text(f["container"]).upper())
+    enc = str(f.get("encoding") or "")
+    depth = f.get("bit_depth")
+    if enc.startswith("pcm"):
+        parts.append(f"PCM {depth}-bit" if depth else "PCM")
+    elif enc.startswith("float") or enc == "double":
+        parts.append(f"{depth}-bit float" if depth else "floating point")
+    elif enc:
+        parts.append(fmt.clean_text(enc) + (f", {depth}-bit" if depth else ""))
+    rate = f.get("sample_rate_hz")
+    if _is_number(rate):
+        parts.append(f"{rate / 1000:g}\u00a0kHz")
+    return ", ".join(parts) or "unknown"
+
+
+def report_fields(result: dict) -> dict:
+    """The certificate's fields (client, job, operator, date) from the result's ``spec.report``."""
+    fields = _get(result, "spec", "report", default=None)
+    if not isinstance(fields, dict):
+        return {}
+    return {str(k): fmt.clean_text(v) for k, v in fields.items() if v not in (None, "")}
+
+
+#: the key figures of the certificate: (measurement key, label)
+KEY_FIGURES = [
+    ("integrated_lufs", "Integrated"), ("loudness_range_lu", "Loudness range"),
+    ("max_momentary_lufs", "Max momentary"), ("max_short_term_lufs", "Max short-term"),
+    ("true_peak_dbtp", "True peak"), ("sample_peak_dbfs", "Sample peak"),
+]
+
+
+def certificate_view(result: dict, findings: list[dict], verdict: dict) -> dict:
+    """Page one: verdict, file identity, spec, every failure and warning, key figures, fields, sign-off."""
+    f = result.get("format") or {}
+    file = result.get("file") or {}
+    spec = result.get("spec") or {}
+    m = result.get("measurements") or {}
+    path = str(file.get("path") or "")
+    identity = [("File", fmt.clean_text(os.path.basename(path) or "(unnamed)")),
+                ("SHA-256", fmt.clean_text(file.get("sha256") or "not computed"))]
+    dur = f.get("duration_s")
+    if _is_number(dur):
+        identity.append(("Duration", f"{fmt.clock(dur, 3)} ({fmt.number(float(dur), 3)}\u00a0s)"))
+    if f:
+        identity.append(("Format", format_words(f)))
+        layout = " ".join(fmt.clean_text(x) for x in (f.get("channel_layout") or []))
+        if f.get("channels"):
+            identity.append(("Channels", f"{f['channels']}" + (f" ({layout})" if layout else "")))
+    if spec.get("name") or spec.get("sha256"):
+        spec_rows = [("Spec", fmt.clean_text(spec.get("name") or "(unnamed)")),
+                     ("Spec version", fmt.clean_text(spec.get("version") or "not stated in the spec")),
+                     ("Spec SHA-256", fmt.clean_text(spec.get("sha256") or "n/a"))]
+    else:
+        spec_rows = [("Spec", "none: measured only, nothing judged")]
+    fields = report_fields(result)
+    field_rows = [(label, fields.get(key, "")) for key, label in CERTIFICATE_FIELDS]
+    problems = [r for r in findings if r["status"] in ("error", "fail", "warn")]
+    figures = []
+    for key, label in KEY_FIGURES:
+        if key in m:
+            figures.append((label, fmt.value_for_key(key, m[key])))
+    if _is_number(f.get("sample_rate_hz")):
+        figures.append(("Sample rate", f"{f['sample_rate_hz'] / 1000:g}\u00a0kHz"))
+    if f.get("bit_depth"):
+        figures.append(("Bit depth", f"{f['bit_depth']}-bit"
+                        + (" float" if str(f.get("encoding", "")).startswith("float") else "")))
+    c = verdict["counts"]
+    judged = len(findings)
+    tally = (f"{judged} checks: {c['pass']} pass, {c['warn']} warn, {c['fail']} fail"
+             + (f", {c['error']} error" if c["error"] else "")
+             + (f", {c['skipped']} skipped (not measurable for this file)" if c["skipped"] else "") + ".")
+    return {"identity": identity, "spec": spec_rows, "fields": field_rows, "date": fields.get("date", ""),
+            "problems": problems, "figures": figures, "tally": tally if judged else "",
+            "dense": len(problems) > 10}
 
 
 # ----------------------------------------------------------------- format and metadata
@@ -307,17 +421,9 @@ def format_rows(result: dict) -> list[tuple[str, str]]:
         rows.append(("File", fmt.clean_text(file["path"])))
     if "size_bytes" in file:
         rows.append(("Size", fmt.size_bytes(file.get("size_bytes"))))
-    if f.get("container"):
-        rows.append(("Container", fmt.clean_text(f["container"]).upper()
-                     + (f" ({fmt.clean_text(_get(result, 'metadata', 'container_kind'))})"
-                        if _get(result, "metadata", "container_kind") else "")))
-    if f.get("encoding"):
-        enc = fmt.clean_text(f["encoding"])
-        if f.get("bit_depth"):
-            enc += f", {f['bit_depth']}-bit"
-        rows.append(("Encoding", enc))
-    if f.get("sample_rate_hz"):
-        rows.append(("Sample rate", f"{fmt.number(f['sample_rate_hz'])}\u00a0Hz"))
+    if f:
+        kind = _get(result, "metadata", "container_kind")
+        rows.append(("Format", format_words(f) + (f" ({fmt.clean_text(kind)} container)" if kind else "")))
     if f.get("channels"):
         layout = " ".join(fmt.clean_text(x) for x in (f.get("channel_layout") or []))
         src = {"channel_mask": "from the channel mask", "conventional": "conventional order for the count",
@@ -338,7 +444,9 @@ def format_rows(result: dict) -> list[tuple[str, str]]:
     return rows
 
 
-_META_SKIP = {"chunks", "problems", "container_kind", "time_reference_samples"}
+#: metadata keys not listed in the report's table: container internals (the format table shows what they
+#: mean; the JSON keeps them) and keys shown elsewhere
+_META_SKIP = {"chunks", "problems", "container_kind", "time_reference_samples", "fmt", "audio_data"}
 
 
 def _flatten(prefix: str, value, out: list, depth: int = 0):
@@ -376,6 +484,8 @@ def metadata_view(result: dict) -> dict:
             continue
         _flatten(str(key), meta[key], rows)
     rows = [(k, v) for k, v in rows if v != "\u2014"]
+    if meta.get("container_kind"):
+        rows.insert(0, ("container_kind", fmt.clean_text(meta["container_kind"])))
     if meta.get("time_reference_samples") is not None:
         rows.append(("time_reference_samples", fmt.number(meta["time_reference_samples"])))
     chunks = [{"id": fmt.clean_text(c.get("id", "")), "offset": fmt.number(c.get("offset")),
@@ -402,8 +512,7 @@ def loudness_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     series = parse_series(result.get("series"))
     mom = series.pair("momentary_lufs", "loudness_time_s")
     st = series.pair("short_term_lufs", "loudness_time_s")
-    rows = _rows_for(m, ["integrated_lufs", "loudness_range_lu", "max_momentary_lufs",
-                         "max_short_term_lufs", "loudness_range_low_lufs", "loudness_range_high_lufs"])
+    rows = _rows_for(m, ["integrated_lufs", "loudness_range_lu", "max_momentary_lufs", "max_short_term_lufs"])
     band = None
     f = _finding(result, CHECK_INTEGRATED)
     note = ""
@@ -459,8 +568,8 @@ def true_peak_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
     overs = _ranges_of(m.get("true_peak_over_ranges_s"))
     ceiling, source = _ceiling(result)
     if overs or "true_peak_over_ranges_s" in m:
-        rows.append(("Overs above the ceiling", f"{len(overs)}" + (
-            f" at or above {fmt.number(ceiling, 1)} dBTP" if ceiling is not None else "")))
+        rows.append(("Overs above the ceiling", (f"{len(overs):,}" if overs else "none") + (
+            f" (ceiling {fmt.number(ceiling, 1)} dBTP)" if ceiling is not None else "")))
     env = parse_series(result.get("series")).pair("true_peak_envelope_dbtp", "true_peak_envelope_time_s")
     if env is None:
         return {"svg": None, "rows": rows, "present": bool(rows),
@@ -486,6 +595,12 @@ _SPECTRAL_PREFIXES = ("bandwidth_note", "effective_bandwidth", "bandwidth", "ban
                       "imaging", "imaged", "aliasing", "alias_to_harmonic", "aliased", "ultrasonic")
 
 
+#: detector internals left to the JSON result (the findings give what they mean)
+_SPECTRAL_IN_JSON = {"bandwidth_note", "bandwidth_edge_slope_db_per_khz", "upsampled_edge_ratio",
+                     "upsampled_evidence", "aliasing_assessable", "aliasing_assessable_fraction",
+                     "ultrasonic_from_hz"}
+
+
 def _spectral_order(key: str):
     for i, p in enumerate(_SPECTRAL_PREFIXES):
         if key.startswith(p):
@@ -500,7 +615,7 @@ def spectrum_view(result: dict) -> dict:
     m = result.get("measurements") or {}
     freqs, per = series.ltas_hz, series.ltas_db_per_channel
     rows = _rows_for(m, [k for k in sorted(m, key=_spectral_order) if k.startswith(_SPECTRAL_PREFIXES)
-                         and not isinstance(m[k], (list, dict))])
+                         and not isinstance(m[k], (list, dict)) and k not in _SPECTRAL_IN_JSON])
     if not freqs or not per or any(len(row) != len(freqs) for row in per) or rate <= 0:
         return {"svg": None, "rows": rows, "present": bool(rows),
                 "note": _not_measured(["ltas_hz", "ltas_db_per_channel"])}
@@ -579,7 +694,7 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
             label = fmt.label_of_key(stem)
             kind = "quiet" if key in _QUIET_EVENT_KEYS else "info"
             lanes.append((label, ranges, kind))
-            table.append({"label": label, "count": str(len(ranges)),
+            table.append({"label": label, "count": f"{len(ranges):,}",
                           "where": where_text([list(r) for r in ranges], labels)[0] or "none"})
     head = m.get("head_silence_s")
     tail = m.get("tail_silence_s")
@@ -618,14 +733,18 @@ def events_view(result: dict, labels: TimeLabels, duration_s: float) -> dict:
             word = STATUS_WORDS[f["status"]][0]
             lanes.append((f"{word}: {_check_label(f.get('check', ''))}"[:40], _ranges_of(f["where_s"]),
                           f["status"]))
+    quiet_kinds = [r["label"] for r in table if r["count"] == "0"]
+    table = [r for r in table if r["count"] != "0"]
     if not lanes:
-        return {"svg": None, "rows": [], "present": False, "details": [], "details_more": 0,
+        return {"svg": None, "rows": [], "present": False, "details": [], "details_more": 0, "none_of": "",
                 "note": "Not measured: the result holds no located events (keys ending in \u201c_where_s\u201d "
                         "or \u201c_ranges_s\u201d, head or tail silence)."}
     drawn = [lane for lane in lanes if lane[1]]
     svg = plots.markers_plot(duration_s, labels.axis(), drawn) if duration_s > 0 and drawn else None
     return {"svg": svg, "rows": table, "present": True, "details": details[:MAX_EVENT_ROWS],
             "details_more": max(len(details) - MAX_EVENT_ROWS, 0),
+            "details_total": f"{len(details):,}",
+            "none_of": ", ".join(k.lower() for k in quiet_kinds),
             "note": "Only kinds with at least one event are drawn. Events too short to see at this scale are "
                     "widened to be visible and marked with a triangle."}
 
@@ -649,8 +768,8 @@ def _khz_ranges(ranges, most: int = 4) -> str:
 #: conversion entry key -> column heading (other keys follow, labelled from their names)
 _CONVERSION_COLUMNS = [
     ("target_rate_hz", "Target rate"),
-    ("energy_above_target_nyquist_db", "Energy above the target's Nyquist (dB re. below)"),
-    ("energy_above_target_nyquist_dbfs", "That energy as a level"),
+    ("energy_above_target_nyquist_db", "Energy above the target's Nyquist, relative to the band below"),
+    ("energy_above_target_nyquist_dbfs", "Energy above the target's Nyquist, as a level"),
     ("fold_to_hz", "Would fold (alias) to"),
     ("true_peak_after_dbtp", "True peak after conversion"),
     ("true_peak_after_dbtp_per_channel", "per channel"),
@@ -666,11 +785,11 @@ def conversions_view(result: dict) -> dict:
         if "conversions" in (result.get("measurements") or {}):
             note = "No conversion targets: the spec names no target rates to convert to."
         return {"table": None, "note": note}
-    known = [k for k, _h in _CONVERSION_COLUMNS if any(k in c for c in conv)]
+    known = [k for k, _h in _CONVERSION_COLUMNS if any(k in c for c in conv) and k != "filter"]
     extra = []
     for c in conv:
         for k in c:
-            if k not in known and k not in extra and k not in ("folds", "target"):
+            if k not in known and k not in extra and k not in ("folds", "target", "filter"):
                 extra.append(k)
     columns = [h for k, h in _CONVERSION_COLUMNS if k in known] + [fmt.label_of_key(k, True) for k in extra]
     rows = []
@@ -692,6 +811,10 @@ def conversions_view(result: dict) -> dict:
         rows.append(row)
     note = ("n/a: the quantity does not exist for that target (e.g. no content above the target's "
             "Nyquist frequency, or a target above the file's own rate).")
+    filters = [(c.get("target_rate_hz"), c.get("filter")) for c in conv if c.get("filter")]
+    if filters:
+        note += " Converter used for these estimates: " + "; ".join(
+            (f"{t / 1000:g} kHz: " if _is_number(t) else "") + fmt.clean_text(f) for t, f in filters) + "."
     # the spec's true-peak ceiling of each deliverable, as judged, beside the measured value
     judged = {f.check: f for f in _findings(result)}
     verdicts = []
@@ -699,16 +822,16 @@ def conversions_view(result: dict) -> dict:
         t = c.get("target_rate_hz")
         f = judged.get(f"sampling.conversion_{int(t)}.true_peak") if _is_number(t) else None
         if f is None or f.status not in ("pass", "warn", "fail"):
-            verdicts.append("not judged")
+            verdicts.append("no requirement")
             continue
         limit = limit_display(f.limit)
         if f.status == "pass":
-            verdicts.append(f"pass ({limit})")
+            verdicts.append(f"PASS ({limit})")
         elif _is_number(f.miss):
             verdicts.append(f"{f.status.upper()}: {_miss_text(f)} over ({limit})")
         else:
             verdicts.append(f"{f.status.upper()} ({limit})")
-    if any(v != "not judged" for v in verdicts) and "true_peak_after_dbtp" in known:
+    if any(v != "no requirement" for v in verdicts) and "true_peak_after_dbtp" in known:
         at = known.index("true_peak_after_dbtp") + 1
         columns.insert(at, "Spec ceiling")
         for row, v in zip(rows, verdicts):
@@ -771,11 +894,9 @@ def provenance_view(result: dict) -> dict:
     rows = [("Tool", f"{fmt.clean_text(tool.get('name', 'masterqc'))} {fmt.clean_text(tool.get('version', '?'))}")]
     if file:
         rows.append(("File", fmt.clean_text(file.get("path", ""))))
-        rows.append(("File SHA-256", fmt.clean_text(file.get("sha256", "n/a"))))
     if spec:
         rows.append(("Spec", fmt.clean_text(spec.get("name", "")) + (f" ({fmt.clean_text(spec['path'])})"
                                                                     if spec.get("path") else "")))
-        rows.append(("Spec SHA-256", fmt.clean_text(spec.get("sha256", "n/a"))))
         if spec.get("from_delivery_folder"):
             rows.append(("Spec source", "from the delivery folder (it came with the masters, not from the operator)"))
     else:
@@ -786,26 +907,60 @@ def provenance_view(result: dict) -> dict:
                      else "judged on a fresh measurement"))
     for key in sorted(analysis, key=str):
         v = analysis[key]
-        if isinstance(v, (dict, list)):
+        if isinstance(v, (dict, list)) or key == "block_frames":
             continue
         label = {"elapsed_s": "Analysis time", "block_frames": "Block size (frames)"}.get(key, fmt.label_of_key(key))
         rows.append((label, fmt.value_for_key(key, v) if key != "block_frames" else fmt.number(v)))
+    # one compact line per analyzer: its scalar settings at their real precision; lists, tables and
+    # long descriptions are in the JSON result ("settings")
     settings = []
+    in_json = 0
     for name in sorted(result.get("settings") or {}, key=str):
         block = result["settings"][name]
-        if isinstance(block, dict):
-            for k in sorted(block, key=str):
-                settings.append((fmt.clean_text(name), fmt.clean_text(k), _setting_text(k, block[k])))
-        else:
-            settings.append((fmt.clean_text(name), "", _setting_text(name, block)))
-    return {"rows": rows, "settings": settings}
+        if name not in SETTINGS_SHOWN:
+            in_json += len(block) if isinstance(block, dict) else 1
+            continue
+        if not isinstance(block, dict):
+            block = {name: block}
+        parts = []
+        for k in sorted(block, key=str):
+            text = setting_text(k, block[k])
+            if text is None:
+                in_json += 1
+                continue
+            parts.append(f"{fmt.clean_text(k)} {text}")
+        if parts:
+            settings.append((fmt.label_of_key(str(name)), "; ".join(parts)))
+    note = ("The settings of the loudness and true-peak meters. Every setting "
+            + (f"({in_json} more) " if in_json else "") + "and every measured value are in the JSON result, under "
+            "\u201csettings\u201d and \u201cmeasurements\u201d.")
+    return {"rows": rows, "settings": settings, "settings_note": note}
 
 
-def _setting_text(key, v) -> str:
+#: the analyzers whose settings the report shows (where meters set differently read differently);
+#: every other setting is in the JSON result
+SETTINGS_SHOWN = ("loudness", "true_peak")
+
+
+def setting_text(key, v) -> str | None:
+    """A setting's value as written, at its real precision (0.01 stays 0.01), with the unit its key names;
+    None for lists, mappings and texts longer than 60 characters (they stay in the JSON)."""
     if isinstance(v, (dict, list)):
-        import json
-        return fmt.clean_text(json.dumps(v, sort_keys=True))[:600]
-    return fmt.value_for_key(str(key), v)
+        return None
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    unit = fmt.unit_of_key(str(key))[0]
+    if isinstance(v, float):
+        text = f"{v:.10g}"
+    elif isinstance(v, int):
+        text = str(v)
+    elif v is None:
+        text = "none"
+    else:
+        text = fmt.clean_text(v)
+        if len(text) > 60:
+            return None
+    return f"{text}\u00a0{unit}" if unit and (isinstance(v, (int, float))) else text
 
 
 def all_measurements(result: dict) -> list[tuple[str, str, str]]:
@@ -834,6 +989,8 @@ def build_view(result: dict, paper: str = "a4") -> dict:
     path = _get(result, "file", "path", default="") or ""
     name = os.path.basename(str(path)) or "(unnamed)"
     return {
+        "certificate": certificate_view(result, findings, verdict),
+        "status_meanings": [(STATUS_WORDS[k][0], STATUS_WORDS[k][1], k, text) for k, text in STATUS_MEANINGS],
         "file_name": fmt.clean_text(name),
         "title": f"{verdict['word']} \u2014 {fmt.clean_text(name)}",
         "paper": "letter" if str(paper).lower() == "letter" else "a4",

@@ -51,6 +51,7 @@ class LoadedSpec:
     files: list = field(default_factory=list)  #: every file read, ``{"path", "sha256"}``, the named file first
     from_delivery_folder: bool = False  #: the spec came with the masters (``spec_in_folder``), not from the operator
     warnings: list = field(default_factory=list)  #: likely typos, ``(file, key_path, line, column, message)``
+    report_fields: dict = field(default_factory=dict)  #: certificate fields from the command line (``--field``)
 
     @property
     def name(self) -> str:
@@ -60,6 +61,14 @@ class LoadedSpec:
         """The ``spec`` object of a check result."""
         out = {"name": self.spec.name, "path": self.path, "sha256": self.sha256,
                "files": [dict(f) for f in self.files]}
+        version = getattr(self.spec, "version", None)
+        if version:
+            out["version"] = str(version)
+        section = getattr(self.spec, "report", None)
+        fields = {k: v for k, v in (section.model_dump() if section is not None else {}).items() if v}
+        fields.update(self.report_fields)
+        if fields:
+            out["report"] = fields
         if self.from_delivery_folder:
             out["from_delivery_folder"] = True
         return out

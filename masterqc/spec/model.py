@@ -22,12 +22,25 @@ from masterqc.spec.types import SpecModel
 SPEC_VERSIONS = (1,)
 
 
+class ReportFields(SpecModel):
+    """The ``report:`` section: fields printed on every report's certificate (page one)."""
+
+    client: str | None = Field(None, max_length=200, description="the client the masters are delivered for")
+    job: str | None = Field(None, max_length=200, description="job or order number")
+    operator: str | None = Field(None, max_length=200, description="who runs the check and signs the certificate")
+
+
 class SpecDocument(SpecModel):
     """Keys every spec file has besides its sections."""
 
     spec_version: Literal[1] = Field(..., description="version of the masterqc delivery-spec format (1)")
     name: str = Field(..., min_length=1, description="name of the spec, shown in every report")
     description: str | None = Field(None, description="free text shown in reports")
+    version: str | int | float | None = Field(None,
+                                description="the spec's own version as its owner numbers it (e.g. \"2.1\" or "
+                                            "\"2026-03\"), printed on the certificate; not the format version")
+    report: ReportFields | None = Field(None, description="fields printed on the certificate (client, job, "
+                                                          "operator); --field on the command line overrides them")
     extends: str | list[str] | None = Field(
         None, description="base spec file(s), relative to this file; this file's keys override theirs "
                           "(mappings merge key by key, lists are replaced, null removes a base key)")
