@@ -144,4 +144,6 @@ def test_a_throwaway_measurement_end_to_end_touches_four_files(tmp_path):
     assert finding["status"] == "fail" and finding["measured"] == 3.0 and finding["limit_low"] == 6.0
     assert finding["unit"] == "dB" and finding["miss"] == 3.0
     html = (out / "sine.html").read_text(encoding="utf-8")
-    assert "Crest factor" in html and "3.0\u00a0dB" in html  # the measurement row and the finding row
+    plain = html.replace("\u00a0", " ")
+    # the certificate's line and the appendix's finding row, from the judge's numbers
+    assert plain.count("Crest factor is 3.0 dB, 3.0 dB below the limit of 6.0 dB.") >= 2

@@ -264,7 +264,7 @@ def test_imaging_detail_and_untestable_reason():
     by, verdict = run(sp, m)
     f = by["sampling.imaging"]
     assert (f.status, verdict) == ("fail", "fail")
-    assert f.message == ('Imaging: the spectrum holds mirror images left by an unfiltered upsampler; the spec does not allow this. 44.1 kHz source: defect, coherence 0.91, mirror image -12.3 dB re baseband (L); 48 kHz source: trace.')
+    assert f.message == ('Imaging: the spectrum holds mirror images left by an unfiltered upsampler; the spec does not allow this. 44.1 kHz source: defect, coherence 0.91, first mirror image -12.3 dB re the content it mirrors (L); 48 kHz source: trace.')
     by, _v = run(sp, {"imaging_detected": False, "imaging": m["imaging"][2:]})
     f = by["sampling.imaging"]
     assert f.status == "pass" and f.message == 'Imaging: no mirror images of an unfiltered upsampler.'

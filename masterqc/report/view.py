@@ -403,7 +403,7 @@ def certificate_view(result: dict, findings: list[dict], verdict: dict) -> dict:
                         + (" float" if str(f.get("encoding", "")).startswith("float") else "")))
     c = verdict["counts"]
     judged = len(findings)
-    tally = (f"{judged} checks: {c['pass']} pass, {c['warn']} warn, {c['fail']} fail"
+    tally = (f"{judged} check{'' if judged == 1 else 's'}: {c['pass']} pass, {c['warn']} warn, {c['fail']} fail"
              + (f", {c['error']} error" if c["error"] else "")
              + (f", {c['skipped']} skipped (not measurable for this file)" if c["skipped"] else "") + ".")
     return {"identity": identity, "spec": spec_rows, "fields": field_rows, "date": fields.get("date", ""),
