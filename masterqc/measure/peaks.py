@@ -37,7 +37,7 @@ OVER_EVENT = {
     "properties": {"channel": {"type": "string"},
                    "channels": {"type": "array", "items": {"type": "string"}},
                    "start_s": {"type": "number"}, "end_s": {"type": "number"},
-                   "peak_dbtp": {"type": "number"}},
+                   "peak_dbtp": {"type": ["number", "null"]}},
 }
 
 
@@ -144,8 +144,8 @@ class TruePeakAnalyzer(Analyzer):
             'true peak of the highest channel, band-limited oversampling (ITU-R BS.1770 Annex 2)'),
         "true_peak_dbtp_per_channel": measured(NUMBER_OR_NULL_LIST, 'dbtp',
             'true peak of each channel'),
-        "true_peak_linear_per_channel": measured(NUMBER_LIST, 'ratio',
-            'true peak of each channel as a linear amplitude'),
+        "true_peak_linear_per_channel": measured(NUMBER_OR_NULL_LIST, 'ratio',
+            'true peak of each channel as a linear amplitude (null for a channel whose samples are not all finite)'),
         "true_peak_oversampling_factor": measured(INTEGER, 'factor',
             'factor of the grid the true peaks are read on (32 for kaiser, 4 for annex2)'),
         "true_peak_underread_max_db_to_0_45fs": measured(NUMBER, 'db',
