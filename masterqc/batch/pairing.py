@@ -55,8 +55,8 @@ class PairRule:
 
 def parse_pairs(value, map_path: str, where, libraries=()) -> tuple[list[PairRule], list[tuple]]:
     """``(rules, problems)`` from a spec map's ``pairs:`` value; problems are SpecError tuples naming the key."""
-    from masterqc.errors import SpecError
-    from masterqc.spec.loader import excerpt, load_spec
+    from masterqc.batch.specmap import cached_spec
+    from masterqc.spec.loader import excerpt
 
     rules, errs = [], []
     if not isinstance(value, list) or not value:
@@ -86,14 +86,9 @@ def parse_pairs(value, map_path: str, where, libraries=()) -> tuple[list[PairRul
             continue
         spec_path, loaded = None, None
         if item.get("spec"):
-            sp = item["spec"] if os.path.isabs(item["spec"]) else os.path.join(here, item["spec"])
-            if sp not in cache:
-                try:
-                    cache[sp] = load_spec(sp, libraries=libraries)
-                except SpecError as exc:
-                    errs.extend(exc.problems)
-                    continue
-            spec_path, loaded = sp, cache[sp]
+            spec_path, loaded = cached_spec(item["spec"], here, cache, libraries, errs)
+            if loaded is None:
+                continue
         rules.append(PairRule(item["deliverable"], item["master"], spec_path, loaded))
     return rules, errs
 

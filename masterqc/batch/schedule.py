@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 from masterqc.fileio import text_safe
 from masterqc.pipeline import check_file, error_result, measure_and_judge, options_for, write_outputs
+from masterqc.problems import ranked_problems
 
 
 class NoSpec:
@@ -36,11 +37,8 @@ class NoSpec:
 
 def first_problem(result: dict) -> str | None:
     """The message of the first error, else fail, else warning finding (None when all passed)."""
-    for status in ("error", "fail", "warn"):
-        for f in result.get("findings", []):
-            if f["status"] == status:
-                return f["message"]
-    return None
+    ranked = ranked_problems(result.get("findings", []))
+    return ranked[0]["message"] if ranked else None
 
 
 def slim(result: dict) -> dict:

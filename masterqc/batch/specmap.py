@@ -193,6 +193,21 @@ def _is_map_file(path: str) -> bool:
     return not problems and isinstance(data, dict) and MAP_KEY in data
 
 
+def cached_spec(spec_ref: str, here: str, cache: dict, libraries, errs: list):
+    """``(path, loaded)`` of the spec a map rule names (``spec_ref``, relative to the map's folder ``here``),
+    loaded once per map through ``cache``; ``loaded`` is None when it cannot be loaded, its problems then
+    added to ``errs``."""
+    from masterqc.spec.loader import load_spec
+    sp = spec_ref if os.path.isabs(spec_ref) else os.path.join(here, spec_ref)
+    if sp not in cache:
+        try:
+            cache[sp] = load_spec(sp, libraries=libraries)
+        except SpecError as exc:
+            errs.extend(exc.problems)
+            return sp, None
+    return sp, cache[sp]
+
+
 def load_spec_map(path, base_options=None, libraries=()) -> SpecMap:
     """Load ``--spec``: a single delivery spec or a spec map; SpecError names the file, key and line.
 
@@ -269,14 +284,9 @@ def load_spec_map(path, base_options=None, libraries=()) -> SpecMap:
                 continue
             rules.append(Rule(item["match"], glob_regex(item["match"]), None, None, None, name))
             continue
-        sp = item["spec"] if os.path.isabs(item["spec"]) else os.path.join(here, item["spec"])
-        if sp not in cache:
-            try:
-                cache[sp] = load_spec(sp, libraries=libraries)
-            except SpecError as exc:
-                errs.extend(exc.problems)
-                continue
-        loaded = cache[sp]
+        sp, loaded = cached_spec(item["spec"], here, cache, libraries, errs)
+        if loaded is None:
+            continue
         rules.append(Rule(item["match"], glob_regex(item["match"]), sp, loaded, spec_key(loaded, base_options)))
     pairs = []
     if "pairs" in data:
