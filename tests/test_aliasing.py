@@ -119,6 +119,8 @@ def test_sweep_generated_past_nyquist_reflects(fs):
     assert d["folded_partials"] >= 1
     rate = (0.8 * fs - 500.0) / 1.5
     t_cross = (fs / 2 - 500.0) / rate
+    # the frequency tolerances (100 Hz rising, 150 Hz folded) are a house choice: ten to fifteen
+    # 10 Hz bins for a partial that moves (0.8 fs - 500) / 1.5 Hz per second within a frame
     for ex in d["fold_examples"]:
         assert ex["at_s"] <= t_cross + 0.01 and ex["folded_at_s"] >= t_cross - 0.01
         # the rising partial is the sweep itself, and its continuation is mirrored at Nyquist
@@ -145,6 +147,8 @@ def test_naive_sawtooth_sweep_partials_fall_while_the_fundamental_rises():
 
 
 def test_fold_frequency():
+    # analytic: f folds to |f - m*fs| for the nearest multiple m of fs, e.g. 30 kHz at 48 kHz ->
+    # 48 - 30 = 18 kHz, 71 kHz -> 71 - 48 = 23 kHz, 50 kHz -> 50 - 48 = 2 kHz
     assert al.fold_frequency(30000.0, 48000.0) == pytest.approx(18000.0)
     assert al.fold_frequency(50000.0, 48000.0) == pytest.approx(2000.0)
     assert al.fold_frequency(71000.0, 48000.0) == pytest.approx(23000.0)

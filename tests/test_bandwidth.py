@@ -63,8 +63,8 @@ def test_resample_poly_upsampling_is_found(src, dst, kind):
     r = assess(upsampled_noise(src, dst, kind=kind), dst)
     assert r.upsampled_from_hz == src
     assert r.edge == "cliff"
-    assert 0.4 <= r.confidence <= 1.0
-    # resample_poly's filter is -6 dB at src/2; the pass level is read 2-5 kHz below the edge,
+    assert 0.4 <= r.confidence <= 1.0  # the range of the confidence formula (house choice, bandwidth.py)
+    # scipy's resample_poly filter is -6 dB at src/2; the pass level is read 2-5 kHz below the edge,
     # so the -6 dB point lands within ~5 % below the old Nyquist
     assert 0.93 * src / 2 <= r.effective_bandwidth_hz <= 1.01 * src / 2
     assert r.band_limit_hz is None
@@ -92,6 +92,7 @@ def test_steep_low_pass_at_no_standard_rate_is_a_band_limit(corner):
     r = assess(quantise24(sps.sosfiltfilt(sos, x), rng), fs)
     assert r.upsampled_from_hz is None
     assert r.edge == "cliff"
+    # 150 Hz: house choice, fifteen 10 Hz bins for an edge read on a smoothed spectrum (SMOOTH_HZ 110)
     assert r.band_limit_hz == pytest.approx(corner, abs=150.0)
     assert "band-limited" in r.note
 
@@ -106,8 +107,8 @@ def test_shallow_shelf_at_16k_is_a_band_limit_not_upsampling():
     gain = np.where(f < 16000.0, 1.0, 10 ** (-30 / 20))
     r = assess(quantise24(np.fft.irfft(spec * gain, x.size), rng), fs)
     assert r.upsampled_from_hz is None
-    assert r.band_limit_hz == pytest.approx(16000.0, abs=100.0)
-    assert 25.0 <= r.depth_db <= 35.0
+    assert r.band_limit_hz == pytest.approx(16000.0, abs=100.0)  # ten 10 Hz bins (house choice)
+    assert 25.0 <= r.depth_db <= 35.0  # analytic: the shelf is 30 dB (10**(-30/20) in amplitude), +-5 dB of reading
 
 
 def test_natural_roll_off_is_not_a_cliff():
@@ -218,6 +219,7 @@ def test_whole_file_upsampled_is_located_over_the_whole_file():
     fe.process(x)
     m = bw.assess(fe.finish(), info_for(96000, 1, x.shape[0])).measurements()
     assert m["upsampled_from_hz"] == 48000
+    # analytic: the whole file, frames / 96000 s; 1 ms is a house choice well inside one 50 ms hop
     assert m["upsampled_where_s"] == [[0.0, pytest.approx(x.shape[0] / 96000, abs=1e-3)]]
     assert m["bandwidth_segments"] == []
 
@@ -274,7 +276,7 @@ def test_band_limit_on_a_sloping_pass_band_is_found_at_its_corner(fs):
     x = faded(lowpass(analog_lowpass(_pink(fs, 1.0, rng), fs, 3000.0, 3), fs, 17000.0), fs)
     r = assess(quantise24(0.3 * x / np.max(np.abs(x)), rng), fs)
     assert r.upsampled_from_hz is None
-    assert r.band_limit_hz == pytest.approx(17000.0, abs=200.0)
+    assert r.band_limit_hz == pytest.approx(17000.0, abs=200.0)  # twenty 10 Hz bins on a sloped pass band (house choice)
     assert r.edge == "cliff"
 
 
@@ -356,7 +358,8 @@ def test_resample_poly_edge_is_where_its_design_puts_it(src, dst):
     assert r.band_limit_hz is None
 
 
-# libsamplerate's documented bandwidths (from memory): SRC_SINC_BEST_QUALITY 97 %, SRC_SINC_MEDIUM_QUALITY 90 %,
+# libsamplerate's documented bandwidths (its converter descriptions, as src_get_description gives them:
+# "a bandwidth of 97%" ...): SRC_SINC_BEST_QUALITY 97 %, SRC_SINC_MEDIUM_QUALITY 90 %,
 # SRC_SINC_FASTEST 80 % of the Nyquist frequency; the -6 dB point lies at or a little above the documented
 # bandwidth (the pass band ends there) and below the old Nyquist.
 LSR_BANDWIDTH = {"sinc_best": 0.97, "sinc_medium": 0.90, "sinc_fastest": 0.80}
@@ -439,7 +442,7 @@ def test_segments_that_all_agree_set_the_file_verdict():
     m = bw.assess(res, info_for(96000, 1, x.shape[0])).measurements()
     assert m["upsampled_from_hz"] == 44100
     assert m["upsampled_evidence"] == "segments"
-    assert m["upsampled_where_s"] == [[0.0, pytest.approx(12.0, abs=0.01)]]
+    assert m["upsampled_where_s"] == [[0.0, pytest.approx(12.0, abs=0.01)]]  # the 12 s file (by construction)
 
 
 def test_images_name_the_source_rate_when_there_is_no_cliff():

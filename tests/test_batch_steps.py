@@ -77,7 +77,7 @@ def test_hash_reads_only_new_or_changed_files(tmp_path):
     with Ledger(tmp_path / "l.sqlite") as ledger:
         assert hash_items(items, ledger, InlineBackend(), hash_task) == 3
         assert [it.sha256 for it in items] == [hashlib.sha256(p.read_bytes()).hexdigest() for p in files]
-        assert [it.size_bytes for it in items] == [1000, 1001, 1002]
+        assert [it.size_bytes for it in items] == [1000, 1001, 1002]  # by construction: 1000 + i bytes
         again = plan_items([_found(root, p.name) for p in files], [root], _Map(), parse_release_mode("folder"),
                            str(tmp_path / "out"))
         assert hash_items(again, ledger, InlineBackend(), hash_task) == 0  # the stat cache: nothing read

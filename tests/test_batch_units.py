@@ -269,7 +269,7 @@ def test_ledger_is_wal_and_overlapping_runs_both_complete(tmp_path, rng):
     assert {k: o.summary["counts"]["analysed"] for k, o in outcomes.items()} == {"one": 3, "two": 3}
     with sqlite3.connect(ledger) as db:
         assert db.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
-        assert db.execute("SELECT COUNT(*) FROM measurements").fetchone()[0] == 6
+        assert db.execute("SELECT COUNT(*) FROM measurements").fetchone()[0] == 6  # by construction: 2 folders x 3 files
         assert [r[0] for r in db.execute("SELECT status FROM runs ORDER BY run_id")] == ["complete", "complete"]
     with Ledger(ledger) as led:
         assert len(led.runs()) == 2

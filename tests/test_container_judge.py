@@ -59,6 +59,7 @@ def measured_tone(tmp_path_factory):
 
 def test_tone_measures_as_tech_3341_case_1(measured_tone):
     m = measured_tone
+    # EBU Tech 3341 (2023) Table 1 case 1: -23.0 +-0.1 LUFS; true peak and LRA as in the module docstring
     assert m["integrated_lufs"] == pytest.approx(-23.0, abs=0.1)
     assert m["max_momentary_lufs"] == pytest.approx(-23.0, abs=0.1)
     assert m["max_short_term_lufs"] == pytest.approx(-23.0, abs=0.1)
@@ -79,8 +80,9 @@ def test_bext_loudness_agreeing_passes(tmp_path):
 
 
 def test_bext_loudness_mismatch_fails_with_the_miss(tmp_path, measured_tone):
-    # stored -21.00 LUFS, tolerance 0.5 LU: the file measures -23.0 (+-0.1), so it misses the
-    # band -21.5 .. -20.5 by 1.5 (+-0.1) LU
+    # analytic from EBU Tech 3341 case 1: stored -21.00 LUFS, tolerance 0.5 LU: the file measures
+    # -23.0 (+-0.1), so it misses the band -21.5 .. -20.5 by 1.5 (+-0.1) LU.  Stored true peak -1.50 dBTP
+    # against a measured -23.0: 21.5 dB apart, 21.2 beyond the 0.3 dB tolerance
     stored = (-2100, 0x7FFF, -150, 0x7FFF, 0x7FFF)
     by, _all, verdict, _r = _run(tmp_path, [FMT, _bext(stored), TONE],
                                  {"bext_loudness": {"tolerance_lu": 0.5, "true_peak_tolerance_db": 0.3}})
@@ -142,7 +144,7 @@ def test_chunk_problems_are_findings_with_offsets(tmp_path):
     assert len(probs) == 1 and probs[0].status == "fail"
     assert probs[0].message.startswith("At byte 36: bext chunk is 400 bytes")
     assert verdict == "fail"
-    # the audio was still measured
+    # the audio was still measured (EBU Tech 3341 case 1 level, module docstring)
     assert result["measurements"]["integrated_lufs"] == pytest.approx(-23.0, abs=0.1)
 
 

@@ -56,6 +56,7 @@ def test_upgrade_of_a_format_1_result_renames_keys_and_converts_fractions():
     new = upgrade_result(old)
     assert new["result_format"] == RESULT_FORMAT_VERSION
     m = new["measurements"]
+    # by construction: the fraction 0.25 is 25.0 percent (house choice: results carry percents since format 2)
     assert m == {"loudness_block_count": 12, "loudness_block_above_gates_count": 9, "clipped_run_count": 2,
                  "phase_correlation_below_percent": 25.0, "effective_bit_depth_bits": 16,
                  "phase_correlation_below_percent_per_pair": [25.0, None]}

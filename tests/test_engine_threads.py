@@ -69,7 +69,7 @@ def test_threads_change_no_result_float_with_non_finite(tmp_path):
     assert two == one
     m = json.loads(two)["measurements"]
     # the non-finite samples are counted from the raw blocks, the others see zeros there
-    assert m["nonfinite_sample_count"] == 11
+    assert m["nonfinite_sample_count"] == 11  # by construction: 1 NaN + 10 inf written above
     assert m["integrated_lufs"] is not None
 
 
@@ -119,7 +119,7 @@ def test_blocks_are_read_only_and_in_order(tmp_path, threads):
                       progress=lambda done, total: calls.append((done, total)),
                       classes=[_Recorder] + analyzer_classes()[:3])
     frames = 2 * FS
-    assert _Recorder.seen == [10000] * 9 + [frames - 90000]
+    assert _Recorder.seen == [10000] * 9 + [frames - 90000]  # by construction: 96000 frames in 10000-frame blocks
     assert _Recorder.wrote and not any(_Recorder.wrote)
     assert calls == [(min(10000 * (k + 1), frames), frames) for k in range(10)]
 
@@ -177,7 +177,8 @@ def test_level_balance_taken_from_the_loudness_meter_is_unchanged(tmp_path, chan
         got[name] = m["level_balance_lu_per_pair"]
     assert len(got["alone"]) == channels // 2 - (1 if channels == 6 else 0)
     assert got["shared"] == pytest.approx(got["alone"], rel=0, abs=1e-9)
-    # the balance itself: pair gains differ by the channel scaling (white noise, flat K-weighting share)
+    # analytic: pair gains differ by the channel scaling, 20*log10(g0 / g1) (white noise of one spectrum in
+    # each channel, so the K-weighting takes the same share); 0.3 LU: house choice for 3 s of noise
     assert got["alone"][0] == pytest.approx(20 * np.log10(np.linspace(0.5, 1.5, channels)[0]
                                                           / np.linspace(0.5, 1.5, channels)[1]), abs=0.3)
 

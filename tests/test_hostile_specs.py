@@ -89,7 +89,7 @@ def test_extends_reaches_a_library_named_by_the_operator(host, capsys):
     code, out, err = run_cli(["spec", "validate", spec, "--spec-library", lib], capsys)
     assert code == 0, err
     loaded = load_spec(spec, libraries=[lib])
-    assert loaded.spec.loudness.integrated.target_lufs == -23.0
+    assert loaded.spec.loudness.integrated.target_lufs == -23.0  # by construction: house.yaml in the fixture
     assert [os.path.basename(f["path"]) for f in loaded.files] == ["delivery-spec.yaml", "house.yaml"]
 
 
@@ -99,6 +99,7 @@ def test_messages_quote_only_a_short_sanitised_excerpt(tmp_path, capsys):
                                            "tolerance_lu: 1}\n")
     code, out, err = run_cli(["spec", "validate", spec], capsys)
     assert code == 2
+    # house choice: a message quotes at most 40 characters of a value (spec/loader.py EXCERPT_CHARS)
     assert "A" * 41 not in err and "\x1b" not in err
     assert "s.yaml:4:" in err and "loudness.integrated.target_lufs" in err
 

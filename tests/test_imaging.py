@@ -97,7 +97,7 @@ def test_native_noise_is_not_imaged(rng):
     assert m["imaging_detected"] is False
     for c in m["imaging"]:
         assert c["verdict"] == "none"
-        assert c["coherence"] < 0.01
+        assert c["coherence"] < 0.01  # house choice: native noise leaves (almost) none
         assert abs(c["z_score"]) < im.Z_SIGNIFICANT
 
 
@@ -109,7 +109,7 @@ def test_proper_resampler_leaves_no_defect(rng):
     assert m["imaging_detected"] is False
     assert c["verdict"] in ("trace", "none")
     if c["verdict"] == "trace":
-        assert c["image_level_db"] < -90.0
+        assert c["image_level_db"] < -90.0  # the filter's stop band is 100 dB (by construction); 10 dB margin: house choice
 
 
 def test_block_size_does_not_change_the_result(rng):
@@ -156,6 +156,7 @@ def test_mirror_pairs_sum_to_the_cycle_frequency():
     assert ka.size > 0
     assert np.all((ka + kb - al) % n == 0)
     # both the direct image (32k - f) and the one folded about Nyquist (16k - f) are paired
+    # analytic: the cycle frequency 32 kHz is bin 32000 / 20 = 1600, and 16 kHz (its half) is bin 800
     assert set(np.unique(al).tolist()) == {1600}
     fa = np.minimum(ka, n - ka)
     fb = np.minimum(kb, n - kb)
@@ -166,6 +167,7 @@ def test_mirror_pairs_sum_to_the_cycle_frequency():
 
 def test_null_bias_of_disjoint_frames_is_one_over_m():
     w = np.hanning(100)
+    # analytic: M disjoint frames of independent noise leave a coherence of 1/M on average; M = 4 -> 0.25
     assert im.null_coherence_bias([0, 100, 200, 300], w) == pytest.approx(0.25)
     assert im.null_coherence_bias([0, 0], w) == pytest.approx(1.0)
 
@@ -233,6 +235,7 @@ def test_proper_44k1_to_96k_music_is_at_most_a_trace(rng):
     m = _run(y, 96000)
     c = _candidate(m, 44100)
     assert c["verdict"] in ("none", "trace"), c
+    # 100 dB stop band by construction; -90 dB keeps a 10 dB margin (house choice)
     assert c["image_level_db"] is None or c["image_level_db"] < -90.0
     assert m["imaging_detected"] is False
 
@@ -368,7 +371,7 @@ def test_sample_pattern_makes_the_images_a_defect_with_their_predicted_level():
     assert c["verdict"] == "defect" and c["evidence"] == "samples" and m["imaging_detected"] is True
     k = np.arange(8, 17)
     expected = 10 * math.log10(np.sum(k ** -2.0 * np.sin(np.pi * k / 96) ** 2) / np.sum(k ** -2.0 * np.cos(np.pi * k / 96) ** 2))
-    assert c["image_level_db"] == pytest.approx(expected, abs=0.05)
+    assert c["image_level_db"] == pytest.approx(expected, abs=0.05)  # analytic (docstring); 0.05 dB: house choice
 
 
 def test_sparse_held_material_found_through_its_sample_pattern(rng):
@@ -383,6 +386,8 @@ def test_sparse_held_material_found_through_its_sample_pattern(rng):
     m = analyse(y, fs, [ImagingAnalyzer, InterpolationTraceAnalyzer])
     c = _candidate(m, float(src))
     assert m["imaging_detected"] is True and c["verdict"] == "defect"
+    # house choice: a wide band around the analytic level of a 4x hold's first image (box response,
+    # module docstring) for noise bursts whose spectrum is not known in advance
     assert -16.0 < c["image_level_db"] < -1.0
 
 

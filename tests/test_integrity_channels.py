@@ -28,6 +28,7 @@ def _tone(seconds, f=997.0, a=0.25, fs=FS):
 
 
 def test_pairs_by_label():
+    # house choice: front L/R, Ls/Rs and Lrs/Rrs are paired by label (indices by construction)
     assert channel_pairs(["L", "R"]) == [(0, 1)]
     assert channel_pairs(["L", "R", "C", "LFE", "Ls", "Rs"]) == [(0, 1), (4, 5)]
     assert channel_pairs(["L", "R", "C", "LFE", "Ls", "Rs", "Lrs", "Rrs"]) == [(0, 1), (4, 5), (6, 7)]
@@ -66,6 +67,7 @@ def test_inverted_mix_with_independent_parts(rng):
     n1, n2 = rng.normal(0, 0.5, (2, 10 * FS))
     x = 0.1 * np.stack([s + n1, -(s + n2)], axis=1)
     m = feed(ChannelRelationAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
+    # analytic: -var(s) / sqrt((var s + var n1)(var s + var n2)) = -1 / (1 + 0.25); 0.01 for 10 s of noise
     assert m["channel_correlation_per_pair"][0] == pytest.approx(-1.0 / 1.25, abs=0.01)
     assert m["inverted_polarity"] is True  # -0.8 <= -0.5 (default)
     m = feed(ChannelRelationAnalyzer, x, info_for(x, bits=64, is_float=True),
@@ -75,7 +77,8 @@ def test_inverted_mix_with_independent_parts(rng):
 
 @pytest.mark.parametrize("block", [65536, 4801, 1000])
 def test_phase_correlation_over_time(block):
-    # 1 s in phase, 0.5 s with R inverted, 1.5 s in phase: 5 of 30 windows at -1
+    # analytic: 1 s in phase, 0.5 s with R inverted, 1.5 s in phase: 5 of 30 windows (100 ms, house
+    # choice) at -1; over the whole file (2.5 - 0.5) / 3 = 2/3
     tone = _tone(3.0)
     r = tone.copy()
     r[FS:FS + FS // 2] *= -1
@@ -114,14 +117,14 @@ def test_long_file_series_stays_bounded():
     vals = res.series["phase_correlation"]["values"]
     assert len(vals) <= SERIES_POINTS
     assert min(vals) == pytest.approx(res.measurements["phase_correlation_min"])
-    assert res.measurements["phase_correlation_below_s"] == pytest.approx(0.3, abs=1e-9)
+    assert res.measurements["phase_correlation_below_s"] == pytest.approx(0.3, abs=1e-9)  # by construction: 123..123.3 s
 
 
 def test_balance_of_one_tone_at_two_levels():
     tone = _tone(5.0, a=0.5)
     x = np.stack([tone, tone / 2], axis=1)
     m = feed(ChannelRelationAnalyzer, x, info_for(x, bits=64, is_float=True)).measurements
-    assert m["level_balance_lu"] == pytest.approx(20 * math.log10(2), abs=1e-3)
+    assert m["level_balance_lu"] == pytest.approx(20 * math.log10(2), abs=1e-3)  # analytic: half the amplitude
 
 
 def test_balance_against_pyloudnorm(tmp_path, rng):
@@ -141,7 +144,7 @@ def test_balance_against_pyloudnorm(tmp_path, rng):
 
 def test_surround_pairs(rng):
     base = rng.normal(0, 0.1, (FS, 6))
-    base[:, 5] = base[:, 4] * 0.5  # Rs = Ls at -6 dB: balance +6.02 LU, correlation 1
+    base[:, 5] = base[:, 4] * 0.5  # Rs = Ls at -6 dB: balance 20*log10(2) = +6.02 LU, correlation 1 (analytic)
     base[:, 3] = 0.0               # LFE silent
     m = feed(ChannelRelationAnalyzer, base, info_for(base, bits=64, is_float=True)).measurements
     assert m["channel_pairs"] == [["L", "R"], ["Ls", "Rs"]]

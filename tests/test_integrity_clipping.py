@@ -57,7 +57,8 @@ def test_run_tracker_matches_plain_iteration_for_any_block_split(data, cuts, min
 
 
 def test_full_scale_and_clip_levels():
-    # 16-bit: +32767/32768 and -1.0 (two's complement full scale)
+    # analytic: 16-bit two's complement codes run -32768..+32767, read as code / 32768 (the usual
+    # PCM-to-float scaling, common practice, no source; libsndfile does the same): +32767/32768 and -1.0
     assert full_scale_levels(16, False) == (32767 / 32768, -1.0)
     assert full_scale_levels(24, False) == ((2 ** 23 - 1) / 2 ** 23, -1.0)
     assert clip_levels(24, False, 0.0) == ((2 ** 23 - 1) / 2 ** 23, -1.0)
@@ -160,6 +161,7 @@ def test_float_file_overs_and_runs(tmp_path):
     path = tmp_path / "f.wav"
     sf.write(path, x.astype(np.float32), FS, subtype="FLOAT")
     m = measure_file(path)["measurements"]
+    # by construction (the samples written above): overs 1 in L and 3 in R, one run per channel
     assert m["over_full_scale_sample_count"] == 4
     assert m["over_full_scale_sample_count_per_channel"] == [1, 3]
     assert m["clipped_run_count_per_channel"] == [1, 1]
@@ -170,9 +172,11 @@ def test_file_round_trip_matches_in_memory(tmp_path):
     codes = _clipped_codes()
     path = write_pcm(tmp_path / "c.wav", codes, FS, 24)
     m = measure_file(path, MeasureOptions(block_frames=3001))["measurements"]
+    # by construction: the runs written in _clipped_codes (counted in test_runs_and_counts above)
     assert m["clipped_run_count"] == 4 and m["clipped_run_count_per_channel"] == [2, 3]
 
 
 def test_merge_ranges():
+    # by construction: touching or overlapping ranges are joined; limit keeps the first n (house choice)
     assert merge_ranges([(3.0, 4.0), (1.0, 2.0), (2.0, 2.5), (3.5, 5.0)]) == [[1.0, 2.5], [3.0, 5.0]]
     assert merge_ranges([(float(i), i + 0.5) for i in range(10)], limit=3) == [[0.0, 0.5], [1.0, 1.5], [2.0, 2.5]]

@@ -44,6 +44,7 @@ def _tones(seconds=10, offset=(0.01, -0.001), fade_s=0.0):
 def test_dc_offset_level_and_sign(block):
     x = _tones()
     m = feed(DcOffsetAnalyzer, x, info_for(x, bits=64, is_float=True), block=block).measurements
+    # analytic: offsets 0.01 and -0.001 read 20*log10(0.01) = -40 and 20*log10(0.001) = -60 dBFS
     assert m["dc_offset_dbfs_per_channel"] == pytest.approx([-40.0, -60.0], abs=1e-9)
     assert m["dc_offset_sign_per_channel"] == [1, -1]
     assert m["dc_offset_dbfs"] == pytest.approx(-40.0, abs=1e-9)
@@ -57,6 +58,7 @@ def test_dc_energy_share_below_20_hz():
     # mean square of the signal itself.
     for k, c in enumerate((0.01, -0.001)):
         expected = 10 * math.log10(c ** 2 / np.mean(x[:, k] ** 2))
+        # 0.02 dB: house choice, a margin over the 0.05 % (0.002 dB) of the DC's energy above 20 Hz
         assert m["subsonic_energy_db_per_channel"][k] == pytest.approx(expected, abs=0.02)
 
 
@@ -68,8 +70,8 @@ def test_rumble_share_below_20_hz(tmp_path):
     m = measure_file(path)["measurements"]
     gain = 1.0 / (1.0 + (5.0 / 20.0) ** 16)  # order-8 Butterworth power response at 5 Hz (docstring)
     expected = 10 * math.log10(gain * 0.1 ** 2 / 2 / (0.1 ** 2 / 2 + 0.5 ** 2 / 2))
-    assert m["subsonic_energy_db_per_channel"][0] == pytest.approx(expected, abs=0.05)
-    assert m["dc_offset_dbfs"] < -100  # a sine has no DC (float rounding only)
+    assert m["subsonic_energy_db_per_channel"][0] == pytest.approx(expected, abs=0.05)  # 0.05 dB: house choice
+    assert m["dc_offset_dbfs"] < -100  # analytic: a sine over whole periods has no DC (float rounding only)
 
 
 def test_silent_channel_has_no_levels():
@@ -110,4 +112,4 @@ def test_tones_at_the_decimated_rate_do_not_alias_below_20_hz(f, fs):
     # a tone at (a multiple of) the decimated rate would fold onto DC without the FIR
     x = _faded(f, seconds=2, fs=fs)
     m = feed(DcOffsetAnalyzer, x, info_for(x, fs=fs, bits=64, is_float=True), block=7777).measurements
-    assert m["subsonic_energy_db"] < -100.0
+    assert m["subsonic_energy_db"] < -100.0  # house choice: nothing but the FIR's residue may reach below 20 Hz

@@ -69,7 +69,7 @@ def test_findings_on_a_defective_file(tmp_path):
     # the tone starts at frame 24000 with sin(0) = 0: the first sample above -60 dBFS is frame 24001
     assert f["integrity.head_silence"].where_s == [[0.0, 24001 / FS]]
     assert f["integrity.tail_silence"].status == "fail"
-    assert f["integrity.tail_silence"].where_s == [[3.75, 4.0]]
+    assert f["integrity.tail_silence"].where_s == [[3.75, 4.0]]  # by construction: the last 0.25 s of 4 s
     assert f["integrity.dropouts"].status == "fail"
     assert f["integrity.dropouts"].where_s == [[120010 / FS, 120490 / FS]]
     assert "; found: digital silence" in f["integrity.dropouts"].message
@@ -107,7 +107,7 @@ def test_nonfinite_is_an_error_even_without_the_section(tmp_path):
     f = _by_check(findings)["integrity.nonfinite_samples"]
     assert f.status == "error" and verdict == "error"
     assert f.measured == 1
-    assert f.where_s == [[0.1, 4801 / FS]]
+    assert f.where_s == [[0.1, 4801 / FS]]  # by construction: frame 4800 is 0.1 s, its end 4801 frames
     assert "nan in R at frame 4800" in f.message
 
 
@@ -135,6 +135,7 @@ def test_inverted_and_unbalanced_pair(tmp_path):
     assert f["integrity.phase_correlation_below"].measured == 100.0
     assert f["integrity.phase_correlation_below"].where_s == [[0.0, 2.0]]
     bal = f["integrity.level_balance"]
+    # analytic: R at half L's amplitude is 20*log10(2) = 6.02 LU quieter, judged at 0.1 LU: 6.0
     assert bal.status == "fail" and bal.measured == 6.0 and "L is the louder" in bal.message
     assert f["integrity.over_full_scale_samples"].status == "pass"
     assert f["integrity.subsonic_energy"].status == "pass"

@@ -175,9 +175,9 @@ def test_silence_times_head_and_tail(spec):
     assert h.message == 'Silence at the head is 2.500 s, 0.500 s above the limit of 2.000 s.'
     assert h.where_s == [[0.0, 2.5]]
     assert t.message == 'Silence at the tail is 0.500 s, 0.500 s below the limit of 1.000 s.'
-    assert t.where_s == [[29.5, 30.0]]
+    assert t.where_s == [[29.5, 30.0]]  # by construction: the last 0.5 s of the 30 s duration
     assert f["integrity.head_digital_silence"].where_s == [[0.0, 0.3]]
-    assert f["integrity.tail_digital_silence"].where_s == [[29.75, 30.0]]
+    assert f["integrity.tail_digital_silence"].where_s == [[29.75, 30.0]]  # by construction: 30 - 0.25
     # no head silence at all misses the 0.5 s minimum with no time range; no duration: no tail range
     f, _ = findings(spec, head_silence_s=0.0, tail_silence_s=0.0, duration_s=None)
     assert f["integrity.head_silence"].status == "fail" and f["integrity.head_silence"].where_s == []
@@ -271,7 +271,7 @@ def test_warnings_carry_the_same_detail_as_failures():
     assert f["integrity.dropouts"].message == ('1 dropout where the spec allows none; per channel: L 0, R 1; found: a frozen sample value (the spec counts this as a warning).')
     assert f["integrity.inverted_polarity"].message == ('Polarity: the channels (L/R) are inverted; the spec does not allow this (the spec counts this as a warning).')
     assert f["integrity.level_balance"].message == ('Level difference L/R is 2.0 LU, 0.5 LU above the limit of 1.5 LU; R is the louder (the spec counts this as a warning).')
-    assert f["integrity.tail_silence"].where_s == [[29.75, 30.0]]
+    assert f["integrity.tail_silence"].where_s == [[29.75, 30.0]]  # by construction: 30 s file (fmt above) - 0.25
     assert f["integrity.head_silence"].where_s == [[0.0, 3.0]]
     # a tail of zero length gives no time range
     g, _ = findings(s, tail_silence_s=0.0)

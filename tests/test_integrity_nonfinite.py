@@ -33,6 +33,8 @@ def test_counts_and_first_positions(tmp_path):
     sf.write(path, _signal(), FS, subtype="FLOAT")
     r = measure_file(path, MeasureOptions(block_frames=4096))
     m = r["measurements"]
+    # by construction (_signal): L has NaN at 1000 and -inf at 3000; R has +inf at 2000 and ten NaN
+    # from 70000: 13 in all, 11 NaN and 2 inf
     assert m["nonfinite_sample_count"] == 13
     assert m["nonfinite_sample_count_per_channel"] == [2, 11]
     assert m["nan_sample_count"] == 11 and m["inf_sample_count"] == 2
@@ -43,6 +45,7 @@ def test_counts_and_first_positions(tmp_path):
     assert m["nonfinite_where_s"][-1] == [70000 / FS, 70010 / FS]
     # the rest of the measurement completes: loudness and peaks exist and are finite
     assert isinstance(m["integrated_lufs"], float)
+    # analytic: the finite samples are a 0.1 sine, 20*log10(0.1) = -20 dBFS at most
     assert m["sample_peak_dbfs"] is not None and m["sample_peak_dbfs"] < -19.9
     assert m["effective_bit_depth_bits"] == 32  # genuine float content
 

@@ -58,6 +58,7 @@ def test_threshold_moves_near_silence():
 def test_all_silent_file_is_silent_from_both_ends():
     x = np.zeros((9600, 2))
     m = feed(SilenceAnalyzer, x, info_for(x)).measurements
+    # by construction: 9600 frames / 48000 = 0.2 s, all of it silent
     assert m["head_silence_s"] == m["tail_silence_s"] == 0.2
     assert m["head_digital_silence_s"] == m["tail_digital_silence_s"] == 0.2
     assert m["dropout_count"] == 0  # a silent channel touches both ends: not a dropout
@@ -107,6 +108,8 @@ def test_dropout_length_option_and_exclusions():
 def test_measure_file_silence_keys(tmp_path):
     path = write_pcm(tmp_path / "s.wav", _dropouts(), FS, 24)
     m = measure_file(path, MeasureOptions(block_frames=10000))["measurements"]
+    # by construction (_programme, _dropouts): 12000 / 48000 = 0.25 s of digital silence at the head,
+    # 24000 / 48000 = 0.5 s at the tail; three dropouts, the one on both channels counted as two runs
     assert m["head_digital_silence_s"] == 0.25 and m["tail_silence_s"] == 0.5
     assert m["dropout_count"] == 3 and m["dropout_channel_run_count"] == 4
 

@@ -5,6 +5,10 @@ dB-like units, more when the spec writes more), ties go towards the limit it
 could miss, and that rounded value is both what is compared and what is shown.
 Promise 1: a value shown as the limit never fails it.  Promise 2: a value that
 fails is always shown beyond the limit, with a miss of at least one step.
+
+Provenance: house choice, the project's own judging rule (DEVELOPERS.md, "judging precision";
+masterqc/judge/core.py).  Every expected value here follows from that rule and the limits the
+test writes by decimal arithmetic (e.g. 22.4 against a maximum of 18.0 misses by 4.4).
 """
 
 from __future__ import annotations

@@ -94,6 +94,8 @@ def test_measure_documented_exit_code_and_bounds(corpus, capsys):
     assert grew_mib < MAX_RSS_GROWTH_MIB, grew_mib
     assert all(codes[p] == 0 for p in files["names"])          # a name never makes a master unreadable
     assert all(codes[p] == 3 for p in files["special"])        # FIFO and device: refused, never waited on
+    # house choice: a floor well under the count of unreadable files the generator builds (so a
+    # reader that accepts everything fails here)
     assert sum(c == 3 for c in codes.values()) >= 30          # the corpus really is malformed
 
 

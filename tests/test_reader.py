@@ -134,6 +134,7 @@ def test_layout_override_checked(tmp_path):
     sf.write(path, np.zeros((10, 5)), 48000, subtype="PCM_16", format="WAV")
     with open_stream(path, channel_layout=("L", "R", "C", "Ls", "Rs")) as s:
         assert s.info.layout_source == "override"
+        # ITU-R BS.1770-5 channel weightings: L, R, C 1.0, surrounds 1.41 (Annex 1; table number from memory)
         assert s.info.channel_weights == (1.0, 1.0, 1.0, 1.41, 1.41)
     with pytest.raises(AudioReadError, match="names 2 channels, the file has 5"):
         open_stream(path, channel_layout=("L", "R"))

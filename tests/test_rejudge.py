@@ -52,6 +52,7 @@ def test_judge_command_rejudges_without_reading_audio(checked, monkeypatch, caps
     assert main(["judge", str(saved), "--spec", str(tmp_path / "b.yaml"), "--out", str(out)]) == 1
     result = json.loads((out / "sine.json").read_text())
     f = _integrated(result)
+    # analytic (module docstring): the -20 dBFS sine reads -20.0 LUFS, 2.0 LU above -23 + 1 = -22
     assert result["verdict"] == "fail" and f["measured"] == -20.0 and f["miss"] == 2.0
     assert result["provenance"]["how"] == "rejudged" and result["spec"]["name"] == "house B (invented)"
     first = json.loads(saved.read_text())

@@ -299,6 +299,7 @@ def test_clock_and_timecode_text():
 def test_display_merge_bounds_the_shapes_drawn():
     ranges = [(i * 0.001, i * 0.001 + 0.0001) for i in range(100_000)]  # 100 000 events in 100 s
     merged = plots.merge_for_display(ranges, 100.0 / 600)
+    # by construction: the last range ends at 99999 * 0.001 + 0.0001 = 99.9991 s
     assert len(merged) == 1 and merged[0][0] == 0.0 and merged[0][1] == pytest.approx(99.9991)
     assert plots.merge_for_display([(5, 6), (1, 2), (2.05, 3)], 0.1) == [(1.0, 3.0), (5.0, 6.0)]
 

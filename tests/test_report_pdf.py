@@ -12,6 +12,8 @@ from masterqc.report.render import render_html, render_pdf
 from report_fixtures import measured_and_judged
 
 # ISO 216 A4 is 210 x 297 mm, US Letter 8.5 x 11 in; PDF user space is 1/72 in.
+# ISO 216 A4 is 210 x 297 mm; US Letter is 8.5 x 11 in (common practice, no source); a PDF point is
+# 1/72 in (ISO 32000-1); 0.5 pt tolerance: house choice (renderers round the page box)
 A4_PT = (210 / 25.4 * 72, 297 / 25.4 * 72)
 LETTER_PT = (8.5 * 72, 11 * 72)
 
@@ -35,7 +37,7 @@ def _pages_text(reader) -> list[str]:
 def test_a4_pages_with_running_heads_and_numbers(a4, judged):
     reader, _log = a4
     n = len(reader.pages)
-    assert 3 <= n <= 6
+    assert 3 <= n <= 6  # house choice: the report's length for this master (certificate, findings, plots, method)
     for page in reader.pages:
         w, h = float(page.mediabox.width), float(page.mediabox.height)
         assert w == pytest.approx(A4_PT[0], abs=0.5) and h == pytest.approx(A4_PT[1], abs=0.5)
@@ -80,5 +82,6 @@ def test_letter_paper(judged):
     assert "size: letter" in html
     reader = PdfReader(io.BytesIO(render_pdf(judged[2], paper="letter", html=html)))
     page = reader.pages[0]
+    # Letter 8.5 x 11 in at 72 pt/in (LETTER_PT above; 0.5 pt: house choice)
     assert float(page.mediabox.width) == pytest.approx(LETTER_PT[0], abs=0.5)
     assert float(page.mediabox.height) == pytest.approx(LETTER_PT[1], abs=0.5)

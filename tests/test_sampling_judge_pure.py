@@ -8,6 +8,9 @@ shown value to the limit, and the message names the value, the limit, where in f
 the spec limits in the test by that rule; the wording checked is the judge's own (house
 choice).  The measurements are invented numbers; the end-to-end tests on real files are in
 tests/test_sampling_judge.py.
+
+Provenance: house choice, the judge's rule above (DEVELOPERS.md, "judging precision"); the
+expected values follow from the dicts and limits written in each test by decimal arithmetic.
 """
 
 from __future__ import annotations

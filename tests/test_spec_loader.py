@@ -134,7 +134,7 @@ def test_every_problem_is_reported_at_once(tmp_path):
 
 def test_yaml_syntax_error_has_line_and_column(tmp_path):
     (problem,) = problems_of(tmp_path, "spec_version: 1\nname: x\npeaks: {true_peak: [1, 2}\n")
-    assert problem[2] == 3 and problem[3] is not None and "not valid YAML" in problem[4]
+    assert problem[2] == 3 and problem[3] is not None and "not valid YAML" in problem[4]  # by construction: line 3
 
 
 @pytest.mark.parametrize("text,words", [("", "empty"), ("- a\n- b\n", "mapping"), ("just text\n", "mapping")])
@@ -199,6 +199,7 @@ def test_problem_in_a_base_names_the_base_file(tmp_path):
     write(tmp_path, "base.yaml", GOOD + "duration:\n  total: {min_s: 9, max_s: 3}\n")
     child = write(tmp_path, "child.yaml", "extends: base.yaml\nname: c\n")
     (problem,) = problems_of(tmp_path, child.read_text(), name="child.yaml")
+    # by construction: line 8 of base.yaml (GOOD's lines, then the duration block)
     assert problem[0].endswith("base.yaml") and problem[1] == "duration.total" and problem[2] == 8
 
 

@@ -124,16 +124,18 @@ def test_flow_depth_ignores_quoted_and_commented_brackets():
     assert L._prescan("a: 1 # " + "[" * 80 + "\n", "s") == []
     assert L._prescan("# " + "[" * 80 + "\n", "s") == []
     assert L._prescan("a:\t# " + "[" * 80 + "\n", "s") == []  # after a tab too
-    # a "#" inside a word starts no comment: 64 brackets after it are counted (column of the 64th: 5 + 64)
+    # a "#" inside a word starts no comment: 64 brackets after it are counted (column of the 64th: 5 + 64;
+    # columns 1-based, house choice; 64 levels: MAX_DEPTH, house choice)
     assert L._prescan("a: x#" + "[" * 64 + "\n", "s") == [("s", "", 1, 69, "nesting is too deep (more than 64 levels)")]
-    # a quote inside a word does not open a quoted span
+    # a quote inside a word does not open a quoted span (by construction: 8 characters, then the 64th bracket)
     assert L._prescan("a: it's " + "[" * 64 + "\n", "s")[0][3] == 72
 
 
 def test_block_depth_counts_indentation_and_list_markers():
     deep = "".join(" " * i + f"k{i}:\n" for i in range(63)) + " " * 63 + "v: 1\n"  # 64 levels
     assert L._prescan(deep, "s") == []
-    deeper = "".join(" " * i + f"k{i}:\n" for i in range(64)) + " " * 64 + "v: 1\n"  # 65 levels
+    # 65 levels (by construction), over MAX_DEPTH 64 (house choice); reported on line 65 of the text
+    deeper = "".join(" " * i + f"k{i}:\n" for i in range(64)) + " " * 64 + "v: 1\n"
     assert L._prescan(deeper, "s") == [("s", "", 65, 1, "nesting is too deep (more than 64 levels)")]
     # blank and comment lines do not change the indentation
     assert L._prescan(deep.replace("k10:\n", "k10:\n\n" + " " * 70 + "# note\n"), "s") == []
@@ -152,6 +154,7 @@ def test_parse_yaml_keeps_positions_of_keys_and_values():
     data, pos, probs = L.parse_yaml("spec_version: 1\nloudness:\n  integrated: {max_lufs: -14}\n", "s.yaml")
     assert probs == [] and data == {"spec_version": 1, "loudness": {"integrated": {"max_lufs": -14}}}
     assert pos.key[("loudness", "integrated")] == ("s.yaml", 3, 3)
+    # by construction: 1-based line and column (house choice) of the "{" and of "-14" in line 3
     assert pos.value[("loudness", "integrated")] == ("s.yaml", 3, 15)
     assert pos.value[("loudness", "integrated", "max_lufs")] == ("s.yaml", 3, 26)
     assert pos.value[()] == ("s.yaml", 1, 1)
@@ -203,7 +206,8 @@ def test_a_number_of_100_characters_is_read():
 
 
 def test_a_value_python_cannot_build_is_named():
-    # YAML 1.1 reads 1_0 as the int 10; a huge float overflows to inf in PyYAML, an int in base 60 is read
+    # YAML 1.1 reads 1_0 as the int 10 and 1:30 as 1*60 + 30 = 90 (yaml.org/type/int: "_" ignored, ":" for
+    # base 60); a huge float overflows to inf in PyYAML, an int in base 60 is read
     data, _pos, probs = L.parse_yaml("a: 1_0\nb: 1:30\n", "s")
     assert probs == [] and data == {"a": 10, "b": 90}
 
@@ -365,6 +369,7 @@ def test_spec_version_checked_before_anything_else(tmp_path, value, msg):
     top = write(tmp_path, "top.yaml", f"name: x\nspec_version: {value}\nextends: missing.yaml\n")
     with pytest.raises(SpecError) as e:
         L.load_spec(top)
+    # by construction: line 2, column 15 (1-based, house choice) is where the value starts in the text above
     assert problems(e) == [(str(top), "spec_version", 2, 15, msg)]
 
 
@@ -480,6 +485,7 @@ def test_plausibility_warnings_name_the_forgotten_minus_sign(tmp_path):
     p = write(tmp_path, "w.yaml", GOOD + "loudness:\n  integrated: {target_lufs: 14, tolerance_lu: 1}\n"
                                          "peaks: {true_peak: {max_dbtp: 1}}\n")
     ls = L.load_spec(p)
+    # by construction: positions (1-based, house choice) of the values in the text written above
     assert ls.warnings == [
         (str(p), "loudness.integrated.target_lufs", 4, 29,
          "target_lufs: 14 LUFS is above 0; programme loudness is negative in LUFS (a missing minus sign? -14)"),
@@ -508,6 +514,7 @@ def test_line_col_of_a_text_that_opens_with_a_newline():
 
 
 def test_describe_names_each_kind_of_value():
+    # by construction: each value is shown back as written (wording: house choice)
     assert [L._describe(v) for v in (None, False, "ab", 3, 2.5, [1], {"a": 1}, ("a",))] == [
         "null", "false (a yes/no value)", "the text 'ab'", "the number 3", "the number 2.5", "a list", "a mapping",
         "('a',)"]
@@ -572,6 +579,7 @@ def test_a_cycle_names_the_chain_of_files(tmp_path):
 
 def test_problems_on_one_line_are_in_column_order():
     # pydantic reports true_peak before sample_peak (the model's order); the problems follow the text
+    # (by construction: columns 33 and 59 of the flow mapping on line 3, 1-based, house choice)
     got = msgs("peaks: {sample_peak: {max_dbfs: x}, true_peak: {max_dbtp: y}}\n")
     assert [(p[1], p[2], p[3]) for p in got] == [("peaks.sample_peak.max_dbfs", 3, 33),
                                                  ("peaks.true_peak.max_dbtp", 3, 59)]

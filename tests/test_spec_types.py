@@ -27,6 +27,7 @@ def test_units_table():
         ["LUFS", "LU", "dBTP", "dBFS", "dB", "s", "Hz", "%", ""]
     assert [difference_unit(u) for u in ("lufs", "lu", "dbtp", "dbfs", "db", "s", "hz")] == \
         ["lu", "lu", "db", "db", "db", "s", "hz"]
+    # house choice: the project's unit table (masterqc/contract.py UNITS; DEVELOPERS.md, "The result contract")
     assert [unit_decimals(u) for u in ("lufs", "dbtp", "s", "ms", "hz", "percent", "count", "bits", "corr")] == \
         [1, 1, 3, 1, 0, 1, 0, 0, 2]
     # a unit outside the table is shown as written, at 3 decimals
@@ -39,6 +40,7 @@ def test_ceiling_floor_bounds_limits_and_margin():
     assert c.limits() == (None, -1.0) and c.warn_margin == 0.3 and c.severity == "fail" and c.unit == "dbtp"
     f = floor("lufs").model_validate({"min_lufs": -30.0, "severity": "warn"})
     assert f.limits() == (-30.0, None) and f.warn_margin is None and f.severity == "warn"
+    # by construction: limits() hands back the values validated here (the spec format's rule, house choice)
     b = bounds("s").model_validate({"min_s": 10.0})
     assert b.limits() == (10.0, None)
     assert bounds("s").model_validate({"max_s": 60.0}).limits() == (None, 60.0)
@@ -52,6 +54,8 @@ def test_bounds_messages():
 
 
 def test_target_limits_are_decimal_and_target_value():
+    # house choice (the spec format): target +- tolerance in exact decimals, -23.0 -+ 0.7 = -23.7 .. -22.3;
+    # a min/max pair has its middle as the target, (-24 + -20) / 2 = -22
     t = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 0.7})
     assert t.limits() == (-23.7, -22.3) and t.target_value == -23.0
     m = target("lufs").model_validate({"min_lufs": -24.0, "max_lufs": -20.0})

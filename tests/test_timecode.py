@@ -116,7 +116,8 @@ def test_fps_from_ixml(rate, flag, name):
 # ---------------------------------------------------------------- edges and exact messages
 
 def test_frames_per_day():
-    # 24 h of labels: 86400 s x nominal fps; drop frame: 144 ten-minute cycles of 17982 frames
+    # analytic: 24 h of labels is 86400 s x nominal fps; drop frame: 24 x 6 = 144 ten-minute cycles of
+    # 10 x 60 x 30 - 9 x 2 = 17982 frames (the drop rule of the module docstring)
     assert [tc.frame_rate(f).frames_per_day for f in ("23.976", "25", "30", "29.97ndf", "29.97df")] == \
         [24 * 86400, 25 * 86400, 30 * 86400, 30 * 86400, 144 * 17982]
     assert tc.frames_to_timecode(144 * 17982, "29.97df") == "00:00:00;00"  # wraps at 24 h
@@ -176,11 +177,12 @@ def test_dropped_label_message_and_accepted_spellings():
     # separators ':' '.' before the seconds, ':' ';' '.' ',' before the frames; spaces around
     assert tc.timecode_to_frames(" 1.02.03.04 ", "25") == ((1 * 60 + 2) * 60 + 3) * 25 + 4
     assert tc.timecode_to_frames("01:02:03,04", "25") == ((1 * 60 + 2) * 60 + 3) * 25 + 4
-    assert tc.timecode_to_frames("23:59:59:24", "25") == 25 * 86400 - 1
+    assert tc.timecode_to_frames("23:59:59:24", "25") == 25 * 86400 - 1  # analytic: the last label of 24 h
 
 
 def test_frames_to_samples_is_a_ceiling():
-    # 29.97 fps at 48 kHz: a frame is 1601.6 samples, frame 1 starts at ceil(1601.6) = 1602
+    # analytic: 29.97 fps at 48 kHz: a frame is 48000 x 1001 / 30000 = 1601.6 samples, frame 1 starts at
+    # ceil(1601.6) = 1602, frame 5 at 8008 exactly; at 25 fps a frame is 1920 samples, 3 x 1920 = 5760
     assert tc.frames_to_samples(1, 48000, "29.97ndf") == 1602
     assert tc.frames_to_samples(5, 48000, "29.97ndf") == 8008
     assert tc.frames_to_samples(3, 48000, "25") == 5760
@@ -212,7 +214,7 @@ def test_fps_from_ixml_edges(rate, flag, name):
 
 
 def test_any_positive_sample_rate_is_arithmetic():
-    # 1 Hz is odd but not wrong: 48 samples are 48 s, 1152 frames at 24 fps
+    # analytic: 1 Hz is odd but not wrong: 48 samples are 48 s, 1152 frames at 24 fps
     assert tc.samples_to_frames(48, 1, "24") == 48 * 24
     assert tc.frames_to_samples(48 * 24, 1, "24") == 48
     assert tc.timecode_for(2.0, {"format": {"sample_rate_hz": 1}}) == "00:00:02:00"
