@@ -263,23 +263,19 @@ def check_limits(check: str, what: str, value: float | None, req: Requirement, *
         f"{what} is {fmt(shown, dec)}{sp}{u}"
     t = _target(req)
     target_words = f" (target {limit_text(req, dec)})" if t is not None else ""
-    if hi is not None and s > _dec(hi):
-        miss = float(s - _dec(hi))
-        if noun and hi == 0:
+    # a missed ceiling, else a missed floor: the same sentence with its own words for the side
+    for edge, beyond, count_side, side in ((hi, None if hi is None else s - _dec(hi), "more", "above"),
+                                           (lo, None if lo is None else _dec(lo) - s, "fewer", "below")):
+        if beyond is None or beyond <= 0:
+            continue
+        miss = float(beyond)
+        if noun and side == "above" and edge == 0:
             text = f"{value_words} where the spec allows none"
         elif noun:
-            text = f"{value_words}, {fmt(miss, dec)} more than the limit of {fmt(hi, dec)}"
+            text = f"{value_words}, {fmt(miss, dec)} {count_side} than the limit of {fmt(edge, dec)}"
         else:
-            text = (f"{value_words}, {fmt(miss, dec)}{dsp}{du} above the limit of "
-                    f"{fmt(hi, dec)}{sp}{u}{target_words}")
-        return Finding(status=missed_status, miss=miss, where_s=where, message=sentence(text + note), **base)
-    if lo is not None and s < _dec(lo):
-        miss = float(_dec(lo) - s)
-        if noun:
-            text = f"{value_words}, {fmt(miss, dec)} fewer than the limit of {fmt(lo, dec)}"
-        else:
-            text = (f"{value_words}, {fmt(miss, dec)}{dsp}{du} below the limit of "
-                    f"{fmt(lo, dec)}{sp}{u}{target_words}")
+            text = (f"{value_words}, {fmt(miss, dec)}{dsp}{du} {side} the limit of "
+                    f"{fmt(edge, dec)}{sp}{u}{target_words}")
         return Finding(status=missed_status, miss=miss, where_s=where, message=sentence(text + note), **base)
     m = req.warn_margin
     if m:  # a margin of None or 0 never warns
