@@ -1,4 +1,5 @@
-"""Results never depend on the block size (design: filter state carries across blocks).
+"""Results never depend on the block size (house choice, DEVELOPERS.md "Rules the layers keep":
+filter state carries across blocks).
 
 Every numeric measurement that the engine's whole registry produces, whatever
 analyzers are registered now or later, is compared between block sizes from 1 to

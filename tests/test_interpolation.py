@@ -75,8 +75,9 @@ def test_hold_survives_24_bit_dither():
     y = _q24(_hold(_noise(22050, 22050, rng, 10000.0), 22050, 96000), rng)
     m = _run(y, 96000)
     assert m["interpolation_source_rate_hz"] == 22050
-    # analytic from the numbers above: 10*log10((2^23 * 0.1)^2 / (1/3)) is about 123 dB; 60 dB is a
-    # house-choice floor, far above the detector's 20 dB need
+    # analytic order of magnitude from the numbers above: content jumps of about 0.1 RMS (2^23 * 0.1 LSB)
+    # against held differences of 1/3 LSB^2 power, 10*log10((2^23 * 0.1)^2 * 3) = 123 dB; 60 dB is a
+    # house-choice floor well under that and far above the detector's 20 dB need
     assert m["interpolation_contrast_db"] > 60.0
 
 
