@@ -185,3 +185,31 @@ def test_worker_limits_blas_and_measurement_threads(monkeypatch):
         assert all(p["num_threads"] == 1 for p in blas)
     finally:
         work._BLAS_LIMIT.pop().restore_original_limits()
+
+
+def test_worker_makes_the_ledger_row_the_parent_would(folder, tmp_path):
+    """The measured result's ledger row is made in the worker: the same bytes as the parent's encoding,
+    and the ledger reads it back as the result (judged keys and all)."""
+    import zlib
+
+    from masterqc.batch.ledger import Ledger, measurements_blob
+    from masterqc.batch.specmap import spec_key
+    from masterqc.batch.work import check_task
+    from masterqc.measure.options import MeasureOptions
+    from masterqc.spec.loader import load_spec
+
+    _, root, spec = folder
+    key = spec_key(load_spec(str(spec)), MeasureOptions())
+    value = check_task({"path": str(root / "album" / "01.wav"), "spec_path": str(spec), "spec_key": key,
+                        "out_dir": str(tmp_path), "stem": "one", "formats": ["json"], "layout": None,
+                        "threads": 1, "durable": False})
+    blob = value["measurements_z"]
+    assert blob == measurements_blob(value["result"])
+    assert json.loads(zlib.decompress(blob))["file"]["sha256"] == value["result"]["file"]["sha256"]
+    with Ledger(tmp_path / "l.sqlite") as led:
+        led.put_measurements("abc", "k", blob=blob)
+        assert led.get_measurements("abc", "k") == value["result"]
+    broken = check_task({"path": str(root / "album" / "04.wav"), "spec_path": str(spec), "spec_key": key,
+                         "out_dir": str(tmp_path), "stem": "two", "formats": ["json"], "layout": None,
+                         "threads": 1, "durable": False})
+    assert broken["result"]["verdict"] == "error" and broken["measurements_z"] is not None  # why it cannot be read

@@ -275,7 +275,8 @@ class Scheduler:
             got_hash = (result.get("file") or {}).get("sha256")
             if not internal and got_hash == lead.sha256:  # measurements, or why the file cannot be read
                 with stage("parent_put_measurements"):
-                    self.ledger.put_measurements(lead.sha256, lead.measure_key, result)
+                    self.ledger.put_measurements(lead.sha256, lead.measure_key, result,
+                                                 blob=value.get("measurements_z") if exc is None else None)
             lead.how = "measured"
             self.finish(lead, self.place(lead, result, written), True)
             for other in group[1:]:

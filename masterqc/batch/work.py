@@ -170,7 +170,8 @@ def check_task(task: dict) -> dict:
     :func:`masterqc.pipeline.parse_result_text`) and ``keep`` (reports still fresh).  Returns ``{"result": <result dict>, "elapsed_s": float,
     "cpu_s": float, "worker_pid": int}``.  A failure outside reading the master (an internal bug)
     still returns a result: an error result whose ``error.internal`` is true, so the
-    batch records it and goes on.
+    batch records it and goes on.  ``measurements_z``: a measured result as the ledger stores
+    it (:func:`masterqc.batch.ledger.measurements_blob`), None for a re-judgement or an internal error.
     """
     from masterqc.measure.options import MeasureOptions
     from masterqc.pipeline import check_file, error_result
@@ -189,8 +190,12 @@ def check_task(task: dict) -> dict:
         result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
         result["error"]["internal"] = True
         result["outputs"] = {}
+    blob = None
+    if task.get("stored") is None and not (result.get("error") or {}).get("internal"):
+        from masterqc.batch.ledger import measurements_blob
+        blob = measurements_blob(result)  # the ledger's row, made here rather than in the parent
     from masterqc import stagelog
     stagelog.note("task", time.perf_counter() - t0, time.process_time() - c0)
     return {"result": result, "elapsed_s": time.perf_counter() - t0, "cpu_s": time.process_time() - c0,
-            "worker_pid": os.getpid(),
+            "worker_pid": os.getpid(), "measurements_z": blob,
             "tool_version": __version__}
