@@ -116,8 +116,9 @@ def run_process(args: list[str], stage_log: Path, repo: Path = REPO) -> tuple[fl
     env = dict(os.environ, MASTERQC_STAGE_LOG=str(stage_log), PYTHONPATH=str(repo))
     before = os.times()
     t0 = time.perf_counter()
+    # (cwd: ``-m`` puts the working folder first on sys.path, before PYTHONPATH)
     proc = subprocess.run([sys.executable, "-m", "masterqc", *args], env=env, stdout=subprocess.DEVNULL,
-                          stderr=subprocess.PIPE, text=True)
+                          stderr=subprocess.PIPE, text=True, cwd=str(repo))
     wall = time.perf_counter() - t0
     after = os.times()
     cpu = (after.children_user - before.children_user) + (after.children_system - before.children_system)
