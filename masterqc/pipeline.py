@@ -36,6 +36,7 @@ from masterqc.contract import RESULT_FORMAT_VERSION, upgrade_result
 from masterqc.errors import AudioReadError, UsageError
 from masterqc.fileio import write_atomic  # noqa: F401  (part of this module's interface)
 from masterqc.jsonutil import jsonable
+from masterqc.stagelog import stage
 
 # the output formats live in one module (parsing, defaults, whether reports can be rendered)
 from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
@@ -148,12 +149,13 @@ def judge_result(result: dict, loaded_spec) -> dict:
     from masterqc.judge.normalisation import figures_for
 
     spec = loaded_spec.spec
-    out = dict(result)  # measured results are plain JSON already (measure_file, or read from a file)
-    out["spec"] = jsonable(loaded_spec.info())
-    out["normalisation"] = jsonable(figures_for(spec.normalisation, out))
-    findings, verdict = judge(spec, out)
-    out["findings"] = jsonable([f.to_dict() for f in findings])
-    out["verdict"] = verdict
+    with stage("judge"):
+        out = dict(result)  # measured results are plain JSON already (measure_file, or read from a file)
+        out["spec"] = jsonable(loaded_spec.info())
+        out["normalisation"] = jsonable(figures_for(spec.normalisation, out))
+        findings, verdict = judge(spec, out)
+        out["findings"] = jsonable([f.to_dict() for f in findings])
+        out["verdict"] = verdict
     return out
 
 
@@ -255,11 +257,12 @@ def write_outputs(result: dict, out_dir, stem: str, formats, *, keep=(), durable
     # every located event as CSV beside the reports (a header alone when there is none or the
     # file could not be read, so an old list never outlives a new check)
     from masterqc.exports import events_csv
-    write_atomic(os.path.join(out_dir, f"{stem}.events.csv"), events_csv(result), durable=durable)
-    outputs["events"] = f"{stem}.events.csv"
-    result["outputs"] = outputs
-    if "json" in formats:
-        write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable, encoded=encoded)
+    with stage("write_json_csv"):
+        write_atomic(os.path.join(out_dir, f"{stem}.events.csv"), events_csv(result), durable=durable)
+        outputs["events"] = f"{stem}.events.csv"
+        result["outputs"] = outputs
+        if "json" in formats:
+            write_json(result, os.path.join(out_dir, f"{stem}.json"), durable=durable, encoded=encoded)
     return result
 
 
@@ -283,7 +286,8 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
             return out
     from masterqc.measure.engine import measure_file
     try:
-        measured = measure_file(path, options, progress=progress)
+        with stage("measure"):
+            measured = measure_file(path, options, progress=progress)
     except AudioReadError as exc:
         from masterqc.measure.engine import file_facts
         try:

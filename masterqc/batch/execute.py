@@ -10,7 +10,12 @@ top-level function of :mod:`masterqc.batch.work` (picklable by name).
   ``spawn`` start method (safe with threads, identical on every platform);
   the workers ignore Ctrl-C, and :meth:`close` with ``cancel=True`` drops queued
   tasks and stops running ones; a worker ends itself when this process dies, even
-  by ``kill -9`` (:func:`masterqc.batch.work.worker_init`).
+  by ``kill -9`` (:func:`masterqc.batch.work.worker_init`).  Each worker pays its
+  start-up once, while the parent hashes: it imports the measuring and report code and
+  loads the report templates before its first task.  Threads: each worker's
+  measurements, and its BLAS/OpenMP pools, get :func:`threads_per_worker` threads
+  (``MASTERQC_THREADS`` is set to it in the worker), so ``jobs x threads`` never
+  exceeds the cores.
 * ``scheduler`` connects a :class:`distributed.Client` to an existing cluster
   (``pip install masterqc[cluster]``); masters and the output folder must be at the
   same paths on every worker.
@@ -30,6 +35,17 @@ def default_jobs() -> int:
         return max(1, os.cpu_count() or 1)
 
 
+def threads_per_worker(jobs: int) -> int:
+    """Threads each of ``jobs`` worker processes may use: the cores divided by the jobs, at least 1
+    (``MASTERQC_THREADS``, when set in this process, caps it)."""
+    n = max(1, default_jobs() // max(1, jobs))
+    from masterqc.measure.options import THREADS_ENV
+    raw = os.environ.get(THREADS_ENV, "").strip()
+    if raw.isdigit() and int(raw) >= 1:
+        n = min(n, int(raw))
+    return n
+
+
 def _hash_in_threads(fn, items, threads: int = 4):
     """``map_unordered`` over threads of this process (hashing is I/O and releases the GIL)."""
     from concurrent.futures import ThreadPoolExecutor, as_completed
@@ -43,6 +59,8 @@ def _hash_in_threads(fn, items, threads: int = 4):
 class InlineBackend:
     workers = 1
     description = "in this process"
+    #: threads per measurement: None, the default (MeasureOptions.threads: MASTERQC_THREADS or up to 2)
+    threads = None
 
     def start(self) -> None:
         pass
@@ -64,8 +82,10 @@ class InlineBackend:
 
 
 class PoolBackend:
-    def __init__(self, jobs: int):
+    def __init__(self, jobs: int, formats=("json",)):
         self.workers = jobs
+        self.formats = tuple(formats)
+        self.threads = threads_per_worker(jobs)
         self.description = f"{jobs} worker processes"
         self._pool = None
 
@@ -87,7 +107,7 @@ class PoolBackend:
             from masterqc.batch.work import worker_init
             # each worker ends itself when this process dies, even by kill -9 (see worker_init)
             self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=multiprocessing.get_context("spawn"),
-                                             initializer=worker_init, initargs=(os.getpid(),))
+                                             initializer=worker_init, initargs=(os.getpid(), self.threads, self.formats))
         return self._pool
 
     def map_unordered(self, fn, items):
@@ -133,6 +153,7 @@ class DaskBackend:
         info = self.client.scheduler_info()
         self.workers = max(1, sum(int(w.get("nthreads", 1)) for w in info.get("workers", {}).values()))
         self.description = f"dask cluster at {address} ({len(info.get('workers', {}))} workers, {self.workers} threads)"
+        self.threads = 1  #: one thread per measurement: the cluster's threads are its parallelism
         self._futures = []
 
     def start(self) -> None:
@@ -172,9 +193,10 @@ class DaskBackend:
         self.client.close()
 
 
-def make_backend(jobs: int | None, scheduler: str | None):
-    """The backend for ``--jobs`` / ``--scheduler`` (``jobs`` None: the number of cores)."""
+def make_backend(jobs: int | None, scheduler: str | None, formats=("json",)):
+    """The backend for ``--jobs`` / ``--scheduler`` (``jobs`` None: the number of cores; ``formats``:
+    the outputs the tasks will write, so pool workers load only the renderers they need)."""
     if scheduler:
         return DaskBackend(scheduler)
     n = default_jobs() if jobs is None else jobs
-    return InlineBackend() if n <= 1 else PoolBackend(n)
+    return InlineBackend() if n <= 1 else PoolBackend(n, formats)

@@ -150,6 +150,18 @@ def _alive(pid: int, start: str | None) -> bool:
     return True
 
 
+def measurements_blob(result: dict) -> bytes:
+    """A measured result as the ledger stores it: its JSON text (:func:`masterqc.pipeline.result_json_text`),
+    zlib-compressed.  Pure, so a batch worker makes it and the parent only writes it."""
+    from masterqc.jsonutil import jsonable
+    from masterqc.pipeline import result_json_text
+    try:
+        data = result_json_text(result).encode("utf-8")
+    except (TypeError, ValueError, UnicodeEncodeError):  # (a name's bytes that are not UTF-8: as \xNN)
+        data = result_json_text(jsonable(result)).encode("utf-8")
+    return zlib.compress(data, 6)
+
+
 class LedgerError(Exception):
     """The ledger file cannot be opened or is not a masterqc ledger (message names the file)."""
 
@@ -243,15 +255,12 @@ class Ledger:
             return None
         return (result, encoded) if with_encoded else result
 
-    def put_measurements(self, content_sha256: str, measure_key: str, result: dict) -> None:
-        """Store a measured result (in the layout of :func:`masterqc.pipeline.result_json_text`)."""
-        from masterqc.jsonutil import jsonable
-        from masterqc.pipeline import result_json_text
-        try:
-            data = result_json_text(result).encode("utf-8")
-        except (TypeError, ValueError, UnicodeEncodeError):  # (a name's bytes that are not UTF-8: as \xNN)
-            data = result_json_text(jsonable(result)).encode("utf-8")
-        blob = zlib.compress(data, 6)
+    def put_measurements(self, content_sha256: str, measure_key: str, result: dict | None = None, *,
+                         blob: bytes | None = None) -> None:
+        """Store a measured result (in the layout of :func:`masterqc.pipeline.result_json_text`);
+        ``blob``: the result as :func:`measurements_blob` made it already (e.g. in a batch worker)."""
+        if blob is None:
+            blob = measurements_blob(result)
         with self._tx():
             self.db.execute("INSERT OR REPLACE INTO measurements VALUES (?,?,?,?)",
                             (content_sha256, measure_key, blob, utc_now()))

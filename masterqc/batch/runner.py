@@ -32,7 +32,7 @@ import sys
 import time
 from dataclasses import dataclass, field
 
-from masterqc import __version__
+from masterqc import __version__, stagelog
 from masterqc.batch.discover import discover
 from masterqc.batch.execute import make_backend
 from masterqc.batch.hashing import hash_items
@@ -88,7 +88,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
     """Run a batch (see the module docstring); raises SpecError/UsageError before touching any file."""
     from masterqc.measure.options import MeasureOptions
 
+    stagelog.note_startup()
     t0 = time.perf_counter()
+    c0 = time.process_time()
     base = MeasureOptions(channel_layout=cfg.layout)
     specmap = load_spec_map(cfg.spec_path, base, cfg.spec_libraries)
     mode = parse_release_mode(cfg.releases or specmap.releases or DEFAULT_RELEASE_MODE)
@@ -105,7 +107,7 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             old_term = signal.signal(signal.SIGTERM, _on_sigterm)
         except ValueError:  # not the main thread (e.g. called from a test thread)
             old_term = None
-        backend = make_backend(cfg.jobs, cfg.scheduler)
+        backend = make_backend(cfg.jobs, cfg.scheduler, tuple(cfg.formats))
         disc = discover(cfg.roots, exclude=[out_dir])
         if not disc.files:  # a gate that checked nothing must not pass
             from masterqc.errors import UsageError
@@ -114,7 +116,9 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
             raise UsageError(f"nothing to check: no audio master found in {where}{why}")
         run_id = ledger.start_run(cfg.roots, out_dir, os.path.abspath(cfg.spec_path), __version__)
         items = plan_items(disc.files, cfg.roots, specmap, mode, out_dir)
-        hash_items(items, ledger, backend, hash_task)
+        stagelog.note("plan", time.perf_counter() - t0, time.process_time() - c0)
+        with stagelog.stage("hash"):
+            hash_items(items, ledger, backend, hash_task)
 
         progress = BatchProgress(len(items), sum(it.size_bytes for it in items), stream=cfg.progress_stream,
                                  quiet=cfg.quiet, live=cfg.live_progress)
@@ -123,19 +127,23 @@ def run_batch(cfg: BatchConfig) -> BatchOutcome:
         # previous outputs of this output folder: re-render only what is missing or stale
         prev_run = ledger.previous_run(run_id, out_dir)
         prev_rows = {r["path"]: r for r in ledger.run_files(prev_run["run_id"])} if prev_run else {}
-        Scheduler(out_dir=out_dir, formats=tuple(cfg.formats), ledger=ledger, run_id=run_id, progress=progress,
-                  base_options=base, specmap=specmap, prev_rows=prev_rows, reuse=cfg.reuse,
-                  layout=cfg.layout).run(items, backend, check_task)
+        with stagelog.stage("schedule"):
+            Scheduler(out_dir=out_dir, formats=tuple(cfg.formats), ledger=ledger, run_id=run_id, progress=progress,
+                      base_options=base, specmap=specmap, prev_rows=prev_rows, reuse=cfg.reuse,
+                      layout=cfg.layout).run(items, backend, check_task)
         progress.close()
 
-        summary = summarise(cfg, items, disc, specmap, ledger.run(run_id)["started_utc"], run_id, out_dir,
-                            ledger_path, backend.description, prev_run, prev_rows, t0)
-        from masterqc.batch.pairing import add_pairs  # deliverables against their masters (spec map pairs:)
-        add_pairs(summary, items, specmap, cfg.formats, None if cfg.quiet else (cfg.progress_stream or sys.stderr))
+        with stagelog.stage("summarise"):
+            summary = summarise(cfg, items, disc, specmap, ledger.run(run_id)["started_utc"], run_id, out_dir,
+                                ledger_path, backend.description, prev_run, prev_rows, t0)
+            from masterqc.batch.pairing import add_pairs  # deliverables against their masters (spec map pairs:)
+            add_pairs(summary, items, specmap, cfg.formats, None if cfg.quiet else (cfg.progress_stream or sys.stderr))
         from masterqc.batch.outputs import write_run_outputs
-        outputs = write_run_outputs(summary, out_dir)
-        row = ledger.finish_run(run_id, "complete", time.perf_counter() - t0)
+        with stagelog.stage("run_outputs"):
+            outputs = write_run_outputs(summary, out_dir)
+            row = ledger.finish_run(run_id, "complete", time.perf_counter() - t0)
         summary["run"]["finished_utc"] = row["finished_utc"]
+        stagelog.note("run_total", time.perf_counter() - t0, time.process_time() - c0)
         return BatchOutcome(summary["exit_code"], summary, run_id, ledger_path, outputs)
     except KeyboardInterrupt:
         if backend is not None:

@@ -5,8 +5,11 @@ Every master goes through the one per-file step, :func:`masterqc.pipeline.check_
 * a master the ledger holds measurements of (same content hash, same measurement key)
   is judged again from them in this process -- no audio is read -- and its outputs
   are written (HTML/PDF kept when still fresh);
+  -- with worker processes, a re-judgement whose HTML/PDF must be rendered again is sent
+  to the workers with its stored measurements, so the parent renders nothing;
 * the others are grouped by (content hash, spec key) and each group's first file is
-  checked through the backend (:func:`masterqc.batch.work.check_task`, which calls
+  checked through the backend (longest file first, so no core idles at the end while one
+  long file is still being checked) (:func:`masterqc.batch.work.check_task`, which calls
   ``check_file`` in a worker); its measurements are stored in the ledger and the other
   files of the group take its result (``how: "identical"``);
 * a master that cannot be hashed, that no spec-map rule matches, whose folder spec is
@@ -26,6 +29,7 @@ from dataclasses import dataclass, field
 from masterqc.fileio import text_safe
 from masterqc.pipeline import check_file, error_result, measure_and_judge, options_for, write_outputs
 from masterqc.problems import ranked_problems
+from masterqc.stagelog import stage
 
 
 class NoSpec:
@@ -84,6 +88,8 @@ class Scheduler:
     layout: tuple | None = None
     _safe: dict = field(default_factory=dict)
     _options: dict = field(default_factory=dict)
+    #: re-judgements left to the backend's workers: ``[(item, stored, encoded, keep)]`` (see :meth:`triage`)
+    _rejudge: list = field(default_factory=list)
 
     # ---------------------------------------------------------------- pieces
 
@@ -123,6 +129,10 @@ class Scheduler:
 
     def finish(self, it, result: dict, analysed: bool, reused: bool = False) -> None:
         """Keep ``it``'s (slimmed) result, record it in the ledger and on the progress display."""
+        with stage("parent_finish_file"):
+            self._finish(it, result, analysed, reused)
+
+    def _finish(self, it, result: dict, analysed: bool, reused: bool) -> None:
         it.result = slim(result)  # a catalogue's results are not all kept whole in memory
         it.analysed = analysed
         it.reused = reused and not analysed
@@ -158,20 +168,35 @@ class Scheduler:
         return write_outputs(result, it.out_folder, it.stem, self.formats, keep=self.fresh_reports(it),
                              durable=False)
 
-    def task(self, lead, threads) -> dict:
-        """The picklable task of :func:`masterqc.batch.work.check_task` for a group's first file."""
-        return {"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
+    def task(self, lead, threads, stored=None, encoded=None, keep=()) -> dict:
+        """The picklable task of :func:`masterqc.batch.work.check_task` for a group's first file
+        (``stored``: measurements to judge again instead of measuring, ``keep``: fresh reports)."""
+        task = {"path": lead.found.path, "spec_path": lead.rule.spec_path, "spec_key": lead.rule.key,
                 "out_dir": lead.out_folder, "stem": lead.stem, "formats": list(self.formats),
                 "layout": list(self.layout) if self.layout else None,
                 "spec_libraries": list(self.specmap.libraries),
                 "spec_from_delivery_folder": bool(lead.rule.loaded.from_delivery_folder),
                 "threads": threads, "durable": False}
+        if stored is not None:
+            task.update(stored=stored, encoded=encoded, keep=list(keep))
+        return task
 
     # ---------------------------------------------------------------- the run
 
-    def triage(self, items) -> dict:
+    def rejudge_here(self, it, stored, encoded, opts) -> None:
+        """Judge ``it`` again from ``stored`` measurements in this process and write its outputs."""
+        if self.safe_folder(it.out_folder):  # the per-file step, from stored measurements
+            result = check_file(it.found.path, it.rule.loaded, it.out_folder, self.formats, stem=it.stem,
+                                stored=stored, options=opts, keep=self.fresh_reports(it), durable=False,
+                                encoded=encoded)
+        else:  # judged, written nowhere (place() adds why)
+            result = measure_and_judge(it.found.path, it.rule.loaded, stored=stored, options=opts)
+        self.finish(it, self.place(it, result, True), False, reused=True)
+
+    def triage(self, items, workers: int = 1) -> dict:
         """Error rows and re-judgements, done at once; returns the groups left to measure:
-        ``{(content hash, spec key): [items]}`` in order."""
+        ``{(content hash, spec key): [items]}`` in order.  With ``workers`` > 1, a re-judgement
+        whose HTML/PDF must be rendered again is left to the workers (:attr:`_rejudge`)."""
         groups: dict[tuple, list] = {}
         for it in items:
             if it.hash_error is not None:
@@ -191,13 +216,12 @@ class Scheduler:
             if stored is not None:  # measure once, judge many: no audio is read
                 # (stored is the measurements, or the stored outcome of an earlier read: it cannot be read)
                 it.how = "rejudged"
-                if self.safe_folder(it.out_folder):  # the per-file step, from stored measurements
-                    result = check_file(it.found.path, it.rule.loaded, it.out_folder, self.formats, stem=it.stem,
-                                        stored=stored, options=opts, keep=self.fresh_reports(it), durable=False,
-                                        encoded=encoded)
-                else:  # judged, written nowhere (place() adds why)
-                    result = measure_and_judge(it.found.path, it.rule.loaded, stored=stored, options=opts)
-                self.finish(it, self.place(it, result, True), False, reused=True)
+                if workers > 1 and self.safe_folder(it.out_folder):
+                    keep = self.fresh_reports(it)
+                    if any(f in ("html", "pdf") and f not in keep for f in self.formats):  # rendering: a worker's job
+                        self._rejudge.append((it, stored, encoded, keep))
+                        continue
+                self.rejudge_here(it, stored, encoded, opts)
                 continue
             groups.setdefault((it.sha256, it.rule.key), []).append(it)
         return groups
@@ -206,8 +230,9 @@ class Scheduler:
         """Check each group's first file through ``backend`` (``check_task``), store its measurements,
         and give the group's other files its result."""
         keys, tasks = [], []
-        threads = 1 if backend.workers > 1 else None  # several files at once: one thread each
-        for k in list(groups):
+        # several files at once: each gets the cores divided by the jobs (execute.threads_per_worker)
+        threads = getattr(backend, "threads", 1 if backend.workers > 1 else None)
+        for k in sorted(groups, key=lambda k: -groups[k][0].size_bytes):  # longest first (stable)
             safe = []
             for it in groups[k]:
                 if self.safe_folder(it.out_folder):
@@ -221,7 +246,19 @@ class Scheduler:
             groups[k] = safe
             keys.append(k)
             tasks.append(self.task(safe[0], threads))
+        rejudge = sorted(self._rejudge, key=lambda r: -r[0].size_bytes)  # after the measuring: short tasks last
+        self._rejudge = []
+        n_measure = len(keys)
+        for it, stored, encoded, keep in rejudge:
+            tasks.append(self.task(it, threads, stored, encoded, keep))
         for i, value, exc in backend.map_unordered(check_task, tasks):
+            if i >= n_measure:  # a re-judgement done by a worker
+                it, stored, encoded, _ = rejudge[i - n_measure]
+                if exc is None:  # (a failure inside check_file is an error result already)
+                    self.finish(it, self.place(it, value["result"], True), False, reused=True)
+                else:  # the worker stopped: judge it here
+                    self.rejudge_here(it, stored, encoded, self.options(it.rule)[0])
+                continue
             group = groups[keys[i]]
             lead = group[0]
             if exc is not None:
@@ -237,7 +274,9 @@ class Scheduler:
             internal = bool((result.get("error") or {}).get("internal"))
             got_hash = (result.get("file") or {}).get("sha256")
             if not internal and got_hash == lead.sha256:  # measurements, or why the file cannot be read
-                self.ledger.put_measurements(lead.sha256, lead.measure_key, result)
+                with stage("parent_put_measurements"):
+                    self.ledger.put_measurements(lead.sha256, lead.measure_key, result,
+                                                 blob=value.get("measurements_z") if exc is None else None)
             lead.how = "measured"
             self.finish(lead, self.place(lead, result, written), True)
             for other in group[1:]:
@@ -246,4 +285,6 @@ class Scheduler:
 
     def run(self, items, backend, check_task) -> None:
         """Every item done: :meth:`triage`, then :meth:`measure` of what is left."""
-        self.measure(self.triage(items), backend, check_task)
+        with stage("triage"):
+            groups = self.triage(items, backend.workers)
+        self.measure(groups, backend, check_task)

@@ -19,15 +19,54 @@ _LOCK = threading.Lock()
 
 
 def ignore_sigint() -> None:
-    """Pool-worker initializer: Ctrl-C is handled by the parent, which stops the workers.
-
-    Also imports the measuring code, so a worker's start-up cost is paid while the
-    parent is still hashing files, not on the first file it checks.
-    """
+    """Pool-worker initializer: Ctrl-C is handled by the parent, which stops the workers."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+_BLAS_LIMIT = []  # the worker's threadpoolctl limit, kept alive for the worker's life
+
+
+def limit_threads(threads: int | None) -> None:
+    """Hold this worker process to ``threads`` threads: its measurements (``MASTERQC_THREADS``, read by
+    :class:`masterqc.measure.options.MeasureOptions`) and its BLAS/OpenMP pools (threadpoolctl)."""
+    if not threads:
+        return
+    from masterqc.measure.options import THREADS_ENV
+    os.environ[THREADS_ENV] = str(int(threads))
+    for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ.setdefault(var, str(int(threads)))  # libraries loaded from now on
+    try:
+        from threadpoolctl import threadpool_limits
+        _BLAS_LIMIT.append(threadpool_limits(limits=int(threads)))  # libraries already loaded
+    except Exception:  # threadpoolctl missing or unable to inspect: the measurement holds BLAS itself
+        pass
+
+
+def warm_up(formats=("html", "pdf")) -> None:
+    """Pay a worker's start-up once, before its first task: import the measuring, judging and
+    report code (matplotlib, weasyprint) and load the report templates.  Never raises: what
+    fails here fails again, with its file named, in the task that needs it."""
+    try:
+        _warm_up(formats)
+    except Exception:
+        pass
+
+
+def _warm_up(formats) -> None:
     import masterqc.judge  # noqa: F401
     import masterqc.measure.engine  # noqa: F401
     import masterqc.pipeline  # noqa: F401
+    from masterqc.measure.registry import analyzer_classes
+    analyzer_classes()
+    if any(f in ("html", "pdf") for f in formats):
+        from masterqc.formats import reports_available
+        if reports_available() is None:
+            from masterqc.report import render
+            render._env()
+            import masterqc.report.plots  # noqa: F401
+            import masterqc.report.view  # noqa: F401
+            if "pdf" in formats:
+                import weasyprint  # noqa: F401
 
 
 #: seconds between two looks of a worker at its parent (the watch that backs up the parent-death signal)
@@ -56,13 +95,15 @@ def _watch_parent(parent_pid: int) -> None:
         time.sleep(PARENT_WATCH_S)
 
 
-def worker_init(parent_pid: int | None = None) -> None:
+def worker_init(parent_pid: int | None = None, threads: int | None = None, formats=("html", "pdf")) -> None:
     """Pool-worker initializer: never outlive the batch that started it, and leave Ctrl-C to the parent.
 
     A ``kill -9`` of the batch gives it no chance to stop its workers, so each worker
     arranges its own end: the parent-death signal on Linux, and everywhere a daemon
     thread that exits the process when the parent is gone.  Both are set before any
     work is taken, and a parent that died before they were set is caught at once.
+    Then the worker's threads are limited (:func:`limit_threads`) and its start-up is paid
+    (:func:`warm_up`) while the parent hashes the files.
     """
     if parent_pid is not None:
         _set_parent_death_signal()
@@ -71,6 +112,11 @@ def worker_init(parent_pid: int | None = None) -> None:
         threading.Thread(target=_watch_parent, args=(parent_pid,), name="masterqc-parent-watch",
                          daemon=True).start()
     ignore_sigint()
+    from masterqc import stagelog
+    stagelog.ROLE["name"] = "worker"
+    limit_threads(threads)
+    warm_up(tuple(formats or ()))
+    stagelog.note_startup("worker_startup")
 
 
 def warm(_=None) -> int:
@@ -119,10 +165,13 @@ def check_task(task: dict) -> dict:
 
     ``task``: ``path``, ``spec_path``, ``spec_key``, ``out_dir``, ``stem``, ``formats``,
     ``layout`` (list or None), ``threads`` (threads per measurement, None for the default),
-    ``durable`` (fsync the outputs, default true; :func:`masterqc.fileio.write_atomic`).  Returns ``{"result": <result dict>, "elapsed_s": float,
+    ``durable`` (fsync the outputs, default true; :func:`masterqc.fileio.write_atomic`); to judge
+    stored measurements again instead of measuring: ``stored``, ``encoded`` (their JSON text,
+    :func:`masterqc.pipeline.parse_result_text`) and ``keep`` (reports still fresh).  Returns ``{"result": <result dict>, "elapsed_s": float,
     "cpu_s": float, "worker_pid": int}``.  A failure outside reading the master (an internal bug)
     still returns a result: an error result whose ``error.internal`` is true, so the
-    batch records it and goes on.
+    batch records it and goes on.  ``measurements_z``: a measured result as the ledger stores
+    it (:func:`masterqc.batch.ledger.measurements_blob`), None for a re-judgement or an internal error.
     """
     from masterqc.measure.options import MeasureOptions
     from masterqc.pipeline import check_file, error_result
@@ -135,11 +184,18 @@ def check_task(task: dict) -> dict:
     try:
         result = check_file(task["path"], loaded, task["out_dir"], tuple(task["formats"]), stem=task["stem"],
                             base_options=_options(layout, task.get("threads")),
-                            durable=bool(task.get("durable", True)))
+                            durable=bool(task.get("durable", True)), stored=task.get("stored"),
+                            encoded=task.get("encoded"), keep=tuple(task.get("keep") or ()))
     except Exception as exc:  # never lose the batch to one file
         result = error_result(task["path"], loaded, f"internal error while checking: {type(exc).__name__}: {exc}")
         result["error"]["internal"] = True
         result["outputs"] = {}
+    blob = None
+    if task.get("stored") is None and not (result.get("error") or {}).get("internal"):
+        from masterqc.batch.ledger import measurements_blob
+        blob = measurements_blob(result)  # the ledger's row, made here rather than in the parent
+    from masterqc import stagelog
+    stagelog.note("task", time.perf_counter() - t0, time.process_time() - c0)
     return {"result": result, "elapsed_s": time.perf_counter() - t0, "cpu_s": time.process_time() - c0,
-            "worker_pid": os.getpid(),
+            "worker_pid": os.getpid(), "measurements_z": blob,
             "tool_version": __version__}

@@ -8,6 +8,7 @@ the command line.
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 
 import matplotlib
 
@@ -223,19 +224,47 @@ def _hz(x, _pos=None):
     return f"{x / 1000:g}k" if x >= 1000 else f"{x:g}"
 
 
-def transfer_plot(r: dict) -> str | None:
-    s = r["series"]
-    f = np.asarray(s["frequency_hz"], float)
-    if f.size < 2:
-        return None
-    h = np.array([np.nan if v is None else v for v in s["transfer_db"]], float)
-    c = np.array([np.nan if v is None else v for v in s["coherence"]], float)
-    t = r["transfer"]
+def _values(seq) -> np.ndarray:
+    """A result series as floats, its nulls as NaN."""
+    return np.array([np.nan if v is None else v for v in seq], float)
+
+
+def _abscissa(r: dict, key: str) -> np.ndarray | None:
+    """The series ``key`` of the result as floats, or None when it holds too few points to plot."""
+    x = np.asarray(r["series"][key], float)
+    return x if x.size >= 2 else None
+
+
+@contextmanager
+def _plot(height_in: float, *rects, share_first: tuple = ()):
+    """The report's plot style and a figure ``height_in`` high with one axes per rectangle
+    (figure fractions, created in order); axes whose index is in ``share_first`` share the
+    first one's x axis.  Yields ``(figure, [axes])``."""
     with matplotlib.rc_context(plots.STYLE):
-        fig = plots._figure(5.6)
-        ax = fig.add_axes((0.085, 0.62, 0.89, 0.31))
-        ax2 = fig.add_axes((0.085, 0.07, 0.89, 0.14), sharex=ax)
-        ax3 = fig.add_axes((0.085, 0.3, 0.89, 0.23))
+        fig = plots._figure(height_in)
+        axes = []
+        for i, rect in enumerate(rects):
+            axes.append(fig.add_axes(rect, sharex=axes[0]) if i in share_first else fig.add_axes(rect))
+        yield fig, axes
+
+
+def _frequency_axis(ax, f: np.ndarray | None = None) -> None:
+    """Frequency ticks as 20, 1k, 10k; with ``f``, a logarithmic axis from 20 Hz to just past its last bin."""
+    if f is not None:
+        ax.set_xscale("log")
+        ax.set_xlim(20.0, f[-1] * 1.05)
+    ax.xaxis.set_major_formatter(FuncFormatter(_hz))
+
+
+def transfer_plot(r: dict) -> str | None:
+    f = _abscissa(r, "frequency_hz")
+    if f is None:
+        return None
+    h = _values(r["series"]["transfer_db"])
+    c = _values(r["series"]["coherence"])
+    t = r["transfer"]
+    with _plot(5.6, (0.085, 0.62, 0.89, 0.31), (0.085, 0.07, 0.89, 0.14), (0.085, 0.3, 0.89, 0.23),
+               share_first=(1,)) as (fig, (ax, ax2, ax3)):
         # the pass band at a scale that shows the ripple, on a linear axis up to the new Nyquist frequency
         lo_r, hi_r = t["ripple_band_hz"]
         band = (f >= lo_r) & (f <= hi_r) & np.isfinite(h)
@@ -247,7 +276,7 @@ def transfer_plot(r: dict) -> str | None:
         ax3.set_ylim(-span, span)
         ax3.set_ylabel("pass band (dB)")
         ax3.set_xlabel("frequency (Hz), linear; shaded: the ripple band")
-        ax3.xaxis.set_major_formatter(FuncFormatter(_hz))
+        _frequency_axis(ax3)
         ax.plot(f, h, color=plots.BLUE, lw=1.0, label="|H(f)| re the broadband gain")
         ax.axhline(-3.0, color=plots.GREY, lw=0.8, ls=(0, (4, 2)), label="-3 dB")
         ax.axvline(t["nyquist_new_hz"], color=plots.BLACK, lw=0.9, ls=(0, (1, 1.2)), label="new Nyquist")
@@ -256,27 +285,23 @@ def transfer_plot(r: dict) -> str | None:
         fin = h[np.isfinite(h)]
         lo = max(float(np.min(fin)) - 1.0, -60.0) if fin.size else -60.0
         ax.set_ylim(lo, 2.0)
-        ax.set_xscale("log")
-        ax.set_xlim(20.0, f[-1] * 1.05)
+        _frequency_axis(ax, f)  # (ax2 shares it)
         ax.set_ylabel("level (dB)")
         plots._legend(ax, ncol=4)
         ax2.plot(f, c, color=plots.GREEN, lw=0.9, ls=(0, (5, 2)))
         ax2.set_ylim(0.0, 1.05)
         ax2.set_ylabel("coherence")
         ax2.set_xlabel("frequency (Hz), logarithmic")
-        ax2.xaxis.set_major_formatter(FuncFormatter(_hz))
         return plots._to_svg(fig, "transfer", "Transfer function and coherence")
 
 
 def residual_plot(r: dict) -> str | None:
-    s = r["series"]
-    f = np.asarray(s["frequency_hz"], float)
-    if f.size < 2:
+    f = _abscissa(r, "frequency_hz")
+    if f is None:
         return None
-    y = np.array([np.nan if v is None else v for v in s["residual_psd_dbfs_per_hz"]], float)
-    with matplotlib.rc_context(plots.STYLE):
-        fig = plots._figure(2.6)
-        ax = fig.add_axes((0.085, 0.17, 0.89, 0.66))
+    s = r["series"]
+    y = _values(s["residual_psd_dbfs_per_hz"])
+    with _plot(2.6, (0.085, 0.17, 0.89, 0.66)) as (fig, (ax,)):
         ax.plot(f, y, color=plots.VERMILION, lw=0.9, label="residual (per channel)")
         e = s.get("expected_tpdf_psd_dbfs_per_hz")
         if e is not None:
@@ -284,28 +309,23 @@ def residual_plot(r: dict) -> str | None:
                        label=f"{r['deliverable']['bit_depth']}-bit TPDF dither, expected")
         lo, hi = r["transfer"]["ripple_band_hz"]
         ax.axvspan(lo, hi, color=plots.GREY, alpha=0.07, lw=0)
-        ax.set_xscale("log")
-        ax.set_xlim(20.0, f[-1] * 1.05)
+        _frequency_axis(ax, f)
         vals = y[np.isfinite(y)]
         if vals.size:
             top = max(float(np.percentile(vals, 99)), e if e is not None else -1e9) + 10
             ax.set_ylim(top - 90, top)
         ax.set_ylabel("level (dB re FS\u00b2/Hz)")
         ax.set_xlabel("frequency (Hz), logarithmic; shaded: the band the requantisation is measured in")
-        ax.xaxis.set_major_formatter(FuncFormatter(_hz))
         plots._legend(ax, ncol=3)
         return plots._to_svg(fig, "residual", "Residual spectrum against the expected dither level")
 
 
 def offset_plot(r: dict) -> str | None:
-    s = r["series"]
-    t = np.asarray(s["offset_time_s"], float)
-    if t.size < 2:
+    t = _abscissa(r, "offset_time_s")
+    if t is None:
         return None
-    o = np.array([np.nan if v is None else v for v in s["offset_ms"]], float)
-    with matplotlib.rc_context(plots.STYLE):
-        fig = plots._figure(2.3)
-        ax = fig.add_axes((plots.TIME_LEFT, 0.2, plots.TIME_WIDTH, 0.62))
+    o = _values(r["series"]["offset_ms"])
+    with _plot(2.3, (plots.TIME_LEFT, 0.2, plots.TIME_WIDTH, 0.62)) as (fig, (ax,)):
         ax.plot(t, o, ".", ms=2.0, color=plots.BLUE, label="offset per frame")
         for j in r["alignment"]["jumps"]:
             ax.axvline(j["at_master_s"], color=plots.VERMILION, lw=0.9, ls=(0, (4, 2)))

@@ -17,8 +17,27 @@ from dataclasses import dataclass, field, fields
 NOT_MEASUREMENT_SETTINGS = ("block_frames", "threads")
 
 
+#: environment variable: threads one measurement may use (its analyzer threads, and any thread pool
+#: inside it: BLAS, FFT workers).  Unset: :func:`default_thread_count` decides.  A batch with several
+#: jobs sets it in each worker process to the cores it may use divided by the jobs (at least 1), so
+#: ``jobs x threads`` never exceeds the cores (masterqc.batch.execute); anything that adds threads
+#: inside a measurement takes its count from ``MeasureOptions.threads``, whose default reads this.
+THREADS_ENV = "MASTERQC_THREADS"
+
+
 def default_thread_count() -> int:
-    """Threads one measurement uses by default: 2, or 1 on a one-core machine."""
+    """Threads one measurement uses by default: ``MASTERQC_THREADS`` when set (a whole number of
+    1 or more; anything else is a :class:`~masterqc.errors.UsageError`), else 2, or 1 on a one-core machine."""
+    raw = os.environ.get(THREADS_ENV, "").strip()
+    if raw:
+        try:
+            n = int(raw)
+        except ValueError:
+            n = 0
+        if n < 1:
+            from masterqc.errors import UsageError
+            raise UsageError(f"environment variable {THREADS_ENV}={raw!r}: give a whole number of 1 or more")
+        return n
     try:
         cores = len(os.sched_getaffinity(0))
     except (AttributeError, OSError):

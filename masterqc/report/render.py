@@ -145,12 +145,15 @@ def write_reports(result: dict, out_dir, stem: str, formats=RENDER_FORMATS, pape
     out.mkdir(parents=True, exist_ok=True)
     if not stem or os.sep in stem or (os.altsep and os.altsep in stem):
         raise UsageError(f"report name {stem!r} must be a plain file name stem")
-    html = render_html(result, paper=paper, pages=pages) if ("html" in fmts or "pdf" in fmts) else None
+    from masterqc.stagelog import stage
+    with stage("render_html"):
+        html = render_html(result, paper=paper, pages=pages) if ("html" in fmts or "pdf" in fmts) else None
     payloads: list[tuple[Path, bytes]] = []
     if "html" in fmts:
         payloads.append((out / f"{stem}.html", html.encode("utf-8")))
     if "pdf" in fmts:
-        payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html, pages=pages)))
+        with stage("render_pdf"):
+            payloads.append((out / f"{stem}.pdf", render_pdf(result, paper=paper, html=html, pages=pages)))
     written = []
     for path, data in payloads:
         write_atomic(path, data)
