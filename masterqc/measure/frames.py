@@ -18,6 +18,8 @@ import math
 
 import numpy as np
 
+from masterqc.measure import filterdesign
+
 
 #: long frames: 5 Hz bins (fs/5 samples)
 TONAL_BIN_HZ = 5.0
@@ -205,8 +207,7 @@ def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz
 
 def blackman_harris(n: int) -> np.ndarray:
     """4-term Blackman-Harris window (side lobes -92 dB), symmetric, ``n`` points."""
-    from scipy.signal import windows
-    return windows.blackmanharris(n, sym=True)
+    return filterdesign.blackman_harris(n)
 
 
 def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:
