@@ -82,6 +82,8 @@ def main(argv=None) -> int:
     wav = str(one_second_file())
     env = dict(os.environ)
     env.pop("PYTHONPATH", None)
+    # an installed package has its .pyc files: time that, not compiling the sources every run
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
     env["PYTHONPATH"] = str(ROOT)
     commands = {
         "python -c pass": ([py, "-c", "pass"], env),
