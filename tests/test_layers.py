@@ -128,7 +128,9 @@ def test_the_read_layer_is_imported_only_by_what_reads_files():
 def test_the_contract_and_timecode_import_no_layer():
     modules = _modules()
     for name in ("masterqc.contract", "masterqc.timecode"):
-        assert _imports(modules[name], modules, False) - {"masterqc"} == set(), name
+        # masterqc.result_models: the contract's own pydantic models, loaded on first use
+        assert _imports(modules[name], modules, False) - {"masterqc", "masterqc.result_models"} == set(), name
+    assert _imports(modules["masterqc.result_models"], modules, False) - {"masterqc", "masterqc.contract"} == set()
 
 
 def test_the_walk_sees_a_planted_cycle(tmp_path):

@@ -8,12 +8,18 @@ section -> findings), :mod:`.render` (HTML/PDF), :mod:`.command` (the CLI wiring
 
 from __future__ import annotations
 
-from masterqc.compare.model import RESULT_FORMAT_VERSION, Comparison
-
 __all__ = ["RESULT_FORMAT_VERSION", "Comparison", "compare_files"]
 
 
-def compare_files(master, deliverable, **kwargs) -> Comparison:
+def __getattr__(name):
+    # the typed model (pydantic) loads on first use: the command line only needs the parser
+    if name in ("RESULT_FORMAT_VERSION", "Comparison"):
+        from masterqc.compare import model
+        return getattr(model, name)
+    raise AttributeError(f"module 'masterqc.compare' has no attribute {name!r}")
+
+
+def compare_files(master, deliverable, **kwargs):
     """See :func:`masterqc.compare.measure.compare_files`."""
     from masterqc.compare.measure import compare_files as _run
     return _run(master, deliverable, **kwargs)

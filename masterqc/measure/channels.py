@@ -28,11 +28,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
+from masterqc.measure.iir import sosfilt
 from masterqc.measure.kweight import kweighting_sos
 from masterqc.measure.peaks import column_abs_max
 from masterqc.measure.runs import column_sum
@@ -246,7 +246,7 @@ class ChannelRelationAnalyzer(Analyzer):
         if self.sos is not None and self.kshared is None:
             # every channel paired (stereo): filter the block itself, no copy
             src = block if self.kchannels == list(range(block.shape[1])) else block[:, self.kchannels]
-            kw, self.zi = signal.sosfilt(self.sos, src, axis=0, zi=self.zi)
+            kw, self.zi = sosfilt(self.sos, src, axis=0, zi=self.zi)
             self.kenergy += column_sum(kw * kw)
 
     def _name(self, p):

@@ -27,11 +27,11 @@ from fractions import Fraction
 
 import numpy as np
 from scipy.ndimage import uniform_filter1d
-from scipy.signal import firwin, upfirdn
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import amplitude_db
 from masterqc.measure.base import array_of
+from masterqc.measure.filterdesign import kaiser_lowpass_fir
 from masterqc.measure.oversample import TruePeakMeter, choose_factor
 
 #: resample_poly's default design
@@ -94,7 +94,7 @@ def design_filter(up: int, down: int) -> np.ndarray:
     """The resample_poly default low-pass at the up-sampled rate, gain ``up``."""
     max_rate = max(up, down)
     half_len = ZERO_CROSSINGS * max_rate
-    h = firwin(2 * half_len + 1, 1.0 / max_rate, window=("kaiser", KAISER_BETA))
+    h = kaiser_lowpass_fir(2 * half_len + 1, 1.0 / max_rate, 2.0, KAISER_BETA)
     return h * up
 
 
@@ -135,6 +135,7 @@ class StreamingResampler:
         # the buffer starts at a multiple of down, at or before k_need
         k0 = max((k_need // down) * down, self.buf_start)
         x = self.buf[k0 - self.buf_start:]
+        from scipy.signal import upfirdn   # only when a rate conversion is replayed
         y = upfirdn(self.h, x, up, down, axis=0)
         j0 = self.n_next + (self.half_p - k0 * up) // down
         j1 = n_max + (self.half_p - k0 * up) // down

@@ -19,9 +19,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import signal
 
 from masterqc.contract import NO_UNIT, measured
+from masterqc.measure.filterdesign import butterworth_lowpass_sos, kaiser_lowpass_fir
+from masterqc.measure.iir import sosfilt
 from masterqc.measure.levels import amplitude_db, power_ratio_db
 from masterqc.measure.base import (INTEGER_LIST, NUMBER_OR_NULL, NUMBER_OR_NULL_LIST, Analyzer,
                                    AnalyzerResult)
@@ -59,7 +60,7 @@ class Decimator:
         self.channels = channels
         d, q = self.factor, TAPS_PER_PHASE
         if d > 1:
-            h = signal.firwin(q * d, self.rate_hz / 2.0, window=("kaiser", KAISER_BETA), fs=fs)
+            h = kaiser_lowpass_fir(q * d, self.rate_hz / 2.0, fs, KAISER_BETA)
             self.hq = np.ascontiguousarray(h.reshape(q, d))
             self.tail = np.zeros((channels, q - 1, d))
             self.rest = np.zeros((0, channels))
@@ -130,8 +131,7 @@ class DcOffsetAnalyzer(Analyzer):
         self.low_sumsq = np.zeros(ch)
         self.frames = 0
         self.decimator = Decimator(info.sample_rate_hz, ch)
-        self.sos = signal.butter(SUBSONIC_ORDER, SUBSONIC_EDGE_HZ, btype="lowpass",
-                                 fs=self.decimator.rate_hz, output="sos")
+        self.sos = butterworth_lowpass_sos(SUBSONIC_ORDER, SUBSONIC_EDGE_HZ, self.decimator.rate_hz)
         self.zi = np.zeros((self.sos.shape[0], ch, 2))
         self.pending = []
         self.pending_n = 0
@@ -144,7 +144,7 @@ class DcOffsetAnalyzer(Analyzer):
         if self.pending_n and (flush or self.pending_n >= LOW_BATCH):
             y = np.concatenate(self.pending, axis=1) if len(self.pending) > 1 else self.pending[0]
             self.pending, self.pending_n = [], 0
-            low, self.zi = signal.sosfilt(self.sos, y, axis=-1, zi=self.zi)
+            low, self.zi = sosfilt(self.sos, y, axis=-1, zi=self.zi)
             self.low_sumsq += np.einsum("ij,ij->i", low, low) * self.decimator.factor
 
     def process(self, block):

@@ -15,8 +15,11 @@ No analyzer lives here, and this module imports no other analyzer module.
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
+
+from masterqc.measure import filterdesign
 
 
 #: long frames: 5 Hz bins (fs/5 samples)
@@ -203,10 +206,16 @@ def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz
     return best
 
 
+@lru_cache(maxsize=16)
 def blackman_harris(n: int) -> np.ndarray:
-    """4-term Blackman-Harris window (side lobes -92 dB), symmetric, ``n`` points."""
-    from scipy.signal import windows
-    return windows.blackmanharris(n, sym=True)
+    """4-term Blackman-Harris window (side lobes -92 dB), symmetric, ``n`` points.
+
+    Designed once per length and process (the imaging and aliasing analyzers both use the
+    same length, in every file of a batch); the array is shared, so it is read-only.
+    """
+    w = filterdesign.blackman_harris(n)
+    w.flags.writeable = False
+    return w
 
 
 def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:

@@ -42,13 +42,13 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.signal import sosfilt
 
 from masterqc.contract import measured
 from masterqc.measure.base import (INTEGER, NUMBER_OR_NULL, Analyzer,
                                    AnalyzerResult)
 from masterqc.measure.kweight import MAX_RATE_HZ as KW_MAX_RATE_HZ
 from masterqc.measure.kweight import MIN_RATE_HZ as KW_MIN_RATE_HZ
+from masterqc.measure.iir import sosfilt
 from masterqc.measure.kweight import kweighting_sos
 
 #: -0.691 dB offset of the BS.1770 loudness formula

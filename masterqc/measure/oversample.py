@@ -80,6 +80,8 @@ import numpy as np
 import scipy.fft as sfft
 from numpy.lib.stride_tricks import as_strided
 
+from masterqc.measure import filterprops
+
 #: the example interpolation filter of ITU-R BS.1770-5 Annex 2 (phases 0 and 1;
 #: phase 2 is phase 1 reversed, phase 3 is phase 0 reversed)
 ANNEX2_PHASE0 = (0.0017089843750, 0.0109863281250, -0.0196533203125, 0.0332031250000,
@@ -314,6 +316,9 @@ def worst_underread_db(factor: int, design: str = "kaiser", up_to: float = 0.45)
     """Largest :func:`underread_db` for sines from 0.005*fs to ``up_to``*fs
     (90 frequencies, denser in the top 10 % of the band where it is largest)."""
     flt = get_filter(factor, design)
+    stored = filterprops.WORST_UNDERREAD_DB.get((_fingerprint(flt), up_to))
+    if stored is not None:      # the same computation, done once for the shipped filters
+        return stored
     freqs = np.unique(np.concatenate([np.linspace(0.005, up_to, 60),
                                       np.linspace(0.9 * up_to, up_to, 30)]))
     return float(underread_db(flt, freqs).max())
@@ -338,8 +343,15 @@ def reading_filter(design: str = "kaiser") -> PolyphaseFilter:
 
 @lru_cache(maxsize=4)
 def reading_filter_properties(design: str = "kaiser") -> dict:
-    """:func:`filter_properties` of :func:`reading_filter` (computed once)."""
-    return filter_properties(reading_filter(design))
+    """:func:`filter_properties` of :func:`reading_filter` (computed once; stored for the
+    shipped filters, see :mod:`masterqc.measure.filterprops`)."""
+    flt = reading_filter(design)
+    stored = filterprops.PROPERTIES.get(_fingerprint(flt))
+    return dict(stored) if stored is not None else filter_properties(flt)
+
+
+def _fingerprint(flt: PolyphaseFilter) -> str:
+    return filterprops.fingerprint(flt.taps, flt.factor, flt.instant_offset)
 
 
 def filter_properties(flt: PolyphaseFilter) -> dict:
