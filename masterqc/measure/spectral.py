@@ -168,7 +168,8 @@ class SpectralFrontEnd:
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
         self.hist = np.zeros((self.bins, self.n_levels), dtype=np.uint32) if histogram else None
-        self._bin_index = np.arange(self.bins)
+        self._hist_offset = np.arange(self.bins) * self.n_levels
+        self._one = np.uint32(1)
         # each column spans at least `stride` frame positions, so it holds an analysed frame
         self.columns = int(max(1, min(columns, self.total_frame_count // self.stride)))
         self.rows = int(max(1, min(rows, self.bins - 1)))
@@ -206,12 +207,13 @@ class SpectralFrontEnd:
             return
         n_frames = (n_avail - self.N) // self.hop + 1
         index = np.arange(self.frame_index, self.frame_index + n_frames)
-        pick = np.nonzero(index % self.stride == 0)[0]
-        if pick.size:
+        first = (-self.frame_index) % self.stride        # first analysed frame of this run (every stride-th)
+        if first < n_frames:
+            pick = np.arange(first, n_frames, self.stride)
             view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
-            # view: (frames, channels, N); the product is a new contiguous float32 array
-            frames = view[pick]
-            frames *= self.window
+            # view: (frames, channels, N); the windowed frames are cut and multiplied in one pass into a
+            # new contiguous float32 array
+            frames = np.multiply(view[first::self.stride], self.window)
             spec = scipy.fft.rfft(frames, axis=-1, overwrite_x=True)
             power = np.square(spec.real)
             power += np.square(spec.imag)
@@ -227,12 +229,20 @@ class SpectralFrontEnd:
         if self.histogram:
             # level statistics from every HIST_STRIDE-th frame (a regular subsample: percentiles
             # over time need many frames, not every frame)
-            pick = np.nonzero(((np.arange(nfr) + self.analysed) % HIST_STRIDE) == 0)[0]
-            if pick.size:
-                level = power_db(total[pick] / self.channels)
-                idx = np.clip(((level - HIST_MIN_DB) / HIST_STEP_DB).astype(np.int64), 0, self.n_levels - 1)
-                for j in range(pick.size):
-                    self.hist[self._bin_index, idx[j]] += 1
+            first = (-self.analysed) % HIST_STRIDE
+            if first < nfr:
+                # level = power_db(channel mean) and its 1 dB step, in place (the same operations
+                # in the same order as power_db, so the same steps)
+                level = np.asarray(total[first::HIST_STRIDE] / self.channels, dtype=float)
+                np.maximum(level, POWER_EPS, out=level)
+                np.log10(level, out=level)
+                np.multiply(level, 10.0, out=level)
+                np.subtract(level, HIST_MIN_DB, out=level)
+                np.divide(level, HIST_STEP_DB, out=level)
+                idx = level.astype(np.int64)
+                np.clip(idx, 0, self.n_levels - 1, out=idx)
+                idx += self._hist_offset          # flat index bin * n_levels + step
+                np.add.at(self.hist.reshape(-1), idx.reshape(-1), self._one)   # (a uint32 one: the fast path)
         bands = np.add.reduceat(total[:, 1:], self._row_edges - 1, axis=1) / self._row_width
         cols = (index * self.columns) // self.total_frame_count
         cols = np.minimum(cols, self.columns - 1)
