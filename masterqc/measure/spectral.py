@@ -163,7 +163,9 @@ class SpectralFrontEnd:
         self.stride = max(1, int(frame_stride))
         self.frame_index = 0          # global index of the next frame position
         self.analysed = 0             # frames actually analysed
-        self._buf = np.zeros((self.hop, self.channels), dtype=np.float32)    # leading half frame of zeros
+        # pending samples, planar (channels, samples) float32, so that a frame's samples are contiguous;
+        # it starts with the leading half frame of zeros
+        self._buf = np.zeros((self.channels, self.hop), dtype=np.float32)
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
@@ -195,14 +197,15 @@ class SpectralFrontEnd:
             block = block[:, None]
         if block.shape[0] == 0:
             return
-        buf = np.empty((self._buf.shape[0] + block.shape[0], self.channels), dtype=np.float32)
-        buf[:self._buf.shape[0]] = self._buf
-        buf[self._buf.shape[0]:] = block
+        kept = self._buf.shape[1]
+        buf = np.empty((self.channels, kept + block.shape[0]), dtype=np.float32)
+        buf[:, :kept] = self._buf
+        buf[:, kept:] = block.T
         self._buf = buf
         self._run()
 
     def _run(self) -> None:
-        n_avail = self._buf.shape[0]
+        n_avail = self._buf.shape[1]
         if n_avail < self.N:
             return
         n_frames = (n_avail - self.N) // self.hop + 1
@@ -210,17 +213,18 @@ class SpectralFrontEnd:
         first = (-self.frame_index) % self.stride        # first analysed frame of this run (every stride-th)
         if first < n_frames:
             pick = np.arange(first, n_frames, self.stride)
-            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
-            # view: (frames, channels, N); the windowed frames are cut and multiplied in one pass into a
-            # new contiguous float32 array
-            frames = np.multiply(view[first::self.stride], self.window)
+            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=1)[:, ::self.hop][:, :n_frames]
+            # view: (channels, frames, N), each frame contiguous; the windowed frames are cut and multiplied
+            # in one pass into a new contiguous float32 array of shape (frames, channels, N)
+            frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
+            np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
             spec = scipy.fft.rfft(frames, axis=-1, overwrite_x=True)
             power = np.square(spec.real)
             power += np.square(spec.imag)
             power *= self._scale
             self._accumulate(power, index[pick])
         self.frame_index += n_frames
-        self._buf = self._buf[n_frames * self.hop:].copy()
+        self._buf = self._buf[:, n_frames * self.hop:].copy()
 
     def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
@@ -272,8 +276,8 @@ class SpectralFrontEnd:
             need = self.total_frame_count - self.frame_index
             if need > 0:
                 target = (need - 1) * self.hop + self.N
-                pad = max(0, target - self._buf.shape[0])
-                self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels), dtype=np.float32)], axis=0)
+                pad = max(0, target - self._buf.shape[1])
+                self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad), dtype=np.float32)], axis=1)
                 self._run()
             self._finished = True
         # with every frame analysed, every sample is covered by the windows of two frames: the
