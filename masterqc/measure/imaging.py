@@ -440,8 +440,10 @@ class ImagingAnalyzer(Analyzer):
                 continue
             # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
             full = np.concatenate([spec, np.conj(spec[:, (self.n_fft - 1) // 2:0:-1])], axis=1)
-            prod = np.take(full, self.all_ka, axis=1)
-            prod *= np.take(full, self.all_kb, axis=1)
+            # (every index is in range: mode "clip" only skips numpy's bounds check, which costs a
+            # quarter of the gather)
+            prod = np.take(full, self.all_ka, axis=1, mode="clip")
+            prod *= np.take(full, self.all_kb, axis=1, mode="clip")
             # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
             q = prod.real * prod.real
             q += prod.imag * prod.imag
