@@ -14,7 +14,7 @@ analyzer's ``process()`` and ``finish()`` during one engine pass:
 - the imaging and aliasing analyzers, when registered.
 
 Target (printed beside the figures): the whole sampling analysis without
-conversion targets adds at most 0.5x the core's time.  Conversion targets are
+conversion targets adds at most 0.5x the core's time (1.0x for files of a minute or less).  Conversion targets are
 optional deliverable checks (one streamed resampler and true-peak meter per
 target) and are reported per target, as their own ratio.  The machine is
 shared: read the ratios, not the absolute times.  ``--strict`` makes a missed
@@ -117,6 +117,9 @@ def main(argv=None) -> int:
     print(f"bench_sampling_cost: files ready in {time.perf_counter() - t0:.1f} s ({f48.name}, {f96.name})")
     print("caution: the programme peaks near full scale; turn monitors down before listening.")
 
+    # issue 11: at most +50 % of the core's time on a 10-minute file, +100 % on a 30-second one (files
+    # of a minute or less are held to the short-file target)
+    limit = 1.0 if args.minutes <= 1.0 else 0.5
     ok = True
     for label, path, targets in (("48 kHz", f48, (44100, 32000)), ("96 kHz", f96, (48000, 44100))):
         classes = core + [every[SPECTRUM]] + folding
@@ -143,7 +146,7 @@ def main(argv=None) -> int:
         else:
             print("  imaging + aliasing analyzers                       not registered")
         total = (t_spec + t_fold) / t_core
-        print(f"  target: all sampling analysis <= 0.50x core:       {total:5.2f}x  {verdict(total <= 0.5)}")
+        print(f"  target: all sampling analysis <= {limit:4.2f}x core:       {total:5.2f}x  {verdict(total <= limit)}")
         print(f"  with conversion targets {targets}: spectral analyzer {spent_c.get(SPECTRUM, 0.0):.2f} s "
               f"(core {t_core_c:.2f} s in that run): the two targets add about {max(t_conv, 0.0) / t_core_c:4.2f}x core "
               f"({max(t_conv, 0.0) / t_core_c / len(targets):4.2f}x per target)")
@@ -151,7 +154,7 @@ def main(argv=None) -> int:
               f"upsampled from {m['upsampled_from_hz']}, ultrasonic {m['ultrasonic_energy_db']} dB; "
               + "; ".join(f"TP after {c['target_rate_hz']} Hz {c['true_peak_after_dbtp']:.2f} dBTP"
                           for c in mc["conversions"]))
-        ok = ok and total <= 0.5
+        ok = ok and total <= limit
     print(f"\nbench_sampling_cost done in {time.perf_counter() - t0:.1f} s")
     if limiter is not None:
         limiter.restore_original_limits()

@@ -74,6 +74,7 @@ Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -323,6 +324,49 @@ def predicted_image_level_db(kind: str, rate: float, fs: float, power, bin_hz: f
     return power_ratio_db(float(np.sum(band * r)) / total)
 
 
+@functools.lru_cache(maxsize=8)
+def _pair_plan(fs: int, n_fft: int, rates: tuple, offsets: tuple):
+    """Per candidate rate, the cycle frequencies (first entry: the rate; then the controls offset by
+    ``offsets`` bins) with their bin pairs, and the distinct pairs every candidate indexes into:
+    ``(cands, all_ka, all_kb, pair_index)``.  Cached: the arrays are read-only."""
+    bin_hz = fs / n_fft
+    cands = []
+    parts = []
+    pos = 0
+    for r in rates:
+        cand = {"rate": r, "cycles": []}
+        for off in (0,) + offsets:
+            ka, kb, al = mirror_pairs(fs, r + off * bin_hz, n_fft, rate_for_band=r)
+            if off:
+                # a control needs only the first order (see :meth:`ImagingAnalyzer._assess`)
+                sel = al == int(round((r + off * bin_hz) / bin_hz)) % n_fft
+                ka, kb, al = ka[sel], kb[sel], al[sel]
+            # the baseband member's frequency as a fraction of the candidate's Nyquist frequency
+            frac = np.minimum(ka, n_fft - ka) * bin_hz / (r / 2.0)
+            first = al == int(round((r + off * bin_hz) / bin_hz)) % n_fft
+            cycle = {"offset": off, "ka": ka, "kb": kb, "alpha": al, "frac": frac, "first": first,
+                     "slice": slice(pos, pos + ka.size)}
+            for v in cycle.values():
+                if isinstance(v, np.ndarray):
+                    v.flags.writeable = False
+            cand["cycles"].append(cycle)
+            parts.append((ka, kb, al))
+            pos += ka.size
+        cands.append(cand)
+    cat = (lambda i: np.concatenate([p[i] for p in parts]) if parts else np.zeros(0, dtype=np.int64))
+    all_ka, all_kb = cat(0), cat(1)
+    # the cycle frequencies of a rate are those of its multiples too (q * 8 kHz includes 16, 24,
+    # 32 ... kHz): each distinct bin pair is multiplied once per frame, and every candidate's
+    # pairs index into the distinct ones
+    n = n_fft
+    key = np.minimum(all_ka, all_kb) * n + np.maximum(all_ka, all_kb)
+    uniq, pair_index = np.unique(key, return_inverse=True)
+    all_ka, all_kb = uniq // n, uniq % n
+    for v in (all_ka, all_kb, pair_index):
+        v.flags.writeable = False
+    return cands, all_ka, all_kb, pair_index
+
+
 class ImagingAnalyzer(Analyzer):
     """Spectral correlation at the cycle frequencies of every candidate source rate."""
 
@@ -375,35 +419,12 @@ class ImagingAnalyzer(Analyzer):
         self.folded_frames = 0
         self.tonal_frames = 0
         self._lines = {}
-        self.cands = []
-        parts = []
-        pos = 0
-        for r in self.rates:
-            cand = {"rate": r, "cycles": []}
-            for off in (0,) + tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)):
-                ka, kb, al = mirror_pairs(self.fs, r + off * self.bin_hz, self.n_fft, rate_for_band=r)
-                if off:
-                    # a control needs only the first order (see :meth:`_assess`)
-                    sel = al == int(round((r + off * self.bin_hz) / self.bin_hz)) % self.n_fft
-                    ka, kb, al = ka[sel], kb[sel], al[sel]
-                # the baseband member's frequency as a fraction of the candidate's Nyquist frequency
-                frac = np.minimum(ka, self.n_fft - ka) * self.bin_hz / (r / 2.0)
-                first = al == int(round((r + off * self.bin_hz) / self.bin_hz)) % self.n_fft
-                cand["cycles"].append({"offset": off, "ka": ka, "kb": kb, "alpha": al, "frac": frac, "first": first,
-                                       "slice": slice(pos, pos + ka.size)})
-                parts.append((ka, kb, al))
-                pos += ka.size
-            self.cands.append(cand)
-        cat = (lambda i: np.concatenate([p[i] for p in parts]) if parts else np.zeros(0, dtype=np.int64))
-        all_ka, all_kb = cat(0), cat(1)
-        # the cycle frequencies of a rate are those of its multiples too (q * 8 kHz includes 16, 24,
-        # 32 ... kHz): each distinct bin pair is multiplied once per frame, and every candidate's
-        # pairs index into the distinct ones
-        n = self.n_fft
-        key = np.minimum(all_ka, all_kb) * n + np.maximum(all_ka, all_kb)
-        uniq, self.pair_index = np.unique(key, return_inverse=True)
-        self.all_ka, self.all_kb = uniq // n, uniq % n
-        self.pairs_distinct = int(uniq.size)
+        offsets = tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS))
+        # the pair plan depends only on the rate, the frame and the candidates: built once per process
+        # and shared (read-only) by every file of that rate
+        cands, self.all_ka, self.all_kb, self.pair_index = _pair_plan(self.fs, self.n_fft, tuple(self.rates), offsets)
+        self.cands = [{"rate": c["rate"], "cycles": list(c["cycles"])} for c in cands]
+        self.pairs_distinct = int(self.all_ka.size)
         self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
         # per pair, sum over frames of |X_m(a)|^2 |X_m(b)|^2: with it the null bias of each
         # pair's coherence follows the material's own frame-to-frame power changes
@@ -440,8 +461,10 @@ class ImagingAnalyzer(Analyzer):
                 continue
             # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
             full = np.concatenate([spec, np.conj(spec[:, (self.n_fft - 1) // 2:0:-1])], axis=1)
-            prod = np.take(full, self.all_ka, axis=1)
-            prod *= np.take(full, self.all_kb, axis=1)
+            # (every index is in range: mode "clip" only skips numpy's bounds check, which costs a
+            # quarter of the gather)
+            prod = np.take(full, self.all_ka, axis=1, mode="clip")
+            prod *= np.take(full, self.all_kb, axis=1, mode="clip")
             # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
             q = prod.real * prod.real
             q += prod.imag * prod.imag

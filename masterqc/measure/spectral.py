@@ -163,12 +163,15 @@ class SpectralFrontEnd:
         self.stride = max(1, int(frame_stride))
         self.frame_index = 0          # global index of the next frame position
         self.analysed = 0             # frames actually analysed
-        self._buf = np.zeros((self.hop, self.channels), dtype=np.float32)    # leading half frame of zeros
+        # pending samples, planar (channels, samples) float32, so that a frame's samples are contiguous;
+        # it starts with the leading half frame of zeros
+        self._buf = np.zeros((self.channels, self.hop), dtype=np.float32)
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
         self.hist = np.zeros((self.bins, self.n_levels), dtype=np.uint32) if histogram else None
-        self._bin_index = np.arange(self.bins)
+        self._hist_offset = np.arange(self.bins) * self.n_levels
+        self._one = np.uint32(1)
         # each column spans at least `stride` frame positions, so it holds an analysed frame
         self.columns = int(max(1, min(columns, self.total_frame_count // self.stride)))
         self.rows = int(max(1, min(rows, self.bins - 1)))
@@ -194,31 +197,34 @@ class SpectralFrontEnd:
             block = block[:, None]
         if block.shape[0] == 0:
             return
-        buf = np.empty((self._buf.shape[0] + block.shape[0], self.channels), dtype=np.float32)
-        buf[:self._buf.shape[0]] = self._buf
-        buf[self._buf.shape[0]:] = block
+        kept = self._buf.shape[1]
+        buf = np.empty((self.channels, kept + block.shape[0]), dtype=np.float32)
+        buf[:, :kept] = self._buf
+        buf[:, kept:] = block.T
         self._buf = buf
         self._run()
 
     def _run(self) -> None:
-        n_avail = self._buf.shape[0]
+        n_avail = self._buf.shape[1]
         if n_avail < self.N:
             return
         n_frames = (n_avail - self.N) // self.hop + 1
         index = np.arange(self.frame_index, self.frame_index + n_frames)
-        pick = np.nonzero(index % self.stride == 0)[0]
-        if pick.size:
-            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=0)[::self.hop][:n_frames]
-            # view: (frames, channels, N); the product is a new contiguous float32 array
-            frames = view[pick]
-            frames *= self.window
+        first = (-self.frame_index) % self.stride        # first analysed frame of this run (every stride-th)
+        if first < n_frames:
+            pick = np.arange(first, n_frames, self.stride)
+            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=1)[:, ::self.hop][:, :n_frames]
+            # view: (channels, frames, N), each frame contiguous; the windowed frames are cut and multiplied
+            # in one pass into a new contiguous float32 array of shape (frames, channels, N)
+            frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
+            np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
             spec = scipy.fft.rfft(frames, axis=-1, overwrite_x=True)
             power = np.square(spec.real)
             power += np.square(spec.imag)
             power *= self._scale
             self._accumulate(power, index[pick])
         self.frame_index += n_frames
-        self._buf = self._buf[n_frames * self.hop:].copy()
+        self._buf = self._buf[:, n_frames * self.hop:].copy()
 
     def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
@@ -227,12 +233,20 @@ class SpectralFrontEnd:
         if self.histogram:
             # level statistics from every HIST_STRIDE-th frame (a regular subsample: percentiles
             # over time need many frames, not every frame)
-            pick = np.nonzero(((np.arange(nfr) + self.analysed) % HIST_STRIDE) == 0)[0]
-            if pick.size:
-                level = power_db(total[pick] / self.channels)
-                idx = np.clip(((level - HIST_MIN_DB) / HIST_STEP_DB).astype(np.int64), 0, self.n_levels - 1)
-                for j in range(pick.size):
-                    self.hist[self._bin_index, idx[j]] += 1
+            first = (-self.analysed) % HIST_STRIDE
+            if first < nfr:
+                # level = power_db(channel mean) and its 1 dB step, in place (the same operations
+                # in the same order as power_db, so the same steps)
+                level = np.asarray(total[first::HIST_STRIDE] / self.channels, dtype=float)
+                np.maximum(level, POWER_EPS, out=level)
+                np.log10(level, out=level)
+                np.multiply(level, 10.0, out=level)
+                np.subtract(level, HIST_MIN_DB, out=level)
+                np.divide(level, HIST_STEP_DB, out=level)
+                idx = level.astype(np.int64)
+                np.clip(idx, 0, self.n_levels - 1, out=idx)
+                idx += self._hist_offset          # flat index bin * n_levels + step
+                np.add.at(self.hist.reshape(-1), idx.reshape(-1), self._one)   # (a uint32 one: the fast path)
         bands = np.add.reduceat(total[:, 1:], self._row_edges - 1, axis=1) / self._row_width
         cols = (index * self.columns) // self.total_frame_count
         cols = np.minimum(cols, self.columns - 1)
@@ -262,8 +276,8 @@ class SpectralFrontEnd:
             need = self.total_frame_count - self.frame_index
             if need > 0:
                 target = (need - 1) * self.hop + self.N
-                pad = max(0, target - self._buf.shape[0])
-                self._buf = np.concatenate([self._buf, np.zeros((pad, self.channels), dtype=np.float32)], axis=0)
+                pad = max(0, target - self._buf.shape[1])
+                self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad), dtype=np.float32)], axis=1)
                 self._run()
             self._finished = True
         # with every frame analysed, every sample is covered by the windows of two frames: the
@@ -297,11 +311,19 @@ class SpectralFrontEnd:
         cumulative count reaches ``q`` of the frames.  ``q`` may be a sequence:
         then a tuple of arrays is returned.
         """
-        cum = np.cumsum(self.hist, axis=1)
+        # cumulative counts over the level steps, laid out (steps, bins) so that each step adds one
+        # contiguous row (numpy's cumsum along the short axis of the (bins, steps) table is several
+        # times slower); integer sums, so exact
+        cum = np.ascontiguousarray(self.hist.T, dtype=np.int64)
+        for j in range(1, cum.shape[0]):
+            cum[j] += cum[j - 1]
+        total = cum[-1].astype(np.float64)
         qs = [q] if np.isscalar(q) else list(q)
         out = []
         for qq in qs:
-            k = (cum < qq * cum[:, -1:]).sum(axis=1)
+            # cum holds whole numbers, so "cum < qq * total" is "cum < ceil(qq * total)", exact in integers
+            level = np.ceil(qq * total).astype(np.int64)
+            k = np.count_nonzero(cum < level, axis=0)
             out.append(HIST_MIN_DB + (k + 0.5) * HIST_STEP_DB)
         return out[0] if np.isscalar(q) else tuple(out)
 
