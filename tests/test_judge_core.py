@@ -384,3 +384,58 @@ def test_below_measurable_of_a_unitless_floor_has_no_trailing_space():
     f = check_below_measurable("c", "count", floor("count").model_validate({"min_count": 1}), "nothing to count")
     assert f.message == "Count: nothing to count, so it is below the limit of 1."
     assert (f.measured, f.measured_raw, f.miss) == (None, None, None)
+
+
+# ------------------------------------------------------------------ wording helpers (house choice)
+
+def test_counts_in_words_print_whole_numbers_plainly():
+    from masterqc.judge.core import count_words
+    assert count_words(2.0, "clipped runs") == "2 clipped runs"  # a float count drops its ".0"
+    assert count_words(2.5, "s") == "2.5 s"
+    assert count_words(1234567, "samples") == "1234567 samples"  # an int is never put in exponent form
+
+
+def test_three_allowed_values_read_as_a_list_with_or():
+    req = allowed(str, "wav").model_validate(["wav", "aiff", "flac"])
+    f = check_allowed("format.container", "container", "mp3", req)
+    assert f.limit == "wav, aiff or flac"
+    assert f.message == "Container is mp3, which the spec does not allow (allowed: wav, aiff or flac)."
+
+
+def test_a_dotted_field_outside_the_result_parts_is_a_measurement_key():
+    from masterqc.judge.core import measured_field
+    result = {"format": {"duration_s": 12.5}, "measurements": {"band.level_db": -3.0, "x": None}}
+    assert measured_field(result, "format.duration_s") == (True, 12.5)
+    assert measured_field(result, "band.level_db") == (True, -3.0)  # "band" is not a result part
+    assert measured_field(result, "x") == (True, None)
+    assert measured_field(result, "format.rate") == (False, None)
+    assert measured_field({}, "metadata.bext") == (False, None)
+
+
+def test_a_layout_measured_as_a_tuple_is_compared_as_a_list():
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec.sections import format as fmt_section
+    from masterqc.spec import build_spec
+    sec = build_spec({"spec_version": 1, "name": "invented", "format": {"channel_layouts": [["L", "R"]]}}).format
+    ok, = judge_checks(sec, {"format": {"channel_layout": ("L", "R"), "channel_layout_source": "mask"}},
+                       fmt_section.CHECKS)
+    assert (ok.check, ok.status, ok.measured) == ("format.channel_layout", "pass", ["L", "R"])
+    bad, = judge_checks(sec, {"format": {"channel_layout": ("R", "L"), "channel_layout_source": "mask"}},
+                        fmt_section.CHECKS)
+    assert (bad.status, bad.message) == (
+        "fail", "Channel layout is [R, L], which the spec does not allow (allowed: [L, R]).")
+
+
+def test_a_yes_no_value_without_sentences_is_shown_as_yes_or_no():
+    req = allowed(bool, "false").model_validate([False])
+    f = check_allowed("integrity.dual_mono", "dual mono", True, req)
+    assert (f.status, f.measured, f.measured_text, f.limit) == ("fail", True, "yes", "no")
+    assert f.message == "Dual mono is yes, which the spec does not allow (allowed: no)."
+    p = check_allowed("integrity.dual_mono", "dual mono", False, req)
+    assert (p.status, p.measured_text, p.message) == ("pass", "no", "Dual mono is no (allowed: no).")
+    # a value that is not yes/no is shown as it is, even against a yes/no requirement
+    n = check_allowed("integrity.dual_mono", "dual mono", 0, req)
+    assert n.measured_text == "0"
+    # with sentences, a value that is not yes/no still reads "is ..."
+    s = check_allowed("x", "flag", "maybe", req, says=("It is set", "It is not set"))
+    assert s.message == "Flag is maybe, which the spec does not allow (allowed: no)."
