@@ -677,3 +677,21 @@ def test_a_repeated_error_is_listed_once_and_the_rest_still_follow():
     assert L.problems_from_validation(exc, data, pos, "r.yaml") == [
         ("r.yaml", "description", 3, 14, "expected text, got the number 3"),
         ("r.yaml", "version", 4, 10, "expected a list (e.g. [a, b]), got the number 1")]
+
+
+def test_every_base_of_a_list_is_looked_at_after_a_bad_one(tmp_path):
+    write(tmp_path, "b.yml", GOOD + "peaks: {true_peak: {max_dbtp: -2.0}}\n")  # .yml is a spec file name too
+    top = write(tmp_path, "top.yaml", GOOD + "extends: [/abs/x.yaml, base.txt, missing.yaml]\n")
+    with pytest.raises(SpecError) as e:
+        L.load_spec(top)
+    assert [(p[1], p[3]) for p in problems(e)] == [("extends[0]", 11), ("extends[1]", 24), ("extends[2]", 34)]
+    assert L.load_spec(write(tmp_path, "top2.yaml", GOOD + "extends: [b.yml]\n")).spec.peaks.true_peak.max_dbtp \
+        == -2.0
+
+
+def test_a_library_base_may_extend_another_library_base(tmp_path):
+    write(tmp_path / "lib", "house.yaml", GOOD + "peaks: {true_peak: {max_dbtp: -1.5}}\n")
+    write(tmp_path / "lib2", "label.yaml", GOOD + "extends: house.yaml\n")
+    top = write(tmp_path / "specs", "top.yaml", GOOD + "extends: label.yaml\n")
+    ls = L.load_spec(top, libraries=[tmp_path / "lib", tmp_path / "lib2"])
+    assert ls.spec.peaks.true_peak.max_dbtp == -1.5
