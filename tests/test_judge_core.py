@@ -439,3 +439,56 @@ def test_a_yes_no_value_without_sentences_is_shown_as_yes_or_no():
     # with sentences, a value that is not yes/no still reads "is ..."
     s = check_allowed("x", "flag", "maybe", req, says=("It is set", "It is not set"))
     assert s.message == "Flag is maybe, which the spec does not allow (allowed: no)."
+
+
+def test_a_judged_finding_carries_the_target():
+    req = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    f = check_limits("loudness.integrated", "integrated loudness", -23.4, req)
+    assert (f.status, f.target, f.limit_low, f.limit_high) == ("pass", -23.0, -24.0, -22.0)
+    assert check_limits("loudness.integrated", "integrated loudness", -21.0, req).target == -23.0
+
+
+def test_counts_are_shown_whole_or_at_the_decimals_the_spec_writes():
+    # house choice: a count of a plural noun reads "N clipped runs"; a whole count is never in exponent form
+    f = check_limits("integrity.clipping", "clipped runs", 1234567, ceiling("count").model_validate({"max_count": 0}))
+    assert f.status == "fail" and f.message.startswith("1234567 clipped runs")
+    # a limit written with one decimal judges and shows the count at 0.1 (the rule's display step)
+    f = check_limits("integrity.clipping", "clipped runs", 2.7,
+                     ceiling("count").model_validate({"max_count": 2.5}))
+    assert f.status == "fail" and f.message.startswith("2.7 clipped runs")
+
+
+def _check(spec_key, check, measurement, unit, **kw):
+    from masterqc.contract import Check
+    return Check(spec_key, check, measurement, unit, spec_key.replace("_", " "), "no value", **kw)
+
+
+def test_judge_checks_leaves_section_checks_and_goes_on_after_a_missing_field():
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec import build_spec
+    sp = build_spec({"spec_version": 1, "name": "invented", "peaks": {"true_peak": {"max_dbtp": -1.0},
+                                                                      "sample_peak": {"max_dbfs": -0.5}}})
+    checks = [_check("true_peak", "peaks.true_peak", "true_peak_dbtp", "dbtp", kind="section"),
+              _check("true_peak", "peaks.true_peak", "true_peak_dbtp", "dbtp"),
+              _check("sample_peak", "peaks.sample_peak", "sample_peak_dbfs", "dbfs")]
+    got = judge_checks(sp.peaks, {"measurements": {"sample_peak_dbfs": -0.2}}, checks)
+    assert [(f.check, f.status) for f in got] == [("peaks.true_peak", "skipped"), ("peaks.sample_peak", "fail")]
+    assert got[0].message == "True peak: not judged; the measurement true_peak_dbtp is missing from the result."
+    with pytest.raises(ValueError, match="check peaks.true_peak: requirement unit 'dbtp' is not the measurement's 'db'"):
+        judge_checks(sp.peaks, {"measurements": {}}, [_check("true_peak", "peaks.true_peak", "x", "db")])
+
+
+def test_a_null_loudness_of_a_programme_one_gating_block_long_is_below_the_gate():
+    # ITU-R BS.1770-4, section 2.1 (gating blocks of 400 ms): a programme of at least one block whose
+    # integrated loudness is null lies below the gate; a shorter one has no block and is not judged
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec import build_spec
+    from masterqc.spec.sections import loudness
+    sp = build_spec({"spec_version": 1, "name": "invented",
+                     "loudness": {"integrated": {"target_lufs": -23.0, "tolerance_lu": 1.0}}})
+    def status(duration_s):
+        got = judge_checks(sp.loudness, {"format": {"duration_s": duration_s},
+                                         "measurements": {"integrated_lufs": None}}, loudness.CHECKS)
+        return [(f.check, f.status, f.measured_text) for f in got]
+    assert status(0.4) == [("loudness.integrated", "fail", "below measurable range")]
+    assert status(0.39) == [("loudness.integrated", "skipped", None)]
