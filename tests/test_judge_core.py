@@ -492,3 +492,14 @@ def test_a_null_loudness_of_a_programme_one_gating_block_long_is_below_the_gate(
         return [(f.check, f.status, f.measured_text) for f in got]
     assert status(0.4) == [("loudness.integrated", "fail", "below measurable range")]
     assert status(0.39) == [("loudness.integrated", "skipped", None)]
+
+
+def test_count_and_zero_ceiling_messages():
+    # the miss is the shown value minus the limit: 5 - 2 = 3 runs over, 3 - 1 = 2 runs short (house wording)
+    f = check_limits("c", "clipped runs", 5, ceiling("count").model_validate({"max_count": 2}))
+    assert (f.status, f.miss, f.message) == ("fail", 3.0, "5 clipped runs, 3 more than the limit of 2.")
+    f = check_limits("c", "clipped runs", 1, floor("count").model_validate({"min_count": 3}))
+    assert (f.status, f.miss, f.message) == ("fail", 2.0, "1 clipped run, 2 fewer than the limit of 3.")
+    # "where the spec allows none" is for counts only: a level ceiling of 0 reads as a level
+    f = check_limits("c", "level", 0.3, ceiling("dbfs").model_validate({"max_dbfs": 0}))
+    assert f.message == "Level is 0.3 dBFS, 0.3 dB above the limit of 0.0 dBFS."
