@@ -503,3 +503,24 @@ def test_count_and_zero_ceiling_messages():
     # "where the spec allows none" is for counts only: a level ceiling of 0 reads as a level
     f = check_limits("c", "level", 0.3, ceiling("dbfs").model_validate({"max_dbfs": 0}))
     assert f.message == "Level is 0.3 dBFS, 0.3 dB above the limit of 0.0 dBFS."
+
+
+def test_limits_in_words():
+    # house wording; the decimals are the rule's display step unless given
+    from masterqc.judge.core import limit_words
+    assert limit_words(ceiling("count").model_validate({"max_count": 0})) == "none"
+    assert limit_words(ceiling("count").model_validate({"max_count": 2})) == "at most 2"
+    assert limit_words(ceiling("dbfs").model_validate({"max_dbfs": 0})) == "at most 0.0 dBFS"
+    assert limit_words(bounds("s").model_validate({"min_s": 10.0, "max_s": 60.0})) == "10.000 to 60.000 s"
+    assert limit_words(floor("bits").model_validate({"min_bits": 24})) == "at least 24 bits"
+    assert limit_words(tp(-1.0), 3) == "at most -1.000 dBTP"
+    tgt = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    assert limit_words(tgt) == "-23.0 LUFS \u00b1 1.0 LU"
+    assert limit_words(tgt, 2) == "-23.00 LUFS \u00b1 1.00 LU"
+
+
+def test_a_sentence_keeps_its_own_end_mark():
+    from masterqc.judge.core import sentence
+    assert sentence("level is loud!") == "Level is loud!"
+    assert sentence("is it?") == "Is it?"
+    assert sentence("  bext description is empty ") == "bext description is empty."
