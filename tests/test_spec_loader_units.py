@@ -695,3 +695,12 @@ def test_a_library_base_may_extend_another_library_base(tmp_path):
     top = write(tmp_path / "specs", "top.yaml", GOOD + "extends: label.yaml\n")
     ls = L.load_spec(top, libraries=[tmp_path / "lib", tmp_path / "lib2"])
     assert ls.spec.peaks.true_peak.max_dbtp == -1.5
+
+
+def test_keys_after_a_repeated_or_non_scalar_key_are_still_read():
+    text = GOOD + "description: a\ndescription: b\n[x]: 1\nversion: 2\n"
+    data, _pos, probs = L.parse_yaml(text, "k.yaml")
+    assert [(p[1], p[2], p[4]) for p in probs] == [
+        ("description", 4, "key 'description' is given twice"),
+        ("", 5, "a key must be a plain word, not a list or mapping")]
+    assert data == {"spec_version": 1, "name": "invented house spec", "description": "a", "version": 2}
