@@ -102,11 +102,13 @@ def _schema_errors(root) -> list[str]:
     import jsonschema
     from masterqc.contract import RESULT_FORMAT_VERSION
     from masterqc.schema import result_schema
-    validator = jsonschema.Draft202012Validator(result_schema())
+    validator = None  # built on the first saved result: most tests save none (schema generation costs seconds)
     out = []
     for path, data in _saved_results(root):
         if data.get("result_format") != RESULT_FORMAT_VERSION:
             continue  # an older saved result written on purpose (upgrade tests)
+        if validator is None:
+            validator = jsonschema.Draft202012Validator(result_schema())
         errors = sorted(validator.iter_errors(data), key=lambda e: list(e.path))
         if errors:
             out.append(f"{path}: {errors[0].message} at {'/'.join(map(str, errors[0].path))}")

@@ -295,3 +295,18 @@ def test_a_quoted_version_number_gets_a_plain_message(tmp_path, capsys):
     code, _, err = run_cli(["spec", "validate", spec], capsys)
     assert code == 2
     assert "write the number 1 without quotes" in err and "supported: 1" not in err
+
+
+def test_alias_bomb_is_refused_quickly(tmp_path):
+    # full size (10**9 values once expanded): the loader stops at its own budget of 100 000 values
+    # (house choice). Kept out of `make mutation` (a second per mutant); test_spec_loader_units.py
+    # checks the same budget at a small size.
+    lines = ["spec_version: 1", "name: bomb", "a0: &a0 [x, x, x, x, x, x, x, x, x, x]"]
+    for i in range(1, 9):
+        prev = f"*a{i - 1}"
+        lines.append(f"a{i}: &a{i} [{', '.join([prev] * 10)}]")
+    p = write(tmp_path, "bomb.yaml", "\n".join(lines) + "\n")
+    with pytest.raises(SpecError) as e:
+        load_spec(p)
+    (problem,) = e.value.problems
+    assert problem[4] == "the spec expands to more than 100000 values (aliases repeated?)"

@@ -388,3 +388,143 @@ def test_below_measurable_of_a_unitless_floor_has_no_trailing_space():
     f = check_below_measurable("c", "count", floor("count").model_validate({"min_count": 1}), "nothing to count")
     assert f.message == "Count: nothing to count, so it is below the limit of 1."
     assert (f.measured, f.measured_raw, f.miss) == (None, None, None)
+
+
+# ------------------------------------------------------------------ wording helpers (house choice)
+
+def test_counts_in_words_print_whole_numbers_plainly():
+    from masterqc.judge.core import count_words
+    assert count_words(2.0, "clipped runs") == "2 clipped runs"  # a float count drops its ".0"
+    assert count_words(2.5, "s") == "2.5 s"
+    assert count_words(1234567, "samples") == "1234567 samples"  # an int is never put in exponent form
+
+
+def test_three_allowed_values_read_as_a_list_with_or():
+    req = allowed(str, "wav").model_validate(["wav", "aiff", "flac"])
+    f = check_allowed("format.container", "container", "mp3", req)
+    assert f.limit == "wav, aiff or flac"
+    assert f.message == "Container is mp3, which the spec does not allow (allowed: wav, aiff or flac)."
+
+
+def test_a_dotted_field_outside_the_result_parts_is_a_measurement_key():
+    from masterqc.judge.core import measured_field
+    result = {"format": {"duration_s": 12.5}, "measurements": {"band.level_db": -3.0, "x": None}}
+    assert measured_field(result, "format.duration_s") == (True, 12.5)
+    assert measured_field(result, "band.level_db") == (True, -3.0)  # "band" is not a result part
+    assert measured_field(result, "x") == (True, None)
+    assert measured_field(result, "format.rate") == (False, None)
+    assert measured_field({}, "metadata.bext") == (False, None)
+
+
+def test_a_layout_measured_as_a_tuple_is_compared_as_a_list():
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec.sections import format as fmt_section
+    from masterqc.spec import build_spec
+    sec = build_spec({"spec_version": 1, "name": "invented", "format": {"channel_layouts": [["L", "R"]]}}).format
+    ok, = judge_checks(sec, {"format": {"channel_layout": ("L", "R"), "channel_layout_source": "mask"}},
+                       fmt_section.CHECKS)
+    assert (ok.check, ok.status, ok.measured) == ("format.channel_layout", "pass", ["L", "R"])
+    bad, = judge_checks(sec, {"format": {"channel_layout": ("R", "L"), "channel_layout_source": "mask"}},
+                        fmt_section.CHECKS)
+    assert (bad.status, bad.message) == (
+        "fail", "Channel layout is [R, L], which the spec does not allow (allowed: [L, R]).")
+
+
+def test_a_yes_no_value_without_sentences_is_shown_as_yes_or_no():
+    req = allowed(bool, "false").model_validate([False])
+    f = check_allowed("integrity.dual_mono", "dual mono", True, req)
+    assert (f.status, f.measured, f.measured_text, f.limit) == ("fail", True, "yes", "no")
+    assert f.message == "Dual mono is yes, which the spec does not allow (allowed: no)."
+    p = check_allowed("integrity.dual_mono", "dual mono", False, req)
+    assert (p.status, p.measured_text, p.message) == ("pass", "no", "Dual mono is no (allowed: no).")
+    # a value that is not yes/no is shown as it is, even against a yes/no requirement
+    n = check_allowed("integrity.dual_mono", "dual mono", 0, req)
+    assert n.measured_text == "0"
+    # with sentences, a value that is not yes/no still reads "is ..."
+    s = check_allowed("x", "flag", "maybe", req, says=("It is set", "It is not set"))
+    assert s.message == "Flag is maybe, which the spec does not allow (allowed: no)."
+
+
+def test_a_judged_finding_carries_the_target():
+    req = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    f = check_limits("loudness.integrated", "integrated loudness", -23.4, req)
+    assert (f.status, f.target, f.limit_low, f.limit_high) == ("pass", -23.0, -24.0, -22.0)
+    assert check_limits("loudness.integrated", "integrated loudness", -21.0, req).target == -23.0
+
+
+def test_counts_are_shown_whole_or_at_the_decimals_the_spec_writes():
+    # house choice: a count of a plural noun reads "N clipped runs"; a whole count is never in exponent form
+    f = check_limits("integrity.clipping", "clipped runs", 1234567, ceiling("count").model_validate({"max_count": 0}))
+    assert f.status == "fail" and f.message.startswith("1234567 clipped runs")
+    # a limit written with one decimal judges and shows the count at 0.1 (the rule's display step)
+    f = check_limits("integrity.clipping", "clipped runs", 2.7,
+                     ceiling("count").model_validate({"max_count": 2.5}))
+    assert f.status == "fail" and f.message.startswith("2.7 clipped runs")
+
+
+def _check(spec_key, check, measurement, unit, **kw):
+    from masterqc.contract import Check
+    return Check(spec_key, check, measurement, unit, spec_key.replace("_", " "), "no value", **kw)
+
+
+def test_judge_checks_leaves_section_checks_and_goes_on_after_a_missing_field():
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec import build_spec
+    sp = build_spec({"spec_version": 1, "name": "invented", "peaks": {"true_peak": {"max_dbtp": -1.0},
+                                                                      "sample_peak": {"max_dbfs": -0.5}}})
+    checks = [_check("true_peak", "peaks.true_peak", "true_peak_dbtp", "dbtp", kind="section"),
+              _check("true_peak", "peaks.true_peak", "true_peak_dbtp", "dbtp"),
+              _check("sample_peak", "peaks.sample_peak", "sample_peak_dbfs", "dbfs")]
+    got = judge_checks(sp.peaks, {"measurements": {"sample_peak_dbfs": -0.2}}, checks)
+    assert [(f.check, f.status) for f in got] == [("peaks.true_peak", "skipped"), ("peaks.sample_peak", "fail")]
+    assert got[0].message == "True peak: not judged; the measurement true_peak_dbtp is missing from the result."
+    with pytest.raises(ValueError, match="check peaks.true_peak: requirement unit 'dbtp' is not the measurement's 'db'"):
+        judge_checks(sp.peaks, {"measurements": {}}, [_check("true_peak", "peaks.true_peak", "x", "db")])
+
+
+def test_a_null_loudness_of_a_programme_one_gating_block_long_is_below_the_gate():
+    # ITU-R BS.1770-4, section 2.1 (gating blocks of 400 ms): a programme of at least one block whose
+    # integrated loudness is null lies below the gate; a shorter one has no block and is not judged
+    from masterqc.judge.core import judge_checks
+    from masterqc.spec import build_spec
+    from masterqc.spec.sections import loudness
+    sp = build_spec({"spec_version": 1, "name": "invented",
+                     "loudness": {"integrated": {"target_lufs": -23.0, "tolerance_lu": 1.0}}})
+    def status(duration_s):
+        got = judge_checks(sp.loudness, {"format": {"duration_s": duration_s},
+                                         "measurements": {"integrated_lufs": None}}, loudness.CHECKS)
+        return [(f.check, f.status, f.measured_text) for f in got]
+    assert status(0.4) == [("loudness.integrated", "fail", "below measurable range")]
+    assert status(0.39) == [("loudness.integrated", "skipped", None)]
+
+
+def test_count_and_zero_ceiling_messages():
+    # the miss is the shown value minus the limit: 5 - 2 = 3 runs over, 3 - 1 = 2 runs short (house wording)
+    f = check_limits("c", "clipped runs", 5, ceiling("count").model_validate({"max_count": 2}))
+    assert (f.status, f.miss, f.message) == ("fail", 3.0, "5 clipped runs, 3 more than the limit of 2.")
+    f = check_limits("c", "clipped runs", 1, floor("count").model_validate({"min_count": 3}))
+    assert (f.status, f.miss, f.message) == ("fail", 2.0, "1 clipped run, 2 fewer than the limit of 3.")
+    # "where the spec allows none" is for counts only: a level ceiling of 0 reads as a level
+    f = check_limits("c", "level", 0.3, ceiling("dbfs").model_validate({"max_dbfs": 0}))
+    assert f.message == "Level is 0.3 dBFS, 0.3 dB above the limit of 0.0 dBFS."
+
+
+def test_limits_in_words():
+    # house wording; the decimals are the rule's display step unless given
+    from masterqc.judge.core import limit_words
+    assert limit_words(ceiling("count").model_validate({"max_count": 0})) == "none"
+    assert limit_words(ceiling("count").model_validate({"max_count": 2})) == "at most 2"
+    assert limit_words(ceiling("dbfs").model_validate({"max_dbfs": 0})) == "at most 0.0 dBFS"
+    assert limit_words(bounds("s").model_validate({"min_s": 10.0, "max_s": 60.0})) == "10.000 to 60.000 s"
+    assert limit_words(floor("bits").model_validate({"min_bits": 24})) == "at least 24 bits"
+    assert limit_words(tp(-1.0), 3) == "at most -1.000 dBTP"
+    tgt = target("lufs").model_validate({"target_lufs": -23.0, "tolerance_lu": 1.0})
+    assert limit_words(tgt) == "-23.0 LUFS \u00b1 1.0 LU"
+    assert limit_words(tgt, 2) == "-23.00 LUFS \u00b1 1.00 LU"
+
+
+def test_a_sentence_keeps_its_own_end_mark():
+    from masterqc.judge.core import sentence
+    assert sentence("level is loud!") == "Level is loud!"
+    assert sentence("is it?") == "Is it?"
+    assert sentence("  bext description is empty ") == "bext description is empty."

@@ -353,3 +353,26 @@ def test_every_section_message_in_full(spec):
     # a layout that is known is judged and the checks after it still run
     assert [f.check for f in judge(spec, result(channel_layout_source="unknown"))[0]][:3] == \
         ["format.container", "format.sample_rate", "format.channel_layout"]
+
+
+def test_headroom_rounds_each_figure_at_1e_9_db():
+    from masterqc.judge.normalisation import headroom
+    # house choice: figures are kept to 1e-9 dB. 6e-11 dB of float noise is dropped at 9 decimals
+    # (it would show as 1e-10 dB at 10): in the gain, in the peak after the gain, in the limiting
+    assert headroom({"integrated_lufs": -20.00000000006, "true_peak_dbtp": -3.0}, -14.0, -1.0)["gain_db"] == 6.0
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.00000000006}, -14.0, -1.0)
+    assert h["true_peak_after_gain_dbtp"] == 3.0
+    h = headroom({"integrated_lufs": -20.0, "true_peak_dbtp": -3.0}, -14.0, -1.00000000006)
+    assert h["limiting_needed_db"] == 4.0
+
+
+def test_figures_for_carry_where_target_and_ceiling_came_from():
+    from masterqc.judge.normalisation import figures_for
+    sp = load_spec_text("spec_version: 1\nname: invented\n"
+                        "loudness: {integrated: {target_lufs: -14.0, tolerance_lu: 1.0}}\n"
+                        "peaks: {true_peak: {max_dbtp: -1.0}}\n").spec
+    fig = figures_for(sp.normalisation, {"measurements": {"integrated_lufs": -20.0, "true_peak_dbtp": -3.0}})
+    # -20 LUFS to -14 LUFS: +6 dB; -3 dBTP + 6 dB = +3 dBTP, 4 dB over the -1 dBTP ceiling
+    assert fig == {"target_lufs": -14.0, "target_source": "loudness.integrated", "ceiling_dbtp": -1.0,
+                   "ceiling_source": "peaks.true_peak", "gain_db": 6.0, "true_peak_after_gain_dbtp": 3.0,
+                   "limiting_needed_db": 4.0, "note": None}

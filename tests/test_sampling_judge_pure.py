@@ -632,3 +632,49 @@ def test_conversion_misses_at_severity_warn_and_fail_name_converter_and_folds():
     assert (f.status, f.miss, verdict) == ("fail", 20.0, "fail")
     assert f.message.endswith("20.0 dB above the limit of -40.0 dB. A converter without an anti-alias filter would fold 24.00-30.00 kHz to "
                               "18.00-24.00 kHz.")
+
+
+def test_imaging_detail_names_evidence_from_the_sample_pattern():
+    sp = spec(imaging=[False])
+    m = {"imaging_detected": True,
+         "imaging": [{"source_rate_hz": 44100, "verdict": "defect", "coherence": None, "image_level_db": None,
+                      "evidence": "samples", "channel": "R"},
+                     {"source_rate_hz": 48000, "verdict": "trace", "coherence": None, "image_level_db": None,
+                      "evidence": "spectrum"}]}
+    f = run(sp, m)[0]["sampling.imaging"]
+    assert f.message.endswith(". 44.1 kHz source: defect, from the sample pattern (R); 48 kHz source: trace.")
+
+
+SHARP_TAIL = ("waveform jumps between two samples with no band-limited transition (12 such jumps): its partials "
+              "above 24 kHz keep their strength and all fold back.")
+
+
+@pytest.mark.parametrize("extra, sentence", [
+    ({}, "The " + SHARP_TAIL),
+    ({"folded_partials": 1}, "Also, the " + SHARP_TAIL),  # after the partials sentence
+    ({"frames_with_alias_lines": 3}, "Also, the " + SHARP_TAIL),  # after the notes sentence
+    # steps on a sample-and-hold grid or at a fixed period are told another way: no sentence
+    ({"sharp_steps_on_hold_grid_hz": 8000.0}, None),
+    ({"sharp_steps_period_samples": 6}, None),
+])
+def test_aliasing_message_sample_sharp_steps(extra, sentence):
+    sp = spec(aliasing=[False])
+    detail = {"sharp_steps": 12, "reason": "sample-sharp steps", **extra}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"].message
+    if sentence is None:
+        assert "waveform jumps" not in msg
+    else:
+        assert sentence in msg
+        assert msg.index(sentence) > msg.index("the spec does not allow this")
+        assert msg.endswith("with a proper resampler.")
+
+
+def test_aliasing_message_sharp_steps_need_the_reason():
+    sp = spec(aliasing=[False])
+    for reason in (None, "folded partials", ""):
+        detail = {"sharp_steps": 12, "reason": reason}
+        msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"]
+        assert "waveform jumps" not in msg.message
+    detail = {"sharp_steps": 0, "reason": "sample-sharp steps"}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"]
+    assert "waveform jumps" not in msg.message

@@ -583,3 +583,132 @@ def test_problems_on_one_line_are_in_column_order():
     got = msgs("peaks: {sample_peak: {max_dbfs: x}, true_peak: {max_dbtp: y}}\n")
     assert [(p[1], p[2], p[3]) for p in got] == [("peaks.sample_peak.max_dbfs", 3, 33),
                                                  ("peaks.true_peak.max_dbtp", 3, 59)]
+
+
+# ------------------------------------------------------------------ the spec object of a result; schema header
+
+def test_info_is_the_spec_object_of_a_result():
+    # the keys of a result's "spec" object are the result contract's (house choice)
+    text = GOOD + "version: 2.1\nreport: {client: Invented Client, job: '', operator: A. Tester}\n"
+    ls = L.load_spec_text(text, "inline")
+    digest = hashlib.sha256(text.encode()).hexdigest()
+    assert ls.info() == {"name": "invented house spec", "path": "inline", "sha256": digest,
+                         "files": [{"path": "inline", "sha256": digest}], "version": "2.1",
+                         "report": {"client": "Invented Client", "operator": "A. Tester"}}  # empty job left out
+    ls.report_fields = {"job": "J-7", "operator": "B. Checker"}  # --field overrides the spec's own fields
+    ls.from_delivery_folder = True
+    info = ls.info()
+    assert info["report"] == {"client": "Invented Client", "job": "J-7", "operator": "B. Checker"}
+    assert info["from_delivery_folder"] is True
+    assert info["files"] is not ls.files[0] and info["files"][0] is not ls.files[0]  # copies, not the loader's own
+    bare = L.load_spec_text(GOOD, "inline").info()
+    assert set(bare) == {"name", "path", "sha256", "files"}  # no version, no report, not from the folder
+    only_cli = L.load_spec_text(GOOD, "inline")
+    only_cli.report_fields = {"client": "C"}
+    assert only_cli.info()["report"] == {"client": "C"}
+    assert L.load_spec_text(GOOD + "version: 3\n", "inline").info()["version"] == "3"
+
+
+def test_validation_problems_of_inline_text_name_the_given_name():
+    with pytest.raises(SpecError) as e:
+        L.load_spec_text(GOOD + "description: [1]\n", "inline text")
+    assert [p[:3] for p in problems(e)] == [("inline text", "description", 3)]
+
+
+def test_suggestion_without_valid_keys_is_empty():
+    assert L._suggest("anything", []) == ""
+
+
+def test_model_at_a_scalar_or_list_of_scalars_is_none():
+    from masterqc.spec.model import spec_model
+    assert L._model_at(()) is spec_model()
+    assert L._model_at(("peaks",)).__name__ == "PeaksSection"
+    assert L._model_at(("name",)) is None  # a text, not a mapping
+    assert L._model_at(("sampling", "conversions")) is None  # a list, not a mapping
+    assert L._model_at(("sampling", "conversions", 0)) is not None  # each item is a mapping
+    assert L._model_at(("no_such_key",)) is None
+
+
+def test_published_spec_schema_declares_its_draft_and_title():
+    from masterqc.spec.model import spec_json_schema
+    schema = spec_json_schema()
+    # JSON Schema 2020-12, Core, section 8.1.1: "$schema" names the dialect by this URI
+    assert schema["$schema"] == "https://json-schema.org/draft/2020-12/schema"
+    assert schema["title"] == "masterqc delivery spec"  # house choice
+
+
+def test_a_strict_lower_bound_is_named():
+    # dropout_min_s must be above 0 (house choice: a dropout has a length)
+    assert msgs("integrity: {dropout_min_s: 0}\n") == [
+        ("t.yaml", "integrity.dropout_min_s", 3, 28, "the number 0 is out of range: must be greater than 0")]
+
+
+def test_one_message_at_two_keys_of_one_line_is_kept_twice():
+    # problems are told apart by key path and message, not by line
+    got = msgs("peaks: {sample_peak: {max_dbfs: x}, true_peak: {max_dbtp: x}}\n")
+    assert [(p[1], p[2]) for p in got] == [("peaks.sample_peak.max_dbfs", 3), ("peaks.true_peak.max_dbtp", 3)]
+    assert got[0][4] == got[1][4]
+
+
+def test_the_value_budget_counts_every_expanded_value(monkeypatch):
+    # the budget (house choice: MAX_VALUES = 100 000) at a small size, so it stays cheap under make mutation
+    assert L.MAX_VALUES == 100_000
+    monkeypatch.setattr(L, "MAX_VALUES", 20)
+    # a mapping of two keys, each a list of 3: 1 + 2 keys' values + 2 * 3 items = 9 values;
+    # the document mapping and its two keys (spec_version, name) are 3 more, then "a" and "b"
+    body = "a: &x [1, 2, 3]\nb: *x\n"
+    # values (keys are not counted): the document mapping 1, spec_version and name 2, the list under a 1
+    # and its items 3, the same list again under b 1 + 3: 11
+    monkeypatch.setattr(L, "MAX_VALUES", 11)
+    data, _pos, probs = L.parse_yaml(GOOD + body, "b.yaml")
+    assert probs == [] and data["b"] == [1, 2, 3]
+    monkeypatch.setattr(L, "MAX_VALUES", 10)
+    (p,) = L.parse_yaml(GOOD + body, "b.yaml")[2]
+    # the 11th value is b's last item: the aliased node, written on line 3, column 14
+    assert p == ("b.yaml", "", 3, 14, "the spec expands to more than 10 values (aliases repeated?)")
+    bomb = "a0: &a0 [x, x, x]\na1: &a1 [*a0, *a0, *a0]\na2: [*a1, *a1, *a1]\n"  # 3 + 9 + 27 items
+    monkeypatch.setattr(L, "MAX_VALUES", 20)
+    (p,) = L.parse_yaml(GOOD + bomb, "b.yaml")[2]
+    assert p[0] == "b.yaml" and p[4] == "the spec expands to more than 20 values (aliases repeated?)"
+
+
+def test_a_repeated_error_is_listed_once_and_the_rest_still_follow():
+    # house choice: one problem per key path and message (pydantic may report one key more than once
+    # through a union); the errors are built by hand here, as pydantic documents for from_exception_data
+    from pydantic import ValidationError
+    text = GOOD + "description: 3\nversion: [1]\n"
+    data, pos, probs = L.parse_yaml(text, "r.yaml")
+    assert probs == []
+    err = {"type": "string_type", "loc": ("description",), "input": 3}
+    exc = ValidationError.from_exception_data("Spec", [err, dict(err), {"type": "list_type", "loc": ("version",),
+                                                                         "input": 1}])
+    assert L.problems_from_validation(exc, data, pos, "r.yaml") == [
+        ("r.yaml", "description", 3, 14, "expected text, got the number 3"),
+        ("r.yaml", "version", 4, 10, "expected a list (e.g. [a, b]), got the number 1")]
+
+
+def test_every_base_of_a_list_is_looked_at_after_a_bad_one(tmp_path):
+    write(tmp_path, "b.yml", GOOD + "peaks: {true_peak: {max_dbtp: -2.0}}\n")  # .yml is a spec file name too
+    top = write(tmp_path, "top.yaml", GOOD + "extends: [/abs/x.yaml, base.txt, missing.yaml]\n")
+    with pytest.raises(SpecError) as e:
+        L.load_spec(top)
+    assert [(p[1], p[3]) for p in problems(e)] == [("extends[0]", 11), ("extends[1]", 24), ("extends[2]", 34)]
+    assert L.load_spec(write(tmp_path, "top2.yaml", GOOD + "extends: [b.yml]\n")).spec.peaks.true_peak.max_dbtp \
+        == -2.0
+
+
+def test_a_library_base_may_extend_another_library_base(tmp_path):
+    write(tmp_path / "lib", "house.yaml", GOOD + "peaks: {true_peak: {max_dbtp: -1.5}}\n")
+    write(tmp_path / "lib2", "label.yaml", GOOD + "extends: house.yaml\n")
+    top = write(tmp_path / "specs", "top.yaml", GOOD + "extends: label.yaml\n")
+    ls = L.load_spec(top, libraries=[tmp_path / "lib", tmp_path / "lib2"])
+    assert ls.spec.peaks.true_peak.max_dbtp == -1.5
+
+
+def test_keys_after_a_repeated_or_non_scalar_key_are_still_read():
+    text = GOOD + "description: a\ndescription: b\n[x]: 1\nversion: 2\n"
+    data, _pos, probs = L.parse_yaml(text, "k.yaml")
+    assert [(p[1], p[2], p[4]) for p in probs] == [
+        ("description", 4, "key 'description' is given twice"),
+        ("", 5, "a key must be a plain word, not a list or mapping")]
+    assert data == {"spec_version": 1, "name": "invented house spec", "description": "a", "version": 2}

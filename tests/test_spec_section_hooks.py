@@ -67,3 +67,19 @@ def test_options_start_from_a_given_base():
     opts = measure_options_for(spec(sampling={"ultrasonic_from_hz": 30000}), base)
     assert (opts.timecode_fps, opts.ultrasonic_from_hz, opts.extra) == ("24", 30000.0, {"note": 1})
     assert base.extra == {"note": 1} and opts.extra is not base.extra
+
+
+def test_normalisation_target_and_ceiling_name_the_key_they_came_from():
+    # house choice (normalisation.py docstring): the section's own keys first, else the loudness target
+    # and the true-peak ceiling
+    own = spec(normalisation={"target_lufs": -14.0, "ceiling_dbtp": -1.0},
+               loudness={"integrated": {"target_lufs": -23.0, "tolerance_lu": 1.0}},
+               peaks={"true_peak": {"max_dbtp": -2.0}}).normalisation
+    assert (own.target_lufs, own.target_source, own.ceiling_dbtp, own.ceiling_source) == (
+        -14.0, "normalisation.target_lufs", -1.0, "normalisation.ceiling_dbtp")
+    taken = spec(loudness={"integrated": {"target_lufs": -23.0, "tolerance_lu": 1.0}},
+                 peaks={"true_peak": {"max_dbtp": -2.0}}).normalisation
+    assert (taken.target_lufs, taken.target_source, taken.ceiling_dbtp, taken.ceiling_source) == (
+        -23.0, "loudness.integrated", -2.0, "peaks.true_peak")
+    none = spec().normalisation
+    assert (none.target_lufs, none.target_source, none.ceiling_dbtp, none.ceiling_source) == (None, None, None, None)
