@@ -77,6 +77,7 @@ def test_jobs_2_matches_jobs_1_and_renders_in_the_workers(folder, monkeypatch):
     o1, out1, log1 = runs[1]
     o2, out2, log2 = runs[2]
     assert o1.exit_code == o2.exit_code == 3  # the broken file: not readable
+    # by construction: the fixture folder holds five files, 00-03.wav readable and 04.wav broken
     assert o1.summary["counts"]["files"] == 5 and o1.summary["counts"]["measured"] == 5  # (the broken one: tried, unreadable)
     assert comparable(out1) == comparable(out2)
     for f in o2.summary["files"]:  # every report written, by the workers
@@ -122,6 +123,7 @@ def test_rejudged_reports_are_rendered_by_the_workers(folder, monkeypatch):
         assert "Throughput test label" in page and "FAIL" in page
     assert comparable(runs[1][1]) == comparable(runs[2][1])
     rendered2 = [r for r in runs[2][2] if r["stage"] == "render_html"]
+    # by construction: the folder holds five masters (00-04.wav; 04 is broken and still gets a report)
     assert len(rendered2) == 5 and {r["role"] for r in rendered2} == {"worker"}
     assert not [r for r in runs[2][2] if r["stage"] == "measure"]
 
@@ -146,6 +148,7 @@ def test_longest_file_is_started_first(folder, tmp_path):
     finally:
         runner_mod.make_backend = real
     # sizes follow the lengths: 2.0 s, 1.4 s, 1.0 s, 0.6 s, then the 20-byte broken file
+    # by construction: the fixture writes four readable masters of 0.6, 2.0, 1.0 and 1.4 s; longest first is 01, 03, 02, 00
     assert seen[:4] == ["01.wav", "03.wav", "02.wav", "00.wav"], seen
 
 

@@ -692,6 +692,7 @@ def test_every_base_of_a_list_is_looked_at_after_a_bad_one(tmp_path):
     top = write(tmp_path, "top.yaml", GOOD + "extends: [/abs/x.yaml, base.txt, missing.yaml]\n")
     with pytest.raises(SpecError) as e:
         L.load_spec(top)
+    # by construction: the columns (1-based) of the three list items in the "extends: [...]" line above
     assert [(p[1], p[3]) for p in problems(e)] == [("extends[0]", 11), ("extends[1]", 24), ("extends[2]", 34)]
     assert L.load_spec(write(tmp_path, "top2.yaml", GOOD + "extends: [b.yml]\n")).spec.peaks.true_peak.max_dbtp \
         == -2.0
