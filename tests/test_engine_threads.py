@@ -203,3 +203,27 @@ def test_file_facts_are_the_same_with_threads(tmp_path):
     assert one == two
     assert two["sha256"] == hashlib.sha256(path.read_bytes()).hexdigest()
     assert two["size_bytes"] == path.stat().st_size
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_opt_in_cpu_split_changes_no_result(tmp_path, monkeypatch, threads):
+    """``MASTERQC_ANALYZER_CPU_JSON`` (house choice: opt-in profiling) writes each applied
+    analyzer's CPU seconds in process() and finish() and leaves every result as it was."""
+    from masterqc.measure import engine
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(6.0), FS, subtype="PCM_24")
+    plain = _result_text(path, threads=threads)
+    split_path = tmp_path / "split.json"
+    monkeypatch.setenv(engine.CPU_SPLIT_ENV, str(split_path))
+    assert _result_text(path, threads=threads) == plain
+    data = json.loads(split_path.read_text())
+    assert data["threads"] == threads
+    names = {cls.__name__ for cls in analyzer_classes()}
+    assert {"LoudnessAnalyzer", "TruePeakAnalyzer", "SamplePeakAnalyzer"} <= set(data["analyzers"]) <= names
+    for process_s, finish_s in data["analyzers"].values():
+        assert process_s >= 0.0 and finish_s >= 0.0
+    # the true-peak meter does real work on 6 s of audio: its process time cannot be zero,
+    # and the analyzers' parts cannot exceed the CPU time of the whole run
+    assert data["analyzers"]["TruePeakAnalyzer"][0] > 0.0
+    assert sum(map(sum, data["analyzers"].values())) <= data["process_cpu_s"] + 0.05
+

@@ -409,6 +409,8 @@ class TruePeakMeter:
 
     - ``peak_linear``: per-channel maximum of ``|x|`` over every instant of the
       reading grid (phase 0 included, so never below the sample peak), shape (C,);
+    - ``sample_peak_linear``: per-channel maximum of ``|x|`` over the input samples
+      (float64, exact), shape (C,);
     - ``envelope_linear``: with ``bucket_frames``, the maximum over channels and
       instants in each bucket of that many frames (``buckets`` of them; frames
       past the last bucket count in it);
@@ -476,6 +478,8 @@ class TruePeakMeter:
         self.bucket_frames = None if bucket_frames is None else max(1, int(bucket_frames))
         self.envelope_linear = np.zeros(max(1, int(buckets)) if bucket_frames else 0)
         self.peak_linear = np.zeros(self.channels)
+        #: per-channel max |x| of the samples evaluated so far (float64, exact)
+        self.sample_peak_linear = np.zeros(self.channels)
         self.frames_done = 0
         self.refined_frames = 0
         self._received = 0
@@ -552,6 +556,7 @@ class TruePeakMeter:
         else:
             fp = scan.max(axis=0)
             self._bucket_update(start, fp[:m])
+        np.maximum(self.sample_peak_linear, sample_peak, out=self.sample_peak_linear)
         np.maximum(self.peak_linear, sample_peak, out=self.peak_linear)
         np.maximum(self.peak_linear, scan.max(axis=1), out=self.peak_linear)
         self.frames_done += m

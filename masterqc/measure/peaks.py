@@ -74,7 +74,14 @@ def bucket_frames_for(frames: int, buckets: int = ENVELOPE_BUCKETS) -> int:
 
 
 class SamplePeakAnalyzer(Analyzer):
-    """Largest absolute sample value per channel."""
+    """Largest absolute sample value per channel.
+
+    When a :class:`TruePeakAnalyzer` runs too (the default), its meter already
+    takes the per-channel maximum of ``|x|`` over the same blocks in float64
+    (``TruePeakMeter.sample_peak_linear``, every frame once flushed): this analyzer
+    then takes that figure at :meth:`finish` instead of reading every block
+    again (same value: a maximum of the same numbers is exact).
+    """
 
     name = "sample_peak"
     measurement_schema = {
@@ -89,11 +96,23 @@ class SamplePeakAnalyzer(Analyzer):
     def __init__(self, info, options):
         super().__init__(info, options)
         self.peak = np.zeros(info.channels)
+        self.shared = None            # the TruePeakAnalyzer whose meter holds the sample peaks
+
+    def bind(self, peers) -> None:
+        for peer in peers:
+            if isinstance(peer, TruePeakAnalyzer) and peer.raw_input == self.raw_input:
+                self.shared = peer
+                return
 
     def process(self, block) -> None:
-        np.maximum(self.peak, column_abs_max(block), out=self.peak)
+        if self.shared is None:
+            np.maximum(self.peak, column_abs_max(block), out=self.peak)
 
     def finish(self) -> AnalyzerResult:
+        if self.shared is not None:
+            meter = self.shared.meter
+            meter.flush()             # idempotent; the true-peak analyzer's own finish flushes too
+            self.peak = np.abs(meter.sample_peak_linear)     # an all-zero channel reads +0.0, not -0.0
         per = [linear_to_db(v) for v in self.peak]
         return AnalyzerResult(measurements={
             "sample_peak_dbfs": linear_to_db(self.peak.max()),
