@@ -49,12 +49,19 @@ Method (:func:`assess`):
 4. Mirror test (:func:`mirror_correlations`, in :func:`assess`): an upsampler whose filter lets images
    through (cubic and other short interpolators) copies the spectrum's fine structure, bin for bin, to
    the mirror frequencies about the old Nyquist; where it does over broadband content
-   (:data:`MIRROR_ALONE_CORRELATION`) the lowest such rate is the source, whatever a cliff says.
+   (:data:`MIRROR_ALONE_CORRELATION`) the lowest such rate is the source, whatever a cliff says.  The mirror
+   must hold in every part of the band (:data:`MIRROR_SUBBANDS`): an interpolator copies all the content below
+   the old Nyquist, while a single sound centred on a Nyquist (a short burst at fs/4) is merely symmetric
+   about it.
 5. Without a cliff, the effective bandwidth is the highest frequency where
    ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
    no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
    (median of ``C`` over 1-10 kHz);
    below 0.97 x Nyquist that edge is a (natural) roll-off.
+
+A cliff whose fall a Butterworth low-pass explains (:func:`butterworth_explains`: a straight line in dB
+against ``log10(tan(pi f / fs))``, fitting a digital Butterworth of order at most 12, run once or zero-phase)
+is a band limit, however near a standard Nyquist it lies.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
 least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
