@@ -19,7 +19,8 @@ over a few seeds without listing every pair.  Source material fills its band up 
 own Nyquist frequency (a converter can only leave a cliff where there was content).
 
 Negatives: native wideband material at each rate; Butterworth low-passes of orders 2-12 at
-16-21 kHz (mastering low-passes: slopes no resampler makes); codec-like shelves (a steep
+16-21 kHz (mastering low-passes: slopes no resampler makes), run once and zero-phase (forwards and
+backwards) at 44.1, 48, 88.2 and 96 kHz, elliptic and linear-phase FIR low-passes; codec-like shelves (a steep
 shelf that keeps some content 25-45 dB down, at corners no standard Nyquist explains).
 Steep elliptic and linear-phase FIR low-passes whose cliff lies within 0.85-1.0 of a lower
 standard Nyquist are physically the same thing as a conversion: group "ambiguous-lowpass",
@@ -286,6 +287,40 @@ def _plan(seed: int, quick: bool):
                      ("ambig", fs, corner, kind, pick(mats), float(rng.uniform(-24.0, -8.0)))))
     plan += imaging_plan(seed, quick)
     plan.extend(_plan_filters(seed, quick))
+    plan.extend(_plan_mastering(seed, quick))
+    return plan
+
+
+def _plan_mastering(seed: int, quick: bool):
+    """Mastering low-passes as negatives, drawn from their own generator (the cases above keep their noise):
+    Butterworth orders 2-12 with corners drawn from 16-21 kHz at 44.1, 48, 88.2 and 96 kHz, run once
+    (``butter<N>-<corner>k``) and forwards-backwards (zero-phase, ``butterzp<N>-<corner>k``: the attenuation in
+    dB doubles); elliptic low-passes with a modest stop band and linear-phase FIR low-passes (Kaiser window)
+    at corners no standard Nyquist explains."""
+    rng = np.random.default_rng([int(seed), 11])
+    mats = list(MATERIALS)
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    orders = (2, 4, 6, 8, 10, 12)
+    corners = (16000.0, 17000.0, 18000.0, 19000.0, 20000.0, 21000.0)
+    for fs in (44100, 48000, 88200, 96000):
+        for order in (orders if not quick else (pick(orders[2:]),)):
+            for zp in (False, True):
+                corner = float(pick(corners))
+                fam = f"butter{'zp' if zp else ''}{order}-{corner / 1000:g}k"
+                plan.append((f"m{fam.replace('-', '_')}_{fs}", fam, "lowpass",
+                             ("butter2", fs, order, corner, zp, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    for fs, order, corner, stop_db in ((44100, 6, 16500.0, 60.0), (48000, 8, 18500.0, 80.0),
+                                       (96000, 6, 19000.0, 70.0), (88200, 7, 17000.0, 90.0))[:(2 if quick else 4)]:
+        plan.append((f"mellip{order}_{corner / 1000:g}k_{stop_db:g}db_{fs}", f"ellip{order}-{corner / 1000:g}k",
+                     "lowpass", ("ellip", fs, order, corner, stop_db, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    for fs, taps, corner in ((48000, 255, 17500.0), (44100, 511, 18500.0), (96000, 127, 16500.0),
+                             (88200, 1023, 19000.0))[:(2 if quick else 4)]:
+        plan.append((f"mfir{taps}_{corner / 1000:g}k_{fs}", f"fir{taps}-{corner / 1000:g}k", "lowpass",
+                     ("fir", fs, taps, corner, pick(mats), float(rng.uniform(-24.0, -8.0)))))
     return plan
 
 
@@ -351,6 +386,17 @@ def _build(spec, rng, seconds):
         _k, fs, order, corner, mat, level = spec
         sos = sps.butter(order, corner, fs=fs, output="sos")
         x = sps.sosfilt(sos, multichannel(mat, fs, 2, seconds, rng), axis=0)
+        return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+    if kind == "butter2":
+        _k, fs, order, corner, zp, mat, level = spec
+        sos = sps.butter(order, corner, fs=fs, output="sos")
+        x = multichannel(mat, fs, 2, seconds, rng)
+        x = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
+        return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+    if kind == "fir":
+        _k, fs, taps, corner, mat, level = spec
+        h = sps.firwin(taps, corner, window=("kaiser", 8.0), fs=fs)
+        x = sps.lfilter(h, 1.0, multichannel(mat, fs, 2, seconds, rng), axis=0)
         return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
     if kind == "ellip":
         # a mastering elliptic low-pass (0.1 dB ripple) with a modest stop band

@@ -617,3 +617,116 @@ def test_images_at_a_multiple_name_the_mirrored_divisor():
     assert m["upsampled_from_hz"] == 16000 and m["upsampled_evidence"] == "images"
     m = provenance.from_images({"upsampled_from_hz": None, "upsampled_mirror_rate_hz": 24000, "imaging": imaging})
     assert m["upsampled_from_hz"] == 32000
+
+
+def test_butterworth_attenuation_is_the_analytic_one():
+    # Analytic: an analog Butterworth low-pass of order N has |H|^2 = 1 / (1 + (f / fc)^(2N)), so an 8th-order
+    # one at 20 kHz is 10*log10(1 + (24/20)^16) = 10*log10(19.49) = 12.9 dB down at 24 kHz (the issue's
+    # "about 13 dB"); the
+    # bilinear-transform design tends to it as the file's rate grows (tan(pi f / fs) -> pi f / fs).
+    assert bw.butterworth_db([24000.0], 20000.0, 8, 1e9)[0] == pytest.approx(10 * np.log10(1 + 1.2 ** 16), abs=1e-3)
+    assert bw.butterworth_db([24000.0], 20000.0, 8, 1e9)[0] == pytest.approx(12.898, abs=0.001)
+    # the digital design against scipy's own response (reference library), once and zero-phase (|H|^2 twice)
+    for fs, order, corner in ((48000, 8, 20000.0), (44100, 12, 18000.0), (96000, 4, 16000.0)):
+        f, h = sps.sosfreqz(sps.butter(order, corner, fs=fs, output="sos"), worN=1 << 13, fs=fs)
+        ok = (f > 0) & (f < 0.97 * fs / 2)
+        ref = -20 * np.log10(np.abs(h[ok]))
+        assert np.max(np.abs(bw.butterworth_db(f[ok], corner, order, fs) - ref)) < 1e-6
+        assert np.max(np.abs(bw.butterworth_db(f[ok], corner, order, fs, passes=2) - 2 * ref)) < 1e-6
+
+
+def test_butterworth_linearity_is_order_free():
+    # Analytic: with u = log10(tan(pi f / fs)), a one-pass Butterworth's -d dB point lies at
+    # u_d = u_c + log10(10^(d/10) - 1) / (2N), so (u40 - u30) / (u30 - u20) =
+    # (log10(9999) - log10(999)) / (log10(999) - log10(99)) = 0.9965 for every order, corner and rate;
+    # zero-phase (attenuation doubled): (log10(99) - log10(10^1.5 - 1)) / (log10(10^1.5 - 1) - log10(9)) = 0.958.
+    one = (np.log10(9999) - np.log10(999)) / (np.log10(999) - np.log10(99))
+    two = (np.log10(99) - np.log10(10 ** 1.5 - 1)) / (np.log10(10 ** 1.5 - 1) - np.log10(9))
+    for fs, order, corner in ((48000, 8, 20000.0), (48000, 3, 16000.0), (96000, 12, 21000.0), (44100, 6, 17000.0)):
+        tc = np.tan(np.pi * corner / fs)
+        for passes, want in ((1, one), (2, two)):
+            pts = [fs / np.pi * np.arctan(tc * (10 ** (d / (10 * passes)) - 1) ** (1 / (2 * order)))
+                   for d in (20.0, 30.0, 40.0)]
+            assert bw.butterworth_linearity(*pts, fs) == pytest.approx(want, abs=1e-9)
+            assert want >= bw.BUTTERWORTH_MIN_LINEARITY
+    # a windowed-sinc converter's transition accelerates into its stop band (scipy's firwin, Kaiser beta 8,
+    # as a 44.1 -> 48 kHz converter's interpolation filter at its output rate): far below the Butterworths
+    h = sps.firwin(255, 21000.0, window=("kaiser", 8.0), fs=48000)
+    f, H = sps.freqz(h, worN=1 << 15, fs=48000)
+    a = -20 * np.log10(np.maximum(np.abs(H), 1e-12))
+    pts = [f[np.nonzero(a >= d)[0][0]] for d in (20.0, 30.0, 40.0)]
+    assert bw.butterworth_linearity(*pts, 48000) < 0.8
+
+
+def test_fit_butterworth_recovers_order_corner_and_passes():
+    # the fit on the exact design (scipy's response) finds its own order, corner and number of passes
+    for fs, order, corner, passes in ((48000, 8, 20000.0, 2), (44100, 6, 17000.0, 1), (96000, 10, 19000.0, 2)):
+        f, h = sps.sosfreqz(sps.butter(order, corner, fs=fs, output="sos"), worN=1 << 14, fs=fs)
+        a = -20 * passes * np.log10(np.abs(h))
+        keep = (f >= corner - 2000.0) & (a <= 60.0)
+        rms, p, n, fc = bw.fit_butterworth(f[keep], a[keep], fs)
+        assert (p, n) == (passes, float(order)) and fc == pytest.approx(corner, abs=10.0) and rms < 0.05
+
+
+@pytest.mark.parametrize("order,corner", [(6, 20000.0), (8, 20000.0), (10, 20000.0), (12, 20000.0)])
+def test_zero_phase_butterworth_in_a_48k_file_is_not_a_conversion(order, corner):
+    # The validation set's false alarm (issue 11): an 8th-order Butterworth at 20 kHz in a 48 kHz file.  Run
+    # forwards and backwards (zero phase) its attenuation doubles and, warped by the bilinear transform next to
+    # the file's Nyquist, it reaches -40 dB at 21.0 kHz: as steep as a 44.1 kHz converter.  Its fall is still a
+    # straight line in dB against log tan(pi f / fs), and fits a Butterworth of its own order.
+    fs = 48000
+    sos = sps.butter(order, corner, fs=fs, output="sos")
+    rng = np.random.default_rng([41, order, int(corner)])
+    x = 0.1 * rng.standard_normal(int(fs * 1.5))
+    r = assess(quantise24(sps.sosfiltfilt(sos, x), rng), fs)
+    assert r.upsampled_from_hz is None, r.note
+    assert r.band_limit_hz is not None and abs(r.band_limit_hz - corner) < 500.0
+
+
+@pytest.mark.parametrize("converter", ["sinc_best", "sinc_medium"])
+def test_converter_into_48k_is_still_found_next_to_butterworths(converter):
+    # the other side of the Butterworth test: libsamplerate's converters from 44.1 kHz into 48 kHz, whose
+    # cliff lies in the same place as the low-passes above, are still read as conversions
+    samplerate = pytest.importorskip("samplerate")
+    rng = np.random.default_rng([43, len(converter)])
+    x = 0.1 * rng.standard_normal(int(44100 * 1.5))
+    y = np.asarray(samplerate.resample(x, 48000 / 44100, converter), dtype=float)
+    r = assess(quantise24(y, rng), 48000)
+    assert r.upsampled_from_hz == 44100, r.note
+
+
+def test_a_burst_centred_on_a_nyquist_is_not_a_mirror():
+    # A short burst at fs/4 (12 kHz in a 48 kHz file, as in the demo's inter-sample-over master) has a spectrum
+    # symmetric about its own frequency (analytic: a real, even envelope times a cosine), so next to 12 kHz its
+    # side lobes mirror about 24 kHz's Nyquist, and they dominate the fine structure of the whole band; the
+    # pink bed below does not mirror.  An interpolator copies the whole band below the old Nyquist, so the
+    # guard reads the band in parts (MIRROR_SUBBANDS).  Held-sample upsampling stays a mirror.
+    fs = 48000
+    rng = np.random.default_rng(47)
+    n = fs * 12
+    spec = np.fft.rfft(rng.standard_normal(n))
+    spec /= np.sqrt(np.maximum(np.fft.rfftfreq(n, 1 / fs), 20.0))
+    x = np.fft.irfft(spec, n)
+    x *= 0.01 / np.std(x)
+    k, fade = int(0.004 * fs), int(0.0005 * fs)
+    w = np.ones(k)
+    w[:fade] = 0.5 - 0.5 * np.cos(np.pi * np.arange(fade) / fade)
+    w[-fade:] = w[:fade][::-1]
+    for s0 in (1.0, 4.5, 8.25):
+        i = int(s0 * fs)
+        x[i:i + k] = 0.05 * x[i:i + k] + 0.9 * w * np.cos(np.pi / 2 * np.arange(k))
+    x = quantise24(x, rng)
+    fe = SpectralFrontEnd(fs, 1, n)
+    fe.process(x[:, None])
+    res = fe.finish()
+    fine = bw.fine_structure_db(res.ltas_total, res.bin_hz)
+    whole = bw.mirror_correlation(fine, res.bin_hz, 24000, bw.MIRROR_BAND_RATIO, res.ltas_total.size - 1)[0]
+    assert whole > bw.MIRROR_ALONE_CORRELATION       # the whole band alone would call it a mirror
+    floor = bw.format_floor_db(24, False, res.frame_length)
+    corr = bw.mirror_correlations(res.ltas_total, res.bin_hz, fs, floor)
+    assert corr[24000][0] < 0.5, corr
+    r = assess(x, fs)
+    assert r.upsampled_from_hz is None and r.mirror_rate_hz is None, r.note
+    held = quantise24(np.repeat(0.1 * rng.standard_normal(24000 * 2), 2), rng)
+    r = assess(held, fs)
+    assert r.upsampled_from_hz == 24000 and r.evidence == "images", r.note

@@ -417,3 +417,14 @@ def test_hires_report_conversion_table_says_which_deliverable_breaks_the_ceiling
         col = table["columns"].index("Spec ceiling")
         cells = [row[col] for row in table["rows"]]
         assert len(cells) == 2 and all(c.startswith(word) and c.endswith("\u2264 -1.0 dBTP)") for c in cells), cells
+
+
+@pytest.mark.parametrize("m", MASTERS, ids=[m.stem for m in MASTERS])
+def test_every_master_upsampling_verdict_is_as_built(masters, m):
+    # by construction (demo.py): only a master with DemoMaster.source_rate_hz was converted up, and none
+    # through an interpolator that passes images.  gullwick_overs' 12 kHz bursts (fs/4 in a 48 kHz file) have
+    # a spectrum symmetric about 12 kHz; they must not read as the mirror images of a 24 kHz source.
+    from masterqc.measure import engine
+    meas = engine.measure_file(str(masters[m.stem]))["measurements"]
+    assert meas["upsampled_from_hz"] == m.source_rate_hz, meas.get("bandwidth_note")
+    assert meas["upsampled_mirror_rate_hz"] is None

@@ -392,19 +392,25 @@ def test_sparse_held_material_found_through_its_sample_pattern(rng):
 
 
 def test_a_trace_names_the_source_only_when_nothing_else_did():
-    """House rule (post-step after the provenance step): the lowest rate with a resampler's trace
+    """House rule (the last step of provenance.combine): the lowest rate with a resampler's trace
     names the source when no cliff, pattern or defect did; an existing verdict is never replaced."""
+    from masterqc.measure import provenance
     imaging = [{"source_rate_hz": 88200.0, "verdict": "trace", "image_level_db": -84.0, "channel": "L",
                 "channels": ["L", "R"]},
                {"source_rate_hz": 44100.0, "verdict": "trace", "image_level_db": -77.0, "channel": "L",
                 "channels": ["L", "R"]},
                {"source_rate_hz": 22050.0, "verdict": "none", "image_level_db": None, "channel": "L",
                 "channels": []}]
-    m = im.source_from_traces({"upsampled_from_hz": None, "imaging": imaging})
+    m = provenance.from_traces({"upsampled_from_hz": None, "imaging": imaging})
     assert m["upsampled_from_hz"] == 44100 and m["upsampled_evidence"] == "images"
     assert m["upsampled_channels"] == ["L", "R"] and "-77 dB" in m["bandwidth_note"]
-    kept = im.source_from_traces({"upsampled_from_hz": 48000, "imaging": imaging})
+    kept = provenance.from_traces({"upsampled_from_hz": 48000, "imaging": imaging})
     assert kept["upsampled_from_hz"] == 48000 and "upsampled_evidence" not in kept
-    none = im.source_from_traces({"upsampled_from_hz": None, "imaging": imaging[2:]})
+    none = provenance.from_traces({"upsampled_from_hz": None, "imaging": imaging[2:]})
     assert none["upsampled_from_hz"] is None
-    assert im.source_from_traces({"imaging": imaging}) == {"imaging": imaging}   # no bandwidth analysis run
+    assert provenance.from_traces({"imaging": imaging}) == {"imaging": imaging}   # no bandwidth analysis run
+    # combine runs the trace step after the pattern and image steps, as the post-step it replaces did
+    both = provenance.combine({"upsampled_from_hz": None, "imaging": imaging})
+    assert both["upsampled_from_hz"] == 44100 and both["upsampled_evidence"] == "images"
+    from masterqc.measure.registry import post_steps
+    assert post_steps() == [provenance.combine]

@@ -49,12 +49,19 @@ Method (:func:`assess`):
 4. Mirror test (:func:`mirror_correlations`, in :func:`assess`): an upsampler whose filter lets images
    through (cubic and other short interpolators) copies the spectrum's fine structure, bin for bin, to
    the mirror frequencies about the old Nyquist; where it does over broadband content
-   (:data:`MIRROR_ALONE_CORRELATION`) the lowest such rate is the source, whatever a cliff says.
+   (:data:`MIRROR_ALONE_CORRELATION`) the lowest such rate is the source, whatever a cliff says.  The mirror
+   must hold in every part of the band (:data:`MIRROR_SUBBANDS`): an interpolator copies all the content below
+   the old Nyquist, while a single sound centred on a Nyquist (a short burst at fs/4) is merely symmetric
+   about it.
 5. Without a cliff, the effective bandwidth is the highest frequency where
    ``C`` stands :data:`ABOVE_FLOOR_DB` above the format's quantisation floor and
    no more than :data:`CONTENT_MAX_BELOW_MAIN_DB` below the programme's main band
    (median of ``C`` over 1-10 kHz);
    below 0.97 x Nyquist that edge is a (natural) roll-off.
+
+A cliff whose fall a Butterworth low-pass explains (:func:`butterworth_explains`: a straight line in dB
+against ``log10(tan(pi f / fs))``, fitting a digital Butterworth of order at most 12, run once or zero-phase)
+is a band limit, however near a standard Nyquist it lies.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
 least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
@@ -243,6 +250,34 @@ MIRROR_MIN_CORRELATION = 0.8
 #: ... and on its own, where the content below the old Nyquist is broadband (median bin within
 #: BROADBAND_GAP_DB of the envelope: a harmonic series symmetric about a Nyquist cannot make it), house choice
 MIRROR_ALONE_CORRELATION = 0.9
+#: the mirror must hold across the whole band, not only next to the Nyquist: the band is also read in
+#: MIRROR_SUBBANDS equal parts and the median of their correlations counts when lower than the whole band's
+#: (own reasoning: an interpolator that passes images copies *all* the content below the old Nyquist, so every
+#: part of the band correlates with its mirror (0.8-1.0 in every part on the tuning corpus); a single sound whose
+#: own spectrum is symmetric about the Nyquist -- a short burst centred on it, whose side lobes dominate the fine
+#: structure next to it -- correlates only in the part nearest the Nyquist (0.13-0.46 in the other three parts on
+#: the demo's 12 kHz bursts in a 48 kHz master))
+MIRROR_SUBBANDS = 4
+
+#: a cliff whose fall a Butterworth low-pass explains is a band limit, not a conversion.  The digital
+#: Butterworth (bilinear transform, as every IIR design tool makes it) has exactly
+#: ``|H(f)|^2 = 1 / (1 + (tan(pi f / fs) / tan(pi fc / fs))^(2N))``; run forwards and backwards (zero-phase, as
+#: mastering tools often do) the attenuation in dB doubles.  Two readings of the fall decide (own reasoning):
+#: (1) linearity in the warped frequency ``u = log10(tan(pi f / fs))``: far from its corner a Butterworth's
+#: attenuation grows by exactly 20 N dB per decade of ``u``, so the span of ``u`` from -30 to -40 dB equals
+#: that from -20 to -30 dB (analytically 0.997 for one pass, 0.958 for a zero-phase pass, whatever its order,
+#: corner or rate), while a resampler's windowed-sinc transition accelerates into its stop band: the ratio must
+#: reach BUTTERWORTH_MIN_LINEARITY; and (2) the fall from -1 dB to the bottom (at most 60 dB) fits a Butterworth
+#: of order at most BUTTERWORTH_MAX_ORDER (one pass or zero-phase) within BUTTERWORTH_MAX_FIT_RMS_DB.
+#: Tuning corpus (own measurements): Butterworths read 0.83-1.11 and fit within 0.2-1.2 dB; converters into
+#: files of 88.2 kHz and up, or from 32 kHz, read 0.44-0.87.  Next to a 48 kHz file's Nyquist the bilinear
+#: warping makes a zero-phase Butterworth as steep as a 44.1 kHz converter: libsamplerate's converters there
+#: read 0.52-1.01 and fit within 0.64-1.97 dB, so both limits are set where no tuning converter passes them
+#: (every converter with a linearity of 0.9 or more fits no better than 0.70 dB): only the Butterworths that
+#: read cleanly (mostly on noise-like and speech material) are told apart there; the rest stay ambiguous.
+BUTTERWORTH_MIN_LINEARITY = 0.9
+BUTTERWORTH_MAX_FIT_RMS_DB = 0.6
+BUTTERWORTH_MAX_ORDER = 12
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
@@ -607,6 +642,79 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
     return best, score
 
 
+def butterworth_db(f_hz, corner_hz: float, order: float, fs: float, passes: int = 1):
+    """Attenuation (dB, positive) of a digital Butterworth low-pass of ``order`` with its -3 dB corner at
+    ``corner_hz`` in a file of rate ``fs`` (bilinear transform), run ``passes`` times (2: zero-phase)."""
+    w = np.tan(np.pi * np.minimum(np.asarray(f_hz, dtype=float), 0.49999 * fs) / fs) / math.tan(math.pi * corner_hz / fs)
+    return 10.0 * passes * np.log10(1.0 + w ** (2.0 * order))
+
+
+def butterworth_linearity(f20_hz: float, f30_hz: float, f40_hz: float, fs: float) -> float:
+    """Span of ``u = log10(tan(pi f / fs))`` from the -30 to the -40 dB point over its span from the -20 to the
+    -30 dB point (see :data:`BUTTERWORTH_MIN_LINEARITY`)."""
+    u = [math.log10(math.tan(math.pi * min(f, 0.49999 * fs) / fs)) for f in (f20_hz, f30_hz, f40_hz)]
+    return (u[2] - u[1]) / max(u[1] - u[0], 1e-12)
+
+
+def fit_butterworth(f_hz, atten_db, fs: float, max_order: float = BUTTERWORTH_MAX_ORDER):
+    """Least-squares fit of :func:`butterworth_db` (one pass or zero-phase, order 1 to ``max_order`` in
+    half steps, corner on a 10 Hz grid) to a measured fall ``atten_db`` (dB below the pass level) at
+    ``f_hz``; ``(rms_db, passes, order, corner_hz)``."""
+    f = np.asarray(f_hz, dtype=float)
+    a = np.asarray(atten_db, dtype=float)
+    corners = np.arange(max(10.0, f[0] - 1500.0), f[-1], 10.0)
+    tf = np.tan(np.pi * np.minimum(f, 0.49999 * fs) / fs)
+    w = tf[None, :] / np.tan(np.pi * corners / fs)[:, None]
+    lw = np.log10(np.maximum(w, 1e-12))
+    best = (math.inf, 1, 1.0, float(corners[0]))
+    for order in np.arange(1.0, max_order + 0.25, 0.5):
+        base = np.log10(1.0 + 10.0 ** np.minimum(2.0 * order * lw, 300.0))
+        for passes in (1, 2):
+            r = np.sqrt(np.mean((10.0 * passes * base - a[None, :]) ** 2, axis=1))
+            i = int(np.argmin(r))
+            if r[i] < best[0]:
+                best = (float(r[i]), passes, float(order), float(corners[i]))
+    return best
+
+
+def butterworth_explains(env_db, bin_hz: float, scale: int, fs: float, cliff: dict):
+    """Does a Butterworth low-pass explain a cliff's fall (:data:`BUTTERWORTH_MIN_LINEARITY`,
+    :data:`BUTTERWORTH_MAX_FIT_RMS_DB`)?  ``cliff`` as :func:`find_cliff` returns it on the envelope
+    read at frequency scale ``scale`` (bins ``bin_hz * scale`` wide); frequencies here are the file's own.
+    Returns ``(explained, details)``; a fall less than 43 dB deep cannot be read (False)."""
+    b = bin_hz * scale
+    e = int(cliff["edge_bin"])
+    pa, pb = max(0, e + _bins(PASS_WINDOW_HZ[0], b)), max(1, e + _bins(PASS_WINDOW_HZ[1], b))
+    work = env_db
+    tilt = float(cliff.get("tilt_db_per_khz", 0.0))
+    if tilt > 0.0:
+        ref_khz = 0.5 * (pa + pb - 1) * b / 1000.0
+        work = env_db + tilt * np.maximum(np.arange(env_db.size) * b / 1000.0 - ref_khz, 0.0)
+    depth = min(float(cliff["drop_db"]) - 3.0, 60.0)
+    if depth < 40.0 or cliff.get("f1_hz") is None:
+        return False, None
+    k0 = max(0, int((cliff["f1_hz"] - 300.0 * scale) / b))
+    k = np.arange(k0, min(env_db.size, int(0.99 * fs / 2.0 / bin_hz)))
+    atten = float(cliff["pass_db"]) - work[k]
+    deep = np.nonzero(atten >= depth)[0]
+    if deep.size == 0:
+        return False, None
+    k, atten = k[:deep[0] + 1], np.maximum(atten[:deep[0] + 1], 0.0)
+    f = k * bin_hz                       # the file's own frequencies (bin k at scale s is s times lower)
+    pts = []
+    for d in (20.0, 30.0, 40.0):
+        j = int(np.nonzero(atten >= d)[0][0])
+        if j == 0:
+            return False, None
+        frac = (d - atten[j - 1]) / max(atten[j] - atten[j - 1], 1e-9)
+        pts.append(f[j - 1] + frac * (f[j] - f[j - 1]))
+    lin = butterworth_linearity(*pts, fs)
+    rms, passes, order, corner = fit_butterworth(f, atten, fs)
+    details = {"linearity": round(lin, 3), "fit_rms_db": round(rms, 2), "passes": passes, "order": order,
+               "corner_hz": corner}
+    return (lin >= BUTTERWORTH_MIN_LINEARITY and rms <= BUTTERWORTH_MAX_FIT_RMS_DB), details
+
+
 def fine_structure_db(power, bin_hz: float) -> np.ndarray:
     """The level in dB less its running mean over :data:`MIRROR_DETREND_HZ` (the spectrum's fine structure)."""
     level = _db(power)
@@ -659,6 +767,11 @@ def mirror_correlations(power, bin_hz: float, fs: float, floor_db: float) -> dic
         if got is None or got[1].size < 0.2 * (r / 2.0) / bin_hz:
             continue
         c, k, m0, frac = got
+        edges = np.linspace(MIRROR_BAND_RATIO[0], MIRROR_BAND_RATIO[1], MIRROR_SUBBANDS + 1)
+        parts = [mirror_correlation(fine, bin_hz, r, (lo, hi), limit) for lo, hi in zip(edges[:-1], edges[1:])]
+        parts = [p[0] for p in parts if p is not None]
+        if parts:
+            c = min(c, float(np.median(parts)))
         up_level = level[m0] * (1.0 - frac) + level[m0 + 1] * frac
         if float(np.median(up_level)) < floor_db + ABOVE_FLOOR_DB or float(np.median(level[k])) < floor_db + ABOVE_FLOOR_DB:
             continue
@@ -903,6 +1016,9 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
                 and (brick or shape_ratio(cliff) < CONVERTER_MAX_SHAPE_RATIO)):
+            rate = None
+        elif not brick and butterworth_explains(env, bin_hz, scale, 2.0 * nyq, cliff)[0]:
+            # a mastering low-pass's fall, not a resampler's transition
             rate = None
     real = dict(cliff)
     for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz", "stop_start_hz"):

@@ -766,36 +766,3 @@ class ImagingAnalyzer(Analyzer):
                     "z_significant": Z_SIGNIFICANT, "defect_image_level_db": DEFECT_IMAGE_LEVEL_DB,
                     "inner_band_fraction": list(INNER_BAND), "pairs_distinct": self.pairs_distinct}
         return AnalyzerResult(measurements={"imaging_detected": detected, "imaging": out}, settings=settings)
-
-
-
-def source_from_traces(m: dict) -> dict:
-    """Post-step (after :func:`masterqc.measure.provenance.combine`): a resampler's trace names the
-    source rate when nothing else did.
-
-    A "trace" is significant coherence at the candidate rate itself (its first image order), not at
-    the controls a few bins off, kept over both halves of the file: images of content converted up
-    from that rate, only too deep to be a defect.  Natural audio shows none at any rate.  So when
-    neither a converter cliff, nor the sample pattern, nor a defect named the source, the lowest rate
-    with a trace does (its multiples share its cycle frequencies), with ``upsampled_evidence``
-    "images".  Pure: measurements in, measurements out.
-    """
-    if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:
-        return m
-    traces = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("verdict") == "trace"
-              and c.get("source_rate_hz")]
-    if not traces:
-        return m
-    src = min(traces, key=lambda c: float(c["source_rate_hz"]))
-    rate = int(round(float(src["source_rate_hz"])))
-    level = src.get("image_level_db")
-    m["upsampled_from_hz"] = rate
-    m["upsampled_confidence_fraction"] = 0.6
-    m["upsampled_evidence"] = "images"
-    m["upsampled_edge_ratio"] = None
-    m["upsampled_channels"] = list(src.get("channels") or ([src["channel"]] if src.get("channel") else []))
-    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz: the content below {rate / 2000:g} kHz has "
-                           "coherent mirror images, a resampler's trace"
-                           + (f" ({float(level):.0f} dB)" if level is not None else "") + ", no converter cliff")
-    m["band_limit_hz"] = None
-    return m

@@ -11,7 +11,8 @@ analysis sees the spectrum mirrored about a divisor's Nyquist (``upsampled_mirro
 divisor is the source rate.  The sample
 patterns of :mod:`masterqc.measure.interpolation` (runs of held samples, straight lines,
 stuffed zeros) name the rate itself and take precedence over images and cliffs: they are
-exact, not statistical.  Pure: measurements in, measurements out.
+exact, not statistical.  Last, where nothing else named a source, a resampler's trace (coherent images
+too deep to be a defect, :func:`from_traces`) does.  Pure: measurements in, measurements out.
 """
 
 from __future__ import annotations
@@ -36,8 +37,9 @@ def image_source(imaging) -> dict | None:
 
 
 def combine(m: dict) -> dict:
-    """Both steps below: the sample pattern first, then the images."""
-    return from_images(from_pattern(m))
+    """The steps below in order of how exact their evidence is: the sample pattern first, then the
+    images of a defect, then a resampler's trace."""
+    return from_traces(from_images(from_pattern(m)))
 
 
 def from_pattern(m: dict) -> dict:
@@ -92,5 +94,36 @@ def from_images(m: dict) -> dict:
     m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz without a proper filter: mirror images of "
                            f"the content below {rate / 2000:g} kHz"
                            + (f" at {float(level):.0f} dB" if level is not None else "") + ", no converter cliff")
+    m["band_limit_hz"] = None
+    return m
+
+
+def from_traces(m: dict) -> dict:
+    """A resampler's trace names the source rate when nothing else did (the last step of :func:`combine`).
+
+    A "trace" is significant coherence at the candidate rate itself (its first image order), not at
+    the controls a few bins off, kept over both halves of the file: images of content converted up
+    from that rate, only too deep to be a defect.  Natural audio shows none at any rate.  So when
+    neither a converter cliff, nor the sample pattern, nor a defect named the source, the lowest rate
+    with a trace does (its multiples share its cycle frequencies), with ``upsampled_evidence``
+    "images".  Pure: measurements in, measurements out.
+    """
+    if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:
+        return m
+    traces = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("verdict") == "trace"
+              and c.get("source_rate_hz")]
+    if not traces:
+        return m
+    src = min(traces, key=lambda c: float(c["source_rate_hz"]))
+    rate = int(round(float(src["source_rate_hz"])))
+    level = src.get("image_level_db")
+    m["upsampled_from_hz"] = rate
+    m["upsampled_confidence_fraction"] = 0.6
+    m["upsampled_evidence"] = "images"
+    m["upsampled_edge_ratio"] = None
+    m["upsampled_channels"] = list(src.get("channels") or ([src["channel"]] if src.get("channel") else []))
+    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz: the content below {rate / 2000:g} kHz has "
+                           "coherent mirror images, a resampler's trace"
+                           + (f" ({float(level):.0f} dB)" if level is not None else "") + ", no converter cliff")
     m["band_limit_hz"] = None
     return m
