@@ -85,7 +85,7 @@ def main(argv=None) -> int:
                 rows.append((case.group, case.family, o, share))
                 if args.verbose or o in ("missed", "false-alarm", "not-assessable"):
                     d = m.get("aliasing_detail") or {}
-                    print(f"  {o:15s} {case.name:45s} share={share} inst={d.get('polyphonic_instances_with_folds')}/{d.get('polyphonic_note_instances')}/{d.get('polyphonic_instances_expected_by_chance')} {str(d.get('reason'))[:120]}", flush=True)
+                    print(f"  {o:15s} {case.name:45s} share={share} inst={d.get('polyphonic_instances_with_folds')}/{d.get('polyphonic_note_instances')}/{d.get('polyphonic_instances_expected_by_chance')} grid={d.get('grid_line_coherence')}@{d.get('grid_drop_interval_samples')} {str(d.get('reason'))[:100]}", flush=True)
     print(f"\n{'group':22s} {'family':22s} {'cases':>5s} {'found':>6s} {'n/a':>4s} {'FA':>4s} {'share':>6s}")
     table = defaultdict(list)
     for g, f, o, s in rows:
