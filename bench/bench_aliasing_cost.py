@@ -7,7 +7,7 @@ aliasing analyzer as it was at that commit (loaded from ``git show``), in one en
 timed in CPU seconds of its own process() and finish() calls (``time.thread_time``: the machine is
 shared, waiting for a core is not counted).  Figures are the best of ``--repeat`` passes.
 
-Usage: ``bench/bench_aliasing_cost.py [--seconds 30] [--baseline HEAD] [--repeat 3]``
+Usage: ``bench/bench_aliasing_cost.py [--seconds 30] [--baseline COMMIT_OR_FILE ...] [--repeat 3]``
 """
 
 from __future__ import annotations
@@ -50,8 +50,11 @@ def cpu_wrappers(classes, spent, names):
 
 
 def baseline_class(commit: str):
-    src = subprocess.run(["git", "-C", str(HERE.parent), "show", f"{commit}:masterqc/measure/aliasing.py"],
-                         capture_output=True, text=True, check=True).stdout
+    if Path(commit).is_file():
+        src = Path(commit).read_text()
+    else:
+        src = subprocess.run(["git", "-C", str(HERE.parent), "show", f"{commit}:masterqc/measure/aliasing.py"],
+                             capture_output=True, text=True, check=True).stdout
     d = Path(tempfile.mkdtemp())
     (d / "aliasing_baseline.py").write_text(src)
     spec = importlib.util.spec_from_file_location("aliasing_baseline", d / "aliasing_baseline.py")
@@ -63,7 +66,8 @@ def baseline_class(commit: str):
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--seconds", type=float, default=30.0)
-    ap.add_argument("--baseline", default=None, help="commit whose aliasing analyzer is timed alongside")
+    ap.add_argument("--baseline", action="append", default=[],
+                    help="commit (or file) whose aliasing analyzer is timed alongside (repeatable)")
     ap.add_argument("--repeat", type=int, default=3)
     args = ap.parse_args(argv)
     try:
@@ -79,9 +83,9 @@ def main(argv=None) -> int:
     every = {c.__name__: c for c in analyzer_classes()}
     classes = [every[n] for n in CORE if n in every] + [AliasingAnalyzer]
     names = [c.__name__ for c in classes[:-1]] + ["aliasing (this tree)"]
-    if args.baseline:
-        classes.append(baseline_class(args.baseline))
-        names.append(f"aliasing ({args.baseline})")
+    for b in args.baseline:
+        classes.append(baseline_class(b))
+        names.append(f"aliasing ({Path(b).name if Path(b).is_file() else b})")
     path = bench_core.make_file(OUT / f"core_{args.seconds / 60:g}min.wav", args.seconds / 60.0)
     best: dict[str, float] = {}
     results = {}

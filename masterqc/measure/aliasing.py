@@ -1,6 +1,6 @@
 """Folded content (aliasing): partials that a sampling process reflected below Nyquist.
 
-Four complementary tests, each on a bounded number of frames spread over the file:
+Five complementary tests, each on a bounded number of frames spread over the file:
 
 0. **Sample-sharp jumps** (frames of fs/10 samples; :func:`sharp_steps`).  A waveform with
    jumps (sawtooth, square, pulse, hard-synced voices) evaluated at the sample instants without
@@ -44,6 +44,14 @@ Four complementary tests, each on a bounded number of frames spread over the fil
    continuation reappears *falling* at the mirrored place ``fs - (f + s*dt)``
    with the mirrored slope ``-s`` is a partial folded by the sampling (a sweep
    generated past Nyquist, or the harmonics of a naively generated moving tone).
+
+4. **Irregular sample grid** (frames of 8192 samples, up to 12 spread over at least 4 s;
+   :func:`grid_coherence`).  Sample dropping (one sample deleted in every k, or a nearest-sample
+   rate change without a filter) advances every partial's phase by 2*pi*f/fs at each drop
+   (:func:`dropped_sample_phase_step`), at instants set by the sample clock.  The magnitude of a
+   linear predictor's error jumps there; its spectrum holds a line at the drop rate whose phase,
+   referred to the absolute sample index, agrees from frame to frame over the whole file.  Lines
+   that a note held unchanged explains (multiples of its steady partials) are skipped.
 
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
@@ -214,19 +222,21 @@ def estimate_notes(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, max_
         tol = NOTE_TOLERANCE_BINS * bin_hz + NOTE_TOLERANCE_REL * fi
         best = None
         seeds = np.nonzero(fi <= NOTE_SEED_MAX_HZ)[0]
-        for i in seeds[np.argsort(pi[seeds])[::-1][:NOTE_SEEDS]]:
-            for n in range(1, 6):
-                f0 = fi[i] / n
-                if f0 < MIN_F0_HZ:
-                    break
-                h = np.round(fi / f0)
-                ok = (h >= 1) & (np.abs(fi - h * f0) <= tol)
-                if ok.sum() < NOTE_MIN_PEAKS:
-                    continue
+        # every candidate fundamental (seed peak / 1..5, in the order a scan would take them) is
+        # scored at once: rows are candidates, columns the remaining peaks
+        f0c = (fi[seeds[np.argsort(pi[seeds])[::-1][:NOTE_SEEDS]]][:, None] / np.arange(1, 6)[None, :]).ravel()
+        f0c = f0c[f0c >= MIN_F0_HZ] if f0c.size else f0c
+        if f0c.size:
+            hc = np.round(fi[None, :] / f0c[:, None])
+            okc = (hc >= 1) & (np.abs(fi[None, :] - hc * f0c[:, None]) <= tol[None, :])
+            nok = okc.sum(axis=1)
+            for ci in np.nonzero(nok >= NOTE_MIN_PEAKS)[0]:
+                ok = okc[ci]
+                h = hc[ci]
                 hk = h[ok]
                 h_min, h_max = float(hk.min()), float(hk.max())
-                n_low = len(set(hk[hk <= 8].tolist()))
-                if h_min > 2 or n_low < min(3, ok.sum()) or n_low < 0.45 * min(8.0, h_max):
+                n_low = np.unique(hk[hk <= 8]).size
+                if h_min > 2 or n_low < min(3, int(nok[ci])) or n_low < 0.45 * min(8.0, h_max):
                     continue
                 w = pi[ok]
                 f0_ls = float(np.sum(w * fi[ok] * h[ok]) / np.sum(w * h[ok] ** 2))
@@ -570,6 +580,9 @@ def step_alias_ratio_db(jump_sq: float, samples: float, power: float):
 GRID_FRAME = 8192
 GRID_FRAMES = 12
 GRID_MIN_FRAMES = 6
+#: the frames must spread over at least this long (own reasoning: over a second or two a note held
+#: unchanged keeps its phase as well as the sample clock does)
+GRID_MIN_SPAN_S = 4.0
 #: linear-prediction order (own reasoning: enough to whiten a mix's spectral envelope)
 GRID_LPC_ORDER = 32
 #: error-magnitude spectra are zero-padded this many times (a line off the bin grid keeps its phase)
@@ -588,10 +601,10 @@ GRID_UPSAMPLING_FACTORS = (2, 3, 4, 6, 8)
 #: 0.29, and the search over frequency raises the largest of them)
 GRID_MIN_COHERENCE = 0.9
 #: a steady line of the signal stands this far over the local floor in most frames (own reasoning);
-#: an error-magnitude line within a multiple (up to GRID_CONTENT_MULTIPLES) of one, or of the
-#: difference of two, is the content's own period, not the sample clock's
+#: an error-magnitude line at a multiple of one (up to GRID_CONTENT_MULTIPLES, folded) is the
+#: content's own period, not the sample clock's
 GRID_STEADY_DB = 10.0
-GRID_CONTENT_MULTIPLES = 4
+GRID_CONTENT_MULTIPLES = 128
 
 
 def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
@@ -639,7 +652,7 @@ def grid_frame_spectrum(frame: np.ndarray):
     return np.fft.rfft((m - m.mean()) * np.hanning(m.size), GRID_PAD * m.size), power
 
 
-def steady_lines(signal_power: np.ndarray, count: int = 8):
+def steady_lines(signal_power: np.ndarray, count: int = 4):
     """Frequencies (cycles per sample) of the ``count`` strongest lines of the signal that stand
     GRID_STEADY_DB over the local floor in most frames (median over the frames' power spectra, rows
     of ``signal_power``, each of ``2*(columns - 1)`` points): a note held unchanged through the file."""
@@ -647,20 +660,23 @@ def steady_lines(signal_power: np.ndarray, count: int = 8):
     med = np.median(norm, axis=0)
     peaks = find_lines(med, np.ones_like(med), GRID_STEADY_DB)
     peaks = peaks[np.argsort(med[peaks])[::-1][:count]]
-    return np.sort(peaks / (2.0 * (signal_power.shape[1] - 1)))
+    if peaks.size == 0:
+        return np.zeros(0)
+    return np.sort(refine_peaks(med, np.sort(peaks)) / (2.0 * (signal_power.shape[1] - 1)))
 
 
-def content_explains(alpha: float, lines: np.ndarray, tolerance: float) -> bool:
+def content_explains(alpha: float, lines: np.ndarray, tolerance: float, line_error: float = 0.0) -> bool:
     """Whether a line of the error magnitude at ``alpha`` (cycles per sample) can come from steady
-    content: within ``tolerance`` of a multiple (1..GRID_CONTENT_MULTIPLES) of a steady line or of
-    the difference of two (the error magnitude of a steady note repeats with the note's period and
-    its beats)."""
+    content: within ``tolerance`` (plus ``line_error`` times the multiple) of a multiple m*c, folded
+    into 0..0.5, of a steady line c, m = 1..GRID_CONTENT_MULTIPLES.  The error magnitude of a note
+    held unchanged is a periodic function of the note's phase: its lines sit at multiples of the
+    note's frequency, and those above half the rate fold like any sampled partial."""
     if lines.size == 0:
         return False
-    c = np.concatenate([lines, np.abs(lines[:, None] - lines[None, :])[np.triu_indices(lines.size, 1)]])
-    c = c[c > 0]
-    m = np.arange(1, GRID_CONTENT_MULTIPLES + 1)
-    return bool(np.any(np.abs(np.outer(c, m) - alpha) <= tolerance))
+    m = np.arange(1, GRID_CONTENT_MULTIPLES + 1)[None, :]
+    pos = np.mod(lines[:, None] * m, 1.0)
+    pos = np.minimum(pos, 1.0 - pos)
+    return bool(np.any(np.abs(pos - alpha) <= tolerance + m * line_error))
 
 
 def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, steady: np.ndarray | None = None):
@@ -694,7 +710,7 @@ def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, stea
     coherent = []
     tol = 2.0 / frame_len
     for k in cand:
-        if steady is not None and content_explains(float(alpha[k]), steady, tol):
+        if steady is not None and content_explains(float(alpha[k]), steady, 0.5 / frame_len, 0.02 / frame_len):
             continue
         z = spectra[:, k] * np.exp(-2j * math.pi * alpha[k] * st)
         u = z / np.maximum(np.abs(z), 1e-300)
@@ -980,7 +996,8 @@ class AliasingAnalyzer(Analyzer):
                                         sum(r["power"] for _s, r in step_frames))
         # irregular sample grid (sample dropping)
         grid_coh, grid_alpha, grid_line = 0.0, None, 0.0
-        if len(self.grid) >= GRID_MIN_FRAMES:
+        grid_span_s = ((self.grid[-1][0] - self.grid[0][0] + self.n_grid) / self.fs) if self.grid else 0.0
+        if len(self.grid) >= GRID_MIN_FRAMES and grid_span_s >= GRID_MIN_SPAN_S:
             grid_coh, grid_alpha, grid_line = grid_coherence(
                 np.stack([z for _s, z, _p in self.grid]), np.array([s for s, _z, _p in self.grid]), self.n_grid,
                 steady_lines(np.stack([p for _s, _z, p in self.grid])))
