@@ -73,8 +73,6 @@ KNOWN_MISSES = {
     ("upsampling_false_alarms", "corpus_tuning_upsampling"):
         "a 6th-order Butterworth low-pass at 20 kHz in a 48 kHz file falls like a converter from 44.1 kHz: its "
         "fall's shape, read on the envelope, is within the spread of a medium-quality converter's",
-    ("folded", "corpus_tuning_aliasing"): "sample dropping (one sample in every 12) and a 2:1 decimation of "
-                                          "music with a vibrato are missed (13 of 15 found)",
 }
 
 
