@@ -36,6 +36,9 @@ drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
   music (``drop-2``, ``drop-3``), and sample dropping that deletes one sample in every N
   (N = 12 or 20, ``drop-every-n``).
 - ``filtered-decimation`` (False): the same sources through ``resample_poly``.
+- ``decimation`` (True), last: nearest-sample rate changes 48 -> 44.1, 50 -> 44.1 and 100 -> 48 kHz
+  (``drop-nearest``) and one sample deleted in every 30, 50 or 16 (``drop-every-n``), of music mixes or
+  tonal music with a noise bed; ``filtered-decimation`` (False): their twins through ``resample_poly``.
 
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
@@ -478,3 +481,29 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         g = math.gcd(fs_in, fs)
         yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
                     sps.resample_poly(x, fs // g, fs_in // g), {"aliasing_detected": False}, rms_dbfs=level)
+
+    # added: more sample dropping and nearest-sample rate changes of tonal material (with and without
+    # drums and a noise bed), each with its band-limited twin (the same source through resample_poly)
+    if quick:
+        return
+    drops = (("nearest", 48000, 44100), ("nearest", 50000, 44100), ("nearest", 100000, 48000),
+             ("every", 30, 48000), ("every", 50, 44100), ("every", 16, 96000))
+    for kind, a, fs in drops:
+        idx += 1
+        sub = rng_for(idx)
+        fs_in = a if kind == "nearest" else int(round(fs * a / (a - 1)))
+        if sub.random() < 0.5:
+            x = music_mix(seconds, fs_in, sub, 0.45 * fs_in, sub.uniform(-45, -25))
+        else:
+            x = tonal_music(seconds, fs_in, sub, 0.45 * fs_in, vibrato=True, tilt=sub.uniform(1.0, 1.8))
+            x = x / (np.sqrt(np.mean(x ** 2)) + 1e-30) + 10 ** (-sub.uniform(25, 45) / 20) * pink(x.size, sub)
+        level = sub.uniform(-30, -6)
+        if kind == "nearest":
+            stem, fam, y = f"drop-nearest-{fs_in // 100}-{fs // 100}-{seed}-{idx}", "drop-nearest", \
+                nearest_pick(x, fs_in, fs)
+        else:
+            stem, fam, y = f"drop-every-{a}-{fs // 100}-{seed}", "drop-every-n", drop_every(x, a)
+        yield _case(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, rms_dbfs=level)
+        g = math.gcd(fs_in, fs)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(x, fs // g, fs_in // g)[:y.size], {"aliasing_detected": False}, rms_dbfs=level)

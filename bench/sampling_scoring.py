@@ -151,8 +151,10 @@ def score_case(expect: dict, got: dict | None) -> dict:
 
 
 def run_corpus(module, seed: int, quick: bool = False, workers: int = 2, reuse: bool = False,
-               out_dir: Path | None = None, progress: bool = True) -> dict:
-    """Generate, write, measure and score every case of ``module``; returns a dict with per-case records."""
+               out_dir: Path | None = None, progress: bool = True, only_expect: str | None = None) -> dict:
+    """Generate, write, measure and score every case of ``module``; returns a dict with per-case records.
+    ``only_expect``: measure only the cases whose labels hold that key (the others are generated and
+    skipped)."""
     tag = getattr(module, "__name__", "corpus").split(".")[-1]
     out_dir = out_dir or OUT_ROOT / f"{tag}-{seed}{'-quick' if quick else ''}"
     out_dir.mkdir(parents=True, exist_ok=True)
@@ -187,6 +189,9 @@ def run_corpus(module, seed: int, quick: bool = False, workers: int = 2, reuse: 
                 gen_s += time.perf_counter() - t0
                 break
             check_case(case, seen)
+            if only_expect and only_expect not in case.expect:
+                gen_s += time.perf_counter() - t0
+                continue
             path = out_dir / f"{case.name}.wav"
             pcm = np.clip(np.round(case.audio * 8388607.0), -8388608, 8388607).astype(np.int32)
             sf.write(str(path), pcm * 256, int(case.rate_hz), subtype="PCM_24")
@@ -325,6 +330,8 @@ def main(argv=None) -> int:
     ap.add_argument("--quick", action="store_true", help="only the quick slice of each corpus")
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--reuse", action="store_true", help="reuse cached results of byte-identical files")
+    ap.add_argument("--only-expect", default=None, metavar="KEY",
+                    help="measure only the cases labelled with KEY (e.g. aliasing_detected): that detector's rows")
     ap.add_argument("--json", help="write per-case results here (default bench/out/sampling/<corpora>.json)")
     args = ap.parse_args(argv)
     corpora = args.corpus or [str(HERE / "corpus_validation.py")]
@@ -334,7 +341,8 @@ def main(argv=None) -> int:
         module = load_corpus(spec)
         seed = seeds[i] if i < len(seeds) else (5000 if "validation" in Path(spec).stem else 1000)
         print(f"scoring {spec} (seed {seed}{', quick' if args.quick else ''}) ...", file=sys.stderr, flush=True)
-        runs.append(run_corpus(module, seed, quick=args.quick, workers=args.workers, reuse=args.reuse))
+        runs.append(run_corpus(module, seed, quick=args.quick, workers=args.workers, reuse=args.reuse,
+                               only_expect=args.only_expect))
     print(format_tables(runs))
     dump = Path(args.json) if args.json else OUT_ROOT / ("-".join(r["corpus"] for r in runs)
                                                          + ("-quick" if args.quick else "") + "-results.json")

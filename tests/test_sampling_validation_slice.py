@@ -72,8 +72,6 @@ KNOWN_MISSES = {
     ("upsampling_rate", "corpus_validation"):
         "a 22.05 kHz source converted up by FFT resampling (a brick wall at the old Nyquist) on music that rolls "
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist",
-    ("folded", "corpus_tuning_aliasing"): "sample dropping (one sample in every 12) and a 2:1 decimation of "
-                                          "music with a vibrato are missed (13 of 15 found)",
 }
 
 

@@ -1,6 +1,6 @@
 """Folded content (aliasing): partials that a sampling process reflected below Nyquist.
 
-Four complementary tests, each on a bounded number of frames spread over the file:
+Five complementary tests, each on a bounded number of frames spread over the file:
 
 0. **Sample-sharp jumps** (frames of fs/10 samples; :func:`sharp_steps`).  A waveform with
    jumps (sawtooth, square, pulse, hard-synced voices) evaluated at the sample instants without
@@ -44,6 +44,14 @@ Four complementary tests, each on a bounded number of frames spread over the fil
    continuation reappears *falling* at the mirrored place ``fs - (f + s*dt)``
    with the mirrored slope ``-s`` is a partial folded by the sampling (a sweep
    generated past Nyquist, or the harmonics of a naively generated moving tone).
+
+4. **Irregular sample grid** (frames of 8192 samples, up to 12 spread over at least 4 s;
+   :func:`grid_coherence`).  Sample dropping (one sample deleted in every k, or a nearest-sample
+   rate change without a filter) advances every partial's phase by 2*pi*f/fs at each drop
+   (:func:`dropped_sample_phase_step`), at instants set by the sample clock.  The magnitude of a
+   linear predictor's error jumps there; its spectrum holds a line at the drop rate whose phase,
+   referred to the absolute sample index, agrees from frame to frame over the whole file.  Lines
+   that a note held unchanged explains (multiples of its steady partials) are skipped.
 
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
@@ -214,19 +222,21 @@ def estimate_notes(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, max_
         tol = NOTE_TOLERANCE_BINS * bin_hz + NOTE_TOLERANCE_REL * fi
         best = None
         seeds = np.nonzero(fi <= NOTE_SEED_MAX_HZ)[0]
-        for i in seeds[np.argsort(pi[seeds])[::-1][:NOTE_SEEDS]]:
-            for n in range(1, 6):
-                f0 = fi[i] / n
-                if f0 < MIN_F0_HZ:
-                    break
-                h = np.round(fi / f0)
-                ok = (h >= 1) & (np.abs(fi - h * f0) <= tol)
-                if ok.sum() < NOTE_MIN_PEAKS:
-                    continue
+        # every candidate fundamental (seed peak / 1..5, in the order a scan would take them) is
+        # scored at once: rows are candidates, columns the remaining peaks
+        f0c = (fi[seeds[np.argsort(pi[seeds])[::-1][:NOTE_SEEDS]]][:, None] / np.arange(1, 6)[None, :]).ravel()
+        f0c = f0c[f0c >= MIN_F0_HZ] if f0c.size else f0c
+        if f0c.size:
+            hc = np.round(fi[None, :] / f0c[:, None])
+            okc = (hc >= 1) & (np.abs(fi[None, :] - hc * f0c[:, None]) <= tol[None, :])
+            nok = okc.sum(axis=1)
+            for ci in np.nonzero(nok >= NOTE_MIN_PEAKS)[0]:
+                ok = okc[ci]
+                h = hc[ci]
                 hk = h[ok]
                 h_min, h_max = float(hk.min()), float(hk.max())
-                n_low = len(set(hk[hk <= 8].tolist()))
-                if h_min > 2 or n_low < min(3, ok.sum()) or n_low < 0.45 * min(8.0, h_max):
+                n_low = np.unique(hk[hk <= 8]).size
+                if h_min > 2 or n_low < min(3, int(nok[ci])) or n_low < 0.45 * min(8.0, h_max):
                     continue
                 w = pi[ok]
                 f0_ls = float(np.sum(w * fi[ok] * h[ok]) / np.sum(w * h[ok] ** 2))
@@ -551,6 +561,183 @@ def step_alias_ratio_db(jump_sq: float, samples: float, power: float):
     return 10.0 * math.log10(jump_sq / (math.pi ** 2 * samples) / power)
 
 
+# ---------------------------------------------------------------- irregular sample grid
+# Sample dropping (deleting every k-th sample, or a nearest-sample rate change without a filter)
+# takes the samples on an irregular time grid: at each drop the sample clock skips one source
+# sample, so every partial's phase advances by 2*pi*f/fs at the same instant (a pure tone
+# x[n] = sin(2*pi*f*n/fs) with sample d deleted reads sin(2*pi*f*(n + 1)/fs) from d on).  A
+# linear predictor fitted to the frame (order GRID_LPC_ORDER) cannot foresee the skip, so its
+# prediction error jumps at every drop instant, by about the local slope of the waveform; the
+# drop instants follow the sample clock (every k-1 samples for one in k deleted; where
+# frac(n*fs_in/fs) wraps for a nearest-sample change), so the error's magnitude carries a line at
+# the drop rate alpha (cycles per sample) whose phase is locked to the absolute sample index over
+# the whole file.  Notes, vibrato and speech put lines into the error too, but none keeps one
+# phase from one part of the file to another.  The test reads the error-magnitude spectrum of
+# frames spread over the file, takes the lines present in most frames, and measures how well
+# their phases, referred to the absolute sample index, agree from frame to frame (the length of
+# the mean unit phasor, searched over the line's frequency to a fraction of the frames' spread).
+#: frames of GRID_FRAME samples, at most GRID_FRAMES spread over the file (cost bound)
+GRID_FRAME = 8192
+GRID_FRAMES = 12
+GRID_MIN_FRAMES = 6
+#: the frames must spread over at least this long (own reasoning: over a second or two a note held
+#: unchanged keeps its phase as well as the sample clock does)
+GRID_MIN_SPAN_S = 4.0
+#: linear-prediction order (own reasoning: enough to whiten a mix's spectral envelope)
+GRID_LPC_ORDER = 32
+#: error-magnitude spectra are zero-padded this many times (a line off the bin grid keeps its phase)
+GRID_PAD = 4
+#: drop rates searched: from this many cycles per sample up to 0.5 (one drop in 200 samples)
+GRID_MIN_ALPHA = 0.005
+#: lines whose median level over the frames stands this far over the local median are candidates,
+#: the GRID_CANDIDATES strongest of them (own reasoning)
+GRID_LINE_RATIO = 3.0
+GRID_CANDIDATES = 8
+#: drop rates m/L of a whole-number upsampling factor L are not tested: a held or interpolated
+#: integer upsampling repeats its pattern every L samples as well (house choice)
+GRID_UPSAMPLING_FACTORS = (2, 3, 4, 6, 8)
+#: an irregular sample grid: the line's phases agree to a mean unit phasor of at least this length
+#: (house choice, checked on the tuning corpus: sample dropping there reaches 0.97-1.0, a band-limited
+#: square chord 0.91; with 12 frames of random phase the length is about 0.29, and the search over
+#: frequency raises the largest of them)
+GRID_MIN_COHERENCE = 0.95
+#: a steady line of the signal stands this far over the local floor in most frames (own reasoning);
+#: an error-magnitude line at a multiple of one (up to GRID_CONTENT_MULTIPLES, folded) is the
+#: content's own period, not the sample clock's
+GRID_STEADY_DB = 10.0
+GRID_CONTENT_MULTIPLES = 128
+
+
+def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
+    """Normalised linear-prediction error magnitude of a ``(samples, channels)`` frame: per channel,
+    ``|e[n]|`` divided by its mean (the predictor from the frame's own autocorrelation, Hann
+    window), summed over channels, and the frame's power spectrum (Hann window, zero-padded to twice
+    its length, summed over channels); None for a silent frame."""
+    from scipy.linalg import solve_toeplitz
+    from scipy.signal import lfilter
+    n = frame.shape[0]
+    win = np.hanning(n)
+    out = np.zeros(n)
+    power = np.zeros(n + 1)
+    used = 0
+    for c in range(frame.shape[1]):
+        x = np.asarray(frame[:, c], dtype=np.float64)
+        spec = np.fft.rfft(x * win, 2 * n)
+        pw = spec.real ** 2 + spec.imag ** 2
+        power += pw
+        r = np.fft.irfft(pw)[:order + 1]
+        if not r[0] > 0:
+            continue
+        r[0] *= 1.0 + 1e-6
+        try:
+            a = solve_toeplitz(r[:order], r[1:order + 1])
+        except (np.linalg.LinAlgError, ValueError):
+            continue
+        e = np.abs(lfilter(np.concatenate([[1.0], -a]), [1.0], x))
+        e[:order] = np.mean(e[order:])
+        mean = float(np.mean(e))
+        if mean > 0:
+            out += e / mean
+            used += 1
+    return (out, power) if used else None
+
+
+def grid_frame_spectrum(frame: np.ndarray):
+    """``(error_spectrum, signal_power)``: the complex spectrum (zero-padded GRID_PAD times, Hann
+    window) of the error magnitude of :func:`grid_error_magnitude` and the frame's power spectrum,
+    or None for a silent frame."""
+    got = grid_error_magnitude(frame)
+    if got is None:
+        return None
+    m, power = got
+    return np.fft.rfft((m - m.mean()) * np.hanning(m.size), GRID_PAD * m.size), power
+
+
+def steady_lines(signal_power: np.ndarray, count: int = 4):
+    """Frequencies (cycles per sample) of the ``count`` strongest lines of the signal that stand
+    GRID_STEADY_DB over the local floor in most frames (median over the frames' power spectra, rows
+    of ``signal_power``, each of ``2*(columns - 1)`` points): a note held unchanged through the file."""
+    norm = signal_power / (np.stack([block_floor(p, 64) for p in signal_power]) + 1e-300)
+    med = np.median(norm, axis=0)
+    peaks = find_lines(med, np.ones_like(med), GRID_STEADY_DB)
+    peaks = peaks[np.argsort(med[peaks])[::-1][:count]]
+    if peaks.size == 0:
+        return np.zeros(0)
+    return np.sort(refine_peaks(med, np.sort(peaks)) / (2.0 * (signal_power.shape[1] - 1)))
+
+
+def content_explains(alpha: float, lines: np.ndarray, tolerance: float, line_error: float = 0.0) -> bool:
+    """Whether a line of the error magnitude at ``alpha`` (cycles per sample) can come from steady
+    content: within ``tolerance`` (plus ``line_error`` times the multiple) of a multiple m*c, folded
+    into 0..0.5, of a steady line c, m = 1..GRID_CONTENT_MULTIPLES.  The error magnitude of a note
+    held unchanged is a periodic function of the note's phase: its lines sit at multiples of the
+    note's frequency, and those above half the rate fold like any sampled partial."""
+    if lines.size == 0:
+        return False
+    m = np.arange(1, GRID_CONTENT_MULTIPLES + 1)[None, :]
+    pos = np.mod(lines[:, None] * m, 1.0)
+    pos = np.minimum(pos, 1.0 - pos)
+    return bool(np.any(np.abs(pos - alpha) <= tolerance + m * line_error))
+
+
+def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, steady: np.ndarray | None = None):
+    """The irregular-grid test on the frames' error-magnitude spectra (rows of ``spectra``, frames
+    starting at absolute sample ``starts``).  Returns ``(coherence, alpha, line_ratio)`` of the most
+    coherent candidate line (coherence 0 and alpha None when there is none): ``alpha`` in cycles per
+    sample, ``line_ratio`` its median level over the local median.  Lines that ``steady`` content
+    (:func:`steady_lines`) explains (:func:`content_explains`) are skipped; of the coherent lines the
+    one of lowest ``alpha`` is returned (the drop rate; its multiples are coherent too)."""
+    from scipy.ndimage import maximum_filter1d
+    pad = spectra.shape[1] - 1
+    nfft = 2 * pad
+    power = spectra.real ** 2 + spectra.imag ** 2
+    norm = power / (np.stack([block_floor(p, 64 * GRID_PAD) for p in power]) + 1e-300)
+    med = np.median(norm, axis=0)
+    alpha = np.arange(med.size) / nfft
+    ok = alpha >= GRID_MIN_ALPHA
+    for lf in GRID_UPSAMPLING_FACTORS:
+        for m in range(1, lf):
+            ok &= np.abs(alpha - m / lf) > 2.0 / frame_len
+    ok &= med >= GRID_LINE_RATIO
+    # one candidate per line: local maxima of the median level
+    ok &= med >= maximum_filter1d(med, 2 * GRID_PAD + 1)
+    cand = np.nonzero(ok)[0]
+    cand = cand[np.argsort(med[cand])[::-1]][:GRID_CANDIDATES]
+    st = np.asarray(starts, dtype=float)
+    span = float(st.max() - st.min() + frame_len)
+    d = np.arange(-0.5 / nfft, 0.5 / nfft, 0.125 / span)
+    ph = np.exp(-2j * math.pi * d[:, None] * (st[None, :] + frame_len / 2.0))
+    best = (0.0, None, 0.0)
+    coherent = []
+    tol = 2.0 / frame_len
+    for k in cand:
+        if steady is not None and content_explains(float(alpha[k]), steady, 0.5 / frame_len, 0.02 / frame_len):
+            continue
+        z = spectra[:, k] * np.exp(-2j * math.pi * alpha[k] * st)
+        u = z / np.maximum(np.abs(z), 1e-300)
+        r = np.abs(ph @ u) / u.size
+        i = int(np.argmax(r))
+        got = (float(r[i]), float(alpha[k] + d[i]), float(med[k]))
+        if got[0] > best[0]:
+            best = got
+        if got[0] >= GRID_MIN_COHERENCE:
+            coherent.append(got)
+    if coherent:
+        return min(coherent, key=lambda g: g[1])
+    return best
+
+
+def grid_evidence(coherence: float, frames: int) -> bool:
+    """An irregular sample grid: enough frames and a coherent drop-rate line."""
+    return frames >= GRID_MIN_FRAMES and coherence >= GRID_MIN_COHERENCE
+
+
+def dropped_sample_phase_step(f_hz: float, fs: float) -> float:
+    """The phase step, radians in [0, 2*pi), that deleting one sample makes on a partial at ``f_hz``:
+    every later sample is read one sampling period further on, ``2*pi*f/fs``."""
+    return float(np.mod(2.0 * math.pi * f_hz / fs, 2.0 * math.pi))
+
+
 def track_peaks(spec_a: np.ndarray, spec_b: np.ndarray, bin_hz: float, dt_s: float):
     """Partials of two short frames ``dt_s`` apart in the upper half of the band (where a
     fold at Nyquist shows): ``(freq_hz, slope_hz_per_s, power)`` arrays for every peak of
@@ -682,6 +869,14 @@ class AliasingAnalyzer(Analyzer):
                     "the whole number of samples the sharp jumps repeat at, when they do (the waveform is "
                     "then exactly periodic at the sampling rate and its folds land on its harmonics); "
                     "null otherwise")},
+                "grid_frames": {"type": "integer"},
+                "grid_line_coherence": {"type": "number", "description": (
+                    "how well the phases of the strongest line in the prediction-error magnitude agree from "
+                    "frame to frame, referred to the absolute sample index (0..1; near 1 when samples were "
+                    "dropped on a clock-locked pattern)")},
+                "grid_drop_interval_samples": {**NUMBER_OR_NULL, "description": (
+                    "the interval, in samples, of that line (the mean spacing of dropped samples when the "
+                    "grid is irregular)")},
                 "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
                 "fold_examples": {"type": "array", "items": {"type": "object"}},
             },
@@ -724,6 +919,12 @@ class AliasingAnalyzer(Analyzer):
                               self.n_step, seed=5)
         self.pick_step = FramePicker(starts, self.n_step, ch)
         self.steps = []    # per step frame: (start, result dict)
+        # irregular sample grid frames
+        self.n_grid = GRID_FRAME
+        starts = frame_starts(int(info.frames), self.n_grid, int(extra.get("max_grid_frames", GRID_FRAMES)),
+                              self.n_grid, seed=6)
+        self.pick_grid = FramePicker(starts, self.n_grid, ch)
+        self.grid = []     # per grid frame with signal: (start, complex error-magnitude spectrum)
 
     def process(self, block) -> None:
         for start, frame in self.pick_long.feed(block):
@@ -741,6 +942,10 @@ class AliasingAnalyzer(Analyzer):
         for start, frame in self.pick_step.feed(block):
             if np.any(frame):
                 self.steps.append((int(start), sharp_step_frame(np.asarray(frame, dtype=np.float64))))
+        for start, frame in self.pick_grid.feed(block):
+            z = grid_frame_spectrum(np.asarray(frame, dtype=np.float64)) if np.any(frame) else None
+            if z is not None:
+                self.grid.append((int(start), z[0], z[1]))
         for tr in self.trackers:
             n, hop, win = tr["n"], tr["hop"], tr["window"]
             for start, frame in tr["picker"].feed(block):
@@ -790,6 +995,14 @@ class AliasingAnalyzer(Analyzer):
             score = step_alias_ratio_db(sum(r["sharp_jump_sq"] for _s, r in step_frames),
                                         float(self.n_step * len(step_frames)),
                                         sum(r["power"] for _s, r in step_frames))
+        # irregular sample grid (sample dropping)
+        grid_coh, grid_alpha, grid_line = 0.0, None, 0.0
+        grid_span_s = ((self.grid[-1][0] - self.grid[0][0] + self.n_grid) / self.fs) if self.grid else 0.0
+        if len(self.grid) >= GRID_MIN_FRAMES and grid_span_s >= GRID_MIN_SPAN_S:
+            grid_coh, grid_alpha, grid_line = grid_coherence(
+                np.stack([z for _s, z, _p in self.grid]), np.array([s for s, _z, _p in self.grid]), self.n_grid,
+                steady_lines(np.stack([p for _s, _z, p in self.grid])))
+        drop_hit = grid_evidence(grid_coh, len(self.grid))
         bound = None
         if score is None and assess and h > 0:
             b = sum(r["bound_power"] for _s, r in assess)
@@ -827,6 +1040,9 @@ class AliasingAnalyzer(Analyzer):
             "steps_fitted": int(step_fitted),
             "sharp_steps_on_hold_grid_hz": grid[1] if grid and grid[0] == "hold" else None,
             "sharp_steps_period_samples": grid[1] if grid and grid[0] == "period" else None,
+            "grid_frames": len(self.grid),
+            "grid_line_coherence": round(grid_coh, 3),
+            "grid_drop_interval_samples": (round(1.0 / grid_alpha, 3) if grid_alpha else None),
             "where_s": [],
             "fold_examples": [],
         }
@@ -841,8 +1057,9 @@ class AliasingAnalyzer(Analyzer):
         line_hit = line_hit and ((instances == 0 and len(evident) >= MIN_LINE_ONLY_FRAMES)
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
-        detected = line_hit or poly_hit or reflect_hit or step_hit
-        assessable = bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
+        detected = line_hit or poly_hit or reflect_hit or step_hit or drop_hit
+        assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
+                      or drop_hit)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
@@ -852,6 +1069,9 @@ class AliasingAnalyzer(Analyzer):
         if step_hit:
             dur = self.n_step / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in step_frames]
+        if drop_hit:
+            dur = self.n_grid / self.fs
+            detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _z, _p in self.grid]
         if reflect_hit:
             detail["where_s"] = list(detail["where_s"]) + [(t1, t2) for t1, _f1, t2, _f2 in reflections]
             detail["fold_examples"] = [{"rising_hz": round(f1, 1), "at_s": round(t1, 3),
@@ -884,6 +1104,11 @@ class AliasingAnalyzer(Analyzer):
                 parts.append(f"{step_sharp} of {step_fitted} jumps in the waveform are sample-sharp (no band-limited "
                              "transition around them): a waveform evaluated at the sample instants without "
                              "band-limiting, whose partials above Nyquist all fold")
+            if drop_hit:
+                parts.append(f"the samples lie on an irregular time grid: the prediction error jumps about every "
+                             f"{1.0 / grid_alpha:.2f} samples, in step with the sample clock over the whole file "
+                             f"(phase agreement {grid_coh:.2f}): samples were dropped or picked without a filter, "
+                             "which folds")
             detail["reason"] = "; ".join(parts)
         else:
             if score is not None and score >= ALIAS_SCORE_MIN_DB:
@@ -918,6 +1143,8 @@ class AliasingAnalyzer(Analyzer):
                     "track_pairs": [int(tr["picker"].starts.size) for tr in self.trackers],
                     "step_frame_samples": self.n_step, "step_frames": int(self.pick_step.starts.size),
                     "step_max_residual": STEP_MAX_RESIDUAL,
+                    "grid_frame_samples": self.n_grid, "grid_frames": int(self.pick_grid.starts.size),
+                    "grid_min_coherence": GRID_MIN_COHERENCE,
                     "alias_score_min_db": ALIAS_SCORE_MIN_DB, "min_evident_share": MIN_EVIDENT_SHARE, "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
         return AnalyzerResult(measurements=measurements, settings=settings)
 
