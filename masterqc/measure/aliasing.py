@@ -613,9 +613,8 @@ def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
     ``|e[n]|`` divided by its mean (the predictor from the frame's own autocorrelation, Hann
     window), summed over channels, and the frame's power spectrum (Hann window, zero-padded to twice
     its length, summed over channels); None for a silent frame."""
-    from scipy.linalg import solve_toeplitz
-    from scipy.signal import lfilter
     n = frame.shape[0]
+    lags = np.abs(np.subtract.outer(np.arange(order), np.arange(order)))   # Toeplitz index table
     win = np.hanning(n)
     out = np.zeros(n)
     power = np.zeros(n + 1)
@@ -630,10 +629,11 @@ def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
             continue
         r[0] *= 1.0 + 1e-6
         try:
-            a = solve_toeplitz(r[:order], r[1:order + 1])
-        except (np.linalg.LinAlgError, ValueError):
+            a = np.linalg.solve(r[:order][lags], r[1:order + 1])   # the normal equations
+        except np.linalg.LinAlgError:
             continue
-        e = np.abs(lfilter(np.concatenate([[1.0], -a]), [1.0], x))
+        # the prediction-error (FIR) filter, started from rest: e[n] = x[n] - sum_k a[k] x[n-1-k]
+        e = np.abs(np.convolve(x, np.concatenate([[1.0], -a]))[:n])
         e[:order] = np.mean(e[order:])
         mean = float(np.mean(e))
         if mean > 0:
