@@ -301,3 +301,56 @@ def test_nonfinite_pass_fields(spec):
     s = load_spec_text(SPEC + "  nonfinite_samples: true\n").spec
     p = findings(s)[0]["integrity.nonfinite_samples"]
     assert (p.measured, p.measured_raw, p.measured_text, p.limit, p.status) == (0, 0, "0", "none", "pass")
+
+
+def test_clock_text_rounds_to_the_millisecond():
+    from masterqc.judge.integrity import clock_text
+    # analytic: 143.75 s = 0 h 2 min 23.750 s; 3725.25 s = 1 h 2 min 5.250 s; 59.9996 s rounds to 60.000 s
+    assert clock_text(143.75) == "0:02:23.750"
+    assert clock_text(3725.25) == "1:02:05.250"
+    assert clock_text(59.9996) == "0:01:00.000"
+    assert clock_text(-1.0) == "0:00:00.000"    # house choice: no negative times
+
+
+def _truncated(duration_s=18.0, **audio_data):
+    r = result(duration_s=duration_s)
+    r["metadata"] = {"audio_data": audio_data}
+    return r
+
+
+@pytest.mark.parametrize("mode,status", [("fail", "fail"), ("warn", "warn"), ("allow", "pass")])
+def test_a_truncated_file_names_the_missing_time_and_bytes(mode, status):
+    # by construction: stereo 24-bit 48 kHz is 48000 * 2 * 3 = 288,000 bytes a second, so a header declaring
+    # 20 s (5,760,000 bytes) over a file holding 18 s (5,184,000 bytes) misses 576,000 bytes = 2.000 s, from
+    # 18 s to 20 s.  The wording and the three modes are the house rule (spec/sections/integrity.py).
+    s = load_spec_text(SPEC + f"  truncated_audio: {mode}\n").spec
+    findings, verdict = judge(s, _truncated(missing_bytes=576_000, missing_s=2.0, size_bytes=5_184_000,
+                                            declared_size_bytes=5_760_000))
+    (f,) = [f for f in findings if f.check == "integrity.truncated_audio"]
+    assert (f.status, f.severity) == (status, None if mode == "allow" else mode)
+    assert verdict == status
+    assert (f.measured, f.measured_raw, f.unit, f.limit) == (2.0, 576_000, "s", "nothing missing")
+    assert f.measured_text == "0:00:02.000 missing (576,000 bytes)"
+    assert f.where_s == [[18.0, 20.0]]
+    tail = "" if mode == "fail" else f" (the spec's integrity.truncated_audio is {mode})"
+    assert f.message == ("The file is cut short: its header declares 5,760,000 bytes of audio but the file holds "
+                         "5,184,000, so the last 576,000 bytes (0:00:02.000 of audio) are missing; only the first "
+                         f"0:00:18.000 can be checked{tail}.")
+
+
+def test_a_truncation_of_unknown_length_still_fails_by_default(spec):
+    # by construction: 100 bytes missing with no time known; the declared size is what is held plus what is
+    # missing (5,184,000 + 100), and without a duration there is no place to mark
+    findings, verdict = judge(spec, _truncated(duration_s=None, missing_bytes=100, size_bytes=5_184_000))
+    (f,) = [f for f in findings if f.check == "integrity.truncated_audio"]
+    assert (f.status, verdict, f.measured, f.where_s) == ("fail", "fail", None, [])
+    assert f.measured_text == "100 bytes missing"
+    assert f.message == ("The file is cut short: its header declares 5,184,100 bytes of audio but the file holds "
+                         "5,184,000, so the last 100 bytes (audio of unknown length) are missing.")
+
+
+def test_nothing_missing_is_no_finding(spec):
+    # by construction: missing_bytes 0 (or absent) means the data chunk is whole
+    for data in ({"missing_bytes": 0, "size_bytes": 10}, {}):
+        findings, _ = judge(spec, _truncated(**data))
+        assert not [f for f in findings if f.check == "integrity.truncated_audio"]
