@@ -87,6 +87,16 @@ def test_short_programme_range_carries_the_caution(spec, duration_s, caution):
     f = by_check(judge(spec, result(duration_s=duration_s))[0])["loudness.range"]
     assert ("Loudness range means little for a programme under one minute" in f.message) is caution
     assert f.status == "pass"
+    if caution:   # the caution's whole wording (house choice), appended as its own sentence
+        assert f.message == ("Loudness range is 6.0 LU (limit: at most 15.0 LU). Loudness range means little for a "
+                             "programme under one minute (EBU R 128 does not recommend it there).")
+
+
+def test_an_unmeasured_range_gets_no_short_programme_caution(spec):
+    # by construction: no range to qualify (null loudness_range_lu is judged "skipped"), so no caution on it
+    f = by_check(judge(spec, result(duration_s=30.0, loudness_range_lu=None))[0])["loudness.range"]
+    assert f.status == "skipped"
+    assert "means little" not in f.message
 
 
 def test_severity_warn_section(spec):
