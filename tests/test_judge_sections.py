@@ -386,3 +386,33 @@ def test_figures_for_carry_where_target_and_ceiling_came_from():
     assert fig == {"target_lufs": -14.0, "target_source": "loudness.integrated", "ceiling_dbtp": -1.0,
                    "ceiling_source": "peaks.true_peak", "gain_db": 6.0, "true_peak_after_gain_dbtp": 3.0,
                    "limiting_needed_db": 4.0, "note": None}
+
+
+@pytest.mark.parametrize("lufs, peak_dbtp, status, message", [
+    # analytic: -20 -> -14 LUFS is +6.0 dB, so a -4.0 dBTP peak lands at +2.0 dBTP, 3.0 dB over the -1.0 ceiling
+    (-20.0, -4.0, "warn", "Limiting needed to reach the target is 3.0 dB, 2.0 dB above the limit of 1.0 dB (the "
+     "spec counts this as a warning). Turned to -14.0 LUFS (raising the gain by 6.0 dB), the true peak would be "
+     "at 2.0 dBTP against a ceiling of -1.0 dBTP."),
+    # analytic: -10 -> -14 LUFS is -4.0 dB, so -0.5 dBTP lands at -4.5 dBTP, under the ceiling: no limiting
+    (-10.0, -0.5, "pass", "Limiting needed to reach the target is 0.0 dB (limit: at most 1.0 dB). Turned to "
+     "-14.0 LUFS (lowering the gain by 4.0 dB), the true peak would be at -4.5 dBTP against a ceiling of -1.0 dBTP."),
+    # analytic: +0.04 dB rounds to no change at the 0.1 dB display step (house choice); -0.46 dBTP is 0.46 dB over
+    (-14.04, -0.5, "pass", "Limiting needed to reach the target is 0.5 dB (limit: at most 1.0 dB). Turned to "
+     "-14.0 LUFS (no gain change), the true peak would be at -0.5 dBTP against a ceiling of -1.0 dBTP."),
+])
+def test_normalisation_limiting_says_what_the_gain_change_does(lufs, peak_dbtp, status, message):
+    s = load_spec_text("spec_version: 1\nname: n\nloudness:\n  integrated: {max_lufs: -14.0}\n"
+                       "peaks:\n  true_peak: {max_dbtp: -1.0}\n"
+                       "normalisation: {target_lufs: -14.0, limiting: {max_db: 1.0, severity: warn}}\n").spec
+    f = by_check(judge(s, result(integrated_lufs=lufs, true_peak_dbtp=peak_dbtp))[0])["normalisation.limiting"]
+    assert (f.status, f.severity, f.message) == (status, "warn", message)
+
+
+def test_normalisation_limiting_not_judged_names_why_and_keeps_its_severity():
+    # by construction: no integrated loudness (silent file), so no gain to work out; the spec's severity stays
+    s = load_spec_text("spec_version: 1\nname: n\nnormalisation: {target_lufs: -14.0, "
+                       "limiting: {max_db: 1.0, severity: warn}}\n").spec
+    f = by_check(judge(s, result(integrated_lufs=None))[0])["normalisation.limiting"]
+    assert (f.status, f.severity) == ("skipped", "warn")
+    assert f.message == ("Limiting needed to reach the target: not judged; integrated loudness does not exist for "
+                         "this file (silent or below the gate).")
