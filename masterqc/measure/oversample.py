@@ -13,7 +13,7 @@ Filter (``kaiser`` design, the default)
     unit gain at 0 Hz.  The defaults, ``T = 192``, ``beta = 5.5`` (house choice),
     make a narrow transition centred on fs/2 (half amplitude there, a Nyquist
     filter): every phase reproduces a sine up to 0.49*fs within 0.0021 of its
-    amplitude and phase (0.018 dB) and the prototype is at least 60 dB down from 0.51*fs
+    amplitude and phase (0.018 dB) and the prototype is 59.7 dB or more down from 0.51*fs (-59.78 dB)
     (so the image of a 0.49*fs component is too).  Figures computed by
     :func:`filter_properties` and checked in ``tests/test_true_peak.py``.
 
