@@ -267,7 +267,8 @@ class TruePeakAnalyzer(Analyzer):
         settings.update({
             "oversampled_rate_hz": rate * self.meter.factor,
             "scan_factor": int(self.meter.scan_factor),
-            "scan": ("kaiser: a scan grid of scan_factor per sample finds the frames that can hold "
+            "scan": ("kaiser: an analytic bound per group of frames from the samples, then a scan grid "
+                     "of scan_factor per sample, find the frames that can hold "
                      "a peak, an over or an envelope maximum (bound cos(pi*B/(L*fs)), B = "
                      f"{SCAN_BAND_FS}*fs); those are read on the full grid" if self.design == "kaiser"
                      else "annex2: read on its own 4x grid"),
