@@ -738,3 +738,27 @@ def test_pre_screen_bound_holds_for_every_phase():
         bound = a_near * np.abs(x[2 + lead - 4:2 + lead + 5]).max() + a_far * np.abs(x).max() \
             + c_h * np.abs(xh[1:1 + T]).max()
         assert abs(y) <= bound * (1 + 1e-12)
+
+
+def test_float32_exact_sample_peak_equals_the_float64_reduction():
+    # 24-bit codes and float32 values are exact in float32 (IEEE 754 binary32: 24-bit significand),
+    # so the sample peak taken from the float32 buffer equals the float64 one bit for bit
+    from masterqc.measure.peaks import samples_are_float32
+    rng = np.random.default_rng(21)
+    pcm24 = np.round(rng.uniform(-1, 1, (150000, 2)) * 2 ** 23) / 2 ** 23
+    f32 = (rng.standard_normal((150000, 2)) * 0.3).astype(np.float32).astype(np.float64)
+    for x in (pcm24, f32):
+        plain, cp_plain, _ = run_meter(x, 65536)
+        fast = ov.TruePeakMeter(FS, 2, 4, float32_exact=True)
+        for i in range(0, x.shape[0], 50000):
+            fast.process(x[i:i + 50000])
+        fast.flush()
+        assert np.array_equal(fast.sample_peak_linear, np.abs(x).max(axis=0))
+        assert np.array_equal(fast.sample_peak_linear, plain.sample_peak_linear)
+        assert np.array_equal(fast.peak_linear, plain.peak_linear)
+    # which encodings qualify (the reader's table: bit depth, is_float)
+    info = type("I", (), {})
+    for bits, is_float, expected in ((16, False, True), (24, False, True), (32, False, False),
+                                     (32, True, True), (64, True, False), (8, False, True)):
+        info.bit_depth, info.is_float = bits, is_float
+        assert samples_are_float32(info) is expected, (bits, is_float)

@@ -408,14 +408,20 @@ def local_bound_constants(flt: PolyphaseFilter, near: int = 4) -> tuple[float, f
             float(np.abs(h).sum(axis=0).max()))
 
 
-def _group_max(a: np.ndarray, group: int) -> np.ndarray:
+def _group_max(a: np.ndarray, group: int, scratch=None) -> np.ndarray:
     """Maximum over consecutive runs of ``group`` (a power of two) columns of a 2-D
-    array, by pairwise halving (numpy reduces short rows slowly)."""
-    m = a
+    array, by pairwise halving (numpy reduces short rows slowly); ``scratch``: two
+    arrays of at least half ``a``'s columns to work in."""
+    if scratch is None:
+        scratch = (np.empty((a.shape[0], a.shape[1] // 2), a.dtype),) * 2
+    m, k = a, 0
     while group > 1:
-        m = np.maximum(m[:, 0::2], m[:, 1::2])
+        n = m.shape[1] // 2
+        out = scratch[k][:, :n]
+        np.maximum(m[:, 0::2], m[:, 1::2], out=out)
+        m, k = out, 1 - k
         group //= 2
-    return m
+    return m.copy()
 
 
 def _window_max(a: np.ndarray, lo: int, hi: int, n: int, first: int) -> np.ndarray:
@@ -440,7 +446,7 @@ class TruePeakMeter:
     - ``peak_linear``: per-channel maximum of ``|x|`` over every instant of the
       reading grid (phase 0 included, so never below the sample peak), shape (C,);
     - ``sample_peak_linear``: per-channel maximum of ``|x|`` over the input samples
-      received (float64, exact), shape (C,);
+      received (evaluated, with ``float32_exact``), float64, exact, shape (C,);
     - ``envelope_linear``: with ``bucket_frames``, the maximum over channels and
       instants in each bucket of that many frames (``buckets`` of them; frames
       past the last bucket count in it);
@@ -462,7 +468,8 @@ class TruePeakMeter:
     likewise with the per-channel values, a (channels, frames) float32 array
     whose maximum over channels is ``frame_peak``; a channel's value is exact
     wherever that channel can reach ``ceiling_linear``, so overs can be
-    attributed to the channels that hold them.
+    attributed to the channels that hold them.  The arrays passed to both
+    callbacks are valid during the call only (copy them to keep them).
 
     Evaluation, in three steps per run of ``RUN_FRAMES`` frames at fixed
     positions in the file (so that no result depends on the block size):
@@ -491,7 +498,7 @@ class TruePeakMeter:
     #: frames per group of the pre-screen and of the scan's matrix product
     GROUP = 32
     #: frames per run (a multiple of GROUP; runs sit at fixed positions)
-    RUN_FRAMES = 65536
+    RUN_FRAMES = 131072
     #: samples either side counted in the pre-screen's near term
     NEAR = 4
     #: relative allowance for float32 rounding in the pre-screen bound (house
@@ -504,9 +511,13 @@ class TruePeakMeter:
 
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
                  design: str = "kaiser", on_frames=None, ceiling_linear: float | None = None,
-                 bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None):
+                 bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None,
+                 float32_exact: bool = False):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
+        #: the caller promises every sample is a float32 value (PCM up to 24 bits, 32-bit
+        #: float): the sample peak is then taken from the float32 buffer, still exact
+        self.float32_exact = bool(float32_exact)
         if design == "kaiser":
             scan = max(SCAN_FACTOR_MIN, int(factor))
             if READ_FACTOR % scan:
@@ -564,6 +575,13 @@ class TruePeakMeter:
         self._cap = self.RUN_FRAMES + self._pre + (self._post_groups + 1) * G
         self._buf = np.zeros((self.channels, self._cap), dtype=np.float32)
         self._fill = self._pre
+        self._alloc_work()
+
+    def _alloc_work(self) -> None:
+        # |x| (then the frame values), 4*|x_h|, and two halving scratch arrays
+        C, cap = self.channels, self._cap
+        self._work = (np.empty((C, cap), np.float32), np.empty((C, cap), np.float32),
+                      np.empty((C, cap // 2), np.float32), np.empty((C, cap // 2), np.float32))
 
     def process(self, block) -> None:
         """Feed a (frames, channels) block."""
@@ -577,13 +595,15 @@ class TruePeakMeter:
         n = block.shape[0]
         if n == 0:
             return
-        np.maximum(self.sample_peak_linear, _abs_max_columns(block), out=self.sample_peak_linear)
+        if not self.float32_exact:
+            np.maximum(self.sample_peak_linear, _abs_max_columns(block), out=self.sample_peak_linear)
         self._received += n
         need = self.RUN_FRAMES + self._pre + self._post_groups * self._G
         done = 0
         while done < n:
             take = min(n - done, self._cap - self._fill)
-            self._buf[:, self._fill:self._fill + take] = block[done:done + take].T
+            for c in range(self.channels):
+                self._buf[c, self._fill:self._fill + take] = block[done:done + take, c]
             self._fill += take
             done += take
             with single_thread_blas():
@@ -610,6 +630,7 @@ class TruePeakMeter:
                     grown = np.zeros((self.channels, need), dtype=np.float32)
                     grown[:, :self._fill] = self._buf[:, :self._fill]
                     self._buf, self._cap = grown, need
+                    self._alloc_work()
                 self._buf[:, self._fill:need] = 0.0
                 self._fill = max(self._fill, need)
                 self._evaluate(span, m)
@@ -673,30 +694,28 @@ class TruePeakMeter:
         start = self.frames_done
         L = pre + span + self._post_groups * G
         xb = self._buf[:, :L]
-        ax = np.abs(xb)
-        gm = _group_max(ax, G)                      # per group max|x|
-        d = xb[:, :-2] + xb[:, 2:]
-        d -= xb[:, 1:-1]
-        d -= xb[:, 1:-1]
-        np.abs(d, out=d)                                              # 4*|x_h| at columns 1 .. L-2
-        dpad = np.empty((C, L), dtype=np.float32)
+        ax = self._work[0][:, :L]
+        np.abs(xb, out=ax)
+        scratch = (self._work[2], self._work[3])
+        gm = _group_max(ax, G, scratch)                               # per group max|x|
+        dpad = self._work[1][:, :L]
         dpad[:, 0] = 0.0
-        dpad[:, -1] = 0.0
-        dpad[:, 1:-1] = d
-        gh = _group_max(dpad, G)
+        np.subtract(xb[:, 1:], xb[:, :-1], out=dpad[:, 1:])             # x[j] - x[j-1] at column j
+        np.subtract(dpad[:, 2:], dpad[:, 1:-1], out=dpad[:, 1:-1])       # -4*x_h at columns 1 .. L-2
+        dpad[:, -1] = 0.0                                               # (never read: past the spans)
+        np.abs(dpad, out=dpad)
+        gh = _group_max(dpad, G, scratch)
         a = self._pre_groups
         m_near = _window_max(gm, -1, 1, ng, a)
         m_far = _window_max(gm, self._far[0], self._far[1], ng, a)
         h_far = _window_max(gh, self._hspan[0], self._hspan[1], ng, a)
         bound = (self._a_near * m_near.astype(np.float64) + (self._a_far + self.BOUND_ROUNDING) * m_far
                  + (0.25 * self._c_h) * h_far) * (1.0 + self.BOUND_ROUNDING)
-        vals = ax[:, pre:pre + span].copy()                           # frame values, |x| so far
+        vals = ax[:, pre:pre + span]                                  # frame values, |x| so far (in place)
         own = gm[:, a:a + ng]
         if m < span:
             vals[:, m:] = 0.0
         # floors from what is known before the scan: samples and earlier runs
-        full = np.zeros(ng, dtype=bool)
-        full[:m // G] = True
 
         def known_samples(cuts):
             # groups lying wholly in a piece, and inside the file
@@ -710,12 +729,16 @@ class TruePeakMeter:
 
         cuts, levels = self._levels(start, m, known_samples)
         gfloor = self._group_floor(cuts, levels, ng, m)
-        peak1 = np.maximum(self.peak_linear, np.where(full, own, 0).max(axis=1))
-        rows_all = None
+        run_peak = own.max(axis=1)                                     # frames past the end are zero
+        if self.float32_exact:
+            np.maximum(self.sample_peak_linear, run_peak, out=self.sample_peak_linear)
+        peak1 = np.maximum(self.peak_linear, run_peak)
+        scanned = [None] * C
         for c in range(C):
             cand = np.flatnonzero((bound[c] >= np.minimum(gfloor, peak1[c])) & (bound[c] > 0))
             if not cand.size:
                 continue
+            scanned[c] = cand
             self.scanned_frames += int(cand.size) * G
             s = self._buf[c]
             rows_all = as_strided(s[pre - lead:], shape=(ng, G + T - 1), strides=(G * s.itemsize, s.itemsize))
@@ -729,9 +752,11 @@ class TruePeakMeter:
                 vc[idx] = np.maximum(vc[idx], sv)
         if m < span:
             vals[:, m:] = 0.0
-        fp = vals.max(axis=0) if C > 1 else vals[0].copy()
+        fp = vals[0].copy()
+        for c in range(1, C):
+            np.maximum(fp, vals[c], out=fp)
         if self._fine.shape[1]:
-            self._refine(vals, fp, ax, start, m, ng)
+            self._refine(vals, fp, ax, own, scanned, start, m, ng)
         self._bucket_update(start, fp[:m])
         np.maximum(self.peak_linear, vals.max(axis=1), out=self.peak_linear)
         self.frames_done += m
@@ -740,25 +765,31 @@ class TruePeakMeter:
         if self._on_channel_frames is not None:
             self._on_channel_frames(start, vals[:, :m])
 
-    def _refine(self, vals, fp, ax, start: int, m: int, ng: int) -> None:
+    def _refine(self, vals, fp, ax, own, scanned, start: int, m: int, ng: int) -> None:
         """Read the fine phases, in place, in the frames where the scan cannot rule
         out a value at or above the channel's peak, the ceiling or the bucket's
-        maximum."""
+        maximum (only in scanned groups: the pre-screen ruled the others out
+        against a floor no higher than this one)."""
         G, T, lead, C, pre = self._G, self._T, self._lead, self.channels, self._pre
         thr = self.threshold
         cuts, levels = self._levels(start, m, lambda cuts: np.maximum.reduceat(fp[:m], cuts))
         gfloor = self._group_floor(cuts, levels, ng, m)
-        nxt = ax[:, pre + G:pre + ng * G + 1:G]                        # sample after each group
-        gmax = np.maximum(_group_max(vals, G), nxt)
         lane = np.arange(G)
         for c in range(C):
-            peak_c = max(float(self.peak_linear[c]), float(gmax[c].max()))
-            groups = np.flatnonzero((gmax[c] >= thr * np.minimum(gfloor, peak_c)) & (gmax[c] > 0))
+            groups = scanned[c]
+            if groups is None:
+                continue
+            gv = vals[c].reshape(ng, G)[groups]
+            gmax = np.maximum(gv.max(axis=1), np.abs(self._buf[c, pre + (groups + 1) * G]))  # + the sample after
+            peak_c = max(float(self.peak_linear[c]), float(gmax.max()), float(own[c].max()))
+            keep = (gmax >= thr * np.minimum(gfloor[groups], peak_c)) & (gmax > 0)
+            groups = groups[keep]
             if not groups.size:
                 continue
             frames = (groups[:, None] * G + lane[None, :]).ravel()
-            frames = frames[frames < m]
-            ext = np.maximum(vals[c, frames], ax[c, pre + 1 + frames])   # + the next sample
+            ext = np.maximum(gv[keep].ravel(), np.abs(self._buf[c, pre + 1 + frames]))   # + the next sample
+            ok = frames < m
+            frames, ext = frames[ok], ext[ok]
             piece = np.searchsorted(cuts, frames, side="right") - 1
             cand = frames[(ext >= thr * np.minimum(levels[piece], peak_c)) & (ext > 0)]
             if not cand.size:
