@@ -770,7 +770,11 @@ class TruePeakMeter:
         if self._fine.shape[1]:
             self._refine(vals, fp, ax, own, scanned, start, m, ng)
         self._bucket_update(start, fp[:m])
-        np.maximum(self.peak_linear, vals.max(axis=1), out=self.peak_linear)
+        for c in range(C):             # the frame values exceed |x| only in the scanned groups
+            top = float(run_peak[c])
+            if scanned[c] is not None:
+                top = max(top, float(vals[c].reshape(ng, G)[scanned[c]].max()))
+            self.peak_linear[c] = max(float(self.peak_linear[c]), top)
         self.frames_done += m
         if self._on_frames is not None:
             self._on_frames(start, fp[:m])

@@ -222,6 +222,8 @@ class TruePeakAnalyzer(Analyzer):
     # -- per-frame bookkeeping -------------------------------------------------
     def _frames(self, start: int, cp) -> None:
         """``cp``: (channels, frames) per-channel frame peaks from ``start``."""
+        if not cp.size or cp.max() <= self.ceiling_linear:     # one reduction; most runs hold no over
+            return
         over = cp > self.ceiling_linear
         idx = np.flatnonzero(over.any(axis=0))
         if not idx.size:
