@@ -145,8 +145,9 @@ def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts
 
 def judge_result(result: dict, loaded_spec) -> dict:
     """Add ``spec``, ``normalisation``, ``findings`` and ``verdict`` to a measure result (pure)."""
-    from masterqc.judge import judge
-    from masterqc.judge.normalisation import figures_for
+    with stage("import_judge"):  # the judge and its sections: paid once per process
+        from masterqc.judge import judge
+        from masterqc.judge.normalisation import figures_for
 
     spec = loaded_spec.spec
     with stage("judge"):
@@ -284,7 +285,8 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
             out = judge_stored(stored, loaded_spec, key)
             out["file"] = dict(out.get("file") or {}, path=os.fspath(path))  # the same bytes, maybe another name
             return out
-    from masterqc.measure.engine import measure_file
+    with stage("import_measure"):  # the engine and its analyzers: paid once per process
+        from masterqc.measure.engine import measure_file
     try:
         with stage("measure"):
             measured = measure_file(path, options, progress=progress)
