@@ -65,12 +65,19 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
     """
     for a in analyzers:
         rec = cpu_split.setdefault(type(a).__name__, [0.0, 0.0])
-        proc, fin = a.process, a.finish
+        proc, planar, fin = a.process, a.process_planar, a.finish
 
         def process(block, _proc=proc, _rec=rec):
             t = time.thread_time()
             try:
                 _proc(block)
+            finally:
+                _rec[0] += time.thread_time() - t
+
+        def process_planar(rows, _proc=planar, _rec=rec):
+            t = time.thread_time()
+            try:
+                _proc(rows)
             finally:
                 _rec[0] += time.thread_time() - t
 
@@ -80,7 +87,7 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
                 return _fin()
             finally:
                 _rec[1] += time.thread_time() - t
-        a.process, a.finish = process, finish
+        a.process, a.process_planar, a.finish = process, process_planar, finish
 
 
 #: glibc ``mallopt`` parameters (malloc.h): M_TRIM_THRESHOLD, M_TOP_PAD, M_MMAP_THRESHOLD
@@ -121,20 +128,43 @@ def keep_block_buffers_in_heap() -> bool:
     return True
 
 
-def _prepare(block, info, want_clean: bool):
-    """(raw, clean) views of a decoded block, both read-only.
+def _prepare(block, info, want_clean: bool, want_planar: bool = False):
+    """(raw, clean, planar) views of a decoded block, all read-only.
 
     ``clean`` has non-finite samples replaced by 0.0 (float files only); it is the
-    block itself when every sample is finite.  Read-only, because every analyzer
-    sees the same arrays: one that wrote into its input would change another's.
+    block itself when every sample is finite.  ``planar`` is ``clean`` as (channels,
+    frames), C-contiguous (one copy, made here so that analyzers with
+    ``planar_input`` do not each transpose the block), or None when nobody asked.
+    Read-only, because every analyzer sees the same arrays: one that wrote into its
+    input would change another's.
     """
     block = np.asarray(block)
     block.flags.writeable = False
     clean = block
-    if want_clean and info.is_float and not np.isfinite(block).all():
+    if (want_clean or want_planar) and info.is_float and not np.isfinite(block).all():
         clean = np.where(np.isfinite(block), block, 0.0)
         clean.flags.writeable = False
-    return block, clean
+    planar = None
+    if want_planar:
+        planar = np.ascontiguousarray(clean.T)
+        planar.flags.writeable = False
+    return block, clean, planar
+
+
+def _feed(analyzer, prepared) -> None:
+    """Hand ``analyzer`` the form of a prepared block it takes."""
+    raw, clean, planar = prepared
+    if analyzer.planar_input:
+        analyzer.process_planar(planar)
+    else:
+        analyzer.process(raw if analyzer.raw_input else clean)
+
+
+def _check_inputs(analyzers) -> None:
+    for a in analyzers:
+        if a.planar_input and a.raw_input:
+            raise ValueError(f"{type(a).__name__}: planar blocks are the cleaned ones; "
+                             "raw_input and planar_input cannot both be set")
 
 
 def _collect(analyzers):
@@ -174,6 +204,7 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
             bind(analyzers)
     if cpu_split is not None:
         _time_analyzers(analyzers, cpu_split)
+    _check_inputs(analyzers)
     threads = max(1, int(getattr(options, "threads", 1) or 1))
     keep_block_buffers_in_heap()
     with single_thread_blas():
@@ -188,15 +219,13 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
 
 
 def _run_sequential(stream, info, options, analyzers, progress) -> None:
-    raw = [a for a in analyzers if a.raw_input]
-    clean = [a for a in analyzers if not a.raw_input]
+    want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
+    want_planar = any(a.planar_input for a in analyzers)
     done = 0
     for block in stream.blocks(options.block_frames):
-        block, cleaned = _prepare(block, info, bool(clean))
-        for a in raw:
-            a.process(block)
-        for a in clean:
-            a.process(cleaned)
+        prepared = _prepare(block, info, want_clean, want_planar)
+        for a in analyzers:
+            _feed(a, prepared)
         done += block.shape[0]
         if progress is not None:
             progress(done, info.frames)
@@ -220,12 +249,13 @@ class _BlockScheduler:
         self.analyzers = analyzers
         self.threads = threads
         self.progress = progress
-        self.want_clean = any(not a.raw_input for a in analyzers)
+        self.want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
+        self.want_planar = any(a.planar_input for a in analyzers)
         self.lock = threading.Lock()
         self.space = threading.Condition(self.lock)    # the reader waits here
         self.work = threading.Condition(self.lock)     # the helper workers wait here
         self.main = threading.Condition(self.lock)     # the calling thread waits here
-        self.blocks: dict[int, tuple] = {}     # index -> (raw, clean)
+        self.blocks: dict[int, tuple] = {}     # index -> (raw, clean, planar)
         self.ends: list[int] = []              # frames done after block k
         self.read_count = 0
         self.read_done = False
@@ -247,12 +277,12 @@ class _BlockScheduler:
         gen = self.stream.blocks(self.options.block_frames)
         try:
             for block in gen:
-                pair = _prepare(block, self.info, self.want_clean)
+                prepared = _prepare(block, self.info, self.want_clean, self.want_planar)
                 with self.lock:
                     if self.abort:
                         return
                     k = self.read_count
-                    self.blocks[k] = pair
+                    self.blocks[k] = prepared
                     self.ends.append((self.ends[-1] if self.ends else 0) + block.shape[0])
                     self.read_count = k + 1
                     self.work.notify_all()
@@ -314,14 +344,14 @@ class _BlockScheduler:
                 if pending is None:
                     self.busy[i] = True
                     k = self.next[i]
-                    raw, clean = self.blocks[k]
+                    prepared = self.blocks[k]
             if pending is not None:
                 for frames in pending:
                     self.progress(frames, self.info.frames)
                 continue
             a = self.analyzers[i]
             try:
-                a.process(raw if a.raw_input else clean)
+                _feed(a, prepared)
             except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
                 with self.lock:
                     self.errors.append((k, i, exc))
@@ -329,7 +359,7 @@ class _BlockScheduler:
                     self._wake_all()
                 return
             finally:
-                raw = clean = None
+                prepared = None
             with self.lock:
                 self.busy[i] = False
                 self.next[i] = k + 1
