@@ -178,13 +178,17 @@ def _collect(analyzers):
     return measurements, series, settings
 
 
-def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, cpu_split=None):
+def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, cpu_split=None,
+                  thread_cpu=None):
     """Feed every applicable analyzer from one read of ``stream``.
 
     ``progress(frames_done, frames_total)`` is called after each block when given
     (always from the calling thread).  Returns ``(measurements, series, settings)``
     dicts.  With a dict ``cpu_split``, each analyzer's CPU seconds in process() and finish()
-    are added to it (:func:`_time_analyzers`).  After every analyzer has finished, the registry's post-steps
+    are added to it (:func:`_time_analyzers`); with a dict ``thread_cpu``, the CPU seconds of
+    decoding and preparing blocks (``"read_s"``: the reader thread, or the decode calls of a
+    sequential run) and of the threads that run the analyzers (``"analyze_s"``: their
+    process() calls and the scheduling around them).  After every analyzer has finished, the registry's post-steps
     (:func:`masterqc.measure.registry.post_steps`) combine evidence across analyzers.
 
     With ``options.threads`` > 1 the stream is decoded in a reader thread up to
@@ -209,26 +213,40 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
     keep_block_buffers_in_heap()
     with single_thread_blas():
         if threads == 1 or not analyzers:
-            _run_sequential(stream, info, options, analyzers, progress)
+            _run_sequential(stream, info, options, analyzers, progress, thread_cpu)
         else:
-            _BlockScheduler(stream, info, options, analyzers, threads, progress).run()
+            _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu).run()
         measurements, series, settings = _collect(analyzers)
     for step in post_steps():
         measurements = step(measurements)
     return measurements, series, settings
 
 
-def _run_sequential(stream, info, options, analyzers, progress) -> None:
+def _run_sequential(stream, info, options, analyzers, progress, thread_cpu=None) -> None:
     want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
     want_planar = any(a.planar_input for a in analyzers)
     done = 0
-    for block in stream.blocks(options.block_frames):
+    read_s = analyze_s = 0.0
+    clock = time.thread_time if thread_cpu is not None else (lambda: 0.0)
+    gen = stream.blocks(options.block_frames)
+    while True:
+        t0 = clock()
+        block = next(gen, None)
+        if block is None:
+            read_s += clock() - t0
+            break
         prepared = _prepare(block, info, want_clean, want_planar)
+        t1 = clock()
         for a in analyzers:
             _feed(a, prepared)
+        analyze_s += clock() - t1
+        read_s += t1 - t0
         done += block.shape[0]
         if progress is not None:
             progress(done, info.frames)
+    if thread_cpu is not None:
+        thread_cpu["read_s"] = thread_cpu.get("read_s", 0.0) + read_s
+        thread_cpu["analyze_s"] = thread_cpu.get("analyze_s", 0.0) + analyze_s
 
 
 class _BlockScheduler:
@@ -244,8 +262,9 @@ class _BlockScheduler:
     there is progress to report.
     """
 
-    def __init__(self, stream, info, options, analyzers, threads, progress):
+    def __init__(self, stream, info, options, analyzers, threads, progress, thread_cpu=None):
         self.stream, self.info, self.options = stream, info, options
+        self.thread_cpu = thread_cpu           # opt-in: CPU seconds per kind of thread
         self.analyzers = analyzers
         self.threads = threads
         self.progress = progress
@@ -273,7 +292,27 @@ class _BlockScheduler:
         self.main.notify_all()
 
     # -- reader thread
+    def _add_cpu(self, key: str, started: float) -> None:
+        if self.thread_cpu is not None:
+            spent = time.thread_time() - started
+            with self.lock:
+                self.thread_cpu[key] = self.thread_cpu.get(key, 0.0) + spent
+
     def _read(self) -> None:
+        started = time.thread_time()
+        try:
+            self._read_blocks()
+        finally:
+            self._add_cpu("read_s", started)
+
+    def _work(self, report: bool) -> None:
+        started = time.thread_time()
+        try:
+            self._work_blocks(report)
+        finally:
+            self._add_cpu("analyze_s", started)
+
+    def _read_blocks(self) -> None:
         gen = self.stream.blocks(self.options.block_frames)
         try:
             for block in gen:
@@ -322,7 +361,7 @@ class _BlockScheduler:
     def _finished(self) -> bool:
         return self.read_done and self.low >= self.read_count
 
-    def _work(self, report: bool) -> None:
+    def _work_blocks(self, report: bool) -> None:
         wait_on = self.main if report else self.work
         report = report and self.progress is not None
         while True:
@@ -410,14 +449,18 @@ class _Background:
 
     def __init__(self, fn, *args):
         self._value = self._error = None
+        self.cpu_s = 0.0
         self._thread = threading.Thread(target=self._run, args=(fn, args), name="masterqc-hash", daemon=True)
         self._thread.start()
 
     def _run(self, fn, args):
+        started = time.thread_time()
         try:
             self._value = fn(*args)
         except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
             self._error = exc
+        finally:
+            self.cpu_s = time.thread_time() - started
 
     def result(self):
         self._thread.join()
@@ -434,16 +477,20 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     options = options or MeasureOptions()
     started = time.perf_counter()
     threaded = max(1, int(getattr(options, "threads", 1) or 1)) > 1
+    split_path = os.environ.get(CPU_SPLIT_ENV)
+    cpu_split = {} if split_path else None
+    thread_cpu = {} if split_path else None
+    cpu_started = time.process_time()
     # with threads, the file is hashed in the background while it is measured; its
     # error (the file cannot be read) still comes first, as in a sequential run
     hashing = _Background(file_facts, path) if threaded else None
+    hash_started = time.thread_time()
     facts = None if threaded else file_facts(path)
-    split_path = os.environ.get(CPU_SPLIT_ENV)
-    cpu_split = {} if split_path else None
-    cpu_started = time.process_time()
+    hash_cpu_s = time.thread_time() - hash_started
     try:
         with open_stream(path, channel_layout=options.channel_layout) as stream:
-            measurements, series, settings = run_analyzers(stream, options, progress, cpu_split=cpu_split)
+            measurements, series, settings = run_analyzers(stream, options, progress, cpu_split=cpu_split,
+                                                           thread_cpu=thread_cpu)
             container = stream.container
             fmt = stream.info.format_dict()
     except BaseException:
@@ -452,11 +499,17 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         raise
     if hashing is not None:
         facts = hashing.result()
+        hash_cpu_s = hashing.cpu_s
     if split_path:
         import json
+        # threads_cpu_s: "hash_s" (the file's SHA-256), "read_s" (decoding and preparing the
+        # blocks), "analyze_s" (the analyzer threads: the analyzers' process() and the
+        # scheduling around it); the rest of process_cpu_s is opening the file, building the
+        # analyzers, their finish() and assembling the result
         with open(split_path, "w", encoding="utf-8") as f:
             json.dump({"process_cpu_s": time.process_time() - cpu_started,
                        "threads": max(1, int(getattr(options, "threads", 1) or 1)),
+                       "threads_cpu_s": {"hash_s": hash_cpu_s, **thread_cpu},
                        "analyzers": cpu_split}, f, indent=1)
     metadata = dict(container.metadata)
     metadata["container_kind"] = container.kind
