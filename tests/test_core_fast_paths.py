@@ -61,3 +61,18 @@ def test_clipping_skip_changes_no_result(bits, is_float, threshold_db):
         # by construction: |x| > 1 counted on the programme itself (the +-1.0 markers are not over)
         overs = np.count_nonzero(np.abs(x) > 1.0, axis=0).tolist()
         assert a["over_full_scale_sample_count_per_channel"] == overs == b["over_full_scale_sample_count_per_channel"]
+
+
+@pytest.mark.parametrize("size_bytes", [0, 7, (1 << 20), (5 << 19) + 7])
+def test_file_hash_read_into_one_buffer_is_sha256(tmp_path, size_bytes):
+    """The file's hash (read in 1 MiB pieces into one reused buffer) is hashlib's SHA-256 of
+    its bytes (reference library), for sizes below, at and across the piece size."""
+    import hashlib
+
+    from masterqc.measure.engine import file_facts
+    data = np.random.default_rng(size_bytes).integers(0, 256, size_bytes, dtype=np.uint8).tobytes()
+    path = tmp_path / "bytes.bin"
+    path.write_bytes(data)
+    facts = file_facts(path)
+    assert facts["sha256"] == hashlib.sha256(data).hexdigest()
+    assert facts["size_bytes"] == len(data)

@@ -32,15 +32,17 @@ def file_facts(path) -> dict:
     """``{"path", "size_bytes", "sha256"}`` of a file, read in 1 MiB chunks."""
     digest = hashlib.sha256()
     size = 0
+    buf = bytearray(HASH_CHUNK_BYTES)        # one buffer read into again and again: no 1 MiB object per chunk
+    view = memoryview(buf)
     from masterqc.fileio import NotRegularFile, open_regular_file
     try:
         with open_regular_file(path) as f:  # a FIFO or device is refused at once, never waited on
             while True:
-                chunk = f.read(HASH_CHUNK_BYTES)
-                if not chunk:
+                n = f.readinto(buf)
+                if not n:
                     break
-                size += len(chunk)
-                digest.update(chunk)
+                size += n
+                digest.update(view[:n])
     except NotRegularFile as exc:
         raise AudioReadError(path, str(exc)) from None
     except OSError as exc:
