@@ -22,6 +22,7 @@ from masterqc.measure.channels import ChannelRelationAnalyzer
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.loudness import LoudnessAnalyzer
 from masterqc.measure.options import MeasureOptions
+from masterqc.measure.silence import SilenceAnalyzer
 
 FS = 48000
 
@@ -132,3 +133,22 @@ def test_channel_relation_planar_equals_interleaved(channels, block, with_meter)
     interleaved, planar = _both_ways(ChannelRelationAnalyzer, x, LAYOUTS[channels], block, peers)
     assert planar == interleaved
     assert '"level_balance_lu"' in planar
+
+
+@pytest.mark.parametrize("channels", [1, 2, 6])
+@pytest.mark.parametrize("block", [65536, 4097, 1000])
+def test_silence_planar_equals_interleaved(channels, block):
+    """Head and tail silence, dropouts (digital silence and frozen values, on one channel and
+    on all), across block boundaries."""
+    x = _programme(4.0, channels, 20 + channels)
+    x[:3000] = 0.0                                   # digital silence at the head
+    x[3000:7000] *= 1e-6                             # then near-silence
+    x[-5000:] = 0.0                                  # digital silence at the tail
+    x[40000:44000, 0] = 0.25                         # a frozen value on the first channel
+    x[90000:93000] = 0.0                             # a dropout on every channel
+    x[150000:150600, -1] = 0.0                       # a short one on the last channel
+    interleaved, planar = _both_ways(SilenceAnalyzer, x, LAYOUTS[channels], block)
+    assert planar == interleaved
+    measurements = json.loads(planar)[0]
+    assert measurements["dropout_count"] >= 1                          # the dropouts were found
+    assert measurements["head_digital_silence_s"] > 0.0
