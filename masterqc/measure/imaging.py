@@ -531,8 +531,10 @@ class ImagingAnalyzer(Analyzer):
         prod = np.take(full, ka, axis=-1, mode="clip")
         prod *= np.take(full, kb, axis=-1, mode="clip")
         # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
-        q = prod.real * prod.real
-        q += prod.imag * prod.imag
+        # (re^2 + im^2, squared on the interleaved floats: contiguous, hence quicker)
+        sq = prod.view(np.float64)
+        sq = sq * sq
+        q = np.add(sq[..., 0::2], sq[..., 1::2])
         return prod, q
 
     def _pair_sums(self, c, ch: int, need_first: bool):
