@@ -93,8 +93,10 @@ CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 882
 #: analysis bin spacing: every standard rate is a whole number of 25 Hz (8000 = 320 x 25,
 #: 11025 = 441 x 25), so fs/25 samples per frame puts every candidate's mirror on a bin
 BIN_HZ = 25.0
-#: at most this many frames per file are analysed (cost bound, independent of length)
-MAX_FRAMES = 128
+#: at most this many frames per file are analysed (cost bound, independent of length).  House choice:
+#: 100, about the count a 2-second file gives (99 at every rate: frames of fs/25 samples at least fs/50
+#: apart), the count the thresholds here were tuned at; longer files take no more
+MAX_FRAMES = 100
 #: fewer frames than this and the coherence estimate is meaningless
 MIN_FRAMES = 6
 #: baseband bins below this are left out (DC offsets and rumble carry no image information)
