@@ -167,7 +167,7 @@ CONTROL_Z_RELATIVE = 0.5
 #: pairs only a significant candidate needs (its control cycle frequencies and its first-half sums)
 #: are computed at :meth:`ImagingAnalyzer.finish` only for such a candidate; above it (many channels
 #: at a high rate) every pair is accumulated while streaming.  Both give the same numbers (house
-#: choice: 32 MiB holds 128 frames of 6 channels at 96 kHz)
+#: choice: 32 MiB holds 100 frames of 8 channels at 96 kHz, 25 MB)
 SPECTRA_STORE_MAX_BYTES = 32 * 1024 * 1024
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
 FOLD_CHECK_FRAMES = 8
