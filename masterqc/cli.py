@@ -43,12 +43,17 @@ class _Deprecated(argparse.Action):
         setattr(namespace, self.dest, values)
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The whole command line; with ``only`` (a command name), a parser holding just that sub-command,
+    which parses that command's arguments exactly as the whole one does (see :func:`main`)."""
     p = _Parser(prog="masterqc", description="Prove that an audio master meets its delivery spec.")
     p.add_argument("--version", action="version", version=f"masterqc {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
 
+    if only not in (None, "measure"):
+        _add_more(sub, only)
+        return p
     m = sub.add_parser("measure", help="measure one master and print a table or the JSON result")
     m.add_argument("file")
     m.add_argument("--json", action="store_true", help="print the JSON result object")
@@ -65,21 +70,30 @@ def build_parser() -> argparse.ArgumentParser:
     m.add_argument("--block-frames", type=int, default=65536, help=argparse.SUPPRESS)
     m.add_argument("--quiet", action="store_true", help="no progress display")
     m.set_defaults(func=cmd_measure)
-
-    s = sub.add_parser("schema", help="print a JSON Schema: result (default), spec or runs (summary.json)")
-    s.add_argument("what", nargs="?", choices=SCHEMAS, default="result",
-                   help="result: the result object; spec: the delivery-spec format; runs: a run's summary.json")
-    s.set_defaults(func=cmd_schema)
-
-    from masterqc import commands  # each later command adds its own sub-parser there
-    commands.add_parsers(sub)
+    if only is not None:
+        return p
+    _add_more(sub, None)
     return p
 
 
+def _add_more(sub, only: str | None) -> None:
+    """The sub-parsers after ``measure``: ``schema``, then those of :mod:`masterqc.commands`."""
+    if only in (None, "schema"):
+        s = sub.add_parser("schema", help="print a JSON Schema: result (default), spec or runs (summary.json)")
+        s.add_argument("what", nargs="?", choices=SCHEMAS, default="result",
+                       help="result: the result object; spec: the delivery-spec format; runs: a run's summary.json")
+        s.set_defaults(func=cmd_schema)
+    if only != "schema":
+        from masterqc import commands  # each later command adds its own sub-parser there
+        commands.add_parsers(sub, only)
+
+
 def cmd_measure(args) -> int:
-    from masterqc.measure import MeasureOptions, measure_file
+    from masterqc import stagelog
+    stagelog.note_startup()  # interpreter and command line, for bench/bench_startup.py --split
+    with stagelog.stage("import_measure"):
+        from masterqc.measure import MeasureOptions, measure_file
     from masterqc.progress import Progress
-    from masterqc.report.text import measurement_table
 
     if args.true_peak_filter == "annex2" and args.true_peak_oversampling != 4:
         raise UsageError("--true-peak-filter annex2 is defined for 4x only; "
@@ -94,14 +108,19 @@ def cmd_measure(args) -> int:
     from masterqc.fileio import shown
     progress = Progress(f"measuring {shown(args.file)}", enabled=False if args.quiet else None)
     try:
-        result = measure_file(args.file, options, progress=progress.update)
+        with stagelog.stage("measure"):
+            result = measure_file(args.file, options, progress=progress.update)
     finally:
         progress.close()
-    if args.json:
-        json.dump(result, sys.stdout, indent=2)
-        sys.stdout.write("\n")
-    else:
-        sys.stdout.write(measurement_table(result))
+    with stagelog.stage("write_json" if args.json else "write_table"):
+        if args.json:
+            # the layout of check's result files (one top-level key per line): the C encoder, where
+            # json.dump(indent=2) takes Python's (about 50 ms for a 30 s master)
+            from masterqc.jsonutil import result_json_text
+            sys.stdout.write(result_json_text(result, ascii_only=True))
+        else:
+            from masterqc.report.text import measurement_table
+            sys.stdout.write(measurement_table(result))
     return EXIT_PASS
 
 
@@ -152,8 +171,24 @@ def _printable(exc) -> str:
     return "\n".join(shown(line) for line in str(exc).split("\n"))
 
 
+#: the commands :func:`build_parser` knows by name (``masterqc.commands.ADDERS`` adds the rest)
+_OWN_COMMANDS = ("measure", "schema")
+
+
+def _named_command(argv: list[str]) -> str | None:
+    """The command when it is the first argument and spelled in full, else None (options first, an
+    abbreviation, a typo, ``--help``: those take the whole parser, whose messages list every command)."""
+    if not argv or argv[0] in _OWN_COMMANDS:
+        return argv[0] if argv else None
+    from masterqc.commands import ADDERS
+    return argv[0] if argv[0] in ADDERS else None
+
+
 def main(argv=None) -> int:
-    parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
+    # Start-up: a command named first builds its own sub-parser only (the others import their layers'
+    # argument helpers); its arguments parse exactly as in the whole parser.
+    parser = build_parser(only=_named_command(argv))
     args = parser.parse_args(argv)
     try:
         return int(args.func(args) or 0)

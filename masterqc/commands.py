@@ -10,16 +10,18 @@ import json
 import sys
 
 
-def add_parsers(sub) -> None:
-    """Add the sub-parsers of check, judge, spec, report, demo, runs and compare."""
-    _add_check(sub)
-    _add_judge(sub)
-    _add_spec(sub)
-    _add_report(sub)
-    _add_demo(sub)
-    _add_runs(sub)
-    from masterqc.compare.command import add_parser as _add_compare
-    _add_compare(sub)
+def add_parsers(sub, only: str | None = None) -> None:
+    """Add the sub-parsers of check, judge, spec, report, demo, runs and compare, in that order
+    (the order of ``masterqc --help``); with ``only``, just that command's (nothing when it is not one
+    of them)."""
+    for name, add in ADDERS.items():
+        if only is None or only == name:
+            add(sub)
+
+
+def _add_compare(sub) -> None:
+    from masterqc.compare.command import add_parser
+    add_parser(sub)
 
 
 # ---------------------------------------------------------------- check
@@ -63,7 +65,10 @@ def cmd_check(args) -> int:
             raise UsageError("--field and --pages apply to single files; for a folder, set the certificate's "
                              "fields in the spec's report: section, and re-render with masterqc report --pages")
         return cmd_check_batch(args, formats)
-    loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
+    from masterqc import stagelog
+    stagelog.note_startup()  # interpreter, command line and the check layers, for bench/bench_startup.py --split
+    with stagelog.stage("spec_load"):
+        loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
     loaded.report_fields.update(fields)
     _print_spec_warnings(loaded, quiet=args.quiet)
     from masterqc.cli import parse_layout
@@ -246,3 +251,8 @@ def _add_demo(sub) -> None:
 def cmd_demo(args) -> int:
     from masterqc.demo import run_demo
     return run_demo(args.out, args.formats, jobs=args.jobs)
+
+
+#: each command this module wires, in the order ``masterqc --help`` lists them
+ADDERS = {"check": _add_check, "judge": _add_judge, "spec": _add_spec, "report": _add_report,
+          "demo": _add_demo, "runs": _add_runs, "compare": _add_compare}

@@ -35,34 +35,11 @@ from masterqc import __version__
 from masterqc.contract import RESULT_FORMAT_VERSION, upgrade_result
 from masterqc.errors import AudioReadError, UsageError
 from masterqc.fileio import write_atomic  # noqa: F401  (part of this module's interface)
-from masterqc.jsonutil import jsonable
+from masterqc.jsonutil import jsonable, result_json_text  # noqa: F401  (result_json_text: part of this module's interface)
 from masterqc.stagelog import stage
 
 # the output formats live in one module (parsing, defaults, whether reports can be rendered)
 from masterqc.formats import ALL_FORMATS, DEFAULT_FORMATS, default_formats, parse_formats, reports_available  # noqa: E402,F401
-
-
-def result_json_text(result: dict, encoded: dict | None = None) -> str:
-    """The result as JSON text: one top-level key per line and one finding per line, the rest compact.
-
-    (Fully indented JSON goes through Python's pure encoder and costs more than judging; this layout
-    keeps the C encoder and stays readable where people look: the verdict and the findings.)
-    ``encoded``: ``{key: (value, text)}`` of values already encoded (:func:`parse_result_text`); a
-    key's text is used as it is while the result holds that very value object.
-    """
-    def dumps(v):
-        return json.dumps(v, ensure_ascii=False, allow_nan=False)
-    lines = []
-    for key, value in result.items():
-        hit = encoded.get(key) if encoded else None
-        if hit is not None and hit[0] is value:
-            body = hit[1]
-        elif key == "findings" and isinstance(value, list) and value:
-            body = "[\n" + ",\n".join(f"    {dumps(f)}" for f in value) + "\n  ]"
-        else:
-            body = dumps(value)
-        lines.append(f"  {dumps(key)}: {body}")
-    return "{\n" + ",\n".join(lines) + "\n}\n"
 
 
 def parse_result_text(text: str) -> tuple[dict, dict]:
@@ -145,8 +122,9 @@ def error_result(path, loaded_spec, cause: str, offset: int | None = None, facts
 
 def judge_result(result: dict, loaded_spec) -> dict:
     """Add ``spec``, ``normalisation``, ``findings`` and ``verdict`` to a measure result (pure)."""
-    from masterqc.judge import judge
-    from masterqc.judge.normalisation import figures_for
+    with stage("import_judge"):  # the judge and its sections: paid once per process
+        from masterqc.judge import judge
+        from masterqc.judge.normalisation import figures_for
 
     spec = loaded_spec.spec
     with stage("judge"):
@@ -284,7 +262,8 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
             out = judge_stored(stored, loaded_spec, key)
             out["file"] = dict(out.get("file") or {}, path=os.fspath(path))  # the same bytes, maybe another name
             return out
-    from masterqc.measure.engine import measure_file
+    with stage("import_measure"):  # the engine and its analyzers: paid once per process
+        from masterqc.measure.engine import measure_file
     try:
         with stage("measure"):
             measured = measure_file(path, options, progress=progress)

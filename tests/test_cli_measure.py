@@ -166,3 +166,22 @@ def test_schema_family_and_old_spellings_with_a_note(capsys):
         captured = capsys.readouterr()
         assert json.loads(captured.out) == outs[what] and "deprecated" in captured.err
     assert main(["schema"]) == 0 and json.loads(capsys.readouterr().out) == outs["result"]
+
+
+def test_measure_json_layout_one_key_per_line_ascii(tmp_path, capsys):
+    """``measure --json`` prints the layout of check's result files (CHANGELOG: command line): one
+    top-level key per line, ASCII only (RFC 8259 section 7: other characters as \\u escapes), and the
+    same values as the Python API (the run's own elapsed time aside; by construction)."""
+    from masterqc.measure import MeasureOptions, measure_file
+    path = tmp_path / "t\u00e9l\u00e9.wav"
+    sf.write(path, np.c_[_sine(1.0, 997, 0.1), _sine(1.0, 997, 0.1)], RATE_HZ, subtype="PCM_24")
+    code, out, _ = _run(["measure", str(path), "--json", "--quiet"], capsys)
+    assert code == 0 and out.isascii() and "\\u00e9" in out
+    lines = out.splitlines()
+    result = json.loads(out)
+    assert lines[0] == "{" and lines[-1] == "}" and len(lines) == len(result) + 2
+    assert [json.loads("{" + line.rstrip(",") + "}").popitem()[0] for line in lines[1:-1]] == list(result)
+    api = measure_file(str(path), MeasureOptions())
+    for r in (result, api):
+        r["analysis"].pop("elapsed_s")
+    assert result == api

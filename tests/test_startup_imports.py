@@ -29,7 +29,16 @@ NOT_IN_MEASURE = ("matplotlib", "weasyprint", "jinja2", "dask", "yaml", "pydanti
                   "scipy.signal", "scipy.stats", "scipy.interpolate", "scipy.optimize", "scipy.spatial",
                   "scipy.linalg", "masterqc.report.render", "masterqc.report.plots",
                   "masterqc.batch.runner", "masterqc.compare.model", "masterqc.result_models",
-                  "masterqc.spec.loader")
+                  "masterqc.spec.loader",
+                  # the other commands' parsers: ``measure`` named first builds its own sub-parser only
+                  "masterqc.commands", "masterqc.compare.command", "masterqc.batch.cli",
+                  "masterqc.report.command", "masterqc.formats",
+                  # the text table: only without --json
+                  "masterqc.report.text")
+#: what a batch parent (plan, hash, schedule; the spec and its judge) must not import: the workers
+#: measure and render (house choice: the parent's CPU is the batch's serial part)
+NOT_IN_BATCH_PARENT = ("masterqc.measure.engine", "masterqc.measure.loudness", "scipy", "numpy.fft",
+                       "matplotlib", "weasyprint", "masterqc.report.render")
 
 
 def _loaded_after(code: str) -> set[str]:
@@ -78,11 +87,79 @@ def test_six_channel_short_measure_leaves_scipy_signal_out(tmp_path):
     assert "scipy.signal" not in loaded
 
 
-def test_a_longer_file_switches_to_the_compiled_filter(tmp_path):
-    """Past the plain-Python budget (masterqc.measure.iir.PYTHON_BUDGET) scipy.signal's compiled
-    sosfilt is imported and used (same bits: tests/test_filterdesign.py)."""
+def test_a_longer_file_takes_the_compiled_filter_without_scipy_signal(tmp_path):
+    """Past the plain-Python budget (masterqc.measure.iir.PYTHON_BUDGET) the compiled sosfilt
+    kernel is loaded on its own (masterqc.measure.iir.compiled_kernel), scipy.signal is not
+    imported (same bits: tests/test_iir_kernel.py)."""
     from masterqc.measure.iir import PYTHON_BUDGET
     seconds = 2 * PYTHON_BUDGET / (2 * 2 * 8000) + 1          # stereo, two K-weighting sections, 8 kHz
     wav = _short_file(tmp_path / "long.wav", 8000, 2, seconds)
-    loaded = _loaded_after(_measure_probe(wav, 8000))
-    assert "scipy.signal" in loaded
+    loaded = _loaded_after(_measure_probe(wav, 8000)
+                           + "import masterqc.measure.iir as iir\nassert iir.compiled_kernel() is not None\n")
+    assert "scipy.signal._sosfilt" in loaded
+    assert sorted(m for m in NOT_IN_MEASURE if m in loaded) == []
+
+
+def test_measure_options_alone_leave_the_engine_out():
+    """``masterqc.measure`` resolves its names on first use: the options (imported by the spec model,
+    the judge and the batch parent) do not import the engine, its analyzers, numpy or SciPy."""
+    loaded = _loaded_after("from masterqc.measure.options import MeasureOptions\nMeasureOptions()")
+    assert "masterqc.measure.options" in loaded
+    assert sorted(m for m in ("masterqc.measure.engine", "masterqc.measure.registry", "numpy", "scipy")
+                  if m in loaded) == []
+    loaded = _loaded_after("from masterqc.measure import measure_file, MeasureOptions")
+    assert "masterqc.measure.engine" in loaded  # ... and the lazy names still resolve
+
+
+def test_batch_parent_modules_leave_measuring_and_rendering_out(tmp_path):
+    spec = tmp_path / "spec.yaml"
+    spec.write_text("spec_version: 1\nname: Parent probe\nloudness:\n  integrated: {target_lufs: -14.0, tolerance_lu: 1.0}\n")
+    code = ("import masterqc.cli\nmasterqc.cli.build_parser(only='check')\n"
+            "import masterqc.batch.runner, masterqc.batch.schedule, masterqc.batch.work, masterqc.pipeline\n"
+            "from masterqc.measure.options import MeasureOptions\n"
+            "from masterqc.batch.specmap import load_spec_map\n"
+            f"load_spec_map({str(spec)!r}, MeasureOptions(), ())\n")
+    loaded = _loaded_after(code)
+    assert "masterqc.batch.runner" in loaded and "masterqc.spec.loader" in loaded  # the probe ran
+    assert sorted(m for m in NOT_IN_BATCH_PARENT if m in loaded) == []
+
+
+#: argument lines of every command (house choice: the options each command documents in --help)
+_LINES = (
+    ["measure", "a.wav"], ["measure", "a.wav", "--json", "--true-peak-oversampling", "8", "--layout", "L,R",
+                           "--threads", "1", "--quiet"],
+    ["measure", "a.wav", "--true-peak-oversample", "16"],
+    ["schema"], ["schema", "spec"],
+    ["check", "a.wav", "b", "--spec", "s.yaml", "--out", "o", "--format", "json,html", "--jobs", "2", "--quiet"],
+    ["judge", "r.json", "--spec", "s.yaml"],
+    ["spec", "validate", "s.yaml", "--print"], ["spec", "schema"],
+    ["report", "r.json", "--out", "o"],
+    ["demo"], ["runs", "--json", "list", "--limit", "3"], ["runs", "show", "4"],
+    ["compare", "m.wav", "d.wav"],
+)
+
+
+def test_a_command_named_first_parses_as_in_the_whole_parser():
+    """``main`` builds only the named command's sub-parser (start-up); the namespace must be the
+    whole parser's, option for option, and every command must be buildable on its own."""
+    from masterqc.cli import build_parser
+    from masterqc.commands import ADDERS
+    whole = build_parser()
+    names = {"measure", "schema", *ADDERS}
+    assert {line[0] for line in _LINES} == names  # every command is exercised
+    for line in _LINES:
+        alone = build_parser(only=line[0])
+        assert vars(alone.parse_args(line)) == vars(whole.parse_args(line)), line
+
+
+def test_a_command_named_first_reports_bad_arguments_as_the_whole_parser(capsys):
+    """Exit code 2 (see masterqc.cli) and the same message for a bad option of a named command."""
+    from masterqc.cli import EXIT_USAGE, build_parser
+    import pytest
+    messages = []
+    for parser in (build_parser(), build_parser(only="measure")):
+        with pytest.raises(SystemExit) as exc:
+            parser.parse_args(["measure", "a.wav", "--true-peak-oversampling", "3"])
+        assert exc.value.code == EXIT_USAGE
+        messages.append(capsys.readouterr().err)
+    assert messages[0] == messages[1] and "--true-peak-oversampling" in messages[0]

@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import posixpath
 
-from masterqc.measure.loudness import pooled_integrated_error_bound_lu, pooled_integrated_lufs
 
 RELEASE_MODES = ("top", "folder", "root", "depth:N", "none")
 #: the grouping used when neither ``--releases`` nor the spec map names one
@@ -95,6 +94,8 @@ def release_measurements(results: list[dict]) -> dict:
     measured = [r for r in results if "measurements" in r]
     hists = [(r.get("series") or {}).get("gating_block_histogram") for r in measured]
     hists = [h for h in hists if h is not None]
+    # (imported here: a batch parent without releases does not load the loudness analyzer)
+    from masterqc.measure.loudness import pooled_integrated_error_bound_lu, pooled_integrated_lufs
     pooled = pooled_integrated_lufs(hists) if hists else None
     bound = pooled_integrated_error_bound_lu(hists) if hists else None
     levels = [r["measurements"].get("integrated_lufs") for r in measured]
