@@ -507,7 +507,7 @@ class TruePeakMeter:
     BOUND_ROUNDING = 1e-4
     #: candidate frames in a group from which the fine read takes the whole group at once
     #: (house choice: a whole group costs about as much as 11 single frames, measured)
-    DENSE_FRAMES = 8
+    DENSE_FRAMES = 12
     #: groups per scan matrix product, frames per fine-read matrix product
     SCAN_CHUNK = 1024
     REFINE_CHUNK = 4096
