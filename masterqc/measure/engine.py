@@ -67,7 +67,8 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
     """
     for a in analyzers:
         rec = cpu_split.setdefault(type(a).__name__, [0.0, 0.0])
-        proc, planar, fin = a.process, a.process_planar, a.finish
+        proc, fin = a.process, a.finish
+        planar = getattr(a, "process_planar", None)
 
         def process(block, _proc=proc, _rec=rec):
             t = time.thread_time()
@@ -89,7 +90,9 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
                 return _fin()
             finally:
                 _rec[1] += time.thread_time() - t
-        a.process, a.process_planar, a.finish = process, process_planar, finish
+        a.process, a.finish = process, finish
+        if planar is not None:
+            a.process_planar = process_planar
 
 
 #: glibc ``mallopt`` parameters (malloc.h): M_TRIM_THRESHOLD, M_TOP_PAD, M_MMAP_THRESHOLD
@@ -156,7 +159,7 @@ def _prepare(block, info, want_clean: bool, want_planar: bool = False):
 def _feed(analyzer, prepared) -> None:
     """Hand ``analyzer`` the form of a prepared block it takes."""
     raw, clean, planar = prepared
-    if analyzer.planar_input:
+    if getattr(analyzer, "planar_input", False):
         analyzer.process_planar(planar)
     else:
         analyzer.process(raw if analyzer.raw_input else clean)
@@ -164,7 +167,7 @@ def _feed(analyzer, prepared) -> None:
 
 def _check_inputs(analyzers) -> None:
     for a in analyzers:
-        if a.planar_input and a.raw_input:
+        if getattr(a, "planar_input", False) and a.raw_input:
             raise ValueError(f"{type(a).__name__}: planar blocks are the cleaned ones; "
                              "raw_input and planar_input cannot both be set")
 
@@ -225,8 +228,8 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
 
 
 def _run_sequential(stream, info, options, analyzers, progress, thread_cpu=None) -> None:
-    want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
-    want_planar = any(a.planar_input for a in analyzers)
+    want_clean = any(not a.raw_input and not getattr(a, "planar_input", False) for a in analyzers)
+    want_planar = any(getattr(a, "planar_input", False) for a in analyzers)
     done = 0
     read_s = analyze_s = 0.0
     clock = time.thread_time if thread_cpu is not None else (lambda: 0.0)
@@ -270,8 +273,8 @@ class _BlockScheduler:
         self.analyzers = analyzers
         self.threads = threads
         self.progress = progress
-        self.want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
-        self.want_planar = any(a.planar_input for a in analyzers)
+        self.want_clean = any(not a.raw_input and not getattr(a, "planar_input", False) for a in analyzers)
+        self.want_planar = any(getattr(a, "planar_input", False) for a in analyzers)
         self.lock = threading.Lock()
         self.space = threading.Condition(self.lock)    # the reader waits here
         self.work = threading.Condition(self.lock)     # the helper workers wait here
