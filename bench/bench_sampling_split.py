@@ -7,10 +7,11 @@ One engine pass per file and variant, one thread, BLAS held to one thread; each 
 peak and true peak.  Files: the core benchmark's music-like stereo 48 kHz 24-bit programme and its
 96 kHz version (bench/bench_sampling_cost.py), made on first use in bench/out/.
 
-``--before REV`` also runs the spectral front end (``masterqc/measure/spectral.py``) and the imaging
-analyzer (``masterqc/measure/imaging.py``) as they were at git revision REV, loaded from ``git show``,
-with this tree's core, aliasing and interpolation analyzers, in the same process and interleaved pass
-by pass with this tree's, so that both columns see the same machine load.
+``--before REV`` also runs the spectral front end (``masterqc/measure/spectral.py``), the imaging
+analyzer (``masterqc/measure/imaging.py``) and the interpolation analyzer
+(``masterqc/measure/interpolation.py``) as they were at git revision REV, loaded from ``git show``,
+with this tree's core and aliasing analyzers and shared helpers (``frames.py``), in the same process and
+interleaved pass by pass with this tree's, so that both columns see the same machine load.
 
 Usage: ``bench/bench_sampling_split.py [--files 0.5:48,10:48,0.5:96,10:96] [--repeat 3] [--before REV]``
 (``minutes:kHz``).  Read the ratios, not the absolute times.
@@ -37,7 +38,8 @@ import bench_sampling_cost as bsc  # noqa: E402
 
 SAMPLING = ("Spectrum", "Imaging", "Interpolation", "Aliasing")
 OLD_MODULES = {"Spectrum": ("masterqc/measure/spectral.py", "SamplingSpectrumAnalyzer"),
-               "Imaging": ("masterqc/measure/imaging.py", "ImagingAnalyzer")}
+               "Imaging": ("masterqc/measure/imaging.py", "ImagingAnalyzer"),
+               "Interpolation": ("masterqc/measure/interpolation.py", "InterpolationTraceAnalyzer")}
 
 
 def _module_at(rev: str, rel: str, tmp: Path):
@@ -79,8 +81,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--files", default="0.5:48,10:48,0.5:96,10:96", help="comma-separated minutes:kHz (48 or 96)")
     ap.add_argument("--repeat", type=int, default=3)
-    ap.add_argument("--before", default=None, help="git revision whose spectral front end and imaging analyzer "
-                                                    "run beside this tree's")
+    ap.add_argument("--before", default=None, help="git revision whose spectral front end, imaging and "
+                                                    "interpolation analyzers run beside this tree's")
     args = ap.parse_args(argv)
     try:
         from threadpoolctl import threadpool_limits

@@ -376,6 +376,35 @@ def section_split(args, results: dict) -> bool:
     whole = "".join(f" {statistics.median(r['whole']['cpu_s'] for r in got[k]):8.2f}       " for k in kinds)
     walls = "".join(f" {statistics.median(r['whole']['wall_s'] for r in got[k]):8.2f}       " for k in kinds)
     print(f"  {'(decode, hash, start-up, engine)':<30}{rest}")
+
+    def part(kind, fn):
+        vals = [fn(r) for r in got[kind]]
+        vals = [v for v in vals if v is not None]
+        return f" {statistics.median(vals):8.2f}       " if vals else f" {'-':>8}       "
+
+    def threads_cpu(key):
+        return lambda r: (r.get("threads_cpu_s") or {}).get(key)
+
+    def scheduling(r):
+        t = r.get("threads_cpu_s") or {}
+        if "analyze_s" not in t:
+            return None
+        return t["analyze_s"] - sum(v[0] for v in r["analyzers"].values())
+
+    def other(r):
+        t = r.get("threads_cpu_s") or {}
+        if "analyze_s" not in t or r.get("process_cpu_s") is None:
+            return None
+        return (r["process_cpu_s"] - t["hash_s"] - t["read_s"] - t["analyze_s"]
+                - sum(v[1] for v in r["analyzers"].values()))
+    # the engine's own opt-in split of that rest (older engines: '-')
+    for label, fn in (("  start-up (before measuring)", lambda r: r["whole"]["cpu_s"] - r["process_cpu_s"]
+                       if r.get("process_cpu_s") is not None else None),
+                      ("  hash (SHA-256 of the file)", threads_cpu("hash_s")),
+                      ("  decode + block preparation", threads_cpu("read_s")),
+                      ("  scheduling (analyzer threads)", scheduling),
+                      ("  open, set-up, result", other)):
+        print(f"  {label:<30}" + "".join(part(k, fn) for k in kinds))
     print(f"  {'whole process CPU':<30}{whole}")
     print(f"  {'whole process wall':<30}{walls}")
     results["split"] = got

@@ -27,7 +27,12 @@ the ``--before-rev`` one) from a 32x reference (scipy ``resample_poly`` with a
 partials, a 0.49*fs sine, band-limited noise), and on the raw runs (content up
 to fs/2, outside the 0.49*fs target band).
 
-Usage: ``bench/bench_true_peak.py [--minutes 10] [--repeat 2] [--before-rev main] [--accuracy] [--seeds 4]``.
+``--meter-rates`` times the meter alone (decoded input, the analyzer's settings) at 44.1,
+48, 88.2, 96 and 192 kHz, current and ``--before-rev``, and prints how far their true peaks
+and envelopes differ.
+
+Usage: ``bench/bench_true_peak.py [--minutes 10] [--repeat 2] [--before-rev main] [--accuracy] [--seeds 4]
+[--meter-rates]``.
 """
 
 from __future__ import annotations
@@ -162,6 +167,53 @@ def accuracy(before_ov, seeds: int) -> None:
             print(f"  {fs:>6} Hz  {name:<8} {band:<11} {min(d):+7.3f} .. {max(d):+7.3f}")
 
 
+def meter_cpu(mod, x: np.ndarray, fs: int, block: int = 65536):
+    """(CPU seconds of the calling thread, meter) of one TruePeakMeter of module ``mod``,
+    set up as the analyzer sets it up (ceiling -1 dBTP, 2000 envelope buckets, per-channel
+    frame callback), fed ``block``-frame blocks of ``x`` already decoded."""
+    frames = x.shape[0]
+    bf = max(1, -(-frames // 2000))
+    kw = {"float32_exact": True} if "float32_exact" in mod.TruePeakMeter.__init__.__code__.co_varnames else {}
+    meter = mod.TruePeakMeter(fs, x.shape[1], mod.choose_factor(fs, 4), "kaiser", ceiling_linear=10 ** (-1 / 20),
+                              bucket_frames=bf, buckets=-(-frames // bf), on_channel_frames=lambda s, cp: None, **kw)
+    t = time.thread_time()
+    for i in range(0, frames, block):
+        meter.process(x[i:i + block])
+    meter.flush()
+    return time.thread_time() - t, meter
+
+
+def meter_rates(before_ov, repeat: int, minutes: float) -> None:
+    """The meter alone at 44.1, 48, 88.2, 96 and 192 kHz (the music-like programme written
+    at each rate, ``minutes`` at up to 48 kHz and the same frame count above), current and
+    ``--before-rev``, interleaved, median CPU seconds."""
+    from masterqc.measure import oversample as ov
+    print("\ntrue-peak meter alone (decoded input, CPU s, median of", repeat, "interleaved passes)")
+    for fs in (44100, 48000, 88200, 96000, 192000):
+        mins = minutes * min(1.0, 48000 / fs)
+        path = bc.make_file(bc.OUT / f"core_{mins:g}min_{fs}.wav", mins, fs=fs)
+        x, _ = sf.read(str(path), dtype="float64", always_2d=True)
+        runs: dict[str, list] = {}
+        meters = {}
+        for _ in range(max(1, repeat)):
+            for name, mod in [("current", ov)] + ([("before", before_ov)] if before_ov is not None else []):
+                t, meter = meter_cpu(mod, x, fs)
+                runs.setdefault(name, []).append(t)
+                meters[name] = meter
+        med = {k: float(np.median(v)) for k, v in runs.items()}
+        cur = meters["current"]
+        line = (f"  {fs:>6} Hz {mins:5.2f} min  current {med['current']:6.3f} s "
+                f"(scanned {100 * cur.scanned_frames / (x.size):5.2f} %, fine {100 * cur.refined_frames / x.size:5.3f} % "
+                f"of channel-frames)")
+        if "before" in med:
+            b = meters["before"]
+            dev = float(np.max(np.abs(20 * np.log10(cur.peak_linear / b.peak_linear))))
+            env = np.abs(cur.envelope_linear - b.envelope_linear).max()
+            line += (f"  before {med['before']:6.3f} s  ratio {med['current'] / med['before']:5.2f}x; "
+                     f"true peak differs by {dev:.2e} dB, envelope by {env:.1e} at most")
+        print(line)
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--minutes", type=float, default=10.0, help="0 skips the timing")
@@ -169,6 +221,8 @@ def main(argv=None) -> int:
     ap.add_argument("--before-rev", default=None, help="git revision whose analyzer is timed beside")
     ap.add_argument("--accuracy", action="store_true", help="print deviations from a 32x reference first")
     ap.add_argument("--seeds", type=int, default=4)
+    ap.add_argument("--meter-rates", action="store_true",
+                    help="time the meter alone at 44.1-192 kHz (current and --before-rev) and stop")
     args = ap.parse_args(argv)
     from masterqc.measure.peaks import TruePeakAnalyzer
     classes = [("current", TruePeakAnalyzer)]
@@ -176,6 +230,9 @@ def main(argv=None) -> int:
         classes.append((f"before ({args.before_rev})", load_before(args.before_rev)))
     if args.accuracy:
         accuracy(sys.modules.get("masterqc_before_oversample"), args.seeds)
+    if args.meter_rates:
+        meter_rates(sys.modules.get("masterqc_before_oversample"), args.repeat, args.minutes)
+        return 0
     if args.minutes <= 0:
         return 0
     files = [("music-like", bc.make_file(bc.OUT / f"core_{args.minutes:g}min.wav", args.minutes)),
@@ -211,6 +268,9 @@ def main(argv=None) -> int:
             refined = getattr(an.meter, "refined_frames", None)
             if refined is not None:
                 extra = f"; fine read in {100 * refined / max(1, info.frames * info.channels):.2f} % of channel-frames"
+            scanned = getattr(an.meter, "scanned_frames", None)
+            if scanned is not None:
+                extra += f", scanned {100 * scanned / max(1, info.frames * info.channels):.2f} %"
             print(f"  {'true-peak analyzer, ' + name:<36} {t:7.2f} s   {m['true_peak_dbtp']:.4f} dBTP, "
                   f"{m['true_peak_over_count']} over frames; / decode {t / dec:5.2f}x, / pyebur128 TP {t / eb_tp:5.2f}x, "
                   f"/ pyebur128 I+LRA+TP {t / eb_all:5.2f}x{extra}")

@@ -8,10 +8,16 @@ through a PCM_24 WAV in memory (the same samples the contract scorer measures). 
 shared contract: ``imaging_detected`` expected True -> found if True; expected False -> false alarm if
 True.  Cases without an imaging label are not scored.
 
+``--upsampling`` also runs the spectral sampling analyzer, so that the engine's provenance step names
+``upsampled_from_hz`` from the cliff, the sample pattern or the images, and scores it on the same
+imaging-labelled cases by the same contract: expected a rate -> found if non-null, rate right if equal;
+expected None -> false alarm if non-null.
+
 Usage::
 
     .venv/bin/python bench/score_imaging.py --corpus bench/corpus_validation.py --seed 5000
     .venv/bin/python bench/score_imaging.py --corpus bench/corpus_tuning_upsampling.py --seed 1000 --quick
+    .venv/bin/python bench/score_imaging.py --corpus bench/corpus_tuning_upsampling.py --seed 1000 --upsampling
 """
 
 from __future__ import annotations
@@ -56,19 +62,20 @@ class _Stream:
             yield self.data[i:i + n]
 
 
-def measure(case):
+def measure(case, upsampling: bool = False):
     from masterqc.measure.engine import run_analyzers
     from masterqc.measure.imaging import ImagingAnalyzer
     from masterqc.measure.interpolation import InterpolationTraceAnalyzer
     from masterqc.measure.options import MeasureOptions
+    from masterqc.measure.spectral import SamplingSpectrumAnalyzer
     buf = io.BytesIO()
     sf.write(buf, case.audio, case.rate_hz, subtype="PCM_24", format="WAV")
     buf.seek(0)
     data, fs = sf.read(buf, dtype="float64", always_2d=True)
     labels = case.channel_labels or {1: ["M"], 2: ["L", "R"], 6: ["L", "R", "C", "LFE", "Ls", "Rs"]}.get(
         data.shape[1], [f"ch{i + 1}" for i in range(data.shape[1])])
-    m, _s, _t = run_analyzers(_Stream(data, fs, labels), MeasureOptions(),
-                              classes=[ImagingAnalyzer, InterpolationTraceAnalyzer])
+    classes = [ImagingAnalyzer, InterpolationTraceAnalyzer] + ([SamplingSpectrumAnalyzer] if upsampling else [])
+    m, _s, _t = run_analyzers(_Stream(data, fs, labels), MeasureOptions(), classes=classes)
     return m
 
 
@@ -78,16 +85,33 @@ def main(argv=None) -> int:
     ap.add_argument("--seed", type=int, default=5000)
     ap.add_argument("--quick", action="store_true")
     ap.add_argument("--verbose", action="store_true", help="one line per scored case")
+    ap.add_argument("--upsampling", action="store_true", help="also score upsampled_from_hz on these cases")
     args = ap.parse_args(argv)
     mod = _load(args.corpus)
     t0 = time.time()
     fam = defaultdict(lambda: [0, 0, 0, 0])   # found, positives, false alarms, negatives
-    wrong = []
+    up = defaultdict(lambda: [0, 0, 0, 0, 0])  # found, rate right, positives, false alarms, negatives
+    wrong, up_wrong = [], []
     for case in mod.cases(args.seed, quick=args.quick):
         want = case.expect.get("imaging_detected")
         if want is None:
             continue
-        got = measure(case).get("imaging_detected") is True
+        m = measure(case, args.upsampling)
+        got = m.get("imaging_detected") is True
+        if args.upsampling and "upsampled_from_hz" in case.expect:
+            want_up, have_up = case.expect["upsampled_from_hz"], m.get("upsampled_from_hz")
+            r = up[case.family]
+            if want_up is not None:
+                r[0] += have_up is not None
+                r[1] += have_up is not None and int(have_up) == int(want_up)
+                r[2] += 1
+                if have_up is None or int(have_up) != int(want_up):
+                    up_wrong.append(f"{case.name} (got {have_up})")
+            else:
+                r[3] += have_up is not None
+                r[4] += 1
+                if have_up is not None:
+                    up_wrong.append(f"{case.name} (got {have_up})")
         row = fam[case.family]
         if want:
             row[0] += got
@@ -108,6 +132,16 @@ def main(argv=None) -> int:
         print(f"{name:40s} {f'{r[0]}/{r[1]}' if r[1] else '.':>8s} {f'{r[2]}/{r[3]}' if r[3] else '.':>13s}")
     print(f"{'all':40s} {f'{tot[0]}/{tot[1]}':>8s} {f'{tot[2]}/{tot[3]}':>13s}")
     print(f"wrong: {wrong}")
+    if args.upsampling:
+        print(f"\nupsampled_from_hz on the same cases\n{'family':40s} {'found':>8s} {'rate right':>11s} {'false alarms':>13s}")
+        tot = [0, 0, 0, 0, 0]
+        for name in sorted(up):
+            r = up[name]
+            tot = [a + b for a, b in zip(tot, r)]
+            print(f"{name:40s} {f'{r[0]}/{r[2]}' if r[2] else '.':>8s} {f'{r[1]}/{r[0]}' if r[2] else '.':>11s} "
+                  f"{f'{r[3]}/{r[4]}' if r[4] else '.':>13s}")
+        print(f"{'all':40s} {f'{tot[0]}/{tot[2]}':>8s} {f'{tot[1]}/{tot[0]}':>11s} {f'{tot[3]}/{tot[4]}':>13s}")
+        print(f"upsampling wrong: {up_wrong}")
     print(f"wall {time.time() - t0:.0f} s")
     return 0
 

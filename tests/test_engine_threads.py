@@ -227,3 +227,10 @@ def test_opt_in_cpu_split_changes_no_result(tmp_path, monkeypatch, threads):
     assert data["analyzers"]["TruePeakAnalyzer"][0] > 0.0
     assert sum(map(sum, data["analyzers"].values())) <= data["process_cpu_s"] + 0.05
 
+    # the engine's own parts (house choice: opt-in profiling): hash, decode, analyzer threads;
+    # together with the analyzers' finish() they cannot exceed the run's CPU time either
+    parts = data["threads_cpu_s"]
+    assert set(parts) == {"hash_s", "read_s", "analyze_s"}
+    assert parts["hash_s"] > 0.0 and parts["read_s"] > 0.0
+    assert parts["analyze_s"] >= sum(p for p, _f in data["analyzers"].values()) - 0.05
+    assert sum(parts.values()) + sum(f for _p, f in data["analyzers"].values()) <= data["process_cpu_s"] + 0.05

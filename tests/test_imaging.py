@@ -190,16 +190,24 @@ def test_keys_are_declared():
 
 
 @pytest.mark.parametrize("block", [1, 7, 480, 4800, 100000])
-def test_frame_picker_cuts_the_same_frames_for_any_block_size(block, rng):
+@pytest.mark.parametrize("frame_len", [64, 3000])
+def test_frame_picker_cuts_the_same_frames_for_any_block_size(block, frame_len, rng):
+    """By construction: the frames are the stream's samples at the given starts, whatever the
+    blocks (overlapping frames and frames longer than a block included), even when the caller
+    reuses its block buffer after each block."""
     x = rng.standard_normal((20000, 2))
-    starts = [0, 5, 4000, 4001, 9000, 15000 - 64, 20000 - 64]
-    picker = im.FramePicker(starts, 64, 2)
+    starts = sorted({0, 5, 4000, 4001, 9000, 15000 - frame_len, 20000 - frame_len})
+    picker = im.FramePicker(starts, frame_len, 2)
     got = []
+    buf = np.empty((block, 2))
     for i in range(0, x.shape[0], block):
-        got += [(s, f.copy()) for s, f in picker.feed(x[i:i + block])]
+        piece = buf[:min(block, x.shape[0] - i)]
+        piece[:] = x[i:i + block]
+        got += [(s, f.copy()) for s, f in picker.feed(piece)]
+        piece[:] = np.nan                 # the caller reuses its buffer
     assert [s for s, _f in got] == starts
     for s, f in got:
-        assert np.array_equal(f, x[s:s + 64])
+        assert np.array_equal(f, x[s:s + frame_len])
 
 
 def test_programme_material_is_testable_and_never_a_false_defect():
@@ -414,3 +422,27 @@ def test_a_trace_names_the_source_only_when_nothing_else_did():
     assert both["upsampled_from_hz"] == 44100 and both["upsampled_evidence"] == "images"
     from masterqc.measure.registry import post_steps
     assert post_steps() == [provenance.combine]
+
+
+@pytest.mark.parametrize("make", ["hold", "good", "tones"])
+def test_kept_spectra_and_streamed_sums_give_the_same_result(make, rng, monkeypatch):
+    """By construction: with the frames' spectra kept, the pairs only a significant candidate needs
+    (controls, first-half sums) are summed at finish, frame by frame in the same order as the
+    streamed sums; with the store disabled every pair is summed while streaming.  Both must give
+    the same measurements to the last bit, on an imaged file (hold from 24 kHz: controls and
+    half-file sums are used), a properly resampled one and a line spectrum (pairs of lines)."""
+    fs = 48000
+    if make == "hold":
+        x = hold_upsample(pink(24000, 2.0, rng), 24000, fs)
+    elif make == "good":
+        x = good_resample(pink(32000, 2.0, rng), 32000, fs)
+    else:
+        t = np.arange(2 * fs) / fs
+        x = 0.3 * np.sin(2 * np.pi * 997.0 * t) + 0.2 * np.sin(2 * np.pi * 7001.0 * t) + 0.01 * white(fs, 2.0, rng)
+    x = np.stack([x, 0.5 * x[::-1]], axis=1)
+    kept = _run(x, fs)
+    monkeypatch.setattr(im, "SPECTRA_STORE_MAX_BYTES", 0)
+    streamed = _run(x, fs)
+    assert kept == streamed
+    if make == "hold":
+        assert kept["imaging_detected"] is True and _candidate(kept, 24000)["verdict"] == "defect"

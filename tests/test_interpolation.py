@@ -208,3 +208,22 @@ def test_sparse_bursts_over_a_quiet_bed_name_nothing():
     for s in rng.integers(0, n - 3000, 6):
         y[s:s + 2000] += 0.3 * rng.standard_normal(2000) * np.hanning(2000)
     assert _run(_q24(y, rng), 32000)["interpolation_source_rate_hz"] is None
+
+
+@pytest.mark.parametrize("start", [0, 5, 11520 - 8192, 11520 - 3000, 11520 + 77])
+def test_slice_sums_equal_the_counted_sums(start, rng):
+    """By construction: a frame no longer than the common period puts each sample on its own phase,
+    so adding its squared differences with slices (two runs around the wrap) gives the same per-phase
+    sums, to the last bit, as counting them with bincount."""
+    fs = 48000
+    x = np.round(0.1 * rng.standard_normal((it.FRAME_SAMPLES, 2)) * 2 ** 23) / 2 ** 23
+    x[1::2, 0] = x[0::2, 0]                      # a held channel: some differences are exactly zero
+    a = it.InterpolationTraceAnalyzer(_info(fs, 10 * fs, 2), None)
+    b = it.InterpolationTraceAnalyzer(_info(fs, 10 * fs, 2), None)
+    assert x.shape[0] <= a.M                    # (11520 at 48 kHz)
+    for _ in range(2):
+        a._add_distinct(start, x)
+        b._add_counted(start, x)
+    for name in ("energy", "hits", "counts"):
+        assert np.array_equal(getattr(a, name), getattr(b, name)), name
+    assert a.counts[0].sum() == 2 * x.shape[0] and a.counts[2].sum() == 2 * (x.shape[0] - 2)

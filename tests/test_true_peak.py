@@ -604,3 +604,161 @@ def test_overs_and_envelope_equal_the_full_grid_evaluation(tmp_path, seed):
     bf = -(-x.shape[0] // 2000)
     env_ref = db(np.maximum.reduceat(vals, np.arange(0, vals.size, bf)))
     assert np.allclose(series["true_peak_envelope_dbtp"], env_ref, atol=1e-4)
+
+
+# --- the pre-screen + direct scan path against the direct full-grid evaluation -------------------
+# Reference: every one of the 32 phases of the same reading filter, as a float64 convolution
+# (by construction the meter's definition; full_grid_frame_values above).  The meter reads in
+# float32: 5e-5 of full scale covers the rounding of a 192-term float32 dot product
+# (192 * 2**-24 * 3.65 = 4.2e-5, analytic, 3.65 the filter's largest phase L1 norm).
+F32_TOL = 5e-5
+ADV_FRAMES = 2 * ov.TruePeakMeter.RUN_FRAMES + 5000
+
+
+def adversarial_stereo(seed=11):
+    """Peaks at group/run edges, inter-sample overs next to quiet passages, near-Nyquist runs of
+    equal-sign full-scale samples, silence, single impulses and DC (seeded)."""
+    rng = np.random.default_rng(seed)
+    n, run, grp = ADV_FRAMES, ov.TruePeakMeter.RUN_FRAMES, ov.TruePeakMeter.GROUP
+    x = np.zeros((n, 2))
+    x[:, 0] = rng.standard_normal(n) * 1e-3                           # quiet bed, about -60 dBFS
+    for pos in (0, grp - 1, grp, 3 * grp - 1, run - 1, run, run + 1, 2 * run - 1, n - 1):
+        x[pos, 0] = 0.9 * (1 if pos % 2 else -1)                         # single impulses at edges
+    for pos, ch in ((run - 5, 0), (2 * run - 6, 1), (100000, 1), (5000, 1)):
+        x[pos:pos + 12, ch] = np.tile([1.0, 1.0, -1.0, -1.0], 3)         # fs/4 runs, full scale
+        x[pos + 12:pos + 40, ch] = 0.0                                   # silence after the over
+    x[70000:70007, 1] = [1.0, -1.0, 1.0, 1.0, -1.0, 1.0, -1.0]           # near-Nyquist, full scale
+    x[40000:60000, 1] = 0.5                                              # DC
+    burst = near_nyquist_signals(seed=seed, n=3000)["runs of equal-sign samples"]
+    x[20000:23000, 0] += burst / np.abs(burst).max()                      # band-limited, peak 1.0
+    return np.clip(x, -1.0, 1.0)
+
+
+def run_meter(x, block, factor=4, design="kaiser", ceiling=10 ** (-1 / 20)):
+    frames = []
+    bf = -(-x.shape[0] // 2000)
+    meter = ov.TruePeakMeter(FS, x.shape[1], factor, design, ceiling_linear=ceiling, bucket_frames=bf,
+                             buckets=-(-x.shape[0] // bf),
+                             on_channel_frames=lambda s, cp: frames.append((s, cp.copy())))
+    for i in range(0, x.shape[0], block):
+        meter.process(x[i:i + block])
+    meter.flush()
+    starts = [s for s, _ in frames]
+    assert starts == sorted(starts)
+    return meter, np.concatenate([cp for _, cp in frames], axis=1), bf
+
+
+@pytest.fixture(scope="module")
+def adversarial_reference():
+    x = adversarial_stereo()
+    return x, np.stack([full_grid_frame_values(x[:, c]).max(axis=1) for c in range(2)])
+
+
+def test_fast_path_equals_the_full_grid_on_adversarial_signals(adversarial_reference):
+    x, ref = adversarial_reference                                    # (channels, frames), float64
+    ceiling = 10 ** (-1 / 20)                                          # -1 dBTP, the default ceiling
+    meter, cp, bf = run_meter(x, 65536)
+    assert cp.shape == ref.shape
+    # true peak and sample peak (sample peak: exact, float64, by construction)
+    assert np.all(np.abs(meter.peak_linear - ref.max(axis=1)) <= F32_TOL)
+    assert np.array_equal(meter.sample_peak_linear, np.abs(x).max(axis=0))
+    assert np.all(meter.peak_linear >= meter.sample_peak_linear)
+    # envelope: the largest instant per bucket, any channel
+    env_ref = np.maximum.reduceat(ref.max(axis=0), np.arange(0, ref.shape[1], bf))
+    assert np.all(np.abs(meter.envelope_linear - env_ref) <= F32_TOL)
+    # every frame value is a value at one of the frame's instants (or its sample): never above
+    assert np.all(cp <= ref + F32_TOL)
+    # exact wherever the channel can reach the ceiling or the bucket's maximum; below both elsewhere
+    bucket_max = np.repeat(env_ref, bf)[:ref.shape[1]]
+    needed = ref >= np.minimum(ceiling, bucket_max)[None, :] - F32_TOL
+    assert np.all(np.abs(cp - ref)[needed] <= F32_TOL)
+    assert np.all(cp[~needed] < np.minimum(ceiling, bucket_max)[None, :].repeat(2, 0)[~needed])
+    # overs: the frames (per channel) whose largest instant exceeds the ceiling
+    clear = np.abs(ref - ceiling) > F32_TOL
+    assert np.array_equal((cp > ceiling)[clear], (ref > ceiling)[clear])
+    assert np.count_nonzero(ref > ceiling + F32_TOL) >= 4             # the fs/4 runs read +3 dB over 1.0 (analytic)
+
+
+def test_results_do_not_depend_on_the_block_size(adversarial_reference):
+    # runs sit at fixed positions in the file, so every block size gives the same bits (by construction)
+    x, _ = adversarial_reference
+    base, cp0, _ = run_meter(x, x.shape[0])
+    for block in (1000, 4096, 32, 65536, 70001, 131072 + 17):
+        meter, cp, _ = run_meter(x, block)
+        assert np.array_equal(meter.peak_linear, base.peak_linear), block
+        assert np.array_equal(meter.envelope_linear, base.envelope_linear), block
+        assert np.array_equal(cp, cp0), block
+
+
+@pytest.mark.parametrize("factor,design", [(8, "kaiser"), (16, "kaiser"), (4, "annex2")])
+def test_fast_path_equals_the_full_grid_for_every_scan_and_design(adversarial_reference, factor, design):
+    x, ref = adversarial_reference
+    if design == "annex2":          # the Annex 2 grid: its own 4 phases, plus the samples (by construction)
+        ref = np.stack([np.maximum(full_grid_frame_values(x[:, c], design).max(axis=1), np.abs(x[:, c]))
+                        for c in range(2)])
+    meter, cp, bf = run_meter(x, 30000, factor, design)
+    assert np.all(np.abs(meter.peak_linear - ref.max(axis=1)) <= F32_TOL)
+    env_ref = np.maximum.reduceat(ref.max(axis=0), np.arange(0, ref.shape[1], bf))
+    assert np.all(np.abs(meter.envelope_linear - env_ref) <= F32_TOL)
+
+
+def test_silence_dc_and_impulse_files():
+    # analytic: silence reads 0; DC reads its level (unit gain at 0 Hz per phase, the filter's
+    # normalisation, within its 192-tap float32 sum); one impulse of 0.5 reads the largest tap
+    # magnitude times 0.5 over all phases, i.e. the sample itself (phase 0 is the identity)
+    for n in (1, 31, 33, 70000):
+        z = np.zeros((n, 2))
+        meter, cp, _ = run_meter(z, 4096)
+        assert np.array_equal(meter.peak_linear, [0.0, 0.0]) and not cp.any()
+        dc = np.full((n, 1), 0.25)
+        meter, _, _ = run_meter(dc, 4096)
+        ref = full_grid_frame_values(dc[:, 0]).max()
+        assert abs(meter.peak_linear[0] - ref) <= F32_TOL
+    imp = np.zeros((5000, 1))
+    imp[2500, 0] = 0.5
+    meter, _, _ = run_meter(imp, 777)
+    flt = ov.reading_filter()
+    assert meter.peak_linear[0] == pytest.approx(0.5 * np.abs(flt.taps).max(), abs=F32_TOL)
+
+
+def test_pre_screen_bound_holds_for_every_phase():
+    # analytic (TruePeakMeter docstring): |h_p*x| <= sum|g_p||x| + sum|h_p||x_h| with g_p = h_p*b,
+    # b = [1, 2, 1]/4, x_h = x - b*x; checked on random and worst-case (sign-of-taps) inputs
+    flt = ov.reading_filter()
+    a_near, a_far, c_h = ov.local_bound_constants(flt, ov.TruePeakMeter.NEAR)
+    assert a_near + a_far == pytest.approx(1.0612, abs=1e-3)          # computed from the taps (house record)
+    assert c_h == pytest.approx(flt.max_gain, rel=1e-12)              # the same L1 norm, by construction
+    rng = np.random.default_rng(5)
+    T, lead = flt.taps_per_phase, flt.lead
+    for trial in range(200):
+        p = int(rng.integers(0, 32))
+        x = rng.standard_normal(T + 4) if trial % 2 else np.sign(np.concatenate([[0, 0], flt.taps[:, p], [0, 0]]))
+        y = float(flt.taps[:, p] @ x[2:2 + T])
+        xh = x[1:-1] - (x[:-2] + 2 * x[1:-1] + x[2:]) / 4
+        bound = a_near * np.abs(x[2 + lead - 4:2 + lead + 5]).max() + a_far * np.abs(x).max() \
+            + c_h * np.abs(xh[1:1 + T]).max()
+        assert abs(y) <= bound * (1 + 1e-12)
+
+
+def test_float32_exact_sample_peak_equals_the_float64_reduction():
+    # 24-bit codes and float32 values are exact in float32 (IEEE 754 binary32: 24-bit significand),
+    # so the sample peak taken from the float32 buffer equals the float64 one bit for bit
+    from masterqc.measure.peaks import samples_are_float32
+    rng = np.random.default_rng(21)
+    pcm24 = np.round(rng.uniform(-1, 1, (150000, 2)) * 2 ** 23) / 2 ** 23
+    f32 = (rng.standard_normal((150000, 2)) * 0.3).astype(np.float32).astype(np.float64)
+    for x in (pcm24, f32):
+        plain, cp_plain, _ = run_meter(x, 65536)
+        fast = ov.TruePeakMeter(FS, 2, 4, float32_exact=True)
+        for i in range(0, x.shape[0], 50000):
+            fast.process(x[i:i + 50000])
+        fast.flush()
+        assert np.array_equal(fast.sample_peak_linear, np.abs(x).max(axis=0))
+        assert np.array_equal(fast.sample_peak_linear, plain.sample_peak_linear)
+        assert np.array_equal(fast.peak_linear, plain.peak_linear)
+    # which encodings qualify (the reader's table: bit depth, is_float)
+    info = type("I", (), {})
+    for bits, is_float, expected in ((16, False, True), (24, False, True), (32, False, False),
+                                     (32, True, True), (64, True, False), (8, False, True)):
+        info.bit_depth, info.is_float = bits, is_float
+        assert samples_are_float32(info) is expected, (bits, is_float)

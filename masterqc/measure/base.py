@@ -57,12 +57,18 @@ class Analyzer:
     ``raw_input``: when False (default), the engine replaces non-finite samples by
     0.0 before the block reaches the analyzer, so one NaN cannot poison filter
     state; analyzers that count non-finite samples set it True.
+    ``planar_input``: when True, the engine calls :meth:`process_planar` with the block as
+    (channels, frames), C-contiguous (one row per channel), instead of :meth:`process`: it
+    makes that copy once per block, on its reader thread, for every analyzer that asks, so
+    none transposes the block itself.  Planar blocks are always the cleaned ones
+    (``raw_input`` must then be False).  :meth:`process` keeps taking (frames, channels).
     """
 
     name: str = "analyzer"
     measurement_schema: dict = {}
     series_schema: dict = {}
     raw_input: bool = False
+    planar_input: bool = False
 
     def __init__(self, info, options):
         self.info = info
@@ -70,6 +76,11 @@ class Analyzer:
 
     def process(self, block) -> None:  # pragma: no cover - interface
         raise NotImplementedError
+
+    def process_planar(self, rows) -> None:
+        """The block as (channels, frames); by default :meth:`process` of its transpose.
+        An analyzer that sets ``planar_input`` overrides it with the same arithmetic."""
+        self.process(rows.T)
 
     def finish(self) -> AnalyzerResult:  # pragma: no cover - interface
         raise NotImplementedError

@@ -199,17 +199,33 @@ class ChannelRelationAnalyzer(Analyzer):
                     self.below_where.append([start, end])
         self.window_index += len(frames)
 
+    #: the engine hands it (channels, frames) blocks: every channel a contiguous row
+    planar_input = True
+
     def process(self, block):
-        n = block.shape[0]
+        """A (frames, channels) block."""
         if not self.nonzero.all():
             # per-channel max |x| on a folded view: (block != 0).any(axis=0) reduces a narrow
             # array along axis 0, about 40x slower; the engine's blocks hold no NaN here
             self.nonzero |= column_abs_max(block) > 0.0
+        self._process(block.T, block)
+
+    def process_planar(self, rows):
+        """A (channels, frames) block: the same arithmetic on contiguous rows (the products and
+        their sums are taken element by element in the same order, so the same bits)."""
+        if not self.nonzero.all():
+            self.nonzero |= (rows != 0.0).any(axis=1)      # no NaN in the engine's clean blocks
+        self._process(rows, None)
+
+    def _process(self, cols, block):
+        """``cols[c]``: channel c as a 1-D array; ``block``: the (frames, channels) block, or
+        None when the block came planar (``cols`` C-contiguous)."""
+        n = cols.shape[1]
         for p in self.compared:
             i, j = p
-            if self.same[p] and not np.array_equal(block[:, i], block[:, j]):
+            if self.same[p] and not np.array_equal(cols[i], cols[j]):
                 self.same[p] = False
-            if self.negated[p] and not np.array_equal(block[:, i], -block[:, j]):
+            if self.negated[p] and not np.array_equal(cols[i], -cols[j]):
                 self.negated[p] = False
         if not self.pairs:
             self.pos += n
@@ -222,8 +238,8 @@ class ChannelRelationAnalyzer(Analyzer):
         # per pair on 1-D column views: reduceat over a (frames, 1) array is many times slower
         sums = np.empty((3, cuts.size, len(self.pairs)))  # (xy, xx, yy) per segment and pair
         for k, (a, b) in enumerate(self.pairs):
-            x = block[:, a]
-            y = block[:, b]
+            x = cols[a]
+            y = cols[b]
             sums[0, :, k] = np.add.reduceat(x * y, cuts)
             sums[1, :, k] = np.add.reduceat(x * x, cuts)
             sums[2, :, k] = np.add.reduceat(y * y, cuts)
@@ -244,9 +260,17 @@ class ChannelRelationAnalyzer(Analyzer):
             self.acc_frames = int(lengths[-1])
         self.pos += n
         if self.sos is not None and self.kshared is None:
-            # every channel paired (stereo): filter the block itself, no copy
-            src = block if self.kchannels == list(range(block.shape[1])) else block[:, self.kchannels]
-            kw, self.zi = sosfilt(self.sos, src, axis=0, zi=self.zi)
+            every = self.kchannels == list(range(cols.shape[0]))
+            if block is not None:
+                # every channel paired (stereo): filter the block itself, no copy
+                src = block if every else block[:, self.kchannels]
+                kw, self.zi = sosfilt(self.sos, src, axis=0, zi=self.zi)
+            else:
+                # along rows: the state is (sections, channels, 2) there, (sections, 2, channels) here;
+                # the result is the transpose of the one above, the same bits in the same memory
+                src = cols if every else cols[self.kchannels]
+                kw, zi = sosfilt(self.sos, src, axis=-1, zi=np.swapaxes(self.zi, 1, 2))
+                kw, self.zi = kw.T, np.swapaxes(zi, 1, 2)
             self.kenergy += column_sum(kw * kw)
 
     def _name(self, p):

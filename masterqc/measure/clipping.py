@@ -137,6 +137,12 @@ class ClippingAnalyzer(Analyzer):
         return out
 
     def process(self, block):
+        if block.size and self.lower < block.min() and block.max() < self.upper:
+            # nothing at either clipping level (two reductions, no temporaries), so nothing
+            # over full scale either (upper <= 1.0 and lower >= -1.0): close carried runs
+            for c, tr in enumerate(self.trackers):
+                self._collect(c, *tr.skip(block.shape[0]))
+            return
         pos = block >= self.upper
         neg = block <= self.lower
         if self.info.is_float:

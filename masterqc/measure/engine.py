@@ -32,15 +32,17 @@ def file_facts(path) -> dict:
     """``{"path", "size_bytes", "sha256"}`` of a file, read in 1 MiB chunks."""
     digest = hashlib.sha256()
     size = 0
+    buf = bytearray(HASH_CHUNK_BYTES)        # one buffer read into again and again: no 1 MiB object per chunk
+    view = memoryview(buf)
     from masterqc.fileio import NotRegularFile, open_regular_file
     try:
         with open_regular_file(path) as f:  # a FIFO or device is refused at once, never waited on
             while True:
-                chunk = f.read(HASH_CHUNK_BYTES)
-                if not chunk:
+                n = f.readinto(buf)
+                if not n:
                     break
-                size += len(chunk)
-                digest.update(chunk)
+                size += n
+                digest.update(view[:n])
     except NotRegularFile as exc:
         raise AudioReadError(path, str(exc)) from None
     except OSError as exc:
@@ -65,12 +67,19 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
     """
     for a in analyzers:
         rec = cpu_split.setdefault(type(a).__name__, [0.0, 0.0])
-        proc, fin = a.process, a.finish
+        proc, planar, fin = a.process, a.process_planar, a.finish
 
         def process(block, _proc=proc, _rec=rec):
             t = time.thread_time()
             try:
                 _proc(block)
+            finally:
+                _rec[0] += time.thread_time() - t
+
+        def process_planar(rows, _proc=planar, _rec=rec):
+            t = time.thread_time()
+            try:
+                _proc(rows)
             finally:
                 _rec[0] += time.thread_time() - t
 
@@ -80,7 +89,7 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
                 return _fin()
             finally:
                 _rec[1] += time.thread_time() - t
-        a.process, a.finish = process, finish
+        a.process, a.process_planar, a.finish = process, process_planar, finish
 
 
 #: glibc ``mallopt`` parameters (malloc.h): M_TRIM_THRESHOLD, M_TOP_PAD, M_MMAP_THRESHOLD
@@ -121,20 +130,43 @@ def keep_block_buffers_in_heap() -> bool:
     return True
 
 
-def _prepare(block, info, want_clean: bool):
-    """(raw, clean) views of a decoded block, both read-only.
+def _prepare(block, info, want_clean: bool, want_planar: bool = False):
+    """(raw, clean, planar) views of a decoded block, all read-only.
 
     ``clean`` has non-finite samples replaced by 0.0 (float files only); it is the
-    block itself when every sample is finite.  Read-only, because every analyzer
-    sees the same arrays: one that wrote into its input would change another's.
+    block itself when every sample is finite.  ``planar`` is ``clean`` as (channels,
+    frames), C-contiguous (one copy, made here so that analyzers with
+    ``planar_input`` do not each transpose the block), or None when nobody asked.
+    Read-only, because every analyzer sees the same arrays: one that wrote into its
+    input would change another's.
     """
     block = np.asarray(block)
     block.flags.writeable = False
     clean = block
-    if want_clean and info.is_float and not np.isfinite(block).all():
+    if (want_clean or want_planar) and info.is_float and not np.isfinite(block).all():
         clean = np.where(np.isfinite(block), block, 0.0)
         clean.flags.writeable = False
-    return block, clean
+    planar = None
+    if want_planar:
+        planar = np.ascontiguousarray(clean.T)
+        planar.flags.writeable = False
+    return block, clean, planar
+
+
+def _feed(analyzer, prepared) -> None:
+    """Hand ``analyzer`` the form of a prepared block it takes."""
+    raw, clean, planar = prepared
+    if analyzer.planar_input:
+        analyzer.process_planar(planar)
+    else:
+        analyzer.process(raw if analyzer.raw_input else clean)
+
+
+def _check_inputs(analyzers) -> None:
+    for a in analyzers:
+        if a.planar_input and a.raw_input:
+            raise ValueError(f"{type(a).__name__}: planar blocks are the cleaned ones; "
+                             "raw_input and planar_input cannot both be set")
 
 
 def _collect(analyzers):
@@ -148,13 +180,17 @@ def _collect(analyzers):
     return measurements, series, settings
 
 
-def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, cpu_split=None):
+def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, cpu_split=None,
+                  thread_cpu=None):
     """Feed every applicable analyzer from one read of ``stream``.
 
     ``progress(frames_done, frames_total)`` is called after each block when given
     (always from the calling thread).  Returns ``(measurements, series, settings)``
     dicts.  With a dict ``cpu_split``, each analyzer's CPU seconds in process() and finish()
-    are added to it (:func:`_time_analyzers`).  After every analyzer has finished, the registry's post-steps
+    are added to it (:func:`_time_analyzers`); with a dict ``thread_cpu``, the CPU seconds of
+    decoding and preparing blocks (``"read_s"``: the reader thread, or the decode calls of a
+    sequential run) and of the threads that run the analyzers (``"analyze_s"``: their
+    process() calls and the scheduling around them).  After every analyzer has finished, the registry's post-steps
     (:func:`masterqc.measure.registry.post_steps`) combine evidence across analyzers.
 
     With ``options.threads`` > 1 the stream is decoded in a reader thread up to
@@ -174,32 +210,45 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
             bind(analyzers)
     if cpu_split is not None:
         _time_analyzers(analyzers, cpu_split)
+    _check_inputs(analyzers)
     threads = max(1, int(getattr(options, "threads", 1) or 1))
     keep_block_buffers_in_heap()
     with single_thread_blas():
         if threads == 1 or not analyzers:
-            _run_sequential(stream, info, options, analyzers, progress)
+            _run_sequential(stream, info, options, analyzers, progress, thread_cpu)
         else:
-            _BlockScheduler(stream, info, options, analyzers, threads, progress).run()
+            _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu).run()
         measurements, series, settings = _collect(analyzers)
     for step in post_steps():
         measurements = step(measurements)
     return measurements, series, settings
 
 
-def _run_sequential(stream, info, options, analyzers, progress) -> None:
-    raw = [a for a in analyzers if a.raw_input]
-    clean = [a for a in analyzers if not a.raw_input]
+def _run_sequential(stream, info, options, analyzers, progress, thread_cpu=None) -> None:
+    want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
+    want_planar = any(a.planar_input for a in analyzers)
     done = 0
-    for block in stream.blocks(options.block_frames):
-        block, cleaned = _prepare(block, info, bool(clean))
-        for a in raw:
-            a.process(block)
-        for a in clean:
-            a.process(cleaned)
+    read_s = analyze_s = 0.0
+    clock = time.thread_time if thread_cpu is not None else (lambda: 0.0)
+    gen = stream.blocks(options.block_frames)
+    while True:
+        t0 = clock()
+        block = next(gen, None)
+        if block is None:
+            read_s += clock() - t0
+            break
+        prepared = _prepare(block, info, want_clean, want_planar)
+        t1 = clock()
+        for a in analyzers:
+            _feed(a, prepared)
+        analyze_s += clock() - t1
+        read_s += t1 - t0
         done += block.shape[0]
         if progress is not None:
             progress(done, info.frames)
+    if thread_cpu is not None:
+        thread_cpu["read_s"] = thread_cpu.get("read_s", 0.0) + read_s
+        thread_cpu["analyze_s"] = thread_cpu.get("analyze_s", 0.0) + analyze_s
 
 
 class _BlockScheduler:
@@ -215,17 +264,19 @@ class _BlockScheduler:
     there is progress to report.
     """
 
-    def __init__(self, stream, info, options, analyzers, threads, progress):
+    def __init__(self, stream, info, options, analyzers, threads, progress, thread_cpu=None):
         self.stream, self.info, self.options = stream, info, options
+        self.thread_cpu = thread_cpu           # opt-in: CPU seconds per kind of thread
         self.analyzers = analyzers
         self.threads = threads
         self.progress = progress
-        self.want_clean = any(not a.raw_input for a in analyzers)
+        self.want_clean = any(not a.raw_input and not a.planar_input for a in analyzers)
+        self.want_planar = any(a.planar_input for a in analyzers)
         self.lock = threading.Lock()
         self.space = threading.Condition(self.lock)    # the reader waits here
         self.work = threading.Condition(self.lock)     # the helper workers wait here
         self.main = threading.Condition(self.lock)     # the calling thread waits here
-        self.blocks: dict[int, tuple] = {}     # index -> (raw, clean)
+        self.blocks: dict[int, tuple] = {}     # index -> (raw, clean, planar)
         self.ends: list[int] = []              # frames done after block k
         self.read_count = 0
         self.read_done = False
@@ -243,16 +294,36 @@ class _BlockScheduler:
         self.main.notify_all()
 
     # -- reader thread
+    def _add_cpu(self, key: str, started: float) -> None:
+        if self.thread_cpu is not None:
+            spent = time.thread_time() - started
+            with self.lock:
+                self.thread_cpu[key] = self.thread_cpu.get(key, 0.0) + spent
+
     def _read(self) -> None:
+        started = time.thread_time()
+        try:
+            self._read_blocks()
+        finally:
+            self._add_cpu("read_s", started)
+
+    def _work(self, report: bool) -> None:
+        started = time.thread_time()
+        try:
+            self._work_blocks(report)
+        finally:
+            self._add_cpu("analyze_s", started)
+
+    def _read_blocks(self) -> None:
         gen = self.stream.blocks(self.options.block_frames)
         try:
             for block in gen:
-                pair = _prepare(block, self.info, self.want_clean)
+                prepared = _prepare(block, self.info, self.want_clean, self.want_planar)
                 with self.lock:
                     if self.abort:
                         return
                     k = self.read_count
-                    self.blocks[k] = pair
+                    self.blocks[k] = prepared
                     self.ends.append((self.ends[-1] if self.ends else 0) + block.shape[0])
                     self.read_count = k + 1
                     self.work.notify_all()
@@ -292,7 +363,7 @@ class _BlockScheduler:
     def _finished(self) -> bool:
         return self.read_done and self.low >= self.read_count
 
-    def _work(self, report: bool) -> None:
+    def _work_blocks(self, report: bool) -> None:
         wait_on = self.main if report else self.work
         report = report and self.progress is not None
         while True:
@@ -314,14 +385,14 @@ class _BlockScheduler:
                 if pending is None:
                     self.busy[i] = True
                     k = self.next[i]
-                    raw, clean = self.blocks[k]
+                    prepared = self.blocks[k]
             if pending is not None:
                 for frames in pending:
                     self.progress(frames, self.info.frames)
                 continue
             a = self.analyzers[i]
             try:
-                a.process(raw if a.raw_input else clean)
+                _feed(a, prepared)
             except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
                 with self.lock:
                     self.errors.append((k, i, exc))
@@ -329,7 +400,7 @@ class _BlockScheduler:
                     self._wake_all()
                 return
             finally:
-                raw = clean = None
+                prepared = None
             with self.lock:
                 self.busy[i] = False
                 self.next[i] = k + 1
@@ -380,14 +451,18 @@ class _Background:
 
     def __init__(self, fn, *args):
         self._value = self._error = None
+        self.cpu_s = 0.0
         self._thread = threading.Thread(target=self._run, args=(fn, args), name="masterqc-hash", daemon=True)
         self._thread.start()
 
     def _run(self, fn, args):
+        started = time.thread_time()
         try:
             self._value = fn(*args)
         except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
             self._error = exc
+        finally:
+            self.cpu_s = time.thread_time() - started
 
     def result(self):
         self._thread.join()
@@ -404,16 +479,20 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     options = options or MeasureOptions()
     started = time.perf_counter()
     threaded = max(1, int(getattr(options, "threads", 1) or 1)) > 1
+    split_path = os.environ.get(CPU_SPLIT_ENV)
+    cpu_split = {} if split_path else None
+    thread_cpu = {} if split_path else None
+    cpu_started = time.process_time()
     # with threads, the file is hashed in the background while it is measured; its
     # error (the file cannot be read) still comes first, as in a sequential run
     hashing = _Background(file_facts, path) if threaded else None
+    hash_started = time.thread_time()
     facts = None if threaded else file_facts(path)
-    split_path = os.environ.get(CPU_SPLIT_ENV)
-    cpu_split = {} if split_path else None
-    cpu_started = time.process_time()
+    hash_cpu_s = time.thread_time() - hash_started
     try:
         with open_stream(path, channel_layout=options.channel_layout) as stream:
-            measurements, series, settings = run_analyzers(stream, options, progress, cpu_split=cpu_split)
+            measurements, series, settings = run_analyzers(stream, options, progress, cpu_split=cpu_split,
+                                                           thread_cpu=thread_cpu)
             container = stream.container
             fmt = stream.info.format_dict()
     except BaseException:
@@ -422,11 +501,17 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         raise
     if hashing is not None:
         facts = hashing.result()
+        hash_cpu_s = hashing.cpu_s
     if split_path:
         import json
+        # threads_cpu_s: "hash_s" (the file's SHA-256), "read_s" (decoding and preparing the
+        # blocks), "analyze_s" (the analyzer threads: the analyzers' process() and the
+        # scheduling around it); the rest of process_cpu_s is opening the file, building the
+        # analyzers, their finish() and assembling the result
         with open(split_path, "w", encoding="utf-8") as f:
             json.dump({"process_cpu_s": time.process_time() - cpu_started,
                        "threads": max(1, int(getattr(options, "threads", 1) or 1)),
+                       "threads_cpu_s": {"hash_s": hash_cpu_s, **thread_cpu},
                        "analyzers": cpu_split}, f, indent=1)
     metadata = dict(container.metadata)
     metadata["container_kind"] = container.kind

@@ -84,10 +84,11 @@ class FramePicker:
     """Cut frames at fixed absolute sample positions out of a stream of blocks.
 
     Results never depend on the block size: frames are taken at the positions
-    given up front, whatever blocks they straddle.  Only the samples a pending
-    frame needs are kept between blocks (as a list of pieces, joined once when a
-    frame completes), so blocks with no frame cost nothing and tiny blocks cost
-    no repeated copying.
+    given up front, whatever blocks they straddle.  A frame inside one block is
+    handed out as a view of that block (valid while the caller handles it); only
+    the samples a pending frame needs are copied and kept between blocks (as a
+    list of pieces, joined once when the frame completes), so blocks with no frame
+    cost nothing and tiny blocks cost no repeated copying.
     """
 
     def __init__(self, starts, frame_len: int, channels: int):
@@ -96,7 +97,7 @@ class FramePicker:
         self.channels = channels
         self.next = 0
         self.pos = 0          # absolute index of the next block's first sample
-        self.pieces = []      # consecutive samples from buf_start up to pos
+        self.pieces = []      # copies of consecutive samples from buf_start up to pos
         self.buf_start = 0
 
     def _joined(self):
@@ -110,32 +111,31 @@ class FramePicker:
         blk_end = blk_start + block.shape[0]
         self.pos = blk_end
         n = self.frame_len
-        if self.next >= len(self.starts):
-            return
-        s = int(self.starts[self.next])
-        if s >= blk_end:                      # nothing of this block is needed
-            self.pieces, self.buf_start = [], blk_end
-            return
-        if not self.pieces:
-            self.buf_start = max(s, blk_start)
-        self.pieces.append(block[max(0, self.buf_start - blk_start):])
         while self.next < len(self.starts):
             s = int(self.starts[self.next])
             if s + n > blk_end:
                 break
-            buf = self._joined()
-            yield s, buf[s - self.buf_start:s - self.buf_start + n]
+            if s >= blk_start:
+                yield s, block[s - blk_start:s - blk_start + n]
+            else:
+                # begun in earlier blocks: the kept samples from s on, then the head of this block
+                kept = self._joined()
+                yield s, np.concatenate([kept[s - self.buf_start:], block[:s + n - blk_start]])
             self.next += 1
         if self.next >= len(self.starts):
             self.pieces = []
             return
+        # keep what the next frame needs, from its start on
         s = int(self.starts[self.next])
         if s >= blk_end:
             self.pieces, self.buf_start = [], blk_end
-        elif s > self.buf_start:
-            buf = self._joined()
-            self.pieces = [np.array(buf[s - self.buf_start:])]
-            self.buf_start = s
+        elif s >= blk_start:
+            self.pieces, self.buf_start = [block[s - blk_start:].copy()], s
+        else:
+            if s > self.buf_start:
+                kept = self._joined()
+                self.pieces, self.buf_start = [kept[s - self.buf_start:]], s
+            self.pieces.append(block.copy())
 
 
 def refine_peak(power: np.ndarray, k: int) -> float:
@@ -186,15 +186,19 @@ def harmonic_fundamental(freqs_hz, powers, min_f0_hz: float = 20.0, tolerance_hz
     order = np.argsort(p)[::-1][:12]
     total = p.sum()
     best = None
-    for i in order:
+    # every candidate (line i, divisor n) at once: the same element-wise operations as one at a time
+    f0_all = f[order][:, None] / np.arange(1, 9)[None, :]              # (candidates, divisors)
+    h_all = np.round(f[None, None, :] / f0_all[:, :, None])
+    ok_all = (h_all >= 1) & (np.abs(f[None, None, :] - h_all * f0_all[:, :, None]) <= tolerance_hz + 1e-4 * f)
+    count_all = ok_all.sum(axis=2)
+    for a in range(order.size):
         for n in range(1, 9):
-            f0 = f[i] / n
+            f0 = f0_all[a, n - 1]
             if f0 < min_f0_hz:
                 break
-            h = np.round(f / f0)
-            ok = (h >= 1) & (np.abs(f - h * f0) <= tolerance_hz + 1e-4 * f)
-            if ok.sum() < min_harmonics:
+            if count_all[a, n - 1] < min_harmonics:
                 continue
+            h, ok = h_all[a, n - 1], ok_all[a, n - 1]
             if p[ok].sum() < min_explained * total:
                 continue
             hs = np.unique(h[ok])

@@ -1,4 +1,4 @@
-"""Cascaded second-order sections (transposed direct form II), without importing scipy.signal for short work.
+"""Cascaded second-order sections (transposed direct form II), without importing scipy.signal.
 
 :func:`sosfilt` takes and returns what ``scipy.signal.sosfilt(sos, x, axis=-1, zi=zi)``
 does, and its output is bit-for-bit the same: the recursion per section is
@@ -10,17 +10,27 @@ does, and its output is bit-for-bit the same: the recursion per section is
 evaluated in that order in IEEE double precision, as the compiled scipy kernel does
 (sections run one after the other over the whole block, which changes no operation).
 
-Importing ``scipy.signal`` costs about half a second of CPU (it imports most of SciPy),
-more than the K-weighting of a few seconds of stereo audio takes in plain Python
-(about 0.1 us per sample and section).  So the first ``PYTHON_BUDGET`` section-samples
-of a process run in Python; after that (a longer file) the compiled kernel is imported
-and used.  Both give the same bits, so where the switch happens changes no result.
-The budget is a house choice: about a third of the import's cost, so a long file pays
-at most that on top of the import.  Thread-safe: the budget is taken under a lock.
+Importing ``scipy.signal`` costs about half a second of CPU (it imports most of SciPy,
+scipy.stats included), more than the K-weighting of a 10-minute stereo file takes.  The
+compiled kernel itself lives in a small extension module of its own
+(``scipy/signal/_sosfilt``) that needs only numpy: :func:`compiled_kernel` loads that file
+directly (about 0.3 ms), checks it against the plain-Python recursion on a small input
+(bit for bit), and :func:`sosfilt` then calls it with the copies and layout
+``scipy.signal.sosfilt`` makes, so the arrays handed back are the same bits in the same
+memory order.  Where that module cannot be loaded or fails the check (another SciPy
+layout), the first ``PYTHON_BUDGET`` section-samples of a process run in plain Python and
+longer work imports ``scipy.signal``; all three give the same bits, so which one runs
+changes no result.  The budget is a house choice: about a third of the import's cost, so
+a long file pays at most that on top of the import.  Thread-safe: the budget is taken
+under a lock, the kernel is loaded once under it.
 """
 
 from __future__ import annotations
 
+import importlib.machinery
+import importlib.util
+import os
+import sys
 import threading
 
 import numpy as np
@@ -32,6 +42,12 @@ PYTHON_BUDGET = 1_500_000
 _lock = threading.Lock()
 _python_left = PYTHON_BUDGET
 
+#: name of scipy's compiled cascade kernel module (the function ``_sosfilt(sos, x, zi)`` in it
+#: filters ``x`` (signals, n) in place, C order, with ``zi`` (signals, sections, 2) in place)
+KERNEL_MODULE = "scipy.signal._sosfilt"
+#: the loaded kernel function; None before the first attempt, False when it is not usable
+_kernel = None
+
 
 def _take_budget(work: int) -> bool:
     """True when ``work`` section-samples may run in Python (and books them)."""
@@ -42,6 +58,83 @@ def _take_budget(work: int) -> bool:
             return True
         _python_left = 0       # from now on the compiled kernel: it is imported anyway
         return False
+
+
+def _load_kernel_module():
+    """scipy's ``signal/_sosfilt`` extension module, loaded from its file without running
+    ``scipy/signal/__init__`` (which imports most of SciPy); None when there is no such file."""
+    loaded = sys.modules.get(KERNEL_MODULE)
+    if loaded is not None:
+        return loaded
+    spec = importlib.util.find_spec("scipy")
+    if spec is None or not spec.submodule_search_locations:
+        return None
+    for base in spec.submodule_search_locations:
+        for suffix in importlib.machinery.EXTENSION_SUFFIXES:
+            path = os.path.join(base, "signal", "_sosfilt" + suffix)
+            if os.path.isfile(path):
+                kspec = importlib.util.spec_from_file_location(KERNEL_MODULE, path)
+                module = importlib.util.module_from_spec(kspec)
+                kspec.loader.exec_module(module)
+                # registered under its own name: a later ``import scipy.signal`` takes this
+                # module object instead of loading the extension a second time
+                sys.modules.setdefault(KERNEL_MODULE, module)
+                return sys.modules[KERNEL_MODULE]
+    return None
+
+
+def _kernel_self_check(kernel) -> bool:
+    """True when ``kernel`` gives the plain-Python recursion's bits (and updates zi) on a
+    small stereo, two-section input with a non-zero initial state."""
+    sos = np.array([[1.53, -2.69, 1.19, 1.0, -1.69, 0.73],
+                    [1.0, -2.0, 1.0, 1.0, -1.99, 0.99]])
+    x = np.sin(np.arange(2 * 97, dtype=np.float64) * 0.37).reshape(2, 97)
+    zi = np.arange(8, dtype=np.float64).reshape(2, 2, 2) * 1e-3       # (sections, channels, 2)
+    ref, ref_z = sosfilt_python(sos, x, zi)
+    y = np.array(x, order="C")
+    z = np.array(np.moveaxis(zi, 0, 1), order="C")
+    kernel(sos, y, z)
+    return bool(np.array_equal(y, ref) and np.array_equal(np.moveaxis(z, 0, 1), ref_z))
+
+
+def compiled_kernel():
+    """scipy's compiled cascade kernel, or None when it cannot be used here (loaded once)."""
+    global _kernel
+    k = _kernel
+    if k is None:
+        with _lock:
+            if _kernel is None:
+                try:
+                    module = _load_kernel_module()
+                    fn = getattr(module, "_sosfilt", None) if module is not None else None
+                    _kernel = fn if fn is not None and _kernel_self_check(fn) else False
+                except Exception:               # noqa: BLE001 - any failure: the other two paths
+                    _kernel = False
+            k = _kernel
+    return k or None
+
+
+def _sosfilt_kernel(kernel, sos, x, axis, zi):
+    """What ``scipy.signal.sosfilt`` does around its kernel for a 2-D float64 ``x``: fresh
+    C-ordered (signals, n) copies of ``x`` and of ``zi``, filtered in place, handed back in
+    the caller's axis order as views (so their memory order is sosfilt's too)."""
+    n_sec = sos.shape[0]
+    signals_first = axis in (1, -1)
+    want = (n_sec, x.shape[0], 2) if signals_first else (n_sec, 2, x.shape[1])
+    zi = np.asarray(zi, dtype=np.float64)
+    if zi.shape != want:
+        raise ValueError(f"Invalid zi shape: with axis={axis!r}, an input of shape {x.shape!r} and "
+                         f"{n_sec} sections, zi must have shape {want!r}, got {zi.shape!r}")
+    sos = np.ascontiguousarray(sos, dtype=np.float64)
+    if signals_first:
+        y = np.array(x, dtype=np.float64, order="C")
+        z = np.array(np.moveaxis(zi, 0, 1), order="C")           # (signals, sections, 2)
+        kernel(sos, y, z)
+        return y, np.moveaxis(z, 0, 1)
+    y = np.array(x.T, dtype=np.float64, order="C")
+    z = np.array(np.moveaxis(zi, (0, 1), (1, 2)), order="C")      # (signals, sections, 2)
+    kernel(sos, y, z)
+    return y.T, np.moveaxis(z, (1, 2), (0, 1))
 
 
 def _section(b0: float, b1: float, b2: float, a1: float, a2: float, xs: list, z0: float, z1: float):
@@ -82,6 +175,9 @@ def sosfilt(sos, x, axis: int = -1, zi=None):
     if x.dtype != np.float64 or not np.all(sos[:, 3] == 1.0):
         from scipy.signal import sosfilt as compiled
         return compiled(sos, x, axis=axis, zi=zi)
+    kernel = compiled_kernel()
+    if kernel is not None:
+        return _sosfilt_kernel(kernel, sos, x, axis, zi)
     if _take_budget(x.size * sos.shape[0]):
         if axis in (1, -1):
             return sosfilt_python(sos, x, zi)

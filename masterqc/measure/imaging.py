@@ -68,8 +68,12 @@ For each candidate source rate below the file's rate the analyzer reports
   both found it.
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
-``fs/20`` samples per frame and channel, and one product per candidate pair) plus
-:data:`FOLD_CHECK_FRAMES` longer frames, independent of the file's length.
+``fs/25`` samples per frame and channel, and one product per pair of the candidates'
+own cycle frequencies) plus :data:`FOLD_CHECK_FRAMES` longer frames, independent of the
+file's length.  The frames' spectra are kept (:data:`SPECTRA_STORE_MAX_BYTES`), so the
+control cycle frequencies and the half-file sums, which only a significant candidate
+needs, are computed for such a candidate alone; the numbers are the same as summing
+every pair while streaming.
 """
 
 from __future__ import annotations
@@ -89,8 +93,10 @@ CANDIDATE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 882
 #: analysis bin spacing: every standard rate is a whole number of 25 Hz (8000 = 320 x 25,
 #: 11025 = 441 x 25), so fs/25 samples per frame puts every candidate's mirror on a bin
 BIN_HZ = 25.0
-#: at most this many frames per file are analysed (cost bound, independent of length)
-MAX_FRAMES = 128
+#: at most this many frames per file are analysed (cost bound, independent of length).  House choice:
+#: 100, about the count a 2-second file gives (99 at every rate: frames of fs/25 samples at least fs/50
+#: apart), the count the thresholds here were tuned at; longer files take no more
+MAX_FRAMES = 100
 #: fewer frames than this and the coherence estimate is meaningless
 MIN_FRAMES = 6
 #: baseband bins below this are left out (DC offsets and rumble carry no image information)
@@ -157,6 +163,12 @@ CONTROL_OFFSETS_BINS = (-5, 3)
 #: a control this significant (absolute, and relative to the candidate's z) makes the
 #: candidate untestable (own reasoning)
 CONTROL_Z_RELATIVE = 0.5
+#: the analysed frames' spectra are kept (complex, one-sided) up to this many bytes, so that the
+#: pairs only a significant candidate needs (its control cycle frequencies and its first-half sums)
+#: are computed at :meth:`ImagingAnalyzer.finish` only for such a candidate; above it (many channels
+#: at a high rate) every pair is accumulated while streaming.  Both give the same numbers (house
+#: choice: 32 MiB holds 100 frames of 8 channels at 96 kHz, 25 MB)
+SPECTRA_STORE_MAX_BYTES = 32 * 1024 * 1024
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
 FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
@@ -263,12 +275,13 @@ def locked_order(f0: float, rate: float, fs: float, tolerance_hz: float, max_ord
     return int(k[hit[0]]) if hit.size else None
 
 
-def periodic_fundamental(power: np.ndarray, bin_hz: float):
+def periodic_fundamental(power: np.ndarray, bin_hz: float, lines=None):
     """Fundamental (Hz) of line-dominated periodic material in a long-term power spectrum, or None.
 
-    Lines must hold most of the power for the material to count as periodic.
+    Lines must hold most of the power for the material to count as periodic.  ``lines``: the
+    spectrum's :func:`spectral_lines`, when already found.
     """
-    lines = spectral_lines(power)
+    lines = spectral_lines(power) if lines is None else lines
     if lines.size < 3:
         return None
     lobe = np.zeros(power.size, dtype=bool)
@@ -367,6 +380,21 @@ def _pair_plan(fs: int, n_fft: int, rates: tuple, offsets: tuple):
     return cands, all_ka, all_kb, pair_index
 
 
+@functools.lru_cache(maxsize=8)
+def _main_pairs(fs: int, n_fft: int, rates: tuple, offsets: tuple):
+    """The distinct pairs (indices into :func:`_pair_plan`'s ``all_ka``/``all_kb``) that the candidates'
+    own cycle frequencies use (not the controls), and per distinct pair its position among them (-1 for
+    a pair only a control uses).  Cached, read-only."""
+    cands, all_ka, _all_kb, pair_index = _pair_plan(fs, n_fft, rates, offsets)
+    parts = [pair_index[c["cycles"][0]["slice"]] for c in cands]
+    main = np.unique(np.concatenate(parts)) if parts else np.zeros(0, dtype=np.int64)
+    pos = np.full(all_ka.size, -1, dtype=np.int64)
+    pos[main] = np.arange(main.size)
+    for v in (main, pos):
+        v.flags.writeable = False
+    return main, pos
+
+
 class ImagingAnalyzer(Analyzer):
     """Spectral correlation at the cycle frequencies of every candidate source rate."""
 
@@ -425,15 +453,29 @@ class ImagingAnalyzer(Analyzer):
         cands, self.all_ka, self.all_kb, self.pair_index = _pair_plan(self.fs, self.n_fft, tuple(self.rates), offsets)
         self.cands = [{"rate": c["rate"], "cycles": list(c["cycles"])} for c in cands]
         self.pairs_distinct = int(self.all_ka.size)
-        self.S = np.zeros((info.channels, self.all_ka.size), dtype=complex)
-        # per pair, sum over frames of |X_m(a)|^2 |X_m(b)|^2: with it the null bias of each
-        # pair's coherence follows the material's own frame-to-frame power changes
-        self.Q = np.zeros((info.channels, self.all_ka.size))
         # the first half of the frames separately: a true image keeps its phase over the
         # whole file, a chance alignment of two unrelated components drifts between halves
         self.half = int(self.picker.starts.size) // 2
-        self.S_first = np.zeros_like(self.S)
         self.power_first = np.zeros_like(self.power)
+        # which pairs are summed while streaming: with the frames' spectra kept (see
+        # SPECTRA_STORE_MAX_BYTES), only the candidates' own pairs, and the rest (controls, first-half
+        # sums) at finish() for the candidates that need them; else every pair, as it comes
+        n_store = int(self.picker.starts.size) * info.channels * nb * 16
+        self.store = None
+        if 0 < n_store <= SPECTRA_STORE_MAX_BYTES:
+            self.store = np.empty((int(self.picker.starts.size), info.channels, nb), dtype=complex)
+            main, self._pos = _main_pairs(self.fs, self.n_fft, tuple(self.rates), offsets)
+        else:
+            main = np.arange(self.all_ka.size)
+            self._pos = main
+        self._ka, self._kb = self.all_ka[main], self.all_kb[main]
+        self.S = np.zeros((info.channels, main.size), dtype=complex)
+        # per pair, sum over frames of |X_m(a)|^2 |X_m(b)|^2: with it the null bias of each
+        # pair's coherence follows the material's own frame-to-frame power changes
+        self.Q = np.zeros((info.channels, main.size))
+        self.S_first = np.zeros_like(self.S) if self.store is None else None
+        self._sums = {}
+        self._spectral_lines = {}
 
     def process(self, block) -> None:
         for _start, frame in self.pick_tonal.feed(block):
@@ -446,32 +488,92 @@ class ImagingAnalyzer(Analyzer):
                                                          self._al.MIN_FOUND_FRACTION * r["clear"]) \
                         and r["alias_power"] >= r["harmonic_power"] * 10 ** (self._al.ALIAS_SCORE_MIN_DB / 10):
                     self.folded_frames += 1
-        for start, frame in self.picker.feed(block):
+        got = list(self.picker.feed(block))
+        if not got:
+            return
+        # the frames this block completes, transformed together (the same numbers as one by one)
+        n = self.n_fft
+        rolled = np.empty((len(got), self.info.channels, n))
+        for j, (start, frame) in enumerate(got):
             # the windowed frame rotated circularly by its start (mod N): X(k) exp(-j 2 pi k n_m / N),
             # so that X(a) X(b) carries the phase correction exp(-j 2 pi alpha n_m / N) of every
             # pair at once (a + b = alpha mod N); magnitudes, hence powers, are unchanged
-            spec = np.fft.rfft(np.roll(frame.T * self.window, int(start % self.n_fft), axis=-1), axis=-1)
-            pw = spec.real ** 2 + spec.imag ** 2
-            self.power += pw
+            # (the rotation by r = start mod N: element i moves to i + r, as numpy.roll does)
+            x = frame.T * self.window
+            r = int(start % n)
+            rolled[j, :, r:] = x[:, :n - r]
+            rolled[j, :, :r] = x[:, n - r:]
+        spec = np.fft.rfft(rolled, axis=-1)
+        pw = spec.real ** 2 + spec.imag ** 2
+        m0 = self.frames
+        if self.store is not None:
+            self.store[m0:m0 + len(got)] = spec
+        # sums over the frames one frame at a time, in order
+        for j in range(len(got)):
             first = self.frames < self.half
+            self.power += pw[j]
             if first:
-                self.power_first += pw
+                self.power_first += pw[j]
             self.frames += 1
-            if self.all_ka.size == 0:
-                continue
-            # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
-            full = np.concatenate([spec, np.conj(spec[:, (self.n_fft - 1) // 2:0:-1])], axis=1)
-            # (every index is in range: mode "clip" only skips numpy's bounds check, which costs a
-            # quarter of the gather)
-            prod = np.take(full, self.all_ka, axis=1, mode="clip")
-            prod *= np.take(full, self.all_kb, axis=1, mode="clip")
-            # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
-            q = prod.real * prod.real
-            q += prod.imag * prod.imag
-            self.Q += q
-            self.S += prod
-            if first:
-                self.S_first += prod
+            if self._ka.size:
+                # (frame by frame: the products of a frame stay in cache while they are summed)
+                prod, q = self._products(spec[j], self._ka, self._kb)
+                self.Q += q
+                self.S += prod
+                if first and self.S_first is not None:
+                    self.S_first += prod
+
+    def _products(self, spec, ka, kb):
+        """``X(a) X(b)`` and ``|X(a) X(b)|^2`` of one-sided spectra ``spec`` (..., bins) of real frames
+        for the two-sided bin pairs ``(ka, kb)``."""
+        # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
+        full = np.concatenate([spec, np.conj(spec[..., (self.n_fft - 1) // 2:0:-1])], axis=-1)
+        # (every index is in range: mode "clip" only skips numpy's bounds check, which costs a
+        # quarter of the gather)
+        prod = np.take(full, ka, axis=-1, mode="clip")
+        prod *= np.take(full, kb, axis=-1, mode="clip")
+        # |X(a) X(b)|^2 = P(a) P(b): the per-pair null-bias sum, from the product itself
+        # (re^2 + im^2, squared on the interleaved floats: contiguous, hence quicker)
+        sq = prod.view(np.float64)
+        sq = sq * sq
+        q = np.add(sq[..., 0::2], sq[..., 1::2])
+        return prod, q
+
+    def _pair_sums(self, c, ch: int, need_first: bool):
+        """``(S, Q, S_first)`` of cycle ``c``'s pairs on channel ``ch``: the sums over the frames of
+        ``X(a) X(b)`` and ``|X(a) X(b)|^2``, and the first ``half`` frames' sum of ``X(a) X(b)`` (None
+        unless ``need_first``).  Pairs not summed while streaming are summed here from the kept
+        spectra, frame by frame in the same order, so with the same result."""
+        idx = self.pair_index[c["slice"]]
+        pos = self._pos[idx]
+        streamed = bool(np.all(pos >= 0))
+        if streamed and (not need_first or self.S_first is not None):
+            s_first = self.S_first[ch, pos] if need_first else None
+            return self.S[ch, pos], self.Q[ch, pos], s_first
+        key = (ch, c["slice"].start)
+        if key not in self._sums:
+            ka, kb = self.all_ka[idx], self.all_kb[idx]
+            s = np.zeros(idx.size, dtype=complex)
+            qs = np.zeros(idx.size)
+            s_first = np.zeros_like(s)
+            # every frame's products at once (frames as rows), then summed row by row
+            prod, q = self._products(self.store[:self.frames, ch], ka, kb)
+            for m in range(self.frames):
+                qs += q[m]
+                s += prod[m]
+                if m < self.half:
+                    s_first += prod[m]
+            self._sums[key] = (s, qs, s_first)
+        s, qs, s_first = self._sums[key]
+        if streamed:
+            return self.S[ch, pos], self.Q[ch, pos], s_first if need_first else None
+        return s, qs, s_first if need_first else None
+
+    def _lines_of(self, ch: int) -> np.ndarray:
+        """:func:`spectral_lines` of the channel's long-term spectrum (found once)."""
+        if ch not in self._spectral_lines:
+            self._spectral_lines[ch] = spectral_lines(self.power[ch])
+        return self._spectral_lines[ch]
 
     def _line_map(self, ch: int) -> np.ndarray:
         """Per one-sided bin: the refined frequency (Hz) of the spectral line whose main lobe
@@ -480,7 +582,7 @@ class ImagingAnalyzer(Analyzer):
             return self._lines[ch]
         pw = self.power[ch]
         out = np.full(pw.size, np.nan)
-        for k in spectral_lines(pw):
+        for k in self._lines_of(ch):
             f = refine_peak(pw, int(k)) * self.bin_hz
             lo, hi = max(0, k - 2), min(pw.size, k + 3)
             seg = out[lo:hi]
@@ -488,24 +590,28 @@ class ImagingAnalyzer(Analyzer):
         self._lines[ch] = out
         return out
 
-    def _stats(self, c, ch: int, mean_bin_power: float = 0.0, use_inner: bool = True, drop_alpha=()):
-        """Pooled statistics of one cycle frequency on one channel:
-        ``(z_weighted, z_unweighted, coherent_power, coherence)``, or None without pairs."""
+    def _stats(self, c, ch: int, mean_bin_power: float = 0.0, use_inner: bool = True, drop_alpha=(),
+               full: bool = True):
+        """Pooled statistics of one cycle frequency on one channel (a dict), or None without pairs.
+        With ``full`` False only the significance (``z_w``, ``z_u``, ``z_first``) and ``coh``, the
+        same numbers as with ``full``."""
         if c["ka"].size == 0:
             return None
         pw = self.power[ch]
         ka, kb = c["ka"], c["kb"]
-        idx = self.pair_index[c["slice"]]
         ia, ib = np.minimum(ka, self.n_fft - ka), np.minimum(kb, self.n_fft - kb)
         p1, p2 = pw[ia], pw[ib]
-        s_all = self.S[ch, idx]
+        s_all, q_all, s_first = self._pair_sums(c, ch, need_first=full)
         g2 = np.minimum(np.abs(s_all) ** 2 / np.maximum(p1 * p2, 1e-300), 1.0)
         w = np.minimum(p1, p2)
-        lines = self._line_map(ch)
-        la = np.where(ka > self.n_fft // 2, -lines[ia], lines[ia])
-        lb = np.where(kb > self.n_fft // 2, -lines[ib], lines[ib])
-        delta = np.mod(la + lb - c["alpha"] * self.bin_hz + self.fs / 2.0, self.fs) - self.fs / 2.0
-        keep = ~(np.abs(delta) > LINE_PAIR_TOLERANCE_HZ)  # NaN (not two lines) is kept
+        if self._lines_of(ch).size:
+            lines = self._line_map(ch)
+            la = np.where(ka > self.n_fft // 2, -lines[ia], lines[ia])
+            lb = np.where(kb > self.n_fft // 2, -lines[ib], lines[ib])
+            delta = np.mod(la + lb - c["alpha"] * self.bin_hz + self.fs / 2.0, self.fs) - self.fs / 2.0
+            keep = ~(np.abs(delta) > LINE_PAIR_TOLERANCE_HZ)  # NaN (not two lines) is kept
+        else:
+            keep = np.ones(ka.size, dtype=bool)          # no spectral lines: no pair of two lines
         if len(drop_alpha):
             keep &= ~np.isin(c["alpha"], np.asarray(drop_alpha, dtype=np.int64))
         first = c["first"]
@@ -513,16 +619,18 @@ class ImagingAnalyzer(Analyzer):
         lower = first & (ka <= self.n_fft // 2)
         # cross-half coherence Re(gamma_first * conj(gamma_second)): unbiased for gamma^2, and
         # near zero or negative for two components whose phase drifts over the file
-        pf = self.power_first[ch]
-        ps = pw - pf
-        s_first = self.S_first[ch, idx]
-        den = np.sqrt(np.maximum(pf[ia] * pf[ib], 1e-300) * np.maximum(ps[ia] * ps[ib], 1e-300))
-        cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
+        if full:
+            pf = self.power_first[ch]
+            ps = pw - pf
+            den = np.sqrt(np.maximum(pf[ia] * pf[ib], 1e-300) * np.maximum(ps[ia] * ps[ib], 1e-300))
+            cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
+        else:
+            cross = np.zeros(g2.size)
         # null bias of each pair: sum_m P_m(a) P_m(b) / (sum_m P_m(a) sum_m P_m(b)), which is 1/M
         # for steady material and larger where a few loud frames (drum hits) carry the power;
         # scaled by the window-overlap inflation of :func:`null_coherence_bias`
         overlap = max(1.0, self.null_bias * self.frames)
-        bias = np.clip(overlap * self.Q[ch, idx] / np.maximum(p1 * p2, 1e-300), self.null_bias, 0.999)
+        bias = np.clip(overlap * q_all / np.maximum(p1 * p2, 1e-300), self.null_bias, 0.999)
         frac = c["frac"]
         if not keep.all():
             g2, w, p1, p2, cross, bias, frac, first, lower = (g2[keep], w[keep], p1[keep], p2[keep], cross[keep],
@@ -554,6 +662,8 @@ class ImagingAnalyzer(Analyzer):
             z_first = max(z_fw, z_fu)
         else:
             z_first = 0.0
+        if not full:
+            return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "z_first": z_first}
         # where images fall on programme content, the pairs with two strong members carry most
         # of the weight and most of the noise; the pairs whose weaker member is at least
         # ASYMMETRY_DB below the stronger one carry the image itself
@@ -648,8 +758,9 @@ class ImagingAnalyzer(Analyzer):
             for al in np.unique(cand["cycles"][0]["alpha"]):
                 if locked_order(f0, float(al) * self.bin_hz, self.fs, tolerance_hz=tol) is not None:
                     drop.append(int(al))
-        main = self._stats(cand["cycles"][0], ch, base_power / max(1, hi + 1 - lo),
-                           use_inner=inner_power >= base_power * 10 ** (CONTENT_FLOOR_DB / 10), drop_alpha=drop)
+        main_args = dict(mean_bin_power=base_power / max(1, hi + 1 - lo), drop_alpha=drop,
+                         use_inner=inner_power >= base_power * 10 ** (CONTENT_FLOOR_DB / 10))
+        main = self._stats(cand["cycles"][0], ch, full=False, **main_args)
         if main is None:
             base["reason"] = "no signal at the mirror frequencies"
             return base
@@ -666,13 +777,15 @@ class ImagingAnalyzer(Analyzer):
                               "higher source rate")
             return base
         # the controls are first-order cycle frequencies a few bins off: compared with the first order
-        controls = [self._stats(c, ch) for c in cand["cycles"][1:]]
+        controls = [self._stats(c, ch, full=False) for c in cand["cycles"][1:]]
         z_ctrl = max([max(c["z_w"], c["z_u"]) for c in controls if c is not None], default=0.0)
         if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * main["z_first"]):
             base["reason"] = ("the material is coherent at neighbouring cycle frequencies too (z "
                               f"{z_ctrl:.0f} against {z:.0f}): periodic or strongly modulated content, "
                               "not an upsampler's images")
             return base
+        # the significant candidate's level and half-file checks (the same z and coherence as above)
+        main = self._stats(cand["cycles"][0], ch, full=True, **main_args)
         full = [main["t_s"]] + ([main["t"]] if z_w >= Z_LEVEL else []) + \
             ([main["t_a"]] if main["z_a"] >= Z_LEVEL else [])
         halves = [main["x_s"]] + ([main["x"]] if z_w >= Z_LEVEL else []) + \
@@ -738,7 +851,8 @@ class ImagingAnalyzer(Analyzer):
     def finish(self) -> AnalyzerResult:
         rank = {"defect": 3, "trace": 2, "none": 1, "untestable": 0}
         out = []
-        f0s = [periodic_fundamental(self.power[ch], self.bin_hz) if self.frames >= MIN_FRAMES else None
+        f0s = [periodic_fundamental(self.power[ch], self.bin_hz, self._lines_of(ch)) if self.frames >= MIN_FRAMES
+               else None
                for ch in range(self.info.channels)]
         for cand in self.cands:
             best = None

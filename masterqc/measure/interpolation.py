@@ -226,31 +226,59 @@ class InterpolationTraceAnalyzer(Analyzer):
     def process(self, block) -> None:
         if not self.rates:
             return
-        C, M = self.channels, self.M
         for start, frame in self.picker.feed(block):
             self.frames += 1
             x = np.asarray(frame, dtype=float)
-            n = x.shape[0]
-            pos = (int(start) + np.arange(n, dtype=np.int64)) % M
-            full = np.bincount(pos, minlength=M)
-            idx0 = (pos[None, :] + (np.arange(C, dtype=np.int64) * M)[:, None])
-            xt = x.T
-            d1 = xt[:, 1:] - xt[:, :-1]
-            diffs = (xt, d1, d1[:, 1:] - d1[:, :-1])
-            for o, d in enumerate(diffs):
-                # difference o covers samples 1..n-1 (o = 1) or 1..n-2 (o = 2), indexed by its middle sample
-                idx = idx0[:, 1:n - 1] if o == 2 else idx0[:, 1:] if o == 1 else idx0
-                sq = d * d
-                idx = idx.ravel()
-                sq = sq.ravel()
-                self.energy[o] += np.bincount(idx, weights=sq, minlength=C * M).reshape(C, M)
-                self.hits[o] += np.bincount(idx[sq > self.hit_min], minlength=C * M).reshape(C, M)
-                c = full.astype(float)
-                if o >= 1:
-                    c[pos[0]] -= 1
-                if o == 2:
-                    c[pos[-1]] -= 1
-                self.counts[o] += c
+            if x.shape[0] <= self.M:
+                self._add_distinct(int(start), x)
+            else:
+                self._add_counted(int(start), x)
+
+    def _add_counted(self, start: int, x: np.ndarray) -> None:
+        """Add one frame (starting at sample ``start``) to the per-phase sums of every difference order:
+        squared differences and moving differences per channel and phase, and samples per phase."""
+        C, M = self.channels, self.M
+        n = x.shape[0]
+        pos = (start + np.arange(n, dtype=np.int64)) % M
+        full = np.bincount(pos, minlength=M)
+        idx0 = (pos[None, :] + (np.arange(C, dtype=np.int64) * M)[:, None])
+        xt = x.T
+        d1 = xt[:, 1:] - xt[:, :-1]
+        diffs = (xt, d1, d1[:, 1:] - d1[:, :-1])
+        for o, d in enumerate(diffs):
+            # difference o covers samples 1..n-1 (o = 1) or 1..n-2 (o = 2), indexed by its middle sample
+            idx = idx0[:, 1:n - 1] if o == 2 else idx0[:, 1:] if o == 1 else idx0
+            sq = d * d
+            idx = idx.ravel()
+            sq = sq.ravel()
+            self.energy[o] += np.bincount(idx, weights=sq, minlength=C * M).reshape(C, M)
+            self.hits[o] += np.bincount(idx[sq > self.hit_min], minlength=C * M).reshape(C, M)
+            c = full.astype(float)
+            if o >= 1:
+                c[pos[0]] -= 1
+            if o == 2:
+                c[pos[-1]] -= 1
+            self.counts[o] += c
+
+    def _add_distinct(self, start: int, x: np.ndarray) -> None:
+        """:meth:`_add_counted` for a frame no longer than the common period: its samples fall on
+        distinct phases (at most two runs, before and after the wrap), so each phase gets at most one
+        term, added with slices instead of counted with ``bincount`` (the same sums)."""
+        M = self.M
+        xt = x.T
+        d1 = xt[:, 1:] - xt[:, :-1]
+        for o, d in enumerate((xt, d1, d1[:, 1:] - d1[:, :-1])):
+            # difference o covers samples 1..n-1 (o = 1) or 1..n-2 (o = 2), indexed by its middle sample
+            first = start + (1 if o else 0)
+            sq = d * d
+            hit = (sq > self.hit_min).astype(float)
+            p0 = first % M
+            head = min(sq.shape[1], M - p0)
+            for lo, hi, a in ((p0, p0 + head, 0), (0, sq.shape[1] - head, head)):
+                if hi > lo:
+                    self.energy[o][:, lo:hi] += sq[:, a:a + hi - lo]
+                    self.hits[o][:, lo:hi] += hit[:, a:a + hi - lo]
+                    self.counts[o][lo:hi] += 1.0
 
     def finish(self) -> AnalyzerResult:
         settings = {"frames_analysed": self.frames, "frame_samples": FRAME_SAMPLES, "common_period_samples": self.M,

@@ -392,7 +392,24 @@ class LoudnessMeter:
         if self._active.size == 0:
             self.process_power(np.zeros(n))
             return
-        xt = x.T if self._all_active else x[:, self._active].T     # (channels, frames) view
+        self._process_rows(x.T if self._all_active else x[:, self._active].T)   # (channels, frames) view
+
+    def process_planar(self, rows) -> None:
+        """Feed a float block of shape (channels, frames), one row per channel (the engine's
+        planar blocks); the same arithmetic as :meth:`process` on its transpose."""
+        x = np.asarray(rows, dtype=float)
+        if x.ndim == 1:
+            x = x[None, :]
+        n = x.shape[1]
+        if n == 0:
+            return
+        if self._active.size == 0:
+            self.process_power(np.zeros(n))
+            return
+        self._process_rows(x if self._all_active else x[self._active])
+
+    def _process_rows(self, xt) -> None:
+        """Filter, square, weight and sum ``xt`` (active channels, frames), any memory order."""
         if self._sos is not None:
             xt, self._zi = sosfilt(self._sos, xt, axis=-1, zi=self._zi)   # a fresh array
         else:
@@ -560,9 +577,16 @@ class LoudnessAnalyzer(Analyzer):
         else:
             self.meter = LoudnessMeter(fs, self.weights)
 
+    #: the engine hands it (channels, frames) blocks: the K-weighting runs along rows with no transpose
+    planar_input = True
+
     def process(self, block) -> None:
         if self.meter is not None:
             self.meter.process(block)
+
+    def process_planar(self, rows) -> None:
+        if self.meter is not None:
+            self.meter.process_planar(rows)
 
     def finish(self) -> AnalyzerResult:
         if self.meter is None:

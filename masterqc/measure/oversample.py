@@ -24,8 +24,10 @@ Reading grid (``kaiser``): a scan, then a 32x read where it matters
     0.012 dB up to 0.45*fs and 0.023 dB up to 0.49*fs (:func:`meter_underread_db`).
     Evaluating 32 phases everywhere would cost 8x a 4x meter, so the meter first
     scans a coarse grid (4x by default, the phases 0, 8, 16 and 24 of the same
-    32-phase filter, computed by FFT), and reads the other 28 phases only in the
-    frames where the scan leaves open that a value could matter.
+    32-phase filter, evaluated directly), and reads the other 28 phases only in
+    the frames where the scan leaves open that a value could matter.  Before the
+    scan, an analytic bound per group of 32 frames (:class:`TruePeakMeter`) rules
+    out most groups of a programme from the samples alone.
 
     Why the scan cannot miss a peak (analytic): for a real signal band-limited
     to ``B`` Hz, ``|f| <= M``, Bernstein's inequality in Szegő's form
@@ -46,8 +48,7 @@ Reading grid (``kaiser``): a scan, then a 32x read where it matters
     about a sample (the curvature there is bounded by the larger value), so the
     overs and the envelope are checked against a full 32x evaluation on
     near-Nyquist signals in the tests.  Results equal a full 32x evaluation and
-    do not depend on the block size (scan segments sit at fixed frame
-    positions).
+    do not depend on the block size (runs sit at fixed frame positions).
 
 Filter (``annex2`` design)
     The example 48-tap, 4-phase filter printed in BS.1770-5 Annex 2 (4x only,
@@ -55,17 +56,16 @@ Filter (``annex2`` design)
     identity at phase 0, so the meter still takes the maximum with the sample
     peak.
 
-Streaming: :class:`TruePeakMeter` evaluates fixed FFT segments of ``S`` frames
-(overlap-save, ``N = 16384``, ``S = N - T + 1`` rounded down to a multiple of
-64: 16128) at fixed positions in the file and keeps the unevaluated input
-between blocks.  The signal is taken as zero
-before the first and after the last sample; only the instants inside the file
-``[0, frames)`` are evaluated.
+Streaming: :class:`TruePeakMeter` evaluates runs of ``RUN_FRAMES`` frames at
+fixed positions in the file and keeps the unevaluated input (and the filter's
+look-ahead) between blocks.  The signal is taken as zero before the first and
+after the last sample; only the instants inside the file ``[0, frames)`` are
+evaluated.
 
-Precision: the scan and the fine read run in float32 (24-bit codes are exact
-in float32; the FFT's rounding is about 1e-7 of the segment's level, far inside
-the 0.5 % margin above, and a 192-term float32 dot product is within about
-1e-6 of the local level, < 0.0001 dB); the sample peak is float64.  Tested
+Precision: the pre-screen, the scan and the fine read run in float32 (24-bit
+codes are exact in float32; a 192-term float32 dot product is within about
+4e-5 of the local level, far inside the 0.5 % margin above, and the pre-screen
+bound carries its own allowance for it); the sample peak is float64.  Tested
 against a float64 full-grid evaluation.
 """
 
@@ -77,7 +77,6 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-import scipy.fft as sfft
 from numpy.lib.stride_tricks import as_strided
 
 from masterqc.measure import filterprops
@@ -395,6 +394,44 @@ def single_thread_blas():
     return _BLAS.limit(limits=1)
 
 
+def local_bound_constants(flt: PolyphaseFilter, near: int = 4) -> tuple[float, float, float]:
+    """Constants of the pre-screen bound (analytic, see :class:`TruePeakMeter`):
+    ``(A_near, A_far, C_h)`` with ``g_p = h_p * b`` (``b = [1, 2, 1]/4``),
+    ``A_near = max_p sum_{|k|<=near} |g_p[k]|``, ``A_far = max_p sum_{|k|>near} |g_p[k]|``
+    and ``C_h = max_p sum_k |h_p[k]|``."""
+    h = flt.taps
+    b = np.array([0.25, 0.5, 0.25])
+    g = np.stack([np.convolve(h[:, p], b) for p in range(h.shape[1])], axis=1)
+    k = np.arange(g.shape[0]) - flt.lead - 1
+    inner = np.abs(k) <= near
+    return (float(np.abs(g[inner]).sum(axis=0).max()), float(np.abs(g[~inner]).sum(axis=0).max()),
+            float(np.abs(h).sum(axis=0).max()))
+
+
+def _group_max(a: np.ndarray, group: int, scratch=None) -> np.ndarray:
+    """Maximum over consecutive runs of ``group`` (a power of two) columns of a 2-D
+    array, by pairwise halving (numpy reduces short rows slowly); ``scratch``: two
+    arrays of at least half ``a``'s columns to work in."""
+    if scratch is None:
+        scratch = (np.empty((a.shape[0], a.shape[1] // 2), a.dtype),) * 2
+    m, k = a, 0
+    while group > 1:
+        n = m.shape[1] // 2
+        out = scratch[k][:, :n]
+        np.maximum(m[:, 0::2], m[:, 1::2], out=out)
+        m, k = out, 1 - k
+        group //= 2
+    return m.copy()
+
+
+def _window_max(a: np.ndarray, lo: int, hi: int, n: int, first: int) -> np.ndarray:
+    """``out[:, g] = max(a[:, first + g + lo .. first + g + hi])`` for g < n (last axis)."""
+    out = a[:, first + lo:first + lo + n].copy()
+    for j in range(lo + 1, hi + 1):
+        np.maximum(out, a[:, first + j:first + j + n], out=out)
+    return out
+
+
 class TruePeakMeter:
     """Streaming true-peak meter for ``channels`` channels.
 
@@ -404,47 +441,86 @@ class TruePeakMeter:
     Annex 2 filter's own 4x grid.
 
     ``process(block)`` takes float arrays of shape (frames, channels) in order.
-    After :meth:`flush` (or at any time for the frames seen so far, minus the
-    look-ahead):
+    After :meth:`flush` (or at any time for the frames evaluated so far):
 
     - ``peak_linear``: per-channel maximum of ``|x|`` over every instant of the
       reading grid (phase 0 included, so never below the sample peak), shape (C,);
     - ``sample_peak_linear``: per-channel maximum of ``|x|`` over the input samples
-      (float64, exact), shape (C,);
+      received (evaluated, with ``float32_exact``), float64, exact, shape (C,);
     - ``envelope_linear``: with ``bucket_frames``, the maximum over channels and
       instants in each bucket of that many frames (``buckets`` of them; frames
       past the last bucket count in it);
     - ``frames_done``: input frames evaluated so far;
-    - ``refined_frames``: channel-frames read on the fine grid (cost figure; it
-      depends on the block size, the results do not).
+    - ``scanned_frames``, ``refined_frames``: channel-frames whose scan phases,
+      and whose other phases, were evaluated (cost figures).
 
     ``on_frames(start_frame, frame_peak)`` is called, when given, with the
     per-frame maximum over channels and instants (float32 array) for every run
     of evaluated frames, in order.  Frame ``i`` covers the instants ``[i, i+1)``.
     A frame's value is exact wherever it can reach ``ceiling_linear`` (when
-    given) or its bucket's maximum; elsewhere it is the scan's value, below
-    both.  Without ``ceiling_linear`` and ``bucket_frames`` every frame value
-    passed to ``on_frames`` is exact.
+    given) or its bucket's maximum; elsewhere it is a lower bound below both:
+    the scan's value (the largest ``|x|`` over the sample and the scan phases)
+    where the frame was scanned, the sample's ``|x|`` where the pre-screen
+    ruled the frame out.  Without ``ceiling_linear`` and ``bucket_frames``
+    every frame value passed to ``on_frames`` is exact.
 
     ``on_channel_frames(start_frame, channel_peak)``, when given, is called
     likewise with the per-channel values, a (channels, frames) float32 array
     whose maximum over channels is ``frame_peak``; a channel's value is exact
     wherever that channel can reach ``ceiling_linear``, so overs can be
-    attributed to the channels that hold them.
+    attributed to the channels that hold them.  The arrays passed to both
+    callbacks are valid during the call only (copy them to keep them).
+
+    Evaluation, in three steps per run of ``RUN_FRAMES`` frames at fixed
+    positions in the file (so that no result depends on the block size):
+
+    1. Pre-screen (analytic bound), per group of ``GROUP`` frames and channel.
+       With ``b = [1, 2, 1]/4`` and ``x_h = x - b*x`` (``x_h[j] = (2 x[j] -
+       x[j-1] - x[j+1])/4``), each phase is ``h_p*x = (h_p*b)*x + h_p*x_h``,
+       so every value in the group is at most ``A_near * max|x|`` within
+       ``NEAR`` samples of the group, plus
+       ``A_far * max|x|`` and ``C_h * max|x_h|`` over the filter's span
+       (:func:`local_bound_constants`; 1.053, 0.008 and 3.65 for the default
+       filter: ``h_p*b`` is a short, nearly positive kernel, since ``b``
+       removes the band near fs/2 where the long filter rings), plus
+       ``BOUND_ROUNDING * max|x|`` for float32 rounding.  Group maxima are
+       taken over whole groups, so the windows only widen.  A group whose
+       bound is below the floor (the smallest of the channel's peak so far,
+       the ceiling and a lower bound of its bucket's maximum, all from values
+       already known) cannot change the peak, hold an over or be its bucket's
+       maximum; its frames keep ``|x|``.
+    2. Scan: the scan phases of the reading filter, evaluated directly (one
+       matrix product per batch of groups) in the groups the pre-screen kept.
+    3. Fine read of the other phases where the scan cannot rule out the floor
+       (the bound ``scan_threshold``, module docstring), as before.
     """
 
-    #: FFT segments evaluated per run
-    SEGMENTS_PER_RUN = 8
-    #: frames per group of the candidate pre-screen
-    GROUP = 64
-    #: candidate frames read per matrix product
+    #: frames per group of the pre-screen and of the scan's matrix product
+    GROUP = 32
+    #: frames per run (a multiple of GROUP; runs sit at fixed positions)
+    RUN_FRAMES = 131072
+    #: samples either side counted in the pre-screen's near term
+    NEAR = 4
+    #: relative allowance for float32 rounding in the pre-screen bound (house
+    #: choice: a 192-term float32 dot product is within 192 * 2**-24 * 3.65 =
+    #: 4.2e-5 of max|x|; twice that, rounded up)
+    BOUND_ROUNDING = 1e-4
+    #: candidate frames in a group from which the fine read takes the whole group at once
+    #: (house choice: a whole group costs about as much as 11 single frames, measured)
+    DENSE_FRAMES = 8
+    #: groups per scan matrix product, frames per fine-read matrix product
+    SCAN_CHUNK = 1024
     REFINE_CHUNK = 4096
 
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
                  design: str = "kaiser", on_frames=None, ceiling_linear: float | None = None,
-                 bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None):
+                 bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None,
+                 float32_exact: bool = False):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
+        #: the caller promises every sample is a float32 value (PCM up to 24 bits, 32-bit
+        #: float): the sample peak is then taken from the float32 buffer, still exact
+        self.float32_exact = bool(float32_exact)
         if design == "kaiser":
             scan = max(SCAN_FACTOR_MIN, int(factor))
             if READ_FACTOR % scan:
@@ -463,14 +539,34 @@ class TruePeakMeter:
         self.scan_factor = scan
         self.factor = self.filter.factor if fine_phases else scan
         self.design = design
-        T = self.filter.taps_per_phase
-        self._T, self._lead = T, self.filter.lead
-        self._N = max(SCAN_FFT_SIZE, 1 << int(math.ceil(math.log2(4 * T))))
-        G = self.GROUP
-        self._S = (self._N - T + 1) // G * G                 # hop: a whole number of groups
-        g = np.zeros((len(scan_phases), self._N))
-        g[:, :T] = self.filter.taps[::-1, scan_phases].T     # correlation as convolution
-        self._H = sfft.rfft(g, axis=1).astype(np.complex64)[:, None, :]
+        T, G = self.filter.taps_per_phase, self.GROUP
+        lead = self.filter.lead
+        self._T, self._lead, self._G = T, lead, G
+        self._a_near, self._a_far, self._c_h = local_bound_constants(self.filter, self.NEAR)
+        # group windows, in groups relative to a frame's own group: the far span of
+        # h_p*b (offsets -lead-1 .. T-lead) and the span of h_p (offsets -lead .. T-1-lead)
+        self._far = ((-lead - 1) // G, (G - 1 + T - lead) // G)
+        self._hspan = (-lead // G, (G + T - 2 - lead) // G)
+        self._pre_groups = 1 - self._far[0]                # x_h needs one sample before its groups
+        self._post_groups = max(self._far[1], self._hspan[1] + 1)
+        self._pre = self._pre_groups * G
+        # scan phases as one matrix per group: row = inputs from frame gs - lead to
+        # gs + G - 1 + T - 1 - lead; column q*G + b = scan phase q of frame gs + b
+        P = len(scan_phases)
+        w = np.zeros((G + T - 1, P * G))
+        for q, ph in enumerate(scan_phases):
+            for b_ in range(G):
+                w[b_:b_ + T, q * G + b_] = self.filter.taps[:, ph]
+        self._wscan = w.astype(np.float32)
+        self._nscan = P
+        # the fine phases likewise, for groups where many frames need them
+        F = len(fine_phases)
+        w = np.zeros((G + T - 1, F * G))
+        for q, ph in enumerate(fine_phases):
+            for b_ in range(G):
+                w[b_:b_ + T, q * G + b_] = self.filter.taps[:, ph]
+        self._wfine = w.astype(np.float32)
+        self._nfine = F
         self._fine = np.ascontiguousarray(self.filter.taps[:, fine_phases], dtype=np.float32)
         self._on_frames = on_frames
         self._on_channel_frames = on_channel_frames
@@ -478,14 +574,26 @@ class TruePeakMeter:
         self.bucket_frames = None if bucket_frames is None else max(1, int(bucket_frames))
         self.envelope_linear = np.zeros(max(1, int(buckets)) if bucket_frames else 0)
         self.peak_linear = np.zeros(self.channels)
-        #: per-channel max |x| of the samples evaluated so far (float64, exact)
+        #: per-channel max |x| of the samples received so far (float64, exact)
         self.sample_peak_linear = np.zeros(self.channels)
         self.frames_done = 0
+        self.scanned_frames = 0
         self.refined_frames = 0
         self._received = 0
         self._flushed = False
-        # buffer holds input from frame (frames_done - lead) onwards, (C, n)
-        self._buf = np.zeros((self.channels, self._lead))
+        # planar float32 buffer: input from frame (frames_done - pre) onwards,
+        # the first ``_fill`` columns valid; the signal is zero before the file
+        self._cap = self.RUN_FRAMES + self._pre + (self._post_groups + 1) * G
+        self._buf = np.zeros((self.channels, self._cap), dtype=np.float32)
+        self._fill = self._pre
+        self._alloc_work()
+
+    def _alloc_work(self) -> None:
+        # |x| (then the frame values), 4*|x_h|, two halving scratch arrays, first differences
+        C, cap = self.channels, self._cap
+        self._work = (np.empty((C, cap), np.float32), np.empty((C, cap), np.float32),
+                      np.empty((C, cap // 2), np.float32), np.empty((C, cap // 2), np.float32),
+                      np.empty((C, cap), np.float32))
 
     def process(self, block) -> None:
         """Feed a (frames, channels) block."""
@@ -496,77 +604,57 @@ class TruePeakMeter:
             block = block[:, None]
         if block.shape[1] != self.channels:
             raise ValueError(f"block has {block.shape[1]} channels, meter expects {self.channels}")
-        if block.shape[0] == 0:
+        n = block.shape[0]
+        if n == 0:
             return
-        self._received += block.shape[0]
-        self._buf = np.concatenate([self._buf, block.T], axis=1)
-        if self._buf.shape[1] >= self._N:
-            self._run(final=False)
+        if not self.float32_exact:
+            np.maximum(self.sample_peak_linear, _abs_max_columns(block), out=self.sample_peak_linear)
+        self._received += n
+        need = self.RUN_FRAMES + self._pre + self._post_groups * self._G
+        done = 0
+        while done < n:
+            take = min(n - done, self._cap - self._fill)
+            for c in range(self.channels):
+                self._buf[c, self._fill:self._fill + take] = block[done:done + take, c]
+            self._fill += take
+            done += take
+            with single_thread_blas():
+                while self._fill >= need:
+                    self._evaluate(self.RUN_FRAMES, self.RUN_FRAMES)
+                    self._shift(self.RUN_FRAMES)
+
+    def _shift(self, m: int) -> None:
+        keep = self._fill - m
+        self._buf[:, :keep] = self._buf[:, m:self._fill]
+        self._fill = keep
 
     def flush(self) -> None:
         """Evaluate the remaining frames (the signal is zero after the end)."""
         if self._flushed:
             return
-        rem = self._received - self.frames_done
-        if rem > 0:
-            k = -(-rem // self._S)
-            need = (k - 1) * self._S + self._N
-            pad = max(0, need - self._buf.shape[1])
-            self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad))], axis=1)
-            self._run(final=True)
-        self._flushed = True
-        self._buf = np.zeros((self.channels, 0))
-
-    def _run(self, final: bool) -> None:
+        G = self._G
         with single_thread_blas():
-            N, S = self._N, self._S
-            while True:
-                rem = self._received - self.frames_done
-                avail = self._buf.shape[1]
-                if rem <= 0 or avail < N:
-                    break
-                k = (avail - N) // S + 1                 # segments whose input is buffered
-                k = min(k, -(-rem // S) if final else rem // S, self.SEGMENTS_PER_RUN)
-                if k <= 0:
-                    break
-                m = min(k * S, rem)
-                self._evaluate(k, m)
-                self._buf = self._buf[:, m:]
+            while self._received > self.frames_done:
+                m = min(self._received - self.frames_done, self.RUN_FRAMES)
+                span = -(-m // G) * G
+                need = self._pre + span + self._post_groups * G
+                if need > self._cap:
+                    grown = np.zeros((self.channels, need), dtype=np.float32)
+                    grown[:, :self._fill] = self._buf[:, :self._fill]
+                    self._buf, self._cap = grown, need
+                    self._alloc_work()
+                self._buf[:, self._fill:need] = 0.0
+                self._fill = max(self._fill, need)
+                self._evaluate(span, m)
+                self._shift(m)
+                self._buf[:, self._fill:] = 0.0
+        np.maximum(self.peak_linear, self.sample_peak_linear, out=self.peak_linear)
+        self._flushed = True
+        self._buf = np.zeros((self.channels, 0), dtype=np.float32)
 
-    def _evaluate(self, k: int, m: int) -> None:
-        """Evaluate ``m`` frames (``k`` segments) from the buffer start."""
-        N, S, T, lead, C = self._N, self._S, self._T, self._lead, self.channels
-        xb = self._buf
-        start = self.frames_done
-        own = xb[:, lead:lead + m]
-        sample_peak = np.maximum(own.max(axis=1), -own.min(axis=1))     # float64
-        seg32 = xb[:, :(k - 1) * S + N].astype(np.float32)
-        scan = np.zeros((C, k * S), dtype=np.float32)
-        for c in range(C):
-            s = seg32[c]
-            segs = as_strided(s, shape=(k, N), strides=(S * s.itemsize, s.itemsize))
-            y = sfft.irfft(sfft.rfft(segs, axis=1)[None] * self._H, n=N, axis=2)[:, :, T - 1:T - 1 + S]
-            np.abs(y, out=y)
-            sc = scan[c].reshape(k, S)
-            np.abs(s[lead:lead + k * S].reshape(k, S), out=sc)       # phase 0: the samples
-            np.maximum(sc, y.max(axis=0), out=sc)
-        scan[:, m:] = 0.0                                             # past the end of the file
-        if self._fine.shape[1]:
-            fp = self._refine(scan, seg32, start, m)
-        else:
-            fp = scan.max(axis=0)
-            self._bucket_update(start, fp[:m])
-        np.maximum(self.sample_peak_linear, sample_peak, out=self.sample_peak_linear)
-        np.maximum(self.peak_linear, sample_peak, out=self.peak_linear)
-        np.maximum(self.peak_linear, scan.max(axis=1), out=self.peak_linear)
-        self.frames_done += m
-        if self._on_frames is not None:
-            self._on_frames(start, fp[:m])
-        if self._on_channel_frames is not None:
-            self._on_channel_frames(start, scan[:, :m])
-
+    # -- floors ------------------------------------------------------------------
     def _buckets_of(self, start: int, m: int):
-        """(first bucket, per-frame cut offsets, frames per piece) of the run."""
+        """(first bucket, per-frame cut offsets) of the run."""
         bf = self.bucket_frames
         last = self.envelope_linear.shape[0] - 1
         b0, b1 = min(start // bf, last), min((start + m - 1) // bf, last)
@@ -581,20 +669,13 @@ class TruePeakMeter:
         env = self.envelope_linear[b0:b0 + cuts.shape[0]]
         np.maximum(env, np.maximum.reduceat(fp, cuts), out=env)
 
-    def _refine(self, scan: np.ndarray, seg32: np.ndarray, start: int, m: int) -> np.ndarray:
-        """Read the fine phases, in place, in the frames where the scan cannot rule
-        out a value at or above the channel's peak, the ceiling or the bucket's
-        maximum; returns the per-frame maximum over channels (length k*S)."""
-        G, T, lead, C = self.GROUP, self._T, self._lead, self.channels
-        thr = self.threshold
-        n = scan.shape[1]
-        ng = n // G
-        fp = scan.max(axis=0)
-        # per-frame floor below which a frame's exact value is not needed, as pieces
-        # (cut offsets into the run, one level per piece), and per group
+    def _levels(self, start: int, m: int, known_of):
+        """Pieces of the run (cut offsets, one level each) below which a frame's
+        exact value is not needed; ``known_of(b0, cuts)`` gives a lower bound of
+        each piece's bucket maximum from the run."""
         if self.bucket_frames is not None:
             b0, cuts = self._buckets_of(start, m)
-            known = np.maximum(self.envelope_linear[b0:b0 + cuts.shape[0]], np.maximum.reduceat(fp[:m], cuts))
+            known = np.maximum(self.envelope_linear[b0:b0 + cuts.shape[0]], known_of(cuts))
             levels = known if self.ceiling_linear is None else np.minimum(known, self.ceiling_linear)
         elif self.ceiling_linear is not None:
             cuts, levels = np.array([0]), np.array([self.ceiling_linear])
@@ -602,40 +683,178 @@ class TruePeakMeter:
             cuts, levels = np.array([0]), np.array([0.0])
         else:
             cuts, levels = np.array([0]), np.array([np.inf])
-        # a group's floor: the lowest level of the pieces it overlaps
+        return cuts, levels
+
+    def _group_floor(self, cuts, levels, ng: int, m: int) -> np.ndarray:
+        """Lowest level of the pieces each group of the run overlaps."""
+        G = self._G
         if cuts.shape[0] > 1 and self.bucket_frames < G:      # many pieces per group: per frame
-            per_frame = np.full(n, levels[-1])
+            per_frame = np.full(ng * G, levels[-1])
             per_frame[:m] = np.repeat(levels, np.diff(np.append(cuts, m)))
-            gfloor = per_frame.reshape(ng, G).min(axis=1)
-        else:                                                  # at most two pieces per group
-            gstart = np.arange(ng) * G
-            p_first = np.searchsorted(cuts, gstart, side="right") - 1
-            p_last = np.searchsorted(cuts, gstart + G - 1, side="right") - 1
-            gfloor = np.minimum(levels[p_first], levels[p_last])
-        nxt = np.abs(seg32[:, lead + G:lead + n + 1:G])                # sample after each group
-        gmax = np.maximum(scan.reshape(C, ng, G).max(axis=2), nxt)
+            return per_frame.reshape(ng, G).min(axis=1)
+        gstart = np.arange(ng) * G
+        p_first = np.searchsorted(cuts, gstart, side="right") - 1
+        p_last = np.searchsorted(cuts, gstart + G - 1, side="right") - 1
+        return np.minimum(levels[p_first], levels[p_last])
+
+    # -- evaluation ----------------------------------------------------------------
+    def _evaluate(self, span: int, m: int) -> None:
+        """Evaluate ``m`` frames (``span`` = m rounded up to whole groups) from
+        buffer column ``pre``."""
+        G, T, lead, C, pre = self._G, self._T, self._lead, self.channels, self._pre
+        ng = span // G
+        start = self.frames_done
+        L = pre + span + self._post_groups * G
+        xb = self._buf[:, :L]
+        ax = self._work[0][:, :L]
+        np.abs(xb, out=ax)
+        scratch = (self._work[2], self._work[3])
+        gm = _group_max(ax, G, scratch)                               # per group max|x|
+        diff, dpad = self._work[4][:, :L], self._work[1][:, :L]
+        np.subtract(xb[:, 1:], xb[:, :-1], out=diff[:, 1:])             # x[j] - x[j-1] at column j
+        np.subtract(diff[:, 2:], diff[:, 1:-1], out=dpad[:, 1:-1])       # -4*x_h at columns 1 .. L-2
+        dpad[:, 0] = 0.0
+        dpad[:, -1] = 0.0                                               # (never read: past the spans)
+        np.abs(dpad, out=dpad)
+        gh = _group_max(dpad, G, scratch)
+        a = self._pre_groups
+        m_near = _window_max(gm, -1, 1, ng, a)
+        m_far = _window_max(gm, self._far[0], self._far[1], ng, a)
+        h_far = _window_max(gh, self._hspan[0], self._hspan[1], ng, a)
+        bound = (self._a_near * m_near.astype(np.float64) + (self._a_far + self.BOUND_ROUNDING) * m_far
+                 + (0.25 * self._c_h) * h_far) * (1.0 + self.BOUND_ROUNDING)
+        vals = ax[:, pre:pre + span]                                  # frame values, |x| so far (in place)
+        own = gm[:, a:a + ng]
+        if m < span:
+            vals[:, m:] = 0.0
+        # floors from what is known before the scan: samples and earlier runs
+
+        def known_samples(cuts):
+            # groups lying wholly in a piece, and inside the file
+            gmax = own.max(axis=0) if C > 1 else own[0]
+            gfirst = -(-cuts // G)
+            gend = np.append(cuts[1:], m) // G
+            out = np.zeros(cuts.shape[0])
+            for j in np.flatnonzero(gend > gfirst):
+                out[j] = float(gmax[gfirst[j]:gend[j]].max())
+            return out
+
+        cuts, levels = self._levels(start, m, known_samples)
+        gfloor = self._group_floor(cuts, levels, ng, m)
+        run_peak = own.max(axis=1)                                     # frames past the end are zero
+        if self.float32_exact:
+            np.maximum(self.sample_peak_linear, run_peak, out=self.sample_peak_linear)
+        peak1 = np.maximum(self.peak_linear, run_peak)
+        scanned = [None] * C
+        for c in range(C):
+            cand = np.flatnonzero((bound[c] >= np.minimum(gfloor, peak1[c])) & (bound[c] > 0))
+            if not cand.size:
+                continue
+            scanned[c] = cand
+            self.scanned_frames += int(cand.size) * G
+            s = self._buf[c]
+            rows_all = as_strided(s[pre - lead:], shape=(ng, G + T - 1), strides=(G * s.itemsize, s.itemsize))
+            vc = vals[c].reshape(ng, G)
+            for j in range(0, cand.size, self.SCAN_CHUNK):
+                idx = cand[j:j + self.SCAN_CHUNK]
+                rows = rows_all[idx] if idx.size > 1 else rows_all[np.repeat(idx, 2)]
+                y = rows @ self._wscan
+                np.abs(y, out=y)
+                sv = y.reshape(y.shape[0], self._nscan, G).max(axis=1)[:idx.size]
+                vc[idx] = np.maximum(vc[idx], sv)
+        if m < span:
+            vals[:, m:] = 0.0
+        fp = vals[0].copy()
+        for c in range(1, C):
+            np.maximum(fp, vals[c], out=fp)
+        if self._fine.shape[1]:
+            self._refine(vals, fp, ax, own, scanned, start, m, ng)
+        self._bucket_update(start, fp[:m])
+        np.maximum(self.peak_linear, vals.max(axis=1), out=self.peak_linear)
+        self.frames_done += m
+        if self._on_frames is not None:
+            self._on_frames(start, fp[:m])
+        if self._on_channel_frames is not None:
+            self._on_channel_frames(start, vals[:, :m])
+
+    def _refine(self, vals, fp, ax, own, scanned, start: int, m: int, ng: int) -> None:
+        """Read the fine phases, in place, in the frames where the scan cannot rule
+        out a value at or above the channel's peak, the ceiling or the bucket's
+        maximum (only in scanned groups: the pre-screen ruled the others out
+        against a floor no higher than this one)."""
+        G, T, lead, C, pre = self._G, self._T, self._lead, self.channels, self._pre
+        thr = self.threshold
+        cuts, levels = self._levels(start, m, lambda cuts: np.maximum.reduceat(fp[:m], cuts))
+        gfloor = self._group_floor(cuts, levels, ng, m)
         lane = np.arange(G)
         for c in range(C):
-            peak_c = max(float(self.peak_linear[c]), float(gmax[c].max()))
-            groups = np.flatnonzero(gmax[c] >= thr * np.minimum(gfloor, peak_c))
+            groups = scanned[c]
+            if groups is None:
+                continue
+            gv = vals[c].reshape(ng, G)[groups]
+            gmax = np.maximum(gv.max(axis=1), np.abs(self._buf[c, pre + (groups + 1) * G]))  # + the sample after
+            peak_c = max(float(self.peak_linear[c]), float(gmax.max()), float(own[c].max()))
+            keep = (gmax >= thr * np.minimum(gfloor[groups], peak_c)) & (gmax > 0)
+            groups = groups[keep]
             if not groups.size:
                 continue
             frames = (groups[:, None] * G + lane[None, :]).ravel()
-            frames = frames[frames < m]
-            ext = np.maximum(scan[c, frames], np.abs(seg32[c, lead + 1 + frames]))  # + the next sample
+            ext = np.maximum(gv[keep].ravel(), np.abs(self._buf[c, pre + 1 + frames]))   # + the next sample
+            ok = frames < m
+            frames, ext = frames[ok], ext[ok]
             piece = np.searchsorted(cuts, frames, side="right") - 1
-            cand = frames[ext >= thr * np.minimum(levels[piece], peak_c)]
+            cand = frames[(ext >= thr * np.minimum(levels[piece], peak_c)) & (ext > 0)]
             if not cand.size:
                 continue
+            s = self._buf[c]
+            gid = cand // G
+            ug, counts = np.unique(gid, return_counts=True)
+            dense = ug[counts >= self.DENSE_FRAMES]
+            if dense.size:                        # whole groups: one matrix product per batch of groups
+                rows_all = as_strided(s[pre - lead:], shape=(ng, G + T - 1), strides=(G * s.itemsize, s.itemsize))
+                vc, fc = vals[c].reshape(ng, G), fp.reshape(ng, G)
+                for j in range(0, dense.size, self.SCAN_CHUNK):
+                    idx = dense[j:j + self.SCAN_CHUNK]
+                    rows = rows_all[idx] if idx.size > 1 else rows_all[np.repeat(idx, 2)]
+                    y = rows @ self._wfine
+                    np.abs(y, out=y)
+                    v = y.reshape(y.shape[0], self._nfine, G).max(axis=1)[:idx.size]
+                    vc[idx] = np.maximum(vc[idx], v)
+                    fc[idx] = np.maximum(fc[idx], v)
+                self.refined_frames += int(dense.size) * G
+                cand = cand[~np.isin(gid, dense)]
+                if m < ng * G:
+                    vals[c, m:] = 0.0
+                    fp[m:] = 0.0
+                if not cand.size:
+                    continue
             self.refined_frames += int(cand.size)
-            windows = as_strided(seg32[c], shape=(seg32.shape[1] - T + 1, T), strides=(4, 4))  # frame i: from i - lead
+            windows = as_strided(s[pre - lead:], shape=(ng * G, T), strides=(s.itemsize, s.itemsize))
             for j in range(0, cand.size, self.REFINE_CHUNK):
                 idx = cand[j:j + self.REFINE_CHUNK]
-                v = np.abs(windows[idx] @ self._fine).max(axis=1)
-                scan[c, idx] = np.maximum(scan[c, idx], v)
+                rows = windows[idx] if idx.size > 1 else windows[np.repeat(idx, 2)]
+                v = np.abs(rows @ self._fine).max(axis=1)[:idx.size]
+                vals[c, idx] = np.maximum(vals[c, idx], v)
                 fp[idx] = np.maximum(fp[idx], v)
-        self._bucket_update(start, fp[:m])
-        return fp
+
+
+#: rows folded into one wide row by :func:`_abs_max_columns`
+_FOLD_ROWS = 256
+
+
+def _abs_max_columns(block: np.ndarray) -> np.ndarray:
+    """Per-channel ``max(|x|)`` of a (frames, channels) block, in float64 (exact),
+    on the block folded into wide rows (a narrow axis-0 reduction is slow)."""
+    n, c = block.shape
+    q = n - n % _FOLD_ROWS
+    out = np.zeros(c)
+    if q:
+        wide = block[:q].reshape(-1, _FOLD_ROWS * c)
+        hi = np.maximum(wide.max(axis=0), -wide.min(axis=0))
+        out = hi.reshape(_FOLD_ROWS, c).max(axis=0).astype(np.float64)
+    if q < n:
+        out = np.maximum(out, np.abs(block[q:]).max(axis=0))
+    return out
 
 
 def true_peak_linear(x, sample_rate_hz: float, factor: int = 4, design: str = "kaiser") -> np.ndarray:

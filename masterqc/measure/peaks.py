@@ -68,6 +68,14 @@ def column_abs_max(block: np.ndarray) -> np.ndarray:
     return out
 
 
+def samples_are_float32(info) -> bool:
+    """Whether every decoded sample of the file is a float32 value: PCM up to 24 bits
+    (codes / 2**(bits-1)) and 32-bit float; the engine's clean input only replaces
+    non-finite samples by zero."""
+    bits = int(getattr(info, "bit_depth", 64) or 64)
+    return bits <= 24 or (bool(getattr(info, "is_float", False)) and bits == 32)
+
+
 def bucket_frames_for(frames: int, buckets: int = ENVELOPE_BUCKETS) -> int:
     """Frames per envelope bucket so that a file of ``frames`` needs at most ``buckets``."""
     return max(1, -(-int(frames) // buckets))
@@ -208,7 +216,8 @@ class TruePeakAnalyzer(Analyzer):
         self.channel_overs = [FrameRanges(self.merge_gap) for _ in range(info.channels)]
         self.meter = TruePeakMeter(self.rate, info.channels, self.factor, self.design,
                                    on_channel_frames=self._frames, ceiling_linear=self.ceiling_linear,
-                                   bucket_frames=self.bucket_frames, buckets=self.envelope.shape[0])
+                                   bucket_frames=self.bucket_frames, buckets=self.envelope.shape[0],
+                                   float32_exact=samples_are_float32(info))
 
     # -- per-frame bookkeeping -------------------------------------------------
     def _frames(self, start: int, cp) -> None:
@@ -267,7 +276,8 @@ class TruePeakAnalyzer(Analyzer):
         settings.update({
             "oversampled_rate_hz": rate * self.meter.factor,
             "scan_factor": int(self.meter.scan_factor),
-            "scan": ("kaiser: a scan grid of scan_factor per sample finds the frames that can hold "
+            "scan": ("kaiser: an analytic bound per group of frames from the samples, then a scan grid "
+                     "of scan_factor per sample, find the frames that can hold "
                      "a peak, an over or an envelope maximum (bound cos(pi*B/(L*fs)), B = "
                      f"{SCAN_BAND_FS}*fs); those are read on the full grid" if self.design == "kaiser"
                      else "annex2: read on its own 4x grid"),

@@ -63,6 +63,22 @@ def _edge_frame(block, level: float, from_end: bool):
     return None
 
 
+def _edge_frame_rows(rows, level: float, from_end: bool):
+    """:func:`_edge_frame` of a (channels, frames) block: the same frame, found the same way."""
+    c, n = rows.shape
+    size, done = EDGE_PIECE_FRAMES, 0
+    while done < n:
+        k = min(size, n - done)
+        piece = rows[:, n - done - k:n - done] if from_end else rows[:, done:done + k]
+        hit = np.flatnonzero((np.abs(piece) > level).any(axis=0))
+        if hit.size:
+            col = int(hit[-1] if from_end else hit[0])
+            return (n - done - k + col) if from_end else (done + col)
+        done += k
+        size *= 4
+    return None
+
+
 class SilenceAnalyzer(Analyzer):
     """Head and tail silence (near and digital) and mid-file dropouts (silence or frozen values)."""
 
@@ -154,6 +170,34 @@ class SilenceAnalyzer(Analyzer):
         setattr(self, "last_" + what, self.pos + last)
         if getattr(self, "first_" + what) is None:
             setattr(self, "first_" + what, self.pos + _edge_frame(block, level, from_end=False))
+
+    #: the engine hands it (channels, frames) blocks: each channel's runs are found on a contiguous row
+    planar_input = True
+
+    def process_planar(self, rows):
+        """A (channels, frames) block: the same comparisons as :meth:`process`, row by row."""
+        n = rows.shape[1]
+        last = _edge_frame_rows(rows, self.threshold, from_end=True)
+        if last is not None:
+            self.last_loud = self.pos + last
+            if self.first_loud is None:
+                self.first_loud = self.pos + _edge_frame_rows(rows, self.threshold, from_end=False)
+        last = _edge_frame_rows(rows, 0.0, from_end=True)
+        if last is not None:
+            self.last_nonzero = self.pos + last
+            if self.first_nonzero is None:
+                self.first_nonzero = self.pos + _edge_frame_rows(rows, 0.0, from_end=False)
+        eq = np.empty(rows.shape, dtype=bool)
+        eq[:, 0] = rows[:, 0] == self.prev
+        if n > 1:
+            np.equal(rows[:, 1:], rows[:, :-1], out=eq[:, 1:])
+        active = eq.copy()
+        active[:, :-1] |= eq[:, 1:]
+        active[:, -1] = True
+        for c, tr in enumerate(self.trackers):
+            self._collect(c, *tr.feed(rows[c], active[c]))
+        self.prev = rows[:, -1].copy()
+        self.pos += n
 
     def process(self, block):
         n = block.shape[0]

@@ -242,7 +242,8 @@ class SpectralFrontEnd:
                 np.log10(level, out=level)
                 np.multiply(level, 10.0, out=level)
                 np.subtract(level, HIST_MIN_DB, out=level)
-                np.divide(level, HIST_STEP_DB, out=level)
+                if HIST_STEP_DB != 1.0:           # (x / 1.0 is x)
+                    np.divide(level, HIST_STEP_DB, out=level)
                 idx = level.astype(np.int64)
                 np.clip(idx, 0, self.n_levels - 1, out=idx)
                 idx += self._hist_offset          # flat index bin * n_levels + step
@@ -262,9 +263,13 @@ class SpectralFrontEnd:
             if keep.size:
                 g = lo[keep]
                 starts = np.concatenate([[0], np.nonzero(np.diff(g))[0] + 1])   # runs of one segment
-                sums = np.add.reduceat(total[keep], starts, axis=0, dtype=np.float64)
-                self.seg_sum[g[starts]] += sums
-                self.seg_frames[g[starts]] += np.diff(np.concatenate([starts, [keep.size]]))
+                ends = np.concatenate([starts[1:], [keep.size]])
+                # a segment's kept frames are consecutive: each run is a slice of the block's frames, summed
+                # row by row in float64 (the order of a reduction over rows, as reduceat's)
+                for a, b in zip(starts, ends):
+                    rows = total[keep[a]:keep[b - 1] + 1].astype(np.float64)
+                    self.seg_sum[g[a]] += np.add.reduce(rows, axis=0)
+                self.seg_frames[g[starts]] += ends - starts
         for fn in self.consumers:
             fn(power, index)
         self.analysed += nfr

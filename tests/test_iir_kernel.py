@@ -1,0 +1,77 @@
+"""masterqc.measure.iir.sosfilt against scipy.signal.sosfilt (the reference library).
+
+iir.sosfilt calls scipy's own compiled cascade kernel (loaded from its extension module
+without importing scipy.signal) with the copies and axis order scipy.signal.sosfilt makes,
+so every output must be the same bits in the same memory order (by construction), fed in
+blocks of any size, for any channel count, along either axis.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+import scipy.signal as ss
+
+from masterqc.measure import filterdesign, iir
+from masterqc.measure.kweight import kweighting_sos
+
+
+def _noise(shape, seed):
+    return 0.3 * np.random.default_rng(seed).standard_normal(shape)
+
+
+def test_kernel_loads_without_importing_scipy_signal():
+    code = ("import sys\nimport masterqc.measure.iir as iir\n"
+            "assert iir.compiled_kernel() is not None\n"
+            "print('scipy.signal' in sys.modules, 'scipy.stats' in sys.modules)\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300, check=True)
+    assert out.stdout.split() == ["False", "False"]
+
+
+SOS_CASES = {
+    "kweighting 44.1 kHz": lambda: kweighting_sos(44100),
+    "kweighting 48 kHz": lambda: kweighting_sos(48000),
+    "kweighting 192 kHz": lambda: kweighting_sos(192000),
+    # poles close to the unit circle (the DC analyzer's 20 Hz low-pass at its 1 kHz rate)
+    "butterworth 8th 20 Hz at 1 kHz": lambda: filterdesign.butterworth_lowpass_sos(8, 20.0, 1000.0),
+}
+
+
+@pytest.mark.parametrize("case", sorted(SOS_CASES))
+@pytest.mark.parametrize("channels", [1, 2, 3, 6])
+@pytest.mark.parametrize("axis", [-1, 0])
+def test_streamed_blocks_equal_scipy_sosfilt_bit_for_bit(case, channels, axis):
+    assert iir.compiled_kernel() is not None
+    sos = SOS_CASES[case]()
+    n = 20000
+    x = _noise((channels, n) if axis == -1 else (n, channels), channels)
+    zi0 = _noise((sos.shape[0], channels, 2) if axis == -1 else (sos.shape[0], 2, channels), 9) * 0.01
+    ref, ref_z = ss.sosfilt(sos, x, axis=axis, zi=zi0)              # whole signal at once
+    cuts = [0, 1, 8, 4104, 4105, 19999, n]                         # blocks of 1, 7, 4096, 1, 15894, 1 frames
+    zi, parts = zi0.copy(), []
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        xb = x[:, a:b] if axis == -1 else x[a:b]
+        y, zi_next = iir.sosfilt(sos, xb, axis=axis, zi=zi)
+        want, want_z = ss.sosfilt(sos, xb, axis=axis, zi=zi)       # the same block through scipy
+        assert np.array_equal(y, want) and np.array_equal(zi_next, want_z)
+        assert y.strides == want.strides and zi_next.strides == want_z.strides
+        parts.append(y)
+        zi = zi_next
+    got = np.concatenate(parts, axis=1 if axis == -1 else 0)
+    assert np.array_equal(got, ref) and np.array_equal(zi, ref_z)
+    assert np.array_equal(zi0, _noise(zi0.shape, 9) * 0.01)        # the caller's state is never written
+
+
+def test_wrong_zi_shape_is_refused():
+    with pytest.raises(ValueError, match="zi must have shape"):
+        iir.sosfilt(kweighting_sos(48000), np.zeros((2, 10)), axis=-1, zi=np.zeros((2, 3, 2)))
+
+
+def test_a_kernel_that_differs_is_not_used():
+    def wrong(sos, x, zi):                   # leaves x as it is: not a filter
+        zi[...] = 0.0
+    assert iir._kernel_self_check(wrong) is False
+    assert iir._kernel_self_check(iir.compiled_kernel()) is True
