@@ -1,5 +1,5 @@
 import sys
 
-from masterqc.cli import main
+from masterqc.cli import run
 
-sys.exit(main())
+sys.exit(run())

@@ -208,5 +208,25 @@ def main(argv=None) -> int:
         return EXIT_PASS
 
 
+def run(argv=None) -> int:
+    """The ``masterqc`` program (console script and ``python -m masterqc``): :func:`main`, then a
+    cheap exit.
+
+    Python's shutdown collects every object the run left (SciPy, numpy and the measurement
+    leave several hundred thousand): 0.1-0.25 s of CPU after the work is done.  Freezing the
+    collector (:func:`gc.freeze`) leaves those objects to the process's end; atexit handlers
+    still run and files are still closed.  Not in :func:`main`, which tests call in-process.
+    """
+    code = main(argv)
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):
+            pass
+    import gc
+    gc.freeze()
+    return code
+
+
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    sys.exit(run())

@@ -163,3 +163,18 @@ def test_a_command_named_first_reports_bad_arguments_as_the_whole_parser(capsys)
         assert exc.value.code == EXIT_USAGE
         messages.append(capsys.readouterr().err)
     assert messages[0] == messages[1] and "--true-peak-oversampling" in messages[0]
+
+
+def test_the_program_exits_with_its_code_and_all_its_output(tmp_path):
+    """``python -m masterqc`` goes through masterqc.cli.run (a cheap exit): the whole JSON still
+    reaches a pipe, and the exit codes are the command line's (masterqc.cli: 0 pass, 3 unreadable)."""
+    wav = _short_file(tmp_path / "short.wav", 48000, 2, 1.0)
+    ok = subprocess.run([sys.executable, "-m", "masterqc", "measure", str(wav), "--json", "--quiet"],
+                        cwd=tmp_path, capture_output=True, text=True, timeout=300,
+                        env={**__import__("os").environ, "PYTHONPATH": str(ROOT)})
+    assert ok.returncode == 0, ok.stderr
+    assert json.loads(ok.stdout)["format"]["sample_rate_hz"] == 48000  # by construction: the file's rate
+    bad = subprocess.run([sys.executable, "-m", "masterqc", "measure", str(tmp_path / "missing.wav")],
+                         cwd=tmp_path, capture_output=True, text=True, timeout=300,
+                         env={**__import__("os").environ, "PYTHONPATH": str(ROOT)})
+    assert bad.returncode == 3 and "missing.wav" in bad.stderr

@@ -116,6 +116,11 @@ def worker_init(parent_pid: int | None = None, threads: int | None = None, forma
     stagelog.ROLE["name"] = "worker"
     limit_threads(threads)
     warm_up(tuple(formats or ()))
+    # what the warm-up loaded lives as long as the worker: out of every later collection (each
+    # task's garbage is still collected) and out of the collection at the worker's exit
+    import gc
+    gc.collect()
+    gc.freeze()
     stagelog.note_startup("worker_startup")
 
 
