@@ -74,8 +74,20 @@ def measure(case, upsampling: bool = False):
     data, fs = sf.read(buf, dtype="float64", always_2d=True)
     labels = case.channel_labels or {1: ["M"], 2: ["L", "R"], 6: ["L", "R", "C", "LFE", "Ls", "Rs"]}.get(
         data.shape[1], [f"ch{i + 1}" for i in range(data.shape[1])])
-    classes = [ImagingAnalyzer, InterpolationTraceAnalyzer] + ([SamplingSpectrumAnalyzer] if upsampling else [])
-    m, _s, _t = run_analyzers(_Stream(data, fs, labels), MeasureOptions(), classes=classes)
+    if not upsampling:
+        m, _s, _t = run_analyzers(_Stream(data, fs, labels), MeasureOptions(),
+                                  classes=[ImagingAnalyzer, InterpolationTraceAnalyzer])
+        return m
+    # the spectral analyzer needs the reader's whole stream description (channel weights, layout): read
+    # the same PCM_24 samples back from a temporary file, as the command line would
+    import tempfile
+    from masterqc.audio.reader import open_stream
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / f"{case.name}.wav"
+        sf.write(path, case.audio, case.rate_hz, subtype="PCM_24")
+        with open_stream(str(path), channel_layout=case.channel_labels) as stream:
+            m, _s, _t = run_analyzers(stream, MeasureOptions(),
+                                      classes=[SamplingSpectrumAnalyzer, ImagingAnalyzer, InterpolationTraceAnalyzer])
     return m
 
 
