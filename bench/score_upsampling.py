@@ -151,8 +151,11 @@ def cached_cases(corpus: str, seed: int, quick: bool, cache: str | None, only: s
             pickle.dump(kept, f)
 
 
-def run(corpus: str, seeds, quick: bool, only: str | None = None, progress=True, cache: str | None = None):
+def run(corpus: str, seeds, quick: bool, only: str | None = None, progress=True, cache: str | None = None,
+        rows_out: str | None = None):
+    import json
     rows = []
+    sink = open(rows_out, "a") if rows_out else None
     for seed in seeds:
         for case in cached_cases(corpus, seed, quick, cache if not only else None, only):
             if only and not case.name.startswith(only):
@@ -167,6 +170,10 @@ def run(corpus: str, seeds, quick: bool, only: str | None = None, progress=True,
                                                        "upsampled_confidence_fraction", "effective_bandwidth_hz",
                                                        "bandwidth_note", "imaging_detected",
                                                        "interpolation_source_rate_hz", "interpolation_kind")}})
+            if sink is not None:
+                sink.write(json.dumps({k: rows[-1][k] for k in ("name", "family", "group", "expect", "outcome")},
+                                      default=str) + "\n")
+                sink.flush()
             if progress:
                 print(".", end="", flush=True, file=sys.stderr)
     if progress:
@@ -186,9 +193,10 @@ def main(argv=None) -> int:
     ap.add_argument("--hold-out", default="", help="comma-separated family prefixes reported apart")
     ap.add_argument("--only", default=None, help="only cases whose name starts with this")
     ap.add_argument("--cache", default=None, help="folder to keep generated cases in between runs")
+    ap.add_argument("--rows-out", default=None, help="append each case's outcome to this file as a JSON line")
     args = ap.parse_args(argv)
     seeds = [int(s) for s in args.seeds.split(",")]
-    rows = run(args.corpus, seeds, args.quick, args.only, cache=args.cache)
+    rows = run(args.corpus, seeds, args.quick, args.only, cache=args.cache, rows_out=args.rows_out)
     held = [h for h in args.hold_out.split(",") if h]
     by_family = defaultdict(list)
     for r in rows:

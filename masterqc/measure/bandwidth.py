@@ -42,7 +42,9 @@ Method (:func:`assess`):
    reaches its stop band (within 6 dB of the stop level) names it (:data:`STOP_RATIO_RANGE`: a
    converter that rejects its images begins its stop band at the old Nyquist, however early its pass
    band ends), or, for a leaky design centred on the old Nyquist, the -6 dB point does, provided the
-   fall past it is made of images (:data:`LEAKY_STOP_RATIO_RANGE`, :func:`mirror_correlation`).  Sources
+   fall past it is made of images (:data:`LEAKY_STOP_RATIO_RANGE`, :func:`mirror_correlation`).  A brick wall
+   within :data:`BRICK_WALL_RATIO_TOLERANCE` of a standard Nyquist names that rate, and a cliff that a design
+   centred on the old Nyquist explains outranks a stop-band reading of a higher rate (:data:`CENTRED_FIT`).  Sources
    of 16 and 22.05 kHz are searched at twice, 8 and 11.025 kHz at four times the
    frequency scale (:func:`scale_for`): a resampler's transition scales with its
    source rate, so the same windows and slopes apply.
