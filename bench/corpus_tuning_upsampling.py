@@ -288,7 +288,109 @@ def _plan(seed: int, quick: bool):
     plan += imaging_plan(seed, quick)
     plan.extend(_plan_filters(seed, quick))
     plan.extend(_plan_mastering(seed, quick))
+    plan.extend(_plan_lowpass_sweep(seed, quick))
     return plan
+
+
+#: sources and targets of the extra converter positives (the rates issue 11 names: streaming masters sold as
+#: high resolution, 22.05 and 16 kHz archive and speech material)
+SWEEP_CONVERSIONS = ((44100, 96000), (48000, 96000), (44100, 48000), (22050, 44100), (22050, 48000),
+                     (16000, 48000), (32000, 48000), (44100, 88200), (88200, 192000), (24000, 48000))
+SWEEP_CONVERTERS = ("libsamplerate-sinc_best", "libsamplerate-sinc_medium", "libsamplerate-sinc_fastest",
+                    "scipy-resample_poly-kaiser5", "scipy-resample_poly-long")
+
+
+def _ambiguous_cutoff(corner_hz: float, fs: int) -> bool:
+    """A steep low-pass whose corner lies at 0.88-1.0 of a lower standard rate's Nyquist (testable in a file
+    of rate ``fs``) is physically a converter's filter (house choice, see the module docstring)."""
+    return any(0.88 <= corner_hz / (r / 2.0) <= 1.0 for r in STANDARD_RATES_HZ if r / 2.0 <= 0.93 * fs / 2.0)
+
+
+def _plan_lowpass_sweep(seed: int, quick: bool):
+    """Mastering low-passes of every common design as negatives, drawn from their own generator: Butterworth
+    orders 2-12 at 16-21 kHz (once and zero-phase), Chebyshev I and II, elliptic orders 5-10 at 15-21 kHz, Bessel,
+    linear-phase FIRs of 31-1023 taps (``firwin`` with several windows, ``remez``) and minimum-phase FIRs, at
+    44.1, 48, 88.2 and 96 kHz, on music, speech, noise, sparse and dull material; steep designs (all but
+    Butterworth and Bessel) whose corner lies at 0.88-1.0 of a lower standard Nyquist are "ambiguous-lowpass".
+    Then converter positives at the rates of :data:`SWEEP_CONVERSIONS` through libsamplerate and resample_poly,
+    on material that includes dull music (rolling off below the source Nyquist)."""
+    rng = np.random.default_rng([int(seed), 13])
+    mats = list(MATERIALS) + ["dull"]
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    kinds = ("butter", "butter", "cheby1", "cheby2", "ellip", "ellip", "bessel", "firwin", "firwin", "remez",
+             "minphase")
+    for fs in (44100, 48000, 88200, 96000):
+        for kind in (kinds if not quick else kinds[int(rng.integers(0, 3))::3]):
+            lo = 15000.0 if kind == "ellip" else 16000.0
+            corner = round(float(rng.uniform(lo, 21000.0)) / 100.0) * 100.0
+            if kind == "butter":
+                p = {"order": int(rng.integers(2, 13)), "zp": bool(rng.integers(0, 2))}
+            elif kind == "cheby1":
+                p = {"order": int(rng.integers(4, 11)), "rp": float(rng.uniform(0.05, 1.0))}
+            elif kind == "cheby2":
+                p = {"order": int(rng.integers(5, 11)), "rs": float(rng.uniform(40.0, 90.0))}
+            elif kind == "ellip":
+                p = {"order": int(rng.integers(5, 11)), "rp": float(rng.uniform(0.01, 0.5)),
+                     "rs": float(rng.uniform(40.0, 100.0))}
+            elif kind == "bessel":
+                p = {"order": int(rng.integers(4, 11))}
+            elif kind == "firwin":
+                p = {"taps": int(pick((31, 63, 101, 127, 255, 511, 1023))),
+                     "window": pick(("hamming", "hann", "blackman", "blackmanharris", "kaiser"))}
+                if p["window"] == "kaiser":
+                    p["beta"] = float(rng.uniform(4.0, 10.0))
+            elif kind == "remez":
+                p = {"taps": int(pick((63, 101, 127, 255, 511))), "width": float(rng.uniform(500.0, 3000.0))}
+            else:
+                p = {"taps": int(pick((63, 127, 255, 511)))}
+            group = "lowpass"
+            # (a remez design's -6 dB point lies mid-way through its transition band)
+            minus6 = corner + 0.5 * max(p["width"], 2.0 * fs / p["taps"]) if kind == "remez" else corner
+            if kind not in ("butter", "bessel") and _ambiguous_cutoff(minus6, fs):
+                group = "ambiguous-lowpass"
+            tag = {"butter": f"butter{'zp' if p.get('zp') else ''}{p.get('order')}",
+                   "firwin": f"fir{p.get('taps')}-{p.get('window')}", "remez": f"remez{p.get('taps')}",
+                   "minphase": f"minphase{p.get('taps')}"}.get(kind, f"{kind}{p.get('order')}")
+            fam = f"sweep-{tag}"
+            plan.append((f"sw_{tag}_{corner / 1000:g}k_{fs}", fam, group,
+                         ("sweep", fs, kind, corner, dict(p, ambiguous=group != "lowpass"), pick(mats),
+                          float(rng.uniform(-30.0, -8.0)))))
+    for src, dst in (SWEEP_CONVERSIONS if not quick else SWEEP_CONVERSIONS[::3]):
+        fam = pick(SWEEP_CONVERTERS)
+        mat = pick(mats)
+        plan.append((f"swup_{fam}_{src}_to_{dst}_{mat}", fam, "upsampled",
+                     ("up", src, dst, fam, mat, int(pick([1, 2])), float(rng.uniform(-30.0, -8.0)))))
+    return plan
+
+
+def sweep_filter(x: np.ndarray, fs: int, kind: str, corner: float, p: dict) -> np.ndarray:
+    """Apply one of :func:`_plan_lowpass_sweep`'s low-passes to ``x`` (frames, channels)."""
+    if kind == "butter":
+        sos = sps.butter(p["order"], corner, fs=fs, output="sos")
+        return sps.sosfiltfilt(sos, x, axis=0) if p["zp"] else sps.sosfilt(sos, x, axis=0)
+    if kind in ("cheby1", "cheby2", "ellip", "bessel"):
+        sos = {"cheby1": lambda: sps.cheby1(p["order"], p["rp"], corner, fs=fs, output="sos"),
+               "cheby2": lambda: sps.cheby2(p["order"], p["rs"], corner, fs=fs, output="sos"),
+               "ellip": lambda: sps.ellip(p["order"], p["rp"], p["rs"], corner, fs=fs, output="sos"),
+               "bessel": lambda: sps.bessel(p["order"], corner, fs=fs, output="sos", norm="mag")}[kind]()
+        return sps.sosfilt(sos, x, axis=0)
+    if kind == "firwin":
+        win = ("kaiser", p["beta"]) if p["window"] == "kaiser" else p["window"]
+        h = sps.firwin(p["taps"], corner, window=win, fs=fs)
+    elif kind == "remez":
+        # equiripple; where remez does not converge, the least-squares design of the same bands
+        stop = min(corner + max(p["width"], 2.0 * fs / p["taps"]), 0.495 * fs)
+        try:
+            h = sps.remez(p["taps"], [0.0, corner, stop, fs / 2.0], [1.0, 0.0], fs=fs, maxiter=200)
+        except ValueError:
+            h = sps.firls(p["taps"], [0.0, corner, stop, fs / 2.0], [1.0, 1.0, 0.0, 0.0], fs=fs)
+    else:
+        h = sps.minimum_phase(sps.firwin(2 * p["taps"] - 1, corner, window="hamming", fs=fs), method="homomorphic")
+    return sps.lfilter(h, 1.0, x, axis=0)
 
 
 def _plan_mastering(seed: int, quick: bool):
@@ -368,7 +470,10 @@ def _build(spec, rng, seconds):
         return build_imaging(spec, rng, seconds)
     if kind == "up":
         _k, src, dst, family, mat, ch, level = spec
-        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+        if mat == "dull":
+            x = set_rms(np.stack([imaging_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+        else:
+            x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
         y = np.stack([upsample(x[:, c], src, dst, family) for c in range(ch)], axis=1)
         return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
     if kind == "onech":
@@ -387,6 +492,11 @@ def _build(spec, rng, seconds):
         sos = sps.butter(order, corner, fs=fs, output="sos")
         x = sps.sosfilt(sos, multichannel(mat, fs, 2, seconds, rng), axis=0)
         return fs, set_rms(x, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+    if kind == "sweep":
+        _k, fs, how, corner, p, mat, level = spec
+        x = np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(2)], axis=1)
+        expect = {} if p.get("ambiguous") else {"upsampled_from_hz": None, "upsampled_channels": []}
+        return fs, set_rms(sweep_filter(x, fs, how, corner, p), level), expect, ["L", "R"]
     if kind == "butter2":
         _k, fs, order, corner, zp, mat, level = spec
         sos = sps.butter(order, corner, fs=fs, output="sos")
@@ -425,14 +535,15 @@ def _build(spec, rng, seconds):
     raise ValueError(kind)
 
 
-def cases(seed: int, quick: bool = False, step: int = 1) -> Iterator[Case]:
+def cases(seed: int, quick: bool = False, step: int = 1, prefix: str | None = None) -> Iterator[Case]:
     """Every case of the tuning set for ``seed`` (1000-1999); ``quick`` gives a small slice; ``step`` > 1
-    builds only every ``step``-th case (the same cases, with the same noise, as with ``step`` 1)."""
+    builds only every ``step``-th case (the same cases, with the same noise, as with ``step`` 1); ``prefix``
+    builds only the cases whose name starts with it (the same noise as without it)."""
     if not 1000 <= int(seed) <= 1999:
         raise ValueError(f"tuning seeds are 1000-1999, got {seed}")
     plan = _plan(seed, quick)
     for i, (name, family, group, spec) in enumerate(plan):
-        if i % step:
+        if i % step or (prefix and not name.lower().startswith(prefix)):
             continue
         rng = _case_rng(seed, i)
         fs, y, expect, labels = _build(spec, rng, SECONDS if not quick else 1.5)

@@ -731,3 +731,45 @@ def test_a_burst_centred_on_a_nyquist_is_not_a_mirror():
     held = quantise24(np.repeat(0.1 * rng.standard_normal(24000 * 2), 2), rng)
     r = assess(held, fs)
     assert r.upsampled_from_hz == 24000 and r.evidence == "images", r.note
+
+
+def test_a_cliff_centred_on_the_old_nyquist_names_the_lower_rate():
+    """A 22.05 kHz source through a design centred on its Nyquist (-6 dB at 0.985 of 11.025 kHz, stop band
+    from 1.034 of it) also reads as an early stop band of 24 kHz (0.905 and 0.95 of 12 kHz); the centred
+    reading explains both points within their windows and names 22.05 kHz (house choice, CENTRED_FIT; the
+    ratios are the tuning corpus' resample_poly 40-zero-crossing readings on music that rolls off)."""
+    edge, stop = 0.985 * 11025.0, 1.034 * 11025.0
+    assert bw.match_rate(edge, [22050, 24000], stop)[0] == 22050
+    # the same cliff 44.1 kHz vs 48 kHz, scaled by two (by construction)
+    assert bw.match_rate(2 * edge, [44100, 48000], 2 * stop)[0] == 44100
+    # a converter whose stop band begins at 1.06 of 22.05 kHz (libsamplerate's medium converter from 48 kHz reads
+    # 1.053-1.062, tuning corpus) is not centred on it: 48 kHz stays
+    assert bw.match_rate(0.995 * 22050.0, [44100, 48000], 1.06 * 22050.0, leaks=lambda r: False)[0] == 48000
+
+
+def _brick_wall_upsample(x, src, dst):
+    """Ideal band-limited upsampling by zero-padding the spectrum (numpy): every bin above the old Nyquist is
+    exactly zero (by construction)."""
+    n_out = len(x) * dst // src
+    spec = np.fft.rfft(x)
+    out = np.zeros(n_out // 2 + 1, dtype=complex)
+    out[:spec.size] = spec
+    return np.fft.irfft(out, n_out) * (n_out / len(x))
+
+
+@pytest.mark.parametrize("src,dst", [(22050, 48000), (44100, 96000)])
+def test_brick_wall_at_a_standard_nyquist_names_that_rate(src, dst):
+    """Noise that rolls off 6 dB/octave from 4 kHz (a dull recording) made at ``src`` and converted up by
+    an ideal brick wall: the cliff sits at exactly ``src / 2`` (by construction), so ``src`` is named, not the
+    next higher rate whose stop-band window the wall also fits."""
+    rng = np.random.default_rng(7)
+    x = rng.standard_normal(int(src * 2.0))
+    spec = np.fft.rfft(x)
+    f = np.fft.rfftfreq(x.size, 1.0 / src)
+    spec /= 1.0 + f / 4000.0
+    x = np.fft.irfft(spec, x.size)
+    x *= 0.05 / np.std(x)
+    y = quantise24(_brick_wall_upsample(x, src, dst), rng)
+    res = assess(y, dst)
+    assert res.upsampled_from_hz == src
+    assert abs(res.effective_bandwidth_hz - src / 2.0) <= 0.015 * src / 2.0     # BRICK_WALL_RATIO_TOLERANCE

@@ -42,7 +42,9 @@ Method (:func:`assess`):
    reaches its stop band (within 6 dB of the stop level) names it (:data:`STOP_RATIO_RANGE`: a
    converter that rejects its images begins its stop band at the old Nyquist, however early its pass
    band ends), or, for a leaky design centred on the old Nyquist, the -6 dB point does, provided the
-   fall past it is made of images (:data:`LEAKY_STOP_RATIO_RANGE`, :func:`mirror_correlation`).  Sources
+   fall past it is made of images (:data:`LEAKY_STOP_RATIO_RANGE`, :func:`mirror_correlation`).  A brick wall
+   within :data:`BRICK_WALL_RATIO_TOLERANCE` of a standard Nyquist names that rate, and a cliff that a design
+   centred on the old Nyquist explains outranks a stop-band reading of a higher rate (:data:`CENTRED_FIT`).  Sources
    of 16 and 22.05 kHz are searched at twice, 8 and 11.025 kHz at four times the
    frequency scale (:func:`scale_for`): a resampler's transition scales with its
    source rate, so the same windows and slopes apply.
@@ -179,6 +181,14 @@ LEAKY_MIRROR_BAND_RATIO = (0.86, 0.98)
 #: of 22.05 kHz, reaches its stop band only at 1.053-1.062 of it)
 CENTRED_EDGE_TOLERANCE = 0.02
 CENTRED_MAX_STOP_RATIO = 1.045
+#: fit of a cliff that a design centred on the old Nyquist explains (its -6 dB point within CENTRED_EDGE_TOLERANCE
+#: of it and its stop band begun by CENTRED_MAX_STOP_RATIO): the best a stop-band reading can score.  Where such a
+#: cliff also reads as an early stop band of the next higher rate (a 22.05 kHz source's cliff, 0.98-1.0 of 11.025
+#: kHz, is 0.90-0.92 of 12 kHz with its stop band at 0.95 of it), the two readings tie and the lower rate wins
+#: (own reasoning: on the tuning corpus resample_poly's 40-zero-crossing design from 22.05 and 44.1 kHz on music
+#: that rolls off below the old Nyquist read as 24 and 48 kHz; libsamplerate's medium converter from 48 kHz, the
+#: nearest converter the other way, reads its stop band at 1.053-1.062 of 22.05 kHz, outside the centred window)
+CENTRED_FIT = 1.0
 LEAKY_MIN_MIRROR_CORRELATION = 0.4
 #: a converter's transition is a windowed sinc's: its amplitude falls roughly linearly through the cutoff, so
 #: in dB the fall accelerates, and it takes less span from -20 dB to -40 dB than from -6 dB to -20 dB (ratio
@@ -630,10 +640,14 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
             fits = []
             if STOP_RATIO_RANGE[0] <= stop <= STOP_RATIO_RANGE[1]:
                 fits.append(1.0 - abs(stop - STOP_RATIO_TYPICAL) / 0.1)
+            centred = abs(ratio - 1.0) <= CENTRED_EDGE_TOLERANCE and stop <= CENTRED_MAX_STOP_RATIO
             if (ratio >= LEAKY_MIN_EDGE_RATIO and LEAKY_STOP_RATIO_RANGE[0] <= stop <= LEAKY_STOP_RATIO_RANGE[1]
-                    and ((abs(ratio - 1.0) <= CENTRED_EDGE_TOLERANCE and stop <= CENTRED_MAX_STOP_RATIO)
-                         or leaks is None or leaks(r))):
+                    and (centred or leaks is None or leaks(r))):
                 fits.append(1.0 - abs(ratio - 1.0) / 0.1)
+            if centred and STOP_RATIO_RANGE[0] <= stop <= CENTRED_MAX_STOP_RATIO:
+                # a design centred on the old Nyquist explains both readings within their tolerances at once:
+                # it outranks a reading of the stop band alone for a higher rate (see CENTRED_FIT)
+                fits.append(CENTRED_FIT)
             if not fits:
                 continue
             s = max(0.05, max(fits))
@@ -1005,6 +1019,12 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         got = mirror_correlation(fine, bin_hz, r_scaled / scale, LEAKY_MIRROR_BAND_RATIO, min(len(fine), top))
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
     rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
+    walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
+             and transition_width_hz(cliff) < CONVERTER_MIN_WIDTH_RATIO * r / 2.0]
+    if walls:
+        # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
+        # old Nyquist exactly, so where its stop band "begins" says nothing more
+        rate, pos = walls[0], 1.0
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
