@@ -7,7 +7,10 @@ aliasing analyzer as it was at that commit (loaded from ``git show``), in one en
 timed in CPU seconds of its own process() and finish() calls (``time.thread_time``: the machine is
 shared, waiting for a core is not counted).  Figures are the best of ``--repeat`` passes.
 
-Usage: ``bench/bench_aliasing_cost.py [--seconds 30] [--baseline COMMIT_OR_FILE ...] [--repeat 3]``
+``--rate 96000`` times the 96 kHz version of the programme (bench/bench_sampling_cost.py's: the same loop
+converted up with resample_poly, quiet ultrasonic noise).
+
+Usage: ``bench/bench_aliasing_cost.py [--seconds 30] [--rate 48000|96000] [--baseline COMMIT_OR_FILE ...] [--repeat 3]``
 """
 
 from __future__ import annotations
@@ -69,6 +72,7 @@ def main(argv=None) -> int:
     ap.add_argument("--baseline", action="append", default=[],
                     help="commit (or file) whose aliasing analyzer is timed alongside (repeatable)")
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--rate", type=int, default=48000, choices=(48000, 96000))
     args = ap.parse_args(argv)
     try:
         from threadpoolctl import threadpool_limits
@@ -86,7 +90,11 @@ def main(argv=None) -> int:
     for b in args.baseline:
         classes.append(baseline_class(b))
         names.append(f"aliasing ({Path(b).name if Path(b).is_file() else b})")
-    path = bench_core.make_file(OUT / f"core_{args.seconds / 60:g}min.wav", args.seconds / 60.0)
+    if args.rate == 96000:
+        import bench_sampling_cost
+        path = bench_sampling_cost.make_96k(OUT / f"core96k_{args.seconds / 60:g}min.wav", args.seconds / 60.0)
+    else:
+        path = bench_core.make_file(OUT / f"core_{args.seconds / 60:g}min.wav", args.seconds / 60.0)
     best: dict[str, float] = {}
     results = {}
     for _ in range(args.repeat):
@@ -98,7 +106,7 @@ def main(argv=None) -> int:
         for k, v in spent.items():
             best[k] = min(best.get(k, v), v)
     core = sum(best[n] for n in names[:3])
-    print(f"{path.name}: {args.seconds:g} s, 48 kHz stereo; CPU seconds, best of {args.repeat} passes "
+    print(f"{path.name}: {args.seconds:g} s, {args.rate / 1000:g} kHz stereo; CPU seconds, best of {args.repeat} passes "
           "(shared, loaded machine: ratios in one run are what counts)")
     print(f"  core analyzers (loudness, sample/true peak)  {core:7.2f} s")
     for n in names[3:]:

@@ -482,6 +482,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
                     sps.resample_poly(x, fs // g, fs_in // g), {"aliasing_detected": False}, rms_dbfs=level)
 
+    # added: dense sample dropping at many standard rate pairs (own block, own random streams)
+    yield from dense_drop_cases(seed, seconds, quick)
     # added: more sample dropping and nearest-sample rate changes of tonal material (with and without
     # drums and a noise bed), each with its band-limited twin (the same source through resample_poly)
     if quick:
@@ -507,3 +509,88 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         g = math.gcd(fs_in, fs)
         yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
                     sps.resample_poly(x, fs // g, fs_in // g)[:y.size], {"aliasing_detected": False}, rms_dbfs=level)
+
+
+# ---------------------------------------------------------------- dense sample dropping
+#: rate changes by picking input samples without a filter, at standard rate pairs (input, output).
+#: Each keeps fs_out/g of every fs_in/g input samples (g = gcd): the pattern of dropped samples
+#: repeats every fs_out/g output samples (147 for 48 -> 44.1 kHz, 80 for 88.2 -> 48 kHz)
+DENSE_DROP_PAIRS = ((48000, 44100), (96000, 88200), (44100, 32000), (48000, 32000), (88200, 48000),
+                    (96000, 44100), (192000, 176400), (176400, 96000), (88200, 32000),
+                    (192000, 88200), (96000, 32000), (48000, 44100))
+#: the picking rule: the input sample at or before the output instant (``floor``), the nearest one
+#: (``round``), or linear interpolation between the two neighbours (``linear``, no filter either)
+DENSE_DROP_RULES = ("floor", "round", "linear", "floor", "round", "floor", "linear", "round", "floor",
+                    "linear", "round", "linear")
+DENSE_DROP_MATERIALS = ("tonal", "synth", "speech", "mix", "tonal", "synth", "tonal", "speech", "mix",
+                        "synth", "tonal", "speech")
+
+
+def pick_rate_change(x: np.ndarray, fs_in: int, fs_out: int, rule: str) -> np.ndarray:
+    """Rate change from ``fs_in`` to a lower ``fs_out`` with no filter: output sample n is the input at
+    time n/fs_out, taken as the sample at or before it (``floor``), the nearest sample (``round``), or
+    interpolated linearly between the two neighbours (``linear``).  Exact integer arithmetic."""
+    n_out = int((x.size - 2) * fs_out // fs_in)
+    num = np.arange(n_out, dtype=np.int64) * fs_in
+    i0 = num // fs_out
+    if rule == "floor":
+        return x[i0]
+    if rule == "round":
+        return x[np.minimum((2 * num + fs_out) // (2 * fs_out), x.size - 1)]
+    if rule == "linear":
+        frac = (num - i0 * fs_out) / fs_out
+        return x[i0] * (1.0 - frac) + x[i0 + 1] * frac
+    raise ValueError(rule)
+
+
+def _dense_material(kind: str, seconds: float, fs: int, rng) -> np.ndarray:
+    if kind == "tonal":
+        x = tonal_music(seconds, fs, rng, 0.45 * fs, vibrato=True, tilt=rng.uniform(1.0, 1.8))
+        return x / (np.sqrt(np.mean(x ** 2)) + 1e-30) + 10 ** (-rng.uniform(25, 50) / 20) * pink(x.size, rng)
+    if kind == "synth":   # band-limited polyphonic synthesis: additive saw/square/pulse voices
+        notes = voices(seconds, fs, rng, int(rng.integers(2, 5)), 110.0, 880.0)
+        kinds = _kind_params(("saw", "square", "pulse")[int(rng.integers(3))], rng)
+        x = synth(notes, kinds, seconds, fs, rng, naive=False)
+        return x / (np.sqrt(np.mean(x ** 2)) + 1e-30) + 10 ** (-rng.uniform(40, 60) / 20) * pink(x.size, rng)
+    if kind == "speech":
+        return speech(seconds, fs, rng)
+    if kind == "mix":
+        return music_mix(seconds, fs, rng, 0.45 * fs, rng.uniform(-45, -25))
+    raise ValueError(kind)
+
+
+def dense_drop_cases(seed: int, seconds: float, quick: bool = False) -> Iterator[Case]:
+    """Dense sample dropping (rate changes by picking samples without a filter) at the standard rate pairs of
+    :data:`DENSE_DROP_PAIRS`, on tonal music, band-limited polyphonic synthesis, speech-like material and
+    music mixes (group ``decimation``, expected True; families ``pick-floor``, ``pick-round``,
+    ``pick-linear``), each with its band-limited twin (the same source through ``resample_poly``, expected
+    False); and native steady chords whose period is a whole number of samples of the drop patterns' period
+    (an organ-like chord on multiples of 300 Hz at 44.1 kHz and of 600 Hz at 48 kHz, expected False)."""
+    todo = range(2) if quick else range(len(DENSE_DROP_PAIRS))
+    for j in todo:
+        fs_in, fs = DENSE_DROP_PAIRS[j]
+        rule, kind = DENSE_DROP_RULES[j], DENSE_DROP_MATERIALS[j]
+        sub = np.random.default_rng([seed, 20000 + j])
+        x = _dense_material(kind, seconds, fs_in, sub)
+        level = sub.uniform(-30, -8)
+        y = pick_rate_change(x, fs_in, fs, rule)
+        stem = f"pick-{rule}-{kind}-{fs_in // 100}-{fs // 100}-{seed}"
+        yield _case(stem, f"pick-{rule}", "decimation", fs, y, {"aliasing_detected": True}, rms_dbfs=level)
+        g = math.gcd(fs_in, fs)
+        yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
+                    sps.resample_poly(x, fs // g, fs_in // g)[:y.size], {"aliasing_detected": False}, rms_dbfs=level)
+    for j, (fs, step_hz) in enumerate(((44100, 300.0), (48000, 600.0))):
+        if quick and j:
+            break
+        sub = np.random.default_rng([seed, 21000 + j])
+        n = int(seconds * fs)
+        t = np.arange(n) / fs
+        x = np.zeros(n)
+        for m in sub.choice(np.arange(1, 9), size=3, replace=False):
+            f0 = m * step_hz
+            kmax = int(0.45 * fs // f0)
+            for k in range(1, kmax + 1):
+                x += np.sin(2 * math.pi * k * f0 * t + sub.uniform(0, 2 * math.pi)) / k ** 1.5
+        x = x / np.sqrt(np.mean(x ** 2)) + 10 ** (-sub.uniform(40, 60) / 20) * pink(n, sub)
+        yield _case(f"native-steady-{int(step_hz)}-{fs // 100}-{seed}", "native-steady", "native", fs, x,
+                    {"aliasing_detected": False}, rms_dbfs=sub.uniform(-30, -10))

@@ -51,7 +51,17 @@ Five complementary tests, each on a bounded number of frames spread over the fil
    (:func:`dropped_sample_phase_step`), at instants set by the sample clock.  The magnitude of a
    linear predictor's error jumps there; its spectrum holds a line at the drop rate whose phase,
    referred to the absolute sample index, agrees from frame to frame over the whole file.  Lines
-   that a note held unchanged explains (multiples of its steady partials) are skipped.
+   that a note held unchanged explains (multiples of its steady partials) are skipped, and so is a
+   line when the signal itself repeats every whole number of samples that the line divides.
+   Dense dropping (a rate change by picking samples, one drop about every 11 samples from 48 to
+   44.1 kHz) is found by its period instead (:func:`pattern_evidence`): the drop pattern repeats
+   every fs_out/gcd(fs_in, fs_out) samples (147 from 48 or 96 kHz to 44.1 kHz), and the frames'
+   prediction-error profiles over the phases n mod that period agree across the file.
+
+Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the grid test
+all of its frames) and keeps the rest; finish() analyses the rest only when that first pass does not
+settle the verdict as clean with margin (:meth:`AliasingAnalyzer._settled_clean`).  Clean material
+with no note instances, no sharp jump and no reflected partial costs about a sixth of the full analysis.
 
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
@@ -70,6 +80,7 @@ nothing could be assessed.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -113,6 +124,24 @@ REFLECT_MAX_GAP_S = 0.25
 #: which straddles Nyquist, and comes back mirrored close to Nyquist (seen on
 #: oversampled-and-filtered voices and a filtered decimation in the tuning corpus; house choice)
 MIN_REFLECTED_PARTIALS = 1
+
+
+#: the first pass analyses every FIRST_PASS_STRIDE-th frame of each test (for the partial tracks, runs of
+#: TRACK_RUN consecutive pairs: a reflection is seen in the pairs just after the rising partial); the rest
+#: only when the first pass does not settle the verdict as clean (cost; house choice)
+FIRST_PASS_STRIDE = 6
+TRACK_RUN = 4
+#: the first pass settles a clean verdict only while the polyphonic rank z stays below this (house choice;
+#: with fewer than RANK_MIN_INSTANCES note instances it settles nothing: a 2:1 decimation of the tuning
+#: corpus showed 0 of 6 instances in the first pass and z = 5.3 over all frames)
+SETTLED_RANK_Z = 1.0
+#: with GRID_FIRST_PASS_STRIDE above 1 the first pass analyses that share of the grid frames and settles a
+#: clean verdict only while their drop-line coherence and drop-pattern agreement stay below these.  The
+#: grid frames all go into the first pass (stride 1): on the cost benchmark's looped programme 6 of the
+#: 12 frames reached a coherence of 0.95 by chance (house choice)
+SETTLED_GRID_COHERENCE = 0.85
+GRID_FIRST_PASS_STRIDE = 1
+SETTLED_PATTERN_AGREEMENT = 0.3
 
 
 # ---------------------------------------------------------------- polyphonic fold test
@@ -608,6 +637,14 @@ GRID_STEADY_DB = 10.0
 GRID_CONTENT_MULTIPLES = 128
 
 
+@functools.lru_cache(maxsize=8)
+def _hann(n: int) -> np.ndarray:
+    """The symmetric Hann window of ``n`` points (``np.hanning``), computed once per length."""
+    w = np.hanning(n)
+    w.flags.writeable = False
+    return w
+
+
 def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
     """Normalised linear-prediction error magnitude of a ``(samples, channels)`` frame: per channel,
     ``|e[n]|`` divided by its mean (the predictor from the frame's own autocorrelation, Hann
@@ -615,16 +652,18 @@ def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
     its length, summed over channels); None for a silent frame."""
     n = frame.shape[0]
     lags = np.abs(np.subtract.outer(np.arange(order), np.arange(order)))   # Toeplitz index table
-    win = np.hanning(n)
+    win = _hann(n)
     out = np.zeros(n)
-    power = np.zeros(n + 1)
+    power = np.zeros(n // 2 + 1)
     used = 0
     for c in range(frame.shape[1]):
         x = np.asarray(frame[:, c], dtype=np.float64)
-        spec = np.fft.rfft(x * win, 2 * n)
+        spec = np.fft.rfft(x * win)
         pw = spec.real ** 2 + spec.imag ** 2
         power += pw
-        r = np.fft.irfft(pw)[:order + 1]
+        # circular autocorrelation: the wrapped part at lags up to the order is a product of the Hann
+        # window's two tails, about 1e-12 of r[0] (own reasoning)
+        r = np.fft.irfft(pw, n)[:order + 1]
         if not r[0] > 0:
             continue
         r[0] *= 1.0 + 1e-6
@@ -643,22 +682,22 @@ def grid_error_magnitude(frame: np.ndarray, order: int = GRID_LPC_ORDER):
 
 
 def grid_frame_spectrum(frame: np.ndarray):
-    """``(error_spectrum, signal_power)``: the complex spectrum (zero-padded GRID_PAD times, Hann
-    window) of the error magnitude of :func:`grid_error_magnitude` and the frame's power spectrum,
-    or None for a silent frame."""
+    """``(error_spectrum, signal_power, error_magnitude)``: the complex spectrum (zero-padded GRID_PAD
+    times, Hann window) of the error magnitude of :func:`grid_error_magnitude`, the frame's power
+    spectrum, and the error magnitude itself; None for a silent frame."""
     got = grid_error_magnitude(frame)
     if got is None:
         return None
     m, power = got
-    return np.fft.rfft((m - m.mean()) * np.hanning(m.size), GRID_PAD * m.size), power
+    return np.fft.rfft((m - m.mean()) * _hann(m.size), GRID_PAD * m.size), power, m
 
 
 def steady_lines(signal_power: np.ndarray, count: int = 4):
     """Frequencies (cycles per sample) of the ``count`` strongest lines of the signal that stand
     GRID_STEADY_DB over the local floor in most frames (median over the frames' power spectra, rows
     of ``signal_power``, each of ``2*(columns - 1)`` points): a note held unchanged through the file."""
-    norm = signal_power / (np.stack([block_floor(p, 64) for p in signal_power]) + 1e-300)
-    med = np.median(norm, axis=0)
+    norm = signal_power / (row_block_floor(signal_power, 32) + 1e-300)
+    med = np.median(np.ascontiguousarray(norm.T), axis=1)
     peaks = find_lines(med, np.ones_like(med), GRID_STEADY_DB)
     peaks = peaks[np.argsort(med[peaks])[::-1][:count]]
     if peaks.size == 0:
@@ -680,29 +719,172 @@ def content_explains(alpha: float, lines: np.ndarray, tolerance: float, line_err
     return bool(np.any(np.abs(pos - alpha) <= tolerance + m * line_error))
 
 
-def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, steady: np.ndarray | None = None):
+def row_block_floor(power: np.ndarray, block: int) -> np.ndarray:
+    """:func:`masterqc.measure.frames.block_floor` of every row of ``power`` at once (the same numbers:
+    medians of consecutive ``block``-bin blocks, interpolated linearly between block centres, held
+    beyond the first and last centre)."""
+    rows, n = power.shape
+    nb = max(1, n // block)
+    med = np.median(power[:, :nb * block].reshape(rows, nb, block), axis=2)
+    if nb == 1:
+        return np.repeat(med, n, axis=1)
+    u = np.arange(n) / block - 0.5
+    j = np.clip(np.floor(u).astype(np.int64), 0, nb - 2)
+    t = np.clip(u - j, 0.0, 1.0)
+    return med[:, j] * (1.0 - t) + med[:, j + 1] * t
+
+
+def grid_median_level(spectra: np.ndarray):
+    """``(alpha, median_level)``: every bin's drop rate (cycles per sample) and the median over the frames
+    (rows of ``spectra``) of its power over the frame's local floor."""
+    nfft = 2 * (spectra.shape[1] - 1)
+    power = spectra.real ** 2 + spectra.imag ** 2
+    norm = power / (row_block_floor(power, 64 * GRID_PAD) + 1e-300)
+    med = np.median(np.ascontiguousarray(norm.T), axis=1)
+    return np.arange(med.size) / nfft, med
+
+
+def grid_candidates(spectra: np.ndarray, frame_len: int, min_ratio: float = GRID_LINE_RATIO, levels=None):
+    """``(indices, alpha, median_level)``: the candidate lines of the error-magnitude spectra (rows of
+    ``spectra``): local maxima of the median level over the frames (normalised by each frame's local
+    floor) that stand ``min_ratio`` over it (any level for 0), at drop rates from :data:`GRID_MIN_ALPHA` and away
+    from the patterns of whole-number upsampling factors, the :data:`GRID_CANDIDATES` strongest first;
+    ``alpha`` (cycles per sample) and the median level for every bin (``levels``: those of
+    :func:`grid_median_level`, when already computed)."""
+    from scipy.ndimage import maximum_filter1d
+    alpha, med = grid_median_level(spectra) if levels is None else levels
+    ok = alpha >= GRID_MIN_ALPHA
+    for lf in GRID_UPSAMPLING_FACTORS:
+        for m in range(1, lf):
+            ok &= np.abs(alpha - m / lf) > 2.0 / frame_len
+    if min_ratio:
+        ok &= med >= min_ratio
+    # one candidate per line: local maxima of the median level
+    ok &= med >= maximum_filter1d(med, 2 * GRID_PAD + 1)
+    cand = np.nonzero(ok)[0]
+    return cand[np.argsort(med[cand])[::-1]][:GRID_CANDIDATES], alpha, med
+
+
+# ---- the drop pattern's period
+# Dense dropping (a rate change by picking input samples, 147 kept of every 160 from 48 to 44.1 kHz) puts a
+# drop every dozen samples or so: the prediction error's magnitude then holds many lines (every multiple of
+# fs_out/P for a pattern of period P output samples), and a held note's multiples may sit near the strongest
+# of them.  The whole pattern repeats exactly every P samples, locked to the sample clock: the error
+# magnitude averaged over the samples of each phase n mod P (absolute index) gives a profile, and the profiles
+# of frames spread over the file agree.  Under no such pattern each frame's profile is noise and they do not.
+#: standard sampling rates a file may have been converted down from by picking samples (Hz)
+PICK_SOURCE_RATES_HZ = (11025, 16000, 22050, 24000, 32000, 44100, 48000, 64000, 88200, 96000, 176400, 192000,
+                        352800, 384000)
+#: pattern periods tested: at least GRID_PATTERN_MIN_PERIOD samples (shorter ones hold too few phases for
+#: the profiles' agreement to mean anything) and at most a sixteenth of a frame (own reasoning)
+GRID_PATTERN_MIN_PERIOD = 8
+GRID_PATTERN_MAX_PERIOD = GRID_FRAME // 16
+#: a drop pattern: the frames' profiles agree with the others' mean to a median correlation of at least
+#: GRID_PATTERN_MIN_AGREEMENT, while the signal's own profiles at that period agree to less than
+#: GRID_PATTERN_MAX_SIGNAL_AGREEMENT (a steady chord whose period is a whole number of samples is
+#: periodic at P itself; house choice, checked on the tuning corpus)
+GRID_PATTERN_MIN_AGREEMENT = 0.45
+GRID_PATTERN_MAX_SIGNAL_AGREEMENT = 0.6
+#: a coherent drop-rate line alpha is no evidence when the signal itself repeats every round(j/alpha)
+#: samples for some j up to this (a steady chord whose common period is a whole number of samples puts
+#: lines at every multiple of 1/period into the error magnitude; own reasoning)
+GRID_SIGNAL_PERIOD_MULTIPLES = 16
+
+
+def drop_pattern_period(fs_in_hz: int, fs_out_hz: int) -> int:
+    """Output samples after which the pattern of a sample-picking rate change from ``fs_in_hz`` to
+    ``fs_out_hz`` repeats: it keeps fs_out/g of every fs_in/g input samples, g = gcd(fs_in, fs_out)."""
+    return int(fs_out_hz) // math.gcd(int(fs_in_hz), int(fs_out_hz))
+
+
+def pattern_periods(fs: int, alphas=()) -> list:
+    """Pattern periods to test on a file at ``fs``: those of picking from every higher standard rate that
+    is not a whole multiple of ``fs``, and the whole numbers nearest 1/alpha for candidate error lines
+    ``alphas`` (one sample dropped in every P + 1), within the tested range, ascending."""
+    out = {drop_pattern_period(r, fs) for r in PICK_SOURCE_RATES_HZ if r > fs and r % fs}
+    for a in alphas:
+        if a > 0:
+            out.add(int(round(1.0 / a)))
+    return sorted(p for p in out if GRID_PATTERN_MIN_PERIOD <= p <= GRID_PATTERN_MAX_PERIOD)
+
+
+def phase_profile(x: np.ndarray, start: int, period: int) -> np.ndarray:
+    """Mean of ``x`` (a frame starting at absolute sample ``start``) over the samples of each phase
+    ``(start + n) mod period``, whole periods only, less its mean."""
+    i0 = (-int(start)) % period
+    k = (x.size - i0) // period
+    prof = x[i0:i0 + k * period].reshape(k, period).mean(axis=0)
+    return prof - prof.mean()
+
+
+def profile_agreement(profiles: np.ndarray) -> float:
+    """Median over frames (rows) of the correlation of each frame's profile with the mean of the
+    others' (leave one out)."""
+    total = profiles.sum(axis=0)
+    out = []
+    for p in profiles:
+        o = total - p
+        d = float(np.sqrt(np.sum(p * p) * np.sum(o * o)))
+        out.append(float(np.dot(p, o)) / d if d > 0 else 0.0)
+    return float(np.median(out))
+
+
+def pattern_evidence(errors, signals, starts, fs: int, alphas=()):
+    """The drop-pattern test: ``(agreement, period, signal_agreement)`` of the period whose error-magnitude
+    profiles (of the magnitude, or at the standard pairs' periods of its square, whichever agree better)
+    agree best among those the signal's own profiles do not explain (agreement 0 and period
+    None when no period can be tested).  ``errors`` and ``signals``: per frame, the normalised prediction
+    error magnitude and the channel-sum signal; ``starts``: the frames' absolute first samples."""
+    best = (0.0, None, 0.0)
+    if len(errors) < GRID_MIN_FRAMES:
+        return best
+    # the error magnitude and its square (normalised): the square weighs the phases where the drops make the
+    # error large more, the magnitude is steadier where a few large errors (onsets) dominate
+    # (the square only at the standard rate pairs' periods: at the short periods of the error lines it reaches
+    # 0.43 on native mixes of the tuning corpus)
+    squares = [e * e / max(float(np.mean(e * e)), 1e-300) for e in errors]
+    standard = set(pattern_periods(fs))
+    for period in pattern_periods(fs, alphas):
+        forms = (errors, squares) if period in standard else (errors,)
+        ag = max(profile_agreement(np.stack([phase_profile(e, s, period) for e, s in zip(form, starts)]))
+                 for form in forms)
+        if ag <= best[0]:
+            continue
+        sg = profile_agreement(np.stack([phase_profile(x, s, period) for x, s in zip(signals, starts)]))
+        if sg < GRID_PATTERN_MAX_SIGNAL_AGREEMENT:
+            best = (ag, period, sg)
+    return best
+
+
+def signal_periodic_at(alpha: float, signals, starts) -> bool:
+    """Whether the signal (per frame, channel sum) repeats every whole number of samples Q = j/alpha
+    (j = 1..:data:`GRID_SIGNAL_PERIOD_MULTIPLES`, Q within 0.02 samples of a whole number, up to
+    :data:`GRID_PATTERN_MAX_PERIOD`): its own profiles at Q agree across frames."""
+    if not alpha or len(signals) < 2:
+        return False
+    for j in range(1, GRID_SIGNAL_PERIOD_MULTIPLES + 1):
+        q = j / alpha
+        if q > GRID_PATTERN_MAX_PERIOD:
+            break
+        if abs(q - round(q)) <= 0.02 * j and round(q) >= GRID_PATTERN_MIN_PERIOD:
+            prof = np.stack([phase_profile(x, s, int(round(q))) for x, s in zip(signals, starts)])
+            if profile_agreement(prof) >= GRID_PATTERN_MAX_SIGNAL_AGREEMENT:
+                return True
+    return False
+
+
+def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, steady: np.ndarray | None = None,
+                   levels=None):
     """The irregular-grid test on the frames' error-magnitude spectra (rows of ``spectra``, frames
     starting at absolute sample ``starts``).  Returns ``(coherence, alpha, line_ratio)`` of the most
     coherent candidate line (coherence 0 and alpha None when there is none): ``alpha`` in cycles per
     sample, ``line_ratio`` its median level over the local median.  Lines that ``steady`` content
     (:func:`steady_lines`) explains (:func:`content_explains`) are skipped; of the coherent lines the
-    one of lowest ``alpha`` is returned (the drop rate; its multiples are coherent too)."""
-    from scipy.ndimage import maximum_filter1d
+    one of lowest ``alpha`` is returned (the drop rate; its multiples are coherent too).  ``steady`` may be a
+    callable giving those lines, called only when a candidate needs them."""
     pad = spectra.shape[1] - 1
     nfft = 2 * pad
-    power = spectra.real ** 2 + spectra.imag ** 2
-    norm = power / (np.stack([block_floor(p, 64 * GRID_PAD) for p in power]) + 1e-300)
-    med = np.median(norm, axis=0)
-    alpha = np.arange(med.size) / nfft
-    ok = alpha >= GRID_MIN_ALPHA
-    for lf in GRID_UPSAMPLING_FACTORS:
-        for m in range(1, lf):
-            ok &= np.abs(alpha - m / lf) > 2.0 / frame_len
-    ok &= med >= GRID_LINE_RATIO
-    # one candidate per line: local maxima of the median level
-    ok &= med >= maximum_filter1d(med, 2 * GRID_PAD + 1)
-    cand = np.nonzero(ok)[0]
-    cand = cand[np.argsort(med[cand])[::-1]][:GRID_CANDIDATES]
+    cand, alpha, med = grid_candidates(spectra, frame_len, levels=levels)
     st = np.asarray(starts, dtype=float)
     span = float(st.max() - st.min() + frame_len)
     d = np.arange(-0.5 / nfft, 0.5 / nfft, 0.125 / span)
@@ -711,6 +893,8 @@ def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, stea
     coherent = []
     tol = 2.0 / frame_len
     for k in cand:
+        if callable(steady):   # computed on first need
+            steady = steady()
         if steady is not None and content_explains(float(alpha[k]), steady, 0.5 / frame_len, 0.02 / frame_len):
             continue
         z = spectra[:, k] * np.exp(-2j * math.pi * alpha[k] * st)
@@ -877,6 +1061,16 @@ class AliasingAnalyzer(Analyzer):
                 "grid_drop_interval_samples": {**NUMBER_OR_NULL, "description": (
                     "the interval, in samples, of that line (the mean spacing of dropped samples when the "
                     "grid is irregular)")},
+                "grid_pattern_agreement": {"type": "number", "description": (
+                    "how well the frames' prediction-error profiles over the phases of a repeating drop "
+                    "pattern (absolute sample index modulo its period) agree with each other: median "
+                    "leave-one-out correlation, near 1 for a rate change by picking samples")},
+                "grid_pattern_period_samples": {"type": ["integer", "null"], "description": (
+                    "the period, in samples, of that pattern (147 for picking from 48 to 44.1 kHz); null "
+                    "when no period could be tested")},
+                "grid_pattern_signal_agreement": {"type": "number", "description": (
+                    "the same agreement of the signal's own profiles at that period (high for content "
+                    "periodic at it, which is then no evidence)")},
                 "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
                 "fold_examples": {"type": "array", "items": {"type": "object"}},
             },
@@ -925,38 +1119,152 @@ class AliasingAnalyzer(Analyzer):
                               self.n_grid, seed=6)
         self.pick_grid = FramePicker(starts, self.n_grid, ch)
         self.grid = []     # per grid frame with signal: (start, complex error-magnitude spectrum)
+        self.grid_pattern = []   # per grid frame with signal: (error magnitude, channel-sum signal)
+        self.frame_count = {"tonal": 0, "poly": 0, "step": 0, "grid": 0, **{f"track{j}": 0 for j in range(len(self.trackers))}}
+        self.deferred = []   # (test, start, frame) kept for finish()
+        self.first_pass_settled = False
+        self._grid_memo = None
+
+    # ---- frame analyses (one frame each); every FIRST_PASS_STRIDE-th frame (spread over the file; for the
+    # partial tracks every such run of TRACK_RUN consecutive pairs, which the reflection test needs)
+    # is analysed as it streams past, the rest is kept and analysed in finish() unless that first third
+    # already settles the verdict as clean (see :meth:`_settled_clean`)
+    def _tonal(self, start, frame):
+        spec = np.fft.rfft(np.asarray(frame, dtype=np.float64).T * self.win_long, axis=-1)
+        power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
+        r = analyse_tonal_frame(power, self.bin_long, self.fs, max_fold_hz=POLY_TOP_FRACTION * self.fs)
+        if r is not None:
+            self.frames.append((int(start), r))
+
+    def _poly(self, start, frame):
+        spec = np.fft.rfft(np.asarray(frame, dtype=np.float64).T * self.win_poly, axis=-1)
+        power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
+        has_signal = bool(np.any(frame))
+        r = polyphonic_fold_frame(power, self.fs / self.n_poly, self.fs) if has_signal else None
+        self.poly.append((int(start), r, has_signal))
+
+    def _step(self, start, frame):
+        if np.any(frame):
+            self.steps.append((int(start), sharp_step_frame(np.asarray(frame, dtype=np.float64))))
+
+    def _track(self, tr, start, frame):
+        n, hop, win = tr["n"], tr["hop"], tr["window"]
+        frame = np.asarray(frame, dtype=np.float64)
+        a = np.fft.rfft(frame[:n].T * win, axis=-1)
+        b = np.fft.rfft(frame[hop:hop + n].T * win, axis=-1)
+        pa = np.sum(a.real ** 2 + a.imag ** 2, axis=0)
+        pb = np.sum(b.real ** 2 + b.imag ** 2, axis=0)
+        f, sl, _p = track_peaks(pa, pb, tr["bin_hz"], hop / self.fs)
+        tr["tracks"].append(((start + hop / 2.0 + n / 2.0) / self.fs, f, sl))
+
+    def _grid(self, start, frame):
+        frame = np.asarray(frame, dtype=np.float64)
+        z = grid_frame_spectrum(frame) if np.any(frame) else None
+        if z is not None:
+            self.grid.append((int(start), z[0], z[1]))
+            self.grid_pattern.append((z[2], frame.sum(axis=1)))
+
+    def _feed(self, key, picker, block, analyse, run: int = 1, stride: int | None = None):
+        stride = FIRST_PASS_STRIDE if stride is None else stride
+        for start, frame in picker.feed(block):
+            i = self.frame_count[key]
+            self.frame_count[key] = i + 1
+            if (i // run) % stride == 0:
+                analyse(start, frame)
+            else:   # kept for finish(); 24-bit samples are exact in float32
+                self.deferred.append((key, int(start), np.array(frame, dtype=np.float32)))
 
     def process(self, block) -> None:
-        for start, frame in self.pick_long.feed(block):
-            spec = np.fft.rfft(frame.T * self.win_long, axis=-1)
-            power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
-            r = analyse_tonal_frame(power, self.bin_long, self.fs, max_fold_hz=POLY_TOP_FRACTION * self.fs)
-            if r is not None:
-                self.frames.append((int(start), r))
-        for start, frame in self.pick_poly.feed(block):
-            spec = np.fft.rfft(frame.T * self.win_poly, axis=-1)
-            power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
-            has_signal = bool(np.any(frame))
-            r = polyphonic_fold_frame(power, self.fs / self.n_poly, self.fs) if has_signal else None
-            self.poly.append((int(start), r, has_signal))
-        for start, frame in self.pick_step.feed(block):
-            if np.any(frame):
-                self.steps.append((int(start), sharp_step_frame(np.asarray(frame, dtype=np.float64))))
-        for start, frame in self.pick_grid.feed(block):
-            z = grid_frame_spectrum(np.asarray(frame, dtype=np.float64)) if np.any(frame) else None
-            if z is not None:
-                self.grid.append((int(start), z[0], z[1]))
+        self._feed("tonal", self.pick_long, block, self._tonal)
+        self._feed("poly", self.pick_poly, block, self._poly)
+        self._feed("step", self.pick_step, block, self._step)
+        self._feed("grid", self.pick_grid, block, self._grid,
+                   stride=GRID_FIRST_PASS_STRIDE if self.pick_grid.starts.size >= 2 * GRID_MIN_FRAMES else 1)
+        for j, tr in enumerate(self.trackers):
+            self._feed(f"track{j}", tr["picker"], block, lambda st, fr, _tr=tr: self._track(_tr, st, fr),
+                       run=TRACK_RUN)
+
+    def _grid_stats(self):
+        """The irregular-grid and drop-pattern tests on the grid frames analysed so far: ``(coherence, alpha,
+        line_ratio, line_hit, pattern_agreement, pattern_period, signal_agreement, pattern_hit)``."""
+        if self._grid_memo is not None and self._grid_memo[0] == len(self.grid):
+            return self._grid_memo[1]
+        got = self._grid_stats_now()
+        self._grid_memo = (len(self.grid), got)
+        return got
+
+    def _grid_stats_now(self):
+        order = sorted(range(len(self.grid)), key=lambda i: self.grid[i][0])
+        grid = [self.grid[i] for i in order]
+        pattern = [self.grid_pattern[i] for i in order]
+        grid_coh, grid_alpha, grid_line = 0.0, None, 0.0
+        pat_ag, pat_period, pat_sig = 0.0, None, 0.0
+        span_s = ((grid[-1][0] - grid[0][0] + self.n_grid) / self.fs) if grid else 0.0
+        if len(grid) < GRID_MIN_FRAMES or span_s < GRID_MIN_SPAN_S:
+            return grid_coh, grid_alpha, grid_line, False, pat_ag, pat_period, pat_sig, False
+        starts = [s for s, _z, _p in grid]
+        spectra = np.stack([z for _s, z, _p in grid])
+        levels = grid_median_level(spectra)
+        grid_coh, grid_alpha, grid_line = grid_coherence(spectra, np.array(starts), self.n_grid,
+                                                         lambda: steady_lines(np.stack([p for _s, _z, p in grid])),
+                                                         levels=levels)
+        drop_hit = grid_evidence(grid_coh, len(grid))
+        if drop_hit and signal_periodic_at(grid_alpha, [x for _e, x in pattern], starts):
+            drop_hit = False
+        cand, alpha, _med = grid_candidates(spectra, self.n_grid, 0.0, levels=levels)
+        pat_ag, pat_period, pat_sig = pattern_evidence([e for e, _x in pattern], [x for _e, x in pattern], starts,
+                                                       self.fs, alpha[cand])
+        pattern_hit = pat_period is not None and pat_ag >= GRID_PATTERN_MIN_AGREEMENT
+        return grid_coh, grid_alpha, grid_line, drop_hit, pat_ag, pat_period, pat_sig, pattern_hit
+
+    def _settled_clean(self) -> bool:
+        """Whether the frames analysed so far settle the verdict as clean with margin: no sample-sharp jump,
+        no steady-tone frame with alias lines, no reflected partial, and the polyphonic test's evidence at
+        or below chance (no note instance, or at least :data:`RANK_MIN_INSTANCES` of them with evident ones
+        at most chance + 1 and rank z below :data:`SETTLED_RANK_Z`), and (when
+        half the grid frames were kept back) the grid frames so far far from a drop pattern."""
+        if any(r["sharp"] > 0 for _s, r in self.steps):
+            return False
+        if any(r["assessable"] and r["found"] > 0 for _s, r in self.frames):
+            return False
+        poly = [r for _s, r, _sig in self.poly if r is not None and r["instances"] > 0]
+        inst = sum(r["instances"] for r in poly)
+        if 0 < inst < RANK_MIN_INSTANCES:   # too few note instances to settle anything
+            return False
+        if inst == 0 and (self.frames or any(r is not None for _s, r, _sig in self.poly)):
+            return False   # notes but nothing testable yet: the rest decides whether it is assessable
+        if sum(r["evident"] for r in poly) > sum(r["chance"] for r in poly) + 1.0:
+            return False
+        rv = sum(r["rank_var"] for r in poly)
+        if inst and rv > 0 and (sum(r["rank_sum"] for r in poly) - 0.5 * inst) / math.sqrt(rv) >= SETTLED_RANK_Z:
+            return False
         for tr in self.trackers:
-            n, hop, win = tr["n"], tr["hop"], tr["window"]
-            for start, frame in tr["picker"].feed(block):
-                a = np.fft.rfft(frame[:n].T * win, axis=-1)
-                b = np.fft.rfft(frame[hop:hop + n].T * win, axis=-1)
-                pa = np.sum(a.real ** 2 + a.imag ** 2, axis=0)
-                pb = np.sum(b.real ** 2 + b.imag ** 2, axis=0)
-                f, s, _p = track_peaks(pa, pb, tr["bin_hz"], hop / self.fs)
-                tr["tracks"].append(((start + hop / 2.0 + n / 2.0) / self.fs, f, s))
+            if find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"]):
+                return False
+        if self.frame_count["grid"] >= 2 * GRID_MIN_FRAMES:
+            coh, _a, _l, _hit, ag, _p, _sg, _phit = self._grid_stats()
+            if coh >= SETTLED_GRID_COHERENCE or ag >= SETTLED_PATTERN_AGREEMENT:
+                return False
+        return True
+
+    def _finish_deferred(self) -> None:
+        self.first_pass_settled = bool(self.deferred) and self._settled_clean()
+        if not self.first_pass_settled:
+            for key, start, frame in self.deferred:
+                if key.startswith("track"):
+                    tr = self.trackers[int(key[5:])]
+                    self._track(tr, start, frame)
+                else:
+                    {"tonal": self._tonal, "poly": self._poly, "step": self._step, "grid": self._grid}[key](start, frame)
+            self.frames.sort(key=lambda t: t[0])
+            self.poly.sort(key=lambda t: t[0])
+            self.steps.sort(key=lambda t: t[0])
+            for tr in self.trackers:
+                tr["tracks"].sort(key=lambda t: t[0])
+        self.deferred = []
 
     def finish(self) -> AnalyzerResult:
+        self._finish_deferred()
         tonal = [r for _s, r in self.frames]
         assess = [(s, r) for s, r in self.frames if r["assessable"]]
         h = sum(r["harmonic_power"] for _s, r in assess)
@@ -996,13 +1304,7 @@ class AliasingAnalyzer(Analyzer):
                                         float(self.n_step * len(step_frames)),
                                         sum(r["power"] for _s, r in step_frames))
         # irregular sample grid (sample dropping)
-        grid_coh, grid_alpha, grid_line = 0.0, None, 0.0
-        grid_span_s = ((self.grid[-1][0] - self.grid[0][0] + self.n_grid) / self.fs) if self.grid else 0.0
-        if len(self.grid) >= GRID_MIN_FRAMES and grid_span_s >= GRID_MIN_SPAN_S:
-            grid_coh, grid_alpha, grid_line = grid_coherence(
-                np.stack([z for _s, z, _p in self.grid]), np.array([s for s, _z, _p in self.grid]), self.n_grid,
-                steady_lines(np.stack([p for _s, _z, p in self.grid])))
-        drop_hit = grid_evidence(grid_coh, len(self.grid))
+        grid_coh, grid_alpha, grid_line, drop_hit, pat_ag, pat_period, pat_sig, pattern_hit = self._grid_stats()
         bound = None
         if score is None and assess and h > 0:
             b = sum(r["bound_power"] for _s, r in assess)
@@ -1043,6 +1345,9 @@ class AliasingAnalyzer(Analyzer):
             "grid_frames": len(self.grid),
             "grid_line_coherence": round(grid_coh, 3),
             "grid_drop_interval_samples": (round(1.0 / grid_alpha, 3) if grid_alpha else None),
+            "grid_pattern_agreement": round(pat_ag, 3),
+            "grid_pattern_period_samples": pat_period,
+            "grid_pattern_signal_agreement": round(pat_sig, 3),
             "where_s": [],
             "fold_examples": [],
         }
@@ -1057,9 +1362,9 @@ class AliasingAnalyzer(Analyzer):
         line_hit = line_hit and ((instances == 0 and len(evident) >= MIN_LINE_ONLY_FRAMES)
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
-        detected = line_hit or poly_hit or reflect_hit or step_hit or drop_hit
+        detected = line_hit or poly_hit or reflect_hit or step_hit or drop_hit or pattern_hit
         assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
-                      or drop_hit)
+                      or drop_hit or pattern_hit)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
@@ -1069,7 +1374,7 @@ class AliasingAnalyzer(Analyzer):
         if step_hit:
             dur = self.n_step / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in step_frames]
-        if drop_hit:
+        if drop_hit or pattern_hit:
             dur = self.n_grid / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _z, _p in self.grid]
         if reflect_hit:
@@ -1109,6 +1414,11 @@ class AliasingAnalyzer(Analyzer):
                              f"{1.0 / grid_alpha:.2f} samples, in step with the sample clock over the whole file "
                              f"(phase agreement {grid_coh:.2f}): samples were dropped or picked without a filter, "
                              "which folds")
+            if pattern_hit and not drop_hit:
+                parts.append(f"the samples lie on an irregular time grid: the prediction error repeats a drop "
+                             f"pattern every {pat_period} samples, in step with the sample clock over the whole "
+                             f"file (profile agreement {pat_ag:.2f}): samples were dropped or picked without a "
+                             "filter, which folds")
             detail["reason"] = "; ".join(parts)
         else:
             if score is not None and score >= ALIAS_SCORE_MIN_DB:
@@ -1145,6 +1455,7 @@ class AliasingAnalyzer(Analyzer):
                     "step_max_residual": STEP_MAX_RESIDUAL,
                     "grid_frame_samples": self.n_grid, "grid_frames": int(self.pick_grid.starts.size),
                     "grid_min_coherence": GRID_MIN_COHERENCE,
+                    "first_pass_settled_clean": self.first_pass_settled,
                     "alias_score_min_db": ALIAS_SCORE_MIN_DB, "min_evident_share": MIN_EVIDENT_SHARE, "line_db": LINE_DB, "alias_line_db": ALIAS_LINE_DB}
         return AnalyzerResult(measurements=measurements, settings=settings)
 
