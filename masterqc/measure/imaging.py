@@ -623,7 +623,8 @@ class ImagingAnalyzer(Analyzer):
             pf = self.power_first[ch]
             ps = pw - pf
             den = np.sqrt(np.maximum(pf[ia] * pf[ib], 1e-300) * np.maximum(ps[ia] * ps[ib], 1e-300))
-            cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
+            with np.errstate(invalid="ignore", over="ignore"):     # non-finite input: NaN, as before
+                cross = np.clip(np.real(s_first * np.conj(s_all - s_first)) / den, -1.0, 1.0)
         else:
             cross = np.zeros(g2.size)
         # null bias of each pair: sum_m P_m(a) P_m(b) / (sum_m P_m(a) sum_m P_m(b)), which is 1/M
