@@ -678,3 +678,31 @@ def test_aliasing_message_sharp_steps_need_the_reason():
     detail = {"sharp_steps": 0, "reason": "sample-sharp steps"}
     msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"]
     assert "waveform jumps" not in msg.message
+
+
+# analytic: keeping 147 of every 160 samples (48 kHz to 44.1 kHz by picking, gcd 300 Hz) repeats its
+# pattern every 44100 / 300 = 147 output samples; one dropped sample in every 12 leaves about 11 between drops
+@pytest.mark.parametrize("extra, reason, sentence", [
+    ({"grid_pattern_period_samples": 147}, "x; the samples lie on an irregular time grid: the prediction error "
+     "repeats a drop pattern every 147 samples", "The samples lie on an irregular time grid: the same pattern of "
+     "kept and missing samples repeats every 147 samples, in step with the sample clock through the file."),
+    ({"grid_drop_interval_samples": 11.0}, "the samples lie on an irregular time grid: the prediction error "
+     "jumps about every 11.00 samples", "The samples lie on an irregular time grid: a sample is missing about "
+     "every 11.0 samples, in step"),
+    ({"grid_drop_interval_samples": 11.0, "folded_partials": 1}, "irregular time grid: jumps about every 11",
+     "Also, the samples lie on an irregular time grid"),
+    # the reason does not name the grid, or names it without its figure: no sentence
+    ({"grid_drop_interval_samples": 11.0}, "alias lines at the predicted fold frequencies", None),
+    ({"grid_pattern_period_samples": None}, "irregular time grid: repeats a drop pattern every", None),
+])
+def test_aliasing_message_irregular_sample_grid(extra, reason, sentence):
+    sp = spec(aliasing=[False])
+    detail = {"reason": reason, **extra}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"].message
+    if sentence is None:
+        assert "irregular time grid" not in msg
+    else:
+        assert sentence in msg
+        assert msg.index(sentence) > msg.index("the spec does not allow this")
+        assert "keeps some samples and drops others without a filter" in msg
+        assert msg.endswith("with a proper resampler.")
