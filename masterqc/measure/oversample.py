@@ -608,7 +608,7 @@ class TruePeakMeter:
         if n == 0:
             return
         if not self.float32_exact:
-            np.maximum(self.sample_peak_linear, _abs_max_columns(block), out=self.sample_peak_linear)
+            np.maximum(self.sample_peak_linear, column_abs_max(block), out=self.sample_peak_linear)
         self._received += n
         need = self.RUN_FRAMES + self._pre + self._post_groups * self._G
         done = 0
@@ -842,13 +842,17 @@ class TruePeakMeter:
                 fp[idx] = np.maximum(fp[idx], v)
 
 
-#: rows folded into one wide row by :func:`_abs_max_columns`
+#: rows folded into one wide row by :func:`column_abs_max`
 _FOLD_ROWS = 256
 
 
-def _abs_max_columns(block: np.ndarray) -> np.ndarray:
-    """Per-channel ``max(|x|)`` of a (frames, channels) block, in float64 (exact),
-    on the block folded into wide rows (a narrow axis-0 reduction is slow)."""
+def column_abs_max(block: np.ndarray) -> np.ndarray:
+    """Per-channel ``max(|x|)`` of a (frames, channels) block, in float64 (exact).
+
+    Same values as ``np.abs(block).max(axis=0)``, computed on the block folded
+    into rows of ``256 * channels`` values: numpy reduces a narrow (n, 2) array
+    along axis 0 about 40x slower than a wide one (measured, numpy 2.4).
+    """
     n, c = block.shape
     q = n - n % _FOLD_ROWS
     out = np.zeros(c)
