@@ -326,7 +326,9 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
         sentences.append(f"{'Also, the' if earlier else 'The'} waveform jumps "
                          f"between two samples with no band-limited transition ({sharp} such jumps): its "
                          f"partials above {nyq} keep their strength and all fold back.")
-    grid = _grid_sentence(detail, earlier=tonal or bool(detail.get("folded_partials")) or bool(sharp))
+    # the grid is named only when it is the whole evidence: notes, folded partials or sample-sharp jumps
+    # (naive synthesis) can also make the prediction error repeat, and then explain the finding better
+    grid = None if tonal or detail.get("folded_partials") or sharp else _grid_sentence(detail)
     if grid:
         sentences.append(grid)
     ratio = m.get("alias_to_harmonic_ratio_db")
@@ -339,12 +341,11 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
     return " ".join(sentences)
 
 
-def _grid_sentence(detail: dict, earlier: bool) -> str | None:
+def _grid_sentence(detail: dict) -> str | None:
     """The irregular sample grid in words, when the analyzer's reason names it (dropped or picked samples)."""
     reason = str(detail.get("reason") or "")
     if "irregular time grid" not in reason:
         return None
-    also = "Also, the" if earlier else "The"
     interval = detail.get("grid_drop_interval_samples")
     period = detail.get("grid_pattern_period_samples")
     if "jumps about every" in reason and interval:
@@ -353,7 +354,7 @@ def _grid_sentence(detail: dict, earlier: bool) -> str | None:
         how = f"the same pattern of kept and missing samples repeats every {int(period)} samples"
     else:
         return None
-    return (f"{also} samples lie on an irregular time grid: {how}, in step with the sample clock through the "
+    return (f"The samples lie on an irregular time grid: {how}, in step with the sample clock through the "
             "file. That is what a rate conversion leaves when it keeps some samples and drops others without "
             "a filter; every partial is then also read at the wrong instants.")
 
