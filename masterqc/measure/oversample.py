@@ -552,21 +552,11 @@ class TruePeakMeter:
         self._pre = self._pre_groups * G
         # scan phases as one matrix per group: row = inputs from frame gs - lead to
         # gs + G - 1 + T - 1 - lead; column q*G + b = scan phase q of frame gs + b
-        P = len(scan_phases)
-        w = np.zeros((G + T - 1, P * G))
-        for q, ph in enumerate(scan_phases):
-            for b_ in range(G):
-                w[b_:b_ + T, q * G + b_] = self.filter.taps[:, ph]
-        self._wscan = w.astype(np.float32)
-        self._nscan = P
+        self._wscan = _group_matrix(self.filter.taps, scan_phases, G)
+        self._nscan = len(scan_phases)
         # the fine phases likewise, for groups where many frames need them
-        F = len(fine_phases)
-        w = np.zeros((G + T - 1, F * G))
-        for q, ph in enumerate(fine_phases):
-            for b_ in range(G):
-                w[b_:b_ + T, q * G + b_] = self.filter.taps[:, ph]
-        self._wfine = w.astype(np.float32)
-        self._nfine = F
+        self._wfine = _group_matrix(self.filter.taps, fine_phases, G)
+        self._nfine = len(fine_phases)
         self._fine = np.ascontiguousarray(self.filter.taps[:, fine_phases], dtype=np.float32)
         self._on_frames = on_frames
         self._on_channel_frames = on_channel_frames
@@ -840,6 +830,18 @@ class TruePeakMeter:
                 v = np.abs(rows @ self._fine).max(axis=1)[:idx.size]
                 vals[c, idx] = np.maximum(vals[c, idx], v)
                 fp[idx] = np.maximum(fp[idx], v)
+
+
+def _group_matrix(taps: np.ndarray, phases, group: int) -> np.ndarray:
+    """The listed phases of a polyphase filter as one float32 matrix for a group of frames:
+    row r = input sample (first frame of the group - lead + r), column q*group + b = phase
+    ``phases[q]`` of frame b of the group.  ``taps`` is (taps per phase, factor)."""
+    T = taps.shape[0]
+    w = np.zeros((group + T - 1, len(phases) * group))
+    for q, ph in enumerate(phases):
+        for b in range(group):
+            w[b:b + T, q * group + b] = taps[:, ph]
+    return w.astype(np.float32)
 
 
 #: rows folded into one wide row by :func:`column_abs_max`
