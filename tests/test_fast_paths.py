@@ -38,6 +38,9 @@ def test_edge_frame_matches_the_plain_search(n, channels):
         for level_used in (level, 0.0):
             for from_end in (True, False):
                 assert _edge_frame(b, level_used, from_end) == _plain(b, level_used, from_end)
+                # by construction: the planar form of the same block finds the same frame
+                planar = np.ascontiguousarray(b.T)
+                assert _edge_frame(planar, level_used, from_end, planar=True) == _plain(b, level_used, from_end)
 
 
 def test_edge_frame_level_is_strict():

@@ -46,34 +46,21 @@ DROPOUT_EVENT = {
 EDGE_PIECE_FRAMES = 1024
 
 
-def _edge_frame(block, level: float, from_end: bool):
+def _edge_frame(block, level: float, from_end: bool, planar: bool = False):
     """Index of the last (``from_end``) or first frame of a (frames, channels) block
-    where ``|x| > level`` in any channel, or None when there is none."""
-    n, c = block.shape
+    (``planar``: a (channels, frames) block) where ``|x| > level`` in any channel, or None
+    when there is none."""
+    c, n = block.shape if planar else block.shape[::-1]
     size, done = EDGE_PIECE_FRAMES, 0
     while done < n:
         k = min(size, n - done)
-        piece = block[n - done - k:n - done] if from_end else block[done:done + k]
-        hit = np.flatnonzero(np.abs(piece).ravel() > level)
+        start = n - done - k if from_end else done
+        if planar:
+            hit = np.flatnonzero((np.abs(block[:, start:start + k]) > level).any(axis=0))
+        else:
+            hit = np.flatnonzero(np.abs(block[start:start + k]).ravel() > level) // c
         if hit.size:
-            row = int(hit[-1] if from_end else hit[0]) // c
-            return (n - done - k + row) if from_end else (done + row)
-        done += k
-        size *= 4
-    return None
-
-
-def _edge_frame_rows(rows, level: float, from_end: bool):
-    """:func:`_edge_frame` of a (channels, frames) block: the same frame, found the same way."""
-    c, n = rows.shape
-    size, done = EDGE_PIECE_FRAMES, 0
-    while done < n:
-        k = min(size, n - done)
-        piece = rows[:, n - done - k:n - done] if from_end else rows[:, done:done + k]
-        hit = np.flatnonzero((np.abs(piece) > level).any(axis=0))
-        if hit.size:
-            col = int(hit[-1] if from_end else hit[0])
-            return (n - done - k + col) if from_end else (done + col)
+            return start + int(hit[-1] if from_end else hit[0])
         done += k
         size *= 4
     return None
@@ -177,16 +164,16 @@ class SilenceAnalyzer(Analyzer):
     def process_planar(self, rows):
         """A (channels, frames) block: the same comparisons as :meth:`process`, row by row."""
         n = rows.shape[1]
-        last = _edge_frame_rows(rows, self.threshold, from_end=True)
+        last = _edge_frame(rows, self.threshold, from_end=True, planar=True)
         if last is not None:
             self.last_loud = self.pos + last
             if self.first_loud is None:
-                self.first_loud = self.pos + _edge_frame_rows(rows, self.threshold, from_end=False)
-        last = _edge_frame_rows(rows, 0.0, from_end=True)
+                self.first_loud = self.pos + _edge_frame(rows, self.threshold, from_end=False, planar=True)
+        last = _edge_frame(rows, 0.0, from_end=True, planar=True)
         if last is not None:
             self.last_nonzero = self.pos + last
             if self.first_nonzero is None:
-                self.first_nonzero = self.pos + _edge_frame_rows(rows, 0.0, from_end=False)
+                self.first_nonzero = self.pos + _edge_frame(rows, 0.0, from_end=False, planar=True)
         eq = np.empty(rows.shape, dtype=bool)
         eq[:, 0] = rows[:, 0] == self.prev
         if n > 1:
