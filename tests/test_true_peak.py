@@ -569,7 +569,7 @@ def full_grid_frame_values(x, design="kaiser"):
 
 @pytest.mark.parametrize("factor,design", [(4, "kaiser"), (8, "kaiser"), (16, "kaiser"), (4, "annex2")])
 def test_meter_equals_a_float64_full_grid_evaluation(factor, design):
-    # The FFT scan and the fine read where it matters must give the maximum over the
+    # The pre-screen, the scan and the fine read where it matters must give the maximum over the
     # whole reading grid, computed here directly, within 0.001 dB at any level (house choice: the
     # scan's stated promise, DEVELOPERS.md "true peak": results equal a full 32x evaluation).
     rng = np.random.default_rng(factor)

@@ -103,8 +103,6 @@ SCAN_FACTOR_MIN = 4
 SCAN_BAND_FS = 0.52
 #: further factor on the scan threshold (stopband leakage, float32 scan)
 SCAN_MARGIN = 0.995
-#: FFT length of the scan (overlap-save)
-SCAN_FFT_SIZE = 16384
 
 
 def automatic_factor(sample_rate_hz: float) -> int:
