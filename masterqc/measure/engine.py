@@ -67,32 +67,21 @@ def _time_analyzers(analyzers, cpu_split: dict) -> None:
     """
     for a in analyzers:
         rec = cpu_split.setdefault(type(a).__name__, [0.0, 0.0])
-        proc, fin = a.process, a.finish
-        planar = getattr(a, "process_planar", None)
+        a.process = _thread_timed(a.process, rec, 0)
+        a.finish = _thread_timed(a.finish, rec, 1)
+        if getattr(a, "process_planar", None) is not None:
+            a.process_planar = _thread_timed(a.process_planar, rec, 0)
 
-        def process(block, _proc=proc, _rec=rec):
-            t = time.thread_time()
-            try:
-                _proc(block)
-            finally:
-                _rec[0] += time.thread_time() - t
 
-        def process_planar(rows, _proc=planar, _rec=rec):
-            t = time.thread_time()
-            try:
-                _proc(rows)
-            finally:
-                _rec[0] += time.thread_time() - t
-
-        def finish(_fin=fin, _rec=rec):
-            t = time.thread_time()
-            try:
-                return _fin()
-            finally:
-                _rec[1] += time.thread_time() - t
-        a.process, a.finish = process, finish
-        if planar is not None:
-            a.process_planar = process_planar
+def _thread_timed(fn, rec: list, slot: int):
+    """``fn`` that adds the CPU seconds of its own thread per call to ``rec[slot]``."""
+    def timed(*args):
+        t = time.thread_time()
+        try:
+            return fn(*args)
+        finally:
+            rec[slot] += time.thread_time() - t
+    return timed
 
 
 #: glibc ``mallopt`` parameters (malloc.h): M_TRIM_THRESHOLD, M_TOP_PAD, M_MMAP_THRESHOLD
