@@ -743,12 +743,7 @@ class TruePeakMeter:
             s = self._buf[c]
             rows_all = as_strided(s[pre - lead:], shape=(ng, G + T - 1), strides=(G * s.itemsize, s.itemsize))
             vc = vals[c].reshape(ng, G)
-            for j in range(0, cand.size, self.SCAN_CHUNK):
-                idx = cand[j:j + self.SCAN_CHUNK]
-                rows = rows_all[idx] if idx.size > 1 else rows_all[np.repeat(idx, 2)]
-                y = rows @ self._wscan
-                np.abs(y, out=y)
-                sv = y.reshape(y.shape[0], self._nscan, G).max(axis=1)[:idx.size]
+            for idx, sv in _group_maxima(rows_all, cand, self._wscan, self._nscan, G, self.SCAN_CHUNK):
                 vc[idx] = np.maximum(vc[idx], sv)
         if m < span:
             vals[:, m:] = 0.0
@@ -805,12 +800,7 @@ class TruePeakMeter:
             if dense.size:                        # whole groups: one matrix product per batch of groups
                 rows_all = as_strided(s[pre - lead:], shape=(ng, G + T - 1), strides=(G * s.itemsize, s.itemsize))
                 vc, fc = vals[c].reshape(ng, G), fp.reshape(ng, G)
-                for j in range(0, dense.size, self.SCAN_CHUNK):
-                    idx = dense[j:j + self.SCAN_CHUNK]
-                    rows = rows_all[idx] if idx.size > 1 else rows_all[np.repeat(idx, 2)]
-                    y = rows @ self._wfine
-                    np.abs(y, out=y)
-                    v = y.reshape(y.shape[0], self._nfine, G).max(axis=1)[:idx.size]
+                for idx, v in _group_maxima(rows_all, dense, self._wfine, self._nfine, G, self.SCAN_CHUNK):
                     vc[idx] = np.maximum(vc[idx], v)
                     fc[idx] = np.maximum(fc[idx], v)
                 self.refined_frames += int(dense.size) * G
@@ -840,6 +830,18 @@ def _group_matrix(taps: np.ndarray, phases, group: int) -> np.ndarray:
         for b in range(group):
             w[b:b + T, q * group + b] = taps[:, ph]
     return w.astype(np.float32)
+
+
+def _group_maxima(rows_all: np.ndarray, groups: np.ndarray, w: np.ndarray, phases: int, group: int,
+                  chunk: int):
+    """Per listed group, per frame, the maximum of ``|y|`` over the phases of ``w`` (a
+    :func:`_group_matrix`), ``chunk`` groups per matrix product: yields (groups, maxima)."""
+    for j in range(0, groups.size, chunk):
+        idx = groups[j:j + chunk]
+        rows = rows_all[idx] if idx.size > 1 else rows_all[np.repeat(idx, 2)]
+        y = rows @ w
+        np.abs(y, out=y)
+        yield idx, y.reshape(y.shape[0], phases, group).max(axis=1)[:idx.size]
 
 
 #: rows folded into one wide row by :func:`column_abs_max`
