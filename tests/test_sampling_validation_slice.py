@@ -70,9 +70,9 @@ KNOWN_MISSES = {
         "to a 48 kHz file's Nyquist a Butterworth's warped fall is as steep as a 44.1 kHz converter's, and on "
         "music the Butterworth test cannot read it cleanly enough to tell them apart)",
     ("upsampling_false_alarms", "corpus_tuning_upsampling"):
-        "the tuning corpus' mastering low-pass sweep has a 6th-order elliptic low-pass at 20.8 kHz in a 48 kHz file "
-        "read as converted up from 44.1 kHz: its -6 dB point lies at 0.95 of 22.05 kHz, where high-quality converters "
-        "end their pass band, and its equiripple stop band begins where theirs would",
+        "the tuning corpus' mastering low-pass sweep (new negatives) has an 8th-order Chebyshev II low-pass at "
+        "17.6 kHz in a 96 kHz file read as converted up from 32 kHz: its equiripple stop band begins where a "
+        "32 kHz source's converter would put it, and magnitude alone does not tell them apart",
     ("upsampling_rate", "corpus_validation"):
         "a 22.05 kHz source converted up by FFT resampling (a brick wall at the old Nyquist) on music that rolls "
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist (a brick wall "

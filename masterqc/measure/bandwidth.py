@@ -280,10 +280,16 @@ MIRROR_SUBBANDS = 4
 #: elliptic, Bessel, short FIR) leaves the programme itself there, a fixed 50-90 dB down in every frame.  Own
 #: reasoning; tuning corpus (median frame over 1.06-1.3 of the old Nyquist, 90th percentile of the frames over
 #: 0.6-0.8 of it): converters with such an edge read 104-125 dB deep (libsamplerate's fastest and medium
-#: converters), low-passes 56-87 dB with the content 33-77 dB above the floor.  Read on the front end's level
+#: converters), low-passes 68-87 dB with the content 33-61 dB above the floor.  Read on the front end's level
 #: histogram (channel mean), so only for the whole file's sum.
 EARLY_EDGE_RATIO = 0.92
 EARLY_MIN_DEPTH_DB = 90.0
+#: ... where the fall reaches its stop band by the old Nyquist (at most this ratio, the envelope's reading): a
+#: design centred on the old Nyquist whose edge merely reads early on material that rolls off below it (a long
+#: Kaiser resample_poly design on speech: stop band from 1.03 of the old Nyquist) may leave its own shallow stop
+#: band there, images of the programme 50-60 dB down (own reasoning; the low-passes this rule catches on the
+#: tuning corpus reach their stop band at 0.94-1.004 of the old Nyquist)
+EARLY_MAX_STOP_RATIO = 1.015
 STOP_CONTENT_MAX_ABOVE_FLOOR_DB = 20.0
 
 #: a cliff whose fall a Butterworth low-pass explains is a band limit, not a conversion.  The digital
@@ -368,6 +374,8 @@ class BandwidthResult:
     edge_ratio: float | None = None
     evidence: str | None = None
     mirror_rate_hz: int | None = None
+    #: where the cliff's fall reaches its stop band, over the source Nyquist (not reported)
+    stop_ratio: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -884,7 +892,7 @@ def _programme_above(fe, info, out) -> bool:
     programme going on above the old Nyquist in every frame (:func:`stop_band_content`): a low-pass, not a
     converter.  Rewrites ``out`` as a band limit then."""
     if (out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None
-            or out.edge_ratio >= EARLY_EDGE_RATIO):
+            or out.edge_ratio >= EARLY_EDGE_RATIO or out.stop_ratio is None or out.stop_ratio > EARLY_MAX_STOP_RATIO):
         return False
     floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
     got = stop_band_content(fe, floor, out.upsampled_from_hz)
@@ -1212,6 +1220,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         out.depth_db = round(cliff["drop_db"], 1)
         out.slope_db_per_khz = round(cliff["slope_db_per_khz"], 1)
         out.edge_ratio = round(cliff["edge_hz"] / (rate / 2.0), 3) if rate is not None else None
+        if rate is not None and cliff.get("stop_start_hz") is not None:
+            out.stop_ratio = round(cliff["stop_start_hz"] / (rate / 2.0), 3)
         if rate is not None:
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
