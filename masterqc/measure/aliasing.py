@@ -332,7 +332,7 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
     harm, harm_unc = harm_all[order_h], unc_all[order_h]
     # level over the local floor, dB, and its running maxima over +-1..2 bins
     level = 10.0 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
-    from scipy.ndimage import maximum_filter1d
+    from masterqc.measure.npkernels import maximum_filter1d
     level_max = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
     out = {"tested": 0, "instances": 0, "evident": 0, "chance": 0.0, "alias_power": 0.0,
            "rank_sum": 0.0, "rank_var": 0.0,
@@ -751,7 +751,7 @@ def grid_candidates(spectra: np.ndarray, frame_len: int, min_ratio: float = GRID
     from the patterns of whole-number upsampling factors, the :data:`GRID_CANDIDATES` strongest first;
     ``alpha`` (cycles per sample) and the median level for every bin (``levels``: those of
     :func:`grid_median_level`, when already computed)."""
-    from scipy.ndimage import maximum_filter1d
+    from masterqc.measure.npkernels import maximum_filter1d
     alpha, med = grid_median_level(spectra) if levels is None else levels
     ok = alpha >= GRID_MIN_ALPHA
     for lf in GRID_UPSAMPLING_FACTORS:

@@ -224,7 +224,7 @@ def blackman_harris(n: int) -> np.ndarray:
 
 def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:
     """Local floor of a power spectrum: running median over ``2*halfwidth+1`` bins."""
-    from scipy.ndimage import median_filter
+    from masterqc.measure.npkernels import median_filter
     return median_filter(power, size=2 * halfwidth + 1, mode="nearest")
 
 
