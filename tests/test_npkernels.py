@@ -128,3 +128,29 @@ def test_rfft_rows_is_numpy_rfft_and_within_float32_rounding_of_scipy(n):
     strong = np.abs(ref) >= peak * 10 ** (-60 / 20)
     assert np.max(np.abs(20 * np.log10(np.abs(got[strong]) / np.abs(sp[strong])))) <= 0.0043
     assert np.array_equal(nk.rfft_rows(frames.astype(np.float64)), ref)
+
+
+def test_default_rng_random_gives_numpy_random_values():
+    """numpy.random is the oracle: the same doubles for seeds of one to five 32-bit words
+    (the seed's words feed NumPy's SeedSequence pool), and the measurement's own draws."""
+    seeds = (0, 1, 2, 3, 7, 15, 2026, 2**31 - 1, 2**32 - 1, 2**32, 2**40 + 5, 2**64 + 3, 2**130 + 99)
+    for seed in seeds:
+        for count in (0, 1, 5, 257):
+            got = nk.default_rng_random(seed, count)
+            assert got.dtype == np.float64 and got.shape == (count,)
+            assert np.array_equal(got, np.random.default_rng(seed).random(count)), (seed, count)
+    with pytest.raises(ValueError, match="seed"):
+        nk.default_rng_random(-1, 3)
+
+
+def test_frame_starts_are_those_numpy_random_gave():
+    """frames.frame_starts draws its jitter from default_rng_random: the positions are the ones
+    ``numpy.random.default_rng(seed)`` gives (the formula of its docstring, written out here)."""
+    from masterqc.measure.frames import frame_starts
+    for total, frame_len, max_frames, min_hop, seed in ((48000, 4800, 40, 2400, 0), (10 ** 7, 8192, 300, 4096, 3),
+                                                        (44100 * 30, 1024, 97, 512, 5)):
+        span = total - frame_len
+        count = int(min(max_frames, span // max(1, min_hop) + 1))
+        u = np.random.default_rng(seed).random(count)
+        want = np.clip(np.floor((np.arange(count) + u) * (span + 1) / count).astype(np.int64), 0, span)
+        assert np.array_equal(frame_starts(total, frame_len, max_frames, min_hop, seed=seed), want)

@@ -31,6 +31,7 @@ NOT_AT_START = ("matplotlib", "weasyprint", "jinja2", "dask", "yaml", "pydantic"
 NOT_IN_MEASURE = ("matplotlib", "weasyprint", "jinja2", "dask", "yaml", "pydantic",
                   "scipy.signal", "scipy.stats", "scipy.interpolate", "scipy.optimize", "scipy.spatial",
                   "scipy.linalg", "scipy.fft", "scipy.ndimage", "scipy.special", "scipy._lib._array_api",
+                  "numpy.random",  # frames.frame_starts draws its jitter with masterqc.measure.npkernels
                   "masterqc.report.render", "masterqc.report.plots",
                   "masterqc.batch.runner", "masterqc.compare.model", "masterqc.result_models",
                   "masterqc.spec.loader",

@@ -1,4 +1,4 @@
-"""NumPy-only kernels for the measurement path: running filters, a batched real FFT and ``I0``.
+"""NumPy-only kernels for the measurement path: running filters, a batched real FFT, ``I0`` and PCG64.
 
 Importing SciPy's FFT, n-d image filters or special functions costs a short file more
 start-up time (SciPy's array-API layer, about 0.2 s) than measuring it takes, and the
@@ -21,6 +21,9 @@ measurement uses only these few one-dimensional kernels, so they are written her
   ``b0 = y b1 - b2 + c_k``, ``0.5 (b0 - b2)``; ``exp`` is the C library's (``math.exp``),
   so the values are those of ``scipy.special.i0`` to the bit (``numpy.i0`` uses NumPy's
   vectorised ``exp`` and may differ from both in the last place).
+* :func:`default_rng_random`: ``numpy.random.default_rng(seed).random(count)`` for the few
+  hundred pseudo-random frame positions a measurement draws, without importing
+  ``numpy.random`` (NumPy's SeedSequence and PCG64 written out; the same values).
 
 Boundary modes (``mode``), as ``scipy.ndimage`` names them, for a line ``a b c d``:
 ``"reflect"`` (the default) extends it ``b a | a b c d | d c``, ``"nearest"`` ``a a | a b c d
@@ -89,6 +92,16 @@ def _extended(a: np.ndarray, size: int, mode: str) -> np.ndarray:
     except KeyError:
         raise ValueError(f"unknown boundary mode {mode!r}; expected one of {sorted(_PAD_MODES)}") from None
     before = size // 2
+    n = a.shape[0]
+    if n == 0:
+        return np.array(a, copy=True)
+    if pad_mode == "edge":
+        # the measurement's usual mode, without numpy.pad's overhead (many short lines)
+        e = np.empty(n + size - 1, dtype=a.dtype)
+        e[:before] = a[0]
+        e[before:before + n] = a
+        e[before + n:] = a[-1]
+        return e
     return np.pad(a, (before, size - 1 - before), mode=pad_mode)
 
 
@@ -150,8 +163,11 @@ def median_filter(x, size: int, mode: str = "reflect") -> np.ndarray:
         raise ValueError(f"median filter size {size} is longer than 2 n + 1 for a line of n = {a.shape[0]} "
                          "samples in mode 'reflect'")
     e = _extended(a, size, mode)
-    windows = np.lib.stride_tricks.sliding_window_view(e, size)
-    return np.sort(windows, axis=-1)[:, size // 2]
+    step = e.strides[0]
+    windows = np.lib.stride_tricks.as_strided(e, (a.shape[0], size), (step, step), writeable=False)
+    rows = windows.copy()                       # (n, size): row i is the window of output i
+    rows.sort(axis=-1)
+    return rows[:, size // 2].copy()
 
 
 def rfft_rows(frames: np.ndarray) -> np.ndarray:
@@ -193,3 +209,86 @@ def bessel_i0(x) -> np.ndarray:
     with np.errstate(invalid="ignore"):       # inf / inf at x = inf: NaN, as scipy.special.i0
         out[high] = growth[high] * _clenshaw(32.0 / flat[high] - 2.0, _I0_B) / np.sqrt(flat[high])
     return out.reshape(a.shape)
+
+
+# ---- numpy.random.default_rng(seed).random(count), without importing numpy.random
+# (about as long to import as the rest of the measurement's NumPy use on a short file)
+_MASK32 = 0xFFFFFFFF
+_MASK64 = (1 << 64) - 1
+_MASK128 = (1 << 128) - 1
+#: SeedSequence hashing constants (O'Neill's seed_seq_fe, as NumPy's SeedSequence uses them)
+_SS_INIT_A, _SS_MULT_A = 0x43B0D7E5, 0x931E8875
+_SS_INIT_B, _SS_MULT_B = 0x8B51F9DD, 0x58F38DED
+_SS_MIX_L, _SS_MIX_R = 0xCA01F9DD, 0x4973F715
+_SS_POOL = 4
+#: PCG64's 128-bit LCG multiplier (M. E. O'Neill, "PCG: a family of simple fast space-efficient
+#: statistically good algorithms for random number generation", 2014)
+_PCG_MULT = 0x2360ED051FC65DA44385DF649FCCF645
+
+
+def _seed_pool(seed: int) -> list[int]:
+    """The 4-word entropy pool NumPy's ``SeedSequence(seed)`` mixes from a non-negative int."""
+    words = []
+    while True:
+        words.append(seed & _MASK32)
+        seed >>= 32
+        if not seed:
+            break
+    const = _SS_INIT_A
+
+    def hashmix(value: int) -> int:
+        nonlocal const
+        value = (value ^ const) & _MASK32
+        const = (const * _SS_MULT_A) & _MASK32
+        value = (value * const) & _MASK32
+        return value ^ (value >> 16)
+
+    def mix(x: int, y: int) -> int:
+        r = (_SS_MIX_L * x - _SS_MIX_R * y) & _MASK32
+        return r ^ (r >> 16)
+
+    pool = [hashmix(words[i] if i < len(words) else 0) for i in range(_SS_POOL)]
+    for src in range(_SS_POOL):
+        for dst in range(_SS_POOL):
+            if src != dst:
+                pool[dst] = mix(pool[dst], hashmix(pool[src]))
+    for src in range(_SS_POOL, len(words)):
+        for dst in range(_SS_POOL):
+            pool[dst] = mix(pool[dst], hashmix(words[src]))
+    return pool
+
+
+def _seed_state64(pool: list[int], n_words64: int) -> list[int]:
+    """``SeedSequence.generate_state(n_words64, np.uint64)`` from its pool."""
+    const = _SS_INIT_B
+    out32 = []
+    for i in range(2 * n_words64):
+        v = (pool[i % _SS_POOL] ^ const) & _MASK32
+        const = (const * _SS_MULT_B) & _MASK32
+        v = (v * const) & _MASK32
+        out32.append(v ^ (v >> 16))
+    return [out32[2 * i] | (out32[2 * i + 1] << 32) for i in range(n_words64)]
+
+
+def default_rng_random(seed: int, count: int) -> np.ndarray:
+    """``numpy.random.default_rng(seed).random(count)`` (float64, the same values) for a
+    non-negative integer ``seed``: NumPy's ``SeedSequence`` turns the seed into PCG64's
+    128-bit state and increment, PCG64 (XSL-RR output) gives 64-bit words, and each double is
+    ``(word >> 11) * 2**-53``.  Plain Python: meant for a few hundred values."""
+    seed, count = int(seed), int(count)
+    if seed < 0:
+        raise ValueError(f"seed must be a non-negative integer, got {seed}")
+    if count < 0:
+        raise ValueError(f"count must be >= 0, got {count}")
+    s0, s1, i0, i1 = _seed_state64(_seed_pool(seed), 4)
+    inc = ((((i0 << 64) | i1) << 1) | 1) & _MASK128
+    state = (inc + ((s0 << 64) | s1)) & _MASK128            # srandom: step from 0, add the seed,
+    state = (state * _PCG_MULT + inc) & _MASK128            # step again
+    out = []
+    for _ in range(count):
+        state = (state * _PCG_MULT + inc) & _MASK128
+        rot = state >> 122
+        word = ((state >> 64) ^ state) & _MASK64
+        word = ((word >> rot) | (word << (64 - rot))) & _MASK64
+        out.append((word >> 11) * (1.0 / 9007199254740992.0))
+    return np.array(out, dtype=np.float64)
