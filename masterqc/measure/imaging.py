@@ -272,7 +272,7 @@ def spectral_lines(power: np.ndarray, prominence_db: float = LINE_PROMINENCE_DB,
     p = np.asarray(power, dtype=float)
     if p.size < 5:
         return np.zeros(0, dtype=np.int64)
-    from scipy.ndimage import median_filter
+    from masterqc.measure.npkernels import median_filter
     floor = median_filter(p, size=2 * halfwidth + 1, mode="nearest")
     tiny = max(float(p.max()) * 1e-30, 1e-300)
     ratio = p / np.maximum(floor, tiny)
