@@ -16,19 +16,22 @@ Material (all synthesised here, band-limited to the rate it is made at):
 
 Families and groups (counts per full seed; ``quick=True`` keeps a ~20-case slice with 2-3 s files):
     upsampled (48)             source rates 16/22.05/32/44.1/48/88.2/96 kHz to every higher standard rate up
-                               to 192 kHz, pairs shuffled per seed and cycled so every source rate occurs.
+                               to 192 kHz: each of the 34 pairs once plus 14 common ones (44.1 -> 88.2/96/
+                               176.4/192, 48 -> 96/192, ...) a second time, shuffled per seed.
         sox-cli-{linear,intermediate,minimum}-phase   ``sox ... rate -v -L|-I|-M [-b 85..99 | -s]``   (18)
         ffmpeg-swr-kaiser / ffmpeg-swr-bnuttall / ffmpeg-soxr   ``aresample`` with explicit filter_size,
                                cutoff (0.90-0.99), kaiser_beta, or resampler=soxr with precision/cheby (18)
         chain-*                upsample (sox -v / ffmpeg soxr / ffmpeg swr) then gain, a look-ahead gain-riding
                                limiter at -1 dBFS and TPDF dither to 24 bit (12)
-        expect: upsampled_from_hz = source rate.
+        expect: upsampled_from_hz = source rate; where a short or soft filter (not the chains) leaves
+                               images as strong as the imaging group's fact (>= -40 dB, below), also
+                               imaging_detected = True.
     upsampled-one-channel (10) stereo or 5.1, one non-LFE channel converted up from a lower rate, the others
                                native wideband; expect upsampled_channels = [that channel's label].
     native (14)                wideband mix at 16k..192k, mono/stereo/5.1; expect not upsampled, no imaging,
                                no aliasing.
     speech (4)                 speech-like material at 16/22.05/44.1/48 kHz, same expectations.
-    lowpass / ambiguous-lowpass (14)  the native mix through a mastering low-pass at 16-21 kHz (44.1-96 kHz
+    lowpass / ambiguous-lowpass (18)  the native mix through a mastering low-pass at 16-21 kHz (44.1-96 kHz
                                files): Butterworth orders 2-12, Chebyshev I, elliptic (scipy, causal), linear-
                                phase Kaiser FIR.  A filter is "ambiguous-lowpass" when it is steep (falls from
                                -3 dB to -40 dB within 12 % of its edge) and its -3 dB edge lies within 0.80-1.05
@@ -454,8 +457,15 @@ def tpdf_dither_24(y: np.ndarray, rng: np.random.Generator) -> np.ndarray:
 
 
 # ------------------------------------------------------------------------------------------ the plan
+# conversions met most in practice, drawn a second time on top of every (source, target) pair once
+COMMON_PAIRS = ((44100, 88200), (44100, 96000), (44100, 176400), (44100, 192000), (48000, 96000),
+                (48000, 192000), (44100, 48000), (48000, 88200), (88200, 176400), (96000, 192000),
+                (22050, 44100), (16000, 48000), (32000, 48000), (22050, 48000))
+
+
 def _pairs(rng: np.random.Generator) -> list[tuple[int, int]]:
-    pairs = [(s, d) for s in SOURCE_RATES_HZ for d in TARGET_RATES_HZ if d > s]
+    """All 34 (source, higher target) pairs plus COMMON_PAIRS, shuffled: 48, one per upsampled case."""
+    pairs = [(s, d) for s in SOURCE_RATES_HZ for d in TARGET_RATES_HZ if d > s] + list(COMMON_PAIRS)
     order = rng.permutation(len(pairs))
     return [pairs[i] for i in order]
 
@@ -520,7 +530,7 @@ def _plan(seed: int) -> list[dict]:
         add("speech", quick=(i == 0), rate=r, channels=1)
     # mastering low-passes
     lp_kinds = ["butter", "butter", "butter", "butter", "butter", "butter", "cheby1", "cheby1", "ellip",
-                "ellip", "fir", "fir", "butter", "ellip"]
+                "ellip", "fir", "fir", "butter", "ellip", "butter", "butter", "butter", "fir"]
     for i, kind in enumerate(lp_kinds):
         r = int(rng.choice([44100, 48000, 48000, 88200, 96000]))
         if kind == "butter":
@@ -646,6 +656,10 @@ def _one(p: dict, seed: int, quick: bool, facts: dict | None) -> Iterator[Case]:
         name = _name(f"{p['idx']:03d}", *name_parts)
         if facts is not None:
             facts[name] = dict(fact or {}, kind=k)
+            if expect.get("upsampled_from_hz") and "img_db" not in facts[name]:
+                facts[name]["img_db"] = image_ratio_db(audio, rate, expect["upsampled_from_hz"])
+            if "upsampled_channels" in expect:
+                facts[name]["img_db"] = image_ratio_db(audio[:, fact["channel"]], rate, fact["src"])
         return Case(name, SET_NAME, family, group, int(rate), audio, expect, list(CHANNEL_LABELS[audio.shape[1]]))
 
     if k in ("up-sox", "up-ffmpeg", "up-chain"):
@@ -672,8 +686,12 @@ def _one(p: dict, seed: int, quick: bool, facts: dict | None) -> Iterator[Case]:
             yield case([fam, _khz(s), "to", _khz(d), detail], fam, "upsampled", d, y, {"upsampled_from_hz": s},
                        dict(src=s))
             return
-        yield case([fam, _khz(s), "to", _khz(d), detail], fam, "upsampled", d, _to_level(y, rng),
-                   {"upsampled_from_hz": s}, dict(src=s))
+        expect = {"upsampled_from_hz": s}
+        img_db = image_ratio_db(y, d, s)
+        if img_db >= IMAGE_MIN_DB:      # a short or soft filter left images as strong as the imaging group's
+            expect["imaging_detected"] = True
+        yield case([fam, _khz(s), "to", _khz(d), detail], fam, "upsampled", d, _to_level(y, rng), expect,
+                   dict(src=s, img_db=img_db))
         return
 
     if k == "up-one":

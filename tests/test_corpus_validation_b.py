@@ -86,8 +86,28 @@ def test_imaging_positives_hold_images_above_the_old_nyquist(quick):
     cs, _ = quick
     img = [c for c in cs if c.expect.get("imaging_detected")]
     assert img
+    assert all(c.group == "imaging" or c.family.startswith(("sox-cli", "ffmpeg")) for c in img)
     for c in img:
         assert cvb.image_ratio_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) >= cvb.IMAGE_MIN_DB, c.name
+
+
+def test_tool_upsampled_positives_end_in_a_cliff_at_the_source_nyquist(quick):
+    # The label rests on the chain alone; this checks the tools really converted: little energy above
+    # 1.05x the source Nyquist (house threshold -50 dB re the band below it).
+    cs, _ = quick
+    up = [c for c in cs if c.group == "upsampled" and "imaging_detected" not in c.expect]
+    assert up
+    for c in up:
+        assert cvb.image_ratio_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) < -50.0, c.name
+    one = [c for c in cs if c.group == "upsampled-one-channel"]
+    assert one
+    for c in one:
+        (src,) = {f["src"] for n, f in quick[1].items() if n == c.name}
+        idx = c.channel_labels.index(c.expect["upsampled_channels"][0])
+        others = [i for i in range(c.audio.shape[1]) if i != idx and c.channel_labels[i] != "LFE"]
+        assert cvb.image_ratio_db(c.audio[:, idx], c.rate_hz, src) < -50.0
+        for i in others:   # the native channels carry content above the source Nyquist
+            assert cvb.image_ratio_db(c.audio[:, i], c.rate_hz, src) > -30.0
 
 
 def test_zero_stuffing_by_two_mirrors_the_band_exactly(quick):
