@@ -90,7 +90,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.ndimage import maximum_filter1d, minimum_filter1d, uniform_filter1d
+from masterqc.measure.npkernels import maximum_filter1d, minimum_filter1d, uniform_filter1d
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, TIME_RANGES, array_of
