@@ -98,7 +98,7 @@ def test_tool_upsampled_positives_end_in_a_cliff_at_the_source_nyquist(quick):
     up = [c for c in cs if c.group == "upsampled" and "imaging_detected" not in c.expect]
     assert up
     for c in up:
-        assert cvb.image_ratio_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) < -50.0, c.name
+        assert cvb.image_ratio_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) < -50.0, c.name  # house choice
     one = [c for c in cs if c.group == "upsampled-one-channel"]
     assert one
     for c in one:
@@ -106,7 +106,7 @@ def test_tool_upsampled_positives_end_in_a_cliff_at_the_source_nyquist(quick):
         idx = c.channel_labels.index(c.expect["upsampled_channels"][0])
         others = [i for i in range(c.audio.shape[1]) if i != idx and c.channel_labels[i] != "LFE"]
         assert cvb.image_ratio_db(c.audio[:, idx], c.rate_hz, src) < -50.0
-        for i in others:   # the native channels carry content above the source Nyquist
+        for i in others:   # the native channels carry content above the source Nyquist (house choice: -30 dB)
             assert cvb.image_ratio_db(c.audio[:, i], c.rate_hz, src) > -30.0
 
 
@@ -207,12 +207,13 @@ def test_mastering_lowpass_grouping():
 def test_limiter_and_dither_hold_their_ceiling_and_grid():
     rng = np.random.default_rng(1)
     y = rng.standard_normal((48000, 2)) * 0.6
-    ceiling = 10 ** (-1 / 20)
+    ceiling = 10 ** (-1 / 20)      # the chain's -1 dBFS limiter ceiling (house choice of the corpus)
     z = cvb.soft_limit(y, 48000, ceiling)
     assert np.max(np.abs(z)) <= ceiling + 1e-12
     d = cvb.tpdf_dither_24(z, rng)
     q = 2.0 ** -23
     assert np.allclose(d / q, np.round(d / q), atol=1e-6)
+    # analytic: TPDF dither spans +-1 LSB and rounding adds at most 1/2 LSB, so |d - z| <= 1.5 LSB
     assert np.max(np.abs(d - z)) <= 1.5 * q
 
 
