@@ -592,18 +592,39 @@ class TruePeakMeter:
             block = block[:, None]
         if block.shape[1] != self.channels:
             raise ValueError(f"block has {block.shape[1]} channels, meter expects {self.channels}")
-        n = block.shape[0]
-        if n == 0:
+        if block.shape[0] == 0:
             return
         if not self.float32_exact:
             np.maximum(self.sample_peak_linear, column_abs_max(block), out=self.sample_peak_linear)
+        self._take(block.T)
+
+    def process_planar(self, rows) -> None:
+        """Feed a (channels, frames) block, one row per channel (the engine's planar blocks):
+        the same values as :meth:`process` of its transpose, copied row by row into the
+        float32 buffer (contiguous reads instead of strided ones)."""
+        if self._flushed:
+            raise RuntimeError("TruePeakMeter.process after flush")
+        rows = np.asarray(rows)
+        if rows.ndim == 1:
+            rows = rows[None, :]
+        if rows.shape[0] != self.channels:
+            raise ValueError(f"block has {rows.shape[0]} channels, meter expects {self.channels}")
+        if rows.shape[1] == 0:
+            return
+        if not self.float32_exact:      # max |x| per row: exact, so the same values as column_abs_max
+            hi = np.maximum(rows.max(axis=1), -rows.min(axis=1)).astype(np.float64)
+            np.maximum(self.sample_peak_linear, hi, out=self.sample_peak_linear)
+        self._take(rows)
+
+    def _take(self, rows) -> None:
+        """Append ``rows`` (channels, frames), any memory layout, and evaluate every whole run."""
+        n = rows.shape[1]
         self._received += n
         need = self.RUN_FRAMES + self._pre + self._post_groups * self._G
         done = 0
         while done < n:
             take = min(n - done, self._cap - self._fill)
-            for c in range(self.channels):
-                self._buf[c, self._fill:self._fill + take] = block[done:done + take, c]
+            self._buf[:, self._fill:self._fill + take] = rows[:, done:done + take]   # to float32, rounded
             self._fill += take
             done += take
             with single_thread_blas():
