@@ -73,6 +73,7 @@ from __future__ import annotations
 
 import contextlib
 import math
+import threading
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -376,11 +377,21 @@ def filter_properties(flt: PolyphaseFilter) -> dict:
 # Streaming meter
 
 _BLAS = None
+#: how many single_thread_blas() contexts are open (any thread), and the limiter the first one made
+_BLAS_DEPTH = 0
+_BLAS_LIMITER = None
+_BLAS_LOCK = threading.Lock()
 
 
+@contextlib.contextmanager
 def single_thread_blas():
-    """Context manager limiting BLAS to one thread (no-op without threadpoolctl)."""
-    global _BLAS
+    """Context manager limiting BLAS to one thread (no-op without threadpoolctl).
+
+    The limit is process-wide: the outermost context (in any thread) sets it and
+    the last one to close restores it; contexts opened inside it cost nothing (the
+    engine holds one for a whole run, so the true-peak meter's own per-block ones
+    no longer re-inspect the loaded libraries each time)."""
+    global _BLAS, _BLAS_DEPTH, _BLAS_LIMITER
     if _BLAS is None:
         try:
             from threadpoolctl import ThreadpoolController
@@ -388,8 +399,20 @@ def single_thread_blas():
         except Exception:          # threadpoolctl missing or unable to inspect: leave BLAS as is
             _BLAS = False
     if _BLAS is False or not _BLAS.lib_controllers:
-        return contextlib.nullcontext()
-    return _BLAS.limit(limits=1)
+        yield
+        return
+    with _BLAS_LOCK:
+        if _BLAS_DEPTH == 0:
+            _BLAS_LIMITER = _BLAS.limit(limits=1)
+        _BLAS_DEPTH += 1
+    try:
+        yield
+    finally:
+        with _BLAS_LOCK:
+            _BLAS_DEPTH -= 1
+            if _BLAS_DEPTH == 0:
+                limiter, _BLAS_LIMITER = _BLAS_LIMITER, None
+                limiter.restore_original_limits()
 
 
 def local_bound_constants(flt: PolyphaseFilter, near: int = 4) -> tuple[float, float, float]:
@@ -825,7 +848,9 @@ class TruePeakMeter:
                     vc[idx] = np.maximum(vc[idx], v)
                     fc[idx] = np.maximum(fc[idx], v)
                 self.refined_frames += int(dense.size) * G
-                cand = cand[~np.isin(gid, dense)]
+                is_dense = np.zeros(ng, dtype=bool)
+                is_dense[dense] = True
+                cand = cand[~is_dense[gid]]
                 if m < ng * G:
                     vals[c, m:] = 0.0
                     fp[m:] = 0.0
