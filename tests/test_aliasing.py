@@ -592,6 +592,20 @@ def test_drop_pattern_period_is_fs_out_over_the_gcd(fs_in, fs_out, period):
     assert al.drop_pattern_period(fs_in, fs_out) in al.pattern_periods(fs_out)
 
 
+@pytest.mark.parametrize("fs", [8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400, 192000])
+def test_only_periods_a_rate_conversion_makes_are_tested(fs):
+    """analytic: a picking pattern from fs_in to fs repeats every fs/gcd(fs_in, fs) samples, so every period tested
+    divides the file's rate and is made by a conversion from one of the listed source rates; 12 samples at 8 kHz
+    (8000/12 is not a whole number) can never be one, whatever line the prediction error shows."""
+    periods = al.pattern_periods(fs)
+    made = {al.drop_pattern_period(r, fs) for r in al.PICK_SOURCE_RATES_HZ if r > fs and r % fs}
+    assert periods and set(periods) <= made
+    assert all(fs % p == 0 for p in periods)
+    assert 12 not in al.pattern_periods(8000)
+    assert 147 in al.pattern_periods(44100) and 147 in al.pattern_periods(88200)
+    assert al.pattern_periods(8000) == [10, 20, 40, 80, 160, 320]   # 8000/gcd: 88.2 kHz -> 40, 44.1 -> 80, ...
+
+
 def _pick_floor(x: np.ndarray, fs_in: int, fs_out: int) -> np.ndarray:
     n = np.arange(int((x.size - 1) * fs_out // fs_in), dtype=np.int64)
     return x[n * fs_in // fs_out]

@@ -446,3 +446,36 @@ def test_kept_spectra_and_streamed_sums_give_the_same_result(make, rng, monkeypa
     assert kept == streamed
     if make == "hold":
         assert kept["imaging_detected"] is True and _candidate(kept, 24000)["verdict"] == "defect"
+
+
+
+def _steady_a_notes(fs, seconds, rng):
+    """Steady (vibrato-free) harmonic notes on 110 and 220 Hz, partials up to 0.48 fs with 1/k
+    amplitudes, over a quiet pink bed (-30 dB re the notes' RMS)."""
+    t = np.arange(int(fs * seconds)) / fs
+    x = np.zeros(t.size)
+    for f0 in (110.0, 220.0):
+        for k in range(1, int(0.48 * fs / f0) + 1):
+            x += np.sin(2 * math.pi * k * f0 * t + rng.uniform(0, 2 * math.pi)) / k
+    x /= np.std(x)
+    return 0.1 * (x + pink(fs, seconds, rng, 0.03))
+
+
+def test_partials_summing_to_the_fold_frequency_are_not_images(rng):
+    """Steady notes on 110 Hz (and 220 Hz) converted from 32 to 44.1 kHz by libsamplerate's best sinc
+    converter.  The images of a 32 kHz source fold at 44.1 kHz to 12 100 Hz - f, and 12 100 = 110 x 110:
+    every pair of partials k*110 and (110 - k)*110 sums to that fold frequency and keeps its phase
+    relation over the file, exactly as a component and its image would (a periodic signal is
+    cyclostationary at every multiple of its fundamental).  The images a hold would leave above 16 kHz,
+    clear of the programme, are absent (the converter's stop band lies below the 24-bit floor), so the
+    file is not imaged; held, it is."""
+    samplerate = pytest.importorskip("samplerate")
+    x = _steady_a_notes(32000, 2.0, rng)
+    y = np.asarray(samplerate.resample(x, 44100 / 32000, "sinc_best"), dtype=float)
+    m = _run(quantise(y[:, None], 24, rng)[:, 0], 44100)
+    c = _candidate(m, 32000.0)
+    assert m["imaging_detected"] is False
+    assert c["verdict"] in ("none", "trace") and c["z_score"] >= im.Z_SIGNIFICANT   # coherent, yet not images
+    held = hold_upsample(x, 32000, 44100)
+    m2 = _run(quantise(held[:, None], 24, rng)[:, 0], 44100)
+    assert m2["imaging_detected"] is True and _candidate(m2, 32000.0)["verdict"] == "defect"

@@ -346,3 +346,20 @@ def test_view_source_has_no_key_guessing():
     for banned in ("_first(", "_parse_band", "_finding_for", "normalization", "ltas_freq_hz", "leading_silence_s",
                    "re.match(", "in check"):
         assert banned not in src, banned
+
+
+def test_tone_labels_close_in_frequency_get_rows_of_their_own():
+    """Three ultrasonic tones 1.3-1.8 kHz apart (an upper panel 28 kHz wide): their labels must not share
+    a line, or they print over each other (house choice: one row per label, lowest tone on top)."""
+    f_hz = np.linspace(0.0, 48000.0, 4801)
+    flat_db = [np.full_like(f_hz, -70.0), np.full_like(f_hz, -71.0)]
+    marks = [(25080.0, "tone 25.08 kHz"), (22000.0, "tone 22.00 kHz"), (23760.0, "tone 23.76 kHz")]
+    svg = plots.spectrum_plot(f_hz, flat_db, ["L", "R"], 96000, [], marks)
+    rows = {}
+    for m in re.finditer(r'<text [^>]*\by="([0-9.]+)"[^>]*>(tone [^<]*)</text>', svg):
+        rows[m.group(2)] = float(m.group(1))
+    assert sorted(rows) == sorted(text for _f, text in marks)
+    ys = [rows[text] for _f, text in sorted(marks)]
+    # SVG y grows downwards: the lowest tone's label is highest, each next one a full line lower
+    assert ys[0] < ys[1] < ys[2]
+    assert min(np.diff(ys)) > 6.5          # more than the 6.5 px font height apart

@@ -2,9 +2,12 @@
 imports, not a timing -- the timing lives in bench/bench_startup.py).
 
 ``masterqc measure`` on a short file should not pay for the report, batch, compare and
-plotting stacks, for pydantic (the result models), nor for scipy.signal (which imports most
-of SciPy, scipy.stats included): the measurement designs its filters itself
-(masterqc.measure.filterdesign) and runs short IIR work in masterqc.measure.iir.
+plotting stacks, for pydantic (the result models), nor for SciPy: scipy.signal imports most
+of SciPy (scipy.stats included), and scipy.fft, scipy.ndimage and scipy.special each pay
+SciPy's array-API layer.  The measurement designs its filters itself
+(masterqc.measure.filterdesign), runs IIR work in masterqc.measure.iir (SciPy's compiled
+cascade kernel, loaded on its own) and its FFT, running filters and I0 in
+masterqc.measure.npkernels.
 Each check runs in a fresh interpreter, because this test process has imported everything.
 """
 
@@ -27,7 +30,9 @@ NOT_AT_START = ("matplotlib", "weasyprint", "jinja2", "dask", "yaml", "pydantic"
 #: modules a whole ``masterqc measure`` run on a short file must not import
 NOT_IN_MEASURE = ("matplotlib", "weasyprint", "jinja2", "dask", "yaml", "pydantic",
                   "scipy.signal", "scipy.stats", "scipy.interpolate", "scipy.optimize", "scipy.spatial",
-                  "scipy.linalg", "masterqc.report.render", "masterqc.report.plots",
+                  "scipy.linalg", "scipy.fft", "scipy.ndimage", "scipy.special", "scipy._lib._array_api",
+                  "numpy.random",  # frames.frame_starts draws its jitter with masterqc.measure.npkernels
+                  "masterqc.report.render", "masterqc.report.plots",
                   "masterqc.batch.runner", "masterqc.compare.model", "masterqc.result_models",
                   "masterqc.spec.loader",
                   # the other commands' parsers: ``measure`` named first builds its own sub-parser only
@@ -77,6 +82,20 @@ def test_measure_run_leaves_unused_modules_out(tmp_path):
     loaded = _loaded_after(_measure_probe(wav, 48000))
     assert "masterqc.measure.loudness" in loaded and "masterqc.measure.iir" in loaded  # it did measure
     assert sorted(m for m in NOT_IN_MEASURE if m in loaded) == []
+
+
+def test_short_measure_loads_no_scipy_module_beyond_the_compiled_filter_kernel(tmp_path):
+    """The only SciPy code a short measurement runs is the compiled cascade kernel
+    (masterqc.measure.iir.compiled_kernel), which brings SciPy's package initialisation with it;
+    every other SciPy module it loaded is a failure (FFT, n-d filters, special functions)."""
+    kernel_only = {m for m in _loaded_after("import masterqc.measure.iir as iir\n"
+                                            "assert iir.compiled_kernel() is not None\n")
+                   if m == "scipy" or m.startswith("scipy.")}
+    assert "scipy.signal._sosfilt" in kernel_only and "scipy.fft" not in kernel_only
+    wav = _short_file(tmp_path / "short.wav", 48000, 2, 1.0)
+    loaded = _loaded_after(_measure_probe(wav, 48000))
+    assert "masterqc.measure.spectral" in loaded and "masterqc.measure.npkernels" in loaded  # it analysed
+    assert sorted(m for m in loaded if (m == "scipy" or m.startswith("scipy.")) and m not in kernel_only) == []
 
 
 def test_six_channel_short_measure_leaves_scipy_signal_out(tmp_path):

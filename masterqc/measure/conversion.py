@@ -26,7 +26,7 @@ import math
 from fractions import Fraction
 
 import numpy as np
-from scipy.ndimage import uniform_filter1d
+from masterqc.measure.npkernels import uniform_filter1d
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import amplitude_db

@@ -1,4 +1,4 @@
-"""Small, exact filter and window designs for the measurement path (numpy and ``scipy.special.i0`` only).
+"""Small, exact filter and window designs for the measurement path (numpy only).
 
 The measurement needs three textbook designs; importing :mod:`scipy.signal` for them
 costs more start-up time than a short file takes to measure, so they are written out
@@ -51,7 +51,7 @@ def blackman_harris(n: int) -> np.ndarray:
 
 def kaiser_window(n: int, beta: float) -> np.ndarray:
     """Symmetric Kaiser window of ``n`` points with shape parameter ``beta``."""
-    from scipy.special import i0   # already imported by scipy.fft, which the measurement uses
+    from masterqc.measure.npkernels import bessel_i0 as i0   # scipy.special.i0's bits, without SciPy
 
     n = int(n)
     if n < 0:

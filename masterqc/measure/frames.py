@@ -20,6 +20,7 @@ from functools import lru_cache
 import numpy as np
 
 from masterqc.measure import filterdesign
+from masterqc.measure.npkernels import default_rng_random
 
 
 #: long frames: 5 Hz bins (fs/5 samples)
@@ -75,7 +76,7 @@ def frame_starts(total_frames: int, frame_len: int, max_frames: int, min_hop: in
     count = int(min(max_frames, span // max(1, min_hop) + 1))
     if count <= 1:
         return np.zeros(1, dtype=np.int64)
-    u = np.random.default_rng(seed).random(count)
+    u = default_rng_random(seed, count)     # numpy.random.default_rng(seed).random(count)
     starts = np.floor((np.arange(count) + u) * (span + 1) / count).astype(np.int64)
     return np.clip(starts, 0, span)
 
@@ -224,7 +225,7 @@ def blackman_harris(n: int) -> np.ndarray:
 
 def local_floor(power: np.ndarray, halfwidth: int = 25) -> np.ndarray:
     """Local floor of a power spectrum: running median over ``2*halfwidth+1`` bins."""
-    from scipy.ndimage import median_filter
+    from masterqc.measure.npkernels import median_filter
     return median_filter(power, size=2 * halfwidth + 1, mode="nearest")
 
 

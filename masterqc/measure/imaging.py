@@ -58,7 +58,12 @@ For each candidate source rate below the file's rate the analyzer reports
 * ``verdict``: "defect" (significant coherence, at the rate itself as well as its
   multiples, with an image at or above :data:`DEFECT_IMAGE_LEVEL_DB`), "trace"
   (significant coherence with a deeper image: a resampler's trace), "none", or
-  "untestable" (with a reason);
+  "untestable" (with a reason).  A defect also needs the images an unfiltered upsampler leaves
+  above the candidate's Nyquist frequency, clear of the programme (:data:`CLEAR_SUBBANDS`): where
+  they are bounded below the defect level, the coherence comes from programme components below
+  the Nyquist frequency that pair up by themselves (steady partials of one note whose frequencies
+  sum to the cycle frequency), and the verdict is "trace" (the clear images are significant) or
+  "none";
 * ``evidence``: "spectrum"; or "samples" when the run's interpolation analyzer
   (:mod:`masterqc.measure.interpolation`) found the exact sample pattern of a hold,
   linear or zero-stuffing upsampler from this rate, which makes the candidate a
@@ -169,6 +174,20 @@ CONTROL_Z_RELATIVE = 0.5
 #: at a high rate) every pair is accumulated while streaming.  Both give the same numbers (house
 #: choice: 32 MiB holds 100 frames of 8 channels at 96 kHz, 25 MB)
 SPECTRA_STORE_MAX_BYTES = 32 * 1024 * 1024
+#: sub-bands of the candidate's band (fractions of its Nyquist frequency) in which the images that an
+#: unfiltered upsampler must leave are looked for where they stand clear of the programme: above the
+#: candidate's Nyquist frequency (after folding at the file's).  Own reasoning from the responses
+#: (:func:`image_response_ratio`): hold, linear and zero-stuffing upsamplers leave the first images of
+#: content anywhere above 0.3 of the source Nyquist frequency within 30 dB of it, so a sub-band with
+#: content whose clear images are bounded below :data:`DEFECT_IMAGE_LEVEL_DB` rules such an upsampler
+#: out, whatever pairs of programme components elsewhere are coherent (steady notes whose partials
+#: sum to the cycle frequency, as those on 110 Hz do to the 12.1 kHz fold of a 32 kHz source's images
+#: in a 44.1 kHz file).  Four sub-bands, so a resampler's transition band at the top cannot hide the
+#: absence below it
+CLEAR_SUBBANDS = ((0.3, 0.5), (0.5, 0.7), (0.7, 0.85), (0.85, 1.0))
+#: a sub-band rules out only with at least this many clear pairs (own reasoning: the bound needs a
+#: few hundred hertz of content)
+CLEAR_MIN_PAIRS = 8
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
 FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
@@ -253,7 +272,7 @@ def spectral_lines(power: np.ndarray, prominence_db: float = LINE_PROMINENCE_DB,
     p = np.asarray(power, dtype=float)
     if p.size < 5:
         return np.zeros(0, dtype=np.int64)
-    from scipy.ndimage import median_filter
+    from masterqc.measure.npkernels import median_filter
     floor = median_filter(p, size=2 * halfwidth + 1, mode="nearest")
     tiny = max(float(p.max()) * 1e-30, 1e-300)
     ratio = p / np.maximum(floor, tiny)
@@ -357,7 +376,10 @@ def _pair_plan(fs: int, n_fft: int, rates: tuple, offsets: tuple):
             # the baseband member's frequency as a fraction of the candidate's Nyquist frequency
             frac = np.minimum(ka, n_fft - ka) * bin_hz / (r / 2.0)
             first = al == int(round((r + off * bin_hz) / bin_hz)) % n_fft
-            cycle = {"offset": off, "ka": ka, "kb": kb, "alpha": al, "frac": frac, "first": first,
+            # the image member lies above the candidate's Nyquist frequency, clear of its main lobe:
+            # where a file converted up from r holds nothing but images
+            clear = np.minimum(kb, n_fft - kb) * bin_hz > r / 2.0 + 2 * bin_hz
+            cycle = {"offset": off, "ka": ka, "kb": kb, "alpha": al, "frac": frac, "first": first, "clear": clear,
                      "slice": slice(pos, pos + ka.size)}
             for v in cycle.values():
                 if isinstance(v, np.ndarray):
@@ -633,9 +655,11 @@ class ImagingAnalyzer(Analyzer):
         overlap = max(1.0, self.null_bias * self.frames)
         bias = np.clip(overlap * q_all / np.maximum(p1 * p2, 1e-300), self.null_bias, 0.999)
         frac = c["frac"]
+        clear = c["clear"]
         if not keep.all():
-            g2, w, p1, p2, cross, bias, frac, first, lower = (g2[keep], w[keep], p1[keep], p2[keep], cross[keep],
-                                                              bias[keep], frac[keep], first[keep], lower[keep])
+            g2, w, p1, p2, cross, bias, frac, first, lower, clear = (
+                g2[keep], w[keep], p1[keep], p2[keep], cross[keep], bias[keep], frac[keep], first[keep], lower[keep],
+                clear[keep])
             if g2.size == 0:
                 return None
         wsum = float(w.sum())
@@ -720,8 +744,30 @@ class ImagingAnalyzer(Analyzer):
         inner = rejection(INNER_BAND) if use_inner else None
         if inner is None:
             inner = rejection((0.0, INNER_BAND[1]))
+        # the clear images (first order, image member above the candidate's Nyquist frequency): their
+        # significance, and per sub-band with content an upper bound (Z_LEVEL standard deviations) of
+        # their power relative to the content they mirror (p1: the baseband member)
+        cl = lower & clear
+        wc = w[cl]
+        sd_c = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[cl] * wc * wc)))
+        z_clear = float(np.sum((g2[cl] - bias[cl]) * wc)) / sd_c if sd_c > 0 else 0.0
+        clear_bound = None
+        for lo_f, hi_f in CLEAR_SUBBANDS:
+            sub = cl & (frac >= lo_f) & (frac <= hi_f)
+            if int(sub.sum()) < CLEAR_MIN_PAIRS:
+                continue
+            src = p1[sub]
+            if not float(src.mean()) >= mean_bin_power * 10 ** (CONTENT_FLOOR_DB / 10):
+                continue
+            ws = w[sub]
+            num = max(0.0, float(np.sum((g2[sub] - bias[sub]) * ws)))
+            sd_s = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[sub] * ws * ws)))
+            ub = (num + Z_LEVEL * sd_s) / float(src.sum())
+            if clear_bound is None or ub < clear_bound:
+                clear_bound = ub
         return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "t_a": t_a, "z_a": z_a,
-                "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig, "inner": inner, "z_first": z_first}
+                "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig, "inner": inner, "z_first": z_first,
+                "z_clear": z_clear, "clear_bound": clear_bound}
 
     def _assess(self, cand, ch: int, f0):
         m = self.frames
@@ -800,6 +846,23 @@ class ImagingAnalyzer(Analyzer):
         # to that content (the images of the top of the band may be a resampler's transition band)
         level = None if main["inner"] is None else power_ratio_db(main["inner"])
         base["image_level_db"] = None if level is None else round(level, 2)
+        bound = None if main["clear_bound"] is None else power_ratio_db(main["clear_bound"])
+        if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and bound is not None \
+                and bound < DEFECT_IMAGE_LEVEL_DB:
+            # an unfiltered upsampler would leave images above the candidate's Nyquist frequency, clear
+            # of the programme; they are not there, so the coherence comes from programme components
+            # below it that pair up by themselves
+            base["image_level_db"] = None
+            if main["z_clear"] >= Z_SIGNIFICANT:
+                base["verdict"] = "trace"
+                base["reason"] = (f"coherent images above {rate / 2000:.2f} kHz, but at most {bound:.0f} dB "
+                                  "relative to the content they mirror: a resampler's trace")
+            else:
+                base["verdict"] = "none"
+                base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z:.1f}) only between programme components "
+                                  f"below {rate / 2000:.2f} kHz; no mirror image above it, to {bound:.0f} dB "
+                                  "relative to the content: not an upsampler's images")
+            return base
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
             base["verdict"] = "defect"
             base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} at {level:.1f} dB relative to "

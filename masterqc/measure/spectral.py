@@ -52,7 +52,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.fft
+from masterqc.measure.npkernels import rfft_rows
 
 from masterqc.measure.base import Analyzer, AnalyzerResult
 
@@ -218,7 +218,7 @@ class SpectralFrontEnd:
             # in one pass into a new contiguous float32 array of shape (frames, channels, N)
             frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
             np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
-            spec = scipy.fft.rfft(frames, axis=-1, overwrite_x=True)
+            spec = rfft_rows(frames)
             power = np.square(spec.real)
             power += np.square(spec.imag)
             power *= self._scale

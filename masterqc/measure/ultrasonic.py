@@ -37,7 +37,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.ndimage import median_filter
+from masterqc.measure.npkernels import median_filter
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.levels import power_ratio_db

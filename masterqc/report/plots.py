@@ -326,6 +326,10 @@ UPPER_PANEL_MIN_NYQUIST_HZ = 24000.0
 UPPER_PANEL_FROM_HZ = 10000.0
 
 
+#: vertical step between the rows of tone labels in the upper-band panel (axes fraction)
+MARK_ROW_STEP = 0.13
+
+
 def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(), marks=()) -> str:
     """Long-term spectrum per channel on a log frequency axis.
 
@@ -383,13 +387,22 @@ def spectrum_plot(freqs_hz, per_channel_db, labels, sample_rate_hz: int, lines=(
             ax2.set_ylabel(SPECTRUM_LEVEL_LABEL)
             ax2.xaxis.set_major_formatter(FuncFormatter(_hz_tick))
             ax2.axvspan(20000.0, nyq, color=GREY, alpha=0.08, lw=0)
-            for freq, text in marks:
+            # labels in rows of their own near the top of the panel, lowest tone first, each with an
+            # arrow down to its tone: tones a few kHz apart would otherwise print over each other
+            x_lo, x_hi = ax2.get_xlim()
+            for row, (freq, text) in enumerate(sorted(marks)):
                 levels = [float(np.interp(freq, f[keep], c[keep])) for c in curves if np.isfinite(c[keep]).all()]
                 if not levels or not values:
                     continue
                 y0 = max(levels)
-                ax2.annotate(text, xy=(freq, y0), xytext=(10, 6), textcoords="offset points", ha="left",
-                             va="bottom", fontsize=6.5, color=VERMILION,
+                x_frac = (freq - x_lo) / (x_hi - x_lo)
+                right = x_frac > 0.55
+                ax2.annotate(text, xy=(freq, y0), xycoords="data",
+                             xytext=(x_frac + (-0.02 if right else 0.02), 0.93 - MARK_ROW_STEP * row),
+                             textcoords="axes fraction", ha="right" if right else "left",
+                             va="top", fontsize=6.5, color=VERMILION,
+                             bbox={"boxstyle": "square,pad=0.1", "facecolor": "white", "edgecolor": "none",
+                                   "alpha": 0.85},
                              arrowprops={"arrowstyle": "-|>", "color": VERMILION, "lw": 0.8,
                                          "shrinkA": 0, "shrinkB": 1})
         return _to_svg(fig, "spectrum", "Long-term spectrum per channel")
