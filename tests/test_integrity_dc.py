@@ -128,7 +128,7 @@ def test_decimator_equals_direct_fir(blocks):
     x = rng.uniform(-1.0, 1.0, (3 * FS + 17, 2))
     dec = Decimator(FS, 2)
     d = dec.factor
-    assert d == 48                                               # 48 kHz to 1 kHz
+    assert d == 48                              # analytic: 48000 // LOW_RATE_HZ (1000 Hz)
     got, i, k = [], 0, 0
     while i < x.shape[0]:
         n = blocks[k % len(blocks)]
