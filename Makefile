@@ -18,8 +18,9 @@ $(PY):
 	$(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install --quiet --upgrade pip
 
-# masterqc and what it needs to run (the demo): no test or cluster extras
-$(BASE_STAMP): pyproject.toml | $(PY)
+# masterqc and what it needs to run (the demo): no test or cluster extras; installed again when
+# the optional compiled kernel (setup.py, masterqc/measure/_cascade.c) changes
+$(BASE_STAMP): pyproject.toml setup.py masterqc/measure/_cascade.c | $(PY)
 	$(PY) -m pip install --quiet -e .
 	touch $@
 

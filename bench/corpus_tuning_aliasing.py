@@ -509,6 +509,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         g = math.gcd(fs_in, fs)
         yield _case(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs,
                     sps.resample_poly(x, fs // g, fs_in // g)[:y.size], {"aliasing_detected": False}, rms_dbfs=level)
+    # added: picking and 2:1 dropping on masters of varied channel count, length and level
+    yield from varied_pick_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -594,3 +596,97 @@ def dense_drop_cases(seed: int, seconds: float, quick: bool = False) -> Iterator
         x = x / np.sqrt(np.mean(x ** 2)) + 10 ** (-sub.uniform(40, 60) / 20) * pink(n, sub)
         yield _case(f"native-steady-{int(step_hz)}-{fs // 100}-{seed}", "native-steady", "native", fs, x,
                     {"aliasing_detected": False}, rms_dbfs=sub.uniform(-30, -10))
+
+
+# ---------------------------------------------------------------- picking and 2:1 dropping on varied masters
+#: sample picking (48 -> 44.1 and 96 -> 88.2 kHz) and unfiltered 2:1 decimation of tonal material on masters that
+#: vary what the earlier blocks keep fixed: channel count (mono, stereo, 5.1 with a low-passed LFE and quiet
+#: surrounds), length (3 to 10 s), level, and the picking rule: ``floor`` (truncation: the input sample at or
+#: before the output instant), ``round`` (the nearest sample), ``lengths`` (the nearest sample on a grid whose
+#: step is taken from the two lengths, (N_in - 1)/(N_out - 1), as a quick script would), ``drop2`` (every 2nd
+#: sample kept).  Each with its band-limited twin (resample_poly, False); then native masters of the same kinds
+#: (False).  Entries: (fs_in, fs_out, rule, material, channels, seconds).
+VARIED_PICKS = ((48000, 44100, "floor", "tonal", 2, 10.0), (48000, 44100, "round", "mix", 2, 5.0),
+                (48000, 44100, "floor", "speech", 1, 3.0), (48000, 44100, "round", "tonal", 6, 10.0),
+                (48000, 44100, "lengths", "mix", 2, 10.0), (48000, 44100, "floor", "synth", 2, 4.0),
+                (96000, 88200, "floor", "tonal", 2, 10.0), (96000, 88200, "round", "synth", 2, 5.0),
+                (96000, 88200, "round", "mix", 6, 8.0), (96000, 88200, "lengths", "tonal", 1, 10.0),
+                (96000, 88200, "floor", "speech", 2, 3.0), (96000, 88200, "floor", "mix", 2, 10.0),
+                (88200, 44100, "drop2", "tonal", 2, 10.0), (96000, 48000, "drop2", "tonal", 6, 6.0),
+                (96000, 48000, "drop2", "tonal", 1, 3.0), (88200, 44100, "drop2", "tonal", 2, 5.0))
+VARIED_NATIVE = ((44100, "mix", 2, 5.0), (88200, "tonal", 6, 8.0), (44100, "speech", 1, 3.0), (48000, "tonal", 2, 10.0),
+                 (88200, "mix", 2, 10.0), (48000, "synth", 6, 6.0))
+
+
+def pick_frames(x: np.ndarray, fs_in: int, fs_out: int, rule: str) -> np.ndarray:
+    """Rate change of a ``(frames, channels)`` array with no filter (see :data:`VARIED_PICKS` for the rules)."""
+    n_in = x.shape[0]
+    if rule == "drop2":
+        return x[::2]
+    n_out = int((n_in - 2) * fs_out // fs_in)
+    num = np.arange(n_out, dtype=np.int64) * fs_in
+    if rule == "floor":
+        idx = num // fs_out
+    elif rule == "round":
+        idx = (2 * num + fs_out) // (2 * fs_out)
+    elif rule == "lengths":
+        idx = np.round(np.arange(n_out) * ((n_in - 1) / (n_out - 1))).astype(np.int64)
+    else:
+        raise ValueError(rule)
+    return x[np.minimum(idx, n_in - 1)]
+
+
+def _lowpass(x: np.ndarray, fs: int, hz: float) -> np.ndarray:
+    return sps.sosfiltfilt(sps.butter(4, hz, fs=fs, output="sos"), x)
+
+
+def master_channels(kind: str, channels: int, seconds: float, fs: int, rng) -> np.ndarray:
+    """A ``(frames, channels)`` master: mono is one material; stereo pans two materials of ``kind`` across L and
+    R; 5.1 adds a centre (speech-like or the same kind), an LFE low-passed at 120 Hz, and surrounds holding a
+    quiet delayed copy of the front and a pink noise bed."""
+    a = _dense_material(kind, seconds, fs, rng)
+    if channels == 1:
+        return a[:, None]
+    b = _dense_material(kind, seconds, fs, rng)
+    n = min(a.size, b.size)
+    a, b = a[:n], b[:n]
+    left, right = a + 0.4 * b, 0.4 * a + b
+    if channels == 2:
+        return np.stack([left, right], axis=1)
+    c = _dense_material("speech" if rng.random() < 0.5 else kind, seconds, fs, rng)[:n]
+    lfe = _lowpass(a + b, fs, 120.0)
+    d = int(rng.uniform(0.015, 0.04) * fs)
+    ls = 0.15 * np.concatenate([np.zeros(d), left[:n - d]]) + 0.03 * pink(n, rng)
+    rs = 0.15 * np.concatenate([np.zeros(d), right[:n - d]]) + 0.03 * pink(n, rng)
+    return np.stack([left, right, c, lfe, ls, rs], axis=1)
+
+
+def _case_frames(name, family, group, fs, x, expect, rms_dbfs):
+    x = set_rms(np.asarray(x, dtype=float), rms_dbfs)
+    labels = {1: None, 2: ["L", "R"], 6: ["L", "R", "C", "LFE", "Ls", "Rs"]}[x.shape[1]]
+    return Case(name=name, set=SET, family=family, group=group, rate_hz=int(fs), audio=np.clip(x, -1.0, 1.0),
+                expect=expect, channel_labels=labels)
+
+
+def varied_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The cases of :data:`VARIED_PICKS` and :data:`VARIED_NATIVE` (own random streams)."""
+    if quick:
+        return
+    for j, (fs_in, fs, rule, kind, ch, seconds) in enumerate(VARIED_PICKS):
+        sub = np.random.default_rng([seed, 22000 + j])
+        x = master_channels(kind, ch, seconds, fs_in, sub)
+        level = sub.uniform(-30, -8)
+        y = pick_frames(x, fs_in, fs, rule)
+        fam = "drop-2" if rule == "drop2" else f"pick-{rule}"
+        stem = f"varied-{fam}-{kind}-{ch}ch-{fs_in // 100}-{fs // 100}-{seed}-{j}"
+        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
+        g = math.gcd(fs_in, fs)
+        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
+        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
+                           {"aliasing_detected": False}, level)
+    for j, (fs, kind, ch, seconds) in enumerate(VARIED_NATIVE):
+        sub = np.random.default_rng([seed, 23000 + j])
+        x = master_channels(kind, ch, seconds, fs, sub)
+        group = "speech" if kind == "speech" else "native"
+        yield _case_frames(f"varied-native-{kind}-{ch}ch-{fs // 100}-{seed}-{j}", f"native-{kind}", group, fs, x,
+                           {"aliasing_detected": False}, sub.uniform(-30, -8))

@@ -655,6 +655,38 @@ def test_drop_pattern_is_found_at_its_period_and_not_in_the_band_limited_twin(rn
     assert ag_twin < al.GRID_PATTERN_MIN_AGREEMENT
 
 
+def test_a_short_picked_file_is_found_by_its_drop_pattern_and_its_twin_is_not(rng):
+    """A 3 s file (shorter than the irregular-grid line test's span) picked from 48 to 44.1 kHz: the drop-pattern
+    test alone runs, on frames that do not overlap, and finds the period 147 (analytic, above); the same material
+    through scipy's resample_poly is not called folded.  Thresholds: GRID_PATTERN_MIN_AGREEMENT (house choice)."""
+    x = _tone_mix(48000, 3.2, rng)
+    picked = _run(_pick_floor(x, 48000, 44100)[:3 * 44100], 44100)
+    d = picked["aliasing_detail"]
+    assert 3.0 * 44100 / al.GRID_FRAME > al.GRID_MIN_FRAMES and 3.0 < al.GRID_MIN_SPAN_S
+    assert d["grid_pattern_period_samples"] == 147 and d["grid_pattern_agreement"] >= 0.6
+    assert picked["aliasing_detected"] is True
+    from scipy.signal import resample_poly
+    twin = _run(resample_poly(x, 147, 160)[:3 * 44100], 44100)
+    assert twin["aliasing_detail"]["grid_pattern_agreement"] < al.GRID_PATTERN_MIN_AGREEMENT
+    assert twin["aliasing_detected"] is not True
+
+
+def test_a_channel_holding_only_low_frequencies_is_left_out_of_the_grid_tests(rng):
+    """by construction: white noise is unpredictable (prediction gain about 0 dB, analytic) and is kept; noise
+    low-passed at 120 Hz in a 88.2 kHz frame (an LFE) is predicted to far beyond GRID_MAX_PREDICTION_GAIN_DB and
+    is left out, alone or beside a kept channel (the error magnitude of a two-channel frame is then the kept
+    channel's alone)."""
+    from scipy.signal import butter, sosfiltfilt
+    n = al.GRID_FRAME
+    noise = rng.standard_normal(4 * n)
+    lfe = sosfiltfilt(butter(4, 120.0, fs=88200, output="sos"), noise)[n:2 * n]
+    white_frame = rng.standard_normal(n)
+    assert al.grid_error_magnitude(lfe.reshape(-1, 1)) is None
+    e_white, _p = al.grid_error_magnitude(white_frame.reshape(-1, 1))
+    e_both, _p2 = al.grid_error_magnitude(np.stack([white_frame, lfe], axis=1))
+    assert np.allclose(e_both, e_white)
+
+
 def test_a_steady_chord_periodic_at_the_pattern_is_no_evidence(rng):
     """A chord on multiples of 300 Hz at 44.1 kHz repeats every 147 samples (analytic: 147 * 300/44100 = 1), so its
     prediction error does too: the signal's own profiles agree, and the period is not taken as a drop pattern;
@@ -706,3 +738,33 @@ def test_first_pass_settles_clean_material_and_keeps_the_verdict(rng, monkeypatc
     monkeypatch.setattr(al, "FIRST_PASS_STRIDE", 1)
     assert run(noise) == (None, False)
     assert run(tones) == (tones_verdict, False)
+
+
+def test_first_pass_settles_noise_with_a_rare_untestable_note(rng, monkeypatch):
+    """A noise bed with one short note (eight harmonics of 110 Hz falling as 1/k^2: nothing near Nyquist to
+    fold) placed on a frame of the first pass: notes show in one first-pass frame of 22, none testable, so the
+    first pass settles it (SETTLED_NOTE_FRAME_SHARE, house choice) with the verdict of reading every frame, not
+    assessable (by construction of the settling rule)."""
+    from corpus_sampling import ArrayStream
+    from masterqc.measure.engine import run_analyzers
+    fs, seconds = 48000, 8.0
+    n_poly = int(round(fs / al.POLY_BIN_HZ))
+    first = al.frame_starts(int(seconds * fs), n_poly, al.MAX_POLY_FRAMES, n_poly // 2, seed=4)[::al.FIRST_PASS_STRIDE]
+    x = white(fs, seconds, rng, 0.01)
+    at = int(first[len(first) // 2])
+    t = np.arange(n_poly * 3) / fs
+    note = sum(np.sin(2 * math.pi * 110.0 * k * t) / k ** 2 for k in range(1, 9)) * 0.3
+    x = np.array(x, dtype=float)
+    x[at - n_poly:at + 2 * n_poly] += note
+
+    def run(sig):
+        m, _series, settings = run_analyzers(ArrayStream(np.asarray(sig).reshape(-1, 1), fs, 24), MeasureOptions(),
+                                             classes=[AliasingAnalyzer])
+        return m["aliasing_detected"], settings["aliasing"]["first_pass_settled_clean"], m["aliasing_detail"]
+
+    verdict, settled, detail = run(x)
+    assert (verdict, settled) == (None, True)
+    assert detail["reason"].startswith("not assessable: no note with fold positions")
+    monkeypatch.setattr(al, "FIRST_PASS_STRIDE", 1)
+    assert run(x)[:2] == (None, False)
+

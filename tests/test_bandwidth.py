@@ -696,6 +696,61 @@ def test_converter_into_48k_is_still_found_next_to_butterworths(converter):
     assert r.upsampled_from_hz == 44100, r.note
 
 
+def _early_lowpass(kind, fs):
+    if kind == "bessel7-17.6k":
+        return "sos", sps.bessel(7, 17600.0, fs=fs, output="sos", norm="mag")
+    return "fir", sps.firwin(63, 18800.0, window="hann", fs=fs)
+
+
+@pytest.mark.parametrize("kind,fs", [("bessel7-17.6k", 48000), ("fir63-hann-18.8k", 96000)])
+def test_early_cliff_with_the_programme_above_it_is_a_lowpass(kind, fs):
+    # Two mastering low-passes whose cliff reads as an early converter edge for a 44.1 kHz source (-6 dB point at
+    # 0.85-0.89 of 22.05 kHz, stop band begun by the old Nyquist): above 22.05 kHz they leave the programme itself,
+    # a fixed 70-80 dB down in every frame, where a converter whose pass band ends that early leaves only its floor.
+    how, filt = _early_lowpass(kind, fs)
+    rng = np.random.default_rng([47, fs])
+    x = 0.1 * rng.standard_normal((int(fs * 1.5), 2))
+    y = quantise24(sps.sosfilt(filt, x, axis=0) if how == "sos" else sps.lfilter(filt, 1.0, x, axis=0), rng)
+    fe = SpectralFrontEnd(fs, 2, y.shape[0])
+    fe.process(y)
+    res = fe.finish()
+    info = info_for(fs, 2, y.shape[0], 24, False, None)
+    # without the frame-by-frame reading the whole file's cliff names 44.1 kHz
+    whole = bw.assess_power(res.ltas_total, res.bin_hz, fs, res.frame_length, info, frames=res.frames)
+    assert whole.upsampled_from_hz == 44100 and whole.edge_ratio < bw.EARLY_EDGE_RATIO
+    r = bw.assess(res, info)
+    assert r.upsampled_from_hz is None and r.band_limit_hz is not None, r.note
+    assert r.channels == [] and "goes on in every frame" in r.note
+    # the depth read frame by frame against the filter's own response (scipy): for stationary Gaussian noise the
+    # two-channel mean of a bin's power is gamma distributed with shape 2 (analytic), whose 90th percentile lies
+    # 2.89 dB above and whose median 0.76 dB below the mean, so the loud frames' pass level less the median
+    # frame's level above the old Nyquist is the filter's attenuation there plus 3.65 dB (1 dB histogram steps)
+    band = np.arange(0.0, fs / 2.0, 10.0)
+    _w, h = sps.sosfreqz(filt, worN=band, fs=fs) if how == "sos" else sps.freqz(filt, worN=band, fs=fs)
+    a_db = -20.0 * np.log10(np.maximum(np.abs(h), 1e-15))
+    k = lambda f_hz: int(round(f_hz / 10.0))  # noqa: E731
+    top = k(0.97 * fs / 2.0)
+    a0, a1 = k(1.06 * 22050.0), min(top, k(1.3 * 22050.0))
+    if a1 - a0 < 20:
+        a0, a1 = k(1.03 * 22050.0), top
+    want = float(np.median(a_db[a0:a1]) - np.median(a_db[k(0.6 * 22050.0):k(0.8 * 22050.0)])) + 3.65
+    depth, above = bw.stop_band_content(res, bw.format_floor_db(24, False, res.frame_length), 44100)
+    assert depth == pytest.approx(want, abs=1.5)
+    assert depth < bw.EARLY_MIN_DEPTH_DB and above > bw.STOP_CONTENT_MAX_ABOVE_FLOOR_DB
+
+
+def test_cheap_converter_with_an_early_edge_is_still_found():
+    # the other side: libsamplerate's fastest converter ends its pass band early too (-6 dB at about 0.83 of the
+    # old Nyquist), but leaves nothing above the old Nyquist but its own floor, far below the programme
+    samplerate = pytest.importorskip("samplerate")
+    rng = np.random.default_rng(53)
+    x = 0.1 * rng.standard_normal((int(44100 * 1.5), 2))
+    y = np.stack([np.asarray(samplerate.resample(x[:, c], 96000 / 44100, "sinc_fastest"), dtype=float)
+                  for c in range(2)], axis=1)
+    r = assess(quantise24(y, rng), 96000)
+    assert r.upsampled_from_hz == 44100 and r.edge_ratio < bw.EARLY_EDGE_RATIO, r.note
+
+
 def test_a_burst_centred_on_a_nyquist_is_not_a_mirror():
     # A short burst at fs/4 (12 kHz in a 48 kHz file, as in the demo's inter-sample-over master) has a spectrum
     # symmetric about its own frequency (analytic: a real, even envelope times a cosine), so next to 12 kHz its

@@ -19,9 +19,11 @@ from integrity_support import info_for
 from masterqc.audio.reader import open_stream
 from masterqc.measure.base import Analyzer, AnalyzerResult
 from masterqc.measure.channels import ChannelRelationAnalyzer
+from masterqc.measure.dcoffset import DcOffsetAnalyzer
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.loudness import LoudnessAnalyzer
 from masterqc.measure.options import MeasureOptions
+from masterqc.measure.peaks import TruePeakAnalyzer
 from masterqc.measure.silence import SilenceAnalyzer
 
 FS = 48000
@@ -152,3 +154,23 @@ def test_silence_planar_equals_interleaved(channels, block):
     measurements = json.loads(planar)[0]
     assert measurements["dropout_count"] >= 1                          # the dropouts were found
     assert measurements["head_digital_silence_s"] > 0.0
+
+
+@pytest.mark.parametrize("channels", [1, 2, 6])
+@pytest.mark.parametrize("block", [65536, 4097, 47])
+def test_dc_offset_planar_equals_interleaved(channels, block):
+    """Means, sums of squares and the decimated sub-sonic path, across block boundaries
+    (47 frames: shorter than one decimator row of 48 frames at 48 kHz)."""
+    x = _programme(4.0, channels, 30 + channels) + 0.003
+    interleaved, planar = _both_ways(DcOffsetAnalyzer, x, LAYOUTS[channels], block)
+    assert planar == interleaved
+    assert json.loads(planar)[0]["subsonic_energy_db"] is not None
+
+
+@pytest.mark.parametrize("channels", [1, 2])
+@pytest.mark.parametrize("block", [65536, 4097])
+def test_true_peak_planar_equals_interleaved(channels, block):
+    x = _programme(4.0, channels, 40 + channels)
+    interleaved, planar = _both_ways(TruePeakAnalyzer, x, LAYOUTS[channels], block)
+    assert planar == interleaved
+    assert json.loads(planar)[0]["true_peak_dbtp"] is not None

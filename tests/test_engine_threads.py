@@ -234,3 +234,26 @@ def test_opt_in_cpu_split_changes_no_result(tmp_path, monkeypatch, threads):
     assert parts["hash_s"] > 0.0 and parts["read_s"] > 0.0
     assert parts["analyze_s"] >= sum(p for p, _f in data["analyzers"].values()) - 0.05
     assert sum(parts.values()) + sum(f for _p, f in data["analyzers"].values()) <= data["process_cpu_s"] + 0.05
+
+
+def test_single_thread_blas_nests_and_restores():
+    """The outermost context limits BLAS to one thread, inner ones (the true-peak meter's,
+    inside the engine's) leave it so, and the limit is lifted only when the last one closes."""
+    threadpoolctl = pytest.importorskip("threadpoolctl")
+    from masterqc.measure import oversample
+    ctl = threadpoolctl.ThreadpoolController().select(user_api="blas")
+    if not ctl.lib_controllers:
+        pytest.skip("no BLAS library that threadpoolctl can see")
+
+    def threads():
+        return [c.num_threads for c in threadpoolctl.ThreadpoolController().select(user_api="blas").lib_controllers]
+
+    before = threads()
+    with oversample.single_thread_blas():
+        assert set(threads()) == {1}
+        with oversample.single_thread_blas():
+            assert set(threads()) == {1}
+        assert set(threads()) == {1}                 # the inner one closing keeps the limit
+        assert oversample._BLAS_DEPTH == 1
+    assert oversample._BLAS_DEPTH == 0
+    assert threads() == before

@@ -1,9 +1,10 @@
 """masterqc.measure.iir.sosfilt against scipy.signal.sosfilt (the reference library).
 
-iir.sosfilt calls scipy's own compiled cascade kernel (loaded from its extension module
-without importing scipy.signal) with the copies and axis order scipy.signal.sosfilt makes,
-so every output must be the same bits in the same memory order (by construction), fed in
-blocks of any size, for any channel count, along either axis.
+iir.sosfilt calls masterqc's own compiled cascade kernel when it was built, else scipy's
+(loaded from its extension module without importing scipy.signal), with the copies and axis
+order scipy.signal.sosfilt makes, so every output must be the same bits in the same memory
+order (the same operations in the same order per channel), fed in blocks of any size, for
+any channel count, along either axis.  Both kernels are tested.
 """
 
 from __future__ import annotations
@@ -40,10 +41,26 @@ SOS_CASES = {
 }
 
 
+def _kernel_of(path: str):
+    if path == "own":
+        k = iir._own_kernel()
+        if k is None:
+            pytest.skip("masterqc's own kernel (masterqc/measure/_cascade.c) was not built here")
+        return k
+    return iir._load_kernel_module()._sosfilt
+
+
+@pytest.fixture(params=["own", "scipy"])
+def kernel_path(request, monkeypatch):
+    """Run the test with masterqc's own compiled kernel, then with scipy's."""
+    monkeypatch.setattr(iir, "_kernel", _kernel_of(request.param))
+    return request.param
+
+
 @pytest.mark.parametrize("case", sorted(SOS_CASES))
 @pytest.mark.parametrize("channels", [1, 2, 3, 6])
 @pytest.mark.parametrize("axis", [-1, 0])
-def test_streamed_blocks_equal_scipy_sosfilt_bit_for_bit(case, channels, axis):
+def test_streamed_blocks_equal_scipy_sosfilt_bit_for_bit(case, channels, axis, kernel_path):
     assert iir.compiled_kernel() is not None
     sos = SOS_CASES[case]()
     n = 20000
@@ -75,3 +92,46 @@ def test_a_kernel_that_differs_is_not_used():
         zi[...] = 0.0
     assert iir._kernel_self_check(wrong) is False
     assert iir._kernel_self_check(iir.compiled_kernel()) is True
+
+
+@pytest.mark.parametrize("path", ["own", "scipy"])
+def test_each_kernel_passes_the_self_check(path):
+    assert iir._kernel_self_check(_kernel_of(path)) is True
+
+
+def test_own_kernel_refuses_mismatched_buffers():
+    own = pytest.importorskip(iir.OWN_KERNEL_MODULE)
+    sos = np.ascontiguousarray(kweighting_sos(48000))
+    with pytest.raises(ValueError, match="buffer sizes"):
+        own.cascade(sos, np.zeros((2, 10)), np.zeros((2, 2, 2)), 2, 11, 2)
+
+
+def test_own_kernel_can_be_switched_off():
+    code = ("import masterqc.measure.iir as iir\n"
+            "assert iir.compiled_kernel() is not None\n"
+            "print(iir.kernel_source)\n")
+    env = dict(__import__("os").environ, **{iir.OWN_KERNEL_ENV: "0"})
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300,
+                         check=True, env=env)
+    assert out.stdout.split() == ["scipy"]
+
+
+def test_measurements_are_the_same_with_either_kernel(tmp_path, monkeypatch):
+    """End to end: a stereo master measured with each kernel gives the same result, key for key."""
+    import json
+
+    import soundfile as sf
+
+    from masterqc.measure.engine import measure_file
+    from masterqc.measure.options import MeasureOptions
+    path = tmp_path / "tone.wav"
+    t = np.arange(3 * 48000) / 48000
+    x = np.stack([0.3 * np.sin(2 * np.pi * 997 * t), 0.2 * np.sin(2 * np.pi * 61 * t)], axis=1)
+    sf.write(str(path), x + _noise(x.shape, 3) * 0.01, 48000, subtype="PCM_24")
+    got = {}
+    for which in ("own", "scipy"):
+        monkeypatch.setattr(iir, "_kernel", _kernel_of(which))
+        r = measure_file(path, MeasureOptions(threads=1))
+        got[which] = json.dumps([r["measurements"], r["series"]], sort_keys=True)
+    assert got["own"] == got["scipy"]
+    assert '"integrated_lufs": -' in got["own"]

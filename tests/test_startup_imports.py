@@ -85,13 +85,18 @@ def test_measure_run_leaves_unused_modules_out(tmp_path):
 
 
 def test_short_measure_loads_no_scipy_module_beyond_the_compiled_filter_kernel(tmp_path):
-    """The only SciPy code a short measurement runs is the compiled cascade kernel
-    (masterqc.measure.iir.compiled_kernel), which brings SciPy's package initialisation with it;
-    every other SciPy module it loaded is a failure (FFT, n-d filters, special functions)."""
-    kernel_only = {m for m in _loaded_after("import masterqc.measure.iir as iir\n"
-                                            "assert iir.compiled_kernel() is not None\n")
-                   if m == "scipy" or m.startswith("scipy.")}
-    assert "scipy.signal._sosfilt" in kernel_only and "scipy.fft" not in kernel_only
+    """The only SciPy code a short measurement may run is SciPy's compiled cascade kernel
+    (masterqc.measure.iir.compiled_kernel, when masterqc's own optional kernel was not built),
+    which brings SciPy's package initialisation with it; every other SciPy module it loaded is a
+    failure (FFT, n-d filters, special functions)."""
+    loaded_by_kernel = _loaded_after("import masterqc.measure.iir as iir\n"
+                                     "assert iir.compiled_kernel() is not None\n")
+    kernel_only = {m for m in loaded_by_kernel if m == "scipy" or m.startswith("scipy.")}
+    if "masterqc.measure._cascade" in loaded_by_kernel:      # masterqc's own kernel: no SciPy at all
+        assert kernel_only == set()
+    else:
+        assert "scipy.signal._sosfilt" in kernel_only
+    assert "scipy.fft" not in kernel_only
     wav = _short_file(tmp_path / "short.wav", 48000, 2, 1.0)
     loaded = _loaded_after(_measure_probe(wav, 48000))
     assert "masterqc.measure.spectral" in loaded and "masterqc.measure.npkernels" in loaded  # it analysed
@@ -107,15 +112,16 @@ def test_six_channel_short_measure_leaves_scipy_signal_out(tmp_path):
 
 
 def test_a_longer_file_takes_the_compiled_filter_without_scipy_signal(tmp_path):
-    """Past the plain-Python budget (masterqc.measure.iir.PYTHON_BUDGET) the compiled sosfilt
-    kernel is loaded on its own (masterqc.measure.iir.compiled_kernel), scipy.signal is not
-    imported (same bits: tests/test_iir_kernel.py)."""
+    """Past the plain-Python budget (masterqc.measure.iir.PYTHON_BUDGET) a compiled sosfilt
+    kernel is loaded on its own (masterqc.measure.iir.compiled_kernel: masterqc's optional
+    one when it was built, else scipy's), scipy.signal is not imported (same bits:
+    tests/test_iir_kernel.py)."""
     from masterqc.measure.iir import PYTHON_BUDGET
     seconds = 2 * PYTHON_BUDGET / (2 * 2 * 8000) + 1          # stereo, two K-weighting sections, 8 kHz
     wav = _short_file(tmp_path / "long.wav", 8000, 2, seconds)
     loaded = _loaded_after(_measure_probe(wav, 8000)
                            + "import masterqc.measure.iir as iir\nassert iir.compiled_kernel() is not None\n")
-    assert "scipy.signal._sosfilt" in loaded
+    assert "scipy.signal._sosfilt" in loaded or "masterqc.measure._cascade" in loaded
     assert sorted(m for m in NOT_IN_MEASURE if m in loaded) == []
 
 

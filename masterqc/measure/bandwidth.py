@@ -65,6 +65,10 @@ A cliff whose fall a Butterworth low-pass explains (:func:`butterworth_explains`
 against ``log10(tan(pi f / fs))``, fitting a digital Butterworth of order at most 12, run once or zero-phase)
 is a band limit, however near a standard Nyquist it lies.
 
+A cliff whose edge lies early (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) must leave nothing above the
+old Nyquist but a floor: read frame by frame on the front end's level histogram (:func:`stop_band_content`), a
+mastering low-pass leaves the programme there, a fixed 50-90 dB down in every frame, and is a band limit.
+
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
 least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
 walls are codec or filter band limits).  A cliff above :data:`OWN_FILTER_RATIO`
@@ -269,6 +273,28 @@ MIRROR_ALONE_CORRELATION = 0.9
 #: the demo's 12 kHz bursts in a 48 kHz master))
 MIRROR_SUBBANDS = 4
 
+#: a converter whose pass band ends early (its -6 dB point below EARLY_EDGE_RATIO of the old Nyquist: the cheap
+#: and medium designs, which put their whole transition below the old Nyquist) leaves nothing above the old Nyquist
+#: but its own floor: in the median frame the content there lies at least EARLY_MIN_DEPTH_DB below the loud frames'
+#: pass band, or within STOP_CONTENT_MAX_ABOVE_FLOOR_DB of the format's floor.  A mastering low-pass (Chebyshev II,
+#: elliptic, Bessel, short FIR) leaves the programme itself there, a fixed 50-90 dB down in every frame.  Own
+#: reasoning; tuning corpus (median frame over 1.06-1.3 of the old Nyquist, 90th percentile of the frames over
+#: 0.6-0.8 of it): converters with such an edge read 104-125 dB deep (libsamplerate's fastest and medium
+#: converters), low-passes 68-87 dB with the content 33-61 dB above the floor.  Read on the front end's level
+#: histogram (channel mean), so only for the whole file's sum.
+EARLY_EDGE_RATIO = 0.92
+EARLY_MIN_DEPTH_DB = 90.0
+#: ... where the fall reaches its stop band by the old Nyquist (at most this ratio, the envelope's reading): a
+#: design centred on the old Nyquist whose edge merely reads early on material that rolls off below it (a long
+#: Kaiser resample_poly design on speech: stop band from 1.03 of the old Nyquist) may leave its own shallow stop
+#: band there, images of the programme 50-60 dB down (own reasoning; the low-passes this rule catches on the
+#: tuning corpus reach their stop band at 0.94-1.004 of the old Nyquist).  The limit of the reading: a converter
+#: with so shallow a stop band on material that already rolls off below its old Nyquist, so that its stop band
+#: is reached early, reads exactly like such a low-pass and is missed (resample_poly from 8 to 16 kHz with a
+#: 40-zero-crossing Kaiser beta 5 design, on noise low-passed at 3 kHz: 80-88 dB deep)
+EARLY_MAX_STOP_RATIO = 1.015
+STOP_CONTENT_MAX_ABOVE_FLOOR_DB = 20.0
+
 #: a cliff whose fall a Butterworth low-pass explains is a band limit, not a conversion.  The digital
 #: Butterworth (bilinear transform, as every IIR design tool makes it) has exactly
 #: ``|H(f)|^2 = 1 / (1 + (tan(pi f / fs) / tan(pi fc / fs))^(2N))``; run forwards and backwards (zero-phase, as
@@ -351,6 +377,8 @@ class BandwidthResult:
     edge_ratio: float | None = None
     evidence: str | None = None
     mirror_rate_hz: int | None = None
+    #: where the cliff's fall reaches its stop band, over the source Nyquist (not reported)
+    stop_ratio: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -841,6 +869,49 @@ def mirror_rate(corr: dict, threshold: float, broadband_only: bool = False):
     return min(ok) if ok else None
 
 
+def stop_band_content(fe, floor_db: float, rate_hz: float):
+    """What lies above a candidate's Nyquist ``h`` frame by frame (the front end's level histogram, channel mean):
+    ``(depth_db, above_floor_db)``, the loud frames' pass level (90th percentile over frames, median over
+    0.6-0.8 h) less the median frame's level over 1.06-1.3 h (1.03 h up to 0.97 of the file's Nyquist where
+    that leaves too little), and that median-frame level over the format's floor.  None without a histogram
+    or without room above ``h``.  See :data:`EARLY_EDGE_RATIO`."""
+    if fe.p50_db is None or fe.p90_db is None:
+        return None
+    b = fe.bin_hz
+    h = rate_hz / 2.0
+    top = _bins(0.97 * fe.sample_rate_hz / 2.0, b)
+    a0, a1 = _bins(1.06 * h, b), min(top, _bins(1.3 * h, b))
+    if a1 - a0 < 20:
+        a0, a1 = _bins(1.03 * h, b), top
+    if a1 - a0 < 20:
+        return None
+    above = float(np.median(fe.p50_db[a0:a1]))
+    loud = float(np.median(fe.p90_db[_bins(0.6 * h, b):_bins(0.8 * h, b)]))
+    return loud - above, above - floor_db
+
+
+def _programme_above(fe, info, out) -> bool:
+    """True when a cliff verdict's early edge (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) has the
+    programme going on above the old Nyquist in every frame (:func:`stop_band_content`): a low-pass, not a
+    converter.  Rewrites ``out`` as a band limit then."""
+    if (out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None
+            or out.edge_ratio >= EARLY_EDGE_RATIO or out.stop_ratio is None or out.stop_ratio > EARLY_MAX_STOP_RATIO):
+        return False
+    floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+    got = stop_band_content(fe, floor, out.upsampled_from_hz)
+    if got is None or got[0] >= EARLY_MIN_DEPTH_DB or got[1] <= STOP_CONTENT_MAX_ABOVE_FLOOR_DB:
+        return False
+    rate, depth = out.upsampled_from_hz, got[0]
+    edge = out.effective_bandwidth_hz
+    out.upsampled_from_hz = out.confidence = out.edge_ratio = None
+    out.band_limit_hz = edge
+    out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass: the cliff lies at "
+                f"{edge / (rate / 2.0):.2f} of {rate / 2000:g} kHz, but above {rate / 2000:g} kHz the programme "
+                f"goes on in every frame, only {depth:.0f} dB below its loud passages; a converter whose pass "
+                "band ends that early leaves nothing there but its noise floor")
+    return True
+
+
 def assess(fe, info) -> BandwidthResult:
     """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`.
 
@@ -876,6 +947,8 @@ def assess(fe, info) -> BandwidthResult:
             out.edge_ratio, out.band_limit_hz = None, None
             out.note = (f"converted up from {alone / 1000:g} kHz without a proper filter: the spectrum above "
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
+    claimed = out.upsampled_from_hz
+    vetoed = claimed if _programme_above(fe, info, out) else None
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -902,6 +975,11 @@ def assess(fe, info) -> BandwidthResult:
         for c in range(n_ch):
             cc = mirror_correlations(fe.ltas[c], fe.bin_hz, fs, floor).get(mirrored)
             per_channel[c].upsampled_from_hz = mirrored if cc and cc[0] >= MIRROR_MIN_CORRELATION else None
+    if vetoed is not None:
+        # the channels read the same low-pass on their own
+        for r in per_channel:
+            if r is not out and r.upsampled_from_hz == vetoed and (r.evidence or "cliff") == "cliff":
+                r.upsampled_from_hz = None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
     if out.upsampled_from_hz is None and up_ch:
@@ -925,6 +1003,10 @@ def assess(fe, info) -> BandwidthResult:
         out.where_s = [[0.0, round(float(dur), 3)]]
     elif segs is not None and len(segs):
         out.segments = assess_segments(fe, info)
+        if vetoed is not None:
+            for row in out.segments:
+                if row["upsampled_from_hz"] == vetoed:
+                    row["upsampled_from_hz"] = row["upsampled_confidence_fraction"] = None
         out.where_s = upsampled_ranges(out.segments)
         out.settings["segments"] = len(segs)
         judged = [s for s, n in zip(out.segments, fe.segment_frames) if n >= SEGMENT_MIN_FRAMES]
@@ -1141,6 +1223,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         out.depth_db = round(cliff["drop_db"], 1)
         out.slope_db_per_khz = round(cliff["slope_db_per_khz"], 1)
         out.edge_ratio = round(cliff["edge_hz"] / (rate / 2.0), 3) if rate is not None else None
+        if rate is not None and cliff.get("stop_start_hz") is not None:
+            out.stop_ratio = round(cliff["stop_start_hz"] / (rate / 2.0), 3)
         if rate is not None:
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)

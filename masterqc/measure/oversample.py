@@ -73,6 +73,7 @@ from __future__ import annotations
 
 import contextlib
 import math
+import threading
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -376,11 +377,21 @@ def filter_properties(flt: PolyphaseFilter) -> dict:
 # Streaming meter
 
 _BLAS = None
+#: how many single_thread_blas() contexts are open (any thread), and the limiter the first one made
+_BLAS_DEPTH = 0
+_BLAS_LIMITER = None
+_BLAS_LOCK = threading.Lock()
 
 
+@contextlib.contextmanager
 def single_thread_blas():
-    """Context manager limiting BLAS to one thread (no-op without threadpoolctl)."""
-    global _BLAS
+    """Context manager limiting BLAS to one thread (no-op without threadpoolctl).
+
+    The limit is process-wide: the outermost context (in any thread) sets it and
+    the last one to close restores it; contexts opened inside it cost nothing (the
+    engine holds one for a whole run, so the true-peak meter's own per-block ones
+    no longer re-inspect the loaded libraries each time)."""
+    global _BLAS, _BLAS_DEPTH, _BLAS_LIMITER
     if _BLAS is None:
         try:
             from threadpoolctl import ThreadpoolController
@@ -388,8 +399,20 @@ def single_thread_blas():
         except Exception:          # threadpoolctl missing or unable to inspect: leave BLAS as is
             _BLAS = False
     if _BLAS is False or not _BLAS.lib_controllers:
-        return contextlib.nullcontext()
-    return _BLAS.limit(limits=1)
+        yield
+        return
+    with _BLAS_LOCK:
+        if _BLAS_DEPTH == 0:
+            _BLAS_LIMITER = _BLAS.limit(limits=1)
+        _BLAS_DEPTH += 1
+    try:
+        yield
+    finally:
+        with _BLAS_LOCK:
+            _BLAS_DEPTH -= 1
+            if _BLAS_DEPTH == 0:
+                limiter, _BLAS_LIMITER = _BLAS_LIMITER, None
+                limiter.restore_original_limits()
 
 
 def local_bound_constants(flt: PolyphaseFilter, near: int = 4) -> tuple[float, float, float]:
@@ -592,18 +615,39 @@ class TruePeakMeter:
             block = block[:, None]
         if block.shape[1] != self.channels:
             raise ValueError(f"block has {block.shape[1]} channels, meter expects {self.channels}")
-        n = block.shape[0]
-        if n == 0:
+        if block.shape[0] == 0:
             return
         if not self.float32_exact:
             np.maximum(self.sample_peak_linear, column_abs_max(block), out=self.sample_peak_linear)
+        self._take(block.T)
+
+    def process_planar(self, rows) -> None:
+        """Feed a (channels, frames) block, one row per channel (the engine's planar blocks):
+        the same values as :meth:`process` of its transpose, copied row by row into the
+        float32 buffer (contiguous reads instead of strided ones)."""
+        if self._flushed:
+            raise RuntimeError("TruePeakMeter.process after flush")
+        rows = np.asarray(rows)
+        if rows.ndim == 1:
+            rows = rows[None, :]
+        if rows.shape[0] != self.channels:
+            raise ValueError(f"block has {rows.shape[0]} channels, meter expects {self.channels}")
+        if rows.shape[1] == 0:
+            return
+        if not self.float32_exact:      # max |x| per row: exact, so the same values as column_abs_max
+            hi = np.maximum(rows.max(axis=1), -rows.min(axis=1)).astype(np.float64)
+            np.maximum(self.sample_peak_linear, hi, out=self.sample_peak_linear)
+        self._take(rows)
+
+    def _take(self, rows) -> None:
+        """Append ``rows`` (channels, frames), any memory layout, and evaluate every whole run."""
+        n = rows.shape[1]
         self._received += n
         need = self.RUN_FRAMES + self._pre + self._post_groups * self._G
         done = 0
         while done < n:
             take = min(n - done, self._cap - self._fill)
-            for c in range(self.channels):
-                self._buf[c, self._fill:self._fill + take] = block[done:done + take, c]
+            self._buf[:, self._fill:self._fill + take] = rows[:, done:done + take]   # to float32, rounded
             self._fill += take
             done += take
             with single_thread_blas():
@@ -804,7 +848,9 @@ class TruePeakMeter:
                     vc[idx] = np.maximum(vc[idx], v)
                     fc[idx] = np.maximum(fc[idx], v)
                 self.refined_frames += int(dense.size) * G
-                cand = cand[~np.isin(gid, dense)]
+                is_dense = np.zeros(ng, dtype=bool)
+                is_dense[dense] = True
+                cand = cand[~is_dense[gid]]
                 if m < ng * G:
                     vals[c, m:] = 0.0
                     fp[m:] = 0.0

@@ -210,8 +210,15 @@ class TruePeakAnalyzer(Analyzer):
             fr.add(np.flatnonzero(over[c]) + start)
 
     # -- analyzer interface ----------------------------------------------------
+    #: the engine hands it (channels, frames) blocks: the meter copies each channel's row
+    #: into its float32 buffer as it is (the same values as from the interleaved block)
+    planar_input = True
+
     def process(self, block) -> None:
         self.meter.process(block)
+
+    def process_planar(self, rows) -> None:
+        self.meter.process_planar(rows)
 
     def finish(self) -> AnalyzerResult:
         self.meter.flush()

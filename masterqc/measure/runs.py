@@ -20,14 +20,20 @@ def column_sum(a: np.ndarray) -> np.ndarray:
     A matrix-vector product: much faster than ``a.sum(axis=0)`` for the few
     columns of an audio block (same value up to rounding).
     """
-    n = a.shape[0]
+    return row_ones(a.shape[0]) @ a
+
+
+def row_ones(n: int) -> np.ndarray:
+    """A read-only float64 vector of ``n`` ones, kept for the few block lengths in use
+    (``rows @ row_ones(n)`` sums each row of a (channels, frames) block)."""
     ones = _ONES.get(n)
     if ones is None:
         if len(_ONES) > 8:
             _ONES.clear()
-        ones = _ONES[n] = np.ones(n)
+        ones = np.ones(n)
         ones.flags.writeable = False
-    return ones @ a
+        _ONES[n] = ones
+    return ones
 
 
 _ONES: dict = {}
