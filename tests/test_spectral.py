@@ -174,9 +174,11 @@ def test_analyzer_series_and_keys_through_the_engine():
 
 
 def test_long_files_are_analysed_on_a_regular_subsample():
-    from masterqc.measure.spectral import LONG_FILE_STRIDE, default_frame_stride
-    assert default_frame_stride(30.0) == 1
-    assert default_frame_stride(30.1) == LONG_FILE_STRIDE == 6
+    from masterqc.measure.spectral import LONG_FILE_STRIDE, MID_FILE_STRIDE, default_frame_stride
+    # house choice: every frame up to 15 s, every other one up to 60 s, 1 in 6 beyond
+    assert default_frame_stride(15.0) == 1
+    assert default_frame_stride(15.1) == default_frame_stride(60.0) == MID_FILE_STRIDE == 2
+    assert default_frame_stride(60.1) == LONG_FILE_STRIDE == 6
     rng = np.random.default_rng(8)
     fs = 48000
     x = 0.1 * rng.standard_normal((fs * 6, 1))
@@ -210,7 +212,7 @@ def test_noise_floor_series_follows_the_low_percentile():
 def test_spectrogram_of_a_subsampled_long_file_has_no_empty_columns():
     fs = 8000
     rng = np.random.default_rng(10)
-    x = 0.1 * rng.standard_normal((fs * 40, 1))          # 40 s: analysed on 1 frame in 6
+    x = 0.1 * rng.standard_normal((fs * 70, 1))          # 70 s: analysed on 1 frame in 6
     fe, r = run_fe(x, fs)
     assert fe.stride == 6
     assert np.isfinite(r.spectrogram_db).all()

@@ -183,7 +183,7 @@ def test_gated_loudness_matches_bs1770_arithmetic():
 
 
 def test_subsampled_analysis_still_finds_a_2s_burst_and_the_loudness_change():
-    # frame_stride 6 is what files over 30 s get: 100 ms frames every 300 ms
+    # frame_stride 6 is what files over 60 s get: 100 ms frames every 300 ms
     fs = 96000
     rng = np.random.default_rng(12)
     x = band_noise(fs, 12.0, 20.0, 18000.0, 0.05, rng)

@@ -59,11 +59,10 @@ For each candidate source rate below the file's rate the analyzer reports
   multiples, with an image at or above :data:`DEFECT_IMAGE_LEVEL_DB`), "trace"
   (significant coherence with a deeper image: a resampler's trace), "none", or
   "untestable" (with a reason).  A defect also needs the images an unfiltered upsampler leaves
-  above the candidate's Nyquist frequency, clear of the programme (:data:`CLEAR_SUBBANDS`): where
-  they are bounded below the defect level, the coherence comes from programme components below
-  the Nyquist frequency that pair up by themselves (steady partials of one note whose frequencies
-  sum to the cycle frequency), and the verdict is "trace" (the clear images are significant) or
-  "none";
+  (:data:`CLEAR_SUBBANDS`): where, in a sub-band with content, they are bounded below the defect
+  level, the coherence comes from programme components that pair up by themselves (steady
+  partials of one note whose frequencies sum to the cycle frequency), and the verdict is "trace"
+  (images above the candidate's Nyquist frequency are significant) or "none";
 * ``evidence``: "spectrum"; or "samples" when the run's interpolation analyzer
   (:mod:`masterqc.measure.interpolation`) found the exact sample pattern of a hold,
   linear or zero-stuffing upsampler from this rate, which makes the candidate a
@@ -175,16 +174,18 @@ CONTROL_Z_RELATIVE = 0.5
 #: choice: 32 MiB holds 100 frames of 8 channels at 96 kHz, 25 MB)
 SPECTRA_STORE_MAX_BYTES = 32 * 1024 * 1024
 #: sub-bands of the candidate's band (fractions of its Nyquist frequency) in which the images that an
-#: unfiltered upsampler must leave are looked for where they stand clear of the programme: above the
-#: candidate's Nyquist frequency (after folding at the file's).  Own reasoning from the responses
+#: unfiltered upsampler must leave are bounded from above.  Own reasoning from the responses
 #: (:func:`image_response_ratio`): hold, linear and zero-stuffing upsamplers leave the first images of
 #: content anywhere above 0.3 of the source Nyquist frequency within 30 dB of it, so a sub-band with
-#: content whose clear images are bounded below :data:`DEFECT_IMAGE_LEVEL_DB` rules such an upsampler
-#: out, whatever pairs of programme components elsewhere are coherent (steady notes whose partials
-#: sum to the cycle frequency, as those on 110 Hz do to the 12.1 kHz fold of a 32 kHz source's images
-#: in a 44.1 kHz file).  Four sub-bands, so a resampler's transition band at the top cannot hide the
-#: absence below it
-CLEAR_SUBBANDS = ((0.3, 0.5), (0.5, 0.7), (0.7, 0.85), (0.85, 1.0))
+#: content whose images are bounded below :data:`DEFECT_IMAGE_LEVEL_DB` rules such an upsampler out,
+#: whatever pairs of programme components elsewhere are coherent (steady notes whose partials sum to
+#: the cycle frequency, as those on 110 Hz do to the 12.1 kHz fold of a 32 kHz source's images in a
+#: 44.1 kHz file).  The bound is the smaller of the power at the image positions (an image cannot hold
+#: more) and the coherent image power plus :data:`Z_LEVEL` standard deviations; both are tight where
+#: the images fall clear of the programme (above the candidate's Nyquist frequency, or above a lower
+#: true source's).  Narrow sub-bands, so a resampler's transition band or programme under part of the
+#: images cannot hide their absence under the rest
+CLEAR_SUBBANDS = ((0.3, 0.4), (0.4, 0.5), (0.5, 0.6), (0.6, 0.7), (0.7, 0.8), (0.8, 0.9), (0.9, 1.0))
 #: a sub-band rules out only with at least this many clear pairs (own reasoning: the bound needs a
 #: few hundred hertz of content)
 CLEAR_MIN_PAIRS = 8
@@ -745,24 +746,25 @@ class ImagingAnalyzer(Analyzer):
         if inner is None:
             inner = rejection((0.0, INNER_BAND[1]))
         # the clear images (first order, image member above the candidate's Nyquist frequency): their
-        # significance, and per sub-band with content an upper bound (Z_LEVEL standard deviations) of
-        # their power relative to the content they mirror (p1: the baseband member)
+        # significance; and per sub-band with content an upper bound of the first images' power
+        # relative to the content they mirror (p1: the baseband member, p2: the image position).  The
+        # coherent image power of a pair is |S|^2 / P1 = g2 * p2, whatever else lies under the image
         cl = lower & clear
         wc = w[cl]
         sd_c = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[cl] * wc * wc)))
         z_clear = float(np.sum((g2[cl] - bias[cl]) * wc)) / sd_c if sd_c > 0 else 0.0
         clear_bound = None
         for lo_f, hi_f in CLEAR_SUBBANDS:
-            sub = cl & (frac >= lo_f) & (frac <= hi_f)
+            sub = lower & (frac >= lo_f) & (frac < hi_f)
             if int(sub.sum()) < CLEAR_MIN_PAIRS:
                 continue
             src = p1[sub]
             if not float(src.mean()) >= mean_bin_power * 10 ** (CONTENT_FLOOR_DB / 10):
                 continue
-            ws = w[sub]
+            ws = p2[sub]
             num = max(0.0, float(np.sum((g2[sub] - bias[sub]) * ws)))
             sd_s = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[sub] * ws * ws)))
-            ub = (num + Z_LEVEL * sd_s) / float(src.sum())
+            ub = min(num + Z_LEVEL * sd_s, float(ws.sum())) / float(src.sum())
             if clear_bound is None or ub < clear_bound:
                 clear_bound = ub
         return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "t_a": t_a, "z_a": z_a,
@@ -849,9 +851,9 @@ class ImagingAnalyzer(Analyzer):
         bound = None if main["clear_bound"] is None else power_ratio_db(main["clear_bound"])
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and bound is not None \
                 and bound < DEFECT_IMAGE_LEVEL_DB:
-            # an unfiltered upsampler would leave images above the candidate's Nyquist frequency, clear
-            # of the programme; they are not there, so the coherence comes from programme components
-            # below it that pair up by themselves
+            # an unfiltered upsampler would leave images of the content in every sub-band within 30 dB of
+            # it; they are not there, so the coherence comes from programme components that pair up by
+            # themselves
             base["image_level_db"] = None
             if main["z_clear"] >= Z_SIGNIFICANT:
                 base["verdict"] = "trace"
@@ -859,9 +861,9 @@ class ImagingAnalyzer(Analyzer):
                                   "relative to the content they mirror: a resampler's trace")
             else:
                 base["verdict"] = "none"
-                base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z:.1f}) only between programme components "
-                                  f"below {rate / 2000:.2f} kHz; no mirror image above it, to {bound:.0f} dB "
-                                  "relative to the content: not an upsampler's images")
+                base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z:.1f}), but the mirror images an upsampler "
+                                  f"from that rate would leave are missing (below {bound:.0f} dB relative to the "
+                                  "content): programme components that pair up by themselves")
             return base
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
             base["verdict"] = "defect"

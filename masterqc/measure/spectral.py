@@ -38,8 +38,9 @@ Consumers (callables ``fn(power, frame_index)`` with ``power`` of shape
 frame's power spectrum as it is computed, so several detectors share one FFT.
 
 Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
-of frames (1 in :data:`LONG_FILE_STRIDE`); the long-term spectrum is then the
-mean over those frames.
+of frames: every other frame (:data:`MID_FILE_STRIDE`) up to :data:`MID_ANALYSIS_S`,
+1 in :data:`LONG_FILE_STRIDE` beyond; the long-term spectrum is then the mean over
+those frames.
 
 :class:`SamplingSpectrumAnalyzer` is the registered analyzer: it runs the
 front end and hands its result to :mod:`masterqc.measure.bandwidth`,
@@ -58,11 +59,16 @@ from masterqc.measure.base import Analyzer, AnalyzerResult
 
 #: target bin spacing (Hz); frames are round(fs / BIN_TARGET_HZ) samples long
 BIN_TARGET_HZ = 10.0
-#: files up to this long have every frame analysed; longer files a regular subsample of
-#: 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms): long-term spectra, level
-#: statistics and tones are statistics over time, and the subsample keeps the cost of
-#: the analysis a small fraction of the core's (own reasoning; see bench/bench_sampling_cost.py)
-FULL_ANALYSIS_S = 30.0
+#: files up to this long have every frame analysed; longer files a regular subsample:
+#: every other frame (MID_FILE_STRIDE: 100 ms frames every 100 ms, side by side) up to
+#: MID_ANALYSIS_S, 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms) beyond.
+#: Long-term spectra, level statistics and tones are statistics over time: a 15-second file
+#: analysed in full and a 60-second one at every other frame both give some 300 frames, a
+#: 10-minute one at 1 in 6 some 1000, and the subsample keeps the cost of the analysis a
+#: small fraction of the core's (own reasoning; see bench/bench_sampling_split.py)
+FULL_ANALYSIS_S = 15.0
+MID_ANALYSIS_S = 60.0
+MID_FILE_STRIDE = 2
 LONG_FILE_STRIDE = 6
 #: time segments for the per-segment upsampling verdict (a spliced part of a file)
 SEGMENT_S = 5.0
@@ -92,8 +98,11 @@ def segments_for(duration_s: float) -> int:
 
 
 def default_frame_stride(duration_s: float) -> int:
-    """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, else 1 in :data:`LONG_FILE_STRIDE`."""
-    return 1 if duration_s <= FULL_ANALYSIS_S else LONG_FILE_STRIDE
+    """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, every other one up to
+    :data:`MID_ANALYSIS_S`, else 1 in :data:`LONG_FILE_STRIDE`."""
+    if duration_s <= FULL_ANALYSIS_S:
+        return 1
+    return MID_FILE_STRIDE if duration_s <= MID_ANALYSIS_S else LONG_FILE_STRIDE
 
 
 def frame_length_for(sample_rate_hz: float) -> int:
@@ -195,12 +204,17 @@ class SpectralFrontEnd:
         block = np.asarray(block)
         if block.ndim == 1:
             block = block[:, None]
-        if block.shape[0] == 0:
+        self.process_planar(block.T)
+
+    def process_planar(self, rows) -> None:
+        """Feed a (channels, frames) float block (the same arithmetic as :meth:`process` of its
+        transpose; rows that are contiguous are copied without a transposition)."""
+        if rows.shape[1] == 0:
             return
         kept = self._buf.shape[1]
-        buf = np.empty((self.channels, kept + block.shape[0]), dtype=np.float32)
+        buf = np.empty((self.channels, kept + rows.shape[1]), dtype=np.float32)
         buf[:, :kept] = self._buf
-        buf[:, kept:] = block.T
+        buf[:, kept:] = rows
         self._buf = buf
         self._run()
 
@@ -219,8 +233,11 @@ class SpectralFrontEnd:
             frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
             np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
             spec = rfft_rows(frames)
-            power = np.square(spec.real)
-            power += np.square(spec.imag)
+            # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
+            # (contiguous, hence quicker than the real and imaginary views; the same values)
+            sq = spec.view(np.float32)
+            np.square(sq, out=sq)
+            power = np.add(sq[..., 0::2], sq[..., 1::2])
             power *= self._scale
             self._accumulate(power, index[pick])
         self.frame_index += n_frames
@@ -428,9 +445,17 @@ class SamplingSpectrumAnalyzer(Analyzer):
                                    consumers=[self.ultra.frames],
                                    frame_stride=None if stride is None else int(stride))
 
+    #: the engine hands the block over as (channels, frames) rows (see :class:`Analyzer`)
+    planar_input = True
+
     def process(self, block) -> None:
         self.fe.process(block)
         self.conv.process(block)
+
+    def process_planar(self, rows) -> None:
+        self.fe.process_planar(rows)
+        if self.conv.stages:
+            self.conv.process(rows.T)
 
     def finish(self) -> AnalyzerResult:
         from masterqc.measure import bandwidth
