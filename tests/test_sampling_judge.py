@@ -169,7 +169,7 @@ def test_imaging_and_aliasing_findings_from_their_keys():
          "aliasing_detail": {"reason": None, "where_s": [[1.0, 2.5]]}}
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
     by = {f.check: f for f in found}
-    assert by["sampling.imaging"].status == "fail" and "48 kHz source: defect" in by["sampling.imaging"].message
+    assert by["sampling.imaging"].status == "fail" and "From a 48 kHz source: mirror images" in by["sampling.imaging"].message
     assert by["sampling.aliasing"].status == "fail" and by["sampling.aliasing"].where_s == [[1.0, 2.5]]
     # house choice (the judge's rule): -21.5 dB against a -40.0 dB ceiling misses by 18.5 dB
     assert by["sampling.alias_to_harmonic_ratio"].status == "fail" and by["sampling.alias_to_harmonic_ratio"].miss == pytest.approx(18.5)
@@ -189,9 +189,10 @@ def test_imaging_finding_names_the_level_and_the_sample_pattern_evidence():
     found, verdict = judge(sp, {"format": {"sample_rate_hz": 96000}, "measurements": m})
     msg = {f.check: f for f in found}["sampling.imaging"].message
     assert verdict == "fail"
-    assert ("22.05 kHz source: defect, first mirror image -9.1 dB re the content it mirrors, from the sample "
-            "pattern (L)") in msg
-    assert "44.1 kHz source: trace, coherence 0.02, first mirror image -77.0 dB re the content it mirrors (L)" in msg
+    assert ("From a 22.05 kHz source: the sample pattern of an unfiltered upsampler, the first image -9.1 dB "
+            "relative to the content it mirrors in channel L.") in msg
+    assert ("A 44.1 kHz source leaves a faint trace only: its first mirror image lies at -77.0 dB relative to the "
+            "content it mirrors in channel L, too weak to count as a defect.") in msg
 
 
 def test_partly_upsampled_master_fails_with_its_time_range():

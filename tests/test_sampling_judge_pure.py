@@ -267,7 +267,7 @@ def test_imaging_detail_and_untestable_reason():
     by, verdict = run(sp, m)
     f = by["sampling.imaging"]
     assert (f.status, verdict) == ("fail", "fail")
-    assert f.message == ('Imaging: the spectrum holds mirror images left by an unfiltered upsampler; the spec does not allow this. 44.1 kHz source: defect, coherence 0.91, first mirror image -12.3 dB re the content it mirrors (L); 48 kHz source: trace.')
+    assert f.message == ('Imaging: the spectrum holds mirror images left by an unfiltered upsampler; the spec does not allow this. From a 44.1 kHz source: mirror images of the content, the first image -12.3 dB relative to the content it mirrors in channel L (images and content move together: coherence 0.91). A 48 kHz source leaves a faint trace only, too weak to count as a defect.')
     by, _v = run(sp, {"imaging_detected": False, "imaging": m["imaging"][2:]})
     f = by["sampling.imaging"]
     assert f.status == "pass" and f.message == 'Imaging: no mirror images of an unfiltered upsampler.'
@@ -642,7 +642,8 @@ def test_imaging_detail_names_evidence_from_the_sample_pattern():
                      {"source_rate_hz": 48000, "verdict": "trace", "coherence": None, "image_level_db": None,
                       "evidence": "spectrum"}]}
     f = run(sp, m)[0]["sampling.imaging"]
-    assert f.message.endswith(". 44.1 kHz source: defect, from the sample pattern (R); 48 kHz source: trace.")
+    assert f.message.endswith(". From a 44.1 kHz source: the sample pattern of an unfiltered upsampler in channel R. "
+                              "A 48 kHz source leaves a faint trace only, too weak to count as a defect.")
 
 
 SHARP_TAIL = ("waveform jumps between two samples with no band-limited transition (12 such jumps): its partials "

@@ -176,22 +176,33 @@ def _not_upsampled_sentence(m: dict) -> str:
 
 
 def _imaging_detail(m: dict) -> str:
+    """One sentence per source-rate candidate that left images ("defect") or a faint trace of them."""
     parts = []
     for c in m.get("imaging") or []:
         v = c.get("verdict")
-        if v in ("defect", "trace"):
-            coh, lvl = c.get("coherence"), c.get("image_level_db")
-            txt = f"{float(c.get('source_rate_hz')) / 1000:g} kHz source: {v}"
-            if coh is not None:
-                txt += f", coherence {coh:.2f}"
+        if v not in ("defect", "trace"):
+            continue
+        coh, lvl = c.get("coherence"), c.get("image_level_db")
+        rate = f"{float(c.get('source_rate_hz')) / 1000:g} kHz"
+        where = f" in channel {c['channel']}" if c.get("channel") else ""
+        if v == "defect":
+            txt = f"From a {rate} source: "
+            txt += ("the sample pattern of an unfiltered upsampler" if c.get("evidence") == "samples"
+                    else "mirror images of the content")
             if lvl is not None:
-                txt += f", first mirror image {lvl:.1f} dB re the content it mirrors"
-            if c.get("evidence") == "samples":
-                txt += ", from the sample pattern"
-            if c.get("channel"):
-                txt += f" ({c['channel']})"
-            parts.append(txt)
-    return ("; " + "; ".join(parts)) if parts else ""
+                txt += f", the first image {lvl:.1f} dB relative to the content it mirrors"
+            txt += where
+            if coh is not None:
+                txt += f" (images and content move together: coherence {coh:.2f})"
+        else:
+            txt = f"A {rate} source leaves a faint trace only"
+            if lvl is not None:
+                txt += f": its first mirror image lies at {lvl:.1f} dB relative to the content it mirrors{where}"
+            elif where:
+                txt += where
+            txt += ", too weak to count as a defect"
+        parts.append(txt + ".")
+    return (" " + " ".join(parts)) if parts else ""
 
 
 def judge(section, result: dict) -> list[Finding]:
@@ -242,7 +253,7 @@ def judge(section, result: dict) -> list[Finding]:
                           says=("Imaging: the spectrum holds mirror images left by an unfiltered upsampler",
                                 "Imaging: no mirror images of an unfiltered upsampler"))
         if f.status != "skipped" and _imaging_detail(m):
-            add_detail(f, ". " + _imaging_detail(m)[2:])
+            add_detail(f, "." + _imaging_detail(m)[:-1])
         out.append(f)
 
     detail = m.get("aliasing_detail") or {}
