@@ -827,10 +827,16 @@ def drop_pattern_period(fs_in_hz: int, fs_out_hz: int) -> int:
     return int(fs_out_hz) // math.gcd(int(fs_in_hz), int(fs_out_hz))
 
 
+def pick_sources(fs: int) -> dict:
+    """The rates of :data:`PICK_SOURCE_RATES_HZ` that picking down to ``fs`` leaves a drop pattern from (every
+    higher one that is not a whole multiple of ``fs``), each with the pattern's period."""
+    return {r: drop_pattern_period(r, fs) for r in PICK_SOURCE_RATES_HZ if r > fs and r % fs}
+
+
 def pattern_periods(fs: int) -> list:
-    """Pattern periods to test on a file at ``fs``: those of picking from every higher rate of
-    :data:`PICK_SOURCE_RATES_HZ` that is not a whole multiple of ``fs``, within the tested range, ascending."""
-    out = {drop_pattern_period(r, fs) for r in PICK_SOURCE_RATES_HZ if r > fs and r % fs}
+    """Pattern periods to test on a file at ``fs``: those of :func:`pick_sources`, within the tested range,
+    ascending."""
+    out = set(pick_sources(fs).values())
     return sorted(p for p in out if GRID_PATTERN_MIN_PERIOD <= p <= GRID_PATTERN_MAX_PERIOD)
 
 
@@ -1478,8 +1484,7 @@ class AliasingAnalyzer(Analyzer):
                              f"(phase agreement {grid_coh:.2f}): samples were dropped or picked without a filter, "
                              "which folds")
             if pattern_hit and not drop_hit:
-                sources = [r for r in PICK_SOURCE_RATES_HZ
-                           if r > self.fs and r % self.fs and drop_pattern_period(r, self.fs) == pat_period]
+                sources = [r for r, period in pick_sources(self.fs).items() if period == pat_period]
                 made_by = (f", the period of a conversion from {' or '.join(f'{r / 1000:g}' for r in sources)} kHz "
                            f"to {self.fs / 1000:g} kHz" if sources else "")
                 parts.append(f"the samples lie on an irregular time grid: the prediction error repeats a drop "

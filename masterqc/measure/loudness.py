@@ -382,17 +382,11 @@ class LoudnessMeter:
 
     # -- feeding
     def process(self, block) -> None:
-        """Feed a float block of shape (frames, channels) (or (frames,) for mono)."""
+        """Feed a float block of shape (frames, channels) (or (frames,) for mono): as
+        :meth:`process_planar` of its transpose (the filter copies the rows it reads, whatever
+        their memory order, so the values are the same)."""
         x = np.asarray(block, dtype=float)
-        if x.ndim == 1:
-            x = x[:, None]
-        n = x.shape[0]
-        if n == 0:
-            return
-        if self._active.size == 0:
-            self.process_power(np.zeros(n))
-            return
-        self._process_rows(x.T if self._all_active else x[:, self._active].T)   # (channels, frames) view
+        self.process_planar(x.T if x.ndim == 2 else x)
 
     def process_planar(self, rows) -> None:
         """Feed a float block of shape (channels, frames), one row per channel (the engine's

@@ -608,13 +608,10 @@ class TruePeakMeter:
 
     def process(self, block) -> None:
         """Feed a (frames, channels) block."""
-        if self._flushed:
-            raise RuntimeError("TruePeakMeter.process after flush")
         block = np.asarray(block)
         if block.ndim == 1:
             block = block[:, None]
-        if block.shape[1] != self.channels:
-            raise ValueError(f"block has {block.shape[1]} channels, meter expects {self.channels}")
+        self._check_block(block.shape[1])
         if block.shape[0] == 0:
             return
         if not self.float32_exact:
@@ -625,19 +622,23 @@ class TruePeakMeter:
         """Feed a (channels, frames) block, one row per channel (the engine's planar blocks):
         the same values as :meth:`process` of its transpose, copied row by row into the
         float32 buffer (contiguous reads instead of strided ones)."""
-        if self._flushed:
-            raise RuntimeError("TruePeakMeter.process after flush")
         rows = np.asarray(rows)
         if rows.ndim == 1:
             rows = rows[None, :]
-        if rows.shape[0] != self.channels:
-            raise ValueError(f"block has {rows.shape[0]} channels, meter expects {self.channels}")
+        self._check_block(rows.shape[0])
         if rows.shape[1] == 0:
             return
         if not self.float32_exact:      # max |x| per row: exact, so the same values as column_abs_max
             hi = np.maximum(rows.max(axis=1), -rows.min(axis=1)).astype(np.float64)
             np.maximum(self.sample_peak_linear, hi, out=self.sample_peak_linear)
         self._take(rows)
+
+    def _check_block(self, channels: int) -> None:
+        """Refuse a block after :meth:`flush`, or one with another channel count than the meter's."""
+        if self._flushed:
+            raise RuntimeError("TruePeakMeter.process after flush")
+        if channels != self.channels:
+            raise ValueError(f"block has {channels} channels, meter expects {self.channels}")
 
     def _take(self, rows) -> None:
         """Append ``rows`` (channels, frames), any memory layout, and evaluate every whole run."""

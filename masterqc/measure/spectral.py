@@ -454,8 +454,7 @@ class SamplingSpectrumAnalyzer(Analyzer):
 
     def process_planar(self, rows) -> None:
         self.fe.process_planar(rows)
-        if self.conv.stages:
-            self.conv.process(rows.T)
+        self.conv.process(rows.T)
 
     def finish(self) -> AnalyzerResult:
         from masterqc.measure import bandwidth
