@@ -91,6 +91,11 @@ def _add_more(sub, only: str | None) -> None:
 def cmd_measure(args) -> int:
     from masterqc import stagelog
     stagelog.note_startup()  # interpreter and command line, for bench/bench_startup.py --split
+    if (args.threads or _default_threads()) > 1:
+        # hash the file on a thread of its own while the measuring layers are imported (one core
+        # at most is busy then): the engine takes the result (masterqc.filehash)
+        from masterqc import filehash
+        filehash.prefetch(args.file)
     with stagelog.stage("import_measure"):
         from masterqc.measure import MeasureOptions, measure_file
     from masterqc.progress import Progress
@@ -122,6 +127,16 @@ def cmd_measure(args) -> int:
             from masterqc.report.text import measurement_table
             sys.stdout.write(measurement_table(result))
     return EXIT_PASS
+
+
+def _default_threads() -> int:
+    """:func:`masterqc.measure.options.default_thread_count`, or 1 when it refuses the environment
+    (the measurement then reports that error itself)."""
+    from masterqc.measure.options import default_thread_count
+    try:
+        return default_thread_count()
+    except UsageError:
+        return 1
 
 
 def parse_layout(text):

@@ -70,6 +70,11 @@ def cmd_check(args) -> int:
     with stagelog.stage("spec_load"):
         loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
     loaded.report_fields.update(fields)
+    if len(args.paths) == 1:
+        from masterqc.cli import _default_threads
+        if _default_threads() > 1:    # hashed while the measuring layers load (masterqc.filehash)
+            from masterqc import filehash
+            filehash.prefetch(args.paths[0])
     _print_spec_warnings(loaded, quiet=args.quiet)
     from masterqc.cli import parse_layout
     layout = parse_layout(args.layout)

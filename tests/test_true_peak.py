@@ -762,3 +762,62 @@ def test_float32_exact_sample_peak_equals_the_float64_reduction():
                                      (32, True, True), (64, True, False), (8, False, True)):
         info.bit_depth, info.is_float = bits, is_float
         assert samples_are_float32(info) is expected, (bits, is_float)
+
+
+# --- the compiled pre-screen (masterqc/measure/_cascade.c) against numpy's path -----------------
+# By construction both compute maxima of the same float32 numbers (|x|, second differences
+# rounded to float32 as numpy's subtract rounds them), so they must agree bit for bit; with the
+# kernel switched off the meter must give the same bits on every output.
+
+def _numpy_only(monkeypatch):
+    monkeypatch.setattr(ov, "_PRESCREEN", False)
+
+
+@pytest.mark.skipif(ov.prescreen_kernel() is None, reason="the optional compiled module is not built")
+def test_compiled_prescreen_equals_numpy_on_random_and_edge_values():
+    k = ov.prescreen_kernel()
+    rng = np.random.default_rng(33)
+    for C, L, G, near in ((1, 64, 32, 4), (2, 4096, 32, 4), (3, 480, 16, 2), (6, 320, 32, 0)):
+        x = (rng.standard_normal((C, L)) * 0.4).astype(np.float32)
+        x[0, :5] = [0.0, -0.0, 1.0, -1.0, np.float32(2 ** -149)]     # signed zeros, full scale, subnormal
+        buf = np.zeros((C, L + 40), np.float32)                      # rows longer than the frames used
+        buf[:, :L] = x
+        ax = np.full_like(buf, 7.0)
+        gm, gh, nr = np.empty((3, C, L // G), np.float32)
+        assert k(buf, ax, gm, gh, nr, C, L + 40, L, G, near)
+        want = ov._prescreen_numpy(x, G, near)
+        for w, g in zip(want, (ax[:, :L], gm, gh, nr)):
+            assert np.array_equal(w, g)
+            assert np.array_equal(np.signbit(w), np.signbit(g))
+        assert np.all(ax[:, L:] == 7.0)                              # nothing written past the frames
+    for bad in (np.nan, np.inf, -np.inf):
+        x = np.zeros((2, 128), np.float32)
+        x[1, 77] = bad
+        gm, gh, nr = np.empty((3, 2, 4), np.float32)
+        assert not k(x, np.zeros_like(x), gm, gh, nr, 2, 128, 128, 32, 4)
+
+
+def test_meter_outputs_are_the_same_bits_without_the_compiled_prescreen(adversarial_reference, monkeypatch):
+    x, _ = adversarial_reference
+    y = x.copy()
+    y[90000:91000, 0] = np.nan                                       # a run with a non-finite sample: numpy's path
+    with_kernel = [run_meter(s, 65536) for s in (x, y)]
+    _numpy_only(monkeypatch)
+    without = [run_meter(s, 65536) for s in (x, y)]
+    for (m1, cp1, _), (m2, cp2, _) in zip(with_kernel, without):
+        assert np.array_equal(m1.peak_linear, m2.peak_linear, equal_nan=True)
+        assert np.array_equal(m1.envelope_linear, m2.envelope_linear, equal_nan=True)
+        assert np.array_equal(cp1, cp2, equal_nan=True)
+        assert m1.scanned_frames == m2.scanned_frames and m1.refined_frames == m2.refined_frames
+
+
+def test_near_window_bound_is_the_exact_window_maximum():
+    # the pre-screen's near term (TruePeakMeter docstring, step 1) is the largest |x| within NEAR
+    # samples of a group: the group's own maximum and the NEAR samples either side, by construction
+    rng = np.random.default_rng(8)
+    G, near = ov.TruePeakMeter.GROUP, ov.TruePeakMeter.NEAR
+    x = np.abs(rng.standard_normal((2, 10 * G))).astype(np.float32)
+    gm = x.reshape(2, 10, G).max(axis=2)
+    got = ov._near_max(x, gm, G, near, 8, 1)
+    want = np.stack([[x[c, g * G - near:g * G + G + near].max() for g in range(1, 9)] for c in range(2)])
+    assert np.array_equal(got, want)

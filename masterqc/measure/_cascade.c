@@ -13,6 +13,8 @@
  */
 #define PY_SSIZE_T_CLEAN
 #include <Python.h>
+#include <math.h>
+#include <stdint.h>
 
 /* two channels, two sections (K-weighting of a stereo block): everything in registers */
 static void stereo2(const double *sos, double *y0, double *y1, double *za, double *zb, Py_ssize_t n)
@@ -82,10 +84,144 @@ static PyObject *cascade(PyObject *self, PyObject *args)
     Py_RETURN_NONE;
 }
 
+/* ---------------------------------------------------------------------------------------------
+ * Group statistics of the true-peak meter's pre-screen (masterqc/measure/oversample.py), one pass
+ * per channel row of a float32 buffer, exact (maxima of absolute values and of float32
+ * differences, each rounded as numpy rounds them):
+ *     ax[j]  = |x[j]|                                             (written over the row's L columns)
+ *     gm[g]  = max |x[j]| over group g (columns g*G .. g*G + G - 1)
+ *     gh[g]  = max |(x[j+1] - x[j]) - (x[j] - x[j-1])| over group g, 1 <= j <= L - 2 (0 at j = 0 and
+ *              L - 1), each difference rounded to float32 as numpy's subtract rounds it
+ *     nr[g]  = max |x[j]| over columns g*G - near .. g*G + G - 1 + near (clipped to 0 .. L - 1)
+ * Returns False, with nothing promised about the outputs, when a sample is not finite (the caller
+ * then takes numpy's path, whose NaN and infinity rules this loop does not reproduce).
+ */
+/* The maxima run on the bit patterns: for floats that are not NaN, |a| <= |b| exactly when the
+ * bits of |a| (sign cleared) are <= those of |b| as unsigned integers, and every NaN or infinity
+ * has bits >= 0x7f800000, so a group maximum at or above it marks a non-finite sample.  Integer
+ * maxima vectorise; the two float32 subtractions of gh are done in float as numpy does them. */
+#if defined(__GNUC__) && !defined(__clang__)
+#define VECTORISE __attribute__((optimize("O3")))
+#else
+#define VECTORISE
+#endif
+
+typedef union { float f; uint32_t u; } f32bits;
+
+/* the bits of |v| as a signed integer (the sign bit cleared, so never negative: signed
+ * comparisons, which SSE2 has, order them as the unsigned ones would) */
+static inline int32_t abs_bits(float v)
+{
+    f32bits b;
+    b.f = v;
+    return (int32_t)(b.u & 0x7fffffffu);
+}
+
+VECTORISE
+static int32_t group_max_bits(const float *x, int32_t *ab, Py_ssize_t n)
+{
+    int32_t m = 0;
+    for (Py_ssize_t j = 0; j < n; j++) {
+        int32_t u = abs_bits(x[j]);
+        ab[j] = u;
+        m = u > m ? u : m;
+    }
+    return m;
+}
+
+VECTORISE
+static int32_t group_max_second_diff_bits(const float *x, Py_ssize_t lo, Py_ssize_t hi)
+{
+    int32_t m = 0;
+    for (Py_ssize_t j = lo; j < hi; j++) {
+        float d1 = x[j + 1] - x[j];
+        float d0 = x[j] - x[j - 1];
+        int32_t u = abs_bits(d1 - d0);
+        m = u > m ? u : m;
+    }
+    return m;
+}
+
+static int prescreen_row(const float *x, float *ax, float *gm, float *gh, float *nr,
+                         Py_ssize_t L, Py_ssize_t G, Py_ssize_t near)
+{
+    Py_ssize_t ng = L / G;
+    int32_t *ab = (int32_t *)ax, *gmb = (int32_t *)gm, *ghb = (int32_t *)gh, *nrb = (int32_t *)nr;
+    int32_t top = 0;
+    for (Py_ssize_t g = 0; g < ng; g++) {
+        int32_t m = group_max_bits(x + g * G, ab + g * G, G);
+        gmb[g] = m;
+        top = m > top ? m : top;
+    }
+    if (top >= 0x7f800000)
+        return 0;
+    for (Py_ssize_t g = 0; g < ng; g++) {
+        Py_ssize_t lo = g * G, hi = lo + G;
+        if (lo < 1)
+            lo = 1;
+        if (hi > L - 1)
+            hi = L - 1;
+        ghb[g] = lo < hi ? group_max_second_diff_bits(x, lo, hi) : 0;
+    }
+    for (Py_ssize_t g = 0; g < ng; g++) {
+        int32_t m = gmb[g];
+        Py_ssize_t lo = g * G - near, hi = g * G + G + near;
+        if (lo < 0)
+            lo = 0;
+        if (hi > L)
+            hi = L;
+        for (Py_ssize_t j = lo; j < g * G; j++)
+            m = ab[j] > m ? ab[j] : m;
+        for (Py_ssize_t j = g * G + G; j < hi; j++)
+            m = ab[j] > m ? ab[j] : m;
+        nrb[g] = m;
+    }
+    return 1;
+}
+
+static PyObject *prescreen(PyObject *self, PyObject *args)
+{
+    Py_buffer x, ax, gm, gh, nr;
+    Py_ssize_t C, stride, L, G, near;
+    int ok = 1;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*w*w*w*w*nnnnn", &x, &ax, &gm, &gh, &nr, &C, &stride, &L, &G, &near))
+        return NULL;
+    Py_ssize_t ng = G > 0 ? L / G : 0;
+    if (C < 0 || L < 0 || G <= 0 || near < 0 || near > G || L % G || stride < L ||
+        x.len < (Py_ssize_t)(C * stride * sizeof(float)) || ax.len < (Py_ssize_t)(C * stride * sizeof(float)) ||
+        gm.len < (Py_ssize_t)(C * ng * sizeof(float)) || gh.len < (Py_ssize_t)(C * ng * sizeof(float)) ||
+        nr.len < (Py_ssize_t)(C * ng * sizeof(float))) {
+        PyBuffer_Release(&x);
+        PyBuffer_Release(&ax);
+        PyBuffer_Release(&gm);
+        PyBuffer_Release(&gh);
+        PyBuffer_Release(&nr);
+        PyErr_SetString(PyExc_ValueError, "prescreen: buffer sizes do not match (channels, stride, frames, group)");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    for (Py_ssize_t c = 0; c < C && ok; c++)
+        ok = prescreen_row((const float *)x.buf + c * stride, (float *)ax.buf + c * stride,
+                           (float *)gm.buf + c * ng, (float *)gh.buf + c * ng, (float *)nr.buf + c * ng,
+                           L, G, near);
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&x);
+    PyBuffer_Release(&ax);
+    PyBuffer_Release(&gm);
+    PyBuffer_Release(&gh);
+    PyBuffer_Release(&nr);
+    return PyBool_FromLong(ok);
+}
+
 static PyMethodDef methods[] = {
     {"cascade", cascade, METH_VARARGS,
      "cascade(sos, y, z, channels, frames, sections): filter y (channels, frames) in place; "
      "z (channels, sections, 2) is the state, updated in place; every buffer C-ordered float64"},
+    {"prescreen", prescreen, METH_VARARGS,
+     "prescreen(x, ax, gm, gh, nr, channels, stride, frames, group, near): the true-peak pre-screen's "
+     "group statistics of x (channels rows of stride float32, the first frames used); False when a "
+     "sample is not finite"},
     {NULL, NULL, 0, NULL}
 };
 

@@ -7,7 +7,6 @@ and ``settings`` (choices made where the standards leave room).
 
 from __future__ import annotations
 
-import hashlib
 import os
 import sys
 import threading
@@ -15,7 +14,7 @@ import time
 
 import numpy as np
 
-from masterqc import __version__
+from masterqc import __version__, filehash
 from masterqc.contract import RESULT_FORMAT_VERSION
 from masterqc.audio.container import timecode_metadata
 from masterqc.audio.reader import open_stream
@@ -25,29 +24,10 @@ from masterqc.measure.options import MeasureOptions
 from masterqc.measure.oversample import single_thread_blas
 from masterqc.measure.registry import analyzer_classes, post_steps
 
-HASH_CHUNK_BYTES = 1 << 20
-
-
-def file_facts(path) -> dict:
-    """``{"path", "size_bytes", "sha256"}`` of a file, read in 1 MiB chunks."""
-    digest = hashlib.sha256()
-    size = 0
-    buf = bytearray(HASH_CHUNK_BYTES)        # one buffer read into again and again: no 1 MiB object per chunk
-    view = memoryview(buf)
-    from masterqc.fileio import NotRegularFile, open_regular_file
-    try:
-        with open_regular_file(path) as f:  # a FIFO or device is refused at once, never waited on
-            while True:
-                n = f.readinto(buf)
-                if not n:
-                    break
-                size += n
-                digest.update(view[:n])
-    except NotRegularFile as exc:
-        raise AudioReadError(path, str(exc)) from None
-    except OSError as exc:
-        raise AudioReadError(path, f"cannot read file ({exc.strerror or exc})") from None
-    return {"path": os.fspath(path), "size_bytes": size, "sha256": digest.hexdigest()}
+# the file's facts (path, size, SHA-256) and the background thread that computes them live in
+# masterqc.filehash, which the command line imports before this module (kept here by name)
+file_facts = filehash.file_facts
+HASH_CHUNK_BYTES = filehash.HASH_CHUNK_BYTES
 
 
 #: blocks the reader may decode ahead of the slowest analyzer (threaded runs; memory stays flat)
@@ -438,29 +418,7 @@ class _BlockScheduler:
             raise self.read_error
 
 
-class _Background:
-    """``fn(*args)`` in a daemon thread; :meth:`result` waits and returns it or raises its error."""
-
-    def __init__(self, fn, *args):
-        self._value = self._error = None
-        self.cpu_s = 0.0
-        self._thread = threading.Thread(target=self._run, args=(fn, args), name="masterqc-hash", daemon=True)
-        self._thread.start()
-
-    def _run(self, fn, args):
-        started = time.thread_time()
-        try:
-            self._value = fn(*args)
-        except BaseException as exc:          # noqa: BLE001 - handed to the caller's thread
-            self._error = exc
-        finally:
-            self.cpu_s = time.thread_time() - started
-
-    def result(self):
-        self._thread.join()
-        if self._error is not None:
-            raise self._error
-        return self._value
+_Background = filehash.Background
 
 
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:
@@ -475,11 +433,14 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     cpu_split = {} if split_path else None
     thread_cpu = {} if split_path else None
     cpu_started = time.process_time()
-    # with threads, the file is hashed in the background while it is measured; its
-    # error (the file cannot be read) still comes first, as in a sequential run
-    hashing = _Background(file_facts, path) if threaded else None
+    # with threads, the file is hashed in the background while it is measured (or it has been
+    # since the command line started, filehash.prefetch); its error (the file cannot be read)
+    # still comes first, as in a sequential run
+    hashing = filehash.take(path)
+    if hashing is None and threaded:
+        hashing = _Background(file_facts, path)
     hash_started = time.thread_time()
-    facts = None if threaded else file_facts(path)
+    facts = None if hashing is not None else file_facts(path)
     hash_cpu_s = time.thread_time() - hash_started
     try:
         with open_stream(path, channel_layout=options.channel_layout) as stream:

@@ -415,6 +415,69 @@ def single_thread_blas():
                 limiter.restore_original_limits()
 
 
+#: the compiled pre-screen kernel: None before the first attempt, False when it is not usable
+_PRESCREEN = None
+
+
+def prescreen_kernel():
+    """``prescreen(x, ax, gm, gh, nr, channels, stride, frames, group, near)`` of masterqc's
+    optional compiled module (``masterqc/measure/_cascade.c``), or None when it was not built
+    or is switched off (``MASTERQC_OWN_KERNEL=0``, :mod:`masterqc.measure.iir`).  Checked
+    once against numpy's path (:func:`_prescreen_numpy`) on a small buffer before it is used."""
+    global _PRESCREEN
+    if _PRESCREEN is None:
+        _PRESCREEN = False
+        import os
+        from masterqc.measure import iir
+        if os.environ.get(iir.OWN_KERNEL_ENV, "").strip() != "0":
+            try:
+                import importlib
+                fn = getattr(importlib.import_module(iir.OWN_KERNEL_MODULE), "prescreen", None)
+                if fn is not None and _prescreen_self_check(fn):
+                    _PRESCREEN = fn
+            except Exception:              # noqa: BLE001 - not built or not loadable: numpy's path
+                pass
+    return _PRESCREEN or None
+
+
+def _prescreen_numpy(x: np.ndarray, group: int, near: int):
+    """(|x|, gm, gh, nr) of a (channels, L) float32 array as the compiled kernel defines them
+    (``_cascade.c``), for the self-check and the tests; ``nr`` clipped at the ends."""
+    C, L = x.shape
+    ax = np.abs(x)
+    ng = L // group
+    gm = ax.reshape(C, ng, group).max(axis=2)
+    dpad = np.zeros_like(x)
+    d = np.subtract(x[:, 1:], x[:, :-1])
+    dpad[:, 1:-1] = np.abs(np.subtract(d[:, 1:], d[:, :-1]))
+    gh = dpad.reshape(C, ng, group).max(axis=2)
+    nr = np.empty_like(gm)
+    for g in range(ng):
+        nr[:, g] = ax[:, max(0, g * group - near):min(L, g * group + group + near)].max(axis=1)
+    return ax, gm, gh, nr
+
+
+def _prescreen_self_check(fn) -> bool:
+    for C, L, G, near in ((2, 256, 32, 4), (3, 96, 16, 3)):
+        # a deterministic irregular signal (numpy.random stays unimported on the measure path)
+        k = np.arange(C * (L + 7), dtype=np.float64)
+        x = (0.6 * np.sin(k * 0.37) * np.cos(k * k * 1e-3) + 1e-3 * np.sin(k * 2.9)).astype(np.float32)
+        x = x.reshape(C, L + 7)
+        x[:, 5] = 0.0
+        ax = np.zeros_like(x)
+        stats = np.zeros((3, C, L // G), np.float32)
+        if not fn(x, ax, stats[0], stats[1], stats[2], C, L + 7, L, G, near):
+            return False
+        want = _prescreen_numpy(np.ascontiguousarray(x[:, :L]), G, near)
+        got = (ax[:, :L], stats[0], stats[1], stats[2])
+        if not all(np.array_equal(w, g) for w, g in zip(want, got)):
+            return False
+    x = np.zeros((1, 64), np.float32)
+    x[0, 7] = np.nan
+    stats = np.zeros((3, 1, 2), np.float32)
+    return not fn(x, np.zeros_like(x), stats[0], stats[1], stats[2], 1, 64, 64, 32, 4)
+
+
 def local_bound_constants(flt: PolyphaseFilter, near: int = 4) -> tuple[float, float, float]:
     """Constants of the pre-screen bound (analytic, see :class:`TruePeakMeter`):
     ``(A_near, A_far, C_h)`` with ``g_p = h_p * b`` (``b = [1, 2, 1]/4``),
@@ -443,6 +506,18 @@ def _group_max(a: np.ndarray, group: int, scratch=None) -> np.ndarray:
         m, k = out, 1 - k
         group //= 2
     return m.copy()
+
+
+def _near_max(ax: np.ndarray, gm: np.ndarray, group: int, near: int, n: int, first: int) -> np.ndarray:
+    """``out[:, g]`` = max of ``ax`` over the columns ``near`` before group ``first + g`` to
+    ``near`` after it (g < n): the group's own maximum ``gm``, the last ``near`` columns of
+    the group before and the first ``near`` of the group after."""
+    a3 = ax[:, (first - 1) * group:(first + n + 1) * group].reshape(ax.shape[0], n + 2, group)
+    out = gm[:, first:first + n].copy()
+    for j in range(near):
+        np.maximum(out, a3[:, :n, group - 1 - j], out=out)
+        np.maximum(out, a3[:, 2:, j], out=out)
+    return out
 
 
 def _window_max(a: np.ndarray, lo: int, hi: int, n: int, first: int) -> np.ndarray:
@@ -731,15 +806,22 @@ class TruePeakMeter:
         return np.minimum(levels[p_first], levels[p_last])
 
     # -- evaluation ----------------------------------------------------------------
-    def _evaluate(self, span: int, m: int) -> None:
-        """Evaluate ``m`` frames (``span`` = m rounded up to whole groups) from
-        buffer column ``pre``."""
-        G, T, lead, C, pre = self._G, self._T, self._lead, self.channels, self._pre
-        ng = span // G
-        start = self.frames_done
-        L = pre + span + self._post_groups * G
+    def _group_stats(self, L: int, ng: int):
+        """The pre-screen's statistics of the buffer's first ``L`` columns (whole groups), with
+        ``|x|`` written into ``self._work[0]``: per channel and group the maximum of ``|x|``
+        (``gm``), of ``4*|x_h|`` (``gh``, the second difference) and, for the ``ng`` groups from
+        ``pre``, of ``|x|`` within ``NEAR`` columns of the group (``m_near``).  The compiled kernel
+        (:func:`prescreen_kernel`) and numpy give the same values (exact maxima of the same float32
+        numbers); numpy's path also takes blocks holding a non-finite sample."""
+        G, C = self._G, self.channels
+        a = self._pre_groups
         xb = self._buf[:, :L]
         ax = self._work[0][:, :L]
+        kernel = prescreen_kernel()
+        if kernel is not None:
+            gm, gh, nr = stats = np.empty((3, C, L // G), np.float32)
+            if kernel(self._buf, self._work[0], gm, gh, nr, C, self._buf.shape[1], L, G, self.NEAR):
+                return gm, gh, nr[:, a:a + ng]
         np.abs(xb, out=ax)
         scratch = (self._work[2], self._work[3])
         gm = _group_max(ax, G, scratch)                               # per group max|x|
@@ -750,8 +832,18 @@ class TruePeakMeter:
         dpad[:, -1] = 0.0                                               # (never read: past the spans)
         np.abs(dpad, out=dpad)
         gh = _group_max(dpad, G, scratch)
+        return gm, gh, _near_max(ax, gm, G, self.NEAR, ng, a)
+
+    def _evaluate(self, span: int, m: int) -> None:
+        """Evaluate ``m`` frames (``span`` = m rounded up to whole groups) from
+        buffer column ``pre``."""
+        G, T, lead, C, pre = self._G, self._T, self._lead, self.channels, self._pre
+        ng = span // G
+        start = self.frames_done
+        L = pre + span + self._post_groups * G
+        ax = self._work[0][:, :L]
         a = self._pre_groups
-        m_near = _window_max(gm, -1, 1, ng, a)
+        gm, gh, m_near = self._group_stats(L, ng)
         m_far = _window_max(gm, self._far[0], self._far[1], ng, a)
         h_far = _window_max(gh, self._hspan[0], self._hspan[1], ng, a)
         bound = (self._a_near * m_near.astype(np.float64) + (self._a_far + self.BOUND_ROUNDING) * m_far
@@ -768,8 +860,11 @@ class TruePeakMeter:
             gfirst = -(-cuts // G)
             gend = np.append(cuts[1:], m) // G
             out = np.zeros(cuts.shape[0])
-            for j in np.flatnonzero(gend > gfirst):
-                out[j] = float(gmax[gfirst[j]:gend[j]].max())
+            whole = np.flatnonzero(gend > gfirst)
+            if whole.size:        # max over [gfirst, gend) of each such piece: every other segment
+                bounds = np.stack([gfirst[whole], gend[whole]], axis=1).ravel()
+                ext = np.append(gmax, gmax[:1])       # gend may be the run's last group + 1
+                out[whole] = np.maximum.reduceat(ext, bounds)[0::2]
             return out
 
         cuts, levels = self._levels(start, m, known_samples)
