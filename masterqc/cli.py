@@ -91,6 +91,8 @@ def _add_more(sub, only: str | None) -> None:
 def cmd_measure(args) -> int:
     from masterqc import stagelog
     stagelog.note_startup()  # interpreter and command line, for bench/bench_startup.py --split
+    from masterqc.measure.options import pin_blas_to_one_thread
+    pin_blas_to_one_thread()    # before numpy loads: no threadpoolctl inspection per process
     if (args.threads or _default_threads()) > 1:
         # hash the file on a thread of its own while the measuring layers are imported (one core
         # at most is busy then): the engine takes the result (masterqc.filehash)

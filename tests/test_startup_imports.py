@@ -203,3 +203,26 @@ def test_the_program_exits_with_its_code_and_all_its_output(tmp_path):
                          cwd=tmp_path, capture_output=True, text=True, timeout=300,
                          env={**__import__("os").environ, "PYTHONPATH": str(ROOT)})
     assert bad.returncode == 3 and "missing.wav" in bad.stderr
+
+
+def _blas_probe(wav: Path, env_extra: dict) -> list[str]:
+    import os
+    env = {k: v for k, v in os.environ.items()
+           if k not in ("OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS", "MASTERQC_BLAS_ONE_THREAD")}
+    env.update(env_extra)
+    code = (_measure_probe(wav, 48000)
+            + "import sys\nprint('threadpoolctl' in sys.modules)\n"
+              "import threadpoolctl\n"
+              "print(max(i['num_threads'] for i in threadpoolctl.threadpool_info() if i['user_api'] == 'blas'))\n")
+    out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, timeout=300,
+                         check=True, env=env)
+    return out.stdout.strip().splitlines()[-2:]
+
+
+def test_measure_starts_blas_with_one_thread_without_threadpoolctl(tmp_path):
+    # house choice (masterqc.measure.options.pin_blas_to_one_thread): one file's measure sets the
+    # BLAS thread variables before numpy loads, so the measurement need not inspect the process
+    # with threadpoolctl to hold BLAS to one thread; a user's own setting stands
+    wav = _short_file(tmp_path / "short.wav", 48000, 2, 1.0)
+    assert _blas_probe(wav, {}) == ["False", "1"]
+    assert _blas_probe(wav, {"OPENBLAS_NUM_THREADS": "2"})[0] == "True"      # their choice: limited per run

@@ -73,6 +73,7 @@ from __future__ import annotations
 
 import contextlib
 import math
+import os
 import threading
 from dataclasses import dataclass
 from functools import lru_cache
@@ -81,6 +82,7 @@ import numpy as np
 from numpy.lib.stride_tricks import as_strided
 
 from masterqc.measure import filterprops
+from masterqc.measure.options import BLAS_PINNED_ENV
 
 #: the example interpolation filter of ITU-R BS.1770-5 Annex 2 (phases 0 and 1;
 #: phase 2 is phase 1 reversed, phase 3 is phase 0 reversed)
@@ -392,6 +394,8 @@ def single_thread_blas():
     engine holds one for a whole run, so the true-peak meter's own per-block ones
     no longer re-inspect the loaded libraries each time)."""
     global _BLAS, _BLAS_DEPTH, _BLAS_LIMITER
+    if _BLAS is None and os.environ.get(BLAS_PINNED_ENV) == "1":
+        _BLAS = False              # BLAS was started with one thread (options.pin_blas_to_one_thread)
     if _BLAS is None:
         try:
             from threadpoolctl import ThreadpoolController
@@ -427,7 +431,6 @@ def prescreen_kernel():
     global _PRESCREEN
     if _PRESCREEN is None:
         _PRESCREEN = False
-        import os
         from masterqc.measure import iir
         if os.environ.get(iir.OWN_KERNEL_ENV, "").strip() != "0":
             try:
@@ -965,13 +968,23 @@ class TruePeakMeter:
 def _group_matrix(taps: np.ndarray, phases, group: int) -> np.ndarray:
     """The listed phases of a polyphase filter as one float32 matrix for a group of frames:
     row r = input sample (first frame of the group - lead + r), column q*group + b = phase
-    ``phases[q]`` of frame b of the group.  ``taps`` is (taps per phase, factor)."""
-    T = taps.shape[0]
+    ``phases[q]`` of frame b of the group.  ``taps`` is (taps per phase, factor).  Read-only,
+    built once per process for each filter, phase list and group size."""
+    return _group_matrix_cached(taps.tobytes(), taps.shape, tuple(int(p) for p in phases), int(group))
+
+
+@lru_cache(maxsize=16)
+def _group_matrix_cached(taps_bytes: bytes, shape: tuple, phases: tuple, group: int) -> np.ndarray:
+    taps = np.frombuffer(taps_bytes, dtype=np.float64).reshape(shape)
+    T = shape[0]
     w = np.zeros((group + T - 1, len(phases) * group))
-    for q, ph in enumerate(phases):
-        for b in range(group):
-            w[b:b + T, q * group + b] = taps[:, ph]
-    return w.astype(np.float32)
+    b = np.arange(group)
+    t = np.arange(T)
+    for q, ph in enumerate(phases):          # w[b + t, q*group + b] = taps[t, ph] for every b and t
+        w[b[:, None] + t[None, :], q * group + b[:, None]] = taps[None, :, ph]
+    w = w.astype(np.float32)
+    w.flags.writeable = False
+    return w
 
 
 def _group_maxima(rows_all: np.ndarray, groups: np.ndarray, w: np.ndarray, phases: int, group: int,
