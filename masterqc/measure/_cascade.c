@@ -17,14 +17,15 @@
 #include <stdint.h>
 
 /* two channels, two sections (K-weighting of a stereo block): everything in registers */
-static void stereo2(const double *sos, double *y0, double *y1, double *za, double *zb, Py_ssize_t n)
+static void stereo2(const double *sos, const double *x0, const double *x1, double *y0, double *y1,
+                    double *za, double *zb, Py_ssize_t n)
 {
     const double p0 = sos[0], p1 = sos[1], p2 = sos[2], p4 = sos[4], p5 = sos[5];
     const double q0 = sos[6], q1 = sos[7], q2 = sos[8], q4 = sos[10], q5 = sos[11];
     double a00 = za[0], a01 = za[1], a10 = za[2], a11 = za[3];
     double b00 = zb[0], b01 = zb[1], b10 = zb[2], b11 = zb[3];
     for (Py_ssize_t i = 0; i < n; i++) {
-        double x = y0[i], u = y1[i], t, v;
+        double x = x0[i], u = x1[i], t, v;
         t = p0 * x + a00; a00 = p1 * x - p4 * t + a01; a01 = p2 * x - p5 * t;
         v = p0 * u + b00; b00 = p1 * u - p4 * v + b01; b01 = p2 * u - p5 * v;
         x = t; u = v;
@@ -36,17 +37,20 @@ static void stereo2(const double *sos, double *y0, double *y1, double *za, doubl
     zb[0] = b00; zb[1] = b01; zb[2] = b10; zb[3] = b11;
 }
 
-/* y: (C, n) C order; z: (C, S, 2) C order; sos: (S, 6) with a0 = 1 */
-static void run(const double *sos, double *y, double *z, Py_ssize_t C, Py_ssize_t n, Py_ssize_t S)
+/* x (input) and y (output, may be x itself): (C, n) C order; z: (C, S, 2) C order; sos: (S, 6)
+ * with a0 = 1.  Each sample is read before its output is written, so in place is safe. */
+static void run(const double *sos, const double *xin, double *y, double *z, Py_ssize_t C, Py_ssize_t n,
+                Py_ssize_t S)
 {
     Py_ssize_t c0 = 0;
     if (S == 2) {
         for (; c0 + 1 < C; c0 += 2)
-            stereo2(sos, y + c0 * n, y + (c0 + 1) * n, z + c0 * 4, z + (c0 + 1) * 4, n);
+            stereo2(sos, xin + c0 * n, xin + (c0 + 1) * n, y + c0 * n, y + (c0 + 1) * n, z + c0 * 4,
+                    z + (c0 + 1) * 4, n);
     }
     for (Py_ssize_t i = 0; i < n; i++) {
         for (Py_ssize_t c = c0; c < C; c++) {
-            double x = y[c * n + i];
+            double x = xin[c * n + i];
             double *zc = z + c * S * 2;
             for (Py_ssize_t s = 0; s < S; s++) {
                 const double *q = sos + 6 * s;
@@ -76,9 +80,37 @@ static PyObject *cascade(PyObject *self, PyObject *args)
         return NULL;
     }
     Py_BEGIN_ALLOW_THREADS
-    run((const double *)sos.buf, (double *)y.buf, (double *)z.buf, C, n, S);
+    run((const double *)sos.buf, (const double *)y.buf, (double *)y.buf, (double *)z.buf, C, n, S);
     Py_END_ALLOW_THREADS
     PyBuffer_Release(&sos);
+    PyBuffer_Release(&y);
+    PyBuffer_Release(&z);
+    Py_RETURN_NONE;
+}
+
+/* the same recursion from x (read only) into y: no copy of the input first */
+static PyObject *cascade_into(PyObject *self, PyObject *args)
+{
+    Py_buffer sos, x, y, z;
+    Py_ssize_t C, n, S;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*y*w*w*nnn", &sos, &x, &y, &z, &C, &n, &S))
+        return NULL;
+    if (C < 0 || n < 0 || S < 0 || sos.len != (Py_ssize_t)(S * 6 * sizeof(double)) ||
+        x.len != (Py_ssize_t)(C * n * sizeof(double)) || y.len != (Py_ssize_t)(C * n * sizeof(double)) ||
+        z.len != (Py_ssize_t)(C * S * 2 * sizeof(double))) {
+        PyBuffer_Release(&sos);
+        PyBuffer_Release(&x);
+        PyBuffer_Release(&y);
+        PyBuffer_Release(&z);
+        PyErr_SetString(PyExc_ValueError, "cascade_into: buffer sizes do not match (channels, frames, sections)");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    run((const double *)sos.buf, (const double *)x.buf, (double *)y.buf, (double *)z.buf, C, n, S);
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&sos);
+    PyBuffer_Release(&x);
     PyBuffer_Release(&y);
     PyBuffer_Release(&z);
     Py_RETURN_NONE;
@@ -218,6 +250,9 @@ static PyMethodDef methods[] = {
     {"cascade", cascade, METH_VARARGS,
      "cascade(sos, y, z, channels, frames, sections): filter y (channels, frames) in place; "
      "z (channels, sections, 2) is the state, updated in place; every buffer C-ordered float64"},
+    {"cascade_into", cascade_into, METH_VARARGS,
+     "cascade_into(sos, x, y, z, channels, frames, sections): filter x (channels, frames) into y "
+     "(same shape, not overlapping x unless it is x); z as for cascade"},
     {"prescreen", prescreen, METH_VARARGS,
      "prescreen(x, ax, gm, gh, nr, channels, stride, frames, group, near): the true-peak pre-screen's "
      "group statistics of x (channels rows of stride float32, the first frames used); False when a "

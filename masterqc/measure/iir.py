@@ -71,9 +71,15 @@ def _own_kernel():
     except ImportError:
         return None
     cascade = module.cascade
+    cascade_into = getattr(module, "cascade_into", None)
 
     def kernel(sos, y, z):
         cascade(sos, y, z, y.shape[0], y.shape[1], sos.shape[0])
+
+    if cascade_into is not None:
+        def into(sos, x, y, z):
+            cascade_into(sos, x, y, z, x.shape[0], x.shape[1], sos.shape[0])
+        kernel.into = into        # filters a C-ordered x into a fresh y: no copy of x first
     return kernel
 
 
@@ -128,6 +134,15 @@ def _kernel_self_check(kernel) -> bool:
         kernel(np.ascontiguousarray(s), y, z)
         if not (np.array_equal(y, ref) and np.array_equal(np.moveaxis(z, 0, 1), ref_z)):
             return False
+        into = getattr(kernel, "into", None)
+        if into is not None:            # out of place: the same bits, the input untouched
+            xc = np.array(x, order="C")
+            y2 = np.empty_like(xc)
+            z2 = np.array(np.moveaxis(zi, 0, 1), order="C")
+            into(np.ascontiguousarray(s), xc, y2, z2)
+            if not (np.array_equal(y2, ref) and np.array_equal(np.moveaxis(z2, 0, 1), ref_z)
+                    and np.array_equal(xc, x)):
+                return False
     return True
 
 
@@ -171,9 +186,14 @@ def _sosfilt_kernel(kernel, sos, x, axis, zi):
                          f"{n_sec} sections, zi must have shape {want!r}, got {zi.shape!r}")
     sos = np.ascontiguousarray(sos, dtype=np.float64)
     if signals_first:
-        y = np.array(x, dtype=np.float64, order="C")
         z = np.array(np.moveaxis(zi, 0, 1), order="C")           # (signals, sections, 2)
-        kernel(sos, y, z)
+        into = getattr(kernel, "into", None)
+        if into is not None and x.dtype == np.float64 and x.flags.c_contiguous:
+            y = np.empty(x.shape)                                 # the same recursion, read from x
+            into(sos, x, y, z)
+        else:
+            y = np.array(x, dtype=np.float64, order="C")
+            kernel(sos, y, z)
         return y, np.moveaxis(z, 0, 1)
     y = np.array(x.T, dtype=np.float64, order="C")
     z = np.array(np.moveaxis(zi, (0, 1), (1, 2)), order="C")      # (signals, sections, 2)
