@@ -821,3 +821,27 @@ def test_near_window_bound_is_the_exact_window_maximum():
     got = ov._near_max(x, gm, G, near, 8, 1)
     want = np.stack([[x[c, g * G - near:g * G + G + near].max() for g in range(1, 9)] for c in range(2)])
     assert np.array_equal(got, want)
+
+
+def test_run_length_changes_no_result(adversarial_reference):
+    # runs of any whole number of groups give the same bits (results equal a full evaluation,
+    # TruePeakMeter docstring; by construction); the analyzer takes longer runs on long stereo files
+    x, _ = adversarial_reference
+    base, cp0, _ = run_meter(x, 65536)
+    for run in (32 * 1000, 262144):
+        frames = []
+        bf = -(-x.shape[0] // 2000)
+        meter = ov.TruePeakMeter(FS, 2, 4, ceiling_linear=10 ** (-1 / 20), bucket_frames=bf,
+                                 buckets=-(-x.shape[0] // bf), run_frames=run,
+                                 on_channel_frames=lambda s, cp: frames.append(cp.copy()))
+        for i in range(0, x.shape[0], 50000):
+            meter.process(x[i:i + 50000])
+        meter.flush()
+        assert np.array_equal(meter.peak_linear, base.peak_linear), run
+        assert np.array_equal(meter.envelope_linear, base.envelope_linear), run
+        cp = np.concatenate(frames, axis=1)
+        over = cp0 > 10 ** (-1 / 20)
+        assert np.array_equal(cp > 10 ** (-1 / 20), over), run          # the same over frames
+        assert np.array_equal(cp[over], cp0[over]), run                  # ... with the same values
+    with pytest.raises(ValueError, match="multiple of"):
+        ov.TruePeakMeter(FS, 2, run_frames=100)

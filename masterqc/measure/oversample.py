@@ -596,7 +596,8 @@ class TruePeakMeter:
 
     #: frames per group of the pre-screen and of the scan's matrix product
     GROUP = 32
-    #: frames per run (a multiple of GROUP; runs sit at fixed positions)
+    #: frames per run by default (a multiple of GROUP; runs sit at fixed positions); a meter may
+    #: be given another (``run_frames``): results equal a full evaluation whatever the run length
     RUN_FRAMES = 131072
     #: samples either side counted in the pre-screen's near term
     NEAR = 4
@@ -614,9 +615,13 @@ class TruePeakMeter:
     def __init__(self, sample_rate_hz: float, channels: int, factor: int = 4,
                  design: str = "kaiser", on_frames=None, ceiling_linear: float | None = None,
                  bucket_frames: int | None = None, buckets: int = 1, on_channel_frames=None,
-                 float32_exact: bool = False):
+                 float32_exact: bool = False, run_frames: int | None = None):
         self.sample_rate_hz = float(sample_rate_hz)
         self.channels = int(channels)
+        if run_frames is not None:
+            if run_frames < self.GROUP or run_frames % self.GROUP:
+                raise ValueError(f"run_frames {run_frames}: a positive multiple of {self.GROUP}")
+            self.RUN_FRAMES = int(run_frames)       # this meter's runs (the class default otherwise)
         #: the caller promises every sample is a float32 value (PCM up to 24 bits, 32-bit
         #: float): the sample peak is then taken from the float32 buffer, still exact
         self.float32_exact = bool(float32_exact)
