@@ -395,10 +395,12 @@ def section_split(args, results: dict) -> bool:
         t = r.get("threads_cpu_s") or {}
         if "analyze_s" not in t or r.get("process_cpu_s") is None:
             return None
-        return (r["process_cpu_s"] - t["hash_s"] - t["read_s"] - t["analyze_s"]
-                - sum(v[1] for v in r["analyzers"].values()))
-    # the engine's own opt-in split of that rest (older engines: '-')
-    for label, fn in (("  start-up (before measuring)", lambda r: r["whole"]["cpu_s"] - r["process_cpu_s"]
+        return (r["process_cpu_s"] - (t["hash_s"] - r.get("hash_before_measure_s", 0.0)) - t["read_s"]
+                - t["analyze_s"] - sum(v[1] for v in r["analyzers"].values()))
+    # the engine's own opt-in split of that rest (older engines: '-'); a hash the command line
+    # started before the measurement (hash_before_measure_s) is counted in the hash row only
+    for label, fn in (("  start-up (before measuring)",
+                       lambda r: r["whole"]["cpu_s"] - r["process_cpu_s"] - r.get("hash_before_measure_s", 0.0)
                        if r.get("process_cpu_s") is not None else None),
                       ("  hash (SHA-256 of the file)", threads_cpu("hash_s")),
                       ("  decode + block preparation", threads_cpu("read_s")),

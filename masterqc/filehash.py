@@ -17,10 +17,11 @@ import os
 import threading
 import time
 
-#: bytes read and hashed per call: large, so that a thread that must wait for the GIL between
-#: calls (another thread importing modules holds it for up to the switch interval, 5 ms) spends
-#: most of its time hashing with the GIL released (a 16 MiB chunk takes about 12 ms)
-HASH_CHUNK_BYTES = 16 << 20
+#: bytes read and hashed per call (house choice, measured: 1 MiB costs the least CPU, 0.13 s for
+#: 10 minutes of 24-bit stereo against 0.16-0.19 s with 16 MiB, whose buffer leaves the core's
+#: cache; a larger chunk would let a hash waiting for the GIL between calls, while another thread
+#: imports modules, spend more of the start-up hashing)
+HASH_CHUNK_BYTES = 1 << 20
 
 
 def file_facts(path) -> dict:
@@ -73,6 +74,16 @@ class Background:
             self._error = exc
         finally:
             self.cpu_s = time.thread_time() - started
+
+    def cpu_so_far(self):
+        """CPU seconds the thread has spent so far (Linux: its CPU clock), or None where that clock
+        cannot be read; once the thread has ended, :attr:`cpu_s`."""
+        if not self._thread.is_alive():
+            return self.cpu_s
+        try:
+            return time.clock_gettime(time.pthread_getcpuclockid(self._thread.ident))
+        except (AttributeError, OSError, TypeError, ValueError):
+            return None if self._thread.is_alive() else self.cpu_s
 
     def result(self):
         self._thread.join()

@@ -257,3 +257,34 @@ def test_single_thread_blas_nests_and_restores():
         assert oversample._BLAS_DEPTH == 1
     assert oversample._BLAS_DEPTH == 0
     assert threads() == before
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_prefetched_hash_gives_the_same_facts(tmp_path, monkeypatch, threads):
+    """A hash the command line starts early (masterqc.filehash.prefetch, house choice) is the one
+    the engine reports: the same facts as hashlib over the file's bytes (by construction), with the
+    CPU it spent before the measurement recorded apart in the opt-in split (within its total)."""
+    import hashlib
+    import json
+    from masterqc import filehash
+    from masterqc.measure import engine
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_24")
+    split = tmp_path / "split.json"
+    monkeypatch.setenv(engine.CPU_SPLIT_ENV, str(split))
+    filehash.prefetch(str(path))
+    facts = measure_file(str(path), MeasureOptions(threads=threads))["file"]
+    assert filehash.take(str(path)) is None                        # handed out once
+    assert facts["sha256"] == hashlib.sha256(path.read_bytes()).hexdigest()
+    assert facts["size_bytes"] == path.stat().st_size
+    data = json.loads(split.read_text())
+    assert 0.0 <= data["hash_before_measure_s"] <= data["threads_cpu_s"]["hash_s"] + 1e-3
+
+
+def test_prefetched_hash_of_a_missing_file_raises_the_read_error(tmp_path):
+    from masterqc import filehash
+    missing = tmp_path / "nowhere.wav"
+    filehash.prefetch(str(missing))
+    with pytest.raises(AudioReadError) as err:
+        measure_file(str(missing), MeasureOptions(threads=2))
+    assert "nowhere.wav" in str(err.value)

@@ -437,6 +437,8 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     # since the command line started, filehash.prefetch); its error (the file cannot be read)
     # still comes first, as in a sequential run
     hashing = filehash.take(path)
+    # CPU the prefetched hash spent before this call (the CPU split counts it in start-up)
+    hash_before_s = (hashing.cpu_so_far() or 0.0) if hashing is not None and split_path else 0.0
     if hashing is None and threaded:
         hashing = _Background(file_facts, path)
     hash_started = time.thread_time()
@@ -457,6 +459,8 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         hash_cpu_s = hashing.cpu_s
     if split_path:
         import json
+        # hash_before_measure_s: the part of hash_s spent before measure_file was called (a hash
+        # the command line started, masterqc.filehash.prefetch; outside process_cpu_s);
         # threads_cpu_s: "hash_s" (the file's SHA-256), "read_s" (decoding and preparing the
         # blocks), "analyze_s" (the analyzer threads: the analyzers' process() and the
         # scheduling around it); the rest of process_cpu_s is opening the file, building the
@@ -465,6 +469,7 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
             json.dump({"process_cpu_s": time.process_time() - cpu_started,
                        "threads": max(1, int(getattr(options, "threads", 1) or 1)),
                        "threads_cpu_s": {"hash_s": hash_cpu_s, **thread_cpu},
+                       "hash_before_measure_s": hash_before_s,
                        "analyzers": cpu_split}, f, indent=1)
     metadata = dict(container.metadata)
     metadata["container_kind"] = container.kind
