@@ -5,7 +5,9 @@ without reading the detectors, their tuning corpora or their scorers; every labe
 the construction fact each label relies on is MEASURED when the case is made (``Case.facts``).  A case whose
 fact does not hold is relabelled (moved to an ``ambiguous-...`` group with the disputed key left out) or dropped.
 
-Tool chains (new against the two earlier validation sets; ``print_versions()`` prints the versions in use):
+Tool chains (new against the two earlier validation sets; ``print_versions()`` prints the versions in use; built
+and checked with resampy 0.4.3 (numba), pedalboard 0.9.26, SoX 14.4.2, ffmpeg 5.1 (Debian 12 build), numpy 2.4,
+scipy 1.17):
     resampy-kaiser_best, resampy-kaiser_fast    resampy.resample (python, numba)
     resampy-short-sinc                          resampy with its ``sinc_window`` filter, 2-4 zero crossings, a
                                                 rectangular or Hann window and rolloff 0.97-1.0 (weak image filter)
@@ -1263,18 +1265,20 @@ def _render(seed: int, p: dict, quick: bool) -> Iterator[Case]:
             fam = "pedalboard-gsm"
         else:
             y = ffmpeg_codec(x, r_codec, codec, p["args"])
-            fam = f"ffmpeg-{codec}" + ("-" + "".join(p["args"]).replace("-b:a", "").replace("-q:a", "q")
-                                       if p["args"] else "")
+            fam = f"ffmpeg-{codec}"
+        setting = ("".join(str(a_) for a_ in p["args"]).replace("-b:a", "").replace("-q:a", "q") if p["args"] else "")
+        if codec == "pb-mp3":
+            setting = f"vbr{p['args'][0]:g}"
         if k == "codec":
             f3, f40 = transfer_points(x, y, rate)
             steep, near = steep_near_rates(f3, f40, rate)
             y, lvl = set_level(y, p["level"])
             facts = dict(f3_hz=f3, f40_hz=f40, steep=steep, near_rates=near, level_db=lvl)
             if codec == "opus":
-                yield Case(_name(seed, p, fam, _khz(rate)), SET_NAME, fam, "ambiguous-codec", rate, y,
+                yield Case(_name(seed, p, fam, setting, _khz(rate)), SET_NAME, fam, "ambiguous-codec", rate, y,
                            {"imaging_detected": False}, _labels(ch), facts, "low-rate opus: internal layer rate unknown")
             else:
-                yield Case(_name(seed, p, fam, _khz(rate)), SET_NAME, fam,
+                yield Case(_name(seed, p, fam, setting, _khz(rate)), SET_NAME, fam,
                            "ambiguous-codec-shelf" if steep and near else "codec-shelf", rate, y,
                            {"upsampled_from_hz": None, "imaging_detected": False}, _labels(ch), facts,
                            "lossy round trip at the file's rate")
@@ -1301,7 +1305,7 @@ def _render(seed: int, p: dict, quick: bool) -> Iterator[Case]:
         group = "upsampled-via-codec" if EDGE_LO_FRAC <= ed <= CODEC_EDGE_HI_FRAC and img <= IMAGE_MAX_NEG_DB \
             else "ambiguous-codec-upsampled"
         y, facts["level_db"] = set_level(y, p["level"])
-        yield Case(_name(seed, p, fam, "at", _khz(s), "up", up_name, _khz(d)), SET_NAME, fam, group, d, y, expect,
+        yield Case(_name(seed, p, fam, setting, "at", _khz(s), "up", up_name, _khz(d)), SET_NAME, fam, group, d, y, expect,
                    _labels(ch), facts, f"{codec} at {s} Hz, converted up to {d} Hz by {up_name}")
         return
     raise ValueError(f"unknown plan kind {k!r}")
