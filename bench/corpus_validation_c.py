@@ -963,14 +963,15 @@ def _quick_indices(plan: list[dict]) -> list[int]:
     want = ["up:resampy-kaiser_best", "up:sox-cli-rate-p35", "up:ffmpeg-swr-cubic", "up:pedalboard-stream-windowedsinc64",
             "up:sox-cli-rate-lowband", "pb-roundtrip", "one", "up:sox-cli-upsample", "up:pedalboard-stream-zeroorderhold",
             "up:resampy-short-sinc", "synth:pwm", "synth:sync", "synth:fm", "decim", "hold", "down", "native",
-            "native:speech", "lowpass", "codec", "codec-up"]
+            "native:speech", "lowpass", "codec", "codec:opus", "codec-up:g722", "crush",
+            "pb-roundtrip:pedalboard-resample-windowedsinc"]
     out = []
     for w in want:
         k, _, sub = w.partition(":")
         for p in plan:
             if p["kind"] != k or p["idx"] in out:
                 continue
-            tag = p.get("family") or p.get("osc") or ""
+            tag = p.get("family") or p.get("osc") or p.get("codec") or ""
             if k == "synth":
                 tag = p["osc"]
             if k == "native" and sub != "speech" and p["material"] == "speech":
