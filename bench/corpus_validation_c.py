@@ -802,7 +802,7 @@ def _pair(rng: np.random.Generator, sources=UP_SOURCES, targets=UP_TARGETS, inte
         return s, d
 
 
-def _lower_standard(rate: int, rng: np.random.Generator, standard_only: bool = True) -> int:
+def _lower_standard(rate: int, rng: np.random.Generator) -> int:
     cands = [r for r in STANDARD_RATES_HZ if r < rate and r >= rate / 4 and r >= 8000]
     return int(rng.choice(cands))
 
