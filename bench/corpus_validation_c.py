@@ -860,8 +860,9 @@ def build_plan(seed: int) -> list[dict]:
                   ("sox-cli-rate-p85", dict(tool="sox", opts=["-h", "-p", "85"]))]
     for i in range(10):
         fam, ch = one_chains[i % len(one_chains)]
-        s, d = _pair(rng, sources=(22050, 32000, 44100, 48000), targets=(48000, 88200, 96000, 192000))
         chans = 2 if i < 6 else 6
+        s, d = _pair(rng, sources=(22050, 32000, 44100, 48000),
+                     targets=(48000, 88200, 96000, 192000) if chans == 2 else (48000, 88200, 96000))
         which = int(rng.choice([0, 1] if chans == 2 else [0, 1, 2, 4, 5]))
         add(kind="one", family=fam, chain=ch, src=s, rate=d, channels=chans, which=which, material="mix")
 
