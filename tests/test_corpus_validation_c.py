@@ -1,0 +1,151 @@
+"""The third validation corpus (bench/corpus_validation_c.py) checked as a corpus: contract shape, unique names,
+sample bounds, and that every label's construction fact holds on the quick slice.  Nothing here runs masterqc:
+the detectors are scored elsewhere, once, on the full set.
+
+Facts are re-measured here from the audio itself where the audio alone carries them (images above the source
+Nyquist, band content of native files); the rest are read from the facts the generator measured against the
+thresholds the corpus documents (house choices).
+"""
+from __future__ import annotations
+
+import importlib.util
+import math
+import re
+import shutil
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import signal
+
+pytest.importorskip("resampy")
+pytest.importorskip("pedalboard")
+if not (shutil.which("sox") and shutil.which("ffmpeg")):
+    pytest.skip("the corpus needs the sox and ffmpeg programs", allow_module_level=True)
+
+ROOT = Path(__file__).resolve().parents[1]
+_spec = importlib.util.spec_from_file_location("corpus_validation_c", ROOT / "bench" / "corpus_validation_c.py")
+cvc = importlib.util.module_from_spec(_spec)
+sys.modules["corpus_validation_c"] = cvc
+_spec.loader.exec_module(cvc)
+
+CONTRACT_KEYS = {"upsampled_from_hz", "upsampled_channels", "imaging_detected", "aliasing_detected"}
+SEED = 7003
+
+
+@pytest.fixture(scope="module")
+def quick_cases():
+    return list(cvc.cases(SEED, quick=True))
+
+
+def _image_db(audio, rate, src):
+    """Energy between 1.05x the source Nyquist and 0.995x the file's Nyquist over the energy below the source
+    Nyquist, from a plain periodogram (an independent estimate from the corpus module's Welch one)."""
+    f, p = signal.periodogram(audio, fs=rate, axis=0, window="hann")
+    p = p.sum(axis=1)
+    hi = p[(f >= 1.05 * src / 2) & (f < 0.995 * rate / 2)].sum()
+    lo = p[(f >= 20) & (f < src / 2)].sum()
+    return 10 * math.log10(max(hi, 1e-30) / max(lo, 1e-30))
+
+
+def test_quick_slice_shape(quick_cases):
+    # contract: name [a-z0-9_-], set "validation", float64 (frames, channels), |x| <= 1, labels per channel count
+    assert 15 <= len(quick_cases) <= 30
+    names = [c.name for c in quick_cases]
+    assert len(set(names)) == len(names)
+    for c in quick_cases:
+        assert re.fullmatch(r"[a-z0-9_-]+", c.name), c.name
+        assert c.set == "validation"
+        assert c.rate_hz in cvc.STANDARD_RATES_HZ, (c.name, c.rate_hz)
+        assert c.audio.dtype == np.float64 and c.audio.ndim == 2
+        assert c.audio.shape[1] in (1, 2, 6)
+        assert 2.5 * c.rate_hz <= c.audio.shape[0] <= 12.5 * c.rate_hz, (c.name, c.audio.shape)
+        assert float(np.max(np.abs(c.audio))) <= cvc.PEAK_MAX + 1e-9
+        assert np.all(np.isfinite(c.audio))
+        assert set(c.expect) <= CONTRACT_KEYS and c.expect, c.name
+        assert c.channel_labels == cvc.CHANNEL_LABELS[c.audio.shape[1]]
+        rms_db = 20 * math.log10(math.sqrt(np.mean(c.audio ** 2)))
+        assert -31.0 <= rms_db <= -5.9, (c.name, rms_db)
+
+
+def test_quick_slice_covers_groups(quick_cases):
+    groups = {c.group for c in quick_cases}
+    for g in ("upsampled", "imaging", "upsampled-one-channel", "naive-synth", "band-limited-synth", "decimation",
+              "sample-hold", "native", "speech"):
+        assert g in groups, (g, sorted(groups))
+    assert groups & {"codec-shelf", "ambiguous-codec-shelf"}
+    assert groups & {"lowpass", "ambiguous-lowpass"}
+    assert groups & {"filtered-decimation", "downsampled"}
+
+
+def test_upsampling_and_imaging_facts(quick_cases):
+    for c in quick_cases:
+        src = c.expect.get("upsampled_from_hz")
+        if not src or c.group == "upsampled-one-channel":
+            continue
+        assert src in cvc.STANDARD_RATES_HZ and src < c.rate_hz, c.name
+        img = _image_db(c.audio, c.rate_hz, src)
+        if c.expect.get("imaging_detected") is True:
+            # images by construction: at least IMAGE_MIN_DB above the old Nyquist (3 dB slack for the estimator)
+            assert img >= cvc.IMAGE_MIN_DB - 3, (c.name, img)
+        elif c.expect.get("imaging_detected") is False:
+            assert img <= cvc.IMAGE_MAX_NEG_DB + 3, (c.name, img)
+        if c.group in ("upsampled", "upsampled-via-codec"):
+            assert cvc.EDGE_LO_FRAC <= c.facts.get("edge_frac", c.facts.get("band_edge_frac")) <= cvc.CODEC_EDGE_HI_FRAC
+
+
+def test_one_channel_fact(quick_cases):
+    one = [c for c in quick_cases if c.group == "upsampled-one-channel"]
+    assert one
+    for c in one:
+        (lab,) = c.expect["upsampled_channels"]
+        i = c.channel_labels.index(lab)
+        # the converted channel has nothing above 1.05x its source Nyquist; another full-band channel has
+        src = c.facts["src_hz"]
+        assert _image_db(c.audio[:, [i]], c.rate_hz, src) <= cvc.IMAGE_MAX_NEG_DB + 3
+        j = 0 if i != 0 else 1
+        assert _image_db(c.audio[:, [j]], c.rate_hz, src) >= -40.0
+
+
+def test_folding_facts(quick_cases):
+    for c in quick_cases:
+        if c.expect.get("aliasing_detected") is True:
+            assert c.facts["fold_db"] >= cvc.FOLD_MIN_DB, c.name
+            if c.group == "sample-hold":
+                # held at the lower rate: the source rate named is that rate, and the images are there
+                assert c.expect["upsampled_from_hz"] < c.rate_hz and c.expect["imaging_detected"] is True
+                assert _image_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) >= cvc.IMAGE_MIN_DB - 3
+            else:
+                assert c.expect.get("upsampled_from_hz") is None, c.name
+        if c.group in ("filtered-decimation", "downsampled"):
+            assert c.facts["fold_db"] <= cvc.LEAK_MAX_DB, c.name
+
+
+def test_native_material_reaches_nyquist(quick_cases):
+    for c in quick_cases:
+        if c.group in ("native", "speech"):
+            f, p = signal.periodogram(c.audio, fs=c.rate_hz, axis=0)
+            p = p.sum(axis=1)
+            top = p[(f >= 0.9 * c.rate_hz / 2) & (f < 0.99 * c.rate_hz / 2)].sum() / p[f >= 20].sum()
+            assert 10 * math.log10(top) > -80, c.name
+
+
+def test_naive_twins_differ_only_by_folding():
+    # analytic check of the band-limited pulse: its Fourier series (b_k = 4/(k pi) sin(k pi d)) summed to a high
+    # order matches the naive +-1 pulse (mean removed) away from the edges (Gibbs region excluded)
+    rate = 48000
+    v = dict(pos=0, ln=4800, f0=50.0, vib_hz=5.0, vib=0.0, att=0.001, dec=10.0, sus=1.0, ph0=0.1,
+             lfo_hz=0.0, width=0.3, ratio=2.0, index=1.0, ring_hz=500.0)
+    naive = cvc.synth("pwm", 4800, rate * 4, [v], naive=True)        # rate*4: partials to 96 kHz summed
+    blim = cvc.synth("pwm", 4800, rate * 4, [v], naive=False)
+    ph = np.mod(v["ph0"] + np.cumsum(np.full(4800, v["f0"])) / (rate * 4), 1.0)
+    away = (np.abs(ph - 0.0) > 0.02) & (np.abs(ph - 0.3) > 0.02) & (np.abs(ph - 1.0) > 0.02)
+    away[:800] = False
+    away[-800:] = False
+    assert np.max(np.abs(naive[away] - blim[away])) < 0.05
+
+
+def test_seed_range_is_enforced():
+    with pytest.raises(ValueError, match="7000-7999"):
+        next(cvc.cases(5000))
