@@ -172,9 +172,15 @@ class SpectralFrontEnd:
         self.stride = max(1, int(frame_stride))
         self.frame_index = 0          # global index of the next frame position
         self.analysed = 0             # frames actually analysed
-        # pending samples, planar (channels, samples) float32, so that a frame's samples are contiguous;
-        # it starts with the leading half frame of zeros
-        self._buf = np.zeros((self.channels, self.hop), dtype=np.float32)
+        # Stream positions count from the leading half frame of zeros (frame j starts at j * hop).
+        # Only the samples of analysed frames are read: those inside a block straight from it, and
+        # the one or two frames that straddle blocks from `_keep`, the received samples from the start
+        # of the next analysed frame on (as given, float64 or float32: rounded to float32 where the
+        # frame is windowed, as every sample always was).
+        self._pos = self.hop          # stream position of the next block's first sample
+        self._next = 0                # index of the next analysed frame (a multiple of stride)
+        self._keep = np.zeros((self.channels, self.hop), dtype=np.float32)
+        self._keep_start = 0          # stream position of _keep's first sample
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
@@ -208,30 +214,35 @@ class SpectralFrontEnd:
 
     def process_planar(self, rows) -> None:
         """Feed a (channels, frames) float block (the same arithmetic as :meth:`process` of its
-        transpose; rows that are contiguous are copied without a transposition)."""
-        if rows.shape[1] == 0:
+        transpose: the block is read in place, whatever its strides)."""
+        rows = np.asarray(rows)
+        n = rows.shape[1]
+        if n == 0:
             return
-        kept = self._buf.shape[1]
-        buf = np.empty((self.channels, kept + rows.shape[1]), dtype=np.float32)
-        buf[:, :kept] = self._buf
-        buf[:, kept:] = rows
-        self._buf = buf
-        self._run()
-
-    def _run(self) -> None:
-        n_avail = self._buf.shape[1]
-        if n_avail < self.N:
-            return
-        n_frames = (n_avail - self.N) // self.hop + 1
-        index = np.arange(self.frame_index, self.frame_index + n_frames)
-        first = (-self.frame_index) % self.stride        # first analysed frame of this run (every stride-th)
-        if first < n_frames:
-            pick = np.arange(first, n_frames, self.stride)
-            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=1)[:, ::self.hop][:, :n_frames]
-            # view: (channels, frames, N), each frame contiguous; the windowed frames are cut and multiplied
-            # in one pass into a new contiguous float32 array of shape (frames, channels, N)
-            frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
-            np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
+        pos, end = self._pos, self._pos + n
+        N, hop, step = self.N, self.hop, self.stride * self.hop
+        # analysed frames that this block completes: j = _next, _next + stride, ... with j * hop + N <= end
+        last = (end - N) // hop if end >= N else -1
+        count = (last - self._next) // self.stride + 1 if last >= self._next else 0
+        if count:
+            frames = np.empty((count, self.channels, N), dtype=np.float32)
+            start = self._next * hop
+            done = 0
+            # frames begun in earlier blocks: the kept samples, then the head of this one
+            while done < count and start < pos:
+                head = rows[:, :start + N - pos]
+                kept = self._keep[:, start - self._keep_start:]
+                np.multiply(np.concatenate([kept, head], axis=1), self.window, out=frames[done],
+                            dtype=np.float32)
+                done += 1
+                start += step
+            if done < count:
+                # the rest lie inside the block: one strided view, rounded to float32 and windowed
+                # in one pass into the contiguous (frames, channels, N) array
+                c_stride, s_stride = rows.strides
+                view = np.lib.stride_tricks.as_strided(rows[:, start - pos:], (count - done, self.channels, N),
+                                                       (step * s_stride, c_stride, s_stride), writeable=False)
+                np.multiply(view, self.window, out=frames[done:], dtype=np.float32)
             spec = rfft_rows(frames)
             # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
             # (contiguous, hence quicker than the real and imaginary views; the same values)
@@ -239,9 +250,20 @@ class SpectralFrontEnd:
             np.square(sq, out=sq)
             power = np.add(sq[..., 0::2], sq[..., 1::2])
             power *= self._scale
-            self._accumulate(power, index[pick])
-        self.frame_index += n_frames
-        self._buf = self._buf[:, n_frames * self.hop:].copy()
+            self._accumulate(power, np.arange(self._next, self._next + count * self.stride, self.stride))
+            self._next += count * self.stride
+        if last + 1 > self.frame_index:
+            self.frame_index = last + 1
+        # keep what the next analysed frame needs of the samples received so far
+        start = self._next * hop
+        if start >= end:
+            self._keep, self._keep_start = self._keep[:, :0], end
+        elif start >= pos:
+            self._keep, self._keep_start = rows[:, start - pos:].copy(), start
+        else:
+            self._keep = np.concatenate([self._keep[:, start - self._keep_start:], rows], axis=1)
+            self._keep_start = start
+        self._pos = end
 
     def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
@@ -297,10 +319,10 @@ class SpectralFrontEnd:
             # pad so that the last real sample is covered by two frames
             need = self.total_frame_count - self.frame_index
             if need > 0:
-                target = (need - 1) * self.hop + self.N
-                pad = max(0, target - self._buf.shape[1])
-                self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad), dtype=np.float32)], axis=1)
-                self._run()
+                # zeros up to the end of the last frame position
+                pad = (self.total_frame_count - 1) * self.hop + self.N - self._pos
+                if pad > 0:
+                    self.process_planar(np.zeros((self.channels, pad), dtype=np.float32))
             self._finished = True
         # with every frame analysed, every sample is covered by the windows of two frames: the
         # sum over frames is the energy of total_samples / hop frames' worth of signal; a
