@@ -36,6 +36,10 @@ What it keeps (memory independent of the file's length):
 Consumers (callables ``fn(power, frame_index)`` with ``power`` of shape
 (frames, channels, bins) and the frames' position indices) see every analysed
 frame's power spectrum as it is computed, so several detectors share one FFT.
+Frames are cut straight from the blocks (only the samples of analysed frames are
+read) and transformed in batches of :data:`FRAME_BATCH` frames, whose bounds
+follow the frame indices alone: what consumers are handed is the same for any
+block size.
 
 Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
 of frames: every other frame (:data:`MID_FILE_STRIDE`) up to :data:`MID_ANALYSIS_S`,
@@ -70,6 +74,12 @@ FULL_ANALYSIS_S = 15.0
 MID_ANALYSIS_S = 60.0
 MID_FILE_STRIDE = 2
 LONG_FILE_STRIDE = 6
+#: analysed frames are windowed into a batch of up to FRAME_BATCH frames (and at most BATCH_SAMPLES
+#: samples, 4 MB of float32) before they are transformed and summed: a block of 65536 samples holds
+#: two or three analysed frames of a long file, and per-call overheads then cost more than the
+#: arithmetic (house choice from timing bench/bench_sampling_split.py)
+FRAME_BATCH = 32
+BATCH_SAMPLES = 1 << 20
 #: time segments for the per-segment upsampling verdict (a spliced part of a file)
 SEGMENT_S = 5.0
 MAX_SEGMENTS = 8
@@ -181,6 +191,12 @@ class SpectralFrontEnd:
         self._next = 0                # index of the next analysed frame (a multiple of stride)
         self._keep = np.zeros((self.channels, self.hop), dtype=np.float32)
         self._keep_start = 0          # stream position of _keep's first sample
+        # windowed frames wait in a batch of up to FRAME_BATCH (at most BATCH_SAMPLES samples), so the
+        # transform and the sums over frames run on many frames per call whatever the block size
+        batch = max(1, min(FRAME_BATCH, BATCH_SAMPLES // (self.channels * self.N)))
+        self._frames = np.empty((batch, self.channels, self.N), dtype=np.float32)
+        self._fill = 0                # frames in the batch
+        self._batch_first = 0         # index of the batch's first frame
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
@@ -225,32 +241,35 @@ class SpectralFrontEnd:
         last = (end - N) // hop if end >= N else -1
         count = (last - self._next) // self.stride + 1 if last >= self._next else 0
         if count:
-            frames = np.empty((count, self.channels, N), dtype=np.float32)
             start = self._next * hop
             done = 0
-            # frames begun in earlier blocks: the kept samples, then the head of this one
-            while done < count and start < pos:
-                head = rows[:, :start + N - pos]
-                kept = self._keep[:, start - self._keep_start:]
-                np.multiply(np.concatenate([kept, head], axis=1), self.window, out=frames[done],
-                            dtype=np.float32)
-                done += 1
-                start += step
-            if done < count:
-                # the rest lie inside the block: one strided view, rounded to float32 and windowed
-                # in one pass into the contiguous (frames, channels, N) array
-                c_stride, s_stride = rows.strides
-                view = np.lib.stride_tricks.as_strided(rows[:, start - pos:], (count - done, self.channels, N),
-                                                       (step * s_stride, c_stride, s_stride), writeable=False)
-                np.multiply(view, self.window, out=frames[done:], dtype=np.float32)
-            spec = rfft_rows(frames)
-            # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
-            # (contiguous, hence quicker than the real and imaginary views; the same values)
-            sq = spec.view(np.float32)
-            np.square(sq, out=sq)
-            power = np.add(sq[..., 0::2], sq[..., 1::2])
-            power *= self._scale
-            self._accumulate(power, np.arange(self._next, self._next + count * self.stride, self.stride))
+            while done < count:
+                fill = self._fill
+                if fill == 0:
+                    self._batch_first = self._next + done * self.stride
+                if start < pos:
+                    # a frame begun in earlier blocks: the kept samples, then the head of this one
+                    head = rows[:, :start + N - pos]
+                    kept = self._keep[:, start - self._keep_start:]
+                    frame = self._frames[fill]
+                    np.copyto(frame, np.concatenate([kept, head], axis=1), casting="same_kind")
+                    np.multiply(frame, self.window, out=frame)
+                    k = 1
+                else:
+                    # frames inside the block: one strided view, rounded to float32 into the contiguous
+                    # (frames, channels, N) batch, then windowed there (quicker than one mixed-type pass)
+                    k = min(count - done, self._frames.shape[0] - fill)
+                    c_stride, s_stride = rows.strides
+                    view = np.lib.stride_tricks.as_strided(rows[:, start - pos:], (k, self.channels, N),
+                                                           (step * s_stride, c_stride, s_stride), writeable=False)
+                    frames = self._frames[fill:fill + k]
+                    np.copyto(frames, view, casting="same_kind")
+                    np.multiply(frames, self.window, out=frames)
+                self._fill = fill + k
+                done += k
+                start += k * step
+                if self._fill == self._frames.shape[0]:
+                    self._flush()
             self._next += count * self.stride
         if last + 1 > self.frame_index:
             self.frame_index = last + 1
@@ -264,6 +283,21 @@ class SpectralFrontEnd:
             self._keep = np.concatenate([self._keep[:, start - self._keep_start:], rows], axis=1)
             self._keep_start = start
         self._pos = end
+
+    def _flush(self) -> None:
+        """Transform the batch of windowed frames and hand their power spectra on."""
+        n = self._fill
+        if n == 0:
+            return
+        spec = rfft_rows(self._frames[:n])
+        # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
+        # (contiguous, hence quicker than the real and imaginary views; the same values)
+        sq = spec.view(np.float32)
+        np.square(sq, out=sq)
+        power = np.add(sq[..., 0::2], sq[..., 1::2])
+        power *= self._scale
+        self._fill = 0
+        self._accumulate(power, np.arange(self._batch_first, self._batch_first + n * self.stride, self.stride))
 
     def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
@@ -304,10 +338,10 @@ class SpectralFrontEnd:
                 starts = np.concatenate([[0], np.nonzero(np.diff(g))[0] + 1])   # runs of one segment
                 ends = np.concatenate([starts[1:], [keep.size]])
                 # a segment's kept frames are consecutive: each run is a slice of the block's frames, summed
-                # row by row in float64 (the order of a reduction over rows, as reduceat's)
+                # row by row in float64 (the order of a reduction over rows, as reduceat's; each float32
+                # row is widened as it is added, without a float64 copy of the slice)
                 for a, b in zip(starts, ends):
-                    rows = total[keep[a]:keep[b - 1] + 1].astype(np.float64)
-                    self.seg_sum[g[a]] += np.add.reduce(rows, axis=0)
+                    self.seg_sum[g[a]] += np.add.reduce(total[keep[a]:keep[b - 1] + 1], axis=0, dtype=np.float64)
                 self.seg_frames[g[starts]] += ends - starts
         for fn in self.consumers:
             fn(power, index)
@@ -323,6 +357,7 @@ class SpectralFrontEnd:
                 pad = (self.total_frame_count - 1) * self.hop + self.N - self._pos
                 if pad > 0:
                     self.process_planar(np.zeros((self.channels, pad), dtype=np.float32))
+            self._flush()
             self._finished = True
         # with every frame analysed, every sample is covered by the windows of two frames: the
         # sum over frames is the energy of total_samples / hop frames' worth of signal; a
