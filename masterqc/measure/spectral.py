@@ -394,8 +394,9 @@ class SpectralFrontEnd:
         then a tuple of arrays is returned.
         """
         # cumulative counts over the level steps, (steps, bins): each step adds one contiguous row
-        # (quicker than numpy's cumsum along axis 0); integer sums, so exact
-        cum = self.hist.astype(np.int64)
+        # (quicker than numpy's cumsum along axis 0); integer sums, so exact (a bin's count, one per
+        # histogram frame, stays far below 2**32)
+        cum = self.hist.copy()
         for j in range(1, cum.shape[0]):
             cum[j] += cum[j - 1]
         total = cum[-1].astype(np.float64)
@@ -404,7 +405,7 @@ class SpectralFrontEnd:
         out = []
         for qq in qs:
             # cum holds whole numbers, so "cum < qq * total" is "cum < ceil(qq * total)", exact in integers
-            level = np.ceil(qq * total).astype(np.int64)
+            level = np.ceil(qq * total).astype(cum.dtype)
             # k = the number of steps whose cumulative count is below level, per bin: cum rises along
             # the steps, so a bisection per bin (8 gathers of one row each, instead of comparing the table)
             lo = np.zeros(cum.shape[1], dtype=np.int64)
