@@ -9,7 +9,8 @@ peak and true peak.  Files: the core benchmark's music-like stereo 48 kHz 24-bit
 
 ``--before REV`` also runs the spectral front end (``masterqc/measure/spectral.py``), the imaging
 analyzer (``masterqc/measure/imaging.py``) and the interpolation analyzer
-(``masterqc/measure/interpolation.py``) as they were at git revision REV, loaded from ``git show``,
+(``masterqc/measure/interpolation.py``) as they were at git revision REV, loaded from ``git show``
+(the front end with its batched transform, ``rfft_rows`` of ``masterqc/measure/npkernels.py``, of REV too),
 with this tree's core and aliasing analyzers and shared helpers (``frames.py``), in the same process and
 interleaved pass by pass with this tree's, so that both columns see the same machine load.
 
@@ -108,7 +109,11 @@ def main(argv=None) -> int:
     if args.before:
         old = dict(tree)
         for key, (rel, cls_name) in OLD_MODULES.items():
-            old[key] = getattr(_module_at(args.before, rel, Path(tmpdir.name)), cls_name)
+            mod = _module_at(args.before, rel, Path(tmpdir.name))
+            if key == "Spectrum" and hasattr(mod, "rfft_rows"):
+                # the front end's batched transform as it was then too (it lives in npkernels.py)
+                mod.rfft_rows = _module_at(args.before, "masterqc/measure/npkernels.py", Path(tmpdir.name)).rfft_rows
+            old[key] = getattr(mod, cls_name)
         variants = {f"at {args.before}": old, "this tree": tree}
 
     def classes(which, spent):

@@ -36,6 +36,10 @@ What it keeps (memory independent of the file's length):
 Consumers (callables ``fn(power, frame_index)`` with ``power`` of shape
 (frames, channels, bins) and the frames' position indices) see every analysed
 frame's power spectrum as it is computed, so several detectors share one FFT.
+Frames are cut straight from the blocks (only the samples of analysed frames are
+read) and transformed in batches of :data:`FRAME_BATCH` frames, whose bounds
+follow the frame indices alone: what consumers are handed is the same for any
+block size.
 
 Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
 of frames: every other frame (:data:`MID_FILE_STRIDE`) up to :data:`MID_ANALYSIS_S`,
@@ -70,6 +74,12 @@ FULL_ANALYSIS_S = 15.0
 MID_ANALYSIS_S = 60.0
 MID_FILE_STRIDE = 2
 LONG_FILE_STRIDE = 6
+#: analysed frames are windowed into a batch of up to FRAME_BATCH frames (and at most BATCH_SAMPLES
+#: samples, 4 MB of float32) before they are transformed and summed: a block of 65536 samples holds
+#: two or three analysed frames of a long file, and per-call overheads then cost more than the
+#: arithmetic (house choice from timing bench/bench_sampling_split.py)
+FRAME_BATCH = 32
+BATCH_SAMPLES = 1 << 20
 #: time segments for the per-segment upsampling verdict (a spliced part of a file)
 SEGMENT_S = 5.0
 MAX_SEGMENTS = 8
@@ -172,14 +182,28 @@ class SpectralFrontEnd:
         self.stride = max(1, int(frame_stride))
         self.frame_index = 0          # global index of the next frame position
         self.analysed = 0             # frames actually analysed
-        # pending samples, planar (channels, samples) float32, so that a frame's samples are contiguous;
-        # it starts with the leading half frame of zeros
-        self._buf = np.zeros((self.channels, self.hop), dtype=np.float32)
+        # Stream positions count from the leading half frame of zeros (frame j starts at j * hop).
+        # Only the samples of analysed frames are read: those inside a block straight from it, and
+        # the one or two frames that straddle blocks from `_keep`, the received samples from the start
+        # of the next analysed frame on (as given, float64 or float32: rounded to float32 where the
+        # frame is windowed, as every sample always was).
+        self._pos = self.hop          # stream position of the next block's first sample
+        self._next = 0                # index of the next analysed frame (a multiple of stride)
+        self._keep = np.zeros((self.channels, self.hop), dtype=np.float32)
+        self._keep_start = 0          # stream position of _keep's first sample
+        # windowed frames wait in a batch of up to FRAME_BATCH (at most BATCH_SAMPLES samples), so the
+        # transform and the sums over frames run on many frames per call whatever the block size
+        batch = max(1, min(FRAME_BATCH, BATCH_SAMPLES // (self.channels * self.N)))
+        self._frames = np.empty((batch, self.channels, self.N), dtype=np.float32)
+        self._fill = 0                # frames in the batch
+        self._batch_first = 0         # index of the batch's first frame
         self.ltas_sum = np.zeros((self.channels, self.bins))
         self.histogram = histogram
         self.n_levels = int(round((HIST_MAX_DB - HIST_MIN_DB) / HIST_STEP_DB))
-        self.hist = np.zeros((self.bins, self.n_levels), dtype=np.uint32) if histogram else None
-        self._hist_offset = np.arange(self.bins) * self.n_levels
+        # counts laid out (level steps, bins): a frame's neighbouring bins, mostly at neighbouring
+        # levels, are counted in neighbouring cells, and the percentiles read contiguous rows
+        self.hist = np.zeros((self.n_levels, self.bins), dtype=np.uint32) if histogram else None
+        self._hist_offset = np.arange(self.bins)
         self._one = np.uint32(1)
         # each column spans at least `stride` frame positions, so it holds an analysed frame
         self.columns = int(max(1, min(columns, self.total_frame_count // self.stride)))
@@ -208,40 +232,74 @@ class SpectralFrontEnd:
 
     def process_planar(self, rows) -> None:
         """Feed a (channels, frames) float block (the same arithmetic as :meth:`process` of its
-        transpose; rows that are contiguous are copied without a transposition)."""
-        if rows.shape[1] == 0:
+        transpose: the block is read in place, whatever its strides)."""
+        rows = np.asarray(rows)
+        n = rows.shape[1]
+        if n == 0:
             return
-        kept = self._buf.shape[1]
-        buf = np.empty((self.channels, kept + rows.shape[1]), dtype=np.float32)
-        buf[:, :kept] = self._buf
-        buf[:, kept:] = rows
-        self._buf = buf
-        self._run()
+        pos, end = self._pos, self._pos + n
+        N, hop, step = self.N, self.hop, self.stride * self.hop
+        # analysed frames that this block completes: j = _next, _next + stride, ... with j * hop + N <= end
+        last = (end - N) // hop if end >= N else -1
+        count = (last - self._next) // self.stride + 1 if last >= self._next else 0
+        if count:
+            start = self._next * hop
+            done = 0
+            while done < count:
+                fill = self._fill
+                if fill == 0:
+                    self._batch_first = self._next + done * self.stride
+                if start < pos:
+                    # a frame begun in earlier blocks: the kept samples, then the head of this one
+                    head = rows[:, :start + N - pos]
+                    kept = self._keep[:, start - self._keep_start:]
+                    frame = self._frames[fill]
+                    np.copyto(frame, np.concatenate([kept, head], axis=1), casting="same_kind")
+                    np.multiply(frame, self.window, out=frame)
+                    k = 1
+                else:
+                    # frames inside the block: one strided view, rounded to float32 into the contiguous
+                    # (frames, channels, N) batch, then windowed there (quicker than one mixed-type pass)
+                    k = min(count - done, self._frames.shape[0] - fill)
+                    c_stride, s_stride = rows.strides
+                    view = np.lib.stride_tricks.as_strided(rows[:, start - pos:], (k, self.channels, N),
+                                                           (step * s_stride, c_stride, s_stride), writeable=False)
+                    frames = self._frames[fill:fill + k]
+                    np.copyto(frames, view, casting="same_kind")
+                    np.multiply(frames, self.window, out=frames)
+                self._fill = fill + k
+                done += k
+                start += k * step
+                if self._fill == self._frames.shape[0]:
+                    self._flush()
+            self._next += count * self.stride
+        if last + 1 > self.frame_index:
+            self.frame_index = last + 1
+        # keep what the next analysed frame needs of the samples received so far
+        start = self._next * hop
+        if start >= end:
+            self._keep, self._keep_start = self._keep[:, :0], end
+        elif start >= pos:
+            self._keep, self._keep_start = rows[:, start - pos:].copy(), start
+        else:
+            self._keep = np.concatenate([self._keep[:, start - self._keep_start:], rows], axis=1)
+            self._keep_start = start
+        self._pos = end
 
-    def _run(self) -> None:
-        n_avail = self._buf.shape[1]
-        if n_avail < self.N:
+    def _flush(self) -> None:
+        """Transform the batch of windowed frames and hand their power spectra on."""
+        n = self._fill
+        if n == 0:
             return
-        n_frames = (n_avail - self.N) // self.hop + 1
-        index = np.arange(self.frame_index, self.frame_index + n_frames)
-        first = (-self.frame_index) % self.stride        # first analysed frame of this run (every stride-th)
-        if first < n_frames:
-            pick = np.arange(first, n_frames, self.stride)
-            view = np.lib.stride_tricks.sliding_window_view(self._buf, self.N, axis=1)[:, ::self.hop][:, :n_frames]
-            # view: (channels, frames, N), each frame contiguous; the windowed frames are cut and multiplied
-            # in one pass into a new contiguous float32 array of shape (frames, channels, N)
-            frames = np.empty((pick.size, self.channels, self.N), dtype=np.float32)
-            np.multiply(view[:, first::self.stride].transpose(1, 0, 2), self.window, out=frames)
-            spec = rfft_rows(frames)
-            # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
-            # (contiguous, hence quicker than the real and imaginary views; the same values)
-            sq = spec.view(np.float32)
-            np.square(sq, out=sq)
-            power = np.add(sq[..., 0::2], sq[..., 1::2])
-            power *= self._scale
-            self._accumulate(power, index[pick])
-        self.frame_index += n_frames
-        self._buf = self._buf[:, n_frames * self.hop:].copy()
+        spec = rfft_rows(self._frames[:n])
+        # |X|^2 on the interleaved floats (re, im): squared in place, then the pairs added
+        # (contiguous, hence quicker than the real and imaginary views; the same values)
+        sq = spec.view(np.float32)
+        np.square(sq, out=sq)
+        power = np.add(sq[..., 0::2], sq[..., 1::2])
+        power *= self._scale
+        self._fill = 0
+        self._accumulate(power, np.arange(self._batch_first, self._batch_first + n * self.stride, self.stride))
 
     def _accumulate(self, power: np.ndarray, index: np.ndarray) -> None:
         nfr = power.shape[0]
@@ -263,7 +321,8 @@ class SpectralFrontEnd:
                     np.divide(level, HIST_STEP_DB, out=level)
                 idx = level.astype(np.int64)
                 np.clip(idx, 0, self.n_levels - 1, out=idx)
-                idx += self._hist_offset          # flat index bin * n_levels + step
+                idx *= self.bins
+                idx += self._hist_offset          # flat index step * bins + bin
                 np.add.at(self.hist.reshape(-1), idx.reshape(-1), self._one)   # (a uint32 one: the fast path)
         bands = np.add.reduceat(total[:, 1:], self._row_edges - 1, axis=1) / self._row_width
         cols = (index * self.columns) // self.total_frame_count
@@ -282,10 +341,10 @@ class SpectralFrontEnd:
                 starts = np.concatenate([[0], np.nonzero(np.diff(g))[0] + 1])   # runs of one segment
                 ends = np.concatenate([starts[1:], [keep.size]])
                 # a segment's kept frames are consecutive: each run is a slice of the block's frames, summed
-                # row by row in float64 (the order of a reduction over rows, as reduceat's)
+                # row by row in float64 (the order of a reduction over rows, as reduceat's; each float32
+                # row is widened as it is added, without a float64 copy of the slice)
                 for a, b in zip(starts, ends):
-                    rows = total[keep[a]:keep[b - 1] + 1].astype(np.float64)
-                    self.seg_sum[g[a]] += np.add.reduce(rows, axis=0)
+                    self.seg_sum[g[a]] += np.add.reduce(total[keep[a]:keep[b - 1] + 1], axis=0, dtype=np.float64)
                 self.seg_frames[g[starts]] += ends - starts
         for fn in self.consumers:
             fn(power, index)
@@ -297,10 +356,11 @@ class SpectralFrontEnd:
             # pad so that the last real sample is covered by two frames
             need = self.total_frame_count - self.frame_index
             if need > 0:
-                target = (need - 1) * self.hop + self.N
-                pad = max(0, target - self._buf.shape[1])
-                self._buf = np.concatenate([self._buf, np.zeros((self.channels, pad), dtype=np.float32)], axis=1)
-                self._run()
+                # zeros up to the end of the last frame position
+                pad = (self.total_frame_count - 1) * self.hop + self.N - self._pos
+                if pad > 0:
+                    self.process_planar(np.zeros((self.channels, pad), dtype=np.float32))
+            self._flush()
             self._finished = True
         # with every frame analysed, every sample is covered by the windows of two frames: the
         # sum over frames is the energy of total_samples / hop frames' worth of signal; a
@@ -333,19 +393,32 @@ class SpectralFrontEnd:
         cumulative count reaches ``q`` of the frames.  ``q`` may be a sequence:
         then a tuple of arrays is returned.
         """
-        # cumulative counts over the level steps, laid out (steps, bins) so that each step adds one
-        # contiguous row (numpy's cumsum along the short axis of the (bins, steps) table is several
-        # times slower); integer sums, so exact
-        cum = np.ascontiguousarray(self.hist.T, dtype=np.int64)
+        # cumulative counts over the level steps, (steps, bins): each step adds one contiguous row
+        # (quicker than numpy's cumsum along axis 0); integer sums, so exact (a bin's count, one per
+        # histogram frame, stays far below 2**32)
+        cum = self.hist.copy()
         for j in range(1, cum.shape[0]):
             cum[j] += cum[j - 1]
         total = cum[-1].astype(np.float64)
+        cols = np.arange(cum.shape[1])
         qs = [q] if np.isscalar(q) else list(q)
         out = []
         for qq in qs:
             # cum holds whole numbers, so "cum < qq * total" is "cum < ceil(qq * total)", exact in integers
-            level = np.ceil(qq * total).astype(np.int64)
-            k = np.count_nonzero(cum < level, axis=0)
+            level = np.ceil(qq * total).astype(cum.dtype)
+            # k = the number of steps whose cumulative count is below level, per bin: cum rises along
+            # the steps, so a bisection per bin (8 gathers of one row each, instead of comparing the table)
+            lo = np.zeros(cum.shape[1], dtype=np.int64)
+            hi = np.full(cum.shape[1], cum.shape[0], dtype=np.int64)
+            while True:
+                open_ = lo < hi
+                if not open_.any():
+                    break
+                mid = (lo + hi) // 2
+                below = cum.reshape(-1)[np.minimum(mid, cum.shape[0] - 1) * cum.shape[1] + cols] < level
+                lo = np.where(open_ & below, mid + 1, lo)
+                hi = np.where(open_ & ~below, mid, hi)
+            k = lo
             out.append(HIST_MIN_DB + (k + 0.5) * HIST_STEP_DB)
         return out[0] if np.isscalar(q) else tuple(out)
 
