@@ -65,6 +65,12 @@ A cliff whose fall a Butterworth low-pass explains (:func:`butterworth_explains`
 against ``log10(tan(pi f / fs))``, fitting a digital Butterworth of order at most 12, run once or zero-phase)
 is a band limit, however near a standard Nyquist it lies.
 
+A cliff whose fall comes in steps -- flat stretches as wide as a coder's bands, between drops of several dB
+(:func:`coder_steps`) -- is a lossy coder's band limit: a coder codes or zeroes whole bands, and where its limit moves
+from frame to frame the long-term spectrum holds one step per band at the share of frames that coded it, while a
+converter's transition falls smoothly.  A brick wall names a rate only within :data:`BRICK_WALL_MAX_OFFSET_HZ` of its
+Nyquist (an FFT resampler's wall lies there exactly; a coder's wall sits on its own band grid).
+
 A cliff whose edge lies early (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) must leave nothing above the
 old Nyquist but a floor: read frame by frame on the front end's level histogram (:func:`stop_band_content`), a
 mastering low-pass leaves the programme there, a fixed 50-90 dB down in every frame, and is a band limit.
@@ -319,6 +325,27 @@ BUTTERWORTH_MAX_ORDER = 12
 FIT_COARSE_HZ = 100.0
 FIT_REFINE = 6
 FIT_REFINE_HZ = 200.0
+
+#: a lossy coder's band limit comes in steps: it codes or zeroes whole scale-factor bands (a few hundred Hz to about
+#: 1 kHz wide at the top of the band), and where its limit moves from frame to frame the long-term spectrum falls as
+#: a staircase, one flat step per band at the level of the share of frames that coded it.  A converter's
+#: windowed-sinc transition falls smoothly and ever faster into its stop band (10-300 dB/kHz), with no flat stretch
+#: on the way.  A step: the envelope stays within STEP_FLAT_DB over STEP_MIN_WIDTH_HZ, at least STEP_BELOW_PASS_DB under the pass level and STEP_ABOVE_STOP_DB over
+#: the stop level, between the cliff's -6 dB point and the start of its stop band (own reasoning: the slowest
+#: converter transitions on the tuning corpus fall 7 dB/kHz and more, over 2 dB per 300 Hz)
+STEP_MIN_WIDTH_HZ = 300.0
+STEP_FLAT_DB = 1.5
+STEP_BELOW_PASS_DB = 9.0
+STEP_ABOVE_STOP_DB = 10.0
+#: ... and the step is a step: the level falls at least this far within STEP_MIN_WIDTH_HZ into it and again out of
+#: it (own reasoning: a coder zeroes a band whole, so its level drops tens of dB at the band edge; a slow converter
+#: transition, 3-14 dB/kHz, that merely looks flat over a few hundred Hz falls less than that on either side)
+STEP_EDGE_DB = 8.0
+#: an FFT resampler's brick wall lies at the old Nyquist exactly: read on the envelope (10 Hz bins, smoothed over
+#: SMOOTH_HZ) its -6 dB point lies within this many Hz of it (own reasoning: the smoothing moves a step's -6 dB point
+#: about half its width, 55 Hz, below the step), as well as within BRICK_WALL_RATIO_TOLERANCE; a lossy coder's
+#: wall sits on its own band grid, anywhere near a standard Nyquist
+BRICK_WALL_MAX_OFFSET_HZ = 100.0
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
@@ -1105,6 +1132,29 @@ def scale_for(rate_hz: float) -> int:
     return 1 if nyq >= 11500.0 else 2 if nyq >= 7500.0 else 4
 
 
+def coder_steps(env_db, bin_hz: float, edge_hz: float, stop_start_hz: float, pass_db: float, stop_db: float):
+    """The first flat step (``(start_hz, level_db)``) in a cliff's fall from its -6 dB point ``edge_hz`` to the start
+    of its stop band ``stop_start_hz``, or None (see :data:`STEP_MIN_WIDTH_HZ`).  ``env_db`` is the envelope of
+    :func:`envelope_db` (bins ``bin_hz`` wide, the file's own frequencies); ``pass_db`` and ``stop_db`` are the
+    cliff's pass and stop levels on it."""
+    w = max(2, _bins(STEP_MIN_WIDTH_HZ, bin_hz))
+    k0, k1 = _bins(edge_hz, bin_hz), min(len(env_db), _bins(stop_start_hz, bin_hz))
+    if k1 - k0 < w + 1 or k0 < w or k1 + w > len(env_db):
+        return None
+    win = np.lib.stride_tricks.sliding_window_view(env_db[k0:k1], w)
+    mid = np.median(win, axis=1)
+    i = np.arange(win.shape[0]) + k0
+    # flanked by drops: it falls STEP_EDGE_DB within STEP_MIN_WIDTH_HZ into the step and again out of it
+    into = env_db[i - w] - env_db[i]
+    out_of = env_db[i + w - 1] - env_db[np.minimum(i + 2 * w - 1, len(env_db) - 1)]
+    flat = ((win.max(axis=1) - win.min(axis=1) <= STEP_FLAT_DB) & (mid <= pass_db - STEP_BELOW_PASS_DB)
+            & (mid >= stop_db + STEP_ABOVE_STOP_DB) & (into >= STEP_EDGE_DB) & (out_of >= STEP_EDGE_DB))
+    hit = np.nonzero(flat)[0]
+    if hit.size == 0:
+        return None
+    return (k0 + int(hit[0])) * bin_hz, float(mid[hit[0]])
+
+
 def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     """One cliff search at frequency scale ``scale``: ``(cliff, rate, position score, tonal)``.
 
@@ -1134,6 +1184,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
     rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
+             and abs(cliff["edge_hz"] - r / 2.0) / scale <= BRICK_WALL_MAX_OFFSET_HZ
              and transition_width_hz(cliff) < CONVERTER_MIN_WIDTH_RATIO * r / 2.0]
     if walls:
         # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
@@ -1144,7 +1195,8 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         width = transition_width_hz(cliff)
         # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
-        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
+        brick = (abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
+                 and abs(cliff["edge_hz"] - rate / 2.0) / scale <= BRICK_WALL_MAX_OFFSET_HZ)
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
@@ -1154,10 +1206,19 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         elif not brick and butterworth_explains(env, bin_hz, scale, 2.0 * nyq, cliff)[0]:
             # a mastering low-pass's fall, not a resampler's transition
             rate = None
+        else:
+            step = coder_steps(env, bin_hz, cliff["edge_hz"] / scale, cliff["stop_start_hz"] / scale,
+                               cliff["pass_db"], cliff["stop_db"])
+            if step is not None:
+                # a lossy coder's band limit, whole bands at a time, not a converter's smooth fall
+                rate = None
+                cliff["coder_step"] = (step[0] * scale, cliff["pass_db"] - step[1])
     real = dict(cliff)
     for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz", "stop_start_hz"):
         if real.get(k) is not None:
             real[k] = real[k] / scale
+    if real.get("coder_step") is not None:
+        real["coder_step"] = (real["coder_step"][0] / scale, real["coder_step"][1])
     for k in ("slope_db_per_khz", "slope_below_db_per_khz", "steepest_db_per_khz", "tilt_db_per_khz",
               "slope_after_db_per_khz"):
         if k in real:
@@ -1233,6 +1294,12 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
+        elif cliff.get("coder_step") is not None:
+            out.band_limit_hz = edge
+            at_hz, down_db = cliff["coder_step"]
+            out.note = (f"band-limited at {edge / 1000:.1f} kHz in steps of whole bands, as a lossy coder limits its "
+                        f"band: the fall stops flat {down_db:.0f} dB down at {at_hz / 1000:.1f} kHz before it goes on, "
+                        "where a converter's filter falls smoothly")
         else:
             out.band_limit_hz = edge
             out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass that no standard rate's converter "
