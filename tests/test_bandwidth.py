@@ -848,19 +848,22 @@ def _staircase_power(fs, shares, floor_rel=1e-12):
 def test_coder_staircase_is_found_and_is_not_a_conversion():
     # A coder's band limit that moves between sub-bands from frame to frame leaves a staircase in the long-term
     # spectrum: one flat step per band at 10 log10(share) dB (analytic, see _staircase_power).  With shares 0.1 and
-    # 0.01 the steps lie 10 and 20 dB down, each fs/64 = 689 Hz wide at 44.1 kHz (STEP_MIN_WIDTH_HZ, house choice).
+    # 0.01 the steps lie 10 and 20 dB down, each fs/64 = 689 Hz wide at 44.1 kHz, wider than the shortest step
+    # read (fs/150, STEP_MIN_WIDTH_RATIO, house choice)
     fs = 44100
     power, bin_hz = _staircase_power(fs, (0.1, 0.01))
-    env = bw.envelope_db(power, bin_hz)
-    cliff = bw.find_cliff(env, bin_hz, int(0.99 * fs / 2 / bin_hz))
-    assert cliff is not None
-    step = bw.coder_steps(env, bin_hz, cliff["edge_hz"], cliff["stop_start_hz"], cliff["pass_db"], cliff["stop_db"])
+    level = bw.step_level_db(power, bin_hz)
+    pass_db, stop_db = 10.0 * np.log10(1e-8), 10.0 * np.log10(1e-20)
+    step = bw.coder_steps(level, bin_hz, 8000.0, 13000.0, pass_db, stop_db, fs=fs)
     assert step is not None
     start_hz, level_db = step
     assert 15 * fs / 64 - 100.0 <= start_hz <= 16 * fs / 64           # the first partly coded sub-band
-    assert abs(level_db - (cliff["pass_db"] - 10.0)) <= 1.0            # 10 log10(0.1)
+    assert abs(level_db - (pass_db - 10.0)) <= 0.5                     # 10 log10(0.1)
     res = bw.assess_power(power, bin_hz, fs, 4410, info_for(fs), frames=100)
     assert res.upsampled_from_hz is None
+    # every band coded in every frame up to the limit: one wall, no step
+    wall, _b = _staircase_power(fs, ())
+    assert bw.coder_steps(bw.step_level_db(wall, bin_hz), bin_hz, 8000.0, 13000.0, pass_db, stop_db, fs=fs) is None
 
 
 def test_converter_fall_has_no_coder_step():
@@ -877,8 +880,8 @@ def test_converter_fall_has_no_coder_step():
     env = bw.envelope_db(power, bin_hz)
     cliff = bw.find_cliff(env, bin_hz, int(0.99 * fs / 2 / bin_hz))
     assert cliff is not None and abs(cliff["edge_hz"] - fs_src / 2) <= 0.05 * fs_src / 2
-    assert bw.coder_steps(env, bin_hz, cliff["edge_hz"], cliff["stop_start_hz"], cliff["pass_db"],
-                          cliff["stop_db"]) is None
+    level = bw.step_level_db(power, bin_hz)
+    assert bw.coder_steps(level, bin_hz, cliff["f1_hz"], cliff["stop_start_hz"], -80.0, -140.0, fs=fs) is None
 
 
 @pytest.mark.parametrize("wall_hz,named", [(16000.0, 32000), (16200.0, None)])
@@ -898,9 +901,9 @@ def test_brick_wall_names_a_rate_only_at_its_nyquist(wall_hz, named):
         assert res.band_limit_hz is not None and abs(res.band_limit_hz - wall_hz) <= 100.0
 
 
-def test_a_trace_does_not_name_a_source_below_a_band_limit():
+def test_coherence_alone_does_not_name_a_source_below_a_band_limit():
     # House rule (provenance.from_traces): where the bandwidth analysis found a steep band limit no converter
-    # explains, a trace does not name the source.  The reason is arithmetic: a block coder's frames repeat every
+    # explains, a trace without measured images of the content inside the band does not name the source.  The reason is arithmetic: a block coder's frames repeat every
     # hop samples, and the common hops (576, 1024 and 2048 samples) divide half the file's rate into a whole
     # number of frame rates, so the cycle frequency fs/2 a 2x upsampler's images share is also a harmonic of the
     # coder's framing (22050 / (44100 / 576) = 288, 24000 / (48000 / 1024) = 512)
@@ -913,3 +916,7 @@ def test_a_trace_does_not_name_a_source_below_a_band_limit():
     assert kept["upsampled_from_hz"] is None
     named = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None, "imaging": imaging})
     assert named["upsampled_from_hz"] == 24000
+    # with measured images of the content inside the band, the trace still names the source below a band limit
+    imaging[0]["image_level_db"] = -73.6
+    imaged = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": 9480.0, "imaging": imaging})
+    assert imaged["upsampled_from_hz"] == 24000
