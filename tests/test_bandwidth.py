@@ -884,23 +884,6 @@ def test_converter_fall_has_no_coder_step():
     assert bw.coder_steps(level, bin_hz, cliff["f1_hz"], cliff["stop_start_hz"], -80.0, -140.0, fs=fs) is None
 
 
-@pytest.mark.parametrize("wall_hz,named", [(16000.0, 32000), (16200.0, None)])
-def test_brick_wall_names_a_rate_only_at_its_nyquist(wall_hz, named):
-    # An FFT resampler zeroes every bin above the old Nyquist exactly (by construction of _brick_wall_upsample);
-    # a coder's wall sits on its own band grid.  A wall 200 Hz (1.25 %, within BRICK_WALL_RATIO_TOLERANCE) above 16 kHz is not a 32 kHz source's,
-    # though a wall exactly at 16 kHz is (BRICK_WALL_MAX_OFFSET_HZ, house choice from the front end's resolution).
-    rng = np.random.default_rng(11)
-    fs = 44100
-    x = rng.standard_normal(int(fs * 2.0))
-    spec = np.fft.rfft(x)
-    spec[np.fft.rfftfreq(x.size, 1.0 / fs) > wall_hz] = 0.0
-    y = np.fft.irfft(spec, x.size)
-    res = assess(quantise24(0.05 * y / np.std(y), rng), fs)
-    assert res.upsampled_from_hz == named
-    if named is None:
-        assert res.band_limit_hz is not None and abs(res.band_limit_hz - wall_hz) <= 100.0
-
-
 def test_coherence_alone_does_not_name_a_source_below_a_band_limit():
     # House rule (provenance.from_traces): where the bandwidth analysis found a steep band limit no converter
     # explains, a trace without measured images of the content inside the band does not name the source.  The reason is arithmetic: a block coder's frames repeat every

@@ -68,8 +68,7 @@ is a band limit, however near a standard Nyquist it lies.
 A cliff whose fall comes in steps -- flat stretches as wide as a coder's bands, between drops of several dB
 (:func:`coder_steps`) -- is a lossy coder's band limit: a coder codes or zeroes whole bands, and where its limit moves
 from frame to frame the long-term spectrum holds one step per band at the share of frames that coded it, while a
-converter's transition falls smoothly.  A brick wall names a rate only within :data:`BRICK_WALL_MAX_OFFSET_HZ` of its
-Nyquist (an FFT resampler's wall lies there exactly; a coder's wall sits on its own band grid).
+converter's transition falls smoothly.
 
 A cliff whose edge lies early (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) must leave nothing above the
 old Nyquist but a floor: read frame by frame on the front end's level histogram (:func:`stop_band_content`), a
@@ -345,11 +344,6 @@ STEP_FLAT_DB = 1.5
 STEP_BELOW_PASS_DB = 2.0
 STEP_ABOVE_STOP_DB = 10.0
 STEP_EDGE_DB = 3.0
-#: an FFT resampler's brick wall lies at the old Nyquist exactly: read on the envelope (10 Hz bins, smoothed over
-#: SMOOTH_HZ) its -6 dB point lies within this many Hz of it (own reasoning: the smoothing moves a step's -6 dB point
-#: about half its width, 55 Hz, below the step), as well as within BRICK_WALL_RATIO_TOLERANCE; a lossy coder's
-#: wall sits on its own band grid, anywhere near a standard Nyquist
-BRICK_WALL_MAX_OFFSET_HZ = 100.0
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
@@ -1195,7 +1189,6 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
     rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
-             and abs(cliff["edge_hz"] - r / 2.0) / scale <= BRICK_WALL_MAX_OFFSET_HZ
              and transition_width_hz(cliff) < CONVERTER_MIN_WIDTH_RATIO * r / 2.0]
     if walls:
         # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
@@ -1206,8 +1199,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         width = transition_width_hz(cliff)
         # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
-        brick = (abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
-                 and abs(cliff["edge_hz"] - rate / 2.0) / scale <= BRICK_WALL_MAX_OFFSET_HZ)
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
