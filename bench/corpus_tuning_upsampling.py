@@ -35,6 +35,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import lru_cache
 from typing import Iterator
 
 import numpy as np
@@ -289,6 +290,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_filters(seed, quick))
     plan.extend(_plan_mastering(seed, quick))
     plan.extend(_plan_lowpass_sweep(seed, quick))
+    plan.extend(_plan_codec_and_downconversion(seed, quick))
     return plan
 
 
@@ -523,6 +525,8 @@ def _build(spec, rng, seconds):
         keep = 10 ** (-rng.uniform(25.0, 45.0) / 20.0)
         return fs, set_rms(low + keep * (x - low), level), {"upsampled_from_hz": None, "upsampled_channels": []}, \
             ["L", "R"]
+    if kind in ("codec", "down", "butter48"):
+        return build_codec_and_downconversion(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -647,3 +651,204 @@ def build_imaging(spec, rng, seconds):
         return dst, y, {"upsampled_from_hz": src, "imaging_detected": True}, default_labels(ch)
     y = np.stack([leaky_upsample(x[:, c], src, dst, *how) for c in range(ch)], axis=1)
     return dst, y, {"upsampled_from_hz": src, "imaging_detected": False}, default_labels(ch)
+
+
+# ================================================================ lossy-codec round trips, down-conversions
+# Negatives whose cliff a detector may mistake for a converter's: a transform coder written here (its band limit
+# set frame by frame by a bit budget, in scale-factor-like steps, with bands zeroed whole where they fall under
+# the masking threshold), down-conversions by resample_poly with its own Kaiser designs and by libsamplerate, and
+# steep Butterworth mastering low-passes on music at 48 kHz.  Drawn from their own generator.
+#: coder settings: kbit/s per channel and the encoder's own fixed low-pass (Hz, None: the budget alone decides);
+#: the budgets give band limits of about 10 kHz (48 kbit/s) to 20 kHz (112 kbit/s) on the corpus material
+CODEC_RATES_KBPS = (48, 56, 64, 80, 96, 112)
+CODEC_LOWPASS_HZ = {48: 11000.0, 56: 12500.0, 64: 14000.0, 80: 16000.0, 96: 17500.0, 112: 19500.0}
+#: down-conversions (source rate, file rate)
+DOWN_CONVERSIONS = ((192000, 48000), (192000, 96000), (96000, 48000), (88200, 44100), (176400, 88200),
+                    (176400, 44100), (96000, 44100), (192000, 44100), (88200, 48000), (176400, 96000))
+#: down-converter designs: ("kaiser", taps per phase, cutoff re the new Nyquist, beta) or libsamplerate types
+DOWN_DESIGNS = (("kaiser", 16, 0.90, 5.0), ("kaiser", 32, 0.97, 9.0), ("kaiser", 64, 0.95, 10.0),
+                ("kaiser", 24, 0.85, 6.0), ("kaiser", 48, 0.92, 8.0), ("kaiser", 32, 0.91, 5.0),
+                ("kaiser", 64, 0.97, 12.0), ("kaiser", 16, 0.96, 7.0),
+                ("lsr", "sinc_best"), ("lsr", "sinc_medium"), ("lsr", "sinc_fastest"))
+
+
+#: down-conversion sources: material filling the source band, and "hires" material (music whose content rolls off
+#: above 26-40 kHz, as a real high-rate recording's does: microphones and preamplifiers), so that the converter's
+#: own cliff, not the folding of a full band, shapes the top of the file
+DOWN_MATERIALS = ("music", "noise", "speech", "hires", "hires", "hires-noise")
+
+
+def down_material(kind: str, fs: int, seconds: float, rng) -> np.ndarray:
+    """Material for the down-conversion sources (see :data:`DOWN_MATERIALS`)."""
+    if not kind.startswith("hires"):
+        return imaging_material(kind, fs, seconds, rng)
+    x = material("noise" if kind == "hires-noise" else "music", fs, seconds, rng)
+    corner = float(rng.uniform(26000.0, 40000.0))
+    x = sps.sosfilt(sps.butter(int(rng.integers(2, 5)), min(corner, 0.45 * fs), fs=fs, output="sos"), x)
+    return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+
+
+def _mdct_matrix(n_lines: int) -> np.ndarray:
+    n = np.arange(2 * n_lines)[:, None]
+    k = np.arange(n_lines)[None, :]
+    return np.cos(np.pi / n_lines * (n + 0.5 + n_lines / 2.0) * (k + 0.5))
+
+
+def _sfb_edges(n_lines: int, fs: int, top_width_hz: float) -> np.ndarray:
+    """Scale-factor-like band edges (lines): 4 lines wide at the bottom, 12 % wider each band, at most
+    ``top_width_hz``."""
+    cap = max(4, int(round(top_width_hz / (fs / 2.0 / n_lines))))
+    edges, w = [0], 4.0
+    while edges[-1] < n_lines:
+        edges.append(min(n_lines, edges[-1] + int(round(w))))
+        w = min(cap, w * 1.12)
+    return np.array(edges)
+
+
+def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, subband: bool = False,
+                    n_lines: int = 1024, smr_db: float = 14.0) -> np.ndarray:
+    """One channel through a transform coder written here (encode and decode).
+
+    MDCT of ``n_lines`` lines (sine window, 50 % overlap: perfect reconstruction without quantisation).  Per
+    frame: the mean power of each scale-factor band (:func:`_sfb_edges`; with ``subband`` the 32 equal bands of
+    a polyphase sub-band coder instead), a masking threshold (the strongest band nearby less 10 dB per band of
+    distance, less ``smr_db``, never under a threshold of hearing that rises steeply above 14 kHz), the bits each
+    band needs (half a bit per line per 6 dB over its threshold, plus side information), taken from the bottom
+    up out of the frame's budget (``kbps``, jittered +-15 % frame to frame like a bit reservoir): where it runs
+    out is the frame's band limit.  Bands above it, above ``lowpass_hz`` (the encoder's fixed low-pass) or under
+    their threshold are zeroed whole; the rest are quantised with a step that puts the noise at the threshold."""
+    n2 = 2 * n_lines
+    cmat = _mdct_matrix(n_lines)
+    win = np.sin(np.pi * (np.arange(n2) + 0.5) / n2)
+    pad = np.concatenate([np.zeros(n_lines), x, np.zeros(n2)])
+    frames = (len(pad) - n2) // n_lines + 1
+    out = np.zeros(len(pad))
+    edges = np.arange(0, n_lines + 1, n_lines // 32) if subband else _sfb_edges(n_lines, fs, 700.0)
+    nb = len(edges) - 1
+    width = np.diff(edges)
+    centre_khz = np.maximum((edges[:-1] + edges[1:]) / 2.0 * fs / n2 / 1000.0, 0.05)
+    ath_db = 3.64 * centre_khz ** -0.8 - 6.5 * np.exp(-0.6 * (centre_khz - 3.3) ** 2) + 1e-3 * centre_khz ** 4 - 120.0
+    top_band = nb if lowpass_hz is None else int(np.searchsorted(edges[1:] * fs / n2, lowpass_hz, side="right"))
+    budget = kbps * 1000.0 * n_lines / fs
+    jitter = rng.uniform(0.85, 1.15, frames)
+    dist = 10.0 * np.abs(np.arange(nb)[:, None] - np.arange(nb)[None, :])
+    for j in range(frames):
+        spec = (pad[j * n_lines:j * n_lines + n2] * win) @ cmat
+        e_db = 10.0 * np.log10(np.maximum(np.add.reduceat(spec ** 2, edges[:-1]) / width, 1e-30))
+        thr_db = np.maximum(np.max(e_db[None, :] - dist, axis=1) - smr_db, ath_db)
+        need = np.where(e_db > thr_db, width * 0.5 * np.log2(1.0 + 10 ** ((e_db - thr_db) / 10.0)) + 6.0, 0.0)
+        limit = min(top_band, int(np.searchsorted(np.cumsum(need), budget * jitter[j], side="right")))
+        q = np.zeros_like(spec)
+        for b in np.nonzero((e_db > thr_db) & (np.arange(nb) < limit))[0]:
+            a, z = edges[b], edges[b + 1]
+            step = math.sqrt(12.0 * 10 ** (thr_db[b] / 10.0))
+            q[a:z] = np.round(spec[a:z] / step) * step
+        out[j * n_lines:j * n_lines + n2] += (2.0 / n_lines) * (cmat @ q) * win
+    return out[n_lines:n_lines + len(x)]
+
+
+def down_filter(src: int, dst: int, design) -> np.ndarray:
+    """The Kaiser-windowed sinc of a ``("kaiser", taps per phase, cutoff, beta)`` down-converter design:
+    ``taps`` periods of the new rate long, its -6 dB point ``cutoff`` of the new Nyquist frequency."""
+    _k, taps, cutoff, beta = design
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    m = max(up, down)
+    return sps.firwin(taps * m + 1, cutoff / m, window=("kaiser", beta))
+
+
+def downconvert(x: np.ndarray, src: int, dst: int, design) -> np.ndarray:
+    """Convert one channel from ``src`` down to ``dst``: resample_poly with :func:`down_filter`'s design, or
+    libsamplerate's converter of the named type."""
+    if design[0] == "lsr":
+        import samplerate
+        return np.asarray(samplerate.resample(x, dst / src, design[1]), dtype=float)
+    fr = Fraction(dst, src)
+    return sps.resample_poly(x, fr.numerator, fr.denominator, window=down_filter(src, dst, design))
+
+
+@lru_cache(maxsize=None)
+def down_response(src: int, dst: int, design) -> tuple:
+    """``(minus6_hz, stop_hz)`` of a down-converter as built: where its gain, read on white noise through it
+    (Welch, 2 s), first falls 6 dB and 40 dB under its pass band (median 2-10 kHz)."""
+    rng = np.random.default_rng(0)
+    x = rng.standard_normal(2 * src)
+    y = downconvert(x, src, dst, design)
+    f, p = sps.welch(y, dst, nperseg=4096)
+    db = 10.0 * np.log10(np.maximum(p, 1e-30)) - 10.0 * np.log10(2.0 / src)
+    ref = float(np.median(db[(f >= 2000.0) & (f <= 10000.0)]))
+    k0 = int(np.searchsorted(f, 0.5 * dst / 2.0))
+
+    def first_below(level):
+        k = np.nonzero(db[k0:] < level)[0]
+        return float(f[k0 + k[0]]) if k.size else dst / 2.0
+    return first_below(ref - 6.0), first_below(ref - 40.0)
+
+
+def ambiguous_down(src: int, dst: int, design) -> bool:
+    """A down-converter whose fall also reads as an upsampler's from a lower standard rate: its -6 dB point at
+    0.88-1.0 of that rate's Nyquist and its stop band (-40 dB) begun by 1.06 of it (house choice: the window
+    where an upsampler's anti-image filter puts its stop band)."""
+    six, stop = down_response(src, dst, design)
+    return any(0.88 <= six / (r / 2.0) <= 1.0 and stop <= 1.06 * r / 2.0
+               for r in STANDARD_RATES_HZ if r / 2.0 <= 0.93 * dst / 2.0)
+
+
+def _plan_codec_and_downconversion(seed: int, quick: bool):
+    """Codec round trips (group "codec-shelf"), down-conversions ("downconverted", or "ambiguous-downconverted"
+    where :func:`ambiguous_down` says so) and Butterworth orders 8-12 at 16-19 kHz on music at 48 kHz
+    ("lowpass"); every one expects ``upsampled_from_hz`` None except the ambiguous ones (no expectation)."""
+    rng = np.random.default_rng([int(seed), 17])
+    mats = ("music", "speech", "noise", "sparse", "dull")
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    for fs in (44100, 48000):
+        for kbps in (CODEC_RATES_KBPS if not quick else CODEC_RATES_KBPS[fs % 2::3]):
+            how = pick(("mdct", "mdct-lowpass", "subband", "subband-lowpass"))
+            lp = None
+            if how.endswith("lowpass"):
+                lp = CODEC_LOWPASS_HZ[kbps] * float(rng.uniform(0.95, 1.05))
+            mat = pick(mats)
+            plan.append((f"codec_{how}_{kbps}k_{fs}_{mat}", f"codec-{how.split('-')[0]}", "codec-shelf",
+                         ("codec", fs, kbps, how.startswith("subband"), lp, mat, pick([1, 2, 2]),
+                          float(rng.uniform(-30.0, -8.0)))))
+    for i, (src, dst) in enumerate(DOWN_CONVERSIONS if not quick else DOWN_CONVERSIONS[:4]):
+        first = DOWN_DESIGNS[(i + int(seed)) % len(DOWN_DESIGNS)]
+        second = pick([d for d in DOWN_DESIGNS if d != first])
+        for design in ((first, second) if not quick else (first,)):
+            tag = f"k{design[1]}c{int(round(design[2] * 100))}b{design[3]:g}" if design[0] == "kaiser" else design[1]
+            group = "ambiguous-downconverted" if ambiguous_down(src, dst, design) else "downconverted"
+            fam = "down-resample_poly" if design[0] == "kaiser" else f"down-libsamplerate-{design[1]}"
+            plan.append((f"down_{tag}_{src}_to_{dst}_{i}", fam, group,
+                         ("down", src, dst, design, pick(DOWN_MATERIALS), pick([1, 2]),
+                          float(rng.uniform(-30.0, -8.0)))))
+    for order in ((8, 10, 12) if not quick else (10,)):
+        for corner in ((16000.0, 17000.0, 18000.0, 19000.0) if not quick else (17000.0,)):
+            zp = bool(rng.integers(0, 2))
+            plan.append((f"b48_{'zp' if zp else ''}{order}_{corner / 1000:g}k", f"butter{'zp' if zp else ''}{order}-"
+                         f"{corner / 1000:g}k", "lowpass", ("butter48", order, corner, zp, float(rng.uniform(-24.0, -8.0)))))
+    return plan
+
+
+def build_codec_and_downconversion(spec, rng, seconds):
+    kind = spec[0]
+    if kind == "codec":
+        _k, fs, kbps, subband, lp, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([codec_roundtrip(x[:, c], fs, kbps, rng, lowpass_hz=lp, subband=subband) for c in range(ch)],
+                     axis=1)
+        return fs, y, {"upsampled_from_hz": None, "upsampled_channels": []}, default_labels(ch)
+    if kind == "down":
+        _k, src, dst, design, mat, ch, level = spec
+        x = set_rms(np.stack([down_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([downconvert(x[:, c], src, dst, design) for c in range(ch)], axis=1)
+        expect = {} if ambiguous_down(src, dst, design) else {"upsampled_from_hz": None, "upsampled_channels": []}
+        return dst, y, expect, default_labels(ch)
+    _k, order, corner, zp, level = spec
+    x = np.stack([material("music", 48000, seconds, rng) for _ in range(2)], axis=1)
+    sos = sps.butter(order, corner, fs=48000, output="sos")
+    y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
+    return 48000, set_rms(y, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]

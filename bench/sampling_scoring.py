@@ -50,7 +50,7 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 OUT_ROOT = HERE / "out" / "sampling"
 NAME_RE = re.compile(r"^[a-z0-9_-]+$")
-AMBIGUOUS_GROUPS = {"ambiguous-lowpass"}
+AMBIGUOUS_GROUPS = {"ambiguous-lowpass", "ambiguous-downconverted"}
 # keys kept from each result for the JSON dump
 KEEP_KEYS = ("upsampled_from_hz", "upsampled_confidence", "upsampled_channels", "effective_bandwidth_hz",
              "bandwidth_edge", "bandwidth_edge_depth_db", "bandwidth_edge_slope_db_per_khz", "bandwidth_note",

@@ -160,7 +160,7 @@ def run(corpus: str, seeds, quick: bool, only: str | None = None, progress=True,
         for case in cached_cases(corpus, seed, quick, cache if not only else None, only):
             if only and not case.name.startswith(only):
                 continue
-            if not ({"upsampled_from_hz", "upsampled_channels"} & set(case.expect)) and case.group != "ambiguous-lowpass":
+            if not ({"upsampled_from_hz", "upsampled_channels"} & set(case.expect)) and not case.group.startswith("ambiguous"):
                 continue        # a case the upsampling verdict does not speak to (folded content, imaging alone)
             t0 = time.perf_counter()
             m = measure_case(case)
@@ -205,15 +205,15 @@ def main(argv=None) -> int:
           f"{sum(r['elapsed_s'] for r in rows) / max(1, len(rows)):.2f} s per case")
     for fam in sorted(by_family):
         print(fmt_row(fam, tally(by_family[fam])))
-    scored = [r for r in rows if r["group"] != "ambiguous-lowpass"]
+    scored = [r for r in rows if not r["group"].startswith("ambiguous")]
     tuned = [r for r in scored if not any(r["family"].startswith(h) for h in held)]
     print(fmt_row("ALL (scored)", tally(scored)))
     if held:
         print(fmt_row("tuned-on families", tally(tuned)))
         print(fmt_row("held-out " + "+".join(held), tally([r for r in scored if r not in tuned])))
-    amb = [r for r in rows if r["group"] == "ambiguous-lowpass"]
+    amb = [r for r in rows if r["group"].startswith("ambiguous")]
     if amb:
-        print("ambiguous-lowpass (not scored): " + ", ".join(f"{r['name']}={r['got']['upsampled_from_hz']}"
+        print("ambiguous (not scored): " + ", ".join(f"{r['name']}={r['got']['upsampled_from_hz']}"
                                                              for r in amb))
     for r in rows:
         bad = [k for k, o in r["outcome"].items() if o in ("miss", "wrong_rate", "false_alarm")]

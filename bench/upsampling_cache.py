@@ -78,9 +78,9 @@ def score(args) -> int:
         by_group[r["group"]].append(r)
     for g in sorted(by_group):
         print(su.fmt_row(g, su.tally(by_group[g])))
-    scored = [r for r in out if r["group"] != "ambiguous-lowpass"]
+    scored = [r for r in out if not r["group"].startswith("ambiguous")]
     print(su.fmt_row("ALL (scored)", su.tally(scored)))
-    amb = [r for r in out if r["group"] == "ambiguous-lowpass"]
+    amb = [r for r in out if r["group"].startswith("ambiguous")]
     if amb:
         print("ambiguous (not scored): called upsampled in "
               f"{sum(r['got']['upsampled_from_hz'] is not None for r in amb)}/{len(amb)}")

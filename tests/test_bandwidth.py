@@ -476,7 +476,7 @@ def test_tuning_corpus_slice_meets_the_targets():
     from score_upsampling import measure_case, score_case, tally
     rows = []
     for case in corpus.cases(1000, quick=True, step=4):
-        if case.group == "ambiguous-lowpass":
+        if case.group.startswith("ambiguous"):
             continue
         if case.family in ("hold", "linear", "zero-stuff", "libsamplerate-linear",
                            "libsamplerate-zero_order_hold"):
@@ -828,3 +828,78 @@ def test_brick_wall_at_a_standard_nyquist_names_that_rate(src, dst):
     res = assess(y, dst)
     assert res.upsampled_from_hz == src
     assert abs(res.effective_bandwidth_hz - src / 2.0) <= 0.015 * src / 2.0     # BRICK_WALL_RATIO_TOLERANCE
+
+
+def _staircase_power(fs, shares, floor_rel=1e-12):
+    """The long-term power (10 Hz bins) of white noise through a sub-band coder whose 32 sub-bands are fs/64
+    wide: the sub-bands below ``len(shares)`` from the top of ``shares`` are coded in every frame, the k-th
+    band after them in ``shares[k]`` of the frames, the rest never.  Analytic: a band coded in a share s of
+    the frames holds s times its power on average over the file."""
+    bin_hz = 10.0
+    f = np.arange(int(fs / 2 / bin_hz) + 1) * bin_hz
+    band = np.floor(f / (fs / 64.0)).astype(int)
+    first = 15                                   # bands 0-14 always coded: up to 15 fs/64 (10.34 kHz at 44.1 kHz)
+    share = np.where(band < first, 1.0, 0.0)
+    for k, s in enumerate(shares):
+        share[band == first + k] = s
+    return 1e-8 * np.maximum(share, floor_rel), bin_hz
+
+
+def test_coder_staircase_is_found_and_is_not_a_conversion():
+    # A coder's band limit that moves between sub-bands from frame to frame leaves a staircase in the long-term
+    # spectrum: one flat step per band at 10 log10(share) dB (analytic, see _staircase_power).  With shares 0.1 and
+    # 0.01 the steps lie 10 and 20 dB down, each fs/64 = 689 Hz wide at 44.1 kHz, wider than the shortest step
+    # read (fs/150, STEP_MIN_WIDTH_RATIO, house choice)
+    fs = 44100
+    power, bin_hz = _staircase_power(fs, (0.1, 0.01))
+    level = bw.step_level_db(power, bin_hz)
+    pass_db, stop_db = 10.0 * np.log10(1e-8), 10.0 * np.log10(1e-20)
+    step = bw.coder_steps(level, bin_hz, 8000.0, 13000.0, pass_db, stop_db, fs=fs)
+    assert step is not None
+    start_hz, level_db = step
+    assert 15 * fs / 64 - 100.0 <= start_hz <= 16 * fs / 64           # the first partly coded sub-band
+    assert abs(level_db - (pass_db - 10.0)) <= 0.5                     # 10 log10(0.1)
+    res = bw.assess_power(power, bin_hz, fs, 4410, info_for(fs), frames=100)
+    assert res.upsampled_from_hz is None
+    # every band coded in every frame up to the limit: one wall, no step
+    wall, _b = _staircase_power(fs, ())
+    assert bw.coder_steps(bw.step_level_db(wall, bin_hz), bin_hz, 8000.0, 13000.0, pass_db, stop_db, fs=fs) is None
+
+
+def test_converter_fall_has_no_coder_step():
+    # scipy's resample_poly default design (Kaiser window, beta 5, 10 zero crossings either side of the centre
+    # tap per unit of max(up, down): from memory of scipy.signal.resample_poly's documented defaults), here up 2
+    # from 44.1 kHz: its transition falls smoothly through the old Nyquist, with no flat stretch on the way.
+    fs_src, up = 44100, 2
+    fs = fs_src * up
+    h = sps.firwin(2 * 10 * up + 1, 1.0 / up, window=("kaiser", 5.0))
+    bin_hz = 10.0
+    f = np.arange(int(fs / 2 / bin_hz) + 1) * bin_hz
+    _w, resp = sps.freqz(h, 1.0, worN=f, fs=fs)
+    power = 1e-8 * np.maximum(np.abs(resp) ** 2, 1e-14)
+    env = bw.envelope_db(power, bin_hz)
+    cliff = bw.find_cliff(env, bin_hz, int(0.99 * fs / 2 / bin_hz))
+    assert cliff is not None and abs(cliff["edge_hz"] - fs_src / 2) <= 0.05 * fs_src / 2
+    level = bw.step_level_db(power, bin_hz)
+    assert bw.coder_steps(level, bin_hz, cliff["f1_hz"], cliff["stop_start_hz"], -80.0, -140.0, fs=fs) is None
+
+
+def test_coherence_alone_does_not_name_a_source_below_a_band_limit():
+    # House rule (provenance.from_traces): where the bandwidth analysis found a steep band limit no converter
+    # explains, a trace without measured images of the content inside the band does not name the source.  The reason is arithmetic: a block coder's frames repeat every
+    # hop samples, and the common hops (576, 1024 and 2048 samples) divide half the file's rate into a whole
+    # number of frame rates, so the cycle frequency fs/2 a 2x upsampler's images share is also a harmonic of the
+    # coder's framing (22050 / (44100 / 576) = 288, 24000 / (48000 / 1024) = 512)
+    from masterqc.measure import provenance
+    for fs, hop in ((44100, 576), (48000, 1024), (44100, 2048), (48000, 576)):
+        assert (fs / 2) / (fs / hop) == hop // 2
+    imaging = [{"source_rate_hz": 24000.0, "verdict": "trace", "image_level_db": None, "channel": "M",
+                "channels": ["M"]}]
+    kept = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": 9480.0, "imaging": imaging})
+    assert kept["upsampled_from_hz"] is None
+    named = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None, "imaging": imaging})
+    assert named["upsampled_from_hz"] == 24000
+    # with measured images of the content inside the band, the trace still names the source below a band limit
+    imaging[0]["image_level_db"] = -73.6
+    imaged = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": 9480.0, "imaging": imaging})
+    assert imaged["upsampled_from_hz"] == 24000

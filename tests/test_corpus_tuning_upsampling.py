@@ -56,3 +56,69 @@ def test_sweep_labels_are_as_built():
     assert all(v > 0 for v in seen.values()), seen
     assert ct._ambiguous_cutoff(20800.0, 48000)           # 0.943 of 22.05 kHz (by construction)
     assert not ct._ambiguous_cutoff(17500.0, 48000)       # 0.794 of 22.05 kHz, 0.729 of 24 kHz
+
+
+def test_codec_transform_reconstructs_without_quantisation():
+    # The coder's MDCT (sine window, 50 % overlap) reconstructs its input exactly when nothing is quantised:
+    # the sine window meets the Princen-Bradley condition w[n]^2 + w[n + N]^2 = 1 (analytic), so the time-domain
+    # aliasing of neighbouring frames cancels
+    n = 256
+    cmat = ct._mdct_matrix(n)
+    win = np.sin(np.pi * (np.arange(2 * n) + 0.5) / (2 * n))
+    assert np.allclose(win[:n] ** 2 + win[n:] ** 2, 1.0)
+    rng = np.random.default_rng(3)
+    x = rng.standard_normal(8 * n)
+    pad = np.concatenate([np.zeros(n), x, np.zeros(2 * n)])
+    out = np.zeros(pad.size)
+    for j in range((pad.size - 2 * n) // n + 1):
+        spec = (pad[j * n:j * n + 2 * n] * win) @ cmat
+        out[j * n:j * n + 2 * n] += (2.0 / n) * (cmat @ spec) * win
+    assert np.max(np.abs(out[n:n + x.size] - x)) < 1e-9
+
+
+def _top_hz(y, fs, below_db=40.0):
+    f, p = sps.welch(y, fs, nperseg=4096)
+    db = 10.0 * np.log10(np.maximum(p, 1e-30))
+    ref = np.median(db[(f > 2000.0) & (f < 6000.0)])
+    return float(f[np.nonzero(db > ref - below_db)[0][-1]])
+
+
+def test_codec_band_limit_rises_with_the_bit_budget_and_obeys_its_low_pass():
+    # The coder's band limit is where its per-frame budget runs out (house design): more bits, a higher limit;
+    # the encoder's own low-pass caps it whatever the budget
+    fs = 44100
+    rng = np.random.default_rng(5)
+    x = 0.05 * ct.material("noise", fs, 1.0, rng)
+    low = _top_hz(ct.codec_roundtrip(x, fs, 48, np.random.default_rng(1)), fs)
+    high = _top_hz(ct.codec_roundtrip(x, fs, 112, np.random.default_rng(1)), fs)
+    capped = _top_hz(ct.codec_roundtrip(x, fs, 112, np.random.default_rng(1), lowpass_hz=12000.0), fs)
+    assert 8000.0 <= low < high - 4000.0
+    assert capped <= 12000.0 + 700.0           # one band of at most 700 Hz past the low-pass
+    sub = ct.codec_roundtrip(x, fs, 56, np.random.default_rng(1), lowpass_hz=11025.0, subband=True)
+    assert _top_hz(sub, fs) <= 11025.0 + 100.0   # sub-bands are fs/64 wide: 16 of them end at exactly fs/4
+
+
+@pytest.mark.parametrize("src,dst,design", [(192000, 48000, ("kaiser", 32, 0.97, 9.0)),
+                                            (96000, 44100, ("kaiser", 64, 0.91, 8.0))])
+def test_down_converter_design_is_minus_6_db_at_its_cutoff(src, dst, design):
+    # a windowed sinc's gain at its cutoff is one half (-6.02 dB): the ideal sinc's response is 0.5 at its
+    # discontinuity and a symmetric window keeps it there (analytic, to the window's ripple); scipy freqz as
+    # the reference
+    from fractions import Fraction
+    h = ct.down_filter(src, dst, design)
+    up = Fraction(dst, src).numerator
+    assert abs(_gain_db(h, design[2] * dst / 2.0, src * up) + 6.02) <= 0.3
+
+
+def test_down_conversion_labels():
+    # libsamplerate's fastest converter from 192 to 48 kHz is -6 dB near 19.7 kHz (0.89 of 22.05 kHz) and 40 dB
+    # down by 22.7 kHz (1.03 of it): it reads as an upsampler's filter from 44.1 kHz, so it is ambiguous; a design
+    # centred on 0.97 of the new Nyquist (-6 dB at 23.3 kHz, 1.06 of 22.05 kHz) is not (house window, see
+    # ambiguous_down)
+    pytest.importorskip("samplerate")
+    six, stop = ct.down_response(192000, 48000, ("lsr", "sinc_fastest"))
+    assert 0.85 <= six / 22050.0 <= 0.95 and stop <= 1.06 * 22050.0
+    assert ct.ambiguous_down(192000, 48000, ("lsr", "sinc_fastest"))
+    assert not ct.ambiguous_down(192000, 48000, ("kaiser", 32, 0.97, 9.0))
+    names = [n for n, _f, _g, _s in ct._plan_codec_and_downconversion(1000, quick=False)]
+    assert len(names) == len(set(names))

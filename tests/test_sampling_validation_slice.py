@@ -69,10 +69,6 @@ def slice_tally(request, tmp_path_factory):
 #: issue 11's targets not yet met on a slice, by (test, corpus).  strict: once a detector meets its
 #: target the test XPASSes and fails, and the entry must go.
 KNOWN_MISSES = {
-    ("upsampling_false_alarms", "corpus_validation"):
-        "an 8th-order Butterworth low-pass at 20 kHz in a 48 kHz file is read as converted up from 44.1 kHz (next "
-        "to a 48 kHz file's Nyquist a Butterworth's warped fall is as steep as a 44.1 kHz converter's, and on "
-        "music the Butterworth test cannot read it cleanly enough to tell them apart)",
     ("upsampling_false_alarms", "corpus_tuning_upsampling"):
         "the tuning corpus' mastering low-pass sweep (new negatives) has an 8th-order Chebyshev II low-pass at "
         "17.6 kHz in a 96 kHz file read as converted up from 32 kHz: its equiripple stop band begins where a "

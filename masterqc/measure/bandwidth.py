@@ -65,6 +65,11 @@ A cliff whose fall a Butterworth low-pass explains (:func:`butterworth_explains`
 against ``log10(tan(pi f / fs))``, fitting a digital Butterworth of order at most 12, run once or zero-phase)
 is a band limit, however near a standard Nyquist it lies.
 
+A cliff whose fall comes in steps -- flat stretches as wide as a coder's bands, between drops of several dB
+(:func:`coder_steps`) -- is a lossy coder's band limit: a coder codes or zeroes whole bands, and where its limit moves
+from frame to frame the long-term spectrum holds one step per band at the share of frames that coded it, while a
+converter's transition falls smoothly.
+
 A cliff whose edge lies early (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) must leave nothing above the
 old Nyquist but a floor: read frame by frame on the front end's level histogram (:func:`stop_band_content`), a
 mastering low-pass leaves the programme there, a fixed 50-90 dB down in every frame, and is a band limit.
@@ -90,7 +95,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from masterqc.measure.npkernels import maximum_filter1d, minimum_filter1d, uniform_filter1d
+from masterqc.measure.npkernels import maximum_filter1d, median_filter, minimum_filter1d, uniform_filter1d
 
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import NUMBER_OR_NULL, STRING_OR_NULL, TIME_RANGES, array_of
@@ -319,6 +324,26 @@ BUTTERWORTH_MAX_ORDER = 12
 FIT_COARSE_HZ = 100.0
 FIT_REFINE = 6
 FIT_REFINE_HZ = 200.0
+
+#: a lossy coder's band limit comes in steps: it codes or zeroes whole bands (32 sub-bands of fs/64, or scale-factor
+#: bands of 16-32 lines of 1024 at the top of the band: 345-750 Hz at 44.1 and 48 kHz), and where its limit moves
+#: from frame to frame the long-term spectrum holds one flat step per band at the share of frames that coded it
+#: (a band coded in half the frames stands 3 dB down, in a tenth 10 dB), with drops at the band edges.  A
+#: converter's windowed-sinc transition falls smoothly and ever faster into its stop band, with no flat stretch on
+#: the way.  A step (:func:`coder_steps`), read from the -1 dB point to the start of the stop band on the level of
+#: the spectrum, median over STEP_MEDIAN_HZ (the noise-like body of the programme without single partials, which the
+#: closed envelope would turn into steps of their own): the level stays within STEP_FLAT_DB over STEP_MIN_WIDTH_RATIO
+#: of the file's rate (a coder's bands are a share of its band: fs/150 is 294 Hz at 44.1 kHz), at least
+#: STEP_BELOW_PASS_DB under the pass level and STEP_ABOVE_STOP_DB over the stop level, and falls at least STEP_EDGE_DB
+#: within that width into it and again out of it.  Own reasoning; on the tuning corpus no converter's fall shows
+#: one, and a uniform slow fall (3-4 dB/kHz, a short Hann design's) that looks flat over 300 Hz falls only about
+#: 1 dB per 300 Hz either side
+STEP_MEDIAN_HZ = 250.0
+STEP_MIN_WIDTH_RATIO = 1.0 / 150.0
+STEP_FLAT_DB = 1.5
+STEP_BELOW_PASS_DB = 2.0
+STEP_ABOVE_STOP_DB = 10.0
+STEP_EDGE_DB = 3.0
 
 MEASUREMENT_SCHEMA = {
     "effective_bandwidth_hz": measured(NUMBER_OR_NULL, 'hz',
@@ -1105,6 +1130,36 @@ def scale_for(rate_hz: float) -> int:
     return 1 if nyq >= 11500.0 else 2 if nyq >= 7500.0 else 4
 
 
+def step_level_db(power, bin_hz: float) -> np.ndarray:
+    """The level (dB) of a power spectrum, median over :data:`STEP_MEDIAN_HZ`: the programme's noise-like body,
+    without single partials (the closed envelope would turn the partials of a slow transition into steps)."""
+    return median_filter(_db(power), max(3, _bins(STEP_MEDIAN_HZ, bin_hz) | 1), mode="nearest")
+
+
+def coder_steps(env_db, bin_hz: float, edge_hz: float, stop_start_hz: float, pass_db: float, stop_db: float,
+                fs: float = 44100.0):
+    """The first flat step (``(start_hz, level_db)``) in a cliff's fall from ``edge_hz`` (the cliff's -1 dB point) to
+    the start of its stop band ``stop_start_hz``, or None (see :data:`STEP_MIN_WIDTH_RATIO`).  ``env_db`` is a level
+    in dB (:func:`step_level_db`; bins ``bin_hz`` wide, the file's own frequencies) of a file of rate ``fs``;
+    ``pass_db`` and ``stop_db`` are the pass and stop levels read on it."""
+    w = max(2, _bins(STEP_MIN_WIDTH_RATIO * fs, bin_hz))
+    k0, k1 = _bins(edge_hz, bin_hz), min(len(env_db), _bins(stop_start_hz, bin_hz))
+    if k1 - k0 < w + 1 or k0 < w or k1 + w > len(env_db):
+        return None
+    win = np.lib.stride_tricks.sliding_window_view(env_db[k0:k1], w)
+    mid = np.median(win, axis=1)
+    i = np.arange(win.shape[0]) + k0
+    # flanked by drops: it falls STEP_EDGE_DB within the step's width into the step and again out of it
+    into = env_db[i - w] - env_db[i]
+    out_of = env_db[i + w - 1] - env_db[np.minimum(i + 2 * w - 1, len(env_db) - 1)]
+    flat = ((win.max(axis=1) - win.min(axis=1) <= STEP_FLAT_DB) & (mid <= pass_db - STEP_BELOW_PASS_DB)
+            & (mid >= stop_db + STEP_ABOVE_STOP_DB) & (into >= STEP_EDGE_DB) & (out_of >= STEP_EDGE_DB))
+    hit = np.nonzero(flat)[0]
+    if hit.size == 0:
+        return None
+    return (k0 + int(hit[0])) * bin_hz, float(mid[hit[0]])
+
+
 def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     """One cliff search at frequency scale ``scale``: ``(cliff, rate, position score, tonal)``.
 
@@ -1154,10 +1209,24 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         elif not brick and butterworth_explains(env, bin_hz, scale, 2.0 * nyq, cliff)[0]:
             # a mastering low-pass's fall, not a resampler's transition
             rate = None
+        else:
+            level = step_level_db(total, bin_hz)
+            f1, f_stop = cliff["f1_hz"] / scale, cliff["stop_start_hz"] / scale
+            k1 = _bins(f1, bin_hz)
+            ks = _bins(f_stop, bin_hz)
+            pass_db = float(np.median(level[max(0, k1 - _bins(2000.0 / scale, bin_hz)):max(1, k1)]))
+            stop_db = float(np.median(level[ks:max(ks + 1, min(len(level), ks + _bins(2000.0 / scale, bin_hz)))]))
+            step = coder_steps(level, bin_hz, f1, f_stop, pass_db, stop_db, fs=2.0 * nyq)
+            if step is not None:
+                # a lossy coder's band limit, whole bands at a time, not a converter's smooth fall
+                rate = None
+                cliff["coder_step"] = (step[0] * scale, pass_db - step[1])
     real = dict(cliff)
     for k in ("edge_hz", "f1_hz", "f3_hz", "f30_hz", "fb_hz", "f20_hz", "f40_hz", "stop_start_hz"):
         if real.get(k) is not None:
             real[k] = real[k] / scale
+    if real.get("coder_step") is not None:
+        real["coder_step"] = (real["coder_step"][0] / scale, real["coder_step"][1])
     for k in ("slope_db_per_khz", "slope_below_db_per_khz", "steepest_db_per_khz", "tilt_db_per_khz",
               "slope_after_db_per_khz"):
         if k in real:
@@ -1233,6 +1302,12 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
+        elif cliff.get("coder_step") is not None:
+            out.band_limit_hz = edge
+            at_hz, down_db = cliff["coder_step"]
+            out.note = (f"band-limited at {edge / 1000:.1f} kHz in steps of whole bands, as a lossy coder limits its "
+                        f"band: the fall stops flat {down_db:.0f} dB down at {at_hz / 1000:.1f} kHz before it goes on, "
+                        "where a converter's filter falls smoothly")
         else:
             out.band_limit_hz = edge
             out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass that no standard rate's converter "

@@ -112,6 +112,12 @@ def from_traces(m: dict) -> dict:
         return m
     traces = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("verdict") == "trace"
               and c.get("source_rate_hz")]
+    if m.get("band_limit_hz") is not None:
+        # the band ends in a steep low-pass that no converter explains (a lossy coder, a mastering filter): there
+        # coherence alone does not name a source, only measured images of the content inside the band do.  A
+        # block coder's frames repeat at a rate that divides half and a quarter of the file's rate (hops of 576,
+        # 1024 or 2048 samples), so coherence at those cycle frequencies may be its framing, not images
+        traces = [c for c in traces if c.get("image_level_db") is not None]
     if not traces:
         return m
     src = min(traces, key=lambda c: float(c["source_rate_hz"]))
