@@ -45,8 +45,8 @@ partial meeting a direct one by chance then looks significant against the model'
 null; its controls show the same spread, an upsampler's images do not.  A defect
 also needs images that explain the band above the candidate's Nyquist frequency
 (:data:`MIN_IMAGES_EXPLAINED_FRACTION`).  On periodic material with folded partials
-(:data:`FOLD_CHECK_FRAMES`) a candidate that leaves a trace is reported untestable,
-so that chance pairs never name a source rate.
+(:data:`FOLD_CHECK_FRAMES`) a candidate that leaves a trace its images do not
+explain is reported untestable, so that chance pairs never name a source rate.
 
 For each candidate source rate below the file's rate the analyzer reports
 
@@ -231,10 +231,10 @@ CLEAR_MIN_PAIRS = 8
 #: sub-bands at most
 CLEAR_RULE_OUT_SHARE = 0.5
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`): on such material
-#: a candidate that leaves a trace (coherent, but not every test of a defect passed: its significance
-#: against the null's spread, images that explain the band above its Nyquist frequency) is reported
-#: untestable, so that chance pairs of folded partials never name a source rate.  The frames are
-#: transformed while streaming and analysed only for a file with a trace
+#: a candidate that leaves a trace whose images do not explain the band above its Nyquist frequency
+#: (:data:`MIN_IMAGES_EXPLAINED_FRACTION`) is reported untestable, so that chance pairs of folded
+#: partials never name a source rate.  The frames are transformed while streaming and analysed only
+#: for a file with such a trace
 FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
 #: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
@@ -919,6 +919,8 @@ class ImagingAnalyzer(Analyzer):
         # to that content (the images of the top of the band may be a resampler's transition band)
         level = None if main["inner"] is None else power_ratio_db(main["inner"])
         base["image_level_db"] = None if level is None else round(level, 2)
+        cover = main["cover"]
+        base["images_explained_fraction"] = None if cover is None else round(min(1.0, max(0.0, cover)), 4)
         bounds_db = [power_ratio_db(b) for b in main["clear_bounds"]]
         below = [b for b in bounds_db if b < DEFECT_IMAGE_LEVEL_DB]
         ruled_out = bool(below) and len(below) >= CLEAR_RULE_OUT_SHARE * len(bounds_db)
@@ -940,8 +942,6 @@ class ImagingAnalyzer(Analyzer):
                                   f"of the band (below {bound:.0f} dB relative to the content): programme components "
                                   "that pair up by themselves")
             return base
-        cover = main["cover"]
-        base["images_explained_fraction"] = None if cover is None else round(min(1.0, max(0.0, cover)), 4)
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and cover is not None \
                 and cover < MIN_IMAGES_EXPLAINED_FRACTION:
             # above the candidate's Nyquist frequency a file converted up from it holds the images and nothing
@@ -1027,7 +1027,11 @@ class ImagingAnalyzer(Analyzer):
             defects, traces = [], []
             for ch in range(self.info.channels):
                 a = self._assess(cand, ch, f0s[ch])
-                if a["verdict"] == "trace" and self._periodic_with_folds():
+                # (a trace whose images explain the band above the candidate's Nyquist frequency is an
+                # upsampler's, whatever the material: the long frames are analysed only for the others)
+                if a["verdict"] == "trace" and not ((a["images_explained_fraction"] or 0.0)
+                                                    >= MIN_IMAGES_EXPLAINED_FRACTION) \
+                        and self._periodic_with_folds():
                     a.update(coherence=None, image_level_db=None, z_score=None, null_spread_z=None,
                              images_explained_fraction=None, verdict="untestable",
                              reason=("periodic material with folded partials: it is cyclostationary at nearly every "
