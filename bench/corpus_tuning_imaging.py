@@ -1,4 +1,5 @@
-"""Tuning corpus of the imaging detector: files converted up by good resamplers (negatives).
+"""Tuning corpus of the imaging detector: files converted up by good resamplers (negatives), short FIR
+interpolators whose images are or are not a defect by the house definition, and naive synthesis at high rates.
 
 Follows the shared case format of the sampling-detector corpora (``cases(seed, quick)`` yields
 :class:`Case` objects one at a time).  Set "tuning", seeds 1000-1999.  The positives (hold, linear,
@@ -14,6 +15,25 @@ of a note on 110 Hz sit on multiples of 110 Hz, and 12 100 Hz = 110 x 110 is whe
 cycle frequency keep their phase relation over the file exactly as a component and its image do.
 Labels: ``upsampled_from_hz`` the source rate, ``imaging_detected`` False.
 
+Short FIR interpolators (group ``short-fir``, family ``scipy-resample_poly-shortfir-<window>``): scipy
+``firwin`` designs of 16-48 taps (counted at the target rate), Kaiser (beta 0-6) or Hann windows, -6 dB at
+0.8-1.0 of the source Nyquist frequency, applied by ``resample_poly``, from 16, 22.05, 24, 32, 44.1 and
+48 kHz to 88.2, 96 and 192 kHz.  Their label comes from the filter's own taps and the source material's
+own spectrum (:func:`fir_image_level_db`): the first images (at ``r - f``) of the content at 0.3-0.7 of
+the source Nyquist frequency relative to that content, the quantity the house definition of imaging
+judges (:data:`IMAGING_DEFECT_DB`).  ``imaging_detected`` True at or above the line plus
+:data:`LABEL_MARGIN_DB`, False at or below it minus the margin; between the two no imaging label (reported
+apart, not scored).  Each has a twin: the same material converted by ``resample_poly``'s own long
+Kaiser design (False).
+
+Naive synthesis at high rates (group ``naive-synth``, families ``naive-saw``, ``naive-square``,
+``naive-pulse``; False): two to four overlapping voices of non-band-limited oscillators with envelopes,
+some with vibrato and some steady, at 88.2, 96, 176.4 and 192 kHz.  Their partials fold at the file's
+Nyquist frequency, and a folded partial and a direct one can sum to a candidate's cycle frequency by
+chance, like a component and its image.  Twins (group ``band-limited-synth``, ``oversampled-<kind>``,
+False): the same voices synthesised at 8 (4 at 176.4 and 192 kHz) times the rate and decimated by
+``resample_poly``.
+
 Listening caution: test material at up to -8 dBFS RMS with full-band noise and percussive bursts;
 turn the monitoring level down before playing any of it.
 """
@@ -21,10 +41,12 @@ turn the monitoring level down before playing any of it.
 from __future__ import annotations
 
 import sys
+from fractions import Fraction
 from pathlib import Path
 from typing import Iterator
 
 import numpy as np
+from scipy import signal as sps
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 import corpus_tuning_upsampling as up  # noqa: E402
@@ -92,10 +114,150 @@ def _plan(seed: int, quick: bool):
     return plan
 
 
+#: the house definition of imaging, the line the short-FIR labels are drawn against (dB, images of the
+#: content at 0.3-0.7 of the source Nyquist frequency relative to it); see the imaging analyzer's docs
+IMAGING_DEFECT_DB = -50.0
+#: labels only where the filter's level is at least this far from the line (house choice: the
+#: level's estimate from a few seconds of programme is good to about 1-2 dB)
+LABEL_MARGIN_DB = 3.0
+FIR_SOURCES_HZ = (16000, 22050, 24000, 32000, 44100, 48000)
+FIR_TARGETS_HZ = (88200, 96000, 192000)
+FIR_MATERIALS = ("music", "speech", "tonal", "dull", "noise")
+NAIVE_RATES_HZ = (88200, 96000, 176400, 192000)
+NAIVE_KINDS = ("saw", "square", "pulse")
+
+
+def fir_design(src: int, dst: int, taps: int, cutoff: float, window):
+    """``(h, up, down)``: a ``firwin`` low-pass of ``taps`` taps counted at the target rate (``taps * down``
+    at the design rate ``src * up``), -6 dB at ``cutoff`` of the source Nyquist frequency."""
+    fr = Fraction(dst, src)
+    up_, down = fr.numerator, fr.denominator
+    h = sps.firwin(taps * down, cutoff * src / 2.0, window=window, fs=float(src * up_))
+    return h, up_, down
+
+
+def fir_image_level_db(h, src: int, up_: int, x: np.ndarray) -> float:
+    """Level (dB) of the first images of the content at 0.3-0.7 of the source Nyquist frequency relative to
+    that content, for material ``x`` (at ``src``, channels in columns) through filter ``h`` (at ``src * up_``):
+    sum P(f) |H(src - f)|^2 / sum P(f) |H(f)|^2 over that band, P the material's own power spectrum (Welch,
+    25 Hz bins), H from the taps (scipy.signal.freqz)."""
+    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 25))
+    band = (f >= 0.3 * src / 2) & (f <= 0.7 * src / 2)
+    f, p = f[band], p[band]
+    _w, h_in = sps.freqz(h, worN=f, fs=float(src * up_))
+    _w, h_im = sps.freqz(h, worN=src - f, fs=float(src * up_))
+    return float(10 * np.log10(np.sum(p * np.abs(h_im) ** 2) / np.sum(p * np.abs(h_in) ** 2)))
+
+
+def _fir_plan(seed: int, quick: bool):
+    rng = np.random.default_rng([int(seed), 29])
+    plan = []
+    for src in (FIR_SOURCES_HZ if not quick else (32000, 48000)):
+        for _rep in range(2 if not quick else 1):
+            dst = FIR_TARGETS_HZ[int(rng.integers(0, len(FIR_TARGETS_HZ)))]
+            taps = int(rng.integers(16, 49))
+            cutoff = float(np.round(rng.uniform(0.8, 1.0), 3))
+            window = ("kaiser", float(np.round(rng.uniform(0.0, 6.0), 2))) if rng.random() < 0.7 else "hann"
+            mat = FIR_MATERIALS[int(rng.integers(0, len(FIR_MATERIALS)))]
+            ch = [1, 2][int(rng.integers(0, 2))]
+            level = float(rng.uniform(-30.0, -8.0))
+            wname = "hann" if window == "hann" else f"kaiser{window[1]:g}"
+            plan.append(("fir", (src, dst, taps, cutoff, window, mat, ch, level),
+                         f"fir{taps}_{wname}_c{cutoff:g}_{src}_to_{dst}_{mat}_{ch}ch",
+                         f"scipy-resample_poly-shortfir-{'hann' if window == 'hann' else 'kaiser'}"))
+    return plan
+
+
+def _naive_plan(seed: int, quick: bool):
+    rng = np.random.default_rng([int(seed), 31])
+    plan = []
+    for fs in (NAIVE_RATES_HZ if not quick else (96000,)):
+        for kind in NAIVE_KINDS:
+            # some voices steady (no vibrato): their folded partials keep their phase over the file
+            depth = float(rng.choice([0.0, rng.uniform(0.001, 0.006)]))
+            plan.append(("naive", (fs, kind, depth, int(rng.integers(2, 5)), float(rng.uniform(-24.0, -8.0))),
+                         f"naive_{kind}_{fs}_v{depth * 1000:.1f}", f"naive-{kind}"))
+    return plan
+
+
+def naive_voices(fs: int, seconds: float, kind: str, depth: float, voices: int, rng, over: int = 1):
+    """Overlapping notes of a naive (non-band-limited) oscillator at ``fs * over``: equal-tempered pitches
+    from 55 to 880 Hz, attack and decay envelopes, vibrato of relative ``depth`` at 4-7 Hz (none at 0)."""
+    n = int(round(fs * seconds))
+    out = np.zeros(n * over)
+    rate = fs * over
+    for _v in range(voices):
+        pos = int(rng.uniform(0.0, 0.3) * fs)
+        while pos < n - int(0.3 * fs):
+            length = min(int(rng.uniform(0.8, 2.5) * fs), n - pos)
+            f0 = 55.0 * 2 ** (int(rng.integers(0, 49)) / 12.0)
+            t = np.arange(length * over) / rate
+            f_inst = f0 * (1.0 + depth * np.sin(2 * np.pi * rng.uniform(4.0, 7.0) * t + rng.uniform(0, 2 * np.pi)))
+            ph = np.mod(rng.uniform() + np.cumsum(f_inst) / rate, 1.0)
+            if kind == "saw":
+                wave = 2.0 * ph - 1.0
+            elif kind == "square":
+                wave = np.where(ph < 0.5, 1.0, -1.0)
+            else:
+                duty = rng.uniform(0.1, 0.35)
+                wave = np.where(ph < duty, 1.0, -1.0) - (2.0 * duty - 1.0)
+            env = np.minimum(1.0, t / 0.01) * np.exp(-t * rng.uniform(0.2, 1.5))
+            out[pos * over:(pos + length) * over] += rng.uniform(0.5, 1.0) * env * wave
+            pos += length + int(rng.uniform(0.0, 0.15) * fs)
+    return out
+
+
+def _extra_cases(seed: int, quick: bool):
+    """The short-FIR and naive-synthesis cases with their twins (see the module docstring)."""
+    seconds = 2.0 if quick else 4.0
+    for i, (kind, spec, name, family) in enumerate(_fir_plan(seed, quick) + _naive_plan(seed, quick)):
+        rng = np.random.default_rng([int(seed), 37, i])
+        if kind == "fir":
+            src, dst, taps, cutoff, window, mat, ch, level = spec
+            x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+            h, up_, down = fir_design(src, dst, taps, cutoff, window)
+            lvl = fir_image_level_db(h, src, up_, x)
+            expect = {"upsampled_from_hz": src}
+            if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
+                expect["imaging_detected"] = True
+            elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
+                expect["imaging_detected"] = False
+            y = np.stack([sps.resample_poly(x[:, c], up_, down, window=h) for c in range(ch)], axis=1)
+            twin = np.stack([sps.resample_poly(x[:, c], up_, down) for c in range(ch)], axis=1)
+            out = ((f"{name}_img{lvl:.0f}db", family, "short-fir", y, expect),
+                   (f"{name}_twin", "scipy-resample_poly-kaiser5", "good-resampler", twin,
+                    {"upsampled_from_hz": src, "imaging_detected": False}))
+            rate, labels = dst, up.default_labels(ch)
+        else:
+            fs, wave, depth, voices, level = spec
+            state = int(rng.integers(1 << 62))
+            x = naive_voices(fs, seconds, wave, depth, voices, np.random.default_rng(state))
+            over = 8 if fs < 150000 else 4
+            y = naive_voices(fs, seconds, wave, depth, voices, np.random.default_rng(state), over=over)
+            y = sps.resample_poly(y, 1, over)[:x.size]
+            g = 10 ** (level / 20.0) / max(float(np.sqrt(np.mean(x ** 2))), 1e-12)
+            out = ((name, family, "naive-synth", x * g, {"imaging_detected": False}),
+                   (f"{name}_twin", f"oversampled-{wave}", "band-limited-synth", y * g, {"imaging_detected": False}))
+            rate, labels = fs, ["M"]
+        for cname, fam, group, audio, expect in out:
+            audio = np.asarray(audio, dtype=float)
+            if audio.ndim == 1:
+                audio = audio[:, None]
+            peak = float(np.max(np.abs(audio)))
+            if peak > 0.99:
+                audio = audio * (0.99 / peak)
+            audio = up.quantise24(audio, rng)
+            safe = cname.lower().replace(".", "p")
+            yield Case(name=f"{safe}_s{seed}", set="tuning", family=fam, group=group, rate_hz=int(rate), audio=audio,
+                       expect=expect, channel_labels=labels)
+
+
 def cases(seed: int, quick: bool = False) -> Iterator[Case]:
-    """Every case for ``seed`` (1000-1999); ``quick``: the first two conversions at 2 s."""
+    """Every case for ``seed`` (1000-1999); ``quick``: the first two conversions at 2 s, and a slice of the
+    short-FIR and naive-synthesis cases."""
     if not 1000 <= int(seed) <= 1999:
         raise ValueError(f"tuning seeds are 1000-1999, got {seed}")
+    yield from _extra_cases(seed, quick)
     for i, (name, family, group, spec) in enumerate(_plan(seed, quick)):
         src, dst, how, mat, seconds, ch, level = spec
         rng = np.random.default_rng([int(seed), 23, i])

@@ -33,12 +33,20 @@ steady material), and the null variance from an effective count of ``1/b`` frame
 Without it, music and speech look coherent at every cycle frequency, and the
 leakage of a proper resampler's transition band passed for an image.
 
-Guards against look-alikes, each reported as ``untestable`` with its reason:
-periodic material whose fundamental meets the cycle frequency (its harmonics pair
-up exactly like images), periodic material with folded partials (cyclostationary
-at nearly every cycle frequency), and material that is just as coherent at
-control cycle frequencies a few bins away.  Pairs of two spectral lines whose
-frequencies do not sum to the cycle frequency are left out.
+Guards against look-alikes, reported as ``untestable`` with their reason: periodic
+material whose fundamental meets the cycle frequency (its harmonics pair up exactly
+like images), and material that is just as coherent at control cycle frequencies a
+few bins away.  Pairs of two spectral lines whose frequencies do not sum to the cycle
+frequency are left out.  The significance is then judged against the statistic's
+spread at further control cycle frequencies, measured on the material itself
+(:data:`NULL_SPREAD_OFFSETS_BINS`): naive synthesis, whose partials fold at the
+file's Nyquist frequency, makes many pairs share a few smeared lines, and a folded
+partial meeting a direct one by chance then looks significant against the model's
+null; its controls show the same spread, an upsampler's images do not.  A defect
+also needs images that explain the band above the candidate's Nyquist frequency
+(:data:`MIN_IMAGES_EXPLAINED_FRACTION`).  On periodic material with folded partials
+(:data:`FOLD_CHECK_FRAMES`) a candidate that leaves a trace its images do not
+explain is reported untestable, so that chance pairs never name a source rate.
 
 For each candidate source rate below the file's rate the analyzer reports
 
@@ -50,7 +58,7 @@ For each candidate source rate below the file's rate the analyzer reports
   (:data:`INNER_BAND`), relative to that content, in dB (None when no coherent
   image was found).  Only content well inside the source band counts: its images
   lie beyond 1.3 of the source Nyquist frequency, past the transition band of any
-  interpolating resampler, however short, which stops them by 55 dB and more;
+  interpolating resampler, however short, which stops them by 54 dB and more;
   images of the band's top (just above the Nyquist frequency) leak through such a
   transition band and say nothing about the kind of upsampler.  Hold, linear and
   zero-stuffing upsamplers leave the inner band's images within 15, 30 and 0 dB
@@ -73,10 +81,10 @@ For each candidate source rate below the file's rate the analyzer reports
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/25`` samples per frame and channel, and one product per pair of the candidates'
-own cycle frequencies) plus :data:`FOLD_CHECK_FRAMES` longer frames, independent of the
-file's length.  The frames' spectra are kept (:data:`SPECTRA_STORE_MAX_BYTES`), so the
-control cycle frequencies and the half-file sums, which only a significant candidate
-needs, are computed for such a candidate alone; the numbers are the same as summing
+own cycle frequencies), independent of the file's length.  The frames' spectra are
+kept (:data:`SPECTRA_STORE_MAX_BYTES`), so the control cycle frequencies and the
+half-file sums, which only a significant candidate needs, are computed for such a
+candidate alone; the numbers are the same as summing
 every pair while streaming.
 """
 
@@ -143,16 +151,24 @@ NULL_VARIANCE_INFLATION = 2.0
 #: between these fractions of its Nyquist frequency.  Own reasoning from the filters' responses:
 #: every interpolating resampler, even a short windowed sinc whose -6 dB point sits at the source
 #: Nyquist frequency (12 taps per phase, Kaiser beta 5), stops the images of content below 0.7 of
-#: the source Nyquist by 55 dB and more (they lie beyond 1.3 of it, past the transition band),
+#: the source Nyquist by 54 dB and more (they lie beyond 1.3 of it, past the transition band),
 #: while its transition band lets through images of the top of the band (content at 0.9 of the
 #: Nyquist: images at 1.1 of it, only 12-40 dB down).  A hold, linear or zero-stuffing upsampler
 #: leaves the images of content between 0.3 and 0.7 of the source Nyquist at most 15 dB (hold),
 #: 30 dB (linear) or 0 dB (zero stuffing) below it, at any ratio (tests derive both).
 INNER_BAND = (0.3, 0.7)
-#: images of the inner band's content at or above this level relative to that content are a
-#: defect (own reasoning: midway, in dB, between linear interpolation's worst, -30 dB, and the
-#: leakiest short interpolation filter's best, -55 dB)
-DEFECT_IMAGE_LEVEL_DB = -42.0
+#: what "imaging detected" means: the first images of the inner band's content (:data:`INNER_BAND`)
+#: at or above this level relative to that content.  House choice, -50 dB.  An interpolation filter
+#: that leaves images within 50 dB of the content inside its band was designed without regard to
+#: them: the shortest filter a general-purpose resampler ships (12 taps per phase, Kaiser beta 5,
+#: -6 dB at the source Nyquist frequency) leaves them at -60 dB on flat content (-54 dB at the
+#: band's top), proper ones at -90 dB and less (tests derive both from the taps), whereas linear
+#: interpolation, which the trade calls imaging, leaves -30 dB at 0.3 of the source Nyquist
+#: frequency and more above.  A short windowed FIR of 32 taps whose images reach -32 dB (its stop
+#: band's first side lobe) leaves its inner-band images at -36 to -44 dB: within a few dB of
+#: linear interpolation's, hence a defect, 6 dB and more above the line.  (Was -42 dB, which left
+#: such a FIR's inner-band images, -44 dB, a mere trace.)
+DEFECT_IMAGE_LEVEL_DB = -50.0
 #: source content is within this much of the mean bin power of the candidate's band; a weaker
 #: pair is measured against that floor (own reasoning: the inner band of real material, even a
 #: dull recording falling 12 dB per octave, lies within 25 dB of the band's mean bin power, while
@@ -167,6 +183,15 @@ CONTROL_OFFSETS_BINS = (-5, 3)
 #: a control this significant (absolute, and relative to the candidate's z) makes the
 #: candidate untestable (own reasoning)
 CONTROL_Z_RELATIVE = 0.5
+#: further control cycle frequencies, in bins from each candidate's (first order only): the spread of
+#: the statistic at cycle frequencies no upsampler uses, on the material itself.  The pooled statistic
+#: assumes pairs that are independent under the null; a few strong smeared lines (naive synthesis, its
+#: partials folded at the file's Nyquist frequency) make hundreds of pairs share two components, and a
+#: chance alignment then reaches z 8 where the model says 1 in 10^15.  The controls share that
+#: structure, so their root-mean-square z measures the null's real spread.  Own reasoning: 6 bins and
+#: more keep a true image's main lobe (2 bins) and a vibrato's smear out of them; 8 of them give the
+#: spread within about 25 %
+NULL_SPREAD_OFFSETS_BINS = (-17, -13, -9, -6, 6, 9, 13, 17)
 #: the analysed frames' spectra are kept (complex, one-sided) up to this many bytes, so that the
 #: pairs only a significant candidate needs (its control cycle frequencies and its first-half sums)
 #: are computed at :meth:`ImagingAnalyzer.finish` only for such a candidate; above it (many channels
@@ -186,10 +211,30 @@ SPECTRA_STORE_MAX_BYTES = 32 * 1024 * 1024
 #: true source's).  Narrow sub-bands, so a resampler's transition band or programme under part of the
 #: images cannot hide their absence under the rest
 CLEAR_SUBBANDS = ((0.3, 0.4), (0.4, 0.5), (0.5, 0.6), (0.6, 0.7), (0.7, 0.8), (0.8, 0.9), (0.9, 1.0))
+#: a defect needs the content to explain at least this share of the power at its first images' positions
+#: above the candidate's Nyquist frequency (power-weighted over the weaker members, bias-corrected squared
+#: coherence).  A file converted up from the candidate holds its images there and nothing else, so its
+#: images explain all of it (0.99 and more at 24 bits, from hold to a short FIR whose images lie 45 dB down);
+#: partials that meet by chance (naive synthesis, its partials folded at the file's Nyquist frequency: a
+#: few of them pair up, the rest of the lines above the candidate's Nyquist frequency have no partner)
+#: explain 0.1 or less.  House choice: 0.3, room for a noise floor (dither, a noise bed added after the
+#: conversion) at the images' positions
+MIN_IMAGES_EXPLAINED_FRACTION = 0.3
 #: a sub-band rules out only with at least this many clear pairs (own reasoning: the bound needs a
 #: few hundred hertz of content)
 CLEAR_MIN_PAIRS = 8
-#: long frames checked for periodic material with folded partials (see :mod:`aliasing`)
+#: the images are ruled out when they are bounded below the defect level in at least this share of
+#: the sub-bands with content.  Own reasoning: an upsampler's images mirror the whole band, their level
+#: set by one filter response, so they are there in most sub-bands; a short FIR's stop band has nulls,
+#: where one sub-band (0.1 of the Nyquist frequency wide) can dip below the line while the band as a
+#: whole stands well above it; programme components that pair up by themselves fill one or two
+#: sub-bands at most
+CLEAR_RULE_OUT_SHARE = 0.5
+#: long frames checked for periodic material with folded partials (see :mod:`aliasing`): on such material
+#: a candidate that leaves a trace whose images do not explain the band above its Nyquist frequency
+#: (:data:`MIN_IMAGES_EXPLAINED_FRACTION`) is reported untestable, so that chance pairs of folded
+#: partials never name a source rate.  The frames are transformed while streaming and analysed only
+#: for a file with such a trace
 FOLD_CHECK_FRAMES = 8
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
 #: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
@@ -432,6 +477,8 @@ class ImagingAnalyzer(Analyzer):
                 "coherence": NUMBER_OR_NULL,
                 "image_level_db": NUMBER_OR_NULL,
                 "z_score": NUMBER_OR_NULL,
+                "null_spread_z": NUMBER_OR_NULL,
+                "images_explained_fraction": NUMBER_OR_NULL,
                 "verdict": {"enum": ["defect", "trace", "none", "untestable"]},
                 "reason": {"type": ["string", "null"]},
                 "channel": {"type": ["string", "null"]},
@@ -467,10 +514,11 @@ class ImagingAnalyzer(Analyzer):
         self.win_tonal = _al.blackman_harris(self.n_tonal)
         self.pick_tonal = FramePicker(frame_starts(int(info.frames), self.n_tonal, FOLD_CHECK_FRAMES,
                                                    self.n_tonal // 2, seed=3), self.n_tonal, info.channels)
-        self.folded_frames = 0
-        self.tonal_frames = 0
+        self._tonal_power = []
+        self._folded = None
         self._lines = {}
-        offsets = tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS))
+        self.n_controls = len(tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)))
+        offsets = tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)) + NULL_SPREAD_OFFSETS_BINS
         # the pair plan depends only on the rate, the frame and the candidates: built once per process
         # and shared (read-only) by every file of that rate
         cands, self.all_ka, self.all_kb, self.pair_index = _pair_plan(self.fs, self.n_fft, tuple(self.rates), offsets)
@@ -498,19 +546,14 @@ class ImagingAnalyzer(Analyzer):
         self.Q = np.zeros((info.channels, main.size))
         self.S_first = np.zeros_like(self.S) if self.store is None else None
         self._sums = {}
+        self._full = {}
         self._spectral_lines = {}
 
     def process(self, block) -> None:
         for _start, frame in self.pick_tonal.feed(block):
             spec = np.fft.rfft(frame.T * self.win_tonal, axis=-1)
-            r = self._al.analyse_tonal_frame(np.sum(spec.real ** 2 + spec.imag ** 2, axis=0),
-                                             self.fs / self.n_tonal, self.fs)
-            if r is not None:
-                self.tonal_frames += 1
-                if r["assessable"] and r["found"] >= max(self._al.MIN_CLEAR_FOLDS,
-                                                         self._al.MIN_FOUND_FRACTION * r["clear"]) \
-                        and r["alias_power"] >= r["harmonic_power"] * 10 ** (self._al.ALIAS_SCORE_MIN_DB / 10):
-                    self.folded_frames += 1
+            # analysed at finish, and only when a candidate leaves a trace (see FOLD_CHECK_FRAMES)
+            self._tonal_power.append(np.sum(spec.real ** 2 + spec.imag ** 2, axis=0))
         got = list(self.picker.feed(block))
         if not got:
             return
@@ -531,7 +574,8 @@ class ImagingAnalyzer(Analyzer):
         m0 = self.frames
         if self.store is not None:
             self.store[m0:m0 + len(got)] = spec
-        # sums over the frames one frame at a time, in order
+        # the block's frames' two-sided spectra at once; then sums over the frames one frame at a time, in order
+        full = self._two_sided(spec) if self._ka.size else None
         for j in range(len(got)):
             first = self.frames < self.half
             self.power += pw[j]
@@ -540,17 +584,26 @@ class ImagingAnalyzer(Analyzer):
             self.frames += 1
             if self._ka.size:
                 # (frame by frame: the products of a frame stay in cache while they are summed)
-                prod, q = self._products(spec[j], self._ka, self._kb)
+                prod, q = self._products(None, self._ka, self._kb, full=full[j])
                 self.Q += q
                 self.S += prod
                 if first and self.S_first is not None:
                     self.S_first += prod
 
-    def _products(self, spec, ka, kb):
+    def _two_sided(self, spec):
+        """The two-sided spectra of real frames from their one-sided ``spec`` (..., bins): X[N-k] = conj(X[k])."""
+        return np.concatenate([spec, np.conj(spec[..., (self.n_fft - 1) // 2:0:-1])], axis=-1)
+
+    def _kept_two_sided(self, ch: int):
+        """The kept frames' two-sided spectra of channel ``ch`` (frames as rows), made once per channel."""
+        if ch not in self._full:
+            self._full[ch] = self._two_sided(self.store[:self.frames, ch])
+        return self._full[ch]
+
+    def _products(self, spec, ka, kb, full=None):
         """``X(a) X(b)`` and ``|X(a) X(b)|^2`` of one-sided spectra ``spec`` (..., bins) of real frames
-        for the two-sided bin pairs ``(ka, kb)``."""
-        # two-sided spectrum of the real frame: X[N-k] = conj(X[k])
-        full = np.concatenate([spec, np.conj(spec[..., (self.n_fft - 1) // 2:0:-1])], axis=-1)
+        for the two-sided bin pairs ``(ka, kb)`` (``full``: their two-sided spectra, when already made)."""
+        full = self._two_sided(spec) if full is None else full
         # (every index is in range: mode "clip" only skips numpy's bounds check, which costs a
         # quarter of the gather)
         prod = np.take(full, ka, axis=-1, mode="clip")
@@ -576,21 +629,41 @@ class ImagingAnalyzer(Analyzer):
         key = (ch, c["slice"].start)
         if key not in self._sums:
             ka, kb = self.all_ka[idx], self.all_kb[idx]
-            s = np.zeros(idx.size, dtype=complex)
-            qs = np.zeros(idx.size)
-            s_first = np.zeros_like(s)
-            # every frame's products at once (frames as rows), then summed row by row
-            prod, q = self._products(self.store[:self.frames, ch], ka, kb)
-            for m in range(self.frames):
-                qs += q[m]
-                s += prod[m]
-                if m < self.half:
-                    s_first += prod[m]
+            full = self._kept_two_sided(ch)
+            half = min(self.half, self.frames)
+            if streamed:
+                # only the first half's sums are missing
+                prod = np.take(full[:half], ka, axis=-1, mode="clip")
+                prod *= np.take(full[:half], kb, axis=-1, mode="clip")
+                s = qs = None
+            else:
+                # every frame's products at once (frames as rows), then summed row by row: a sum along
+                # the rows adds them in order, as the streamed sums do
+                prod, q = self._products(None, ka, kb, full=full)
+                s, qs = np.sum(prod, axis=0), np.sum(q, axis=0)
+            s_first = np.sum(prod[:half], axis=0) if half else np.zeros(idx.size, dtype=complex)
             self._sums[key] = (s, qs, s_first)
         s, qs, s_first = self._sums[key]
         if streamed:
             return self.S[ch, pos], self.Q[ch, pos], s_first if need_first else None
         return s, qs, s_first if need_first else None
+
+    def _periodic_with_folds(self) -> bool:
+        """Whether at least half of the long frames with tonal content hold folded partials (the aliasing
+        analyzer's frame test), worked out once, at finish."""
+        if self._folded is None:
+            tonal = folded = 0
+            for power in self._tonal_power:
+                r = self._al.analyse_tonal_frame(power, self.fs / self.n_tonal, self.fs)
+                if r is None:
+                    continue
+                tonal += 1
+                if r["assessable"] and r["found"] >= max(self._al.MIN_CLEAR_FOLDS,
+                                                         self._al.MIN_FOUND_FRACTION * r["clear"]) \
+                        and r["alias_power"] >= r["harmonic_power"] * 10 ** (self._al.ALIAS_SCORE_MIN_DB / 10):
+                    folded += 1
+            self._folded = bool(folded and folded >= 0.5 * tonal)
+        return self._folded
 
     def _lines_of(self, ch: int) -> np.ndarray:
         """:func:`spectral_lines` of the channel's long-term spectrum (found once)."""
@@ -753,7 +826,10 @@ class ImagingAnalyzer(Analyzer):
         wc = w[cl]
         sd_c = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[cl] * wc * wc)))
         z_clear = float(np.sum((g2[cl] - bias[cl]) * wc)) / sd_c if sd_c > 0 else 0.0
-        clear_bound = None
+        # the share of the weaker members' power there that the content they mirror explains
+        cover = float(np.sum((g2[cl] - bias[cl]) / (1.0 - bias[cl]) * wc)) / float(wc.sum()) \
+            if wc.size and float(wc.sum()) > 0 else None
+        clear_bounds = []
         for lo_f, hi_f in CLEAR_SUBBANDS:
             sub = lower & (frac >= lo_f) & (frac < hi_f)
             if int(sub.sum()) < CLEAR_MIN_PAIRS:
@@ -764,18 +840,17 @@ class ImagingAnalyzer(Analyzer):
             ws = p2[sub]
             num = max(0.0, float(np.sum((g2[sub] - bias[sub]) * ws)))
             sd_s = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[sub] * ws * ws)))
-            ub = min(num + Z_LEVEL * sd_s, float(ws.sum())) / float(src.sum())
-            if clear_bound is None or ub < clear_bound:
-                clear_bound = ub
+            clear_bounds.append(min(num + Z_LEVEL * sd_s, float(ws.sum())) / float(src.sum()))
         return {"z_w": z_w, "z_u": z_u, "t": t, "coh": min(1.0, max(0.0, coh)), "t_a": t_a, "z_a": z_a,
                 "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig, "inner": inner, "z_first": z_first,
-                "z_clear": z_clear, "clear_bound": clear_bound}
+                "z_clear": z_clear, "clear_bounds": clear_bounds, "cover": cover}
 
     def _assess(self, cand, ch: int, f0):
         m = self.frames
         rate = cand["rate"]
         base = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
-                "verdict": "untestable", "reason": None, "channel": self.info.channel_layout[ch]}
+                "null_spread_z": None, "images_explained_fraction": None, "verdict": "untestable",
+                "reason": None, "channel": self.info.channel_layout[ch]}
         if m < MIN_FRAMES:
             base["reason"] = f"too short: {m} analysis frames of {self.n_fft} samples, {MIN_FRAMES} needed"
             return base
@@ -785,10 +860,6 @@ class ImagingAnalyzer(Analyzer):
         base_power = float(pw[lo:hi + 1].sum())
         if not base_power > 0.0:
             base["reason"] = "no signal below the candidate's Nyquist frequency"
-            return base
-        if self.folded_frames and self.folded_frames >= 0.5 * self.tonal_frames:
-            base["reason"] = ("periodic material with folded partials: it is cyclostationary at "
-                              "nearly every cycle frequency, so images cannot be told from it")
             return base
         if f0 is not None:
             k = locked_order(f0, rate, self.fs, tolerance_hz=max(0.05, 1.0 / max(self.span_s, 1e-9)))
@@ -826,7 +897,7 @@ class ImagingAnalyzer(Analyzer):
                               "higher source rate")
             return base
         # the controls are first-order cycle frequencies a few bins off: compared with the first order
-        controls = [self._stats(c, ch, full=False) for c in cand["cycles"][1:]]
+        controls = [self._stats(c, ch, full=False) for c in cand["cycles"][1:1 + self.n_controls]]
         z_ctrl = max([max(c["z_w"], c["z_u"]) for c in controls if c is not None], default=0.0)
         if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * main["z_first"]):
             base["reason"] = ("the material is coherent at neighbouring cycle frequencies too (z "
@@ -848,24 +919,54 @@ class ImagingAnalyzer(Analyzer):
         # to that content (the images of the top of the band may be a resampler's transition band)
         level = None if main["inner"] is None else power_ratio_db(main["inner"])
         base["image_level_db"] = None if level is None else round(level, 2)
-        bound = None if main["clear_bound"] is None else power_ratio_db(main["clear_bound"])
-        if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and bound is not None \
-                and bound < DEFECT_IMAGE_LEVEL_DB:
-            # an unfiltered upsampler would leave images of the content in every sub-band within 30 dB of
-            # it; they are not there, so the coherence comes from programme components that pair up by
-            # themselves
+        cover = main["cover"]
+        base["images_explained_fraction"] = None if cover is None else round(min(1.0, max(0.0, cover)), 4)
+        bounds_db = [power_ratio_db(b) for b in main["clear_bounds"]]
+        below = [b for b in bounds_db if b < DEFECT_IMAGE_LEVEL_DB]
+        ruled_out = bool(below) and len(below) >= CLEAR_RULE_OUT_SHARE * len(bounds_db)
+        if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and ruled_out:
+            # an upsampler's images mirror the whole band at a level set by one filter response; in most
+            # sub-bands with content they are bounded below the defect level, so the coherence comes from
+            # programme components that pair up by themselves
+            bound = max(below)
             base["image_level_db"] = None
             if main["z_clear"] >= Z_SIGNIFICANT:
                 base["verdict"] = "trace"
-                base["reason"] = (f"coherent images above {rate / 2000:.2f} kHz, but at most {bound:.0f} dB "
-                                  "relative to the content they mirror: a resampler's trace")
+                base["reason"] = (f"coherent images above {rate / 2000:.2f} kHz, but in {len(below)} of "
+                                  f"{len(bounds_db)} parts of the band at most {bound:.0f} dB relative to the content "
+                                  "they mirror: a resampler's trace")
             else:
                 base["verdict"] = "none"
                 base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z:.1f}), but the mirror images an upsampler "
-                                  f"from that rate would leave are missing (below {bound:.0f} dB relative to the "
-                                  "content): programme components that pair up by themselves")
+                                  f"from that rate would leave are missing in {len(below)} of {len(bounds_db)} parts "
+                                  f"of the band (below {bound:.0f} dB relative to the content): programme components "
+                                  "that pair up by themselves")
+            return base
+        if level is not None and level >= DEFECT_IMAGE_LEVEL_DB and cover is not None \
+                and cover < MIN_IMAGES_EXPLAINED_FRACTION:
+            # above the candidate's Nyquist frequency a file converted up from it holds the images and nothing
+            # else; here the content explains little of what lies there: components that meet by chance
+            base["image_level_db"] = None
+            base["verdict"] = "none"
+            base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z:.1f}), but the content below "
+                              f"{rate / 2000:.2f} kHz explains only {100 * max(0.0, cover):.0f} % of what lies at its "
+                              "mirror positions above it (an upsampler's images: all of it): components that meet by "
+                              "chance, such as folded partials of naive synthesis")
             return base
         if level is not None and level >= DEFECT_IMAGE_LEVEL_DB:
+            # the null's real spread, measured at cycle frequencies no upsampler uses (for a would-be defect
+            # only: it can only take a defect back)
+            spread = [self._stats(c, ch, full=False) for c in cand["cycles"][1 + self.n_controls:]]
+            zs = [max(c["z_w"], c["z_u"]) for c in spread if c is not None]
+            spread_z = math.sqrt(sum(v * v for v in zs) / len(zs)) if zs else 0.0
+            base["null_spread_z"] = round(spread_z, 2)
+            if main["z_first"] < Z_SIGNIFICANT * max(1.0, spread_z):
+                base["verdict"] = "none"
+                base["image_level_db"] = None
+                base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {main['z_first']:.1f}), but hardly more than "
+                                  f"at cycle frequencies no upsampler uses (they spread to z {spread_z:.1f}): the "
+                                  "material's own structure, such as folded partials meeting by chance, not images")
+                return base
             base["verdict"] = "defect"
             base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} at {level:.1f} dB relative to "
                               f"it: upsampled from {rate / 1000:g} kHz without a proper filter")
@@ -899,7 +1000,8 @@ class ImagingAnalyzer(Analyzer):
         entry = next((a for a in out if a["source_rate_hz"] == rate), None)
         if entry is None:
             entry = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
-                     "verdict": "untestable", "reason": None, "channel": chans[0], "channels": []}
+                     "null_spread_z": None, "images_explained_fraction": None, "verdict": "untestable",
+                     "reason": None, "channel": chans[0], "channels": []}
             out.append(entry)
         if entry["verdict"] == "defect":
             entry["evidence"] = "spectrum+samples"
@@ -925,6 +1027,15 @@ class ImagingAnalyzer(Analyzer):
             defects, traces = [], []
             for ch in range(self.info.channels):
                 a = self._assess(cand, ch, f0s[ch])
+                # (a trace whose images explain the band above the candidate's Nyquist frequency is an
+                # upsampler's, whatever the material: the long frames are analysed only for the others)
+                if a["verdict"] == "trace" and not ((a["images_explained_fraction"] or 0.0)
+                                                    >= MIN_IMAGES_EXPLAINED_FRACTION) \
+                        and self._periodic_with_folds():
+                    a.update(coherence=None, image_level_db=None, z_score=None, null_spread_z=None,
+                             images_explained_fraction=None, verdict="untestable",
+                             reason=("periodic material with folded partials: it is cyclostationary at nearly every "
+                                     "cycle frequency, so a faint trace of images cannot be told from it"))
                 if a["verdict"] == "defect":
                     defects.append(a["channel"])
                 elif a["verdict"] == "trace":
@@ -938,6 +1049,7 @@ class ImagingAnalyzer(Analyzer):
             best[1]["evidence"] = "spectrum"
             out.append(best[1])
         out = self._with_pattern(out)
+        self._full = {}
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
         settings = {"frame_samples": self.n_fft, "bin_hz": self.bin_hz, "frames_analysed": self.frames,
