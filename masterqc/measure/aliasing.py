@@ -850,10 +850,12 @@ GRID_PATTERN_MAX_SIGNAL_AGREEMENT = 0.6
 #: output samples, a power of two, whatever the two rates (a float32 accumulator near input sample 2^k
 #: has b = 23 - k: 32 samples from about 131072 to 524288, 16 from 524288 to 1048576).  These periods are tested
 #: as well, on the error magnitude only, and need the agreement GRID_BINARY_PATTERN_MIN_AGREEMENT (house choice,
-#: checked on the tuning corpus: its negatives reach 0.37, single-precision picking 0.49-0.98).  A pattern whose period divides a tested one repeats at it too, so 16 covers 8
-#: and 128 covers 64; 256 and above hold only the first second or so of a file
+#: checked on the tuning corpus: its negatives reach 0.37, a steady band-limited two-note chord of the unit
+#: tests 0.48; single-precision picking 0.65-0.98, one case at 0.49 missed).  A pattern whose period divides a
+#: tested one repeats at it too, so 16 covers 8 and 128 covers 64; 256 and above hold only the first second or so
+#: of a file
 BINARY_PHASE_PERIODS = (16, 32, 128)
-GRID_BINARY_PATTERN_MIN_AGREEMENT = 0.45
+GRID_BINARY_PATTERN_MIN_AGREEMENT = 0.5
 #: a coherent drop-rate line alpha is no evidence when the signal itself repeats every round(j/alpha)
 #: samples for some j up to this (a steady chord whose common period is a whole number of samples puts
 #: lines at every multiple of 1/period into the error magnitude; own reasoning)
