@@ -40,6 +40,13 @@ drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
   (``drop-nearest``) and one sample deleted in every 30, 50 or 16 (``drop-every-n``), of music mixes or
   tonal music with a noise bed; ``filtered-decimation`` (False): their twins through ``resample_poly``.
 
+- ``decimation`` (True), last: rate changes without a filter written the ways a quick converter is
+  (:data:`RULE_PICKS`: nearest, truncated, ceiling, offset start, a read position accumulated in double
+  or single precision or in 16.16 fixed point, linear interpolation at the exact or a single-precision
+  position; 48 -> 44.1, 96 -> 88.2, 44.1 -> 32 and 48 -> 32 kHz; tonal music, band-limited polyphonic
+  synthesis, music mixes; mono and stereo), families ``pick-<rule>`` and ``interp-<rule>``;
+  ``filtered-decimation`` (False): their resample_poly twins.
+
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
 """
@@ -511,6 +518,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
                     sps.resample_poly(x, fs // g, fs_in // g)[:y.size], {"aliasing_detected": False}, rms_dbfs=level)
     # added: picking and 2:1 dropping on masters of varied channel count, length and level
     yield from varied_pick_cases(seed, quick)
+    # added: picking and interpolating rules as naive converters write them (own random streams)
+    yield from rule_pick_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -690,3 +699,81 @@ def varied_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         group = "speech" if kind == "speech" else "native"
         yield _case_frames(f"varied-native-{kind}-{ch}ch-{fs // 100}-{seed}-{j}", f"native-{kind}", group, fs, x,
                            {"aliasing_detected": False}, sub.uniform(-30, -8))
+
+
+# ---------------------------------------------------------------- picking and interpolating rules as naive converters write them
+#: rate changes without a filter written the ways a quick converter is: the read position n*fs_in/fs_out taken by
+#: ``round`` (nearest sample), ``floor`` (truncation), ``ceil``, ``offset`` (truncation after a random start
+#: phase), ``dda64`` (the position accumulated in double precision, step fs_in/fs_out as a float, rounded),
+#: ``dda32`` (accumulated in single precision, truncated: the step is rounded to the accumulator's grid, which
+#: coarsens as the position grows), ``fixed16`` (a 16.16 fixed-point accumulator: step round(65536*fs_in/fs_out),
+#: truncated), ``linear`` (linear interpolation between the two neighbours at the exact position) and
+#: ``linear-dda32`` (linear interpolation at a single-precision accumulated position).  Each with its band-limited
+#: twin (resample_poly, False).  Entries: (fs_in, fs_out, rule, material, channels, seconds).
+RULE_PICKS = ((48000, 44100, "round", "tonal", 2, 10.0), (48000, 44100, "ceil", "synth", 2, 8.0),
+              (48000, 44100, "dda32", "tonal", 2, 10.0), (48000, 44100, "dda64", "tonal", 1, 10.0),
+              (48000, 44100, "linear", "mix", 2, 10.0), (48000, 44100, "offset", "synth", 1, 8.0),
+              (48000, 44100, "fixed16", "tonal", 1, 10.0), (48000, 44100, "linear-dda32", "tonal", 1, 10.0),
+              (96000, 88200, "round", "synth", 2, 10.0), (96000, 88200, "dda32", "mix", 2, 10.0),
+              (96000, 88200, "linear", "tonal", 2, 10.0), (96000, 88200, "floor", "tonal", 1, 8.0),
+              (44100, 32000, "linear", "tonal", 2, 10.0), (44100, 32000, "linear", "synth", 1, 10.0),
+              (44100, 32000, "round", "synth", 1, 10.0), (44100, 32000, "dda32", "tonal", 2, 10.0),
+              (48000, 32000, "linear", "tonal", 2, 10.0), (48000, 32000, "linear", "synth", 1, 8.0))
+
+
+def rule_positions(n_in: int, fs_in: int, fs_out: int, rule: str, rng) -> tuple:
+    """``(index, fraction)``: the input sample each output sample starts from and the fraction towards the next
+    (0 for the picking rules), as the converter of ``rule`` computes them (see :data:`RULE_PICKS`)."""
+    n_out = int((n_in - 2) * fs_out // fs_in)
+    n = np.arange(n_out, dtype=np.int64)
+    num = n * fs_in
+    zero = np.zeros(n_out)
+    if rule == "round":
+        return (2 * num + fs_out) // (2 * fs_out), zero
+    if rule == "floor":
+        return num // fs_out, zero
+    if rule == "ceil":
+        return -((-num) // fs_out), zero
+    if rule == "offset":
+        return np.floor(n * (fs_in / fs_out) + rng.uniform(0.0, 1.0)).astype(np.int64), zero
+    if rule == "fixed16":
+        step = int(round(65536 * fs_in / fs_out))
+        return (n * step) >> 16, zero
+    if rule in ("dda64", "dda32", "linear-dda32"):
+        dtype = np.float64 if rule == "dda64" else np.float32
+        step = np.full(max(n_out - 1, 0), fs_in / fs_out, dtype=dtype)
+        # np.add.accumulate adds in order, rounding to the dtype at every step, as a running sum in a loop does
+        pos = np.concatenate([np.zeros(1, dtype=dtype), np.add.accumulate(step, dtype=dtype)]).astype(np.float64)
+        if rule == "dda64":
+            return np.floor(pos + 0.5).astype(np.int64), zero
+        i0 = np.floor(pos).astype(np.int64)
+        return i0, (pos - i0 if rule == "linear-dda32" else zero)
+    if rule == "linear":
+        i0 = num // fs_out
+        return i0, (num - i0 * fs_out) / fs_out
+    raise ValueError(rule)
+
+
+def rule_convert(x: np.ndarray, fs_in: int, fs_out: int, rule: str, rng) -> np.ndarray:
+    """Rate change of a ``(frames, channels)`` array with no filter by ``rule`` (:func:`rule_positions`)."""
+    idx, frac = rule_positions(x.shape[0], fs_in, fs_out, rule, rng)
+    end = int(np.searchsorted(idx, x.shape[0] - 1))   # a converter stops where its read position leaves the input
+    idx, frac = idx[:end], frac[:end]
+    return x[idx] * (1.0 - frac[:, None]) + x[idx + 1] * frac[:, None]
+
+
+def rule_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The cases of :data:`RULE_PICKS` (own random streams), each with its resample_poly twin."""
+    todo = RULE_PICKS[:3] if quick else RULE_PICKS
+    for j, (fs_in, fs, rule, kind, ch, seconds) in enumerate(todo):
+        sub = np.random.default_rng([seed, 24000 + j])
+        x = master_channels(kind, ch, seconds, fs_in, sub)
+        level = sub.uniform(-30, -8)
+        y = rule_convert(x, fs_in, fs, rule, sub)
+        fam = f"pick-{rule}" if not rule.startswith("linear") else f"interp-{rule}"
+        stem = f"rule-{fam}-{kind}-{ch}ch-{fs_in // 100}-{fs // 100}-{seed}-{j}"
+        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
+        g = math.gcd(fs_in, fs)
+        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
+        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
+                           {"aliasing_detected": False}, level)

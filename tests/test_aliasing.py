@@ -768,3 +768,90 @@ def test_first_pass_settles_noise_with_a_rare_untestable_note(rng, monkeypatch):
     monkeypatch.setattr(al, "FIRST_PASS_STRIDE", 1)
     assert run(x)[:2] == (None, False)
 
+
+
+# ---------------------------------------------------------------- picking and interpolating rules, predicted lines
+@pytest.mark.parametrize("fs_in, fs_out, lines", [
+    (48000, 44100, (13 / 147, 26 / 147, 39 / 147)),
+    (96000, 88200, (13 / 147, 26 / 147, 39 / 147)),
+    (44100, 32000, (121 / 320, 78 / 320, 43 / 320)),
+])
+def test_conversion_lines_are_the_orders_of_the_read_fraction(fs_in, fs_out, lines):
+    """analytic: output n reads the input at n*a/b (a = fs_in/g, b = fs_out/g, g = gcd), so its fraction is
+    u[n] = (n*a mod b)/b and e^(2j*pi*m*u[n]) = e^(2j*pi*(m*a mod b)*n/b): the m-th order of any function of u sits
+    at (m*a mod b)/b cycles per sample, folded into 0..1/2.  48 -> 44.1 kHz: a = 160, b = 147, 160 mod 147 = 13,
+    so 13, 26, 39 (of 147); 96 -> 88.2 kHz the same; 44.1 -> 32 kHz: a = 441, b = 320, 441 mod 320 = 121,
+    2*121 = 242 -> 320 - 242 = 78, 3*121 = 363 -> 43.  Checked also against the spectrum of u[n] itself."""
+    got = al.conversion_lines(fs_in, fs_out)
+    assert got == pytest.approx(list(lines), abs=1e-12)
+    b = al.drop_pattern_period(fs_in, fs_out)
+    n = np.arange(64 * b, dtype=np.int64)
+    u = (n * fs_in % fs_out) / fs_out
+    spec = np.abs(np.fft.rfft(np.exp(2j * math.pi * u).real))     # cos(2*pi*u): order 1 only, at lines[0]
+    assert np.argmax(spec[1:]) + 1 == round(lines[0] * n.size)
+
+
+@pytest.mark.parametrize("x, shape", [(0.5, 1), (3.0, 3), (12.0, 3), (40.0, 3), (25.0, 6)])
+def test_gamma_survival_matches_scipy(x, shape):
+    """reference library: scipy.stats.gamma.sf (the Rayleigh statistics of independent lines of random phase sum
+    to a Gamma(L, 1) variable)."""
+    from scipy.stats import gamma
+    assert al._gamma_sf_log10(x, shape) == pytest.approx(math.log10(gamma.sf(x, shape)), abs=1e-9)
+
+
+def test_rayleigh_sum_of_random_phases_stays_near_chance(rng):
+    """by construction: frames whose lines have random phases give, per source rate, a summed Rayleigh statistic
+    whose chance probability is uniform (analytic: J*R^2 ~ Exp(1) per line, their sum Gamma(L, 1)); a 44.1 kHz file
+    has 6 candidate source rates, so over 50 draws of 12 frames the best of 300 probabilities falls below
+    10^-CONVERSION_LINES_MIN_LOG10 = 10^-4 with probability about 3 %, and the median draw's best stays near
+    1 - 2^(-1/6) = 0.11 (log10 about -1.0)."""
+    nfft = 2 * 4096
+    best = []
+    assert len(al.pick_sources(44100)) == 6
+    for _ in range(50):
+        spectra = rng.standard_normal((12, nfft // 2 + 1)) + 1j * rng.standard_normal((12, nfft // 2 + 1))
+        starts = rng.integers(0, 10 ** 6, 12)
+        lp, _src, _p = al.conversion_line_evidence(spectra, starts, 44100, al.GRID_FRAME)
+        best.append(lp)
+    assert min(best) > -al.CONVERSION_LINES_MIN_LOG10
+    assert -1.5 < float(np.median(best)) < -0.4
+
+
+def test_single_precision_accumulator_steps_by_a_binary_fraction():
+    """analytic: a read position accumulated in single precision (24-bit significand) holds positions in
+    [2^k, 2^(k+1)) on a grid of 2^(k-23) samples, so each step of 160/147 = 1.08843... is rounded to that grid:
+    for positions 2^17..2^18 (grid 1/64) to 70/64 and for 2^18..2^19 (grid 1/32) to 35/32.  The pattern there
+    keeps 32 of every 35 input samples: idx[n + 32] = idx[n] + 35, a power-of-two period that no conversion
+    between trade rates makes, and it is not periodic at 147 (the exact ratio's period)."""
+    idx, _frac = tuning.rule_positions(480000, 48000, 44100, "dda32", np.random.default_rng(0))
+    pos_lo = int(np.searchsorted(idx, 2 ** 17 + 64)) + 1
+    pos_hi = int(np.searchsorted(idx, 2 ** 19 - 64)) - 40
+    seg = idx[pos_lo:pos_hi]
+    assert np.all(seg[32:] - seg[:-32] == 35)
+    assert not np.all(seg[147:] - seg[:-147] == 160)
+    assert 32 in al.BINARY_PHASE_PERIODS and 16 in al.BINARY_PHASE_PERIODS
+    assert 32 not in al.pattern_periods(44100)
+    exact, _f = tuning.rule_positions(480000, 48000, 44100, "round", np.random.default_rng(0))
+    assert np.all(exact[147:] - exact[:-147] == 160)
+
+
+def test_linear_interpolation_is_found_by_its_lines_and_its_twin_is_not(rng):
+    """Linear interpolation from 44.1 to 32 kHz reads the input at n*441/320 and weighs the two neighbours by the
+    fraction u[n]: a 2-tap filter whose high-frequency loss, 2*u*(1-u)*(1 - cos w) in power, is a smooth function
+    of u[n] (analytic), so the prediction error carries the first orders of u at the lines
+    (m*441 mod 320)/320 (above), in step with the sample clock.  The predicted-line test finds them beyond
+    CONVERSION_LINES_MIN_LOG10 (house choice); the band-limited twin (scipy resample_poly) stays near chance."""
+    from scipy.signal import resample_poly
+    x = _tone_mix(44100, 8.0, rng).reshape(-1, 1)
+    y = tuning.rule_convert(x, 44100, 32000, "linear", rng)[:, 0]
+    errors, _signals, starts = _grid_frames(y)
+    spectra = np.stack([np.fft.rfft((e - e.mean()) * np.hanning(e.size), al.GRID_PAD * e.size) for e in errors])
+    lp, src, period = al.conversion_line_evidence(spectra, starts, 32000)
+    assert src == 44100 and period == 320 and lp <= -al.CONVERSION_LINES_MIN_LOG10
+    twin = resample_poly(x[:, 0], 320, 441)
+    errors_t, _s, starts_t = _grid_frames(twin)
+    spectra_t = np.stack([np.fft.rfft((e - e.mean()) * np.hanning(e.size), al.GRID_PAD * e.size) for e in errors_t])
+    lp_t, _src, _p = al.conversion_line_evidence(spectra_t, starts_t, 32000)
+    assert lp_t > -3.0
+    assert _run(y, 32000)["aliasing_detected"] is True
+    assert _run(twin, 32000)["aliasing_detected"] is not True

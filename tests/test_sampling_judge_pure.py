@@ -698,6 +698,17 @@ def test_aliasing_message_sharp_steps_need_the_reason():
     # the reason does not name the grid, or names it without its figure: no sentence
     ({"grid_drop_interval_samples": 11.0}, "alias lines at the predicted fold frequencies", None),
     ({"grid_pattern_period_samples": None}, "irregular time grid: repeats a drop pattern every", None),
+    # analytic: a single-precision read position near input sample 2^18 steps by 35/32 (keeps 32 of every 35)
+    ({"grid_pattern_period_samples": 147, "grid_binary_pattern_period_samples": 32}, "the samples lie on an "
+     "irregular time grid: the prediction error repeats a drop pattern every 32 samples, the period of a converter "
+     "whose read position steps by a binary fraction", "The samples lie on an irregular time grid: the same pattern "
+     "of kept and missing samples repeats every 32 samples, as a converter whose read position is a binary "
+     "fraction leaves it, in step"),
+    ({"grid_conversion_source_hz": 44100}, "the samples lie on an irregular time grid: the prediction error "
+     "carries the lines a conversion from 44.1 kHz to 32 kHz without a filter leaves", "The samples lie on an "
+     "irregular time grid: the prediction error carries the lines that picking or interpolating samples from "
+     "44.1 kHz without a filter leaves, in step with the sample clock"),
+    ({"grid_conversion_source_hz": None}, "irregular time grid: carries the lines a conversion", None),
 ])
 def test_aliasing_message_irregular_sample_grid(extra, reason, sentence):
     sp = spec(aliasing=[False])

@@ -82,10 +82,6 @@ KNOWN_MISSES = {
         "an MP3 round trip at 128 kbit/s in a 44.1 kHz file is read as converted up from 22.05 kHz: the codec's "
         "own band limit and sub-band structure pass for a converter's trace (found when the second held-back set "
         "was first scored; not yet examined)",
-    ("folded", "corpus_validation_b"):
-        "nearest-sample picking from 48 to 44.1 kHz is missed: the kept-and-dropped pattern every 147 samples "
-        "does not agree across the file's frames on this material (the same miss as on the first held-back set; "
-        "cause not found)",
 }
 
 

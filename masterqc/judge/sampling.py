@@ -361,8 +361,16 @@ def _grid_sentence(detail: dict) -> str | None:
     period = detail.get("grid_pattern_period_samples")
     if "jumps about every" in reason and interval:
         how = f"a sample is missing about every {float(interval):.1f} samples"
+    elif "repeats a drop pattern" in reason and "binary fraction" in reason \
+            and detail.get("grid_binary_pattern_period_samples"):
+        how = (f"the same pattern of kept and missing samples repeats every "
+               f"{int(detail['grid_binary_pattern_period_samples'])} samples, as a converter whose read position "
+               "is a binary fraction leaves it")
     elif "repeats a drop pattern" in reason and period:
         how = f"the same pattern of kept and missing samples repeats every {int(period)} samples"
+    elif "carries the lines a conversion" in reason and detail.get("grid_conversion_source_hz"):
+        how = (f"the prediction error carries the lines that picking or interpolating samples from "
+               f"{float(detail['grid_conversion_source_hz']) / 1000:g} kHz without a filter leaves")
     else:
         return None
     return (f"The samples lie on an irregular time grid: {how}, in step with the sample clock through the "

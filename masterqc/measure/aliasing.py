@@ -57,6 +57,13 @@ Five complementary tests, each on a bounded number of frames spread over the fil
    44.1 kHz) is found by its period instead (:func:`pattern_evidence`): the drop pattern repeats
    every fs_out/gcd(fs_in, fs_out) samples (147 from 48 or 96 kHz to 44.1 kHz), and the frames'
    prediction-error profiles over the phases n mod that period agree across the file.
+   A converter whose read position is a binary fraction (accumulated in single precision, or fixed
+   point) steps by a multiple of 2^-b samples instead of fs_in/fs_out: its pattern repeats every
+   power-of-two number of samples (:data:`BINARY_PHASE_PERIODS`), which is tested as well.  Linear
+   interpolation between neighbours leaves no jump, only a 2-tap filter that changes with the read
+   fraction; whatever the rule, the trace is a function of that fraction, whose first orders sit at the
+   lines m*fs_in/fs_out mod 1 (:func:`conversion_line_evidence`): their phases, referred to the
+   absolute sample index, agree across the file far beyond chance (a summed Rayleigh test).
 
 Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the grid test
 all of its frames) and keeps the rest; finish() analyses the rest only when that first pass does not
@@ -142,6 +149,9 @@ SETTLED_RANK_Z = 1.0
 SETTLED_GRID_COHERENCE = 0.85
 GRID_FIRST_PASS_STRIDE = 1
 SETTLED_PATTERN_AGREEMENT = 0.3
+#: ... and the predicted lines of a conversion by picking or interpolation stay above this log10 chance
+#: probability (house choice: a third of the way to the finding's threshold in log terms)
+SETTLED_CONVERSION_LINES_LOG10 = 3.0
 #: the first pass also settles (as not assessable) material in which notes showed in at most this share of its
 #: polyphonic frames, none of them with a testable fold position, and no steady-tone frame was assessable: mostly
 #: noise-like material with a few notes (as the cost benchmark's looped programme, one bass note in 22 frames),
@@ -715,7 +725,7 @@ def steady_lines(signal_power: np.ndarray, count: int = 4):
     GRID_STEADY_DB over the local floor in most frames (median over the frames' power spectra, rows
     of ``signal_power``, each of ``2*(columns - 1)`` points): a note held unchanged through the file."""
     norm = signal_power / (row_block_floor(signal_power, 32) + 1e-300)
-    med = np.median(np.ascontiguousarray(norm.T), axis=1)
+    med = column_median(norm)
     peaks = find_lines(med, np.ones_like(med), GRID_STEADY_DB)
     peaks = peaks[np.argsort(med[peaks])[::-1][:count]]
     if peaks.size == 0:
@@ -737,6 +747,28 @@ def content_explains(alpha: float, lines: np.ndarray, tolerance: float, line_err
     return bool(np.any(np.abs(pos - alpha) <= tolerance + m * line_error))
 
 
+def column_median(a: np.ndarray) -> np.ndarray:
+    """The median of every column of ``a`` (the same numbers as ``np.median(a, axis=0)``: the middle row, or half
+    the sum of the two middle rows, once sorted), by one partial sort along the rows."""
+    r = a.shape[0]
+    if r % 2:
+        return np.partition(a, r // 2, axis=0)[r // 2]
+    part = np.partition(a, [r // 2 - 1, r // 2], axis=0)
+    return 0.5 * (part[r // 2 - 1] + part[r // 2])
+
+
+@functools.lru_cache(maxsize=8)
+def _block_interpolation(n: int, block: int):
+    """Indices and weights of :func:`row_block_floor`'s linear interpolation between block centres."""
+    nb = n // block
+    u = np.arange(n) / block - 0.5
+    j = np.clip(np.floor(u).astype(np.int64), 0, nb - 2)
+    t = np.clip(u - j, 0.0, 1.0)
+    for v in (j, t):
+        v.flags.writeable = False
+    return j, t
+
+
 def row_block_floor(power: np.ndarray, block: int) -> np.ndarray:
     """:func:`masterqc.measure.frames.block_floor` of every row of ``power`` at once (the same numbers:
     medians of consecutive ``block``-bin blocks, interpolated linearly between block centres, held
@@ -746,9 +778,7 @@ def row_block_floor(power: np.ndarray, block: int) -> np.ndarray:
     med = np.median(power[:, :nb * block].reshape(rows, nb, block), axis=2)
     if nb == 1:
         return np.repeat(med, n, axis=1)
-    u = np.arange(n) / block - 0.5
-    j = np.clip(np.floor(u).astype(np.int64), 0, nb - 2)
-    t = np.clip(u - j, 0.0, 1.0)
+    j, t = _block_interpolation(n, block)
     return med[:, j] * (1.0 - t) + med[:, j + 1] * t
 
 
@@ -758,7 +788,7 @@ def grid_median_level(spectra: np.ndarray):
     nfft = 2 * (spectra.shape[1] - 1)
     power = spectra.real ** 2 + spectra.imag ** 2
     norm = power / (row_block_floor(power, 64 * GRID_PAD) + 1e-300)
-    med = np.median(np.ascontiguousarray(norm.T), axis=1)
+    med = column_median(norm)
     return np.arange(med.size) / nfft, med
 
 
@@ -815,6 +845,17 @@ GRID_PATTERN_MIN_AGREEMENT = 0.40
 #: 0.91-0.94 there, a native 8 kHz mix of the held-back set 0.52 at 12 samples, which prompted the rule
 GRID_LINE_PATTERN_MIN_AGREEMENT = 0.8
 GRID_PATTERN_MAX_SIGNAL_AGREEMENT = 0.6
+#: a converter whose read position is a binary fraction (a single-precision floating-point accumulator, or a
+#: fixed-point one) steps by a whole multiple of 2^-b input samples: its drop pattern repeats every 2^b/gcd
+#: output samples, a power of two, whatever the two rates (a float32 accumulator near input sample 2^k
+#: has b = 23 - k: 32 samples from about 131072 to 524288, 16 from 524288 to 1048576).  These periods are tested
+#: as well, on the error magnitude only, and need the agreement GRID_BINARY_PATTERN_MIN_AGREEMENT (house choice,
+#: checked on the tuning corpus: its negatives reach 0.37, a steady band-limited two-note chord of the unit
+#: tests 0.48; single-precision picking 0.65-0.98, one case at 0.49 missed).  A pattern whose period divides a
+#: tested one repeats at it too, so 16 covers 8 and 128 covers 64; 256 and above hold only the first second or so
+#: of a file
+BINARY_PHASE_PERIODS = (16, 32, 128)
+GRID_BINARY_PATTERN_MIN_AGREEMENT = 0.5
 #: a coherent drop-rate line alpha is no evidence when the signal itself repeats every round(j/alpha)
 #: samples for some j up to this (a steady chord whose common period is a whole number of samples puts
 #: lines at every multiple of 1/period into the error magnitude; own reasoning)
@@ -849,19 +890,34 @@ def phase_profile(x: np.ndarray, start: int, period: int) -> np.ndarray:
     return prof - prof.mean()
 
 
+def phase_profiles(xs, starts, period: int) -> np.ndarray:
+    """:func:`phase_profile` of every frame at once (rows): ``xs`` a list of equally long frames, or their stack."""
+    x = np.asarray(xs) if not isinstance(xs, np.ndarray) else xs
+    n = x.shape[1]
+    i0 = (-np.asarray(starts, dtype=np.int64)) % period
+    k = (n - i0) // period
+    if np.all(i0 == i0[0]):
+        prof = x[:, i0[0]:i0[0] + k[0] * period].reshape(x.shape[0], k[0], period).mean(axis=1)
+    else:
+        # each frame's whole periods, moved to the front of a zero-padded row, summed period by period
+        kmax = int(k.max())
+        buf = np.zeros((x.shape[0], kmax * period))
+        for r in range(x.shape[0]):
+            buf[r, :k[r] * period] = x[r, i0[r]:i0[r] + k[r] * period]
+        prof = buf.reshape(x.shape[0], kmax, period).sum(axis=1) / k[:, None]
+    return prof - prof.mean(axis=1, keepdims=True)
+
+
 def profile_agreement(profiles: np.ndarray) -> float:
     """Median over frames (rows) of the correlation of each frame's profile with the mean of the
     others' (leave one out)."""
-    total = profiles.sum(axis=0)
-    out = []
-    for p in profiles:
-        o = total - p
-        d = float(np.sqrt(np.sum(p * p) * np.sum(o * o)))
-        out.append(float(np.dot(p, o)) / d if d > 0 else 0.0)
-    return float(np.median(out))
+    others = profiles.sum(axis=0)[None, :] - profiles
+    d = np.sqrt(np.sum(profiles * profiles, axis=1) * np.sum(others * others, axis=1))
+    dots = np.sum(profiles * others, axis=1)
+    return float(np.median(np.where(d > 0, dots / np.where(d > 0, d, 1.0), 0.0)))
 
 
-def pattern_evidence(errors, signals, starts, fs: int, alphas=()):
+def pattern_evidence(errors, signals, starts, fs: int, alphas=(), periods=None, squares: bool = True):
     """The drop-pattern test: ``(agreement, period, signal_agreement)`` of the period (of
     :func:`pattern_periods`) whose error-magnitude profiles (of the magnitude or of its square, whichever agree
     better) agree best among those the signal's own profiles do not explain (agreement 0 and period None when
@@ -875,19 +931,21 @@ def pattern_evidence(errors, signals, starts, fs: int, alphas=()):
         return best
     # the error magnitude and its square (normalised): the square weighs the phases where the drops make the
     # error large more, the magnitude is steadier where a few large errors (onsets) dominate
-    squares = [e * e / max(float(np.mean(e * e)), 1e-300) for e in errors]
-    standard = pattern_periods(fs)
+    errors = np.asarray(errors)
+    signals = np.asarray(signals)
+    squares = (errors * errors / np.maximum(np.mean(errors * errors, axis=1, keepdims=True), 1e-300)
+               if squares else None)
+    standard = pattern_periods(fs) if periods is None else list(periods)
     lines = sorted({int(round(1.0 / a)) for a in alphas if a > 0} - set(standard))
     lines = [p for p in lines if GRID_PATTERN_MIN_PERIOD <= p <= GRID_PATTERN_MAX_PERIOD]
     line_best = (0.0, None, 0.0)
     for period in standard + lines:
-        forms = (errors, squares) if period in standard else (errors,)
-        ag = max(profile_agreement(np.stack([phase_profile(e, s, period) for e, s in zip(form, starts)]))
-                 for form in forms)
+        forms = (errors, squares) if period in standard and squares is not None else (errors,)
+        ag = max(profile_agreement(phase_profiles(form, starts, period)) for form in forms)
         held = best if period in standard else line_best
         if ag <= held[0]:
             continue
-        sg = profile_agreement(np.stack([phase_profile(x, s, period) for x, s in zip(signals, starts)]))
+        sg = profile_agreement(phase_profiles(signals, starts, period))
         if sg < GRID_PATTERN_MAX_SIGNAL_AGREEMENT:
             if period in standard:
                 best = (ag, period, sg)
@@ -907,6 +965,86 @@ def pattern_hit_at(agreement: float, period, fs: int) -> bool:
     return agreement >= (GRID_PATTERN_MIN_AGREEMENT if period in pattern_periods(fs) else GRID_LINE_PATTERN_MIN_AGREEMENT)
 
 
+# ---- the lines a conversion by picking or by interpolating between neighbours predicts
+# Output sample n of a conversion from fs_in down to fs with no filter reads the input at n*fs_in/fs: picking takes
+# a neighbour (which one depends on the fraction u[n] = frac(n*fs_in/fs)), linear interpolation weighs the two
+# neighbours by u[n].  Whatever the rule, the error a predictor makes at n is a function of u[n] (for picking a
+# jump where u wraps, a timing error growing with u between; for linear interpolation a high-frequency loss of
+# 2*u*(1-u)*(1 - cos w) in power, smooth in u), times the local signal.  A function of u[n] repeats every
+# P = fs/gcd samples, but its spectrum sits at the lines m*fs_in/fs mod 1 (cycles per sample) of its first few
+# orders m in u: the m-th Fourier coefficient in u lands at that line (u[n] = n*a/P mod 1, a = fs_in/gcd), and a
+# jump in u falls off as 1/m, the smooth loss of linear interpolation as 1/m^2.  The profile agreement spreads
+# the test over all P - 1 harmonics of 1/P (319 for 44.1 -> 32 kHz, of which a handful carry a linear
+# interpolation's trace); this test reads only the predicted lines, phase-locked to the absolute sample index
+# over the whole file.  A line of random phase gives J*R^2 ~ Exp(1) (Rayleigh; J frames, R the mean unit phasor's
+# length), so their sum over L lines is Gamma(L, 1) under no such conversion.
+#: lines tested per candidate source rate: the first CONVERSION_LINES distinct orders m (own reasoning, checked on
+#: the tuning corpus: a linear interpolation's trace falls as 1/m^2 and later orders add mostly noise; three lines
+#: gave it one to two decades more than six, and picking stays far beyond the threshold)
+CONVERSION_LINES = 3
+#: a conversion's lines are evidence at a chance probability (Gamma survival, per source rate) of at most
+#: 10^-CONVERSION_LINES_MIN_LOG10 (house choice, checked on the tuning corpus: its negatives reach 10^-2.6, apart
+#: from steady chords periodic at the pattern, which the signal's own profiles exclude; picking reaches
+#: 10^-5..10^-13, linear interpolation 10^-4.5..10^-9)
+CONVERSION_LINES_MIN_LOG10 = 4.0
+
+
+def conversion_lines(fs_in_hz: int, fs_hz: int, frame_len: int = GRID_FRAME) -> list:
+    """Drop rates (cycles per sample, folded into 0..0.5) of the first :data:`CONVERSION_LINES` orders m of a
+    conversion from ``fs_in_hz`` down to ``fs_hz`` without a filter: ``m*fs_in/fs mod 1``, orders landing at 0
+    or near the pattern of a whole-number upsampling factor (:data:`GRID_UPSAMPLING_FACTORS`) or below
+    :data:`GRID_MIN_ALPHA` skipped."""
+    g = math.gcd(int(fs_in_hz), int(fs_hz))
+    a, b = int(fs_in_hz) // g, int(fs_hz) // g
+    out = []
+    for m in range(1, 4 * b):
+        k = (m * a) % b
+        alpha = min(k, b - k) / b
+        if alpha < GRID_MIN_ALPHA or alpha in out:
+            continue
+        if any(abs(alpha - j / lf) <= 2.0 / frame_len for lf in GRID_UPSAMPLING_FACTORS for j in range(1, lf)):
+            continue
+        out.append(alpha)
+        if len(out) == CONVERSION_LINES:
+            break
+    return out
+
+
+def _gamma_sf_log10(x: float, shape: int) -> float:
+    """log10 of the survival function of Gamma(shape, 1) at ``x`` (whole-number shape: Poisson sum)."""
+    if x <= 0:
+        return 0.0
+    terms = [k * math.log(x) - math.lgamma(k + 1) for k in range(shape)]
+    top = max(terms)
+    return (-x + top + math.log(sum(math.exp(t - top) for t in terms))) / math.log(10.0)
+
+
+def conversion_line_evidence(spectra: np.ndarray, starts, fs: int, frame_len: int = GRID_FRAME):
+    """The predicted-line test: ``(log10_p, source_hz, period)`` of the candidate source rate (of
+    :func:`pick_sources`) whose lines (:func:`conversion_lines`) are most phase-locked to the absolute sample
+    index across the frames; ``log10_p`` is the log10 chance probability of the summed Rayleigh statistic (0 and
+    None when nothing was tested).  ``spectra``: rows of the error magnitude's zero-padded spectra
+    (:func:`grid_frame_spectrum`), frames starting at absolute sample ``starts``."""
+    best = (0.0, None, None)
+    j = spectra.shape[0]
+    if j < GRID_MIN_FRAMES:
+        return best
+    nfft = 2 * (spectra.shape[1] - 1)
+    st = np.asarray(starts, dtype=float)
+    for r_in, period in pick_sources(fs).items():
+        alphas = conversion_lines(r_in, fs, frame_len)
+        if not alphas:
+            continue
+        al = np.asarray(alphas)
+        z = spectra[:, np.round(al * nfft).astype(np.int64)] * np.exp(-2j * math.pi * st[:, None] * al[None, :])
+        u = z / np.maximum(np.abs(z), 1e-300)
+        stat = float(j * np.sum(np.abs(u.mean(axis=0)) ** 2))
+        lp = _gamma_sf_log10(stat, al.size)
+        if lp < best[0]:
+            best = (lp, int(r_in), int(period))
+    return best
+
+
 def signal_periodic_at(alpha: float, signals, starts) -> bool:
     """Whether the signal (per frame, channel sum) repeats every whole number of samples Q = j/alpha
     (j = 1..:data:`GRID_SIGNAL_PERIOD_MULTIPLES`, Q within 0.02 samples of a whole number, up to
@@ -918,8 +1056,7 @@ def signal_periodic_at(alpha: float, signals, starts) -> bool:
         if q > GRID_PATTERN_MAX_PERIOD:
             break
         if abs(q - round(q)) <= 0.02 * j and round(q) >= GRID_PATTERN_MIN_PERIOD:
-            prof = np.stack([phase_profile(x, s, int(round(q))) for x, s in zip(signals, starts)])
-            if profile_agreement(prof) >= GRID_PATTERN_MAX_SIGNAL_AGREEMENT:
+            if profile_agreement(phase_profiles(signals, starts, int(round(q)))) >= GRID_PATTERN_MAX_SIGNAL_AGREEMENT:
                 return True
     return False
 
@@ -1122,6 +1259,18 @@ class AliasingAnalyzer(Analyzer):
                 "grid_pattern_signal_agreement": {"type": "number", "description": (
                     "the same agreement of the signal's own profiles at that period (high for content "
                     "periodic at it, which is then no evidence)")},
+                "grid_binary_pattern_agreement": {"type": "number", "description": (
+                    "the drop-pattern agreement at the power-of-two periods of a converter whose read position "
+                    "steps by a binary fraction (a floating-point or fixed-point phase accumulator)")},
+                "grid_binary_pattern_period_samples": {"type": ["integer", "null"], "description": (
+                    "the power-of-two period of that agreement; null when none could be tested")},
+                "grid_conversion_lines_log10_p": {"type": "number", "description": (
+                    "log10 of the chance probability that the prediction error's lines at the places a "
+                    "conversion down to this rate by picking or by interpolating between neighbouring samples "
+                    "puts them (m * source rate / rate, modulo 1) keep their phases across the file as well as "
+                    "they do, for the most evident source rate (0 when nothing could be tested)")},
+                "grid_conversion_source_hz": {"type": ["integer", "null"], "description": (
+                    "that source rate; null when nothing could be tested")},
                 "where_s": {"type": "array", "items": {"type": "array", "items": {"type": "number"}}},
                 "fold_examples": {"type": "array", "items": {"type": "object"}},
             },
@@ -1236,8 +1385,11 @@ class AliasingAnalyzer(Analyzer):
                        run=TRACK_RUN)
 
     def _grid_stats(self):
-        """The irregular-grid and drop-pattern tests on the grid frames analysed so far: ``(coherence, alpha,
-        line_ratio, line_hit, pattern_agreement, pattern_period, signal_agreement, pattern_hit)``."""
+        """The irregular-grid, drop-pattern and predicted-line tests on the grid frames analysed so far, a dict:
+        ``coherence``, ``alpha``, ``line_ratio``, ``drop_hit`` (the drop-rate line), ``pattern`` and ``binary``
+        (``(agreement, period, signal_agreement)`` at the periods of conversions between trade rates, and at the
+        periods of binary read positions), ``pattern_hit``, ``binary_hit``, ``conversion`` (``(log10_p,
+        source_hz, period)`` of the predicted lines) and ``conversion_hit``."""
         if self._grid_memo is not None and self._grid_memo[0] == len(self.grid):
             return self._grid_memo[1]
         got = self._grid_stats_now()
@@ -1248,39 +1400,56 @@ class AliasingAnalyzer(Analyzer):
         order = sorted(range(len(self.grid)), key=lambda i: self.grid[i][0])
         grid = [self.grid[i] for i in order]
         pattern = [self.grid_pattern[i] for i in order]
-        grid_coh, grid_alpha, grid_line = 0.0, None, 0.0
-        pat_ag, pat_period, pat_sig = 0.0, None, 0.0
+        out = {"coherence": 0.0, "alpha": None, "line_ratio": 0.0, "drop_hit": False,
+               "pattern": (0.0, None, 0.0), "pattern_hit": False, "binary": (0.0, None, 0.0), "binary_hit": False,
+               "conversion": (0.0, None, None), "conversion_hit": False}
         span_s = ((grid[-1][0] - grid[0][0] + self.n_grid) / self.fs) if grid else 0.0
         if len(grid) < GRID_MIN_FRAMES or span_s < GRID_PATTERN_MIN_SPAN_S:
-            return grid_coh, grid_alpha, grid_line, False, pat_ag, pat_period, pat_sig, False
+            return out
+        keep = list(range(len(grid)))
+        alphas = ()
         if span_s < GRID_MIN_SPAN_S:
-            # a short file: the drop-pattern test alone, on frames that do not overlap (shared samples would
-            # make the profiles agree by themselves)
+            # a short file: the drop-pattern and predicted-line tests alone, on frames that do not overlap (shared
+            # samples would make the profiles agree by themselves)
             keep, end = [], -1
             for i, (s, _z, _p) in enumerate(grid):
                 if s >= end:
                     keep.append(i)
                     end = s + self.n_grid
-            if len(keep) >= GRID_MIN_FRAMES:
-                pat_ag, pat_period, pat_sig = pattern_evidence([pattern[i][0] for i in keep],
-                                                               [pattern[i][1] for i in keep],
-                                                               [grid[i][0] for i in keep], self.fs)
-            pattern_hit = pattern_hit_at(pat_ag, pat_period, self.fs)
-            return grid_coh, grid_alpha, grid_line, False, pat_ag, pat_period, pat_sig, pattern_hit
-        starts = [s for s, _z, _p in grid]
-        spectra = np.stack([z for _s, z, _p in grid])
-        levels = grid_median_level(spectra)
-        grid_coh, grid_alpha, grid_line = grid_coherence(spectra, np.array(starts), self.n_grid,
-                                                         lambda: steady_lines(np.stack([p for _s, _z, p in grid])),
-                                                         levels=levels)
-        drop_hit = grid_evidence(grid_coh, len(grid))
-        if drop_hit and signal_periodic_at(grid_alpha, [x for _e, x in pattern], starts):
-            drop_hit = False
-        cand, alpha, _med = grid_candidates(spectra, self.n_grid, 0.0, levels=levels)
-        pat_ag, pat_period, pat_sig = pattern_evidence([e for e, _x in pattern], [x for _e, x in pattern], starts,
-                                                       self.fs, alpha[cand])
-        pattern_hit = pattern_hit_at(pat_ag, pat_period, self.fs)
-        return grid_coh, grid_alpha, grid_line, drop_hit, pat_ag, pat_period, pat_sig, pattern_hit
+            if len(keep) < GRID_MIN_FRAMES:
+                return out
+        else:
+            starts = [s for s, _z, _p in grid]
+            spectra = np.stack([z for _s, z, _p in grid])
+            levels = grid_median_level(spectra)
+            out["coherence"], out["alpha"], out["line_ratio"] = grid_coherence(
+                spectra, np.array(starts), self.n_grid, lambda: steady_lines(np.stack([p for _s, _z, p in grid])),
+                levels=levels)
+            out["drop_hit"] = (grid_evidence(out["coherence"], len(grid))
+                               and not signal_periodic_at(out["alpha"], [x for _e, x in pattern], starts))
+            cand, alpha, _med = grid_candidates(spectra, self.n_grid, 0.0, levels=levels)
+            alphas = alpha[cand]
+        starts = [grid[i][0] for i in keep]
+        errors = [pattern[i][0] for i in keep]
+        signals = [pattern[i][1] for i in keep]
+        out["pattern"] = pattern_evidence(errors, signals, starts, self.fs, alphas)
+        out["pattern_hit"] = pattern_hit_at(out["pattern"][0], out["pattern"][1], self.fs)
+        out["binary"] = pattern_evidence(errors, signals, starts, self.fs, periods=BINARY_PHASE_PERIODS,
+                                         squares=False)
+        out["binary_hit"] = out["binary"][1] is not None and out["binary"][0] >= GRID_BINARY_PATTERN_MIN_AGREEMENT
+        out["conversion"] = conversion_line_evidence(np.stack([grid[i][1] for i in keep]), starts, self.fs,
+                                                     self.n_grid)
+        out["conversion_hit"] = self._conversion_hit(out["conversion"], signals, starts)
+        return out
+
+    def _conversion_hit(self, conv, signals, starts) -> bool:
+        """Whether the predicted-line test ``conv`` (of :func:`conversion_line_evidence`) is evidence: chance
+        probability at most 10^-:data:`CONVERSION_LINES_MIN_LOG10`, and the signal's own profiles at the
+        conversion's period do not agree (content periodic at it locks its lines to the sample clock too)."""
+        lp, _src, period = conv
+        if period is None or lp > -CONVERSION_LINES_MIN_LOG10 or len(signals) < 2:
+            return False
+        return profile_agreement(phase_profiles(signals, starts, period)) < GRID_PATTERN_MAX_SIGNAL_AGREEMENT
 
     def _settled_clean(self) -> bool:
         """Whether the frames analysed so far settle the verdict as clean with margin: no sample-sharp jump,
@@ -1310,8 +1479,10 @@ class AliasingAnalyzer(Analyzer):
             if find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"]):
                 return False
         if self.frame_count["grid"] >= 2 * GRID_MIN_FRAMES:
-            coh, _a, _l, _hit, ag, _p, _sg, _phit = self._grid_stats()
-            if coh >= SETTLED_GRID_COHERENCE or ag >= SETTLED_PATTERN_AGREEMENT:
+            g = self._grid_stats()
+            if (g["coherence"] >= SETTLED_GRID_COHERENCE or g["pattern"][0] >= SETTLED_PATTERN_AGREEMENT
+                    or g["binary"][0] >= SETTLED_PATTERN_AGREEMENT
+                    or g["conversion"][0] <= -SETTLED_CONVERSION_LINES_LOG10):
                 return False
         return True
 
@@ -1372,7 +1543,11 @@ class AliasingAnalyzer(Analyzer):
                                         float(self.n_step * len(step_frames)),
                                         sum(r["power"] for _s, r in step_frames))
         # irregular sample grid (sample dropping)
-        grid_coh, grid_alpha, grid_line, drop_hit, pat_ag, pat_period, pat_sig, pattern_hit = self._grid_stats()
+        g = self._grid_stats()
+        grid_coh, grid_alpha, drop_hit = g["coherence"], g["alpha"], g["drop_hit"]
+        (pat_ag, pat_period, pat_sig), pattern_hit = g["pattern"], g["pattern_hit"]
+        (bin_ag, bin_period, _bin_sig), binary_hit = g["binary"], g["binary_hit"]
+        conv, conv_hit = g["conversion"], g["conversion_hit"]
         bound = None
         if score is None and assess and h > 0:
             b = sum(r["bound_power"] for _s, r in assess)
@@ -1416,6 +1591,10 @@ class AliasingAnalyzer(Analyzer):
             "grid_pattern_agreement": round(pat_ag, 3),
             "grid_pattern_period_samples": pat_period,
             "grid_pattern_signal_agreement": round(pat_sig, 3),
+            "grid_binary_pattern_agreement": round(bin_ag, 3),
+            "grid_binary_pattern_period_samples": bin_period,
+            "grid_conversion_lines_log10_p": round(conv[0], 2),
+            "grid_conversion_source_hz": conv[1],
             "where_s": [],
             "fold_examples": [],
         }
@@ -1430,9 +1609,10 @@ class AliasingAnalyzer(Analyzer):
         line_hit = line_hit and ((instances == 0 and len(evident) >= MIN_LINE_ONLY_FRAMES)
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
-        detected = line_hit or poly_hit or reflect_hit or step_hit or drop_hit or pattern_hit
+        grid_hit = drop_hit or pattern_hit or binary_hit or conv_hit
+        detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit
         assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
-                      or drop_hit or pattern_hit)
+                      or grid_hit)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
@@ -1442,7 +1622,7 @@ class AliasingAnalyzer(Analyzer):
         if step_hit:
             dur = self.n_step / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in step_frames]
-        if drop_hit or pattern_hit:
+        if grid_hit:
             dur = self.n_grid / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _z, _p in self.grid]
         if reflect_hit:
@@ -1490,6 +1670,19 @@ class AliasingAnalyzer(Analyzer):
                 parts.append(f"the samples lie on an irregular time grid: the prediction error repeats a drop "
                              f"pattern every {pat_period} samples{made_by}, in step with the sample clock over the "
                              f"whole file (profile agreement {pat_ag:.2f}): samples were dropped or picked without "
+                             "a filter, which folds")
+            if conv_hit and not (drop_hit or pattern_hit):
+                parts.append(f"the samples lie on an irregular time grid: the prediction error carries the lines a "
+                             f"conversion from {conv[1] / 1000:g} kHz to {self.fs / 1000:g} kHz without a filter "
+                             f"leaves (at multiples of {conv[1] / 1000:g}/{self.fs / 1000:g} cycles per sample, "
+                             f"modulo 1), in step with the sample clock over the whole file (chance about "
+                             f"1 in 10^{-conv[0]:.0f}): samples were picked, or interpolated between neighbours, "
+                             "without a filter, which folds")
+            if binary_hit and not (drop_hit or pattern_hit or conv_hit):
+                parts.append(f"the samples lie on an irregular time grid: the prediction error repeats a drop "
+                             f"pattern every {bin_period} samples, the period of a converter whose read position "
+                             f"steps by a binary fraction (a single-precision or fixed-point accumulator), in step "
+                             f"with the sample clock (profile agreement {bin_ag:.2f}): samples were picked without "
                              "a filter, which folds")
             detail["reason"] = "; ".join(parts)
         else:
