@@ -111,7 +111,12 @@ class UltrasonicTracker:
         self.from_hz = float(getattr(options, "ultrasonic_from_hz", 20000.0))
         self.active = self.fs > MIN_RATE_HZ and self.fs / 2.0 > self.from_hz
         self.weights = np.asarray(info.channel_weights, dtype=float)
-        self._audible, self._ultra, self._zfull, self._zlp, self._index = [], [], [], [], []
+        # per analysed frame: audible, ultrasonic, K-weighted full and low-passed power, kept in
+        # arrays grown geometrically (a few allocations per file instead of five small arrays per
+        # block, which stay behind in the heap among the blocks' temporaries)
+        self._cols = np.zeros((0, 4))
+        self._pos = np.zeros(0, dtype=np.int64)
+        self._n = 0
         self._k2 = None
 
     def _setup(self, bins):
@@ -137,11 +142,21 @@ class UltrasonicTracker:
             self._setup(power.shape[-1])
         nfr, ch, nb = power.shape
         q = (power.reshape(nfr * ch, nb) @ self._proj).astype(np.float64).reshape(nfr, ch, 4)
-        self._audible.append(q[:, :, 0].sum(axis=1))
-        self._ultra.append(q[:, :, 1].sum(axis=1))
-        self._zfull.append(q[:, :, 2] @ self.weights)
-        self._zlp.append(q[:, :, 3] @ self.weights)
-        self._index.append(np.asarray(index))
+        index = np.asarray(index)
+        n, k = self._n, index.size
+        if n + k > self._pos.size:
+            size = max(2 * self._pos.size, n + k, 1024)
+            cols = np.zeros((size, 4))
+            cols[:n] = self._cols[:n]
+            pos = np.zeros(size, dtype=np.int64)
+            pos[:n] = self._pos[:n]
+            self._cols, self._pos = cols, pos
+        self._cols[n:n + k, 0] = q[:, :, 0].sum(axis=1)
+        self._cols[n:n + k, 1] = q[:, :, 1].sum(axis=1)
+        self._cols[n:n + k, 2] = q[:, :, 2] @ self.weights
+        self._cols[n:n + k, 3] = q[:, :, 3] @ self.weights
+        self._pos[n:n + k] = index
+        self._n = n + k
 
     def settings(self) -> dict:
         return {"from_hz": self.from_hz, "window_s": WINDOW_S,
@@ -153,12 +168,12 @@ class UltrasonicTracker:
         out = {"ultrasonic_energy_db": None, "ultrasonic_energy_max_3s_db": None,
                "ultrasonic_energy_max_3s_where_s": [], "ultrasonic_from_hz": self.from_hz,
                "ultrasonic_tones": [], "ultrasonic_loudness_change_lu": None}
-        if not self.active or not self._audible:
+        if not self.active or not self._n:
             return out
-        aud = np.concatenate(self._audible)
-        ult = np.concatenate(self._ultra)
+        aud = self._cols[:self._n, 0].copy()
+        ult = self._cols[:self._n, 1].copy()
         hop_s = fe.hop / self.fs
-        centres = np.concatenate(self._index) * hop_s
+        centres = self._pos[:self._n] * hop_s
         out["ultrasonic_energy_db"] = power_ratio_db(ult.sum(), aud.sum())
         duration = (fe.frame_positions - 1) * hop_s
         if duration <= WINDOW_S:
@@ -188,8 +203,8 @@ class UltrasonicTracker:
         return out
 
     def _loudness_change(self, fe, centres):
-        zf = np.concatenate(self._zfull)
-        zl = np.concatenate(self._zlp)
+        zf = self._cols[:self._n, 2].copy()
+        zl = self._cols[:self._n, 3].copy()
         hop_s = fe.hop / self.fs
         real_s = (fe.frame_positions - 1) * hop_s
         n_blocks = int(math.floor((real_s - BLOCK_S) / STEP_S + 1e-9)) + 1 if real_s >= BLOCK_S else 0
