@@ -638,3 +638,89 @@ def test_naive_synthesis_at_high_rates_is_not_imaged(fs, kind):
         assert c["verdict"] != "defect", c
         if c["images_explained_fraction"] is not None and c["z_score"] > 100:
             assert c["images_explained_fraction"] < im.MIN_IMAGES_EXPLAINED_FRACTION
+
+
+class _KeptImaging(ImagingAnalyzer):
+    """The imaging analyzer, kept after :meth:`finish` so the tests can ask it about further cycle frequencies."""
+    last = None
+
+    def finish(self):
+        type(self).last = self
+        return super().finish()
+
+
+def _kept(x, fs):
+    analyse(np.asarray(x).reshape(len(x), -1), fs, [_KeptImaging])
+    return _KeptImaging.last
+
+
+@pytest.mark.parametrize("fs", [44100, 48000])
+def test_block_framing_is_coherent_at_every_harmonic_of_its_frame_rate(rng, fs):
+    """Analytic: independent random impulses every P = 576 samples at positions n_j = j P, X(f) = sum_j a_j
+    exp(-j 2 pi f n_j / fs); at alpha = k fs / P every exp(j 2 pi alpha n_j / fs) = exp(j 2 pi k j) = 1, so
+    X(f - alpha) = X(f): the train is cyclostationary at every harmonic k fs / P with unit spectral coherence.
+    Added to white noise of equal power (the impulses' power a^2 / P), the coherence magnitude is 1/2 at every
+    f (both flat), so fs/2 = 288 fs/576 and its neighbours fs/2 +- fs/576 are all strongly coherent: the trace
+    a block coder's framing leaves, which must not name a source rate."""
+    n = 4 * fs
+    x = rng.standard_normal(n)
+    x[::576] += math.sqrt(576.0) * rng.standard_normal(x[::576].size)
+    a = _kept(0.05 * x, fs)
+    half = fs / 2.0
+    z_own = a._z_at(0, half, half)
+    z_nb = [a._z_at(0, half + s * fs / 576.0, half) for s in (-1, 1)]
+    assert z_own > 4 * im.Z_SIGNIFICANT
+    assert min(z_nb) > max(im.Z_SIGNIFICANT, im.FRAMING_Z_RELATIVE * z_own)
+    # fs/32 = 18 fs/576 is a harmonic too: the first period the rule tries names it
+    assert a._coder_framing(0, half) == (32, pytest.approx(z_own), pytest.approx(min(
+        a._z_at(0, half + s * fs / 32.0, half) for s in (-1, 1))))
+    # half way between two harmonics (fs/1152 off) the train is not coherent: the statistic resolves the comb
+    # (own reasoning: a leak of the main lobe, 1.5-1.7 bins away, stays under a tenth of the harmonic's z)
+    assert abs(a._z_at(0, half + fs / 1152.0, half)) < 0.1 * z_own
+
+
+@pytest.mark.parametrize("kind", ["zero-stuff", "linear", "hold"])
+def test_upsampler_trace_is_not_coherent_at_a_coders_framing_harmonics(rng, kind):
+    """Analytic: an upsampler by 2 from R = fs/2 turns its source into a(n) x_up(n), x_up zero-stuffed and
+    filtered: X(f) = H(f) Xs(f) with Xs periodic in R, so X(f) and X(f - q R) are linked for whole q only: the
+    spectral correlation sits at multiples of R, not at R +- fs/576 (nor +- fs/1152, fs/1024, fs/2048), where
+    the frames' phase corrections of independent components average out.  The rule that takes a coder's framing
+    out therefore leaves an upsampler's trace alone."""
+    fs = 44100
+    src = rng.standard_normal(2 * fs) * 0.1
+    y = zero_stuff(src, 2) if kind == "zero-stuff" else \
+        {"linear": linear_upsample, "hold": hold_upsample}[kind](src, fs // 2, fs)
+    a = _kept(y, fs)
+    half = fs / 2.0
+    z_own = a._z_at(0, half, half)
+    assert z_own > 4 * im.Z_SIGNIFICANT
+    for hop in im.CODER_HOPS_SAMPLES:
+        for s in (-1, 1):
+            # (a neighbour 21.5 Hz off, hop 2048, is inside the 25 Hz bins' main lobe and keeps a few
+            # per cent of the candidate's z; own reasoning)
+            assert abs(a._z_at(0, half + s * fs / hop, half)) < 0.05 * z_own, (hop, s)
+    assert a._coder_framing(0, half) is None
+    m = _run(y, fs)
+    assert _candidate(m, float(fs // 2))["verdict"] == "defect"
+
+
+def test_filter_bank_aliasing_in_an_empty_band_is_a_coders_framing_not_a_conversion(rng, monkeypatch):
+    """Analytic: a critically sampled filter bank of 32 bands whose aliasing is not cancelled (its bands
+    quantised apart) leaves copies of the content shifted by every k fs/32.  Modelled exactly: c(n) = 32 for
+    n = 0 mod 32, else 0, equals sum_{k=0}^{31} exp(j 2 pi k n / 32), so x(n) c(n) holds x shifted by every
+    k fs/32 with gain 1; y = x + eps * highpass(x c) with x low-passed at 15 kHz puts those copies alone above
+    17 kHz.  The term k = 16 is x(n) (-1)^n, the copy at fs/2 - f: at fs/2 = 44.1 kHz / 2 a coherent image of
+    the content at eps (-80 dB here), too deep for a defect, a trace, which would name 22.05 kHz; but the
+    neighbours fs/2 +- fs/32 are as coherent, where a conversion from 22.05 kHz leaves nothing (images at
+    multiples of 22.05 kHz only).  So the candidate is untestable, and only the rule makes it so."""
+    from scipy import signal as sps
+    fs = 44100
+    x = sps.sosfiltfilt(sps.butter(12, 15000, fs=fs, output="sos"), pink(fs, 4.0, rng, 0.1))
+    c = np.zeros(x.size)
+    c[::32] = 32.0
+    y = x + 1e-4 * sps.sosfiltfilt(sps.butter(12, 17000, btype="high", fs=fs, output="sos"), x * c)
+    cand = _candidate(_run(y, fs), fs / 2)
+    assert cand["verdict"] == "untestable" and "every 32 samples" in cand["reason"]
+    monkeypatch.setattr(im, "FRAMING_Z_RELATIVE", 1e9)       # the rule off: the trace, at eps exactly
+    cand = _candidate(_run(y, fs), fs / 2)
+    assert cand["verdict"] == "trace" and cand["image_level_db"] == pytest.approx(-80.0, abs=0.5)

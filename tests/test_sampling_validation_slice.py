@@ -79,9 +79,10 @@ KNOWN_MISSES = {
         "at a standard Nyquist now names that rate and a centred design outranks a stop-band reading of the next "
         "higher rate; the slice still misses the target, its case not re-examined)",
     ("upsampling_false_alarms", "corpus_validation_b"):
-        "an MP3 round trip at 128 kbit/s in a 44.1 kHz file is read as converted up from 22.05 kHz: the codec's "
-        "own band limit and sub-band structure pass for a converter's trace (found when the second held-back set "
-        "was first scored; not yet examined)",
+        "an MP3 round trip at 128 kbit/s in a 44.1 kHz file (2.8 s) is read as converted up from 32 kHz: the "
+        "codec's band limit ends in a cliff at 16 kHz that a converter from 32 kHz would leave (its coherence at "
+        "22.05 kHz, once a converter's trace, is now recognised as the coder's 32-band filter bank: the "
+        "neighbouring harmonics 22.05 kHz +- fs/32 are as coherent)",
 }
 
 

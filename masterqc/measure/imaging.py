@@ -46,7 +46,11 @@ null; its controls show the same spread, an upsampler's images do not.  A defect
 also needs images that explain the band above the candidate's Nyquist frequency
 (:data:`MIN_IMAGES_EXPLAINED_FRACTION`).  On periodic material with folded partials
 (:data:`FOLD_CHECK_FRAMES`) a candidate that leaves a trace its images do not
-explain is reported untestable, so that chance pairs never name a source rate.
+explain is reported untestable, so that chance pairs never name a source rate.  A lossy block coder is
+cyclostationary at every harmonic of its period (32 samples for a 32-band critically sampled filter bank,
+576 or 1024 for its frames, :data:`CODER_HOPS_SAMPLES`), and ``fs/2`` is one of them: a trace at a candidate
+rate on that comb whose neighbouring harmonics are coherent too (:data:`FRAMING_Z_RELATIVE`), where an
+upsampler's images are not, is the coder's framing and is reported untestable.
 
 For each candidate source rate below the file's rate the analyzer reports
 
@@ -230,6 +234,19 @@ CLEAR_MIN_PAIRS = 8
 #: whole stands well above it; programme components that pair up by themselves fill one or two
 #: sub-bands at most
 CLEAR_RULE_OUT_SHARE = 0.5
+#: periods of block coders (samples): a coder that quantises blocks of that many samples makes the file
+#: cyclostationary at every harmonic ``k * fs / hop`` of its frame rate (the quantisation noise and the band
+#: limit change from block to block), and a critically sampled filter bank of 32 bands takes one sub-band
+#: sample per band every 32 samples, so its uncancelled aliasing is cyclostationary at ``k * fs / 32``.
+#: Common practice, no source: the 32-band polyphase filter bank of the widespread sub-band coders, and the
+#: lines per granule or frame of those and of transform coders (576 and 1152; 1024 and its pair 2048)
+CODER_HOPS_SAMPLES = (32, 576, 1152, 1024, 2048)
+#: a trace at a candidate rate that is itself a harmonic of a coder's frame rate (``fs/2 = 288 * fs/576``)
+#: is the coder's framing, not a conversion, when the two neighbouring harmonics (``R +- fs/hop``), cycle
+#: frequencies where an upsampler's images are not, are coherent too: each at least this share of the
+#: candidate's own z (and significant, :data:`Z_SIGNIFICANT`).  Own reasoning: the framing harmonics next
+#: to a harmonic carry comparable coherence; an upsampler's trace gives chance level (|z| of a few) there
+FRAMING_Z_RELATIVE = 0.2
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`): on such material
 #: a candidate that leaves a trace whose images do not explain the band above its Nyquist frequency
 #: (:data:`MIN_IMAGES_EXPLAINED_FRACTION`) is reported untestable, so that chance pairs of folded
@@ -845,6 +862,64 @@ class ImagingAnalyzer(Analyzer):
                 "t_s": t_s, "x": x_all, "x_a": x_asym, "x_s": x_sig, "inner": inner, "z_first": z_first,
                 "z_clear": z_clear, "clear_bounds": clear_bounds, "cover": cover}
 
+    def _z_at(self, ch: int, alpha_hz: float, rate: float):
+        """Pooled significance (max of the power-weighted and the unweighted z, as :meth:`_stats`) of the
+        first-order coherence at cycle frequency ``alpha_hz`` (any, not only on the bin grid) between the
+        baseband bins below ``rate / 2`` and their partners at ``alpha_hz - f``, from the kept spectra; None
+        without them.  The rotated frames carry the phase correction of the nearest bin; the rest,
+        ``exp(-j 2 pi (alpha - alpha_bin) n_m / fs)``, is applied per frame, so a component's coherence at
+        a cycle frequency ``d`` Hz off its own drifts by ``d`` turns per second between the frames."""
+        if self.store is None or self.frames < MIN_FRAMES:
+            return None
+        n = self.n_fft
+        al = int(round(alpha_hz / self.bin_hz))
+        ka, kb, _al = mirror_pairs(self.fs, al * self.bin_hz, n, rate_for_band=rate)
+        sel = _al == al % n
+        ka, kb = ka[sel], kb[sel]
+        if ka.size == 0:
+            return None
+        full = self._kept_two_sided(ch)
+        starts = self.picker.starts[:self.frames].astype(float)
+        rot = np.exp(-2j * np.pi * (alpha_hz - al * self.bin_hz) * starts / self.fs)
+        prod = np.take(full, ka, axis=-1) * np.take(full, kb, axis=-1) * rot[:, None]
+        s_all = prod.sum(axis=0)
+        q_all = (np.abs(prod) ** 2).sum(axis=0)
+        pw = self.power[ch]
+        p1, p2 = pw[np.minimum(ka, n - ka)], pw[np.minimum(kb, n - kb)]
+        den = np.maximum(p1 * p2, 1e-300)
+        g2 = np.minimum(np.abs(s_all) ** 2 / den, 1.0)
+        overlap = max(1.0, self.null_bias * self.frames)
+        bias = np.clip(overlap * q_all / den, self.null_bias, 0.999)
+        m_eff = 1.0 / bias
+        v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
+        w = np.minimum(p1, p2)
+        sd = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0 * w * w)))
+        z_w = float(np.sum((g2 - bias) * w)) / sd if sd > 0 else 0.0
+        z_u = float(np.sum(g2 - bias)) / math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0)))
+        return max(z_w, z_u)
+
+    def _coder_framing(self, ch: int, rate: float):
+        """``(hop, z_own, z_neighbours)`` when the coherence at ``rate`` is a block coder's framing: ``rate`` is
+        a harmonic of ``fs / hop`` (:data:`CODER_HOPS_SAMPLES`) and both neighbouring harmonics ``rate +- fs/hop``
+        are significant, each at least :data:`FRAMING_Z_RELATIVE` of the coherence at ``rate`` itself (the
+        same statistic, :meth:`_z_at`); else None."""
+        own = None
+        for hop in CODER_HOPS_SAMPLES:
+            k = rate * hop / self.fs
+            if abs(k - round(k)) > 1e-9:
+                continue
+            if own is None:
+                own = self._z_at(ch, rate, rate)
+                if own is None or own < Z_SIGNIFICANT:
+                    return None
+            step = self.fs / hop
+            zs = [self._z_at(ch, rate + sgn * step, rate) for sgn in (-1, 1)]
+            if any(z is None for z in zs):
+                continue
+            if min(zs) >= max(Z_SIGNIFICANT, FRAMING_Z_RELATIVE * own):
+                return hop, own, min(zs)
+        return None
+
     def _assess(self, cand, ch: int, f0):
         m = self.frames
         rate = cand["rate"]
@@ -971,6 +1046,15 @@ class ImagingAnalyzer(Analyzer):
             base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} at {level:.1f} dB relative to "
                               f"it: upsampled from {rate / 1000:g} kHz without a proper filter")
         else:
+            framing = self._coder_framing(ch, rate)
+            if framing is not None:
+                hop, z_own, z_nb = framing
+                base["image_level_db"] = None
+                base["reason"] = (f"coherent at {rate / 1000:g} kHz (z {z_own:.0f}) and as much at its neighbours "
+                                  f"{rate / 1000:g} kHz +- {self.fs / hop:.1f} Hz (z {z_nb:.0f}), harmonics of a block "
+                                  f"coder's period (every {hop} samples) where an upsampler leaves no images: a "
+                                  "lossy coder's framing or filter bank, not a conversion")
+                return base
             base["verdict"] = "trace"
             base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
                               f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
