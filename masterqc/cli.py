@@ -91,13 +91,7 @@ def _add_more(sub, only: str | None) -> None:
 def cmd_measure(args) -> int:
     from masterqc import stagelog
     stagelog.note_startup()  # interpreter and command line, for bench/bench_startup.py --split
-    from masterqc.measure.options import pin_blas_to_one_thread
-    pin_blas_to_one_thread()    # before numpy loads: no threadpoolctl inspection per process
-    if (args.threads or _default_threads()) > 1:
-        # hash the file on a thread of its own while the measuring layers are imported (one core
-        # at most is busy then): the engine takes the result (masterqc.filehash)
-        from masterqc import filehash
-        filehash.prefetch(args.file)
+    start_one_file(args.file, args.threads)
     with stagelog.stage("import_measure"):
         from masterqc.measure import MeasureOptions, measure_file
     from masterqc.progress import Progress
@@ -129,6 +123,19 @@ def cmd_measure(args) -> int:
             from masterqc.report.text import measurement_table
             sys.stdout.write(measurement_table(result))
     return EXIT_PASS
+
+
+def start_one_file(path, threads: int | None = None) -> None:
+    """Before the measuring layers load, for a command that measures one file: start BLAS with one
+    thread through its environment (no threadpoolctl inspection per process), and when the
+    measurement will run threaded (``threads``, else the default count), hash the file on a thread
+    of its own while the layers are imported (one core at most is busy then); the engine takes the
+    result (:mod:`masterqc.filehash`)."""
+    from masterqc.measure.options import pin_blas_to_one_thread
+    pin_blas_to_one_thread()
+    if (threads or _default_threads()) > 1:
+        from masterqc import filehash
+        filehash.prefetch(path)
 
 
 def _default_threads() -> int:

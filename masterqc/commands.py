@@ -71,12 +71,8 @@ def cmd_check(args) -> int:
         loaded = load_spec(args.spec, libraries=args.spec_library or ())  # SpecError -> exit 2 (before any file is touched)
     loaded.report_fields.update(fields)
     if len(args.paths) == 1:
-        from masterqc.measure.options import pin_blas_to_one_thread
-        pin_blas_to_one_thread()    # before numpy loads: no threadpoolctl inspection per process
-        from masterqc.cli import _default_threads
-        if _default_threads() > 1:    # hashed while the measuring layers load (masterqc.filehash)
-            from masterqc import filehash
-            filehash.prefetch(args.paths[0])
+        from masterqc.cli import start_one_file
+        start_one_file(args.paths[0])
     _print_spec_warnings(loaded, quiet=args.quiet)
     from masterqc.cli import parse_layout
     layout = parse_layout(args.layout)

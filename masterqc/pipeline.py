@@ -268,7 +268,7 @@ def measure_and_judge(path, loaded_spec, *, base_options=None, progress=None, st
         with stage("measure"):
             measured = measure_file(path, options, progress=progress)
     except AudioReadError as exc:
-        from masterqc.measure.engine import file_facts
+        from masterqc.filehash import file_facts
         try:
             facts = file_facts(path)
         except AudioReadError:

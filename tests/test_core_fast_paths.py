@@ -69,7 +69,7 @@ def test_file_hash_read_into_one_buffer_is_sha256(tmp_path, size_bytes):
     its bytes (reference library), for sizes below, at and across the piece size."""
     import hashlib
 
-    from masterqc.measure.engine import file_facts
+    from masterqc.filehash import file_facts
     data = np.random.default_rng(size_bytes).integers(0, 256, size_bytes, dtype=np.uint8).tobytes()
     path = tmp_path / "bytes.bin"
     path.write_bytes(data)

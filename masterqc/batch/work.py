@@ -132,7 +132,7 @@ def warm(_=None) -> int:
 def hash_task(path: str) -> dict:
     """``{"path", "sha256", "size_bytes"}`` of a file, or ``{"path", "error"}`` when it cannot be read."""
     from masterqc.errors import AudioReadError
-    from masterqc.measure.engine import file_facts
+    from masterqc.filehash import file_facts
     try:
         facts = file_facts(path)
     except AudioReadError as exc:

@@ -24,10 +24,6 @@ from masterqc.measure.options import MeasureOptions
 from masterqc.measure.oversample import single_thread_blas
 from masterqc.measure.registry import analyzer_classes, post_steps
 
-# the file's facts (path, size, SHA-256) and the background thread that computes them live in
-# masterqc.filehash, which the command line imports before this module (kept here by name)
-file_facts = filehash.file_facts
-HASH_CHUNK_BYTES = filehash.HASH_CHUNK_BYTES
 
 
 #: blocks the reader may decode ahead of the slowest analyzer (threaded runs; memory stays flat)
@@ -430,9 +426,6 @@ class _BlockScheduler:
             raise self.read_error
 
 
-_Background = filehash.Background
-
-
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:
     """Measure one master and return the result object (without spec and findings).
 
@@ -452,9 +445,9 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
     # CPU the prefetched hash spent before this call (the CPU split counts it in start-up)
     hash_before_s = (hashing.cpu_so_far() or 0.0) if hashing is not None and split_path else 0.0
     if hashing is None and threaded:
-        hashing = _Background(file_facts, path)
+        hashing = filehash.Background(filehash.file_facts, path)
     hash_started = time.thread_time()
-    facts = None if hashing is not None else file_facts(path)
+    facts = None if hashing is not None else filehash.file_facts(path)
     hash_cpu_s = time.thread_time() - hash_started
     try:
         with open_stream(path, channel_layout=options.channel_layout) as stream:
