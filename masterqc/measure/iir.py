@@ -61,14 +61,22 @@ _kernel = None
 kernel_source = None
 
 
-def _own_kernel():
-    """masterqc's compiled cascade with the calling convention of scipy's kernel, or None
-    when it was not built (or is switched off by :data:`OWN_KERNEL_ENV`)."""
+def own_module():
+    """masterqc's optional compiled module (:data:`OWN_KERNEL_MODULE`), or None when it was not
+    built or is switched off by :data:`OWN_KERNEL_ENV`."""
     if os.environ.get(OWN_KERNEL_ENV, "").strip() == "0":
         return None
     try:
-        module = importlib.import_module(OWN_KERNEL_MODULE)
+        return importlib.import_module(OWN_KERNEL_MODULE)
     except ImportError:
+        return None
+
+
+def _own_kernel():
+    """masterqc's compiled cascade with the calling convention of scipy's kernel, or None
+    when it was not built (or is switched off by :data:`OWN_KERNEL_ENV`)."""
+    module = own_module()
+    if module is None:
         return None
     cascade = module.cascade
     cascade_into = getattr(module, "cascade_into", None)

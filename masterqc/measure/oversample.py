@@ -432,13 +432,13 @@ def prescreen_kernel():
     if _PRESCREEN is None:
         _PRESCREEN = False
         from masterqc.measure import iir
-        if os.environ.get(iir.OWN_KERNEL_ENV, "").strip() != "0":
+        module = iir.own_module()
+        if module is not None:
             try:
-                import importlib
-                fn = getattr(importlib.import_module(iir.OWN_KERNEL_MODULE), "prescreen", None)
+                fn = getattr(module, "prescreen", None)
                 if fn is not None and _prescreen_self_check(fn):
                     _PRESCREEN = fn
-            except Exception:              # noqa: BLE001 - not built or not loadable: numpy's path
+            except Exception:              # noqa: BLE001 - not usable: numpy's path
                 pass
     return _PRESCREEN or None
 
