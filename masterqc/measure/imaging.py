@@ -480,6 +480,18 @@ def _main_pairs(fs: int, n_fft: int, rates: tuple, offsets: tuple):
     return main, pos
 
 
+def _pooled_z(g2, bias, w, v0):
+    """``(t, z_w, z_u)`` of pairs' squared coherences ``g2`` against their null bias ``bias`` and
+    null variance ``v0``: the power-weighted sum ``t`` (weights ``w``) and its z (tones, strong
+    images), and the unweighted z (images spread thinly over many bins), each with the null
+    variance inflated by :data:`NULL_VARIANCE_INFLATION`."""
+    t = float(np.sum((g2 - bias) * w))
+    sd = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0 * w * w)))
+    z_w = t / sd if sd > 0 else 0.0
+    z_u = float(np.sum(g2 - bias)) / math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0)))
+    return t, z_w, z_u
+
+
 class ImagingAnalyzer(Analyzer):
     """Spectral correlation at the cycle frequencies of every candidate source rate."""
 
@@ -761,20 +773,13 @@ class ImagingAnalyzer(Analyzer):
         v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
         # two pooled statistics: power-weighted (tones, strong images) and unweighted
         # (images spread thinly over many bins, e.g. folded onto programme content)
-        t = float(np.sum((g2 - bias) * w))
-        sd = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0 * w * w)))
-        z_w = t / sd if sd > 0 else 0.0
-        z_u = float(np.sum(g2 - bias)) / math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0)))
+        t, z_w, z_u = _pooled_z(g2, bias, w, v0)
         coh = float(np.sum((g2 - bias) / (1.0 - bias) * w)) / wsum
         # the first image order alone (cycle frequency = the rate itself): a source at this rate always
         # leaves its strongest images there, while a source at a multiple of the rate shares only the
         # higher orders' cycle frequencies with it
         if np.any(first):
-            wf = w[first]
-            sd_f = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0[first] * wf * wf)))
-            z_fw = float(np.sum((g2[first] - bias[first]) * wf)) / sd_f if sd_f > 0 else 0.0
-            z_fu = float(np.sum(g2[first] - bias[first])) / math.sqrt(NULL_VARIANCE_INFLATION
-                                                                      * float(np.sum(v0[first])))
+            _t, z_fw, z_fu = _pooled_z(g2[first], bias[first], w[first], v0[first])
             z_first = max(z_fw, z_fu)
         else:
             z_first = 0.0
@@ -892,10 +897,7 @@ class ImagingAnalyzer(Analyzer):
         bias = np.clip(overlap * q_all / den, self.null_bias, 0.999)
         m_eff = 1.0 / bias
         v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
-        w = np.minimum(p1, p2)
-        sd = math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0 * w * w)))
-        z_w = float(np.sum((g2 - bias) * w)) / sd if sd > 0 else 0.0
-        z_u = float(np.sum(g2 - bias)) / math.sqrt(NULL_VARIANCE_INFLATION * float(np.sum(v0)))
+        _t, z_w, z_u = _pooled_z(g2, bias, np.minimum(p1, p2), v0)
         return max(z_w, z_u)
 
     def _coder_framing(self, ch: int, rate: float):
