@@ -442,11 +442,15 @@ class _BlockScheduler:
     def _finish_one(self, i: int, a) -> None:
         """finish() analyzer ``i`` on this worker; its result, or its exception, is kept for
         :func:`_collect` (which raises the first one in the analyzers' order)."""
+        started = time.thread_time()
         try:
             done = a.finish()
         except BaseException as exc:          # noqa: BLE001 - raised by _collect, in order
             done = exc
+        spent = time.thread_time() - started
         with self.lock:
+            if self.thread_cpu is not None:   # inside "analyze_s" too: the CPU split takes it out
+                self.thread_cpu["finish_s"] = self.thread_cpu.get("finish_s", 0.0) + spent
             self.finished[i] = done
             self.busy[i] = False
             if self._finished():
@@ -523,8 +527,9 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         # the command line started, masterqc.filehash.prefetch; outside process_cpu_s);
         # threads_cpu_s: "hash_s" (the file's SHA-256), "read_s" (decoding and preparing the
         # blocks), "analyze_s" (the analyzer threads: the analyzers' process() and the
-        # scheduling around it); the rest of process_cpu_s is opening the file, building the
-        # analyzers, their finish() and assembling the result
+        # scheduling around it, and the finish() calls they took, "finish_s"); the rest of
+        # process_cpu_s is opening the file, building the analyzers, the other finish() calls
+        # and assembling the result
         with open(split_path, "w", encoding="utf-8") as f:
             json.dump({"process_cpu_s": time.process_time() - cpu_started,
                        "threads": max(1, int(getattr(options, "threads", 1) or 1)),
