@@ -210,3 +210,35 @@ def test_nearest_phase_converter_from_22k05_is_not_named_24k():
     y = ct.quantise24(ct.nearest_phase(x, 22050, 176400, (64, 16, 0.95, 8.0))[:, None], rng)
     m = _measure(y, 176400)
     assert m["upsampled_from_hz"] == 22050, m.get("bandwidth_note")
+
+
+def test_shape_of_a_fall_narrower_than_the_envelope_resolves_is_not_read_at_any_scale():
+    # by construction: the fall of a libsamplerate sinc_best conversion from 8 kHz, read at scale 4 (frequencies
+    # four times the file's): -6, -20 and -40 dB at 15238, 15565 and 16201 Hz on that scale, i.e. within 241 Hz of
+    # the file's own frequencies, finer than the envelope's 1010 Hz closing (bandwidth.CLOSING_HZ) can resolve.
+    # House rule (bandwidth.SHAPE_MIN_SPAN_HZ, in the file's own hertz): such a shape is not read (0), while the
+    # same numbers read at scale 1 would be a 963 Hz fall with a shape ratio of (16201 - 15565) / (15565 - 15238)
+    from masterqc.measure import bandwidth as bw
+    cliff = {"edge_hz": 15238.0, "f20_hz": 15565.0, "f40_hz": 16201.0}
+    assert bw.shape_ratio(cliff, 4) == 0.0
+    assert bw.shape_ratio(cliff, 1) == pytest.approx((16201.0 - 15565.0) / (15565.0 - 15238.0))
+
+
+def test_low_rate_conversion_with_a_sharp_fall_is_found_at_its_rate():
+    # the tuning corpus' case (by construction): libsamplerate's best converter (a reference library) from 8 kHz
+    # to 44.1 kHz on music; its fall from the programme into the stop band is sharper than the envelope resolves
+    # at the 8 kHz search's scale (the case the shape test rejected as a low-pass); found, at 8 kHz
+    pytest.importorskip("samplerate")
+    from masterqc.measure import bandwidth as bw
+    from masterqc.measure.spectral import SpectralFrontEnd
+    from masterqc.audio.reader import StreamInfo
+    case = next(ct.cases(1003, prefix="lr_libsamplerate-sinc_best_8000_to_44100"))
+    assert case.expect == {"upsampled_from_hz": 8000} and case.rate_hz == 44100
+    fe = SpectralFrontEnd(case.rate_hz, case.audio.shape[1], case.audio.shape[0])
+    fe.process(case.audio)
+    info = StreamInfo(path="<memory>", container="wav", encoding="pcm_24", sample_rate_hz=case.rate_hz, bit_depth=24,
+                      is_float=False, channels=case.audio.shape[1], frames=case.audio.shape[0],
+                      channel_layout=tuple(case.channel_labels), layout_source="conventional",
+                      channel_weights=(1.0,) * case.audio.shape[1])
+    r = bw.assess(fe.finish(), info)
+    assert r.upsampled_from_hz == 8000, r.note
