@@ -12,6 +12,11 @@ speaks to).  Set "tuning", seeds 1000-1999.  Tool families:
 - ``scipy-resample_poly-short`` / ``-long``: resample_poly with its own Kaiser (beta 5) design of 3 or 40 zero
   crossings either side (a leaky and a steep one);
 - ``hold``, ``linear``, ``zero-stuff``, ``cubic`` (Catmull-Rom): upsamplers written here with numpy.
+- group ``upsampled-low-rate`` (names ``lr_*``): 8-44.1 kHz sources on speech, sparse and narrow-band material
+  through resample_poly, libsamplerate's sinc converters and numpy converters written here from their published
+  methods: ``keys-cubic`` (Keys' cubic convolution, a = -0.5), ``bspline-cubic`` (the cubic B-spline as the
+  kernel), ``nearest-phase<N>`` (a polyphase windowed sinc of N phases, the nearest phase per output sample),
+  ``hold`` and ``linear`` at any ratio.
 
 Source rates 8 ... 96 kHz go up to a higher standard rate up to 192 kHz; each case draws
 its target from the higher rates (the seed decides), so every source meets several targets
