@@ -1046,6 +1046,7 @@ def assess(fe, info) -> BandwidthResult:
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
     vetoed = claimed if _programme_above(fe, info, out) else None
+    sum_cliff = out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff"
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -1104,9 +1105,10 @@ def assess(fe, info) -> BandwidthResult:
                 and out.effective_bandwidth_hz is not None
                 and abs(r.effective_bandwidth_hz - out.effective_bandwidth_hz) <= 0.02 * out.upsampled_from_hz / 2.0)
     if (out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff" and fe.frames
-            and all(labels[c] in up_ch or same_fall(c) for c in range(n_ch))):
-        # what lies above the old Nyquist in the median frame; read on the channels' mean, so only where every
-        # channel with content ends in the same fall (a native channel would fill the band)
+            and (sum_cliff or all(labels[c] in up_ch or same_fall(c) for c in range(n_ch)))):
+        # what lies above the old Nyquist in the median frame; read on the channels' mean, so only where the sum
+        # itself ends in the cliff or every channel with content ends in the same fall (a native channel fills
+        # the band above the old Nyquist where one channel alone was converted up)
         got = stop_band_content(fe, format_floor_db(info.bit_depth, info.is_float, fe.frame_length),
                                 out.upsampled_from_hz)
         out.stop_band_over_floor_db = None if got is None else round(float(got[1]), 1)
