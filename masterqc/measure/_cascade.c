@@ -15,6 +15,9 @@
 #include <Python.h>
 #include <math.h>
 #include <stdint.h>
+#ifdef __SSE2__
+#include <emmintrin.h>
+#endif
 
 /* two channels, two sections (K-weighting of a stereo block): everything in registers */
 static void stereo2(const double *sos, const double *x0, const double *x1, double *y0, double *y1,
@@ -246,6 +249,185 @@ static PyObject *prescreen(PyObject *self, PyObject *args)
     return PyBool_FromLong(ok);
 }
 
+
+/* ---------------------------------------------------------------------------------------------
+ * Window sums of a channel pair (masterqc/measure/channels.py): for segments [cuts[k], cuts[k+1])
+ * (the last one to n) of two float64 rows x and y, the sums of x*y, x*x and y*y, each exactly as
+ * numpy's ``np.add.reduceat(x * y, cuts)`` adds them: the segment's first product, plus numpy's
+ * pairwise sum of the others (8 accumulators over blocks of at most 128 values, halved at a
+ * multiple of 8 above that; below 8 values a plain sum from -0.0).  The products are rounded as
+ * numpy rounds them (no fused multiply-add, -ffp-contract=off).  The three sums walk the same
+ * blocks together, so each block of the rows is read once.  Checked against numpy on load
+ * (channels.py); numpy's path runs where the check fails.
+ */
+#define PW_BLOCK 128
+
+static void pairwise3(const double *x, const double *y, Py_ssize_t n, double *sxy, double *sxx, double *syy)
+{
+    if (n < 8) {
+        double a = -0.0, b = -0.0, c = -0.0;
+        for (Py_ssize_t i = 0; i < n; i++) {
+            a += x[i] * y[i];
+            b += x[i] * x[i];
+            c += y[i] * y[i];
+        }
+        *sxy = a; *sxx = b; *syy = c;
+    }
+    else if (n <= PW_BLOCK) {
+        double ra[8], rb[8], rc[8], a, b, c;
+        Py_ssize_t i;
+        for (int j = 0; j < 8; j++) {
+            ra[j] = x[j] * y[j];
+            rb[j] = x[j] * x[j];
+            rc[j] = y[j] * y[j];
+        }
+        for (i = 8; i < n - (n % 8); i += 8) {
+            for (int j = 0; j < 8; j++) {
+                double u = x[i + j], v = y[i + j];
+                ra[j] += u * v;
+                rb[j] += u * u;
+                rc[j] += v * v;
+            }
+        }
+        a = ((ra[0] + ra[1]) + (ra[2] + ra[3])) + ((ra[4] + ra[5]) + (ra[6] + ra[7]));
+        b = ((rb[0] + rb[1]) + (rb[2] + rb[3])) + ((rb[4] + rb[5]) + (rb[6] + rb[7]));
+        c = ((rc[0] + rc[1]) + (rc[2] + rc[3])) + ((rc[4] + rc[5]) + (rc[6] + rc[7]));
+        for (; i < n; i++) {
+            a += x[i] * y[i];
+            b += x[i] * x[i];
+            c += y[i] * y[i];
+        }
+        *sxy = a; *sxx = b; *syy = c;
+    }
+    else {
+        Py_ssize_t n2 = n / 2;
+        double a1, b1, c1, a2, b2, c2;
+        n2 -= n2 % 8;
+        pairwise3(x, y, n2, &a1, &b1, &c1);
+        pairwise3(x + n2, y + n2, n - n2, &a2, &b2, &c2);
+        *sxy = a1 + a2; *sxx = b1 + b2; *syy = c1 + c2;
+    }
+}
+
+static PyObject *pair_sums(PyObject *self, PyObject *args)
+{
+    Py_buffer x, y, cuts, out;
+    Py_ssize_t n, k;
+    int bad = 0;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*y*y*w*nn", &x, &y, &cuts, &out, &n, &k))
+        return NULL;
+    if (n < 1 || k < 1 || x.len != (Py_ssize_t)(n * sizeof(double)) || y.len != (Py_ssize_t)(n * sizeof(double)) ||
+        cuts.len != (Py_ssize_t)(k * sizeof(int64_t)) || out.len != (Py_ssize_t)(3 * k * sizeof(double)))
+        bad = 1;
+    else {
+        const int64_t *c = (const int64_t *)cuts.buf;
+        for (Py_ssize_t i = 0; i < k && !bad; i++)
+            if (c[i] < 0 || c[i] >= n || (i && c[i] <= c[i - 1]))
+                bad = 1;
+    }
+    if (bad) {
+        PyBuffer_Release(&x);
+        PyBuffer_Release(&y);
+        PyBuffer_Release(&cuts);
+        PyBuffer_Release(&out);
+        PyErr_SetString(PyExc_ValueError, "pair_sums: rows of n float64, k increasing cuts in [0, n), out (3, k)");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    {
+        const double *xp = (const double *)x.buf, *yp = (const double *)y.buf;
+        const int64_t *c = (const int64_t *)cuts.buf;
+        double *o = (double *)out.buf;
+        for (Py_ssize_t i = 0; i < k; i++) {
+            Py_ssize_t a = (Py_ssize_t)c[i], b = i + 1 < k ? (Py_ssize_t)c[i + 1] : n;
+            double sxy, sxx, syy;
+            pairwise3(xp + a + 1, yp + a + 1, b - a - 1, &sxy, &sxx, &syy);
+            o[i] = xp[a] * yp[a] + sxy;
+            o[k + i] = xp[a] * xp[a] + sxx;
+            o[2 * k + i] = yp[a] * yp[a] + syy;
+        }
+    }
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&x);
+    PyBuffer_Release(&y);
+    PyBuffer_Release(&cuts);
+    PyBuffer_Release(&out);
+    Py_RETURN_NONE;
+}
+
+
+/* ---------------------------------------------------------------------------------------------
+ * Frozen-value candidates of one channel (masterqc/measure/silence.py): the positions j of a
+ * float64 row where x[j] equals its predecessor (x[-1] = prev, the previous block's last sample,
+ * NaN before the first block) or its successor, and the last position always (a run may go on
+ * into the next block).  The comparisons are IEEE equality, as numpy's: NaN equals nothing,
+ * -0.0 equals 0.0.  Writes the positions, increasing, into idx (room for n) and returns how many.
+ */
+#define ACTIVE_PIECE 256
+
+/* whether v[j] == v[j + 1] for some j < m (reads v[0 .. m]); SSE2 where the compiler has it */
+static int any_equal_next(const double *v, Py_ssize_t m)
+{
+    Py_ssize_t j = 0;
+#ifdef __SSE2__
+    __m128d acc = _mm_setzero_pd();
+    for (; j + 8 <= m; j += 8) {
+        __m128d e0 = _mm_cmpeq_pd(_mm_loadu_pd(v + j), _mm_loadu_pd(v + j + 1));
+        __m128d e1 = _mm_cmpeq_pd(_mm_loadu_pd(v + j + 2), _mm_loadu_pd(v + j + 3));
+        __m128d e2 = _mm_cmpeq_pd(_mm_loadu_pd(v + j + 4), _mm_loadu_pd(v + j + 5));
+        __m128d e3 = _mm_cmpeq_pd(_mm_loadu_pd(v + j + 6), _mm_loadu_pd(v + j + 7));
+        acc = _mm_or_pd(acc, _mm_or_pd(_mm_or_pd(e0, e1), _mm_or_pd(e2, e3)));
+    }
+    if (_mm_movemask_pd(acc))
+        return 1;
+#endif
+    for (; j < m; j++)
+        if (v[j] == v[j + 1])
+            return 1;
+    return 0;
+}
+
+static PyObject *active_positions(PyObject *self, PyObject *args)
+{
+    Py_buffer x, idx;
+    double prev;
+    Py_ssize_t n, k = 0;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*dw*n", &x, &prev, &idx, &n))
+        return NULL;
+    if (n < 1 || x.len != (Py_ssize_t)(n * sizeof(double)) || idx.len < (Py_ssize_t)(n * sizeof(int64_t))) {
+        PyBuffer_Release(&x);
+        PyBuffer_Release(&idx);
+        PyErr_SetString(PyExc_ValueError, "active_positions: a row of n float64 and room for n int64 positions");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    {
+        const double *v = (const double *)x.buf;
+        int64_t *out = (int64_t *)idx.buf;
+        /* pieces of ACTIVE_PIECE positions: most hold no equal neighbours (a vectorised test of
+         * the piece's pairs); only the others are scanned position by position */
+        for (Py_ssize_t a = 0; a < n - 1; a += ACTIVE_PIECE) {
+            Py_ssize_t b = a + ACTIVE_PIECE < n - 1 ? a + ACTIVE_PIECE : n - 1;
+            Py_ssize_t lo = a ? a - 1 : 0;
+            int hit = (a == 0 && v[0] == prev) | any_equal_next(v + lo, b - lo);
+            if (!hit)
+                continue;
+            for (Py_ssize_t j = a; j < b; j++) {
+                double before = j ? v[j - 1] : prev;
+                if (v[j] == before || v[j] == v[j + 1])
+                    out[k++] = (int64_t)j;
+            }
+        }
+        out[k++] = (int64_t)(n - 1);
+    }
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&x);
+    PyBuffer_Release(&idx);
+    return PyLong_FromSsize_t(k);
+}
+
 static PyMethodDef methods[] = {
     {"cascade", cascade, METH_VARARGS,
      "cascade(sos, y, z, channels, frames, sections): filter y (channels, frames) in place; "
@@ -257,6 +439,13 @@ static PyMethodDef methods[] = {
      "prescreen(x, ax, gm, gh, nr, channels, stride, frames, group, near): the true-peak pre-screen's "
      "group statistics of x (channels rows of stride float32, the first frames used); False when a "
      "sample is not finite"},
+    {"pair_sums", pair_sums, METH_VARARGS,
+     "pair_sums(x, y, cuts, out, n, k): per segment of the cuts (int64, increasing, the last segment to n) "
+     "the sums of x*y, x*x and y*y of two float64 rows, as np.add.reduceat of the products adds them, "
+     "into out (3, k) float64"},
+    {"active_positions", active_positions, METH_VARARGS,
+     "active_positions(x, prev, idx, n): positions of a float64 row equal to a neighbour (prev before "
+     "the first), and the last, into idx (int64, room for n); returns their count"},
     {NULL, NULL, 0, NULL}
 };
 

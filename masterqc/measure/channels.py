@@ -32,6 +32,7 @@ import numpy as np
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (BOOLEAN_OR_NULL, NUMBER_OR_NULL, TIME_RANGES, Analyzer,
                                    AnalyzerResult, array_of)
+from masterqc.measure.blockstats import pair_window_sums
 from masterqc.measure.iir import sosfilt
 from masterqc.measure.kweight import kweighting_sos
 from masterqc.measure.peaks import column_abs_max
@@ -237,12 +238,8 @@ class ChannelRelationAnalyzer(Analyzer):
             cuts = np.concatenate(([0], cuts))
         # per pair on 1-D column views: reduceat over a (frames, 1) array is many times slower
         sums = np.empty((3, cuts.size, len(self.pairs)))  # (xy, xx, yy) per segment and pair
-        for k, (a, b) in enumerate(self.pairs):
-            x = cols[a]
-            y = cols[b]
-            sums[0, :, k] = np.add.reduceat(x * y, cuts)
-            sums[1, :, k] = np.add.reduceat(x * x, cuts)
-            sums[2, :, k] = np.add.reduceat(y * y, cuts)
+        for k, (a, b) in enumerate(self.pairs):   # np.add.reduceat of x*y, x*x, y*y: one pass
+            sums[:, :, k] = pair_window_sums(cols[a], cols[b], cuts)
         self.total += sums.sum(axis=1)
         lengths = np.diff(np.append(cuts, n))
         sums[:, 0] += self.acc

@@ -480,6 +480,18 @@ def _main_pairs(fs: int, n_fft: int, rates: tuple, offsets: tuple):
     return main, pos
 
 
+@functools.lru_cache(maxsize=64)
+def _first_order_pairs(fs: int, n_fft: int, alpha_bin: int, rate: float):
+    """``(ka, kb)``: the pairs of :func:`mirror_pairs` at cycle frequency ``alpha_bin`` bins (baseband below
+    ``rate / 2``) whose cycle frequency is ``alpha_bin`` itself (modulo ``n_fft``).  Cached, read-only."""
+    ka, kb, al = mirror_pairs(fs, alpha_bin * (fs / n_fft), n_fft, rate_for_band=rate)
+    sel = al == alpha_bin % n_fft
+    ka, kb = ka[sel], kb[sel]
+    for v in (ka, kb):
+        v.flags.writeable = False
+    return ka, kb
+
+
 def _pooled_z(g2, bias, w, v0):
     """``(t, z_w, z_u)`` of pairs' squared coherences ``g2`` against their null bias ``bias`` and
     null variance ``v0``: the power-weighted sum ``t`` (weights ``w``) and its z (tones, strong
@@ -878,17 +890,22 @@ class ImagingAnalyzer(Analyzer):
             return None
         n = self.n_fft
         al = int(round(alpha_hz / self.bin_hz))
-        ka, kb, _al = mirror_pairs(self.fs, al * self.bin_hz, n, rate_for_band=rate)
-        sel = _al == al % n
-        ka, kb = ka[sel], kb[sel]
+        ka, kb = _first_order_pairs(self.fs, n, al, float(rate))
         if ka.size == 0:
             return None
         full = self._kept_two_sided(ch)
-        starts = self.picker.starts[:self.frames].astype(float)
-        rot = np.exp(-2j * np.pi * (alpha_hz - al * self.bin_hz) * starts / self.fs)
-        prod = np.take(full, ka, axis=-1) * np.take(full, kb, axis=-1) * rot[:, None]
+        # (in place, in the same order as X(a) X(b) rot: the same numbers with fewer temporaries; every
+        # index is in range, so mode "clip" only skips the bounds check)
+        prod = np.take(full, ka, axis=-1, mode="clip")
+        prod *= np.take(full, kb, axis=-1, mode="clip")
+        off_hz = alpha_hz - al * self.bin_hz
+        if off_hz != 0.0:
+            # (on the bin grid the residual rotation is exactly 1 and multiplying by it changes nothing)
+            starts = self.picker.starts[:self.frames].astype(float)
+            prod *= np.exp(-2j * np.pi * off_hz * starts / self.fs)[:, None]
         s_all = prod.sum(axis=0)
-        q_all = (np.abs(prod) ** 2).sum(axis=0)
+        mag = np.abs(prod)
+        q_all = np.square(mag, out=mag).sum(axis=0)
         pw = self.power[ch]
         p1, p2 = pw[np.minimum(ka, n - ka)], pw[np.minimum(kb, n - kb)]
         den = np.maximum(p1 * p2, 1e-300)
@@ -915,10 +932,15 @@ class ImagingAnalyzer(Analyzer):
                 if own is None or own < Z_SIGNIFICANT:
                     return None
             step = self.fs / hop
-            zs = [self._z_at(ch, rate + sgn * step, rate) for sgn in (-1, 1)]
-            if any(z is None for z in zs):
-                continue
-            if min(zs) >= max(Z_SIGNIFICANT, FRAMING_Z_RELATIVE * own):
+            need = max(Z_SIGNIFICANT, FRAMING_Z_RELATIVE * own)
+            zs = []
+            for sgn in (-1, 1):
+                # (the second neighbour only when the first passes: the hop needs both)
+                z = self._z_at(ch, rate + sgn * step, rate)
+                zs.append(z)
+                if z is None or z < need:
+                    break
+            if len(zs) == 2 and None not in zs and min(zs) >= need:
                 return hop, own, min(zs)
         return None
 

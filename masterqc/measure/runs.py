@@ -63,10 +63,13 @@ class RunTracker:
         Works on the positions of the active samples only, so a block with few
         active samples costs little more than finding them.
         """
+        return self.feed_positions(labels, np.flatnonzero(active))
+
+    def feed_positions(self, labels: np.ndarray, idx: np.ndarray):
+        """:meth:`feed` with the positions of the active samples (``np.flatnonzero(active)``)."""
         n = labels.shape[0]
         if n == 0:
             return np.zeros(0, np.int64), np.zeros(0, np.int64), labels[:0]
-        idx = np.flatnonzero(active)
         if idx.size == 0:
             return self.skip(n)
         offset = self.pos

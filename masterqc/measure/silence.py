@@ -28,6 +28,7 @@ import numpy as np
 from masterqc.contract import NO_UNIT, measured
 from masterqc.measure.base import (INTEGER, INTEGER_LIST, NUMBER, NUMBER_OR_NULL, TIME_RANGES,
                                    Analyzer, AnalyzerResult, array_of)
+from masterqc.measure.blockstats import active_positions
 from masterqc.measure.clipping import clip_levels
 from masterqc.measure.runs import ChannelRuns, RunTracker, channel_names, join_across_channels
 
@@ -174,15 +175,8 @@ class SilenceAnalyzer(Analyzer):
             self.last_nonzero = self.pos + last
             if self.first_nonzero is None:
                 self.first_nonzero = self.pos + _edge_frame(rows, 0.0, from_end=False, planar=True)
-        eq = np.empty(rows.shape, dtype=bool)
-        eq[:, 0] = rows[:, 0] == self.prev
-        if n > 1:
-            np.equal(rows[:, 1:], rows[:, :-1], out=eq[:, 1:])
-        active = eq.copy()
-        active[:, :-1] |= eq[:, 1:]
-        active[:, -1] = True
-        for c, tr in enumerate(self.trackers):
-            self._collect(c, *tr.feed(rows[c], active[c]))
+        for c, tr in enumerate(self.trackers):      # the positions process() finds from its masks
+            self._collect(c, *tr.feed_positions(rows[c], active_positions(rows[c], self.prev[c])))
         self.prev = rows[:, -1].copy()
         self.pos += n
 
