@@ -296,6 +296,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_mastering(seed, quick))
     plan.extend(_plan_lowpass_sweep(seed, quick))
     plan.extend(_plan_codec_and_downconversion(seed, quick))
+    plan.extend(_plan_band_limits(seed, quick))
     plan.extend(_plan_low_rates(seed, quick))
     return plan
 
@@ -533,6 +534,8 @@ def _build(spec, rng, seconds):
             ["L", "R"]
     if kind in ("codec", "down", "butter48"):
         return build_codec_and_downconversion(spec, rng, seconds)
+    if kind in ("wall", "firlp", "bwide", "sdown", "sup", "fup", "dftup"):
+        return build_band_limits(spec, rng, seconds)
     if kind == "lowrate":
         return build_low_rates(spec, rng, seconds)
     if kind == "ambig":
@@ -714,7 +717,7 @@ def _sfb_edges(n_lines: int, fs: int, top_width_hz: float) -> np.ndarray:
 
 
 def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, subband: bool = False,
-                    n_lines: int = 1024, smr_db: float = 14.0) -> np.ndarray:
+                    n_lines: int = 1024, smr_db: float = 14.0, line_cut: bool = False) -> np.ndarray:
     """One channel through a transform coder written here (encode and decode).
 
     MDCT of ``n_lines`` lines (sine window, 50 % overlap: perfect reconstruction without quantisation).  Per
@@ -724,7 +727,9 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
     band needs (half a bit per line per 6 dB over its threshold, plus side information), taken from the bottom
     up out of the frame's budget (``kbps``, jittered +-15 % frame to frame like a bit reservoir): where it runs
     out is the frame's band limit.  Bands above it, above ``lowpass_hz`` (the encoder's fixed low-pass) or under
-    their threshold are zeroed whole; the rest are quantised with a step that puts the noise at the threshold."""
+    their threshold are zeroed whole; the rest are quantised with a step that puts the noise at the threshold.
+    With ``line_cut`` the encoder's low-pass cuts at the line nearest ``lowpass_hz`` (every line above it zeroed,
+    the band that holds it coded up to it) instead of at a band edge."""
     n2 = 2 * n_lines
     cmat = _mdct_matrix(n_lines)
     win = np.sin(np.pi * (np.arange(n2) + 0.5) / n2)
@@ -737,6 +742,10 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
     centre_khz = np.maximum((edges[:-1] + edges[1:]) / 2.0 * fs / n2 / 1000.0, 0.05)
     ath_db = 3.64 * centre_khz ** -0.8 - 6.5 * np.exp(-0.6 * (centre_khz - 3.3) ** 2) + 1e-3 * centre_khz ** 4 - 120.0
     top_band = nb if lowpass_hz is None else int(np.searchsorted(edges[1:] * fs / n2, lowpass_hz, side="right"))
+    cut_line = n_lines
+    if line_cut and lowpass_hz is not None:
+        cut_line = int(round(lowpass_hz / (fs / n2)))
+        top_band = int(np.searchsorted(edges[1:], cut_line, side="left")) + 1
     budget = kbps * 1000.0 * n_lines / fs
     jitter = rng.uniform(0.85, 1.15, frames)
     dist = 10.0 * np.abs(np.arange(nb)[:, None] - np.arange(nb)[None, :])
@@ -751,6 +760,7 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
             a, z = edges[b], edges[b + 1]
             step = math.sqrt(12.0 * 10 ** (thr_db[b] / 10.0))
             q[a:z] = np.round(spec[a:z] / step) * step
+        q[cut_line:] = 0.0
         out[j * n_lines:j * n_lines + n2] += (2.0 / n_lines) * (cmat @ q) * win
     return out[n_lines:n_lines + len(x)]
 
@@ -860,6 +870,167 @@ def build_codec_and_downconversion(spec, rng, seconds):
     sos = sps.butter(order, corner, fs=48000, output="sos")
     y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
     return 48000, set_rms(y, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+
+
+# ================================================================ band limits that sit on a standard Nyquist (s8fa)
+# Negatives whose fall lies at or near a lower standard rate's Nyquist frequency without being a conversion, and
+# their upsampled twins made by the same filter families.  Drawn from their own generator (the cases above keep
+# their noise).  Tool families, all written here or from scipy.signal:
+# - ``coder-wall``: the transform coder above with its encoder low-pass set at or within 2 % of a standard Nyquist
+#   (16, 22.05, 24 kHz and 11.025 kHz walls), cut line by line (the encoder zeroes every line above it) while the
+#   frame's bit budget still moves the top coded band from frame to frame below it;
+# - ``fir-<window>``: linear-phase low-passes designed with ``scipy.signal.firwin`` (Kaiser, Hamming, Blackman;
+#   63-255 taps; 18-22 kHz at 44.1, 48, 88.2 and 96 kHz);
+# - ``butter<N>-wide``: Butterworth low-passes of order 6-10 at 19-21 kHz on wideband music at 48 kHz;
+# - ``down-sinc-<window>``: short windowed-sinc polyphase down-converters (16-32 taps per phase, Kaiser or
+#   Blackman-Nuttall window, cutoff 0.9-0.99 of the new Nyquist) from 88.2, 176.4 and 192 kHz;
+# - twins (group "upsampled"): ``up-sinc-<window>`` the same short windowed-sinc designs converting up, and
+#   ``up-fir-<window>`` zero-stuffing followed by a ``firwin`` interpolation filter of the same windows and lengths.
+#: walls of the coder cases: (file rate, standard rate whose Nyquist the wall sits near, kbit/s per channel)
+WALL_CASES = ((44100, 32000, 128), (48000, 32000, 128), (96000, 48000, 192), (96000, 44100, 192),
+              (48000, 44100, 160), (44100, 22050, 48), (48000, 22050, 48), (88200, 44100, 192))
+#: down-conversions of the short-filter family (source rate, file rate)
+SHORT_DOWN_CONVERSIONS = ((192000, 48000), (192000, 96000), (176400, 44100), (88200, 44100), (176400, 88200),
+                          (192000, 44100))
+#: short windowed-sinc designs: (window, taps per phase, cutoff re the lower rate's Nyquist, Kaiser beta)
+SHORT_SINC_DESIGNS = (("kaiser", 32, 0.97, 9.0), ("nuttall", 32, 0.97, 0.0), ("kaiser", 16, 0.93, 6.0),
+                      ("nuttall", 24, 0.95, 0.0), ("kaiser", 24, 0.99, 8.0), ("nuttall", 16, 0.90, 0.0))
+FIR_WINDOWS = ("kaiser", "hamming", "blackman")
+
+
+def short_sinc(window: str, zero_crossings: int, cutoff: float, beta: float, m: int) -> np.ndarray:
+    """A windowed sinc, ``zero_crossings`` periods of the lower rate long (taps per phase), its -6 dB point
+    ``cutoff`` of the lower rate's Nyquist; ``m`` is the polyphase factor (the high rate over the lower one, as
+    ``resample_poly`` counts it).  The published polyphase method: h[n] = c/m sinc(c n / m) w[n]."""
+    n_taps = zero_crossings * m + 1
+    n = np.arange(n_taps) - (n_taps - 1) / 2.0
+    win = sps.get_window(("kaiser", beta) if window == "kaiser" else window, n_taps, fftbins=False)
+    h = (cutoff / m) * np.sinc(cutoff * n / m) * win
+    return h / np.sum(h)
+
+
+def short_sinc_convert(x: np.ndarray, src: int, dst: int, design) -> np.ndarray:
+    """Convert one channel from ``src`` to ``dst`` (either way) with :func:`short_sinc`'s design."""
+    window, taps, cutoff, beta = design
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    return sps.resample_poly(x, up, down, window=short_sinc(window, taps, cutoff, beta, max(up, down)))
+
+
+def fir_upsample(x: np.ndarray, src: int, dst: int, taps: int, window: str, cutoff: float) -> np.ndarray:
+    """Zero-stuffing by the integer factor ``dst / src`` and a ``firwin`` low-pass (``taps`` at the new rate,
+    its -6 dB point ``cutoff`` of the old Nyquist) as the interpolation filter."""
+    up = dst // src
+    win = ("kaiser", 8.0) if window == "kaiser" else window
+    h = sps.firwin(taps, cutoff * src / 2.0, window=win, fs=float(dst)) * up
+    y = np.zeros(len(x) * up)
+    y[::up] = x
+    return sps.lfilter(h, 1.0, y)
+
+
+def _plan_band_limits(seed: int, quick: bool):
+    """(name, family, group, spec) of the band limits at a standard Nyquist and their upsampled twins."""
+    rng = np.random.default_rng([int(seed), 23])
+    mats = ("music", "noise", "speech", "dull")
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    for fs, near, kbps in (WALL_CASES if not quick else WALL_CASES[::3]):
+        wall = near / 2.0 * float(rng.uniform(0.98, 1.0))
+        mat = pick(("music", "noise", "music", "dull"))
+        plan.append((f"wall_{fs}_{int(round(wall))}_{kbps}k_{mat}", "coder-wall", "codec-shelf",
+                     ("wall", fs, kbps, wall, mat, pick([1, 2]), float(rng.uniform(-26.0, -10.0)))))
+    for fs in ((44100, 48000, 88200, 96000) if not quick else (48000, 96000)):
+        for window in (FIR_WINDOWS if not quick else (pick(FIR_WINDOWS),)):
+            taps = int(pick((63, 101, 127, 255)))
+            corner = round(float(rng.uniform(18000.0, min(22000.0, 0.45 * fs))) / 100.0) * 100.0
+            plan.append((f"firlp_{window}{taps}_{corner / 1000:g}k_{fs}", f"fir-{window}", "lowpass",
+                         ("firlp", fs, taps, window, corner, pick(mats), float(rng.uniform(-26.0, -8.0)))))
+    for order in ((6, 7, 8, 9, 10) if not quick else (8,)):
+        corner = round(float(rng.uniform(19000.0, 21000.0)) / 100.0) * 100.0
+        plan.append((f"bwide{order}_{corner / 1000:g}k_48000", f"butter{order}-wide", "lowpass",
+                     ("bwide", order, corner, bool(rng.integers(0, 2)), float(rng.uniform(-22.0, -8.0)))))
+    for i, (src, dst) in enumerate(SHORT_DOWN_CONVERSIONS if not quick else SHORT_DOWN_CONVERSIONS[:2]):
+        design = SHORT_SINC_DESIGNS[(i + int(seed)) % len(SHORT_SINC_DESIGNS)]
+        tag = f"{design[0]}{design[1]}c{int(round(design[2] * 100))}"
+        plan.append((f"sdown_{tag}_{src}_to_{dst}", f"down-sinc-{design[0]}", "downconverted",
+                     ("sdown", src, dst, design, pick(("music", "noise", "hires", "hires")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    # the twins: the same short designs and FIR families converting up
+    ups = ((44100, 96000), (48000, 96000), (44100, 48000), (22050, 44100), (48000, 192000), (32000, 48000))
+    for i, (src, dst) in enumerate(ups if not quick else ups[:2]):
+        design = SHORT_SINC_DESIGNS[(i + 2 * int(seed)) % len(SHORT_SINC_DESIGNS)]
+        tag = f"{design[0]}{design[1]}c{int(round(design[2] * 100))}"
+        plan.append((f"sup_{tag}_{src}_to_{dst}", f"up-sinc-{design[0]}", "upsampled",
+                     ("sup", src, dst, design, pick(("music", "noise", "speech")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    for i, (src, dst) in enumerate(((44100, 88200), (48000, 96000), (24000, 48000), (48000, 192000))[
+            :(4 if not quick else 2)]):
+        window = FIR_WINDOWS[(i + int(seed)) % len(FIR_WINDOWS)]
+        taps = int(pick((63, 127, 255))) * (dst // src // 2)
+        plan.append((f"fup_{window}{taps}_{src}_to_{dst}", f"up-fir-{window}", "upsampled",
+                     ("fup", src, dst, taps, window, float(rng.uniform(0.92, 0.99)), pick(("music", "noise")),
+                      float(rng.uniform(-26.0, -8.0)))))
+    # the brick walls' twins: whole-file DFT zero-padding, whose wall sits at the old Nyquist to the bin
+    for src, dst in (((32000, 48000), (44100, 96000), (48000, 96000), (22050, 44100)) if not quick
+                     else ((32000, 48000),)):
+        plan.append((f"dftup_{src}_to_{dst}", "up-dft-numpy", "upsampled",
+                     ("dftup", src, dst, pick(("music", "noise", "speech")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    return plan
+
+
+def dft_upsample(x: np.ndarray, src: int, dst: int) -> np.ndarray:
+    """Convert one channel up by zero-padding its whole-file DFT (written here): every bin above the old
+    Nyquist frequency is exactly zero, and the old Nyquist bin is split between its two images."""
+    n = len(x)
+    m = int(round(n * dst / src))
+    spec = np.fft.rfft(x)
+    out = np.zeros(m // 2 + 1, dtype=complex)
+    out[:len(spec)] = spec
+    if n % 2 == 0:
+        out[n // 2] *= 0.5
+    return np.fft.irfft(out, m) * (m / n)
+
+
+def build_band_limits(spec, rng, seconds):
+    """Audio and labels of one case of :func:`_plan_band_limits`."""
+    kind = spec[0]
+    neg = {"upsampled_from_hz": None, "upsampled_channels": []}
+    if kind == "wall":
+        _k, fs, kbps, wall, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([codec_roundtrip(x[:, c], fs, kbps, rng, lowpass_hz=wall, line_cut=True) for c in range(ch)],
+                     axis=1)
+        return fs, y, neg, default_labels(ch)
+    if kind == "firlp":
+        _k, fs, taps, window, corner, mat, level = spec
+        win = ("kaiser", float(rng.uniform(6.0, 10.0))) if window == "kaiser" else window
+        h = sps.firwin(taps, corner, window=win, fs=fs)
+        x = np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(2)], axis=1)
+        return fs, set_rms(sps.lfilter(h, 1.0, x, axis=0), level), neg, ["L", "R"]
+    if kind == "bwide":
+        _k, order, corner, zp, level = spec
+        x = np.stack([material("music", 48000, seconds, rng) for _ in range(2)], axis=1)
+        sos = sps.butter(order, corner, fs=48000, output="sos")
+        y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
+        return 48000, set_rms(y, level), neg, ["L", "R"]
+    if kind == "dftup":
+        _k, src, dst, mat, ch, level = spec
+        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+        y = np.stack([dft_upsample(x[:, c], src, dst) for c in range(ch)], axis=1)
+        return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+    if kind in ("sdown", "sup"):
+        _k, src, dst, design, mat, ch, level = spec
+        mk = down_material if kind == "sdown" else material
+        x = set_rms(np.stack([mk(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([short_sinc_convert(x[:, c], src, dst, design) for c in range(ch)], axis=1)
+        return dst, y, (neg if kind == "sdown" else {"upsampled_from_hz": src}), default_labels(ch)
+    _k, src, dst, taps, window, cutoff, mat, level = spec
+    x = set_rms(material(mat, src, seconds, rng)[:, None], level)
+    return dst, fir_upsample(x[:, 0], src, dst, taps, window, cutoff)[:, None], {"upsampled_from_hz": src}, ["M"]
 
 
 # ================================================================ low source rates (own section)
