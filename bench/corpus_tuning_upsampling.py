@@ -12,6 +12,11 @@ speaks to).  Set "tuning", seeds 1000-1999.  Tool families:
 - ``scipy-resample_poly-short`` / ``-long``: resample_poly with its own Kaiser (beta 5) design of 3 or 40 zero
   crossings either side (a leaky and a steep one);
 - ``hold``, ``linear``, ``zero-stuff``, ``cubic`` (Catmull-Rom): upsamplers written here with numpy.
+- group ``upsampled-low-rate`` (names ``lr_*``): 8-44.1 kHz sources on speech, sparse and narrow-band material
+  through resample_poly, libsamplerate's sinc converters and numpy converters written here from their published
+  methods: ``keys-cubic`` (Keys' cubic convolution, a = -0.5), ``bspline-cubic`` (the cubic B-spline as the
+  kernel), ``nearest-phase<N>`` (a polyphase windowed sinc of N phases, the nearest phase per output sample),
+  ``hold`` and ``linear`` at any ratio.
 
 Source rates 8 ... 96 kHz go up to a higher standard rate up to 192 kHz; each case draws
 its target from the higher rates (the seed decides), so every source meets several targets
@@ -292,6 +297,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_lowpass_sweep(seed, quick))
     plan.extend(_plan_codec_and_downconversion(seed, quick))
     plan.extend(_plan_band_limits(seed, quick))
+    plan.extend(_plan_low_rates(seed, quick))
     return plan
 
 
@@ -530,6 +536,8 @@ def _build(spec, rng, seconds):
         return build_codec_and_downconversion(spec, rng, seconds)
     if kind in ("wall", "firlp", "bwide", "sdown", "sup", "fup", "dftup"):
         return build_band_limits(spec, rng, seconds)
+    if kind == "lowrate":
+        return build_low_rates(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -1023,3 +1031,139 @@ def build_band_limits(spec, rng, seconds):
     _k, src, dst, taps, window, cutoff, mat, level = spec
     x = set_rms(material(mat, src, seconds, rng)[:, None], level)
     return dst, fir_upsample(x[:, 0], src, dst, taps, window, cutoff)[:, None], {"upsampled_from_hz": src}, ["M"]
+
+
+# ================================================================ low source rates (own section)
+# Sources of 8-44.1 kHz converted up to 44.1-192 kHz on speech, sparse and narrow-band material (programme that ends
+# well below the old Nyquist frequency, over the recording's own noise floor, which fills the band up to it), and on
+# wideband material: the cases where the next standard rate up is the tempting wrong answer.  Converters: scipy
+# resample_poly (its default Kaiser design), libsamplerate's sinc converters, and interpolators written here from
+# their published methods: Keys' cubic convolution (a = -0.5), the cubic B-spline used directly as the
+# interpolation kernel (no prefilter: a smoothing cubic whose response, sinc^4, is already 5 dB down at half the old
+# Nyquist frequency), a nearest-phase polyphase windowed-sinc converter
+# (a bank of N phases, each output sample computed with the phase nearest its position, no interpolation between
+# phases), sample hold and straight lines at any ratio.  Drawn from their own generator (the cases above keep theirs).
+LOW_SOURCES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100)
+LOW_FAMILIES = ("scipy-resample_poly-kaiser5", "libsamplerate-sinc_best", "libsamplerate-sinc_medium",
+                "libsamplerate-sinc_fastest", "keys-cubic", "nearest-phase", "hold", "linear", "bspline-cubic")
+LOW_MATERIALS = ("speech", "sparse", "narrow", "narrow-speech", "music", "noise")
+#: nearest-phase converters: (phases, zero crossings either side, cutoff re the source Nyquist, Kaiser beta)
+NEAREST_PHASE_DESIGNS = ((32, 8, 0.91, 7.0), (64, 16, 0.95, 8.0), (256, 16, 0.97, 9.0), (1024, 32, 0.97, 10.0),
+                         (128, 12, 0.9, 6.0))
+
+
+def keys_cubic_weights(t: np.ndarray, a: float = -0.5) -> np.ndarray:
+    """Keys' cubic convolution kernel at the four offsets ``1 + t, t, 1 - t, 2 - t`` (``0 <= t < 1``), rows
+    (n, 4) for samples ``i - 1 .. i + 2``: ``W(s) = (a + 2)|s|^3 - (a + 3)|s|^2 + 1`` for ``|s| <= 1``,
+    ``a|s|^3 - 5a|s|^2 + 8a|s| - 4a`` for ``1 < |s| < 2``, 0 beyond."""
+    def w(s):
+        s = np.abs(s)
+        inner = (a + 2.0) * s ** 3 - (a + 3.0) * s ** 2 + 1.0
+        outer = a * s ** 3 - 5.0 * a * s ** 2 + 8.0 * a * s - 4.0 * a
+        return np.where(s <= 1.0, inner, np.where(s < 2.0, outer, 0.0))
+    return np.stack([w(1.0 + t), w(t), w(1.0 - t), w(2.0 - t)], axis=-1)
+
+
+def bspline_cubic_weights(t: np.ndarray) -> np.ndarray:
+    """The cubic B-spline ``B(s) = 2/3 - s^2 + |s|^3 / 2`` (``|s| < 1``), ``(2 - |s|)^3 / 6`` (``1 <= |s| < 2``) at
+    the offsets of :func:`keys_cubic_weights` (rows (n, 4))."""
+    def w(s):
+        s = np.abs(s)
+        return np.where(s < 1.0, 2.0 / 3.0 - s ** 2 + 0.5 * s ** 3, np.where(s < 2.0, (2.0 - s) ** 3 / 6.0, 0.0))
+    return np.stack([w(1.0 + t), w(t), w(1.0 - t), w(2.0 - t)], axis=-1)
+
+
+def keys_cubic(x: np.ndarray, src: int, dst: int, a: float = -0.5, kernel=None) -> np.ndarray:
+    """Upsample ``x`` from ``src`` to ``dst`` by cubic convolution (Keys' kernel, :func:`keys_cubic_weights`, or
+    ``kernel(t)`` giving the four weights)."""
+    n_out = len(x) * dst // src
+    pos = np.arange(n_out) * (src / dst)
+    i = np.floor(pos + 1e-9).astype(np.int64)
+    wts = keys_cubic_weights(pos - i, a) if kernel is None else kernel(pos - i)
+    xp = np.concatenate([x[:1], x, x[-1:], x[-1:]])
+    return sum(wts[:, j] * xp[i + j] for j in range(4))
+
+
+def nearest_phase_kernel(phases: int, zeros: int, cutoff: float, beta: float) -> np.ndarray:
+    """Rows ``p = 0 .. phases`` (fractional offset ``p / phases`` of an input sample), columns the ``2 zeros``
+    input samples ``i - zeros + 1 .. i + zeros`` around it: a Kaiser-windowed sinc with its -6 dB point at
+    ``cutoff`` of the source Nyquist frequency, each row normalised to unit DC gain."""
+    t = np.arange(phases + 1)[:, None] / phases
+    j = np.arange(-zeros + 1, zeros + 1)[None, :]
+    d = t - j                              # distance from the output position to input sample i + j
+    win = np.i0(beta * np.sqrt(np.clip(1.0 - (d / zeros) ** 2, 0.0, None))) / np.i0(beta)
+    h = cutoff * np.sinc(cutoff * d) * win
+    return h / h.sum(axis=1, keepdims=True)
+
+
+def nearest_phase(x: np.ndarray, src: int, dst: int, design) -> np.ndarray:
+    """Upsample ``x`` from ``src`` to ``dst`` with a polyphase windowed sinc of ``design`` (phases, zero
+    crossings, cutoff, beta): every output sample uses the phase nearest its position, no interpolation."""
+    phases, zeros, cutoff, beta = design
+    bank = nearest_phase_kernel(phases, zeros, cutoff, beta)
+    n_out = len(x) * dst // src
+    # exact positions (k * src / dst input samples): the phase pattern repeats exactly
+    step_num, step_den = Fraction(src, dst).numerator, Fraction(src, dst).denominator
+    k = np.arange(n_out, dtype=np.int64) * step_num
+    i = k // step_den
+    p = np.rint((k % step_den) * phases / step_den).astype(np.int64)
+    i = i + (p == phases)
+    p = np.where(p == phases, 0, p)
+    xp = np.concatenate([np.zeros(zeros), x, np.zeros(zeros + 1)])
+    y = np.zeros(n_out)
+    for c, j in enumerate(range(-zeros + 1, zeros + 1)):
+        y += bank[p, c] * xp[i + j + zeros]
+    return y
+
+
+def low_material(kind: str, fs: int, seconds: float, rng) -> np.ndarray:
+    """Material at a low source rate ``fs``: :func:`material`'s speech, sparse, music and noise, and ``narrow``
+    / ``narrow-speech`` (music or speech low-passed at 0.5-0.8 of the Nyquist frequency by a Butterworth of order
+    4-8, over a noise floor 45-65 dB down that reaches the Nyquist frequency: a narrow recording's own hiss)."""
+    if not kind.startswith("narrow"):
+        return material(kind, fs, seconds, rng)
+    x = material("speech" if kind == "narrow-speech" else "music", fs, seconds, rng)
+    corner = float(rng.uniform(0.5, 0.8)) * fs / 2.0
+    x = sps.sosfilt(sps.butter(int(rng.integers(4, 9)), corner, fs=fs, output="sos"), x)
+    x = x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+    x = x + 10 ** (-float(rng.uniform(45.0, 65.0)) / 20.0) * _tilted_noise(len(x), fs, rng, 0.0)
+    return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+
+
+def low_upsample(x: np.ndarray, src: int, dst: int, family: str, design=None) -> np.ndarray:
+    if family == "keys-cubic":
+        return keys_cubic(x, src, dst)
+    if family == "bspline-cubic":
+        return keys_cubic(x, src, dst, kernel=bspline_cubic_weights)
+    if family == "nearest-phase":
+        return nearest_phase(x, src, dst, design)
+    return upsample(x, src, dst, family)
+
+
+def _plan_low_rates(seed: int, quick: bool):
+    """(name, family, group, spec) of the low-source-rate positives (group "upsampled-low-rate")."""
+    rng = np.random.default_rng([int(seed), 23])
+    plan = []
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    for fi, family in enumerate(LOW_FAMILIES):
+        sources = LOW_SOURCES_HZ if not quick else LOW_SOURCES_HZ[fi % 3::3]
+        for src in sources:
+            targets = [r for r in (44100, 48000, 88200, 96000, 176400, 192000) if r > src]
+            dst = pick(targets)
+            mat = pick(LOW_MATERIALS)
+            ch = pick([1, 1, 2])
+            design = pick(NEAREST_PHASE_DESIGNS) if family == "nearest-phase" else None
+            tag = family if design is None else f"nearest-phase{design[0]}"
+            plan.append((f"lr_{tag}_{src}_to_{dst}_{mat}_{ch}ch", tag, "upsampled-low-rate",
+                         ("lowrate", src, dst, family, design, mat, ch, float(rng.uniform(-30.0, -8.0)))))
+    return plan
+
+
+def build_low_rates(spec, rng, seconds):
+    _k, src, dst, family, design, mat, ch, level = spec
+    x = set_rms(np.stack([low_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+    y = np.stack([low_upsample(x[:, c], src, dst, family, design) for c in range(ch)], axis=1)
+    return dst, y, {"upsampled_from_hz": src}, default_labels(ch)

@@ -213,7 +213,7 @@ LEAKY_MIN_MIRROR_CORRELATION = 0.4
 #: 8th order at 20 kHz in a 48 kHz file; 0.90-0.99 as read on the envelope of music).  Cliffs at or above this
 #: ratio are low-passes, not conversions (own reasoning; libsamplerate's medium converter reads 0.57-0.86).
 CONVERTER_MAX_SHAPE_RATIO = 0.9
-#: ... read only where the fall from -6 to -40 dB spans at least this much (on the search's scale), Hz: the
+#: ... read only where the fall from -6 to -40 dB spans at least this much of the file's own frequencies, Hz: the
 #: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning:
 #: Butterworth low-passes of order 10-12 at 20-21 kHz in a 48 kHz file fall from -6 to -40 dB within 0.88-1.3 kHz
 #: and must be read (analytic shape ratio of the 12th-order one at 20 kHz: 1.14); narrower falls are not resolved)
@@ -1204,12 +1204,14 @@ def upsampled_ranges(segments) -> list:
     return ranges
 
 
-def shape_ratio(cliff: dict) -> float:
+def shape_ratio(cliff: dict, scale: int = 1) -> float:
     """Span of a cliff's fall from -20 to -40 dB over its span from -6 to -20 dB (0 when unreadable);
     see :data:`CONVERTER_MAX_SHAPE_RATIO`.  Spans shorter than one 10 Hz bin count as one bin; a fall
-    narrower than :data:`SHAPE_MIN_SPAN_HZ` is not read (0)."""
+    narrower than :data:`SHAPE_MIN_SPAN_HZ` of the file's own frequencies is not read (0): ``cliff`` as read at
+    frequency ``scale`` (its frequencies ``scale`` times the file's), where the envelope's closing and smoothing,
+    set in the file's own hertz, are ``scale`` times wider in the cliff's terms."""
     f6, f20, f40 = cliff.get("edge_hz"), cliff.get("f20_hz"), cliff.get("f40_hz")
-    if f6 is None or f20 is None or f40 is None or f40 - f6 < SHAPE_MIN_SPAN_HZ:
+    if f6 is None or f20 is None or f40 is None or (f40 - f6) / scale < SHAPE_MIN_SPAN_HZ:
         return 0.0
     return max(f40 - f20, 10.0) / max(f20 - f6, 10.0)
 
@@ -1295,7 +1297,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
-                and (brick or shape_ratio(cliff) < CONVERTER_MAX_SHAPE_RATIO)):
+                and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
             rate = None
         elif brick:
             cliff["brick"] = True
