@@ -660,6 +660,9 @@ GRID_LPC_ORDER = 32
 GRID_MAX_PREDICTION_GAIN_DB = 45.0
 #: error-magnitude spectra are zero-padded this many times (a line off the bin grid keeps its phase)
 GRID_PAD = 4
+#: grid_coherence builds its phase table (frequency offsets x frames, complex) this many elements at a time:
+#: about 4 MB whatever the file's duration (house choice: memory flat in duration)
+GRID_PHASE_TABLE_ELEMENTS = 1 << 18
 #: drop rates searched: from this many cycles per sample up to 0.5 (one drop in 200 samples)
 GRID_MIN_ALPHA = 0.005
 #: lines whose median level over the frames stands this far over the local median are candidates,
@@ -1096,21 +1099,34 @@ def grid_coherence(spectra: np.ndarray, starts: np.ndarray, frame_len: int, stea
     cand, alpha, med = grid_candidates(spectra, frame_len, levels=levels)
     st = np.asarray(starts, dtype=float)
     span = float(st.max() - st.min() + frame_len)
+    # the frequency offsets searched: their number grows with the frames' spread (8 per 1/span), so the
+    # phase table (offsets x frames) is made GRID_PHASE_TABLE_ELEMENTS at a time, never whole (3 h at
+    # 96 kHz: 250 000 offsets, a 49 MB table); each offset's row and sum are the ones a whole table gives
     d = np.arange(-0.5 / nfft, 0.5 / nfft, 0.125 / span)
-    ph = np.exp(-2j * math.pi * d[:, None] * (st[None, :] + frame_len / 2.0))
-    best = (0.0, None, 0.0)
-    coherent = []
-    tol = 2.0 / frame_len
+    units = []    # (candidate, its unit phasors) in candidate order
     for k in cand:
         if callable(steady):   # computed on first need
             steady = steady()
         if steady is not None and content_explains(float(alpha[k]), steady, 0.5 / frame_len, 0.02 / frame_len):
             continue
         z = spectra[:, k] * np.exp(-2j * math.pi * alpha[k] * st)
-        u = z / np.maximum(np.abs(z), 1e-300)
-        r = np.abs(ph @ u) / u.size
-        i = int(np.argmax(r))
-        got = (float(r[i]), float(alpha[k] + d[i]), float(med[k]))
+        units.append((k, z / np.maximum(np.abs(z), 1e-300)))
+    # per candidate: the largest mean-phasor length over the offsets and its first offset (np.argmax's
+    # choice over the whole search, NaN counting as the largest)
+    top = [(-1.0, 0)] * len(units)
+    rows = max(1, GRID_PHASE_TABLE_ELEMENTS // max(1, st.size))
+    for lo in range(0, d.size if units else 0, rows):
+        ph = np.exp(-2j * math.pi * d[lo:lo + rows, None] * (st[None, :] + frame_len / 2.0))
+        for j, (_k, u) in enumerate(units):
+            r = np.abs(ph @ u) / u.size
+            i = int(np.argmax(r))
+            v = r[i]
+            if lo == 0 or (v > top[j][0] or (v != v and top[j][0] == top[j][0])):
+                top[j] = (v, lo + i)
+    best = (0.0, None, 0.0)
+    coherent = []
+    for (k, _u), (v, i) in zip(units, top):
+        got = (float(v), float(alpha[k] + d[i]), float(med[k]))
         if got[0] > best[0]:
             best = got
         if got[0] >= GRID_MIN_COHERENCE:
