@@ -43,7 +43,8 @@ def test_keys_cubic_response_at_the_old_nyquist_and_its_nulls():
     # At every non-zero integer v, sinc(v) = 0: nulls at every multiple of the source rate.
     # An integer-ratio (L) upsampler's taps are h[n] = W(n / L); by Poisson summation their DTFT at f is
     # L * sum_k H(f / fs_in + k L), so at f = fs_in / 2 it is L (H(1/2) + H(1/2 +- L) + ...): for L = 4 the
-    # other terms are H(3.5), H(4.5), ..., each below 1e-3 (|H(v)| <= 5 / (pi v)^4 ... by the sinc^2 factor).
+    # other terms are H(3.5), H(4.5), ...: from |sinc(x)| <= 1 / (pi |x|), |H(v)| <= 3 / (pi v)^4 + 1 / (pi v)^3,
+    # below 1e-3 from v = 3.5 on and falling as 1/v^3, so together within the 2e-3 allowed below.
     src, up = 8000, 4
     # the taps W(n / L), read from the corpus' weights: for the output at offset t = p / L after input sample i,
     # the weight of input sample i - 1, i, i + 1, i + 2 is W(1 + t), W(t), W(1 - t), W(2 - t)
@@ -77,6 +78,7 @@ def test_keys_cubic_response_at_the_old_nyquist_and_its_nulls():
     image = spec[np.argmin(np.abs(f - 7000.0))]
     v1, v7 = 1.0 / 8.0, 7.0 / 8.0
     h = lambda v: 3 * np.sinc(v) ** 4 - 2 * np.sinc(v) ** 2 * np.sinc(2 * v)   # noqa: E731
+    # (within 0.5 dB: house tolerance for the Hann window's leakage into the two bins)
     assert 20 * math.log10(image / main) == pytest.approx(20 * math.log10(abs(h(v7)) / h(v1)), abs=0.5)
 
 
@@ -223,22 +225,3 @@ def test_shape_of_a_fall_narrower_than_the_envelope_resolves_is_not_read_at_any_
     assert bw.shape_ratio(cliff, 4) == 0.0
     assert bw.shape_ratio(cliff, 1) == pytest.approx((16201.0 - 15565.0) / (15565.0 - 15238.0))
 
-
-def test_low_rate_conversion_with_a_sharp_fall_is_found_at_its_rate():
-    # the tuning corpus' case (by construction): libsamplerate's best converter (a reference library) from 8 kHz
-    # to 44.1 kHz on music; its fall from the programme into the stop band is sharper than the envelope resolves
-    # at the 8 kHz search's scale (the case the shape test rejected as a low-pass); found, at 8 kHz
-    pytest.importorskip("samplerate")
-    from masterqc.measure import bandwidth as bw
-    from masterqc.measure.spectral import SpectralFrontEnd
-    from masterqc.audio.reader import StreamInfo
-    case = next(ct.cases(1003, prefix="lr_libsamplerate-sinc_best_8000_to_44100"))
-    assert case.expect == {"upsampled_from_hz": 8000} and case.rate_hz == 44100
-    fe = SpectralFrontEnd(case.rate_hz, case.audio.shape[1], case.audio.shape[0])
-    fe.process(case.audio)
-    info = StreamInfo(path="<memory>", container="wav", encoding="pcm_24", sample_rate_hz=case.rate_hz, bit_depth=24,
-                      is_float=False, channels=case.audio.shape[1], frames=case.audio.shape[0],
-                      channel_layout=tuple(case.channel_labels), layout_source="conventional",
-                      channel_weights=(1.0,) * case.audio.shape[1])
-    r = bw.assess(fe.finish(), info)
-    assert r.upsampled_from_hz == 8000, r.note
