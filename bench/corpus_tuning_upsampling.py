@@ -296,8 +296,8 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_mastering(seed, quick))
     plan.extend(_plan_lowpass_sweep(seed, quick))
     plan.extend(_plan_codec_and_downconversion(seed, quick))
-    plan.extend(_plan_band_limits(seed, quick))
     plan.extend(_plan_low_rates(seed, quick))
+    plan.extend(_plan_band_limits(seed, quick))
     return plan
 
 
@@ -534,6 +534,9 @@ def _build(spec, rng, seconds):
             ["L", "R"]
     if kind in ("codec", "down", "butter48"):
         return build_codec_and_downconversion(spec, rng, seconds)
+    if kind == "own-seed":
+        # a group whose noise is drawn from its own seed, whatever its position in the plan
+        return _build(spec[2], np.random.default_rng(spec[1]), seconds)
     if kind in ("wall", "firlp", "bwide", "sdown", "sup", "fup", "dftup"):
         return build_band_limits(spec, rng, seconds)
     if kind == "lowrate":
@@ -979,7 +982,9 @@ def _plan_band_limits(seed: int, quick: bool):
         plan.append((f"dftup_{src}_to_{dst}", "up-dft-numpy", "upsampled",
                      ("dftup", src, dst, pick(("music", "noise", "speech")), pick([1, 2]),
                       float(rng.uniform(-26.0, -8.0)))))
-    return plan
+    # each case draws its noise from its own seed (the group's seed and its place in the group), so that groups
+    # added before or after this one leave its cases as they are
+    return [(name, fam, group, ("own-seed", [int(seed), 23, j], spec)) for j, (name, fam, group, spec) in enumerate(plan)]
 
 
 def dft_upsample(x: np.ndarray, src: int, dst: int) -> np.ndarray:

@@ -71,10 +71,6 @@ def slice_tally(request, tmp_path_factory):
 #: issue 11's targets not yet met on a slice, by (test, corpus).  strict: once a detector meets its
 #: target the test XPASSes and fails, and the entry must go.
 KNOWN_MISSES = {
-    ("upsampling_false_alarms", "corpus_tuning_upsampling"):
-        "the tuning corpus' mastering low-pass sweep (new negatives) has an 8th-order Chebyshev II low-pass at "
-        "17.6 kHz in a 96 kHz file read as converted up from 32 kHz: its equiripple stop band begins where a "
-        "32 kHz source's converter would put it, and magnitude alone does not tell them apart",
     ("upsampling_rate", "corpus_validation"):
         "a 22.05 kHz source converted up by FFT resampling (a brick wall at the old Nyquist) on music that rolls "
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist (a brick wall "
