@@ -389,14 +389,15 @@ def section_split(args, results: dict) -> bool:
         t = r.get("threads_cpu_s") or {}
         if "analyze_s" not in t:
             return None
-        return t["analyze_s"] - sum(v[0] for v in r["analyzers"].values())
+        # finish() calls the analyzer threads took (an engine that finishes analyzers early)
+        return t["analyze_s"] - sum(v[0] for v in r["analyzers"].values()) - t.get("finish_s", 0.0)
 
     def other(r):
         t = r.get("threads_cpu_s") or {}
         if "analyze_s" not in t or r.get("process_cpu_s") is None:
             return None
         return (r["process_cpu_s"] - (t["hash_s"] - r.get("hash_before_measure_s", 0.0)) - t["read_s"]
-                - t["analyze_s"] - sum(v[1] for v in r["analyzers"].values()))
+                - t["analyze_s"] - sum(v[1] for v in r["analyzers"].values()) + t.get("finish_s", 0.0))
     # the engine's own opt-in split of that rest (older engines: '-'); a hash the command line
     # started before the measurement (hash_before_measure_s) is counted in the hash row only
     for label, fn in (("  start-up (before measuring)",

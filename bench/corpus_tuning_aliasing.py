@@ -47,6 +47,11 @@ drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
   synthesis, music mixes; mono and stereo), families ``pick-<rule>`` and ``interp-<rule>``;
   ``filtered-decimation`` (False): their resample_poly twins.
 
+- ``naive-synth`` (True) and ``band-limited-synth`` (False), last: ring modulation, two-operator FM, PWM and
+  swept hard sync (:data:`MODULATION_VOICES`), naive and rendered at 8x then cut to Nyquist in the FFT domain
+  (families ``naive-<kind>`` and ``oversampled-<kind>``); ``decimation`` (True), last: mono tonal music
+  dropped 2:1 or 3:1 or picked 48 -> 44.1 kHz (:data:`MONO_DROPS`), with resample_poly twins.
+
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
 """
@@ -520,6 +525,10 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     yield from varied_pick_cases(seed, quick)
     # added: picking and interpolating rules as naive converters write them (own random streams)
     yield from rule_pick_cases(seed, quick)
+    # added: ring modulation, two-operator FM, PWM and swept hard sync, naive and band-limited (own streams)
+    yield from modulation_cases(seed, quick)
+    # added: mono tonal music dropped 2:1 or 3:1, or picked from 48 to 44.1 kHz (own streams)
+    yield from mono_drop_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -772,6 +781,141 @@ def rule_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         y = rule_convert(x, fs_in, fs, rule, sub)
         fam = f"pick-{rule}" if not rule.startswith("linear") else f"interp-{rule}"
         stem = f"rule-{fam}-{kind}-{ch}ch-{fs_in // 100}-{fs // 100}-{seed}-{j}"
+        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
+        g = math.gcd(fs_in, fs)
+        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
+        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
+                           {"aliasing_detected": False}, level)
+
+
+# ---------------------------------------------------------------- modulation voices: ring, FM, PWM, swept sync
+#: voices whose partials are not one harmonic series: the product of two oscillators (ring modulation: lines at
+#: k*f1 +- m*f2), two-operator FM (lines at fc +- k*fm, reaching as far as the index takes them), pulse-width
+#: modulation and hard sync with a swept slave ratio.  Each is rendered twice from the same random stream:
+#: ``naive`` (evaluated at the file's own sample instants: every partial above Nyquist folds) and band-limited
+#: (rendered at 8 times the rate by the same code, every bin at or above the file's Nyquist zeroed in the FFT
+#: domain, and brought down to the file rate: exactly the partials below Nyquist, none folded).  Entries:
+#: (kind, rate, number of voices); kinds: ``ring-saw-sine``, ``ring-square-sine``, ``ring-saw-saw``,
+#: ``ring-pulse-square``, ``fm-<c>:<m>`` (carrier to modulator ratio), ``pwm``, ``sync-sweep``.
+MODULATION_VOICES = (("ring-saw-sine", 48000, 1), ("ring-square-sine", 44100, 2), ("ring-saw-saw", 48000, 1),
+                     ("ring-pulse-square", 44100, 1), ("ring-saw-sine", 96000, 2), ("ring-saw-square", 48000, 2),
+                     ("fm-1:1", 48000, 1), ("fm-1:2", 44100, 2), ("fm-2:3", 48000, 1), ("fm-1:1.41", 48000, 1),
+                     ("fm-1:1", 44100, 2), ("fm-1:3", 96000, 2), ("pwm", 48000, 2), ("pwm", 44100, 1),
+                     ("sync-sweep", 48000, 1), ("sync-sweep", 44100, 2))
+MODULATION_OVERSAMPLING = 8
+#: the quick slice: naive saw and square times a sine, two-operator FM 1:2, PWM, swept sync
+MODULATION_QUICK = (0, 1, 7, 12, 14)
+#: a naive rendering is labelled folded (and yielded) only when the oversampled rendering holds at least this
+#: much of its power above the file's Nyquist, dB (house choice: an FM voice whose sidebands die out below
+#: Nyquist folds nothing measurable; ring, PWM and sync voices always pass)
+MODULATION_MIN_FOLDED_DB = -30.0
+
+
+def _osc(kind: str, ph: np.ndarray, duty=0.5) -> np.ndarray:
+    """Naive oscillator at phase ``ph`` (cycles): ``sine`` or a discontinuous shape."""
+    if kind == "sine":
+        return np.sin(2 * math.pi * ph)
+    return naive_shape(kind, np.mod(ph, 1.0), duty, 1.0)
+
+
+def modulation_voice(kind: str, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
+    """One voice of modulation synthesis (notes with ADSR envelopes and vibrato) evaluated at ``fs * over``
+    samples per second; the random stream ``state`` fixes every choice, so the naive (over = 1) and the
+    oversampled renderings hold the same notes."""
+    rng = np.random.default_rng(state)
+    rate = fs * over
+    n_total = int(seconds * fs) * over
+    out = np.zeros(n_total)
+    if kind.startswith("fm-"):
+        c_ratio, m_ratio = (float(v) for v in kind[3:].split(":"))
+        lo, hi = 500.0, 2000.0
+    else:
+        lo, hi = (150.0, 900.0) if kind.startswith("ring") else (110.0, 700.0)
+    notes = voices(seconds, fs, rng, 1, lo, hi)
+    for pos, length, f0 in notes:
+        pos, length = pos * over, length * over
+        f_inst = pitch_track(f0, length, rate, rng)
+        env = adsr(length, rate, rng)
+        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+        t = np.arange(length) / rate
+        if kind.startswith("ring"):
+            a, b = kind.split("-")[1:]
+            ratio = rng.uniform(1.2, 3.7)   # the second oscillator, inharmonic to the first
+            v = _osc(a, ph, rng.uniform(0.15, 0.4)) * _osc(b, rng.uniform(0, 1) + ratio * ph)
+        elif kind.startswith("fm-"):
+            index = rng.uniform(5.0, 12.0) * (0.35 + 0.65 * env)   # brightness follows the envelope
+            fc = c_ratio * ph
+            fmod = m_ratio * ph + rng.uniform(0, 1)
+            v = np.sin(2 * math.pi * fc + index * np.sin(2 * math.pi * fmod))
+        elif kind == "pwm":
+            duty = 0.5 + rng.uniform(0.25, 0.4) * np.sin(2 * math.pi * rng.uniform(0.3, 2.0) * t + rng.uniform(0, 6))
+            v = np.where(np.mod(ph, 1.0) < duty, 1.0, -1.0) - (2.0 * duty - 1.0)
+        elif kind == "sync-sweep":
+            s = rng.uniform(1.2, 2.0) + rng.uniform(0.8, 2.5) * (0.5 - 0.5 * np.cos(2 * math.pi * rng.uniform(0.2, 1.0) * t))
+            frac = np.mod(ph, 1.0)
+            v = 2.0 * np.mod(frac * s, 1.0) - 1.0
+        else:
+            raise ValueError(kind)
+        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
+    return out
+
+
+def band_limit_down(y: np.ndarray, over: int) -> np.ndarray:
+    """``y`` at ``over`` times the target rate to the target rate: bins at or above the target Nyquist zeroed
+    in the FFT domain, the rest inverse-transformed at the target length (numpy only)."""
+    n = y.size // over
+    spec = np.fft.rfft(y[:n * over])
+    keep = spec[:n // 2 + 1].copy()
+    keep[n // 2:] = 0.0
+    return np.fft.irfft(keep, n) / over
+
+
+def modulation_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The voices of :data:`MODULATION_VOICES`, naive (group ``naive-synth``, True; only where the voice folds at
+    least :data:`MODULATION_MIN_FOLDED_DB`) and band-limited (group ``band-limited-synth``, False), 6 s each, over a quiet noise bed, at an RMS level of -30..-8 dBFS."""
+    seconds = 6.0
+    for j in (MODULATION_QUICK if quick else range(len(MODULATION_VOICES))):
+        kind, fs, n_voices = MODULATION_VOICES[j]
+        sub = np.random.default_rng([seed, 26000 + j])
+        states = [int(sub.integers(1 << 62)) for _ in range(n_voices)]
+        x = sum(modulation_voice(kind, seconds, fs, 1, s) for s in states)
+        y_over = sum(modulation_voice(kind, seconds, fs, MODULATION_OVERSAMPLING, s) for s in states)
+        y = band_limit_down(y_over, MODULATION_OVERSAMPLING)
+        # what the naive rendering folds: the oversampled rendering's power above the file's Nyquist
+        spec = np.abs(np.fft.rfft(y_over)) ** 2
+        above_db = 10 * math.log10(max(float(spec[spec.size // MODULATION_OVERSAMPLING:].sum()), 1e-300)
+                                   / float(spec.sum()))
+        del y_over, spec
+        bed = 10 ** (-sub.uniform(45, 65) / 20) * float(np.sqrt(np.mean(y ** 2))) * pink(x.size, sub)
+        level = sub.uniform(-30, -8)
+        fam = kind.split(":")[0] if kind.startswith("fm-") else kind
+        stem = f"mod-{kind.replace(':', 'to').replace('.', 'p')}-{n_voices}v-{fs // 100}-{seed}-{j}"
+        if above_db >= MODULATION_MIN_FOLDED_DB:
+            yield _case(stem, f"naive-{fam}", "naive-synth", fs, x + bed, {"aliasing_detected": True},
+                        rms_dbfs=level)
+        yield _case(f"band-limited-{stem}", f"oversampled-{fam}", "band-limited-synth", fs, y + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)
+
+
+# ---------------------------------------------------------------- mono dropping of tonal music
+#: the held-back misses' shape, reproduced: mono tonal music with vibrato and a noise bed, brought down without a
+#: filter by keeping every 2nd or 3rd sample (no drop pattern exists for a whole ratio: only the folded partials
+#: are left) or by picking samples from 48 to 44.1 kHz; each with its resample_poly twin.  Entries:
+#: (fs_in, fs_out, rule, seconds); rules as :func:`pick_frames` (``drop2``, ``drop3``, ``round``, ``floor``).
+MONO_DROPS = ((96000, 48000, "drop2", 8.0), (88200, 44100, "drop2", 6.0), (144000, 48000, "drop3", 8.0),
+              (132300, 44100, "drop3", 6.0), (48000, 44100, "round", 8.0), (48000, 44100, "floor", 5.0))
+
+
+def mono_drop_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The cases of :data:`MONO_DROPS` (own random streams): group ``decimation`` (True) and
+    ``filtered-decimation`` (False)."""
+    for j, (fs_in, fs, rule, seconds) in enumerate(MONO_DROPS[:2] if quick else MONO_DROPS):
+        sub = np.random.default_rng([seed, 27000 + j])
+        x = _dense_material("tonal", seconds, fs_in, sub)[:, None]
+        level = sub.uniform(-30, -8)
+        y = x[::3] if rule == "drop3" else pick_frames(x, fs_in, fs, rule)
+        fam = f"drop-{rule[-1]}" if rule.startswith("drop") else f"pick-{rule}"
+        stem = f"mono-{fam}-tonal-{fs_in // 100}-{fs // 100}-{seed}-{j}"
         yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
         g = math.gcd(fs_in, fs)
         twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]

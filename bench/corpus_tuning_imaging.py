@@ -34,6 +34,12 @@ chance, like a component and its image.  Twins (group ``band-limited-synth``, ``
 False): the same voices synthesised at 8 (4 at 176.4 and 192 kHz) times the rate and decimated by
 ``resample_poly``.
 
+Interpolating stream converters written here (group ``stream-converter``, families ``own-stream-<kernel>``): 4- and
+6-point Lagrange, Catmull-Rom and windowed sincs of 8-32 taps evaluated at each output instant, labelled from the
+kernel's continuous response against the same line (:func:`kernel_image_level_db`); nearest-phase polyphase banks
+(``own-nearest-phase``: no imaging label, their error is jitter-like, see the imaging analyzer's docs); sample-and-hold
+rate reducers with fractional steps (``own-fractional-hold``, True) with the native material as twin.
+
 Listening caution: test material at up to -8 dBFS RMS with full-band noise and percussive bursts;
 turn the monitoring level down before playing any of it.
 """
@@ -252,12 +258,171 @@ def _extra_cases(seed: int, quick: bool):
                        expect=expect, channel_labels=labels)
 
 
+# ================================================================ interpolating stream converters (written here)
+# Converters that evaluate a continuous interpolation kernel at each output instant ``t = n * src / dst``
+# (source samples): the published 4- and 6-point Lagrange polynomials, the Catmull-Rom cubic (cubic Hermite
+# with centred-difference slopes), short windowed sincs (Kaiser or Hann, 8-32 taps) evaluated at the exact
+# position, a nearest-phase polyphase bank (the same windowed sinc tabulated at ``phases`` fractional delays,
+# each output taking the nearest one, no interpolation between phases), and a sample-and-hold rate reducer
+# with a fractional step.  Labels from the kernel's own continuous response (:func:`kernel_image_level_db`).
+
+#: interpolation kernels of the stream converters: (name, taps, kind, parameter)
+STREAM_KERNELS = (("lagrange4", 4, "lagrange", None), ("lagrange6", 6, "lagrange", None),
+                  ("catmullrom", 4, "catmullrom", None), ("wsinc8-kaiser", 8, "kaiser", 6.0),
+                  ("wsinc16-kaiser", 16, "kaiser", 8.0), ("wsinc16-hann", 16, "hann", None),
+                  ("wsinc32-kaiser", 32, "kaiser", 10.0), ("wsinc32-hann", 32, "hann", None))
+#: (source, target) rates of the stream converters: whole and fractional ratios
+STREAM_CONVERSIONS = ((44100, 48000), (32000, 48000), (22050, 48000), (44100, 96000), (48000, 96000),
+                      (16000, 44100), (24000, 96000), (48000, 88200))
+#: nearest-phase banks: (taps, phases)
+NEAREST_PHASE_BANKS = ((32, 8), (32, 16), (16, 32), (32, 1024))
+#: sample-and-hold rate reducers: (file rate, step in samples)
+HOLD_STEPS = ((48000, 4.8), (44100, 3.3), (48000, 2.5), (96000, 7.3))
+
+
+def kernel(kind: str, taps: int, param, t):
+    """Impulse response of an interpolation kernel at ``t`` (source samples, any real values): the Lagrange
+    polynomial of ``taps`` points (the interval between the two middle points interpolated), the Catmull-Rom
+    cubic, or a sinc windowed by a Kaiser (beta ``param``) or Hann window over ``taps`` samples."""
+    t = np.asarray(t, dtype=float)
+    a = np.abs(t)
+    if kind == "catmullrom":
+        return np.where(a < 1, 1.5 * a ** 3 - 2.5 * a ** 2 + 1,
+                        np.where(a < 2, -0.5 * a ** 3 + 2.5 * a ** 2 - 4 * a + 2, 0.0))
+    if kind == "lagrange":
+        # the weight of the point k (k = -taps/2 + 1 .. taps/2) at fractional position mu = t + k in [0, 1)
+        half = taps // 2
+        out = np.zeros_like(t)
+        for k in range(-half + 1, half + 1):
+            mu = t + k
+            sel = (mu >= 0) & (mu < 1)
+            w = np.ones(int(sel.sum()))
+            for j in range(-half + 1, half + 1):
+                if j != k:
+                    w *= (mu[sel] - j) / (k - j)
+            out[sel] = w
+        return out
+    inside = a < taps / 2.0
+    if kind == "kaiser":
+        w = np.i0(param * np.sqrt(np.clip(1 - (2 * t / taps) ** 2, 0, 1))) / np.i0(param)
+    else:
+        w = 0.5 + 0.5 * np.cos(2 * np.pi * t / taps)
+    return np.where(inside, np.sinc(t) * w, 0.0)
+
+
+def stream_convert(x: np.ndarray, src: int, dst: int, kind: str, taps: int, param, phases: int | None = None):
+    """One channel from ``src`` to ``dst``: each output sample the kernel-weighted sum of the ``taps`` source
+    samples around its instant; ``phases``: the fractional position rounded to the nearest of that many."""
+    n_out = len(x) * dst // src
+    pos = np.arange(n_out) * (src / dst)
+    i0 = np.floor(pos + 1e-9).astype(np.int64)
+    mu = pos - i0
+    if phases:
+        mu = np.round(mu * phases) / phases
+    half = taps // 2
+    pad = np.concatenate([np.zeros(half + 1), x, np.zeros(half + 2)])
+    y = np.zeros(n_out)
+    for k in range(-half + 1, half + 1):
+        y += kernel(kind, taps, param, mu - k) * pad[i0 + k + half + 1]
+    return y
+
+
+def kernel_response(kind: str, taps: int, param, f_frac):
+    """Magnitude of the kernel's continuous-time frequency response at ``f_frac`` (fractions of the source
+    rate): its Fourier transform, summed numerically on a grid of 1/512 source sample."""
+    over = 512
+    half = max(2, taps // 2)
+    t = np.arange(-half * over, half * over + 1) / over
+    h = kernel(kind, taps, param, t)
+    f = np.atleast_1d(np.asarray(f_frac, dtype=float))
+    return np.abs(np.exp(-2j * np.pi * np.outer(f, t)) @ h) / over
+
+
+def kernel_image_level_db(kind: str, taps: int, param, src: int, x: np.ndarray, band=(0.3, 0.7)) -> float:
+    """Level (dB) of the first images (at ``src - f``) of the content at ``band`` of the source Nyquist
+    frequency relative to that content, through the kernel's continuous response: sum P(f) |H(src - f)|^2
+    over sum P(f) |H(f)|^2, P the material's own power spectrum (Welch, 100 Hz bins)."""
+    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 100))
+    sel = (f >= band[0] * src / 2) & (f <= band[1] * src / 2)
+    f, p = f[sel], p[sel]
+    h_in = kernel_response(kind, taps, param, f / src)
+    h_im = kernel_response(kind, taps, param, (src - f) / src)
+    return float(10 * np.log10(np.sum(p * h_im ** 2) / np.sum(p * h_in ** 2)))
+
+
+def _stream_plan(seed: int, quick: bool):
+    rng = np.random.default_rng([int(seed), 41])
+    plan = []
+    kernels = STREAM_KERNELS if not quick else STREAM_KERNELS[::3]
+    for name, taps, kind, param in kernels:
+        for _rep in range(2 if not quick else 1):
+            src, dst = STREAM_CONVERSIONS[int(rng.integers(0, len(STREAM_CONVERSIONS)))]
+            mat = FIR_MATERIALS[int(rng.integers(0, len(FIR_MATERIALS)))]
+            plan.append(("stream", (src, dst, kind, taps, param, None, mat, [1, 2][int(rng.integers(0, 2))],
+                                    float(rng.uniform(-30.0, -8.0))),
+                         f"stream_{name}_{src}_to_{dst}_{mat}", f"own-stream-{name}"))
+    for taps, phases in (NEAREST_PHASE_BANKS if not quick else NEAREST_PHASE_BANKS[1:2]):
+        src, dst = STREAM_CONVERSIONS[int(rng.integers(0, 4))]
+        mat = FIR_MATERIALS[int(rng.integers(0, len(FIR_MATERIALS)))]
+        plan.append(("stream", (src, dst, "kaiser", taps, 9.0, phases, mat, [1, 2][int(rng.integers(0, 2))],
+                                float(rng.uniform(-30.0, -8.0))),
+                     f"nearest{phases}_wsinc{taps}_{src}_to_{dst}_{mat}", "own-nearest-phase"))
+    for fs, step in (HOLD_STEPS if not quick else HOLD_STEPS[:1]):
+        mat = ("music", "tonal", "speech")[int(rng.integers(0, 3))]
+        plan.append(("crush", (fs, step, mat, float(rng.uniform(-24.0, -8.0))),
+                     f"crushhold_{fs}_step{step:g}_{mat}", "own-fractional-hold"))
+    return plan
+
+
+def _stream_cases(seed: int, quick: bool):
+    """The stream-converter, nearest-phase and fractional-hold cases (see above), each with a negative: the
+    same material converted by ``resample_poly``'s long Kaiser design, or for the hold, left native."""
+    seconds = 2.0 if quick else 4.0
+    for i, (kind, spec, name, family) in enumerate(_stream_plan(seed, quick)):
+        rng = np.random.default_rng([int(seed), 43, i])
+        if kind == "stream":
+            src, dst, kk, taps, param, phases, mat, ch, level = spec
+            x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+            y = np.stack([stream_convert(x[:, c], src, dst, kk, taps, param, phases) for c in range(ch)], axis=1)
+            expect = {"upsampled_from_hz": src}
+            if phases is None:
+                lvl = kernel_image_level_db(kk, taps, param, src, x)
+                name = f"{name}_img{lvl:.0f}db"
+                if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
+                    expect["imaging_detected"] = True
+                elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
+                    expect["imaging_detected"] = False
+            fr = Fraction(dst, src)
+            twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator) for c in range(ch)], axis=1)
+            out = ((name, family, "stream-converter" if phases is None else "nearest-phase", y, expect),
+                   (f"{name}_twin", "scipy-resample_poly-kaiser5", "good-resampler", twin,
+                    {"upsampled_from_hz": src, "imaging_detected": False}))
+            rate, labels = dst, up.default_labels(ch)
+        else:
+            fs, step, mat, level = spec
+            x = up.set_rms(material(mat, fs, seconds, rng)[:, None], level)
+            held = x[np.minimum((np.floor(np.arange(x.shape[0]) / step) * step).astype(np.int64), x.shape[0] - 1)]
+            out = ((name, family, "sample-hold", held, {"imaging_detected": True}),
+                   (f"{name}_native", "native", "native", x, {"upsampled_from_hz": None, "imaging_detected": False}))
+            rate, labels = fs, ["M"]
+        for cname, fam, group, audio, expect in out:
+            audio = np.asarray(audio, dtype=float)
+            peak = float(np.max(np.abs(audio)))
+            if peak > 0.99:
+                audio = audio * (0.99 / peak)
+            audio = up.quantise24(audio, rng)
+            safe = cname.lower().replace(".", "p")
+            yield Case(name=f"{safe}_s{seed}", set="tuning", family=fam, group=group, rate_hz=int(rate), audio=audio,
+                       expect=expect, channel_labels=labels)
+
+
 def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     """Every case for ``seed`` (1000-1999); ``quick``: the first two conversions at 2 s, and a slice of the
     short-FIR and naive-synthesis cases."""
     if not 1000 <= int(seed) <= 1999:
         raise ValueError(f"tuning seeds are 1000-1999, got {seed}")
     yield from _extra_cases(seed, quick)
+    yield from _stream_cases(seed, quick)
     for i, (name, family, group, spec) in enumerate(_plan(seed, quick)):
         src, dst, how, mat, seconds, ch, level = spec
         rng = np.random.default_rng([int(seed), 23, i])

@@ -12,6 +12,11 @@ speaks to).  Set "tuning", seeds 1000-1999.  Tool families:
 - ``scipy-resample_poly-short`` / ``-long``: resample_poly with its own Kaiser (beta 5) design of 3 or 40 zero
   crossings either side (a leaky and a steep one);
 - ``hold``, ``linear``, ``zero-stuff``, ``cubic`` (Catmull-Rom): upsamplers written here with numpy.
+- group ``upsampled-low-rate`` (names ``lr_*``): 8-44.1 kHz sources on speech, sparse and narrow-band material
+  through resample_poly, libsamplerate's sinc converters and numpy converters written here from their published
+  methods: ``keys-cubic`` (Keys' cubic convolution, a = -0.5), ``bspline-cubic`` (the cubic B-spline as the
+  kernel), ``nearest-phase<N>`` (a polyphase windowed sinc of N phases, the nearest phase per output sample),
+  ``hold`` and ``linear`` at any ratio.
 
 Source rates 8 ... 96 kHz go up to a higher standard rate up to 192 kHz; each case draws
 its target from the higher rates (the seed decides), so every source meets several targets
@@ -291,6 +296,8 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_mastering(seed, quick))
     plan.extend(_plan_lowpass_sweep(seed, quick))
     plan.extend(_plan_codec_and_downconversion(seed, quick))
+    plan.extend(_plan_band_limits(seed, quick))
+    plan.extend(_plan_low_rates(seed, quick))
     return plan
 
 
@@ -527,6 +534,10 @@ def _build(spec, rng, seconds):
             ["L", "R"]
     if kind in ("codec", "down", "butter48"):
         return build_codec_and_downconversion(spec, rng, seconds)
+    if kind in ("wall", "firlp", "bwide", "sdown", "sup", "fup", "dftup"):
+        return build_band_limits(spec, rng, seconds)
+    if kind == "lowrate":
+        return build_low_rates(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -706,7 +717,7 @@ def _sfb_edges(n_lines: int, fs: int, top_width_hz: float) -> np.ndarray:
 
 
 def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, subband: bool = False,
-                    n_lines: int = 1024, smr_db: float = 14.0) -> np.ndarray:
+                    n_lines: int = 1024, smr_db: float = 14.0, line_cut: bool = False) -> np.ndarray:
     """One channel through a transform coder written here (encode and decode).
 
     MDCT of ``n_lines`` lines (sine window, 50 % overlap: perfect reconstruction without quantisation).  Per
@@ -716,7 +727,9 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
     band needs (half a bit per line per 6 dB over its threshold, plus side information), taken from the bottom
     up out of the frame's budget (``kbps``, jittered +-15 % frame to frame like a bit reservoir): where it runs
     out is the frame's band limit.  Bands above it, above ``lowpass_hz`` (the encoder's fixed low-pass) or under
-    their threshold are zeroed whole; the rest are quantised with a step that puts the noise at the threshold."""
+    their threshold are zeroed whole; the rest are quantised with a step that puts the noise at the threshold.
+    With ``line_cut`` the encoder's low-pass cuts at the line nearest ``lowpass_hz`` (every line above it zeroed,
+    the band that holds it coded up to it) instead of at a band edge."""
     n2 = 2 * n_lines
     cmat = _mdct_matrix(n_lines)
     win = np.sin(np.pi * (np.arange(n2) + 0.5) / n2)
@@ -729,6 +742,10 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
     centre_khz = np.maximum((edges[:-1] + edges[1:]) / 2.0 * fs / n2 / 1000.0, 0.05)
     ath_db = 3.64 * centre_khz ** -0.8 - 6.5 * np.exp(-0.6 * (centre_khz - 3.3) ** 2) + 1e-3 * centre_khz ** 4 - 120.0
     top_band = nb if lowpass_hz is None else int(np.searchsorted(edges[1:] * fs / n2, lowpass_hz, side="right"))
+    cut_line = n_lines
+    if line_cut and lowpass_hz is not None:
+        cut_line = int(round(lowpass_hz / (fs / n2)))
+        top_band = int(np.searchsorted(edges[1:], cut_line, side="left")) + 1
     budget = kbps * 1000.0 * n_lines / fs
     jitter = rng.uniform(0.85, 1.15, frames)
     dist = 10.0 * np.abs(np.arange(nb)[:, None] - np.arange(nb)[None, :])
@@ -743,6 +760,7 @@ def codec_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz=None, s
             a, z = edges[b], edges[b + 1]
             step = math.sqrt(12.0 * 10 ** (thr_db[b] / 10.0))
             q[a:z] = np.round(spec[a:z] / step) * step
+        q[cut_line:] = 0.0
         out[j * n_lines:j * n_lines + n2] += (2.0 / n_lines) * (cmat @ q) * win
     return out[n_lines:n_lines + len(x)]
 
@@ -852,3 +870,300 @@ def build_codec_and_downconversion(spec, rng, seconds):
     sos = sps.butter(order, corner, fs=48000, output="sos")
     y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
     return 48000, set_rms(y, level), {"upsampled_from_hz": None, "upsampled_channels": []}, ["L", "R"]
+
+
+# ================================================================ band limits that sit on a standard Nyquist (s8fa)
+# Negatives whose fall lies at or near a lower standard rate's Nyquist frequency without being a conversion, and
+# their upsampled twins made by the same filter families.  Drawn from their own generator (the cases above keep
+# their noise).  Tool families, all written here or from scipy.signal:
+# - ``coder-wall``: the transform coder above with its encoder low-pass set at or within 2 % of a standard Nyquist
+#   (16, 22.05, 24 kHz and 11.025 kHz walls), cut line by line (the encoder zeroes every line above it) while the
+#   frame's bit budget still moves the top coded band from frame to frame below it;
+# - ``fir-<window>``: linear-phase low-passes designed with ``scipy.signal.firwin`` (Kaiser, Hamming, Blackman;
+#   63-255 taps; 18-22 kHz at 44.1, 48, 88.2 and 96 kHz);
+# - ``butter<N>-wide``: Butterworth low-passes of order 6-10 at 19-21 kHz on wideband music at 48 kHz;
+# - ``down-sinc-<window>``: short windowed-sinc polyphase down-converters (16-32 taps per phase, Kaiser or
+#   Blackman-Nuttall window, cutoff 0.9-0.99 of the new Nyquist) from 88.2, 176.4 and 192 kHz;
+# - twins (group "upsampled"): ``up-sinc-<window>`` the same short windowed-sinc designs converting up, and
+#   ``up-fir-<window>`` zero-stuffing followed by a ``firwin`` interpolation filter of the same windows and lengths.
+#: walls of the coder cases: (file rate, standard rate whose Nyquist the wall sits near, kbit/s per channel)
+WALL_CASES = ((44100, 32000, 128), (48000, 32000, 128), (96000, 48000, 192), (96000, 44100, 192),
+              (48000, 44100, 160), (44100, 22050, 48), (48000, 22050, 48), (88200, 44100, 192))
+#: down-conversions of the short-filter family (source rate, file rate)
+SHORT_DOWN_CONVERSIONS = ((192000, 48000), (192000, 96000), (176400, 44100), (88200, 44100), (176400, 88200),
+                          (192000, 44100))
+#: short windowed-sinc designs: (window, taps per phase, cutoff re the lower rate's Nyquist, Kaiser beta)
+SHORT_SINC_DESIGNS = (("kaiser", 32, 0.97, 9.0), ("nuttall", 32, 0.97, 0.0), ("kaiser", 16, 0.93, 6.0),
+                      ("nuttall", 24, 0.95, 0.0), ("kaiser", 24, 0.99, 8.0), ("nuttall", 16, 0.90, 0.0))
+FIR_WINDOWS = ("kaiser", "hamming", "blackman")
+
+
+def short_sinc(window: str, zero_crossings: int, cutoff: float, beta: float, m: int) -> np.ndarray:
+    """A windowed sinc, ``zero_crossings`` periods of the lower rate long (taps per phase), its -6 dB point
+    ``cutoff`` of the lower rate's Nyquist; ``m`` is the polyphase factor (the high rate over the lower one, as
+    ``resample_poly`` counts it).  The published polyphase method: h[n] = c/m sinc(c n / m) w[n]."""
+    n_taps = zero_crossings * m + 1
+    n = np.arange(n_taps) - (n_taps - 1) / 2.0
+    win = sps.get_window(("kaiser", beta) if window == "kaiser" else window, n_taps, fftbins=False)
+    h = (cutoff / m) * np.sinc(cutoff * n / m) * win
+    return h / np.sum(h)
+
+
+def short_sinc_convert(x: np.ndarray, src: int, dst: int, design) -> np.ndarray:
+    """Convert one channel from ``src`` to ``dst`` (either way) with :func:`short_sinc`'s design."""
+    window, taps, cutoff, beta = design
+    fr = Fraction(dst, src)
+    up, down = fr.numerator, fr.denominator
+    return sps.resample_poly(x, up, down, window=short_sinc(window, taps, cutoff, beta, max(up, down)))
+
+
+def fir_upsample(x: np.ndarray, src: int, dst: int, taps: int, window: str, cutoff: float) -> np.ndarray:
+    """Zero-stuffing by the integer factor ``dst / src`` and a ``firwin`` low-pass (``taps`` at the new rate,
+    its -6 dB point ``cutoff`` of the old Nyquist) as the interpolation filter."""
+    up = dst // src
+    win = ("kaiser", 8.0) if window == "kaiser" else window
+    h = sps.firwin(taps, cutoff * src / 2.0, window=win, fs=float(dst)) * up
+    y = np.zeros(len(x) * up)
+    y[::up] = x
+    return sps.lfilter(h, 1.0, y)
+
+
+def _plan_band_limits(seed: int, quick: bool):
+    """(name, family, group, spec) of the band limits at a standard Nyquist and their upsampled twins."""
+    rng = np.random.default_rng([int(seed), 23])
+    mats = ("music", "noise", "speech", "dull")
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    for fs, near, kbps in (WALL_CASES if not quick else WALL_CASES[::3]):
+        wall = near / 2.0 * float(rng.uniform(0.98, 1.0))
+        mat = pick(("music", "noise", "music", "dull"))
+        plan.append((f"wall_{fs}_{int(round(wall))}_{kbps}k_{mat}", "coder-wall", "codec-shelf",
+                     ("wall", fs, kbps, wall, mat, pick([1, 2]), float(rng.uniform(-26.0, -10.0)))))
+    for fs in ((44100, 48000, 88200, 96000) if not quick else (48000, 96000)):
+        for window in (FIR_WINDOWS if not quick else (pick(FIR_WINDOWS),)):
+            taps = int(pick((63, 101, 127, 255)))
+            corner = round(float(rng.uniform(18000.0, min(22000.0, 0.45 * fs))) / 100.0) * 100.0
+            plan.append((f"firlp_{window}{taps}_{corner / 1000:g}k_{fs}", f"fir-{window}", "lowpass",
+                         ("firlp", fs, taps, window, corner, pick(mats), float(rng.uniform(-26.0, -8.0)))))
+    for order in ((6, 7, 8, 9, 10) if not quick else (8,)):
+        corner = round(float(rng.uniform(19000.0, 21000.0)) / 100.0) * 100.0
+        plan.append((f"bwide{order}_{corner / 1000:g}k_48000", f"butter{order}-wide", "lowpass",
+                     ("bwide", order, corner, bool(rng.integers(0, 2)), float(rng.uniform(-22.0, -8.0)))))
+    for i, (src, dst) in enumerate(SHORT_DOWN_CONVERSIONS if not quick else SHORT_DOWN_CONVERSIONS[:2]):
+        design = SHORT_SINC_DESIGNS[(i + int(seed)) % len(SHORT_SINC_DESIGNS)]
+        tag = f"{design[0]}{design[1]}c{int(round(design[2] * 100))}"
+        plan.append((f"sdown_{tag}_{src}_to_{dst}", f"down-sinc-{design[0]}", "downconverted",
+                     ("sdown", src, dst, design, pick(("music", "noise", "hires", "hires")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    # the twins: the same short designs and FIR families converting up
+    ups = ((44100, 96000), (48000, 96000), (44100, 48000), (22050, 44100), (48000, 192000), (32000, 48000))
+    for i, (src, dst) in enumerate(ups if not quick else ups[:2]):
+        design = SHORT_SINC_DESIGNS[(i + 2 * int(seed)) % len(SHORT_SINC_DESIGNS)]
+        tag = f"{design[0]}{design[1]}c{int(round(design[2] * 100))}"
+        plan.append((f"sup_{tag}_{src}_to_{dst}", f"up-sinc-{design[0]}", "upsampled",
+                     ("sup", src, dst, design, pick(("music", "noise", "speech")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    for i, (src, dst) in enumerate(((44100, 88200), (48000, 96000), (24000, 48000), (48000, 192000))[
+            :(4 if not quick else 2)]):
+        window = FIR_WINDOWS[(i + int(seed)) % len(FIR_WINDOWS)]
+        taps = int(pick((63, 127, 255))) * (dst // src // 2)
+        plan.append((f"fup_{window}{taps}_{src}_to_{dst}", f"up-fir-{window}", "upsampled",
+                     ("fup", src, dst, taps, window, float(rng.uniform(0.92, 0.99)), pick(("music", "noise")),
+                      float(rng.uniform(-26.0, -8.0)))))
+    # the brick walls' twins: whole-file DFT zero-padding, whose wall sits at the old Nyquist to the bin
+    for src, dst in (((32000, 48000), (44100, 96000), (48000, 96000), (22050, 44100)) if not quick
+                     else ((32000, 48000),)):
+        plan.append((f"dftup_{src}_to_{dst}", "up-dft-numpy", "upsampled",
+                     ("dftup", src, dst, pick(("music", "noise", "speech")), pick([1, 2]),
+                      float(rng.uniform(-26.0, -8.0)))))
+    return plan
+
+
+def dft_upsample(x: np.ndarray, src: int, dst: int) -> np.ndarray:
+    """Convert one channel up by zero-padding its whole-file DFT (written here): every bin above the old
+    Nyquist frequency is exactly zero, and the old Nyquist bin is split between its two images."""
+    n = len(x)
+    m = int(round(n * dst / src))
+    spec = np.fft.rfft(x)
+    out = np.zeros(m // 2 + 1, dtype=complex)
+    out[:len(spec)] = spec
+    if n % 2 == 0:
+        out[n // 2] *= 0.5
+    return np.fft.irfft(out, m) * (m / n)
+
+
+def build_band_limits(spec, rng, seconds):
+    """Audio and labels of one case of :func:`_plan_band_limits`."""
+    kind = spec[0]
+    neg = {"upsampled_from_hz": None, "upsampled_channels": []}
+    if kind == "wall":
+        _k, fs, kbps, wall, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([codec_roundtrip(x[:, c], fs, kbps, rng, lowpass_hz=wall, line_cut=True) for c in range(ch)],
+                     axis=1)
+        return fs, y, neg, default_labels(ch)
+    if kind == "firlp":
+        _k, fs, taps, window, corner, mat, level = spec
+        win = ("kaiser", float(rng.uniform(6.0, 10.0))) if window == "kaiser" else window
+        h = sps.firwin(taps, corner, window=win, fs=fs)
+        x = np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(2)], axis=1)
+        return fs, set_rms(sps.lfilter(h, 1.0, x, axis=0), level), neg, ["L", "R"]
+    if kind == "bwide":
+        _k, order, corner, zp, level = spec
+        x = np.stack([material("music", 48000, seconds, rng) for _ in range(2)], axis=1)
+        sos = sps.butter(order, corner, fs=48000, output="sos")
+        y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
+        return 48000, set_rms(y, level), neg, ["L", "R"]
+    if kind == "dftup":
+        _k, src, dst, mat, ch, level = spec
+        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+        y = np.stack([dft_upsample(x[:, c], src, dst) for c in range(ch)], axis=1)
+        return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+    if kind in ("sdown", "sup"):
+        _k, src, dst, design, mat, ch, level = spec
+        mk = down_material if kind == "sdown" else material
+        x = set_rms(np.stack([mk(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([short_sinc_convert(x[:, c], src, dst, design) for c in range(ch)], axis=1)
+        return dst, y, (neg if kind == "sdown" else {"upsampled_from_hz": src}), default_labels(ch)
+    _k, src, dst, taps, window, cutoff, mat, level = spec
+    x = set_rms(material(mat, src, seconds, rng)[:, None], level)
+    return dst, fir_upsample(x[:, 0], src, dst, taps, window, cutoff)[:, None], {"upsampled_from_hz": src}, ["M"]
+
+
+# ================================================================ low source rates (own section)
+# Sources of 8-44.1 kHz converted up to 44.1-192 kHz on speech, sparse and narrow-band material (programme that ends
+# well below the old Nyquist frequency, over the recording's own noise floor, which fills the band up to it), and on
+# wideband material: the cases where the next standard rate up is the tempting wrong answer.  Converters: scipy
+# resample_poly (its default Kaiser design), libsamplerate's sinc converters, and interpolators written here from
+# their published methods: Keys' cubic convolution (a = -0.5), the cubic B-spline used directly as the
+# interpolation kernel (no prefilter: a smoothing cubic whose response, sinc^4, is already 5 dB down at half the old
+# Nyquist frequency), a nearest-phase polyphase windowed-sinc converter
+# (a bank of N phases, each output sample computed with the phase nearest its position, no interpolation between
+# phases), sample hold and straight lines at any ratio.  Drawn from their own generator (the cases above keep theirs).
+LOW_SOURCES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100)
+LOW_FAMILIES = ("scipy-resample_poly-kaiser5", "libsamplerate-sinc_best", "libsamplerate-sinc_medium",
+                "libsamplerate-sinc_fastest", "keys-cubic", "nearest-phase", "hold", "linear", "bspline-cubic")
+LOW_MATERIALS = ("speech", "sparse", "narrow", "narrow-speech", "music", "noise")
+#: nearest-phase converters: (phases, zero crossings either side, cutoff re the source Nyquist, Kaiser beta)
+NEAREST_PHASE_DESIGNS = ((32, 8, 0.91, 7.0), (64, 16, 0.95, 8.0), (256, 16, 0.97, 9.0), (1024, 32, 0.97, 10.0),
+                         (128, 12, 0.9, 6.0))
+
+
+def keys_cubic_weights(t: np.ndarray, a: float = -0.5) -> np.ndarray:
+    """Keys' cubic convolution kernel at the four offsets ``1 + t, t, 1 - t, 2 - t`` (``0 <= t < 1``), rows
+    (n, 4) for samples ``i - 1 .. i + 2``: ``W(s) = (a + 2)|s|^3 - (a + 3)|s|^2 + 1`` for ``|s| <= 1``,
+    ``a|s|^3 - 5a|s|^2 + 8a|s| - 4a`` for ``1 < |s| < 2``, 0 beyond."""
+    def w(s):
+        s = np.abs(s)
+        inner = (a + 2.0) * s ** 3 - (a + 3.0) * s ** 2 + 1.0
+        outer = a * s ** 3 - 5.0 * a * s ** 2 + 8.0 * a * s - 4.0 * a
+        return np.where(s <= 1.0, inner, np.where(s < 2.0, outer, 0.0))
+    return np.stack([w(1.0 + t), w(t), w(1.0 - t), w(2.0 - t)], axis=-1)
+
+
+def bspline_cubic_weights(t: np.ndarray) -> np.ndarray:
+    """The cubic B-spline ``B(s) = 2/3 - s^2 + |s|^3 / 2`` (``|s| < 1``), ``(2 - |s|)^3 / 6`` (``1 <= |s| < 2``) at
+    the offsets of :func:`keys_cubic_weights` (rows (n, 4))."""
+    def w(s):
+        s = np.abs(s)
+        return np.where(s < 1.0, 2.0 / 3.0 - s ** 2 + 0.5 * s ** 3, np.where(s < 2.0, (2.0 - s) ** 3 / 6.0, 0.0))
+    return np.stack([w(1.0 + t), w(t), w(1.0 - t), w(2.0 - t)], axis=-1)
+
+
+def keys_cubic(x: np.ndarray, src: int, dst: int, a: float = -0.5, kernel=None) -> np.ndarray:
+    """Upsample ``x`` from ``src`` to ``dst`` by cubic convolution (Keys' kernel, :func:`keys_cubic_weights`, or
+    ``kernel(t)`` giving the four weights)."""
+    n_out = len(x) * dst // src
+    pos = np.arange(n_out) * (src / dst)
+    i = np.floor(pos + 1e-9).astype(np.int64)
+    wts = keys_cubic_weights(pos - i, a) if kernel is None else kernel(pos - i)
+    xp = np.concatenate([x[:1], x, x[-1:], x[-1:]])
+    return sum(wts[:, j] * xp[i + j] for j in range(4))
+
+
+def nearest_phase_kernel(phases: int, zeros: int, cutoff: float, beta: float) -> np.ndarray:
+    """Rows ``p = 0 .. phases`` (fractional offset ``p / phases`` of an input sample), columns the ``2 zeros``
+    input samples ``i - zeros + 1 .. i + zeros`` around it: a Kaiser-windowed sinc with its -6 dB point at
+    ``cutoff`` of the source Nyquist frequency, each row normalised to unit DC gain."""
+    t = np.arange(phases + 1)[:, None] / phases
+    j = np.arange(-zeros + 1, zeros + 1)[None, :]
+    d = t - j                              # distance from the output position to input sample i + j
+    win = np.i0(beta * np.sqrt(np.clip(1.0 - (d / zeros) ** 2, 0.0, None))) / np.i0(beta)
+    h = cutoff * np.sinc(cutoff * d) * win
+    return h / h.sum(axis=1, keepdims=True)
+
+
+def nearest_phase(x: np.ndarray, src: int, dst: int, design) -> np.ndarray:
+    """Upsample ``x`` from ``src`` to ``dst`` with a polyphase windowed sinc of ``design`` (phases, zero
+    crossings, cutoff, beta): every output sample uses the phase nearest its position, no interpolation."""
+    phases, zeros, cutoff, beta = design
+    bank = nearest_phase_kernel(phases, zeros, cutoff, beta)
+    n_out = len(x) * dst // src
+    # exact positions (k * src / dst input samples): the phase pattern repeats exactly
+    step_num, step_den = Fraction(src, dst).numerator, Fraction(src, dst).denominator
+    k = np.arange(n_out, dtype=np.int64) * step_num
+    i = k // step_den
+    p = np.rint((k % step_den) * phases / step_den).astype(np.int64)
+    i = i + (p == phases)
+    p = np.where(p == phases, 0, p)
+    xp = np.concatenate([np.zeros(zeros), x, np.zeros(zeros + 1)])
+    y = np.zeros(n_out)
+    for c, j in enumerate(range(-zeros + 1, zeros + 1)):
+        y += bank[p, c] * xp[i + j + zeros]
+    return y
+
+
+def low_material(kind: str, fs: int, seconds: float, rng) -> np.ndarray:
+    """Material at a low source rate ``fs``: :func:`material`'s speech, sparse, music and noise, and ``narrow``
+    / ``narrow-speech`` (music or speech low-passed at 0.5-0.8 of the Nyquist frequency by a Butterworth of order
+    4-8, over a noise floor 45-65 dB down that reaches the Nyquist frequency: a narrow recording's own hiss)."""
+    if not kind.startswith("narrow"):
+        return material(kind, fs, seconds, rng)
+    x = material("speech" if kind == "narrow-speech" else "music", fs, seconds, rng)
+    corner = float(rng.uniform(0.5, 0.8)) * fs / 2.0
+    x = sps.sosfilt(sps.butter(int(rng.integers(4, 9)), corner, fs=fs, output="sos"), x)
+    x = x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+    x = x + 10 ** (-float(rng.uniform(45.0, 65.0)) / 20.0) * _tilted_noise(len(x), fs, rng, 0.0)
+    return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+
+
+def low_upsample(x: np.ndarray, src: int, dst: int, family: str, design=None) -> np.ndarray:
+    if family == "keys-cubic":
+        return keys_cubic(x, src, dst)
+    if family == "bspline-cubic":
+        return keys_cubic(x, src, dst, kernel=bspline_cubic_weights)
+    if family == "nearest-phase":
+        return nearest_phase(x, src, dst, design)
+    return upsample(x, src, dst, family)
+
+
+def _plan_low_rates(seed: int, quick: bool):
+    """(name, family, group, spec) of the low-source-rate positives (group "upsampled-low-rate")."""
+    rng = np.random.default_rng([int(seed), 23])
+    plan = []
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    for fi, family in enumerate(LOW_FAMILIES):
+        sources = LOW_SOURCES_HZ if not quick else LOW_SOURCES_HZ[fi % 3::3]
+        for src in sources:
+            targets = [r for r in (44100, 48000, 88200, 96000, 176400, 192000) if r > src]
+            dst = pick(targets)
+            mat = pick(LOW_MATERIALS)
+            ch = pick([1, 1, 2])
+            design = pick(NEAREST_PHASE_DESIGNS) if family == "nearest-phase" else None
+            tag = family if design is None else f"nearest-phase{design[0]}"
+            plan.append((f"lr_{tag}_{src}_to_{dst}_{mat}_{ch}ch", tag, "upsampled-low-rate",
+                         ("lowrate", src, dst, family, design, mat, ch, float(rng.uniform(-30.0, -8.0)))))
+    return plan
+
+
+def build_low_rates(spec, rng, seconds):
+    _k, src, dst, family, design, mat, ch, level = spec
+    x = set_rms(np.stack([low_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+    y = np.stack([low_upsample(x[:, c], src, dst, family, design) for c in range(ch)], axis=1)
+    return dst, y, {"upsampled_from_hz": src}, default_labels(ch)

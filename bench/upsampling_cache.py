@@ -52,11 +52,14 @@ def build(args) -> int:
 
 
 def rescore(row) -> dict:
-    from masterqc.measure import bandwidth, provenance
+    from masterqc.measure import bandwidth
+    from masterqc.measure.registry import post_steps
     m = dict(row["m"])
     if row["fe"] is not None:
         m.update(bandwidth.assess(row["fe"], row["info"]).measurements())
-    return provenance.combine(m)
+    for step in post_steps():
+        m = step(m)
+    return m
 
 
 def score(args) -> int:

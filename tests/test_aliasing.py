@@ -395,8 +395,10 @@ def test_a_naive_jump_is_sample_sharp_and_a_band_limited_one_is_not():
     """Analytic: a naive ramp-and-jump (sawtooth samples) fits a smooth curve plus a step between two
     samples exactly, so its residual is at rounding level.  The sampled ideal band-limited step
     1/2 + Si(pi*(n - a))/pi rings around the jump (Gibbs: about 9 % overshoot near it) wherever the
-    jump falls between samples, so its residual stays above twice STEP_MAX_RESIDUAL (the least,
-    about 0.0215 of the jump, for a jump halfway between two samples)."""
+    jump falls between samples, so its residual stays well above STEP_MAX_RESIDUAL: the least, about
+    0.0187 of the jump with the cubic smooth curve (STEP_POLY_DEGREE), for a jump halfway between two
+    samples, where the step is odd-symmetric about the gap and the cubic's odd terms take up the most of
+    the ringing (computed from the formula above; 0.0215 with a quadratic)."""
     n = 200
     ramp = 0.004 * np.arange(n)
     naive = ramp - 0.8 * (np.arange(n) >= 100)
@@ -404,11 +406,15 @@ def test_a_naive_jump_is_sample_sharp_and_a_band_limited_one_is_not():
     j = int(np.argmax(np.abs(jump)))
     assert idx[j] == 99 and jump[j] == pytest.approx(-0.8, abs=1e-9)
     assert resid[j] < 1e-9
+    least = []
     for at in np.linspace(0.0, 0.95, 20):
         x = ramp + 0.8 * _band_limited_step(n, 100 + at)
         idx, jump, resid = al.sharp_steps(x)
         big = np.abs(jump) > 0.4
-        assert big.any() and np.all(resid[big] > 2.0 * al.STEP_MAX_RESIDUAL), (at, resid[big])
+        assert big.any() and np.all(resid[big] > 1.8 * al.STEP_MAX_RESIDUAL), (at, resid[big])
+        least.append(float(resid[big].min()))
+    assert min(least) == pytest.approx(0.0187, abs=0.0005)
+    assert int(np.argmin(least)) == 10    # at = 0.5: halfway between two samples
 
 
 def test_step_alias_ratio_matches_the_sawtooth_fourier_series():
@@ -855,3 +861,74 @@ def test_linear_interpolation_is_found_by_its_lines_and_its_twin_is_not(rng):
     assert lp_t > -3.0
     assert _run(y, 32000)["aliasing_detected"] is True
     assert _run(twin, 32000)["aliasing_detected"] is not True
+
+
+# ---------------------------------------------------------------- ring modulation (naive oscillator times a sine)
+def _ring_saw_sine(fs: int, seconds: float, f0: float, f2: float, naive: bool) -> np.ndarray:
+    """A sawtooth at f0 multiplied by a sine at f2.  Naive: the sawtooth evaluated at the sample instants
+    (a jump of 2 every period).  Band-limited: by the product identity
+    sin(a)*sin(b) = (cos(a - b) - cos(a + b))/2, the sawtooth's harmonic k, (2/(pi k))*(-1)^(k+1)*sin(k*w0*t),
+    times sin(w2*t) is two lines at k*f0 - f2 and k*f0 + f2; only those below 0.95 of Nyquist are summed."""
+    t = np.arange(int(seconds * fs)) / fs
+    if naive:
+        return 0.5 * (2.0 * np.mod(f0 * t, 1.0) - 1.0) * np.sin(2 * math.pi * f2 * t)
+    out = np.zeros(t.size)
+    for k in range(1, int((0.95 * fs / 2 + f2) // f0) + 1):
+        a = 2.0 / (math.pi * k) * (-1) ** (k + 1)
+        for sign in (-1.0, 1.0):
+            f = k * f0 + sign * f2
+            if 0.0 < abs(f) < 0.95 * fs / 2:
+                out += 0.5 * a * (-sign) * 0.5 * np.cos(2 * math.pi * f * t)
+    return out
+
+
+def test_a_steep_smooth_stretch_is_no_jump_candidate():
+    """Analytic: the differences of A*sin(w*n) peak at 2*A*sin(w/2) and, two samples on, are that times
+    cos(2*w); below fs/12 (w < pi/6) the peak never reaches STEP_JUMP_CONTRAST = 2 times the differences two
+    samples either side, however large A is, so a loud sine up to fs/12 gives no jump candidate at all."""
+    fs = 48000
+    n = np.arange(fs // 10)
+    for f in (fs / 40.0, fs / 20.0, fs / 13.0):
+        idx, _jump, _resid = al.sharp_steps(0.9 * np.sin(2 * math.pi * f * n / fs + 0.3))
+        assert idx.size == 0, f
+    assert 1.0 / math.cos(4 * math.pi / 13.0) < al.STEP_JUMP_CONTRAST < 1.0 / math.cos(4 * math.pi / 11.0)
+
+
+@pytest.mark.parametrize("f2", [1300.0, 1900.0])
+def test_ring_modulated_naive_saw_is_found_by_its_jumps_and_its_band_limited_twin_is_not(f2, monkeypatch):
+    """A naive sawtooth times a sine (ring modulation) jumps by 2*0.5*sin(w2*t) at every sawtooth wrap, with
+    smooth curves either side that bend at the sine's rate: the cubic smooth curve (STEP_POLY_DEGREE) takes
+    them up to about 2 kHz at 48 kHz, where a quadratic takes none, and the jump-contrast rule keeps the
+    sine's steep stretches out of the share.  The band-limited twin (the product's lines k*f0 +- f2 below
+    Nyquist, by the product identity) has no sample-sharp jump and is not called folded."""
+    fs, f0 = 48000, 233.3
+    x = _ring_saw_sine(fs, 4.0, f0, f2, True)
+    naive = _run(x, fs)
+    d = naive["aliasing_detail"]
+    assert naive["aliasing_detected"] is True
+    assert d["sharp_steps"] >= al.MIN_SHARP_STEPS and d["sharp_steps"] >= al.MIN_SHARP_SHARE * d["steps_fitted"], d
+    twin = _run(_ring_saw_sine(fs, 4.0, f0, f2, False), fs)
+    assert twin["aliasing_detail"]["sharp_steps"] == 0
+    assert twin["aliasing_detected"] is not True
+    a2, p2 = al._step_design(degree=2)
+    monkeypatch.setattr(al, "_STEP_A", a2)
+    monkeypatch.setattr(al, "_STEP_PINV", p2)
+    assert _run(x, fs)["aliasing_detail"]["sharp_steps"] == 0
+
+
+@pytest.fixture(scope="module")
+def modulation_slice():
+    return [(case, _run(case.audio[:, 0], case.rate_hz)) for case in tuning.modulation_cases(1000, quick=True)]
+
+
+def test_modulation_slice_naive_voices_with_jumps_are_found_and_band_limited_twins_are_not(modulation_slice):
+    """Target (issue): found on naive synthesis, 0 false alarms on band-limited synthesis.  Ring modulation
+    of a naive oscillator by a sine, PWM and swept hard sync jump between two samples (found); their twins
+    rendered at 8x and cut to Nyquist in the FFT domain are not called folded, nor is a band-limited
+    two-operator FM voice.  (A naive FM voice, smooth at every sample, is not found: left open.)"""
+    jumps = [(c, m) for c, m in modulation_slice if c.expect["aliasing_detected"] and "-fm-" not in c.name]
+    assert len(jumps) == 4
+    assert [c.name for c, m in jumps if m["aliasing_detected"] is not True] == []
+    twins = [(c, m) for c, m in modulation_slice if c.group == "band-limited-synth"]
+    assert len(twins) == 5
+    assert [c.name for c, m in twins if m["aliasing_detected"] is True] == []

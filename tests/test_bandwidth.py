@@ -903,3 +903,121 @@ def test_coherence_alone_does_not_name_a_source_below_a_band_limit():
     imaging[0]["image_level_db"] = -73.6
     imaged = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": 9480.0, "imaging": imaging})
     assert imaged["upsampled_from_hz"] == 24000
+
+
+def _line_cut_coder(x, fs, cut_hz, n_lines=1024):
+    """A transform coder's fixed low-pass, reduced to what matters here (numpy): frames of ``2 n_lines`` samples
+    with a sine window for analysis and synthesis at 50 % overlap (the squares of the window sum to one, so the
+    frames add back to the input exactly, analytic), every DFT line at or above ``cut_hz`` zeroed in every frame.
+    The wall sits at the cut line by construction; the synthesis window's side lobes spread each frame's coded
+    lines above it."""
+    n2 = 2 * n_lines
+    win = np.sin(np.pi * (np.arange(n2) + 0.5) / n2)
+    pad = np.concatenate([np.zeros(n_lines), x, np.zeros(n2)])
+    out = np.zeros(pad.size)
+    cut = int(round(cut_hz / (fs / n2)))
+    for j in range(0, pad.size - n2 + 1, n_lines):
+        spec = np.fft.rfft(pad[j:j + n2] * win)
+        spec[cut:] = 0.0
+        out[j:j + n2] += np.fft.irfft(spec, n2) * win
+    return out[n_lines:n_lines + x.size]
+
+
+def test_coder_wall_on_a_standard_nyquist_is_a_band_limit():
+    # A coder's fixed low-pass at 15.97 kHz in a 48 kHz file (0.998 of 32 kHz's Nyquist: a brick wall where an
+    # FFT resampler from 32 kHz would put one).  The resampler zeroes every bin above the old Nyquist, so only the
+    # format's floor lies above its wall (test_brick_wall_at_a_standard_nyquist_names_that_rate); the coder leaves
+    # the leakage of its synthesis window there, the programme a fixed depth down in every frame.
+    fs = 48000
+    rng = np.random.default_rng(61)
+    x = 0.1 * rng.standard_normal((int(fs * 1.5), 2))
+    y = quantise24(np.stack([_line_cut_coder(x[:, c], fs, 15970.0) for c in range(2)], axis=1), rng)
+    fe = SpectralFrontEnd(fs, 2, y.shape[0])
+    fe.process(y)
+    res = fe.finish()
+    info = info_for(fs, 2, y.shape[0], 24, False, None)
+    # the whole file's fall alone is a brick wall at 32 kHz's Nyquist (within BRICK_WALL_RATIO_TOLERANCE)
+    whole = bw.assess_power(res.ltas_total, res.bin_hz, fs, res.frame_length, info, frames=res.frames)
+    assert whole.upsampled_from_hz == 32000 and whole.brick, whole.note
+    assert abs(whole.effective_bandwidth_hz / 16000.0 - 1.0) <= bw.BRICK_WALL_RATIO_TOLERANCE
+    depth, above = bw.stop_band_content(res, bw.format_floor_db(24, False, res.frame_length), 32000)
+    # the sine window's side lobes fall 12 dB per octave from -23 dB (analytic, a half-cycle cosine's transform):
+    # 1-5 kHz above the cut (43-213 lines of 23.4 Hz) they lie 88-116 dB down, far over the 24-bit floor here
+    assert above > bw.STOP_CONTENT_MAX_ABOVE_FLOOR_DB and 60.0 < depth < 120.0
+    r = bw.assess(res, info)
+    assert r.upsampled_from_hz is None and r.band_limit_hz == pytest.approx(15970.0, abs=60.0), r.note
+    assert "brick wall" in r.note and r.channels == []
+
+
+def test_ideal_brick_wall_leaves_only_the_floor_above_it():
+    # the other side: the ideal (DFT zero-padding) upsampler's wall from 32 kHz has nothing above it but the
+    # format's floor (every bin above 16 kHz is zero by construction, then 24-bit quantisation with TPDF dither)
+    rng = np.random.default_rng(62)
+    x = 0.1 * rng.standard_normal((int(32000 * 1.5), 2))
+    y = quantise24(np.stack([_brick_wall_upsample(x[:, c], 32000, 48000) for c in range(2)], axis=1), rng)
+    fe = SpectralFrontEnd(48000, 2, y.shape[0])
+    fe.process(y)
+    res = fe.finish()
+    _depth, above = bw.stop_band_content(res, bw.format_floor_db(24, False, res.frame_length), 32000)
+    # TPDF dither is twice the power of the rounding noise the floor assumes (analytic: 3 dB), the rest is the
+    # histogram's 1 dB steps and the median's bias
+    assert above < 6.0
+    r = bw.assess(res, info_for(48000, 2, y.shape[0]))
+    assert r.upsampled_from_hz == 32000 and r.brick, r.note
+
+
+def _sampling_measure(y, fs):
+    from corpus_sampling import analyse
+    from masterqc.measure.imaging import ImagingAnalyzer
+    from masterqc.measure.spectral import SamplingSpectrumAnalyzer
+    return analyse(y, fs, [SamplingSpectrumAnalyzer, ImagingAnalyzer])
+
+
+def test_fir_low_pass_without_images_is_not_a_conversion():
+    # A linear-phase FIR low-pass (scipy firwin, 255 taps, Hamming window, 21 kHz) on noise at 88.2 kHz: its fall
+    # sits where a converter's from 44.1 kHz would (-6 dB at the cut-off, 0.95 of 22.05 kHz: firwin's windowed
+    # sinc is -6 dB there), and the Hamming window's side lobes (at most -53 dB, scipy's response) keep the
+    # programme's own content above 22.05 kHz far over the floor; that content has no images of the band below
+    # it.  The twin is a 2x upsampler from 44.1 kHz with the same filter as its interpolation filter: its stop band
+    # holds images of the content, and it is found.
+    fs = 88200
+    h = sps.firwin(255, 21000.0, window="hamming", fs=fs)
+    _w, H = sps.freqz(h, worN=np.array([21000.0, 23000.0, 30000.0, 40000.0]), fs=fs)
+    g = 20 * np.log10(np.abs(H))
+    assert g[0] == pytest.approx(-6.02, abs=0.1) and np.all(g[1:] < -50.0)
+    rng = np.random.default_rng(63)
+    x = sps.lfilter([1.0], [1.0, -0.5], 0.1 * rng.standard_normal((int(fs * 1.5), 2)), axis=0)
+    y = quantise24(sps.lfilter(h, 1.0, x, axis=0), rng)
+    # the cliff alone names 44.1 kHz, with the programme well over the floor above 22.05 kHz
+    alone = bw.assess(*_front_end(y, fs))
+    assert alone.upsampled_from_hz == 44100 and alone.edge_ratio == pytest.approx(0.95, abs=0.02), alone.note
+    assert alone.stop_band_over_floor_db > bw.STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB
+    m = _sampling_measure(y, fs)
+    assert m["upsampled_from_hz"] is None and m["band_limit_hz"] is not None, m["bandwidth_note"]
+    assert "no images" in m["bandwidth_note"] and m["upsampled_channels"] == []
+    src = sps.lfilter([1.0], [1.0, -0.5], 0.1 * rng.standard_normal((int(44100 * 1.5), 2)), axis=0)
+    up = np.zeros((src.shape[0] * 2, 2))
+    up[::2] = 2.0 * src
+    m2 = _sampling_measure(quantise24(sps.lfilter(h, 1.0, up, axis=0), rng), fs)
+    assert m2["upsampled_from_hz"] == 44100, m2["bandwidth_note"]
+
+
+def _front_end(y, fs):
+    fe = SpectralFrontEnd(fs, y.shape[1], y.shape[0])
+    fe.process(y)
+    return fe.finish(), info_for(fs, y.shape[1], y.shape[0])
+
+
+def test_cliff_needs_images_leaves_other_verdicts_alone():
+    # house rule (cliff_needs_images): only a cliff read on the whole file with its stop band over
+    # STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB, at a rate the imaging analysis tested without a trace or defect, is undone
+    base = {"upsampled_from_hz": 44100, "upsampled_evidence": "cliff", "effective_bandwidth_hz": 21540.0,
+            "upsampled_stop_band_over_floor_db": 40.0, "upsampled_channels": ["L", "R"],
+            "imaging": [{"source_rate_hz": 44100.0, "verdict": "none"}]}
+    out = bw.cliff_needs_images(dict(base))
+    assert out["upsampled_from_hz"] is None and out["band_limit_hz"] == 21540.0 and out["upsampled_channels"] == []
+    for change in ({"imaging": [{"source_rate_hz": 44100.0, "verdict": "trace"}]},
+                   {"imaging": [{"source_rate_hz": 48000.0, "verdict": "none"}]},
+                   {"upsampled_stop_band_over_floor_db": bw.STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB},
+                   {"upsampled_evidence": "images"}):
+        assert bw.cliff_needs_images(dict(base, **change))["upsampled_from_hz"] == 44100, change

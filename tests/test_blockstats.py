@@ -161,3 +161,65 @@ def test_silence_analyzer_gives_the_same_runs_without_the_compiled_kernels(monke
     without = run()
     assert with_kernel == without
     assert with_kernel["dropout_count"] == 3
+
+
+# --- the loudness meter's stereo power kernel (masterqc/measure/loudness.py) ----------------------
+def compiled_stereo_power():
+    module = iir.own_module()
+    fn = getattr(module, "stereo_power", None) if module is not None else None
+    if fn is None:
+        pytest.skip("the optional compiled module is not built here")
+    return fn
+
+
+@pytest.mark.parametrize("n", [1, 5, 8, 129, 4800, 65536])
+def test_compiled_stereo_power_equals_numpy_steps_bit_for_bit(n):
+    # energies (np.square then .sum(axis=1)), the (1, 1) channel sum and the 1 ms tick sums
+    # (np.add.reduceat) with the rest after the last boundary: numpy's steps are the definition
+    from masterqc.measure import loudness
+    fn = compiled_stereo_power()
+    rng = np.random.default_rng(n)
+    for trial in range(4):
+        y = np.ascontiguousarray(rng.standard_normal((2, n)) * 10.0 ** rng.integers(-6, 1))
+        if trial == 1:
+            y[:, : n // 2] = -0.0
+        if trial == 2 or n < 3:
+            seg, end = None, 0                           # no tick ends in the block
+        else:
+            step = int(rng.integers(1, 60))
+            end = int(rng.integers(max(1, n // 2), n + 1))
+            seg = np.arange(0, end, step, dtype=np.int64)
+            if seg[-1] >= end:
+                seg = seg[:-1]
+        k = 0 if seg is None else seg.size
+        p, ticks, out = np.empty(n), np.empty(k), np.empty(3)
+        fn(y, p, np.empty(0, np.int64) if seg is None else seg, ticks, out, n, k, end)
+        energy, want_ticks, rest = loudness._stereo_power_numpy(y, seg, end)
+        assert np.array_equal(out[:2], energy), (n, trial)
+        assert out[2] == rest and np.signbit(out[2]) == np.signbit(rest), (n, trial)
+        assert np.array_equal(p, y[0] * y[0] + y[1] * y[1])
+        if want_ticks is not None:
+            assert np.array_equal(ticks, want_ticks), (n, trial)
+
+
+def test_loudness_meter_gives_the_same_bits_without_the_stereo_power_kernel(monkeypatch):
+    # ITU-R BS.1770-5 stereo weights (1, 1): the meter's integrated loudness, range, maxima and
+    # channel energies are the same bits through the compiled kernel and through numpy
+    from masterqc.measure import loudness
+    compiled_stereo_power()
+    assert loudness.stereo_power_kernel() is not None
+    rng = np.random.default_rng(3)
+    x = rng.standard_normal((2, 48000 * 8)) * np.linspace(0.01, 0.5, 48000 * 8)
+    x[:, 48000:60000] = 0.0
+
+    def run():
+        meter = loudness.LoudnessMeter(48000, [1.0, 1.0])
+        for i in range(0, x.shape[1], 65531):
+            meter.process_planar(np.ascontiguousarray(x[:, i:i + 65531]))
+        return repr(meter.summary()), meter.channel_energy.copy(), meter._sub[:meter._nsub].copy()
+
+    with_kernel = run()
+    monkeypatch.setattr(loudness, "_STEREO_POWER", False)
+    without = run()
+    assert with_kernel[0] == without[0]
+    assert np.array_equal(with_kernel[1], without[1]) and np.array_equal(with_kernel[2], without[2])

@@ -122,3 +122,42 @@ def test_down_conversion_labels():
     assert not ct.ambiguous_down(192000, 48000, ("kaiser", 32, 0.97, 9.0))
     names = [n for n, _f, _g, _s in ct._plan_codec_and_downconversion(1000, quick=False)]
     assert len(names) == len(set(names))
+
+
+@pytest.mark.parametrize("design", ct.SHORT_SINC_DESIGNS)
+def test_short_sinc_is_6_db_down_at_its_cutoff(design):
+    # analytic: a windowed sinc's amplitude passes through half its pass-band gain at the sinc's cutoff (the
+    # window's transform is symmetric about it), read with scipy freqz; 0.5 dB is a house tolerance for the
+    # shortest design; the factor m = 4 is a 192 -> 48 kHz conversion
+    window, taps, cutoff, beta = design
+    h = ct.short_sinc(window, taps, cutoff, beta, 4)
+    assert abs(float(np.sum(h)) - 1.0) < 1e-12
+    g = _gain_db(h, cutoff * 24000.0, 192000)
+    assert abs(g + 6.02) <= 0.5, g
+
+
+def test_coder_wall_cuts_at_its_line():
+    # by construction: with line_cut every MDCT line above the cut is zeroed in every frame, so 1-4 kHz above it
+    # only the synthesis window's leakage remains, far below the coded band (Welch, scipy)
+    fs, wall = 48000, 15946.0
+    rng = np.random.default_rng(5)
+    x = 0.1 * rng.standard_normal(fs * 2)
+    y = ct.codec_roundtrip(x, fs, 256, rng, lowpass_hz=wall, line_cut=True)
+    f, p = sps.welch(y, fs, nperseg=4096)
+    below = 10 * np.log10(np.median(p[(f > 12000.0) & (f < 15000.0)]))
+    above = 10 * np.log10(np.median(p[(f > wall + 1000.0) & (f < wall + 4000.0)]))
+    assert below - above > 60.0, (below, above)
+    # the last coded line sits within two of the cut (23.4 Hz lines at 48 kHz)
+    k = np.nonzero(10 * np.log10(p) > below - 20.0)[0]
+    assert abs(f[k[-1]] - wall) <= 2 * fs / 4096 + 2 * fs / 2048
+
+
+def test_dft_upsampler_leaves_nothing_above_the_old_nyquist():
+    # by construction: the zero-padded spectrum has no bin above the old Nyquist (numpy's FFT, to rounding)
+    rng = np.random.default_rng(6)
+    x = rng.standard_normal(32000)
+    y = ct.dft_upsample(x, 32000, 48000)
+    spec = np.abs(np.fft.rfft(y))
+    f = np.fft.rfftfreq(y.size, 1 / 48000)
+    assert np.max(spec[f > 16001.0]) < 1e-9 * np.max(spec)
+    assert y.size == 48000

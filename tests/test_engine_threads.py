@@ -229,11 +229,16 @@ def test_opt_in_cpu_split_changes_no_result(tmp_path, monkeypatch, threads):
 
     # the engine's own parts (house choice: opt-in profiling): hash, decode, analyzer threads;
     # together with the analyzers' finish() they cannot exceed the run's CPU time either
+    # (finish_s: the finish() calls the analyzer threads took, a part of analyze_s; threaded only)
     parts = data["threads_cpu_s"]
-    assert set(parts) == {"hash_s", "read_s", "analyze_s"}
+    assert {"hash_s", "read_s", "analyze_s"} <= set(parts) <= {"hash_s", "read_s", "analyze_s", "finish_s"}
+    assert ("finish_s" in parts) == (threads > 1)
     assert parts["hash_s"] > 0.0 and parts["read_s"] > 0.0
-    assert parts["analyze_s"] >= sum(p for p, _f in data["analyzers"].values()) - 0.05
-    assert sum(parts.values()) + sum(f for _p, f in data["analyzers"].values()) <= data["process_cpu_s"] + 0.05
+    early = parts.get("finish_s", 0.0)
+    assert parts["analyze_s"] >= sum(p for p, _f in data["analyzers"].values()) + early - 0.05
+    assert early <= sum(f for _p, f in data["analyzers"].values()) + 0.01
+    assert (parts["hash_s"] + parts["read_s"] + parts["analyze_s"] - early
+            + sum(f for _p, f in data["analyzers"].values())) <= data["process_cpu_s"] + 0.05
 
 
 def test_single_thread_blas_nests_and_restores():
@@ -288,3 +293,90 @@ def test_prefetched_hash_of_a_missing_file_raises_the_read_error(tmp_path):
     with pytest.raises(AudioReadError) as err:
         measure_file(str(missing), MeasureOptions(threads=2))
     assert "nowhere.wav" in str(err.value)
+
+
+class _Slow(Analyzer):
+    """Takes its blocks slowly (so that a faster analyzer runs out of blocks first) and records
+    the order of events."""
+
+    name = "slow"
+    events: list = []
+
+    def process(self, block):
+        import time
+        time.sleep(0.01)
+        type(self).events.append("slow block")
+
+    def finish(self):
+        type(self).events.append("slow finish")
+        return AnalyzerResult(measurements={"slow_key": 1})
+
+
+class _Quick(Analyzer):
+    """Takes nothing from its peers: finished early on a worker when threaded."""
+
+    name = "quick"
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.blocks = 0
+
+    def process(self, block):
+        self.blocks += 1
+
+    def finish(self):
+        _Slow.events.append("quick finish")
+        return AnalyzerResult(measurements={"quick_blocks": self.blocks})
+
+
+class _QuickFails(_Quick):
+    name = "quick_fails"
+
+    def finish(self):
+        raise ValueError("finish failed")
+
+
+class _Binder(_Quick):
+    """Takes a figure from a peer at finish (it overrides bind): finished after the others."""
+
+    name = "binder"
+
+    def bind(self, peers):
+        self.peers = [p for p in peers if isinstance(p, _Quick) and p is not self]
+
+    def finish(self):
+        _Slow.events.append("binder finish")
+        return AnalyzerResult(measurements={"binder_sees": [p.blocks for p in self.peers]})
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_early_finish_keeps_the_order_and_the_results(tmp_path, threads):
+    # A threaded run finishes an analyzer that takes nothing from its peers as soon as it has
+    # taken the last block, while a slower one still works; the binder still finishes after
+    # every other analyzer; results are merged in the analyzers' order either way (house rule:
+    # threads change no result).
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    _Slow.events = []
+    with open_stream(str(path)) as stream:
+        m, _, _ = run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
+                                classes=[_Binder, _Slow, _Quick])
+    assert list(m) == ["binder_sees", "slow_key", "quick_blocks"]
+    assert m["quick_blocks"] == 10 and m["binder_sees"] == [10]       # 48000 frames in 4800-frame blocks
+    events = _Slow.events
+    assert events.count("slow block") == 10
+    if threads > 1:             # the quick analyzer was done long before the slow one's last block
+        assert events.index("quick finish") < len(events) - 1 - events[::-1].index("slow block")
+        assert events[-2:] == ["slow finish", "binder finish"]
+    else:                       # a sequential run finishes them in order, after the last block
+        assert events[-3:] == ["binder finish", "slow finish", "quick finish"]
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_early_finish_error_reaches_the_caller(tmp_path, threads):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    with open_stream(str(path)) as stream:
+        with pytest.raises(ValueError, match="finish failed"):
+            run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
+                          classes=[_Slow, _QuickFails])

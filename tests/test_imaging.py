@@ -358,10 +358,12 @@ def test_leaky_short_resampler_is_a_trace_not_imaging(rng, src, dst):
 def test_images_of_the_band_top_alone_are_not_judged_from_the_spectrum():
     """A hold by 2 of a tone at 0.8 of the source Nyquist frequency: its image (analytically
     20*log10 tan(0.4 pi) ... -1.9 dB) lies where a short resampler's transition band leaks too, so
-    the spectral test does not call it a defect; the sample pattern does (next test)."""
+    the spectral test does not call it a defect (a trace); the held samples do (runs of exactly 2 repeated
+    values: the imaging analyzer's own count, and the sample pattern of the next test)."""
     m = _run(hold_upsample(_tone(19200.0), R, 2 * R), 2 * R)
     c = _candidate(m, R)
-    assert c["verdict"] == "trace" and m["imaging_detected"] is False
+    assert c["evidence"] == "samples" and "the spectral test alone: trace" in c["reason"]
+    assert c["verdict"] == "defect" and m["imaging_detected"] is True
 
 
 def test_sample_pattern_makes_the_images_a_defect_with_their_predicted_level():
@@ -377,7 +379,10 @@ def test_sample_pattern_makes_the_images_a_defect_with_their_predicted_level():
     x = sum(np.sin(2 * np.pi * 1000.0 * k * t + 0.1 * k) / k for k in range(1, 17))
     x = quantise(hold_upsample(0.3 * x / np.max(np.abs(x)), R, 2 * R)[:, None], 24, np.random.default_rng(4))
     alone = _candidate(_run(x[:, 0], 2 * R), R)
-    assert alone["verdict"] == "untestable" and "periodic" in alone["reason"]
+    # the spectral test alone cannot tell; the imaging analyzer's own count of exactly repeated samples (runs of
+    # 2, a hold from 48 kHz) can
+    assert alone["verdict"] == "defect" and alone["evidence"] == "samples"
+    assert "spectral test alone: untestable (periodic" in alone["reason"]
     m = analyse(x, 2 * R, [ImagingAnalyzer, InterpolationTraceAnalyzer])
     assert m["interpolation_source_rate_hz"] == R and m["interpolation_kind"] == "hold"
     c = _candidate(m, R)
@@ -426,7 +431,7 @@ def test_a_trace_names_the_source_only_when_nothing_else_did():
     both = provenance.combine({"upsampled_from_hz": None, "imaging": imaging})
     assert both["upsampled_from_hz"] == 44100 and both["upsampled_evidence"] == "images"
     from masterqc.measure.registry import post_steps
-    assert post_steps() == [provenance.combine]
+    assert post_steps()[-1] == provenance.combine      # the trace step runs inside the last post-step
 
 
 @pytest.mark.parametrize("make", ["hold", "good", "tones"])

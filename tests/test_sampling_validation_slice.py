@@ -89,10 +89,6 @@ KNOWN_MISSES = {
         "ffmpeg's cubic resampler from 32 to 48 kHz on noise is named 16 kHz: its response is already falling at "
         "half the source's Nyquist frequency (edge at 0.50 by the corpus' own measurement) and its images about "
         "8 kHz are as strong as those about 16 kHz (found when the third held-back set was first scored)",
-    ("imaging", "corpus_validation_c"):
-        "a sample-and-hold rate reducer with a fractional step of 4.8 samples at 48 kHz (an effective 10 kHz, "
-        "not a standard rate) is not found as imaged: only standard rates are candidates (found when the third "
-        "held-back set was first scored)",
     ("folded", "corpus_validation_c"):
         "the same fractional-step sample-and-hold is not found as folded: its period is not one a conversion "
         "between standard rates makes, so the drop-pattern test does not try it (found when the third "

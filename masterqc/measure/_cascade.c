@@ -428,6 +428,136 @@ static PyObject *active_positions(PyObject *self, PyObject *args)
     return PyLong_FromSsize_t(k);
 }
 
+
+/* ---------------------------------------------------------------------------------------------
+ * Loudness power of a K-weighted stereo block with unit channel weights
+ * (masterqc/measure/loudness.py), the same bits as numpy's steps there:
+ *     energy[c] = sum of y[c]^2 over the block          (np.square, then .sum(axis=1))
+ *     p[j]      = y[0][j]^2 + y[1][j]^2                 ((1, 1) @ squares: exact either order)
+ *     ticks[i]  = sum of p over [seg[i], seg[i+1])      (np.add.reduceat(p[:end], seg), the last
+ *                                                        segment to end)
+ *     rest      = sum of p over [end, n)                (p[end:].sum(); 0.0 when empty)
+ * every sum in numpy's pairwise order (pairwise_sum below; reduceat: the first value plus the
+ * pairwise sum of the others).  p is written into the caller's buffer.  Checked against numpy
+ * on load (loudness.py); numpy's steps run where the check fails.
+ */
+VECTORISE
+static double pairwise_sum(const double *a, Py_ssize_t n)
+{
+    if (n < 8) {
+        double res = -0.0;
+        for (Py_ssize_t i = 0; i < n; i++)
+            res += a[i];
+        return res;
+    }
+    else if (n <= PW_BLOCK) {
+        double r[8], res;
+        Py_ssize_t i;
+        for (int j = 0; j < 8; j++)
+            r[j] = a[j];
+        for (i = 8; i < n - (n % 8); i += 8)
+            for (int j = 0; j < 8; j++)
+                r[j] += a[i + j];
+        res = ((r[0] + r[1]) + (r[2] + r[3])) + ((r[4] + r[5]) + (r[6] + r[7]));
+        for (; i < n; i++)
+            res += a[i];
+        return res;
+    }
+    else {
+        Py_ssize_t n2 = n / 2;
+        n2 -= n2 % 8;
+        return pairwise_sum(a, n2) + pairwise_sum(a + n2, n - n2);
+    }
+}
+
+/* the pairwise sum of x[j]^2 (each square rounded, as np.square rounds it) */
+VECTORISE
+static double pairwise_sum_sq(const double *a, Py_ssize_t n)
+{
+    if (n < 8) {
+        double res = -0.0;
+        for (Py_ssize_t i = 0; i < n; i++)
+            res += a[i] * a[i];
+        return res;
+    }
+    else if (n <= PW_BLOCK) {
+        double r[8], res;
+        Py_ssize_t i;
+        for (int j = 0; j < 8; j++)
+            r[j] = a[j] * a[j];
+        for (i = 8; i < n - (n % 8); i += 8)
+            for (int j = 0; j < 8; j++)
+                r[j] += a[i + j] * a[i + j];
+        res = ((r[0] + r[1]) + (r[2] + r[3])) + ((r[4] + r[5]) + (r[6] + r[7]));
+        for (; i < n; i++)
+            res += a[i] * a[i];
+        return res;
+    }
+    else {
+        Py_ssize_t n2 = n / 2;
+        n2 -= n2 % 8;
+        return pairwise_sum_sq(a, n2) + pairwise_sum_sq(a + n2, n - n2);
+    }
+}
+
+VECTORISE
+static PyObject *stereo_power(PyObject *self, PyObject *args)
+{
+    Py_buffer y, p, seg, ticks, out;
+    Py_ssize_t n, k, end;
+    int bad = 0;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*w*y*w*w*nnn", &y, &p, &seg, &ticks, &out, &n, &k, &end))
+        return NULL;
+    if (n < 1 || k < 0 || end < 0 || end > n || (k == 0) != (end == 0) ||
+        y.len != (Py_ssize_t)(2 * n * sizeof(double)) || p.len < (Py_ssize_t)(n * sizeof(double)) ||
+        seg.len != (Py_ssize_t)(k * sizeof(int64_t)) || ticks.len != (Py_ssize_t)(k * sizeof(double)) ||
+        out.len != (Py_ssize_t)(3 * sizeof(double)))
+        bad = 1;
+    else if (k) {
+        const int64_t *sg = (const int64_t *)seg.buf;
+        if (sg[0] != 0)
+            bad = 1;
+        for (Py_ssize_t i = 1; i < k && !bad; i++)
+            if (sg[i] <= sg[i - 1])
+                bad = 1;
+        if (!bad && sg[k - 1] >= end)
+            bad = 1;
+    }
+    if (bad) {
+        PyBuffer_Release(&y);
+        PyBuffer_Release(&p);
+        PyBuffer_Release(&seg);
+        PyBuffer_Release(&ticks);
+        PyBuffer_Release(&out);
+        PyErr_SetString(PyExc_ValueError, "stereo_power: y (2, n) float64, p (n), seg (k) increasing from 0 "
+                                          "below end <= n, ticks (k), out (3)");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    {
+        const double *y0 = (const double *)y.buf, *y1 = y0 + n;
+        double *pp = (double *)p.buf, *t = (double *)ticks.buf, *o = (double *)out.buf;
+        const int64_t *sg = (const int64_t *)seg.buf;
+        o[0] = pairwise_sum_sq(y0, n);
+        o[1] = pairwise_sum_sq(y1, n);
+        for (Py_ssize_t j = 0; j < n; j++)
+            pp[j] = y0[j] * y0[j] + y1[j] * y1[j];
+        for (Py_ssize_t i = 0; i < k; i++) {
+            Py_ssize_t a = (Py_ssize_t)sg[i], b = i + 1 < k ? (Py_ssize_t)sg[i + 1] : end;
+            t[i] = pp[a] + pairwise_sum(pp + a + 1, b - a - 1);
+        }
+        o[2] = end < n ? pairwise_sum(pp + end, n - end) : 0.0;
+    }
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&y);
+    PyBuffer_Release(&p);
+    PyBuffer_Release(&seg);
+    PyBuffer_Release(&ticks);
+    PyBuffer_Release(&out);
+    Py_RETURN_NONE;
+}
+
 static PyMethodDef methods[] = {
     {"cascade", cascade, METH_VARARGS,
      "cascade(sos, y, z, channels, frames, sections): filter y (channels, frames) in place; "
@@ -446,6 +576,9 @@ static PyMethodDef methods[] = {
     {"active_positions", active_positions, METH_VARARGS,
      "active_positions(x, prev, idx, n): positions of a float64 row equal to a neighbour (prev before "
      "the first), and the last, into idx (int64, room for n); returns their count"},
+    {"stereo_power", stereo_power, METH_VARARGS,
+     "stereo_power(y, p, seg, ticks, out, n, k, end): channel energies, per-sample power p = y0^2 + y1^2, "
+     "its sums over the segments seg (the last to end) and over [end, n), in numpy's summation order"},
     {NULL, NULL, 0, NULL}
 };
 

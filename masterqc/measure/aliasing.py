@@ -470,21 +470,38 @@ def fold_evidence(evident: int, instances: int, chance: float) -> bool:
 #: frames of fs/10 samples (100 ms), at most this many spread over the file (cost bound)
 STEP_FRAME_DIVISOR = 10
 MAX_STEP_FRAMES = 32
-#: neighbourhood of a jump: this many samples either side, fitted by a quadratic plus a step
+#: neighbourhood of a jump: this many samples either side, fitted by a smooth curve plus a step
 #: between the two middle samples (own reasoning: long enough to hold the ringing of a
 #: band-limited step that decays as 1/(pi*n), short enough to rarely hold a second jump of a
 #: voice up to about 3.5 kHz)
 STEP_HALF_WINDOW = 6
+#: the smooth curve either side of a jump: a polynomial of this degree over the neighbourhood.  A cubic
+#: follows a sinusoid of a few kHz over 13 samples far better than a quadratic (a naive oscillator multiplied
+#: by a sine, as a ring modulator does, puts such a curve around every jump; a quadratic left 1-3 % of the
+#: jump there, a cubic 0.3-1 %), while no polynomial of low degree follows the ringing of a band-limited step,
+#: which decays as 1/(pi*n) and changes sign every sample: the sampled ideal step keeps a residual of at least
+#: 0.0187 of the jump with a cubic (0.0215 with a quadratic).  Checked on every 100 ms of every band-limited,
+#: native and speech file of the tuning corpus (seed 1000): at most 2 jumps in a file come out sample-sharp
+#: with the cubic (1 with the quadratic; the least residual 0.008 either way), against MIN_SHARP_STEPS = 40
+STEP_POLY_DEGREE = 3
 #: a jump is sample-sharp when the fit's RMS residual is below this fraction of the jump.  House
-#: choice, checked on the tuning corpus: band-limited twins of every naive waveform never go
-#: below about 0.027 (their ringing), naive voices sit below 0.002 even with pink noise 30 dB
-#: under them
+#: choice, checked on the tuning corpus: band-limited twins of naive waveforms rarely go below about
+#: 0.02 (their ringing; see STEP_POLY_DEGREE for the few that do), naive voices sit below 0.002 even
+#: with pink noise 30 dB under them
 STEP_MAX_RESIDUAL = 0.01
 #: jumps considered are at least this fraction of the frame's RMS (house choice: a naive voice's
 #: jump is 2-4 times its RMS; a small floor keeps quantisation steps of a low-level passage out)
 STEP_MIN_JUMP_REL = 0.15
 #: at most this many of a frame's largest jumps are fitted per channel (cost bound)
 STEP_MAX_CANDIDATES = 1500
+#: a jump is a sample difference at least this many times the larger of the differences two samples either
+#: side.  A jump J between two samples adds J to one difference only.  A sinusoid at f has differences whose
+#: peak falls by cos(4*pi*f/fs) two samples away, so smooth content below fs/12 never passes 2 however steep
+#: it is (a product of a naive oscillator and a sine at a few kHz, ring modulation, is full of such steep
+#: stretches); a band-limited step does pass (the differences of a sampled ideal low-pass step are samples of
+#: sin(pi*t)/(pi*t): 0.64 J at the jump, 0.13 J two samples on), so band-limited jumps stay in the share's
+#: denominator (analytic; the threshold 2 is a house choice between those)
+STEP_JUMP_CONTRAST = 2.0
 #: folded content from sample-sharp jumps: at least this many, in at least STEP_MIN_FRAMES
 #: frames, and at least this share of the jumps fitted (house choice: the tuning corpus' native
 #: material, speech and band-limited synthesis show none at all; naive voices show hundreds)
@@ -498,9 +515,9 @@ HOLD_SOURCE_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 8
 STEP_GRID_CONCENTRATION = 0.8
 
 
-def _step_design(half: int = STEP_HALF_WINDOW):
+def _step_design(half: int = STEP_HALF_WINDOW, degree: int = STEP_POLY_DEGREE):
     n = np.arange(-half, half + 1, dtype=float)
-    a = np.stack([np.ones_like(n), n / half, (n / half) ** 2, (n > 0).astype(float)], axis=1)
+    a = np.stack([(n / half) ** d for d in range(degree + 1)] + [(n > 0).astype(float)], axis=1)
     return a, np.linalg.pinv(a)
 
 
@@ -511,9 +528,10 @@ def sharp_steps(x: np.ndarray, half: int = STEP_HALF_WINDOW, max_candidates: int
     """The jumps of one channel's frame ``x`` and how sharp they are.
 
     Candidates are local maxima of ``|x[i+1] - x[i]|`` at least :data:`STEP_MIN_JUMP_REL` of the
-    frame's RMS, the largest ``max_candidates`` of them.  Each neighbourhood ``x[i-half .. i+half+1]``
-    is fitted (least squares) by ``a + b*n + c*n^2 + J*[n > 0]`` (the jump between samples i and
-    i+1).  Returns ``(index, jump, residual)`` arrays: the sample before each jump, the fitted jump
+    frame's RMS and at least :data:`STEP_JUMP_CONTRAST` times the differences two samples either side,
+    the largest ``max_candidates`` of them.  Each neighbourhood ``x[i-half .. i+half+1]``
+    is fitted (least squares) by a polynomial of degree :data:`STEP_POLY_DEGREE` plus ``J*[n > 0]`` (the
+    jump between samples i and i+1).  Returns ``(index, jump, residual)`` arrays: the sample before each jump, the fitted jump
     J, and the fit's RMS residual over |J|.
     """
     x = np.asarray(x, dtype=float)
@@ -526,6 +544,9 @@ def sharp_steps(x: np.ndarray, half: int = STEP_HALF_WINDOW, max_candidates: int
     inner = a[1:-1]
     cand = np.nonzero((inner > a[:-2]) & (inner >= a[2:]) & (inner >= STEP_MIN_JUMP_REL * rms))[0] + 1
     cand = cand[(cand >= half) & (cand < x.size - half - 1)]
+    # only differences that stand out against the differences two samples either side are jumps (see
+    # STEP_JUMP_CONTRAST): a steep smooth stretch is no jump, and counting it would dilute the share
+    cand = cand[a[cand] >= STEP_JUMP_CONTRAST * np.maximum(a[cand - 2], a[cand + 2])]
     if cand.size > max_candidates:
         cand = np.sort(cand[np.argsort(a[cand])[::-1][:max_candidates]])
     if cand.size == 0:
@@ -533,7 +554,7 @@ def sharp_steps(x: np.ndarray, half: int = STEP_HALF_WINDOW, max_candidates: int
     seg = x[cand[:, None] + np.arange(-half, half + 1)[None, :]]
     coef = seg @ _STEP_PINV.T
     res = seg - coef @ _STEP_A.T
-    jump = coef[:, 3]
+    jump = coef[:, -1]
     resid = np.sqrt(np.mean(res * res, axis=1)) / np.maximum(np.abs(jump), 1e-300)
     keep = np.abs(jump) >= STEP_MIN_JUMP_REL * rms
     return cand[keep], jump[keep], resid[keep]

@@ -73,6 +73,12 @@ converter's transition falls smoothly.
 A cliff whose edge lies early (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) must leave nothing above the
 old Nyquist but a floor: read frame by frame on the front end's level histogram (:func:`stop_band_content`), a
 mastering low-pass leaves the programme there, a fixed 50-90 dB down in every frame, and is a band limit.
+The same reading decides a brick wall at a standard Nyquist: an FFT resampler zeroes every bin above the old
+Nyquist and leaves the floor there, a transform coder's low-pass leaves its synthesis window's leakage.
+
+A cliff whose stop band holds the programme well above the floor names its rate only where the imaging analysis
+finds images of the content at that rate (:func:`cliff_needs_images`, a post-step): a converter's stop band holds
+images of the band below the old Nyquist, a low-pass's holds the programme's own content above its cut-off.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
 least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
@@ -207,7 +213,7 @@ LEAKY_MIN_MIRROR_CORRELATION = 0.4
 #: 8th order at 20 kHz in a 48 kHz file; 0.90-0.99 as read on the envelope of music).  Cliffs at or above this
 #: ratio are low-passes, not conversions (own reasoning; libsamplerate's medium converter reads 0.57-0.86).
 CONVERTER_MAX_SHAPE_RATIO = 0.9
-#: ... read only where the fall from -6 to -40 dB spans at least this much (on the search's scale), Hz: the
+#: ... read only where the fall from -6 to -40 dB spans at least this much of the file's own frequencies, Hz: the
 #: closed and smoothed envelope (CLOSING_HZ, SMOOTH_HZ) cannot resolve the shape of a narrower fall (own reasoning:
 #: Butterworth low-passes of order 10-12 at 20-21 kHz in a 48 kHz file fall from -6 to -40 dB within 0.88-1.3 kHz
 #: and must be read (analytic shape ratio of the 12th-order one at 20 kHz: 1.14); narrower falls are not resolved)
@@ -299,6 +305,14 @@ EARLY_MIN_DEPTH_DB = 90.0
 #: 40-zero-crossing Kaiser beta 5 design, on noise low-passed at 3 kHz: 80-88 dB deep)
 EARLY_MAX_STOP_RATIO = 1.015
 STOP_CONTENT_MAX_ABOVE_FLOOR_DB = 20.0
+#: a cliff whose stop band holds the programme more than this far over the format's floor (median frame,
+#: :func:`stop_band_content`) names a source rate only with images of the content at that rate
+#: (:func:`cliff_needs_images`).  The same line as STOP_CONTENT_MAX_ABOVE_FLOOR_DB: nearer the floor the stop band
+#: may be the converter's own floor, or images too faint to measure.  Own reasoning; on the tuning corpus the
+#: imaging analysis finds the images of converters whose stop band lies 15-110 dB over the floor, and misses them
+#: on libsamplerate's best converter from 8 and 11.025 kHz at 13-22 dB (the first of which this line gives up);
+#: the low-passes it catches lie 24-63 dB over the floor (FIR, Butterworth, coder), those at 14-20 dB stay
+STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB = STOP_CONTENT_MAX_ABOVE_FLOOR_DB
 
 #: a cliff whose fall a Butterworth low-pass explains is a band limit, not a conversion.  The digital
 #: Butterworth (bilinear transform, as every IIR design tool makes it) has exactly
@@ -381,6 +395,10 @@ MEASUREMENT_SCHEMA = {
         'without a proper filter); null when none'),
     "upsampled_where_s": measured(TIME_RANGES, 's',
         'time ranges where upsampling was found'),
+    "upsampled_stop_band_over_floor_db": measured(NUMBER_OR_NULL, 'db',
+        'for a converter cliff read on the whole file: the level above the source rate\'s Nyquist frequency in '
+        'the median frame, over the format\'s noise floor (where images of the programme would show); null '
+        'otherwise'),
 }
 
 
@@ -404,6 +422,11 @@ class BandwidthResult:
     mirror_rate_hz: int | None = None
     #: where the cliff's fall reaches its stop band, over the source Nyquist (not reported)
     stop_ratio: float | None = None
+    #: the verdict rests on a brick wall at a standard Nyquist (not reported)
+    brick: bool = False
+    #: for a cliff read on the whole file's sum: the programme above the source Nyquist in the median frame over
+    #: the format's floor, dB (see :func:`stop_band_content`)
+    stop_band_over_floor_db: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -422,6 +445,8 @@ class BandwidthResult:
             "bandwidth_segments": list(self.segments),
             "upsampled_mirror_rate_hz": self.mirror_rate_hz,
             "upsampled_where_s": [list(w) for w in self.where_s],
+            "upsampled_stop_band_over_floor_db": (self.stop_band_over_floor_db
+                                                  if self.upsampled_from_hz is not None else None),
         }
 
 
@@ -916,25 +941,72 @@ def stop_band_content(fe, floor_db: float, rate_hz: float):
 
 
 def _programme_above(fe, info, out) -> bool:
-    """True when a cliff verdict's early edge (below :data:`EARLY_EDGE_RATIO` of the source Nyquist) has the
-    programme going on above the old Nyquist in every frame (:func:`stop_band_content`): a low-pass, not a
-    converter.  Rewrites ``out`` as a band limit then."""
-    if (out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None
-            or out.edge_ratio >= EARLY_EDGE_RATIO or out.stop_ratio is None or out.stop_ratio > EARLY_MAX_STOP_RATIO):
+    """True when a cliff verdict has the programme going on above the old Nyquist in every frame
+    (:func:`stop_band_content`) where no converter of its kind leaves anything but its floor: a low-pass, not a
+    converter.  Two kinds: an early edge (below :data:`EARLY_EDGE_RATIO` of the source Nyquist, see there), and a
+    brick wall at a standard Nyquist (:data:`BRICK_WALL_RATIO_TOLERANCE`), which names a rate only as an FFT
+    resampler's wall: that converter zeroes every bin above the old Nyquist, so above it lies the format's floor
+    (within :data:`STOP_CONTENT_MAX_ABOVE_FLOOR_DB`), while a transform coder's low-pass, which zeroes the lines
+    above its cut-off frame by frame, leaves the leakage of its synthesis window there, the programme a fixed
+    60-100 dB down in every frame.  Rewrites ``out`` as a band limit then."""
+    if out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None:
+        return False
+    early = (out.edge_ratio < EARLY_EDGE_RATIO and out.stop_ratio is not None
+             and out.stop_ratio <= EARLY_MAX_STOP_RATIO)
+    if not early and not out.brick:
         return False
     floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
     got = stop_band_content(fe, floor, out.upsampled_from_hz)
-    if got is None or got[0] >= EARLY_MIN_DEPTH_DB or got[1] <= STOP_CONTENT_MAX_ABOVE_FLOOR_DB:
+    if got is None or got[1] <= STOP_CONTENT_MAX_ABOVE_FLOOR_DB or (early and got[0] >= EARLY_MIN_DEPTH_DB):
         return False
     rate, depth = out.upsampled_from_hz, got[0]
     edge = out.effective_bandwidth_hz
     out.upsampled_from_hz = out.confidence = out.edge_ratio = None
     out.band_limit_hz = edge
-    out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass: the cliff lies at "
-                f"{edge / (rate / 2.0):.2f} of {rate / 2000:g} kHz, but above {rate / 2000:g} kHz the programme "
-                f"goes on in every frame, only {depth:.0f} dB below its loud passages; a converter whose pass "
-                "band ends that early leaves nothing there but its noise floor")
+    if early:
+        out.note = (f"band-limited at {edge / 1000:.1f} kHz by a low-pass: the cliff lies at "
+                    f"{edge / (rate / 2.0):.2f} of {rate / 2000:g} kHz, but above {rate / 2000:g} kHz the programme "
+                    f"goes on in every frame, only {depth:.0f} dB below its loud passages; a converter whose pass "
+                    "band ends that early leaves nothing there but its noise floor")
+    else:
+        out.note = (f"band-limited at {edge / 1000:.1f} kHz by a brick wall, as a lossy coder's low-pass cuts: above "
+                    f"it the programme goes on in every frame, {depth:.0f} dB below its loud passages and "
+                    f"{got[1]:.0f} dB over the format's noise floor, where a converter that zeroes every bin above "
+                    f"{rate / 2000:g} kHz leaves only the floor")
     return True
+
+
+def cliff_needs_images(m: dict) -> dict:
+    """A post-step (:func:`masterqc.measure.registry.post_steps`, before the provenance steps): a converter cliff
+    read on the whole file whose stop band holds the programme well above the format's floor
+    (``upsampled_stop_band_over_floor_db`` at least :data:`STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB`) names its source
+    rate only where the imaging analysis finds images of the content at that rate (a "trace" or a "defect").
+    A converter's stop band holds images of the programme below the old Nyquist, which that analysis finds
+    even 110-125 dB down; a linear-phase FIR or IIR low-pass of the same fall leaves the programme's own content
+    above its cut-off, which has no images at any rate.  Where the imaging analysis tested the rate and found
+    none, the cliff is a band limit.  Pure: measurements in, measurements out."""
+    rate = m.get("upsampled_from_hz")
+    over = m.get("upsampled_stop_band_over_floor_db")
+    if rate is None or m.get("upsampled_evidence") != "cliff" or over is None or over <= STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB:
+        return m
+    tested = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("source_rate_hz") is not None
+              and int(round(float(c["source_rate_hz"]))) == int(rate)]
+    if not tested or any(c.get("verdict") in ("trace", "defect") for c in tested):
+        return m
+    m = dict(m)
+    edge = m.get("effective_bandwidth_hz")
+    m["upsampled_from_hz"] = m["upsampled_confidence_fraction"] = m["upsampled_edge_ratio"] = None
+    m["upsampled_evidence"] = None
+    m["upsampled_stop_band_over_floor_db"] = None
+    m["upsampled_channels"] = [] if m.get("upsampled_channels") is not None else None
+    m["upsampled_where_s"] = []
+    m["band_limit_hz"] = edge
+    m["bandwidth_note"] = (
+        f"band-limited at {float(edge) / 1000:.1f} kHz by a low-pass: the fall looks like a converter's from "
+        f"{rate / 1000:g} kHz, but above {rate / 2000:g} kHz the programme goes on {over:.0f} dB over the "
+        f"format's noise floor with no images of the content below {rate / 2000:g} kHz, which a converter's stop "
+        "band would hold")
+    return m
 
 
 def assess(fe, info) -> BandwidthResult:
@@ -974,6 +1046,7 @@ def assess(fe, info) -> BandwidthResult:
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
     vetoed = claimed if _programme_above(fe, info, out) else None
+    sum_cliff = out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff"
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -1016,11 +1089,29 @@ def assess(fe, info) -> BandwidthResult:
         out.upsampled_from_hz, out.confidence = rate, best.confidence
         out.edge, out.depth_db, out.slope_db_per_khz = best.edge, best.depth_db, best.slope_db_per_khz
         out.band_limit_hz = None
+        if (best.evidence or "cliff") == "cliff":
+            out.evidence = best.evidence
         out.note = f"{', '.join(up_ch)}: " + (best.note or "")
     if out.upsampled_from_hz is not None and n_ch > 1 and not up_ch:
         # the sum shows the cliff, no channel alone does (each too quiet): every channel with content
         up_ch = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
     out.channels = up_ch if (testable_any or up_ch) else None
+    def same_fall(c):
+        """Channel ``c`` has no content where the cliff could show, or ends in a cliff at the same edge."""
+        r = per_channel[c] if c < len(per_channel) else None
+        if not shows(c, out.upsampled_from_hz):
+            return True
+        return (r is not None and r.edge == "cliff" and r.effective_bandwidth_hz is not None
+                and out.effective_bandwidth_hz is not None
+                and abs(r.effective_bandwidth_hz - out.effective_bandwidth_hz) <= 0.02 * out.upsampled_from_hz / 2.0)
+    if (out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff" and fe.frames
+            and (sum_cliff or all(labels[c] in up_ch or same_fall(c) for c in range(n_ch)))):
+        # what lies above the old Nyquist in the median frame; read on the channels' mean, so only where the sum
+        # itself ends in the cliff or every channel with content ends in the same fall (a native channel fills
+        # the band above the old Nyquist where one channel alone was converted up)
+        got = stop_band_content(fe, format_floor_db(info.bit_depth, info.is_float, fe.frame_length),
+                                out.upsampled_from_hz)
+        out.stop_band_over_floor_db = None if got is None else round(float(got[1]), 1)
     segs = getattr(fe, "segment_ltas", None)
     if out.upsampled_from_hz is not None:
         # the whole file reads as upsampled: that is where
@@ -1113,12 +1204,14 @@ def upsampled_ranges(segments) -> list:
     return ranges
 
 
-def shape_ratio(cliff: dict) -> float:
+def shape_ratio(cliff: dict, scale: int = 1) -> float:
     """Span of a cliff's fall from -20 to -40 dB over its span from -6 to -20 dB (0 when unreadable);
     see :data:`CONVERTER_MAX_SHAPE_RATIO`.  Spans shorter than one 10 Hz bin count as one bin; a fall
-    narrower than :data:`SHAPE_MIN_SPAN_HZ` is not read (0)."""
+    narrower than :data:`SHAPE_MIN_SPAN_HZ` of the file's own frequencies is not read (0): ``cliff`` as read at
+    frequency ``scale`` (its frequencies ``scale`` times the file's), where the envelope's closing and smoothing,
+    set in the file's own hertz, are ``scale`` times wider in the cliff's terms."""
     f6, f20, f40 = cliff.get("edge_hz"), cliff.get("f20_hz"), cliff.get("f40_hz")
-    if f6 is None or f20 is None or f40 is None or f40 - f6 < SHAPE_MIN_SPAN_HZ:
+    if f6 is None or f20 is None or f40 is None or (f40 - f6) / scale < SHAPE_MIN_SPAN_HZ:
         return 0.0
     return max(f40 - f20, 10.0) / max(f20 - f6, 10.0)
 
@@ -1204,9 +1297,11 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
-                and (brick or shape_ratio(cliff) < CONVERTER_MAX_SHAPE_RATIO)):
+                and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
             rate = None
-        elif not brick and butterworth_explains(env, bin_hz, scale, 2.0 * nyq, cliff)[0]:
+        elif brick:
+            cliff["brick"] = True
+        elif butterworth_explains(env, bin_hz, scale, 2.0 * nyq, cliff)[0]:
             # a mastering low-pass's fall, not a resampler's transition
             rate = None
         else:
@@ -1298,6 +1393,7 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
             out.upsampled_from_hz = int(rate)
+            out.brick = bool(cliff.get("brick"))
             out.confidence = round(0.4 + 0.6 * (c_depth + pos + c_slope) / 3.0, 2)
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "

@@ -20,6 +20,7 @@ from masterqc.audio.container import timecode_metadata
 from masterqc.audio.reader import open_stream
 from masterqc.errors import AudioReadError
 from masterqc.jsonutil import jsonable
+from masterqc.measure.base import Analyzer
 from masterqc.measure.options import MeasureOptions
 from masterqc.measure.oversample import single_thread_blas
 from masterqc.measure.registry import analyzer_classes, post_steps
@@ -149,10 +150,18 @@ def _check_inputs(analyzers) -> None:
                              "raw_input and planar_input cannot both be set")
 
 
-def _collect(analyzers):
+def _collect(analyzers, finished=None):
+    """Every analyzer's finish() merged in the analyzers' order; ``finished[i]``, when given and
+    set, is analyzer i's finish() already taken (its result, or the exception it raised)."""
     measurements, series, settings = {}, {}, {}
-    for a in analyzers:
-        r = a.finish()
+    for i, a in enumerate(analyzers):
+        done = finished[i] if finished is not None else None
+        if done is None:
+            r = a.finish()
+        elif isinstance(done, BaseException):
+            raise done
+        else:
+            r = done
         measurements.update(r.measurements)
         series.update(r.series)
         if r.settings:
@@ -194,11 +203,12 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
     threads = max(1, int(getattr(options, "threads", 1) or 1))
     keep_block_buffers_in_heap()
     with single_thread_blas():
+        finished = None
         if threads == 1 or not analyzers:
             _run_sequential(stream, info, options, analyzers, progress, thread_cpu)
         else:
-            _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu).run()
-        measurements, series, settings = _collect(analyzers)
+            finished = _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu).run()
+        measurements, series, settings = _collect(analyzers, finished)
     for step in post_steps():
         measurements = step(measurements)
     return measurements, series, settings
@@ -242,6 +252,13 @@ class _BlockScheduler:
     from the ones at work): the reader when the slowest analyzer moves on, a
     worker when a block arrives or a second task is free, the caller also when
     there is progress to report.
+
+    An analyzer that takes nothing from its peers (it keeps :meth:`Analyzer.bind
+    <masterqc.measure.base.Analyzer.bind>` as it is) is finished on a worker as soon as it has
+    taken the last block, while slower analyzers still take theirs (its finish() reads only its
+    own state, and no peer changes that state); the others are finished afterwards, in order, by
+    :func:`_collect`, when every early finish is done, as before.  Results are collected in the
+    analyzers' order whoever finished them, so they are those of a sequential run.
     """
 
     def __init__(self, stream, info, options, analyzers, threads, progress, thread_cpu=None):
@@ -267,6 +284,10 @@ class _BlockScheduler:
         self.busy = [False] * len(analyzers)
         self.low = 0                           # min(self.next): blocks every analyzer has taken
         self.reported = 0
+        # finish() on a worker after the last block: analyzers that take nothing from their peers
+        self.early = [isinstance(a, Analyzer) and type(a).bind is Analyzer.bind for a in analyzers]
+        self.finished: list = [None] * len(analyzers)     # its AnalyzerResult, or the exception
+        self.finishing = [False] * len(analyzers)         # taken by a worker (or done)
 
     def _wake_all(self) -> None:
         self.space.notify_all()
@@ -328,20 +349,33 @@ class _BlockScheduler:
 
     # -- workers
     def _pick(self):
+        """(analyzer index, True for its next block or False for its finish()), or None: the
+        analyzer furthest behind whose next block is decoded, else an early finish."""
         best = None
         for i in range(len(self.analyzers)):
             if self.busy[i] or self.next[i] >= self.read_count:
                 continue
             if best is None or self.next[i] < self.next[best]:
                 best = i
-        return best
+        if best is not None:
+            return best, True
+        for i in range(len(self.analyzers)):
+            if self._can_finish(i):
+                return i, False
+        return None
+
+    def _can_finish(self, i: int) -> bool:
+        return (self.early[i] and not self.finishing[i] and not self.busy[i] and self.read_done
+                and self.next[i] >= self.read_count)
 
     def _ready_count(self) -> int:
         return sum(1 for i in range(len(self.analyzers))
-                   if not self.busy[i] and self.next[i] < self.read_count)
+                   if (not self.busy[i] and self.next[i] < self.read_count) or self._can_finish(i))
 
     def _finished(self) -> bool:
-        return self.read_done and self.low >= self.read_count
+        return (self.read_done and self.low >= self.read_count
+                and all(self.finishing[i] and not self.busy[i] for i in range(len(self.analyzers))
+                        if self.early[i]))
 
     def _work_blocks(self, report: bool) -> None:
         wait_on = self.main if report else self.work
@@ -356,21 +390,28 @@ class _BlockScheduler:
                         pending = self.ends[self.reported:self.low]
                         self.reported = self.low
                         break
-                    i = self._pick()
-                    if i is not None:
+                    task = self._pick()
+                    if task is not None:
                         break
                     if self._finished():
                         return
                     wait_on.wait()
                 if pending is None:
+                    i, is_block = task
                     self.busy[i] = True
-                    k = self.next[i]
-                    prepared = self.blocks[k]
+                    if is_block:
+                        k = self.next[i]
+                        prepared = self.blocks[k]
+                    else:
+                        self.finishing[i] = True
             if pending is not None:
                 for frames in pending:
                     self.progress(frames, self.info.frames)
                 continue
             a = self.analyzers[i]
+            if not is_block:
+                self._finish_one(i, a)
+                continue
             try:
                 _feed(a, prepared)
             except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
@@ -398,6 +439,23 @@ class _BlockScheduler:
                 if self._finished():
                     self._wake_all()
 
+    def _finish_one(self, i: int, a) -> None:
+        """finish() analyzer ``i`` on this worker; its result, or its exception, is kept for
+        :func:`_collect` (which raises the first one in the analyzers' order)."""
+        started = time.thread_time()
+        try:
+            done = a.finish()
+        except BaseException as exc:          # noqa: BLE001 - raised by _collect, in order
+            done = exc
+        spent = time.thread_time() - started
+        with self.lock:
+            if self.thread_cpu is not None:   # inside "analyze_s" too: the CPU split takes it out
+                self.thread_cpu["finish_s"] = self.thread_cpu.get("finish_s", 0.0) + spent
+            self.finished[i] = done
+            self.busy[i] = False
+            if self._finished():
+                self._wake_all()
+
     def _stop(self) -> None:
         with self.lock:
             self.abort = True
@@ -424,6 +482,7 @@ class _BlockScheduler:
             raise min(self.errors, key=lambda e: (e[0], e[1]))[2]
         if self.read_error is not None:
             raise self.read_error
+        return self.finished
 
 
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:
@@ -468,8 +527,9 @@ def measure_file(path, options: MeasureOptions | None = None, progress=None) -> 
         # the command line started, masterqc.filehash.prefetch; outside process_cpu_s);
         # threads_cpu_s: "hash_s" (the file's SHA-256), "read_s" (decoding and preparing the
         # blocks), "analyze_s" (the analyzer threads: the analyzers' process() and the
-        # scheduling around it); the rest of process_cpu_s is opening the file, building the
-        # analyzers, their finish() and assembling the result
+        # scheduling around it, and the finish() calls they took, "finish_s"); the rest of
+        # process_cpu_s is opening the file, building the analyzers, the other finish() calls
+        # and assembling the result
         with open(split_path, "w", encoding="utf-8") as f:
             json.dump({"process_cpu_s": time.process_time() - cpu_started,
                        "threads": max(1, int(getattr(options, "threads", 1) or 1)),

@@ -81,7 +81,21 @@ For each candidate source rate below the file's rate the analyzer reports
   defect whatever the spectral test could tell (too few loud frames, periodic
   material), with the level predicted from the upsampler's response and the
   measured spectrum (:func:`predicted_image_level_db`); "spectrum+samples" when
-  both found it.
+  both found it.  A sample-and-hold at any step, whole or fractional, is also found
+  from its exactly repeated samples (:data:`HOLD_REPEAT_SHARE`) and reported at its
+  effective rate, which need not be a standard one (a rate reducer holding 4.8 samples
+  at 48 kHz: 10 kHz), with evidence "samples".
+
+Where images are judged (the definition): an image is a defect when its level relative to
+the content it mirrors reaches :data:`DEFECT_IMAGE_LEVEL_DB` at a frequency more than 0.3 of
+the source Nyquist frequency above it (:data:`INNER_BAND`: content at 0.7 of it or below).
+0.3 is the transition the shortest proper converters need (12 taps per phase, Kaiser beta 5,
+-6 dB at the source Nyquist: beyond 1.3 of it they stop images by 54 dB, inside they leak
+those of content at 0.8 of it at -28 dB); inside that transition no level line separates
+short designs called imaging from proper ones (DEVELOPERS.md).  A nearest-phase polyphase
+converter's error (output instants rounded to the nearest of N phases) is jitter-like: spread
+over every multiple of the rates' greatest common divisor, each carrying about 1/P of it
+(P = fs / gcd), at 37 dB and more below the content from 32 phases up; it is not tested.
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/25`` samples per frame and channel, and one product per pair of the candidates'
@@ -253,6 +267,35 @@ FRAMING_Z_RELATIVE = 0.2
 #: partials never name a source rate.  The frames are transformed while streaming and analysed only
 #: for a file with such a trace
 FOLD_CHECK_FRAMES = 8
+#: a sample-and-hold at any step (whole or fractional, any effective rate: rate reducers hold at steps such as
+#: 4.8 samples, an effective 10 kHz that is no standard rate) repeats each held value exactly, in runs of
+#: ``floor(L)`` or ``ceil(L)`` samples for a step ``L``.  Own reasoning: at 16 bits and more, programme material
+#: repeats a sample value by chance only at very low levels, in runs of one or two whose lengths spread
+#: geometrically; the rule needs both a share of repeated neighbours (:data:`HOLD_REPEAT_SHARE`; a step of 1.5
+#: samples repeats a third of them) and runs whose lengths nearly all take the two values a fixed step allows
+#: (:data:`HOLD_REGULAR_SHARE`), over at least :data:`HOLD_MIN_RUNS` runs of the analysed frames (digital
+#: silence, runs at the frame's peak, a clipped top, and runs whose value one of the two runs before it had, as
+#: in a steady square or pulse wave, are not counted)
+HOLD_REPEAT_SHARE = 0.3
+#: neighbours this close count as a repeat, so that a hold dithered afterwards at 24 bits (TPDF, +-1 LSB: a
+#: difference of at most 3 LSB) is still seen; pairs and runs at or below :data:`HOLD_FLOOR` (near-silence,
+#: whose samples sit within a few LSB of each other anyway) are not counted.  Own reasoning: 4 LSB at 24 bits
+#: (2^-21, -126 dBFS); the floor 16 times that
+HOLD_TOLERANCE = 2.0 ** -21
+HOLD_FLOOR = 2.0 ** -17
+HOLD_REGULAR_SHARE = 0.9
+HOLD_MIN_RUNS = 500
+#: the runs are counted on every this-many-th analysed frame (cost: 20 of 100 frames give a 30 s file's
+#: programme at 48 kHz some 15 000 runs of a 10 kHz hold; own reasoning)
+HOLD_FRAME_STEP = 5
+#: a hold whose step is shorter than this (samples) is not judged from its runs: its runs mix lengths 1 and 2,
+#: as any slowly varying passage does within :data:`HOLD_TOLERANCE`; such a hold (from a rate above half the
+#: file's) is a standard conversion, which the sample-pattern analyzer tests exactly (own reasoning)
+HOLD_MIN_STEP = 2
+#: the effective rate of a hold is named as a standard rate (:data:`CANDIDATE_RATES_HZ`) within this fraction
+#: of it, else rounded to the analysis bin, 25 Hz (own reasoning: the mean run length over thousands of runs is
+#: good to about 1e-4, a hertz or two)
+HOLD_RATE_SNAP = 0.002
 #: periodic material whose fundamental divides a candidate rate is itself cyclostationary at
 #: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
 #: lines this far above the local floor (own reasoning).
@@ -589,6 +632,13 @@ class ImagingAnalyzer(Analyzer):
         self._sums = {}
         self._full = {}
         self._spectral_lines = {}
+        # per channel: neighbouring sample pairs counted, of them exact repeats, and a histogram of the lengths
+        # of interior runs of one value (see HOLD_REPEAT_SHARE)
+        self._hold_pairs = np.zeros(info.channels, dtype=np.int64)
+        self._hold_repeats = np.zeros(info.channels, dtype=np.int64)
+        self._hold_runs = np.zeros((info.channels, 65), dtype=np.int64)
+        self._hold_span = np.zeros((info.channels, 2), dtype=np.int64)
+        self._held_frames = []
 
     def process(self, block) -> None:
         for _start, frame in self.pick_tonal.feed(block):
@@ -601,6 +651,10 @@ class ImagingAnalyzer(Analyzer):
         # the frames this block completes, transformed together (the same numbers as one by one)
         n = self.n_fft
         rolled = np.empty((len(got), self.info.channels, n))
+        # the sample-and-hold runs, on every HOLD_FRAME_STEP-th frame (spread over the file)
+        # (kept raw, at most MAX_FRAMES / HOLD_FRAME_STEP of them, and counted at once at finish)
+        self._held_frames.extend(np.array(frame) for j, (_s, frame) in enumerate(got)
+                                 if (self.frames + j) % HOLD_FRAME_STEP == 0)
         for j, (start, frame) in enumerate(got):
             # the windowed frame rotated circularly by its start (mod N): X(k) exp(-j 2 pi k n_m / N),
             # so that X(a) X(b) carries the phase correction exp(-j 2 pi alpha n_m / N) of every
@@ -630,6 +684,114 @@ class ImagingAnalyzer(Analyzer):
                 self.S += prod
                 if first and self.S_first is not None:
                     self.S_first += prod
+
+    def _count_runs(self, frames) -> None:
+        """Add raw frames' (frames, samples, channels) repeated neighbours and run lengths, per channel (see
+        HOLD_REPEAT_SHARE): all frames and channels at once, runs never crossing a frame."""
+        k, n, nch = frames.shape
+        if n < 3 or k == 0:
+            return
+        x = np.ascontiguousarray(np.transpose(frames, (0, 2, 1))).reshape(k * nch, n)
+        chan = np.tile(np.arange(nch), k)
+        peak = np.max(np.abs(x), axis=1)
+        same = np.abs(x[:, 1:] - x[:, :-1]) <= HOLD_TOLERANCE
+        # (pairs in near-silence or at the frame's peak, a clipped top, say nothing about a hold)
+        ax = np.abs(x[:, 1:])
+        counted = (ax > HOLD_FLOOR) & ~(same & (ax >= peak[:, None] - HOLD_TOLERANCE))
+        self._hold_pairs += np.bincount(chan, weights=np.count_nonzero(counted, axis=1), minlength=nch).astype(np.int64)
+        self._hold_repeats += np.bincount(chan, weights=np.count_nonzero(same & counted, axis=1),
+                                          minlength=nch).astype(np.int64)
+        # the runs only of channels whose share of repeats can make a hold (native material: none, at no cost)
+        rows = np.isin(chan, np.flatnonzero(self._hold_repeats >= HOLD_REPEAT_SHARE * np.maximum(self._hold_pairs, 1)))
+        if not rows.any():
+            return
+        if not rows.all():
+            x, same, chan, peak = x[rows], same[rows], chan[rows], peak[rows]
+        # run boundaries: after every change and at every frame's end
+        brk = np.concatenate([~same, np.ones((x.shape[0], 1), dtype=bool)], axis=1).ravel()
+        edges = np.concatenate([[0], np.flatnonzero(brk) + 1])
+        starts, ends = edges[:-1], edges[1:]
+        # a frame's first and last runs are cut by the frame: left out
+        whole = (starts % n != 0) & (ends % n != 0)
+        xf = x.ravel()
+        v = xf[starts]
+        vals = np.abs(v)
+        row = starts // n
+        lengths = ends - starts
+        # a run counts only with a value new to the two runs before it: a hold takes a fresh value at every
+        # step, while a steady square or pulse wave alternates between two values in runs as regular
+        fresh = np.ones(v.size, dtype=bool)
+        fresh[1:] &= np.abs(v[1:] - v[:-1]) > HOLD_TOLERANCE
+        fresh[2:] &= np.abs(v[2:] - v[:-2]) > HOLD_TOLERANCE
+        audible = whole & (vals > HOLD_FLOOR)
+        # (the step from every whole run above the floor; the regularity from the counted runs alone)
+        ch_of = chan[row]
+        self._hold_span[:, 0] += np.bincount(ch_of[audible], weights=lengths[audible], minlength=nch).astype(np.int64)
+        self._hold_span[:, 1] += np.bincount(ch_of[audible], minlength=nch)
+        keep = audible & (vals < peak[row] - HOLD_TOLERANCE) & fresh
+        self._hold_runs += np.bincount(ch_of[keep] * 65 + np.minimum(lengths[keep], 64),
+                                       minlength=nch * 65).reshape(nch, 65)
+
+    def _hold_pattern(self):
+        """``(rate_hz, channels, repeat_share)`` of a sample-and-hold found from exact repeats (see
+        HOLD_REPEAT_SHARE), or None."""
+        if self._held_frames:
+            self._count_runs(np.stack(self._held_frames))
+            self._held_frames = []
+        found = []
+        for ch in range(self.info.channels):
+            runs = self._hold_runs[ch]
+            n_runs = int(runs.sum())
+            pairs = int(self._hold_pairs[ch])
+            if n_runs < HOLD_MIN_RUNS or pairs == 0:
+                continue
+            share = self._hold_repeats[ch] / pairs
+            if share < HOLD_REPEAT_SHARE:
+                continue
+            span, count = (int(v) for v in self._hold_span[ch])
+            mean_len = span / max(count, 1)
+            lo = int(math.floor(mean_len))
+            regular = float(runs[lo] + (runs[lo + 1] if lo + 1 < runs.size else 0)) / n_runs
+            if lo < HOLD_MIN_STEP or lo >= 64 or regular < HOLD_REGULAR_SHARE:
+                continue
+            found.append((self.fs / mean_len, ch, share))
+        if not found:
+            return None
+        rate = float(np.median([f[0] for f in found]))
+        std = min(CANDIDATE_RATES_HZ, key=lambda r: abs(r - rate))
+        rate = float(std) if abs(std - rate) <= HOLD_RATE_SNAP * std else float(round(rate / BIN_HZ) * BIN_HZ)
+        labels = list(self.info.channel_layout)
+        return rate, [labels[f[1]] for f in found], max(f[2] for f in found)
+
+    def _with_hold(self, out: list) -> list:
+        """``out`` with a sample-and-hold found from its exact repeats (:meth:`_hold_pattern`) made a defect at
+        its effective rate, unless that rate is already a defect."""
+        hold = self._hold_pattern()
+        if hold is None:
+            return out
+        rate, chans, share = hold
+        if rate >= self.fs:
+            return out
+        entry = next((a for a in out if abs(a["source_rate_hz"] - rate) < 0.5), None)
+        if entry is not None and entry["verdict"] == "defect":
+            return out
+        labels = list(self.info.channel_layout)
+        power = sum(self.power[labels.index(c)] for c in chans)
+        level = predicted_image_level_db("hold", rate, self.fs, power, self.bin_hz)
+        if entry is None:
+            entry = {"source_rate_hz": rate, "coherence": None, "image_level_db": None, "z_score": None,
+                     "null_spread_z": None, "images_explained_fraction": None, "verdict": "untestable",
+                     "reason": None, "channel": chans[0], "channels": []}
+            out.append(entry)
+        was = entry["verdict"] if entry["verdict"] != "untestable" else f"untestable ({entry['reason']})"
+        entry.update(verdict="defect", evidence="samples", channels=chans, channel=chans[0],
+                     image_level_db=None if level is None else round(level, 2),
+                     reason=(f"samples held in runs of {self.fs / rate:.2f} on average ({100 * share:.0f} % of "
+                             f"neighbouring samples repeat exactly): a sample-and-hold at {rate / 1000:g} kHz, "
+                             f"which leaves mirror images of the content at {_inner_khz(rate)}"
+                             + ("" if level is None else f" at {level:.1f} dB relative to it (from its response)")
+                             + f"; the spectral test alone: {was}"))
+        return out
 
     def _two_sided(self, spec):
         """The two-sided spectra of real frames from their one-sided ``spec`` (..., bins): X[N-k] = conj(X[k])."""
@@ -1157,6 +1319,7 @@ class ImagingAnalyzer(Analyzer):
             best[1]["evidence"] = "spectrum"
             out.append(best[1])
         out = self._with_pattern(out)
+        out = self._with_hold(out)
         self._full = {}
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)

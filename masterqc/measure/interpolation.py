@@ -117,10 +117,23 @@ def common_period(fs: int, rates) -> int:
     return m
 
 
-def phase_means(energy: np.ndarray, counts: np.ndarray, p: int) -> np.ndarray:
-    """Per-phase mean power modulo ``p`` from sums and counts kept modulo a multiple of ``p``."""
-    e = energy.reshape(-1, p).sum(axis=0)
-    n = counts.reshape(-1, p).sum(axis=0)
+def _phase_sums(values: np.ndarray, p: int, memo: dict | None) -> np.ndarray:
+    """``values`` (kept modulo a multiple of ``p``) summed per phase modulo ``p``; with ``memo`` (a dict
+    that lives while ``values`` does) each array's sums are made once per period."""
+    if memo is None:
+        return values.reshape(-1, p).sum(axis=0)
+    key = (id(values), p)
+    got = memo.get(key)
+    if got is None:
+        got = memo[key] = values.reshape(-1, p).sum(axis=0)
+    return got
+
+
+def phase_means(energy: np.ndarray, counts: np.ndarray, p: int, memo: dict | None = None) -> np.ndarray:
+    """Per-phase mean power modulo ``p`` from sums and counts kept modulo a multiple of ``p`` (``memo``:
+    see :func:`_phase_sums`; the same numbers either way)."""
+    e = _phase_sums(energy, p, memo)
+    n = _phase_sums(counts, p, memo)
     return e / np.maximum(n, 1)
 
 
@@ -155,14 +168,15 @@ def paired(means: np.ndarray, m: int) -> bool:
     return float(np.mean(nb)) >= PAIRED_MIN_FRACTION
 
 
-def pattern_holds(fs: int, rate, mult: int, energy, counts, hits, active_min: float):
+def pattern_holds(fs: int, rate, mult: int, energy, counts, hits, active_min: float, memo: dict | None = None):
     """The contrast (dB) when ``m = mult * Q`` phases of ``rate``'s period carry the pattern (contrast,
-    activity, busy active phases, still other phases, pairs for ``mult`` 2), else None."""
+    activity, busy active phases, still other phases, pairs for ``mult`` 2), else None.  ``memo``: per-phase
+    sums already made for these arrays (see :func:`_phase_sums`)."""
     p, q = period(fs, rate)
     m = mult * q
     if m >= p:
         return None
-    means = phase_means(energy, counts, p)
+    means = phase_means(energy, counts, p, memo)
     if mult == 2 and not paired(means, m):
         return None
     c = contrast_db(means, m)
@@ -174,7 +188,7 @@ def pattern_holds(fs: int, rate, mult: int, energy, counts, hits, active_min: fl
     if hits is not None:
         # most samples at the active phases move (every source sample brings a new value), and
         # at the other phases hardly any does (only the format's noise is left there)
-        busy = phase_means(hits, counts, p)
+        busy = phase_means(hits, counts, p, memo)
         rest = busy[order[m:]]
         if float(np.median(busy[order[:m]])) < BUSY_MIN_FRACTION \
                 or int(np.count_nonzero(rest > REST_BUSY_MAX_FRACTION)) > REST_BUSY_SPARE * rest.size + 1:
@@ -189,12 +203,13 @@ def lowest_source(fs: int, rates, energy: np.ndarray, counts: np.ndarray, active
     ``energy``, move counts ``hits`` and ``counts`` kept modulo the common period; else (None, None).
     ``pairs``: also try ``2 Q`` phases in neighbouring pairs (second differences of linear interpolation
     by a ratio whose knots fall between output samples)."""
+    memo = {}     # per-phase sums of these arrays, made once per period (the same numbers)
     for r in sorted(rates):
         for mult in ((1, 2) if pairs else (1,)):
-            c = pattern_holds(fs, r, mult, energy, counts, hits, active_min)
+            c = pattern_holds(fs, r, mult, energy, counts, hits, active_min, memo)
             if c is None:
                 continue
-            if any(pattern_holds(fs, Fraction(r) / k, mult, energy, counts, hits, active_min) is not None
+            if any(pattern_holds(fs, Fraction(r) / k, mult, energy, counts, hits, active_min, memo) is not None
                    for k in GUARD_DIVISORS):
                 continue
             return int(r), c

@@ -39,6 +39,7 @@ first, or already K-weighted power) are reused by other analyzers.
 from __future__ import annotations
 
 import math
+import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -338,6 +339,71 @@ class LoudnessSummary:
     analysed_s: float
 
 
+#: the compiled stereo power kernel: None before the first attempt, False when it is not usable
+_STEREO_POWER = None
+_STEREO_POWER_LOCK = threading.Lock()
+
+
+def _stereo_power_numpy(y: np.ndarray, seg, end: int):
+    """(energies (2,), ticks, rest) of a (2, n) block as :meth:`LoudnessMeter._process_rows` and
+    :meth:`LoudnessMeter.process_power` compute them with numpy (weights 1, 1)."""
+    sq = np.square(y)
+    energy = sq.sum(axis=1)
+    p = np.array([1.0, 1.0]) @ sq
+    if seg is None:
+        return energy, None, float(p.sum())
+    return energy, np.add.reduceat(p[:end], seg), float(p[end:].sum())
+
+
+def _stereo_power_self_check(fn) -> bool:
+    """True when ``fn`` gives numpy's bits on blocks that take every branch of the sums (segments
+    of 1 to 200 samples, a block without a boundary, one ending on a boundary, short blocks)."""
+    k = np.arange(2 * 5003, dtype=np.float64)
+    # deterministic irregular rows (numpy.random stays unimported on the measure path)
+    y = (np.sin(k * 0.37) * np.cos(k * k * 1e-4) * 0.7 + 1e-9 * np.sin(k * 2.1)).reshape(2, 5003)
+    y[1, 40:60] = -0.0
+    cases = [(y, [0, 1, 3, 10, 48, 96, 300], 480), (y, [0, 47, 94, 141], 5003), (y, None, 0),
+             (y[:, :5], [0, 2], 4), (y[:, :5], None, 0), (np.ascontiguousarray(y[:, 7:300]), [0, 200], 290)]
+    for rows, seg, end in cases:
+        rows = np.ascontiguousarray(rows)
+        sg = None if seg is None else np.array(seg, dtype=np.int64)
+        n = rows.shape[1]
+        kk = 0 if sg is None else sg.shape[0]
+        p = np.empty(n)
+        ticks = np.empty(kk)
+        out = np.empty(3)
+        fn(rows, p, np.empty(0, np.int64) if sg is None else sg, ticks, out, n, kk, end)
+        energy, want_ticks, rest = _stereo_power_numpy(rows, sg, end)
+        if not (np.array_equal(out[:2], energy) and out[2] == rest
+                and np.signbit(out[2]) == np.signbit(rest)):
+            return False
+        if want_ticks is not None and not np.array_equal(ticks, want_ticks):
+            return False
+    return True
+
+
+def stereo_power_kernel():
+    """``stereo_power`` of masterqc's optional compiled module (``masterqc/measure/_cascade.c``)
+    when it is built, switched on (``MASTERQC_OWN_KERNEL``, :mod:`masterqc.measure.iir`) and gives
+    numpy's bits in :func:`_stereo_power_self_check`; else None (numpy's steps run)."""
+    global _STEREO_POWER
+    if _STEREO_POWER is None:
+        with _STEREO_POWER_LOCK:
+            if _STEREO_POWER is None:
+                found = False
+                from masterqc.measure import iir
+                module = iir.own_module()
+                fn = getattr(module, "stereo_power", None) if module is not None else None
+                if fn is not None:
+                    try:
+                        if _stereo_power_self_check(fn):
+                            found = fn
+                    except Exception:          # noqa: BLE001 - not usable: numpy's steps
+                        found = False
+                _STEREO_POWER = found
+    return _STEREO_POWER or None
+
+
 class LoudnessMeter:
     """Streaming BS.1770 meter: feed blocks in order, then call :meth:`summary`.
 
@@ -357,6 +423,8 @@ class LoudnessMeter:
         self._active = np.flatnonzero(w != 0.0)
         self._all_active = self._active.size == w.size
         self._w = w[self._active]
+        #: two channels, both of weight 1 (stereo): the compiled power kernel can take the block
+        self._unit_stereo = self._w.shape == (2,) and bool(np.all(self._w == 1.0))
         self._sos = kweighting_sos(self.fs) if kweighting else None
         #: channels that are filtered (weight != 0), in order, and the sum over the file of each
         #: one's squared K-weighted samples (before the weights; fed through :meth:`process` only)
@@ -408,22 +476,36 @@ class LoudnessMeter:
             xt, self._zi = sosfilt(self._sos, xt, axis=-1, zi=self._zi)   # a fresh array
         else:
             xt = xt.copy()
+        if self._unit_stereo and xt.flags.c_contiguous and xt.dtype == np.float64:
+            kernel = stereo_power_kernel()
+            if kernel is not None:
+                self._stereo_power(kernel, xt)
+                return
         np.square(xt, out=xt)   # in place: a new temporary per block costs as much as the filter
         self.channel_energy += xt.sum(axis=1)
         p = self._w @ xt if xt.shape[0] > 1 else xt[0] * self._w[0]
         self.process_power(p)
 
-    def process_power(self, power) -> None:
-        """Feed per-sample channel-weighted K-weighted squares (1-D, in file order)."""
-        p = np.asarray(power, dtype=float).ravel()
-        n = p.size
-        if n == 0:
-            return
+    def _stereo_power(self, kernel, xt) -> None:
+        """:meth:`_process_rows` after the filter, for two channels of weight 1, by the compiled
+        kernel (:func:`stereo_power_kernel`): the same energies, power and tick sums, in one pass."""
+        n = xt.shape[1]
+        seg, end = self._tick_segments(n)
+        k = 0 if seg is None else seg.shape[0]
+        p = np.empty(n)
+        ticks = np.empty(k)
+        out = np.empty(3)
+        kernel(xt, p, np.empty(0, np.int64) if seg is None else seg, ticks, out, n, k, end)
+        self.channel_energy += out[:2]
+        self._take_ticks(n, ticks if k else None, float(out[2]))
+
+    def _tick_segments(self, n: int):
+        """(seg, end) of a block of ``n`` samples: the offsets of the 1 ms ticks that end in it
+        (each from the previous boundary; the first from the block start) and the last
+        boundary's offset, or (None, 0) when no tick ends in it."""
         start, end = self._pos, self._pos + n
-        self._pos = end
         if self._next_b > end:
-            self._carry += float(p.sum())
-            return
+            return None, 0
         est = (end * TICKS_PER_SECOND) // self.fs + 2
         js = np.arange(self._ticks_done + 1, est + 1, dtype=np.int64)
         bj = tick_boundary(js, self.fs)
@@ -432,10 +514,30 @@ class LoudnessMeter:
         seg = np.empty(cuts.size, dtype=np.int64)
         seg[0] = 0
         seg[1:] = cuts[:-1]
-        sums = np.add.reduceat(p[:cuts[-1]], seg)
+        return seg, int(cuts[-1])
+
+    def process_power(self, power) -> None:
+        """Feed per-sample channel-weighted K-weighted squares (1-D, in file order)."""
+        p = np.asarray(power, dtype=float).ravel()
+        n = p.size
+        if n == 0:
+            return
+        seg, end = self._tick_segments(n)
+        if seg is None:
+            self._take_ticks(n, None, float(p.sum()))
+            return
+        self._take_ticks(n, np.add.reduceat(p[:end], seg), float(p[end:].sum()))
+
+    def _take_ticks(self, n: int, sums, rest: float) -> None:
+        """Book a block of ``n`` samples: ``sums`` of the ticks that end in it (None: none does)
+        and ``rest``, the sum of its samples after the last boundary."""
+        self._pos += n
+        if sums is None:
+            self._carry += rest
+            return
         sums[0] += self._carry
-        self._carry = float(p[cuts[-1]:].sum())
-        self._ticks_done += cuts.size
+        self._carry = rest
+        self._ticks_done += sums.size
         self._next_b = int(tick_boundary(self._ticks_done + 1, self.fs))
         self._pending.append(sums)
         self._pending_n += sums.size

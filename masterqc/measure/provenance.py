@@ -12,7 +12,9 @@ divisor is the source rate.  The sample
 patterns of :mod:`masterqc.measure.interpolation` (runs of held samples, straight lines,
 stuffed zeros) name the rate itself and take precedence over images and cliffs: they are
 exact, not statistical.  Last, where nothing else named a source, a resampler's trace (coherent images
-too deep to be a defect, :func:`from_traces`) does.  Pure: measurements in, measurements out.
+too deep to be a defect, :func:`from_traces`) does.  Then the rates whose images are coherent correct a
+cliff that fits the neighbouring standard rate as well, or an image verdict that names a multiple of the
+source rate (:func:`rate_from_images`).  Pure: measurements in, measurements out.
 """
 
 from __future__ import annotations
@@ -38,8 +40,113 @@ def image_source(imaging) -> dict | None:
 
 def combine(m: dict) -> dict:
     """The steps below in order of how exact their evidence is: the sample pattern first, then the
-    images of a defect, then a resampler's trace."""
-    return from_traces(from_images(from_pattern(m)))
+    images of a defect, then a resampler's trace; last, the rates whose images are coherent correct a
+    cliff's or an image's reading of the neighbouring or a multiple rate (:func:`rate_from_images`)."""
+    return rate_from_images(from_traces(from_images(from_pattern(m))))
+
+
+#: a cliff's edge (-6 dB point) belongs to a source rate whose Nyquist frequency it lies within this range of, as
+#: a fraction of that Nyquist: bandwidth.EDGE_RATIO_RANGE, where converters put their -6 dB point (own reasoning,
+#: see there).  Images move a cliff's reading to another rate only where that rate explains the edge as well
+EDGE_RATIO_RANGE = (0.75, 1.04)
+
+
+def coherent_rates(imaging) -> list:
+    """The candidate rates whose images are coherent ("defect" or "trace" verdicts), lowest first."""
+    return sorted({int(round(float(c["source_rate_hz"]))) for c in (imaging or [])
+                   if isinstance(c, dict) and c.get("verdict") in ("defect", "trace") and c.get("source_rate_hz")})
+
+
+#: the standard rates (Hz): the imaging analyzer tests every one below the file's rate
+STANDARD_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400, 192000)
+
+
+def file_rate(imaging) -> int | None:
+    """The file's rate as the imaging analyzer's candidate list shows it (it lists every standard rate below
+    the file's rate): the next standard rate above the highest candidate, or None."""
+    listed = [float(c["source_rate_hz"]) for c in (imaging or []) if isinstance(c, dict) and c.get("source_rate_hz")]
+    if not listed:
+        return None
+    above = [r for r in STANDARD_RATES_HZ if r > max(listed)]
+    return above[0] if above else None
+
+
+def explained_rates(source_hz: int, fs: int | None) -> set:
+    """The candidate rates at which images of a source converted up from ``source_hz`` into a file of rate
+    ``fs`` are coherent (analytic: an upsampler's images of the content ``X(f)`` lie at ``k r +- f``, mirrored
+    about every multiple of ``r / 2``, so they pair up at cycle frequencies ``k r``; the images beyond the
+    file's Nyquist frequency fold about it, to ``fs - k r -+ f``, and pair up at ``|fs - k r|`` as well)."""
+    top = max(STANDARD_RATES_HZ)
+    out = {k * source_hz for k in range(1, top // source_hz + 1)}
+    if fs:
+        out |= {abs(fs - k * source_hz) for k in range(1, 2 * fs // source_hz + 1)}
+    return out
+
+
+def image_rate(imaging, mirror_hz: int | None = None) -> int | None:
+    """The source rate the coherent images name, or None: a coherent rate whose images explain every other
+    coherent rate (:func:`explained_rates`); where more than one does (in a 48 kHz file 16 and 32 kHz explain
+    each other: a multiple one way, a fold the other), the rate whose Nyquist frequency the spectrum is mirrored
+    about bin for bin (``mirror_hz``, the bandwidth analysis' mirror test: an upsampler's first images mirror
+    the content about the old Nyquist, a fold only shifts it), else the lowest.  A set no one rate explains
+    (44.1 and 48 kHz both coherent) names none."""
+    rates = coherent_rates(imaging)
+    fs = file_rate(imaging)
+    ok = [d for d in rates if set(rates) <= explained_rates(d, fs) | {d}]
+    if not ok:
+        return None
+    return mirror_hz if mirror_hz in ok else ok[0]
+
+
+def rate_from_images(m: dict) -> dict:
+    """``m`` with a cliff's or an image's source rate corrected by the rates whose images are coherent.
+
+    A cliff reads the source rate from where the transition lies relative to each candidate Nyquist, and a
+    transition read a little low or high fits the next standard rate as well (a 22.05 kHz source's fall at
+    0.94 of 11.025 kHz is 0.86 of 12 kHz; on sparse or narrow material the edge may be the end of the
+    programme).  Coherent images are exact: they sit mirrored about the multiples of the true source's
+    Nyquist frequency.  So when the rate the verdict names shows no coherent images, and :func:`image_rate`
+    names another one (not a rate whose coherence the named rate's own images explain) whose Nyquist
+    frequency puts the cliff's edge within :data:`EDGE_RATIO_RANGE` of it, that rate is the source.  An image verdict that names a multiple of a
+    coherent rate (the imaging analyzer's strongest defect is the first image order it sees) takes that
+    lowest rate too.  The sample pattern (exact in itself) is never overruled."""
+    rate = m.get("upsampled_from_hz")
+    evidence = m.get("upsampled_evidence")
+    if rate is None or evidence not in ("cliff", "segments", "images"):
+        return m
+    rate = int(rate)
+    mirror = m.get("upsampled_mirror_rate_hz")
+    mirror = int(mirror) if mirror else None
+    named = image_rate(m.get("imaging"), mirror)
+    if named is None or named == rate:
+        return m
+    coherent = coherent_rates(m.get("imaging"))
+    fs = file_rate(m.get("imaging"))
+    # the two rates explain each other's coherence (a multiple one way, a fold the other): the mirror decides
+    mutual = named in explained_rates(rate, fs) and rate in explained_rates(named, fs) and mirror == named
+    if named in explained_rates(rate, fs) and not mutual:
+        # the images of a source at the verdict's rate are coherent at the named rate as well
+        return m
+    edge = m.get("effective_bandwidth_hz")
+    if evidence == "images":
+        if not ((named < rate and rate % named == 0) or mutual):
+            return m
+    elif rate in coherent or edge is None or not (
+            EDGE_RATIO_RANGE[0] <= float(edge) / (named / 2.0) <= EDGE_RATIO_RANGE[1]):
+        return m
+    m["upsampled_from_hz"] = named
+    m["upsampled_evidence"] = "images"
+    m["upsampled_edge_ratio"] = None if edge is None or evidence == "images" else round(float(edge) / (named / 2.0), 3)
+    for seg in m.get("bandwidth_segments") or []:
+        if isinstance(seg, dict) and seg.get("upsampled_from_hz") == rate:
+            seg["upsampled_from_hz"] = named
+    how = ("the spectrum's edge fits both rates" if evidence != "images"
+           else f"images about the multiples of {rate / 2000:g} kHz are images about multiples of {named / 2000:g} kHz")
+    m["bandwidth_note"] = (f"converted up from {named / 1000:g} kHz: coherent mirror images of the content sit about "
+                           f"the multiples of {named / 2000:g} kHz"
+                           + (f" ({', '.join(f'{r / 1000:g}' for r in coherent)} kHz coherent)" if coherent else "")
+                           + f", not about those of {rate / 2000:g} kHz ({how})")
+    return m
 
 
 def from_pattern(m: dict) -> dict:

@@ -23,5 +23,5 @@ def analyzer_classes():
 def post_steps():
     """Pure functions ``measurements -> measurements`` run after every analyzer has finished,
     in order: they combine evidence that more than one analyzer holds."""
-    from masterqc.measure import provenance
-    return [provenance.combine]
+    from masterqc.measure import bandwidth, provenance
+    return [bandwidth.cliff_needs_images, provenance.combine]

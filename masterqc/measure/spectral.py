@@ -43,7 +43,8 @@ block size.
 
 Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
 of frames: every other frame (:data:`MID_FILE_STRIDE`) up to :data:`MID_ANALYSIS_S`,
-1 in :data:`LONG_FILE_STRIDE` beyond; the long-term spectrum is then the mean over
+1 in :data:`LONG_FILE_STRIDE` up to :data:`LONG_ANALYSIS_S`, 1 in
+:data:`VERY_LONG_FILE_STRIDE` beyond; the long-term spectrum is then the mean over
 those frames.
 
 :class:`SamplingSpectrumAnalyzer` is the registered analyzer: it runs the
@@ -65,15 +66,20 @@ from masterqc.measure.base import Analyzer, AnalyzerResult
 BIN_TARGET_HZ = 10.0
 #: files up to this long have every frame analysed; longer files a regular subsample:
 #: every other frame (MID_FILE_STRIDE: 100 ms frames every 100 ms, side by side) up to
-#: MID_ANALYSIS_S, 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms) beyond.
+#: MID_ANALYSIS_S, 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms) up to
+#: LONG_ANALYSIS_S, 1 in VERY_LONG_FILE_STRIDE (100 ms frames every 600 ms) beyond.
 #: Long-term spectra, level statistics and tones are statistics over time: a 15-second file
 #: analysed in full and a 60-second one at every other frame both give some 300 frames, a
-#: 10-minute one at 1 in 6 some 1000, and the subsample keeps the cost of the analysis a
-#: small fraction of the core's (own reasoning; see bench/bench_sampling_split.py)
+#: 5-minute one at 1 in 6 and a 10-minute one at 1 in 12 some 1000, and the subsample keeps
+#: the cost of the analysis a small fraction of the core's (own reasoning; see
+#: bench/bench_sampling_split.py).  At 1 in 12 a 3 s window still holds five analysed frames
+#: (the ultrasonic worst-window figure) and every 5 s segment eight.
 FULL_ANALYSIS_S = 15.0
 MID_ANALYSIS_S = 60.0
+LONG_ANALYSIS_S = 300.0
 MID_FILE_STRIDE = 2
 LONG_FILE_STRIDE = 6
+VERY_LONG_FILE_STRIDE = 12
 #: analysed frames are windowed into a batch of up to FRAME_BATCH frames (and at most BATCH_SAMPLES
 #: samples, 4 MB of float32) before they are transformed and summed: a block of 65536 samples holds
 #: two or three analysed frames of a long file, and per-call overheads then cost more than the
@@ -109,10 +115,13 @@ def segments_for(duration_s: float) -> int:
 
 def default_frame_stride(duration_s: float) -> int:
     """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, every other one up to
-    :data:`MID_ANALYSIS_S`, else 1 in :data:`LONG_FILE_STRIDE`."""
+    :data:`MID_ANALYSIS_S`, 1 in :data:`LONG_FILE_STRIDE` up to :data:`LONG_ANALYSIS_S`, else 1 in
+    :data:`VERY_LONG_FILE_STRIDE`."""
     if duration_s <= FULL_ANALYSIS_S:
         return 1
-    return MID_FILE_STRIDE if duration_s <= MID_ANALYSIS_S else LONG_FILE_STRIDE
+    if duration_s <= MID_ANALYSIS_S:
+        return MID_FILE_STRIDE
+    return LONG_FILE_STRIDE if duration_s <= LONG_ANALYSIS_S else VERY_LONG_FILE_STRIDE
 
 
 def frame_length_for(sample_rate_hz: float) -> int:
@@ -490,7 +499,7 @@ class SamplingSpectrumAnalyzer(Analyzer):
 
     Options in ``MeasureOptions.extra["spectrum"]``: ``spectrogram_columns``,
     ``spectrogram_rows`` (display sizes), ``frame_stride`` (analyse 1 in this many
-    frames; default: all up to 30 s, 1 in 6 for longer files).  ``MeasureOptions.ultrasonic_from_hz``
+    frames; default: see :func:`default_frame_stride`).  ``MeasureOptions.ultrasonic_from_hz``
     and ``MeasureOptions.conversion_targets_hz`` are read by the detectors.
     """
 
