@@ -43,12 +43,18 @@ def cpu_wrappers(classes, spent, names):
             _cls.process(self, block)
             spent[_name] += time.thread_time() - t
 
+        def process_planar(self, rows, _cls=cls, _name=name):
+            t = time.thread_time()
+            _cls.process_planar(self, rows)
+            spent[_name] += time.thread_time() - t
+
         def finish(self, _cls=cls, _name=name):
             t = time.thread_time()
             r = _cls.finish(self)
             spent[_name] += time.thread_time() - t
             return r
-        out.append(type(name, (cls,), {"process": process, "finish": finish}))
+        # an analyzer that takes planar blocks is fed through process_planar: timed too
+        out.append(type(name, (cls,), {"process": process, "process_planar": process_planar, "finish": finish}))
     return out
 
 

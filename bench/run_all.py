@@ -16,6 +16,8 @@ import time
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+#: benchmarks that compare this tree with another one and need ``--base-root DIR`` (skipped without it)
+NEEDS_BASE_TREE = {"bench_identity.py", "bench_memory_duration.py"}
 
 
 def main(argv=None) -> int:
@@ -30,6 +32,10 @@ def main(argv=None) -> int:
         return 1
     results = []
     for bench in benches:
+        if bench.name in NEEDS_BASE_TREE and "--base-root" not in passthrough:
+            print(f"\n===== {bench.name} =====\nrun_all: skipped: it compares with an older tree; "
+                  f"run it alone with --base-root DIR", flush=True)
+            continue
         print(f"\n===== {bench.name} =====", flush=True)
         t = time.perf_counter()
         try:
