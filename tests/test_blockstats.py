@@ -157,7 +157,7 @@ def test_silence_analyzer_gives_the_same_runs_without_the_compiled_kernels(monke
         return a.finish().measurements
 
     with_kernel = run()
-    monkeypatch.setitem(blockstats._KERNELS, "active_positions", False)
+    monkeypatch.setitem(iir._CHECKED, "active_positions", False)
     without = run()
     assert with_kernel == without
     assert with_kernel["dropout_count"] == 3
@@ -219,7 +219,7 @@ def test_loudness_meter_gives_the_same_bits_without_the_stereo_power_kernel(monk
         return repr(meter.summary()), meter.channel_energy.copy(), meter._sub[:meter._nsub].copy()
 
     with_kernel = run()
-    monkeypatch.setattr(loudness, "_STEREO_POWER", False)
+    monkeypatch.setitem(iir._CHECKED, "stereo_power", False)
     without = run()
     assert with_kernel[0] == without[0]
     assert np.array_equal(with_kernel[1], without[1]) and np.array_equal(with_kernel[2], without[2])

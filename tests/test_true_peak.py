@@ -20,6 +20,7 @@ import soundfile as sf
 from scipy import signal
 
 from masterqc.audio.reader import open_stream
+from masterqc.measure import iir
 from masterqc.measure import oversample as ov
 from masterqc.measure.engine import run_analyzers
 from masterqc.measure.options import MeasureOptions
@@ -770,7 +771,7 @@ def test_float32_exact_sample_peak_equals_the_float64_reduction():
 # kernel switched off the meter must give the same bits on every output.
 
 def _numpy_only(monkeypatch):
-    monkeypatch.setattr(ov, "_PRESCREEN", False)
+    monkeypatch.setitem(iir._CHECKED, "prescreen", False)
 
 
 @pytest.mark.skipif(ov.prescreen_kernel() is None, reason="the optional compiled module is not built")

@@ -25,13 +25,7 @@ Thread-safe: the kernels are loaded under a lock and release the GIL.
 
 from __future__ import annotations
 
-import threading
-
 import numpy as np
-
-_lock = threading.Lock()
-#: the compiled kernels by name: absent before the first attempt, False when not usable
-_KERNELS: dict = {}
 
 
 def pair_window_sums_numpy(x: np.ndarray, y: np.ndarray, cuts: np.ndarray) -> np.ndarray:
@@ -69,23 +63,8 @@ def _self_check(fn) -> bool:
 
 def _kernel(name: str, check):
     """The compiled function ``name`` when it is built, switched on and passes ``check``; else None."""
-    fn = _KERNELS.get(name)
-    if fn is None:
-        with _lock:
-            if name not in _KERNELS:
-                found = False
-                from masterqc.measure import iir
-                module = iir.own_module()
-                candidate = getattr(module, name, None) if module is not None else None
-                if candidate is not None:
-                    try:
-                        if check(candidate):
-                            found = candidate
-                    except Exception:          # noqa: BLE001 - not usable: numpy's path
-                        found = False
-                _KERNELS[name] = found
-            fn = _KERNELS[name]
-    return fn or None
+    from masterqc.measure import iir
+    return iir.checked_kernel(name, check)
 
 
 def pair_sums_kernel():

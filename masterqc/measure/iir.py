@@ -72,6 +72,34 @@ def own_module():
         return None
 
 
+#: checked_kernel's decisions: name -> the function, or False when it is not usable
+_CHECKED: dict = {}
+_CHECKED_LOCK = threading.Lock()
+
+
+def checked_kernel(name: str, check):
+    """The function ``name`` of masterqc's optional compiled module when the module is built and
+    switched on (:func:`own_module`) and ``check(fn)`` returns True (it compares the kernel with
+    numpy's path on a small input); else None, and numpy's path runs.  Decided once per name and
+    process; a check that raises counts as failed."""
+    fn = _CHECKED.get(name)
+    if fn is None:
+        with _CHECKED_LOCK:
+            if name not in _CHECKED:
+                found = False
+                module = own_module()
+                candidate = getattr(module, name, None) if module is not None else None
+                if candidate is not None:
+                    try:
+                        if check(candidate):
+                            found = candidate
+                    except Exception:          # noqa: BLE001 - not usable: numpy's path
+                        found = False
+                _CHECKED[name] = found
+            fn = _CHECKED[name]
+    return fn or None
+
+
 def _own_kernel():
     """masterqc's compiled cascade with the calling convention of scipy's kernel, or None
     when it was not built (or is switched off by :data:`OWN_KERNEL_ENV`)."""

@@ -39,7 +39,6 @@ first, or already K-weighted power) are reused by other analyzers.
 from __future__ import annotations
 
 import math
-import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -339,11 +338,6 @@ class LoudnessSummary:
     analysed_s: float
 
 
-#: the compiled stereo power kernel: None before the first attempt, False when it is not usable
-_STEREO_POWER = None
-_STEREO_POWER_LOCK = threading.Lock()
-
-
 def _stereo_power_numpy(y: np.ndarray, seg, end: int):
     """(energies (2,), ticks, rest) of a (2, n) block as :meth:`LoudnessMeter._process_rows` and
     :meth:`LoudnessMeter.process_power` compute them with numpy (weights 1, 1)."""
@@ -386,22 +380,8 @@ def stereo_power_kernel():
     """``stereo_power`` of masterqc's optional compiled module (``masterqc/measure/_cascade.c``)
     when it is built, switched on (``MASTERQC_OWN_KERNEL``, :mod:`masterqc.measure.iir`) and gives
     numpy's bits in :func:`_stereo_power_self_check`; else None (numpy's steps run)."""
-    global _STEREO_POWER
-    if _STEREO_POWER is None:
-        with _STEREO_POWER_LOCK:
-            if _STEREO_POWER is None:
-                found = False
-                from masterqc.measure import iir
-                module = iir.own_module()
-                fn = getattr(module, "stereo_power", None) if module is not None else None
-                if fn is not None:
-                    try:
-                        if _stereo_power_self_check(fn):
-                            found = fn
-                    except Exception:          # noqa: BLE001 - not usable: numpy's steps
-                        found = False
-                _STEREO_POWER = found
-    return _STEREO_POWER or None
+    from masterqc.measure import iir
+    return iir.checked_kernel("stereo_power", _stereo_power_self_check)
 
 
 class LoudnessMeter:

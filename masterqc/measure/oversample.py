@@ -419,28 +419,13 @@ def single_thread_blas():
                 limiter.restore_original_limits()
 
 
-#: the compiled pre-screen kernel: None before the first attempt, False when it is not usable
-_PRESCREEN = None
-
-
 def prescreen_kernel():
     """``prescreen(x, ax, gm, gh, nr, channels, stride, frames, group, near)`` of masterqc's
     optional compiled module (``masterqc/measure/_cascade.c``), or None when it was not built
     or is switched off (``MASTERQC_OWN_KERNEL=0``, :mod:`masterqc.measure.iir`).  Checked
     once against numpy's path (:func:`_prescreen_numpy`) on a small buffer before it is used."""
-    global _PRESCREEN
-    if _PRESCREEN is None:
-        _PRESCREEN = False
-        from masterqc.measure import iir
-        module = iir.own_module()
-        if module is not None:
-            try:
-                fn = getattr(module, "prescreen", None)
-                if fn is not None and _prescreen_self_check(fn):
-                    _PRESCREEN = fn
-            except Exception:              # noqa: BLE001 - not usable: numpy's path
-                pass
-    return _PRESCREEN or None
+    from masterqc.measure import iir
+    return iir.checked_kernel("prescreen", _prescreen_self_check)
 
 
 def _prescreen_numpy(x: np.ndarray, group: int, near: int):
