@@ -1021,3 +1021,21 @@ def test_cliff_needs_images_leaves_other_verdicts_alone():
                    {"upsampled_stop_band_over_floor_db": bw.STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB},
                    {"upsampled_evidence": "images"}):
         assert bw.cliff_needs_images(dict(base, **change))["upsampled_from_hz"] == 44100, change
+
+
+def test_cliff_needs_images_makes_the_segments_agree_with_the_file():
+    # house rule: the file-level verdict and the per-segment verdicts must agree (a file whose whole-file cliff is
+    # undone as a low-pass must not keep segments that still say "converted up" from the same rate); segments that
+    # name another rate are left as they are, and the input is not changed in place
+    segs = [{"start_s": 0.0, "end_s": 5.0, "upsampled_from_hz": 44100, "upsampled_confidence_fraction": 0.9,
+             "effective_bandwidth_hz": 21500.0},
+            {"start_s": 5.0, "end_s": 10.0, "upsampled_from_hz": 32000, "upsampled_confidence_fraction": 0.7,
+             "effective_bandwidth_hz": 15600.0}]
+    m = {"upsampled_from_hz": 44100, "upsampled_evidence": "cliff", "effective_bandwidth_hz": 21540.0,
+         "upsampled_stop_band_over_floor_db": 40.0, "upsampled_channels": ["L", "R"],
+         "imaging": [{"source_rate_hz": 44100.0, "verdict": "none"}], "bandwidth_segments": segs}
+    out = bw.cliff_needs_images(m)
+    assert out["upsampled_from_hz"] is None and out["upsampled_where_s"] == []
+    assert [s["upsampled_from_hz"] for s in out["bandwidth_segments"]] == [None, 32000]
+    assert out["bandwidth_segments"][0]["upsampled_confidence_fraction"] is None
+    assert segs[0]["upsampled_from_hz"] == 44100          # the measurements passed in are not modified

@@ -1000,6 +1000,14 @@ def cliff_needs_images(m: dict) -> dict:
     m["upsampled_stop_band_over_floor_db"] = None
     m["upsampled_channels"] = [] if m.get("upsampled_channels") is not None else None
     m["upsampled_where_s"] = []
+    # the segments read the same cliff over shorter stretches: the same stop band answers them, so the
+    # per-segment verdicts agree with the file's
+    segs = [dict(g) if isinstance(g, dict) else g for g in (m.get("bandwidth_segments") or [])]
+    for seg in segs:
+        if isinstance(seg, dict) and seg.get("upsampled_from_hz") == rate:
+            seg["upsampled_from_hz"] = seg["upsampled_confidence_fraction"] = None
+    if m.get("bandwidth_segments") is not None:
+        m["bandwidth_segments"] = segs
     m["band_limit_hz"] = edge
     m["bandwidth_note"] = (
         f"band-limited at {float(edge) / 1000:.1f} kHz by a low-pass: the fall looks like a converter's from "
