@@ -225,3 +225,24 @@ def test_shape_of_a_fall_narrower_than_the_envelope_resolves_is_not_read_at_any_
     assert bw.shape_ratio(cliff, 4) == 0.0
     assert bw.shape_ratio(cliff, 1) == pytest.approx((16201.0 - 15565.0) / (15565.0 - 15238.0))
 
+
+
+def test_a_hold_read_from_the_samples_names_its_own_rate_over_coherent_standard_rates():
+    # A hold of 4.8 samples at 48 kHz (an effective 10 kHz) repeats its pattern every 24 samples, so its images
+    # are coherent about 8, 16 and 24 kHz too (analytic: 48 kHz / 24 = 2 kHz divides them all; 10 kHz is not a
+    # standard rate, so the spectral test never tries it).  The runs of repeated samples name 10 kHz exactly:
+    # house rule, exact sample evidence outranks coherence, as the sample patterns do.
+    provenance = pv
+    imaging = [{"source_rate_hz": 8000.0, "verdict": "defect", "coherence": 1.0, "image_level_db": -27.6,
+                "channel": "L", "channels": ["L", "R"], "evidence": "spectrum"},
+               {"source_rate_hz": 16000.0, "verdict": "defect", "coherence": 1.0, "image_level_db": -9.7,
+                "channel": "L", "channels": ["L", "R"], "evidence": "spectrum"},
+               {"source_rate_hz": 10000.0, "verdict": "defect", "coherence": None, "image_level_db": -7.9,
+                "channel": "L", "channels": ["L", "R"], "evidence": "samples"}]
+    assert provenance.image_source(imaging)["source_rate_hz"] == 10000.0
+    m = provenance.combine({"upsampled_from_hz": None, "imaging": imaging})
+    assert m["upsampled_from_hz"] == 10000 and m["upsampled_evidence"] == "images"
+    assert m["upsampled_confidence_fraction"] == provenance.HELD_SAMPLES_CONFIDENCE
+    assert "sample-and-hold at an effective 10 kHz" in m["bandwidth_note"]
+    # without the sample evidence the most coherent (then loudest) spectral defect names the rate, as before
+    assert provenance.image_source(imaging[:2])["source_rate_hz"] == 16000.0

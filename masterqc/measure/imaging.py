@@ -783,7 +783,8 @@ class ImagingAnalyzer(Analyzer):
                      "null_spread_z": None, "images_explained_fraction": None, "verdict": "untestable",
                      "reason": None, "channel": chans[0], "channels": []}
             out.append(entry)
-        was = entry["verdict"] if entry["verdict"] != "untestable" else f"untestable ({entry['reason']})"
+        was = (entry["verdict"] if entry["verdict"] != "untestable"
+               else "not tried at this rate" if entry["reason"] is None else f"untestable ({entry['reason']})")
         entry.update(verdict="defect", evidence="samples", channels=chans, channel=chans[0],
                      image_level_db=None if level is None else round(level, 2),
                      reason=(f"samples held in runs of {self.fs / rate:.2f} on average ({100 * share:.0f} % of "
@@ -1276,7 +1277,8 @@ class ImagingAnalyzer(Analyzer):
         if entry["verdict"] == "defect":
             entry["evidence"] = "spectrum+samples"
             return out
-        was = entry["verdict"] if entry["verdict"] != "untestable" else f"untestable ({entry['reason']})"
+        was = (entry["verdict"] if entry["verdict"] != "untestable"
+               else "not tried at this rate" if entry["reason"] is None else f"untestable ({entry['reason']})")
         what = {"hold": "held", "linear": "joined by straight lines", "zero-stuff": "zero-stuffed"}.get(kind, kind)
         entry.update(verdict="defect", evidence="samples", channels=chans, channel=chans[0],
                      image_level_db=None if level is None else round(level, 2),

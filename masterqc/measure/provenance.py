@@ -23,15 +23,25 @@ from __future__ import annotations
 #: when choosing among several candidate rates (own reasoning: the cycle frequencies of a
 #: source rate r are also those of its multiples' and submultiples' candidates)
 COHERENCE_TIE = 0.0
+#: the confidence of a source rate named by runs of exactly repeated samples (house choice: what a sample
+#: pattern at 48 dB contrast gets in :func:`from_pattern`, 0.5 + 48/120)
+HELD_SAMPLES_CONFIDENCE = 0.9
 
 
 def image_source(imaging) -> dict | None:
-    """The imaging candidate that names the source rate: among the "defect" verdicts, the
-    most coherent one (ties within :data:`COHERENCE_TIE`: the one with the louder images), or None."""
+    """The imaging candidate that names the source rate: a defect read from the samples themselves (a hold's
+    exactly repeated samples name its step, whole or fractional, exactly, as the sample patterns do), else
+    among the "defect" verdicts the most coherent one (ties within :data:`COHERENCE_TIE`: the one with the
+    louder images), or None.  A fractional hold's images are coherent about the standard rates that share its
+    pattern's period (a 4.8-sample hold at 48 kHz repeats every 24 samples: 8, 16, 24 kHz), none of which is
+    its rate."""
     defects = [c for c in (imaging or []) if isinstance(c, dict) and c.get("verdict") == "defect"
                and c.get("source_rate_hz")]
     if not defects:
         return None
+    exact = [c for c in defects if c.get("evidence") == "samples"]
+    if exact:
+        return exact[0]
     top = max(float(c.get("coherence") or 0.0) for c in defects)
     near = [c for c in defects if float(c.get("coherence") or 0.0) >= top - COHERENCE_TIE]
     return max(near, key=lambda c: (float(c.get("coherence") or 0.0) >= top - 1e-9,
@@ -192,13 +202,18 @@ def from_images(m: dict) -> dict:
         rate = int(mirror)
     coh = float(src.get("coherence") or 0.0)
     level = src.get("image_level_db")
+    held = src.get("evidence") == "samples"
     m["upsampled_from_hz"] = rate
-    m["upsampled_confidence_fraction"] = round(min(1.0, 0.5 + 0.5 * coh), 2)
+    # runs of exactly repeated samples are exact evidence, as the sample patterns are (house choice: the
+    # confidence of a pattern at 48 dB contrast)
+    m["upsampled_confidence_fraction"] = HELD_SAMPLES_CONFIDENCE if held else round(min(1.0, 0.5 + 0.5 * coh), 2)
     m["upsampled_evidence"] = "images"
     m["upsampled_edge_ratio"] = None
     chans = src.get("channels") or ([src["channel"]] if src.get("channel") else [])
     m["upsampled_channels"] = list(chans)
-    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz without a proper filter: mirror images of "
+    how = (f"by holding each sample (runs of repeated samples, a sample-and-hold at an effective "
+           f"{rate / 1000:g} kHz)" if held else "without a proper filter")
+    m["bandwidth_note"] = (f"converted up from {rate / 1000:g} kHz {how}: mirror images of "
                            f"the content below {rate / 2000:g} kHz"
                            + (f" at {float(level):.0f} dB" if level is not None else "") + ", no converter cliff")
     m["band_limit_hz"] = None
