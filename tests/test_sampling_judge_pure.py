@@ -241,7 +241,12 @@ def test_band_limited():
     by, verdict = run(sp, {"band_limit_hz": 15500.0, "bandwidth_edge_depth_db": 60})
     f = by["sampling.band_limited"]
     assert (f.status, f.measured, verdict) == ("fail", True, "fail")
-    assert f.message == ('Band limit: the content ends in a cliff at 15.50 kHz, a frequency no standard rate explains; the spec does not allow this. The cliff is 60 dB deep (a lossy or low-passed source?).')
+    assert f.message == ('Band limit: the content ends in a cliff at 15.50 kHz that no sample-rate conversion explains; the spec does not allow this. The cliff is 60 dB deep (a lossy or low-passed source?).')
+    # where the bandwidth analysis says why the cliff is a band limit, the finding gives its reason
+    by, _v = run(sp, {"band_limit_hz": 20940.0, "bandwidth_edge_depth_db": 60,
+                      "bandwidth_note": "band-limited at 20.9 kHz by a low-pass"})
+    assert by["sampling.band_limited"].message.endswith(
+        'The cliff is 60 dB deep (band-limited at 20.9 kHz by a low-pass).')
     by, verdict = run(sp, {"band_limit_hz": None, "bandwidth_note": "rolls off"})
     f = by["sampling.band_limited"]
     assert (f.status, f.measured, verdict) == ("pass", False, "pass")

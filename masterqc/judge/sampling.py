@@ -226,15 +226,17 @@ def judge(section, result: dict) -> list[Finding]:
         key = "band_limit_hz"
         value = (m.get(key) is not None) if key in m else None
         what = "band limit"
-        cut = (f"Band limit: the content ends in a cliff at {_khz(m[key])}, a frequency no standard rate explains"
+        cut = (f"Band limit: the content ends in a cliff at {_khz(m[key])} that no sample-rate conversion explains"
                if value else "")
         f = check_allowed("sampling.band_limited", what, value, s.band_limited, show=_bool_str,
                           missing_reason=_missing(m, key, ""),
                           says=(cut, "Band limit: no low-pass at a frequency that no standard rate explains"))
         if value:
             depth = m.get("bandwidth_edge_depth_db")
+            # the bandwidth analysis says why it is a band limit where it knows (a low-pass, a coder's steps)
+            why = m.get("bandwidth_note") or "a lossy or low-passed source?"
             add_detail(f, (f". The cliff is {float(depth):.0f} dB deep" if depth is not None else ". The cliff")
-                       + " (a lossy or low-passed source?)")
+                       + f" ({why})")
         elif value is False and m.get("bandwidth_note"):
             add_detail(f, f" ({m['bandwidth_note']})")
         out.append(f)
