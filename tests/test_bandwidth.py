@@ -992,13 +992,15 @@ def test_fir_low_pass_without_images_is_not_a_conversion():
     alone = bw.assess(*_front_end(y, fs))
     assert alone.upsampled_from_hz == 44100 and alone.edge_ratio == pytest.approx(0.95, abs=0.02), alone.note
     assert alone.stop_band_over_floor_db > bw.STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB
-    m = _sampling_measure(y, fs)
+    # the rule is not among the default post-steps (a limiter after a converter fills the stop band too): applied
+    # here by hand to the measurements
+    m = bw.cliff_needs_images(_sampling_measure(y, fs))
     assert m["upsampled_from_hz"] is None and m["band_limit_hz"] is not None, m["bandwidth_note"]
     assert "no images" in m["bandwidth_note"] and m["upsampled_channels"] == []
     src = sps.lfilter([1.0], [1.0, -0.5], 0.1 * rng.standard_normal((int(44100 * 1.5), 2)), axis=0)
     up = np.zeros((src.shape[0] * 2, 2))
     up[::2] = 2.0 * src
-    m2 = _sampling_measure(quantise24(sps.lfilter(h, 1.0, up, axis=0), rng), fs)
+    m2 = bw.cliff_needs_images(_sampling_measure(quantise24(sps.lfilter(h, 1.0, up, axis=0), rng), fs))
     assert m2["upsampled_from_hz"] == 44100, m2["bandwidth_note"]
 
 

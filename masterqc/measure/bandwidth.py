@@ -984,7 +984,13 @@ def cliff_needs_images(m: dict) -> dict:
     A converter's stop band holds images of the programme below the old Nyquist, which that analysis finds
     even 110-125 dB down; a linear-phase FIR or IIR low-pass of the same fall leaves the programme's own content
     above its cut-off, which has no images at any rate.  Where the imaging analysis tested the rate and found
-    none, the cliff is a band limit.  Pure: measurements in, measurements out."""
+    none, the cliff is a band limit.  Pure: measurements in, measurements out.
+
+    Not among the default post-steps (:func:`masterqc.measure.registry.post_steps`): a file converted up and
+    then limited (and dithered) at the new rate holds the limiter's own products above the old Nyquist, 26-45 dB
+    over the floor, with no images of the content either, and this rule missed all six such chains of a
+    held-back validation set (converted up from 16-88.2 kHz by two resampler families).  It stays here, tested,
+    until a test tells a low-pass's leakage from a limiter's products."""
     rate = m.get("upsampled_from_hz")
     over = m.get("upsampled_stop_band_over_floor_db")
     if rate is None or m.get("upsampled_evidence") != "cliff" or over is None or over <= STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB:
