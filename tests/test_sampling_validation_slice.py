@@ -76,11 +76,11 @@ KNOWN_MISSES = {
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist (a brick wall "
         "at a standard Nyquist now names that rate and a centred design outranks a stop-band reading of the next "
         "higher rate; the slice still misses the target, its case not re-examined)",
-    ("upsampling_rate", "corpus_validation_b"):
-        "a 22.05 kHz source converted up to 88.2 kHz by sox's very-high-quality rate in a limit-and-dither chain is "
-        "named at another rate on the main that merged the eighth session's band-limit and imaging work (found on "
-        "branch s8rate after merging main; it stays wrong with either of s8rate's rules switched off: its cause lies "
-        "in the merged work, not yet examined)",
+    ("upsampling_false_alarms", "corpus_validation_b"):
+        "an MP3 round trip at 128 kbit/s in a 44.1 kHz file (2.8 s) is read as converted up from 32 kHz: the "
+        "codec's band limit ends in a cliff at 16 kHz that a converter from 32 kHz would leave; the rule that "
+        "asks such a cliff for images where the stop band holds the programme (bandwidth.cliff_needs_images) "
+        "clears it, but is not among the default steps (a limiter after a converter fills the stop band too)",
     ("upsampling_rate", "corpus_validation_c"):
         "ffmpeg's cubic resampler from 32 to 48 kHz on noise is named 16 kHz: its response is already falling at "
         "half the source's Nyquist frequency (edge at 0.50 by the corpus' own measurement) and its images about "
