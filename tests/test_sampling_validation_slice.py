@@ -71,6 +71,12 @@ def slice_tally(request, tmp_path_factory):
 #: issue 11's targets not yet met on a slice, by (test, corpus).  strict: once a detector meets its
 #: target the test XPASSes and fails, and the entry must go.
 KNOWN_MISSES = {
+    ("upsampling_false_alarms", "corpus_tuning_upsampling"):
+        "three band limits in the tuning corpus' quick slice read as conversions (3/61): an 8th-order Chebyshev II "
+        "low-pass at 17.6 kHz in a 96 kHz file, a transform coder's low-pass at a 44.1 kHz file, a 63-tap Hamming "
+        "FIR at 21.4 kHz in a 48 kHz file; their falls sit where a converter's from a standard rate would, and the "
+        "stop-band rule that clears them (bandwidth.cliff_needs_images) is not among the default steps (a limiter "
+        "after a converter fills the stop band too)",
     ("upsampling_rate", "corpus_validation"):
         "a 22.05 kHz source converted up by FFT resampling (a brick wall at the old Nyquist) on music that rolls "
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist (a brick wall "
