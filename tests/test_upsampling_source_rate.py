@@ -244,5 +244,12 @@ def test_a_hold_read_from_the_samples_names_its_own_rate_over_coherent_standard_
     assert m["upsampled_from_hz"] == 10000 and m["upsampled_evidence"] == "images"
     assert m["upsampled_confidence_fraction"] == provenance.HELD_SAMPLES_CONFIDENCE
     assert "sample-and-hold at an effective 10 kHz" in m["bandwidth_note"]
+    # the rate step that moves an image verdict down to a coherent divisor never overrules runs of repeated samples
+    # (house rule: exact evidence first): samples held at 16 kHz with images also coherent about 8 kHz keep 16 kHz,
+    # where a spectral defect at 16 kHz would move to 8 kHz
+    held16 = [dict(imaging[0]), dict(imaging[2], source_rate_hz=16000.0)]
+    assert provenance.combine({"upsampled_from_hz": None, "imaging": held16})["upsampled_from_hz"] == 16000
+    spectral16 = [dict(imaging[0]), dict(imaging[2], source_rate_hz=16000.0, evidence="spectrum", coherence=1.0)]
+    assert provenance.combine({"upsampled_from_hz": None, "imaging": spectral16})["upsampled_from_hz"] == 8000
     # without the sample evidence the most coherent (then loudest) spectral defect names the rate, as before
     assert provenance.image_source(imaging[:2])["source_rate_hz"] == 16000.0

@@ -125,6 +125,9 @@ def rate_from_images(m: dict) -> dict:
     if rate is None or evidence not in ("cliff", "segments", "images"):
         return m
     rate = int(rate)
+    src = image_source(m.get("imaging")) if evidence == "images" else None
+    if src is not None and src.get("evidence") == "samples" and int(round(float(src["source_rate_hz"]))) == rate:
+        return m                                # a hold read from its own samples: exact, like the patterns
     mirror = m.get("upsampled_mirror_rate_hz")
     mirror = int(mirror) if mirror else None
     named = image_rate(m.get("imaging"), mirror)
