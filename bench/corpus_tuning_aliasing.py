@@ -639,8 +639,8 @@ VARIED_NATIVE = ((44100, "mix", 2, 5.0), (88200, "tonal", 6, 8.0), (44100, "spee
 def pick_frames(x: np.ndarray, fs_in: int, fs_out: int, rule: str) -> np.ndarray:
     """Rate change of a ``(frames, channels)`` array with no filter (see :data:`VARIED_PICKS` for the rules)."""
     n_in = x.shape[0]
-    if rule == "drop2":
-        return x[::2]
+    if rule.startswith("drop"):                 # "drop2", "drop3": keep every 2nd or 3rd sample
+        return x[::int(rule[4:])]
     n_out = int((n_in - 2) * fs_out // fs_in)
     num = np.arange(n_out, dtype=np.int64) * fs_in
     if rule == "floor":
@@ -686,6 +686,16 @@ def _case_frames(name, family, group, fs, x, expect, rms_dbfs):
                 expect=expect, channel_labels=labels)
 
 
+def _with_twin(stem, fam, fs_in, fs, x, y, level):
+    """The unfiltered rate change ``y`` of ``x`` (group ``decimation``, folded) and its resample_poly twin cut to
+    the same length (group ``filtered-decimation``, not folded), both at ``level`` dBFS RMS."""
+    yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
+    g = math.gcd(fs_in, fs)
+    twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
+    yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
+                       {"aliasing_detected": False}, level)
+
+
 def varied_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
     """The cases of :data:`VARIED_PICKS` and :data:`VARIED_NATIVE` (own random streams)."""
     if quick:
@@ -697,11 +707,7 @@ def varied_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         y = pick_frames(x, fs_in, fs, rule)
         fam = "drop-2" if rule == "drop2" else f"pick-{rule}"
         stem = f"varied-{fam}-{kind}-{ch}ch-{fs_in // 100}-{fs // 100}-{seed}-{j}"
-        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
-        g = math.gcd(fs_in, fs)
-        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
-        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
-                           {"aliasing_detected": False}, level)
+        yield from _with_twin(stem, fam, fs_in, fs, x, y, level)
     for j, (fs, kind, ch, seconds) in enumerate(VARIED_NATIVE):
         sub = np.random.default_rng([seed, 23000 + j])
         x = master_channels(kind, ch, seconds, fs, sub)
@@ -781,11 +787,7 @@ def rule_pick_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         y = rule_convert(x, fs_in, fs, rule, sub)
         fam = f"pick-{rule}" if not rule.startswith("linear") else f"interp-{rule}"
         stem = f"rule-{fam}-{kind}-{ch}ch-{fs_in // 100}-{fs // 100}-{seed}-{j}"
-        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
-        g = math.gcd(fs_in, fs)
-        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
-        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
-                           {"aliasing_detected": False}, level)
+        yield from _with_twin(stem, fam, fs_in, fs, x, y, level)
 
 
 # ---------------------------------------------------------------- modulation voices: ring, FM, PWM, swept sync
@@ -913,11 +915,7 @@ def mono_drop_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         sub = np.random.default_rng([seed, 27000 + j])
         x = _dense_material("tonal", seconds, fs_in, sub)[:, None]
         level = sub.uniform(-30, -8)
-        y = x[::3] if rule == "drop3" else pick_frames(x, fs_in, fs, rule)
+        y = pick_frames(x, fs_in, fs, rule)
         fam = f"drop-{rule[-1]}" if rule.startswith("drop") else f"pick-{rule}"
         stem = f"mono-{fam}-tonal-{fs_in // 100}-{fs // 100}-{seed}-{j}"
-        yield _case_frames(stem, fam, "decimation", fs, y, {"aliasing_detected": True}, level)
-        g = math.gcd(fs_in, fs)
-        twin = sps.resample_poly(x, fs // g, fs_in // g, axis=0)[:y.shape[0]]
-        yield _case_frames(f"filtered-{stem}", "scipy-resample_poly", "filtered-decimation", fs, twin,
-                           {"aliasing_detected": False}, level)
+        yield from _with_twin(stem, fam, fs_in, fs, x, y, level)
