@@ -246,16 +246,7 @@ def _extra_cases(seed: int, quick: bool):
                    (f"{name}_twin", f"oversampled-{wave}", "band-limited-synth", y * g, {"imaging_detected": False}))
             rate, labels = fs, ["M"]
         for cname, fam, group, audio, expect in out:
-            audio = np.asarray(audio, dtype=float)
-            if audio.ndim == 1:
-                audio = audio[:, None]
-            peak = float(np.max(np.abs(audio)))
-            if peak > 0.99:
-                audio = audio * (0.99 / peak)
-            audio = up.quantise24(audio, rng)
-            safe = cname.lower().replace(".", "p")
-            yield Case(name=f"{safe}_s{seed}", set="tuning", family=fam, group=group, rate_hz=int(rate), audio=audio,
-                       expect=expect, channel_labels=labels)
+            yield up.tuning_case(cname, fam, group, rate, audio, expect, labels, seed, rng)
 
 
 # ================================================================ interpolating stream converters (written here)
@@ -406,14 +397,7 @@ def _stream_cases(seed: int, quick: bool):
                    (f"{name}_native", "native", "native", x, {"upsampled_from_hz": None, "imaging_detected": False}))
             rate, labels = fs, ["M"]
         for cname, fam, group, audio, expect in out:
-            audio = np.asarray(audio, dtype=float)
-            peak = float(np.max(np.abs(audio)))
-            if peak > 0.99:
-                audio = audio * (0.99 / peak)
-            audio = up.quantise24(audio, rng)
-            safe = cname.lower().replace(".", "p")
-            yield Case(name=f"{safe}_s{seed}", set="tuning", family=fam, group=group, rate_hz=int(rate), audio=audio,
-                       expect=expect, channel_labels=labels)
+            yield up.tuning_case(cname, fam, group, rate, audio, expect, labels, seed, rng)
 
 
 def cases(seed: int, quick: bool = False) -> Iterator[Case]:

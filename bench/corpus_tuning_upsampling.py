@@ -172,6 +172,22 @@ def quantise24(x: np.ndarray, rng) -> np.ndarray:
     return np.clip(np.round(x * q + rng.random(x.shape) - rng.random(x.shape)), -q, q - 1) / q
 
 
+def tuning_case(name: str, family: str, group: str, rate_hz, audio, expect: dict, labels, seed: int, rng) -> Case:
+    """A tuning :class:`Case` from ``audio`` (1-D or ``(frames, channels)``): brought under a 0.99 peak if
+    it is above it, quantised to 24 bits with ``rng``'s TPDF dither (:func:`quantise24`), named
+    ``<name>_s<seed>`` in lower case with dots as ``p``."""
+    audio = np.asarray(audio, dtype=float)
+    if audio.ndim == 1:
+        audio = audio[:, None]
+    peak = float(np.max(np.abs(audio)))
+    if peak > 0.99:
+        audio = audio * (0.99 / peak)
+    audio = quantise24(audio, rng)
+    safe = name.lower().replace(".", "p")
+    return Case(name=f"{safe}_s{seed}", set="tuning", family=family, group=group, rate_hz=int(rate_hz), audio=audio,
+                expect=expect, channel_labels=labels)
+
+
 # ---------------------------------------------------------------- upsamplers
 def upsample(x: np.ndarray, src: int, dst: int, family: str) -> np.ndarray:
     """Convert one channel from ``src`` to ``dst`` with the named tool family."""
@@ -565,16 +581,7 @@ def cases(seed: int, quick: bool = False, step: int = 1, prefix: str | None = No
             continue
         rng = _case_rng(seed, i)
         fs, y, expect, labels = _build(spec, rng, SECONDS if not quick else 1.5)
-        y = np.asarray(y, dtype=float)
-        if y.ndim == 1:
-            y = y[:, None]
-        peak = float(np.max(np.abs(y)))
-        if peak > 0.99:
-            y = y * (0.99 / peak)
-        y = quantise24(y, rng)
-        safe = name.lower().replace(".", "p")
-        yield Case(name=f"{safe}_s{seed}", set="tuning", family=family, group=group, rate_hz=int(fs), audio=y,
-                   expect=expect, channel_labels=labels)
+        yield tuning_case(name, family, group, fs, y, expect, labels, seed, rng)
 
 
 # ================================================================ imaging cases (own section)
