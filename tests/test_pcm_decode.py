@@ -160,3 +160,14 @@ def test_engine_results_equal_with_and_without_the_decoder(tmp_path, monkeypatch
                 results.append(json.dumps(engine.run_analyzers(s, opts, classes=analyzer_classes()),
                                           sort_keys=True, default=repr))
     assert results[0] == results[1] == results[2] == results[3]
+
+
+def test_without_raw_reading_libsndfile_decodes(tmp_path, monkeypatch):
+    path = _stereo24(tmp_path, 2500)
+    monkeypatch.setattr(pcm, "raw_reading_available", lambda sfile: False)
+    with open_stream(path) as a, open_stream(path) as b:
+        want = list(a.blocks(1000))
+        got = list(b.blocks_with_rows(1000))
+    assert [g.shape for g, _ in got] == [(1000, 2), (1000, 2), (500, 2)]
+    for w, (g, rows) in zip(want, got):
+        assert rows is None and np.array_equal(g, w)

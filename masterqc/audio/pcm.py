@@ -80,6 +80,14 @@ def _self_check(fn) -> bool:
     return True
 
 
+def raw_reading_available(soundfile_obj) -> bool:
+    """True when python-soundfile exposes what :func:`read_raw` uses (libsndfile's ``sf_read_raw``
+    through its cffi binding, the open file's handle and error code: internal names, so checked)."""
+    import soundfile as sf
+    return (hasattr(getattr(sf, "_snd", None), "sf_read_raw") and hasattr(sf, "_ffi")
+            and getattr(soundfile_obj, "_file", None) is not None and hasattr(soundfile_obj, "_errorcode"))
+
+
 def read_raw(soundfile_obj, ptr, nbytes: int) -> int:
     """libsndfile's ``sf_read_raw`` on an open ``soundfile.SoundFile``: up to ``nbytes`` bytes of
     sample data from its read position into the cffi buffer ``ptr``; the bytes read, or 0 when

@@ -199,7 +199,7 @@ class AudioStream:
             raise ValueError("block_frames must be >= 1")
         from masterqc.audio import pcm
         layout = pcm.layout_of(self._sf.format, self._sf.subtype, self.container.kind)
-        decode = pcm.kernel() if layout is not None else None
+        decode = pcm.kernel() if layout is not None and pcm.raw_reading_available(self._sf) else None
         if decode is None:
             for block in self._decoded_from(0, block_frames):
                 yield block, None
