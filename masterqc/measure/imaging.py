@@ -324,7 +324,7 @@ def null_coherence_bias(starts, window) -> float:
     return float(np.sum(rho ** 2)) / (m * m)
 
 
-def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None):
+def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None, first_order_only: bool = False):
     """Bin pairs of the two-sided DFT linked by the images of an upsampler from ``rate``.
 
     Returns ``(ka, kb, alpha_bins)``: full-DFT indices (0..n_fft-1) of a baseband
@@ -333,7 +333,9 @@ def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None =
     ``q`` whose images reach the band below fs (``q*rate - rate/2 < fs``).
     Conjugate duplicates and pairs closer than :data:`PAIR_GUARD_BINS` are removed.
     ``rate_for_band`` (default ``rate``) sets the baseband edge, so that control cycle
-    frequencies near a candidate pair the same baseband bins.
+    frequencies near a candidate pair the same baseband bins.  ``first_order_only``: only ``q = 1``
+    (the same pairs, in the same order, as the full set's entries at that cycle frequency: no
+    later order has that cycle frequency, and a duplicate keeps its first entry).
     """
     bin_hz = fs / n_fft
     lo = int(math.ceil(LOW_EDGE_HZ / bin_hz))
@@ -342,7 +344,7 @@ def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None =
     n = int(n_fft)
     parts_a, parts_b, parts_al = [], [], []
     q = 1
-    while q * rate - rate / 2.0 < fs:
+    while q * rate - rate / 2.0 < fs and not (first_order_only and q > 1):
         alpha = int(round(q * rate / bin_hz)) % n
         q += 1
         if alpha == 0:
@@ -474,7 +476,7 @@ def _pair_plan(fs: int, n_fft: int, rates: tuple, offsets: tuple):
     for r in rates:
         cand = {"rate": r, "cycles": []}
         for off in (0,) + offsets:
-            ka, kb, al = mirror_pairs(fs, r + off * bin_hz, n_fft, rate_for_band=r)
+            ka, kb, al = mirror_pairs(fs, r + off * bin_hz, n_fft, rate_for_band=r, first_order_only=bool(off))
             if off:
                 # a control needs only the first order (see :meth:`ImagingAnalyzer._assess`)
                 sel = al == int(round((r + off * bin_hz) / bin_hz)) % n_fft
@@ -527,7 +529,7 @@ def _main_pairs(fs: int, n_fft: int, rates: tuple, offsets: tuple):
 def _first_order_pairs(fs: int, n_fft: int, alpha_bin: int, rate: float):
     """``(ka, kb)``: the pairs of :func:`mirror_pairs` at cycle frequency ``alpha_bin`` bins (baseband below
     ``rate / 2``) whose cycle frequency is ``alpha_bin`` itself (modulo ``n_fft``).  Cached, read-only."""
-    ka, kb, al = mirror_pairs(fs, alpha_bin * (fs / n_fft), n_fft, rate_for_band=rate)
+    ka, kb, al = mirror_pairs(fs, alpha_bin * (fs / n_fft), n_fft, rate_for_band=rate, first_order_only=True)
     sel = al == alpha_bin % n_fft
     ka, kb = ka[sel], kb[sel]
     for v in (ka, kb):
