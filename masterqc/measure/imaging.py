@@ -324,15 +324,20 @@ NEAREST_PHASE_MAX_PAIRS = 256
 #: the predicted dB)
 NEAREST_PHASE_MIN_RISE = 2.0
 #: the nearest-phase test runs on at most this many candidates: the lowest rates whose band above their Nyquist
-#: frequency is quiet (:data:`NEAREST_PHASE_DROP`; where such a converter's output ends)
-#: and at which such a converter leaves images off the ordinary image cycle frequencies (house choice, cost)
-NEAREST_PHASE_MAX_CANDIDATES = 1
+#: frequency is quiet (where such a converter's output ends), and at which such a bank leaves images off the
+#: ordinary image cycle frequencies (house choice, cost); of those that read as a bank, the one whose images explain
+#: the largest share of the power above its Nyquist frequency names the source
+NEAREST_PHASE_MAX_CANDIDATES = 4
 #: a candidate's band is quiet above its Nyquist frequency when the mean bin power from just above it to 1.3 of it
-#: is at most this share of that at 0.7-0.9 of it, or its cube of that of the whole band below (own reasoning: 10
-#: and 30 dB; a converter from that rate leaves a cliff there, programme material does not fall so fast; the second
-#: for dull material, whose top is already weak; a bank with few phases fills the band above with its images, 30 to
-#: 50 dB under the content they mirror)
+#: is at most this share of that at 0.7-0.9 of it (a cliff), or :data:`NEAREST_PHASE_QUIET` of that of the whole
+#: band below (own reasoning: 10 and 30 dB; a converter from that rate leaves a cliff there, programme material
+#: seldom falls so fast; a bank with few phases fills the band above with its images, 30 to 50 dB under the content
+#: they mirror, hence the cliff rule too)
 NEAREST_PHASE_DROP = 0.1
+#: see :meth:`ImagingAnalyzer._with_nearest_phase` (own reasoning: 0.3; the source's own candidate explains a share
+#: of the same order as the highest, a lower one, whose band above holds programme, several times less)
+NEAREST_PHASE_COVER_SHARE = 0.3
+NEAREST_PHASE_QUIET = 1e-3
 
 
 def null_coherence_bias(starts, window) -> float:
@@ -1241,11 +1246,15 @@ class ImagingAnalyzer(Analyzer):
             if not (rise_pred >= NEAREST_PHASE_MIN_RISE and r_lo > 0 and r_hi > 0
                     and r_hi / r_lo >= math.sqrt(rise_pred)):
                 inv = None
+            # the share of the power at the image positions that the content explains (a converter from ``rate``
+            # leaves images and little else there; programme above ``rate / 2`` is not explained)
+            cover = float(np.sum(coh)) / max(float(np.sum(p2)), 1e-300)
+            return max(z_w, z_u), inv, cover
         return max(z_w, z_u), inv
 
     def _nearest_phase(self, ch: int, rate: float):
         """The nearest-phase test of candidate ``rate`` on channel ``ch`` (see :data:`NEAREST_PHASE_COUNTS`):
-        ``(level_db, phases, z)`` of the most significant cycle frequency, the level being the hold
+        ``(level_db, phases, z, cover)`` of the most significant cycle frequency, the level being the hold
         model's first images of the inner band's content relative to it, ``(f / R)**2`` power-weighted over
         that content with ``R`` fitted to the coherent images; None when no cycle frequency is significant or
         the material is as coherent at neighbouring cycle frequencies (controls, as the main test's)."""
@@ -1264,7 +1273,7 @@ class ImagingAnalyzer(Analyzer):
             got = self._np_stats(ch, al, rate, level=True)
             if got is None or got[0] < Z_SIGNIFICANT or got[1] is None or not got[1] > 0.0:
                 continue
-            z, inv = got
+            z, inv, cover = got
             ctrl = [self._np_stats(ch, al + off, rate, level=False) for off in CONTROL_OFFSETS_BINS]
             z_ctrl = max([c[0] for c in ctrl if c is not None], default=0.0)
             if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * z):
@@ -1272,7 +1281,7 @@ class ImagingAnalyzer(Analyzer):
             level = power_ratio_db(inv * mean_f2)
             # (the level is read where the images are clearest: the most significant cycle frequency)
             if best is None or z > best[2]:
-                best = (level, int(round(1.0 / math.sqrt(inv) / rate)), z, al)
+                best = (level, int(round(1.0 / math.sqrt(inv) / rate)), z, al, cover)
         if best is None:
             return None
         if best[0] >= DEFECT_IMAGE_LEVEL_DB:
@@ -1282,7 +1291,7 @@ class ImagingAnalyzer(Analyzer):
             spread_z = math.sqrt(sum(v * v for v in zs) / len(zs)) if zs else 0.0
             if best[2] < Z_SIGNIFICANT * max(1.0, spread_z):
                 return None
-        return best[:3]
+        return best[:3] + best[4:]
 
     def _with_nearest_phase(self, out: list) -> list:
         """``out`` with the images of a nearest-phase converter (:meth:`_nearest_phase`) made a defect where
@@ -1290,42 +1299,55 @@ class ImagingAnalyzer(Analyzer):
         own verdict is "none" or "trace")."""
         if self.store is None or self.frames < MIN_FRAMES:
             return out
-        tested = 0
-        for a in sorted(out, key=lambda e: e["source_rate_hz"]):
-            if tested >= NEAREST_PHASE_MAX_CANDIDATES:
-                break
+        ranked = []
+        for a in out:
             rate = float(a["source_rate_hz"])
             ny = rate / 2.0 / self.bin_hz
             below = slice(int(math.ceil(0.7 * ny)), int(math.floor(0.9 * ny)) + 1)
             above = slice(int(math.ceil(ny)) + 2, min(int(math.floor(1.3 * ny)), self.n_fft // 2 - 1) + 1)
             band = slice(int(math.ceil(LOW_EDGE_HZ / self.bin_hz)), int(math.ceil(ny)))
-            quiet = False
+            drop = None
             for ch in range(self.info.channels):
                 pw = self.power[ch]
                 if not (pw[above].size and pw[below].size and float(np.mean(pw[band])) > 0.0):
                     continue
                 top = float(np.mean(pw[above]))
-                if top <= NEAREST_PHASE_DROP * float(np.mean(pw[below])) or \
-                        top <= NEAREST_PHASE_DROP ** 3 * float(np.mean(pw[band])):
-                    quiet = True
-            if not quiet or not self._nearest_phase_cycles(rate):
-                continue
-            tested += 1
+                edge = top / max(float(np.mean(pw[below])), 1e-300)
+                if edge <= NEAREST_PHASE_DROP or top <= NEAREST_PHASE_QUIET * float(np.mean(pw[band])):
+                    drop = edge if drop is None else min(drop, edge)
+            if drop is not None and self._nearest_phase_cycles(rate):
+                ranked.append((rate, a))
+        # the lowest quiet rates first: where a converter's output ends
+        # of those that read as a bank, the lowest rate whose images explain at least NEAREST_PHASE_COVER_SHARE of the
+        # largest share any explains of what lies above its Nyquist frequency (a lower candidate sees the same images
+        # over programme, a higher one the same images with twice the phases)
+        found = []
+        for rate, a in sorted(ranked, key=lambda t: t[0])[:NEAREST_PHASE_MAX_CANDIDATES]:
             if a["verdict"] in ("none", "trace"):
-                self._nearest_phase_verdict(a, rate)
+                got = self._nearest_phase_found(rate)
+                if got is not None:
+                    found.append((got, a, rate))
+        if found:
+            top = max(t[0][0][0][3] for t in found)
+            got, a, rate = min((t for t in found if t[0][0][0][3] >= NEAREST_PHASE_COVER_SHARE * top),
+                               key=lambda t: t[2])
+            self._nearest_phase_verdict(a, rate, got)
         return out
 
-    def _nearest_phase_verdict(self, quiet: dict, rate: float) -> None:
-        """Make candidate entry ``quiet`` a defect where a channel's nearest-phase images reach the line."""
+    def _nearest_phase_found(self, rate: float):
+        """Per channel, the bank test's result at or above the line: ``[(result, label)]`` sorted by cover,
+        highest first, or None."""
         labels = list(self.info.channel_layout)
         found = []
         for ch in range(self.info.channels):
             r = self._nearest_phase(ch, rate)
             if r is not None and r[0] >= DEFECT_IMAGE_LEVEL_DB:
                 found.append((r, labels[ch]))
-        if not found:
-            return
-        (level, phases, z), chan = max(found, key=lambda t: t[0][0])
+        return sorted(found, key=lambda t: -t[0][3]) or None
+
+    def _nearest_phase_verdict(self, quiet: dict, rate: float, found: list) -> None:
+        """Make candidate entry ``quiet`` a defect: ``found`` its channels' results (:meth:`_nearest_phase_found`)."""
+        (level, phases, z, _cover), chan = max(found, key=lambda t: t[0][0])
         was = quiet["verdict"]
         quiet.update(verdict="defect", evidence="spectrum", channels=[c for _r, c in found], channel=chan,
                      image_level_db=round(level, 2), z_score=round(z, 2),
