@@ -1203,7 +1203,9 @@ class ImagingAnalyzer(Analyzer):
         content below ``rate / 2`` and its partners above ``rate / 2`` (where a converter from ``rate`` leaves
         nothing but images), at most :data:`NEAREST_PHASE_MAX_PAIRS` pairs spread over them; with ``level``,
         the hold model's ``1 / R**2`` fitted to the coherent image power (``sum (g2 - b) P2 / sum P1 f**2``,
-        unbiased), else None.  None without pairs."""
+        unbiased; None where it does not rise as ``f**2``, :data:`NEAREST_PHASE_MIN_RISE`) and a third value, the
+        share of the power at the image positions the content explains; without ``level`` the second is None.
+        None without pairs."""
         n = self.n_fft
         ka, kb = _clear_pairs(self.fs, n, int(al), float(rate))
         if ka.size == 0:
