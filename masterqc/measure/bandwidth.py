@@ -233,8 +233,8 @@ CONVERTER_MAX_FALL_RATIO = 0.3
 #: band up to the old Nyquist wider than this many times the fall itself (-6 dB point to the start of the stop
 #: band) -- wastes the band between, as no converter's design does; a transform coder's bandwidth setting cuts its
 #: lines there, its fall only as wide as its window's main lobe.  Both spans are read on the envelope smoothed over
-#: SMOOTH_HZ, so each may be out by about that much: the gap must exceed the fall by twice SMOOTH_HZ as well (on the
-#: scale of the search).  Own reasoning; tuning corpus (seed 1000): libsamplerate's fastest converter, whose pass band
+#: SMOOTH_HZ, so each may be out by about that much: the gap must exceed the fall by twice SMOOTH_HZ as well (in the
+#: file's own hertz).  Own reasoning; tuning corpus (seed 1000): libsamplerate's fastest converter, whose pass band
 #: ends earliest, reads -6 dB at 0.82 and its stop band from 0.92-1.01 of the old Nyquist (gap at most 0.82 of its
 #: fall), its best converter, whose fall is narrowest, a gap of up to 0.86 of a fall of 0.02 of the old Nyquist; an
 #: AC-3-like coder's bandwidth code at 14.6-14.7 kHz in a 48 kHz file reads -6 dB at 0.91-0.92 and its stop band
@@ -635,15 +635,15 @@ def _cliff_at(env_db, bin_hz, top_bin, e, post):
             "stop_start_hz": _crossing(env_db, start, top_bin, post + STOP_TOLERANCE_DB, bin_hz) or fb}
 
 
-def ends_short(cliff: dict, rate_hz: float) -> bool:
+def ends_short(cliff: dict, rate_hz: float, scale: int = 1) -> bool:
     """True when a cliff's fall is over short of ``rate_hz``'s Nyquist frequency by more than
     :data:`CONVERTER_MAX_GAP_RATIO` times its own width (the -6 dB point ``edge_hz`` to the start of the stop band
-    ``stop_start_hz``, on the scale of the search) and twice :data:`SMOOTH_HZ`: no converter from that rate ends its
-    fall there."""
+    ``stop_start_hz``, on the scale of the search) and twice :data:`SMOOTH_HZ` (the file's own hertz, so ``scale``
+    times that on the scale of the search): no converter from that rate ends its fall there."""
     stop, edge = cliff.get("stop_start_hz"), cliff.get("edge_hz")
     if stop is None or edge is None or stop <= edge:
         return False
-    return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ
+    return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ * scale
 
 
 def transition_width_hz(cliff: dict) -> float:
@@ -1253,7 +1253,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
         brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
-        if not brick and ends_short(cliff, rate):
+        if not brick and ends_short(cliff, rate, scale):
             cliff["ends_short"] = rate / scale
             rate = None
         elif not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
