@@ -52,6 +52,13 @@ drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
   (families ``naive-<kind>`` and ``oversampled-<kind>``); ``decimation`` (True), last: mono tonal music
   dropped 2:1 or 3:1 or picked 48 -> 44.1 kHz (:data:`MONO_DROPS`), with resample_poly twins.
 
+- ``naive-synth`` (True) and ``band-limited-synth`` (False), last: two-operator FM voices (:data:`FM_VOICES`:
+  carriers 200 Hz - 3 kHz, peak index 1-8, whole and fractional ratios) and naive ring modulators
+  (:data:`RING_VOICES`), each with two twins rendered at 8x: cut at Nyquist in the FFT domain (``oversampled-fm``,
+  ``oversampled-ring``) and brought down by resample_poly (``oversampled-fm-poly``, ``oversampled-ring-poly``);
+  ``decimation`` (True): crushed holds at fractional steps 1.67-5.13, some quantised to 10-12 bits
+  (:data:`CRUSH_HOLDS`, family ``crush-hold``), with FFT-band-limited twins (``filtered-decimation``, False).
+
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
 """

@@ -24,6 +24,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy import signal
 
 import sys
 from pathlib import Path
@@ -1060,3 +1061,29 @@ def test_a_reflected_grid_finding_reads_as_a_plain_sentence():
     f = next(f for f in found if f.check == "sampling.aliasing")
     assert f.status == "fail"
     assert "frequency- or ring-modulated voice come back mirrored about 24 kHz" in f.message
+
+
+@pytest.mark.parametrize("f_rel,most_db,least_db", [(0.55, -21.5, -24.0), (0.58, -52.0, -200.0),
+                                                    (0.65, -52.0, -200.0), (0.9, -52.0, -200.0)])
+def test_resample_polys_own_filter_folds_past_0_58_fs_at_least_52_db_down(f_rel, most_db, least_db):
+    """Where the thresholds REFLECTED_MIN_REL_DB (50 dB), POLY_TOP_FRACTION (0.45) and TRACK_MAX_FALL_FRACTION (0.42)
+    come from, measured on scipy's resample_poly itself (a general-purpose reference library, default filter): a sine
+    at f_rel * fs_out, made at 8 * fs_out and brought down by 8, comes back folded at (1 - f_rel) * fs_out, about
+    22.6 dB down from 0.55 fs (fold at 0.45 fs) and more than 52 dB down from 0.58 fs (folds below 0.42 fs); taking
+    every 8th sample instead keeps it at 0 dB."""
+    fs_out = 48000
+    n = fs_out                                  # 1 s at the output rate: 1 Hz bins
+    f = f_rel * fs_out
+    t = np.arange(8 * n) / (8 * fs_out)
+    x = np.sin(2 * math.pi * f * t)
+    y = signal.resample_poly(x, 1, 8)
+    folded = int(round(fs_out - f))
+    mid = slice(n // 4, 3 * n // 4)             # away from the filter's start and end
+    seg = y[mid]
+    amp = np.abs(np.fft.rfft(seg * np.hanning(seg.size))) / (0.25 * seg.size)
+    level_db = 20 * math.log10(max(float(amp[int(round(folded * seg.size / fs_out))]), 1e-12))
+    assert least_db <= level_db <= most_db
+    naive = x[::8][mid]
+    amp_n = np.abs(np.fft.rfft(naive * np.hanning(naive.size))) / (0.25 * naive.size)
+    assert 20 * math.log10(float(amp_n[int(round(folded * naive.size / fs_out))])) == pytest.approx(0.0, abs=0.05)
+    assert al.TRACK_MAX_FALL_FRACTION <= 1 - 0.58 < al.POLY_TOP_FRACTION

@@ -134,11 +134,15 @@ REFLECT_POSITION_TOLERANCE_HZ = 150.0
 MIN_TRACK_SLOPE_HZ_PER_S = 5000.0
 #: look for the reflected continuation at most this long after the rising partial
 REFLECT_MAX_GAP_S = 0.25
-#: a reflected partial counts only when one of its sightings falls below POLY_TOP_FRACTION of fs:
+#: a reflected partial counts only when one of its sightings falls below TRACK_MAX_FALL_FRACTION of fs:
 #: a partial with a deep vibrato swings through a proper decimation filter's transition band,
 #: which straddles Nyquist, and comes back mirrored close to Nyquist (seen on
-#: oversampled-and-filtered voices and a filtered decimation in the tuning corpus; house choice)
+#: oversampled-and-filtered voices and a filtered decimation in the tuning corpus; house choice).
+#: scipy's resample_poly (its default Kaiser design) is down only 22.6 dB at 0.55 fs, whose fold lands at 0.45 fs,
+#: and 53 dB from 0.58 fs on: below 0.42 fs its folds are 53 dB or more down (computed from its taps; a strong
+#: ring-modulated partial came back mirrored at 0.44-0.45 fs through it in the tuning corpus)
 MIN_REFLECTED_PARTIALS = 1
+TRACK_MAX_FALL_FRACTION = 0.42
 
 
 #: the first pass analyses every FIRST_PASS_STRIDE-th frame of each test (for the partial tracks, runs of
@@ -542,15 +546,16 @@ def voice_grid(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, fs: floa
     p = float(freqs_hz[order[0]])
     top = freqs_hz[order[:REFLECTED_SEED_PEAKS]]
     d = np.abs(top[:, None] - top[None, :])[_upper_pairs(top.size)]
-    d = np.sort(np.round(d[(d >= REFLECTED_MIN_SPACING_BINS * bin_hz) & (d <= fs / 4.0)], 1))
+    d = d[(d >= REFLECTED_MIN_SPACING_BINS * bin_hz) & (d <= fs / 4.0)][:, None]
     if d.size == 0:
         return None
-    d = d[np.concatenate([[True], d[1:] != d[:-1]])]
     tol = REFLECTED_MATCH_BINS * bin_hz + NOTE_TOLERANCE_REL * freqs_hz
     # rows: candidate spacings; a line matches when it sits at +p or -p modulo the spacing
-    ok = (_circ(freqs_hz[None, :], p, d[:, None]) <= tol[None, :]) | \
-         (_circ(freqs_hz[None, :], -p, d[:, None]) <= tol[None, :])
-    score = np.where(ok, powers[None, :], 0.0).sum(axis=1)
+    r_plus = np.mod(freqs_hz - p, d)
+    r_minus = np.mod(freqs_hz + p, d)
+    ok = (np.minimum(r_plus, d - r_plus) <= tol) | (np.minimum(r_minus, d - r_minus) <= tol)
+    d = d[:, 0]
+    score = ok @ powers
     cnt = ok.sum(axis=1)
     good = np.nonzero(cnt >= NOTE_MIN_PEAKS)[0]
     if good.size == 0:
@@ -1869,7 +1874,7 @@ class AliasingAnalyzer(Analyzer):
         reflections = []
         for tr in self.trackers:
             reflections += find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"],
-                                            max_fall_hz=POLY_TOP_FRACTION * self.fs)
+                                            max_fall_hz=TRACK_MAX_FALL_FRACTION * self.fs)
         f0s = [r["f0_hz"] for r in tonal] or [f for _s, r in poly_assess for f in r["f0_hz"][:1]]
         n_poly = len(self.poly)
         poly_or_grid = sum(1 for _s, r in poly_signal if r is not None and (r["instances"] or r["grid_instances"]))
