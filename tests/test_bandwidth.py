@@ -1041,3 +1041,96 @@ def test_cliff_needs_images_makes_the_segments_agree_with_the_file():
     assert [s["upsampled_from_hz"] for s in out["bandwidth_segments"]] == [None, 32000]
     assert out["bandwidth_segments"][0]["upsampled_confidence_fraction"] is None
     assert segs[0]["upsampled_from_hz"] == 44100          # the measurements passed in are not modified
+
+
+# ---------------------------------------------------------------- very-high-quality and minimum-phase converters
+
+def _kaiser_converter_taps(src, dst, pass_ratio, atten_db, minimum=False):
+    """A polyphase converter's interpolation filter written from the published windowed-sinc method: a Kaiser window
+    for ``atten_db`` over the transition from ``pass_ratio`` of the source Nyquist to the source Nyquist
+    (scipy.signal.kaiserord), the sinc's cutoff midway (scipy.signal.firwin), at the working rate ``src * up``
+    with DC gain ``up``; ``minimum``: the same magnitude, minimum phase (scipy.signal.minimum_phase, homomorphic,
+    ``half=False``)."""
+    up = Fraction(dst, src).numerator
+    work = float(src * up)
+    taps, beta = sps.kaiserord(atten_db, (1.0 - pass_ratio) * (src / 2.0) / (work / 2.0))
+    h = sps.firwin(taps | 1, 0.5 * (1.0 + pass_ratio) * src / 2.0, window=("kaiser", beta), fs=work) * up
+    if minimum:
+        h = sps.minimum_phase(h, method="homomorphic", half=False, n_fft=1 << int(np.ceil(np.log2(64 * h.size))))
+    return h, work, up
+
+
+def _kaiser_convert(x, src, dst, h, up):
+    """Polyphase conversion with taps ``h`` (scipy.signal.upfirdn), the input followed by the filter's length of
+    silence so the output holds its whole response (a converter flushes its filter), the linear-phase delay taken
+    off."""
+    down = Fraction(dst, src).denominator
+    x = np.concatenate([x, np.zeros(h.size // up + 2)])
+    n_out = x.size * up // down
+    y = sps.upfirdn(h, x, up, down)
+    return y[:n_out] if np.argmax(np.abs(h)) < h.size // 4 else y[(h.size // 2) // down:][:n_out]
+
+
+def _response_db(h, work, up, f_hz):
+    _f, H = sps.freqz(h / up, worN=np.asarray(f_hz, dtype=float), fs=work)
+    return 20 * np.log10(np.maximum(np.abs(H), 1e-300))
+
+
+@pytest.mark.parametrize("atten_db", [100.0, 150.0, 200.0])
+def test_steepest_standard_design_falls_wider_than_the_converter_minimum(atten_db):
+    # Analytic (CONVERTER_MIN_WIDTH_RATIO): a very-high-quality converter's design, pass band to 0.95 of the old
+    # Nyquist and stop band from it, read from its own taps: its -6 dB point is its cutoff (0.975) and its fall from
+    # -3 to -30 dB spans 0.26-0.37 of the 5 % transition (a Kaiser window's main lobe), so at least 1.3 % of the
+    # old Nyquist: the converter minimum must lie at or below that, and the brick-wall limit above it
+    h, work, up = _kaiser_converter_taps(44100, 48000, 0.95, atten_db)
+    f = np.linspace(0.9 * 22050, 22050, 4001)
+    db = _response_db(h, work, up, f)
+    at = lambda level: float(f[np.nonzero(db < level)[0][0]])          # noqa: E731
+    assert at(-6.0) / 22050 == pytest.approx(0.975, abs=0.001)
+    width = (at(-30.0) - at(-3.0)) / 22050
+    assert 0.26 * 0.05 - 0.0005 <= width <= 0.37 * 0.05 + 0.0005
+    assert bw.CONVERTER_MIN_WIDTH_RATIO <= width < bw.BRICK_WALL_MAX_WIDTH_RATIO
+    # (Kaiser's formula for the window is empirical: the stop band reaches 0.9 of the asked attenuation at least)
+    assert float(np.max(_response_db(h, work, up, np.linspace(22050, 24000, 400)))) <= -0.9 * atten_db
+
+
+@pytest.mark.parametrize("src,dst", [(44100, 48000), (88200, 96000), (22050, 24000), (48000, 96000)])
+@pytest.mark.parametrize("minimum", [False, True])
+def test_very_high_quality_converter_at_a_small_ratio_is_found(src, dst, minimum):
+    # A design with its pass band to 0.95 of the old Nyquist and its stop band (150 dB; 120 dB made minimum phase)
+    # from it, at ratios whose stop band above the old Nyquist is only 1-4 kHz wide in the file: the rate is the
+    # source's, and the edge the detector reports is the design's own -6 dB point (0.975 of the old Nyquist from
+    # its taps, the same for the minimum-phase design, whose magnitude is the linear design's) within 0.02
+    h, work, up = _kaiser_converter_taps(src, dst, 0.95, 120.0 if minimum else 150.0, minimum)
+    f = np.linspace(0.9 * src / 2, src / 2, 2001)
+    db = _response_db(h, work, up, f)
+    f6 = float(f[np.nonzero(db < -6.0)[0][0]])
+    assert f6 / (src / 2) == pytest.approx(0.975, abs=0.002)
+    rng = np.random.default_rng([91, src, dst, int(minimum)])
+    y = _kaiser_convert(0.1 * rng.standard_normal(int(src * 1.5)), src, dst, h, up)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    assert r.measurements()["upsampled_edge_ratio"] == pytest.approx(f6 / (src / 2), abs=0.02)
+
+
+def test_minimum_phase_design_keeps_the_magnitude():
+    # Analytic: the homomorphic (cepstral) method with half=False keeps |H| and only changes the phase, so the
+    # minimum-phase converter's pass band, -6 dB point and stop band are the linear-phase design's; scipy's default
+    # (half=True) returns a filter of about half the length whose magnitude is the square root of the original's
+    # (its dB halved through the transition, relative to its own DC gain), a slower and shallower cliff
+    h, work, up = _kaiser_converter_taps(44100, 48000, 0.95, 120.0)
+    hm, _w, _u = _kaiser_converter_taps(44100, 48000, 0.95, 120.0, minimum=True)
+    f_pass = np.linspace(0.0, 0.95 * 22050, 200)
+    f_tr = np.linspace(0.95 * 22050, 22050, 200)
+    lin_tr, min_tr = _response_db(h, work, up, f_tr), _response_db(hm, work, up, f_tr)
+    assert np.max(np.abs(_response_db(hm, work, up, f_pass) - _response_db(h, work, up, f_pass))) < 0.01
+    above = lin_tr > -60.0
+    assert np.max(np.abs(min_tr[above] - lin_tr[above])) < 0.1
+    assert float(np.max(_response_db(hm, work, up, np.linspace(22050, 24000, 200)))) < -110.0
+    half = sps.minimum_phase(h, method="homomorphic", n_fft=1 << int(np.ceil(np.log2(64 * h.size))))
+    half_tr = _response_db(half, work, up, f_tr) - _response_db(half, work, up, [0.0])[0]
+    deep = (lin_tr < -6.0) & (lin_tr > -80.0)
+    assert np.max(np.abs(half_tr[deep] - 0.5 * lin_tr[deep])) < 0.5          # the square root: half the dB
+    # minimum phase: the energy comes first (the linear design's is centred)
+    e = np.cumsum(hm ** 2) / np.sum(hm ** 2)
+    assert e[hm.size // 10] > 0.9 and np.sum(h[:h.size // 2] ** 2) / np.sum(h ** 2) < 0.51

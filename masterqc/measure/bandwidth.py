@@ -218,7 +218,7 @@ CONVERTER_MAX_SHAPE_RATIO = 0.9
 #: Butterworth low-passes of order 10-12 at 20-21 kHz in a 48 kHz file fall from -6 to -40 dB within 0.88-1.3 kHz
 #: and must be read (analytic shape ratio of the 12th-order one at 20 kHz: 1.14); narrower falls are not resolved)
 SHAPE_MIN_SPAN_HZ = 850.0
-#: a brick wall (narrower than CONVERTER_MIN_WIDTH_RATIO) counts as a converter only this close to a standard
+#: a brick wall (narrower than BRICK_WALL_MAX_WIDTH_RATIO) counts as a converter only this close to a standard
 #: Nyquist: an FFT resampler zeroes every bin above the old Nyquist exactly, while codec and filter brick walls sit
 #: anywhere (own reasoning)
 BRICK_WALL_RATIO_TOLERANCE = 0.015
@@ -235,8 +235,27 @@ LOW_PASS_TOP_RATIO = 2.6
 TESTABLE_MAX_RATIO = 0.93
 #: a cliff whose edge is above this fraction of the file's Nyquist is the file's own anti-alias filter (own reasoning; converters commonly pass to 0.45 fs = 0.9 x Nyquist, common practice, no source)
 OWN_FILTER_RATIO = 0.9
-#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent (the steepest sinc converters fall from -3 to -30 dB in 2-2.5 % of the old Nyquist, as read on the envelope); the brick walls of codec low-passes, which zero whole bands, are narrower and are band limits unless they sit at a standard Nyquist, see BRICK_WALL_RATIO_TOLERANCE)
-CONVERTER_MIN_WIDTH_RATIO = 0.02
+#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist.  Analytic, from the
+#: steepest standard design: a very-high-quality converter ends its pass band at 0.95 of the old Nyquist and begins its
+#: stop band (150-200 dB) at it, a transition of 5 %; a Kaiser-windowed sinc of that transition falls from -3 to -30 dB
+#: in 0.26-0.30 of it (scipy.signal.kaiserord and firwin, frequency response of the taps; see
+#: tests/test_bandwidth.py), 1.3-1.5 % of the old Nyquist, and the envelope only widens it (1.7 % as read for a
+#: 150 dB design from 44.1 kHz).  The brick walls of codec low-passes, which zero whole bands, are narrower still and
+#: are band limits unless they sit at a standard Nyquist (BRICK_WALL_RATIO_TOLERANCE, BRICK_WALL_MAX_WIDTH_RATIO)
+CONVERTER_MIN_WIDTH_RATIO = 0.012
+#: a fall narrower than BRICK_WALL_MAX_WIDTH_RATIO (and no narrower than CONVERTER_MIN_WIDTH_RATIO) away from a
+#: standard Nyquist's brick wall is a converter's only as a very-high-quality design makes it: a transition that
+#: narrow (at most 0.02 / 0.26 = 7.7 % of the old Nyquist, see CONVERTER_MIN_WIDTH_RATIO) puts the -6 dB point, midway,
+#: at 0.96 or above and the stop band at the old Nyquist.  Read on the envelope: -6 dB at STEEP_MIN_EDGE_RATIO and the
+#: stop band from STEEP_MIN_STOP_RATIO of the old Nyquist at least (own reasoning from the designs; the tuning
+#: corpus' 150-170 dB designs with pass bands to 0.93-0.95 read 0.96-0.98 and 0.98-1.0; a 10th-order elliptic
+#: low-pass at 15 kHz in a 48 kHz file, as steep, reads 0.94 and 0.96 of 16 kHz)
+STEEP_MIN_EDGE_RATIO = 0.955
+STEEP_MIN_STOP_RATIO = 0.97
+#: a fall narrower than this fraction of the source Nyquist (-3 to -30 dB) within BRICK_WALL_RATIO_TOLERANCE of a
+#: standard Nyquist is a brick wall: an FFT resampler's, or a coder's, told apart by what lies above it
+#: (:func:`_programme_above`).  Own reasoning: the envelope reads a whole-file DFT resampler's wall 1-2 % wide
+BRICK_WALL_MAX_WIDTH_RATIO = 0.02
 #: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the format's floor for the candidate to be testable, dB (own reasoning: a cliff must be able to fall UPSAMPLED_MIN_DEPTH_DB + ABOVE_FLOOR_DB)
 TESTABLE_MIN_CONTENT_DB = 50.0
 #: ... and lie no further than this below the programme's main band (median of 1-10 kHz), dB (own reasoning: content that far down sits at a real master's noise floor, where no cliff can show)
@@ -650,6 +669,20 @@ def transition_width_hz(cliff: dict) -> float:
     if cliff.get("tilt_db_per_khz", 0.0) > 0.0:
         return 1.45 * (cliff["f30_hz"] - cliff["edge_hz"])
     return cliff["f30_hz"] - cliff["f3_hz"]
+
+
+def converter_width_fits(cliff: dict, rate_hz: float) -> bool:
+    """Is a cliff's fall (:func:`transition_width_hz`, frequencies on the scale of ``rate_hz``) as wide as a
+    converter's from ``rate_hz``?  At least :data:`BRICK_WALL_MAX_WIDTH_RATIO` of the old Nyquist, or narrower down to
+    :data:`CONVERTER_MIN_WIDTH_RATIO` where it ends at the old Nyquist as a very-high-quality design's does
+    (:data:`STEEP_MIN_EDGE_RATIO`, :data:`STEEP_MIN_STOP_RATIO`)."""
+    nyq = rate_hz / 2.0
+    width = transition_width_hz(cliff)
+    if width >= BRICK_WALL_MAX_WIDTH_RATIO * nyq:
+        return True
+    stop = cliff.get("stop_start_hz")
+    return (width >= CONVERTER_MIN_WIDTH_RATIO * nyq and cliff["edge_hz"] >= STEEP_MIN_EDGE_RATIO * nyq
+            and stop is not None and stop >= STEEP_MIN_STOP_RATIO * nyq)
 
 
 def steep_relative(cliff: dict) -> bool:
@@ -1190,14 +1223,20 @@ def drops_somewhere(power, bin_hz: float, fs: float, floor_db: float) -> bool:
     return _drop_at(env, bin_hz, min(len(env), _bins(0.99 * fs / 2.0, bin_hz)), testable)
 
 
-def _drop_at(env, bin_hz: float, top: int, rates) -> bool:
-    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``."""
+def _drop_at(env, bin_hz: float, top: int, rates, small_ratio: bool = False) -> bool:
+    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``; ``small_ratio``: where the window above
+    a candidate's Nyquist finds no room below ``top``, read it from the old Nyquist up (the low-rate passes of
+    :func:`assess_power`: a 22.05 kHz source in a 24 kHz file)."""
     for r in rates:
         nyq_r = r / 2.0
         gap = min(POST_WINDOW_HZ[0], 0.25 * nyq_r)
         k0, k1 = _bins(0.70 * nyq_r, bin_hz), _bins(0.84 * nyq_r, bin_hz)
         k2 = _bins(nyq_r + gap, bin_hz)
         k3 = min(top, _bins(nyq_r + gap + min(POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0], 0.5 * nyq_r), bin_hz))
+        if k3 - k2 < 10 and small_ratio:
+            # a small ratio (22.05 kHz in a 24 kHz file, 44.1 in 48): no room above the gap, so the stop band is read
+            # from the old Nyquist up, where a converter that rejects its images has reached it
+            k2, k3 = _bins(nyq_r, bin_hz), top
         if k3 - k2 < 10 or k1 <= k0:
             continue
         if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
@@ -1296,7 +1335,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
     rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
-             and transition_width_hz(cliff) < CONVERTER_MIN_WIDTH_RATIO * r / 2.0]
+             and transition_width_hz(cliff) < BRICK_WALL_MAX_WIDTH_RATIO * r / 2.0]
     if walls:
         # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
         # old Nyquist exactly, so where its stop band "begins" says nothing more
@@ -1306,10 +1345,10 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         width = transition_width_hz(cliff)
         # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
-        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < BRICK_WALL_MAX_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
-                and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
+                and (brick or converter_width_fits(cliff, rate))
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
                 and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
             rate = None
@@ -1380,7 +1419,7 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
         # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins
         low = [r for r in testable if scale_for(r) == scale]
-        if not low or not _drop_at(env, bin_hz, top, low):
+        if not low or not _drop_at(env, bin_hz, top, low, small_ratio=True):
             continue
         top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
         c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
