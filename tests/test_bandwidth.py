@@ -1097,10 +1097,11 @@ def test_steepest_standard_design_falls_wider_than_the_converter_minimum(atten_d
 @pytest.mark.parametrize("src,dst", [(44100, 48000), (88200, 96000), (22050, 24000), (48000, 96000)])
 @pytest.mark.parametrize("minimum", [False, True])
 def test_very_high_quality_converter_at_a_small_ratio_is_found(src, dst, minimum):
-    # A design with its pass band to 0.95 of the old Nyquist and its stop band (150 dB; 120 dB made minimum phase)
-    # from it, at ratios whose stop band above the old Nyquist is only 1-4 kHz wide in the file: the rate is the
-    # source's, and the edge the detector reports is the design's own -6 dB point (0.975 of the old Nyquist from
-    # its taps, the same for the minimum-phase design, whose magnitude is the linear design's) within 0.02
+    # Analytic: a design with its pass band to 0.95 of the old Nyquist and its stop band (150 dB; 120 dB made
+    # minimum phase) from it has its -6 dB point midway, at 0.975 of the old Nyquist (read from its taps to 0.002,
+    # the same for the minimum-phase design, whose magnitude is the linear design's).  At ratios whose stop band
+    # above the old Nyquist is only 1-4 kHz wide in the file the rate must be the source's, and the edge the detector
+    # reports the design's own -6 dB point within 0.02 (house choice: the envelope's smoothing, SMOOTH_HZ)
     h, work, up = _kaiser_converter_taps(src, dst, 0.95, 120.0 if minimum else 150.0, minimum)
     f = np.linspace(0.9 * src / 2, src / 2, 2001)
     db = _response_db(h, work, up, f)
@@ -1134,3 +1135,20 @@ def test_minimum_phase_design_keeps_the_magnitude():
     # minimum phase: the energy comes first (the linear design's is centred)
     e = np.cumsum(hm ** 2) / np.sum(hm ** 2)
     assert e[hm.size // 10] > 0.9 and np.sum(h[:h.size // 2] ** 2) / np.sum(h ** 2) < 0.51
+
+
+def test_a_cliff_that_fits_the_next_rate_up_as_well_names_its_rate_with_less_confidence():
+    # Arithmetic of the rule (house choice, rival_fit): a cliff at 10.4 kHz whose stop band begins at 11.05 kHz reads
+    # 0.943 and 1.002 of 11.025 kHz (22.05 kHz) and 0.867 and 0.921 of 12 kHz (24 kHz): both in range, so both rates
+    # get a fit, and the verdict's position score is its own fit less the other's
+    fits = {}
+    rate, score = bw.match_rate(10400.0, [22050, 24000, 32000], 11050.0, fits_out=fits)
+    assert set(fits) == {22050, 24000}
+    assert fits[22050] == pytest.approx(max(0.05, 1.0 - abs(11050.0 / 11025.0 - bw.STOP_RATIO_TYPICAL) / 0.1))
+    assert fits[24000] == pytest.approx(max(0.05, 1.0 - abs(11050.0 / 12000.0 - bw.STOP_RATIO_TYPICAL) / 0.1))
+    assert score == max(fits.values()) and rate == max(fits, key=fits.get)
+    assert bw.rival_fit(fits, rate) == pytest.approx(min(fits.values()))
+    # a cliff only one rate explains (44.1 kHz: 21.0 kHz edge, stop band from 21.9 kHz) has no rival
+    alone = {}
+    assert bw.match_rate(21000.0, [22050, 24000, 32000, 44100], 21900.0, fits_out=alone)[0] == 44100
+    assert bw.rival_fit(alone, 44100) == 0.0

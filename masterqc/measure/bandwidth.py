@@ -733,7 +733,7 @@ def _crossing(env_db, start, stop, level, bin_hz):
 
 
 def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
-               leaks=None) -> tuple[int | None, float]:
+               leaks=None, fits_out: dict | None = None) -> tuple[int | None, float]:
     """The candidate rate whose Nyquist best explains an edge, and the fit score (0..1).
 
     Without ``stop_start_hz`` only the -6 dB point is read (:data:`EDGE_RATIO_RANGE`, nearest
@@ -743,7 +743,11 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
     design's centred on the old Nyquist (:data:`LEAKY_MIN_EDGE_RATIO`, :data:`LEAKY_STOP_RATIO_RANGE`),
     the fit being how near 1.0 its -6 dB point lies, and ``leaks(rate)`` (when given) confirms images
     just above the old Nyquist; the better fit counts.
+
+    ``fits_out`` (a dict, when given) receives every candidate's fit: where another rate explains the cliff
+    nearly as well, the verdict's confidence falls (:func:`rival_fit`).
     """
+    fit_of = {}
     best, score = None, 0.0
     for r in candidates:
         ratio = edge_hz / (r / 2.0)
@@ -767,9 +771,20 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
             if not fits:
                 continue
             s = max(0.05, max(fits))
+        fit_of[r] = s
         if best is None or s > score:
             best, score = r, s
+    if fits_out is not None:
+        fits_out.update(fit_of)
     return best, score
+
+
+def rival_fit(fits: dict, rate) -> float:
+    """The best fit (:func:`match_rate`) of a candidate other than ``rate`` that the edge and stop band also
+    explain: 0 when none.  The confidence of a cliff's verdict counts its fit less this (house choice): where the
+    next standard rate explains the same cliff about as well (22.05 and 24 kHz read 0.92 of each other's Nyquist,
+    so a cliff on a programme that ends below the old Nyquist fits both), the reading names a rate on weak evidence."""
+    return max([f for r, f in fits.items() if r != rate], default=0.0)
 
 
 def butterworth_db(f_hz, corner_hz: float, order: float, fs: float, passes: int = 1):
@@ -1333,13 +1348,16 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
             fine = fine_structure_db(total, bin_hz)
         got = mirror_correlation(fine, bin_hz, r_scaled / scale, LEAKY_MIRROR_BAND_RATIO, min(len(fine), top))
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
-    rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
+    fits = {}
+    rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks, fits_out=fits)
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
              and transition_width_hz(cliff) < BRICK_WALL_MAX_WIDTH_RATIO * r / 2.0]
     if walls:
         # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
         # old Nyquist exactly, so where its stop band "begins" says nothing more
         rate, pos = walls[0], 1.0
+        fits = {}
+    cliff["rival_fit"] = rival_fit(fits, rate)
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
@@ -1447,7 +1465,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
             out.upsampled_from_hz = int(rate)
             out.brick = bool(cliff.get("brick"))
-            out.confidence = round(0.4 + 0.6 * (c_depth + pos + c_slope) / 3.0, 2)
+            c_pos = max(0.0, pos - float(cliff.get("rival_fit", 0.0)))
+            out.confidence = round(0.4 + 0.6 * (c_depth + c_pos + c_slope) / 3.0, 2)
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
