@@ -775,10 +775,22 @@ def column_median(a: np.ndarray) -> np.ndarray:
     """The median of every column of ``a`` (the same numbers as ``np.median(a, axis=0)``: the middle row, or half
     the sum of the two middle rows, once sorted), by one partial sort along the rows."""
     r = a.shape[0]
+    # (a full sort along the rows: the same order statistics, quicker than a partition across rows)
+    part = np.sort(a, axis=0)
     if r % 2:
-        return np.partition(a, r // 2, axis=0)[r // 2]
-    part = np.partition(a, [r // 2 - 1, r // 2], axis=0)
+        return part[r // 2]
     return 0.5 * (part[r // 2 - 1] + part[r // 2])
+
+
+def last_axis_median(a: np.ndarray) -> np.ndarray:
+    """``np.median(a, axis=-1)``, the same numbers: for an even length the mean of the two middle values,
+    the lower one taken as the largest below one partition point (a partition at two points costs
+    several times one); NaN input goes to ``np.median`` itself."""
+    n = a.shape[-1]
+    if n % 2 or n < 2 or np.isnan(a).any():
+        return np.median(a, axis=-1)
+    part = np.partition(a, n // 2, axis=-1)
+    return (part[..., :n // 2].max(axis=-1) + part[..., n // 2]) / 2.0
 
 
 @functools.lru_cache(maxsize=8)
@@ -788,9 +800,10 @@ def _block_interpolation(n: int, block: int):
     u = np.arange(n) / block - 0.5
     j = np.clip(np.floor(u).astype(np.int64), 0, nb - 2)
     t = np.clip(u - j, 0.0, 1.0)
-    for v in (j, t):
+    rest = 1.0 - t
+    for v in (j, t, rest):
         v.flags.writeable = False
-    return j, t
+    return j, t, rest
 
 
 def row_block_floor(power: np.ndarray, block: int) -> np.ndarray:
@@ -799,18 +812,29 @@ def row_block_floor(power: np.ndarray, block: int) -> np.ndarray:
     beyond the first and last centre)."""
     rows, n = power.shape
     nb = max(1, n // block)
-    med = np.median(power[:, :nb * block].reshape(rows, nb, block), axis=2)
+    med = last_axis_median(power[:, :nb * block].reshape(rows, nb, block))
     if nb == 1:
         return np.repeat(med, n, axis=1)
-    j, t = _block_interpolation(n, block)
-    return med[:, j] * (1.0 - t) + med[:, j + 1] * t
+    j, t, rest = _block_interpolation(n, block)
+    # med[:, j] * (1 - t) + med[:, j + 1] * t, in place on the two gathered arrays (the same operations)
+    out = med[:, j]
+    out *= rest
+    upper = med[:, j + 1]
+    upper *= t
+    out += upper
+    return out
 
 
 def grid_median_level(spectra: np.ndarray):
     """``(alpha, median_level)``: every bin's drop rate (cycles per sample) and the median over the frames
     (rows of ``spectra``) of its power over the frame's local floor."""
     nfft = 2 * (spectra.shape[1] - 1)
-    power = spectra.real ** 2 + spectra.imag ** 2
+    # |z|^2 = re^2 + im^2 on the interleaved floats (the same values as spectra.real ** 2 + spectra.imag ** 2)
+    if spectra.dtype == np.complex128:
+        sq = np.square(np.ascontiguousarray(spectra).view(np.float64))
+        power = sq[:, 0::2] + sq[:, 1::2]
+    else:
+        power = spectra.real ** 2 + spectra.imag ** 2
     norm = power / (row_block_floor(power, 64 * GRID_PAD) + 1e-300)
     med = column_median(norm)
     return np.arange(med.size) / nfft, med
@@ -917,18 +941,23 @@ def phase_profile(x: np.ndarray, start: int, period: int) -> np.ndarray:
 def phase_profiles(xs, starts, period: int) -> np.ndarray:
     """:func:`phase_profile` of every frame at once (rows): ``xs`` a list of equally long frames, or their stack."""
     x = np.asarray(xs) if not isinstance(xs, np.ndarray) else xs
-    n = x.shape[1]
+    rows, n = x.shape
     i0 = (-np.asarray(starts, dtype=np.int64)) % period
     k = (n - i0) // period
+    # the periods laid out (period index, frame, phase) and summed over the first axis: period after period,
+    # as a sum over the middle axis of (frame, period index, phase) adds them, the same numbers, with the
+    # frames' phases in one long inner loop instead of one short loop per frame and period
     if np.all(i0 == i0[0]):
-        prof = x[:, i0[0]:i0[0] + k[0] * period].reshape(x.shape[0], k[0], period).mean(axis=1)
+        a, kk = int(i0[0]), int(k[0])
+        whole = np.ascontiguousarray(x[:, a:a + kk * period].reshape(rows, kk, period).transpose(1, 0, 2))
+        prof = np.add.reduce(whole, axis=0) / kk      # (the mean over the periods)
     else:
-        # each frame's whole periods, moved to the front of a zero-padded row, summed period by period
+        # each frame's whole periods, moved to the front of a zero-padded column
         kmax = int(k.max())
-        buf = np.zeros((x.shape[0], kmax * period))
-        for r in range(x.shape[0]):
-            buf[r, :k[r] * period] = x[r, i0[r]:i0[r] + k[r] * period]
-        prof = buf.reshape(x.shape[0], kmax, period).sum(axis=1) / k[:, None]
+        buf = np.zeros((kmax, rows, period))
+        for r in range(rows):
+            buf[:k[r], r] = x[r, i0[r]:i0[r] + k[r] * period].reshape(k[r], period)
+        prof = np.add.reduce(buf, axis=0) / k[:, None]
     return prof - prof.mean(axis=1, keepdims=True)
 
 

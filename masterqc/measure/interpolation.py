@@ -280,13 +280,13 @@ class InterpolationTraceAnalyzer(Analyzer):
         distinct phases (at most two runs, before and after the wrap), so each phase gets at most one
         term, added with slices instead of counted with ``bincount`` (the same sums)."""
         M = self.M
-        xt = x.T
+        xt = np.ascontiguousarray(x.T)     # (channels, samples): the differences run along contiguous rows
         d1 = xt[:, 1:] - xt[:, :-1]
         for o, d in enumerate((xt, d1, d1[:, 1:] - d1[:, :-1])):
             # difference o covers samples 1..n-1 (o = 1) or 1..n-2 (o = 2), indexed by its middle sample
             first = start + (1 if o else 0)
             sq = d * d
-            hit = (sq > self.hit_min).astype(float)
+            hit = sq > self.hit_min          # (added to the float counts as 1.0 and 0.0)
             p0 = first % M
             head = min(sq.shape[1], M - p0)
             for lo, hi, a in ((p0, p0 + head, 0), (0, sq.shape[1] - head, head)):
