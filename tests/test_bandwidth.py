@@ -1152,3 +1152,31 @@ def test_a_cliff_that_fits_the_next_rate_up_as_well_names_its_rate_with_less_con
     alone = {}
     assert bw.match_rate(21000.0, [22050, 24000, 32000, 44100], 21900.0, fits_out=alone)[0] == 44100
     assert bw.rival_fit(alone, 44100) == 0.0
+
+
+def test_lower_bound_names_the_rate_whose_nyquist_the_stop_band_begins_at():
+    # Arithmetic of the rule (lower_bound_rate; house choice for the slack, the envelope's smoothing SMOOTH_HZ):
+    # a stop band from 11.064 kHz has begun by 22.05 kHz's Nyquist (11.025 kHz, 39 Hz short of it) but lies 0.92 of
+    # 24 kHz's; both rates were fitted, so the lower one is named
+    assert bw.lower_bound_rate({22050: 0.57, 24000: 0.62}, 24000, 11064.0) == 22050
+    # a stop band from 11.29 kHz (libsamplerate's fastest converter from 24 kHz reads 0.94 of 12 kHz) has not
+    assert bw.lower_bound_rate({22050: 0.62, 24000: 0.8}, 24000, 11292.0) is None
+    # nor is a rate the edge did not fit taken, nor a higher one
+    assert bw.lower_bound_rate({24000: 0.62}, 24000, 11064.0) is None
+    assert bw.lower_bound_rate({22050: 0.9, 24000: 0.5}, 22050, 11064.0) is None
+
+
+@pytest.mark.parametrize("src,dst", [(22050, 48000)])
+def test_minimum_phase_converter_with_an_early_pass_band_names_the_source_not_the_next_rate_up(src, dst):
+    # Analytic: a design whose pass band ends at 0.91 of the old Nyquist (-6 dB midway, 0.955) and whose stop band
+    # (120 dB) begins at it, made minimum phase (the magnitude kept), reads 0.955 of 11.025 kHz and 0.877 of 12 kHz:
+    # both rates explain the edge, but only the source's Nyquist is where the stop band begins.  The rate must be the
+    # source's, named as a lower bound with the confidence of a reading the next rate up fits too (below 0.9, house
+    # choice: the confidence formula's position term less the rival's fit)
+    h, work, up = _kaiser_converter_taps(src, dst, 0.91, 120.0, minimum=True)
+    rng = np.random.default_rng([92, src, dst])
+    y = _kaiser_convert(0.1 * rng.standard_normal(int(src * 1.5)), src, dst, h, up)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    assert r.measurements()["upsampled_edge_ratio"] == pytest.approx(0.955, abs=0.02)
+    assert r.confidence < 0.9

@@ -443,6 +443,9 @@ class BandwidthResult:
     stop_ratio: float | None = None
     #: the verdict rests on a brick wall at a standard Nyquist (not reported)
     brick: bool = False
+    #: the verdict names the lower of two rates that explain the cliff (:func:`lower_bound_rate`): the higher one,
+    #: Hz (not reported)
+    lower_bound_of: int | None = None
     #: for a cliff read on the whole file's sum: the programme above the source Nyquist in the median frame over
     #: the format's floor, dB (see :func:`stop_band_content`)
     stop_band_over_floor_db: float | None = None
@@ -779,6 +782,22 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
     return best, score
 
 
+def lower_bound_rate(fits: dict, rate, stop_start_hz, slack_hz: float = SMOOTH_HZ):
+    """The lowest rate below ``rate`` among those :func:`match_rate` fitted (``fits``) whose Nyquist the stop band
+    has begun by (``stop_start_hz`` within ``slack_hz``, the envelope's smoothing, above it, and no lower than
+    :data:`STOP_RATIO_RANGE` allows), or None.
+
+    A converter that rejects its images begins its stop band at the old Nyquist: such a lower rate explains the
+    cliff as every such converter makes it, while ``rate`` (the next standard rate up: 24 for 22.05, 48 for 44.1, 96
+    for 88.2 kHz, Nyquist frequencies 9 % apart) needs a converter that stops 8 % short of its own Nyquist.  On a
+    programme that ends below the old Nyquist the two readings tie, and the content only shows that the source rate
+    was at least the lower one: the lower bound is what the verdict can say."""
+    if rate is None or stop_start_hz is None:
+        return None
+    low = [r for r in fits if r < rate and STOP_RATIO_RANGE[0] * r / 2.0 <= stop_start_hz <= r / 2.0 + slack_hz]
+    return min(low) if low else None
+
+
 def rival_fit(fits: dict, rate) -> float:
     """The best fit (:func:`match_rate`) of a candidate other than ``rate`` that the edge and stop band also
     explain: 0 when none.  The confidence of a cliff's verdict counts its fit less this (house choice): where the
@@ -999,7 +1018,8 @@ def _programme_above(fe, info, out) -> bool:
     60-100 dB down in every frame.  Rewrites ``out`` as a band limit then."""
     if out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None:
         return False
-    early = (out.edge_ratio < EARLY_EDGE_RATIO and out.stop_ratio is not None
+    # (a lower bound, :func:`lower_bound_rate`, answers to the same reading: the next rate up read its edge early)
+    early = ((out.edge_ratio < EARLY_EDGE_RATIO or out.lower_bound_of) and out.stop_ratio is not None
              and out.stop_ratio <= EARLY_MAX_STOP_RATIO)
     if not early and not out.brick:
         return False
@@ -1108,6 +1128,9 @@ def assess(fe, info) -> BandwidthResult:
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
     vetoed = claimed if _programme_above(fe, info, out) else None
+    # (a low-pass read as a lower bound is the low-pass the next rate up reads too: the channels and segments that
+    # read that rate are cleared with it)
+    vetoed_too = out.lower_bound_of if vetoed is not None else None
     sum_cliff = out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff"
     per_channel = [out]
     if n_ch > 1 and fe.frames:
@@ -1138,7 +1161,7 @@ def assess(fe, info) -> BandwidthResult:
     if vetoed is not None:
         # the channels read the same low-pass on their own
         for r in per_channel:
-            if r is not out and r.upsampled_from_hz == vetoed and (r.evidence or "cliff") == "cliff":
+            if r is not out and r.upsampled_from_hz in (vetoed, vetoed_too) and (r.evidence or "cliff") == "cliff":
                 r.upsampled_from_hz = None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
@@ -1183,7 +1206,7 @@ def assess(fe, info) -> BandwidthResult:
         out.segments = assess_segments(fe, info)
         if vetoed is not None:
             for row in out.segments:
-                if row["upsampled_from_hz"] == vetoed:
+                if row["upsampled_from_hz"] in (vetoed, vetoed_too):
                     row["upsampled_from_hz"] = row["upsampled_confidence_fraction"] = None
         out.where_s = upsampled_ranges(out.segments)
         out.settings["segments"] = len(segs)
@@ -1350,6 +1373,10 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
     fits = {}
     rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks, fits_out=fits)
+    low = lower_bound_rate(fits, rate, cliff.get("stop_start_hz"), SMOOTH_HZ * scale)
+    if low is not None:
+        cliff["lower_bound_of"] = int(round(rate / scale))          # the next rate up, in the file's hertz
+        rate, pos = low, fits[low]
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
              and transition_width_hz(cliff) < BRICK_WALL_MAX_WIDTH_RATIO * r / 2.0]
     if walls:
@@ -1442,6 +1469,14 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
         c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
         if r2 is not None and not t2 and (rate is None or p2 > pos):
+            if rate is not None and cliff is not None:
+                # what the other pass read counts against this one's confidence (rival_fit): another rate's fit, or
+                # the same rate's own rival and lower bound
+                if rate != r2:
+                    c2["rival_fit"] = max(float(c2.get("rival_fit", 0.0)), pos)
+                else:
+                    c2["rival_fit"] = max(float(c2.get("rival_fit", 0.0)), float(cliff.get("rival_fit", 0.0)))
+                    c2.setdefault("lower_bound_of", cliff.get("lower_bound_of"))
             cliff, rate, pos, tonal = c2, r2, p2, t2
     if cliff is not None and tonal:
         edge = round(cliff["edge_hz"] / 10.0) * 10.0
@@ -1465,11 +1500,15 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
             out.upsampled_from_hz = int(rate)
             out.brick = bool(cliff.get("brick"))
+            out.lower_bound_of = None if out.brick else cliff.get("lower_bound_of")
             c_pos = max(0.0, pos - float(cliff.get("rival_fit", 0.0)))
             out.confidence = round(0.4 + 0.6 * (c_depth + c_pos + c_slope) / 3.0, 2)
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
+            if out.lower_bound_of:
+                out.note += (f"; the cliff fits {cliff['lower_bound_of'] / 1000:g} kHz as well, but its stop band begins at "
+                             f"{rate / 2000:g} kHz: the source rate was at least {rate / 1000:g} kHz")
         elif cliff.get("coder_step") is not None:
             out.band_limit_hz = edge
             at_hz, down_db = cliff["coder_step"]
