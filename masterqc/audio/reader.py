@@ -161,11 +161,18 @@ class AudioStream:
         """
         if block_frames < 1:
             raise ValueError("block_frames must be >= 1")
+        yield from self._decoded_from(0, block_frames)
+
+    def _seek(self, frame: int) -> None:
         try:
-            self._sf.seek(0)
+            self._sf.seek(frame)
         except (RuntimeError, ValueError, OSError) as exc:  # libsndfile fails to seek in some broken files
-            raise AudioReadError(self.path, f"decoding failed: cannot seek to the first frame ({_clean(exc)})") from None
-        done = 0
+            where = "the first frame" if frame == 0 else f"frame {frame}"
+            raise AudioReadError(self.path, f"decoding failed: cannot seek to {where} ({_clean(exc)})") from None
+
+    def _decoded_from(self, done: int, block_frames: int):
+        """libsndfile's decode to float64 from frame ``done``, in blocks of ``block_frames``."""
+        self._seek(done)
         while True:
             try:
                 block = self._sf.read(block_frames, dtype="float64", always_2d=True)
@@ -177,6 +184,56 @@ class AudioStream:
             yield block
             if block.shape[0] < block_frames:
                 break
+
+    def blocks_with_rows(self, block_frames: int = DEFAULT_BLOCK_FRAMES):
+        """Yield ``(block, rows)``: ``block`` exactly as :meth:`blocks` yields it, ``rows`` its
+        (channels, n) C-ordered copy where the compiled PCM decoder made it in the same pass
+        (:mod:`masterqc.audio.pcm`: integer PCM of a container whose byte order is known), else None.
+
+        The decoder reads the samples' bytes with libsndfile (``sf_read_raw``, from the positions its
+        own decoder reads); its first block is compared with libsndfile's decode of it, and any
+        difference, short read or error hands the rest of the file to libsndfile's decode, so the
+        blocks are those of :meth:`blocks` either way.
+        """
+        if block_frames < 1:
+            raise ValueError("block_frames must be >= 1")
+        from masterqc.audio import pcm
+        layout = pcm.layout_of(self._sf.format, self._sf.subtype, self.container.kind)
+        decode = pcm.kernel() if layout is not None and pcm.raw_reading_available(self._sf) else None
+        if decode is None:
+            for block in self._decoded_from(0, block_frames):
+                yield block, None
+            return
+        width, big = layout
+        channels, total = self.info.channels, self.info.frames
+        frame_bytes = width * channels
+        buf = bytearray(min(block_frames, total) * frame_bytes)
+        ptr = sf._ffi.from_buffer(buf)
+        self._seek(0)
+        done = 0
+        while done < total:
+            want = min(block_frames, total - done)
+            n = pcm.read_raw(self._sf, ptr, want * frame_bytes) // frame_bytes
+            if n:
+                block = np.empty((n, channels))
+                rows = np.empty((channels, n))
+                decode(buf, block, rows, n, channels, width, int(big))
+                if done == 0:              # the first block: libsndfile's own decode of it must agree
+                    self._seek(0)
+                    try:
+                        first = self._sf.read(n, dtype="float64", always_2d=True)
+                    except (RuntimeError, ValueError, OSError):
+                        first = None
+                    if first is None or not np.array_equal(first, block):
+                        n = 0
+                    else:
+                        self._seek(n)
+            if n < want:                   # anything unexpected: libsndfile's decode of this block on
+                for block in self._decoded_from(done, block_frames):
+                    yield block, None
+                return
+            done += n
+            yield block, rows
 
     def close(self):
         self._sf.close()

@@ -19,7 +19,9 @@
 #include <emmintrin.h>
 #endif
 
-/* two channels, two sections (K-weighting of a stereo block): everything in registers */
+/* two channels, two sections (K-weighting of a stereo block): everything in registers (where SSE2
+ * is available, stereo2_sse2 below runs instead: the same operations, one channel per lane) */
+#ifndef __SSE2__
 static void stereo2(const double *sos, const double *x0, const double *x1, double *y0, double *y1,
                     double *za, double *zb, Py_ssize_t n)
 {
@@ -39,6 +41,43 @@ static void stereo2(const double *sos, const double *x0, const double *x1, doubl
     za[0] = a00; za[1] = a01; za[2] = a10; za[3] = a11;
     zb[0] = b00; zb[1] = b01; zb[2] = b10; zb[3] = b11;
 }
+#endif
+
+#ifdef __SSE2__
+/* stereo2 with the two channels in the two lanes of SSE2 registers: every lane does the scalar
+ * loop's operations in the same order (IEEE double multiplies, adds and subtracts, no fused
+ * multiply-add), so each channel's output is the same bits, with half the instructions */
+static void stereo2_sse2(const double *sos, const double *x0, const double *x1, double *y0, double *y1,
+                         double *za, double *zb, Py_ssize_t n)
+{
+    const __m128d p0 = _mm_set1_pd(sos[0]), p1 = _mm_set1_pd(sos[1]), p2 = _mm_set1_pd(sos[2]);
+    const __m128d p4 = _mm_set1_pd(sos[4]), p5 = _mm_set1_pd(sos[5]);
+    const __m128d q0 = _mm_set1_pd(sos[6]), q1 = _mm_set1_pd(sos[7]), q2 = _mm_set1_pd(sos[8]);
+    const __m128d q4 = _mm_set1_pd(sos[10]), q5 = _mm_set1_pd(sos[11]);
+    /* lane 0: channel a (za), lane 1: channel b (zb) */
+    __m128d s00 = _mm_set_pd(zb[0], za[0]), s01 = _mm_set_pd(zb[1], za[1]);
+    __m128d s10 = _mm_set_pd(zb[2], za[2]), s11 = _mm_set_pd(zb[3], za[3]);
+    for (Py_ssize_t i = 0; i < n; i++) {
+        __m128d x = _mm_set_pd(x1[i], x0[i]), t;
+        t = _mm_add_pd(_mm_mul_pd(p0, x), s00);
+        s00 = _mm_add_pd(_mm_sub_pd(_mm_mul_pd(p1, x), _mm_mul_pd(p4, t)), s01);
+        s01 = _mm_sub_pd(_mm_mul_pd(p2, x), _mm_mul_pd(p5, t));
+        x = t;
+        t = _mm_add_pd(_mm_mul_pd(q0, x), s10);
+        s10 = _mm_add_pd(_mm_sub_pd(_mm_mul_pd(q1, x), _mm_mul_pd(q4, t)), s11);
+        s11 = _mm_sub_pd(_mm_mul_pd(q2, x), _mm_mul_pd(q5, t));
+        _mm_storel_pd(y0 + i, t);
+        _mm_storeh_pd(y1 + i, t);
+    }
+    _mm_storel_pd(za + 0, s00); _mm_storeh_pd(zb + 0, s00);
+    _mm_storel_pd(za + 1, s01); _mm_storeh_pd(zb + 1, s01);
+    _mm_storel_pd(za + 2, s10); _mm_storeh_pd(zb + 2, s10);
+    _mm_storel_pd(za + 3, s11); _mm_storeh_pd(zb + 3, s11);
+}
+#define STEREO2 stereo2_sse2
+#else
+#define STEREO2 stereo2
+#endif
 
 /* x (input) and y (output, may be x itself): (C, n) C order; z: (C, S, 2) C order; sos: (S, 6)
  * with a0 = 1.  Each sample is read before its output is written, so in place is safe. */
@@ -48,7 +87,7 @@ static void run(const double *sos, const double *xin, double *y, double *z, Py_s
     Py_ssize_t c0 = 0;
     if (S == 2) {
         for (; c0 + 1 < C; c0 += 2)
-            stereo2(sos, xin + c0 * n, xin + (c0 + 1) * n, y + c0 * n, y + (c0 + 1) * n, z + c0 * 4,
+            STEREO2(sos, xin + c0 * n, xin + (c0 + 1) * n, y + c0 * n, y + (c0 + 1) * n, z + c0 * 4,
                     z + (c0 + 1) * 4, n);
     }
     for (Py_ssize_t i = 0; i < n; i++) {
@@ -558,6 +597,96 @@ static PyObject *stereo_power(PyObject *self, PyObject *args)
     Py_RETURN_NONE;
 }
 
+/* ---------------------------------------------------------------------------------------------
+ * Integer PCM bytes to float64 (masterqc/audio/pcm.py), one pass: every sample's code, sign-extended
+ * into the top bits of an int32 (16-bit codes << 16, 24-bit << 8, 32-bit as they are), times 2**-31,
+ * which is how libsndfile scales integer PCM to double by default (the product of an integer and a
+ * power of two: exact, so code / 2**(bits - 1) whichever way it is written).  Written both interleaved
+ * (frames, channels) and planar (channels, frames), each C-ordered; planar may be an empty buffer
+ * (not written).  width: bytes per sample (2, 3 or 4); big: 1 for big-endian samples (AIFF).
+ */
+#if defined(__GNUC__)
+#define ALWAYS_INLINE inline __attribute__((always_inline))
+#else
+#define ALWAYS_INLINE inline
+#endif
+static ALWAYS_INLINE int32_t pcm_code(const unsigned char *b, int width, int big)
+{
+    uint32_t u;
+    if (width == 3)
+        u = big ? ((uint32_t)b[0] << 24 | (uint32_t)b[1] << 16 | (uint32_t)b[2] << 8)
+                : ((uint32_t)b[2] << 24 | (uint32_t)b[1] << 16 | (uint32_t)b[0] << 8);
+    else if (width == 2)
+        u = big ? ((uint32_t)b[0] << 24 | (uint32_t)b[1] << 16) : ((uint32_t)b[1] << 24 | (uint32_t)b[0] << 16);
+    else
+        u = big ? ((uint32_t)b[0] << 24 | (uint32_t)b[1] << 16 | (uint32_t)b[2] << 8 | (uint32_t)b[3])
+                : ((uint32_t)b[3] << 24 | (uint32_t)b[2] << 16 | (uint32_t)b[1] << 8 | (uint32_t)b[0]);
+    return (int32_t)u;
+}
+
+/* always inlined, so each call with constant width and byte order becomes a loop of its own */
+static ALWAYS_INLINE void pcm_rows(const unsigned char *s, double *o, double *pl, Py_ssize_t n, Py_ssize_t C,
+                                   int width, int big)
+{
+    const double scale = 1.0 / 2147483648.0;
+    if (C == 2 && pl) {                 /* stereo: both channels of a frame per step */
+        double *p0 = pl, *p1 = pl + n;
+        for (Py_ssize_t i = 0; i < n; i++) {
+            double a = (double)pcm_code(s, width, big) * scale;
+            double b = (double)pcm_code(s + width, width, big) * scale;
+            s += 2 * width;
+            o[2 * i] = a;
+            o[2 * i + 1] = b;
+            p0[i] = a;
+            p1[i] = b;
+        }
+        return;
+    }
+    for (Py_ssize_t i = 0; i < n; i++) {
+        for (Py_ssize_t c = 0; c < C; c++) {
+            double v = (double)pcm_code(s, width, big) * scale;
+            s += width;
+            o[i * C + c] = v;
+            if (pl)
+                pl[c * n + i] = v;
+        }
+    }
+}
+
+static PyObject *pcm_to_double(PyObject *self, PyObject *args)
+{
+    Py_buffer src, inter, planar;
+    Py_ssize_t n, C;
+    int width, big;
+    (void)self;
+    if (!PyArg_ParseTuple(args, "y*w*w*nnii", &src, &inter, &planar, &n, &C, &width, &big))
+        return NULL;
+    if (n < 0 || C < 1 || (width != 2 && width != 3 && width != 4) ||
+        src.len < (Py_ssize_t)(n * C * width) || inter.len != (Py_ssize_t)(n * C * sizeof(double)) ||
+        (planar.len != 0 && planar.len != (Py_ssize_t)(n * C * sizeof(double)))) {
+        PyBuffer_Release(&src);
+        PyBuffer_Release(&inter);
+        PyBuffer_Release(&planar);
+        PyErr_SetString(PyExc_ValueError, "pcm_to_double: src (n * channels * width bytes), inter (n, channels) "
+                                          "float64, planar (channels, n) float64 or empty, width 2, 3 or 4");
+        return NULL;
+    }
+    Py_BEGIN_ALLOW_THREADS
+    switch (width * 2 + big) {          /* each case a loop of its own, the byte order fixed in it */
+    case 4: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 2, 0); break;
+    case 5: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 2, 1); break;
+    case 6: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 3, 0); break;
+    case 7: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 3, 1); break;
+    case 8: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 4, 0); break;
+    default: pcm_rows((const unsigned char *)src.buf, (double *)inter.buf, planar.len ? (double *)planar.buf : NULL, n, C, 4, 1); break;
+    }
+    Py_END_ALLOW_THREADS
+    PyBuffer_Release(&src);
+    PyBuffer_Release(&inter);
+    PyBuffer_Release(&planar);
+    Py_RETURN_NONE;
+}
+
 static PyMethodDef methods[] = {
     {"cascade", cascade, METH_VARARGS,
      "cascade(sos, y, z, channels, frames, sections): filter y (channels, frames) in place; "
@@ -579,6 +708,10 @@ static PyMethodDef methods[] = {
     {"stereo_power", stereo_power, METH_VARARGS,
      "stereo_power(y, p, seg, ticks, out, n, k, end): channel energies, per-sample power p = y0^2 + y1^2, "
      "its sums over the segments seg (the last to end) and over [end, n), in numpy's summation order"},
+    {"pcm_to_double", pcm_to_double, METH_VARARGS,
+     "pcm_to_double(src, inter, planar, n, channels, width, big): n frames of integer PCM (width bytes per "
+     "sample, big-endian when big) scaled as libsndfile scales them to double, into inter (n, channels) "
+     "and, unless it is empty, planar (channels, n), both float64"},
     {NULL, NULL, 0, NULL}
 };
 

@@ -111,13 +111,14 @@ def keep_block_buffers_in_heap() -> bool:
     return True
 
 
-def _prepare(block, info, want_clean: bool, want_planar: bool = False):
+def _prepare(block, info, want_clean: bool, want_planar: bool = False, rows=None):
     """(raw, clean, planar) views of a decoded block, all read-only.
 
     ``clean`` has non-finite samples replaced by 0.0 (float files only); it is the
     block itself when every sample is finite.  ``planar`` is ``clean`` as (channels,
     frames), C-contiguous (one copy, made here so that analyzers with
-    ``planar_input`` do not each transpose the block), or None when nobody asked.
+    ``planar_input`` do not each transpose the block; ``rows``, when the reader made
+    that copy of ``block`` while decoding it, is taken as it is), or None when nobody asked.
     Read-only, because every analyzer sees the same arrays: one that wrote into its
     input would change another's.
     """
@@ -129,9 +130,19 @@ def _prepare(block, info, want_clean: bool, want_planar: bool = False):
         clean.flags.writeable = False
     planar = None
     if want_planar:
-        planar = np.ascontiguousarray(clean.T)
+        planar = rows if rows is not None and clean is block else np.ascontiguousarray(clean.T)
         planar.flags.writeable = False
     return block, clean, planar
+
+
+def _decoded(stream, block_frames: int, want_planar: bool):
+    """``(block, rows)`` pairs of the stream: ``rows`` is the block's planar copy where the reader
+    made it in its decoding pass (:meth:`masterqc.audio.reader.AudioStream.blocks_with_rows`),
+    else None (streams without that method: every block with None)."""
+    with_rows = getattr(stream, "blocks_with_rows", None) if want_planar else None
+    if with_rows is not None:
+        return with_rows(block_frames)
+    return ((block, None) for block in stream.blocks(block_frames))
 
 
 def _feed(analyzer, prepared) -> None:
@@ -220,14 +231,14 @@ def _run_sequential(stream, info, options, analyzers, progress, thread_cpu=None)
     done = 0
     read_s = analyze_s = 0.0
     clock = time.thread_time if thread_cpu is not None else (lambda: 0.0)
-    gen = stream.blocks(options.block_frames)
+    gen = _decoded(stream, options.block_frames, want_planar)
     while True:
         t0 = clock()
-        block = next(gen, None)
+        block, rows = next(gen, (None, None))
         if block is None:
             read_s += clock() - t0
             break
-        prepared = _prepare(block, info, want_clean, want_planar)
+        prepared = _prepare(block, info, want_clean, want_planar, rows)
         t1 = clock()
         for a in analyzers:
             _feed(a, prepared)
@@ -316,10 +327,10 @@ class _BlockScheduler:
             self._add_cpu("analyze_s", started)
 
     def _read_blocks(self) -> None:
-        gen = self.stream.blocks(self.options.block_frames)
+        gen = _decoded(self.stream, self.options.block_frames, self.want_planar)
         try:
-            for block in gen:
-                prepared = _prepare(block, self.info, self.want_clean, self.want_planar)
+            for block, rows in gen:
+                prepared = _prepare(block, self.info, self.want_clean, self.want_planar, rows)
                 with self.lock:
                     if self.abort:
                         return
