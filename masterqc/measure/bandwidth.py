@@ -81,8 +81,13 @@ finds images of the content at that rate (:func:`cliff_needs_images`, a post-ste
 images of the band below the old Nyquist, a low-pass's holds the programme's own content above its cut-off.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
-least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
-walls are codec or filter band limits).  A cliff above :data:`OWN_FILTER_RATIO`
+least :data:`BRICK_WALL_MAX_WIDTH_RATIO` of the source Nyquist, or, down to
+:data:`CONVERTER_MIN_WIDTH_RATIO`, ends at the old Nyquist as a very-high-quality
+design's does (:func:`converter_width_fits`); steeper brick walls are codec or
+filter band limits.  Where the next standard rate up and a lower rate both explain
+a cliff and the stop band has begun by the lower rate's Nyquist, the lower rate is
+named (:func:`lower_bound_rate`), and a verdict's confidence counts its fit less
+the best fit of any other rate that explains the same cliff (:func:`rival_fit`).  A cliff above :data:`OWN_FILTER_RATIO`
 of the file's Nyquist that matches no rate is the file's own anti-alias filter
 and is not reported.
 
