@@ -8,11 +8,12 @@ peak and true peak.  Files: the core benchmark's music-like stereo 48 kHz 24-bit
 96 kHz version (bench/bench_sampling_cost.py), made on first use in bench/out/.
 
 ``--before REV`` also runs the spectral front end (``masterqc/measure/spectral.py``), the imaging
-analyzer (``masterqc/measure/imaging.py``) and the interpolation analyzer
-(``masterqc/measure/interpolation.py``) as they were at git revision REV, loaded from ``git show``
-(the front end with its batched transform, ``rfft_rows`` of ``masterqc/measure/npkernels.py``, of REV too),
-with this tree's core and aliasing analyzers and shared helpers (``frames.py``), in the same process and
-interleaved pass by pass with this tree's, so that both columns see the same machine load.
+analyzer (``masterqc/measure/imaging.py``), the interpolation analyzer
+(``masterqc/measure/interpolation.py``) and the aliasing analyzer (``masterqc/measure/aliasing.py``) as they
+were at git revision REV, loaded from ``git show`` (the front end with its batched transform, ``rfft_rows`` of
+``masterqc/measure/npkernels.py``, of REV too), with this tree's core analyzers and shared helpers
+(``frames.py``), in the same process and interleaved pass by pass with this tree's, so that both columns see
+the same machine load.
 
 Usage: ``bench/bench_sampling_split.py [--files 0.5:48,10:48,0.5:96,10:96] [--repeat 3] [--before REV]``
 (``minutes:kHz``).  Read the ratios, not the absolute times.
@@ -40,7 +41,8 @@ import bench_sampling_cost as bsc  # noqa: E402
 SAMPLING = ("Spectrum", "Imaging", "Interpolation", "Aliasing")
 OLD_MODULES = {"Spectrum": ("masterqc/measure/spectral.py", "SamplingSpectrumAnalyzer"),
                "Imaging": ("masterqc/measure/imaging.py", "ImagingAnalyzer"),
-               "Interpolation": ("masterqc/measure/interpolation.py", "InterpolationTraceAnalyzer")}
+               "Interpolation": ("masterqc/measure/interpolation.py", "InterpolationTraceAnalyzer"),
+               "Aliasing": ("masterqc/measure/aliasing.py", "AliasingAnalyzer")}
 
 
 def _module_at(rev: str, rel: str, tmp: Path):
@@ -89,8 +91,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--files", default="0.5:48,10:48,0.5:96,10:96", help="comma-separated minutes:kHz (48 or 96)")
     ap.add_argument("--repeat", type=int, default=3)
-    ap.add_argument("--before", default=None, help="git revision whose spectral front end, imaging and "
-                                                    "interpolation analyzers run beside this tree's")
+    ap.add_argument("--before", default=None, help="git revision whose spectral front end, imaging, "
+                                                    "interpolation and aliasing analyzers run beside this tree's")
     args = ap.parse_args(argv)
     try:
         from threadpoolctl import threadpool_limits
@@ -114,6 +116,16 @@ def main(argv=None) -> int:
                 # the front end's batched transform as it was then too (it lives in npkernels.py)
                 mod.rfft_rows = _module_at(args.before, "masterqc/measure/npkernels.py", Path(tmpdir.name)).rfft_rows
             old[key] = getattr(mod, cls_name)
+        if hasattr(old["Imaging"], "bind"):
+            # the imaging analyzer takes the interpolation analyzer's verdict from its peers by class: the
+            # earlier tree's interpolation class is not this tree's, so the earlier imaging is bound to it here
+            # (else it would skip that step, and the pattern's cost would fall to the other analyzer than in
+            # this tree's column)
+            def bind(self, peers, _orig=old["Imaging"].bind, _peer=old["Interpolation"]):
+                _orig(self, peers)
+                if getattr(self, "_pattern_peer", None) is None:
+                    self._pattern_peer = next((p for p in peers if isinstance(p, _peer)), None)
+            old["Imaging"].bind = bind
         variants = {f"at {args.before}": old, "this tree": tree}
 
     def classes(which, spent):

@@ -176,9 +176,9 @@ def test_analyzer_series_and_keys_through_the_engine():
 def test_long_files_are_analysed_on_a_regular_subsample():
     from masterqc.measure.spectral import (LONG_FILE_STRIDE, MID_FILE_STRIDE, VERY_LONG_FILE_STRIDE,
                                            default_frame_stride)
-    # house choice: every frame up to 15 s, every other one up to 60 s, 1 in 6 up to 5 minutes, 1 in 12 beyond
+    # house choice: every frame up to 15 s, 1 in 4 up to 60 s, 1 in 6 up to 5 minutes, 1 in 12 beyond
     assert default_frame_stride(15.0) == 1
-    assert default_frame_stride(15.1) == default_frame_stride(60.0) == MID_FILE_STRIDE == 2
+    assert default_frame_stride(15.1) == default_frame_stride(60.0) == MID_FILE_STRIDE == 4
     assert default_frame_stride(60.1) == default_frame_stride(300.0) == LONG_FILE_STRIDE == 6
     assert default_frame_stride(300.1) == default_frame_stride(3600.0) == VERY_LONG_FILE_STRIDE == 12
     rng = np.random.default_rng(8)

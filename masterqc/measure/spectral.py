@@ -42,7 +42,7 @@ follow the frame indices alone: what consumers are handed is the same for any
 block size.
 
 Files longer than :data:`FULL_ANALYSIS_S` are analysed on a regular subsample
-of frames: every other frame (:data:`MID_FILE_STRIDE`) up to :data:`MID_ANALYSIS_S`,
+of frames: 1 in :data:`MID_FILE_STRIDE` up to :data:`MID_ANALYSIS_S`,
 1 in :data:`LONG_FILE_STRIDE` up to :data:`LONG_ANALYSIS_S`, 1 in
 :data:`VERY_LONG_FILE_STRIDE` beyond; the long-term spectrum is then the mean over
 those frames.
@@ -65,19 +65,21 @@ from masterqc.measure.base import Analyzer, AnalyzerResult
 #: target bin spacing (Hz); frames are round(fs / BIN_TARGET_HZ) samples long
 BIN_TARGET_HZ = 10.0
 #: files up to this long have every frame analysed; longer files a regular subsample:
-#: every other frame (MID_FILE_STRIDE: 100 ms frames every 100 ms, side by side) up to
-#: MID_ANALYSIS_S, 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms) up to
-#: LONG_ANALYSIS_S, 1 in VERY_LONG_FILE_STRIDE (100 ms frames every 600 ms) beyond.
+#: 1 in MID_FILE_STRIDE frames (100 ms frames every 200 ms) up to MID_ANALYSIS_S,
+#: 1 in LONG_FILE_STRIDE frames (100 ms frames every 300 ms) up to LONG_ANALYSIS_S,
+#: 1 in VERY_LONG_FILE_STRIDE (100 ms frames every 600 ms) beyond.
 #: Long-term spectra, level statistics and tones are statistics over time: a 15-second file
-#: analysed in full and a 60-second one at every other frame both give some 300 frames, a
-#: 5-minute one at 1 in 6 and a 10-minute one at 1 in 12 some 1000, and the subsample keeps
-#: the cost of the analysis a small fraction of the core's (own reasoning; see
-#: bench/bench_sampling_split.py).  At 1 in 12 a 3 s window still holds five analysed frames
-#: (the ultrasonic worst-window figure) and every 5 s segment eight.
+#: analysed in full and a 60-second one at 1 in 4 both give some 300 frames (a 30-second one
+#: 150), a 5-minute one at 1 in 6 and a 10-minute one at 1 in 12 some 1000, and the subsample
+#: keeps the cost of the analysis a small fraction of the core's (own reasoning; see
+#: bench/bench_sampling_split.py: at every other frame the front end of a 30-second file cost
+#: some 0.3 of the core's CPU time, at 1 in 4 half that).  At 1 in 12 a 3 s window still holds
+#: five analysed frames (the ultrasonic worst-window figure) and every 5 s segment eight; at
+#: 1 in 4 fifteen and twenty-five.
 FULL_ANALYSIS_S = 15.0
 MID_ANALYSIS_S = 60.0
 LONG_ANALYSIS_S = 300.0
-MID_FILE_STRIDE = 2
+MID_FILE_STRIDE = 4
 LONG_FILE_STRIDE = 6
 VERY_LONG_FILE_STRIDE = 12
 #: analysed frames are windowed into a batch of up to FRAME_BATCH frames (and at most BATCH_SAMPLES
@@ -114,7 +116,7 @@ def segments_for(duration_s: float) -> int:
 
 
 def default_frame_stride(duration_s: float) -> int:
-    """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, every other one up to
+    """Frames analysed: all of them up to :data:`FULL_ANALYSIS_S`, 1 in :data:`MID_FILE_STRIDE` up to
     :data:`MID_ANALYSIS_S`, 1 in :data:`LONG_FILE_STRIDE` up to :data:`LONG_ANALYSIS_S`, else 1 in
     :data:`VERY_LONG_FILE_STRIDE`."""
     if duration_s <= FULL_ANALYSIS_S:

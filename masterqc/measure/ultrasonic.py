@@ -10,10 +10,10 @@ Fed frame by frame with the power spectra of :mod:`masterqc.measure.spectral`
   frequency, or when the audible band holds no energy.
 - ``ultrasonic_energy_max_3s_db`` and ``ultrasonic_energy_max_3s_where_s``: the
   same ratio in the worst 3 s window (stepped by one hop, 50 ms), and where it is.
-  Files longer than 15 s are analysed on every other frame, files longer
+  Files longer than 15 s are analysed on 1 frame in 4, files longer
   than 60 s on 1 frame in 6 and files longer than 5 minutes on 1 in 12 (see
-  :mod:`masterqc.measure.spectral`): 100 ms of every 300 or 600 ms, so the 3 s
-  figure is then an estimate from ten or five frames, and a burst much shorter
+  :mod:`masterqc.measure.spectral`): 100 ms of every 200, 300 or 600 ms, so the 3 s
+  figure is then an estimate from fifteen, ten or five frames, and a burst much shorter
   than that spacing may fall between them; the location is the window's, not the burst's.
 - ``ultrasonic_tones``: stationary tones above the threshold frequency: a bin
   that is a local maximum and stands :data:`TONE_MIN_PROMINENCE_DB` above the
