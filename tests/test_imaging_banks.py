@@ -81,7 +81,8 @@ def test_nearest_phase_bank_is_a_hold_at_the_phase_count_times_the_rate():
 
 
 def test_cycle_frequencies_of_the_banks_are_the_phase_count_times_the_rate():
-    """8 * 44.1 kHz = 352.8 kHz = 7 * 48 kHz + 16.8 kHz; 16 phases: 705.6 kHz = 14 * 48 kHz + 33.6 kHz, folded to
+    """Analytic (a bank of N phases holds at N times the source rate; its cycle folds modulo the file's rate):
+    8 * 44.1 kHz = 352.8 kHz = 7 * 48 kHz + 16.8 kHz; 16 phases: 705.6 kHz = 14 * 48 kHz + 33.6 kHz, folded to
     14.4 kHz; 32: 1411.2 kHz = 29 * 48 kHz + 19.2 kHz; 64: 38.4 -> 9.6 kHz; 128: 28.8 -> 19.2 kHz (already there);
     256: 9.6 (there); and so on.  Bins of 25 Hz."""
     a = ImagingAnalyzer.__new__(ImagingAnalyzer)
