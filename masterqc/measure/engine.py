@@ -449,8 +449,10 @@ class _BlockScheduler:
                 and self.next[j] >= self.read_count)
 
     def _ready_count(self) -> int:
-        return (sum(1 for j in range(len(self.lanes)) if not self.busy[j] and self.next[j] < self.read_count)
-                + sum(1 for i in range(len(self.analyzers)) if self._can_finish(i)))
+        ready = sum(1 for j in range(len(self.lanes)) if not self.busy[j] and self.next[j] < self.read_count)
+        if self.read_done:                     # early finishes wait for the end of the stream
+            ready += sum(1 for i in range(len(self.analyzers)) if self._can_finish(i))
+        return ready
 
     def _finished(self) -> bool:
         return (self.read_done and self.low >= self.read_count
