@@ -314,6 +314,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_codec_and_downconversion(seed, quick))
     plan.extend(_plan_low_rates(seed, quick))
     plan.extend(_plan_band_limits(seed, quick))
+    plan.extend(_plan_coder_walls(seed, quick))
     return plan
 
 
@@ -557,6 +558,8 @@ def _build(spec, rng, seconds):
         return build_band_limits(spec, rng, seconds)
     if kind == "lowrate":
         return build_low_rates(spec, rng, seconds)
+    if kind in ("l3", "ac3", "vb", "bsteep", "firlong", "chainup"):
+        return build_coder_walls(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -1179,3 +1182,254 @@ def build_low_rates(spec, rng, seconds):
     x = set_rms(np.stack([low_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
     y = np.stack([low_upsample(x[:, c], src, dst, family, design) for c in range(ch)], axis=1)
     return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+
+
+# ================================================================ coder walls, steep low-passes, short down-converters (s9fa)
+# Genuine band limits that read like a converter's cliff, written here from the published designs, and twins converted
+# up through the same chains.  Drawn from their own generator ([seed, 29, place in the group]).  Tool families:
+# - ``coder-layer3``: a Layer III-like coder: a 576-line MDCT (sine window) with the long-block scale-factor bands of
+#   ISO/IEC 11172-3; bands 0-20 coded from the bottom up out of the granule's bit budget as :func:`codec_roundtrip`
+#   does; the top band (sfb21, from 16.0 kHz at 44.1 and 48 kHz) has no scale factor, so it is quantised with the
+#   granule's coarsest step and coded only in granules with bits left over; the encoder's low-pass above it;
+# - ``coder-ac3``: an AC-3-like coder: 256-line blocks (KBD window, alpha 5), a fixed bandwidth code (the last coded
+#   line 73 + 3 x code, ATSC A/52), exponents in 6 dB steps, mantissas quantised to the bits a masking curve leaves
+#   them, zero-bit mantissas dithered at their exponent's level, every line above the bandwidth zeroed;
+# - ``coder-vorbis``: a Vorbis-like coder: 1024-line (2048 at 88.2 kHz and up) MDCT with the power-sine window, a
+#   floor (the band energies on log-spaced posts) and a residue quantised against it; above a frequency set by the
+#   quality the residue is noise-normalised (each 32-line partition's fine structure replaced by noise of its
+#   energy), the encoder's low-pass above that;
+# - ``butter<N>-steep``: Butterworth low-passes of order 10-14 at 18-20 kHz on wideband music at 48 kHz (group
+#   "lowpass");
+# - ``fir-long-<window>``: ``firwin`` low-passes of 511 and 1023 taps at 19-21.5 kHz at 88.2 and 96 kHz whose
+#   corner lies below 0.88 of every lower standard Nyquist (group "lowpass");
+# - twins (group "upsampled"): a source converted up by resample_poly or libsamplerate, then coded by the same coders
+#   with their wall above the old Nyquist, or low-passed by the same Butterworths above it.
+#: long-block scale-factor band edges (lines of 576) of ISO/IEC 11172-3, Table B.8
+LAYER3_SFB_LONG = {
+    44100: (0, 4, 8, 12, 16, 20, 24, 30, 36, 44, 52, 62, 74, 90, 110, 134, 162, 196, 238, 288, 342, 418, 576),
+    48000: (0, 4, 8, 12, 16, 20, 24, 30, 36, 42, 50, 60, 72, 88, 106, 128, 156, 190, 230, 276, 330, 384, 576),
+    32000: (0, 4, 8, 12, 16, 20, 24, 30, 36, 44, 54, 66, 82, 102, 126, 156, 194, 240, 296, 364, 448, 550, 576),
+}
+
+
+def _masking_db(e_db: np.ndarray, centre_hz: np.ndarray, smr_db: float) -> np.ndarray:
+    """A simple masking threshold per band: the strongest band nearby less 10 dB per band of distance, less
+    ``smr_db``, never under a threshold of hearing that rises steeply above 14 kHz (as :func:`codec_roundtrip`)."""
+    nb = len(e_db)
+    khz = np.maximum(centre_hz / 1000.0, 0.05)
+    ath = 3.64 * khz ** -0.8 - 6.5 * np.exp(-0.6 * (khz - 3.3) ** 2) + 1e-3 * khz ** 4 - 120.0
+    dist = 10.0 * np.abs(np.arange(nb)[:, None] - np.arange(nb)[None, :])
+    return np.maximum(np.max(e_db[None, :] - dist, axis=1) - smr_db, ath)
+
+
+def _mdct_roundtrip(x: np.ndarray, n_lines: int, win: np.ndarray, code_frame) -> np.ndarray:
+    """Frame ``x`` (50 % overlap, ``2 n_lines`` long), MDCT, ``code_frame(j, spec) -> coded spec``, inverse MDCT and
+    overlap-add (perfect reconstruction for a Princen-Bradley window when ``code_frame`` is the identity)."""
+    n2 = 2 * n_lines
+    cmat = _mdct_matrix(n_lines)
+    pad = np.concatenate([np.zeros(n_lines), x, np.zeros(n2)])
+    frames = (len(pad) - n2) // n_lines + 1
+    out = np.zeros(len(pad))
+    for j in range(frames):
+        spec = (pad[j * n_lines:j * n_lines + n2] * win) @ cmat
+        out[j * n_lines:j * n_lines + n2] += (2.0 / n_lines) * (cmat @ code_frame(j, spec)) * win
+    return out[n_lines:n_lines + len(x)]
+
+
+def layer3_roundtrip(x: np.ndarray, fs: int, kbps: float, rng, lowpass_hz: float, smr_db: float = 12.0) -> np.ndarray:
+    """One channel through the Layer III-like coder (see the section comment): ``kbps`` per channel."""
+    n = 576
+    edges = np.asarray(LAYER3_SFB_LONG[fs])
+    width = np.diff(edges)
+    centre = (edges[:-1] + edges[1:]) / 2.0 * fs / (2.0 * n)
+    cut = min(n, int(round(lowpass_hz / (fs / (2.0 * n)))))
+    budget = kbps * 1000.0 * n / fs
+    jitter = rng.uniform(0.8, 1.2, len(x) // n + 4)
+    win = np.sin(np.pi * (np.arange(2 * n) + 0.5) / (2 * n))
+
+    def code(j, spec):
+        e_db = 10.0 * np.log10(np.maximum(np.add.reduceat(spec ** 2, edges[:-1]) / width, 1e-30))
+        thr = _masking_db(e_db, centre, smr_db)
+        need = np.where(e_db > thr, width * 0.5 * np.log2(1.0 + 10 ** ((e_db - thr) / 10.0)) + 4.0, 0.0)
+        need[-1] = 0.0
+        spent = np.cumsum(need[:-1])
+        limit = int(np.searchsorted(spent, budget * jitter[j], side="right"))
+        q = np.zeros_like(spec)
+        steps = []
+        for b in np.nonzero((e_db[:-1] > thr[:-1]) & (np.arange(len(e_db) - 1) < limit))[0]:
+            step = math.sqrt(12.0 * 10 ** (thr[b] / 10.0))
+            steps.append(step)
+            q[edges[b]:edges[b + 1]] = np.round(spec[edges[b]:edges[b + 1]] / step) * step
+        left = budget * jitter[j] - (spent[limit - 1] if limit > 0 else 0.0)
+        if limit >= len(e_db) - 1 and steps and left > 0.25 * width[-1]:
+            # sfb21: no scale factor, so the granule's coarsest step; coded only with bits to spare
+            step = max(steps)
+            a = edges[-2]
+            q[a:] = np.round(spec[a:] / step) * step
+        q[cut:] = 0.0
+        return q
+    return _mdct_roundtrip(x, n, win, code)
+
+
+def kbd_window(n2: int, alpha: float) -> np.ndarray:
+    """Kaiser-Bessel-derived window of length ``n2`` (ATSC A/52 section 7.9.4.1 uses alpha 5 for 512)."""
+    k = np.kaiser(n2 // 2 + 1, np.pi * alpha)
+    c = np.cumsum(k)
+    half = np.sqrt(c[:-1] / c[-1])
+    return np.concatenate([half, half[::-1]])
+
+
+def ac3_roundtrip(x: np.ndarray, fs: int, bw_code: int, rng, snr_db: float = 6.0) -> np.ndarray:
+    """One channel through the AC-3-like coder (see the section comment)."""
+    n = 256
+    end = 73 + 3 * int(bw_code)
+    win = kbd_window(2 * n, 5.0)
+    bands = np.unique(np.concatenate([np.arange(0, 28), np.round(28 * 1.09 ** np.arange(40)).astype(int)]))
+    bands = bands[bands < end]
+    bands = np.append(bands, end)
+    width = np.diff(bands)
+    centre = (bands[:-1] + bands[1:]) / 2.0 * fs / (2.0 * n)
+
+    def code(j, spec):
+        q = np.zeros_like(spec)
+        s = spec[:end]
+        expo = np.floor(np.log2(np.maximum(np.abs(s), 2.0 ** -24)))
+        expo = np.clip(expo, -24, 0)
+        e_db = 10.0 * np.log10(np.maximum(np.add.reduceat(s ** 2, bands[:-1]) / width, 1e-30))
+        thr = _masking_db(e_db, centre, snr_db)
+        bits = np.repeat(np.clip(np.round((e_db - thr) / 6.02), 0, 15), width).astype(int)
+        scale = 2.0 ** expo
+        mant = s / scale
+        levels = 2.0 ** bits
+        coded = np.round(mant * levels / 2.0) / (levels / 2.0)
+        dither = rng.uniform(-0.707, 0.707, end)
+        q[:end] = np.where(bits > 0, coded, dither) * scale
+        return q
+    return _mdct_roundtrip(x, n, win, code)
+
+
+def vorbis_roundtrip(x: np.ndarray, fs: int, quality: float, rng, lowpass_hz: float, noise_from_hz: float) -> np.ndarray:
+    """One channel through the Vorbis-like coder (see the section comment)."""
+    n = 1024 if fs < 88200 else 2048
+    t = (np.arange(2 * n) + 0.5) / (2 * n)
+    win = np.sin(0.5 * np.pi * np.sin(np.pi * t) ** 2)
+    line_hz = fs / (2.0 * n)
+    posts = np.unique(np.round(np.geomspace(2, n, 40)).astype(int))
+    posts = np.concatenate([[0], posts[posts < n], [n]])
+    cut = min(n, int(round(lowpass_hz / line_hz)))
+    nz = min(cut, int(round(noise_from_hz / line_hz)))
+    step = 10 ** ((2.0 - 0.25 * quality) / 20.0)     # residue step against the floor: finer with quality
+
+    def code(j, spec):
+        e = np.add.reduceat(spec ** 2, posts[:-1]) / np.diff(posts)
+        floor_db = 10.0 * np.log10(np.maximum(e, 1e-30))
+        centres = (posts[:-1] + posts[1:]) / 2.0
+        floor = 10 ** (np.interp(np.arange(n), centres, floor_db) / 20.0)
+        r = spec / floor
+        q = np.round(r / step) * step
+        for a in range(nz, cut, 32):
+            z = min(cut, a + 32)
+            energy = float(np.sum(r[a:z] ** 2))
+            noise = rng.standard_normal(z - a)
+            q[a:z] = noise * math.sqrt(energy / max(float(np.sum(noise ** 2)), 1e-30))
+        q[cut:] = 0.0
+        return q * floor
+    return _mdct_roundtrip(x, n, win, code)
+
+
+#: Layer III-like cases: (file rate, kbit/s per channel, low-pass Hz)
+LAYER3_CASES = ((44100, 64, 17000.0), (48000, 64, 17000.0), (44100, 80, 19000.0), (48000, 96, 20000.0),
+                (44100, 56, 16500.0))
+#: AC-3-like cases: (file rate, bandwidth code); the last coded line 73 + 3 code of 256 (A/52 section 7.1.3)
+AC3_CASES = ((48000, 28), (48000, 31), (44100, 36), (48000, 36), (44100, 32), (48000, 45))
+#: Vorbis-like cases: (file rate, quality, low-pass Hz, noise-normalised from Hz)
+VORBIS_CASES = ((88200, 3, 18500.0, 14000.0), (96000, 3, 18500.0, 14000.0), (44100, 3, 18500.0, 14000.0),
+                (88200, 4, 20000.0, 16000.0), (48000, 2, 17500.0, 12000.0))
+#: steep Butterworths at 48 kHz: (order, corner Hz)
+STEEP_BUTTER_CASES = ((10, 18000.0), (12, 19000.0), (14, 19000.0), (12, 20000.0), (14, 18500.0), (11, 19500.0))
+#: long firwin low-passes: (file rate, taps, corner Hz, window)
+LONG_FIR_CASES = ((88200, 511, 19000.0, "kaiser"), (96000, 1023, 19500.0, "kaiser"), (88200, 1023, 19000.0, "hamming"),
+                  (96000, 511, 19000.0, "blackman"))
+#: twins converted up, then through the same chains with the limit above the old Nyquist: (source, file rate, chain)
+S9FA_TWINS = ((32000, 48000, "layer3"), (32000, 44100, "ac3"), (44100, 88200, "vorbis"), (32000, 48000, "butter"),
+              (44100, 96000, "vorbis"), (32000, 48000, "ac3"))
+
+
+def _plan_coder_walls(seed: int, quick: bool):
+    """(name, family, group, spec) of the coder walls, steep Butterworths, long FIR low-passes and their twins."""
+    rng = np.random.default_rng([int(seed), 29])
+    mats = ("music", "noise", "music", "dull")
+
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+
+    plan = []
+    for fs, kbps, lp in (LAYER3_CASES if not quick else LAYER3_CASES[:2]):
+        plan.append((f"l3_{fs}_{kbps}k_{lp / 1000:g}k", "coder-layer3", "codec-shelf",
+                     ("l3", fs, kbps, lp, pick(mats), pick([1, 2]), float(rng.uniform(-24.0, -10.0)))))
+    for fs, code in (AC3_CASES if not quick else AC3_CASES[:2]):
+        plan.append((f"ac3_{fs}_bw{code}", "coder-ac3", "codec-shelf",
+                     ("ac3", fs, code, pick(mats), pick([1, 2]), float(rng.uniform(-24.0, -10.0)))))
+    for fs, qual, lp, nz in (VORBIS_CASES if not quick else VORBIS_CASES[:2]):
+        plan.append((f"vb_{fs}_q{qual}_{lp / 1000:g}k", "coder-vorbis", "codec-shelf",
+                     ("vb", fs, qual, lp, nz, pick(mats), pick([1, 2]), float(rng.uniform(-24.0, -10.0)))))
+    for order, corner in (STEEP_BUTTER_CASES if not quick else STEEP_BUTTER_CASES[1:3]):
+        plan.append((f"bsteep{order}_{corner / 1000:g}k_48000", f"butter{order}-steep", "lowpass",
+                     ("bsteep", order, corner, bool(rng.integers(0, 2)), float(rng.uniform(-22.0, -8.0)))))
+    for fs, taps, corner, window in (LONG_FIR_CASES if not quick else LONG_FIR_CASES[:1]):
+        plan.append((f"firlong_{window}{taps}_{corner / 1000:g}k_{fs}", f"fir-long-{window}", "lowpass",
+                     ("firlong", fs, taps, corner, window, pick(mats), float(rng.uniform(-24.0, -8.0)))))
+    for src, dst, chain in (S9FA_TWINS if not quick else S9FA_TWINS[:3]):
+        conv = pick(("scipy-resample_poly-kaiser5", "libsamplerate-sinc_best", "libsamplerate-sinc_medium"))
+        plan.append((f"chainup_{chain}_{src}_to_{dst}", f"up-{conv}-{chain}", "upsampled",
+                     ("chainup", src, dst, conv, chain, pick(("music", "noise")), pick([1, 2]),
+                      float(rng.uniform(-24.0, -10.0)))))
+    return [(name, fam, group, ("own-seed", [int(seed), 29, j], spec)) for j, (name, fam, group, spec) in enumerate(plan)]
+
+
+def build_coder_walls(spec, rng, seconds):
+    """Audio and labels of one case of :func:`_plan_coder_walls`."""
+    kind = spec[0]
+    neg = {"upsampled_from_hz": None, "upsampled_channels": []}
+    if kind == "l3":
+        _k, fs, kbps, lp, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        return fs, np.stack([layer3_roundtrip(x[:, c], fs, kbps, rng, lp) for c in range(ch)], axis=1), neg, \
+            default_labels(ch)
+    if kind == "ac3":
+        _k, fs, code, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        return fs, np.stack([ac3_roundtrip(x[:, c], fs, code, rng) for c in range(ch)], axis=1), neg, \
+            default_labels(ch)
+    if kind == "vb":
+        _k, fs, qual, lp, nz, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        return fs, np.stack([vorbis_roundtrip(x[:, c], fs, qual, rng, lp, nz) for c in range(ch)], axis=1), neg, \
+            default_labels(ch)
+    if kind == "bsteep":
+        _k, order, corner, zp, level = spec
+        x = np.stack([material("music", 48000, seconds, rng) for _ in range(2)], axis=1)
+        sos = sps.butter(order, corner, fs=48000, output="sos")
+        y = sps.sosfiltfilt(sos, x, axis=0) if zp else sps.sosfilt(sos, x, axis=0)
+        return 48000, set_rms(y, level), neg, ["L", "R"]
+    if kind == "firlong":
+        _k, fs, taps, corner, window, mat, level = spec
+        win = ("kaiser", float(rng.uniform(7.0, 10.0))) if window == "kaiser" else window
+        h = sps.firwin(taps, corner, window=win, fs=fs)
+        x = np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(2)], axis=1)
+        return fs, set_rms(sps.lfilter(h, 1.0, x, axis=0), level), neg, ["L", "R"]
+    _k, src, dst, conv, chain, mat, ch, level = spec
+    x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+    cols = []
+    for c in range(ch):
+        y = upsample(x[:, c], src, dst, conv)
+        if chain == "layer3":
+            y = layer3_roundtrip(y, dst, 160, rng, 20000.0)
+        elif chain == "ac3":
+            y = ac3_roundtrip(y, dst, 48 if dst == 48000 else 52, rng)
+        elif chain == "vorbis":
+            y = vorbis_roundtrip(y, dst, 6, rng, 40000.0, 30000.0)
+        else:
+            y = sps.sosfilt(sps.butter(12, 20000.0, fs=dst, output="sos"), y)
+        cols.append(y)
+    return dst, np.stack(cols, axis=1), {"upsampled_from_hz": src}, default_labels(ch)

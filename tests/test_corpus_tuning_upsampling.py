@@ -161,3 +161,54 @@ def test_dft_upsampler_leaves_nothing_above_the_old_nyquist():
     f = np.fft.rfftfreq(y.size, 1 / 48000)
     assert np.max(spec[f > 16001.0]) < 1e-9 * np.max(spec)
     assert y.size == 48000
+
+
+@pytest.mark.parametrize("alpha", [4.0, 5.0])
+def test_kbd_window_meets_the_perfect_reconstruction_condition(alpha):
+    # analytic (Princen-Bradley): an MDCT with 50 % overlap reconstructs exactly when w[n]^2 + w[n + N]^2 = 1 and
+    # the window is symmetric; the Kaiser-Bessel-derived window is built to meet it (ATSC A/52 section 7.9.4.1)
+    w = ct.kbd_window(512, alpha)
+    assert w.size == 512
+    assert np.max(np.abs(w[:256] ** 2 + w[256:] ** 2 - 1.0)) < 1e-12
+    assert np.max(np.abs(w - w[::-1])) < 1e-12
+
+
+def test_mdct_frame_loop_reconstructs_without_coding():
+    # analytic: with every frame passed through unchanged, the MDCT's time-domain aliasing cancels between
+    # neighbouring frames (Princen-Bradley), so the output is the input to rounding, for each coder's window
+    rng = np.random.default_rng(11)
+    x = rng.standard_normal(4000)
+    for n, win in ((256, ct.kbd_window(512, 5.0)), (576, np.sin(np.pi * (np.arange(1152) + 0.5) / 1152))):
+        y = ct._mdct_roundtrip(x, n, win, lambda j, spec: spec)
+        assert np.max(np.abs(y - x)) < 1e-9, n
+
+
+def test_ac3_like_coder_cuts_at_its_bandwidth_code():
+    # by construction (ATSC A/52 section 7.1.3: the last coded line is 73 + 3 x the bandwidth code, of 256 lines):
+    # code 28 at 48 kHz keeps lines 0-156, so the band ends at 157 x 93.75 Hz = 14718.75 Hz; 1-4 kHz above it only
+    # the KBD window's leakage and nothing else remains (Welch, scipy)
+    fs = 48000
+    rng = np.random.default_rng(12)
+    x = 0.1 * rng.standard_normal(fs * 2)
+    y = ct.ac3_roundtrip(x, fs, 28, rng)
+    f, p = sps.welch(y, fs, nperseg=4096)
+    below = 10 * np.log10(np.median(p[(f > 10000.0) & (f < 14000.0)]))
+    above = 10 * np.log10(np.median(p[(f > 15800.0) & (f < 19000.0)]))
+    assert below - above > 80.0, (below, above)
+    k = np.nonzero(10 * np.log10(p) > below - 20.0)[0]
+    assert abs(f[k[-1]] - 14718.75) <= 2 * 93.75
+
+
+def test_layer3_like_coder_top_band_starts_at_the_standard_line():
+    # ISO/IEC 11172-3 Table B.8 (from memory): the long-block band 21 starts at line 418 of 576 at 44.1 kHz and
+    # 384 at 48 kHz, 16.0 kHz both (418 x 22050 / 576 = 16002 Hz; 384 x 24000 / 576 = 16000 Hz)
+    assert ct.LAYER3_SFB_LONG[44100][21] * 22050.0 / 576 == pytest.approx(16002.0, abs=1.0)
+    assert ct.LAYER3_SFB_LONG[48000][21] * 24000.0 / 576 == pytest.approx(16000.0, abs=1.0)
+    # by construction: the encoder's low-pass zeroes every line above it (17 kHz here)
+    rng = np.random.default_rng(13)
+    x = 0.1 * rng.standard_normal(44100 * 2)
+    y = ct.layer3_roundtrip(x, 44100, 128, rng, 17000.0)
+    f, p = sps.welch(y, 44100, nperseg=4096)
+    below = 10 * np.log10(np.median(p[(f > 8000.0) & (f < 12000.0)]))
+    above = 10 * np.log10(np.median(p[(f > 18000.0) & (f < 21000.0)]))
+    assert below - above > 60.0, (below, above)

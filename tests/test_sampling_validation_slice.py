@@ -74,9 +74,8 @@ KNOWN_MISSES = {
     ("upsampling_false_alarms", "corpus_tuning_upsampling"):
         "three band limits in the tuning corpus' quick slice read as conversions (3/61): an 8th-order Chebyshev II "
         "low-pass at 17.6 kHz in a 96 kHz file, a transform coder's low-pass at a 44.1 kHz file, a 63-tap Hamming "
-        "FIR at 21.4 kHz in a 48 kHz file; their falls sit where a converter's from a standard rate would, and the "
-        "stop-band rule that clears them (bandwidth.cliff_needs_images) is not among the default steps (a limiter "
-        "after a converter fills the stop band too)",
+        "FIR at 21.4 kHz in a 48 kHz file; their falls sit where a converter's from a standard rate would; a rule that asked such a "
+        "cliff for images in its stop band was removed (a limiter after a converter fills the stop band too)",
     ("upsampling_rate", "corpus_validation"):
         "a 22.05 kHz source converted up by FFT resampling (a brick wall at the old Nyquist) on music that rolls "
         "off below it is named 24 kHz: the start of the stop band is weighed towards 0.96 of a Nyquist (a brick wall "
@@ -84,9 +83,9 @@ KNOWN_MISSES = {
         "higher rate; the slice still misses the target, its case not re-examined)",
     ("upsampling_false_alarms", "corpus_validation_b"):
         "an MP3 round trip at 128 kbit/s in a 44.1 kHz file (2.8 s) is read as converted up from 32 kHz: the "
-        "codec's band limit ends in a cliff at 16 kHz that a converter from 32 kHz would leave; the rule that "
-        "asks such a cliff for images where the stop band holds the programme (bandwidth.cliff_needs_images) "
-        "clears it, but is not among the default steps (a limiter after a converter fills the stop band too)",
+        "codec's band limit ends in a cliff at 16 kHz that a converter from 32 kHz would leave; a rule that "
+        "asked such a cliff for images where the stop band holds the programme cleared it, but was removed (a "
+        "limiter after a converter fills the stop band too)",
     ("upsampling_rate", "corpus_validation_c"):
         "ffmpeg's cubic resampler from 32 to 48 kHz on noise is named 16 kHz: its response is already falling at "
         "half the source's Nyquist frequency (edge at 0.50 by the corpus' own measurement) and its images about "

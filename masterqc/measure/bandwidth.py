@@ -76,9 +76,8 @@ mastering low-pass leaves the programme there, a fixed 50-90 dB down in every fr
 The same reading decides a brick wall at a standard Nyquist: an FFT resampler zeroes every bin above the old
 Nyquist and leaves the floor there, a transform coder's low-pass leaves its synthesis window's leakage.
 
-A cliff whose stop band holds the programme well above the floor names its rate only where the imaging analysis
-finds images of the content at that rate (:func:`cliff_needs_images`, a post-step): a converter's stop band holds
-images of the band below the old Nyquist, a low-pass's holds the programme's own content above its cut-off.
+A cliff whose fall is over well short of the old Nyquist (:func:`ends_short`) is a band limit: a converter ends its
+fall at the old Nyquist, a transform coder's bandwidth setting anywhere.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
 least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
@@ -228,6 +227,22 @@ BRICK_WALL_RATIO_TOLERANCE = 0.015
 #: design falls from -6 to -40 dB in about 12 %); a Butterworth low-pass falls 6n dB per octave, so an 8th-order
 #: one at 20 kHz needs 14 kHz (0.64 of 22.05 kHz) for the same 34 dB, and even a 12th-order one 0.4
 CONVERTER_MAX_FALL_RATIO = 0.3
+#: a converter's anti-image filter ends its fall at the old Nyquist frequency: its stop band begins there (to stop
+#: the images) and its pass band reaches as high as its length allows, so the narrower its fall, the nearer the old
+#: Nyquist its -6 dB point.  A fall that is over well short of the old Nyquist -- the gap from the start of its stop
+#: band up to the old Nyquist wider than this many times the fall itself (-6 dB point to the start of the stop
+#: band) -- wastes the band between, as no converter's design does; a transform coder's bandwidth setting cuts its
+#: lines there, its fall only as wide as its window's main lobe.  Both spans are read on the envelope smoothed over
+#: SMOOTH_HZ, so each may be out by about that much: the gap must exceed the fall by twice SMOOTH_HZ as well (in the
+#: file's own hertz).  Own reasoning; tuning corpus (seed 1000): libsamplerate's fastest converter, whose pass band
+#: ends earliest, reads -6 dB at 0.82 and its stop band from 0.92-1.01 of the old Nyquist (gap at most 0.82 of its
+#: fall), its best converter, whose fall is narrowest, a gap of up to 0.86 of a fall of 0.02 of the old Nyquist; an
+#: AC-3-like coder's bandwidth code at 14.6-14.7 kHz in a 48 kHz file reads -6 dB at 0.91-0.92 and its stop band
+#: from 0.93-0.94 of 16 kHz (gap 2.3-5.7 times its fall).  The same reading tells a steep Butterworth in a 48 kHz file
+#: (which the bilinear transform makes as steep as a 44.1 kHz converter next to the file's Nyquist) from a
+#: conversion: a 12th-order one at 20 kHz on music reads -6 dB at 0.90 and its stop band from 0.93 of 22.05 kHz
+#: (gap 2.7 times its fall), its fall met by the programme's floor more than 1 kHz short of 22.05 kHz
+CONVERTER_MAX_GAP_RATIO = 1.0
 #: a low candidate's pass (scale 2 or 4) searches up to this multiple of its highest Nyquist (own reasoning:
 #: room for the stop window above the cliff without reaching the content of a native wide band)
 LOW_PASS_TOP_RATIO = 2.6
@@ -305,14 +320,6 @@ EARLY_MIN_DEPTH_DB = 90.0
 #: 40-zero-crossing Kaiser beta 5 design, on noise low-passed at 3 kHz: 80-88 dB deep)
 EARLY_MAX_STOP_RATIO = 1.015
 STOP_CONTENT_MAX_ABOVE_FLOOR_DB = 20.0
-#: a cliff whose stop band holds the programme more than this far over the format's floor (median frame,
-#: :func:`stop_band_content`) names a source rate only with images of the content at that rate
-#: (:func:`cliff_needs_images`).  The same line as STOP_CONTENT_MAX_ABOVE_FLOOR_DB: nearer the floor the stop band
-#: may be the converter's own floor, or images too faint to measure.  Own reasoning; on the tuning corpus the
-#: imaging analysis finds the images of converters whose stop band lies 15-110 dB over the floor, and misses them
-#: on libsamplerate's best converter from 8 and 11.025 kHz at 13-22 dB (the first of which this line gives up);
-#: the low-passes it catches lie 24-63 dB over the floor (FIR, Butterworth, coder), those at 14-20 dB stay
-STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB = STOP_CONTENT_MAX_ABOVE_FLOOR_DB
 
 #: a cliff whose fall a Butterworth low-pass explains is a band limit, not a conversion.  The digital
 #: Butterworth (bilinear transform, as every IIR design tool makes it) has exactly
@@ -395,10 +402,6 @@ MEASUREMENT_SCHEMA = {
         'without a proper filter); null when none'),
     "upsampled_where_s": measured(TIME_RANGES, 's',
         'time ranges where upsampling was found'),
-    "upsampled_stop_band_over_floor_db": measured(NUMBER_OR_NULL, 'db',
-        'for a converter cliff read on the whole file: the level above the source rate\'s Nyquist frequency in '
-        'the median frame, over the format\'s noise floor (where images of the programme would show); null '
-        'otherwise'),
 }
 
 
@@ -424,9 +427,6 @@ class BandwidthResult:
     stop_ratio: float | None = None
     #: the verdict rests on a brick wall at a standard Nyquist (not reported)
     brick: bool = False
-    #: for a cliff read on the whole file's sum: the programme above the source Nyquist in the median frame over
-    #: the format's floor, dB (see :func:`stop_band_content`)
-    stop_band_over_floor_db: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -445,8 +445,6 @@ class BandwidthResult:
             "bandwidth_segments": list(self.segments),
             "upsampled_mirror_rate_hz": self.mirror_rate_hz,
             "upsampled_where_s": [list(w) for w in self.where_s],
-            "upsampled_stop_band_over_floor_db": (self.stop_band_over_floor_db
-                                                  if self.upsampled_from_hz is not None else None),
         }
 
 
@@ -635,6 +633,17 @@ def _cliff_at(env_db, bin_hz, top_bin, e, post):
             "f30_hz": pts[30.0], "fb_hz": fb, "f20_hz": f20, "f40_hz": f40, "slope_below_db_per_khz": below, "steepest_db_per_khz": steepest,
             "tilt_db_per_khz": tilt, "slope_after_db_per_khz": after,
             "stop_start_hz": _crossing(env_db, start, top_bin, post + STOP_TOLERANCE_DB, bin_hz) or fb}
+
+
+def ends_short(cliff: dict, rate_hz: float, scale: int = 1) -> bool:
+    """True when a cliff's fall is over short of ``rate_hz``'s Nyquist frequency by more than
+    :data:`CONVERTER_MAX_GAP_RATIO` times its own width (the -6 dB point ``edge_hz`` to the start of the stop band
+    ``stop_start_hz``, on the scale of the search) and twice :data:`SMOOTH_HZ` (the file's own hertz, so ``scale``
+    times that on the scale of the search): no converter from that rate ends its fall there."""
+    stop, edge = cliff.get("stop_start_hz"), cliff.get("edge_hz")
+    if stop is None or edge is None or stop <= edge:
+        return False
+    return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ * scale
 
 
 def transition_width_hz(cliff: dict) -> float:
@@ -976,53 +985,6 @@ def _programme_above(fe, info, out) -> bool:
     return True
 
 
-def cliff_needs_images(m: dict) -> dict:
-    """A post-step (:func:`masterqc.measure.registry.post_steps`, before the provenance steps): a converter cliff
-    read on the whole file whose stop band holds the programme well above the format's floor
-    (``upsampled_stop_band_over_floor_db`` at least :data:`STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB`) names its source
-    rate only where the imaging analysis finds images of the content at that rate (a "trace" or a "defect").
-    A converter's stop band holds images of the programme below the old Nyquist, which that analysis finds
-    even 110-125 dB down; a linear-phase FIR or IIR low-pass of the same fall leaves the programme's own content
-    above its cut-off, which has no images at any rate.  Where the imaging analysis tested the rate and found
-    none, the cliff is a band limit.  Pure: measurements in, measurements out.
-
-    Not among the default post-steps (:func:`masterqc.measure.registry.post_steps`): a file converted up and
-    then limited (and dithered) at the new rate holds the limiter's own products above the old Nyquist, 26-45 dB
-    over the floor, with no images of the content either, and this rule missed all six such chains of a
-    held-back validation set (converted up from 16-88.2 kHz by two resampler families).  It stays here, tested,
-    until a test tells a low-pass's leakage from a limiter's products."""
-    rate = m.get("upsampled_from_hz")
-    over = m.get("upsampled_stop_band_over_floor_db")
-    if rate is None or m.get("upsampled_evidence") != "cliff" or over is None or over <= STOP_BAND_IMAGES_MIN_OVER_FLOOR_DB:
-        return m
-    tested = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("source_rate_hz") is not None
-              and int(round(float(c["source_rate_hz"]))) == int(rate)]
-    if not tested or any(c.get("verdict") in ("trace", "defect") for c in tested):
-        return m
-    m = dict(m)
-    edge = m.get("effective_bandwidth_hz")
-    m["upsampled_from_hz"] = m["upsampled_confidence_fraction"] = m["upsampled_edge_ratio"] = None
-    m["upsampled_evidence"] = None
-    m["upsampled_stop_band_over_floor_db"] = None
-    m["upsampled_channels"] = [] if m.get("upsampled_channels") is not None else None
-    m["upsampled_where_s"] = []
-    # the segments read the same cliff over shorter stretches: the same stop band answers them, so the
-    # per-segment verdicts agree with the file's
-    segs = [dict(g) if isinstance(g, dict) else g for g in (m.get("bandwidth_segments") or [])]
-    for seg in segs:
-        if isinstance(seg, dict) and seg.get("upsampled_from_hz") == rate:
-            seg["upsampled_from_hz"] = seg["upsampled_confidence_fraction"] = None
-    if m.get("bandwidth_segments") is not None:
-        m["bandwidth_segments"] = segs
-    m["band_limit_hz"] = edge
-    m["bandwidth_note"] = (
-        f"band-limited at {float(edge) / 1000:.1f} kHz by a low-pass: the fall looks like a converter's from "
-        f"{rate / 1000:g} kHz, but above {rate / 2000:g} kHz the programme goes on {over:.0f} dB over the "
-        f"format's noise floor with no images of the content below {rate / 2000:g} kHz, which a converter's stop "
-        "band would hold")
-    return m
-
-
 def assess(fe, info) -> BandwidthResult:
     """Effective bandwidth and upsampling verdict from a :class:`FrontEndResult`.
 
@@ -1060,7 +1022,6 @@ def assess(fe, info) -> BandwidthResult:
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
     vetoed = claimed if _programme_above(fe, info, out) else None
-    sum_cliff = out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff"
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -1110,22 +1071,6 @@ def assess(fe, info) -> BandwidthResult:
         # the sum shows the cliff, no channel alone does (each too quiet): every channel with content
         up_ch = [labels[c] for c in range(n_ch) if shows(c, out.upsampled_from_hz)]
     out.channels = up_ch if (testable_any or up_ch) else None
-    def same_fall(c):
-        """Channel ``c`` has no content where the cliff could show, or ends in a cliff at the same edge."""
-        r = per_channel[c] if c < len(per_channel) else None
-        if not shows(c, out.upsampled_from_hz):
-            return True
-        return (r is not None and r.edge == "cliff" and r.effective_bandwidth_hz is not None
-                and out.effective_bandwidth_hz is not None
-                and abs(r.effective_bandwidth_hz - out.effective_bandwidth_hz) <= 0.02 * out.upsampled_from_hz / 2.0)
-    if (out.upsampled_from_hz is not None and (out.evidence or "cliff") == "cliff" and fe.frames
-            and (sum_cliff or all(labels[c] in up_ch or same_fall(c) for c in range(n_ch)))):
-        # what lies above the old Nyquist in the median frame; read on the channels' mean, so only where the sum
-        # itself ends in the cliff or every channel with content ends in the same fall (a native channel fills
-        # the band above the old Nyquist where one channel alone was converted up)
-        got = stop_band_content(fe, format_floor_db(info.bit_depth, info.is_float, fe.frame_length),
-                                out.upsampled_from_hz)
-        out.stop_band_over_floor_db = None if got is None else round(float(got[1]), 1)
     segs = getattr(fe, "segment_ltas", None)
     if out.upsampled_from_hz is not None:
         # the whole file reads as upsampled: that is where
@@ -1308,7 +1253,10 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
         brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
-        if not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
+        if not brick and ends_short(cliff, rate, scale):
+            cliff["ends_short"] = rate / scale
+            rate = None
+        elif not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
                 and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
@@ -1412,6 +1360,12 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
+        elif cliff.get("ends_short"):
+            out.band_limit_hz = edge
+            h, r = float(cliff["stop_start_hz"]), float(cliff["ends_short"])
+            out.note = (f"band-limited at {edge / 1000:.1f} kHz: the fall is over by {h / 1000:.1f} kHz, short of "
+                        f"{r / 2000:g} kHz by more than its own width, where a converter from {r / 1000:g} kHz ends "
+                        "its fall (a lossy coder's bandwidth setting, or a low-pass)")
         elif cliff.get("coder_step") is not None:
             out.band_limit_hz = edge
             at_hz, down_db = cliff["coder_step"]

@@ -24,6 +24,7 @@ def post_steps():
     """Pure functions ``measurements -> measurements`` run after every analyzer has finished,
     in order: they combine evidence that more than one analyzer holds."""
     from masterqc.measure import provenance
-    # bandwidth.cliff_needs_images is not run: a limiter after the converter fills the stop band with its own
-    # products as a low-pass's leakage does, and the rule then misses the conversion (see its docstring)
+    # no step judges a converter cliff by what its stop band holds: a limiter after the converter fills the stop
+    # band with its own products, as a low-pass leaves its own content there, so neither a level nor the absence of
+    # images there tells a low-pass from a conversion
     return [provenance.combine]
