@@ -416,7 +416,7 @@ class _Quick2(_Quick):
 
 @pytest.mark.parametrize("threads", [2, 3])
 def test_lanes_feed_every_analyzer_every_block(tmp_path, threads):
-    # 48000 frames in 4800-frame blocks: 10 blocks each (2 on the calling thread before the
+    # By construction: 48000 frames in 4800-frame blocks, 10 blocks each (2 on the calling thread before the
     # lanes are made, 8 in lanes), whatever lane an analyzer landed in.
     path = tmp_path / "prog.wav"
     sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")

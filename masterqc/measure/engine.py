@@ -261,8 +261,8 @@ def _lanes(costs_s) -> list:
     fed in their order, so each analyzer still takes every block in file order.
 
     An analyzer alone costs about as much per block as the scheduling around it (a lock
-    round, a wake-up, the GIL changing hands: some 20 us) when its own work is a few
-    microseconds (sample peak, non-finite count, bit depth), so the cheap half (a cost at most
+    round, a wake-up, the GIL changing hands: some 10-20 us, bench/speed_s9threads.txt) when
+    its own work is a few microseconds (sample peak, non-finite count, bit depth), so the cheap half (a cost at most
     the median of ``costs_s``, the analyzers' wall seconds on a warm-up block) shares one lane
     and every other analyzer has a lane of its own.  The median, not a share of the total: a
     warm-up block that one analyzer spends long on (a lazy import, a thread switched out) moves
