@@ -52,6 +52,13 @@ drawn from -30..-6 dBFS (lowered where the peak would pass -0.1 dBFS):
   (families ``naive-<kind>`` and ``oversampled-<kind>``); ``decimation`` (True), last: mono tonal music
   dropped 2:1 or 3:1 or picked 48 -> 44.1 kHz (:data:`MONO_DROPS`), with resample_poly twins.
 
+- ``naive-synth`` (True) and ``band-limited-synth`` (False), last: two-operator FM voices (:data:`FM_VOICES`:
+  carriers 200 Hz - 3 kHz, peak index 1-8, whole and fractional ratios) and naive ring modulators
+  (:data:`RING_VOICES`), each with two twins rendered at 8x: cut at Nyquist in the FFT domain (``oversampled-fm``,
+  ``oversampled-ring``) and brought down by resample_poly (``oversampled-fm-poly``, ``oversampled-ring-poly``);
+  ``decimation`` (True): crushed holds at fractional steps 1.67-5.13, some quantised to 10-12 bits
+  (:data:`CRUSH_HOLDS`, family ``crush-hold``), with FFT-band-limited twins (``filtered-decimation``, False).
+
 Caution: several cases are bright full-band synthesis near full scale; turn monitors
 down before listening to any of them.
 """
@@ -529,6 +536,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     yield from modulation_cases(seed, quick)
     # added: mono tonal music dropped 2:1 or 3:1, or picked from 48 to 44.1 kHz (own streams)
     yield from mono_drop_cases(seed, quick)
+    # added: two-operator FM, ring modulators and crushed holds at fractional steps, with twins (own streams)
+    yield from fm_ring_crush_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -919,3 +928,135 @@ def mono_drop_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         fam = f"drop-{rule[-1]}" if rule.startswith("drop") else f"pick-{rule}"
         stem = f"mono-{fam}-tonal-{fs_in // 100}-{fs // 100}-{seed}-{j}"
         yield from _with_twin(stem, fam, fs_in, fs, x, y, level)
+
+
+# ---------------------------------------------------------------- two-operator FM, ring modulation, crushed holds
+#: naive two-operator FM voices as a quick synthesiser renders them: a sine carrier at fc (200 Hz - 3 kHz, on a
+#: scale, slight vibrato) phase-modulated by a sine at r*fc, with an index that follows the note's envelope
+#: (peak 1-8), sin(2 pi fc t + I(t) sin(2 pi r fc t)); its lines sit at fc + k*r*fc with amplitudes J_k(I), and the
+#: sidebands past Nyquist fold to fs - (fc + k*r*fc).  Entries: (rate, ratio r, voices, carrier range Hz, peak
+#: index range).  Integer ratios give harmonic spectra, the others a line grid offset from every harmonic series.
+FM_VOICES = ((44100, 1.0, 1, (800.0, 3000.0), (4.0, 8.0)), (48000, 2.0, 2, (500.0, 2500.0), (3.0, 7.0)),
+             (48000, 1.41, 1, (1000.0, 3000.0), (3.0, 8.0)), (44100, 3.5, 1, (600.0, 2000.0), (2.0, 6.0)),
+             (48000, 0.71, 2, (1500.0, 3000.0), (5.0, 8.0)), (44100, 2.76, 1, (700.0, 2500.0), (2.5, 6.0)),
+             (48000, 3.0, 1, (800.0, 2500.0), (3.0, 7.0)), (44100, 1.73, 2, (1000.0, 3000.0), (3.0, 8.0)),
+             (48000, 5.2, 1, (400.0, 1500.0), (1.0, 4.0)), (44100, 0.5, 1, (1500.0, 3000.0), (6.0, 8.0)),
+             (48000, 2.41, 1, (200.0, 1200.0), (4.0, 8.0)), (44100, 7.0, 1, (300.0, 1000.0), (1.5, 4.0)))
+#: naive ring modulators: the product of two oscillators at f1 and r*f1 (lines at k*f1 +- m*r*f1, folding past
+#: Nyquist); entries (rate, first oscillator, second oscillator, voices, f1 range Hz)
+RING_VOICES = ((48000, "saw", "sine", 1, (600.0, 2500.0)), (44100, "square", "saw", 1, (300.0, 1200.0)),
+               (48000, "pulse", "sine", 2, (400.0, 1500.0)), (44100, "saw", "saw", 2, (200.0, 900.0)))
+#: crushed holds: a sample-rate reducer that holds the input sample at every step of h output samples (h not a
+#: whole number: a phase accumulator takes a new input sample whenever it passes a multiple of h), optionally
+#: with its amplitude quantised to b bits; entries (rate, h, bits or 0, material)
+CRUSH_HOLDS = ((48000, 2.37, 0, "tonal"), (44100, 3.61, 12, "synth"), (48000, 4.4, 0, "mix"),
+               (44100, 2.83, 10, "tonal"), (48000, 5.13, 0, "synth"), (44100, 1.67, 0, "mix"))
+#: the quick slice of these blocks (indices into FM_VOICES, RING_VOICES, CRUSH_HOLDS)
+FM_QUICK, RING_QUICK, CRUSH_QUICK = (2, 3), (0,), (0,)
+
+
+def fm_voice(ratio: float, fc_range, index_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
+    """One voice of naive two-operator FM (see :data:`FM_VOICES`) at ``fs * over`` samples per second; the
+    random stream ``state`` fixes every choice, so the naive (over = 1) and oversampled renderings hold the same
+    notes."""
+    rng = np.random.default_rng(state)
+    rate = fs * over
+    out = np.zeros(int(seconds * fs) * over)
+    for pos, length, fc in voices(seconds, fs, rng, 1, *fc_range):
+        pos, length = pos * over, length * over
+        f_inst = pitch_track(fc, length, rate, rng)
+        env = adsr(length, rate, rng)
+        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+        index = rng.uniform(*index_range) * (0.3 + 0.7 * env)
+        v = np.sin(2 * math.pi * ph + index * np.sin(2 * math.pi * (ratio * ph + rng.uniform(0, 1))))
+        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
+    return out
+
+
+def ring_voice(a: str, b: str, f_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
+    """One voice of a naive ring modulator (see :data:`RING_VOICES`) at ``fs * over`` samples per second."""
+    rng = np.random.default_rng(state)
+    rate = fs * over
+    out = np.zeros(int(seconds * fs) * over)
+    for pos, length, f1 in voices(seconds, fs, rng, 1, *f_range):
+        pos, length = pos * over, length * over
+        f_inst = pitch_track(f1, length, rate, rng)
+        env = adsr(length, rate, rng)
+        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+        ratio = rng.uniform(1.15, 3.3)
+        v = _osc(a, ph, rng.uniform(0.15, 0.4)) * _osc(b, rng.uniform(0, 1) + ratio * ph)
+        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
+    return out
+
+
+def crush_hold(x: np.ndarray, h: float, bits: int = 0) -> np.ndarray:
+    """A sample-rate reducer: output sample n holds input sample floor(floor(n/h)*h) (a new input sample each
+    time a phase accumulator passes a multiple of h); ``bits``: amplitude quantised to that many bits (0: not)."""
+    idx = np.floor(np.floor(np.arange(x.size) / h) * h).astype(np.int64)
+    y = x[np.minimum(idx, x.size - 1)]
+    if bits:
+        q = 2.0 ** (bits - 1)
+        y = np.round(y * q) / q
+    return y
+
+
+def fm_ring_crush_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The voices of :data:`FM_VOICES` and :data:`RING_VOICES`, naive (``naive-synth``, True, only where the 8x
+    rendering holds at least :data:`MODULATION_MIN_FOLDED_DB` of its power above the file's Nyquist) with two
+    band-limited twins each (``band-limited-synth``, False): rendered at 8x and cut at Nyquist in the FFT domain
+    (``oversampled-fm``, ``oversampled-ring``), and rendered at 8x and brought down by resample_poly, whose
+    transition band straddles Nyquist (``oversampled-fm-poly``, ``oversampled-ring-poly``); then the crushed holds
+    of :data:`CRUSH_HOLDS` (``decimation``, True, family ``crush-hold``) with twins band-limited to the held rate's
+    Nyquist in the FFT domain and quantised alike (``filtered-decimation``, False, family ``fft-band-limit``).
+    6 s each over a quiet noise bed, RMS -30..-8 dBFS; own random streams."""
+    seconds = 6.0
+    over = MODULATION_OVERSAMPLING
+    plans = [("fm", j) for j in (FM_QUICK if quick else range(len(FM_VOICES)))]
+    plans += [("ring", j) for j in (RING_QUICK if quick else range(len(RING_VOICES)))]
+    for kind, j in plans:
+        if kind == "fm":
+            fs, ratio, n_voices, fc_range, i_range = FM_VOICES[j]
+            sub = np.random.default_rng([seed, 28000 + j])
+            make = lambda o, s: fm_voice(ratio, fc_range, i_range, seconds, fs, o, s)  # noqa: E731
+            stem = f"fm-{str(ratio).replace('.', 'p')}-{n_voices}v-{fs // 100}-{seed}-{j}"
+        else:
+            fs, a, b, n_voices, f_range = RING_VOICES[j]
+            sub = np.random.default_rng([seed, 29000 + j])
+            make = lambda o, s: ring_voice(a, b, f_range, seconds, fs, o, s)  # noqa: E731
+            stem = f"ring-{a}-{b}-{n_voices}v-{fs // 100}-{seed}-{j}"
+        states = [int(sub.integers(1 << 62)) for _ in range(n_voices)]
+        x = sum(make(1, s) for s in states)
+        y_over = sum(make(over, s) for s in states)
+        y = band_limit_down(y_over, over)
+        y_poly = sps.resample_poly(y_over, 1, over)[:x.size]
+        spec = np.abs(np.fft.rfft(y_over)) ** 2
+        above_db = 10 * math.log10(max(float(spec[spec.size // over:].sum()), 1e-300) / float(spec.sum()))
+        del y_over, spec
+        bed = 10 ** (-sub.uniform(45, 65) / 20) * float(np.sqrt(np.mean(y ** 2))) * pink(x.size, sub)
+        level = sub.uniform(-30, -8)
+        if above_db >= MODULATION_MIN_FOLDED_DB:
+            yield _case(stem, f"naive-{kind}", "naive-synth", fs, x + bed, {"aliasing_detected": True},
+                        rms_dbfs=level)
+        yield _case(f"band-limited-{stem}", f"oversampled-{kind}", "band-limited-synth", fs, y + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)
+        yield _case(f"poly-twin-{stem}", f"oversampled-{kind}-poly", "band-limited-synth", fs, y_poly + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)
+    for j in (CRUSH_QUICK if quick else range(len(CRUSH_HOLDS))):
+        fs, h, bits, material = CRUSH_HOLDS[j]
+        sub = np.random.default_rng([seed, 30000 + j])
+        x = _dense_material(material, seconds, fs, sub)
+        x = x / float(np.max(np.abs(x)))
+        level = sub.uniform(-30, -8)
+        g = 10 ** (level / 20) / float(np.sqrt(np.mean(x ** 2)))
+        x = x * min(g, 0.95)
+        # the twin: the same programme with nothing above the held rate's Nyquist, quantised alike
+        spec = np.fft.rfft(x)
+        spec[int(spec.size / h):] = 0.0
+        twin = np.fft.irfft(spec, x.size)
+        if bits:
+            q = 2.0 ** (bits - 1)
+            twin = np.round(twin * q) / q
+        stem = f"crush-hold-{str(h).replace('.', 'p')}-{bits}b-{material}-{fs // 100}-{seed}-{j}"
+        yield _case(stem, "crush-hold", "decimation", fs, crush_hold(x, h, bits), {"aliasing_detected": True})
+        yield _case(f"band-limited-{stem}", "fft-band-limit", "filtered-decimation", fs, twin,
+                    {"aliasing_detected": False})

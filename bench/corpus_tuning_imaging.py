@@ -400,6 +400,169 @@ def _stream_cases(seed: int, quick: bool):
             yield up.tuning_case(cname, fam, group, rate, audio, expect, labels, seed, rng)
 
 
+# ================================================================ own polyphase converters and nearest-phase banks
+# Windowed-sinc polyphase converters written here from the published method: the ideal interpolator
+# ``cutoff * sinc(cutoff * t)`` (``cutoff`` a fraction of the source Nyquist frequency) under a window of ``taps``
+# source samples (Blackman-Nuttall, Kaiser or Hann), evaluated at each output instant (every phase of the bank, so
+# no rounding), or at the instant rounded to the nearest of ``phases`` fractional delays with no interpolation
+# between them (a nearest-phase bank).  Labels from the converter's own design (see :func:`poly_image_level_db`):
+# the house definition's first images of the content at 0.3-0.7 of the source Nyquist frequency relative to it,
+# the kernel's own response plus, for a nearest-phase bank, the images of its rounding (a zero-order hold at
+# ``phases * src``: ``(f / (phases * src - f))**2``, see the imaging analyzer's NEAREST_PHASE_COUNTS).
+
+#: windows of the own polyphase converters: (name, taps per phase)
+POLY_WINDOWS = (("bnuttall", 32), ("bnuttall", 16), ("kaiser", 32), ("kaiser", 64), ("hann", 32), ("kaiser", 8),
+                ("hann", 16), ("bnuttall", 64))
+#: (source, target) rates of the polyphase converters and nearest-phase banks: fractional ratios, whose phases a
+#: bank rounds (a whole ratio's instants fall on phases any even count holds exactly)
+POLY_CONVERSIONS = ((44100, 48000), (22050, 48000), (44100, 96000), (32000, 44100), (16000, 44100),
+                    (48000, 88200), (24000, 44100), (11025, 48000))
+#: phase counts of the nearest-phase banks
+POLY_PHASES = (8, 16, 32, 64, 128, 256, 1024)
+POLY_MATERIALS = ("music", "speech", "tonal", "dull", "noise")
+#: the native negatives' steady notes pair about the cycle frequency of a nearest-phase bank's first images (for
+#: 44.1 kHz in a 48 kHz file with 8 phases: 16.8 kHz; for 32 kHz in a 44.1 kHz file: 8.6 kHz): fundamentals
+#: ``alpha / k`` (their partials ``m1 + m2 = k`` sum to it), for these ``k``, that leave no multiple within 5 Hz of
+#: a standard rate (no pairing at an ordinary image cycle frequency)
+PAIRING_ORDERS = (23, 29, 31, 35, 37, 41, 43, 47)
+PAIRING_SOURCES_HZ = {48000: 44100, 44100: 32000}
+
+
+def window_kernel(window: str, taps: int, beta: float, cutoff: float, t):
+    """``cutoff * sinc(cutoff * t)`` under a ``taps``-sample window (``t`` in source samples): Blackman-Nuttall
+    (4 terms: 0.3635819, 0.4891775, 0.1365995, 0.0106411), Kaiser (``beta``) or Hann."""
+    t = np.asarray(t, dtype=float)
+    x = 2.0 * t / taps
+    inside = np.abs(x) < 1.0
+    if window == "bnuttall":
+        c = np.cos(np.pi * x)
+        w = 0.3635819 + 0.4891775 * c + 0.1365995 * np.cos(2 * np.pi * x) + 0.0106411 * np.cos(3 * np.pi * x)
+    elif window == "kaiser":
+        w = np.i0(beta * np.sqrt(np.clip(1 - x * x, 0, 1))) / np.i0(beta)
+    else:
+        w = 0.5 + 0.5 * np.cos(np.pi * x)
+    return np.where(inside, cutoff * np.sinc(cutoff * t) * w, 0.0)
+
+
+def poly_convert(x: np.ndarray, src: int, dst: int, window: str, taps: int, beta: float, cutoff: float,
+                 phases: int | None = None) -> np.ndarray:
+    """One channel from ``src`` to ``dst`` through the windowed-sinc bank (see above); ``phases``: the fractional
+    position rounded to the nearest of that many (a nearest-phase bank)."""
+    n_out = len(x) * dst // src
+    pos = np.arange(n_out) * (src / dst)
+    i0 = np.floor(pos + 1e-9).astype(np.int64)
+    mu = pos - i0
+    if phases:
+        mu = np.round(mu * phases) / phases
+    half = taps // 2
+    pad = np.concatenate([np.zeros(half + 1), x, np.zeros(half + 2)])
+    y = np.zeros(n_out)
+    for k in range(-half + 1, half + 1):
+        y += window_kernel(window, taps, beta, cutoff, mu - k) * pad[i0 + k + half + 1]
+    return y
+
+
+def poly_image_level_db(window: str, taps: int, beta: float, cutoff: float, phases, src: int, x: np.ndarray) -> float:
+    """The house definition's level (dB) for the bank: the first images (at ``src - f``) of the content at 0.3-0.7
+    of the source Nyquist frequency relative to that content through the kernel's continuous response (its Fourier
+    transform summed on a grid of 1/512 sample), plus for a nearest-phase bank the hold's images
+    ``(f / (phases * src - f))**2``; power-weighted by the material's own spectrum (Welch, 100 Hz bins)."""
+    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 100))
+    sel = (f >= 0.3 * src / 2) & (f <= 0.7 * src / 2)
+    f, p = f[sel], p[sel]
+    over = 512
+    t = np.arange(-(taps // 2) * over, (taps // 2) * over + 1) / over
+    h = window_kernel(window, taps, beta, cutoff, t)
+    resp = (lambda fr: np.abs(np.exp(-2j * np.pi * np.outer(fr, t)) @ h) / over)
+    ratio = (resp((src - f) / src) / resp(f / src)) ** 2
+    if phases:
+        ratio = ratio + (f / (phases * src - f)) ** 2
+    return float(10 * np.log10(np.sum(p * ratio) / np.sum(p)))
+
+
+def _poly_plan(seed: int, quick: bool):
+    rng = np.random.default_rng([int(seed), 47])
+    plan = []
+    for window, taps in (POLY_WINDOWS if not quick else POLY_WINDOWS[:2]):
+        src, dst = POLY_CONVERSIONS[int(rng.integers(0, len(POLY_CONVERSIONS)))]
+        cutoff = float(np.round(rng.uniform(0.9, 1.0), 3))
+        beta = float(np.round(rng.uniform(6.0, 10.0), 2)) if window == "kaiser" else 0.0
+        plan.append(("bank", (src, dst, window, taps, beta, cutoff, None), f"poly_{window}{taps}_c{cutoff:g}"))
+    for phases in (POLY_PHASES if not quick else (8, 1024)):
+        src, dst = POLY_CONVERSIONS[int(rng.integers(0, len(POLY_CONVERSIONS)))]
+        window = ("bnuttall", "kaiser", "hann")[int(rng.integers(0, 3))]
+        cutoff = float(np.round(rng.uniform(0.9, 1.0), 3))
+        beta = float(np.round(rng.uniform(6.0, 10.0), 2)) if window == "kaiser" else 0.0
+        plan.append(("bank", (src, dst, window, 32, beta, cutoff, phases), f"nearest{phases}_{window}32_c{cutoff:g}"))
+    for fs in ((44100, 48000) if not quick else (48000,)):
+        plan.append(("pairing", (fs,), f"pairing_notes_{fs}"))
+    return [(kind, spec, name, rng.uniform(-30.0, -8.0), [1, 2][int(rng.integers(0, 2))],
+             POLY_MATERIALS[int(rng.integers(0, len(POLY_MATERIALS)))]) for kind, spec, name in plan]
+
+
+def pairing_notes(fs: int, seconds: float, rng) -> np.ndarray:
+    """Native negative: three steady notes whose partials pair about the first-image cycle frequency of an 8-phase
+    bank from ``PAIRING_SOURCES_HZ[fs]`` (:data:`PAIRING_ORDERS`), partials up to 0.45 of ``fs``, over a quiet noise
+    bed, low-passed (elliptic, 10th order) at 0.9 of that source's Nyquist frequency so that the band above it is as
+    quiet as a converter from there leaves it; unit RMS."""
+    src = PAIRING_SOURCES_HZ[fs]
+    alpha = (8 * src) % fs
+    alpha = min(alpha, fs - alpha)
+    rates = [r for r in (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000) if r < fs]
+    f0s = [alpha / k for k in PAIRING_ORDERS
+           if all(abs(r / (alpha / k) - round(r / (alpha / k))) * (alpha / k) > 5.0 for r in rates)]
+    n = int(round(fs * seconds))
+    t = np.arange(n) / fs
+    out = np.zeros(n)
+    for f0 in rng.choice(f0s, size=3, replace=False):
+        k = np.arange(1, int(0.45 * fs / f0) + 1)
+        amp = k ** -rng.uniform(0.6, 1.2)
+        for kk, a in zip(k, amp):
+            out += a * np.sin(2 * np.pi * kk * f0 * t + rng.uniform(0, 2 * np.pi))
+    out += 0.05 * np.std(out) * rng.standard_normal(n)
+    sos = sps.ellip(10, 0.1, 100, 0.9 * src / 2.0, output="sos", fs=fs)
+    out = sps.sosfiltfilt(sos, out)
+    return out / max(float(np.std(out)), 1e-12)
+
+
+def _poly_cases(seed: int, quick: bool):
+    """The own polyphase converters and nearest-phase banks (see above), each with a negative twin: the same
+    material through ``resample_poly`` with a long design (64 taps per phase, Kaiser beta 12, -6 dB at 0.95 of
+    the source Nyquist frequency); and the native pairing-notes negatives."""
+    seconds = 2.0 if quick else 4.0
+    for i, (kind, spec, name, level, ch, mat) in enumerate(_poly_plan(seed, quick)):
+        rng = np.random.default_rng([int(seed), 53, i])
+        if kind == "bank":
+            src, dst, window, taps, beta, cutoff, phases = spec
+            x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+            y = np.stack([poly_convert(x[:, c], src, dst, window, taps, beta, cutoff, phases) for c in range(ch)],
+                         axis=1)
+            lvl = poly_image_level_db(window, taps, beta, cutoff, phases, src, x)
+            expect = {"upsampled_from_hz": src}
+            if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
+                expect["imaging_detected"] = True
+            elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
+                expect["imaging_detected"] = False
+            fr = Fraction(dst, src)
+            m = max(fr.numerator, fr.denominator)
+            h = sps.firwin(2 * 32 * m + 1, 0.95 / m, window=("kaiser", 12.0))
+            twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator, window=h) for c in range(ch)],
+                            axis=1)
+            family = f"own-nearest-phase-{window}" if phases else f"own-poly-{window}{taps}"
+            full = f"{name}_{src}_to_{dst}_{mat}_img{lvl:.0f}db"
+            out = ((full, family, "nearest-phase" if phases else "polyphase", y, expect),
+                   (f"{full}_twin", "scipy-resample_poly-kaiser12-long", "good-resampler", twin,
+                    {"upsampled_from_hz": src, "imaging_detected": False}))
+            rate, labels = dst, up.default_labels(ch)
+        else:
+            (fs,) = spec
+            x = up.set_rms(pairing_notes(fs, seconds, rng)[:, None], level)
+            out = ((name, "native-pairing-notes", "native", x, {"upsampled_from_hz": None, "imaging_detected": False}),)
+            rate, labels = fs, ["M"]
+        for cname, fam, group, audio, expect in out:
+            yield up.tuning_case(cname, fam, group, rate, audio, expect, labels, seed, rng)
+
+
 def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     """Every case for ``seed`` (1000-1999); ``quick``: the first two conversions at 2 s, and a slice of the
     short-FIR and naive-synthesis cases."""
@@ -421,3 +584,4 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
         yield Case(name=f"{safe}_s{seed}", set="tuning", family=family, group=group, rate_hz=int(dst), audio=y,
                    expect={"upsampled_from_hz": src, "imaging_detected": False},
                    channel_labels=up.default_labels(ch))
+    yield from _poly_cases(seed, quick)

@@ -24,6 +24,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy import signal
 
 import sys
 from pathlib import Path
@@ -932,3 +933,157 @@ def test_modulation_slice_naive_voices_with_jumps_are_found_and_band_limited_twi
     twins = [(c, m) for c, m in modulation_slice if c.group == "band-limited-synth"]
     assert len(twins) == 5
     assert [c.name for c, m in twins if m["aliasing_detected"] is True] == []
+
+
+# ---------------------------------------------------------------- reflected line grids (two-operator FM, ring modulation)
+# Analytic reference (Jacobi-Anger expansion): sin(2 pi fc t + I sin(2 pi fm t)) = sum over every whole k of
+# J_k(I) sin(2 pi (fc + k fm) t), J_k the Bessel function of the first kind (J_-k = (-1)^k J_k).  Evaluated at the
+# sample instants n/fs with nothing band-limiting it, the line fc + k fm above fs/2 lands at fs - (fc + k fm) (first
+# fold zone) with the same amplitude |J_k(I)|.  The voice's own lines sit at +-fc modulo fm; the folded ones at
+# fs -+ fc modulo fm: a second grid, the first reflected about fs/2.
+
+
+def _fm_voice(fc, fm, index, fs, seconds, naive=True):
+    """Steady two-operator FM: naive (evaluated at the sample instants) or its band-limited twin (the
+    Jacobi-Anger lines below fs/2 only, summed)."""
+    from scipy.special import jv
+    t = np.arange(int(seconds * fs)) / fs
+    if naive:
+        return np.sin(2 * math.pi * fc * t + index * np.sin(2 * math.pi * fm * t))
+    x = np.zeros(t.size)
+    for k in range(-60, 61):
+        f = fc + k * fm
+        if abs(f) < fs / 2:
+            x += jv(k, index) * np.sin(2 * math.pi * f * t)
+    return x
+
+
+@pytest.mark.parametrize("fs,fc,fm,index,k", [(48000, 1500, 2115, 8.0, 12), (44100, 1860, 6510, 3.0, 4),
+                                              (48000, 2300, 3243, 8.0, 8)])
+def test_naive_fm_folds_sideband_k_to_fs_minus_fc_plus_k_fm_at_its_bessel_level(fs, fc, fm, index, k):
+    from scipy.special import jv
+    f_k = fc + k * fm
+    assert fs / 2 < f_k < fs
+    x = _fm_voice(fc, fm, index, fs, 1.0)        # 1 s: 1 Hz bins, every line on a bin (whole Hz)
+    spec = np.abs(np.fft.rfft(x * np.hanning(x.size))) / (0.5 * x.size / 2.0)   # Hann coherent gain 0.5
+    folded = fs - f_k
+    assert spec[folded] == pytest.approx(abs(jv(k, index)), rel=1e-3, abs=1e-6)
+    # the band-limited twin has nothing there (only the window's leakage from lines at least fm - fc away)
+    y = _fm_voice(fc, fm, index, fs, 1.0, naive=False)
+    spec_y = np.abs(np.fft.rfft(y * np.hanning(y.size))) / (0.5 * y.size / 2.0)
+    assert spec_y[folded] < 1e-6
+    # the fold sits on the reflected grid fs - (fc + k fm), off the voice's own offsets +-fc modulo fm
+    assert al._circ(folded, fs - fc, fm) < 1e-9
+    assert min(al._circ(folded, fc, fm), al._circ(folded, -fc, fm)) > 0.05 * fm
+
+
+def test_voice_grid_finds_the_fm_spacing_and_offset():
+    fs, fc, fm, index = 48000, 1500, 2115, 5.0
+    x = _fm_voice(fc, fm, index, fs, 0.05)
+    power = np.abs(np.fft.rfft(x * np.hanning(x.size + 2)[1:-1])) ** 2
+    bin_hz = fs / x.size
+    floor = al.block_floor(power)
+    peaks = al.find_lines(power, floor, al.POLY_LINE_DB)
+    fr, pw = al.refine_peaks(power, peaks) * bin_hz, power[peaks]
+    p, spacing, _sp, _sd, matched = al.voice_grid(fr, pw, bin_hz, fs)
+    assert spacing == pytest.approx(fm, rel=2e-3)
+    assert min(al._circ(p, fc, spacing), al._circ(p, -fc, spacing)) < 2 * bin_hz
+    assert matched.size >= 8
+
+
+@pytest.mark.parametrize("fs,fc,ratio,index", [(48000, 1503.7, 1.41, 8.0), (44100, 803.1, 3.5, 5.0),
+                                               (48000, 1101.3, 2.76, 6.0)])
+def test_naive_fm_voice_is_found_by_its_reflected_grid_and_its_twin_is_not(fs, fc, ratio, index):
+    """A steady naive FM voice with a slight vibrato (both operators follow it), bright enough that sidebands
+    fold below 0.45 fs at -25 to -40 dB under its strongest line (J_12(8), J_13(8) against J_5(8) for the first; from
+    the Bessel functions): its reflected grid stands above every control in most frames; the twin (the same voice rendered at 8x, cut at Nyquist in the FFT
+    domain, the tuning corpus' band_limit_down) is clean."""
+    over = 8
+    def render(rate):
+        t = np.arange(int(4.0 * rate)) / rate
+        ph = np.cumsum(fc * (1 + 0.003 * np.sin(2 * math.pi * 5.13 * t))) / rate
+        return 0.5 * np.sin(2 * math.pi * ph + index * np.sin(2 * math.pi * ratio * ph))
+    x = render(fs)
+    y = tuning.band_limit_down(render(fs * over), over)
+    mx, my = _run(x, fs), _run(y, fs)
+    dx, dy = mx["aliasing_detail"], my["aliasing_detail"]
+    assert mx["aliasing_detected"] is True
+    assert dx["reflected_grid_frames_with_folds"] >= 0.45 * dx["reflected_grid_frames"] > 0
+    assert mx["aliasing_assessable_fraction"] >= 0.5
+    assert "reflection about half the sampling rate" in dx["reason"]
+    assert my["aliasing_detected"] is not True
+    assert dy["reflected_grid_frames_with_folds"] <= dy["reflected_grid_expected_by_chance"] + 1.0
+
+
+def test_reflected_offsets_coincide_with_the_voice_when_fs_is_a_multiple_of_the_spacing():
+    """fs - (fc + k fm) = fc' + k' fm for whole k' when fs = N fm and the offsets meet (fs - fc = -fc modulo fm):
+    the folds land on the voice's own grid and prove nothing; the test must not read them."""
+    fs, fm, fc, index = 48000, 2400.0, 700.0, 6.0     # 48000 = 20 * 2400
+    x = _fm_voice(fc, fm, index, fs, 0.05)
+    power = np.abs(np.fft.rfft(x * np.hanning(x.size + 2)[1:-1])) ** 2
+    bin_hz = fs / x.size
+    floor = al.block_floor(power)
+    peaks = al.find_lines(power, floor, al.POLY_LINE_DB)
+    fr, pw = al.refine_peaks(power, peaks) * bin_hz, power[peaks]
+    level = 10 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
+    from masterqc.measure.npkernels import maximum_filter1d
+    lm = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
+    assert al.reflected_grid_frame(fr, pw, power, lm, np.zeros(0), np.zeros(0), bin_hz, fs) is None
+
+
+def test_naive_ring_modulator_is_found_and_its_twin_is_not():
+    """A square wave at f1 times a sine at f2 (ring modulation): lines at (2j+1) f1 +- f2 with amplitudes
+    2/(pi (2j+1)) (the square's odd harmonics 4/(pi (2j+1)), halved by the product), folding past Nyquist."""
+    fs, f1, f2 = 48000, 710.0, 1937.0
+    def render(rate):
+        t = np.arange(int(4.0 * rate)) / rate
+        vib = 1 + 0.002 * np.sin(2 * math.pi * 5.5 * t)
+        ph1 = np.cumsum(f1 * vib) / rate
+        return 0.4 * np.where(np.mod(ph1, 1.0) < 0.5, 1.0, -1.0) * np.sin(2 * math.pi * np.cumsum(f2 * vib) / rate)
+    x = render(fs)
+    y = tuning.band_limit_down(render(8 * fs), 8)
+    assert _run(x, fs)["aliasing_detected"] is True
+    assert _run(y, fs)["aliasing_detected"] is not True
+
+
+def test_a_reflected_grid_finding_reads_as_a_plain_sentence():
+    """House wording: the finding names the mirrored modulation sidebands and the fold about Nyquist."""
+    from masterqc.judge import judge
+    from masterqc.spec import build_spec
+    fs = 48000
+    t = np.arange(3 * fs) / fs
+    ph = np.cumsum(1503.7 * (1 + 0.003 * np.sin(2 * math.pi * 5.13 * t))) / fs
+    m = _run(0.5 * np.sin(2 * math.pi * ph + 8.0 * np.sin(2 * math.pi * 1.41 * ph)), fs)
+    assert m["aliasing_detected"] is True
+    assert "folding could be tested in" in m["aliasing_detail"]["reason"]
+    sp = build_spec({"spec_version": 1, "name": "invented sampling spec", "sampling": {"aliasing": [False]}})
+    found, _verdict = judge(sp, {"format": {"sample_rate_hz": fs}, "measurements": m})
+    f = next(f for f in found if f.check == "sampling.aliasing")
+    assert f.status == "fail"
+    assert "frequency- or ring-modulated voice come back mirrored about 24 kHz" in f.message
+
+
+@pytest.mark.parametrize("f_rel,most_db,least_db", [(0.55, -21.5, -24.0), (0.58, -52.0, -200.0),
+                                                    (0.65, -52.0, -200.0), (0.9, -52.0, -200.0)])
+def test_resample_polys_own_filter_folds_past_0_58_fs_at_least_52_db_down(f_rel, most_db, least_db):
+    """Where the thresholds REFLECTED_MIN_REL_DB (50 dB), POLY_TOP_FRACTION (0.45) and TRACK_MAX_FALL_FRACTION (0.42)
+    come from, measured on scipy's resample_poly itself (a general-purpose reference library, default filter): a sine
+    at f_rel * fs_out, made at 8 * fs_out and brought down by 8, comes back folded at (1 - f_rel) * fs_out, about
+    22.6 dB down from 0.55 fs (fold at 0.45 fs) and more than 52 dB down from 0.58 fs (folds below 0.42 fs); taking
+    every 8th sample instead keeps it at 0 dB."""
+    fs_out = 48000
+    n = fs_out                                  # 1 s at the output rate: 1 Hz bins
+    f = f_rel * fs_out
+    t = np.arange(8 * n) / (8 * fs_out)
+    x = np.sin(2 * math.pi * f * t)
+    y = signal.resample_poly(x, 1, 8)
+    folded = int(round(fs_out - f))
+    mid = slice(n // 4, 3 * n // 4)             # away from the filter's start and end
+    seg = y[mid]
+    amp = np.abs(np.fft.rfft(seg * np.hanning(seg.size))) / (0.25 * seg.size)
+    level_db = 20 * math.log10(max(float(amp[int(round(folded * seg.size / fs_out))]), 1e-12))
+    assert least_db <= level_db <= most_db
+    naive = x[::8][mid]
+    amp_n = np.abs(np.fft.rfft(naive * np.hanning(naive.size))) / (0.25 * naive.size)
+    assert 20 * math.log10(float(amp_n[int(round(folded * naive.size / fs_out))])) == pytest.approx(0.0, abs=0.05)
+    assert al.TRACK_MAX_FALL_FRACTION <= 1 - 0.58 < al.POLY_TOP_FRACTION

@@ -1046,3 +1046,142 @@ def test_steep_butterworth_on_music_in_a_48k_file_ends_short_of_22_05_khz(order,
     assert r.upsampled_from_hz is None, r.note
     # house choice: the band limit is reported within 500 Hz of the designed -3 dB corner
     assert r.band_limit_hz is not None and abs(r.band_limit_hz - corner) < 500.0, r.note
+
+
+# ---------------------------------------------------------------- very-high-quality and minimum-phase converters
+
+def _kaiser_converter_taps(src, dst, pass_ratio, atten_db, minimum=False):
+    """A polyphase converter's interpolation filter written from the published windowed-sinc method: a Kaiser window
+    for ``atten_db`` over the transition from ``pass_ratio`` of the source Nyquist to the source Nyquist
+    (scipy.signal.kaiserord), the sinc's cutoff midway (scipy.signal.firwin), at the working rate ``src * up``
+    with DC gain ``up``; ``minimum``: the same magnitude, minimum phase (scipy.signal.minimum_phase, homomorphic,
+    ``half=False``)."""
+    up = Fraction(dst, src).numerator
+    work = float(src * up)
+    taps, beta = sps.kaiserord(atten_db, (1.0 - pass_ratio) * (src / 2.0) / (work / 2.0))
+    h = sps.firwin(taps | 1, 0.5 * (1.0 + pass_ratio) * src / 2.0, window=("kaiser", beta), fs=work) * up
+    if minimum:
+        h = sps.minimum_phase(h, method="homomorphic", half=False, n_fft=1 << int(np.ceil(np.log2(64 * h.size))))
+    return h, work, up
+
+
+def _kaiser_convert(x, src, dst, h, up):
+    """Polyphase conversion with taps ``h`` (scipy.signal.upfirdn), the input followed by the filter's length of
+    silence so the output holds its whole response (a converter flushes its filter), the linear-phase delay taken
+    off."""
+    down = Fraction(dst, src).denominator
+    x = np.concatenate([x, np.zeros(h.size // up + 2)])
+    n_out = x.size * up // down
+    y = sps.upfirdn(h, x, up, down)
+    return y[:n_out] if np.argmax(np.abs(h)) < h.size // 4 else y[(h.size // 2) // down:][:n_out]
+
+
+def _response_db(h, work, up, f_hz):
+    _f, H = sps.freqz(h / up, worN=np.asarray(f_hz, dtype=float), fs=work)
+    return 20 * np.log10(np.maximum(np.abs(H), 1e-300))
+
+
+@pytest.mark.parametrize("atten_db", [100.0, 150.0, 200.0])
+def test_steepest_standard_design_falls_wider_than_the_converter_minimum(atten_db):
+    # Analytic (CONVERTER_MIN_WIDTH_RATIO): a very-high-quality converter's design, pass band to 0.95 of the old
+    # Nyquist and stop band from it, read from its own taps: its -6 dB point is its cutoff (0.975) and its fall from
+    # -3 to -30 dB spans 0.26-0.37 of the 5 % transition (a Kaiser window's main lobe), so at least 1.3 % of the
+    # old Nyquist: the converter minimum must lie at or below that, and the brick-wall limit above it
+    h, work, up = _kaiser_converter_taps(44100, 48000, 0.95, atten_db)
+    f = np.linspace(0.9 * 22050, 22050, 4001)
+    db = _response_db(h, work, up, f)
+    at = lambda level: float(f[np.nonzero(db < level)[0][0]])          # noqa: E731
+    assert at(-6.0) / 22050 == pytest.approx(0.975, abs=0.001)
+    width = (at(-30.0) - at(-3.0)) / 22050
+    assert 0.26 * 0.05 - 0.0005 <= width <= 0.37 * 0.05 + 0.0005
+    assert bw.CONVERTER_MIN_WIDTH_RATIO <= width < bw.BRICK_WALL_MAX_WIDTH_RATIO
+    # (Kaiser's formula for the window is empirical: the stop band reaches 0.9 of the asked attenuation at least)
+    assert float(np.max(_response_db(h, work, up, np.linspace(22050, 24000, 400)))) <= -0.9 * atten_db
+
+
+@pytest.mark.parametrize("src,dst", [(44100, 48000), (88200, 96000), (22050, 24000), (48000, 96000)])
+@pytest.mark.parametrize("minimum", [False, True])
+def test_very_high_quality_converter_at_a_small_ratio_is_found(src, dst, minimum):
+    # Analytic: a design with its pass band to 0.95 of the old Nyquist and its stop band (150 dB; 120 dB made
+    # minimum phase) from it has its -6 dB point midway, at 0.975 of the old Nyquist (read from its taps to 0.002,
+    # the same for the minimum-phase design, whose magnitude is the linear design's).  At ratios whose stop band
+    # above the old Nyquist is only 1-4 kHz wide in the file the rate must be the source's, and the edge the detector
+    # reports the design's own -6 dB point within 0.02 (house choice: the envelope's smoothing, SMOOTH_HZ)
+    h, work, up = _kaiser_converter_taps(src, dst, 0.95, 120.0 if minimum else 150.0, minimum)
+    f = np.linspace(0.9 * src / 2, src / 2, 2001)
+    db = _response_db(h, work, up, f)
+    f6 = float(f[np.nonzero(db < -6.0)[0][0]])
+    assert f6 / (src / 2) == pytest.approx(0.975, abs=0.002)
+    rng = np.random.default_rng([91, src, dst, int(minimum)])
+    y = _kaiser_convert(0.1 * rng.standard_normal(int(src * 1.5)), src, dst, h, up)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    assert r.measurements()["upsampled_edge_ratio"] == pytest.approx(f6 / (src / 2), abs=0.02)
+
+
+def test_minimum_phase_design_keeps_the_magnitude():
+    # Analytic: the homomorphic (cepstral) method with half=False keeps |H| and only changes the phase, so the
+    # minimum-phase converter's pass band, -6 dB point and stop band are the linear-phase design's; scipy's default
+    # (half=True) returns a filter of about half the length whose magnitude is the square root of the original's
+    # (its dB halved through the transition, relative to its own DC gain), a slower and shallower cliff
+    h, work, up = _kaiser_converter_taps(44100, 48000, 0.95, 120.0)
+    hm, _w, _u = _kaiser_converter_taps(44100, 48000, 0.95, 120.0, minimum=True)
+    f_pass = np.linspace(0.0, 0.95 * 22050, 200)
+    f_tr = np.linspace(0.95 * 22050, 22050, 200)
+    lin_tr, min_tr = _response_db(h, work, up, f_tr), _response_db(hm, work, up, f_tr)
+    assert np.max(np.abs(_response_db(hm, work, up, f_pass) - _response_db(h, work, up, f_pass))) < 0.01
+    above = lin_tr > -60.0
+    assert np.max(np.abs(min_tr[above] - lin_tr[above])) < 0.1
+    assert float(np.max(_response_db(hm, work, up, np.linspace(22050, 24000, 200)))) < -110.0
+    half = sps.minimum_phase(h, method="homomorphic", n_fft=1 << int(np.ceil(np.log2(64 * h.size))))
+    half_tr = _response_db(half, work, up, f_tr) - _response_db(half, work, up, [0.0])[0]
+    deep = (lin_tr < -6.0) & (lin_tr > -80.0)
+    assert np.max(np.abs(half_tr[deep] - 0.5 * lin_tr[deep])) < 0.5          # the square root: half the dB
+    # minimum phase: the energy comes first (the linear design's is centred)
+    e = np.cumsum(hm ** 2) / np.sum(hm ** 2)
+    assert e[hm.size // 10] > 0.9 and np.sum(h[:h.size // 2] ** 2) / np.sum(h ** 2) < 0.51
+
+
+def test_a_cliff_that_fits_the_next_rate_up_as_well_names_its_rate_with_less_confidence():
+    # Arithmetic of the rule (house choice, rival_fit): a cliff at 10.4 kHz whose stop band begins at 11.05 kHz reads
+    # 0.943 and 1.002 of 11.025 kHz (22.05 kHz) and 0.867 and 0.921 of 12 kHz (24 kHz): both in range, so both rates
+    # get a fit, and the verdict's position score is its own fit less the other's
+    fits = {}
+    rate, score = bw.match_rate(10400.0, [22050, 24000, 32000], 11050.0, fits_out=fits)
+    assert set(fits) == {22050, 24000}
+    assert fits[22050] == pytest.approx(max(0.05, 1.0 - abs(11050.0 / 11025.0 - bw.STOP_RATIO_TYPICAL) / 0.1))
+    assert fits[24000] == pytest.approx(max(0.05, 1.0 - abs(11050.0 / 12000.0 - bw.STOP_RATIO_TYPICAL) / 0.1))
+    assert score == max(fits.values()) and rate == max(fits, key=fits.get)
+    assert bw.rival_fit(fits, rate) == pytest.approx(min(fits.values()))
+    # a cliff only one rate explains (44.1 kHz: 21.0 kHz edge, stop band from 21.9 kHz) has no rival
+    alone = {}
+    assert bw.match_rate(21000.0, [22050, 24000, 32000, 44100], 21900.0, fits_out=alone)[0] == 44100
+    assert bw.rival_fit(alone, 44100) == 0.0
+
+
+def test_lower_bound_names_the_rate_whose_nyquist_the_stop_band_begins_at():
+    # Arithmetic of the rule (lower_bound_rate; house choice for the slack, the envelope's smoothing SMOOTH_HZ):
+    # a stop band from 11.064 kHz has begun by 22.05 kHz's Nyquist (11.025 kHz, 39 Hz short of it) but lies 0.92 of
+    # 24 kHz's; both rates were fitted, so the lower one is named
+    assert bw.lower_bound_rate({22050: 0.57, 24000: 0.62}, 24000, 11064.0) == 22050
+    # a stop band from 11.29 kHz (libsamplerate's fastest converter from 24 kHz reads 0.94 of 12 kHz) has not
+    assert bw.lower_bound_rate({22050: 0.62, 24000: 0.8}, 24000, 11292.0) is None
+    # nor is a rate the edge did not fit taken, nor a higher one
+    assert bw.lower_bound_rate({24000: 0.62}, 24000, 11064.0) is None
+    assert bw.lower_bound_rate({22050: 0.9, 24000: 0.5}, 22050, 11064.0) is None
+
+
+@pytest.mark.parametrize("src,dst", [(22050, 48000)])
+def test_minimum_phase_converter_with_an_early_pass_band_names_the_source_not_the_next_rate_up(src, dst):
+    # Analytic: a design whose pass band ends at 0.91 of the old Nyquist (-6 dB midway, 0.955) and whose stop band
+    # (120 dB) begins at it, made minimum phase (the magnitude kept), reads 0.955 of 11.025 kHz and 0.877 of 12 kHz:
+    # both rates explain the edge, but only the source's Nyquist is where the stop band begins.  The rate must be the
+    # source's, named as a lower bound with the confidence of a reading the next rate up fits too (below 0.9, house
+    # choice: the confidence formula's position term less the rival's fit)
+    h, work, up = _kaiser_converter_taps(src, dst, 0.91, 120.0, minimum=True)
+    rng = np.random.default_rng([92, src, dst])
+    y = _kaiser_convert(0.1 * rng.standard_normal(int(src * 1.5)), src, dst, h, up)
+    r = assess(quantise24(y, rng), dst)
+    assert r.upsampled_from_hz == src, r.note
+    assert r.measurements()["upsampled_edge_ratio"] == pytest.approx(0.955, abs=0.02)
+    assert r.confidence < 0.9

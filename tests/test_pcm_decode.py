@@ -43,6 +43,7 @@ def test_kernel_equals_numpy_bit_for_bit(width, big, channels):
 
 
 def test_numpy_reference_scales_codes_exactly():
+    # analytic (two's complement codes over 2**(bits - 1), libsndfile's integer-to-double scaling):
     # 24-bit little-endian codes: -2**23 (bytes 00 00 80), -1 (ff ff ff), 1, 2**23 - 1 (ff ff 7f)
     raw = bytes([0, 0, 0x80, 0xFF, 0xFF, 0xFF, 1, 0, 0, 0xFF, 0xFF, 0x7F])
     got = pcm.pcm_to_double_numpy(raw, 4, 1, 3, False)[:, 0]

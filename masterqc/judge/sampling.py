@@ -323,6 +323,12 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
         who = f"notes here (fundamental about {float(f0):.1f} Hz)" if f0 else "notes here"
         sentences.append(f"The {who} have harmonics above {nyq} that fold back into the audible band, between "
                          "the true harmonics.")
+    mirrored = bool(detail.get("reflected_grid_frames_with_folds")) and "reflection about half" in str(
+        detail.get("reason") or "")
+    if mirrored:
+        sentences.append(f"{'Also, the' if tonal else 'The'} lines of a frequency- or ring-modulated voice come back "
+                         f"mirrored about {nyq}: its sidebands above {nyq} fold back into the audible band.")
+        tonal = True
     ex = detail.get("fold_examples") or []
     if detail.get("folded_partials"):
         s = (f"{'Also, a' if tonal else 'A'} partial rising towards {nyq} "

@@ -1,6 +1,6 @@
 """Folded content (aliasing): partials that a sampling process reflected below Nyquist.
 
-Five complementary tests, each on a bounded number of frames spread over the file:
+Six complementary tests, each on a bounded number of frames spread over the file:
 
 0. **Sample-sharp jumps** (frames of fs/10 samples; :func:`sharp_steps`).  A waveform with
    jumps (sawtooth, square, pulse, hard-synced voices) evaluated at the sample instants without
@@ -65,6 +65,14 @@ Five complementary tests, each on a bounded number of frames spread over the fil
    lines m*fs_in/fs_out mod 1 (:func:`conversion_line_evidence`): their phases, referred to the
    absolute sample index, agree across the file far beyond chance (a summed Rayleigh test).
 
+5. **Reflected line grids** (the polyphonic frames; :func:`reflected_grid_frame`).  Two-operator FM puts its
+   lines at fc + k*fm, a ring modulator at k*f1 +- f2: a grid of spacing D at the offsets +-p (mod D) that no
+   harmonic series explains, whose sidebands past Nyquist fold to fs - (p + k*D), the grid reflected about fs/2.
+   Each frame's strongest such grid is found from the spacings between its strongest lines and refined by least
+   squares; the reflected comb (below 0.45 fs, lines from 50 dB under the grid's strongest up) is read against
+   the same comb moved to other offsets, and the frames' evidence is pooled as the polyphonic test pools note
+   instances.  A band-limited voice has no reflected grid.
+
 Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the grid test
 all of its frames) and keeps the rest; finish() analyses the rest only when that first pass does not
 settle the verdict as clean with margin (:meth:`AliasingAnalyzer._settled_clean`).  Clean material
@@ -73,7 +81,7 @@ with no note instances, no sharp jump and no reflected partial costs about a six
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
 share of the polyphonic frames in which at least one note had testable fold
-positions, or the share of the jump-test frames with sample-sharp jumps, whichever is larger.
+positions or a line grid had a testable reflection, or the share of the jump-test frames with sample-sharp jumps, whichever is larger.
 
 ``alias_to_harmonic_ratio_db`` (called ``aliasing_score`` up to 0.1.0) is the
 alias-to-harmonic energy ratio in dB, quoted only when folded content was found:
@@ -126,11 +134,15 @@ REFLECT_POSITION_TOLERANCE_HZ = 150.0
 MIN_TRACK_SLOPE_HZ_PER_S = 5000.0
 #: look for the reflected continuation at most this long after the rising partial
 REFLECT_MAX_GAP_S = 0.25
-#: a reflected partial counts only when one of its sightings falls below POLY_TOP_FRACTION of fs:
+#: a reflected partial counts only when one of its sightings falls below TRACK_MAX_FALL_FRACTION of fs:
 #: a partial with a deep vibrato swings through a proper decimation filter's transition band,
 #: which straddles Nyquist, and comes back mirrored close to Nyquist (seen on
-#: oversampled-and-filtered voices and a filtered decimation in the tuning corpus; house choice)
+#: oversampled-and-filtered voices and a filtered decimation in the tuning corpus; house choice).
+#: scipy's resample_poly (its default Kaiser design) is down only 22.6 dB at 0.55 fs, whose fold lands at 0.45 fs,
+#: and 53 dB from 0.58 fs on: below 0.42 fs its folds are 53 dB or more down (computed from its taps; a strong
+#: ring-modulated partial came back mirrored at 0.44-0.45 fs through it in the tuning corpus)
 MIN_REFLECTED_PARTIALS = 1
+TRACK_MAX_FALL_FRACTION = 0.42
 
 
 #: the first pass analyses every FIRST_PASS_STRIDE-th frame of each test (for the partial tracks, runs of
@@ -335,25 +347,29 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
     fr = refine_peaks(power, peaks) * bin_hz
     pw = power[peaks]
     notes = estimate_notes(fr, pw, bin_hz)
-    if not notes:
+    vg = voice_grid(fr, pw, bin_hz, fs)
+    if not notes and vg is None:
         return None
     nyq = fs / 2.0
     # every note's harmonics, each with its own uncertainty (3 sigma of f0 times the order, plus
     # the smear of a vibrato within the frame that the residuals show): fold and control
     # positions keep clear of a harmonic by that much more than the main lobe
     orders = [np.arange(1, int(nyq / n["f0_hz"]) + 1) for n in notes]
-    harm_all = np.concatenate([n["f0_hz"] * j for n, j in zip(notes, orders)])
-    unc_all = np.concatenate([3.0 * n["sigma_hz"] * j for n, j in zip(notes, orders)])
+    harm_all = np.concatenate([n["f0_hz"] * j for n, j in zip(notes, orders)] + [np.zeros(0)])
+    unc_all = np.concatenate([3.0 * n["sigma_hz"] * j for n, j in zip(notes, orders)] + [np.zeros(0)])
     order_h = np.argsort(harm_all)
     harm, harm_unc = harm_all[order_h], unc_all[order_h]
     # level over the local floor, dB, and its running maxima over +-1..2 bins
     level = 10.0 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
     from masterqc.measure.npkernels import maximum_filter1d
     level_max = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
+    grid = reflected_grid_frame(fr, pw, power, level_max, harm, harm_unc, bin_hz, fs, vg) if vg is not None else None
+    if not notes and grid is None:
+        return None
     out = {"tested": 0, "instances": 0, "evident": 0, "chance": 0.0, "alias_power": 0.0,
            "rank_sum": 0.0, "rank_var": 0.0,
            "harmonic_power": float(sum(n["power"] for n in notes)), "f0_hz": [n["f0_hz"] for n in notes],
-           "evident_f0_hz": []}
+           "evident_f0_hz": [], **_grid_summary(grid, power)}
 
     def mean_level(pos, tol, ok):
         half = np.clip(np.ceil(tol[ok] / bin_hz - 0.5).astype(np.int64), 0, 2)
@@ -454,6 +470,208 @@ def fold_evidence(evident: int, instances: int, chance: float) -> bool:
     of its c controls with probability 1/(c+1) under no folding)."""
     return (evident >= MIN_EVIDENT_INSTANCES and evident >= MIN_EVIDENT_SHARE * instances
             and evident >= CHANCE_FACTOR * chance + 1.0)
+
+
+# ---------------------------------------------------------------- reflected line grids (FM, ring modulation)
+# A two-operator FM voice sin(2*pi*fc*t + I*sin(2*pi*fm*t)) has its lines at fc + k*fm (k any whole number, those
+# at negative frequencies seen at |fc + k*fm|), with amplitudes J_k(I); a ring modulator's strongest lines sit at
+# k*f1 +- f2.  Either way the lines lie on a grid of spacing D (fm, f1) at the two offsets +-p (mod D) of any of its
+# lines p, and no harmonic series explains them when p is not a multiple of D/2.  Sampled without band-limiting,
+# the lines past Nyquist fold to fs - (p + k*D): a second grid, the reflection of the first about fs/2, at the
+# offsets fs -+ p (mod D), which differ from +-p unless fs is a multiple of D or 2p is fs modulo D.  A band-limited
+# rendering of the same voice has no line there.  The test finds each frame's strongest line grid that no harmonic
+# series explains, and reads its reflected comb against the same comb moved to other offsets (controls), as the
+# polyphonic test reads a note's fold comb; the whole band is read, top tenth included, as a voice's folds land
+# mostly just below Nyquist (a decimation filter's transition band can only put weaker images of lines just above
+# Nyquist there, and only of material that has such lines: see REFLECTED_TOP_FRACTION).
+#: candidate spacings: differences between the REFLECTED_SEED_PEAKS strongest lines, at least
+#: REFLECTED_MIN_SPACING_BINS bins and at most fs/4 (own reasoning: a grid denser than that leaves no room for
+#: control combs between its offsets)
+REFLECTED_SEED_PEAKS = 12
+#: a grid is fitted to the frame's REFLECTED_GRID_PEAKS strongest lines at most (cost bound)
+REFLECTED_GRID_PEAKS = 48
+REFLECTED_MIN_SPACING_BINS = 8.0
+#: a grid: at least NOTE_MIN_PEAKS lines at its two offsets (within 0.4 bin plus 0.05 % of the frequency, as for
+#: a note's harmonics), explaining at least REFLECTED_MIN_SHARE of the frame's line power (own reasoning)
+REFLECTED_MATCH_BINS = 0.4
+REFLECTED_MIN_SHARE = 0.1
+#: offsets closer than REFLECTED_OFFSET_GUARD_BINS bins (a line is read within +-2 bins, plus the window's main lobe
+#: of +-2 bins), or than this fraction of the spacing, cannot be told apart; a grid whose two offsets +-p are that close is a
+#: harmonic series of D (p near 0) or of D/2 with odd harmonics only (p near D/2), the polyphonic test's case
+#: (own reasoning, as CONTROL_GUARD)
+REFLECTED_OFFSET_GUARD = 0.05
+REFLECTED_OFFSET_GUARD_BINS = 3.0
+#: reflected positions are read up to this fraction of fs, and a line there counts only from REFLECTED_MIN_REL_DB under
+#: the grid's strongest line up.  A proper decimation filter folds what its transition band passes: scipy's
+#: resample_poly (the default Kaiser design, beta 5) is down 6 dB at Nyquist, 22.6 dB at 0.55 fs and 53 dB from
+#: 0.58 fs on (computed from its taps), so it folds lines into the top tenth of the band at -6 to -23 dB, and below
+#: it at 23 dB or more (53 dB or more below 0.42 fs) under their source; the top tenth is left out as in the
+#: polyphonic test (POLY_TOP_FRACTION), and 50 dB is the house choice between that stop band and a naive voice's
+#: folds (10-50 dB under its strongest line in the tuning corpus).  Read over the whole band (top tenth included)
+#: and with no level floor, the test called 5 of 24 resample_poly-decimated twins of the tuning corpus folded
+REFLECTED_TOP_FRACTION = POLY_TOP_FRACTION
+REFLECTED_MIN_REL_DB = 50.0
+
+
+def _circ(a, b, period):
+    """Circular distance between ``a`` and ``b`` modulo ``period``."""
+    d = np.mod(np.asarray(a) - np.asarray(b), period)
+    return np.minimum(d, period - d)
+
+
+@functools.lru_cache(maxsize=32)
+def _upper_pairs(n: int):
+    """Indices of the pairs (i < j) of an n x n table (``np.triu_indices(n, 1)``), computed once per n."""
+    return np.triu_indices(n, 1)
+
+
+def _offset_guard_hz(spacing_hz: float, bin_hz: float) -> float:
+    """How far apart two offsets of a grid of ``spacing_hz`` must be to be told apart (see REFLECTED_OFFSET_GUARD)."""
+    return max(REFLECTED_OFFSET_GUARD * spacing_hz, REFLECTED_OFFSET_GUARD_BINS * bin_hz)
+
+
+def voice_grid(freqs_hz: np.ndarray, powers: np.ndarray, bin_hz: float, fs: float):
+    """The frame's strongest line grid (see the comment above): ``(p_hz, spacing_hz, sigma_p_hz, sigma_spacing_hz,
+    matched)`` with ``p`` the grid's offset refined by least squares over its matched lines (``matched``, their
+    indices among the peaks given), or None when no grid of at least NOTE_MIN_PEAKS lines and REFLECTED_MIN_SHARE of the
+    power exists, or the best one is a harmonic series (offset near 0 or D/2)."""
+    if freqs_hz.size < NOTE_MIN_PEAKS:
+        return None
+    order = np.argsort(powers)[::-1]
+    keep = np.arange(freqs_hz.size)
+    if order.size > REFLECTED_GRID_PEAKS:   # the strongest lines only (cost bound)
+        keep = np.sort(order[:REFLECTED_GRID_PEAKS])
+        freqs_hz, powers = freqs_hz[keep], powers[keep]
+        order = np.argsort(powers)[::-1]
+    p = float(freqs_hz[order[0]])
+    top = freqs_hz[order[:REFLECTED_SEED_PEAKS]]
+    d = np.abs(top[:, None] - top[None, :])[_upper_pairs(top.size)]
+    d = d[(d >= REFLECTED_MIN_SPACING_BINS * bin_hz) & (d <= fs / 4.0)][:, None]
+    if d.size == 0:
+        return None
+    tol = REFLECTED_MATCH_BINS * bin_hz + NOTE_TOLERANCE_REL * freqs_hz
+    # rows: candidate spacings; a line matches when it sits at +p or -p modulo the spacing
+    r_plus = np.mod(freqs_hz - p, d)
+    r_minus = np.mod(freqs_hz + p, d)
+    ok = (np.minimum(r_plus, d - r_plus) <= tol) | (np.minimum(r_minus, d - r_minus) <= tol)
+    d = d[:, 0]
+    score = ok @ powers
+    cnt = ok.sum(axis=1)
+    good = np.nonzero(cnt >= NOTE_MIN_PEAKS)[0]
+    if good.size == 0:
+        return None
+    # the best explained power; of spacings within 5 % of it the largest (a divisor of the spacing explains as
+    # much, with a denser grid)
+    best = float(score[good].max())
+    ci = good[score[good] >= 0.95 * best]
+    ci = int(ci[np.argmax(d[ci])])
+    if best < REFLECTED_MIN_SHARE * float(powers.sum()):
+        return None
+    spacing = float(d[ci])
+    m = ok[ci]
+    f = freqs_hz[m]
+    sign = np.where(_circ(f, p, spacing) <= _circ(f, -p, spacing), 1.0, -1.0)
+    j = np.round((f - sign * p) / spacing)
+    # weighted least squares for (p, D) in f = sign*p + j*D (the 2x2 normal equations)
+    w = powers[m]
+    s_aa, s_ab, s_bb = float(np.sum(w)), float(np.sum(w * sign * j)), float(np.sum(w * j * j))
+    r_a, r_b = float(np.sum(w * sign * f)), float(np.sum(w * j * f))
+    det = s_aa * s_bb - s_ab * s_ab
+    if not det > 0:
+        return None
+    p_ls, d_ls = (s_bb * r_a - s_ab * r_b) / det, (s_aa * r_b - s_ab * r_a) / det
+    if not d_ls > 0:
+        return None
+    res = f - sign * p_ls - j * d_ls
+    var = float(np.sum(res ** 2)) / max(1, f.size - 2)
+    sigma_p = math.sqrt(var / f.size)
+    sigma_d = math.sqrt(var / max(float(np.sum((j - j.mean()) ** 2)), 1.0))
+    if float(_circ(2.0 * p_ls, 0.0, d_ls)) < 2.0 * _offset_guard_hz(d_ls, bin_hz):
+        return None   # a harmonic series of the spacing or of half of it: the polyphonic test's case
+    return p_ls, d_ls, sigma_p, sigma_d, keep[m]
+
+
+def reflected_grid_frame(freqs_hz, powers, power, level_max, harm, harm_unc, bin_hz: float, fs: float, grid=None):
+    """The reflected-grid test on one frame: the frame's voice grid (:func:`voice_grid`), its reflected comb read
+    against control combs.  ``level_max``: the frame's level over the floor (dB) and its running maxima over +-1
+    and +-2 bins; ``harm``, ``harm_unc``: the harmonics of the frame's notes (sorted) and their uncertainties,
+    which positions keep clear of; ``power``: the frame's power spectrum; ``grid``: :func:`voice_grid`'s result when
+    already found.  Returns None when no grid can be tested, else a dict: ``tested`` (positions),
+    ``controls``, ``level_db`` (mean level over the reflected comb), ``control_db`` (the controls' mean levels),
+    ``alias_power`` (power of the reflected lines standing POLY_LINE_DB over the floor), ``grid_power`` (the
+    grid's matched line power), ``spacing_hz``, ``offset_hz``."""
+    g = voice_grid(freqs_hz, powers, bin_hz, fs) if grid is None else grid
+    if g is None:
+        return None
+    p, sp, s_p, s_d, matched = g
+    level = level_max[0]
+    nat = np.mod(np.array([p, -p]), sp)
+    refl = np.mod(np.array([fs - p, fs + p]), sp)
+    guard = _offset_guard_hz(sp, bin_hz)
+    refl = np.unique(np.round(refl[np.min(_circ(refl[:, None], nat[None, :], sp), axis=1) > guard], 6))
+    if refl.size == 0:
+        return None
+    top = min(REFLECTED_TOP_FRACTION * fs, fs / 2.0 - 2.0 * bin_hz)
+    weak = float(np.max(powers[matched])) * 10 ** (-REFLECTED_MIN_REL_DB / 10)
+    j = np.arange(0, int(top // sp) + 2)
+
+    def comb(offsets):
+        pos = (offsets[:, None] + j[None, :] * sp).ravel()
+        pos = pos[(pos > 3 * bin_hz) & (pos < top)]
+        src = fs - pos   # where a line folding there came from (the first fold zone)
+        tol = 0.6 * bin_hz + 3.0 * (s_p + np.abs(src) / sp * s_d)
+        keep = tol < 0.2 * sp
+        if harm.size:
+            dh, jh = _nearest_distance(harm, pos)
+            keep &= dh > POLY_GUARD_BINS * bin_hz + tol + harm_unc[jh]
+        pos, tol = pos[keep], tol[keep]
+        half = np.clip(np.ceil(tol / bin_hz - 0.5).astype(np.int64), 0, 2)
+        ib = np.clip(np.round(pos / bin_hz).astype(np.int64), 0, level.size - 1)
+        if not pos.size:
+            return np.zeros(0), ib
+        lv = np.clip(np.choose(half, [lm[ib] for lm in level_max]), 0.0, 40.0)
+        # lines weaker than a proper decimation filter's stop band leaves count as nothing
+        top_pw = np.max(np.stack([np.where(np.abs(o) <= half, power[np.clip(ib + o, 0, power.size - 1)], 0.0)
+                                  for o in range(-2, 3)]), axis=0)
+        return np.where(top_pw >= weak, lv, 0.0), ib
+
+    lv_true, ib_true = comb(refl)
+    if lv_true.size < MIN_CLEAR_FOLDS:
+        return None
+    refs = np.concatenate([nat, refl])
+    controls = []
+    for s in CONTROL_SHIFTS:
+        moved = np.mod(refl + s * sp, sp)
+        if np.any(_circ(moved[:, None], refs[None, :], sp) < guard):
+            continue
+        lv, _ib = comb(moved)
+        if lv.size >= MIN_CLEAR_FOLDS:
+            controls.append(float(np.mean(lv)))
+    if len(controls) < MIN_CONTROLS:
+        return None
+    return {"tested": int(lv_true.size), "controls": controls, "level_db": float(np.mean(lv_true)),
+            "line_bins": ib_true[lv_true >= POLY_LINE_DB], "grid_power": float(np.sum(powers[matched])),
+            "spacing_hz": sp, "offset_hz": float(np.mod(p, sp))}
+
+
+def _grid_summary(grid, power: np.ndarray) -> dict:
+    """The reflected-grid test's frame result (of :func:`reflected_grid_frame`, or None) as counts that add up over
+    frames like the polyphonic test's note instances: ``grid_instances`` (0 or 1), ``grid_evident`` (the reflected
+    comb above every control, by FOLD_LEVEL_EXCESS_DB over their median), ``grid_chance``, ``grid_rank_sum``,
+    ``grid_rank_var``, ``grid_alias_power``, ``grid_power``, ``grid_tested``."""
+    out = {"grid_instances": 0, "grid_evident": 0, "grid_chance": 0.0, "grid_rank_sum": 0.0, "grid_rank_var": 0.0,
+           "grid_alias_power": 0.0, "grid_power": 0.0, "grid_tested": 0}
+    if grid is None:
+        return out
+    cl = np.asarray(grid["controls"])
+    lt = grid["level_db"]
+    out.update(grid_instances=1, grid_chance=1.0 / (cl.size + 1), grid_tested=grid["tested"],
+               grid_rank_sum=(float(np.sum(cl < lt)) + 0.5 * float(np.sum(cl == lt))) / cl.size,
+               grid_rank_var=(cl.size + 2.0) / (12.0 * cl.size), grid_power=grid["grid_power"])
+    if lt > float(cl.max()) and lt - float(np.median(cl)) >= FOLD_LEVEL_EXCESS_DB:
+        out["grid_evident"] = 1
+        out["grid_alias_power"] = float(np.sum(power[grid["line_bins"]]))
+    return out
 
 
 # ---------------------------------------------------------------- sample-sharp steps
@@ -1292,6 +1510,16 @@ class AliasingAnalyzer(Analyzer):
                 "polyphonic_rank_z": {**NUMBER_OR_NULL, "description": (
                     "how far the fold combs' ranks among their control combs, summed over the note "
                     "instances, stand above what no folding gives, in standard deviations")},
+                "reflected_grid_frames": {"type": "integer", "description": (
+                    "polyphonic frames holding a line grid that no harmonic series explains (lines at p + k*D, "
+                    "as two-operator FM or ring modulation makes) whose reflection about half the sampling rate "
+                    "could be tested")},
+                "reflected_grid_frames_with_folds": {"type": "integer", "description": (
+                    "of those, the frames whose reflected grid (fs - p - k*D) stands above every control position")},
+                "reflected_grid_expected_by_chance": {"type": "number"},
+                "reflected_grid_rank_z": {**NUMBER_OR_NULL, "description": (
+                    "how far the reflected grids' ranks among their control combs, summed over the frames, stand "
+                    "above what no folding gives, in standard deviations")},
                 "folded_partials": {"type": "integer"},
                 "step_frames": {"type": "integer"},
                 "step_frames_with_sharp_steps": {"type": "integer"},
@@ -1531,11 +1759,23 @@ class AliasingAnalyzer(Analyzer):
         inst = sum(r["instances"] for r in poly)
         if 0 < inst < RANK_MIN_INSTANCES:   # too few note instances to settle anything
             return False
-        if inst == 0 and (self.frames or any(r is not None for _s, r, _sig in self.poly)):
+        with_notes = [r for _s, r, _sig in self.poly if r is not None and r["f0_hz"]]
+        if inst == 0 and (self.frames or with_notes):
             # notes but nothing testable: settled only when notes were rare
             if (any(r["assessable"] for _s, r in self.frames)
-                    or sum(r is not None for _s, r, _sig in self.poly) > SETTLED_NOTE_FRAME_SHARE * len(self.poly)):
+                    or len(with_notes) > SETTLED_NOTE_FRAME_SHARE * len(self.poly)):
                 return False
+        # reflected line grids: settled while their evidence stays at chance (with too few instances for the rank
+        # test, only while none of them shows its reflection)
+        grids = [r for _s, r, _sig in self.poly if r is not None and r["grid_instances"] > 0]
+        g_inst = len(grids)
+        g_ev = sum(r["grid_evident"] for r in grids)
+        if g_ev > sum(r["grid_chance"] for r in grids) + 1.0 or (0 < g_inst < RANK_MIN_INSTANCES and g_ev > 0):
+            return False
+        g_var = sum(r["grid_rank_var"] for r in grids)
+        if g_inst >= RANK_MIN_INSTANCES and g_var > 0 and \
+                (sum(r["grid_rank_sum"] for r in grids) - 0.5 * g_inst) / math.sqrt(g_var) >= SETTLED_RANK_Z:
+            return False
         if sum(r["evident"] for r in poly) > sum(r["chance"] for r in poly) + 1.0:
             return False
         rv = sum(r["rank_var"] for r in poly)
@@ -1592,9 +1832,22 @@ class AliasingAnalyzer(Analyzer):
                                          sum(r["rank_var"] for _s, r in poly_assess), instances)
         poly_hit = fold_evidence(evident_n, instances, chance) or rank_hit
         poly_frames = [(s, r) for s, r in poly_assess if r["evident"] > 0]
+        # the reflected line grids (FM, ring modulation): the same evidence rules over their instances
+        grid_assess = [(s, r) for s, r in poly_signal if r is not None and r["grid_instances"] > 0]
+        g_inst = sum(r["grid_instances"] for _s, r in grid_assess)
+        g_evident = sum(r["grid_evident"] for _s, r in grid_assess)
+        g_chance = sum(r["grid_chance"] for _s, r in grid_assess)
+        g_rank_hit, g_rank_z = rank_evidence(sum(r["grid_rank_sum"] for _s, r in grid_assess),
+                                             sum(r["grid_rank_var"] for _s, r in grid_assess), g_inst)
+        reflected_hit = fold_evidence(g_evident, g_inst, g_chance) or g_rank_hit
+        grid_frames = [(s, r) for s, r in grid_assess if r["grid_evident"] > 0]
         if score is None and poly_hit and poly_frames:
             h_p = sum(r["harmonic_power"] for _s, r in poly_frames)
             a_p = sum(r["alias_power"] for _s, r in poly_frames)
+            score = 10.0 * math.log10(a_p / h_p) if a_p > 0 and h_p > 0 else None
+        if score is None and reflected_hit and grid_frames:
+            h_p = sum(r["grid_power"] for _s, r in grid_frames)
+            a_p = sum(r["grid_alias_power"] for _s, r in grid_frames)
             score = 10.0 * math.log10(a_p / h_p) if a_p > 0 and h_p > 0 else None
         # sample-sharp jumps
         step_frames = [(s, r) for s, r in self.steps if r["sharp"] > 0]
@@ -1621,10 +1874,11 @@ class AliasingAnalyzer(Analyzer):
         reflections = []
         for tr in self.trackers:
             reflections += find_reflections(tr["tracks"], self.fs, tr["min_slope"], tr["tolerance_hz"],
-                                            max_fall_hz=POLY_TOP_FRACTION * self.fs)
+                                            max_fall_hz=TRACK_MAX_FALL_FRACTION * self.fs)
         f0s = [r["f0_hz"] for r in tonal] or [f for _s, r in poly_assess for f in r["f0_hz"][:1]]
         n_poly = len(self.poly)
-        fraction = (len(poly_assess) / n_poly) if n_poly else None
+        poly_or_grid = sum(1 for _s, r in poly_signal if r is not None and (r["instances"] or r["grid_instances"]))
+        fraction = (poly_or_grid / n_poly) if n_poly else None
         n_step = int(self.pick_step.starts.size)
         if n_step and step_frames and grid is None:
             fraction = max(fraction or 0.0, len(step_frames) / n_step)
@@ -1644,6 +1898,10 @@ class AliasingAnalyzer(Analyzer):
             "polyphonic_instances_with_folds": int(evident_n),
             "polyphonic_instances_expected_by_chance": round(float(chance), 2),
             "polyphonic_rank_z": None if rank_z is None else round(float(rank_z), 2),
+            "reflected_grid_frames": len(grid_assess),
+            "reflected_grid_frames_with_folds": int(g_evident),
+            "reflected_grid_expected_by_chance": round(float(g_chance), 2),
+            "reflected_grid_rank_z": None if g_rank_z is None else round(float(g_rank_z), 2),
             "folded_partials": len(reflections),
             "step_frames": n_step,
             "step_frames_with_sharp_steps": len(step_frames),
@@ -1676,15 +1934,18 @@ class AliasingAnalyzer(Analyzer):
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
         grid_hit = drop_hit or pattern_hit or binary_hit or conv_hit
-        detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit
+        detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit or reflected_hit
         assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
-                      or grid_hit)
+                      or grid_hit or bool(grid_assess))
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
         if poly_hit:
             dur = self.n_poly / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in poly_frames]
+        if reflected_hit:
+            dur = self.n_poly / self.fs
+            detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in grid_frames]
         if step_hit:
             dur = self.n_step / self.fs
             detail["where_s"] = list(detail["where_s"]) + [(s / self.fs, s / self.fs + dur) for s, _r in step_frames]
@@ -1720,6 +1981,12 @@ class AliasingAnalyzer(Analyzer):
             if reflect_hit:
                 parts.append(f"{len(reflections)} partial track(s) reflected at Nyquist (falling while "
                              "rising partials approach it)")
+            if reflected_hit:
+                parts.append(f"in {g_evident} of {g_inst} frames a line grid that no harmonic series explains (as "
+                             "frequency or ring modulation makes) shows its reflection about half the sampling rate "
+                             f"above every control position (about {g_chance:.0f} expected by chance)"
+                             + (f"; over all of them the reflected positions rank {g_rank_z:.1f} standard deviations "
+                                "above the control positions" if g_rank_hit else ""))
             if step_hit:
                 parts.append(f"{step_sharp} of {step_fitted} jumps in the waveform are sample-sharp (no band-limited "
                              "transition around them): a waveform evaluated at the sample instants without "
@@ -1767,6 +2034,9 @@ class AliasingAnalyzer(Analyzer):
             else:
                 detail["reason"] = (f"no folded partials found: in {evident_n} of {instances} note instances "
                                     f"the predicted fold positions stand out, about {chance:.0f} expected by chance")
+        if assessable and fraction is not None:
+            detail["reason"] += (f" (folding could be tested in {100.0 * fraction:.0f} % of the frames analysed over "
+                                 "the file)")
         detail["where_s"] = _merge(detail["where_s"])
         if not detected:
             score = None

@@ -80,8 +80,13 @@ A cliff whose fall is over well short of the old Nyquist (:func:`ends_short`) is
 fall at the old Nyquist, a transform coder's bandwidth setting anywhere.
 
 A converter cliff is also wide enough: its fall from -3 dB to -30 dB spans at
-least :data:`CONVERTER_MIN_WIDTH_RATIO` of the source Nyquist (steeper brick
-walls are codec or filter band limits).  A cliff above :data:`OWN_FILTER_RATIO`
+least :data:`BRICK_WALL_MAX_WIDTH_RATIO` of the source Nyquist, or, down to
+:data:`CONVERTER_MIN_WIDTH_RATIO`, ends at the old Nyquist as a very-high-quality
+design's does (:func:`converter_width_fits`); steeper brick walls are codec or
+filter band limits.  Where the next standard rate up and a lower rate both explain
+a cliff and the stop band has begun by the lower rate's Nyquist, the lower rate is
+named (:func:`lower_bound_rate`), and a verdict's confidence counts its fit less
+the best fit of any other rate that explains the same cliff (:func:`rival_fit`).  A cliff above :data:`OWN_FILTER_RATIO`
 of the file's Nyquist that matches no rate is the file's own anti-alias filter
 and is not reported.
 
@@ -217,7 +222,7 @@ CONVERTER_MAX_SHAPE_RATIO = 0.9
 #: Butterworth low-passes of order 10-12 at 20-21 kHz in a 48 kHz file fall from -6 to -40 dB within 0.88-1.3 kHz
 #: and must be read (analytic shape ratio of the 12th-order one at 20 kHz: 1.14); narrower falls are not resolved)
 SHAPE_MIN_SPAN_HZ = 850.0
-#: a brick wall (narrower than CONVERTER_MIN_WIDTH_RATIO) counts as a converter only this close to a standard
+#: a brick wall (narrower than BRICK_WALL_MAX_WIDTH_RATIO) counts as a converter only this close to a standard
 #: Nyquist: an FFT resampler zeroes every bin above the old Nyquist exactly, while codec and filter brick walls sit
 #: anywhere (own reasoning)
 BRICK_WALL_RATIO_TOLERANCE = 0.015
@@ -250,8 +255,27 @@ LOW_PASS_TOP_RATIO = 2.6
 TESTABLE_MAX_RATIO = 0.93
 #: a cliff whose edge is above this fraction of the file's Nyquist is the file's own anti-alias filter (own reasoning; converters commonly pass to 0.45 fs = 0.9 x Nyquist, common practice, no source)
 OWN_FILTER_RATIO = 0.9
-#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist (own reasoning: linear-phase FIR converters of practical length need a transition band of a few per cent (the steepest sinc converters fall from -3 to -30 dB in 2-2.5 % of the old Nyquist, as read on the envelope); the brick walls of codec low-passes, which zero whole bands, are narrower and are band limits unless they sit at a standard Nyquist, see BRICK_WALL_RATIO_TOLERANCE)
-CONVERTER_MIN_WIDTH_RATIO = 0.02
+#: a converter's fall from -3 dB to -30 dB spans at least this fraction of the source Nyquist.  Analytic, from the
+#: steepest standard design: a very-high-quality converter ends its pass band at 0.95 of the old Nyquist and begins its
+#: stop band (150-200 dB) at it, a transition of 5 %; a Kaiser-windowed sinc of that transition falls from -3 to -30 dB
+#: in 0.26-0.30 of it (scipy.signal.kaiserord and firwin, frequency response of the taps; see
+#: tests/test_bandwidth.py), 1.3-1.5 % of the old Nyquist, and the envelope only widens it (1.7 % as read for a
+#: 150 dB design from 44.1 kHz).  The brick walls of codec low-passes, which zero whole bands, are narrower still and
+#: are band limits unless they sit at a standard Nyquist (BRICK_WALL_RATIO_TOLERANCE, BRICK_WALL_MAX_WIDTH_RATIO)
+CONVERTER_MIN_WIDTH_RATIO = 0.012
+#: a fall narrower than BRICK_WALL_MAX_WIDTH_RATIO (and no narrower than CONVERTER_MIN_WIDTH_RATIO) away from a
+#: standard Nyquist's brick wall is a converter's only as a very-high-quality design makes it: a transition that
+#: narrow (at most 0.02 / 0.26 = 7.7 % of the old Nyquist, see CONVERTER_MIN_WIDTH_RATIO) puts the -6 dB point, midway,
+#: at 0.96 or above and the stop band at the old Nyquist.  Read on the envelope: -6 dB at STEEP_MIN_EDGE_RATIO and the
+#: stop band from STEEP_MIN_STOP_RATIO of the old Nyquist at least (own reasoning from the designs; the tuning
+#: corpus' 150-170 dB designs with pass bands to 0.93-0.95 read 0.96-0.98 and 0.98-1.0; a 10th-order elliptic
+#: low-pass at 15 kHz in a 48 kHz file, as steep, reads 0.94 and 0.96 of 16 kHz)
+STEEP_MIN_EDGE_RATIO = 0.955
+STEEP_MIN_STOP_RATIO = 0.97
+#: a fall narrower than this fraction of the source Nyquist (-3 to -30 dB) within BRICK_WALL_RATIO_TOLERANCE of a
+#: standard Nyquist is a brick wall: an FFT resampler's, or a coder's, told apart by what lies above it
+#: (:func:`_programme_above`).  Own reasoning: the envelope reads a whole-file DFT resampler's wall 1-2 % wide
+BRICK_WALL_MAX_WIDTH_RATIO = 0.02
 #: the content just below a candidate's Nyquist (0.84..0.88 of it) must stand this far above the format's floor for the candidate to be testable, dB (own reasoning: a cliff must be able to fall UPSAMPLED_MIN_DEPTH_DB + ABOVE_FLOOR_DB)
 TESTABLE_MIN_CONTENT_DB = 50.0
 #: ... and lie no further than this below the programme's main band (median of 1-10 kHz), dB (own reasoning: content that far down sits at a real master's noise floor, where no cliff can show)
@@ -427,6 +451,9 @@ class BandwidthResult:
     stop_ratio: float | None = None
     #: the verdict rests on a brick wall at a standard Nyquist (not reported)
     brick: bool = False
+    #: the verdict names the lower of two rates that explain the cliff (:func:`lower_bound_rate`): the higher one,
+    #: Hz (not reported)
+    lower_bound_of: int | None = None
 
     def measurements(self) -> dict:
         return {
@@ -661,6 +688,20 @@ def transition_width_hz(cliff: dict) -> float:
     return cliff["f30_hz"] - cliff["f3_hz"]
 
 
+def converter_width_fits(cliff: dict, rate_hz: float) -> bool:
+    """Is a cliff's fall (:func:`transition_width_hz`, frequencies on the scale of ``rate_hz``) as wide as a
+    converter's from ``rate_hz``?  At least :data:`BRICK_WALL_MAX_WIDTH_RATIO` of the old Nyquist, or narrower down to
+    :data:`CONVERTER_MIN_WIDTH_RATIO` where it ends at the old Nyquist as a very-high-quality design's does
+    (:data:`STEEP_MIN_EDGE_RATIO`, :data:`STEEP_MIN_STOP_RATIO`)."""
+    nyq = rate_hz / 2.0
+    width = transition_width_hz(cliff)
+    if width >= BRICK_WALL_MAX_WIDTH_RATIO * nyq:
+        return True
+    stop = cliff.get("stop_start_hz")
+    return (width >= CONVERTER_MIN_WIDTH_RATIO * nyq and cliff["edge_hz"] >= STEEP_MIN_EDGE_RATIO * nyq
+            and stop is not None and stop >= STEEP_MIN_STOP_RATIO * nyq)
+
+
 def steep_relative(cliff: dict) -> bool:
     """True when a cliff falls :data:`CLIFF_MIN_SLOPE_RATIO` times faster than the spectrum just below it.
 
@@ -709,7 +750,7 @@ def _crossing(env_db, start, stop, level, bin_hz):
 
 
 def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
-               leaks=None) -> tuple[int | None, float]:
+               leaks=None, fits_out: dict | None = None) -> tuple[int | None, float]:
     """The candidate rate whose Nyquist best explains an edge, and the fit score (0..1).
 
     Without ``stop_start_hz`` only the -6 dB point is read (:data:`EDGE_RATIO_RANGE`, nearest
@@ -719,7 +760,11 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
     design's centred on the old Nyquist (:data:`LEAKY_MIN_EDGE_RATIO`, :data:`LEAKY_STOP_RATIO_RANGE`),
     the fit being how near 1.0 its -6 dB point lies, and ``leaks(rate)`` (when given) confirms images
     just above the old Nyquist; the better fit counts.
+
+    ``fits_out`` (a dict, when given) receives every candidate's fit: where another rate explains the cliff
+    nearly as well, the verdict's confidence falls (:func:`rival_fit`).
     """
+    fit_of = {}
     best, score = None, 0.0
     for r in candidates:
         ratio = edge_hz / (r / 2.0)
@@ -743,9 +788,36 @@ def match_rate(edge_hz: float, candidates, stop_start_hz: float | None = None,
             if not fits:
                 continue
             s = max(0.05, max(fits))
+        fit_of[r] = s
         if best is None or s > score:
             best, score = r, s
+    if fits_out is not None:
+        fits_out.update(fit_of)
     return best, score
+
+
+def lower_bound_rate(fits: dict, rate, stop_start_hz, slack_hz: float = SMOOTH_HZ):
+    """The lowest rate below ``rate`` among those :func:`match_rate` fitted (``fits``) whose Nyquist the stop band
+    has begun by (``stop_start_hz`` within ``slack_hz``, the envelope's smoothing, above it, and no lower than
+    :data:`STOP_RATIO_RANGE` allows), or None.
+
+    A converter that rejects its images begins its stop band at the old Nyquist: such a lower rate explains the
+    cliff as every such converter makes it, while ``rate`` (the next standard rate up: 24 for 22.05, 48 for 44.1, 96
+    for 88.2 kHz, Nyquist frequencies 9 % apart) needs a converter that stops 8 % short of its own Nyquist.  On a
+    programme that ends below the old Nyquist the two readings tie, and the content only shows that the source rate
+    was at least the lower one: the lower bound is what the verdict can say."""
+    if rate is None or stop_start_hz is None:
+        return None
+    low = [r for r in fits if r < rate and STOP_RATIO_RANGE[0] * r / 2.0 <= stop_start_hz <= r / 2.0 + slack_hz]
+    return min(low) if low else None
+
+
+def rival_fit(fits: dict, rate) -> float:
+    """The best fit (:func:`match_rate`) of a candidate other than ``rate`` that the edge and stop band also
+    explain: 0 when none.  The confidence of a cliff's verdict counts its fit less this (house choice): where the
+    next standard rate explains the same cliff about as well (22.05 and 24 kHz read 0.92 of each other's Nyquist,
+    so a cliff on a programme that ends below the old Nyquist fits both), the reading names a rate on weak evidence."""
+    return max([f for r, f in fits.items() if r != rate], default=0.0)
 
 
 def butterworth_db(f_hz, corner_hz: float, order: float, fs: float, passes: int = 1):
@@ -960,7 +1032,8 @@ def _programme_above(fe, info, out) -> bool:
     60-100 dB down in every frame.  Rewrites ``out`` as a band limit then."""
     if out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.edge_ratio is None:
         return False
-    early = (out.edge_ratio < EARLY_EDGE_RATIO and out.stop_ratio is not None
+    # (a lower bound, :func:`lower_bound_rate`, answers to the same reading: the next rate up read its edge early)
+    early = ((out.edge_ratio < EARLY_EDGE_RATIO or out.lower_bound_of) and out.stop_ratio is not None
              and out.stop_ratio <= EARLY_MAX_STOP_RATIO)
     if not early and not out.brick:
         return False
@@ -1022,6 +1095,9 @@ def assess(fe, info) -> BandwidthResult:
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
     vetoed = claimed if _programme_above(fe, info, out) else None
+    # (a low-pass read as a lower bound is the low-pass the next rate up reads too: the channels and segments that
+    # read that rate are cleared with it)
+    vetoed_too = out.lower_bound_of if vetoed is not None else None
     per_channel = [out]
     if n_ch > 1 and fe.frames:
         # each channel on its own; the full analysis only where a quick look sees a drop at some candidate
@@ -1051,7 +1127,7 @@ def assess(fe, info) -> BandwidthResult:
     if vetoed is not None:
         # the channels read the same low-pass on their own
         for r in per_channel:
-            if r is not out and r.upsampled_from_hz == vetoed and (r.evidence or "cliff") == "cliff":
+            if r is not out and r.upsampled_from_hz in (vetoed, vetoed_too) and (r.evidence or "cliff") == "cliff":
                 r.upsampled_from_hz = None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
@@ -1080,7 +1156,7 @@ def assess(fe, info) -> BandwidthResult:
         out.segments = assess_segments(fe, info)
         if vetoed is not None:
             for row in out.segments:
-                if row["upsampled_from_hz"] == vetoed:
+                if row["upsampled_from_hz"] in (vetoed, vetoed_too):
                     row["upsampled_from_hz"] = row["upsampled_confidence_fraction"] = None
         out.where_s = upsampled_ranges(out.segments)
         out.settings["segments"] = len(segs)
@@ -1135,14 +1211,20 @@ def drops_somewhere(power, bin_hz: float, fs: float, floor_db: float) -> bool:
     return _drop_at(env, bin_hz, min(len(env), _bins(0.99 * fs / 2.0, bin_hz)), testable)
 
 
-def _drop_at(env, bin_hz: float, top: int, rates) -> bool:
-    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``."""
+def _drop_at(env, bin_hz: float, top: int, rates, small_ratio: bool = False) -> bool:
+    """:func:`drops_somewhere` on an envelope, for the candidate ``rates``; ``small_ratio``: where the window above
+    a candidate's Nyquist finds no room below ``top``, read it from the old Nyquist up (the low-rate passes of
+    :func:`assess_power`: a 22.05 kHz source in a 24 kHz file)."""
     for r in rates:
         nyq_r = r / 2.0
         gap = min(POST_WINDOW_HZ[0], 0.25 * nyq_r)
         k0, k1 = _bins(0.70 * nyq_r, bin_hz), _bins(0.84 * nyq_r, bin_hz)
         k2 = _bins(nyq_r + gap, bin_hz)
         k3 = min(top, _bins(nyq_r + gap + min(POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0], 0.5 * nyq_r), bin_hz))
+        if k3 - k2 < 10 and small_ratio:
+            # a small ratio (22.05 kHz in a 24 kHz file, 44.1 in 48): no room above the gap, so the stop band is read
+            # from the old Nyquist up, where a converter that rejects its images has reached it
+            k2, k3 = _bins(nyq_r, bin_hz), top
         if k3 - k2 < 10 or k1 <= k0:
             continue
         if float(np.median(env[k0:k1])) - float(np.percentile(env[k2:k3], 90)) >= CLIFF_MIN_DROP_DB:
@@ -1239,25 +1321,32 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
             fine = fine_structure_db(total, bin_hz)
         got = mirror_correlation(fine, bin_hz, r_scaled / scale, LEAKY_MIRROR_BAND_RATIO, min(len(fine), top))
         return got is not None and got[0] >= LEAKY_MIN_MIRROR_CORRELATION
-    rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks)
+    fits = {}
+    rate, pos = match_rate(cliff["edge_hz"], cands, cliff.get("stop_start_hz"), leaks, fits_out=fits)
+    low = lower_bound_rate(fits, rate, cliff.get("stop_start_hz"), SMOOTH_HZ * scale)
+    if low is not None:
+        cliff["lower_bound_of"] = int(round(rate / scale))          # the next rate up, in the file's hertz
+        rate, pos = low, fits[low]
     walls = [r for r in cands if abs(cliff["edge_hz"] / (r / 2.0) - 1.0) <= BRICK_WALL_RATIO_TOLERANCE
-             and transition_width_hz(cliff) < CONVERTER_MIN_WIDTH_RATIO * r / 2.0]
+             and transition_width_hz(cliff) < BRICK_WALL_MAX_WIDTH_RATIO * r / 2.0]
     if walls:
         # a brick wall at a standard Nyquist names that rate: an FFT resampler zeroes every bin above the
         # old Nyquist exactly, so where its stop band "begins" says nothing more
         rate, pos = walls[0], 1.0
+        fits = {}
+    cliff["rival_fit"] = rival_fit(fits, rate)
     if rate is not None:
         ratio = cliff["edge_hz"] / (rate / 2.0)
         width = transition_width_hz(cliff)
         # a brick wall is narrow (an FFT resampler zeroes the bins above the old Nyquist); a wider fall
         # that merely sits near a standard Nyquist (a Butterworth low-pass at 16 kHz) must pass the shape test
-        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < CONVERTER_MIN_WIDTH_RATIO * rate / 2.0
+        brick = abs(ratio - 1.0) <= BRICK_WALL_RATIO_TOLERANCE and width < BRICK_WALL_MAX_WIDTH_RATIO * rate / 2.0
         fall = cliff.get("fb_hz", cliff["edge_hz"]) - cliff["edge_hz"]
         if not brick and ends_short(cliff, rate, scale):
             cliff["ends_short"] = rate / scale
             rate = None
         elif not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
-                and (width >= CONVERTER_MIN_WIDTH_RATIO * rate / 2.0 or brick)
+                and (brick or converter_width_fits(cliff, rate))
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
                 and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
             rate = None
@@ -1328,11 +1417,19 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         # the lower sources' passes; where two passes both explain a cliff (22.05 kHz read at scale 2 and
         # 24 kHz at scale 1 see the same edge), the rate whose edge ratio is nearer the typical one wins
         low = [r for r in testable if scale_for(r) == scale]
-        if not low or not _drop_at(env, bin_hz, top, low):
+        if not low or not _drop_at(env, bin_hz, top, low, small_ratio=True):
             continue
         top_s = min(top, _bins(LOW_PASS_TOP_RATIO * max(low) / 2.0, bin_hz))
         c2, r2, p2, t2 = _judge_cliff(env, total, bin_hz, top_s, floor, nyq, low, scale)
         if r2 is not None and not t2 and (rate is None or p2 > pos):
+            if rate is not None and cliff is not None:
+                # what the other pass read counts against this one's confidence (rival_fit): another rate's fit, or
+                # the same rate's own rival and lower bound
+                if rate != r2:
+                    c2["rival_fit"] = max(float(c2.get("rival_fit", 0.0)), pos)
+                else:
+                    c2["rival_fit"] = max(float(c2.get("rival_fit", 0.0)), float(cliff.get("rival_fit", 0.0)))
+                    c2.setdefault("lower_bound_of", cliff.get("lower_bound_of"))
             cliff, rate, pos, tonal = c2, r2, p2, t2
     if cliff is not None and tonal:
         edge = round(cliff["edge_hz"] / 10.0) * 10.0
@@ -1356,10 +1453,15 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
             out.upsampled_from_hz = int(rate)
             out.brick = bool(cliff.get("brick"))
-            out.confidence = round(0.4 + 0.6 * (c_depth + pos + c_slope) / 3.0, 2)
+            out.lower_bound_of = None if out.brick else cliff.get("lower_bound_of")
+            c_pos = max(0.0, pos - float(cliff.get("rival_fit", 0.0)))
+            out.confidence = round(0.4 + 0.6 * (c_depth + c_pos + c_slope) / 3.0, 2)
             out.note = (f"converted up from {rate / 1000:g} kHz: the spectrum ends in a converter's cliff at "
                         f"{edge / 1000:.1f} kHz ({cliff['edge_hz'] / (rate / 2.0):.2f} of "
                         f"{rate / 2000:g} kHz), {out.depth_db:.0f} dB deep")
+            if out.lower_bound_of:
+                out.note += (f"; the cliff fits {cliff['lower_bound_of'] / 1000:g} kHz as well, but its stop band begins at "
+                             f"{rate / 2000:g} kHz: the source rate was at least {rate / 1000:g} kHz")
         elif cliff.get("ends_short"):
             out.band_limit_hz = edge
             h, r = float(cliff["stop_start_hz"]), float(cliff["ends_short"])

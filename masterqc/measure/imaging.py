@@ -93,9 +93,11 @@ the source Nyquist frequency above it (:data:`INNER_BAND`: content at 0.7 of it 
 -6 dB at the source Nyquist: beyond 1.3 of it they stop images by 54 dB, inside they leak
 those of content at 0.8 of it at -28 dB); inside that transition no level line separates
 short designs called imaging from proper ones (DEVELOPERS.md).  A nearest-phase polyphase
-converter's error (output instants rounded to the nearest of N phases) is jitter-like: spread
-over every multiple of the rates' greatest common divisor, each carrying about 1/P of it
-(P = fs / gcd), at 37 dB and more below the content from 32 phases up; it is not tested.
+converter (output instants rounded to the nearest of N phases, no interpolation between them)
+is the properly interpolated signal held at ``R = N r``: its first images are the hold's, at
+``R +- f`` (folded modulo ``fs``), ``(f / R)**2`` relative to the content, and the same line
+judges them (those of the inner band's content), by a test of its own at the cycle frequencies
+``N r`` modulo ``fs`` (:data:`NEAREST_PHASE_COUNTS`, :meth:`ImagingAnalyzer._nearest_phase`).
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/25`` samples per frame and channel, and one product per pair of the candidates'
@@ -300,6 +302,42 @@ HOLD_RATE_SNAP = 0.002
 #: that rate; its harmonics pair up like images.  Harmonic series are recognised from spectral
 #: lines this far above the local floor (own reasoning).
 LINE_PROMINENCE_DB = 20.0
+#: phase counts of the nearest-phase polyphase converters tested (:meth:`ImagingAnalyzer._nearest_phase`).  A
+#: converter that tabulates its interpolation filter at ``N`` fractional delays and takes, for each output
+#: sample, the nearest (or the preceding) one without interpolating between them, outputs the properly
+#: interpolated signal ``y`` at instants rounded to a grid of ``1 / (N r)`` seconds: exactly the samples of
+#: ``y`` held at the rate ``R = N r`` (a zero-order hold), taken at the file's rate.  The hold leaves images of
+#: the content at ``f`` at ``k R +- f`` (every ``k``), folded modulo the file's rate ``fs``, each at
+#: ``(f / (k R))**2`` relative to it (the box's response, :func:`image_response_ratio`, ``R >> f``); so they are
+#: coherent with the content at the cycle frequencies ``k N r`` modulo ``fs``, not at multiples of ``r``.  Own
+#: reasoning: the phase counts such banks use are powers of two; 8 to 1024 covers them (a count that is a
+#: multiple of the ratio's denominator is exact and leaves no images at all)
+NEAREST_PHASE_COUNTS = tuple(2 ** j for j in range(3, 11))
+#: at most this many pairs per cycle frequency in the nearest-phase test (cost; own reasoning: their images lie
+#: clear of the programme, above the candidate's Nyquist frequency, where a few hundred pairs give z in the
+#: hundreds from 1024 phases down)
+NEAREST_PHASE_MAX_PAIRS = 256
+#: the nearest-phase images of the content at ``f`` rise as ``f**2`` (the hold model), where a converter's own stop
+#: band at that order (its images at ``N r +- f``, on the same cycle frequency) is flat across the audio band: the
+#: level is read only where the pairs' content frequencies predict a rise of at least this ratio between the lower
+#: and the upper half of them (own reasoning: 2, 3 dB), and the measured rise must reach its square root (half
+#: the predicted dB)
+NEAREST_PHASE_MIN_RISE = 2.0
+#: the nearest-phase test runs on at most this many candidates: the lowest rates whose band above their Nyquist
+#: frequency is quiet (where such a converter's output ends), and at which such a bank leaves images off the
+#: ordinary image cycle frequencies (house choice, cost); of those that read as a bank, the one whose images explain
+#: the largest share of the power above its Nyquist frequency names the source
+NEAREST_PHASE_MAX_CANDIDATES = 4
+#: a candidate's band is quiet above its Nyquist frequency when the mean bin power from just above it to 1.3 of it
+#: is at most this share of that at 0.7-0.9 of it (a cliff), or :data:`NEAREST_PHASE_QUIET` of that of the whole
+#: band below (own reasoning: 10 and 30 dB; a converter from that rate leaves a cliff there, programme material
+#: seldom falls so fast; a bank with few phases fills the band above with its images, 30 to 50 dB under the content
+#: they mirror, hence the cliff rule too)
+NEAREST_PHASE_DROP = 0.1
+#: see :meth:`ImagingAnalyzer._with_nearest_phase` (own reasoning: 0.3; the source's own candidate explains a share
+#: of the same order as the highest, a lower one, whose band above holds programme, several times less)
+NEAREST_PHASE_COVER_SHARE = 0.3
+NEAREST_PHASE_QUIET = 1e-3
 
 
 def null_coherence_bias(starts, window) -> float:
@@ -324,7 +362,7 @@ def null_coherence_bias(starts, window) -> float:
     return float(np.sum(rho ** 2)) / (m * m)
 
 
-def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None):
+def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None = None, first_only: bool = False):
     """Bin pairs of the two-sided DFT linked by the images of an upsampler from ``rate``.
 
     Returns ``(ka, kb, alpha_bins)``: full-DFT indices (0..n_fft-1) of a baseband
@@ -333,7 +371,9 @@ def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None =
     ``q`` whose images reach the band below fs (``q*rate - rate/2 < fs``).
     Conjugate duplicates and pairs closer than :data:`PAIR_GUARD_BINS` are removed.
     ``rate_for_band`` (default ``rate``) sets the baseband edge, so that control cycle
-    frequencies near a candidate pair the same baseband bins.
+    frequencies near a candidate pair the same baseband bins.  ``first_only``: only the orders whose
+    cycle frequency is the first order's (the same pairs, in the same order, as selecting those from
+    the full result: the conjugate duplicates removed are always a later entry's).
     """
     bin_hz = fs / n_fft
     lo = int(math.ceil(LOW_EDGE_HZ / bin_hz))
@@ -342,10 +382,11 @@ def mirror_pairs(fs: int, rate: float, n_fft: int, rate_for_band: float | None =
     n = int(n_fft)
     parts_a, parts_b, parts_al = [], [], []
     q = 1
+    alpha_1 = int(round(rate / bin_hz)) % n
     while q * rate - rate / 2.0 < fs:
         alpha = int(round(q * rate / bin_hz)) % n
         q += 1
-        if alpha == 0:
+        if alpha == 0 or (first_only and alpha != alpha_1):
             continue
         for sign in (1, -1):
             ka = (sign * base) % n
@@ -474,7 +515,7 @@ def _pair_plan(fs: int, n_fft: int, rates: tuple, offsets: tuple):
     for r in rates:
         cand = {"rate": r, "cycles": []}
         for off in (0,) + offsets:
-            ka, kb, al = mirror_pairs(fs, r + off * bin_hz, n_fft, rate_for_band=r)
+            ka, kb, al = mirror_pairs(fs, r + off * bin_hz, n_fft, rate_for_band=r, first_only=bool(off))
             if off:
                 # a control needs only the first order (see :meth:`ImagingAnalyzer._assess`)
                 sel = al == int(round((r + off * bin_hz) / bin_hz)) % n_fft
@@ -527,9 +568,28 @@ def _main_pairs(fs: int, n_fft: int, rates: tuple, offsets: tuple):
 def _first_order_pairs(fs: int, n_fft: int, alpha_bin: int, rate: float):
     """``(ka, kb)``: the pairs of :func:`mirror_pairs` at cycle frequency ``alpha_bin`` bins (baseband below
     ``rate / 2``) whose cycle frequency is ``alpha_bin`` itself (modulo ``n_fft``).  Cached, read-only."""
-    ka, kb, al = mirror_pairs(fs, alpha_bin * (fs / n_fft), n_fft, rate_for_band=rate)
+    ka, kb, al = mirror_pairs(fs, alpha_bin * (fs / n_fft), n_fft, rate_for_band=rate, first_only=True)
     sel = al == alpha_bin % n_fft
     ka, kb = ka[sel], kb[sel]
+    for v in (ka, kb):
+        v.flags.writeable = False
+    return ka, kb
+
+
+@functools.lru_cache(maxsize=256)
+def _clear_pairs(fs: int, n_fft: int, alpha_bin: int, rate: float):
+    """``(ka, kb)``: the pairs (two-sided bins) at cycle frequency ``alpha_bin`` whose first member is content below
+    ``rate / 2`` (above :data:`LOW_EDGE_HZ`) and whose second lies above ``rate / 2`` by more than 2 bins, where a
+    converter from ``rate`` leaves nothing but images.  Cached, read-only."""
+    bin_hz = fs / n_fft
+    lo = int(math.ceil(LOW_EDGE_HZ / bin_hz))
+    hi = int(math.ceil(rate / 2.0 / bin_hz)) - 1
+    base = np.arange(lo, hi + 1, dtype=np.int64)
+    ka = np.concatenate([base, (n_fft - base) % n_fft])
+    kb = (alpha_bin - ka) % n_fft
+    fb = np.minimum(kb, n_fft - kb)
+    ok = fb * bin_hz > rate / 2.0 + 2 * bin_hz
+    ka, kb = ka[ok], kb[ok]
     for v in (ka, kb):
         v.flags.writeable = False
     return ka, kb
@@ -618,7 +678,8 @@ class ImagingAnalyzer(Analyzer):
         n_store = int(self.picker.starts.size) * info.channels * nb * 16
         self.store = None
         if 0 < n_store <= SPECTRA_STORE_MAX_BYTES:
-            self.store = np.empty((int(self.picker.starts.size), info.channels, nb), dtype=complex)
+            # (channels first: one channel's frames are contiguous, as np.take wants them)
+            self.store = np.empty((info.channels, int(self.picker.starts.size), nb), dtype=complex)
             main, self._pos = _main_pairs(self.fs, self.n_fft, tuple(self.rates), offsets)
         else:
             main = np.arange(self.all_ka.size)
@@ -630,7 +691,6 @@ class ImagingAnalyzer(Analyzer):
         self.Q = np.zeros((info.channels, main.size))
         self.S_first = np.zeros_like(self.S) if self.store is None else None
         self._sums = {}
-        self._full = {}
         self._spectral_lines = {}
         # per channel: neighbouring sample pairs counted, of them exact repeats, and a histogram of the lengths
         # of interior runs of one value (see HOLD_REPEAT_SHARE)
@@ -668,7 +728,7 @@ class ImagingAnalyzer(Analyzer):
         pw = spec.real ** 2 + spec.imag ** 2
         m0 = self.frames
         if self.store is not None:
-            self.store[m0:m0 + len(got)] = spec
+            self.store[:, m0:m0 + len(got)] = spec.transpose(1, 0, 2)
         # the block's frames' two-sided spectra at once; then sums over the frames one frame at a time, in order
         full = self._two_sided(spec) if self._ka.size else None
         for j in range(len(got)):
@@ -798,12 +858,6 @@ class ImagingAnalyzer(Analyzer):
         """The two-sided spectra of real frames from their one-sided ``spec`` (..., bins): X[N-k] = conj(X[k])."""
         return np.concatenate([spec, np.conj(spec[..., (self.n_fft - 1) // 2:0:-1])], axis=-1)
 
-    def _kept_two_sided(self, ch: int):
-        """The kept frames' two-sided spectra of channel ``ch`` (frames as rows), made once per channel."""
-        if ch not in self._full:
-            self._full[ch] = self._two_sided(self.store[:self.frames, ch])
-        return self._full[ch]
-
     def _products(self, spec, ka, kb, full=None):
         """``X(a) X(b)`` and ``|X(a) X(b)|^2`` of one-sided spectra ``spec`` (..., bins) of real frames
         for the two-sided bin pairs ``(ka, kb)`` (``full``: their two-sided spectra, when already made)."""
@@ -833,17 +887,20 @@ class ImagingAnalyzer(Analyzer):
         key = (ch, c["slice"].start)
         if key not in self._sums:
             ka, kb = self.all_ka[idx], self.all_kb[idx]
-            full = self._kept_two_sided(ch)
             half = min(self.half, self.frames)
             if streamed:
                 # only the first half's sums are missing
-                prod = np.take(full[:half], ka, axis=-1, mode="clip")
-                prod *= np.take(full[:half], kb, axis=-1, mode="clip")
+                prod = self._gather(ch, ka, half)
+                prod *= self._gather(ch, kb, half)
                 s = qs = None
             else:
                 # every frame's products at once (frames as rows), then summed row by row: a sum along
                 # the rows adds them in order, as the streamed sums do
-                prod, q = self._products(None, ka, kb, full=full)
+                prod = self._gather(ch, ka)
+                prod *= self._gather(ch, kb)
+                sq = prod.view(np.float64)
+                sq = sq * sq
+                q = np.add(sq[..., 0::2], sq[..., 1::2])
                 s, qs = np.sum(prod, axis=0), np.sum(q, axis=0)
             s_first = np.sum(prod[:half], axis=0) if half else np.zeros(idx.size, dtype=complex)
             self._sums[key] = (s, qs, s_first)
@@ -1056,11 +1113,9 @@ class ImagingAnalyzer(Analyzer):
         ka, kb = _first_order_pairs(self.fs, n, al, float(rate))
         if ka.size == 0:
             return None
-        full = self._kept_two_sided(ch)
-        # (in place, in the same order as X(a) X(b) rot: the same numbers with fewer temporaries; every
-        # index is in range, so mode "clip" only skips the bounds check)
-        prod = np.take(full, ka, axis=-1, mode="clip")
-        prod *= np.take(full, kb, axis=-1, mode="clip")
+        # (in place, in the same order as X(a) X(b) rot: the same numbers with fewer temporaries)
+        prod = self._gather(ch, ka)
+        prod *= self._gather(ch, kb)
         off_hz = alpha_hz - al * self.bin_hz
         if off_hz != 0.0:
             # (on the bin grid the residual rotation is exactly 1 and multiplying by it changes nothing)
@@ -1106,6 +1161,202 @@ class ImagingAnalyzer(Analyzer):
             if len(zs) == 2 and None not in zs and min(zs) >= need:
                 return hop, own, min(zs)
         return None
+
+    def _gather(self, ch: int, k, frames: int | None = None) -> np.ndarray:
+        """``X_m(k)`` of the first ``frames`` (default: all) kept frames (rows) at the two-sided bins ``k``, read
+        from the one-sided store (``X(N - k) = conj X(k)`` for real frames: the same numbers as the two-sided
+        spectrum, without making it; every index is in range, so mode "clip" only skips the bounds check)."""
+        n = self.n_fft
+        k = np.asarray(k, dtype=np.int64)
+        neg = k > n // 2
+        g = np.take(self.store[ch, :self.frames if frames is None else frames], np.where(neg, n - k, k), axis=-1,
+                    mode="clip")
+        if neg.any():
+            # (the imaginary parts of the negative bins' entries times -1: exactly the conjugate)
+            g.view(np.float64)[..., 1::2] *= np.where(neg, -1.0, 1.0)
+        return g
+
+    def _nearest_phase_cycles(self, rate: float) -> list:
+        """``[(alpha_bin, phases)]``: the cycle frequencies (bins, folded to 0..N/2) at which a nearest-phase
+        converter from ``rate`` with ``phases`` phases (:data:`NEAREST_PHASE_COUNTS`) leaves its strongest
+        images, ``phases * rate`` modulo the file's rate, the smallest count per cycle frequency; those within
+        8 bins of a multiple of ``rate`` (an ordinary image cycle frequency, which the main test covers) are
+        left out."""
+        n = self.n_fft
+        ordinary = []
+        q = 1
+        while q * rate - rate / 2.0 < self.fs:
+            a = int(round(q * rate / self.bin_hz)) % n
+            ordinary.append(min(a, n - a))
+            q += 1
+        out = {}
+        for phases in NEAREST_PHASE_COUNTS:
+            a = int(round(phases * rate / self.bin_hz)) % n
+            a = min(a, n - a)
+            if a == 0 or a in out or min(abs(a - o) for o in ordinary) < 8:
+                continue
+            out[a] = phases
+        return sorted(out.items(), key=lambda t: t[1])
+
+    def _np_stats(self, ch: int, al: int, rate: float, level: bool):
+        """``(z, inv_hold_rate_sq)`` of the first-order coherence at cycle frequency ``al`` bins between the
+        content below ``rate / 2`` and its partners above ``rate / 2`` (where a converter from ``rate`` leaves
+        nothing but images), at most :data:`NEAREST_PHASE_MAX_PAIRS` pairs spread over them; with ``level``,
+        the hold model's ``1 / R**2`` fitted to the coherent image power (``sum (g2 - b) P2 / sum P1 f**2``,
+        unbiased; None where it does not rise as ``f**2``, :data:`NEAREST_PHASE_MIN_RISE`) and a third value, the
+        share of the power at the image positions the content explains; without ``level`` the second is None.
+        None without pairs."""
+        n = self.n_fft
+        ka, kb = _clear_pairs(self.fs, n, int(al), float(rate))
+        if ka.size == 0:
+            return None
+        if ka.size > NEAREST_PHASE_MAX_PAIRS:
+            pick = np.linspace(0, ka.size - 1, NEAREST_PHASE_MAX_PAIRS).round().astype(np.int64)
+            ka, kb = ka[pick], kb[pick]
+        prod = self._gather(ch, ka)
+        prod *= self._gather(ch, kb)
+        s_all = prod.sum(axis=0)
+        mag = np.abs(prod)
+        q_all = np.square(mag, out=mag).sum(axis=0)
+        pw = self.power[ch]
+        fa = np.minimum(ka, n - ka)
+        p1, p2 = pw[fa], pw[np.minimum(kb, n - kb)]
+        den = np.maximum(p1 * p2, 1e-300)
+        g2 = np.minimum(np.abs(s_all) ** 2 / den, 1.0)
+        overlap = max(1.0, self.null_bias * self.frames)
+        bias = np.clip(overlap * q_all / den, self.null_bias, 0.999)
+        m_eff = 1.0 / bias
+        v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
+        _t, z_w, z_u = _pooled_z(g2, bias, np.minimum(p1, p2), v0)
+        inv = None
+        if level:
+            f1 = fa * self.bin_hz
+            den_f = float(np.sum(p1 * f1 * f1))
+            coh = (g2 - bias) * p2
+            inv = float(np.sum(coh)) / den_f if den_f > 0 else None
+            # the hold's images rise with the content's frequency as f**2: the coherent image power relative to
+            # the content, pairs below and above the median content frequency, against the rise the model
+            # predicts; a converter's own stop band at that order leaves a flat ratio
+            order = np.argsort(f1, kind="stable")
+            lo_h, hi_h = order[:order.size // 2], order[order.size // 2:]
+            r = []
+            for h in (lo_h, hi_h):
+                pc = float(np.sum(p1[h]))
+                r.append((float(np.sum(coh[h])) / pc, float(np.sum(p1[h] * f1[h] ** 2)) / pc) if pc > 0 else (0.0, 0.0))
+            (r_lo, m_lo), (r_hi, m_hi) = r
+            rise_pred = m_hi / m_lo if m_lo > 0 else 1.0
+            if not (rise_pred >= NEAREST_PHASE_MIN_RISE and r_lo > 0 and r_hi > 0
+                    and r_hi / r_lo >= math.sqrt(rise_pred)):
+                inv = None
+            # the share of the power at the image positions that the content explains (a converter from ``rate``
+            # leaves images and little else there; programme above ``rate / 2`` is not explained)
+            cover = float(np.sum(coh)) / max(float(np.sum(p2)), 1e-300)
+            return max(z_w, z_u), inv, cover
+        return max(z_w, z_u), inv
+
+    def _nearest_phase(self, ch: int, rate: float):
+        """The nearest-phase test of candidate ``rate`` on channel ``ch`` (see :data:`NEAREST_PHASE_COUNTS`):
+        ``(level_db, phases, z, cover)`` of the most significant cycle frequency, the level being the hold
+        model's first images of the inner band's content relative to it, ``(f / R)**2`` power-weighted over
+        that content with ``R`` fitted to the coherent images; None when no cycle frequency is significant or
+        the material is as coherent at neighbouring cycle frequencies (controls, as the main test's)."""
+        if self.store is None or self.frames < MIN_FRAMES:
+            return None
+        pw = self.power[ch]
+        in_lo = int(math.ceil(INNER_BAND[0] * rate / 2.0 / self.bin_hz))
+        in_hi = int(math.floor(INNER_BAND[1] * rate / 2.0 / self.bin_hz))
+        band = pw[in_lo:in_hi + 1]
+        if not float(band.sum()) > 0.0:
+            return None
+        f_in = np.arange(in_lo, in_hi + 1) * self.bin_hz
+        mean_f2 = float(np.sum(band * f_in * f_in)) / float(band.sum())
+        best = None
+        for al, phases in self._nearest_phase_cycles(rate):
+            got = self._np_stats(ch, al, rate, level=True)
+            if got is None or got[0] < Z_SIGNIFICANT or got[1] is None or not got[1] > 0.0:
+                continue
+            z, inv, cover = got
+            ctrl = [self._np_stats(ch, al + off, rate, level=False) for off in CONTROL_OFFSETS_BINS]
+            z_ctrl = max([c[0] for c in ctrl if c is not None], default=0.0)
+            if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * z):
+                continue
+            level = power_ratio_db(inv * mean_f2)
+            # (the level is read where the images are clearest: the most significant cycle frequency)
+            if best is None or z > best[2]:
+                best = (level, int(round(1.0 / math.sqrt(inv) / rate)), z, al, cover)
+        if best is None:
+            return None
+        if best[0] >= DEFECT_IMAGE_LEVEL_DB:
+            # the null's real spread at cycle frequencies no converter uses, for a would-be defect only
+            spread = [self._np_stats(ch, best[3] + off, rate, level=False) for off in NULL_SPREAD_OFFSETS_BINS]
+            zs = [c[0] for c in spread if c is not None]
+            spread_z = math.sqrt(sum(v * v for v in zs) / len(zs)) if zs else 0.0
+            if best[2] < Z_SIGNIFICANT * max(1.0, spread_z):
+                return None
+        return best[:3] + best[4:]
+
+    def _with_nearest_phase(self, out: list) -> list:
+        """``out`` with the images of a nearest-phase converter (:meth:`_nearest_phase`) made a defect where
+        they reach :data:`DEFECT_IMAGE_LEVEL_DB` (candidates: :data:`NEAREST_PHASE_MAX_CANDIDATES`; only those whose
+        own verdict is "none" or "trace")."""
+        if self.store is None or self.frames < MIN_FRAMES:
+            return out
+        ranked = []
+        for a in out:
+            rate = float(a["source_rate_hz"])
+            ny = rate / 2.0 / self.bin_hz
+            below = slice(int(math.ceil(0.7 * ny)), int(math.floor(0.9 * ny)) + 1)
+            above = slice(int(math.ceil(ny)) + 2, min(int(math.floor(1.3 * ny)), self.n_fft // 2 - 1) + 1)
+            band = slice(int(math.ceil(LOW_EDGE_HZ / self.bin_hz)), int(math.ceil(ny)))
+            drop = None
+            for ch in range(self.info.channels):
+                pw = self.power[ch]
+                if not (pw[above].size and pw[below].size and float(np.mean(pw[band])) > 0.0):
+                    continue
+                top = float(np.mean(pw[above]))
+                edge = top / max(float(np.mean(pw[below])), 1e-300)
+                if edge <= NEAREST_PHASE_DROP or top <= NEAREST_PHASE_QUIET * float(np.mean(pw[band])):
+                    drop = edge if drop is None else min(drop, edge)
+            if drop is not None and self._nearest_phase_cycles(rate):
+                ranked.append((rate, a))
+        # the lowest quiet rates first: where a converter's output ends
+        # of those that read as a bank, the lowest rate whose images explain at least NEAREST_PHASE_COVER_SHARE of the
+        # largest share any explains of what lies above its Nyquist frequency (a lower candidate sees the same images
+        # over programme, a higher one the same images with twice the phases)
+        found = []
+        for rate, a in sorted(ranked, key=lambda t: t[0])[:NEAREST_PHASE_MAX_CANDIDATES]:
+            if a["verdict"] in ("none", "trace"):
+                got = self._nearest_phase_found(rate)
+                if got is not None:
+                    found.append((got, a, rate))
+        if found:
+            top = max(t[0][0][0][3] for t in found)
+            got, a, rate = min((t for t in found if t[0][0][0][3] >= NEAREST_PHASE_COVER_SHARE * top),
+                               key=lambda t: t[2])
+            self._nearest_phase_verdict(a, rate, got)
+        return out
+
+    def _nearest_phase_found(self, rate: float):
+        """Per channel, the bank test's result at or above the line: ``[(result, label)]`` sorted by cover,
+        highest first, or None."""
+        labels = list(self.info.channel_layout)
+        found = []
+        for ch in range(self.info.channels):
+            r = self._nearest_phase(ch, rate)
+            if r is not None and r[0] >= DEFECT_IMAGE_LEVEL_DB:
+                found.append((r, labels[ch]))
+        return sorted(found, key=lambda t: -t[0][3]) or None
+
+    def _nearest_phase_verdict(self, quiet: dict, rate: float, found: list) -> None:
+        """Make candidate entry ``quiet`` a defect: ``found`` its channels' results (:meth:`_nearest_phase_found`)."""
+        (level, phases, z, _cover), chan = max(found, key=lambda t: t[0][0])
+        was = quiet["verdict"]
+        quiet.update(verdict="defect", evidence="spectrum", channels=[c for _r, c in found], channel=chan,
+                     image_level_db=round(level, 2), z_score=round(z, 2),
+                     reason=(f"images of a nearest-phase converter from {rate / 1000:g} kHz (about {phases} phases, "
+                             f"no interpolation between them; coherent at {phases} x {rate / 1000:g} kHz modulo the "
+                             f"file's rate, z {z:.0f}): those of the content at {_inner_khz(rate)} at {level:.1f} dB "
+                             f"relative to it; the main test alone: {was}"))
 
     def _assess(self, cand, ch: int, f0):
         m = self.frames
@@ -1322,7 +1573,7 @@ class ImagingAnalyzer(Analyzer):
             out.append(best[1])
         out = self._with_pattern(out)
         out = self._with_hold(out)
-        self._full = {}
+        out = self._with_nearest_phase(out)
         tested = [a for a in out if a["verdict"] != "untestable"]
         detected = None if not tested else any(a["verdict"] == "defect" for a in tested)
         settings = {"frame_samples": self.n_fft, "bin_hz": self.bin_hz, "frames_analysed": self.frames,
