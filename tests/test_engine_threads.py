@@ -380,3 +380,48 @@ def test_early_finish_error_reaches_the_caller(tmp_path, threads):
         with pytest.raises(ValueError, match="finish failed"):
             run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
                           classes=[_Slow, _QuickFails])
+
+
+def test_lanes_share_only_the_cheap_half():
+    # House choice (masterqc.measure.engine._lanes): analyzers whose warm-up cost is at most the
+    # median share one lane, every other one has its own; lanes listed by their first analyzer.
+    from masterqc.measure.engine import _lanes
+    assert _lanes([5e-3, 1e-4, 3e-3, 2e-4, 1e-5]) == [[0], [1, 3, 4], [2]]
+    # one analyzer slow on the warm-up block (a lazy import) does not pull the others together
+    assert _lanes([0.1, 1e-3, 2e-3, 3e-3]) == [[0], [1, 2], [3]]
+    assert _lanes([1e-3]) == [[0]]
+    assert _lanes([]) == []
+
+
+class _Costly(_Quick):
+    """Spends a few milliseconds of wall time per block (a lane of its own)."""
+
+    name = "costly"
+
+    def process(self, block):
+        import time
+        time.sleep(0.003)
+        self.blocks += 1
+
+    def finish(self):
+        return AnalyzerResult(measurements={"costly_blocks": self.blocks})
+
+
+class _Quick2(_Quick):
+    name = "quick2"
+
+    def finish(self):
+        return AnalyzerResult(measurements={"quick2_blocks": self.blocks})
+
+
+@pytest.mark.parametrize("threads", [2, 3])
+def test_lanes_feed_every_analyzer_every_block(tmp_path, threads):
+    # By construction: 48000 frames in 4800-frame blocks, 10 blocks each (2 on the calling thread before the
+    # lanes are made, 8 in lanes), whatever lane an analyzer landed in.
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    with open_stream(str(path)) as stream:
+        m, _, _ = run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
+                                classes=[_Quick, _Costly, _Quick2])
+    assert m == {"quick_blocks": 10, "costly_blocks": 10, "quick2_blocks": 10}
+    assert list(m) == ["quick_blocks", "costly_blocks", "quick2_blocks"]    # the analyzers' order

@@ -252,21 +252,51 @@ def _run_sequential(stream, info, options, analyzers, progress, thread_cpu=None)
         thread_cpu["analyze_s"] = thread_cpu.get("analyze_s", 0.0) + analyze_s
 
 
+#: blocks the calling thread feeds to every analyzer, in order, before the threads start
+#: (threaded runs): each analyzer's wall time on them sizes the lanes (:func:`_lanes`)
+WARM_UP_BLOCKS = 2
+
+def _lanes(costs_s) -> list:
+    """Analyzer indices grouped into lanes: a lane takes a block as one task, its analyzers
+    fed in their order, so each analyzer still takes every block in file order.
+
+    An analyzer alone costs about as much per block as the scheduling around it (a lock
+    round, a wake-up, the GIL changing hands: some 10-20 us, bench/speed_s9threads.txt) when
+    its own work is a few microseconds (sample peak, non-finite count, bit depth), so the cheap half (a cost at most
+    the median of ``costs_s``, the analyzers' wall seconds on a warm-up block) shares one lane
+    and every other analyzer has a lane of its own.  The median, not a share of the total: a
+    warm-up block that one analyzer spends long on (a lazy import, a thread switched out) moves
+    that analyzer to a lane of its own, never the others into one lane.  The lanes only decide
+    which thread runs what; the results are the same whatever they are.
+    """
+    n = len(costs_s)
+    if n == 0:
+        return []
+    median_s = sorted(costs_s)[(n - 1) // 2]
+    cheap = [i for i in range(n) if costs_s[i] <= median_s]
+    lanes = [[i] for i in range(n) if costs_s[i] > median_s] + [cheap]
+    return sorted(lanes, key=lambda lane: lane[0])
+
+
 class _BlockScheduler:
     """One reader thread and ``threads`` analyzer workers (the caller is one).
 
+    The calling thread first feeds the first :data:`WARM_UP_BLOCKS` blocks to every analyzer
+    in order, timing each one; the analyzers are then packed into lanes (:func:`_lanes`),
+    and a lane takes a block as one task.
+
     Shared state, guarded by one lock: the decoded blocks not yet taken by every
-    analyzer, and per analyzer the index of its next block and whether a worker
-    holds it.  A free worker takes the analyzer that is furthest behind (ties:
-    the one listed first) whose next block is decoded.  Threads are woken only
-    when there is something for them (a waiting thread that wakes takes the GIL
-    from the ones at work): the reader when the slowest analyzer moves on, a
-    worker when a block arrives or a second task is free, the caller also when
-    there is progress to report.
+    lane, and per lane the index of its next block and whether a worker holds it.
+    A free worker takes the lane that is furthest behind (ties: the one listed
+    first) whose next block is decoded; it records the block it has done and takes its
+    next task in one hold of the lock.  Threads are woken only when there is something
+    for them (a waiting thread that wakes takes the GIL from the ones at work): the reader
+    when the slowest lane moves on, a worker when a block arrives or a second task is free,
+    the caller also when there is progress to report.
 
     An analyzer that takes nothing from its peers (it keeps :meth:`Analyzer.bind
-    <masterqc.measure.base.Analyzer.bind>` as it is) is finished on a worker as soon as it has
-    taken the last block, while slower analyzers still take theirs (its finish() reads only its
+    <masterqc.measure.base.Analyzer.bind>` as it is) is finished on a worker as soon as its lane
+    has taken the last block, while slower lanes still take theirs (its finish() reads only its
     own state, and no peer changes that state); the others are finished afterwards, in order, by
     :func:`_collect`, when every early finish is done, as before.  Results are collected in the
     analyzers' order whoever finished them, so they are those of a sequential run.
@@ -291,31 +321,75 @@ class _BlockScheduler:
         self.read_error = None
         self.errors: list[tuple] = []          # (block index, analyzer index, exception)
         self.abort = False
-        self.next = [0] * len(analyzers)
-        self.busy = [False] * len(analyzers)
-        self.low = 0                           # min(self.next): blocks every analyzer has taken
+        self.lanes: list[list[int]] = [[i] for i in range(len(analyzers))]   # set by _warm_up
+        self.lane_of: list[int] = list(range(len(analyzers)))
+        self.next: list[int] = []              # per lane: its next block
+        self.busy: list[bool] = []             # per lane: a worker holds it
+        self.low = 0                           # min(self.next): blocks every lane has taken
         self.reported = 0
         # finish() on a worker after the last block: analyzers that take nothing from their peers
         self.early = [isinstance(a, Analyzer) and type(a).bind is Analyzer.bind for a in analyzers]
         self.finished: list = [None] * len(analyzers)     # its AnalyzerResult, or the exception
         self.finishing = [False] * len(analyzers)         # taken by a worker (or done)
+        self.finish_done = [False] * len(analyzers)
 
     def _wake_all(self) -> None:
         self.space.notify_all()
         self.work.notify_all()
         self.main.notify_all()
 
-    # -- reader thread
     def _add_cpu(self, key: str, started: float) -> None:
         if self.thread_cpu is not None:
             spent = time.thread_time() - started
             with self.lock:
                 self.thread_cpu[key] = self.thread_cpu.get(key, 0.0) + spent
 
-    def _read(self) -> None:
+    # -- calling thread, before the others start
+    def _warm_up(self, gen) -> bool:
+        """Feed the first :data:`WARM_UP_BLOCKS` blocks to every analyzer in order and pack the
+        lanes from each analyzer's least wall time on one of them; False when the stream ended
+        there (nothing left for the threads).  Errors are raised as in a sequential run."""
+        costs_s = [None] * len(self.analyzers)
+        clock = time.thread_time if self.thread_cpu is not None else None
+        ended = False
+        for k in range(WARM_UP_BLOCKS):
+            c0 = clock() if clock else 0.0
+            block, rows = next(gen, (None, None))
+            if block is None:
+                if clock:
+                    self._add_cpu("read_s", c0)
+                ended = True
+                break
+            prepared = _prepare(block, self.info, self.want_clean, self.want_planar, rows)
+            if clock:
+                self._add_cpu("read_s", c0)
+            c1 = clock() if clock else 0.0
+            for i, a in enumerate(self.analyzers):
+                t = time.perf_counter()
+                _feed(a, prepared)
+                t = time.perf_counter() - t
+                costs_s[i] = t if costs_s[i] is None else min(costs_s[i], t)
+            if clock:
+                self._add_cpu("analyze_s", c1)
+            prepared = None
+            self.ends.append((self.ends[-1] if self.ends else 0) + block.shape[0])
+            self.read_count = self.low = self.reported = k + 1
+            if self.progress is not None:
+                self.progress(self.ends[-1], self.info.frames)
+        if costs_s[0] is not None:
+            self.lanes = _lanes(costs_s)
+        for j, lane in enumerate(self.lanes):
+            for i in lane:
+                self.lane_of[i] = j
+        self.next = [self.read_count] * len(self.lanes)
+        self.busy = [False] * len(self.lanes)
+        return not ended
+
+    # -- reader thread
+    def _read(self, gen) -> None:
         started = time.thread_time()
         try:
-            self._read_blocks()
+            self._read_blocks(gen)
         finally:
             self._add_cpu("read_s", started)
 
@@ -326,8 +400,7 @@ class _BlockScheduler:
         finally:
             self._add_cpu("analyze_s", started)
 
-    def _read_blocks(self) -> None:
-        gen = _decoded(self.stream, self.options.block_frames, self.want_planar)
+    def _read_blocks(self, gen) -> None:
         try:
             for block, rows in gen:
                 prepared = _prepare(block, self.info, self.want_clean, self.want_planar, rows)
@@ -348,26 +421,21 @@ class _BlockScheduler:
             with self.lock:
                 self.read_error = exc
         finally:
-            gen_close = getattr(gen, "close", None)
-            if gen_close is not None:
-                try:
-                    gen_close()
-                except Exception:              # noqa: BLE001 - closing must not hide the real error
-                    pass
+            _close(gen)
             with self.lock:
                 self.read_done = True
                 self._wake_all()
 
     # -- workers
     def _pick(self):
-        """(analyzer index, True for its next block or False for its finish()), or None: the
-        analyzer furthest behind whose next block is decoded, else an early finish."""
+        """(lane index, True for its next block) or (analyzer index, False for its finish()), or
+        None: the lane furthest behind whose next block is decoded, else an early finish."""
         best = None
-        for i in range(len(self.analyzers)):
-            if self.busy[i] or self.next[i] >= self.read_count:
+        for j in range(len(self.lanes)):
+            if self.busy[j] or self.next[j] >= self.read_count:
                 continue
-            if best is None or self.next[i] < self.next[best]:
-                best = i
+            if best is None or self.next[j] < self.next[best]:
+                best = j
         if best is not None:
             return best, True
         for i in range(len(self.analyzers)):
@@ -376,24 +444,43 @@ class _BlockScheduler:
         return None
 
     def _can_finish(self, i: int) -> bool:
-        return (self.early[i] and not self.finishing[i] and not self.busy[i] and self.read_done
-                and self.next[i] >= self.read_count)
+        j = self.lane_of[i]
+        return (self.early[i] and not self.finishing[i] and not self.busy[j] and self.read_done
+                and self.next[j] >= self.read_count)
 
     def _ready_count(self) -> int:
-        return sum(1 for i in range(len(self.analyzers))
-                   if (not self.busy[i] and self.next[i] < self.read_count) or self._can_finish(i))
+        ready = sum(1 for j in range(len(self.lanes)) if not self.busy[j] and self.next[j] < self.read_count)
+        if self.read_done:                     # early finishes wait for the end of the stream
+            ready += sum(1 for i in range(len(self.analyzers)) if self._can_finish(i))
+        return ready
 
     def _finished(self) -> bool:
         return (self.read_done and self.low >= self.read_count
-                and all(self.finishing[i] and not self.busy[i] for i in range(len(self.analyzers))
-                        if self.early[i]))
+                and all(self.finish_done[i] for i in range(len(self.analyzers)) if self.early[i]))
+
+    def _block_done(self, j: int, k: int) -> None:
+        """Lane ``j`` has taken block ``k`` (under the lock)."""
+        self.busy[j] = False
+        self.next[j] = k + 1
+        low = min(self.next)
+        if low > self.low:
+            for b in range(self.low, low):
+                del self.blocks[b]
+            self.low = low
+            self.space.notify()
+            if self.progress is not None:
+                self.main.notify()
 
     def _work_blocks(self, report: bool) -> None:
         wait_on = self.main if report else self.work
         report = report and self.progress is not None
+        done = None                            # (lane, block) fed, recorded with the next pick
         while True:
             pending = None
             with self.lock:
+                if done is not None:
+                    self._block_done(*done)
+                    done = None
                 while True:
                     if self.abort:
                         return
@@ -405,26 +492,31 @@ class _BlockScheduler:
                     if task is not None:
                         break
                     if self._finished():
+                        self._wake_all()
                         return
                     wait_on.wait()
                 if pending is None:
-                    i, is_block = task
-                    self.busy[i] = True
+                    x, is_block = task
                     if is_block:
-                        k = self.next[i]
+                        self.busy[x] = True
+                        k = self.next[x]
                         prepared = self.blocks[k]
                     else:
-                        self.finishing[i] = True
+                        self.finishing[x] = True
+                    if self._ready_count() > 0:    # this thread has one; another one may take the next
+                        self.work.notify()
+                        self.main.notify()
             if pending is not None:
                 for frames in pending:
                     self.progress(frames, self.info.frames)
                 continue
-            a = self.analyzers[i]
             if not is_block:
-                self._finish_one(i, a)
+                self._finish_one(x, self.analyzers[x])
                 continue
+            i = None
             try:
-                _feed(a, prepared)
+                for i in self.lanes[x]:
+                    _feed(self.analyzers[i], prepared)
             except BaseException as exc:      # noqa: BLE001 - handed to the caller's thread
                 with self.lock:
                     self.errors.append((k, i, exc))
@@ -433,22 +525,7 @@ class _BlockScheduler:
                 return
             finally:
                 prepared = None
-            with self.lock:
-                self.busy[i] = False
-                self.next[i] = k + 1
-                low = min(self.next)
-                if low > self.low:
-                    for j in range(self.low, low):
-                        del self.blocks[j]
-                    self.low = low
-                    self.space.notify()
-                    if self.progress is not None:
-                        self.main.notify()
-                if self._ready_count() > 1:    # this thread takes one; another one may take the next
-                    self.work.notify()
-                    self.main.notify()
-                if self._finished():
-                    self._wake_all()
+            done = (x, k)
 
     def _finish_one(self, i: int, a) -> None:
         """finish() analyzer ``i`` on this worker; its result, or its exception, is kept for
@@ -463,7 +540,7 @@ class _BlockScheduler:
             if self.thread_cpu is not None:   # inside "analyze_s" too: the CPU split takes it out
                 self.thread_cpu["finish_s"] = self.thread_cpu.get("finish_s", 0.0) + spent
             self.finished[i] = done
-            self.busy[i] = False
+            self.finish_done[i] = True
             if self._finished():
                 self._wake_all()
 
@@ -472,8 +549,17 @@ class _BlockScheduler:
             self.abort = True
             self._wake_all()
 
-    def run(self) -> None:
-        reader = threading.Thread(target=self._read, name="masterqc-read", daemon=True)
+    def run(self):
+        gen = _decoded(self.stream, self.options.block_frames, self.want_planar)
+        try:
+            more = self._warm_up(gen)
+        except BaseException:
+            _close(gen)
+            raise
+        if not more:                           # a short stream: every block taken, _collect finishes
+            _close(gen)
+            return None
+        reader = threading.Thread(target=self._read, args=(gen,), name="masterqc-read", daemon=True)
         workers = [threading.Thread(target=self._work, args=(False,), name=f"masterqc-analyze-{n}", daemon=True)
                    for n in range(1, self.threads)]
         reader.start()
@@ -494,6 +580,16 @@ class _BlockScheduler:
         if self.read_error is not None:
             raise self.read_error
         return self.finished
+
+
+def _close(gen) -> None:
+    """Close a block generator; closing must not hide the real error."""
+    gen_close = getattr(gen, "close", None)
+    if gen_close is not None:
+        try:
+            gen_close()
+        except Exception:                      # noqa: BLE001
+            pass
 
 
 def measure_file(path, options: MeasureOptions | None = None, progress=None) -> dict:
