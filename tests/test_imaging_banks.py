@@ -195,3 +195,25 @@ def test_no_level_just_above_the_source_nyquist_separates_a_32_tap_blackman_nutt
     for window, taps, cutoff, beta in (("bnuttall", 32, 0.97, None), ("kaiser", 20, 1.0, 5.0),
                                        ("kaiser", 32, 0.97, 9.0)):
         assert np.all(_kernel_response_db(window, taps, cutoff, beta, far) < -65.0)
+
+
+@pytest.mark.parametrize("phases,kept", [(16, True), (0.3, False)])
+def test_a_fit_implying_fewer_phases_than_any_bank_tested_is_not_the_hold_model(monkeypatch, phases, kept):
+    """Analytic: a bank of N phases holds at N times the source rate r, so its images of content below r / 2 lie at
+    most (1 / 2N)**2 below it, -24 dB for the fewest tested (8).  A fitted hold rate of 0.3 r (images above the
+    content) is no bank's: refused; 16 r is kept and reported as 16 phases.  The coherence statistics are given
+    (the fit's inputs), so this checks the rule alone."""
+    a = ImagingAnalyzer.__new__(ImagingAnalyzer)
+    a.fs, a.n_fft, a.bin_hz, a.frames, a.store = 48000, 1920, 25.0, 40, object()
+    a.power = [np.ones(a.n_fft // 2 + 1)]
+    rate = 44100.0
+    inv = 1.0 / (phases * rate) ** 2
+    monkeypatch.setattr(ImagingAnalyzer, "_np_stats",
+                        lambda self, ch, al, r, level: (100.0, inv, 0.9) if level and al == self._np_al else (0.0, None))
+    a._np_al = a._nearest_phase_cycles(rate)[0][0]
+    got = a._nearest_phase(0, rate)
+    if kept:
+        assert got is not None and got[1] == 16
+    else:
+        assert got is None
+    assert im.NEAREST_PHASE_MIN_FITTED == im.NEAREST_PHASE_COUNTS[0] / 2 == 4

@@ -317,6 +317,11 @@ NEAREST_PHASE_COUNTS = tuple(2 ** j for j in range(3, 11))
 #: clear of the programme, above the candidate's Nyquist frequency, where a few hundred pairs give z in the
 #: hundreds from 1024 phases down)
 NEAREST_PHASE_MAX_PAIRS = 256
+#: the fewest phases the hold model's fitted rate may imply, half the fewest tested (analytic: a bank of N phases
+#: holds at N times the source rate, so its images of content below the source Nyquist frequency lie at most
+#: (1 / 2N)**2 below it; a fit implying fewer is images no such bank makes, e.g. the band-limited content of an LFE
+#: channel whose fit gave "about 0 phases" at +5.5 dB on a proper converter's output)
+NEAREST_PHASE_MIN_FITTED = NEAREST_PHASE_COUNTS[0] / 2.0
 #: the nearest-phase images of the content at ``f`` rise as ``f**2`` (the hold model), where a converter's own stop
 #: band at that order (its images at ``N r +- f``, on the same cycle frequency) is flat across the audio band: the
 #: level is read only where the pairs' content frequencies predict a rise of at least this ratio between the lower
@@ -1281,9 +1286,14 @@ class ImagingAnalyzer(Analyzer):
             if z_ctrl >= max(Z_SIGNIFICANT, CONTROL_Z_RELATIVE * z):
                 continue
             level = power_ratio_db(inv * mean_f2)
+            fitted = 1.0 / math.sqrt(inv) / rate
+            if fitted < NEAREST_PHASE_MIN_FITTED:
+                # images stronger than any bank tested here makes (the fewest phases, 8, leave those of content
+                # below the source Nyquist frequency at most (1/16)**2, -24 dB): not the hold model's
+                continue
             # (the level is read where the images are clearest: the most significant cycle frequency)
             if best is None or z > best[2]:
-                best = (level, int(round(1.0 / math.sqrt(inv) / rate)), z, al, cover)
+                best = (level, int(round(fitted)), z, al, cover)
         if best is None:
             return None
         if best[0] >= DEFECT_IMAGE_LEVEL_DB:
