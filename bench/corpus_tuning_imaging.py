@@ -301,9 +301,10 @@ def kernel(kind: str, taps: int, param, t):
     return np.where(inside, np.sinc(t) * w, 0.0)
 
 
-def stream_convert(x: np.ndarray, src: int, dst: int, kind: str, taps: int, param, phases: int | None = None):
-    """One channel from ``src`` to ``dst``: each output sample the kernel-weighted sum of the ``taps`` source
-    samples around its instant; ``phases``: the fractional position rounded to the nearest of that many."""
+def at_instants(x: np.ndarray, src: int, dst: int, taps: int, phases, weight) -> np.ndarray:
+    """One channel from ``src`` to ``dst``: each output sample the ``weight``-weighted sum of the ``taps`` source
+    samples around its instant (``weight(t)``, ``t`` in source samples from the instant); ``phases``: the
+    fractional position rounded to the nearest of that many (None: exact)."""
     n_out = len(x) * dst // src
     pos = np.arange(n_out) * (src / dst)
     i0 = np.floor(pos + 1e-9).astype(np.int64)
@@ -314,8 +315,13 @@ def stream_convert(x: np.ndarray, src: int, dst: int, kind: str, taps: int, para
     pad = np.concatenate([np.zeros(half + 1), x, np.zeros(half + 2)])
     y = np.zeros(n_out)
     for k in range(-half + 1, half + 1):
-        y += kernel(kind, taps, param, mu - k) * pad[i0 + k + half + 1]
+        y += weight(mu - k) * pad[i0 + k + half + 1]
     return y
+
+
+def stream_convert(x: np.ndarray, src: int, dst: int, kind: str, taps: int, param, phases: int | None = None):
+    """One channel from ``src`` to ``dst`` through :func:`kernel` (:func:`at_instants`)."""
+    return at_instants(x, src, dst, taps, phases, lambda t: kernel(kind, taps, param, t))
 
 
 def kernel_response(kind: str, taps: int, param, f_frac):
@@ -446,20 +452,9 @@ def window_kernel(window: str, taps: int, beta: float, cutoff: float, t):
 
 def poly_convert(x: np.ndarray, src: int, dst: int, window: str, taps: int, beta: float, cutoff: float,
                  phases: int | None = None) -> np.ndarray:
-    """One channel from ``src`` to ``dst`` through the windowed-sinc bank (see above); ``phases``: the fractional
-    position rounded to the nearest of that many (a nearest-phase bank)."""
-    n_out = len(x) * dst // src
-    pos = np.arange(n_out) * (src / dst)
-    i0 = np.floor(pos + 1e-9).astype(np.int64)
-    mu = pos - i0
-    if phases:
-        mu = np.round(mu * phases) / phases
-    half = taps // 2
-    pad = np.concatenate([np.zeros(half + 1), x, np.zeros(half + 2)])
-    y = np.zeros(n_out)
-    for k in range(-half + 1, half + 1):
-        y += window_kernel(window, taps, beta, cutoff, mu - k) * pad[i0 + k + half + 1]
-    return y
+    """One channel from ``src`` to ``dst`` through the windowed-sinc bank (see above, :func:`at_instants`);
+    ``phases``: the fractional position rounded to the nearest of that many (a nearest-phase bank)."""
+    return at_instants(x, src, dst, taps, phases, lambda t: window_kernel(window, taps, beta, cutoff, t))
 
 
 def poly_image_level_db(window: str, taps: int, beta: float, cutoff: float, phases, src: int, x: np.ndarray) -> float:

@@ -1126,6 +1126,14 @@ class ImagingAnalyzer(Analyzer):
             # (on the bin grid the residual rotation is exactly 1 and multiplying by it changes nothing)
             starts = self.picker.starts[:self.frames].astype(float)
             prod *= np.exp(-2j * np.pi * off_hz * starts / self.fs)[:, None]
+        return self._pair_coherence(ch, prod, ka, kb)[0]
+
+    def _pair_coherence(self, ch: int, prod, ka, kb):
+        """``(z, g2, bias, p1, p2)`` of the pairs ``(ka, kb)`` whose per-frame products ``X(ka) X(kb)`` are
+        ``prod`` (frames, pairs; overwritten): the pooled significance (max of the power-weighted and the
+        unweighted z), each pair's magnitude-squared coherence, its null bias, and the long-term powers at
+        ``ka`` and ``kb``."""
+        n = self.n_fft
         s_all = prod.sum(axis=0)
         mag = np.abs(prod)
         q_all = np.square(mag, out=mag).sum(axis=0)
@@ -1138,7 +1146,7 @@ class ImagingAnalyzer(Analyzer):
         m_eff = 1.0 / bias
         v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
         _t, z_w, z_u = _pooled_z(g2, bias, np.minimum(p1, p2), v0)
-        return max(z_w, z_u)
+        return max(z_w, z_u), g2, bias, p1, p2
 
     def _coder_framing(self, ch: int, rate: float):
         """``(hop, z_own, z_neighbours)`` when the coherence at ``rate`` is a block coder's framing: ``rate`` is
@@ -1220,19 +1228,8 @@ class ImagingAnalyzer(Analyzer):
             ka, kb = ka[pick], kb[pick]
         prod = self._gather(ch, ka)
         prod *= self._gather(ch, kb)
-        s_all = prod.sum(axis=0)
-        mag = np.abs(prod)
-        q_all = np.square(mag, out=mag).sum(axis=0)
-        pw = self.power[ch]
+        z, g2, bias, p1, p2 = self._pair_coherence(ch, prod, ka, kb)
         fa = np.minimum(ka, n - ka)
-        p1, p2 = pw[fa], pw[np.minimum(kb, n - kb)]
-        den = np.maximum(p1 * p2, 1e-300)
-        g2 = np.minimum(np.abs(s_all) ** 2 / den, 1.0)
-        overlap = max(1.0, self.null_bias * self.frames)
-        bias = np.clip(overlap * q_all / den, self.null_bias, 0.999)
-        m_eff = 1.0 / bias
-        v0 = (m_eff - 1.0) / (m_eff * m_eff * (m_eff + 1.0))
-        _t, z_w, z_u = _pooled_z(g2, bias, np.minimum(p1, p2), v0)
         inv = None
         if level:
             f1 = fa * self.bin_hz
@@ -1256,8 +1253,8 @@ class ImagingAnalyzer(Analyzer):
             # the share of the power at the image positions that the content explains (a converter from ``rate``
             # leaves images and little else there; programme above ``rate / 2`` is not explained)
             cover = float(np.sum(coh)) / max(float(np.sum(p2)), 1e-300)
-            return max(z_w, z_u), inv, cover
-        return max(z_w, z_u), inv
+            return z, inv, cover
+        return z, inv
 
     def _nearest_phase(self, ch: int, rate: float):
         """The nearest-phase test of candidate ``rate`` on channel ``ch`` (see :data:`NEAREST_PHASE_COUNTS`):
