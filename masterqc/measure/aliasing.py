@@ -463,6 +463,21 @@ def rank_evidence(rank_sum: float, rank_var: float, instances: int):
     return (z >= RANK_Z_MIN and rank_sum >= RANK_MEAN_MIN * instances), z
 
 
+def pooled_evidence(frames: list, prefix: str):
+    """The evidence of the per-frame results ``frames`` (``[(start, result or None)]``) pooled over the file for
+    one test, its keys prefixed ``prefix`` ("" the polyphonic fold combs, "grid_" the reflected line grids):
+    ``(assessed, instances, evident, chance, hit, rank_hit, rank_z)``, ``assessed`` the frames with at least one
+    instance, ``rank_hit`` and ``rank_z`` :func:`rank_evidence`'s over them, ``hit`` that or :func:`fold_evidence`."""
+    assessed = [(s, r) for s, r in frames if r is not None and r[prefix + "instances"] > 0]
+    instances = sum(r[prefix + "instances"] for _s, r in assessed)
+    evident = sum(r[prefix + "evident"] for _s, r in assessed)
+    chance = sum(r[prefix + "chance"] for _s, r in assessed)
+    rank_hit, rank_z = rank_evidence(sum(r[prefix + "rank_sum"] for _s, r in assessed),
+                                     sum(r[prefix + "rank_var"] for _s, r in assessed), instances)
+    hit = fold_evidence(evident, instances, chance) or rank_hit
+    return assessed, instances, evident, chance, hit, rank_hit, rank_z
+
+
 def fold_evidence(evident: int, instances: int, chance: float) -> bool:
     """Folding is evident when enough note instances show their predicted fold comb above every
     control: at least :data:`MIN_EVIDENT_INSTANCES`, at least :data:`MIN_EVIDENT_SHARE` of the
@@ -1824,22 +1839,11 @@ class AliasingAnalyzer(Analyzer):
         line_hit = enough and score is not None and score >= ALIAS_SCORE_MIN_DB
         # the polyphonic test: note instances whose fold comb stands above every control comb
         poly_signal = [(s, r) for s, r, sig in self.poly if sig]
-        poly_assess = [(s, r) for s, r in poly_signal if r is not None and r["instances"] > 0]
-        instances = sum(r["instances"] for _s, r in poly_assess)
-        evident_n = sum(r["evident"] for _s, r in poly_assess)
-        chance = sum(r["chance"] for _s, r in poly_assess)
-        rank_hit, rank_z = rank_evidence(sum(r["rank_sum"] for _s, r in poly_assess),
-                                         sum(r["rank_var"] for _s, r in poly_assess), instances)
-        poly_hit = fold_evidence(evident_n, instances, chance) or rank_hit
+        poly_assess, instances, evident_n, chance, poly_hit, rank_hit, rank_z = pooled_evidence(poly_signal, "")
         poly_frames = [(s, r) for s, r in poly_assess if r["evident"] > 0]
         # the reflected line grids (FM, ring modulation): the same evidence rules over their instances
-        grid_assess = [(s, r) for s, r in poly_signal if r is not None and r["grid_instances"] > 0]
-        g_inst = sum(r["grid_instances"] for _s, r in grid_assess)
-        g_evident = sum(r["grid_evident"] for _s, r in grid_assess)
-        g_chance = sum(r["grid_chance"] for _s, r in grid_assess)
-        g_rank_hit, g_rank_z = rank_evidence(sum(r["grid_rank_sum"] for _s, r in grid_assess),
-                                             sum(r["grid_rank_var"] for _s, r in grid_assess), g_inst)
-        reflected_hit = fold_evidence(g_evident, g_inst, g_chance) or g_rank_hit
+        grid_assess, g_inst, g_evident, g_chance, reflected_hit, g_rank_hit, g_rank_z = pooled_evidence(
+            poly_signal, "grid_")
         grid_frames = [(s, r) for s, r in grid_assess if r["grid_evident"] > 0]
         if score is None and poly_hit and poly_frames:
             h_p = sum(r["harmonic_power"] for _s, r in poly_frames)
