@@ -955,38 +955,39 @@ CRUSH_HOLDS = ((48000, 2.37, 0, "tonal"), (44100, 3.61, 12, "synth"), (48000, 4.
 FM_QUICK, RING_QUICK, CRUSH_QUICK = (2, 3), (0,), (0,)
 
 
+def _voice_notes(f_range, seconds: float, fs: int, over: int, state: int, tone) -> np.ndarray:
+    """One voice's notes (:func:`voices`, fundamentals in ``f_range``) at ``fs * over`` samples per second, each
+    ``tone(phase, envelope, rng)`` under its envelope with a random level; the random stream ``state`` fixes every
+    choice, so the naive (over = 1) and oversampled renderings hold the same notes."""
+    rng = np.random.default_rng(state)
+    rate = fs * over
+    out = np.zeros(int(seconds * fs) * over)
+    for pos, length, f0 in voices(seconds, fs, rng, 1, *f_range):
+        pos, length = pos * over, length * over
+        f_inst = pitch_track(f0, length, rate, rng)
+        env = adsr(length, rate, rng)
+        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+        v = tone(ph, env, rng)
+        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
+    return out
+
+
 def fm_voice(ratio: float, fc_range, index_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
     """One voice of naive two-operator FM (see :data:`FM_VOICES`) at ``fs * over`` samples per second; the
     random stream ``state`` fixes every choice, so the naive (over = 1) and oversampled renderings hold the same
     notes."""
-    rng = np.random.default_rng(state)
-    rate = fs * over
-    out = np.zeros(int(seconds * fs) * over)
-    for pos, length, fc in voices(seconds, fs, rng, 1, *fc_range):
-        pos, length = pos * over, length * over
-        f_inst = pitch_track(fc, length, rate, rng)
-        env = adsr(length, rate, rng)
-        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+    def tone(ph, env, rng):
         index = rng.uniform(*index_range) * (0.3 + 0.7 * env)
-        v = np.sin(2 * math.pi * ph + index * np.sin(2 * math.pi * (ratio * ph + rng.uniform(0, 1))))
-        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
-    return out
+        return np.sin(2 * math.pi * ph + index * np.sin(2 * math.pi * (ratio * ph + rng.uniform(0, 1))))
+    return _voice_notes(fc_range, seconds, fs, over, state, tone)
 
 
 def ring_voice(a: str, b: str, f_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
     """One voice of a naive ring modulator (see :data:`RING_VOICES`) at ``fs * over`` samples per second."""
-    rng = np.random.default_rng(state)
-    rate = fs * over
-    out = np.zeros(int(seconds * fs) * over)
-    for pos, length, f1 in voices(seconds, fs, rng, 1, *f_range):
-        pos, length = pos * over, length * over
-        f_inst = pitch_track(f1, length, rate, rng)
-        env = adsr(length, rate, rng)
-        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / rate
+    def tone(ph, env, rng):
         ratio = rng.uniform(1.15, 3.3)
-        v = _osc(a, ph, rng.uniform(0.15, 0.4)) * _osc(b, rng.uniform(0, 1) + ratio * ph)
-        out[pos:pos + length] += rng.uniform(0.5, 1.0) * env * v
-    return out
+        return _osc(a, ph, rng.uniform(0.15, 0.4)) * _osc(b, rng.uniform(0, 1) + ratio * ph)
+    return _voice_notes(f_range, seconds, fs, over, state, tone)
 
 
 def crush_hold(x: np.ndarray, h: float, bits: int = 0) -> np.ndarray:

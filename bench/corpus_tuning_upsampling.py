@@ -248,14 +248,20 @@ def _case_rng(seed: int, i: int):
     return np.random.default_rng([int(seed), i])
 
 
+def _picker(rng):
+    """``pick(seq)``: one element of ``seq`` drawn uniformly from ``rng`` (one ``integers`` call per pick)."""
+    def pick(seq):
+        return seq[int(rng.integers(0, len(seq)))]
+    return pick
+
+
 def _plan(seed: int, quick: bool):
     """(name, family, group, builder) for every case, in a fixed order."""
     plan = []
     rng = np.random.default_rng(seed)
     mats = list(MATERIALS)
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     # upsampled: every family from every source rate, one drawn target (two for the full set)
     for fi, family in enumerate(UP_FAMILIES):
@@ -344,8 +350,7 @@ def _plan_lowpass_sweep(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 13])
     mats = list(MATERIALS) + ["dull"]
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     kinds = ("butter", "butter", "cheby1", "cheby2", "ellip", "ellip", "bessel", "firwin", "firwin", "remez",
@@ -429,8 +434,7 @@ def _plan_mastering(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 11])
     mats = list(MATERIALS)
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     orders = (2, 4, 6, 8, 10, 12)
@@ -465,8 +469,7 @@ def _plan_filters(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 7])
     mats = list(MATERIALS)
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     for fi, family in enumerate(EXTRA_UP_FAMILIES):
@@ -641,8 +644,7 @@ def imaging_plan(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 11])
     plan = []
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     for fi, family in enumerate(IMAGING_FAMILIES):
         sources = IMAGING_SOURCES_HZ if not quick else IMAGING_SOURCES_HZ[fi % 4::4]
@@ -835,8 +837,7 @@ def _plan_codec_and_downconversion(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 17])
     mats = ("music", "speech", "noise", "sparse", "dull")
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     for fs in (44100, 48000):
@@ -949,8 +950,7 @@ def _plan_band_limits(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 23])
     mats = ("music", "noise", "speech", "dull")
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     for fs, near, kbps in (WALL_CASES if not quick else WALL_CASES[::3]):
@@ -1163,8 +1163,7 @@ def _plan_low_rates(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 23])
     plan = []
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     for fi, family in enumerate(LOW_FAMILIES):
         sources = LOW_SOURCES_HZ if not quick else LOW_SOURCES_HZ[fi % 3::3]
@@ -1363,8 +1362,7 @@ def _plan_coder_walls(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 29])
     mats = ("music", "noise", "music", "dull")
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     plan = []
     for fs, kbps, lp in (LAYER3_CASES if not quick else LAYER3_CASES[:2]):
@@ -1509,8 +1507,7 @@ def _plan_steep_and_low_narrow(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 31])
     plan = []
 
-    def pick(seq):
-        return seq[int(rng.integers(0, len(seq)))]
+    pick = _picker(rng)
 
     convs = STEEP_CONVERSIONS if not quick else STEEP_CONVERSIONS[:4]
     for ci, (src, dst) in enumerate(convs):

@@ -977,14 +977,20 @@ def test_naive_fm_folds_sideband_k_to_fs_minus_fc_plus_k_fm_at_its_bessel_level(
     assert min(al._circ(folded, fc, fm), al._circ(folded, -fc, fm)) > 0.05 * fm
 
 
-def test_voice_grid_finds_the_fm_spacing_and_offset():
-    fs, fc, fm, index = 48000, 1500, 2115, 5.0
-    x = _fm_voice(fc, fm, index, fs, 0.05)
+def _frame_lines(x, fs):
+    """One Hann-windowed frame's ``(power, floor, bin_hz, line frequencies in Hz, line powers)``, the lines
+    found and refined as the polyphonic test finds them."""
     power = np.abs(np.fft.rfft(x * np.hanning(x.size + 2)[1:-1])) ** 2
     bin_hz = fs / x.size
     floor = al.block_floor(power)
     peaks = al.find_lines(power, floor, al.POLY_LINE_DB)
-    fr, pw = al.refine_peaks(power, peaks) * bin_hz, power[peaks]
+    return power, floor, bin_hz, al.refine_peaks(power, peaks) * bin_hz, power[peaks]
+
+
+def test_voice_grid_finds_the_fm_spacing_and_offset():
+    fs, fc, fm, index = 48000, 1500, 2115, 5.0
+    x = _fm_voice(fc, fm, index, fs, 0.05)
+    power, floor, bin_hz, fr, pw = _frame_lines(x, fs)
     p, spacing, _sp, _sd, matched = al.voice_grid(fr, pw, bin_hz, fs)
     assert spacing == pytest.approx(fm, rel=2e-3)
     assert min(al._circ(p, fc, spacing), al._circ(p, -fc, spacing)) < 2 * bin_hz
@@ -1020,11 +1026,7 @@ def test_reflected_offsets_coincide_with_the_voice_when_fs_is_a_multiple_of_the_
     the folds land on the voice's own grid and prove nothing; the test must not read them."""
     fs, fm, fc, index = 48000, 2400.0, 700.0, 6.0     # 48000 = 20 * 2400
     x = _fm_voice(fc, fm, index, fs, 0.05)
-    power = np.abs(np.fft.rfft(x * np.hanning(x.size + 2)[1:-1])) ** 2
-    bin_hz = fs / x.size
-    floor = al.block_floor(power)
-    peaks = al.find_lines(power, floor, al.POLY_LINE_DB)
-    fr, pw = al.refine_peaks(power, peaks) * bin_hz, power[peaks]
+    power, floor, bin_hz, fr, pw = _frame_lines(x, fs)
     level = 10 * np.log10(np.maximum(power, 1e-300) / np.maximum(floor, 1e-300))
     from masterqc.measure.npkernels import maximum_filter1d
     lm = [level] + [maximum_filter1d(level, 2 * h + 1, mode="nearest") for h in (1, 2)]
