@@ -88,7 +88,7 @@ Material (generators written for this set, wideband to Nyquist at the rate they 
 bed, chords of detuned additive voices, hi-hat-like ticks, 5.1 LFE = the low end below 100 Hz), speech (impulse-train
 voice through moving formant resonators, plosive and sibilant noise up to Nyquist), sparse (isolated bell-like
 strikes over silence or a faint floor), noise (bed only), bright (tonal notes whose partials reach Nyquist, for the
-decimation families).  Levels -30..-6 dBFS RMS, peaks <= 0.98.  Durations 3-5 s, a few 8-10 s (quick slice: 3 s).
+decimation families).  Levels -30..-6 dBFS RMS, peaks <= 0.98.  Durations 3-4.5 s, one in ten 8-10 s (quick slice: 3 s).
 
 CAUTION: the files hold loud, bright test material (naive oscillators, hard clipping and wave folding, full-strength
 images, noise up to Nyquist, levels up to -6 dBFS RMS).  Keep monitoring low if you listen, and never on
