@@ -189,7 +189,7 @@ def print_versions(stream=sys.stdout) -> dict:
         out = subprocess.run([LAME, "--version"], capture_output=True, text=True).stdout.splitlines()
         v["lame"] = out[0].strip() if out else "?"
     if _julius_ok():
-        out = subprocess.run([JULIUS_PYTHON, "-c", "import julius, torch; print(julius.__version__, torch.__version__)"],
+        out = subprocess.run([JULIUS_PYTHON, "-c", "from importlib.metadata import version as v; print(v('julius'), v('torch'))"],
                              capture_output=True, text=True).stdout.split()
         v["julius"], v["torch"] = (out + ["?", "?"])[:2]
     for k, val in v.items():
