@@ -13,7 +13,7 @@ group with the disputed key left out, or dropped.  Score it with
 Tool chains (none of them used by sets A, B, C or the tuning families).  ``print_versions()`` prints what is in use;
 built and checked with GStreamer 1.22.0 (Debian 12: gstreamer1.0-tools, -plugins-base, -plugins-good),
 zita-resampler 1.8.0 (``zita-resampler``, Debian package zita-resampler), LAME 3.100 (Debian package lame),
-julius 0.2.x on torch (PyPI, in a separate interpreter, see ``JULIUS_PYTHON``), numpy, scipy:
+julius 0.2.8 on torch 2.13.0+cpu (PyPI, in a separate interpreter, see ``JULIUS_PYTHON``), numpy 2.4, scipy 1.17:
     gst-kaiser-q<Q>            GStreamer ``audioresample resample-method=kaiser quality=Q`` (Q 0-10)
     gst-bnuttall-q<Q>          GStreamer ``audioresample resample-method=blackman-nuttall quality=Q``
     gst-cubic, gst-linear,     GStreamer ``audioresample`` with its cubic / linear / nearest methods (no real image
