@@ -749,7 +749,7 @@ def test_first_pass_settles_clean_material_and_keeps_the_verdict(rng, monkeypatc
 
 def test_first_pass_settles_noise_with_a_rare_untestable_note(rng, monkeypatch):
     """A noise bed with one short note (eight harmonics of 110 Hz falling as 1/k^2: nothing near Nyquist to
-    fold) placed on a frame of the first pass: notes show in one first-pass frame of 22, none testable, so the
+    fold) placed on a frame of the first pass: notes show in one first-pass frame of 11, none testable, so the
     first pass settles it (SETTLED_NOTE_FRAME_SHARE, house choice) with the verdict of reading every frame, not
     assessable (by construction of the settling rule)."""
     from corpus_sampling import ArrayStream
