@@ -152,7 +152,7 @@ TRACK_MAX_FALL_FRACTION = 0.42
 #: clean (cost; house choice).  FIRST_PASS_STRIDE is 12 since the tenth session (was 6): a file of 7 s or more
 #: then settles on 11 of its 128 polyphonic frames, 3 step frames and one steady-tone frame, with the settling
 #: rules unchanged; on the folded-content tuning corpus (seeds 1000 and 1001) found and false alarms stayed as
-#: they were with 6 (bench/sampling_split_s10cost.txt); on a 30 s file it takes about 0.08 of the core's CPU off
+#: they were with 6 (bench/sampling_split_s10cost.txt); on a 30 s file it takes about 0.1 of the core's CPU off
 #: the first pass.  The tracks keep 6: with 12 their 4 runs missed the reflection of a 1.5 s sweep generated past
 #: Nyquist, which the first pass then settled as clean
 FIRST_PASS_STRIDE = 12
