@@ -723,7 +723,7 @@ def test_phase_profile_and_agreement_by_construction():
 
 
 def test_first_pass_settles_clean_material_and_keeps_the_verdict(rng, monkeypatch):
-    """The first pass (every FIRST_PASS_STRIDE-th frame) settles a noise bed (no note, no sharp jump, no drop
+    """The first pass (every FIRST_PASS_STRIDE-th frame, TRACK_FIRST_PASS_STRIDE-th track run) settles a noise bed (no note, no sharp jump, no drop
     pattern) without analysing the rest, with the verdict of analysing every frame; tonal material keeps its
     verdict either way; a naive sawtooth is not settled and is found (by construction of the settling rule)."""
     from corpus_sampling import ArrayStream
@@ -743,13 +743,14 @@ def test_first_pass_settles_clean_material_and_keeps_the_verdict(rng, monkeypatc
     assert tones_verdict is not True
     assert run(saw) == (True, False)
     monkeypatch.setattr(al, "FIRST_PASS_STRIDE", 1)
+    monkeypatch.setattr(al, "TRACK_FIRST_PASS_STRIDE", 1)
     assert run(noise) == (None, False)
     assert run(tones) == (tones_verdict, False)
 
 
 def test_first_pass_settles_noise_with_a_rare_untestable_note(rng, monkeypatch):
     """A noise bed with one short note (eight harmonics of 110 Hz falling as 1/k^2: nothing near Nyquist to
-    fold) placed on a frame of the first pass: notes show in one first-pass frame of 22, none testable, so the
+    fold) placed on a frame of the first pass: notes show in one first-pass frame of 11, none testable, so the
     first pass settles it (SETTLED_NOTE_FRAME_SHARE, house choice) with the verdict of reading every frame, not
     assessable (by construction of the settling rule)."""
     from corpus_sampling import ArrayStream
@@ -773,6 +774,7 @@ def test_first_pass_settles_noise_with_a_rare_untestable_note(rng, monkeypatch):
     assert (verdict, settled) == (None, True)
     assert detail["reason"].startswith("not assessable: no note with fold positions")
     monkeypatch.setattr(al, "FIRST_PASS_STRIDE", 1)
+    monkeypatch.setattr(al, "TRACK_FIRST_PASS_STRIDE", 1)
     assert run(x)[:2] == (None, False)
 
 

@@ -73,10 +73,11 @@ Six complementary tests, each on a bounded number of frames spread over the file
    the same comb moved to other offsets, and the frames' evidence is pooled as the polyphonic test pools note
    instances.  A band-limited voice has no reflected grid.
 
-Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the grid test
-all of its frames) and keeps the rest; finish() analyses the rest only when that first pass does not
-settle the verdict as clean with margin (:meth:`AliasingAnalyzer._settled_clean`).  Clean material
-with no note instances, no sharp jump and no reflected partial costs about a sixth of the full analysis.
+Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the partial tracks
+every TRACK_FIRST_PASS_STRIDE-th run, the grid test all of its frames) and keeps the rest; finish() analyses
+the rest only when that first pass does not settle the verdict as clean with margin
+(:meth:`AliasingAnalyzer._settled_clean`).  Clean material with no note instances, no sharp jump and no
+reflected partial costs about a tenth of the full analysis.
 
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
@@ -145,10 +146,17 @@ MIN_REFLECTED_PARTIALS = 1
 TRACK_MAX_FALL_FRACTION = 0.42
 
 
-#: the first pass analyses every FIRST_PASS_STRIDE-th frame of each test (for the partial tracks, runs of
-#: TRACK_RUN consecutive pairs: a reflection is seen in the pairs just after the rising partial); the rest
-#: only when the first pass does not settle the verdict as clean (cost; house choice)
-FIRST_PASS_STRIDE = 6
+#: the first pass analyses every FIRST_PASS_STRIDE-th frame of the polyphonic, step and steady-tone tests, and
+#: every TRACK_FIRST_PASS_STRIDE-th run of TRACK_RUN consecutive pairs of the partial tracks (a reflection is seen
+#: in the pairs just after the rising partial); the rest only when the first pass does not settle the verdict as
+#: clean (cost; house choice).  FIRST_PASS_STRIDE is 12 since the tenth session (was 6): a file of 7 s or more
+#: then settles on 11 of its 128 polyphonic frames, 3 step frames and one steady-tone frame, with the settling
+#: rules unchanged; on the folded-content tuning corpus (seeds 1000 and 1001) found and false alarms stayed as
+#: they were with 6 (bench/sampling_split_s10cost.txt); on a 30 s file it takes about 0.1 of the core's CPU off
+#: the first pass.  The tracks keep 6: with 12 their 4 runs missed the reflection of a 1.5 s sweep generated past
+#: Nyquist, which the first pass then settled as clean
+FIRST_PASS_STRIDE = 12
+TRACK_FIRST_PASS_STRIDE = 6
 TRACK_RUN = 4
 #: the first pass settles a clean verdict only while the polyphonic rank z stays below this (house choice;
 #: with fewer than RANK_MIN_INSTANCES note instances it settles nothing: a 2:1 decimation of the tuning
@@ -1691,7 +1699,7 @@ class AliasingAnalyzer(Analyzer):
                    stride=GRID_FIRST_PASS_STRIDE if self.pick_grid.starts.size >= 2 * GRID_MIN_FRAMES else 1)
         for j, tr in enumerate(self.trackers):
             self._feed(f"track{j}", tr["picker"], block, lambda st, fr, _tr=tr: self._track(_tr, st, fr),
-                       run=TRACK_RUN)
+                       run=TRACK_RUN, stride=TRACK_FIRST_PASS_STRIDE)
 
     def _grid_stats(self):
         """The irregular-grid, drop-pattern and predicted-line tests on the grid frames analysed so far, a dict:

@@ -266,8 +266,8 @@ FRAMING_Z_RELATIVE = 0.2
 #: long frames checked for periodic material with folded partials (see :mod:`aliasing`): on such material
 #: a candidate that leaves a trace whose images do not explain the band above its Nyquist frequency
 #: (:data:`MIN_IMAGES_EXPLAINED_FRACTION`) is reported untestable, so that chance pairs of folded
-#: partials never name a source rate.  The frames are transformed while streaming and analysed only
-#: for a file with such a trace
+#: partials never name a source rate.  The frames are kept while streaming (float32 where that holds their
+#: samples exactly, as it does 24-bit PCM) and transformed and analysed only for a file with such a trace
 FOLD_CHECK_FRAMES = 8
 #: a sample-and-hold at any step (whole or fractional, any effective rate: rate reducers hold at steps such as
 #: 4.8 samples, an effective 10 kHz that is no standard rate) repeats each held value exactly, in runs of
@@ -663,7 +663,7 @@ class ImagingAnalyzer(Analyzer):
         self.win_tonal = _al.blackman_harris(self.n_tonal)
         self.pick_tonal = FramePicker(frame_starts(int(info.frames), self.n_tonal, FOLD_CHECK_FRAMES,
                                                    self.n_tonal // 2, seed=3), self.n_tonal, info.channels)
-        self._tonal_power = []
+        self._tonal_frames = []
         self._folded = None
         self._lines = {}
         self.n_controls = len(tuple(extra.get("control_offsets_bins", CONTROL_OFFSETS_BINS)))
@@ -707,9 +707,9 @@ class ImagingAnalyzer(Analyzer):
 
     def process(self, block) -> None:
         for _start, frame in self.pick_tonal.feed(block):
-            spec = np.fft.rfft(frame.T * self.win_tonal, axis=-1)
-            # analysed at finish, and only when a candidate leaves a trace (see FOLD_CHECK_FRAMES)
-            self._tonal_power.append(np.sum(spec.real ** 2 + spec.imag ** 2, axis=0))
+            # transformed and analysed at finish, and only when a candidate leaves a trace (see FOLD_CHECK_FRAMES)
+            narrow = np.asarray(frame, dtype=np.float32)
+            self._tonal_frames.append(narrow if np.array_equal(narrow, frame) else np.array(frame))
         got = list(self.picker.feed(block))
         if not got:
             return
@@ -919,7 +919,10 @@ class ImagingAnalyzer(Analyzer):
         analyzer's frame test), worked out once, at finish."""
         if self._folded is None:
             tonal = folded = 0
-            for power in self._tonal_power:
+            for frame in self._tonal_frames:
+                # (the frame's samples as they came, float64: the transform the stream would have made)
+                spec = np.fft.rfft(np.asarray(frame, dtype=np.float64).T * self.win_tonal, axis=-1)
+                power = np.sum(spec.real ** 2 + spec.imag ** 2, axis=0)
                 r = self._al.analyse_tonal_frame(power, self.fs / self.n_tonal, self.fs)
                 if r is None:
                     continue
