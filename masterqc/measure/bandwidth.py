@@ -673,6 +673,33 @@ def ends_short(cliff: dict, rate_hz: float, scale: int = 1) -> bool:
     return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ * scale
 
 
+#: a channel's cliff whose -6 dB point lies within this distance of the channel sum's is the same fall read twice
+#: (own reasoning: each reading moves by up to SMOOTH_HZ with the envelope's smoothing, so two readings of one
+#: fall differ by less than twice that; the validation cases that needed this read 3 and 18 Hz apart)
+SAME_FALL_HZ = 2.0 * SMOOTH_HZ
+
+
+def same_band_limit(mix: "BandwidthResult", channel: "BandwidthResult") -> bool:
+    """True when a channel's converter-cliff verdict is a fall the channel sum read as well, at full depth, and
+    judged a band limit: the sum does not hide that cliff, it explains it.
+
+    A channel converted up beside native ones is found on its own because the native channels fill the band in
+    the sum, so the sum shows no cliff there or a shallow one (its drop bounded by the native channels' share of
+    the power above the edge).  Where the sum falls at the same -6 dB point (within :data:`SAME_FALL_HZ`) at least
+    :data:`UPSAMPLED_MIN_DEPTH_DB` deep, every channel with content there ends in that fall, and the band-limit
+    rules that judged it on the sum (a Butterworth's slope, a coder's steps, a fall over short of the old
+    Nyquist, no rate's converter) judge the same fall on a channel; a channel read alone (half the material, a
+    noisier envelope) must not overrule them."""
+    if mix.band_limit_hz is None or mix.edge != "cliff" or mix.depth_db is None:
+        return False
+    if mix.depth_db < UPSAMPLED_MIN_DEPTH_DB:
+        return False
+    if channel.upsampled_from_hz is None or (channel.evidence or "cliff") != "cliff":
+        return False
+    edge = channel.effective_bandwidth_hz
+    return edge is not None and abs(float(edge) - float(mix.band_limit_hz)) <= SAME_FALL_HZ
+
+
 def transition_width_hz(cliff: dict) -> float:
     """A cliff's fall from -3 dB to -30 dB, Hz (compared with :data:`CONVERTER_MIN_WIDTH_RATIO`).
 
@@ -1065,7 +1092,8 @@ def assess(fe, info) -> BandwidthResult:
     channel is judged on its own too (:func:`assess_power` on its own long-term
     spectrum), so a master with one channel converted up and the others native is
     found: ``upsampled_channels`` lists the channels that read as upsampled, and the
-    file-level verdict takes their rate when the sum hides it.
+    file-level verdict takes their rate when the sum hides it (not where the sum reads the same
+    fall and judged it a band limit: :func:`same_band_limit`).
 
     When the whole file does not read as upsampled, its time segments are judged
     (:func:`assess_segments`), so an upsampled part of a file (a spliced intro) is
@@ -1129,6 +1157,10 @@ def assess(fe, info) -> BandwidthResult:
         for r in per_channel:
             if r is not out and r.upsampled_from_hz in (vetoed, vetoed_too) and (r.evidence or "cliff") == "cliff":
                 r.upsampled_from_hz = None
+    for r in per_channel:
+        if r is not out and same_band_limit(out, r):
+            # the sum read the same fall and judged it a band limit (see there)
+            r.upsampled_from_hz = None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
     if out.upsampled_from_hz is None and up_ch:
