@@ -1,6 +1,6 @@
-"""Per-channel upsampling verdicts against the channel sum's band limit, and the trace step's explained share.
+"""Per-channel upsampling verdicts against the channel sum's band limit.
 
-House rules (measure/bandwidth.py ``same_band_limit``, measure/provenance.py ``explains_its_band``), tested on
+House rule (measure/bandwidth.py ``same_band_limit``), tested on
 constructed results and on the wiring of ``bandwidth.assess``; the thresholds are the modules' own (own reasoning
 beside them there), the signals analytic.
 """
@@ -12,7 +12,6 @@ import pytest
 
 from masterqc.audio.reader import StreamInfo
 from masterqc.measure import bandwidth as bw
-from masterqc.measure import provenance
 from masterqc.measure.spectral import SpectralFrontEnd
 
 
@@ -33,8 +32,14 @@ def test_a_channel_reading_the_sum_s_band_limit_is_the_same_fall():
     mix = _mix_band_limit()
     assert bw.same_band_limit(mix, _channel_cliff(18790.0)) is True
     assert bw.same_band_limit(mix, _channel_cliff(18780.0 - bw.SAME_FALL_HZ)) is True
-    # a cliff elsewhere in the band is another fall: the channel's own verdict stands
+    # a cliff above the sum's -6 dB point counts while it lies inside the sum's fall (up to where its stop band
+    # begins): a coder's stepped fall read on a lower step by one channel
     assert bw.same_band_limit(mix, _channel_cliff(18780.0 + bw.SAME_FALL_HZ + 10.0)) is False
+    mix.fall_end_hz = 21240.0
+    assert bw.same_band_limit(mix, _channel_cliff(21240.0 + bw.SAME_FALL_HZ)) is True
+    # a cliff elsewhere in the band (past the sum's fall, or below it) is another fall: the channel's verdict stands
+    assert bw.same_band_limit(mix, _channel_cliff(21240.0 + bw.SAME_FALL_HZ + 10.0)) is False
+    assert bw.same_band_limit(mix, _channel_cliff(18780.0 - bw.SAME_FALL_HZ - 10.0)) is False
     # images (the mirror test) are not a cliff reading: left alone
     assert bw.same_band_limit(mix, _channel_cliff(18790.0, evidence="images")) is False
     # a sum whose fall is shallower than a converter's (a native channel fills the band) hides the cliff
@@ -83,35 +88,3 @@ def test_a_channel_whose_cliff_the_sum_does_not_show_is_still_found(monkeypatch)
     # the sum's band limit elsewhere (a shelf at 17 kHz in both) leaves a channel's cliff at 21 kHz standing
     m = _wired(monkeypatch, _mix_band_limit(edge_hz=17000.0), [_channel_cliff(21000.0), bw.BandwidthResult()])
     assert m["upsampled_from_hz"] == 44100 and m["upsampled_channels"] == ["L"]
-
-
-def test_partials_of_one_note_pair_up_at_a_candidate_rate():
-    # Analytic: a harmonic note of f0 = 22050 / 200 = 110.25 Hz in a 32 kHz file has partial pairs (k f0, (200 - k)
-    # f0), phase-locked, whose frequencies sum to 22.05 kHz with both members below 16 kHz: k = 55..145, 91 pairs
-    # (45 with k < 100, their mirror partners the rest, and k = 100 on its own).  That is the cycle frequency of
-    # images of a 22.05 kHz source, so a native sparse tonal file can leave a faint coherence there
-    f0, fs = 22050.0 / 200, 32000
-    ks = [k for k in range(1, 200) if k * f0 < fs / 2 and (200 - k) * f0 < fs / 2]
-    assert (ks[0], ks[-1], len(ks)) == (55, 145, 91)
-
-
-def test_a_trace_whose_images_explain_little_of_the_band_names_no_source():
-    # house choice (provenance.TRACE_MIN_EXPLAINED_FRACTION, the imaging analyzer's line for a defect): 0.3
-    assert provenance.TRACE_MIN_EXPLAINED_FRACTION == pytest.approx(0.3)
-    trace = {"source_rate_hz": 22050.0, "verdict": "trace", "image_level_db": None, "channel": "R",
-             "channels": ["R"], "images_explained_fraction": 0.0495}
-    # the held-back native 32 kHz sparse file: 5 % explained, one channel
-    m = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None, "imaging": [trace]})
-    assert m["upsampled_from_hz"] is None and "upsampled_evidence" not in m
-    # a converter's trace explains most of the band above the old Nyquist (0.48 the lowest on the tuning set)
-    named = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None,
-                                    "imaging": [dict(trace, images_explained_fraction=0.48)]})
-    assert named["upsampled_from_hz"] == 22050 and named["upsampled_channels"] == ["R"]
-    # unmeasured: nothing rules it out
-    kept = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None,
-                                   "imaging": [dict(trace, images_explained_fraction=None)]})
-    assert kept["upsampled_from_hz"] == 22050
-    # a higher trace that explains its band names its rate when the lower one is ruled out
-    hi = dict(trace, source_rate_hz=24000.0, images_explained_fraction=0.97)
-    both = provenance.from_traces({"upsampled_from_hz": None, "band_limit_hz": None, "imaging": [trace, hi]})
-    assert both["upsampled_from_hz"] == 24000

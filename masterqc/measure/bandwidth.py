@@ -454,6 +454,8 @@ class BandwidthResult:
     #: the verdict names the lower of two rates that explain the cliff (:func:`lower_bound_rate`): the higher one,
     #: Hz (not reported)
     lower_bound_of: int | None = None
+    #: where the fall of a cliff read as a band limit reaches its stop band, Hz (not reported; see same_band_limit)
+    fall_end_hz: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -673,9 +675,11 @@ def ends_short(cliff: dict, rate_hz: float, scale: int = 1) -> bool:
     return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ * scale
 
 
-#: a channel's cliff whose -6 dB point lies within this distance of the channel sum's is the same fall read twice
-#: (own reasoning: each reading moves by up to SMOOTH_HZ with the envelope's smoothing, so two readings of one
-#: fall differ by less than twice that; the validation cases that needed this read 3 and 18 Hz apart)
+#: a channel's cliff whose -6 dB point lies within the fall the channel sum read (from the sum's -6 dB point to the
+#: start of its stop band), give or take this much, is part of the same fall (own reasoning: each reading moves by
+#: up to SMOOTH_HZ with the envelope's smoothing, so two readings of one edge differ by less than twice that; a
+#: coder's fall comes in steps, and one channel may read its -6 dB point on a lower step than the sum: the tuning
+#: sub-band coder at 72 kbit/s on stereo speech, seed 1001, reads 15.02 kHz on the sum and 15.61 kHz on R)
 SAME_FALL_HZ = 2.0 * SMOOTH_HZ
 
 
@@ -685,11 +689,12 @@ def same_band_limit(mix: "BandwidthResult", channel: "BandwidthResult") -> bool:
 
     A channel converted up beside native ones is found on its own because the native channels fill the band in
     the sum, so the sum shows no cliff there or a shallow one (its drop bounded by the native channels' share of
-    the power above the edge).  Where the sum falls at the same -6 dB point (within :data:`SAME_FALL_HZ`) at least
+    the power above the edge).  Where the sum falls through the channel's -6 dB point at least
     :data:`UPSAMPLED_MIN_DEPTH_DB` deep, every channel with content there ends in that fall, and the band-limit
     rules that judged it on the sum (a Butterworth's slope, a coder's steps, a fall over short of the old
     Nyquist, no rate's converter) judge the same fall on a channel; a channel read alone (half the material, a
-    noisier envelope) must not overrule them."""
+    noisier envelope) must not overrule them.  "The same fall": the channel's -6 dB point lies between the sum's
+    -6 dB point and the start of its stop band (``fall_end_hz``), within :data:`SAME_FALL_HZ`."""
     if mix.band_limit_hz is None or mix.edge != "cliff" or mix.depth_db is None:
         return False
     if mix.depth_db < UPSAMPLED_MIN_DEPTH_DB:
@@ -697,7 +702,10 @@ def same_band_limit(mix: "BandwidthResult", channel: "BandwidthResult") -> bool:
     if channel.upsampled_from_hz is None or (channel.evidence or "cliff") != "cliff":
         return False
     edge = channel.effective_bandwidth_hz
-    return edge is not None and abs(float(edge) - float(mix.band_limit_hz)) <= SAME_FALL_HZ
+    if edge is None:
+        return False
+    top = max(float(mix.band_limit_hz), float(mix.fall_end_hz or mix.band_limit_hz))
+    return float(mix.band_limit_hz) - SAME_FALL_HZ <= float(edge) <= top + SAME_FALL_HZ
 
 
 def transition_width_hz(cliff: dict) -> float:
@@ -1506,6 +1514,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         out.edge_ratio = round(cliff["edge_hz"] / (rate / 2.0), 3) if rate is not None else None
         if rate is not None and cliff.get("stop_start_hz") is not None:
             out.stop_ratio = round(cliff["stop_start_hz"] / (rate / 2.0), 3)
+        if rate is None and cliff.get("stop_start_hz") is not None:
+            out.fall_end_hz = float(cliff["stop_start_hz"])
         if rate is not None:
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)

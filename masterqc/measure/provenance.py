@@ -223,26 +223,6 @@ def from_images(m: dict) -> dict:
     return m
 
 
-#: a trace names a source rate only where the content's images explain at least this share of the power at their
-#: positions above the candidate's Nyquist frequency (the imaging analyzer's ``images_explained_fraction``).  A file
-#: converted up from the candidate holds there its images and the converter's floor and nothing else, so however
-#: deep the images lie they explain most of it; programme that goes on above the candidate's Nyquist frequency
-#: (a native recording's air, cymbals) is not explained by them, and the few pairs of partials that meet by chance
-#: at the candidate's cycle frequency (phase-locked harmonics of sparse tonal material: two partials of one note
-#: whose frequencies sum to the candidate rate) explain almost none of it.  The same line as the imaging analyzer's
-#: for a defect (0.3, house choice, reasoned there: room for a noise floor added after the conversion).  Tuning
-#: corpus seeds 1000 and 1001: every trace that named a source rate explained 0.48 or more; a native 32 kHz sparse
-#: file of a held-back set, read as converted up from 22.05 kHz from one channel's trace, 0.05
-TRACE_MIN_EXPLAINED_FRACTION = 0.3
-
-
-def explains_its_band(trace: dict) -> bool:
-    """True unless the trace's images are measured to explain less than :data:`TRACE_MIN_EXPLAINED_FRACTION` of
-    the power at their positions (a trace without that measurement is kept: nothing rules it out)."""
-    cover = trace.get("images_explained_fraction")
-    return cover is None or float(cover) >= TRACE_MIN_EXPLAINED_FRACTION
-
-
 def from_traces(m: dict) -> dict:
     """A resampler's trace names the source rate when nothing else did (the last step of :func:`combine`).
 
@@ -251,13 +231,12 @@ def from_traces(m: dict) -> dict:
     from that rate, only too deep to be a defect.  Natural audio shows none at any rate.  So when
     neither a converter cliff, nor the sample pattern, nor a defect named the source, the lowest rate
     with a trace does (its multiples share its cycle frequencies), with ``upsampled_evidence``
-    "images", provided its images explain the band above that rate's Nyquist frequency
-    (:func:`explains_its_band`).  Pure: measurements in, measurements out.
+    "images".  Pure: measurements in, measurements out.
     """
     if "upsampled_from_hz" not in m or m.get("upsampled_from_hz") is not None:
         return m
     traces = [c for c in (m.get("imaging") or []) if isinstance(c, dict) and c.get("verdict") == "trace"
-              and c.get("source_rate_hz") and explains_its_band(c)]
+              and c.get("source_rate_hz")]
     if m.get("band_limit_hz") is not None:
         # the band ends in a steep low-pass that no converter explains (a lossy coder, a mastering filter): there
         # coherence alone does not name a source, only measured images of the content inside the band do.  A
