@@ -322,6 +322,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_band_limits(seed, quick))
     plan.extend(_plan_coder_walls(seed, quick))
     plan.extend(_plan_steep_and_low_narrow(seed, quick))
+    plan.extend(_plan_channel_band_limits(seed, quick))
     return plan
 
 
@@ -566,6 +567,8 @@ def _build(spec, rng, seconds):
         return build_coder_walls(spec, rng, seconds)
     if kind in ("steep", "lownarrow"):
         return build_steep_and_low_narrow(spec, rng, seconds)
+    if kind in ("chbutter", "chsub", "chdown", "chsparse"):
+        return build_channel_band_limits(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -1558,3 +1561,116 @@ def build_steep_and_low_narrow(spec, rng, seconds):
         conv = lambda v: upsample(v, src, dst, family)                # noqa: E731
     y = np.stack([conv(x[:, c]) for c in range(ch)], axis=1)
     return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+
+
+# ================================================================ band limits read on one channel (own section)
+# Negatives whose fall a channel read alone may take for a converter's, and the down-conversions and native sparse
+# tonal material of the kind a held-back set called upsampled.  Drawn from their own seeds (``own-seed`` specs), so
+# the cases above keep their noise; left out of the quick slice.  Tool families, all written here or from
+# scipy.signal:
+# - ``butter<N>-steep-48k``: single-pass Butterworth low-passes of order 10-12 at 18.5-19.5 kHz on stereo music at
+#   48 kHz (each channel its own material): the bilinear transform makes them as steep as a converter from
+#   44.1 kHz next to the file's Nyquist frequency, and one channel may read the fall as one;
+# - ``codec-subband-stereo``: the transform coder above with its 32 equal sub-bands (fs/64 each, as a polyphase
+#   sub-band coder's) at 64-96 kbit/s per channel on stereo speech and music at 48 kHz: its bit budget ends the band
+#   at a sub-band edge (multiples of 750 Hz, 15 kHz and 15.75 kHz among them, next to 16 kHz);
+# - ``down-kaiser-polyphase``: polyphase down-converters from 192 kHz to 48 and 96 kHz with a Kaiser-windowed sinc
+#   of 32 taps per phase (beta 9, -6 dB at 0.97 of the new Nyquist frequency) and of 256 taps per phase (beta 12,
+#   -6 dB at 0.91 of it), through :func:`downconvert`; the second's fall is a 44.1 / 88.2 kHz converter's
+#   (:func:`ambiguous_down`), so it goes to group "ambiguous-downconverted";
+# - ``native-sparse-tonal``: native stereo material at 32, 44.1 and 48 kHz of harmonic notes separated by rests
+#   (partials up to 0.97 of the Nyquist frequency, slight vibrato) with short noise bursts (:func:`sparse_tonal`).
+CHANNEL_BUTTER_CASES = ((10, 18500.0), (12, 19000.0), (11, 19500.0), (12, 18500.0), (10, 19000.0))
+SUBBAND_STEREO_KBPS = (64, 72, 80, 96)
+POLYPHASE_DOWN_DESIGNS = (("kaiser", 32, 0.97, 9.0), ("kaiser", 256, 0.91, 12.0))
+SPARSE_TONAL_RATES_HZ = (32000, 32000, 44100, 48000)
+
+
+def sparse_tonal(fs: int, seconds: float, rng) -> np.ndarray:
+    """Mono sparse tonal material at ``fs``: three voices of harmonic notes (fundamentals on a scale from 110 Hz,
+    one to three octaves up; partials to 0.97 of the Nyquist frequency, 1/k**p; vibrato 0-0.6 %; attack and
+    exponential decay) separated by rests, and a few short noise bursts (hi-hat-like air) over a faint floor;
+    unit RMS."""
+    n = int(round(fs * seconds))
+    t = np.arange(n) / fs
+    x = 1e-3 * _tilted_noise(n, fs, rng, -1.0)
+    root = 110.0 * 2 ** (int(rng.integers(0, 12)) / 12.0)
+    steps = np.array([0, 2, 4, 5, 7, 9, 11, 12, 14, 16, 19, 24])
+    for _voice in range(3):
+        start = float(rng.uniform(0.0, 0.3))
+        while start < seconds - 0.2:
+            dur = float(rng.uniform(0.2, 0.6))
+            if rng.random() < 0.5:
+                start += 1.5 * dur                 # a rest
+                continue
+            f0 = root * 2 ** (int(rng.choice(steps)) / 12.0) * 2 ** int(rng.integers(0, 3))
+            depth = float(rng.uniform(0.0, 0.006))
+            i0, m = int(start * fs), min(int(dur * fs), n - int(start * fs))
+            tt = t[:m]
+            phase = 2 * np.pi * f0 * np.cumsum(1.0 + depth * np.sin(2 * np.pi * rng.uniform(4.5, 6.5) * tt)) / fs
+            kmax = max(1, int(0.97 * fs / 2.0 / (f0 * (1.0 + depth))))
+            ks = np.arange(1, kmax + 1)
+            amps = ks.astype(float) ** -float(rng.uniform(0.5, 1.0))
+            ph = rng.uniform(0, 2 * np.pi, ks.size)
+            note = np.zeros(m)
+            for k, a, p in zip(ks, amps, ph):
+                note += a * np.sin(k * phase + p)
+            env = np.minimum(tt / 0.01, 1.0) * np.exp(-tt * float(rng.uniform(1.0, 4.0)))
+            x[i0:i0 + m] += note * env * float(rng.uniform(0.5, 1.0)) / max(np.std(note), 1e-12)
+            start += dur
+    for s in rng.integers(0, max(1, n - int(0.1 * fs)), 4):
+        m = int(rng.uniform(0.02, 0.06) * fs)
+        x[s:s + m] += 0.5 * _tilted_noise(m, fs, rng, -1.0) * np.hanning(m)
+    x = x - np.mean(x)
+    return x / max(np.sqrt(np.mean(x ** 2)), 1e-12)
+
+
+def _plan_channel_band_limits(seed: int, quick: bool):
+    """(name, family, group, spec) of the cases of this section (none in the quick slice)."""
+    if quick:
+        return []
+    rng = np.random.default_rng([int(seed), 53])
+    pick = _picker(rng)
+    plan = []
+    for order, corner in CHANNEL_BUTTER_CASES:
+        plan.append((f"chb_butter{order}_{corner / 1000:g}k_48000", f"butter{order}-steep-48k", "lowpass",
+                     ("chbutter", order, corner, float(rng.uniform(-24.0, -8.0)))))
+    for kbps in SUBBAND_STEREO_KBPS:
+        mat = pick(("speech", "speech", "music"))
+        plan.append((f"chb_subband_{kbps}k_48000_{mat}", "codec-subband-stereo", "codec-shelf",
+                     ("chsub", kbps, mat, float(rng.uniform(-24.0, -8.0)))))
+    for design in POLYPHASE_DOWN_DESIGNS:
+        for dst in (48000, 96000):
+            tag = f"k{design[1]}c{int(round(design[2] * 100))}b{design[3]:g}"
+            group = "ambiguous-downconverted" if ambiguous_down(192000, dst, design) else "downconverted"
+            plan.append((f"chb_down_{tag}_192000_to_{dst}", "down-kaiser-polyphase", group,
+                         ("chdown", dst, design, pick(("music", "hires", "hires")), float(rng.uniform(-24.0, -8.0)))))
+    for fs in SPARSE_TONAL_RATES_HZ:
+        plan.append((f"chb_native_sparse_tonal_{fs}_{len(plan)}", "native-sparse-tonal", "native",
+                     ("chsparse", fs, float(rng.uniform(-30.0, -10.0)))))
+    return [(name, fam, group, ("own-seed", [int(seed), 53, j], spec)) for j, (name, fam, group, spec) in enumerate(plan)]
+
+
+def build_channel_band_limits(spec, rng, seconds):
+    """Audio and labels of one case of :func:`_plan_channel_band_limits`."""
+    kind = spec[0]
+    neg = {"upsampled_from_hz": None, "upsampled_channels": []}
+    if kind == "chbutter":
+        _k, order, corner, level = spec
+        x = np.stack([material("music", 48000, seconds, rng) for _ in range(2)], axis=1)
+        y = sps.sosfilt(sps.butter(order, corner, fs=48000, output="sos"), x, axis=0)
+        return 48000, set_rms(y, level), neg, ["L", "R"]
+    if kind == "chsub":
+        _k, kbps, mat, level = spec
+        x = set_rms(np.stack([imaging_material(mat, 48000, seconds, rng) for _ in range(2)], axis=1), level)
+        y = np.stack([codec_roundtrip(x[:, c], 48000, kbps, rng, subband=True) for c in range(2)], axis=1)
+        return 48000, y, neg, ["L", "R"]
+    if kind == "chdown":
+        _k, dst, design, mat, level = spec
+        x = np.stack([down_material(mat, 192000, seconds, rng) for _ in range(2)], axis=1)
+        y = np.stack([downconvert(x[:, c], 192000, dst, design) for c in range(2)], axis=1)
+        expect = {} if ambiguous_down(192000, dst, design) else neg
+        return dst, set_rms(y, level), expect, ["L", "R"]
+    _k, fs, level = spec
+    x = np.stack([sparse_tonal(fs, seconds, rng) for _ in range(2)], axis=1)
+    return fs, set_rms(x, level), neg, ["L", "R"]

@@ -212,3 +212,47 @@ def test_layer3_like_coder_top_band_starts_at_the_standard_line():
     below = 10 * np.log10(np.median(p[(f > 8000.0) & (f < 12000.0)]))
     above = 10 * np.log10(np.median(p[(f > 18000.0) & (f < 21000.0)]))
     assert below - above > 60.0, (below, above)
+
+
+def test_long_polyphase_down_design_falls_where_a_44k1_converter_does():
+    # The 256-tap-per-phase Kaiser design (beta 12, cutoff 0.91 of the new Nyquist) from 192 kHz is -6.02 dB at
+    # 0.91 x 24 kHz = 21.84 kHz (analytic: a windowed sinc is one half at its cutoff; scipy freqz as the reference)
+    # and, its transition about 1.5 kHz wide (Kaiser's formula (A - 8) / (2.285 N) for A = 120 dB, N = 1024 taps
+    # at 192 kHz, from memory), 40 dB down by 22.3-22.6 kHz: 0.99 and 1.01-1.03 of 22.05 kHz, where a converter
+    # from 44.1 kHz puts its -6 dB point and its stop band.  So the corpus labels it ambiguous (house window,
+    # ambiguous_down), and the 32-tap design (beta 9, cutoff 0.97: -6 dB at 23.3 kHz) it does not.
+    from fractions import Fraction
+    long_design, short_design = ct.POLYPHASE_DOWN_DESIGNS[1], ct.POLYPHASE_DOWN_DESIGNS[0]
+    for dst in (48000, 96000):
+        h = ct.down_filter(192000, dst, long_design)
+        up = Fraction(dst, 192000).numerator
+        assert abs(_gain_db(h, 0.91 * dst / 2.0, 192000 * up) + 6.02) <= 0.3
+        old_nyquist = {48000: 22050.0, 96000: 44100.0}[dst]
+        assert _gain_db(h, 1.03 * old_nyquist, 192000 * up) <= -40.0
+        assert ct.ambiguous_down(192000, dst, long_design)
+        assert not ct.ambiguous_down(192000, dst, short_design)
+    groups = {n: g for n, _f, g, _s in ct._plan_channel_band_limits(1000, quick=False)}
+    assert groups["chb_down_k256c91b12_192000_to_48000"] == "ambiguous-downconverted"
+    assert groups["chb_down_k32c97b9_192000_to_48000"] == "downconverted"
+    assert ct._plan_channel_band_limits(1000, quick=True) == []
+
+
+def test_sub_band_coder_limits_sit_on_edges_of_32_equal_bands():
+    # A 32-band polyphase sub-band coder at 48 kHz splits 0-24 kHz into bands of 750 Hz (common practice, no
+    # source), so its band limit lies on a multiple of 750 Hz: 15.0 and 15.75 kHz next to 16 kHz (0.94 and 0.98 of
+    # it).  From memory: the fixed sub-band limits of the standard Layer II allocation tables at 48 kHz are 27 and 30
+    # bands (20.25 and 22.5 kHz) for the usual bit rates and 8 or 12 bands (6, 9 kHz) for the lowest, none near
+    # 16 kHz: a cliff near 16 kHz is the bit allocation leaving the upper bands empty, not the table's limit.
+    width_hz = 48000 / 2 / 32
+    assert width_hz == 750.0
+    assert [k * width_hz for k in (20, 21, 27, 30)] == [15000.0, 15750.0, 20250.0, 22500.0]
+    rng = np.random.default_rng(5)
+    x = ct.imaging_material("speech", 48000, 1.0, rng)
+    y = ct.codec_roundtrip(x, 48000, 72, rng, subband=True)
+    f, p = sps.welch(y, 48000, nperseg=4096)
+    db = 10.0 * np.log10(np.maximum(p, 1e-30))
+    top = float(np.max(db[(f > 2000.0) & (f < 8000.0)]))
+    above = f[db > top - 60.0]
+    # the top coded band ends on a band edge (within the Welch bin and the synthesis window's spread, 100 Hz)
+    edge = float(above.max())
+    assert min(abs(edge - k * width_hz) for k in range(1, 33)) <= 100.0

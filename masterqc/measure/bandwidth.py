@@ -454,6 +454,8 @@ class BandwidthResult:
     #: the verdict names the lower of two rates that explain the cliff (:func:`lower_bound_rate`): the higher one,
     #: Hz (not reported)
     lower_bound_of: int | None = None
+    #: where the fall of a cliff read as a band limit reaches its stop band, Hz (not reported; see same_band_limit)
+    fall_end_hz: float | None = None
 
     def measurements(self) -> dict:
         return {
@@ -671,6 +673,39 @@ def ends_short(cliff: dict, rate_hz: float, scale: int = 1) -> bool:
     if stop is None or edge is None or stop <= edge:
         return False
     return rate_hz / 2.0 - stop > CONVERTER_MAX_GAP_RATIO * (stop - edge) + 2.0 * SMOOTH_HZ * scale
+
+
+#: a channel's cliff whose -6 dB point lies within the fall the channel sum read (from the sum's -6 dB point to the
+#: start of its stop band), give or take this much, is part of the same fall (own reasoning: each reading moves by
+#: up to SMOOTH_HZ with the envelope's smoothing, so two readings of one edge differ by less than twice that; a
+#: coder's fall comes in steps, and one channel may read its -6 dB point on a lower step than the sum: the tuning
+#: sub-band coder at 72 kbit/s on stereo speech, seed 1001, reads 15.02 kHz on the sum and 15.61 kHz on R)
+SAME_FALL_HZ = 2.0 * SMOOTH_HZ
+
+
+def same_band_limit(mix: "BandwidthResult", channel: "BandwidthResult") -> bool:
+    """True when a channel's converter-cliff verdict is a fall the channel sum read as well, at full depth, and
+    judged a band limit: the sum does not hide that cliff, it explains it.
+
+    A channel converted up beside native ones is found on its own because the native channels fill the band in
+    the sum, so the sum shows no cliff there or a shallow one (its drop bounded by the native channels' share of
+    the power above the edge).  Where the sum falls through the channel's -6 dB point at least
+    :data:`UPSAMPLED_MIN_DEPTH_DB` deep, every channel with content there ends in that fall, and the band-limit
+    rules that judged it on the sum (a Butterworth's slope, a coder's steps, a fall over short of the old
+    Nyquist, no rate's converter) judge the same fall on a channel; a channel read alone (half the material, a
+    noisier envelope) must not overrule them.  "The same fall": the channel's -6 dB point lies between the sum's
+    -6 dB point and the start of its stop band (``fall_end_hz``), within :data:`SAME_FALL_HZ`."""
+    if mix.band_limit_hz is None or mix.edge != "cliff" or mix.depth_db is None:
+        return False
+    if mix.depth_db < UPSAMPLED_MIN_DEPTH_DB:
+        return False
+    if channel.upsampled_from_hz is None or (channel.evidence or "cliff") != "cliff":
+        return False
+    edge = channel.effective_bandwidth_hz
+    if edge is None:
+        return False
+    top = max(float(mix.band_limit_hz), float(mix.fall_end_hz or mix.band_limit_hz))
+    return float(mix.band_limit_hz) - SAME_FALL_HZ <= float(edge) <= top + SAME_FALL_HZ
 
 
 def transition_width_hz(cliff: dict) -> float:
@@ -1065,7 +1100,8 @@ def assess(fe, info) -> BandwidthResult:
     channel is judged on its own too (:func:`assess_power` on its own long-term
     spectrum), so a master with one channel converted up and the others native is
     found: ``upsampled_channels`` lists the channels that read as upsampled, and the
-    file-level verdict takes their rate when the sum hides it.
+    file-level verdict takes their rate when the sum hides it (not where the sum reads the same
+    fall and judged it a band limit: :func:`same_band_limit`).
 
     When the whole file does not read as upsampled, its time segments are judged
     (:func:`assess_segments`), so an upsampled part of a file (a spliced intro) is
@@ -1129,6 +1165,10 @@ def assess(fe, info) -> BandwidthResult:
         for r in per_channel:
             if r is not out and r.upsampled_from_hz in (vetoed, vetoed_too) and (r.evidence or "cliff") == "cliff":
                 r.upsampled_from_hz = None
+    for r in per_channel:
+        if r is not out and same_band_limit(out, r):
+            # the sum read the same fall and judged it a band limit (see there)
+            r.upsampled_from_hz = None
     up_ch = [labels[c] for c, r in enumerate(per_channel) if r.upsampled_from_hz is not None]
     testable_any = bool(out.settings.get("testable_hz")) or any(r.settings.get("testable_hz") for r in per_channel)
     if out.upsampled_from_hz is None and up_ch:
@@ -1474,6 +1514,8 @@ def assess_power(total, bin_hz: float, fs: float, frame_length: int, info, frame
         out.edge_ratio = round(cliff["edge_hz"] / (rate / 2.0), 3) if rate is not None else None
         if rate is not None and cliff.get("stop_start_hz") is not None:
             out.stop_ratio = round(cliff["stop_start_hz"] / (rate / 2.0), 3)
+        if rate is None and cliff.get("stop_start_hz") is not None:
+            out.fall_end_hz = float(cliff["stop_start_hz"])
         if rate is not None:
             c_depth = min(1.0, (cliff["drop_db"] - 30.0) / 30.0)
             c_slope = min(1.0, cliff["slope_db_per_khz"] / 15.0)
