@@ -1221,7 +1221,8 @@ def test_sparse_partials_over_bursts_converted_up_are_found(src, dst, minimum):
     r = assess(y, dst)
     assert r.upsampled_from_hz == src, r.note
     assert r.edge == "cliff"
-    # a converter's -6 dB point lies at 0.75-1.04 of the old Nyquist (bandwidth.EDGE_RATIO_RANGE, own reasoning)
+    # a converter's -6 dB point lies at 0.75-1.04 of the old Nyquist (bandwidth.EDGE_RATIO_RANGE, house choice
+    # from the resampler designs, see DEVELOPERS.md); the source rate by construction
     assert 0.75 * src / 2 <= r.effective_bandwidth_hz <= 1.04 * src / 2
 
 
