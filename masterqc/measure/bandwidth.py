@@ -1360,6 +1360,56 @@ def coder_steps(env_db, bin_hz: float, edge_hz: float, stop_start_hz: float, pas
     return (k0 + int(hit[0])) * bin_hz, float(mid[hit[0]])
 
 
+#: the floor under a sparse harmonic series: the spectrum morphologically *opened* over this width, Hz (running
+#: min, then running max: the partials, narrower than the gaps between them, are cut away and the level between
+#: them kept).  Own reasoning: the same width the envelope is closed over (CLOSING_HZ), so the partials of tones
+#: with f0 up to about 1 kHz, which the closing joined into a false "broadband" envelope, are what is removed
+FLOOR_OPENING_HZ = CLOSING_HZ
+#: the floor between the partials must fall at least this far across the cliff (from below its edge to its stop
+#: band), dB: the depth a converter cliff needs anyway (UPSAMPLED_MIN_DEPTH_DB, own reasoning).  Where broadband
+#: content under the partials (noise, bursts, the tails of percussion) ends in the same cliff, the cliff is seen
+#: on broadband content and is not merely the end of a harmonic series; a harmonic series that simply ends has
+#: the same floor between its partials as above its last one
+FLOOR_MIN_DROP_DB = UPSAMPLED_MIN_DEPTH_DB
+
+
+def partial_floor_db(power, bin_hz: float) -> np.ndarray:
+    """The level between the partials (dB): the power spectrum opened over :data:`FLOOR_OPENING_HZ`, then smoothed
+    over :data:`SMOOTH_HZ`."""
+    level = _db(power)
+    w = max(3, int(round(FLOOR_OPENING_HZ / bin_hz)) | 1)
+    opened = maximum_filter1d(minimum_filter1d(level, w, mode="nearest"), w, mode="nearest")
+    s = max(1, int(round(SMOOTH_HZ / bin_hz)))
+    return uniform_filter1d(opened, s, mode="nearest")
+
+
+def floor_shares_cliff(power, bin_hz: float, cliff: dict, scale: int, top_bin: int, fmt_floor_db: float):
+    """``(shares, drop_db)``: does the broadband floor between a sparse series' partials fall in the same cliff?
+
+    ``cliff`` on the scale of the search (``scale``; ``edge_bin`` and ``stop_start_hz`` on that scale, ``top_bin``
+    in real bins).  The floor (:func:`partial_floor_db`) is read below the edge over the window the tonal test reads
+    (:data:`PASS_WINDOW_HZ` start to :data:`PRE_WINDOW_HZ` end, median) and above the start of the stop band over
+    the cliff search's stop-window width (90th percentile, as the search reads a stop level): it must fall at least
+    :data:`FLOOR_MIN_DROP_DB` there, from a level that stands :data:`CLIFF_MIN_DROP_DB` + :data:`ABOVE_FLOOR_DB`
+    above the format's floor (as a cliff's pass band must, see ``_judge_cliff``)."""
+    fl = partial_floor_db(power, bin_hz)
+    e_hz = cliff["edge_bin"] * bin_hz            # the search position, in real hertz
+    a = max(0, _bins(e_hz + PASS_WINDOW_HZ[0] / scale, bin_hz))
+    z = _bins(e_hz + PRE_WINDOW_HZ[1] / scale, bin_hz)
+    stop_hz = cliff.get("stop_start_hz")
+    if stop_hz is None or z <= a:
+        return False, None
+    sa = _bins(stop_hz / scale, bin_hz)
+    sz = min(top_bin, sa + _bins((POST_WINDOW_HZ[1] - POST_WINDOW_HZ[0]) / scale, bin_hz))
+    if sz - sa < 10:
+        return False, None
+    below = float(np.median(fl[a:z]))
+    above = float(np.percentile(fl[sa:sz], 90))
+    drop = below - above
+    ok = drop >= FLOOR_MIN_DROP_DB and below >= fmt_floor_db + CLIFF_MIN_DROP_DB + ABOVE_FLOOR_DB
+    return ok, round(drop, 1)
+
+
 def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     """One cliff search at frequency scale ``scale``: ``(cliff, rate, position score, tonal)``.
 
@@ -1379,6 +1429,12 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
     a, z = max(0, cliff["edge_bin"] + _bins(PASS_WINDOW_HZ[0], b)), cliff["edge_bin"] + _bins(PRE_WINDOW_HZ[1], b)
     gap = _db(total[a:z]) - env[a:z]
     tonal = float(np.median(gap)) < -BROADBAND_GAP_DB if z > a else False
+    if tonal:
+        shares, _drop_db = floor_shares_cliff(total, bin_hz, cliff, scale, top, floor)
+        if shares:
+            # broadband content under the partials ends in the same cliff: judged as a cliff, not as tonal material
+            tonal = False
+            cliff["floor_cliff"] = True
     fine = None
 
     def leaks(r_scaled):
