@@ -466,8 +466,9 @@ class _Parted(_Quick):
 @pytest.mark.parametrize("threads", [1, 2, 3])
 def test_finish_parts_run_before_finish_with_the_same_results(tmp_path, threads):
     # An analyzer's finish_parts() (the engine takes them on any worker after the analyzer's last
-    # block, its finish() after the last of them) gives the results of a sequential run: every part
-    # sees every block, finish() runs once, after them; results in the analyzers' order.
+    # block, its finish() after the last of them) gives the results of a sequential run (house rule:
+    # threads change no result): every part sees every block, finish() runs once, after them; results
+    # in the analyzers' order.  10 blocks by construction: 48000 frames in 4800-frame blocks.
     path = tmp_path / "prog.wav"
     sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
     _Slow.events = []
