@@ -425,3 +425,75 @@ def test_lanes_feed_every_analyzer_every_block(tmp_path, threads):
                                 classes=[_Quick, _Costly, _Quick2])
     assert m == {"quick_blocks": 10, "costly_blocks": 10, "quick2_blocks": 10}
     assert list(m) == ["quick_blocks", "costly_blocks", "quick2_blocks"]    # the analyzers' order
+
+
+class _Parted(_Quick):
+    """Splits its finish into parts (finish_parts); finish() merges what they left, in a fixed order."""
+
+    name = "parted"
+    fail_part = False
+
+    def __init__(self, info, options):
+        super().__init__(info, options)
+        self.taken = False
+        self.done: dict = {}
+
+    def finish_parts(self):
+        import threading
+        self.taken = True
+
+        def part(key):
+            def run():
+                import time
+                time.sleep(0.02)
+                if type(self).fail_part and key == "b":
+                    raise RuntimeError("part failed")
+                self.done[key] = (self.blocks, threading.current_thread().name)
+            return run
+        return [part(k) for k in ("a", "b", "c")]
+
+    def finish(self):
+        split_by_engine = self.taken
+        if not self.taken:            # not split by the engine: the parts here, in order
+            for p in self.finish_parts():
+                p()
+        _Slow.events.append("parted finish")
+        return AnalyzerResult(measurements={"parted": {k: self.done[k][0] for k in sorted(self.done)}},
+                              settings={"threads": sorted({t for _b, t in self.done.values()}),
+                                        "split_by_engine": split_by_engine})
+
+
+@pytest.mark.parametrize("threads", [1, 2, 3])
+def test_finish_parts_run_before_finish_with_the_same_results(tmp_path, threads):
+    # An analyzer's finish_parts() (the engine takes them on any worker after the analyzer's last
+    # block, its finish() after the last of them) gives the results of a sequential run (house rule:
+    # threads change no result): every part sees every block, finish() runs once, after them; results
+    # in the analyzers' order.  10 blocks by construction: 48000 frames in 4800-frame blocks.
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    _Slow.events = []
+    _Parted.fail_part = False
+    with open_stream(str(path)) as stream:
+        m, _, s = run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
+                                classes=[_Slow, _Parted, _Quick])
+    assert list(m) == ["slow_key", "parted", "quick_blocks"]
+    assert m["parted"] == {"a": 10, "b": 10, "c": 10}      # 48000 frames in 4800-frame blocks
+    assert _Slow.events.count("parted finish") == 1
+    # threaded: the engine took the parts (an early finish); sequential: finish() ran them itself
+    assert s["parted"]["split_by_engine"] is (threads > 1)
+    if threads == 1:
+        assert s["parted"]["threads"] == ["MainThread"]
+
+
+@pytest.mark.parametrize("threads", [1, 2])
+def test_finish_part_error_reaches_the_caller(tmp_path, threads):
+    path = tmp_path / "prog.wav"
+    sf.write(str(path), _programme(1.0), FS, subtype="PCM_16")
+    _Parted.fail_part = True
+    try:
+        with open_stream(str(path)) as stream:
+            with pytest.raises(RuntimeError, match="part failed"):
+                run_analyzers(stream, MeasureOptions(threads=threads, block_frames=4800),
+                              classes=[_Slow, _Parted])
+    finally:
+        _Parted.fail_part = False

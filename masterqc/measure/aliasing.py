@@ -1641,6 +1641,7 @@ class AliasingAnalyzer(Analyzer):
         self.deferred = []   # (test, start, frame) kept for finish()
         self.first_pass_settled = False
         self._grid_memo = None
+        self._parts_taken = False   # finish_parts() has been called (by the engine, or by finish())
 
     # ---- frame analyses (one frame each); every FIRST_PASS_STRIDE-th frame (spread over the file; for the
     # partial tracks every such run of TRACK_RUN consecutive pairs, which the reflection test needs)
@@ -1815,15 +1816,43 @@ class AliasingAnalyzer(Analyzer):
                 return False
         return True
 
-    def _finish_deferred(self) -> None:
+    def finish_parts(self) -> list:
+        """The kept frames' analyses as independent tasks, taken after the last block and before
+        :meth:`finish` (the engine may run them on several threads at once): one per test, each
+        analysing its own kept frames in stream order into that test's own list (the grid test's
+        task also computes its statistics, which :meth:`finish` reads), so the lists are those of
+        one sequential pass.  Empty when the first pass settles the verdict as clean."""
         self.first_pass_settled = bool(self.deferred) and self._settled_clean()
+        deferred, self.deferred = self.deferred, []
+        self._parts_taken = True
+        if self.first_pass_settled:
+            return []
+        # the costliest first, so that two threads end together (measured on a 10-minute programme, CPU:
+        # polyphonic 0.032 s, partial tracks 0.026 s, grid statistics 0.018 s, tonal 0.010 s, steps 0.006 s)
+        kept: dict = {key: [] for key in ("poly", *(f"track{j}" for j in range(len(self.trackers))), "grid",
+                                          "tonal", "step")}
+        for key, start, frame in deferred:
+            kept.setdefault(key, []).append((start, frame))
+        return [functools.partial(self._analyse_kept, key, frames) for key, frames in kept.items()
+                if frames or key == "grid"]
+
+    def _analyse_kept(self, key: str, frames) -> None:
+        if key.startswith("track"):
+            tr = self.trackers[int(key[5:])]
+            for start, frame in frames:
+                self._track(tr, start, frame)
+            return
+        analyse = {"tonal": self._tonal, "poly": self._poly, "step": self._step, "grid": self._grid}[key]
+        for start, frame in frames:
+            analyse(start, frame)
+        if key == "grid":
+            self._grid_stats()
+
+    def _finish_deferred(self) -> None:
+        if not self._parts_taken:
+            for part in self.finish_parts():
+                part()
         if not self.first_pass_settled:
-            for key, start, frame in self.deferred:
-                if key.startswith("track"):
-                    tr = self.trackers[int(key[5:])]
-                    self._track(tr, start, frame)
-                else:
-                    {"tonal": self._tonal, "poly": self._poly, "step": self._step, "grid": self._grid}[key](start, frame)
             self.frames.sort(key=lambda t: t[0])
             self.poly.sort(key=lambda t: t[0])
             self.steps.sort(key=lambda t: t[0])

@@ -62,6 +62,13 @@ class Analyzer:
     makes that copy once per block, on its reader thread, for every analyzer that asks, so
     none transposes the block itself.  Planar blocks are always the cleaned ones
     (``raw_input`` must then be False).  :meth:`process` keeps taking (frames, channels).
+
+    Optional ``finish_parts()``: an analyzer whose :meth:`finish` has independent pieces of work
+    (each writing only state no other piece reads) may return them as a list of callables; a
+    threaded engine calls it once after the analyzer's last block, when it is finished early
+    (it keeps :meth:`bind` as it is), runs the parts on any of its threads, several at once, and
+    calls :meth:`finish` after the last of them.  :meth:`finish` must also work when nobody
+    called ``finish_parts()`` (a sequential run), and give the same results either way.
     """
 
     name: str = "analyzer"

@@ -218,7 +218,8 @@ def run_analyzers(stream, options: MeasureOptions, progress=None, classes=None, 
         if threads == 1 or not analyzers:
             _run_sequential(stream, info, options, analyzers, progress, thread_cpu)
         else:
-            finished = _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu).run()
+            finished = _BlockScheduler(stream, info, options, analyzers, threads, progress, thread_cpu,
+                                       cpu_split).run()
         measurements, series, settings = _collect(analyzers, finished)
     for step in post_steps():
         measurements = step(measurements)
@@ -299,12 +300,18 @@ class _BlockScheduler:
     has taken the last block, while slower lanes still take theirs (its finish() reads only its
     own state, and no peer changes that state); the others are finished afterwards, in order, by
     :func:`_collect`, when every early finish is done, as before.  Results are collected in the
-    analyzers' order whoever finished them, so they are those of a sequential run.
+    analyzers' order whoever finished them, so they are those of a sequential run.  An early
+    finish with parts (:class:`Analyzer <masterqc.measure.base.Analyzer>`'s optional
+    ``finish_parts()``) is taken in two steps: the worker that takes it calls ``finish_parts()``
+    and queues the parts, which any free worker takes (after the lanes' blocks, before other
+    finishes), and the analyzer's finish() is free to take once the last of them is done, so
+    a long finish (aliasing's kept frames) no longer runs on one core while the other waits.
     """
 
-    def __init__(self, stream, info, options, analyzers, threads, progress, thread_cpu=None):
+    def __init__(self, stream, info, options, analyzers, threads, progress, thread_cpu=None, cpu_split=None):
         self.stream, self.info, self.options = stream, info, options
         self.thread_cpu = thread_cpu           # opt-in: CPU seconds per kind of thread
+        self.cpu_split = cpu_split             # opt-in: CPU seconds per analyzer (_time_analyzers)
         self.analyzers = analyzers
         self.threads = threads
         self.progress = progress
@@ -332,6 +339,13 @@ class _BlockScheduler:
         self.finished: list = [None] * len(analyzers)     # its AnalyzerResult, or the exception
         self.finishing = [False] * len(analyzers)         # taken by a worker (or done)
         self.finish_done = [False] * len(analyzers)
+        # an early finish in parts (the analyzer's finish_parts(), then finish()): the parts not yet
+        # taken, (analyzer index, part), and per analyzer whether it was split and its parts still
+        # queued or running; its finish() waits for the last of them
+        self.parts: list[tuple] = []
+        self.split = [getattr(a, "finish_parts", None) is None for a in analyzers]
+        self.parts_open = [0] * len(analyzers)
+        self.part_error: list = [None] * len(analyzers)
 
     def _wake_all(self) -> None:
         self.space.notify_all()
@@ -438,6 +452,8 @@ class _BlockScheduler:
                 best = j
         if best is not None:
             return best, True
+        if self.parts:
+            return self.parts.pop(0), None
         for i in range(len(self.analyzers)):
             if self._can_finish(i):
                 return i, False
@@ -446,16 +462,16 @@ class _BlockScheduler:
     def _can_finish(self, i: int) -> bool:
         j = self.lane_of[i]
         return (self.early[i] and not self.finishing[i] and not self.busy[j] and self.read_done
-                and self.next[j] >= self.read_count)
+                and self.next[j] >= self.read_count and self.parts_open[i] == 0)
 
     def _ready_count(self) -> int:
         ready = sum(1 for j in range(len(self.lanes)) if not self.busy[j] and self.next[j] < self.read_count)
         if self.read_done:                     # early finishes wait for the end of the stream
-            ready += sum(1 for i in range(len(self.analyzers)) if self._can_finish(i))
+            ready += len(self.parts) + sum(1 for i in range(len(self.analyzers)) if self._can_finish(i))
         return ready
 
     def _finished(self) -> bool:
-        return (self.read_done and self.low >= self.read_count
+        return (self.read_done and self.low >= self.read_count and not self.parts
                 and all(self.finish_done[i] for i in range(len(self.analyzers)) if self.early[i]))
 
     def _block_done(self, j: int, k: int) -> None:
@@ -501,7 +517,7 @@ class _BlockScheduler:
                         self.busy[x] = True
                         k = self.next[x]
                         prepared = self.blocks[k]
-                    else:
+                    elif is_block is False:
                         self.finishing[x] = True
                     if self._ready_count() > 0:    # this thread has one; another one may take the next
                         self.work.notify()
@@ -510,8 +526,14 @@ class _BlockScheduler:
                 for frames in pending:
                     self.progress(frames, self.info.frames)
                 continue
+            if is_block is None:
+                self._run_part(*x)
+                continue
             if not is_block:
-                self._finish_one(x, self.analyzers[x])
+                if not self.split[x]:
+                    self._split_finish(x, self.analyzers[x])
+                else:
+                    self._finish_one(x, self.analyzers[x])
                 continue
             i = None
             try:
@@ -527,11 +549,62 @@ class _BlockScheduler:
                 prepared = None
             done = (x, k)
 
+    def _split_finish(self, i: int, a) -> None:
+        """Take analyzer ``i``'s finish_parts() on this worker and queue its parts for any worker;
+        its finish() is taken once the last part is done (at once when there are none).  An error
+        of finish_parts() or of a part is its result, raised by :func:`_collect` in order."""
+        started = time.thread_time()
+        try:
+            parts = list(a.finish_parts() or ())
+        except BaseException as exc:          # noqa: BLE001 - raised by _collect, in order
+            parts, error = [], exc
+        else:
+            error = None
+        spent = time.thread_time() - started
+        with self.lock:
+            self._add_finish_cpu(i, spent)
+            self.split[i] = True
+            self.part_error[i] = error
+            self.parts.extend((i, part) for part in parts)
+            self.parts_open[i] = len(parts)
+            self.finishing[i] = False          # finish() itself, when its parts are done
+            if self._ready_count() > 0:
+                self.work.notify_all()
+                self.main.notify()
+
+    def _add_finish_cpu(self, i: int, spent: float) -> None:
+        """CPU seconds of analyzer ``i``'s finish_parts() or of one of its parts (under the lock): in
+        "finish_s" and, with a CPU split, in its finish() entry."""
+        if self.thread_cpu is not None:
+            self.thread_cpu["finish_s"] = self.thread_cpu.get("finish_s", 0.0) + spent
+        if self.cpu_split is not None:
+            self.cpu_split[type(self.analyzers[i]).__name__][1] += spent
+
+    def _run_part(self, i: int, part) -> None:
+        """One part of analyzer ``i``'s early finish (see :meth:`_split_finish`)."""
+        started = time.thread_time()
+        error = None
+        try:
+            part()
+        except BaseException as exc:          # noqa: BLE001 - raised by _collect, in order
+            error = exc
+        spent = time.thread_time() - started
+        with self.lock:
+            self._add_finish_cpu(i, spent)
+            if error is not None and self.part_error[i] is None:
+                self.part_error[i] = error
+            self.parts_open[i] -= 1
+            if self.parts_open[i] == 0 and self._can_finish(i):
+                self.work.notify()
+                self.main.notify()
+
     def _finish_one(self, i: int, a) -> None:
         """finish() analyzer ``i`` on this worker; its result, or its exception, is kept for
         :func:`_collect` (which raises the first one in the analyzers' order)."""
         started = time.thread_time()
         try:
+            if self.part_error[i] is not None:
+                raise self.part_error[i]
             done = a.finish()
         except BaseException as exc:          # noqa: BLE001 - raised by _collect, in order
             done = exc
