@@ -1104,7 +1104,7 @@ def _zone_one_comb(fs: float, f0: float):
 def test_a_naive_sawtooths_fold_comb_rises_towards_nyquist_and_is_kept():
     """Analytic: a sawtooth's partial k has amplitude 1/k (its Fourier series); sampled without band-limiting, the
     partial k*f0 in (fs/2, fs) folds to fs - k*f0, so the fold at a higher position comes from a lower order and is
-    stronger.  Such a comb is never set aside, whatever its lines' scatter below the 10 dB margin."""
+    stronger.  Such a comb is never read as unreflected, whatever its lines' scatter below the 10 dB margin."""
     fs, f0 = 96000.0, 523.25
     k, pos = _zone_one_comb(fs, f0)
     power = 1.0 / k.astype(float) ** 2
@@ -1116,7 +1116,7 @@ def test_a_naive_sawtooths_fold_comb_rises_towards_nyquist_and_is_kept():
     assert al.falls_as_unreflected(pos, power * scatter, lines, np.ones(k.size, dtype=bool)) is False
 
 
-def test_a_series_that_falls_like_a_voices_own_partials_is_set_aside():
+def test_a_series_that_falls_like_a_voices_own_partials_is_no_evidence():
     """Analytic: the same positions holding a voice's own lines (a 1/n spectrum read at its own frequency, power
     (f0/position)^2, as a ring modulator's sideband grid or an octave's odd harmonics are) fall by far more than
     FOLD_TREND_MAX_FALL_DB over the comb: no folding puts them there (the first zone's folds rise, previous test)."""
@@ -1128,7 +1128,7 @@ def test_a_series_that_falls_like_a_voices_own_partials_is_set_aside():
     assert fall_db > 3 * al.FOLD_TREND_MAX_FALL_DB
     assert al.falls_as_unreflected(pos, power, lines, np.ones(k.size, dtype=bool)) is True
     # positions without a line, or outside the first fold zone, do not count: with three lines left (fewer than
-    # NOTE_MIN_PEAKS) nothing is set aside
+    # NOTE_MIN_PEAKS) nothing is read as unreflected
     few = np.zeros(k.size, dtype=bool)
     few[:al.NOTE_MIN_PEAKS - 1] = True
     assert al.falls_as_unreflected(pos, power, few, np.ones(k.size, dtype=bool)) is False
