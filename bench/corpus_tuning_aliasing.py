@@ -538,6 +538,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     yield from mono_drop_cases(seed, quick)
     # added: two-operator FM, ring modulators and crushed holds at fractional steps, with twins (own streams)
     yield from fm_ring_crush_cases(seed, quick)
+    yield from additive_ring_cases(seed, quick)
+    yield from poly_fm_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -1061,3 +1063,142 @@ def fm_ring_crush_cases(seed: int, quick: bool = False) -> Iterator[Case]:
         yield _case(stem, "crush-hold", "decimation", fs, crush_hold(x, h, bits), {"aliasing_detected": True})
         yield _case(f"band-limited-{stem}", "fft-band-limit", "filtered-decimation", fs, twin,
                     {"aliasing_detected": False})
+
+
+# ---------------------------------------------------------------- additive ring modulators at high rates
+#: a sawtooth at f0 (vibrato, envelope) times a sine carrier at fc of its own (not tied to f0): the product's lines
+#: sit at k*f0 - fc and k*f0 + fc.  Rendered naive (the product evaluated per sample: the sawtooth's partials past
+#: Nyquist fold) and additive (each sideband k*f0 -+ fc summed only where it stays below 0.99 of Nyquist over the
+#: whole note: band-limited).  At 88.2 and 96 kHz a note's harmonic grid and its sideband grid (offset fc modulo
+#: f0) sit where the note's fold comb (offset fs modulo f0) can land, which a fold test must not read as folding.
+#: Entries: (rate, voices, f0 range Hz, carrier range Hz or ("ratio", carrier-to-note ratios): a carrier keyed to
+#: the note, whose sidebands then fall on the harmonics of f0 or midway between them), and optionally the dry
+#: share mixed back in (a ring modulator's dry/wet control: the sawtooth's own harmonics beside the sidebands; with
+#: a carrier at an odd multiple of f0/2 the mix is a harmonic series of f0/2 whose even members dominate).
+ADDITIVE_RINGS = ((96000, 2, (480.0, 1200.0), (300.0, 3000.0)), (88200, 2, (441.0, 1200.0), (300.0, 3000.0)),
+                  (96000, 1, (600.0, 2000.0), (300.0, 3000.0)), (48000, 3, (240.0, 1200.0), (300.0, 3000.0)),
+                  (88200, 1, (300.0, 900.0), (500.0, 2500.0)), (96000, 3, (300.0, 1000.0), (300.0, 3000.0)),
+                  (96000, 2, (480.0, 1200.0), ("ratio", (0.5, 1.5, 2.5))),
+                  (88200, 2, (441.0, 1200.0), ("ratio", (1.5, 2.5, 3.5))),
+                  (96000, 1, (400.0, 1000.0), ("ratio", (1.0, 2.0, 3.0))),
+                  (48000, 2, (300.0, 1200.0), ("ratio", (0.5, 1.5, 2.0))),
+                  (96000, 2, (480.0, 1200.0), ("ratio", (0.5, 1.5)), 0.5),
+                  (88200, 2, (441.0, 1200.0), ("ratio", (0.5, 1.5, 2.5)), 0.6),
+                  (96000, 1, (300.0, 800.0), ("ratio", (0.5,)), 0.4),
+                  (96000, 2, (480.0, 1200.0), (300.0, 3000.0), 0.5))
+ADDITIVE_RING_QUICK = ()   # not in the quick slice (its bytes and the tests' time unchanged)
+
+
+def additive_ring_voice(f_range, fc_range, seconds: float, fs: int, state: int, dry: float = 0.0):
+    """One voice of sawtooth-times-sine ring modulation at ``fs``: ``(naive, additive)`` renderings of the same
+    notes (see :data:`ADDITIVE_RINGS`).  The sawtooth 2 frac(ph) - 1 = -(2/pi) sum_k sin(2 pi k ph)/k; times
+    sin(2 pi fc t) each partial gives (a_k/2) [cos(2 pi (k ph - fc t)) - cos(2 pi (k ph + fc t))], and the additive
+    rendering keeps a sideband only while its instantaneous frequency stays below 0.99 of Nyquist."""
+    rng = np.random.default_rng(state)
+    n = int(seconds * fs)
+    naive, addi = np.zeros(n), np.zeros(n)
+    nyq = fs / 2.0
+    for pos, length, f0 in voices(seconds, fs, rng, 1, *f_range):
+        f_inst = pitch_track(f0, length, fs, rng)
+        env = adsr(length, fs, rng)
+        ph = rng.uniform(0, 1) + np.cumsum(f_inst) / fs
+        if fc_range[0] == "ratio":   # a carrier keyed to the note at a fixed ratio (detuned by up to 1 %)
+            fc = f0 * float(rng.choice(fc_range[1])) * rng.uniform(0.99, 1.01)
+        else:
+            fc = float(np.exp(rng.uniform(math.log(fc_range[0]), math.log(fc_range[1]))))
+        t = np.arange(length) / fs
+        carrier = np.exp(2j * math.pi * (fc * t + rng.uniform(0, 1)))
+        gain = rng.uniform(0.5, 1.0) * env
+        naive[pos:pos + length] += gain * (2.0 * np.mod(ph, 1.0) - 1.0) * (dry + (1.0 - dry) * carrier.imag)
+        z1 = np.exp(2j * math.pi * np.mod(ph, 1.0))
+        zk = z1.copy()
+        f_hi = float(np.max(f_inst))
+        y = np.zeros(length)
+        k = 1
+        while k * float(np.min(f_inst)) - fc < 0.99 * nyq:
+            a = -(2.0 / math.pi) / k
+            if dry and k * f_hi < 0.99 * nyq:
+                y += dry * a * zk.imag
+            if k * f_hi - fc < 0.99 * nyq and k * float(np.min(f_inst)) - fc > -0.99 * nyq:
+                y += (1.0 - dry) * 0.5 * a * np.real(zk * np.conj(carrier))
+            if k * f_hi + fc < 0.99 * nyq:
+                y -= (1.0 - dry) * 0.5 * a * np.real(zk * carrier)
+            zk *= z1
+            k += 1
+        addi[pos:pos + length] += gain * y
+    return naive, addi
+
+
+def additive_ring_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The voices of :data:`ADDITIVE_RINGS`: naive (group ``naive-synth``, family ``naive-ring-hi``, True, only where
+    the naive rendering differs from the additive one by at least :data:`MODULATION_MIN_FOLDED_DB` of its power)
+    and additive (group ``band-limited-synth``, family ``additive-ring``, False), 5 s each over a quiet noise bed,
+    RMS -30..-8 dBFS, mono; own random streams."""
+    seconds = 5.0
+    for j in (ADDITIVE_RING_QUICK if quick else range(len(ADDITIVE_RINGS))):
+        fs, n_voices, f_range, fc_range = ADDITIVE_RINGS[j][:4]
+        dry = ADDITIVE_RINGS[j][4] if len(ADDITIVE_RINGS[j]) > 4 else 0.0
+        sub = np.random.default_rng([seed, 31000 + j])
+        states = [int(sub.integers(1 << 62)) for _ in range(n_voices)]
+        pairs = [additive_ring_voice(f_range, fc_range, seconds, fs, s, dry) for s in states]
+        x = sum(a for a, _b in pairs)
+        y = sum(b for _a, b in pairs)
+        fold_db = 10 * math.log10(max(float(np.sum((x - y) ** 2)), 1e-300) / max(float(np.sum(y ** 2)), 1e-300))
+        bed = 10 ** (-sub.uniform(45, 65) / 20) * float(np.sqrt(np.mean(y ** 2))) * pink(x.size, sub)
+        level = sub.uniform(-30, -8)
+        stem = f"ring-add-{n_voices}v-{fs // 100}-{seed}-{j}"
+        if fold_db >= MODULATION_MIN_FOLDED_DB:
+            yield _case(f"naive-{stem}", "naive-ring-hi", "naive-synth", fs, x + bed, {"aliasing_detected": True},
+                        rms_dbfs=level)
+        yield _case(f"additive-{stem}", "additive-ring", "band-limited-synth", fs, y + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)
+
+
+# ---------------------------------------------------------------- polyphonic two-operator FM
+#: several FM voices at once (as :data:`FM_VOICES`, but each note with its own modulator ratio and an index that
+#: decays from its peak to 40 % of it, as a quick synthesiser's patch with an index envelope does): up to four grids
+#: of different spacings overlap in a frame, so the strongest one carries a small share of the lines.  Entries:
+#: (rate, voices, carrier range Hz, ratio range, peak index range).
+POLY_FM_VOICES = ((48000, 4, (300.0, 2000.0), (1.3, 3.7), (2.0, 7.0)), (44100, 3, (300.0, 2000.0), (1.3, 3.7), (2.0, 7.0)),
+                  (48000, 3, (600.0, 2000.0), (1.3, 3.7), (2.0, 7.0)), (44100, 4, (300.0, 1200.0), (1.3, 3.7), (2.0, 7.0)))
+POLY_FM_QUICK = ()   # not in the quick slice (its bytes and the tests' time unchanged)
+
+
+def poly_fm_voice(fc_range, ratio_range, index_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
+    """One voice of :data:`POLY_FM_VOICES` at ``fs * over`` samples per second (the random stream ``state`` fixes
+    every choice, so the naive and the oversampled renderings hold the same notes)."""
+    def tone(ph, env, rng):
+        ratio = rng.uniform(*ratio_range)
+        peak = rng.uniform(*index_range)
+        decay_s = rng.uniform(0.4, 2.0)
+        t = np.arange(ph.size) / (fs * over)
+        index = peak * (0.4 + 0.6 * np.exp(-t / decay_s))
+        return np.sin(2 * math.pi * ph + index * np.sin(2 * math.pi * (ratio * ph + rng.uniform(0, 1))))
+    return _voice_notes(fc_range, seconds, fs, over, state, tone)
+
+
+def poly_fm_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+    """The voices of :data:`POLY_FM_VOICES`, naive (``naive-synth``, family ``naive-fm-poly``, True where the 8x
+    rendering holds at least :data:`MODULATION_MIN_FOLDED_DB` of its power above Nyquist) and rendered at 8x and cut
+    at Nyquist in the FFT domain (``band-limited-synth``, family ``oversampled-fm``, False); 5 s each over a quiet
+    noise bed, RMS -30..-8 dBFS, mono; own random streams."""
+    seconds = 5.0
+    over = MODULATION_OVERSAMPLING
+    for j in (POLY_FM_QUICK if quick else range(len(POLY_FM_VOICES))):
+        fs, n_voices, fc_range, r_range, i_range = POLY_FM_VOICES[j]
+        sub = np.random.default_rng([seed, 32000 + j])
+        states = [int(sub.integers(1 << 62)) for _ in range(n_voices)]
+        x = sum(poly_fm_voice(fc_range, r_range, i_range, seconds, fs, 1, s) for s in states)
+        y_over = sum(poly_fm_voice(fc_range, r_range, i_range, seconds, fs, over, s) for s in states)
+        y = band_limit_down(y_over, over)
+        spec = np.abs(np.fft.rfft(y_over)) ** 2
+        above_db = 10 * math.log10(max(float(spec[spec.size // over:].sum()), 1e-300) / float(spec.sum()))
+        del y_over, spec
+        bed = 10 ** (-sub.uniform(45, 65) / 20) * float(np.sqrt(np.mean(y ** 2))) * pink(x.size, sub)
+        level = sub.uniform(-30, -8)
+        stem = f"fm-poly-{n_voices}v-{fs // 100}-{seed}-{j}"
+        if above_db >= MODULATION_MIN_FOLDED_DB:
+            yield _case(f"naive-{stem}", "naive-fm-poly", "naive-synth", fs, x + bed, {"aliasing_detected": True},
+                        rms_dbfs=level)
+        yield _case(f"band-limited-{stem}", "oversampled-fm", "band-limited-synth", fs, y + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)

@@ -1091,3 +1091,63 @@ def test_resample_polys_own_filter_folds_past_0_58_fs_at_least_52_db_down(f_rel,
     amp_n = np.abs(np.fft.rfft(naive * np.hanning(naive.size))) / (0.25 * naive.size)
     assert 20 * math.log10(float(amp_n[int(round(folded * naive.size / fs_out))])) == pytest.approx(0.0, abs=0.05)
     assert al.TRACK_MAX_FALL_FRACTION <= 1 - 0.58 < al.POLY_TOP_FRACTION
+
+
+# ---------------------------------------------------------------- fold combs that fall with frequency
+def _zone_one_comb(fs: float, f0: float):
+    """Orders k of a note at ``f0`` whose partial k*f0 lies in the first fold zone (fs/2 < k*f0 < fs) and folds
+    below 0.45 fs, with the fold positions fs - k*f0."""
+    k = np.arange(int(fs / 2 / f0) + 1, int(fs / f0) + 1)
+    pos = fs - k * f0
+    keep = (pos < al.POLY_TOP_FRACTION * fs) & (pos > 0)
+    return k[keep], pos[keep]
+
+
+def test_a_naive_sawtooths_fold_comb_rises_towards_nyquist_and_is_kept():
+    """Analytic: a sawtooth's partial k has amplitude 1/k (its Fourier series); sampled without band-limiting, the
+    partial k*f0 in (fs/2, fs) folds to fs - k*f0, so the fold at a higher position comes from a lower order and is
+    stronger.  Such a comb is never read as unreflected, whatever its lines' scatter below the 10 dB margin."""
+    fs, f0 = 96000.0, 523.25
+    k, pos = _zone_one_comb(fs, f0)
+    power = 1.0 / k.astype(float) ** 2
+    lines = np.ones(k.size, dtype=bool)
+    assert 10.0 * np.log10(power[np.argmax(pos)] / power[np.argmin(pos)]) > 5.0   # rises by more than 5 dB
+    assert al.falls_as_unreflected(pos, power, lines, np.ones(k.size, dtype=bool)) is False
+    # a scatter of +-4 dB around the rising trend (own choice of spread) still passes
+    scatter = np.where(np.arange(k.size) % 2 == 0, 10 ** 0.4, 10 ** -0.4)
+    assert al.falls_as_unreflected(pos, power * scatter, lines, np.ones(k.size, dtype=bool)) is False
+
+
+def test_a_series_that_falls_like_a_voices_own_partials_is_no_evidence():
+    """Analytic: the same positions holding a voice's own lines (a 1/n spectrum read at its own frequency, power
+    (f0/position)^2, as a ring modulator's sideband grid or an octave's odd harmonics are) fall by far more than
+    FOLD_TREND_MAX_FALL_DB over the comb: no folding puts them there (the first zone's folds rise, previous test)."""
+    fs, f0 = 96000.0, 523.25
+    k, pos = _zone_one_comb(fs, f0)
+    power = (f0 / pos) ** 2
+    lines = np.ones(k.size, dtype=bool)
+    fall_db = 10.0 * np.log10(power[np.argmin(pos)] / power[np.argmax(pos)])
+    assert fall_db > 3 * al.FOLD_TREND_MAX_FALL_DB
+    assert al.falls_as_unreflected(pos, power, lines, np.ones(k.size, dtype=bool)) is True
+    # positions without a line, or outside the first fold zone, do not count: with three lines left (fewer than
+    # NOTE_MIN_PEAKS) nothing is read as unreflected
+    few = np.zeros(k.size, dtype=bool)
+    few[:al.NOTE_MIN_PEAKS - 1] = True
+    assert al.falls_as_unreflected(pos, power, few, np.ones(k.size, dtype=bool)) is False
+    assert al.falls_as_unreflected(pos, power, lines, np.zeros(k.size, dtype=bool)) is False
+
+
+def test_a_naive_sawtooth_whose_folds_land_midway_between_its_harmonics_stays_evident():
+    """A naive sawtooth at 96 kHz with f0 = fs/183.5: its first-zone folds fs - k*f0 = (183.5 - k)*f0 sit exactly
+    midway between its harmonics, where an octave's odd harmonics or a ring modulator's sidebands could also sit.
+    One 50 ms frame (Hann window, the polyphonic test's frame): the note instance is tested and its comb stands
+    above every control, with the trend rule in place (the folds rise towards Nyquist as 1/k)."""
+    fs = 96000
+    n = fs // 20
+    f0 = fs / 183.5
+    t = np.arange(n) / fs
+    x = 2.0 * np.mod(f0 * t + 0.1, 1.0) - 1.0 + 1e-6 * np.random.default_rng(2).standard_normal(n)
+    spec = np.fft.rfft(x * np.hanning(n))
+    r = al.polyphonic_fold_frame(spec.real ** 2 + spec.imag ** 2, fs / n, fs)
+    assert r is not None and r["instances"] == 1 and r["evident"] == 1
+    assert abs(r["evident_f0_hz"][0] - f0) < 0.5

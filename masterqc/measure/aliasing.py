@@ -29,7 +29,9 @@ Six complementary tests, each on a bounded number of frames spread over the file
    sync) in chords and tonal music decimated without a filter; a vibrato smears the
    high fold orders within a frame and weakens the evidence.  Folds landing in the top
    10 % of the band are not tested (a proper decimation filter's transition band may
-   reach there).
+   reach there).  A comb whose lines fall with frequency over the first fold zone is no evidence
+   (:func:`falls_as_unreflected`): folds there come from partials at fs - f, so they rise towards
+   Nyquist; a falling comb is a series the voice holds below Nyquist (a ring modulator's sidebands).
 
 2. **Alias-to-harmonic ratio on steady tones** (frames of fs/5 samples, 5 Hz
    bins, 4-term Blackman-Harris window; :func:`masterqc.measure.frames.analyse_tonal_frame`).
@@ -71,7 +73,8 @@ Six complementary tests, each on a bounded number of frames spread over the file
    Each frame's strongest such grid is found from the spacings between its strongest lines and refined by least
    squares; the reflected comb (below 0.45 fs, lines from 50 dB under the grid's strongest up) is read against
    the same comb moved to other offsets, and the frames' evidence is pooled as the polyphonic test pools note
-   instances.  A band-limited voice has no reflected grid.
+   instances; a reflected comb whose lines fall with frequency is no evidence, as in test 1.  A band-limited voice
+   has no reflected grid.
 
 Cost: each test analyses every FIRST_PASS_STRIDE-th of its frames as they stream past (the partial tracks
 every TRACK_FIRST_PASS_STRIDE-th run, the grid test all of its frames) and keeps the rest; finish() analyses
@@ -253,6 +256,38 @@ MIN_EVIDENT_SHARE = 0.45
 #: ... and at least this many times the count expected by chance, plus 1 (own reasoning: the
 #: chance count assumes independent positions; native mixes reach up to about 2 times it)
 CHANCE_FACTOR = 2.0
+#: a fold comb whose lines fall with frequency is an unreflected series, not folds.  Where a partial at
+#: fs - f folds to f (the first fold zone, which holds the strongest folds), its source frequency falls as f
+#: rises: for any source spectrum that falls with frequency (a naive waveform's 1/k, an FM voice's sidebands past
+#: its bandwidth, music) the folds rise towards Nyquist, by 5 dB or more over the band for a 1/k spectrum (its
+#: source at 0.55 fs against fs).  A comb whose lines instead fall with frequency, as a voice's own partials and
+#: sidebands do, is read off lines the voice holds below Nyquist at the fold offsets (a ring modulator's sideband
+#: grid, or the odd harmonics of f0/2 when the note found is their octave), which no folding explains.  Such a comb
+#: (at least NOTE_MIN_PEAKS lines in the first fold zone, standing POLY_LINE_DB over the floor) whose least-squares
+#: level falls by more than FOLD_TREND_MAX_FALL_DB from its lowest to its highest line is no evidence: its instance
+#: is still counted (instances, chance) but never evident, and its rank among the controls counts at most at 1/2,
+#: the no-folding mean, so that the rule can only take evidence away (setting such instances aside altogether
+#: raised the evident share of a band-limited ring modulator of the tuning set over MIN_EVIDENT_SHARE).  Own
+#: reasoning (a rising comb passes whatever its slope; 10 dB leaves room for the scatter of line levels read at
+#: 20 Hz resolution around a flat or rising trend)
+FOLD_TREND_MAX_FALL_DB = 10.0
+
+
+def falls_as_unreflected(pos_hz: np.ndarray, power: np.ndarray, lines: np.ndarray, first_zone: np.ndarray) -> bool:
+    """Whether a fold comb reads an unreflected series (see :data:`FOLD_TREND_MAX_FALL_DB`): ``pos_hz`` the comb's
+    positions, ``power`` the power read there, ``lines`` where a line stands out, ``first_zone`` where the fold's
+    source is fs - position."""
+    use = lines & first_zone
+    if int(use.sum()) < NOTE_MIN_PEAKS:
+        return False
+    x = pos_hz[use]
+    span = float(x.max() - x.min())
+    if span <= 0:
+        return False
+    y = 10.0 * np.log10(np.maximum(power[use], 1e-300))
+    xc = x - x.mean()
+    slope = float(np.sum(xc * (y - y.mean())) / np.sum(xc * xc))
+    return -slope * span > FOLD_TREND_MAX_FALL_DB
 
 
 def _nearest_distance(sorted_hz: np.ndarray, f_hz: np.ndarray):
@@ -407,6 +442,10 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
         if int(ok.sum()) < MIN_CLEAR_FOLDS:
             continue
         lv_true, ib = mean_level(base, tol, ok)
+        half_t = np.clip(np.ceil(tol[ok] / bin_hz - 0.5).astype(np.int64), 0, 2)
+        pw_true = np.max(np.stack([np.where(np.abs(o) <= half_t, power[np.clip(ib + o, 0, power.size - 1)], 0.0)
+                                   for o in range(-2, 3)]), axis=0)
+        unreflected = falls_as_unreflected(base[ok], pw_true, lv_true >= POLY_LINE_DB, k[ok] * f0 < fs)
         # controls: the fold comb moved to other offsets from the harmonic grid, away from the
         # grid and from every offset a fold zone of this note occupies
         offsets = np.unique(np.round(frac[ok], 3))
@@ -443,9 +482,11 @@ def polyphonic_fold_frame(power: np.ndarray, bin_hz: float, fs: float):
         # not only those that beat every control
         cl = np.asarray(controls)
         rank = (float(np.sum(cl < l_true)) + 0.5 * float(np.sum(cl == l_true))) / cl.size
+        if unreflected:   # no evidence: counted, never evident, its rank at most the no-folding mean
+            rank = min(rank, 0.5)
         out["rank_sum"] += rank
         out["rank_var"] += (cl.size + 2.0) / (12.0 * cl.size)
-        if l_true > max(controls) and l_true - float(np.median(controls)) >= FOLD_LEVEL_EXCESS_DB:
+        if not unreflected and l_true > max(controls) and l_true - float(np.median(controls)) >= FOLD_LEVEL_EXCESS_DB:
             out["evident"] += 1
             out["evident_f0_hz"].append(f0)
             out["alias_power"] += float(np.sum(power[ib[lv_true >= POLY_LINE_DB]]))
@@ -651,30 +692,32 @@ def reflected_grid_frame(freqs_hz, powers, power, level_max, harm, harm_unc, bin
         half = np.clip(np.ceil(tol / bin_hz - 0.5).astype(np.int64), 0, 2)
         ib = np.clip(np.round(pos / bin_hz).astype(np.int64), 0, level.size - 1)
         if not pos.size:
-            return np.zeros(0), ib
+            return np.zeros(0), ib, pos, np.zeros(0)
         lv = np.clip(np.choose(half, [lm[ib] for lm in level_max]), 0.0, 40.0)
         # lines weaker than a proper decimation filter's stop band leaves count as nothing
         top_pw = np.max(np.stack([np.where(np.abs(o) <= half, power[np.clip(ib + o, 0, power.size - 1)], 0.0)
                                   for o in range(-2, 3)]), axis=0)
-        return np.where(top_pw >= weak, lv, 0.0), ib
+        return np.where(top_pw >= weak, lv, 0.0), ib, pos, top_pw
 
-    lv_true, ib_true = comb(refl)
+    lv_true, ib_true, pos_true, pw_true = comb(refl)
     if lv_true.size < MIN_CLEAR_FOLDS:
         return None
+    # every reflected position is in the first fold zone (its source at fs - position)
+    unreflected = falls_as_unreflected(pos_true, pw_true, lv_true >= POLY_LINE_DB, np.ones(pos_true.size, dtype=bool))
     refs = np.concatenate([nat, refl])
     controls = []
     for s in CONTROL_SHIFTS:
         moved = np.mod(refl + s * sp, sp)
         if np.any(_circ(moved[:, None], refs[None, :], sp) < guard):
             continue
-        lv, _ib = comb(moved)
+        lv = comb(moved)[0]
         if lv.size >= MIN_CLEAR_FOLDS:
             controls.append(float(np.mean(lv)))
     if len(controls) < MIN_CONTROLS:
         return None
     return {"tested": int(lv_true.size), "controls": controls, "level_db": float(np.mean(lv_true)),
             "line_bins": ib_true[lv_true >= POLY_LINE_DB], "grid_power": float(np.sum(powers[matched])),
-            "spacing_hz": sp, "offset_hz": float(np.mod(p, sp))}
+            "spacing_hz": sp, "offset_hz": float(np.mod(p, sp)), "unreflected": unreflected}
 
 
 def _grid_summary(grid, power: np.ndarray) -> dict:
@@ -688,10 +731,13 @@ def _grid_summary(grid, power: np.ndarray) -> dict:
         return out
     cl = np.asarray(grid["controls"])
     lt = grid["level_db"]
+    rank = (float(np.sum(cl < lt)) + 0.5 * float(np.sum(cl == lt))) / cl.size
+    unreflected = bool(grid.get("unreflected"))
+    if unreflected:   # no evidence (falls_as_unreflected): never evident, its rank at most the no-folding mean
+        rank = min(rank, 0.5)
     out.update(grid_instances=1, grid_chance=1.0 / (cl.size + 1), grid_tested=grid["tested"],
-               grid_rank_sum=(float(np.sum(cl < lt)) + 0.5 * float(np.sum(cl == lt))) / cl.size,
-               grid_rank_var=(cl.size + 2.0) / (12.0 * cl.size), grid_power=grid["grid_power"])
-    if lt > float(cl.max()) and lt - float(np.median(cl)) >= FOLD_LEVEL_EXCESS_DB:
+               grid_rank_sum=rank, grid_rank_var=(cl.size + 2.0) / (12.0 * cl.size), grid_power=grid["grid_power"])
+    if not unreflected and lt > float(cl.max()) and lt - float(np.median(cl)) >= FOLD_LEVEL_EXCESS_DB:
         out["grid_evident"] = 1
         out["grid_alias_power"] = float(np.sum(power[grid["line_bins"]]))
     return out
