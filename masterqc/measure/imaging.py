@@ -1590,6 +1590,7 @@ class ImagingAnalyzer(Analyzer):
                     and folded[1] >= max(FOLDED_Z, FOLDED_CONTROL_RELATIVE * folded[2]):
                 f_level, f_z, f_ctrl = folded
                 base["verdict"] = "defect"
+                base["folded"] = True
                 base["image_level_db"] = round(f_level, 2)
                 base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} folded back onto the programme "
                                   f"(at the content's frequency + {(self.fs - rate) / 1000:g} kHz) at {f_level:.1f} dB "
@@ -1674,6 +1675,19 @@ class ImagingAnalyzer(Analyzer):
                 traces if best[1]["verdict"] == "trace" else []
             best[1]["evidence"] = "spectrum"
             out.append(best[1])
+        # a folded defect at a multiple of a lower candidate that leaves a trace or a defect is that rate's images of a
+        # higher order (an upsampler from r is coherent at every k r; the second-order images of a converter from
+        # 44.1 kHz in a 96 kHz file fold like the first images of an 88.2 kHz source): the lower rate explains it
+        for a in out:
+            if a.pop("folded", False):
+                for b in out:
+                    k = a["source_rate_hz"] / b["source_rate_hz"]
+                    if k >= 2 - 1e-9 and abs(k - round(k)) < 1e-9 and b["verdict"] in ("trace", "defect"):
+                        a.update(verdict="trace", image_level_db=None,
+                                 reason=(f"coherent images folded back onto the programme, but {a['source_rate_hz'] / 1000:g} "
+                                         f"kHz is a multiple of {b['source_rate_hz'] / 1000:g} kHz, whose images "
+                                         f"({b['verdict']}) explain them"))
+                        break
         out = self._with_pattern(out)
         out = self._with_hold(out)
         out = self._with_nearest_phase(out)
