@@ -40,6 +40,11 @@ kernel's continuous response against the same line (:func:`kernel_image_level_db
 (``own-nearest-phase``: no imaging label, their error is jitter-like, see the imaging analyzer's docs); sample-and-hold
 rate reducers with fractional steps (``own-fractional-hold``, True) with the native material as twin.
 
+Stream converters at small ratios (group ``folded-stream``, families ``own-stream-folded-<kernel>``): windowed sincs
+of 8-16 taps and 6-point Lagrange at 44.1 -> 48, 88.2 -> 96, 22.05 -> 24 and 32 -> 44.1 kHz, where the first images
+of the inner band's content fold back onto the programme; labelled from the kernel's continuous response, each
+with a long-design twin (False).
+
 Listening caution: test material at up to -8 dBFS RMS with full-band noise and percussive bursts;
 turn the monitoring level down before playing any of it.
 """
@@ -558,6 +563,59 @@ def _poly_cases(seed: int, quick: bool):
             yield up.tuning_case(cname, fam, group, rate, audio, expect, labels, seed, rng)
 
 
+# ================================================================ stream converters at small ratios (written here)
+# Windowed sincs of 8-16 taps evaluated at each output instant (:func:`stream_convert`) at ratios whose first images of
+# the inner band's content lie beyond the file's Nyquist frequency and fold back onto the programme (44.1 -> 48,
+# 88.2 -> 96, 22.05 -> 24 kHz; images of content at f at ``f + fs - r``), and 32 -> 44.1 kHz for contrast; group
+# ``folded-stream``, families ``own-stream-folded-<kernel>``, labelled from the kernel's continuous response against
+# the house line (:func:`kernel_image_level_db`), each with a long-design twin (64 taps per phase, Kaiser beta 12, -6 dB
+# at 0.95 of the source Nyquist frequency, False).
+
+#: kernels of the small-ratio stream converters: (name, taps, kind, parameter)
+FOLDED_KERNELS = (("wsinc8-kaiser", 8, "kaiser", 6.0), ("wsinc8-hann", 8, "hann", None),
+                  ("wsinc12-kaiser", 12, "kaiser", 5.0), ("wsinc16-hann", 16, "hann", None),
+                  ("lagrange6", 6, "lagrange", None), ("wsinc16-kaiser", 16, "kaiser", 8.0))
+FOLDED_CONVERSIONS = ((44100, 48000), (88200, 96000), (22050, 24000), (32000, 44100))
+
+
+def _folded_plan(seed: int, quick: bool):
+    rng = np.random.default_rng([int(seed), 59])
+    plan = []
+    for i, (name, taps, kind, param) in enumerate(FOLDED_KERNELS if not quick else FOLDED_KERNELS[:2]):
+        for rep in range(2 if not quick else 1):
+            src, dst = FOLDED_CONVERSIONS[(i + rep) % len(FOLDED_CONVERSIONS)] if rep == 0 else \
+                FOLDED_CONVERSIONS[int(rng.integers(0, len(FOLDED_CONVERSIONS)))]
+            mat = FIR_MATERIALS[int(rng.integers(0, len(FIR_MATERIALS)))]
+            plan.append((src, dst, kind, taps, param, mat, [1, 2][int(rng.integers(0, 2))],
+                         float(rng.uniform(-30.0, -8.0)), f"folded_{name}_{src}_to_{dst}_{mat}", name))
+    return plan
+
+
+def _folded_cases(seed: int, quick: bool):
+    """The small-ratio stream converters (see above) with their long-design twins."""
+    seconds = 2.0 if quick else 4.0
+    for i, (src, dst, kk, taps, param, mat, ch, level, name, kname) in enumerate(_folded_plan(seed, quick)):
+        rng = np.random.default_rng([int(seed), 61, i])
+        x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+        y = np.stack([stream_convert(x[:, c], src, dst, kk, taps, param) for c in range(ch)], axis=1)
+        lvl = kernel_image_level_db(kk, taps, param, src, x)
+        expect = {"upsampled_from_hz": src}
+        if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
+            expect["imaging_detected"] = True
+        elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
+            expect["imaging_detected"] = False
+        fr = Fraction(dst, src)
+        m = max(fr.numerator, fr.denominator)
+        h = sps.firwin(2 * 32 * m + 1, 0.95 / m, window=("kaiser", 12.0))
+        twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator, window=h) for c in range(ch)], axis=1)
+        full = f"{name}_img{lvl:.0f}db"
+        for cname, fam, group, audio, exp in (
+                (full, f"own-stream-folded-{kname}", "folded-stream", y, expect),
+                (f"{full}_twin", "scipy-resample_poly-kaiser12-long", "good-resampler", twin,
+                 {"upsampled_from_hz": src, "imaging_detected": False})):
+            yield up.tuning_case(cname, fam, group, dst, audio, exp, up.default_labels(ch), seed, rng)
+
+
 def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     """Every case for ``seed`` (1000-1999); ``quick``: the first two conversions at 2 s, and a slice of the
     short-FIR and naive-synthesis cases."""
@@ -580,3 +638,4 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
                    expect={"upsampled_from_hz": src, "imaging_detected": False},
                    channel_labels=up.default_labels(ch))
     yield from _poly_cases(seed, quick)
+    yield from _folded_cases(seed, quick)

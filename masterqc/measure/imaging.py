@@ -98,6 +98,9 @@ is the properly interpolated signal held at ``R = N r``: its first images are th
 ``R +- f`` (folded modulo ``fs``), ``(f / R)**2`` relative to the content, and the same line
 judges them (those of the inner band's content), by a test of its own at the cycle frequencies
 ``N r`` modulo ``fs`` (:data:`NEAREST_PHASE_COUNTS`, :meth:`ImagingAnalyzer._nearest_phase`).
+At small ratios (44.1 -> 48 kHz) the first images of the inner band's content fold back onto the programme
+(at ``f + fs - r``); they are judged by the same line through their coherence with the content pooled over
+sub-bands, against control cycle frequencies (:data:`FOLDED_SUBBAND_FRACTION`, :meth:`ImagingAnalyzer._folded_inner`).
 
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/25`` samples per frame and channel, and one product per pair of the candidates'
@@ -343,6 +346,26 @@ NEAREST_PHASE_DROP = 0.1
 #: of the same order as the highest, a lower one, whose band above holds programme, several times less)
 NEAREST_PHASE_COVER_SHARE = 0.3
 NEAREST_PHASE_QUIET = 1e-3
+#: folded inner images (:meth:`ImagingAnalyzer._folded_inner`): at small ratios (44.1 -> 48, 88.2 -> 96, 22.05 -> 24 kHz)
+#: the first images of the inner band's content (at ``r - f``) lie beyond the file's Nyquist frequency and fold back
+#: onto the programme, at ``f + (fs - r)``: no quiet band holds them, and per pair they sit far below the programme
+#: there.  The test pools the pairs' products over sub-bands of this fraction of the source Nyquist frequency before
+#: squaring (own reasoning: a windowed-sinc kernel's image response ``H(r - f) / H(f)`` is real and keeps its sign
+#: over one stop-band lobe, ``r / taps`` wide: a quarter of the Nyquist frequency and more for 8-16 taps, so the
+#: images add in phase within a sub-band while the programme's chance products add as noise)
+FOLDED_SUBBAND_FRACTION = 0.05
+#: the test applies when at least this share of the inner band's first images fold below the candidate's Nyquist
+#: frequency, onto the programme (own reasoning: elsewhere the clear pairs above it measure them directly)
+FOLDED_MIN_SHARE = 0.5
+#: control cycle frequencies of the folded test, in bins from the candidate's: the null of the sub-band statistic
+#: is measured on the material itself (transients and steady notes make it heavy-tailed, which no model gives).
+#: Own reasoning: 6 bins and more keep a true image's main lobe out; 36 controls up to 40 bins (1 kHz) away give
+#: the null's mean and spread, and its largest value a check on its tail
+FOLDED_CONTROL_OFFSETS_BINS = tuple(o for o in range(-40, 41, 2) if abs(o) >= 6)
+#: the folded statistic's significance against the controls' spread (own reasoning: 8, as :data:`Z_SIGNIFICANT`), and
+#: against the largest control's (own reasoning: 1.5 times it, so a heavy tail seen among the controls cannot pass)
+FOLDED_Z = 8.0
+FOLDED_CONTROL_RELATIVE = 1.5
 
 
 def null_coherence_bias(starts, window) -> float:
@@ -1368,6 +1391,66 @@ class ImagingAnalyzer(Analyzer):
                              f"file's rate, z {z:.0f}): those of the content at {_inner_khz(rate)} at {level:.1f} dB "
                              f"relative to it; the main test alone: {was}"))
 
+    def _folded_sums(self, ch: int, al: int, ka, k_sub: int):
+        """Per sub-band of ``k_sub`` consecutive pairs ``(ka, al - ka)``: ``(|S|^2, P_a, P_b)``, ``S`` the sum over the
+        kept frames and the sub-band's pairs of ``X(a) X(b)`` (phase-corrected, see :meth:`process`), ``P`` the
+        long-term powers summed over the sub-band."""
+        n = self.n_fft
+        kb = (al - ka) % n
+        prod = self._gather(ch, ka)
+        prod *= self._gather(ch, kb)
+        j = ka.size // k_sub
+        s_sub = prod[:, :j * k_sub].sum(axis=0).reshape(j, k_sub).sum(axis=1)
+        pw = self.power[ch]
+        pa = pw[np.minimum(ka, n - ka)][:j * k_sub].reshape(j, k_sub).sum(axis=1)
+        pb = pw[np.minimum(kb, n - kb)][:j * k_sub].reshape(j, k_sub).sum(axis=1)
+        return np.abs(s_sub) ** 2, pa, pb
+
+    def _folded_inner(self, ch: int, rate: float):
+        """The first images of the inner band's content where they fold onto the programme (see
+        :data:`FOLDED_SUBBAND_FRACTION`): ``(level_db, z, z_control_max)`` or None (not applicable: no kept spectra,
+        too few frames, or the images mostly clear of the programme).  ``S`` summed over frames and a sub-band's pairs
+        is the image's transfer times the content's power plus the programme's chance products; the statistic is the
+        sum over sub-bands of the squared coherence ``|S|^2 / (P_a P_b)``, judged against its values at
+        :data:`FOLDED_CONTROL_OFFSETS_BINS`; the level is the coherent image power ``|S|^2 / P_a`` less its mean at the
+        controls, summed over sub-bands, relative to the content ``sum P_a``: the house definition's power-weighted
+        ratio of the inner band's first images to the content they mirror."""
+        if self.store is None or self.frames < MIN_FRAMES:
+            return None
+        n = self.n_fft
+        in_lo = int(math.ceil(INNER_BAND[0] * rate / 2.0 / self.bin_hz))
+        in_hi = int(math.floor(INNER_BAND[1] * rate / 2.0 / self.bin_hz))
+        k_sub = max(4, int(FOLDED_SUBBAND_FRACTION * rate / 2.0 / self.bin_hz))
+        if in_hi - in_lo + 1 < 2 * k_sub:
+            return None
+        ka = np.arange(in_lo, in_hi + 1, dtype=np.int64)
+        al = int(round(rate / self.bin_hz)) % n
+        kb = (al - ka) % n
+        on_programme = np.minimum(kb, n - kb) * self.bin_hz <= rate / 2.0 + 2 * self.bin_hz
+        if float(np.mean(on_programme)) < FOLDED_MIN_SHARE:
+            return None
+        s2, pa, pb = self._folded_sums(ch, al, ka, k_sub)
+        ok = (pa > 0) & (pb > 0)
+        if not ok.any():
+            return None
+        g = float(np.sum(s2[ok] / (pa[ok] * pb[ok])))
+        g_c, img_c = [], []
+        for off in FOLDED_CONTROL_OFFSETS_BINS:
+            c2, ca, cb = self._folded_sums(ch, (al + off) % n, ka, k_sub)
+            okc = ok & (cb > 0)
+            g_c.append(float(np.sum(c2[okc] / (ca[okc] * cb[okc]))))
+            img_c.append(c2 / np.maximum(ca, 1e-300))
+        g_c = np.asarray(g_c)
+        mu, sd = float(g_c.mean()), float(g_c.std())
+        if not sd > 0.0:
+            return None
+        z = (g - mu) / sd
+        z_ctrl = float((g_c.max() - mu) / sd)
+        img = np.maximum(s2 / np.maximum(pa, 1e-300) - np.mean(img_c, axis=0), 0.0)
+        ratio = float(np.sum(img[ok])) / float(np.sum(pa[ok]))
+        level = power_ratio_db(ratio) if ratio > 0.0 else None
+        return level, z, z_ctrl
+
     def _assess(self, cand, ch: int, f0):
         m = self.frames
         rate = cand["rate"]
@@ -1503,6 +1586,20 @@ class ImagingAnalyzer(Analyzer):
                                   f"coder's period (every {hop} samples) where an upsampler leaves no images: a "
                                   "lossy coder's framing or filter bank, not a conversion")
                 return base
+            # (only where the inner band holds content: a higher candidate, a multiple of the true source rate, sees
+            # the true conversion's images in an empty inner band, coherent with nothing it could call content)
+            folded = self._folded_inner(ch, rate) if main_args["use_inner"] else None
+            if folded is not None and folded[0] is not None and folded[0] >= DEFECT_IMAGE_LEVEL_DB \
+                    and folded[1] >= max(FOLDED_Z, FOLDED_CONTROL_RELATIVE * folded[2]):
+                f_level, f_z, f_ctrl = folded
+                base["verdict"] = "defect"
+                base["folded"] = True
+                base["image_level_db"] = round(f_level, 2)
+                base["reason"] = (f"mirror images of the content at {_inner_khz(rate)} folded back onto the programme "
+                                  f"(at the content's frequency + {(self.fs - rate) / 1000:g} kHz) at {f_level:.1f} dB "
+                                  f"relative to it (sub-band coherence z {f_z:.1f}, controls up to z {f_ctrl:.1f}): "
+                                  f"upsampled from {rate / 1000:g} kHz without a proper filter")
+                return base
             base["verdict"] = "trace"
             base["reason"] = (f"coherent images {'' if level is None else f'at {level:.1f} dB '}"
                               f"of the content below {rate / 2000:.2f} kHz: a resampler's trace")
@@ -1581,6 +1678,19 @@ class ImagingAnalyzer(Analyzer):
                 traces if best[1]["verdict"] == "trace" else []
             best[1]["evidence"] = "spectrum"
             out.append(best[1])
+        # a folded defect at a multiple of a lower candidate that leaves a trace or a defect is that rate's images of a
+        # higher order (an upsampler from r is coherent at every k r; the second-order images of a converter from
+        # 44.1 kHz in a 96 kHz file fold like the first images of an 88.2 kHz source): the lower rate explains it
+        for a in out:
+            if a.pop("folded", False):
+                for b in out:
+                    k = a["source_rate_hz"] / b["source_rate_hz"]
+                    if k >= 2 - 1e-9 and abs(k - round(k)) < 1e-9 and b["verdict"] in ("trace", "defect"):
+                        a.update(verdict="trace", image_level_db=None,
+                                 reason=(f"coherent images folded back onto the programme, but {a['source_rate_hz'] / 1000:g} "
+                                         f"kHz is a multiple of {b['source_rate_hz'] / 1000:g} kHz, whose images "
+                                         f"({b['verdict']}) explain them"))
+                        break
         out = self._with_pattern(out)
         out = self._with_hold(out)
         out = self._with_nearest_phase(out)
