@@ -138,6 +138,28 @@ NAIVE_RATES_HZ = (88200, 96000, 176400, 192000)
 NAIVE_KINDS = ("saw", "square", "pulse")
 
 
+def imaging_expect(src: int, lvl: float) -> dict:
+    """The labels of an upsampled case whose first images lie ``lvl`` dB under the content: imaging where they
+    reach the house line by the label margin, clean where they stay under it by the margin, no imaging label
+    between (left to the detector, unscored)."""
+    expect = {"upsampled_from_hz": src}
+    if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
+        expect["imaging_detected"] = True
+    elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
+        expect["imaging_detected"] = False
+    return expect
+
+
+def long_twin(x: np.ndarray, src: int, dst: int) -> np.ndarray:
+    """The proper twin of a conversion: ``resample_poly`` with a long Kaiser (beta 12) design, 32 zero crossings
+    per side, -6 dB at 0.95 of the lower Nyquist frequency, per channel."""
+    fr = Fraction(dst, src)
+    m = max(fr.numerator, fr.denominator)
+    h = sps.firwin(2 * 32 * m + 1, 0.95 / m, window=("kaiser", 12.0))
+    return np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator, window=h) for c in range(x.shape[1])],
+                    axis=1)
+
+
 def fir_design(src: int, dst: int, taps: int, cutoff: float, window):
     """``(h, up, down)``: a ``firwin`` low-pass of ``taps`` taps counted at the target rate (``taps * down``
     at the design rate ``src * up``), -6 dB at ``cutoff`` of the source Nyquist frequency."""
@@ -228,11 +250,7 @@ def _extra_cases(seed: int, quick: bool):
             x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
             h, up_, down = fir_design(src, dst, taps, cutoff, window)
             lvl = fir_image_level_db(h, src, up_, x)
-            expect = {"upsampled_from_hz": src}
-            if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
-                expect["imaging_detected"] = True
-            elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
-                expect["imaging_detected"] = False
+            expect = imaging_expect(src, lvl)
             y = np.stack([sps.resample_poly(x[:, c], up_, down, window=h) for c in range(ch)], axis=1)
             twin = np.stack([sps.resample_poly(x[:, c], up_, down) for c in range(ch)], axis=1)
             out = ((f"{name}_img{lvl:.0f}db", family, "short-fir", y, expect),
@@ -390,10 +408,7 @@ def _stream_cases(seed: int, quick: bool):
             if phases is None:
                 lvl = kernel_image_level_db(kk, taps, param, src, x)
                 name = f"{name}_img{lvl:.0f}db"
-                if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
-                    expect["imaging_detected"] = True
-                elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
-                    expect["imaging_detected"] = False
+                expect = imaging_expect(src, lvl)
             fr = Fraction(dst, src)
             twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator) for c in range(ch)], axis=1)
             out = ((name, family, "stream-converter" if phases is None else "nearest-phase", y, expect),
@@ -538,16 +553,8 @@ def _poly_cases(seed: int, quick: bool):
             y = np.stack([poly_convert(x[:, c], src, dst, window, taps, beta, cutoff, phases) for c in range(ch)],
                          axis=1)
             lvl = poly_image_level_db(window, taps, beta, cutoff, phases, src, x)
-            expect = {"upsampled_from_hz": src}
-            if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
-                expect["imaging_detected"] = True
-            elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
-                expect["imaging_detected"] = False
-            fr = Fraction(dst, src)
-            m = max(fr.numerator, fr.denominator)
-            h = sps.firwin(2 * 32 * m + 1, 0.95 / m, window=("kaiser", 12.0))
-            twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator, window=h) for c in range(ch)],
-                            axis=1)
+            expect = imaging_expect(src, lvl)
+            twin = long_twin(x, src, dst)
             family = f"own-nearest-phase-{window}" if phases else f"own-poly-{window}{taps}"
             full = f"{name}_{src}_to_{dst}_{mat}_img{lvl:.0f}db"
             out = ((full, family, "nearest-phase" if phases else "polyphase", y, expect),
@@ -599,15 +606,8 @@ def _folded_cases(seed: int, quick: bool):
         x = up.set_rms(np.stack([material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
         y = np.stack([stream_convert(x[:, c], src, dst, kk, taps, param) for c in range(ch)], axis=1)
         lvl = kernel_image_level_db(kk, taps, param, src, x)
-        expect = {"upsampled_from_hz": src}
-        if lvl >= IMAGING_DEFECT_DB + LABEL_MARGIN_DB:
-            expect["imaging_detected"] = True
-        elif lvl <= IMAGING_DEFECT_DB - LABEL_MARGIN_DB:
-            expect["imaging_detected"] = False
-        fr = Fraction(dst, src)
-        m = max(fr.numerator, fr.denominator)
-        h = sps.firwin(2 * 32 * m + 1, 0.95 / m, window=("kaiser", 12.0))
-        twin = np.stack([sps.resample_poly(x[:, c], fr.numerator, fr.denominator, window=h) for c in range(ch)], axis=1)
+        expect = imaging_expect(src, lvl)
+        twin = long_twin(x, src, dst)
         full = f"{name}_img{lvl:.0f}db"
         for cname, fam, group, audio, exp in (
                 (full, f"own-stream-folded-{kname}", "folded-stream", y, expect),
