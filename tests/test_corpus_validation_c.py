@@ -17,7 +17,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy import signal
+
+from corpus_checks import image_db, top_band_db
 
 pytest.importorskip("resampy")
 pytest.importorskip("pedalboard")
@@ -37,16 +38,6 @@ SEED = 7003
 @pytest.fixture(scope="module")
 def quick_cases():
     return list(cvc.cases(SEED, quick=True))
-
-
-def _image_db(audio, rate, src):
-    """Energy between 1.05x the source Nyquist and 0.995x the file's Nyquist over the energy below the source
-    Nyquist, from a plain periodogram (an independent estimate from the corpus module's Welch one)."""
-    f, p = signal.periodogram(audio, fs=rate, axis=0, window="hann")
-    p = p.sum(axis=1)
-    hi = p[(f >= 1.05 * src / 2) & (f < 0.995 * rate / 2)].sum()
-    lo = p[(f >= 20) & (f < src / 2)].sum()
-    return 10 * math.log10(max(hi, 1e-30) / max(lo, 1e-30))
 
 
 def test_quick_slice_shape(quick_cases):
@@ -87,7 +78,7 @@ def test_upsampling_and_imaging_facts(quick_cases):
         if not src or c.group == "upsampled-one-channel":
             continue
         assert src in cvc.STANDARD_RATES_HZ and src < c.rate_hz, c.name
-        img = _image_db(c.audio, c.rate_hz, src)
+        img = image_db(c.audio, c.rate_hz, src)
         if c.expect.get("imaging_detected") is True:
             # images by construction: at least IMAGE_MIN_DB above the old Nyquist (3 dB slack for the estimator)
             assert img >= cvc.IMAGE_MIN_DB - 3, (c.name, img)
@@ -106,9 +97,9 @@ def test_one_channel_fact(quick_cases):
         # the converted channel has nothing above 1.05x its source Nyquist; another full-band channel has
         # (by construction: native material fills its band; -40 dB is the corpus' own margin, house choice)
         src = c.facts["src_hz"]
-        assert _image_db(c.audio[:, [i]], c.rate_hz, src) <= cvc.IMAGE_MAX_NEG_DB + 3
+        assert image_db(c.audio[:, [i]], c.rate_hz, src) <= cvc.IMAGE_MAX_NEG_DB + 3
         j = 0 if i != 0 else 1
-        assert _image_db(c.audio[:, [j]], c.rate_hz, src) >= -40.0
+        assert image_db(c.audio[:, [j]], c.rate_hz, src) >= -40.0
 
 
 def test_folding_facts(quick_cases):
@@ -119,7 +110,7 @@ def test_folding_facts(quick_cases):
             if c.group == "sample-hold":
                 # held at the lower rate: the source rate named is that rate, and the images are there
                 assert c.expect["upsampled_from_hz"] < c.rate_hz and c.expect["imaging_detected"] is True
-                assert _image_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) >= cvc.IMAGE_MIN_DB - 3
+                assert image_db(c.audio, c.rate_hz, c.expect["upsampled_from_hz"]) >= cvc.IMAGE_MIN_DB - 3
             else:
                 assert c.expect.get("upsampled_from_hz") is None, c.name
         if c.group in ("filtered-decimation", "downsampled"):
@@ -131,10 +122,7 @@ def test_native_material_reaches_nyquist(quick_cases):
     # 0.9-0.99 of the Nyquist frequency is the corpus' own margin (house choice)
     for c in quick_cases:
         if c.group in ("native", "speech"):
-            f, p = signal.periodogram(c.audio, fs=c.rate_hz, axis=0)
-            p = p.sum(axis=1)
-            top = p[(f >= 0.9 * c.rate_hz / 2) & (f < 0.99 * c.rate_hz / 2)].sum() / p[f >= 20].sum()
-            assert 10 * math.log10(top) > -80, c.name
+            assert top_band_db(c.audio, c.rate_hz) > -80, c.name
 
 
 def test_naive_twins_differ_only_by_folding():

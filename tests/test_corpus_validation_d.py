@@ -17,7 +17,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy import signal
+
+from corpus_checks import image_db, top_band_db
 
 ROOT = Path(__file__).resolve().parents[1]
 _spec = importlib.util.spec_from_file_location("corpus_validation_d", ROOT / "bench" / "corpus_validation_d.py")
@@ -35,16 +36,6 @@ SEED = 8000           # a seed already scored once when the set was built (seen)
 @pytest.fixture(scope="module")
 def quick_cases():
     return list(cvd.cases(SEED, quick=True))
-
-
-def _image_db(audio, rate, src):
-    """Energy between 1.05x the source Nyquist and 0.995x the file's Nyquist over the energy below the source
-    Nyquist, from a plain periodogram of the channels' sum of powers."""
-    f, p = signal.periodogram(audio, fs=rate, axis=0, window="hann")
-    p = p.sum(axis=1)
-    hi = p[(f >= 1.05 * src / 2) & (f < 0.995 * rate / 2)].sum()
-    lo = p[(f >= 20) & (f < src / 2)].sum()
-    return 10 * math.log10(max(hi, 1e-30) / max(lo, 1e-30))
 
 
 def test_quick_slice_shape(quick_cases):
@@ -83,7 +74,7 @@ def test_upsampling_and_imaging_facts(quick_cases):
         if not src or c.group == "upsampled-one-channel":
             continue
         assert src in cvd.STANDARD_RATES_HZ and src < c.rate_hz, c.name
-        img = _image_db(c.audio, c.rate_hz, src)
+        img = image_db(c.audio, c.rate_hz, src)
         if c.expect.get("imaging_detected") is True:
             # images by construction: at least IMAGE_MIN_DB above the old Nyquist (3 dB slack for the estimator)
             assert img >= cvd.IMAGE_MIN_DB - 3, (c.name, img)
@@ -105,9 +96,9 @@ def test_one_channel_fact(quick_cases):
         src = c.facts["src_hz"]
         # the converted channel is quiet above 1.05x its source Nyquist; another channel fills that band
         # (native material by construction; -40 dB is a margin of this test, house choice)
-        assert _image_db(c.audio[:, [i]], c.rate_hz, src) <= cvd.IMAGE_MAX_NEG_DB + 3, c.name
+        assert image_db(c.audio[:, [i]], c.rate_hz, src) <= cvd.IMAGE_MAX_NEG_DB + 3, c.name
         j = 0 if i != 0 else 1
-        assert _image_db(c.audio[:, [j]], c.rate_hz, src) >= -40.0, c.name
+        assert image_db(c.audio[:, [j]], c.rate_hz, src) >= -40.0, c.name
 
 
 def test_folding_facts(quick_cases):
@@ -128,10 +119,7 @@ def test_native_material_reaches_nyquist(quick_cases):
     # Nyquist frequency is a margin of this test (house choice)
     for c in quick_cases:
         if c.group in ("native", "speech"):
-            f, p = signal.periodogram(c.audio, fs=c.rate_hz, axis=0)
-            p = p.sum(axis=1)
-            top = p[(f >= 0.9 * c.rate_hz / 2) & (f < 0.99 * c.rate_hz / 2)].sum() / p[f >= 20].sum()
-            assert 10 * math.log10(top) > -80, c.name
+            assert top_band_db(c.audio, c.rate_hz) > -80, c.name
 
 
 def test_refused_ratio_is_named_not_fatal():
