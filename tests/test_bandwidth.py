@@ -1236,3 +1236,25 @@ def test_partials_that_end_over_bursts_that_go_on_stay_tonal():
     x = quantise24(corpus.set_rms(notes + 0.15 * bursts, -14.0), rng)
     r = assess(x, 48000)
     assert r.upsampled_from_hz is None and r.band_limit_hz is None, r.note
+
+
+@pytest.mark.parametrize("width", [150, 300, 600, 601, 37])
+def test_stop_levels_match_numpy_percentile_where_a_drop_can_read_them(width):
+    """find_cliff's stop levels: every level that can sit CLIFF_MIN_DROP_DB under its pass level is numpy's own
+    90th percentile (linear interpolation) of the window, bit for bit (numpy.percentile as the reference); a
+    level left out (+inf) is one whose percentile lies above the bound by more than the 1 dB margin."""
+    rng = np.random.default_rng(width)
+    n = 5 * width
+    # a falling envelope with ripple and a cliff, as the search sees: some windows pass the bound, some do not
+    values = -20.0 - 0.01 * np.arange(n) + rng.normal(0.0, 3.0, n)
+    values[n // 2:] -= 60.0
+    starts = np.arange(0, n - width, 7)
+    ref = np.array([np.percentile(values[s:s + width], 90) for s in starts])
+    at_most = ref + rng.normal(0.0, 15.0, starts.size)
+    got = bw._stop_levels(values, starts, width, at_most)
+    kept = np.isfinite(got)
+    assert kept.any() and (~kept).any()
+    assert np.array_equal(got[kept], ref[kept])
+    assert np.all(ref[~kept] > at_most[~kept] + 1.0)
+    # every level at or under its bound is kept
+    assert np.all(kept[ref <= at_most])

@@ -558,8 +558,8 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int, accept=None):
     post = np.empty(positions.size)
     full = positions + post_b <= top_bin
     if full.any():
-        stop = np.lib.stride_tricks.sliding_window_view(env_db[:top_bin], post_b - post_a)[positions[full] + post_a]
-        post[full] = np.percentile(stop, 90, axis=1)
+        post[full] = _stop_levels(env_db[:top_bin], positions[full] + post_a, post_b - post_a,
+                                  np.where(flat[full], pre[full] - CLIFF_MIN_DROP_DB, -np.inf))
     cut = np.nonzero(~full)[0]
     if cut.size:
         post[cut] = _suffix_percentile_90(env_db[:top_bin], positions[cut] + post_a)
@@ -578,6 +578,31 @@ def find_cliff(env_db: np.ndarray, bin_hz: float, top_bin: int, accept=None):
         if len(tried) >= MAX_CANDIDATES:
             break
     return None
+
+
+def _stop_levels(values: np.ndarray, starts: np.ndarray, width: int, at_most: np.ndarray) -> np.ndarray:
+    """``np.percentile(values[s:s + width], 90)`` for every ``s`` in ``starts`` where it can be at or below
+    ``at_most`` (the same numbers there); ``+inf`` where it cannot, so that such a position never makes
+    :func:`find_cliff`'s drop (a position is tried only where its stop level lies CLIFF_MIN_DROP_DB under its pass
+    level, so only those levels are ever read).
+
+    The 90th percentile of ``width`` values is at least its lower order statistic (rank ``lo`` = floor(0.9
+    (width - 1)), counted from 0), and that is at least the smallest value of any ``width - lo`` of them: at least
+    that many values are not below it.  The largest minimum over the window's runs of ``width - lo`` neighbours is
+    such a lower bound, found for every window at once from two sliding extrema; only the windows whose bound lies
+    at or below ``at_most`` (with a margin of 1 dB for the rounding of the percentile's interpolation) are
+    partitioned, for the same numbers as ``np.percentile`` over every window, at a fraction of its cost."""
+    out = np.full(starts.size, np.inf)
+    if starts.size == 0:
+        return out
+    windows = np.lib.stride_tricks.sliding_window_view(values, width)
+    run = width - int(math.floor(0.9 * (width - 1)))
+    run_min = np.lib.stride_tricks.sliding_window_view(values, run).min(axis=1)
+    bound = np.lib.stride_tricks.sliding_window_view(run_min, width - run + 1)[starts].max(axis=1)
+    need = ~(bound > at_most + 1.0)        # (NaN: computed, as np.percentile would)
+    if need.any():
+        out[need] = np.percentile(windows[starts[need]], 90, axis=1)
+    return out
 
 
 def _suffix_percentile_90(values: np.ndarray, starts: np.ndarray) -> np.ndarray:
