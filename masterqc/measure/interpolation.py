@@ -34,6 +34,7 @@ Results do not depend on the block size (frames sit at fixed sample positions).
 
 from __future__ import annotations
 
+import functools
 import math
 from fractions import Fraction
 
@@ -101,8 +102,10 @@ MEASUREMENT_SCHEMA = {
 }
 
 
+@functools.lru_cache(maxsize=256)
 def period(fs: int, rate: float) -> tuple[int, int]:
-    """``(P, Q)``: ``fs / rate = P / Q`` in lowest terms (``rate`` may be a half or third of a rate)."""
+    """``(P, Q)``: ``fs / rate = P / Q`` in lowest terms (``rate`` may be a half or third of a rate); worked out
+    once per pair (the pattern search asks for the same few hundred times per file)."""
     fr = Fraction(int(fs)) / Fraction(rate).limit_denominator(1000)
     return fr.numerator, fr.denominator
 
