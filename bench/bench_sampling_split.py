@@ -11,7 +11,8 @@ peak and true peak.  Files: the core benchmark's music-like stereo 48 kHz 24-bit
 analyzer (``masterqc/measure/imaging.py``), the interpolation analyzer
 (``masterqc/measure/interpolation.py``) and the aliasing analyzer (``masterqc/measure/aliasing.py``) as they
 were at git revision REV, loaded from ``git show`` (the front end with its batched transform, ``rfft_rows`` of
-``masterqc/measure/npkernels.py``, of REV too), with this tree's core analyzers and shared helpers
+``masterqc/measure/npkernels.py``, of REV too; and the bandwidth judgement its finish() makes,
+``masterqc/measure/bandwidth.py``, of REV), with this tree's core analyzers and shared helpers
 (``frames.py``), in the same process and interleaved pass by pass with this tree's, so that both columns see
 the same machine load.
 
@@ -57,6 +58,25 @@ def _module_at(rev: str, rel: str, tmp: Path):
     sys.modules[name] = mod          # (dataclasses look their module up while the class is made)
     spec.loader.exec_module(mod)
     return mod
+
+
+def _with_module(cls, dotted: str, module):
+    """A subclass of ``cls`` whose ``finish()`` finds ``module`` under the name ``dotted`` (in ``sys.modules``
+    and as its package's attribute) for the length of the call, and the module it replaced afterwards."""
+    import importlib
+    parent_name, _dot, leaf = dotted.rpartition(".")
+    parent = importlib.import_module(parent_name)
+
+    def finish(self, _c=cls):
+        was_mod, was_attr = sys.modules.get(dotted), getattr(parent, leaf, None)
+        sys.modules[dotted] = module
+        setattr(parent, leaf, module)
+        try:
+            return _c.finish(self)
+        finally:
+            sys.modules[dotted] = was_mod
+            setattr(parent, leaf, was_attr)
+    return type(cls.__name__, (cls,), {"finish": finish})
 
 
 def _timed(cls, name: str, spent: dict):
@@ -116,6 +136,10 @@ def main(argv=None) -> int:
                 # the front end's batched transform as it was then too (it lives in npkernels.py)
                 mod.rfft_rows = _module_at(args.before, "masterqc/measure/npkernels.py", Path(tmpdir.name)).rfft_rows
             old[key] = getattr(mod, cls_name)
+        # the front end's finish() judges the bandwidth through masterqc.measure.bandwidth, looked up when it
+        # runs: the earlier column's finish() is given REV's bandwidth module for the length of the call
+        old_bw = _module_at(args.before, "masterqc/measure/bandwidth.py", Path(tmpdir.name))
+        old["Spectrum"] = _with_module(old["Spectrum"], "masterqc.measure.bandwidth", old_bw)
         if hasattr(old["Imaging"], "bind"):
             # the imaging analyzer takes the interpolation analyzer's verdict from its peers by class: the
             # earlier tree's interpolation class is not this tree's, so the earlier imaging is bound to it here
