@@ -1247,15 +1247,15 @@ def nonlinear_curve(kind: str, x: np.ndarray, drive: float) -> np.ndarray:
     raise ValueError(kind)
 
 
-def nonlinear_cases(seed: int, quick: bool = False) -> Iterator[Case]:
+def nonlinear_cases(seed: int, quick: bool = False, entries=None) -> Iterator[Case]:
     """The entries of :data:`NONLINEAR_VOICES`: the curve at the file's rate (group ``naive-nonlinear``, family
     ``naive-<curve>``, True where the folded share, the energy of naive minus twin, is at least
     :data:`MODULATION_MIN_FOLDED_DB` of the twin's) and the oversampled twin (group ``oversampled-nonlinear``,
     family ``oversampled-<curve>``, False); 5 s each, a quiet noise bed in the source (before the curve), RMS -30..-8
-    dBFS, mono; own random streams."""
+    dBFS, mono; own random streams.  ``entries``: only those indices of :data:`NONLINEAR_VOICES`."""
     seconds = 5.0
     over = NONLINEAR_OVERSAMPLING
-    for j in (NONLINEAR_QUICK if quick else range(len(NONLINEAR_VOICES))):
+    for j in (entries if entries is not None else NONLINEAR_QUICK if quick else range(len(NONLINEAR_VOICES))):
         fs, kind, n_voices, f_range, d_range = NONLINEAR_VOICES[j]
         sub = np.random.default_rng([seed, 33000 + j])
         f_range = (f_range[0] * fs / 48000.0, f_range[1] * fs / 48000.0)
