@@ -1199,6 +1199,6 @@ def test_a_hard_clipper_at_the_files_rate_is_folded_and_its_oversampled_twin_is_
         got[case.group] = _run(case.audio[:, 0], case.rate_hz)
     naive, twin = got["naive-nonlinear"], got["oversampled-nonlinear"]
     assert naive["aliasing_detected"] is True
-    assert naive["aliasing_detail"]["ceiling_flat_runs"] >= al.CEILING_MIN_PLATEAUS
+    assert naive["aliasing_detail"]["ceiling_flat_run_count"] >= al.CEILING_MIN_PLATEAUS
     assert twin["aliasing_detected"] is not True
-    assert twin["aliasing_detail"]["ceiling_flat_runs"] == 0
+    assert twin["aliasing_detail"]["ceiling_flat_run_count"] == 0

@@ -2095,7 +2095,7 @@ class AliasingAnalyzer(Analyzer):
             "grid_binary_pattern_period_samples": bin_period,
             "grid_conversion_lines_log10_p": round(conv[0], 2),
             "grid_conversion_source_hz": conv[1],
-            "ceiling_flat_runs": int(self._ceiling_count()),
+            "ceiling_flat_run_count": int(self._ceiling_count()),
             "where_s": [],
             "fold_examples": [],
         }
@@ -2111,7 +2111,7 @@ class AliasingAnalyzer(Analyzer):
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
         grid_hit = drop_hit or pattern_hit or binary_hit or conv_hit
-        ceiling_runs = detail["ceiling_flat_runs"]
+        ceiling_runs = detail["ceiling_flat_run_count"]
         ceiling_hit = ceiling_runs >= CEILING_MIN_PLATEAUS
         detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit or reflected_hit or ceiling_hit
         assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
