@@ -943,7 +943,7 @@ def ceiling_plateaus(x: np.ndarray, level: float, q: float) -> int:
     ``-x`` and the negated floor for the negative side), entered and left by a step of at least
     CEILING_ENTRY_FACTOR * q; runs touching the ends of ``x`` are not counted."""
     at = x >= level - q
-    if int(at.sum()) < CEILING_MIN_RUN:
+    if np.count_nonzero(at) < CEILING_MIN_RUN:
         return 0
     d = np.diff(np.concatenate(([0], at.astype(np.int8), [0])))
     starts = np.nonzero(d == 1)[0]
@@ -1740,6 +1740,7 @@ class AliasingAnalyzer(Analyzer):
         bits = int(getattr(info, "bit_depth", 0) or 0)
         self.ceiling_lsb = 0.0 if getattr(info, "is_float", False) or bits <= 0 else 2.0 ** (1 - bits)
         self.ceiling_blocks = []
+        self.ceiling_seen = None   # per channel [highest, lowest] sample so far
         self._parts_taken = False   # finish_parts() has been called (by the engine, or by finish())
 
     # ---- frame analyses (one frame each); every FIRST_PASS_STRIDE-th frame (spread over the file; for the
@@ -1803,38 +1804,48 @@ class AliasingAnalyzer(Analyzer):
                        run=TRACK_RUN, stride=TRACK_FIRST_PASS_STRIDE)
 
     def _ceiling(self, block) -> None:
-        """The flat-top test's counts on one block (see :func:`ceiling_plateaus`)."""
+        """The flat-top test's counts on one block (see :func:`ceiling_plateaus`); a side whose block extreme lies
+        more than q inside the extreme seen so far is not counted (it cannot be within q of the file's)."""
         b = np.asarray(block)
         if b.ndim == 1:
             b = b[:, None]
         if b.shape[0] < CEILING_MIN_RUN + 2:
             return
-        hi, lo = b.max(axis=0), b.min(axis=0)
+        b = np.ascontiguousarray(b.T)   # one row per channel (reductions along a row are the fast ones)
+        hi, lo = b.max(axis=1), b.min(axis=1)
+        if self.ceiling_seen is None:
+            self.ceiling_seen = [[-np.inf, np.inf] for _c in range(b.shape[0])]
         row = []
-        for c in range(b.shape[1]):
-            x = b[:, c]
+        for c in range(b.shape[0]):
             h, m = float(hi[c]), float(lo[c])
-            n_hi = ceiling_plateaus(x, h, ceiling_tolerance(h, self.ceiling_lsb)) if h > 0 else 0
-            n_lo = ceiling_plateaus(-x, -m, ceiling_tolerance(m, self.ceiling_lsb)) if m < 0 else 0
-            row.append((h, n_hi, m, n_lo))
-        self.ceiling_blocks.append(row)
+            seen = self.ceiling_seen[c]
+            n_hi = n_lo = 0
+            if h > 0:
+                q = ceiling_tolerance(h, self.ceiling_lsb)
+                if h >= seen[0] - q:
+                    n_hi = ceiling_plateaus(b[c], h, q)
+            if m < 0:
+                q = ceiling_tolerance(m, self.ceiling_lsb)
+                if m <= seen[1] + q:
+                    n_lo = ceiling_plateaus(-b[c], -m, q)
+            seen[0], seen[1] = max(seen[0], h), min(seen[1], m)
+            if n_hi or n_lo:
+                row.append((c, h, n_hi, m, n_lo))
+        if row:
+            self.ceiling_blocks.append(row)
 
     def _ceiling_count(self) -> int:
         """Runs at each channel's extreme values over the whole file (blocks whose own extreme lies within q of
         the file's)."""
-        if not self.ceiling_blocks:
-            return 0
         total = 0
-        for c in range(len(self.ceiling_blocks[0])):
-            rows = [r[c] for r in self.ceiling_blocks if c < len(r)]
-            h = max(r[0] for r in rows)
-            m = min(r[2] for r in rows)
+        for c, (h, m) in enumerate(self.ceiling_seen or []):
+            rows = [r for row in self.ceiling_blocks for r in row if r[0] == c]
             if h > 0:
                 q = ceiling_tolerance(h, self.ceiling_lsb)
-                total += sum(r[1] for r in rows if r[0] >= h - q)
+                total += sum(r[2] for r in rows if r[1] >= h - q)
             if m < 0:
                 q = ceiling_tolerance(m, self.ceiling_lsb)
-                total += sum(r[3] for r in rows if r[2] <= m + q)
+                total += sum(r[4] for r in rows if r[3] <= m + q)
         return total
 
     def _grid_stats(self):
