@@ -936,6 +936,9 @@ CEILING_ENTRY_FACTOR = 50.0
 #: folded content from flat tops: at least this many runs at the ceilings over the file (house choice: the
 #: tuning corpus' clipped voices show hundreds, its band-limited twins, native mixes and speech none)
 CEILING_MIN_PLATEAUS = 20
+#: the stream is counted in chunks of this many samples, whatever the engine's block size (a run across two chunks
+#: is not counted; house choice)
+CEILING_CHUNK = 65536
 
 
 def ceiling_plateaus(x: np.ndarray, level: float, q: float) -> int:
@@ -1741,6 +1744,8 @@ class AliasingAnalyzer(Analyzer):
         self.ceiling_lsb = 0.0 if getattr(info, "is_float", False) or bits <= 0 else 2.0 ** (1 - bits)
         self.ceiling_blocks = []
         self.ceiling_seen = None   # per channel [highest, lowest] sample so far
+        self.ceiling_buffer = []   # channel rows not yet counted
+        self.ceiling_buffered = 0
         self._parts_taken = False   # finish_parts() has been called (by the engine, or by finish())
 
     # ---- frame analyses (one frame each); every FIRST_PASS_STRIDE-th frame (spread over the file; for the
@@ -1803,15 +1808,35 @@ class AliasingAnalyzer(Analyzer):
             self._feed(f"track{j}", tr["picker"], block, lambda st, fr, _tr=tr: self._track(_tr, st, fr),
                        run=TRACK_RUN, stride=TRACK_FIRST_PASS_STRIDE)
 
-    def _ceiling(self, block) -> None:
-        """The flat-top test's counts on one block (see :func:`ceiling_plateaus`); a side whose block extreme lies
-        more than q inside the extreme seen so far is not counted (it cannot be within q of the file's)."""
-        b = np.asarray(block)
-        if b.ndim == 1:
-            b = b[:, None]
-        if b.shape[0] < CEILING_MIN_RUN + 2:
+    def _ceiling(self, block, final: bool = False) -> None:
+        """Feeds the flat-top test: the stream is cut into chunks of CEILING_CHUNK samples (the same whatever the
+        block size), each counted by :meth:`_ceiling_chunk`; ``final``: the rest is counted too."""
+        if block is not None:
+            b = np.asarray(block)
+            if b.ndim == 1:
+                b = b[:, None]
+            self.ceiling_buffer.append(np.ascontiguousarray(b.T))   # one row per channel
+            self.ceiling_buffered += b.shape[0]
+        if self.ceiling_buffered < CEILING_CHUNK and not (final and self.ceiling_buffered):
             return
-        b = np.ascontiguousarray(b.T)   # one row per channel (reductions along a row are the fast ones)
+        rows = np.concatenate(self.ceiling_buffer, axis=1) if len(self.ceiling_buffer) > 1 else self.ceiling_buffer[0]
+        done = 0
+        while rows.shape[1] - done >= CEILING_CHUNK:
+            self._ceiling_chunk(rows[:, done:done + CEILING_CHUNK])
+            done += CEILING_CHUNK
+        if final and rows.shape[1] > done:
+            self._ceiling_chunk(rows[:, done:])
+            done = rows.shape[1]
+        rest = rows[:, done:]
+        self.ceiling_buffer = [rest] if rest.shape[1] else []
+        self.ceiling_buffered = rest.shape[1]
+
+    def _ceiling_chunk(self, b) -> None:
+        """The flat-top test's counts on one chunk (channel rows; see :func:`ceiling_plateaus`); a side whose chunk
+        extreme lies more than q inside the extreme seen so far is not counted (it cannot be within q of the
+        file's)."""
+        if b.shape[1] < CEILING_MIN_RUN + 2:
+            return
         hi, lo = b.max(axis=1), b.min(axis=1)
         if self.ceiling_seen is None:
             self.ceiling_seen = [[-np.inf, np.inf] for _c in range(b.shape[0])]
@@ -1835,8 +1860,9 @@ class AliasingAnalyzer(Analyzer):
             self.ceiling_blocks.append(row)
 
     def _ceiling_count(self) -> int:
-        """Runs at each channel's extreme values over the whole file (blocks whose own extreme lies within q of
+        """Runs at each channel's extreme values over the whole file (chunks whose own extreme lies within q of
         the file's)."""
+        self._ceiling(None, final=True)
         total = 0
         for c, (h, m) in enumerate(self.ceiling_seen or []):
             rows = [r for row in self.ceiling_blocks for r in row if r[0] == c]
