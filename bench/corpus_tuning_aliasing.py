@@ -540,6 +540,8 @@ def cases(seed: int, quick: bool = False) -> Iterator[Case]:
     yield from fm_ring_crush_cases(seed, quick)
     yield from additive_ring_cases(seed, quick)
     yield from poly_fm_cases(seed, quick)
+    # added: tanh, hard clipping and sine wave folding of tonal voices at the file's rate, with twins (own streams)
+    yield from nonlinear_cases(seed, quick)
 
 
 # ---------------------------------------------------------------- dense sample dropping
@@ -1201,4 +1203,84 @@ def poly_fm_cases(seed: int, quick: bool = False) -> Iterator[Case]:
             yield _case(f"naive-{stem}", "naive-fm-poly", "naive-synth", fs, x + bed, {"aliasing_detected": True},
                         rms_dbfs=level)
         yield _case(f"band-limited-{stem}", "oversampled-fm", "band-limited-synth", fs, y + bed,
+                    {"aliasing_detected": False}, rms_dbfs=level)
+
+
+# ---------------------------------------------------------------- memoryless nonlinearities at the file's rate
+#: tonal voices (a sine with weaker 2nd and 3rd harmonics, vibrato, envelopes; 2-4 voices at once) through a
+#: memoryless nonlinearity evaluated at the file's rate: a soft clipper tanh(d x) / tanh(d), a hard clipper
+#: clip(d x, -1, 1) and a sine wave folder sin(pi/2 d x).  Each makes harmonics and intermodulation products of
+#: the chord far above Nyquist, which fold to |fs - f| etc.  The twin evaluates the same notes at 16x the rate,
+#: applies the same curve there and is cut at Nyquist in the FFT domain (what an oversampled processor delivers).
+#: Entries: (rate, curve, voices, f0 range Hz at 48 kHz (scaled by rate / 48 kHz), drive range).
+NONLINEAR_VOICES = ((44100, "hardclip", 3, (400.0, 2500.0), (4.0, 16.0)),
+                    (48000, "tanh", 2, (500.0, 3000.0), (4.0, 20.0)),
+                    (44100, "fold", 2, (300.0, 2500.0), (3.0, 9.0)),
+                    (88200, "hardclip", 2, (400.0, 2500.0), (4.0, 16.0)),
+                    (96000, "fold", 3, (300.0, 2500.0), (3.0, 9.0)),
+                    (48000, "hardclip", 4, (300.0, 1500.0), (2.0, 10.0)),
+                    (44100, "tanh", 3, (400.0, 2500.0), (5.0, 20.0)),
+                    (48000, "fold", 4, (300.0, 2000.0), (2.0, 8.0)),
+                    (88200, "fold", 2, (500.0, 3000.0), (3.0, 9.0)),
+                    (96000, "tanh", 2, (400.0, 2500.0), (5.0, 20.0)))
+NONLINEAR_OVERSAMPLING = 16
+NONLINEAR_QUICK = ()   # not in the quick slice (its bytes and the tests' time unchanged)
+
+
+def nonlinear_input(f_range, seconds: float, fs: int, over: int, state: int) -> np.ndarray:
+    """One voice's notes at ``fs * over`` samples per second: a sine with its 2nd (0.2-0.6) and 3rd (0.1-0.4)
+    harmonics; the random stream ``state`` fixes every choice (the naive and oversampled renderings match)."""
+    def tone(ph, env, rng):
+        a2, a3 = rng.uniform(0.2, 0.6), rng.uniform(0.1, 0.4)
+        p = 2 * math.pi * ph
+        return np.sin(p) + a2 * np.sin(2 * p + 0.7) + a3 * np.sin(3 * p + 1.9)
+    return _voice_notes(f_range, seconds, fs, over, state, tone)
+
+
+def nonlinear_curve(kind: str, x: np.ndarray, drive: float) -> np.ndarray:
+    if kind == "tanh":
+        return np.tanh(drive * x) / math.tanh(drive)
+    if kind == "hardclip":
+        return np.clip(drive * x, -1.0, 1.0)
+    if kind == "fold":
+        return np.sin(0.5 * math.pi * drive * x)
+    raise ValueError(kind)
+
+
+def nonlinear_cases(seed: int, quick: bool = False, entries=None) -> Iterator[Case]:
+    """The entries of :data:`NONLINEAR_VOICES`: the curve at the file's rate (group ``naive-nonlinear``, family
+    ``naive-<curve>``, True where the folded share, the energy of naive minus twin, is at least
+    :data:`MODULATION_MIN_FOLDED_DB` of the twin's) and the oversampled twin (group ``oversampled-nonlinear``,
+    family ``oversampled-<curve>``, False); 5 s each, a quiet noise bed in the source (before the curve), RMS -30..-8
+    dBFS, mono; own random streams.  ``entries``: only those indices of :data:`NONLINEAR_VOICES`."""
+    seconds = 5.0
+    over = NONLINEAR_OVERSAMPLING
+    for j in (entries if entries is not None else NONLINEAR_QUICK if quick else range(len(NONLINEAR_VOICES))):
+        fs, kind, n_voices, f_range, d_range = NONLINEAR_VOICES[j]
+        sub = np.random.default_rng([seed, 33000 + j])
+        f_range = (f_range[0] * fs / 48000.0, f_range[1] * fs / 48000.0)
+        states = [int(sub.integers(1 << 62)) for _ in range(n_voices)]
+        drive = float(sub.uniform(*d_range))
+        x = sum(nonlinear_input(f_range, seconds, fs, 1, s) for s in states)
+        x_over = sum(nonlinear_input(f_range, seconds, fs, over, s) for s in states)
+        # a quiet noise bed in the source, before the curve (band-limited to the file's Nyquist at 16x, so the
+        # naive rendering reads its every 16th sample)
+        spec = np.fft.rfft(pink(x_over.size, sub))
+        spec[x.size // 2:] = 0.0
+        bed = np.fft.irfft(spec, x_over.size)
+        bed *= 10 ** (-sub.uniform(45, 65) / 20) * float(np.sqrt(np.mean(x ** 2))) / float(np.sqrt(np.mean(bed ** 2)))
+        x, x_over = x + bed[::over], x_over + bed
+        del spec, bed
+        scale = 1.0 / max(float(np.max(np.abs(x))), 1e-12)
+        naive = nonlinear_curve(kind, scale * x, drive)
+        twin = band_limit_down(nonlinear_curve(kind, scale * x_over, drive), over)
+        del x_over
+        fold_db = 10 * math.log10(max(float(np.sum((naive - twin) ** 2)), 1e-300)
+                                  / max(float(np.sum(twin ** 2)), 1e-300))
+        level = sub.uniform(-30, -8)
+        stem = f"nl-{kind}-{n_voices}v-{fs // 100}-{seed}-{j}"
+        if fold_db >= MODULATION_MIN_FOLDED_DB:
+            yield _case(f"naive-{stem}", f"naive-{kind}", "naive-nonlinear", fs, naive,
+                        {"aliasing_detected": True}, rms_dbfs=level)
+        yield _case(f"oversampled-{stem}", f"oversampled-{kind}", "oversampled-nonlinear", fs, twin,
                     {"aliasing_detected": False}, rms_dbfs=level)

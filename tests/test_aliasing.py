@@ -1151,3 +1151,54 @@ def test_a_naive_sawtooth_whose_folds_land_midway_between_its_harmonics_stays_ev
     r = al.polyphonic_fold_frame(spec.real ** 2 + spec.imag ** 2, fs / n, fs)
     assert r is not None and r["instances"] == 1 and r["evident"] == 1
     assert abs(r["evident_f0_hz"][0] - f0) < 0.5
+
+
+# ---------------------------------------------------------------- flat tops at the waveform's extreme value
+def _clipped_sine(fs: int, f: float, seconds: float, ceiling: float) -> np.ndarray:
+    n = np.arange(int(fs * seconds))
+    return np.clip(np.sin(2 * math.pi * f * n / fs), -ceiling, ceiling)
+
+
+def test_a_sine_clipped_at_the_files_rate_leaves_two_flat_tops_per_period():
+    # analytic: 1 kHz at 48 kHz is 48 samples a period; clipped at 0.5 the sine sits on the ceiling from 30 to 150
+    # degrees of each half period (16 samples) and is entered by a step of about sin(30 deg + 7.5 deg) - 0.5 = 0.11
+    # (far above 50 q = 0.0025); 1 s holds 1000 periods, so 1000 runs on each side, none touching the ends
+    x = _clipped_sine(48000, 1000.0, 1.0, 0.5)
+    q = al.ceiling_tolerance(0.5, 2.0 ** -23)
+    assert q == pytest.approx(5e-5)
+    assert al.ceiling_plateaus(x, 0.5, q) == 1000
+    assert al.ceiling_plateaus(-x, 0.5, q) == 1000
+
+
+def test_a_smooth_maximum_or_a_band_limited_flat_top_is_no_flat_top():
+    fs = 48000
+    # a plain sine: the samples next to its peak lie 1 - cos(2 pi / 48) = 0.0086 under it, far outside q
+    x = np.sin(2 * math.pi * 1000.0 * np.arange(fs) / fs)
+    assert al.ceiling_plateaus(x, float(x.max()), al.ceiling_tolerance(float(x.max()), 0.0)) == 0
+    # a slow sine in 16-bit codes at a low level: several equal codes at each peak, but entered by one code
+    # (a quadratic maximum: at most 4 q two samples on), so no flat top
+    lsb = 2.0 ** -15
+    y = np.round(200 * np.sin(2 * math.pi * 20.0 * np.arange(fs) / fs)) * lsb
+    assert int(np.sum(y == y.max())) > 3 * 20
+    assert al.ceiling_plateaus(y, float(y.max()), al.ceiling_tolerance(float(y.max()), lsb)) == 0
+    # the clipped sine evaluated at 16x and cut at the file's Nyquist (a band-limited clipper) rings about the
+    # ceiling: no flat top left
+    over = 16
+    hi = _clipped_sine(fs * over, 1000.0, 1.0, 0.5)
+    spec = np.fft.rfft(hi)[:fs // 2 + 1]
+    spec[fs // 2:] = 0.0
+    b = np.fft.irfft(spec, fs) / over
+    assert float(b.max()) > 0.5   # the twin overshoots the ceiling (Gibbs)
+    assert al.ceiling_plateaus(b, float(b.max()), al.ceiling_tolerance(float(b.max()), 2.0 ** -23)) == 0
+
+
+def test_a_hard_clipper_at_the_files_rate_is_folded_and_its_oversampled_twin_is_not():
+    # tuning corpus, group naive-nonlinear / oversampled-nonlinear (seed 1000, entry 0: three voices at 44.1 kHz)
+    got = {}
+    for case in tuning.nonlinear_cases(1000, entries=(0,)):
+        got[case.group] = _run(case.audio[:, 0], case.rate_hz)
+    naive, twin = got["naive-nonlinear"], got["oversampled-nonlinear"]
+    assert naive["aliasing_detected"] is True
+    assert naive["aliasing_detail"]["ceiling_flat_run_count"] >= al.CEILING_MIN_PLATEAUS
+    assert twin["aliasing_detected"] is not True
+    assert twin["aliasing_detail"]["ceiling_flat_run_count"] == 0

@@ -914,6 +914,58 @@ def step_alias_ratio_db(jump_sq: float, samples: float, power: float):
     return 10.0 * math.log10(jump_sq / (math.pi ** 2 * samples) / power)
 
 
+# ---------------------------------------------------------------- flat tops at a ceiling (saturation at the file's rate)
+# A memoryless clipping curve evaluated at the sample instants (a hard clipper, or a soft clipper driven into its
+# flat part) leaves the samples sitting exactly on its ceiling for runs of several samples, entered and left by a
+# large step: a corner between two samples, whose spectrum falls as 1/f**2 past Nyquist and folds.  A band-limited
+# waveform cannot do that: three samples within q of a smooth maximum (quadratic about it) bound the curvature so
+# that the samples two away lie at most 4 q lower (16 q for a quartic maximum), and a band-limited version of the
+# same flat top rings about the ceiling (its twin overshoots), so it has no run there at all.  The test counts, per
+# channel and polarity, the runs of at least CEILING_MIN_RUN samples within q of the channel's extreme value over
+# the whole file, entered and left by a step of at least CEILING_ENTRY_FACTOR q; q is half a code of integer PCM or
+# CEILING_REL_TOL of the extreme value, whichever is larger.  A held (sample-and-hold) upsampling puts runs of
+# equal samples at random levels; only the one source sample at the file's extreme reaches the ceiling, so
+# CEILING_MIN_PLATEAUS runs there cannot come from it.
+#: run length (own reasoning: two equal samples can be a smooth maximum midway between them)
+CEILING_MIN_RUN = 3
+#: tolerance about the ceiling, relative (0.0009 dB; own reasoning: a soft clipper's curve within it is flat at
+#: the sample scale) and the step that must enter and leave a run, in units of q (own reasoning: 4 q for a
+#: quadratic maximum and 16 q for a quartic one, as above; 50 leaves a margin of 3 over the quartic)
+CEILING_REL_TOL = 1e-4
+CEILING_ENTRY_FACTOR = 50.0
+#: folded content from flat tops: at least this many runs at the ceilings over the file (house choice: the
+#: tuning corpus' clipped voices show hundreds, its band-limited twins, native mixes and speech none)
+CEILING_MIN_PLATEAUS = 20
+#: the stream is counted in chunks of this many samples, whatever the engine's block size (a run across two chunks
+#: is not counted; house choice)
+CEILING_CHUNK = 65536
+
+
+def ceiling_plateaus(x: np.ndarray, level: float, q: float) -> int:
+    """Runs of at least CEILING_MIN_RUN samples of ``x`` within ``q`` under ``level`` (a positive ceiling; pass
+    ``-x`` and the negated floor for the negative side), entered and left by a step of at least
+    CEILING_ENTRY_FACTOR * q; runs touching the ends of ``x`` are not counted."""
+    at = x >= level - q
+    if np.count_nonzero(at) < CEILING_MIN_RUN:
+        return 0
+    d = np.diff(np.concatenate(([0], at.astype(np.int8), [0])))
+    starts = np.nonzero(d == 1)[0]
+    ends = np.nonzero(d == -1)[0]   # one past the run
+    ok = (ends - starts >= CEILING_MIN_RUN) & (starts >= 1) & (ends < x.size)
+    starts, ends = starts[ok], ends[ok]
+    if starts.size == 0:
+        return 0
+    step = CEILING_ENTRY_FACTOR * q
+    good = (level - x[starts - 1] >= step) & (level - x[ends] >= step)
+    return int(good.sum())
+
+
+def ceiling_tolerance(level: float, lsb: float) -> float:
+    """q of the flat-top test: half a code (``lsb`` the code step, 0 for float files) or CEILING_REL_TOL of the
+    ceiling ``level``, whichever is larger."""
+    return max(0.5 * lsb, CEILING_REL_TOL * abs(level))
+
+
 # ---------------------------------------------------------------- irregular sample grid
 # Sample dropping (deleting every k-th sample, or a nearest-sample rate change without a filter)
 # takes the samples on an irregular time grid: at each drop the sample clock skips one source
@@ -1687,6 +1739,13 @@ class AliasingAnalyzer(Analyzer):
         self.deferred = []   # (test, start, frame) kept for finish()
         self.first_pass_settled = False
         self._grid_memo = None
+        # flat tops: per block and channel (max, runs at it, min, runs at it)
+        bits = int(getattr(info, "bit_depth", 0) or 0)
+        self.ceiling_lsb = 0.0 if getattr(info, "is_float", False) or bits <= 0 else 2.0 ** (1 - bits)
+        self.ceiling_blocks = []
+        self.ceiling_seen = None   # per channel [highest, lowest] sample so far
+        self.ceiling_buffer = []   # channel rows not yet counted
+        self.ceiling_buffered = 0
         self._parts_taken = False   # finish_parts() has been called (by the engine, or by finish())
 
     # ---- frame analyses (one frame each); every FIRST_PASS_STRIDE-th frame (spread over the file; for the
@@ -1739,6 +1798,7 @@ class AliasingAnalyzer(Analyzer):
                 self.deferred.append((key, int(start), np.array(frame, dtype=np.float32)))
 
     def process(self, block) -> None:
+        self._ceiling(block)
         self._feed("tonal", self.pick_long, block, self._tonal)
         self._feed("poly", self.pick_poly, block, self._poly)
         self._feed("step", self.pick_step, block, self._step)
@@ -1747,6 +1807,72 @@ class AliasingAnalyzer(Analyzer):
         for j, tr in enumerate(self.trackers):
             self._feed(f"track{j}", tr["picker"], block, lambda st, fr, _tr=tr: self._track(_tr, st, fr),
                        run=TRACK_RUN, stride=TRACK_FIRST_PASS_STRIDE)
+
+    def _ceiling(self, block, final: bool = False) -> None:
+        """Feeds the flat-top test: the stream is cut into chunks of CEILING_CHUNK samples (the same whatever the
+        block size), each counted by :meth:`_ceiling_chunk`; ``final``: the rest is counted too."""
+        if block is not None:
+            b = np.asarray(block)
+            if b.ndim == 1:
+                b = b[:, None]
+            self.ceiling_buffer.append(np.ascontiguousarray(b.T))   # one row per channel
+            self.ceiling_buffered += b.shape[0]
+        if self.ceiling_buffered < CEILING_CHUNK and not (final and self.ceiling_buffered):
+            return
+        rows = np.concatenate(self.ceiling_buffer, axis=1) if len(self.ceiling_buffer) > 1 else self.ceiling_buffer[0]
+        done = 0
+        while rows.shape[1] - done >= CEILING_CHUNK:
+            self._ceiling_chunk(rows[:, done:done + CEILING_CHUNK])
+            done += CEILING_CHUNK
+        if final and rows.shape[1] > done:
+            self._ceiling_chunk(rows[:, done:])
+            done = rows.shape[1]
+        rest = rows[:, done:]
+        self.ceiling_buffer = [rest] if rest.shape[1] else []
+        self.ceiling_buffered = rest.shape[1]
+
+    def _ceiling_chunk(self, b) -> None:
+        """The flat-top test's counts on one chunk (channel rows; see :func:`ceiling_plateaus`); a side whose chunk
+        extreme lies more than q inside the extreme seen so far is not counted (it cannot be within q of the
+        file's)."""
+        if b.shape[1] < CEILING_MIN_RUN + 2:
+            return
+        hi, lo = b.max(axis=1), b.min(axis=1)
+        if self.ceiling_seen is None:
+            self.ceiling_seen = [[-np.inf, np.inf] for _c in range(b.shape[0])]
+        row = []
+        for c in range(b.shape[0]):
+            h, m = float(hi[c]), float(lo[c])
+            seen = self.ceiling_seen[c]
+            n_hi = n_lo = 0
+            if h > 0:
+                q = ceiling_tolerance(h, self.ceiling_lsb)
+                if h >= seen[0] - q:
+                    n_hi = ceiling_plateaus(b[c], h, q)
+            if m < 0:
+                q = ceiling_tolerance(m, self.ceiling_lsb)
+                if m <= seen[1] + q:
+                    n_lo = ceiling_plateaus(-b[c], -m, q)
+            seen[0], seen[1] = max(seen[0], h), min(seen[1], m)
+            if n_hi or n_lo:
+                row.append((c, h, n_hi, m, n_lo))
+        if row:
+            self.ceiling_blocks.append(row)
+
+    def _ceiling_count(self) -> int:
+        """Runs at each channel's extreme values over the whole file (chunks whose own extreme lies within q of
+        the file's)."""
+        self._ceiling(None, final=True)
+        total = 0
+        for c, (h, m) in enumerate(self.ceiling_seen or []):
+            rows = [r for row in self.ceiling_blocks for r in row if r[0] == c]
+            if h > 0:
+                q = ceiling_tolerance(h, self.ceiling_lsb)
+                total += sum(r[2] for r in rows if r[1] >= h - q)
+            if m < 0:
+                q = ceiling_tolerance(m, self.ceiling_lsb)
+                total += sum(r[4] for r in rows if r[3] <= m + q)
+        return total
 
     def _grid_stats(self):
         """The irregular-grid, drop-pattern and predicted-line tests on the grid frames analysed so far, a dict:
@@ -2006,6 +2132,7 @@ class AliasingAnalyzer(Analyzer):
             "grid_binary_pattern_period_samples": bin_period,
             "grid_conversion_lines_log10_p": round(conv[0], 2),
             "grid_conversion_source_hz": conv[1],
+            "ceiling_flat_run_count": int(self._ceiling_count()),
             "where_s": [],
             "fold_examples": [],
         }
@@ -2021,9 +2148,11 @@ class AliasingAnalyzer(Analyzer):
                                  or (instances > 0 and (fold_evidence(evident_n, instances, chance) or rank_hit)))
         reflect_hit = len(reflections) >= MIN_REFLECTED_PARTIALS
         grid_hit = drop_hit or pattern_hit or binary_hit or conv_hit
-        detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit or reflected_hit
+        ceiling_runs = detail["ceiling_flat_run_count"]
+        ceiling_hit = ceiling_runs >= CEILING_MIN_PLATEAUS
+        detected = line_hit or poly_hit or reflect_hit or step_hit or grid_hit or reflected_hit or ceiling_hit
         assessable = (bool(assess) or bool(poly_assess) or bool(reflections) or (bool(step_frames) and grid is None)
-                      or grid_hit or bool(grid_assess))
+                      or grid_hit or bool(grid_assess) or ceiling_hit)
         if line_hit:
             dur = self.n_long / self.fs
             detail["where_s"] = [(s / self.fs, s / self.fs + dur) for s, _r in evident]
@@ -2104,6 +2233,10 @@ class AliasingAnalyzer(Analyzer):
                              f"steps by a binary fraction (a single-precision or fixed-point accumulator), in step "
                              f"with the sample clock (profile agreement {bin_ag:.2f}): samples were picked without "
                              "a filter, which folds")
+            if ceiling_hit:
+                parts.append(f"{ceiling_runs} runs of samples sit flat on the waveform's extreme value, entered and "
+                             "left by a large step: a clipping curve evaluated at the sample instants, whose corners "
+                             "fold")
             detail["reason"] = "; ".join(parts)
         else:
             if score is not None and score >= ALIAS_SCORE_MIN_DB:
