@@ -622,7 +622,7 @@ def _folded_cases(seed: int, quick: bool):
             yield up.tuning_case(cname, fam, group, dst, audio, exp, up.default_labels(ch), seed, rng)
 
 
-# ================================================================ short Kaiser banks with interpolated phases (written here)
+# ======================================================== short Kaiser banks with interpolated phases (written here)
 # A short Kaiser-windowed sinc (6-12 taps, beta 3-6, -6 dB at 0.84-0.90 of the source Nyquist frequency, the
 # ``cutoff * sinc(cutoff * t)`` of :func:`window_kernel`) tabulated at a few fractional delays (8, 16 or 32 phases),
 # each output's weights interpolated linearly between the two nearest tabulated phases: the effective kernel is the
@@ -630,7 +630,8 @@ def _folded_cases(seed: int, quick: bool):
 # families ``own-kaiser-bank<taps>``, at whole and fractional ratios from 11.025-32 kHz; labelled from that
 # piecewise-linear kernel's response as the file samples it, against the house line
 # (:func:`kaiser_bank_image_level_db`): its first images at ``r - f`` plus the images of the phase table at
-# ``phases * r - f``, of the content at 0.3-0.7 of the source Nyquist frequency.  Each with its long-design twin (False).  Short designs of this kind whose
+# ``phases * r - f``, of the content at 0.3-0.7 of the source Nyquist frequency.  Each with its long-design twin
+# (False).  Short designs of this kind whose
 # first side lobes lie near 55 dB (8 taps, beta 5) leave the inner band's images at about -56 dB on flat content:
 # a resampler's trace by the house line, not imaging, although the energy of their transition band above the
 # source Nyquist frequency reaches -30 to -40 dB of the band.

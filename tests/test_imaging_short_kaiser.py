@@ -75,7 +75,8 @@ def _candidate(m, rate):
 @pytest.mark.parametrize("taps,beta,verdict", [(8, 5.0, "trace"), (6, 3.0, "defect")])
 def test_short_kaiser_converter_is_judged_by_its_kernels_inner_band_images(taps, beta, verdict):
     """Analytic (module docstring): from 24 to 48 kHz, -6 dB at 0.86 of the source Nyquist frequency, tones at
-    3.913 and 4.797 kHz (0.33 and 0.40 of it, no common fundamental).  The 8-tap beta-5 design (the shortest Kaiser converters ship designs of
+    3.913 and 4.797 kHz (0.33 and 0.40 of it, no common fundamental).
+    The 8-tap beta-5 design (the shortest Kaiser converters ship designs of
     this kind) leaves their images 54 and 58.5 dB down, under the line: a trace; the 6-tap beta-3 design 34 dB
     down: imaging.  The analyzer measures the power-weighted level within 1 dB."""
     src, factor, cutoff = 24000, 2, 0.86
@@ -98,7 +99,8 @@ def test_short_kaiser_converter_is_judged_by_its_kernels_inner_band_images(taps,
 
 
 def test_a_multiple_of_the_source_rate_is_not_judged_a_defect_by_the_converters_higher_images(rng):
-    """Analytic (module docstring; tolerances a house choice).  From 22.05 to 48 kHz through an 8-tap Kaiser (beta 5.8, -6 dB at 0.86 of the source Nyquist frequency) on
+    """Analytic (module docstring; tolerances a house choice).
+    From 22.05 to 48 kHz through an 8-tap Kaiser (beta 5.8, -6 dB at 0.86 of the source Nyquist frequency) on
     white noise: the 22.05 kHz candidate measures the kernel's first images of the inner band's content within
     1.5 dB of their level from the kernel's continuous response (its Fourier transform summed numerically on a
     grid of 1/512 sample), 55 dB and more down, a trace; the 44.1 kHz candidate, coherent through the second-order
