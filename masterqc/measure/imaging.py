@@ -102,6 +102,10 @@ At small ratios (44.1 -> 48 kHz) the first images of the inner band's content fo
 (at ``f + fs - r``); they are judged by the same line through their coherence with the content pooled over
 sub-bands, against control cycle frequencies (:data:`FOLDED_SUBBAND_FRACTION`, :meth:`ImagingAnalyzer._folded_inner`).
 
+A converter from ``r`` is coherent at every multiple ``k r``: a spectrum defect at such a multiple is that
+conversion's images of a higher order, reported as a trace, where ``r``'s own images fill the band above its
+Nyquist frequency (:data:`MULTIPLE_EXPLAINED_FRACTION`); the house line judges them through ``r``'s first images.
+
 Cost: at most :data:`MAX_FRAMES` frames per file spread over it (one FFT of
 ``fs/25`` samples per frame and channel, and one product per pair of the candidates'
 own cycle frequencies), independent of the file's length.  The frames' spectra are
@@ -243,6 +247,19 @@ CLEAR_SUBBANDS = ((0.3, 0.4), (0.4, 0.5), (0.5, 0.6), (0.6, 0.7), (0.7, 0.8), (0
 #: explain 0.1 or less.  House choice: 0.3, room for a noise floor (dither, a noise bed added after the
 #: conversion) at the images' positions
 MIN_IMAGES_EXPLAINED_FRACTION = 0.3
+#: a spectrum defect at a whole multiple ``R = k r`` (k >= 2) of a lower candidate ``r`` whose images (trace or defect)
+#: explain at least this share of the band above ``r``'s Nyquist frequency is ``r``'s images of a higher order, not a
+#: source at ``R`` (:meth:`ImagingAnalyzer.finish`).  Own reasoning: a file converted up from ``r`` holds above
+#: ``r / 2`` that converter's images and nothing else (0.999 and more at 24 bits, whatever the filter), and ``r``'s
+#: images of its own inner band's content are measured (its inner band holds content, at least CONTENT_FLOOR_DB of
+#: its band's, and a level: ``r`` has content of its own; a tone at ``r / 2`` mirrors itself there and explains all
+#: of it without being a source), so the inner
+#: band of ``R`` (0.3-0.7 of ``R / 2``, for k = 2 more than half of it above ``r / 2``) holds no content of its own
+#: and ``R``'s "images" are ``r``'s converter response at ``k r - f``, judged through ``r``'s own first images by the
+#: house definition; a later stage converting up from ``R`` with leaky images (a short filter, after a proper
+#: conversion from ``r``) puts its own images above ``r / 2`` too, uncoherent at ``r``, and where they reach a tenth
+#: of the power there (10 dB under ``r``'s images) ``r`` explains less than 0.9 and the defect at ``R`` stands.
+MULTIPLE_EXPLAINED_FRACTION = 0.9
 #: a sub-band rules out only with at least this many clear pairs (own reasoning: the bound needs a
 #: few hundred hertz of content)
 CLEAR_MIN_PAIRS = 8
@@ -1486,6 +1503,8 @@ class ImagingAnalyzer(Analyzer):
                     drop.append(int(al))
         main_args = dict(mean_bin_power=base_power / max(1, hi + 1 - lo), drop_alpha=drop,
                          use_inner=inner_power >= base_power * 10 ** (CONTENT_FLOOR_DB / 10))
+        # (read by the multiple rule in finish, then dropped: whether the candidate's inner band holds content)
+        base["inner_content"] = main_args["use_inner"]
         main = self._stats(cand["cycles"][0], ch, full=False, **main_args)
         if main is None:
             base["reason"] = "no signal at the mirror frequencies"
@@ -1691,6 +1710,27 @@ class ImagingAnalyzer(Analyzer):
                                          f"kHz is a multiple of {b['source_rate_hz'] / 1000:g} kHz, whose images "
                                          f"({b['verdict']}) explain them"))
                         break
+        # a defect at a multiple of a lower candidate whose images fill the band above its Nyquist frequency: that
+        # rate's images of a higher order (MULTIPLE_EXPLAINED_FRACTION; the same physics as the folded rule above)
+        for a in out:
+            if a["verdict"] != "defect":
+                continue
+            for b in out:
+                k = a["source_rate_hz"] / b["source_rate_hz"]
+                if k >= 2 - 1e-9 and abs(k - round(k)) < 1e-9 and b["verdict"] in ("trace", "defect") \
+                        and b["image_level_db"] is not None and b.get("inner_content") \
+                        and (b["images_explained_fraction"] or 0.0) >= MULTIPLE_EXPLAINED_FRACTION:
+                    a.update(verdict="trace",
+                             reason=(f"coherent images at {a['source_rate_hz'] / 1000:g} kHz "
+                                     f"({a['image_level_db']} dB of the content at {_inner_khz(a['source_rate_hz'])}), "
+                                     f"but {a['source_rate_hz'] / 1000:g} kHz is a multiple of "
+                                     f"{b['source_rate_hz'] / 1000:g} kHz, whose images ({b['verdict']}) explain "
+                                     f"{100 * b['images_explained_fraction']:.0f} % of the band above "
+                                     f"{b['source_rate_hz'] / 2000:g} kHz: that conversion's images of a higher order"),
+                             image_level_db=None)
+                    break
+        for a in out:
+            a.pop("inner_content", None)
         out = self._with_pattern(out)
         out = self._with_hold(out)
         out = self._with_nearest_phase(out)
