@@ -1236,3 +1236,39 @@ def test_partials_that_end_over_bursts_that_go_on_stay_tonal():
     x = quantise24(corpus.set_rms(notes + 0.15 * bursts, -14.0), rng)
     r = assess(x, 48000)
     assert r.upsampled_from_hz is None and r.band_limit_hz is None, r.note
+
+
+def _zero_phase_butter_points_hz(order, corner_hz, fs):
+    """The -6 and -40 dB points of a Butterworth low-pass run forwards and backwards (scipy.signal.butter, its
+    response read with sosfreqz on a 0.5 Hz grid and squared: a reference library)."""
+    sos = sps.butter(order, corner_hz, fs=fs, output="sos")
+    f = np.arange(0.5 * corner_hz, 0.499 * fs, 0.5)
+    _w, h = sps.sosfreqz(sos, worN=f, fs=fs)
+    db = 40.0 * np.log10(np.maximum(np.abs(h), 1e-300))
+    return float(f[np.nonzero(db <= -6.0)[0][0]]), float(f[np.nonzero(db <= -40.0)[0][0]])
+
+
+@pytest.mark.parametrize("corner_hz,fs", [(41000.0, 176400), (20000.0, 48000), (40000.0, 96000), (20000.0, 96000)])
+def test_narrowest_butterworth_fall_matches_scipy_design(corner_hz, fs):
+    # analytic (bandwidth.BUTTERWORTH_SPAN_RATIO): the steepest Butterworth the fit allows (order 12, zero-phase)
+    # falls from -6 to -40 dB over exactly the span butterworth_min_span_hz gives at its -6 dB point; checked
+    # against scipy's own design within 2 Hz (the 0.5 Hz grid, twice, and the -6 dB point read off it)
+    f6, f40 = _zero_phase_butter_points_hz(bw.BUTTERWORTH_MAX_ORDER, corner_hz, fs)
+    assert bw.butterworth_min_span_hz(f6, fs) == pytest.approx(f40 - f6, abs=2.0)
+
+
+def test_a_fall_steeper_than_any_butterworth_skips_the_shape_test_only_there():
+    # a cliff at 42.25 kHz in a 176.4 kHz file falling from -6 to -40 dB within 904 Hz (a very-high-quality
+    # converter from 88.2 kHz): the narrowest 12th-order zero-phase Butterworth there needs 5.37 kHz (analytic,
+    # BUTTERWORTH_SPAN_RATIO), so no Butterworth the shape test guards against can make it
+    cliff = {"edge_hz": 42250.0, "f20_hz": 42708.0, "f40_hz": 43154.0}
+    assert bw.butterworth_min_span_hz(42250.0, 176400) == pytest.approx(5370.0, abs=5.0)
+    assert not bw.butterworth_could_fall(cliff, 1, 176400)
+    # the same numbers read at 20 kHz in a 48 kHz file: there a 12th-order zero-phase Butterworth falls from -6 to
+    # -40 dB within 674 Hz (bilinear warping next to the Nyquist), so a 904 Hz fall keeps the shape test
+    near = {"edge_hz": 20000.0, "f20_hz": 20458.0, "f40_hz": 20904.0}
+    assert bw.butterworth_min_span_hz(20000.0, 48000) == pytest.approx(674.0, abs=2.0)
+    assert bw.butterworth_could_fall(near, 1, 48000)
+    # read at scale 2 the cliff's frequencies are twice the file's: 42.25 kHz at scale 2 is 21.125 kHz
+    assert bw.butterworth_could_fall({"edge_hz": 42250.0, "f40_hz": 43154.0}, 2, 48000) == \
+        (452.0 >= bw.butterworth_min_span_hz(21125.0, 48000))
