@@ -1269,6 +1269,12 @@ def test_a_fall_steeper_than_any_butterworth_skips_the_shape_test_only_there():
     near = {"edge_hz": 20000.0, "f20_hz": 20458.0, "f40_hz": 20904.0}
     assert bw.butterworth_min_span_hz(20000.0, 48000) == pytest.approx(674.0, abs=2.0)
     assert bw.butterworth_could_fall(near, 1, 48000)
+    # the skip is for a fall that ends at the old Nyquist (-6 dB at 0.955 of it or above, stop band from 0.97):
+    # 42.25 kHz and 43.21 kHz are 0.958 and 0.980 of 44.1 kHz; an 8th-order elliptic read at 17.61 kHz with its stop
+    # band from 21.48 kHz (0.80 and 0.97 of 22.05 kHz, tuning set) keeps the shape test (by construction)
+    assert bw.ends_at_nyquist(dict(cliff, stop_start_hz=43207.0), 88200)
+    assert not bw.ends_at_nyquist({"edge_hz": 17606.0, "stop_start_hz": 21477.0}, 44100)
+    assert not bw.ends_at_nyquist(dict(cliff, stop_start_hz=42700.0), 88200)
     # read at scale 2 the cliff's frequencies are twice the file's: 42.25 kHz at scale 2 is 21.125 kHz
     assert bw.butterworth_could_fall({"edge_hz": 42250.0, "f40_hz": 43154.0}, 2, 48000) == \
         (452.0 >= bw.butterworth_min_span_hz(21125.0, 48000))

@@ -1329,7 +1329,9 @@ def shape_ratio(cliff: dict, scale: int = 1) -> float:
 #: to its -40 dB point ``w`` grows by exactly ``(99 / (10**0.3 - 1))**(1 / (2N))`` (1.211 for N = 12), whatever its
 #: corner (analytic).  A fall from -6 to -40 dB narrower than that span at its own -6 dB point in the file is steeper
 #: than any Butterworth the fit considers, and the envelope's closing and smoothing only widen a fall, so its shape
-#: says nothing about a Butterworth (own reasoning).  In a 44.1 or 48 kHz file next to its Nyquist the span is
+#: says nothing about a Butterworth (own reasoning); the shape test is then skipped for a fall that ends at the old
+#: Nyquist as a very-high-quality converter's does (:func:`ends_at_nyquist`), since elliptic and Chebyshev
+#: low-passes are that steep too and the shape test is what turns them away elsewhere.  In a 44.1 or 48 kHz file next to its Nyquist the span is
 #: 0.37-0.68 kHz at 20 kHz, under SHAPE_MIN_SPAN_HZ, so nothing changes there; in a 176.4 kHz file at 42 kHz it is
 #: 5.4 kHz, while a very-high-quality converter from 88.2 kHz falls from -6 to -40 dB within about 0.9 kHz: its
 #: shape ratio (wider than SHAPE_MIN_SPAN_HZ, so read) depends on how the design approaches its stop band, 0.7-0.85
@@ -1343,6 +1345,18 @@ def butterworth_min_span_hz(edge_hz: float, fs: float) -> float:
     (see :data:`BUTTERWORTH_SPAN_RATIO`)."""
     x = math.tan(math.pi * min(edge_hz, 0.49999 * fs) / fs) * BUTTERWORTH_SPAN_RATIO
     return fs / math.pi * math.atan(x) - edge_hz
+
+
+def ends_at_nyquist(cliff: dict, rate_hz: float) -> bool:
+    """True when a cliff's -6 dB point lies at :data:`STEEP_MIN_EDGE_RATIO` of ``rate_hz``'s Nyquist or above and its
+    stop band begins at :data:`STEEP_MIN_STOP_RATIO` of it or above (frequencies on the scale of ``rate_hz``): where
+    a very-high-quality converter puts a narrow fall.  Only such a fall skips the shape test where no Butterworth
+    could make it (:func:`butterworth_could_fall`): an elliptic or Chebyshev low-pass is as steep as that, and its
+    fall slows towards its stop band (shape ratios of 1.5-2.1 for an 8th-order elliptic at 17 kHz in a 96 kHz
+    file, tuning set), but it sits anywhere, and at 0.80 of 22.05 kHz there (own reasoning)."""
+    stop = cliff.get("stop_start_hz")
+    nyq = rate_hz / 2.0
+    return cliff["edge_hz"] >= STEEP_MIN_EDGE_RATIO * nyq and stop is not None and stop >= STEEP_MIN_STOP_RATIO * nyq
 
 
 def butterworth_could_fall(cliff: dict, scale: int, fs: float) -> bool:
@@ -1502,7 +1516,7 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
                 and (brick or converter_width_fits(cliff, rate))
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
                 and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO
-                     or not butterworth_could_fall(cliff, scale, 2.0 * nyq))):
+                     or (not butterworth_could_fall(cliff, scale, 2.0 * nyq) and ends_at_nyquist(cliff, rate)))):
             rate = None
         elif brick:
             cliff["brick"] = True
