@@ -324,6 +324,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_steep_and_low_narrow(seed, quick))
     plan.extend(_plan_channel_band_limits(seed, quick))
     plan.extend(_plan_lines(seed, quick))
+    plan.extend(_plan_high_ratio_and_short_sinc(seed, quick))
     return plan
 
 
@@ -572,6 +573,8 @@ def _build(spec, rng, seconds):
         return build_channel_band_limits(spec, rng, seconds)
     if kind in ("lines", "linesnat"):
         return build_lines(spec, rng, seconds)
+    if kind in ("highratio", "shortsinc"):
+        return build_high_ratio_and_short_sinc(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -1788,3 +1791,65 @@ def build_lines(spec, rng, seconds):
         return fs, set_rms(x, level)[:, None], {"upsampled_from_hz": None, "upsampled_channels": []}, ["M"]
     x = sps.sosfilt(sps.butter(order, ratio * r / 2.0, fs=fs, output="sos"), lines_material(fs, seconds, rng, 0.97, share))
     return fs, set_rms(x, level)[:, None], {"upsampled_from_hz": None, "upsampled_channels": []}, ["M"]
+
+
+# ================================================================ high ratios into 176.4/192 kHz, very short sincs (own section)
+# Appended after every other group (own seeds), so the cases above keep their noise; none in the quick slice.
+# - group ``upsampled-high-ratio``: 88.2, 96 and 48 kHz sources converted up to 176.4 and 192 kHz by the steep
+#   very-high-quality designs (:func:`steep_design`: Kaiser, pass band to 0.91-0.95 of the old Nyquist, 150-170 dB,
+#   and its minimum-phase twin): the cliff then sits near a quarter of the file's rate, where the transition, as wide
+#   in hertz as the source rate is high, is read wide enough for the shape test, and a Kaiser window of beta 14-17
+#   approaches its stop band like a Gaussian, not with the accelerating fall of a short design;
+# - group ``upsampled-short-sinc``: scipy resample_poly with a Kaiser-windowed sinc of 4 taps per phase (two zero
+#   crossings either side, beta 2-4, -6 dB at the old Nyquist) at integer ratios of 4 and 6 (24 -> 96, 16 -> 96,
+#   22.05 -> 88.2, 11.025 -> 44.1, 8 -> 48, 48 -> 192 kHz): images loud enough to be a defect, coherent at the source
+#   rate's multiples inside the file.
+HIGH_RATIO_CONVERSIONS = ((88200, 176400, "linear"), (96000, 176400, "linear"), (88200, 192000, "linear"),
+                          (96000, 192000, "minphase"), (48000, 176400, "linear"), (96000, 176400, "minphase"),
+                          (88200, 176400, "minphase"), (48000, 192000, "linear"))
+HIGH_RATIO_MATERIALS = ("music", "noise", "sparse", "speech")
+SHORT_SINC_CONVERSIONS = ((24000, 96000), (16000, 96000), (22050, 88200), (11025, 44100), (8000, 48000),
+                          (48000, 192000), (24000, 96000), (32000, 192000))
+SHORT_SINC_MATERIALS = ("music", "speech", "noise", "sparse", "tonal")
+
+
+def _plan_high_ratio_and_short_sinc(seed: int, quick: bool):
+    """(name, family, group, spec) of groups "upsampled-high-ratio" and "upsampled-short-sinc" (none in the
+    quick slice)."""
+    if quick:
+        return []
+    rng = np.random.default_rng([int(seed), 41])
+    plan = []
+    pick = _picker(rng)
+    for ci, (src, dst, kind) in enumerate(HIGH_RATIO_CONVERSIONS):
+        if kind == "linear":
+            p, atten = pick(STEEP_PASS_RATIOS), float(pick((150.0, 170.0)))
+        else:
+            p, atten = pick(MINPHASE_DESIGNS)
+        mat = HIGH_RATIO_MATERIALS[ci % len(HIGH_RATIO_MATERIALS)]
+        ch = pick([1, 2])
+        spec = ("highratio", src, dst, kind, p, atten, mat, ch, float(rng.uniform(-30.0, -8.0)))
+        plan.append((f"hr_{kind}_p{round(p * 100)}_{src}_to_{dst}_{mat}_{ch}ch", f"steep-{kind}",
+                     "upsampled-high-ratio", ("own-seed", [int(seed), 41, len(plan)], spec)))
+    for ci, (src, dst) in enumerate(SHORT_SINC_CONVERSIONS):
+        if dst % src:
+            continue
+        beta = float(pick((2.0, 3.0, 4.0)))
+        mat = SHORT_SINC_MATERIALS[ci % len(SHORT_SINC_MATERIALS)]
+        ch = pick([1, 2])
+        spec = ("shortsinc", src, dst, beta, mat, ch, float(rng.uniform(-30.0, -8.0)))
+        plan.append((f"ss_4t_b{beta:g}_{src}_to_{dst}_{mat}_{ch}ch", "scipy-resample_poly-short4",
+                     "upsampled-short-sinc", ("own-seed", [int(seed), 41, len(plan)], spec)))
+    return plan
+
+
+def build_high_ratio_and_short_sinc(spec, rng, seconds):
+    if spec[0] == "highratio":
+        _k, src, dst, kind, p, atten, mat, ch, level = spec
+        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+        y = np.stack([steep_convert(x[:, c], src, dst, p, atten, kind == "minphase") for c in range(ch)], axis=1)
+        return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+    _k, src, dst, beta, mat, ch, level = spec
+    x = set_rms(np.stack([imaging_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
+    y = np.stack([leaky_upsample(x[:, c], src, dst, 4, 1.0, beta) for c in range(ch)], axis=1)
+    return dst, y, {"upsampled_from_hz": src}, default_labels(ch)

@@ -1258,3 +1258,45 @@ def test_stop_levels_match_numpy_percentile_where_a_drop_can_read_them(width):
     assert np.all(ref[~kept] > at_most[~kept] + 1.0)
     # every level at or under its bound is kept
     assert np.all(kept[ref <= at_most])
+
+
+def _zero_phase_butter_points_hz(order, corner_hz, fs):
+    """The -6 and -40 dB points of a Butterworth low-pass run forwards and backwards (scipy.signal.butter, its
+    response read with sosfreqz on a 0.5 Hz grid and squared: a reference library)."""
+    sos = sps.butter(order, corner_hz, fs=fs, output="sos")
+    f = np.arange(0.5 * corner_hz, 0.499 * fs, 0.5)
+    _w, h = sps.sosfreqz(sos, worN=f, fs=fs)
+    db = 40.0 * np.log10(np.maximum(np.abs(h), 1e-300))
+    return float(f[np.nonzero(db <= -6.0)[0][0]]), float(f[np.nonzero(db <= -40.0)[0][0]])
+
+
+@pytest.mark.parametrize("corner_hz,fs", [(41000.0, 176400), (20000.0, 48000), (40000.0, 96000), (20000.0, 96000)])
+def test_narrowest_butterworth_fall_matches_scipy_design(corner_hz, fs):
+    # analytic (bandwidth.BUTTERWORTH_SPAN_RATIO): the steepest Butterworth the fit allows (order 12, zero-phase)
+    # falls from -6 to -40 dB over exactly the span butterworth_min_span_hz gives at its -6 dB point; checked
+    # against scipy's own design within 2 Hz (the 0.5 Hz grid, twice, and the -6 dB point read off it)
+    f6, f40 = _zero_phase_butter_points_hz(bw.BUTTERWORTH_MAX_ORDER, corner_hz, fs)
+    assert bw.butterworth_min_span_hz(f6, fs) == pytest.approx(f40 - f6, abs=2.0)
+
+
+def test_a_fall_steeper_than_any_butterworth_skips_the_shape_test_only_there():
+    # a cliff at 42.25 kHz in a 176.4 kHz file falling from -6 to -40 dB within 904 Hz (a very-high-quality
+    # converter from 88.2 kHz): the narrowest 12th-order zero-phase Butterworth there needs 5.37 kHz (analytic,
+    # BUTTERWORTH_SPAN_RATIO), so no Butterworth the shape test guards against can make it
+    cliff = {"edge_hz": 42250.0, "f20_hz": 42708.0, "f40_hz": 43154.0}
+    assert bw.butterworth_min_span_hz(42250.0, 176400) == pytest.approx(5370.0, abs=5.0)
+    assert not bw.butterworth_could_fall(cliff, 1, 176400)
+    # the same numbers read at 20 kHz in a 48 kHz file: there a 12th-order zero-phase Butterworth falls from -6 to
+    # -40 dB within 674 Hz (bilinear warping next to the Nyquist), so a 904 Hz fall keeps the shape test
+    near = {"edge_hz": 20000.0, "f20_hz": 20458.0, "f40_hz": 20904.0}
+    assert bw.butterworth_min_span_hz(20000.0, 48000) == pytest.approx(674.0, abs=2.0)
+    assert bw.butterworth_could_fall(near, 1, 48000)
+    # the skip is for a fall that ends at the old Nyquist (-6 dB at 0.955 of it or above, stop band from 0.97):
+    # 42.25 kHz and 43.21 kHz are 0.958 and 0.980 of 44.1 kHz; an 8th-order elliptic read at 17.61 kHz with its stop
+    # band from 21.48 kHz (0.80 and 0.97 of 22.05 kHz, tuning set) keeps the shape test (by construction)
+    assert bw.ends_at_nyquist(dict(cliff, stop_start_hz=43207.0), 88200)
+    assert not bw.ends_at_nyquist({"edge_hz": 17606.0, "stop_start_hz": 21477.0}, 44100)
+    assert not bw.ends_at_nyquist(dict(cliff, stop_start_hz=42700.0), 88200)
+    # read at scale 2 the cliff's frequencies are twice the file's: 42.25 kHz at scale 2 is 21.125 kHz
+    assert bw.butterworth_could_fall({"edge_hz": 42250.0, "f40_hz": 43154.0}, 2, 48000) == \
+        (452.0 >= bw.butterworth_min_span_hz(21125.0, 48000))

@@ -194,6 +194,25 @@ def test_inconsistent_images_name_nothing():
     assert pv.image_rate(_imaging(_below(96000), (44100, 48000))) is None
 
 
+def test_a_lower_rate_whose_own_multiples_are_quiet_is_not_named():
+    # a 24 kHz source converted up to 96 kHz by a short sinc: images coherent at 24 and 48 kHz (its multiples),
+    # and the candidate test at 8 kHz reads them through its own third and sixth multiples.  An 8 kHz source
+    # would leave images at 16 and 32 kHz as well (analytic: images at k r +- f for every k the filter passes);
+    # tested quiet, they rule 8 kHz out, and the verdict's 24 kHz (its images' mirror rate) stands
+    imaging = _imaging(_below(96000), (8000, 24000, 48000))
+    assert pv.skipped_multiples(8000, [8000, 24000, 48000], pv.quiet_rates(imaging)) == [16000, 32000]
+    assert pv.skipped_multiples(24000, [8000, 24000, 48000], pv.quiet_rates(imaging)) == []
+    m = {"upsampled_from_hz": 24000, "upsampled_evidence": "images", "effective_bandwidth_hz": 48000.0,
+         "upsampled_mirror_rate_hz": 24000, "imaging": imaging}
+    assert pv.rate_from_images(dict(m))["upsampled_from_hz"] == 24000
+    # a true 8 kHz source: every multiple coherent, and an image verdict at 24 kHz still takes 8 kHz
+    imaging = _imaging(_below(96000), (8000, 16000, 24000, 32000, 48000))
+    assert pv.image_rate(imaging) == 8000
+    m = {"upsampled_from_hz": 24000, "upsampled_evidence": "images", "effective_bandwidth_hz": 48000.0,
+         "imaging": imaging}
+    assert pv.rate_from_images(dict(m))["upsampled_from_hz"] == 8000
+
+
 # ---------------------------------------------------------------- end to end (in process, the CLI's analyzers)
 
 def _measure(y, fs):

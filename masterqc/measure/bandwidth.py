@@ -1348,6 +1348,51 @@ def shape_ratio(cliff: dict, scale: int = 1) -> float:
     return max(f40 - f20, 10.0) / max(f20 - f6, 10.0)
 
 
+#: the shape test (CONVERTER_MAX_SHAPE_RATIO) tells a converter's fall from a Butterworth's; it is read only where a
+#: Butterworth could make the fall at all.  The steepest one the fit allows (order BUTTERWORTH_MAX_ORDER, zero-phase)
+#: has ``20 log10(1 + w**(2N))`` dB of attenuation, ``w = tan(pi f / fs) / tan(pi fc / fs)``, so from its -6 dB point
+#: to its -40 dB point ``w`` grows by exactly ``(99 / (10**0.3 - 1))**(1 / (2N))`` (1.211 for N = 12), whatever its
+#: corner (analytic).  A fall from -6 to -40 dB narrower than that span at its own -6 dB point in the file is steeper
+#: than any Butterworth the fit considers, and the envelope's closing and smoothing only widen a fall, so its shape
+#: says nothing about a Butterworth (own reasoning); the shape test is then skipped for a fall that ends at the old
+#: Nyquist as a very-high-quality converter's does (:func:`ends_at_nyquist`), since elliptic and Chebyshev
+#: low-passes are that steep too and the shape test is what turns them away elsewhere.  In a 44.1 or 48 kHz file next to its Nyquist the span is
+#: 0.37-0.68 kHz at 20 kHz, under SHAPE_MIN_SPAN_HZ, so nothing changes there; in a 176.4 kHz file at 42 kHz it is
+#: 5.4 kHz, while a very-high-quality converter from 88.2 kHz falls from -6 to -40 dB within about 0.9 kHz: its
+#: shape ratio (wider than SHAPE_MIN_SPAN_HZ, so read) depends on how the design approaches its stop band, 0.7-0.85
+#: for the tuning set's Kaiser designs, near 1 for designs whose fall runs straight in dB down to the floor
+BUTTERWORTH_SPAN_RATIO = (99.0 / (10.0 ** 0.3 - 1.0)) ** (1.0 / (2.0 * BUTTERWORTH_MAX_ORDER))
+
+
+def butterworth_min_span_hz(edge_hz: float, fs: float) -> float:
+    """The narrowest fall from -6 to -40 dB (Hz) a Butterworth low-pass of order :data:`BUTTERWORTH_MAX_ORDER`, run
+    forwards and backwards (bilinear transform), makes with its -6 dB point at ``edge_hz`` in a file of rate ``fs``
+    (see :data:`BUTTERWORTH_SPAN_RATIO`)."""
+    x = math.tan(math.pi * min(edge_hz, 0.49999 * fs) / fs) * BUTTERWORTH_SPAN_RATIO
+    return fs / math.pi * math.atan(x) - edge_hz
+
+
+def ends_at_nyquist(cliff: dict, rate_hz: float) -> bool:
+    """True when a cliff's -6 dB point lies at :data:`STEEP_MIN_EDGE_RATIO` of ``rate_hz``'s Nyquist or above and its
+    stop band begins at :data:`STEEP_MIN_STOP_RATIO` of it or above (frequencies on the scale of ``rate_hz``): where
+    a very-high-quality converter puts a narrow fall.  Only such a fall skips the shape test where no Butterworth
+    could make it (:func:`butterworth_could_fall`): an elliptic or Chebyshev low-pass is as steep as that, and its
+    fall slows towards its stop band (shape ratios of 1.5-2.1 for an 8th-order elliptic at 17 kHz in a 96 kHz
+    file, tuning set), but it sits anywhere, and at 0.80 of 22.05 kHz there (own reasoning)."""
+    stop = cliff.get("stop_start_hz")
+    nyq = rate_hz / 2.0
+    return cliff["edge_hz"] >= STEEP_MIN_EDGE_RATIO * nyq and stop is not None and stop >= STEEP_MIN_STOP_RATIO * nyq
+
+
+def butterworth_could_fall(cliff: dict, scale: int, fs: float) -> bool:
+    """False when a cliff (read at frequency ``scale``) falls from -6 to -40 dB faster than any Butterworth of
+    the fit's orders can (:func:`butterworth_min_span_hz`); then its shape ratio is not a Butterworth test."""
+    f6, f40 = cliff.get("edge_hz"), cliff.get("f40_hz")
+    if f6 is None or f40 is None:
+        return True
+    return (f40 - f6) / scale >= butterworth_min_span_hz(f6 / scale, fs)
+
+
 def scale_for(rate_hz: float) -> int:
     """Frequency scale at which a candidate's cliff is searched (see :func:`assess_power`): 1 for
     sources of 24 kHz and up, 2 for 16 and 22.05 kHz, 4 for 8 and 11.025 kHz."""
@@ -1495,7 +1540,8 @@ def _judge_cliff(env, total, bin_hz, top, floor, nyq, testable, scale):
         elif not (cliff["drop_db"] >= UPSAMPLED_MIN_DEPTH_DB
                 and (brick or converter_width_fits(cliff, rate))
                 and fall <= CONVERTER_MAX_FALL_RATIO * rate / 2.0
-                and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO)):
+                and (brick or shape_ratio(cliff, scale) < CONVERTER_MAX_SHAPE_RATIO
+                     or (not butterworth_could_fall(cliff, scale, 2.0 * nyq) and ends_at_nyquist(cliff, rate)))):
             rate = None
         elif brick:
             cliff["brick"] = True

@@ -93,6 +93,25 @@ def explained_rates(source_hz: int, fs: int | None) -> set:
     return out
 
 
+def quiet_rates(imaging) -> set:
+    """The candidate rates the imaging analyzer tested and found no coherence at (verdict "none")."""
+    return {int(round(float(c["source_rate_hz"]))) for c in (imaging or [])
+            if isinstance(c, dict) and c.get("verdict") == "none" and c.get("source_rate_hz")}
+
+
+def skipped_multiples(rate_hz: int, coherent, quiet) -> list:
+    """The multiples of ``rate_hz`` below the highest coherent rate that were tested and found quiet.
+
+    An upsampler from ``r`` leaves images of the content at ``k r +- f`` for every ``k`` its filter passes, so its
+    images are coherent at every multiple of ``r`` up to the highest order seen: a multiple in between that is
+    tested and shows nothing says the coherence at ``r`` is not its own.  The candidate test at ``r`` reads the
+    cycle frequencies of ``r``'s multiples, so a source at ``3 r`` (24 kHz converted up to 96 kHz by a short
+    sinc) makes ``r`` (8 kHz) read coherent through its third and sixth multiples while the second (16 kHz) and
+    fourth (32 kHz) stay quiet (analytic; own reasoning)."""
+    top = max(coherent, default=0)
+    return [k * rate_hz for k in range(2, top // rate_hz + 1) if k * rate_hz < top and k * rate_hz in quiet]
+
+
 def image_rate(imaging, mirror_hz: int | None = None) -> int | None:
     """The source rate the coherent images name, or None: a coherent rate whose images explain every other
     coherent rate (:func:`explained_rates`); where more than one does (in a 48 kHz file 16 and 32 kHz explain
@@ -102,7 +121,8 @@ def image_rate(imaging, mirror_hz: int | None = None) -> int | None:
     (44.1 and 48 kHz both coherent) names none."""
     rates = coherent_rates(imaging)
     fs = file_rate(imaging)
-    ok = [d for d in rates if set(rates) <= explained_rates(d, fs) | {d}]
+    quiet = quiet_rates(imaging)
+    ok = [d for d in rates if set(rates) <= explained_rates(d, fs) | {d} and not skipped_multiples(d, rates, quiet)]
     if not ok:
         return None
     return mirror_hz if mirror_hz in ok else ok[0]
