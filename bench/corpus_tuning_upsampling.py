@@ -1795,13 +1795,15 @@ def build_lines(spec, rng, seconds):
 
 # ================================================================ coder band ends at a standard Nyquist (s11fa)
 # Group "codec-shelf" (names ``cbe_*``, family ``coder-band-end``): the Layer III-like coder above at low bit rates
-# (33-68 kbit/s per channel, where its budget reaches the low-pass in most granules but not all) behind an encoder low-pass (a Kaiser FIR with a one-sub-band transition, the coder's line
-# cut above its stop band), set where a low-rate coder's bandwidth table puts it, on or just under a standard Nyquist (11.0 kHz at 44.1 kHz: 0.998 of 11.025 kHz; 7.95 kHz at 32 kHz: 0.994 of 8 kHz; 15.95 kHz
-# at 48 kHz: 0.997 of 16 kHz).  Its bit budget codes the bands from the bottom up, so the bands under the low-pass are
-# empty in the granules the budget does not reach: the band end is gated frame by frame, where a resampler's cliff
-# passes the programme in every frame.  Twins (group "upsampled", names ``cbeup_*``): the same sources at the low
-# rate converted up by resample_poly or libsamplerate, then coded by the same coder with its low-pass above the old
-# Nyquist, at the band ends' bit rates and above (at the same rates the bands under the old Nyquist may be gated too).  Drawn from their own generator
+# (33-68 kbit/s per channel, where its budget reaches the low-pass in most granules but not all) behind an encoder
+# low-pass (a Kaiser FIR with a one-sub-band transition, the coder's line cut above its stop band), set where a
+# low-rate coder's bandwidth table puts it, on or just under a standard Nyquist (11.0 kHz at 44.1 kHz: 0.998 of
+# 11.025 kHz; 7.95 kHz at 32 kHz: 0.994 of 8 kHz; 15.95 kHz at 48 kHz: 0.997 of 16 kHz).  Its bit budget codes the
+# bands from the bottom up, so the bands under the low-pass are empty in the granules the budget does not reach: the
+# band end is gated frame by frame, where a resampler's cliff passes the programme in every frame.  Twins (group
+# "upsampled", names ``cbeup_*``): the same sources at the low rate converted up by resample_poly or libsamplerate,
+# then coded by the same coder with its low-pass above the old Nyquist, at the band ends' bit rates and above (at
+# the same rates the bands under the old Nyquist may be gated too).  Drawn from their own generator
 # ([seed, 59, place in the group]); appended after every other group, so no earlier case changes.
 #: (file rate, kbit/s per channel, encoder low-pass Hz)
 BAND_END_CASES = ((44100, 44, 11000.0), (44100, 46, 11000.0), (44100, 45, 11000.0), (32000, 33, 7950.0),

@@ -1065,7 +1065,9 @@ def stop_band_content(fe, floor_db: float, rate_hz: float):
 #: stationary programme's per-bin spread is about 8 dB (one Hann-windowed bin's power is chi-square with two
 #: degrees of freedom: p50 and p10 lie 1.6 and 9.8 dB under the mean) and the programme's own level changes move
 #: both windows alike; a band emptied in at least one frame in ten pulls the 10th percentile down by most of the
-#: band's level, 30-60 dB.  GATED_MIN_EXTRA_SPREAD_DB: measured values in the docs (DEVELOPERS.md)
+#: band's level, 30-60 dB.  GATED_MIN_EXTRA_SPREAD_DB sits twice the largest reading of a converted-up tuning
+#: positive (7 dB, speech, seeds 1000/1001) over zero; the tuning coder band ends (``cbe_*``) read -3 to 24 dB, so
+#: only clearly gated ones are judged (own reasoning; figures in DEVELOPERS.md)
 GATED_TOP_WINDOW = (0.88, 0.97)
 GATED_REF_WINDOW = (0.5, 0.7)
 GATED_MIN_EXTRA_SPREAD_DB = 15.0
