@@ -1065,12 +1065,13 @@ def stop_band_content(fe, floor_db: float, rate_hz: float):
 #: stationary programme's per-bin spread is about 8 dB (one Hann-windowed bin's power is chi-square with two
 #: degrees of freedom: p50 and p10 lie 1.6 and 9.8 dB under the mean) and the programme's own level changes move
 #: both windows alike; a band emptied in at least one frame in ten pulls the 10th percentile down by most of the
-#: band's level, 30-60 dB.  GATED_MIN_EXTRA_SPREAD_DB sits twice the largest reading of a converted-up tuning
-#: positive (7 dB, speech, seeds 1000/1001) over zero; the tuning coder band ends (``cbe_*``) read -3 to 24 dB, so
-#: only clearly gated ones are judged (own reasoning; figures in DEVELOPERS.md)
+#: band's level, 30-60 dB.  GATED_MIN_EXTRA_SPREAD_DB: converted-up tuning positives read up to 14 dB (held notes
+#: over short noise bursts, whose top octave is itself gated by the programme: ``tl_*``, seed 1000; speech up to
+#: 8 dB), the tuning coder band ends (``cbe_*``) -3 to 24 dB: the line keeps 6 dB over the largest positive, so
+#: only clearly gated band ends are judged (own reasoning; figures in DEVELOPERS.md)
 GATED_TOP_WINDOW = (0.88, 0.97)
 GATED_REF_WINDOW = (0.5, 0.7)
-GATED_MIN_EXTRA_SPREAD_DB = 15.0
+GATED_MIN_EXTRA_SPREAD_DB = 20.0
 #: ... and only where the reference band's 10th-percentile frame stands this far above the format's floor (own
 #: reasoning: the quiet frames carry programme, so an empty top band in them is the coder's choice, not a fade
 #: into the floor that reaches the quieter top band first)
