@@ -325,6 +325,7 @@ def _plan(seed: int, quick: bool):
     plan.extend(_plan_channel_band_limits(seed, quick))
     plan.extend(_plan_lines(seed, quick))
     plan.extend(_plan_high_ratio_and_short_sinc(seed, quick))
+    plan.extend(_plan_band_ends(seed, quick))
     return plan
 
 
@@ -575,6 +576,8 @@ def _build(spec, rng, seconds):
         return build_lines(spec, rng, seconds)
     if kind in ("highratio", "shortsinc"):
         return build_high_ratio_and_short_sinc(spec, rng, seconds)
+    if kind in ("cbe", "cbeup"):
+        return build_band_ends(spec, rng, seconds)
     if kind == "ambig":
         _k, fs, corner, how, mat, level = spec
         x = multichannel(mat, fs, 2, seconds, rng)
@@ -1853,3 +1856,62 @@ def build_high_ratio_and_short_sinc(spec, rng, seconds):
     x = set_rms(np.stack([imaging_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
     y = np.stack([leaky_upsample(x[:, c], src, dst, 4, 1.0, beta) for c in range(ch)], axis=1)
     return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+
+
+# ================================================================ coder band ends at a standard Nyquist (s11fa)
+# Group "codec-shelf" (names ``cbe_*``, family ``coder-band-end``): the Layer III-like coder above at low bit rates
+# (33-68 kbit/s per channel, where its budget reaches the low-pass in most granules but not all) behind an encoder
+# low-pass (a Kaiser FIR with a one-sub-band transition, the coder's line cut above its stop band), set where a
+# low-rate coder's bandwidth table puts it, on or just under a standard Nyquist (11.0 kHz at 44.1 kHz: 0.998 of
+# 11.025 kHz; 7.95 kHz at 32 kHz: 0.994 of 8 kHz; 15.95 kHz at 48 kHz: 0.997 of 16 kHz).  Its bit budget codes the
+# bands from the bottom up, so the bands under the low-pass are empty in the granules the budget does not reach: the
+# band end is gated frame by frame, where a resampler's cliff passes the programme in every frame.  Twins (group
+# "upsampled", names ``cbeup_*``): the same sources at the low rate converted up by resample_poly or libsamplerate,
+# then coded by the same coder with its low-pass above the old Nyquist, at the band ends' bit rates and above (at
+# the same rates the bands under the old Nyquist may be gated too).  Drawn from their own generator
+# ([seed, 59, place in the group]); appended after every other group, so no earlier case changes.
+#: (file rate, kbit/s per channel, encoder low-pass Hz)
+BAND_END_CASES = ((44100, 44, 11000.0), (44100, 46, 11000.0), (44100, 45, 11000.0), (32000, 33, 7950.0),
+                  (32000, 34, 7950.0), (48000, 66, 15950.0), (44100, 48, 11000.0), (48000, 68, 15950.0))
+#: the encoder low-pass's transition (Hz, -6 dB point to 60 dB down and as far above the pass band's end): about
+#: one sub-band of a 32-band filter bank at 44.1 kHz, as a polyphase-domain low-pass falls (own reasoning)
+BAND_END_TRANSITION_HZ = 600.0
+#: twins: (source rate, file rate, kbit/s per channel, encoder low-pass Hz)
+BAND_END_TWINS = ((22050, 44100, 64, 16000.0), (16000, 32000, 48, 12000.0), (32000, 48000, 96, 20000.0),
+                  (22050, 44100, 46, 15000.0), (16000, 32000, 33, 12000.0), (32000, 48000, 66, 20000.0))
+
+
+def _plan_band_ends(seed: int, quick: bool):
+    """(name, family, group, spec) of the coder band ends and their twins (two of each in the quick slice)."""
+    rng = np.random.default_rng([int(seed), 59])
+    pick = _picker(rng)
+    plan = []
+    for fs, kbps, lp in (BAND_END_CASES if not quick else BAND_END_CASES[:2]):
+        plan.append((f"cbe_{fs}_{kbps}k_{lp / 1000:g}k", "coder-band-end", "codec-shelf",
+                     ("cbe", fs, kbps, lp, pick(("music", "noise", "speech", "dull")), pick([1, 2]),
+                      float(rng.uniform(-24.0, -10.0)))))
+    for src, fs, kbps, lp in (BAND_END_TWINS if not quick else BAND_END_TWINS[:2]):
+        conv = pick(("scipy-resample_poly-kaiser5", "libsamplerate-sinc_best", "libsamplerate-sinc_medium"))
+        plan.append((f"cbeup_{src}_to_{fs}_{kbps}k", f"up-{conv}-coder-band-end", "upsampled",
+                     ("cbeup", src, fs, kbps, lp, conv, pick(("music", "noise", "speech")), pick([1, 2]),
+                      float(rng.uniform(-24.0, -10.0)))))
+    return [(name, fam, group, ("own-seed", [int(seed), 59, j], spec)) for j, (name, fam, group, spec) in enumerate(plan)]
+
+
+def build_band_ends(spec, rng, seconds):
+    """Audio and labels of one case of :func:`_plan_band_ends`."""
+    if spec[0] == "cbe":
+        _k, fs, kbps, lp, mat, ch, level = spec
+        x = set_rms(np.stack([imaging_material(mat, fs, seconds, rng) for _ in range(ch)], axis=1), level)
+        # the encoder's low-pass before its filter bank: a linear-phase Kaiser FIR with its -6 dB point at ``lp``
+        # and a transition of BAND_END_TRANSITION_HZ to 60 dB, then the coder's own line cut above its stop band
+        taps, beta = sps.kaiserord(60.0, BAND_END_TRANSITION_HZ / (fs / 2.0))
+        h = sps.firwin(taps | 1, lp + BAND_END_TRANSITION_HZ / 2.0, window=("kaiser", beta), fs=fs)
+        x = np.stack([np.convolve(x[:, c], h, mode="same") for c in range(ch)], axis=1)
+        return fs, np.stack([layer3_roundtrip(x[:, c], fs, kbps, rng, lp + BAND_END_TRANSITION_HZ)
+                             for c in range(ch)], axis=1), \
+            {"upsampled_from_hz": None, "upsampled_channels": []}, default_labels(ch)
+    _k, src, fs, kbps, lp, conv, mat, ch, level = spec
+    x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
+    y = np.stack([layer3_roundtrip(upsample(x[:, c], src, fs, conv), fs, kbps, rng, lp) for c in range(ch)], axis=1)
+    return fs, y, {"upsampled_from_hz": src}, default_labels(ch)

@@ -1081,6 +1081,66 @@ def stop_band_content(fe, floor_db: float, rate_hz: float):
     return loud - above, above - floor_db
 
 
+#: a coder's band end is gated frame by frame: at low bit rates a transform or sub-band coder codes its bands from
+#: the bottom up out of each frame's bit budget and leaves the top bands under its low-pass empty in the frames the
+#: budget does not reach, while a resampler's pass band passes whatever the programme holds there in every frame.
+#: Read on the front end's level histogram (channel mean, per bin): the spread between the median and the 10th
+#: percentile frame, median over the bins just under the edge (GATED_TOP_WINDOW, fractions of the edge), less the
+#: same spread over the reference band (GATED_REF_WINDOW, where the coder codes every frame).  Own reasoning: a
+#: stationary programme's per-bin spread is about 8 dB (one Hann-windowed bin's power is chi-square with two
+#: degrees of freedom: p50 and p10 lie 1.6 and 9.8 dB under the mean) and the programme's own level changes move
+#: both windows alike; a band emptied in at least one frame in ten pulls the 10th percentile down by most of the
+#: band's level, 30-60 dB.  GATED_MIN_EXTRA_SPREAD_DB: converted-up tuning positives read up to 14 dB (held notes
+#: over short noise bursts, whose top octave is itself gated by the programme: ``tl_*``, seed 1000; speech up to
+#: 8 dB), the tuning coder band ends (``cbe_*``) -3 to 24 dB: the line keeps 6 dB over the largest positive, so
+#: only clearly gated band ends are judged (own reasoning; figures in DEVELOPERS.md)
+GATED_TOP_WINDOW = (0.88, 0.97)
+GATED_REF_WINDOW = (0.5, 0.7)
+GATED_MIN_EXTRA_SPREAD_DB = 20.0
+#: ... and only where the reference band's 10th-percentile frame stands this far above the format's floor (own
+#: reasoning: the quiet frames carry programme, so an empty top band in them is the coder's choice, not a fade
+#: into the floor that reaches the quieter top band first)
+GATED_REF_ABOVE_FLOOR_DB = 20.0
+
+
+def frame_gated_spread_db(fe, edge_hz: float, floor_db: float):
+    """The extra frame-to-frame spread (dB) just under a band's edge ``edge_hz`` over its reference band (see
+    :data:`GATED_MIN_EXTRA_SPREAD_DB`), or None without the front end's level histogram, with too few bins, or
+    where the reference band's quiet frames lie within :data:`GATED_REF_ABOVE_FLOOR_DB` of the format's floor."""
+    if fe.p10_db is None or fe.p50_db is None or not edge_hz:
+        return None
+    b = fe.bin_hz
+    ta, tz = _bins(GATED_TOP_WINDOW[0] * edge_hz, b), _bins(GATED_TOP_WINDOW[1] * edge_hz, b)
+    ra, rz = _bins(GATED_REF_WINDOW[0] * edge_hz, b), _bins(GATED_REF_WINDOW[1] * edge_hz, b)
+    if tz - ta < 5 or rz - ra < 5 or tz > len(fe.p10_db):
+        return None
+    if float(np.median(fe.p10_db[ra:rz])) < floor_db + GATED_REF_ABOVE_FLOOR_DB:
+        return None
+    top = float(np.median(fe.p50_db[ta:tz] - fe.p10_db[ta:tz]))
+    ref = float(np.median(fe.p50_db[ra:rz] - fe.p10_db[ra:rz]))
+    return top - ref
+
+
+def _frame_gated(fe, info, out) -> bool:
+    """True when a cliff verdict's band end is gated frame by frame as a coder's is (:func:`frame_gated_spread_db`
+    at least :data:`GATED_MIN_EXTRA_SPREAD_DB`): a band limit, not a conversion.  Rewrites ``out`` as a band limit
+    then."""
+    if out.upsampled_from_hz is None or (out.evidence or "cliff") != "cliff" or out.brick:
+        return False
+    floor = format_floor_db(info.bit_depth, info.is_float, fe.frame_length)
+    edge = out.effective_bandwidth_hz
+    got = frame_gated_spread_db(fe, edge, floor)
+    if got is None or got < GATED_MIN_EXTRA_SPREAD_DB:
+        return False
+    out.upsampled_from_hz = out.confidence = out.edge_ratio = None
+    out.band_limit_hz = edge
+    out.note = (f"band-limited at {edge / 1000:.1f} kHz by a lossy coder: the band under the edge is empty in many "
+                f"frames (its quiet frames {got:.0f} dB further down than those of the band at half that frequency), "
+                "as a coder leaves the bands its bit budget does not reach, where a converter passes the programme "
+                "in every frame")
+    return True
+
+
 def _programme_above(fe, info, out) -> bool:
     """True when a cliff verdict has the programme going on above the old Nyquist in every frame
     (:func:`stop_band_content`) where no converter of its kind leaves anything but its floor: a low-pass, not a
@@ -1155,7 +1215,7 @@ def assess(fe, info) -> BandwidthResult:
             out.note = (f"converted up from {alone / 1000:g} kHz without a proper filter: the spectrum above "
                         f"{alone / 2000:g} kHz mirrors the content below it bin for bin (correlation {c:.2f})")
     claimed = out.upsampled_from_hz
-    vetoed = claimed if _programme_above(fe, info, out) else None
+    vetoed = claimed if (_programme_above(fe, info, out) or _frame_gated(fe, info, out)) else None
     # (a low-pass read as a lower bound is the low-pass the next rate up reads too: the channels and segments that
     # read that rate are cleared with it)
     vetoed_too = out.lower_bound_of if vetoed is not None else None
