@@ -726,3 +726,31 @@ def test_aliasing_message_irregular_sample_grid(extra, reason, sentence):
         assert msg.index(sentence) > msg.index("the spec does not allow this")
         assert "keeps some samples and drops others without a filter" in msg
         assert msg.endswith("with a proper resampler.")
+
+
+CLIP_REASON = ("892 runs of samples sit flat on the waveform's extreme value, entered and left by a large step: a "
+               "clipping curve evaluated at the sample instants, whose corners fold")
+
+
+def test_aliasing_message_clipped_at_the_files_rate():
+    # a clipper at the file's rate folds its harmonics (each flat top is a corner between two samples whose
+    # spectrum falls as 1/f**2 past the Nyquist frequency, analytic): the finding says so and advises clipping at
+    # an oversampled rate, not the synthesis or conversion advice
+    sp = spec(aliasing=[False])
+    detail = {"ceiling_flat_run_count": 892, "reason": CLIP_REASON}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"].message
+    assert msg == (
+        "Aliasing: folded (aliased) content found in this file; the spec does not allow this. The waveform sits flat "
+        "on its extreme value in 892 runs of samples, each entered and left by a large step: it was clipped or "
+        "saturated at the file's own rate, and the clipper's harmonics above 24 kHz fold back into the audible "
+        "band. Clip or saturate at an oversampled rate (or limit with a true-peak limiter instead), and render "
+        "again from the unclipped mix.")
+    # beside folded notes: both causes, the notes first, and both pieces of advice
+    detail = {"ceiling_flat_run_count": 40, "reason": CLIP_REASON, "frames_with_alias_lines": 3}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"].message
+    assert msg.index("The notes here") < msg.index("Also, the waveform sits flat on its extreme value in 40 runs")
+    assert msg.endswith("with a proper resampler. Clip or saturate at an oversampled rate, too.")
+    # a count the analyzer did not call evidence (no reason naming it) says nothing of clipping
+    detail = {"ceiling_flat_run_count": 3, "reason": "folded partials", "folded_partials": 1}
+    msg = run(sp, {"aliasing_detected": True, "aliasing_detail": detail}, rate=48000)[0]["sampling.aliasing"].message
+    assert "sits flat" not in msg and "oversampled rate" not in msg

@@ -350,13 +350,27 @@ def _aliasing_message(result: dict, m: dict, detail: dict, where: list, status: 
     grid = None if tonal or detail.get("folded_partials") or sharp else _grid_sentence(detail)
     if grid:
         sentences.append(grid)
+    clipped = detail.get("ceiling_flat_run_count") and "sit flat on the waveform's extreme value" in str(
+        detail.get("reason") or "")
+    if clipped:
+        earlier = tonal or bool(detail.get("folded_partials")) or bool(sharp) or bool(grid)
+        sentences.append(f"{'Also, the' if earlier else 'The'} waveform sits flat on its extreme value in "
+                         f"{int(detail['ceiling_flat_run_count'])} runs of samples, each entered and left by a "
+                         "large step: it was clipped or saturated at the file's own rate, and the clipper's "
+                         f"harmonics above {nyq} fold back into the audible band.")
     ratio = m.get("alias_to_harmonic_ratio_db")
     if ratio is not None:
         sentences.append(f"The folded partials are {float(ratio):.1f} dB relative to the harmonics.")
+    if clipped and not (tonal or detail.get("folded_partials") or sharp or grid):
+        sentences.append("Clip or saturate at an oversampled rate (or limit with a true-peak limiter instead), "
+                         "and render again from the unclipped mix.")
+        return " ".join(sentences)
     sentences.append("A synthesiser voice generated without band limiting does this, and so does a rate "
                      "conversion that dropped samples without an anti-alias filter. Re-render the voice with its "
                      "oscillators' anti-aliasing on, or at a higher internal rate; or redo the conversion from the "
                      "original with a proper resampler.")
+    if clipped:
+        sentences.append("Clip or saturate at an oversampled rate, too.")
     return " ".join(sentences)
 
 

@@ -85,7 +85,7 @@ reflected partial costs about a tenth of the full analysis.
 Frames with no note are not assessable: noise-like material carries no evidence of
 its own folding, so it is never flagged.  ``aliasing_assessable_fraction`` is the
 share of the polyphonic frames in which at least one note had testable fold
-positions or a line grid had a testable reflection, or the share of the jump-test frames with sample-sharp jumps, whichever is larger.
+positions or a line grid had a testable reflection, or the share of the jump-test frames with sample-sharp jumps, whichever is larger; it is 1 where the flat-top test (which reads every sample) finds a clipping curve at the file's rate.
 
 ``alias_to_harmonic_ratio_db`` (called ``aliasing_score`` up to 0.1.0) is the
 alias-to-harmonic energy ratio in dB, quoted only when folded content was found:
@@ -2254,7 +2254,11 @@ class AliasingAnalyzer(Analyzer):
             else:
                 detail["reason"] = (f"no folded partials found: in {evident_n} of {instances} note instances "
                                     f"the predicted fold positions stand out, about {chance:.0f} expected by chance")
-        if assessable and fraction is not None:
+        if ceiling_hit:
+            # the flat-top test reads every sample of the file, so the whole file was assessed for it
+            fraction = 1.0
+            detail["reason"] += " (the flat-top test reads every sample of the file)"
+        elif assessable and fraction is not None:
             detail["reason"] += (f" (folding could be tested in {100.0 * fraction:.0f} % of the frames analysed over "
                                  "the file)")
         detail["where_s"] = _merge(detail["where_s"])
