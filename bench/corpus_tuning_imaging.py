@@ -483,16 +483,21 @@ def poly_convert(x: np.ndarray, src: int, dst: int, window: str, taps: int, beta
     return at_instants(x, src, dst, taps, phases, lambda t: window_kernel(window, taps, beta, cutoff, t))
 
 
+def _judged_band_and_kernel_grid(x: np.ndarray, src: int, taps: int):
+    """The material's power spectrum (Welch, 100 Hz bins) over the judged band, 0.3-0.7 of the source Nyquist
+    frequency, as ``(f, p)``; the kernel's time grid of 1/512 sample over its ``taps`` taps, ``t``; and 512."""
+    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 100))
+    sel = (f >= 0.3 * src / 2) & (f <= 0.7 * src / 2)
+    over = 512
+    return f[sel], p[sel], np.arange(-(taps // 2) * over, (taps // 2) * over + 1) / over, over
+
+
 def poly_image_level_db(window: str, taps: int, beta: float, cutoff: float, phases, src: int, x: np.ndarray) -> float:
     """The house definition's level (dB) for the bank: the first images (at ``src - f``) of the content at 0.3-0.7
     of the source Nyquist frequency relative to that content through the kernel's continuous response (its Fourier
     transform summed on a grid of 1/512 sample), plus for a nearest-phase bank the hold's images
     ``(f / (phases * src - f))**2``; power-weighted by the material's own spectrum (Welch, 100 Hz bins)."""
-    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 100))
-    sel = (f >= 0.3 * src / 2) & (f <= 0.7 * src / 2)
-    f, p = f[sel], p[sel]
-    over = 512
-    t = np.arange(-(taps // 2) * over, (taps // 2) * over + 1) / over
+    f, p, t, over = _judged_band_and_kernel_grid(x, src, taps)
     h = window_kernel(window, taps, beta, cutoff, t)
     resp = (lambda fr: np.abs(np.exp(-2j * np.pi * np.outer(fr, t)) @ h) / over)
     ratio = (resp((src - f) / src) / resp(f / src)) ** 2
@@ -674,11 +679,7 @@ def kaiser_bank_image_level_db(taps: int, beta: float, cutoff: float, phases: in
     ``sum_q H(f + q P src)``.  A kernel truncated where it is not zero (a Kaiser window's edges under a sinc whose
     zeros are not at whole samples) has a response whose tail falls only as ``1/f``, so these alias terms move the
     level by several dB near the line."""
-    f, p = sps.welch(np.sum(np.atleast_2d(x.T), axis=0), fs=src, nperseg=int(src // 100))
-    sel = (f >= 0.3 * src / 2) & (f <= 0.7 * src / 2)
-    f, p = f[sel], p[sel]
-    over = 512
-    t = np.arange(-(taps // 2) * over, (taps // 2) * over + 1) / over
+    f, p, t, over = _judged_band_and_kernel_grid(x, src, taps)
     h = kaiser_bank_kernel(taps, beta, cutoff, phases, t)
     resp = (lambda fr: np.exp(-2j * np.pi * np.outer(fr, t)) @ h / over)
     big_p = Fraction(dst, src).numerator

@@ -1848,10 +1848,8 @@ def _plan_high_ratio_and_short_sinc(seed: int, quick: bool):
 
 def build_high_ratio_and_short_sinc(spec, rng, seconds):
     if spec[0] == "highratio":
-        _k, src, dst, kind, p, atten, mat, ch, level = spec
-        x = set_rms(multichannel(mat, src, ch, seconds, rng), level)
-        y = np.stack([steep_convert(x[:, c], src, dst, p, atten, kind == "minphase") for c in range(ch)], axis=1)
-        return dst, y, {"upsampled_from_hz": src}, default_labels(ch)
+        # the steep designs of group "upsampled-steep", built the same way
+        return build_steep_and_low_narrow(("steep",) + tuple(spec[1:]), rng, seconds)
     _k, src, dst, beta, mat, ch, level = spec
     x = set_rms(np.stack([imaging_material(mat, src, seconds, rng) for _ in range(ch)], axis=1), level)
     y = np.stack([leaky_upsample(x[:, c], src, dst, 4, 1.0, beta) for c in range(ch)], axis=1)
