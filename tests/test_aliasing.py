@@ -1202,3 +1202,37 @@ def test_a_hard_clipper_at_the_files_rate_is_folded_and_its_oversampled_twin_is_
     assert naive["aliasing_detail"]["ceiling_flat_run_count"] >= al.CEILING_MIN_PLATEAUS
     assert twin["aliasing_detected"] is not True
     assert twin["aliasing_detail"]["ceiling_flat_run_count"] == 0
+
+
+def _flat_top_count(x: np.ndarray, block: int, lsb: float, reuse: bool = False) -> int:
+    """The analyzer's flat-top count of ``x`` fed in blocks of ``block`` frames; ``reuse``: each block's memory is
+    overwritten after it is handed over, as a reader that recycles its buffer would."""
+    a = al.AliasingAnalyzer.__new__(al.AliasingAnalyzer)
+    a.ceiling_lsb, a.ceiling_blocks, a.ceiling_seen, a.ceiling_buffer, a.ceiling_buffered = lsb, [], None, [], 0
+    for s in range(0, x.shape[0], block):
+        b = x[s:s + block].copy()
+        a._ceiling(b)
+        if reuse:
+            b[:] = 0.25
+    return a._ceiling_count()
+
+
+@pytest.mark.parametrize("block", [65536, 48000, 100000, 4096])
+def test_flat_tops_counted_in_whole_chunks_whatever_the_block_and_chunks_inside_the_extremes_passed_over(block):
+    # analytic: a 1 kHz sine at 48 kHz clipped at +-0.5 sits on each ceiling for 5 samples twice a period (see
+    # above), 1000 runs per side per second; 3 s of it, then 3 s of the same sine at half the level (its extremes
+    # lie inside the ceilings, so those chunks are passed over), then 1 s clipped again: 4000 runs per side
+    fs = 48000
+    loud = _clipped_sine(fs, 1000.0, 3.0, 0.5)
+    quiet = 0.2 * np.sin(2 * math.pi * 1000.0 * np.arange(3 * fs) / fs)
+    x = np.concatenate([loud, quiet, _clipped_sine(fs, 1000.0, 1.0, 0.5)])
+    x = np.stack([x, -x], axis=1)                           # two channels, each with both ceilings
+    lsb = 2.0 ** -23
+    # a run touching a chunk's edge is not counted (its entry or exit lies in the next chunk): at most one per
+    # chunk edge and side is lost
+    edges = x.shape[0] // al.CEILING_CHUNK
+    got = _flat_top_count(x, block, lsb)
+    assert 2 * 2 * 4000 - 2 * 2 * edges <= got <= 2 * 2 * 4000
+    assert got == _flat_top_count(x, 65536, lsb)
+    # a part chunk kept between blocks is the analyzer's own copy
+    assert _flat_top_count(x, block, lsb, reuse=True) == got

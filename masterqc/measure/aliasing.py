@@ -1810,26 +1810,43 @@ class AliasingAnalyzer(Analyzer):
 
     def _ceiling(self, block, final: bool = False) -> None:
         """Feeds the flat-top test: the stream is cut into chunks of CEILING_CHUNK samples (the same whatever the
-        block size), each counted by :meth:`_ceiling_chunk`; ``final``: the rest is counted too."""
+        block size), each counted by :meth:`_ceiling_chunk`; ``final``: the rest is counted too.  A chunk whose
+        highest and lowest samples over all channels lie more than q inside every channel's extremes seen so far
+        cannot count (:meth:`_ceiling_chunk` would find no side to count and move no extreme), so it is passed over
+        on those two whole-chunk figures, without being split into channel rows."""
         if block is not None:
             b = np.asarray(block)
             if b.ndim == 1:
                 b = b[:, None]
-            self.ceiling_buffer.append(np.ascontiguousarray(b.T))   # one row per channel
+            self.ceiling_buffer.append(b)
             self.ceiling_buffered += b.shape[0]
         if self.ceiling_buffered < CEILING_CHUNK and not (final and self.ceiling_buffered):
+            if block is not None:
+                self.ceiling_buffer[-1] = np.array(self.ceiling_buffer[-1])   # the engine may reuse its block
             return
-        rows = np.concatenate(self.ceiling_buffer, axis=1) if len(self.ceiling_buffer) > 1 else self.ceiling_buffer[0]
+        frames = np.concatenate(self.ceiling_buffer, axis=0) if len(self.ceiling_buffer) > 1 else self.ceiling_buffer[0]
         done = 0
-        while rows.shape[1] - done >= CEILING_CHUNK:
-            self._ceiling_chunk(rows[:, done:done + CEILING_CHUNK])
+        while frames.shape[0] - done >= CEILING_CHUNK:
+            self._ceiling_frames(frames[done:done + CEILING_CHUNK])
             done += CEILING_CHUNK
-        if final and rows.shape[1] > done:
-            self._ceiling_chunk(rows[:, done:])
-            done = rows.shape[1]
-        rest = rows[:, done:]
-        self.ceiling_buffer = [rest] if rest.shape[1] else []
-        self.ceiling_buffered = rest.shape[1]
+        if final and frames.shape[0] > done:
+            self._ceiling_frames(frames[done:])
+            done = frames.shape[0]
+        rest = frames[done:]
+        # the part chunk is kept as a copy: the engine may reuse its block's memory
+        self.ceiling_buffer = [np.array(rest)] if rest.shape[0] else []
+        self.ceiling_buffered = rest.shape[0]
+
+    def _ceiling_frames(self, chunk) -> None:
+        """One chunk (frames by channels) for :meth:`_ceiling_chunk`, or passed over (see :meth:`_ceiling`)."""
+        seen = self.ceiling_seen
+        if seen is not None and chunk.shape[0] >= CEILING_MIN_RUN + 2:
+            top, bottom = float(chunk.max()), float(chunk.min())
+            # q grows with the level, so q at the extreme seen bounds q at any sample inside it
+            if all(top < hi - ceiling_tolerance(hi, self.ceiling_lsb) and bottom > lo + ceiling_tolerance(lo, self.ceiling_lsb)
+                   for hi, lo in seen):
+                return
+        self._ceiling_chunk(np.ascontiguousarray(chunk.T))   # one row per channel
 
     def _ceiling_chunk(self, b) -> None:
         """The flat-top test's counts on one chunk (channel rows; see :func:`ceiling_plateaus`); a side whose chunk
