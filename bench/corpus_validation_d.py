@@ -105,7 +105,6 @@ import subprocess
 import sys
 import tempfile
 import time
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterator
 
@@ -114,12 +113,13 @@ from scipy import fft as sfft
 from scipy import signal
 from scipy.ndimage import uniform_filter1d
 
-SET_NAME = "validation"
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+# the shared case format, its constants and the helpers set D uses unchanged, as set C defines them
+from corpus_validation_c import (  # noqa: E402
+    CHANNEL_LABELS, LFE_INDEX, PEAK_MAX, SET_NAME, STANDARD_RATES_HZ, Case, _db, _energy, _fit, _khz, _labels, _mid,
+    _run, band_energy, band_split, set_level, steep_near_rates)
+
 SEED_RANGE = range(8000, 9000)
-STANDARD_RATES_HZ = (8000, 11025, 16000, 22050, 24000, 32000, 44100, 48000, 88200, 96000, 176400, 192000)
-CHANNEL_LABELS = {1: ["M"], 2: ["L", "R"], 6: ["L", "R", "C", "LFE", "Ls", "Rs"]}
-LFE_INDEX = 3
-PEAK_MAX = 0.98
 MAX_SAMPLES = 1_600_000           # frames x channels per case (house choice: keeps a seed to a few minutes)
 
 # label thresholds (house choices, the same meaning as in the earlier validation sets)
@@ -161,20 +161,6 @@ def _julius_ok() -> bool:
     return _HAVE["julius"]
 
 
-@dataclass
-class Case:
-    name: str
-    set: str
-    family: str
-    group: str
-    rate_hz: int
-    audio: np.ndarray
-    expect: dict
-    channel_labels: list[str] | None = None
-    facts: dict = field(default_factory=dict)   # measured construction facts (not read by the scorer)
-    note: str = ""
-
-
 def print_versions(stream=sys.stdout) -> dict:
     """Print (and return) the versions of the tools this corpus runs."""
     v = {"numpy": np.__version__, "scipy": __import__("scipy").__version__}
@@ -201,46 +187,6 @@ def print_versions(stream=sys.stdout) -> dict:
 # measurement helpers (the construction facts)
 # ------------------------------------------------------------------------------------------------------------
 
-def _mid(x: np.ndarray, rate: int, edge_s: float = 0.2) -> np.ndarray:
-    m = int(edge_s * rate)
-    return x[m:x.shape[0] - m] if x.shape[0] > 4 * m else x
-
-
-def _db(a: float, b: float) -> float:
-    return 10.0 * math.log10(max(a, 1e-30) / max(b, 1e-30))
-
-
-def _energy(x: np.ndarray) -> float:
-    return float(np.sum(np.square(x, dtype=np.float64)))
-
-
-def _fit(x: np.ndarray, n: int) -> np.ndarray:
-    if x.shape[0] >= n:
-        return x[:n]
-    return np.concatenate([x, np.zeros((n - x.shape[0],) + x.shape[1:])], axis=0)
-
-
-def set_level(x: np.ndarray, level_db: float) -> tuple[np.ndarray, float]:
-    """Scale to level_db dBFS RMS over all channels, then down if the peak passes PEAK_MAX."""
-    rms = math.sqrt(max(_energy(x) / x.size, 1e-30))
-    y = x * (10 ** (level_db / 20) / rms)
-    pk = float(np.max(np.abs(y)))
-    if pk > PEAK_MAX:
-        y *= PEAK_MAX / pk
-    return y, 20 * math.log10(math.sqrt(_energy(y) / y.size))
-
-
-def band_split(x: np.ndarray, rate: int, cut_hz: float) -> tuple[np.ndarray, np.ndarray]:
-    """Brick-wall split along frames in the FFT domain: (below cut_hz, above cut_hz)."""
-    n = x.shape[0]
-    m = sfft.next_fast_len(n, real=True)
-    X = sfft.rfft(x, m, axis=0)
-    f = np.fft.rfftfreq(m, 1.0 / rate)
-    hi = X.copy()
-    X[f >= cut_hz] = 0
-    hi[f < cut_hz] = 0
-    return sfft.irfft(X, m, axis=0)[:n], sfft.irfft(hi, m, axis=0)[:n]
-
 
 def psd(x: np.ndarray, rate: int, df_hz: float = 25.0) -> tuple[np.ndarray, np.ndarray]:
     """Welch periodogram (Hann, half overlap, density per Hz) summed over channels, bins about df_hz apart."""
@@ -250,11 +196,6 @@ def psd(x: np.ndarray, rate: int, df_hz: float = 25.0) -> tuple[np.ndarray, np.n
     nper = min(nper, 1 << int(math.log2(max(256, x.shape[0]))))
     f, p = signal.welch(x, fs=rate, window="hann", nperseg=nper, noverlap=nper // 2, axis=0, detrend=False)
     return f, p.sum(axis=1)
-
-
-def band_energy(f: np.ndarray, p: np.ndarray, lo: float, hi: float) -> float:
-    m = (f >= lo) & (f < hi)
-    return float(p[m].sum())
 
 
 def image_db(y: np.ndarray, rate: int, src_rate: int) -> float:
@@ -302,14 +243,6 @@ def response_points(h_imp: np.ndarray, rate: int) -> tuple[float, float]:
     i3 = np.nonzero((w > 1000) & (hdb < -3))[0]
     i40 = np.nonzero((w > 1000) & (hdb < -40))[0]
     return (float(w[i3[0]]) if i3.size else rate / 2), (float(w[i40[0]]) if i40.size else rate / 2)
-
-
-def steep_near_rates(f3_hz: float, f40_hz: float, rate: int) -> tuple[bool, list[int]]:
-    """Steep: -3 dB to -40 dB within 12 % of the edge; near: lower standard rates whose Nyquist lies within
-    0.80-1.05 of that edge (where a converter's cliff could sit)."""
-    steep = (f40_hz - f3_hz) / f3_hz < 0.12
-    near = [r for r in STANDARD_RATES_HZ if r < rate and 0.80 <= f3_hz / (r / 2) <= 1.05]
-    return bool(steep), near
 
 
 def spectrum_edge_frac(y: np.ndarray, rate: int, src_rate: int, drop_db: float = 30.0) -> float:
@@ -490,12 +423,6 @@ def material(kind: str, n: int, rate: int, channels: int, rng: np.random.Generat
 # ------------------------------------------------------------------------------------------------------------
 # tools
 # ------------------------------------------------------------------------------------------------------------
-
-def _run(cmd: list[str], data: bytes | None = None) -> bytes:
-    p = subprocess.run(cmd, input=data, capture_output=True)
-    if p.returncode != 0:
-        raise RuntimeError(f"{' '.join(cmd)} failed: {p.stderr.decode(errors='replace')[-400:]}")
-    return p.stdout
 
 
 def gst_pipe(x: np.ndarray, rate: int, out_rate: int, element: list[str]) -> np.ndarray:
@@ -908,17 +835,9 @@ def _family_ok(p: dict) -> bool:
     return all(have[k]() for k in _needs(p))
 
 
-def _labels(ch: int) -> list[str]:
-    return list(CHANNEL_LABELS.get(ch, [f"ch{i + 1}" for i in range(ch)]))
-
-
 def _name(seed: int, p: dict, *parts) -> str:
     s = "-".join([f"d{seed}", f"{p['idx']:03d}", *[str(x) for x in parts if x not in (None, "")]])
     return re.sub(r"[^a-z0-9_-]+", "", s.lower().replace(".", "_"))
-
-
-def _khz(r: int) -> str:
-    return f"{r / 1000:g}k".replace(".", "_")
 
 
 def up_convert(x: np.ndarray, rate: int, out_rate: int, chain: dict) -> np.ndarray:
