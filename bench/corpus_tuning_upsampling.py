@@ -1748,9 +1748,8 @@ def _plan_lines(seed: int, quick: bool):
     rng = np.random.default_rng([int(seed), 37])
     plan = []
     pick = _picker(rng)
-    for fi, family in enumerate(LINES_FAMILIES):
-        sources = LINES_SOURCES_HZ if not quick else LINES_SOURCES_HZ[fi % 3::3]
-        for src in sources:
+    for family in LINES_FAMILIES:
+        for src in LINES_SOURCES_HZ:
             dst = pick([r for r in STANDARD_RATES_HZ if r > src and r >= 44100])
             p = pick(STEEP_PASS_RATIOS)
             ch = pick([1, 2])
